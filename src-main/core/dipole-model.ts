@@ -61,7 +61,7 @@ export interface DipoleResult {
   atomAlpha: Float64Array;
   /** Cell volume (Å³), null for an open cluster. */
   volumeA3: number | null;
-  /** Conjugate-gradient iterations, summed over the three fields. */
+  /** Conjugate-gradient iterations (the three fields are solved together). */
   iterations: number;
   ewald: EwaldParameters | null;
 }
@@ -96,7 +96,7 @@ function addDampedTensor(x: number, y: number, z: number, scale: number, a: numb
   out[at + 5] += c * y * z;
 }
 
-/** Adds ΔT = T_damped − T_bare (see header) when it is above 1e−20 relative; returns whether it was added. */
+/** Adds ΔT = T_damped − T_bare (see header) unless it is below 1e−20 relative. */
 function addTholeCorrection(x: number, y: number, z: number, scale: number, a: number, out: Float64Array, at: number): void {
   const r2 = x * x + y * y + z * z;
   const r = Math.sqrt(r2);
@@ -142,46 +142,63 @@ export function atomPolarisabilities(frame: Frame, model: DipoleModel, where: Wh
   return out;
 }
 
-/** The field operator out = T μ of one frame and boundary (pairs, self term, reciprocal part, surface term). */
+/**
+ * The field operator out = T μ of one frame and boundary (pairs, self term, reciprocal part, surface term),
+ * applied to the three fields at once: vectors hold 9 values per atom, index 9i + 3c + r for Cartesian
+ * component c of the dipole induced by the unit field along r (one pass over the pair and k tables).
+ */
 interface FieldOperator {
   apply(mu: Float64Array, out: Float64Array): void;
 }
 
-/** Directed pair tensors: field at pairI from pairJ is T μ_j with T stored as [xx, yy, zz, xy, xz, yz]. */
+/** Pair tensors [xx, yy, zz, xy, xz, yz]. With symmetric: the pair acts both ways (out_i += T μ_j and
+ * out_j += T μ_i, T(−r) = T(r)); otherwise one way only (an atom and its own periodic images). */
 interface PairTensors {
   i: Int32Array;
   j: Int32Array;
   t: Float64Array;
+  symmetric: boolean;
+}
+
+function makePairs(i: number[], j: number[], t: number[], symmetric: boolean): PairTensors {
+  return { i: Int32Array.from(i), j: Int32Array.from(j), t: Float64Array.from(t), symmetric };
 }
 
 function applyPairs(p: PairTensors, mu: Float64Array, out: Float64Array): void {
   const { i: pi, j: pj, t } = p;
   for (let q = 0; q < pi.length; q++) {
-    const i = 3 * pi[q], j = 3 * pj[q], o = 6 * q;
-    const mx = mu[j], my = mu[j + 1], mz = mu[j + 2];
-    out[i] += t[o] * mx + t[o + 3] * my + t[o + 4] * mz;
-    out[i + 1] += t[o + 3] * mx + t[o + 1] * my + t[o + 5] * mz;
-    out[i + 2] += t[o + 4] * mx + t[o + 5] * my + t[o + 2] * mz;
+    const i = 9 * pi[q], j = 9 * pj[q], o = 6 * q;
+    const xx = t[o], yy = t[o + 1], zz = t[o + 2], xy = t[o + 3], xz = t[o + 4], yz = t[o + 5];
+    for (let r = 0; r < 3; r++) {
+      const mx = mu[j + r], my = mu[j + 3 + r], mz = mu[j + 6 + r];
+      out[i + r] += xx * mx + xy * my + xz * mz;
+      out[i + 3 + r] += xy * mx + yy * my + yz * mz;
+      out[i + 6 + r] += xz * mx + yz * my + zz * mz;
+      if (p.symmetric) {
+        const nx = mu[i + r], ny = mu[i + 3 + r], nz = mu[i + 6 + r];
+        out[j + r] += xx * nx + xy * ny + xz * nz;
+        out[j + 3 + r] += xy * nx + yy * ny + yz * nz;
+        out[j + 6 + r] += xz * nx + yz * ny + zz * nz;
+      }
+    }
   }
 }
 
-function openOperator(frame: Frame, alpha: Float64Array, a: number | null): FieldOperator {
+function openOperator(frame: Frame, alpha: Float64Array, a: number | null, where: Where): FieldOperator {
   const n = alpha.length;
   const pos = frame.positions;
-  const count = n * (n - 1);
-  const pairs: PairTensors = { i: new Int32Array(count), j: new Int32Array(count), t: new Float64Array(6 * count) };
-  let q = 0;
+  const pi: number[] = [], pj: number[] = [], t: number[] = [];
+  const six = new Float64Array(6);
   for (let i = 0; i < n; i++) {
-    for (let j = 0; j < n; j++) {
-      if (i === j) continue;
+    for (let j = i + 1; j < n; j++) {
       const x = pos[3 * j] - pos[3 * i], y = pos[3 * j + 1] - pos[3 * i + 1], z = pos[3 * j + 2] - pos[3 * i + 2];
-      if (x * x + y * y + z * z === 0) throw new InputError(`atoms ${i + 1} and ${j + 1} sit on the same point`, {}, 'check the structure');
-      pairs.i[q] = i;
-      pairs.j[q] = j;
-      addDampedTensor(x, y, z, Math.pow(alpha[i] * alpha[j], 1 / 6), a, pairs.t, 6 * q);
-      q++;
+      if (x * x + y * y + z * z === 0) throw new InputError(`atoms ${i + 1} and ${j + 1} sit on the same point`, where, 'check the structure');
+      six.fill(0);
+      addDampedTensor(x, y, z, Math.pow(alpha[i] * alpha[j], 1 / 6), a, six, 0);
+      pi.push(i); pj.push(j); t.push(...six);
     }
   }
+  const pairs = makePairs(pi, pj, t, true);
   return { apply: (mu, out) => { out.fill(0); applyPairs(pairs, mu, out); } };
 }
 
@@ -209,33 +226,39 @@ function periodicOperator(
     ewald = ewaldParameters(cell, { ...options, cutoff: tholeRange });
   }
   const list = neighbourList(frame, ewald.cutoff);
-  const m = list.neighbour.length;
-  const pairs: PairTensors = { i: new Int32Array(m), j: new Int32Array(m), t: new Float64Array(6 * m) };
+  // The list holds every pair both ways: keep i < j once (applied both ways) and an atom's own images one way.
+  const between = { i: [] as number[], j: [] as number[], t: [] as number[] };
+  const images = { i: [] as number[], j: [] as number[], t: [] as number[] };
+  const six = new Float64Array(6);
   for (let i = 0; i < n; i++) {
     for (let q = list.start[i]; q < list.start[i + 1]; q++) {
       const j = list.neighbour[q];
+      if (j < i) continue;
       const x = list.vectors[3 * q], y = list.vectors[3 * q + 1], z = list.vectors[3 * q + 2];
       if (list.distances[q] === 0) {
         throw new InputError(`atoms ${i + 1} and ${j + 1} sit on the same point (periodic image)`, where, 'check the structure');
       }
-      pairs.i[q] = i;
-      pairs.j[q] = j;
-      addRealSpaceTensor(x, y, z, ewald.beta, pairs.t, 6 * q);
-      if (a !== null) addTholeCorrection(x, y, z, Math.pow(alpha[i] * alpha[j], 1 / 6), a, pairs.t, 6 * q);
+      six.fill(0);
+      addRealSpaceTensor(x, y, z, ewald.beta, six, 0);
+      if (a !== null) addTholeCorrection(x, y, z, Math.pow(alpha[i] * alpha[j], 1 / 6), a, six, 0);
+      const into = j === i ? images : between;
+      into.i.push(i); into.j.push(j);
+      for (let c = 0; c < 6; c++) into.t.push(six[c]);
     }
   }
+  const pairs = [makePairs(between.i, between.j, between.t, true), makePairs(images.i, images.j, images.t, false)];
   const recip = new ReciprocalOperator(reciprocalSum(cell, ewald.beta, ewald.kmax), frame.positions, n);
   const self = selfCoefficient(ewald.beta);
   const surface = boundary === 'sphere' ? (-4 * Math.PI) / (3 * volume) : 0;
   const op: FieldOperator = {
     apply(mu, out) {
-      for (let k = 0; k < 3 * n; k++) out[k] = self * mu[k];
-      applyPairs(pairs, mu, out);
+      for (let k = 0; k < 9 * n; k++) out[k] = self * mu[k];
+      for (const p of pairs) applyPairs(p, mu, out);
       recip.addTo(mu, out);
       if (surface !== 0) {
-        let sx = 0, sy = 0, sz = 0;
-        for (let i = 0; i < n; i++) { sx += mu[3 * i]; sy += mu[3 * i + 1]; sz += mu[3 * i + 2]; }
-        for (let i = 0; i < n; i++) { out[3 * i] += surface * sx; out[3 * i + 1] += surface * sy; out[3 * i + 2] += surface * sz; }
+        const total = new Float64Array(9);
+        for (let i = 0; i < n; i++) for (let k = 0; k < 9; k++) total[k] += mu[9 * i + k];
+        for (let i = 0; i < n; i++) for (let k = 0; k < 9; k++) out[9 * i + k] += surface * total[k];
       }
     },
   };
@@ -267,33 +290,26 @@ export function cellPolarisability(frame: Frame, model: DipoleModel, options: So
   let op: FieldOperator;
   let ewald: EwaldParameters | null = null;
   let volume: number | null = null;
-  if (boundary === 'open') op = openOperator(frame, alpha, model.thole);
+  if (boundary === 'open') op = openOperator(frame, alpha, model.thole, where);
   else ({ op, ewald, volume } = periodicOperator(frame, alpha, model.thole, boundary, options, where));
 
   const tol = options.tolerance ?? 1e-11;
   const maxIt = options.maxIterations ?? Math.max(200, 3 * n);
-  const atomAlpha = new Float64Array(9 * n);
+  // Right-hand sides: unit fields along x, y, z (index 9i + 3c + r is 1 when c = r).
+  const rhs = new Float64Array(9 * n);
+  for (let i = 0; i < n; i++) for (let r = 0; r < 3; r++) rhs[9 * i + 4 * r] = 1;
+  const { x, iterations } = solveCg(op, alpha, rhs, tol, maxIt, where);
   const cellAlpha = new Float64Array(9);
-  let iterations = 0;
-  const rhs = new Float64Array(3 * n);
-  for (let k = 0; k < 3; k++) {
-    rhs.fill(0);
-    for (let i = 0; i < n; i++) rhs[3 * i + k] = 1;
-    const { x, iterations: it } = solveCg(op, alpha, rhs, tol, maxIt, where);
-    iterations += it;
-    for (let i = 0; i < n; i++) {
-      for (let c = 0; c < 3; c++) {
-        atomAlpha[9 * i + 3 * c + k] = x[3 * i + c];
-        cellAlpha[3 * c + k] += x[3 * i + c];
-      }
-    }
-  }
+  for (let i = 0; i < n; i++) for (let k = 0; k < 9; k++) cellAlpha[k] += x[9 * i + k];
   const sym = new Float64Array(9);
   for (let r = 0; r < 3; r++) for (let c = 0; c < 3; c++) sym[3 * r + c] = 0.5 * (cellAlpha[3 * r + c] + cellAlpha[3 * c + r]);
-  return { boundary, alpha: sym, atomAlpha, volumeA3: volume, iterations, ewald };
+  return { boundary, alpha: sym, atomAlpha: x, volumeA3: volume, iterations, ewald };
 }
 
-/** Preconditioned conjugate gradients on M = A⁻¹ − T with preconditioner A (diagonal). */
+/**
+ * Preconditioned conjugate gradients on M = A⁻¹ − T with preconditioner A (diagonal), three independent
+ * systems in lockstep (separate scalars per field r; a converged system stops moving).
+ */
 function solveCg(op: FieldOperator, alpha: Float64Array, b: Float64Array, tol: number, maxIt: number, where: Where): { x: Float64Array; iterations: number } {
   const m = b.length;
   const x = new Float64Array(m);
@@ -301,37 +317,43 @@ function solveCg(op: FieldOperator, alpha: Float64Array, b: Float64Array, tol: n
   const z = new Float64Array(m);
   const p = new Float64Array(m);
   const q = new Float64Array(m);
-  const precondition = (): void => { for (let k = 0; k < m; k++) z[k] = alpha[(k / 3) | 0] * r[k]; };
-  const bnorm = Math.sqrt(dot(b, b));
+  const dot3 = (u: Float64Array, v: Float64Array): number[] => {
+    const s = [0, 0, 0];
+    for (let k = 0; k < m; k += 3) { s[0] += u[k] * v[k]; s[1] += u[k + 1] * v[k + 1]; s[2] += u[k + 2] * v[k + 2]; }
+    return s;
+  };
+  const precondition = (): void => { for (let k = 0; k < m; k++) z[k] = alpha[(k / 9) | 0] * r[k]; };
+  const bnorm = dot3(b, b).map(Math.sqrt);
+  const done = [false, false, false];
   precondition();
   p.set(z);
-  let rz = dot(r, z);
+  let rz = dot3(r, z);
   for (let it = 1; it <= maxIt; it++) {
     op.apply(p, q);
-    for (let k = 0; k < m; k++) q[k] = p[k] / alpha[(k / 3) | 0] - q[k];
-    const pq = dot(p, q);
-    if (!(pq > 0)) {
-      throw new PhysicsError(
-        'polarisation catastrophe: the induced-dipole equations have no stable solution (A⁻¹ − T is not positive definite) — atoms are too close for their polarisabilities; use stronger damping (smaller Thole a) or smaller polarisabilities',
-        where,
-      );
+    for (let k = 0; k < m; k++) q[k] = p[k] / alpha[(k / 9) | 0] - q[k];
+    const pq = dot3(p, q);
+    const step = [0, 0, 0];
+    for (let f = 0; f < 3; f++) {
+      if (done[f]) continue;
+      if (!(pq[f] > 0)) {
+        throw new PhysicsError(
+          'polarisation catastrophe: the induced-dipole equations have no stable solution (A⁻¹ − T is not positive definite) — atoms are too close for their polarisabilities; use stronger damping (smaller Thole a) or smaller polarisabilities',
+          where,
+        );
+      }
+      step[f] = rz[f] / pq[f];
     }
-    const step = rz / pq;
-    for (let k = 0; k < m; k++) { x[k] += step * p[k]; r[k] -= step * q[k]; }
-    if (Math.sqrt(dot(r, r)) <= tol * bnorm) return { x, iterations: it };
+    for (let k = 0; k < m; k++) { const s = step[k % 3]; x[k] += s * p[k]; r[k] -= s * q[k]; }
+    const rr = dot3(r, r);
+    for (let f = 0; f < 3; f++) if (Math.sqrt(rr[f]) <= tol * bnorm[f]) done[f] = true;
+    if (done[0] && done[1] && done[2]) return { x, iterations: it };
     precondition();
-    const rzNew = dot(r, z);
-    const beta = rzNew / rz;
+    const rzNew = dot3(r, z);
+    const beta = [0, 1, 2].map((f) => (done[f] ? 0 : rzNew[f] / rz[f]));
     rz = rzNew;
-    for (let k = 0; k < m; k++) p[k] = z[k] + beta * p[k];
+    for (let k = 0; k < m; k++) { const f = k % 3; p[k] = done[f] ? 0 : z[k] + beta[f] * p[k]; }
   }
   throw new PhysicsError(`induced dipoles did not converge in ${maxIt} iterations (close to the polarisation catastrophe?)`, where);
-}
-
-function dot(a: Float64Array, b: Float64Array): number {
-  let s = 0;
-  for (let k = 0; k < a.length; k++) s += a[k] * b[k];
-  return s;
 }
 
 export interface ReferenceTensors {
@@ -365,8 +387,8 @@ export function referenceTensors(frame: Frame, model: DipoleModel, options: Solv
     alphaCM = sph.alpha;
     iterations += sph.iterations;
   } else {
-    alphaCM = convertTensor(cond.alpha, 'alpha-c', 'alpha-cm', volume);
+    alphaCM = convertTensor(cond.alpha, 'alpha-c', 'alpha-cm', volume, where);
   }
-  const eps = convertTensor(cond.alpha, 'alpha-c', 'eps', volume);
+  const eps = convertTensor(cond.alpha, 'alpha-c', 'eps', volume, where);
   return { volumeA3: volume, alphaC: cond.alpha, alphaCM, eps, iterations };
 }

@@ -151,6 +151,7 @@ export class ReciprocalOperator {
     }
   }
 
+  /** For three dipole fields at once, interleaved as index 9i + 3c + r (see dipole-model.ts). */
   addTo(mu: Float64Array, out: Float64Array): void {
     const n = this.atoms;
     const { k, weight, count } = this.sum;
@@ -158,18 +159,24 @@ export class ReciprocalOperator {
     for (let q = 0; q < count; q++) {
       const kx = k[3 * q], ky = k[3 * q + 1], kz = k[3 * q + 2];
       const base = q * n;
-      let sc = 0, ss = 0;
+      let c0 = 0, c1 = 0, c2 = 0, s0 = 0, s1 = 0, s2 = 0;
       for (let j = 0; j < n; j++) {
-        const kmu = kx * mu[3 * j] + ky * mu[3 * j + 1] + kz * mu[3 * j + 2];
-        sc += kmu * cos[base + j];
-        ss += kmu * sin[base + j];
+        const o = 9 * j;
+        const cj = cos[base + j], sj = sin[base + j];
+        const k0 = kx * mu[o] + ky * mu[o + 3] + kz * mu[o + 6];
+        const k1 = kx * mu[o + 1] + ky * mu[o + 4] + kz * mu[o + 7];
+        const k2 = kx * mu[o + 2] + ky * mu[o + 5] + kz * mu[o + 8];
+        c0 += k0 * cj; c1 += k1 * cj; c2 += k2 * cj;
+        s0 += k0 * sj; s1 += k1 * sj; s2 += k2 * sj;
       }
       const w = weight[q];
       for (let i = 0; i < n; i++) {
-        const f = w * (cos[base + i] * sc + sin[base + i] * ss);
-        out[3 * i] += f * kx;
-        out[3 * i + 1] += f * ky;
-        out[3 * i + 2] += f * kz;
+        const o = 9 * i;
+        const ci = w * cos[base + i], si = w * sin[base + i];
+        const f0 = ci * c0 + si * s0, f1 = ci * c1 + si * s1, f2 = ci * c2 + si * s2;
+        out[o] += f0 * kx; out[o + 1] += f1 * kx; out[o + 2] += f2 * kx;
+        out[o + 3] += f0 * ky; out[o + 4] += f1 * ky; out[o + 5] += f2 * ky;
+        out[o + 6] += f0 * kz; out[o + 7] += f1 * kz; out[o + 8] += f2 * kz;
       }
     }
   }
