@@ -116,3 +116,14 @@ export interface ValidationReport {
   /** Learning curve: training-set size → held-out errors. */
   learningCurve: { trainSize: number; errors: ErrorFigures }[];
 }
+
+/*
+ * Function contracts (implemented in core/model.ts and io/model-file.ts):
+ *   trainModel(frames: Frame[], request: TrainRequest, hooks?: WorkHooks): Promise<Model>
+ *   predictFrame(model: Model, frame: Frame): FramePrediction
+ *   validate(frames: Frame[], request: TrainRequest, options: { folds: number; learningCurve?: number[] },
+ *            hooks?: WorkHooks): Promise<ValidationReport>
+ *   serialiseModel(model): string;  parseModel(text: string, fileName: string): Model (ModelError on bad files)
+ *   saveModel(path, model) (atomic);  loadModel(path): Promise<Model>
+ * `Model` is a plain JSON-serialisable object defined in core/model.ts.
+ */
