@@ -2,7 +2,7 @@
 import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { radialBasis } from '../../src-main/core/radial-basis.ts';
-import { panelRule } from '../../src-main/core/quadrature.ts';
+import { panelRule } from '../../src-main/core/density.ts';
 
 const fixture = JSON.parse(readFileSync(new URL('../fixtures/radial-reference.json', import.meta.url), 'utf8')) as {
   basis: { cutoff: number; nmax: number; r: number[]; values: number[][] };
