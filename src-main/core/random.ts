@@ -1,79 +1,101 @@
-// A small seeded random generator shared by every module that needs randomness (random rotations, training
-// splits, farthest-point sampling starts, property tests). xoshiro128** (Blackman & Vigna, 2018) seeded through
-// splitmix32, so a run is reproducible from one integer seed on every platform.
+// Seeded pseudo-random numbers shared by every module that needs randomness (sampling, shuffling, rotations,
+// demo data), so a seed reproduces a run exactly on any machine. The generator is xoshiro128** 1.0 (published
+// 2018 with its reference C code; 128-bit state, period 2¹²⁸ − 1), seeded through splitmix32 so that nearby
+// seeds give unrelated streams. All arithmetic is 32-bit integer (Math.imul, >>> 0): identical everywhere.
 
 export interface Rng {
-  /** Uniform in [0, 1), 53 random bits. */
+  /** Uniform double in [0, 1) with 53 random bits. */
   uniform(): number;
-  /** Standard normal N(0, 1) (Box–Muller, the second value is kept for the next call). */
+  /** Standard normal deviate (mean 0, variance 1), Marsaglia's polar method. */
   normal(): number;
-  /** Uniform integer in [0, n); n must be a positive integer ≤ 2³². */
+  /** Uniform integer in [0, n), without modulo bias; n must be a positive integer ≤ 2⁵³. */
   int(n: number): number;
-  /** Raw 32-bit unsigned output. */
+  /** The next raw 32-bit output as an unsigned integer (for tests and for deriving sub-seeds). */
   nextUint32(): number;
 }
 
-function splitmix32(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (s + 0x9e3779b9) >>> 0;
-    let z = s;
-    z = Math.imul(z ^ (z >>> 16), 0x85ebca6b) >>> 0;
-    z = Math.imul(z ^ (z >>> 13), 0xc2b2ae35) >>> 0;
-    return (z ^ (z >>> 16)) >>> 0;
-  };
+/** splitmix32 step: a 32-bit mixing function of a counter, used only to fill the state from a seed. */
+function splitmix32(state: { x: number }): number {
+  state.x = (state.x + 0x9e3779b9) | 0;
+  let z = state.x;
+  z = Math.imul(z ^ (z >>> 16), 0x85ebca6b);
+  z = Math.imul(z ^ (z >>> 13), 0xc2b2ae35);
+  return (z ^ (z >>> 16)) >>> 0;
 }
 
-/** A seeded generator. Equal seeds give equal streams; the seed is any finite number (taken modulo 2³²). */
+/**
+ * A generator from a seed (any finite number; its integer part modulo 2³² and, for large seeds, the high
+ * part too are mixed in). The same seed always gives the same sequence.
+ */
 export function makeRng(seed: number): Rng {
   if (!Number.isFinite(seed)) throw new RangeError(`makeRng: seed must be a finite number, got ${seed}`);
-  const init = splitmix32(Math.floor(seed) >>> 0);
-  let a = init(), b = init(), c = init(), d = init();
-  if ((a | b | c | d) === 0) a = 1; // the all-zero state is a fixed point
-  let spare: number | null = null;
+  const whole = Math.trunc(seed);
+  const lo = whole >>> 0;
+  const hi = Math.floor(whole / 4294967296) >>> 0;
+  const sm = { x: (lo ^ Math.imul(hi, 0x27d4eb2d)) | 0 };
+  const s = new Uint32Array(4);
+  for (let k = 0; k < 4; k++) s[k] = splitmix32(sm);
+  if ((s[0] | s[1] | s[2] | s[3]) === 0) s[0] = 1; // the all-zero state is the one forbidden state
 
-  const nextUint32 = (): number => {
-    const result = Math.imul(rotl(Math.imul(b, 5) >>> 0, 7), 9) >>> 0;
-    const t = (b << 9) >>> 0;
-    c ^= a; d ^= b; b ^= c; a ^= d;
-    c ^= t;
-    d = rotl(d, 11);
-    a >>>= 0; b >>>= 0; c >>>= 0; d >>>= 0;
+  function nextUint32(): number {
+    // result = rotl(s1 * 5, 7) * 9
+    const m = Math.imul(s[1], 5);
+    const result = Math.imul((m << 7) | (m >>> 25), 9) >>> 0;
+    const t = s[1] << 9;
+    s[2] ^= s[0];
+    s[3] ^= s[1];
+    s[1] ^= s[2];
+    s[0] ^= s[3];
+    s[2] ^= t;
+    s[3] = (s[3] << 11) | (s[3] >>> 21);
     return result;
-  };
+  }
 
-  const uniform = (): number => {
-    const hi = nextUint32() >>> 5; // 27 bits
-    const lo = nextUint32() >>> 6; // 26 bits
-    return (hi * 67108864 + lo) / 9007199254740992;
-  };
+  function uniform(): number {
+    // 27 high bits and 26 high bits of two outputs → a 53-bit fraction.
+    const a = nextUint32() >>> 5;
+    const b = nextUint32() >>> 6;
+    return (a * 67108864 + b) / 9007199254740992;
+  }
 
-  const normal = (): number => {
-    if (spare !== null) {
-      const v = spare;
-      spare = null;
-      return v;
+  let spare = 0;
+  let haveSpare = false;
+  function normal(): number {
+    if (haveSpare) {
+      haveSpare = false;
+      return spare;
     }
-    let u = 0;
-    while (u === 0) u = uniform();
-    const v = uniform();
-    const r = Math.sqrt(-2 * Math.log(u));
-    spare = r * Math.sin(2 * Math.PI * v);
-    return r * Math.cos(2 * Math.PI * v);
-  };
+    let u: number, v: number, q: number;
+    do {
+      u = 2 * uniform() - 1;
+      v = 2 * uniform() - 1;
+      q = u * u + v * v;
+    } while (q >= 1 || q === 0);
+    const f = Math.sqrt((-2 * Math.log(q)) / q);
+    spare = v * f;
+    haveSpare = true;
+    return u * f;
+  }
 
-  const int = (n: number): number => {
-    if (!Number.isInteger(n) || n <= 0 || n > 4294967296) throw new RangeError(`Rng.int: n must be a positive integer ≤ 2^32, got ${n}`);
-    // Rejection sampling removes the modulo bias.
-    const limit = 4294967296 - (4294967296 % n);
-    let x = nextUint32();
-    while (x >= limit) x = nextUint32();
+  function int(n: number): number {
+    if (!(Number.isInteger(n) && n >= 1 && n <= 9007199254740992)) {
+      throw new RangeError(`rng.int: n must be a positive integer ≤ 2^53, got ${n}`);
+    }
+    if (n <= 4294967296) {
+      // Rejection on the top of the 32-bit range removes the modulo bias.
+      const limit = 4294967296 - (4294967296 % n);
+      let x: number;
+      do x = nextUint32();
+      while (x >= limit);
+      return x % n;
+    }
+    // Beyond 2³²: rejection on 53-bit uniforms.
+    const limit = 9007199254740992 - (9007199254740992 % n);
+    let x: number;
+    do x = Math.floor(uniform() * 9007199254740992);
+    while (x >= limit);
     return x % n;
-  };
+  }
 
   return { uniform, normal, int, nextUint32 };
-}
-
-function rotl(x: number, k: number): number {
-  return ((x << k) | (x >>> (32 - k))) >>> 0;
 }
