@@ -1,4 +1,7 @@
 // Every subcommand, in the order `polarweave --help` lists them. Add one line per new command.
 import type { Command } from '../command.ts';
+import { trainCommand } from './train.ts';
+import { predictCommand } from './predict.ts';
+import { validateCommand } from './validate.ts';
 
-export const commands: Command[] = [];
+export const commands: Command[] = [trainCommand, predictCommand, validateCommand];
