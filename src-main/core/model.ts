@@ -89,6 +89,8 @@ export interface PartPosterior {
   nystrom?: Float64Array;
   /** Exact form: training frame of each representative (frames = posterior size). */
   repFrame?: Int32Array;
+  /** Exact form: per-species centre counts of the training frames (frames × species), for the count kernel. */
+  counts?: Float64Array;
 }
 
 export interface ModelPart {
@@ -497,12 +499,30 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
           }
         }
       }
+      // λ=0: the per-species counts enter as a linear kernel N Nᵀ, so the baseline is refined jointly
+      if (p.order === 0) {
+        for (let a = 0; a < nFrames; a++) {
+          for (let b = 0; b < nFrames; b++) {
+            let c = 0;
+            for (let s = 0; s < nS; s++) c += counts[a * nS + s] * counts[b * nS + s];
+            gram[a * rows + b] += c;
+          }
+        }
+      }
       design = { rows, group, y: yy, gram };
     } else {
       const src = linear ? linearRows[k] : sparseRows[k];
-      const fcount = src[0].length / p.width;
+      const base = src[0].length / p.width;
+      // λ=0: the per-species counts are extra columns, so the baseline is refined jointly with the weights
+      const extra = p.order === 0 ? nS : 0;
+      const fcount = base + extra;
       const phi = new Float64Array(rows * fcount);
-      src.forEach((r, f) => phi.set(r, f * p.width * fcount));
+      src.forEach((r, f) => {
+        for (let mu = 0; mu < p.width; mu++) {
+          phi.set(r.subarray(mu * base, (mu + 1) * base), (f * p.width + mu) * fcount);
+          if (extra) phi.set(counts.subarray(f * nS, (f + 1) * nS), (f * p.width + mu) * fcount + base);
+        }
+      });
       design = { rows, group, y: yy, phi, features: fcount };
     }
     const given = settings.regularisation ?? (cv ? null : 1e-6);
@@ -516,10 +536,10 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     };
     const n = p.order === 0 ? n0 : (nOrder as number);
     const part: ModelPart = { order: p.order, offset: p.offset, form: linear ? 'linear' : 'kernel', method: linear ? fit.form : exact ? 'exact' : 'sparse', n, regularisation };
-    if (linear) {
-      part.weights = primalWeights(design, fit);
-      if (fit.posterior) part.posterior = { form: 'primal', size: fit.posterior.size, factor: fit.posterior.factor, noise: fit.posterior.noise, lambda: fit.posterior.lambda };
-    } else if (exact) {
+    const refineBaseline = (delta: ArrayLike<number>) => {
+      for (let s = 0; s < nS; s++) baseline[s] += delta[s];
+    };
+    if (exact) {
       // Representatives are every training environment; x_j = c of its frame's rows.
       const allReps = exactRepresentatives(kept, p.order);
       const x = new Float64Array(allReps.reps.species.length * p.width);
@@ -527,12 +547,25 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
         for (let mu = 0; mu < p.width; mu++) x[j * p.width + mu] = fit.weights[fr * p.width + mu];
       });
       part.kernel = foldCoefficients(allReps.reps, x, settings.zeta);
-      if (fit.posterior) part.posterior = { ...fit.posterior, repFrame: allReps.frame };
+      if (p.order === 0) {
+        const delta = new Float64Array(nS);
+        for (let f = 0; f < nFrames; f++) for (let s = 0; s < nS; s++) delta[s] += fit.weights[f] * counts[f * nS + s];
+        refineBaseline(delta);
+      }
+      if (fit.posterior) part.posterior = { ...fit.posterior, repFrame: allReps.frame, counts: Float64Array.from(counts) };
     } else {
-      const reps = sparseReps.get(p.order) as Representatives;
-      const l = sparseFactor.get(p.order) as Float64Array;
-      part.kernel = foldSparseWeights(reps, l, primalWeights(design, fit), settings.zeta);
-      if (fit.posterior) part.posterior = { ...fit.posterior, nystrom: l };
+      const w = primalWeights(design, fit);
+      const base = (design.features as number) - (p.order === 0 ? nS : 0);
+      if (p.order === 0) refineBaseline(w.subarray(base));
+      if (linear) {
+        part.weights = w.slice(0, base);
+        if (fit.posterior) part.posterior = { form: 'primal', size: fit.posterior.size, factor: fit.posterior.factor, noise: fit.posterior.noise, lambda: fit.posterior.lambda };
+      } else {
+        const reps = sparseReps.get(p.order) as Representatives;
+        const l = sparseFactor.get(p.order) as Float64Array;
+        part.kernel = foldSparseWeights(reps, l, w.subarray(0, base), settings.zeta);
+        if (fit.posterior) part.posterior = { ...fit.posterior, nystrom: l };
+      }
     }
     parts.push(part);
   }
@@ -673,13 +706,22 @@ export function predictWithFeatures(model: Model, frame: Frame, fe: EnvironmentF
 function partVariance(model: Model, part: ModelPart, fe: EnvironmentFeatures): number {
   const post = part.posterior as PartPosterior;
   const nS = model.centres.length;
-  if (part.form === 'linear') return posteriorVariance({ form: 'primal', size: post.size, factor: post.factor, noise: post.noise, lambda: post.lambda }, linearDesignRows(fe, 0, nS));
+  const counts = new Float64Array(nS);
+  for (let e = 0; e < fe.count; e++) counts[fe.centreSpecies[e]]++;
+  const withCounts = (row: Float64Array) => {
+    const out = new Float64Array(row.length + nS);
+    out.set(row);
+    out.set(counts, row.length);
+    return out;
+  };
+  const primal = { form: 'primal' as const, size: post.size, factor: post.factor, noise: post.noise, lambda: post.lambda };
+  if (part.form === 'linear') return posteriorVariance(primal, withCounts(linearDesignRows(fe, 0, nS)));
   const k = part.kernel as KernelExpansion;
   if (post.nystrom) {
     const reps: Representatives = { order: 0, n0: k.n0, n: k.n0, width: 1, species: k.species, p: k.p, blocks: k.p };
     const knm = structureToRepresentatives(fe, reps, k.zeta);
     const phi = projectRows(knm, 1, post.nystrom, reps.species.length);
-    return posteriorVariance({ form: 'primal', size: post.size, factor: post.factor, noise: post.noise, lambda: post.lambda }, phi);
+    return posteriorVariance(primal, withCounts(phi));
   }
   // exact: k* over training frames, k** of the frame with itself
   const repFrame = post.repFrame as Int32Array;
@@ -690,7 +732,10 @@ function partVariance(model: Model, part: ModelPart, fe: EnvironmentFeatures): n
       kStar[repFrame[r]] += kernelPower(scalarDot(fe.scalar, e, k.p, r, k.n0), k.zeta);
     }
   }
-  const kss = structureKernel(fe, fe, 0, k.zeta)[0];
+  const trainCounts = post.counts as Float64Array;
+  for (let b = 0; b < post.size; b++) for (let s = 0; s < nS; s++) kStar[b] += counts[s] * trainCounts[b * nS + s];
+  let kss = structureKernel(fe, fe, 0, k.zeta)[0];
+  for (let s = 0; s < nS; s++) kss += counts[s] * counts[s];
   return posteriorVariance({ form: 'dual', size: post.size, factor: post.factor, noise: post.noise, lambda: post.lambda }, kStar, kss);
 }
 
