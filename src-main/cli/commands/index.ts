@@ -5,5 +5,6 @@ import { inspectCommand } from './inspect.ts';
 import { trainCommand } from './train.ts';
 import { predictCommand } from './predict.ts';
 import { validateCommand } from './validate.ts';
+import { referenceCommand } from './reference.ts';
 
-export const commands: Command[] = [inspectCommand, convertCommand, trainCommand, predictCommand, validateCommand];
+export const commands: Command[] = [inspectCommand, convertCommand, trainCommand, predictCommand, validateCommand, referenceCommand];
