@@ -6,5 +6,6 @@ import { trainCommand } from './train.ts';
 import { predictCommand } from './predict.ts';
 import { validateCommand } from './validate.ts';
 import { referenceCommand } from './reference.ts';
+import { demoCommand } from './demo.ts';
 
-export const commands: Command[] = [inspectCommand, convertCommand, trainCommand, predictCommand, validateCommand, referenceCommand];
+export const commands: Command[] = [inspectCommand, convertCommand, trainCommand, predictCommand, validateCommand, referenceCommand, demoCommand];
