@@ -121,7 +121,7 @@ ${trajectorySettings.frictionPerFs} fs⁻¹. Integrator: velocity Verlet for the
 Langevin thermostat in the BAOAB arrangement.
 
 ## Observed when generated
-${report.map((l) => `- ${l}`).join('\n')}
+${report.filter((l) => !l.startsWith('time:')).map((l) => `- ${l}`).join('\n')}
 `;
 await writeFileAtomic(join(outDir, 'PROVENANCE.md'), provenance);
 process.stdout.write(`wrote ${Object.keys(DEMO_FILES).length} data files and PROVENANCE.md to ${outDir}\n`);
