@@ -26,7 +26,7 @@ export const DEMO_CRYSTAL = 'crystal.extxyz.gz';
 export interface DemoOptions {
   dataDir?: string;
   outDir: string;
-  /** A reduced run for tests: every 6th liquid frame, every 3rd crystal frame, 3 folds. */
+  /** A reduced run for tests: every 6th liquid frame and every 3rd crystal frame. */
   quick?: boolean;
   signal?: AbortSignal;
   log?: (line: string) => void;
@@ -46,12 +46,18 @@ export interface DemoResult {
 /** A light feature set keeps the whole demo within two minutes on two cores; the regulariser is still chosen by
  * cross-validation inside every training. */
 export const DEMO_SETTINGS = { nmax: 4, lmax: 3 };
+/** Use every LIQUID_STRIDE-th liquid frame (see runDemo). */
+export const LIQUID_STRIDE = 2;
 const REQUEST: TrainRequest = { tensorKey: 'eps_ref', kind: 'eps', route: 'cm', settings: DEMO_SETTINGS };
 
 function mean(ts: Mat3[]): Mat3 {
   const m = new Float64Array(9);
   for (const t of ts) for (let k = 0; k < 9; k++) m[k] += t[k] / ts.length;
   return m;
+}
+
+function isoMean(t: Mat3): number {
+  return (t[0] + t[4] + t[8]) / 3;
 }
 
 function fmt(x: number, digits = 4): string {
@@ -75,16 +81,19 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
   const check = (): void => { if (options.signal?.aborted) throw new CancelledError(); };
   let liquid = await readAllStructures(liquidPath, { signal: options.signal });
   let crystal = await readAllStructures(crystalPath, { signal: options.signal });
-  if (options.quick) {
-    liquid = liquid.filter((_, i) => i % 6 === 0);
-    crystal = crystal.filter((_, i) => i % 3 === 0);
-  }
-  log(`demo: ${liquid.length} liquid frames and ${crystal.length} crystal frames read from ${dataDir}`);
+  const allLiquid = liquid.length;
+  // Successive Monte Carlo frames are correlated, and the learning curve flattens well below 100 frames: every
+  // second liquid frame keeps the whole job within two minutes on two cores at no visible loss.
+  const stride = options.quick ? 6 : LIQUID_STRIDE;
+  liquid = liquid.filter((_, i) => i % stride === 0);
+  if (options.quick) crystal = crystal.filter((_, i) => i % 3 === 0);
+  log(`demo: using ${liquid.length} of ${allLiquid} liquid frames (every ${stride === 2 ? 'second' : `${stride}th`}) and ${crystal.length} crystal frames from ${dataDir}`);
   check();
 
-  const folds = options.quick ? 3 : 5;
+  const folds = 3;
   const minTrain = Math.floor((liquid.length * (folds - 1)) / folds);
-  const curve = [0.0625, 0.125, 0.25, 0.5, 1].map((f) => Math.max(4, Math.round(f * minTrain))).filter((v, i, a) => a.indexOf(v) === i && v <= minTrain);
+  // Learning curve at 1/8, 1/4 and 1/2 of a training fold; the full fold is the main cross-validation.
+  const curve = [0.125, 0.25, 0.5].map((f) => Math.max(4, Math.round(f * minTrain))).filter((v, i, a) => a.indexOf(v) === i);
   log(`demo: ${folds}-fold cross-validation on the liquid, learning curve at ${curve.join(', ')} training frames`);
   const report = await validate(liquid, REQUEST, { folds, learningCurve: curve }, {
     signal: options.signal,
@@ -92,7 +101,7 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
   });
   check();
 
-  log(`demo: training on all ${liquid.length} liquid frames`);
+  log(`demo: training on the ${liquid.length} liquid frames`);
   const model: Model = await trainModel(liquid, REQUEST, { signal: options.signal });
   check();
 
@@ -186,9 +195,10 @@ function demoSummary(s: SummaryInput): string {
     '| training frames | %RMSE ε λ=0 | %RMSE ε λ=2 |',
     '|---|---|---|',
     ...s.report.learningCurve.map((p) => `| ${p.trainSize} | ${fmt(p.errors.percentIso, 1)} | ${fmt(p.errors.percentAniso, 1)} |`),
+    `| ${Math.floor((s.liquid.length * (s.report.folds - 1)) / s.report.folds)} (full fold) | ${fmt(s.report.errors.percentIso, 1)} | ${fmt(s.report.errors.percentAniso, 1)} |`,
     '',
-    `## Crystal: model trained on all liquid frames, ${s.crystal.length} crystal frames predicted`,
-    `- ε against the reference: ${errorLine(s.crystalErrors)} (%RMSE is relative to the crystal's own small spread)`,
+    `## Crystal: model trained on the ${s.liquid.length} liquid frames, ${s.crystal.length} crystal frames predicted`,
+    `- ε against the reference: RMSE of the λ=0 part ${s.crystalErrors.rmseIso.toExponential(2)} (${fmt((100 * s.crystalErrors.rmseIso) / (Math.sqrt(3) * isoMean(s.referenceMean)), 2)} % of the mean λ=0 part), of the λ=2 part ${s.crystalErrors.rmseAniso.toExponential(2)} (the crystal's frames differ so little that %RMSE against their spread says nothing here)`,
     `- mean ε diagonal: predicted ${diag(s.predictedMean)}; reference ${diag(s.referenceMean)}`,
     `- principal refractive indices: predicted ${n(s.predictedMean)}; reference ${n(s.referenceMean)}`,
     `- birefringence n_max − n_min: predicted ${dn(s.predictedMean)}; reference ${dn(s.referenceMean)}`,
