@@ -22,7 +22,7 @@ describe('polarweave demo --quick', () => {
     expect(summary).toMatch(/invented/i);
     expect(summary).toMatch(/model estimates/);
     const table = parseCsv(readFileSync(join(dir, 'crystal-eps.csv'), 'utf8'), 'crystal-eps.csv');
-    expect(table.records.length).toBe(20); // every 3rd of the 60 crystal frames
+    expect(table.records.length).toBe(15); // every 4th of the 60 crystal frames
     const model = parseModel(readFileSync(join(dir, 'liquid-model.json'), 'utf8'), 'liquid-model.json');
     expect(model.target.route).toBe('cm');
     const report = JSON.parse(readFileSync(join(dir, 'liquid-validation.json'), 'utf8'));
