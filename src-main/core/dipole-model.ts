@@ -24,6 +24,7 @@ import { neighbourList } from './neighbours.ts';
 import { convertTensor } from './clausius-mossotti.ts';
 import { symmetricEigen } from './tensor.ts';
 import {
+  addRadialTensor,
   addRealSpaceTensor,
   ewaldParameters,
   ReciprocalOperator,
@@ -86,14 +87,7 @@ function addDampedTensor(x: number, y: number, z: number, scale: number, a: numb
   const r = Math.sqrt(r2);
   const { l3, l5 } = tholeFactors(a, r / scale);
   const inv3 = 1 / (r2 * r);
-  const c = (3 * l5 * inv3) / r2;
-  const b = l3 * inv3;
-  out[at] += c * x * x - b;
-  out[at + 1] += c * y * y - b;
-  out[at + 2] += c * z * z - b;
-  out[at + 3] += c * x * y;
-  out[at + 4] += c * x * z;
-  out[at + 5] += c * y * z;
+  addRadialTensor(x, y, z, (3 * l5 * inv3) / r2, l3 * inv3, out, at);
 }
 
 /** Adds ΔT = T_damped − T_bare (see header) unless it is below 1e−20 relative. */
@@ -106,14 +100,7 @@ function addTholeCorrection(x: number, y: number, z: number, scale: number, a: n
   const e3 = Math.exp(-q);
   const e5 = (1 + q) * e3;
   const inv3 = 1 / (r2 * r);
-  const c = (-3 * e5 * inv3) / r2;
-  const b = -e3 * inv3;
-  out[at] += c * x * x - b;
-  out[at + 1] += c * y * y - b;
-  out[at + 2] += c * z * z - b;
-  out[at + 3] += c * x * y;
-  out[at + 4] += c * x * z;
-  out[at + 5] += c * y * z;
+  addRadialTensor(x, y, z, (-3 * e5 * inv3) / r2, -e3 * inv3, out, at);
 }
 
 /** a u³ beyond which the damping correction is dropped: (1 + 50) e^(−50) ≈ 1e−20. */
@@ -275,9 +262,13 @@ function periodicity(frame: Frame, where: Where): boolean {
   throw new InputError(`partly periodic frames (pbc ${frame.pbc.map((b) => (b ? 'T' : 'F')).join(' ')}) are not supported by the dipole model`, where, 'make the frame fully periodic (pad with vacuum) or open');
 }
 
+function frameWhere(frame: Frame): Where {
+  return frame.source ? { file: frame.source.file, line: frame.source.line, frame: frame.source.index } : {};
+}
+
 /** Solve the induced-dipole equations for unit fields along x, y, z and sum the dipoles. */
 export function cellPolarisability(frame: Frame, model: DipoleModel, options: SolveOptions = {}): DipoleResult {
-  const where = options.where ?? (frame.source ? { file: frame.source.file, line: frame.source.line, frame: frame.source.index } : {});
+  const where = options.where ?? frameWhere(frame);
   const periodic = periodicity(frame, where);
   const boundary: Boundary = options.boundary ?? (periodic ? 'conducting' : 'open');
   if (boundary !== 'open' && !periodic) {
@@ -375,7 +366,7 @@ export interface ReferenceTensors {
 export function referenceTensors(frame: Frame, model: DipoleModel, options: SolveOptions & { independent?: boolean } = {}): ReferenceTensors {
   const cond = cellPolarisability(frame, model, { ...options, boundary: 'conducting' });
   const volume = cond.volumeA3 as number;
-  const where = options.where ?? {};
+  const where = options.where ?? frameWhere(frame);
   const eig = symmetricEigen(cond.alpha).values[0];
   if (!(eig > 0)) {
     throw new PhysicsError(`polarisation catastrophe: the cell polarisability has a non-positive principal value (${eig.toExponential(3)} Å³)`, where);

@@ -57,6 +57,16 @@ export function ewaldParameters(cell: Mat3, options: EwaldOptions = {}): EwaldPa
   return { beta, cutoff, kmax: 2 * beta * s };
 }
 
+/** Adds c r rᵀ − b I of the displacement r = (x, y, z) into out[at…at+5] as [xx, yy, zz, xy, xz, yz]. */
+export function addRadialTensor(x: number, y: number, z: number, c: number, b: number, out: Float64Array, at: number): void {
+  out[at] += c * x * x - b;
+  out[at + 1] += c * y * y - b;
+  out[at + 2] += c * z * z - b;
+  out[at + 3] += c * x * y;
+  out[at + 4] += c * x * z;
+  out[at + 5] += c * y * z;
+}
+
 /** The real-space Ewald tensor C r rᵀ − B I of one displacement, as [xx, yy, zz, xy, xz, yz] added into out. */
 export function addRealSpaceTensor(x: number, y: number, z: number, beta: number, out: Float64Array, at: number): void {
   const r2 = x * x + y * y + z * z;
@@ -65,14 +75,7 @@ export function addRealSpaceTensor(x: number, y: number, z: number, beta: number
   const g = (2 * br / SQRT_PI) * Math.exp(-br * br);
   const ec = erfc(br);
   const r3 = r2 * r;
-  const b = (ec + g) / r3;
-  const c = (3 * ec + g * (3 + 2 * br * br)) / (r3 * r2);
-  out[at] += c * x * x - b;
-  out[at + 1] += c * y * y - b;
-  out[at + 2] += c * z * z - b;
-  out[at + 3] += c * x * y;
-  out[at + 4] += c * x * z;
-  out[at + 5] += c * y * z;
+  addRadialTensor(x, y, z, (3 * ec + g * (3 + 2 * br * br)) / (r3 * r2), (ec + g) / r3, out, at);
 }
 
 /** Coefficient of the self term T_self = s I. */
