@@ -106,7 +106,7 @@ Per-atom column \`molecule\`: the molecule each atom belongs to. Per-frame keys:
 ${liquidStatePoints.map((p) => `- ${p.label}: T = ${p.temperatureK} K, ${p.volumePerMolecule} Å³ per molecule, ${p.molecules} molecules, seed ${p.seed}; ${MC_EQUILIBRATION_SWEEPS} equilibration sweeps (step sizes tuned to ~40 % acceptance), then a frame every ${MC_SWEEPS_BETWEEN_FRAMES} sweeps`).join('\n')}
 
 ## Crystal
-Four molecules per orthorhombic cell in flat layers normal to c, AB stacked (second layer shifted by a/2 and c/2),
+Four molecules per orthorhombic cell in flat layers normal to c, AB stacked (the second layer, at height c/2, shifted by a/2),
 molecules turned by ±θ about c. Edges and θ from minimising the lattice energy from a = ${CRYSTAL_START.a}, b = ${CRYSTAL_START.b},
 c = ${CRYSTAL_START.c} Å, θ = ${CRYSTAL_START.theta}: a = ${data.crystalCell.a.toFixed(4)}, b = ${data.crystalCell.b.toFixed(4)},
 c = ${data.crystalCell.c.toFixed(4)} Å, θ = ${data.crystalCell.theta.toFixed(4)} rad (lattice energy ${data.crystalEnergy.toFixed(2)} kJ/mol per molecule;
