@@ -18,7 +18,7 @@
 import { InputError } from './errors.ts';
 import type { Frame } from './frame.ts';
 import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
-import { realClebschGordan } from './clebsch-gordan.ts';
+import { realClebschGordanSparse, type SparseCoupling } from './clebsch-gordan.ts';
 import { makeDensityExpander, type DensityExpander, type NeighbourPairs } from './density.ts';
 import { neighbourList } from './neighbours.ts';
 
@@ -65,8 +65,8 @@ export interface FeatureLabel {
 interface Block {
   l: number;
   l2: number;
-  /** Dense real CG, (m+l)(2l2+1)(2λ+1) + (m2+l2)(2λ+1) + μ. */
-  cg: Float64Array;
+  /** Non-zero real Clebsch–Gordan coefficients (m+l, m2+l2, μ, value). */
+  sparse: SparseCoupling;
   /** For each first channel (index into the tensor channel list) the range of its pairs in ch2/weight. */
   firstStart: Int32Array;
   ch2: Int32Array;
@@ -206,7 +206,7 @@ function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
         }
       }
       firstStart[tch] = ch2.length;
-      blocks.push({ l, l2, cg: realClebschGordan(l, l2, lambda), firstStart, ch2: Int32Array.from(ch2), weight: Float64Array.from(weight), offset });
+      blocks.push({ l, l2, sparse: realClebschGordanSparse(l, l2, lambda), firstStart, ch2: Int32Array.from(ch2), weight: Float64Array.from(weight), offset });
       offset += ch2.length;
       halfSize = Math.max(halfSize, (2 * lambda + 1) * (2 * l2 + 1));
     }
@@ -231,16 +231,18 @@ function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
   return p;
 }
 
-function normalise(x: Float64Array, from: number, to: number): void {
+/** Scales x[from…to) to unit norm (a zero block stays zero); returns the squared norm before scaling. */
+function normalise(x: Float64Array, from: number, to: number): number {
   let s = 0;
   for (let i = from; i < to; i++) s += x[i] * x[i];
-  if (s === 0) return;
+  if (s === 0 || !Number.isFinite(s)) return s;
   const inv = 1 / Math.sqrt(s);
   for (let i = from; i < to; i++) x[i] *= inv;
+  return s;
 }
 
 /** λ = 0 row of one environment from its coefficients c (layout of density.ts) into out[at…at+n0). */
-function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number): void {
+function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number): number {
   const { p1, p2, pw, invSqrt, LL } = P;
   const lmax = P.settings.lmax;
   const L1 = lmax + 1;
@@ -256,7 +258,7 @@ function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number):
     }
     f += L1;
   }
-  normalise(out, at, at + P.n0);
+  return normalise(out, at, at + P.n0);
 }
 
 /** λ > 0 block of one environment into out[(at + μ)·n + f]; at = e·(2λ+1). */
@@ -266,33 +268,56 @@ function tensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Arr
   const n = T.n;
   const base = e * nM * n;
   for (const blk of T.blocks) {
-    const { l, l2, cg, firstStart, ch2, weight } = blk;
-    const n1 = 2 * l + 1, n2 = 2 * l2 + 1;
+    const { l, l2, firstStart, ch2, weight, sparse } = blk;
+    const n2 = 2 * l2 + 1;
     const lo1 = l * l, lo2 = l2 * l2;
+    const { i1, i2, iL, value } = sparse;
+    const nnz = value.length;
     let f = base + blk.offset;
-    for (let c1 = 0; c1 < firstStart.length - 1; c1++) {
-      // Half-coupled T[μ][m2] = Σ_m C[m, m2, μ] c_{ch1, l m}.
+    const firstCount = firstStart.length - 1;
+    for (let c1 = 0; c1 < firstCount; c1++) {
+      // Half-coupled H[μ][m2] = Σ_m C[m, m2, μ] c_{ch1, l m}, over the non-zero coefficients only.
       const A = tensorChannel[c1] * LL + lo1;
       half.fill(0, 0, nM * n2);
-      for (let m = 0; m < n1; m++) {
-        const a = c[A + m];
-        if (a === 0) continue;
-        const row = m * n2 * nM;
-        for (let m2 = 0; m2 < n2; m2++) {
-          const r = row + m2 * nM;
-          for (let mu = 0; mu < nM; mu++) half[mu * n2 + m2] += cg[r + mu] * a;
+      for (let k = 0; k < nnz; k++) half[iL[k] * n2 + i2[k]] += value[k] * c[A + i1[k]];
+      const qEnd = firstStart[c1 + 1];
+      if (nM === 5) {
+        // λ = 2: five independent accumulators over m2 (one pass over each partner's coefficients).
+        for (let q = firstStart[c1]; q < qEnd; q++) {
+          const B = tensorChannel[ch2[q]] * LL + lo2;
+          let s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0;
+          for (let m2 = 0; m2 < n2; m2++) {
+            const b = c[B + m2];
+            s0 += half[m2] * b;
+            s1 += half[n2 + m2] * b;
+            s2 += half[2 * n2 + m2] * b;
+            s3 += half[3 * n2 + m2] * b;
+            s4 += half[4 * n2 + m2] * b;
+          }
+          const w = weight[q];
+          out[f] = w * s0;
+          out[f + n] = w * s1;
+          out[f + 2 * n] = w * s2;
+          out[f + 3 * n] = w * s3;
+          out[f + 4 * n] = w * s4;
+          f++;
         }
-      }
-      for (let q = firstStart[c1]; q < firstStart[c1 + 1]; q++) {
-        const B = tensorChannel[ch2[q]] * LL + lo2;
-        const w = weight[q];
-        for (let mu = 0; mu < nM; mu++) {
-          let s = 0;
-          const h = mu * n2;
-          for (let m2 = 0; m2 < n2; m2++) s += half[h + m2] * c[B + m2];
-          out[f + mu * n] = w * s;
+      } else {
+        for (let q = firstStart[c1]; q < qEnd; q++) {
+          const B = tensorChannel[ch2[q]] * LL + lo2;
+          let s0 = 0, s1 = 0, s2 = 0;
+          for (let m2 = 0; m2 < n2; m2++) {
+            const b = c[B + m2];
+            s0 += half[m2] * b;
+            s1 += half[n2 + m2] * b;
+            s2 += half[2 * n2 + m2] * b;
+          }
+          const w = weight[q];
+          out[f] = w * s0;
+          out[f + n] = w * s1;
+          out[f + 2 * n] = w * s2;
+          f++;
         }
-        f++;
       }
     }
   }
@@ -360,7 +385,10 @@ export function computeFeatures(
     const ta = timings ? performance.now() : 0;
     P.expander.expand(pairs, i, channelOf[i], channelOf, c);
     const tb = timings ? performance.now() : 0;
-    powerSpectrum(P, c, scalar, e * P.n0);
+    const norm = powerSpectrum(P, c, scalar, e * P.n0);
+    if (!Number.isFinite(norm)) {
+      throw new InputError(`features of atom ${i + 1} are not finite (non-finite positions or cell?)`, where, 'check the structure');
+    }
     for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensorOut[k], e);
     if (timings) {
       tExpand += tb - ta;
@@ -371,9 +399,6 @@ export function computeFeatures(
   if (timings) {
     timings.expansion += tExpand;
     timings.coupling += tCouple;
-  }
-  for (let k = 0; k < scalar.length; k++) {
-    if (!Number.isFinite(scalar[k])) throw new InputError('features are not finite (overlapping atoms or non-finite positions?)', where, 'check the structure');
   }
   const tensor: EnvironmentFeatures['tensor'] = {};
   P.tensors.forEach((T, k) => {
