@@ -157,8 +157,14 @@ interface Plan {
   tensorChannel: Int32Array;
   tensors: TensorPlan[];
   coefficients: Float64Array;
-  /** Scratch for the half-coupled T[μ(2l2+1) + m2]. */
+  /** Scratch for the half-coupled H[μ(2l+1) + m]. */
   half: Float64Array;
+  /** Number of tensor channels; tensorBase[l][k] = offset of c_{k, l, m=−l} in the coefficient block. */
+  tch: number;
+  tensorBase: Int32Array[];
+  /** 0…tch−1 and √2 for each, for the l < l' blocks (every ordered pair, all off-diagonal). */
+  allChannels: Int32Array;
+  sqrt2: Float64Array;
 }
 
 const planCache = new Map<string, Plan>();
@@ -226,6 +232,10 @@ function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
     tensors,
     coefficients: new Float64Array(expander.size),
     half: new Float64Array(halfSize),
+    tch,
+    tensorBase: Array.from({ length: t.lmax + 1 }, (_, l) => Int32Array.from(tensorChannel, (ch) => ch * (lmax + 1) * (lmax + 1) + l * l)),
+    allChannels: Int32Array.from({ length: tch }, (_, k) => k),
+    sqrt2: new Float64Array(tch).fill(Math.SQRT2),
   };
   planCache.set(key, p);
   return p;
@@ -261,63 +271,88 @@ function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number):
   return normalise(out, at, at + P.n0);
 }
 
-/** λ > 0 block of one environment into out[(at + μ)·n + f]; at = e·(2λ+1). */
+/** Σ_m2 H[μ][m2] c[B + m2] for every partner channel of one first channel: the pair loop of tensorFeatures. */
+function contractPartners(
+  half: Float64Array, nM: number, width: number, c: Float64Array, partnerBase: Int32Array, from: number, to: number,
+  partner: Int32Array, weight: Float64Array, out: Float64Array, f: number, fStep: number, n: number,
+): void {
+  if (nM === 5) {
+    // λ = 2: five independent accumulators, one pass over each partner's coefficients.
+    for (let q = from; q < to; q++) {
+      const B = partnerBase[partner[q]];
+      let s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0;
+      for (let m = 0; m < width; m++) {
+        const b = c[B + m];
+        s0 += half[m] * b;
+        s1 += half[width + m] * b;
+        s2 += half[2 * width + m] * b;
+        s3 += half[3 * width + m] * b;
+        s4 += half[4 * width + m] * b;
+      }
+      const w = weight[q];
+      const at = f + (q - from) * fStep;
+      out[at] = w * s0;
+      out[at + n] = w * s1;
+      out[at + 2 * n] = w * s2;
+      out[at + 3 * n] = w * s3;
+      out[at + 4 * n] = w * s4;
+    }
+  } else {
+    for (let q = from; q < to; q++) {
+      const B = partnerBase[partner[q]];
+      let s0 = 0, s1 = 0, s2 = 0;
+      for (let m = 0; m < width; m++) {
+        const b = c[B + m];
+        s0 += half[m] * b;
+        s1 += half[width + m] * b;
+        s2 += half[2 * width + m] * b;
+      }
+      const w = weight[q];
+      const at = f + (q - from) * fStep;
+      out[at] = w * s0;
+      out[at + n] = w * s1;
+      out[at + 2 * n] = w * s2;
+    }
+  }
+}
+
+/**
+ * λ > 0 block of one environment into out[(e·(2λ+1) + μ)·n + f]. For each pair block the half-coupling
+ * H = C·c runs over the factor of HIGHER degree (once per channel), so the pair loop runs over the shorter m
+ * axis: for (l, l') with l < l' the channel of degree l' is held and every channel of degree l is contracted.
+ */
 function tensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
-  const { LL, tensorChannel, half } = P;
+  const { half, tch } = P;
   const nM = 2 * T.lambda + 1;
   const n = T.n;
   const base = e * nM * n;
   for (const blk of T.blocks) {
     const { l, l2, firstStart, ch2, weight, sparse } = blk;
-    const n2 = 2 * l2 + 1;
-    const lo1 = l * l, lo2 = l2 * l2;
     const { i1, i2, iL, value } = sparse;
     const nnz = value.length;
-    let f = base + blk.offset;
-    const firstCount = firstStart.length - 1;
-    for (let c1 = 0; c1 < firstCount; c1++) {
-      // Half-coupled H[μ][m2] = Σ_m C[m, m2, μ] c_{ch1, l m}, over the non-zero coefficients only.
-      const A = tensorChannel[c1] * LL + lo1;
-      half.fill(0, 0, nM * n2);
-      for (let k = 0; k < nnz; k++) half[iL[k] * n2 + i2[k]] += value[k] * c[A + i1[k]];
-      const qEnd = firstStart[c1 + 1];
-      if (nM === 5) {
-        // λ = 2: five independent accumulators over m2 (one pass over each partner's coefficients).
-        for (let q = firstStart[c1]; q < qEnd; q++) {
-          const B = tensorChannel[ch2[q]] * LL + lo2;
-          let s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0;
-          for (let m2 = 0; m2 < n2; m2++) {
-            const b = c[B + m2];
-            s0 += half[m2] * b;
-            s1 += half[n2 + m2] * b;
-            s2 += half[2 * n2 + m2] * b;
-            s3 += half[3 * n2 + m2] * b;
-            s4 += half[4 * n2 + m2] * b;
-          }
-          const w = weight[q];
-          out[f] = w * s0;
-          out[f + n] = w * s1;
-          out[f + 2 * n] = w * s2;
-          out[f + 3 * n] = w * s3;
-          out[f + 4 * n] = w * s4;
-          f++;
-        }
-      } else {
-        for (let q = firstStart[c1]; q < qEnd; q++) {
-          const B = tensorChannel[ch2[q]] * LL + lo2;
-          let s0 = 0, s1 = 0, s2 = 0;
-          for (let m2 = 0; m2 < n2; m2++) {
-            const b = c[B + m2];
-            s0 += half[m2] * b;
-            s1 += half[n2 + m2] * b;
-            s2 += half[2 * n2 + m2] * b;
-          }
-          const w = weight[q];
-          out[f] = w * s0;
-          out[f + n] = w * s1;
-          out[f + 2 * n] = w * s2;
-          f++;
-        }
+    if (l === l2) {
+      const width = 2 * l + 1;
+      const A0 = P.tensorBase[l];
+      let f = base + blk.offset;
+      for (let c1 = 0; c1 < tch; c1++) {
+        const A = A0[c1];
+        half.fill(0, 0, nM * width);
+        for (let k = 0; k < nnz; k++) half[iL[k] * width + i2[k]] += value[k] * c[A + i1[k]];
+        const from = firstStart[c1], to = firstStart[c1 + 1];
+        contractPartners(half, nM, width, c, A0, from, to, ch2, weight, out, f, 1, n);
+        f += to - from;
+      }
+    } else {
+      // Hold the degree-l2 channel c2; contract all degree-l channels c1; feature f = offset + c1·tch + c2.
+      const width = 2 * l + 1;
+      const A0 = P.tensorBase[l];
+      const B0 = P.tensorBase[l2];
+      const f0 = base + blk.offset;
+      for (let c2 = 0; c2 < tch; c2++) {
+        const B = B0[c2];
+        half.fill(0, 0, nM * width);
+        for (let k = 0; k < nnz; k++) half[iL[k] * width + i1[k]] += value[k] * c[B + i2[k]];
+        contractPartners(half, nM, width, c, A0, 0, tch, P.allChannels, P.sqrt2, out, f0 + c2, tch, n);
       }
     }
   }
