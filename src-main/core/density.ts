@@ -99,6 +99,8 @@ export interface RadialTable {
 }
 
 const tableCache = new Map<string, RadialTable>();
+/** Tables kept (about 0.5 MB each at nmax 8, lmax 6); the oldest is dropped beyond this. */
+const TABLE_CACHE_SIZE = 12;
 
 /** The tabulated radial integrals for these settings (built once, then cached by value of the settings). */
 export function radialTable(s: RadialSettings): RadialTable {
@@ -132,6 +134,7 @@ export function radialTable(s: RadialSettings): RadialTable {
     }
   }
   const table = { settings: { ...s }, spacing: h, intervals, coefficients };
+  if (tableCache.size >= TABLE_CACHE_SIZE) tableCache.delete(tableCache.keys().next().value as string);
   tableCache.set(key, table);
   return table;
 }

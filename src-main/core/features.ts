@@ -168,6 +168,8 @@ interface Plan {
 }
 
 const planCache = new Map<string, Plan>();
+/** Plans kept (a hyperparameter search builds one per setting; the oldest is dropped beyond this). */
+const PLAN_CACHE_SIZE = 12;
 
 function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
   const key = JSON.stringify([s.cutoff, s.cutoffWidth, s.sigma, s.nmax, s.lmax, s.species, s.centres, s.nmaxTensor ?? null, s.lmaxTensor ?? null, lambdas]);
@@ -237,6 +239,7 @@ function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
     allChannels: Int32Array.from({ length: tch }, (_, k) => k),
     sqrt2: new Float64Array(tch).fill(Math.SQRT2),
   };
+  if (planCache.size >= PLAN_CACHE_SIZE) planCache.delete(planCache.keys().next().value as string);
   planCache.set(key, p);
   return p;
 }
