@@ -20,7 +20,7 @@ import {
   translateFrame,
   type Equivariant,
 } from './equivariance-harness.ts';
-import { bruteForceNeighbours } from './reference-neighbours.ts';
+import { neighbourList } from '../../src-main/core/neighbours.ts';
 
 const settings: FeatureSettings = {
   cutoff: 3.2,
@@ -187,7 +187,7 @@ describe('stored layout', () => {
     const full = frames.map((fr) => {
       const c = new Float64Array(ex.size);
       const ch = Int32Array.from(fr.species.map((x) => s.species.indexOf(x)));
-      ex.expand(bruteForceNeighbours(fr, s.cutoff), 0, ch[0], ch, c);
+      ex.expand(neighbourList(fr, s.cutoff), 0, ch[0], ch, c);
       const vec = (ch1: number, l: number) => c.subarray(ch1 * 16 + l * l, ch1 * 16 + l * l + 2 * l + 1);
       const p: number[] = [];
       for (let c1 = 0; c1 < 6; c1++) for (let c2 = 0; c2 < 6; c2++) for (let l = 0; l <= 3; l++) {
