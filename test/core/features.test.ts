@@ -5,7 +5,7 @@ import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { makeFrame, type Frame } from '../../src-main/core/frame.ts';
 import type { FeatureSettings } from '../../src-main/core/feature-types.ts';
-import { computeFeatures, concatenateFeatures, describeFeatures, featureCount, tensorLimits } from '../../src-main/core/features.ts';
+import { computeFeatures, concatenateFeatures, describeFeatures, featureCount, forEachEnvironment, tensorLimits } from '../../src-main/core/features.ts';
 import { makeDensityExpander } from '../../src-main/core/density.ts';
 import { coupleReal } from '../../src-main/core/clebsch-gordan.ts';
 import { makeRng } from '../../src-main/core/random.ts';
@@ -219,6 +219,25 @@ describe('stored layout', () => {
       const fd = dot(full[0].t[lam], full[1].t[lam], full[0].t[lam].length) / (norm(full[0].t[lam]) * norm(full[1].t[lam]));
       expect(dot(stored[0].tensor[lam]!.data, stored[1].tensor[lam]!.data, size)).toBeCloseTo(fd, 12);
     }
+  });
+
+  it('forEachEnvironment hands over exactly the rows and blocks of computeFeatures, one at a time', () => {
+    const frame = randomPeriodicFrame(makeRng(12), water(9), [4, 4.1, 3.9]);
+    const s: FeatureSettings = { ...settings, centres: ['O'] };
+    const all = computeFeatures(frame, s, [0, 1, 2]);
+    const seen: number[] = [];
+    const count = forEachEnvironment(frame, s, [0, 1, 2], (env) => {
+      seen.push(env.centre);
+      expect(env.centreSpecies).toBe(0);
+      expect([...env.scalar]).toEqual([...all.scalar.subarray(env.index * all.n0, (env.index + 1) * all.n0)]);
+      for (const l of [1, 2] as const) {
+        const size = (2 * l + 1) * all.tensor[l]!.n;
+        expect([...env.tensor[l]!]).toEqual([...all.tensor[l]!.data.subarray(env.index * size, (env.index + 1) * size)]);
+      }
+    });
+    expect(count).toBe(3);
+    expect(seen).toEqual([...all.centre]);
+    expect(seen).toEqual([0, 3, 6]);
   });
 
   it('concatenateFeatures stacks frames and numbers them', () => {
