@@ -378,6 +378,11 @@ function prepare(frame: Frame, settings: FeatureSettings, lambdas: Lambda[], nei
     if (l !== 0 && l !== 1 && l !== 2) throw new RangeError(`computeFeatures: λ must be 0, 1 or 2, got ${String(l)}`);
   }
   const P = plan(settings, ([1, 2] as const).filter((l) => lambdas.includes(l)));
+  for (const T of P.tensors) {
+    if (T.n === 0) {
+      throw new InputError(`feature settings: λ = ${T.lambda} features need lmaxTensor ≥ 1 (lmax ${settings.lmax}, lmaxTensor ${tensorLimits(settings).lmax})`, {}, 'raise lmax (and lmaxTensor) to at least 1');
+    }
+  }
   const s = P.settings;
   const N = frame.species.length;
   const where = { file: frame.source?.file, line: frame.source?.line, frame: frame.source?.index };

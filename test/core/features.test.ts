@@ -264,6 +264,8 @@ describe('input checks', () => {
     expect(() => computeFeatures(frame, { ...settings, cutoffWidth: 0 })).toThrow(InputError);
     expect(() => computeFeatures(frame, { ...settings, lmaxTensor: 7 })).toThrow(InputError);
     expect(() => computeFeatures(frame, { ...settings, centres: [] })).toThrow(InputError);
+    expect(() => computeFeatures(frame, { ...settings, lmax: 0, lmaxTensor: undefined }, [2])).toThrow(/λ = 2 features need lmaxTensor ≥ 1/);
+    expect(computeFeatures(frame, { ...settings, lmax: 0, lmaxTensor: undefined }, [0]).n0).toBe(36); // 8 channels: 36 pairs × 1
   });
 });
 
