@@ -224,7 +224,7 @@ export async function indexExtxyz(file: string, options: { signal?: AbortSignal 
   let partial = false; // inside a skipped line that continues in the next chunk
   const where = () => ({ file, line, frame: counts.length });
   const readCount = (): void => {
-    const text = Buffer.from(countBytes).toString('latin1').trim();
+    const text = Buffer.from(countBytes).toString('utf8').trim();
     countBytes = [];
     if (text.length === 0) return; // blank line between frames
     if (!/^\d+$/.test(text)) {
