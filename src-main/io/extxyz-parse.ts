@@ -110,8 +110,8 @@ export function parseCommentLine(line: string, where: Where): Omit<Header, 'nAto
           v = '';
         }
         if (!Array.isArray(v) || v.length !== 9) {
-          const n = Array.isArray(v) ? v.length : item.value === null ? 0 : item.value.split(/[\s,]+/).filter(Boolean).length;
-          fail(`Lattice must be 9 numbers (3 lattice vectors), got ${Array.isArray(v) ? n + ' numbers' : `'${item.value ?? ''}'`}`, where, 'write Lattice="ax ay az bx by bz cx cy cz" in Å');
+          const got = Array.isArray(v) ? `${v.length} numbers` : `'${clip(item.value ?? '')}'`;
+          fail(`Lattice must be 9 numbers (3 lattice vectors), got ${got}`, where, 'write Lattice="ax ay az bx by bz cx cy cz" in Å');
         }
         cell = Float64Array.from(v);
         checkCell(cell, where);
@@ -144,19 +144,30 @@ export function parseCommentLine(line: string, where: Where): Omit<Header, 'nAto
   } else {
     pbc = pbcGiven === null ? [true, true, true] : [pbcGiven[0], pbcGiven[1], pbcGiven[2]];
   }
+  const columns = checkedColumns(properties, where);
+  return { cell, pbc, info, columns, fieldCount: columns.reduce((s, c) => s + c.width, 0) };
+}
+
+// Consecutive frames nearly always share one Properties value: remember the last one checked.
+let lastProperties = '';
+let lastColumns: ColumnSpec[] = [];
+
+/** Columns of a Properties value, with species (or Z) and pos present and of the right shape. */
+function checkedColumns(properties: string, where: Where): ColumnSpec[] {
+  if (properties === lastProperties) return lastColumns;
   const columns = parseProperties(properties, where);
-  const hasSpecies = columns.some((c) => c.name === 'species');
   const z = columns.find((c) => c.name === 'Z');
   const species = columns.find((c) => c.name === 'species');
   if (species && (species.kind !== 'S' || species.width !== 1)) fail(`Properties column 'species' must be S:1, got ${species.kind}:${species.width}`, where);
-  if (!hasSpecies && !(z && z.kind === 'I' && z.width === 1)) {
+  if (!species && !(z && z.kind === 'I' && z.width === 1)) {
     fail("Properties has no 'species' column (nor an atomic-number column Z:I:1)", where, `start Properties with species:S:1, e.g. Properties=${DEFAULT_PROPERTIES}`);
   }
   const pos = columns.find((c) => c.name === 'pos');
   if (!pos) fail("Properties has no 'pos' column", where, `add pos:R:3, e.g. Properties=${DEFAULT_PROPERTIES}`);
   if (pos.kind !== 'R' || pos.width !== 3) fail(`Properties column 'pos' must be R:3, got ${pos.kind}:${pos.width}`, where);
-  const fieldCount = columns.reduce((s, c) => s + c.width, 0);
-  return { cell, pbc, info, columns, fieldCount };
+  lastProperties = properties;
+  lastColumns = columns;
+  return columns;
 }
 
 // Atom lines are parsed as bytes (ASCII in every real file) straight from the read buffer: no text decoding,
