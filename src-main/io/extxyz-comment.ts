@@ -243,9 +243,10 @@ export function formatItem(key: string, value: InfoValue): string {
   if (typeof value === 'string') {
     if (bareSafe(value)) return `${k}=${value}`;
     const q = quote(value);
-    // A quoted text of two or more numbers would read back as an array: escape its first character, which
-    // marks the value as a string for our reader (see readQuoted) without changing the text.
-    if (q.indexOf('\\') < 0 && looksLikeNumberList(value)) return `${k}="\\${q.slice(1)}`;
+    // A quoted text of two or more numbers would read back as an array (and one starting "_JSON " as JSON):
+    // escape its first character, which marks the value as a string for our reader (see readQuoted) without
+    // changing the text.
+    if (q.indexOf('\\') < 0 && (looksLikeNumberList(value) || value.startsWith('_JSON '))) return `${k}="\\${q.slice(1)}`;
     return `${k}=${q}`;
   }
   if (value.length >= 2) return `${k}="${value.map(formatNumber).join(' ')}"`;

@@ -18,7 +18,7 @@ const infoValue: fc.Arbitrary<InfoValue> = fc.oneof(
   fc.integer(),
   fc.boolean(),
   fc.string({ unit: 'binary', maxLength: 12 }),
-  fc.constantFrom('1 2', 'T F', 'nan', '1.5', ' spaced ', '{1 2}', 'a=b', '"q"', '', 'x\\y'),
+  fc.constantFrom('1 2', 'T F', 'nan', '1.5', ' spaced ', '{1 2}', 'a=b', '"q"', '', 'x\\y', '_JSON 5', '_JSON [1, 2]'),
   fc.array(finite, { maxLength: 10 }),
 );
 

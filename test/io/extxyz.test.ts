@@ -195,6 +195,23 @@ describe('writing and streaming', () => {
     expect(readdirSync(dir).filter((n) => n.endsWith('.tmp'))).toEqual([]);
   });
 
+  it('a gzip output of several 1 MiB blocks (several gzip members) reads back whole', async () => {
+    const p = path.join(dir, 'multi.extxyz.gz');
+    const f = sampleFrame();
+    const n = 9000; // ≈ 2.5 MB of text: three blocks
+    await writeExtxyz(p, (function* () {
+      for (let k = 0; k < n; k++) yield f;
+    })());
+    const { gunzipSync } = await import('node:zlib');
+    expect(gunzipSync(readFileSync(p)).toString().split('\n').length).toBe(n * 5 + 1);
+    let count = 0;
+    for await (const g of readExtxyz(p)) {
+      if (count === n - 1) expect(strip(g)).toEqual(f);
+      count++;
+    }
+    expect(count).toBe(n);
+  });
+
   it('a failing frame source leaves no output and no temp file', async () => {
     const p = path.join(dir, 'never.extxyz');
     function* bad() {
