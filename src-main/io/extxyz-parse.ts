@@ -7,7 +7,7 @@ import { InputError } from '../core/errors.ts';
 import type { AtomArray, Frame, InfoValue, Mat3 } from '../core/frame.ts';
 import { cellDeterminant, checkCell as checkCellShape } from '../core/cell.ts';
 import { elementSymbol, isElement, symbolIgnoringCase } from '../core/elements.ts';
-import { CommentSyntaxError, ValueError, interpretValue, parseBoolean, tokeniseComment } from './extxyz-comment.ts';
+import { CommentSyntaxError, ValueError, decimalAt, interpretValue, parseBoolean, tokeniseComment } from './extxyz-comment.ts';
 
 export type ColumnKind = 'S' | 'R' | 'I' | 'L';
 
@@ -156,52 +156,43 @@ export function parseCommentLine(line: string, where: Where): Omit<Header, 'nAto
   return { cell, pbc, info, columns, fieldCount };
 }
 
-// Field boundaries of the current atom line, reused between lines (no allocation per line).
-let fieldStart = new Int32Array(64);
-let fieldEnd = new Int32Array(64);
+// Field boundaries of the current atom line, reused between lines (no allocation per line). Offsets are
+// absolute positions in the text the line sits in (a whole read chunk, not a sliced line: reading characters
+// of the flat chunk string is several times faster than of a slice of it).
+const MAX_FIELDS = 4096;
+const fieldStart = new Int32Array(MAX_FIELDS);
+const fieldEnd = new Int32Array(MAX_FIELDS);
 
-/** Split on spaces and tabs; returns the number of fields (boundaries in fieldStart/fieldEnd). */
-function splitFields(line: string): number {
+/**
+ * Split text[start, end) on spaces, tabs and CR; returns the number of fields. Boundaries of the first
+ * MAX_FIELDS fields go to fieldStart/fieldEnd (a line with more is never a valid atom line, only counted).
+ */
+function splitFields(text: string, start: number, end: number): number {
   let n = 0;
-  const len = line.length;
-  let i = 0;
-  while (i < len) {
-    let c = line.charCodeAt(i);
+  let i = start;
+  while (i < end) {
+    let c = text.charCodeAt(i);
     while (c === 32 || c === 9 || c === 13) {
-      if (++i >= len) return n;
-      c = line.charCodeAt(i);
+      if (++i >= end) return n;
+      c = text.charCodeAt(i);
     }
     const s = i;
-    while (i < len) {
-      c = line.charCodeAt(i);
+    while (++i < end) {
+      c = text.charCodeAt(i);
       if (c === 32 || c === 9 || c === 13) break;
-      i++;
     }
-    if (n === fieldStart.length) {
-      const a = new Int32Array(2 * n);
-      a.set(fieldStart);
-      fieldStart = a;
-      const b = new Int32Array(2 * n);
-      b.set(fieldEnd);
-      fieldEnd = b;
+    if (n < MAX_FIELDS) {
+      fieldStart[n] = s;
+      fieldEnd[n] = i;
     }
-    fieldStart[n] = s;
-    fieldEnd[n] = i;
     n++;
   }
   return n;
 }
 
-/** Parse field k of `line` as a strict decimal number, NaN if it is not one. */
-function numberField(line: string, k: number): number {
-  const s = fieldStart[k];
-  const c0 = line.charCodeAt(s);
-  if (!((c0 >= 48 && c0 <= 57) || c0 === 45 || c0 === 43 || c0 === 46)) return NaN;
-  if (c0 === 48 && fieldEnd[k] - s > 2) {
-    const c1 = line.charCodeAt(s + 1) | 32;
-    if (c1 === 120 || c1 === 98 || c1 === 111) return NaN; // 0x.., 0b.., 0o.. are not decimal numbers
-  }
-  return Number(line.slice(s, fieldEnd[k]));
+/** Field k of the current line as a strict decimal number, NaN if it is not one. */
+function numberField(text: string, k: number): number {
+  return decimalAt(text, fieldStart[k], fieldEnd[k]);
 }
 
 const INTEGER = /^[+-]?\d+$/;
@@ -215,8 +206,14 @@ interface Building {
   /** Per column: where its data goes. */
   sinks: (Float64Array | Int32Array | Uint8Array | string[] | null)[];
   speciesFromZ: Int32Array | null;
+  /** Field index of the species column (-1 when species come from Z) and of the first pos field. */
+  speciesField: number;
+  posField: number;
+  /** The other columns: first field index, spec and destination. */
+  others: { field: number; spec: ColumnSpec; sink: Float64Array | Int32Array | Uint8Array | string[] }[];
+  /** Species strings already checked against the periodic table in this frame. */
+  lastSpecies: string;
   atom: number;
-  skip: boolean;
 }
 
 export type FrameDecision = 'parse' | 'skip' | 'stop';
@@ -267,7 +264,8 @@ export class ExtxyzAssembler {
     return { file: this.fileName, line: this.line, frame: this.frame };
   }
 
-  push(text: string): Frame | null | 'stop' {
+  /** Feed the line text[start, end) (without its newline; the whole string by default). */
+  push(text: string, start = 0, end = text.length): Frame | null | 'stop' {
     if (this.stopped) return 'stop';
     this.line++;
     if (this.skipRemaining > 0) {
@@ -277,12 +275,12 @@ export class ExtxyzAssembler {
     }
     switch (this.state) {
       case 'count':
-        return this.onCount(text);
+        return this.onCount(text.slice(start, end));
       case 'comment':
-        this.onComment(text);
+        this.onComment(text.slice(start, end));
         return this.pendingCount === 0 && this.building !== null ? this.complete() : null;
       case 'atoms':
-        return this.onAtom(text);
+        return this.onAtom(text, start, end);
     }
   }
 
@@ -342,37 +340,66 @@ export class ExtxyzAssembler {
       }
     }
     if (speciesFromZ) delete arrays.Z; // species carries the same information
-    this.building = { header, species: new Array<string>(n), positions, arrays, sinks, speciesFromZ, atom: 0, skip: false };
+    let field = 0;
+    let speciesField = -1;
+    let posField = -1;
+    const others: Building['others'] = [];
+    h.columns.forEach((c, ci) => {
+      if (c.name === 'species') speciesField = field;
+      else if (c.name === 'pos') posField = field;
+      else others.push({ field, spec: c, sink: sinks[ci]! });
+      field += c.width;
+    });
+    this.building = { header, species: new Array<string>(n), positions, arrays, sinks, speciesFromZ, speciesField, posField, others, lastSpecies: '', atom: 0 };
     this.state = 'atoms';
   }
 
-  private onAtom(text: string): Frame | null {
+  private onAtom(text: string, start: number, end: number): Frame | null {
     const b = this.building!;
     const h = b.header;
-    const nf = splitFields(text);
+    const nf = splitFields(text, start, end);
     if (nf !== h.fieldCount) {
       const where = this.where();
       if (nf === 0) fail(`blank line inside frame: atom ${b.atom + 1} of ${h.nAtoms} expected`, where, `the frame's count line says ${h.nAtoms} atoms; fix the count or remove the blank line`);
-      if (nf === 1 && INTEGER.test(text.trim())) {
+      if (nf === 1 && INTEGER.test(text.slice(start, end).trim())) {
         fail(`frame declares ${h.nAtoms} atoms but only ${b.atom} atom lines come before the next frame's count line`, where, 'correct the atom count line of this frame');
       }
       fail(`atom line has ${nf} fields but Properties needs ${h.fieldCount} (${describeColumns(h.columns)})`, where, 'make Properties match the columns, or fix this line');
     }
     const a = b.atom;
-    let f = 0;
-    for (let ci = 0; ci < h.columns.length; ci++) {
-      const c = h.columns[ci];
-      const sink = b.sinks[ci];
-      if (sink === null) {
-        // species
-        const s = text.slice(fieldStart[f], fieldEnd[f]);
-        if (!isElement(s)) this.badSpecies(s);
-        b.species[a] = s;
-        f++;
-        continue;
+    // the two columns every frame has, with their field positions fixed: the hot path
+    if (b.speciesField >= 0) {
+      const sf = b.speciesField;
+      const sp = text.slice(fieldStart[sf], fieldEnd[sf]);
+      if (sp !== b.lastSpecies) {
+        if (!isElement(sp)) this.badSpecies(sp);
+        b.lastSpecies = sp;
       }
+      b.species[a] = sp;
+    }
+    const pf = b.posField;
+    const pos = b.positions;
+    for (let d = 0; d < 3; d++) {
+      const x = decimalAt(text, fieldStart[pf + d], fieldEnd[pf + d]);
+      if (!(x - x === 0)) this.badNumber(text, pf + d, 'pos', 'a finite real number');
+      pos[3 * a + d] = x;
+    }
+    if (b.others.length > 0) this.otherColumns(text, b, a);
+    if (b.speciesFromZ) {
+      const z = b.speciesFromZ[a];
+      const s = elementSymbol(z);
+      if (s === undefined) fail(`atomic number Z = ${z} is not an element`, this.where(), 'Z must be 1…118');
+      b.species[a] = s;
+    }
+    b.atom++;
+    return b.atom === h.nAtoms ? this.complete() : null;
+  }
+
+  private otherColumns(text: string, b: Building, a: number): void {
+    for (const { field, spec: c, sink } of b.others) {
       const base = a * c.width;
-      for (let w = 0; w < c.width; w++, f++) {
+      for (let w = 0; w < c.width; w++) {
+        const f = field + w;
         if (c.kind === 'R') {
           const x = numberField(text, f);
           if (!Number.isFinite(x)) this.badNumber(text, f, c.name, 'a finite real number');
@@ -383,8 +410,7 @@ export class ExtxyzAssembler {
           if (!INTEGER.test(t) || x > 2147483647 || x < -2147483648) this.badNumber(text, f, c.name, 'an integer');
           (sink as Int32Array)[base + w] = x;
         } else if (c.kind === 'L') {
-          const t = text.slice(fieldStart[f], fieldEnd[f]);
-          const v = parseBoolean(t);
+          const v = parseBoolean(text.slice(fieldStart[f], fieldEnd[f]));
           if (v === undefined) this.badNumber(text, f, c.name, 'T or F');
           (sink as Uint8Array)[base + w] = v ? 1 : 0;
         } else {
@@ -392,14 +418,6 @@ export class ExtxyzAssembler {
         }
       }
     }
-    if (b.speciesFromZ) {
-      const z = b.speciesFromZ[a];
-      const s = elementSymbol(z);
-      if (s === undefined) fail(`atomic number Z = ${z} is not an element`, this.where(), 'Z must be 1…118');
-      b.species[a] = s;
-    }
-    b.atom++;
-    return b.atom === h.nAtoms ? this.complete() : null;
   }
 
   private complete(): Frame {
@@ -468,7 +486,7 @@ export function parseExtxyz(text: string, fileName: string): Frame[] {
   while (start < n) {
     let end = text.indexOf('\n', start);
     if (end < 0) end = n;
-    const r = asm.push(text.slice(start, end));
+    const r = asm.push(text, start, end);
     if (r !== null && r !== 'stop') frames.push(r);
     start = end + 1;
   }
