@@ -74,14 +74,15 @@ export function progressReporter(io: CommandIO, prefix: string): (p: Progress) =
   };
 }
 
-import { readExtxyz, type FrameRange } from '../io/extxyz.ts';
+import type { FrameRange } from '../io/extxyz.ts';
+import { readStructures } from '../io/read-structures.ts';
 import type { Frame } from '../core/frame.ts';
 import { CancelledError } from '../core/errors.ts';
 
-/** Every frame of an extended XYZ file (optionally a range), stopping on Ctrl-C. */
+/** Every frame of a structure file (extended XYZ or CIF; optionally a range), stopping on Ctrl-C. */
 export async function readFrames(path: string, io: CommandIO, range?: FrameRange): Promise<Frame[]> {
   const frames: Frame[] = [];
-  for await (const f of readExtxyz(path, { signal: io.signal, range })) {
+  for await (const f of readStructures(path, { signal: io.signal, range })) {
     frames.push(f);
     if (io.signal.aborted) throw new CancelledError();
   }

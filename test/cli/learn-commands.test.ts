@@ -37,11 +37,14 @@ describe('polarweave train / predict / validate', () => {
     expect(p.code).toBe(0);
     expect(p.out).toMatch(/3 frames predicted/);
     const lines = readFileSync(csv, 'utf8').trim().split('\n');
-    expect(lines[0]).toMatch(/^# Polarweave predictions \(model estimates\)/);
-    const header = lines[1].split(',');
+    expect(lines[0]).toMatch(/^# Polarweave predicted dielectric tensors/);
+    expect(lines.some((l) => /model estimates/.test(l))).toBe(true);
+    const body = lines.filter((l) => !l.startsWith('#'));
+    const header = body[0].split(',');
     expect(header.slice(0, 4)).toEqual(['frame', 'tag', 'volume_A3', 'eps_xx']);
     expect(header).toContain('outside');
-    const rows = lines.slice(2).map((l) => l.split(','));
+    expect(header).toContain('alpha_cm_xx_A3');
+    const rows = body.slice(1).map((l) => l.split(','));
     expect(rows.map((r) => r[0])).toEqual(['2', '4', '6']);
     expect(rows.map((r) => r[1])).toEqual(['sample-003', 'sample-005', 'sample-007']);
     const epsXX = Number(rows[0][header.indexOf('eps_xx')]);
@@ -55,6 +58,7 @@ describe('polarweave train / predict / validate', () => {
     expect(back.length).toBe(2);
     expect((back[0].info.pred_eps as number[]).length).toBe(9);
     expect(back[0].arrays.local_alpha_cm_A3.width).toBe(9);
+    expect(new Set(back[0].arrays.molecule.data as Int32Array).size).toBe(16);
     // the per-atom local tensors sum to the frame's α_CM
     const local = back[0].arrays.local_alpha_cm_A3.data as Float64Array;
     let xx = 0;
