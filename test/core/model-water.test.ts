@@ -10,6 +10,8 @@ import { predictFrame, trainModel, type Model } from '../../src-main/core/model.
 import { makeRng } from '../../src-main/core/random.ts';
 import { rotateTensor, toIrreducible } from '../../src-main/core/tensor.ts';
 import { parseExtxyz } from '../../src-main/io/extxyz.ts';
+import { parseModel, serialiseModel } from '../../src-main/io/model-file.ts';
+import { tuneSettings } from '../../src-main/core/tuning.ts';
 import { MIRROR, randomRotations, transformFrame } from './equivariance-harness.ts';
 
 const frames: Frame[] = parseExtxyz(readFileSync(new URL('../fixtures/water-dft-sample.extxyz', import.meta.url), 'utf8'), 'water-dft-sample.extxyz');
@@ -123,4 +125,33 @@ describe('symmetry and size of a trained model', () => {
     expect(q.applicability.maxDistance).toBeGreaterThan(q.applicability.threshold);
     expect(q.applicability.variance).toBeGreaterThan(p.applicability.variance);
   });
+});
+
+describe('feature selection and tuning on the real frames', () => {
+  it('a model with at most 40 feature columns per order stays equivariant and close to the reference', async () => {
+    const m = await trainModel(frames.slice(0, 6), { tensorKey: KEY, kind: 'alpha-c', route: 'cm', settings: { maxFeatures: 40, nmax: 4, lmax: 3 } });
+    expect(m.featureSelection?.[0]?.length).toBe(40);
+    expect(m.featureSelection?.[2]?.length).toBe(40);
+    expect(m.parts[1].n).toBe(40);
+    const back = parseModel(serialiseModel(m), 'sel.json');
+    for (const f of [6, 7]) {
+      const p = predictFrame(back, frames[f]);
+      expect(Math.abs(iso(p.alphaCM) / 16 - iso(reference(f).alphaCM) / 16)).toBeLessThan(0.03);
+      const R = randomRotations(makeRng(f), 1)[0];
+      const q = predictFrame(back, transformFrame(frames[f], R));
+      const expected = rotateTensor(p.alphaCM, R);
+      for (let k = 0; k < 9; k++) expect(Math.abs(q.alphaCM[k] - expected[k])).toBeLessThan(1e-9 * 30);
+    }
+  }, 120_000);
+
+  it('tuning picks the cutoff with the smaller cross-validated error and records it', async () => {
+    const request = { tensorKey: KEY, kind: 'alpha-c' as const, route: 'cm' as const, settings: { nmax: 4, lmax: 3 } };
+    const tuned = await tuneSettings(frames.slice(0, 6), request, { cutoff: [3.0, 4.5] });
+    expect(tuned.table.length).toBe(2);
+    const best = tuned.table.reduce((a, b) => (b.score < a.score ? b : a));
+    expect(tuned.best).toEqual(best.settings);
+    const m = await trainModel(frames.slice(0, 6), { ...request, tune: { cutoff: [3.0, 4.5] } });
+    expect(m.settings.cutoff).toBe(best.settings.cutoff);
+    expect(m.notes.join(' ')).toMatch(/tuned by cross-validation: cutoff/);
+  }, 180_000);
 });
