@@ -12,6 +12,7 @@ import { rotateTensor, toIrreducible } from '../../src-main/core/tensor.ts';
 import { parseExtxyz } from '../../src-main/io/extxyz.ts';
 import { parseModel, serialiseModel } from '../../src-main/io/model-file.ts';
 import { tuneSettings } from '../../src-main/core/tuning.ts';
+import { moleculeContributions } from '../../src-main/core/molecules.ts';
 import { MIRROR, randomRotations, transformFrame } from './equivariance-harness.ts';
 
 const frames: Frame[] = parseExtxyz(readFileSync(new URL('../fixtures/water-dft-sample.extxyz', import.meta.url), 'utf8'), 'water-dft-sample.extxyz');
@@ -71,6 +72,22 @@ describe('real DFT water: train on frames 0–5, predict frames 6 and 7', () => 
       const ref = reference(f);
       expect(Math.abs(iso(b.eps) - iso(ref.eps))).toBeLessThan(0.006);
     }
+  });
+
+  it('per-molecule α_CM: 16 molecules of about 1.13 Å³ each, summing to the cell', () => {
+    const p = predictFrame(models.cm!, frames[6]);
+    const { molecules, local } = moleculeContributions(frames[6], p.local);
+    expect(molecules.count).toBe(16);
+    let trace = 0;
+    for (let m = 0; m < 16; m++) {
+      const t = local.subarray(m * 9, m * 9 + 9);
+      const isoM = (t[0] + t[4] + t[8]) / 3;
+      trace += isoM;
+      // local molecular polarisabilities near the cell average (1.12 Å³ per molecule, data README)
+      expect(isoM).toBeGreaterThan(0.8);
+      expect(isoM).toBeLessThan(1.5);
+    }
+    expect(trace).toBeCloseTo(iso(p.alphaCM), 9);
   });
 
   it('the sum of the per-atom local contributions is the predicted additive tensor', () => {
