@@ -101,5 +101,13 @@ describe('polarweave train / predict / validate', () => {
     const r = await cli(['train', join(sub, 'in.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', ...FAST, '-o', join(sub, 'm.json')], c.signal);
     expect(r.code).toBe(130);
     expect(readdirSync(sub)).toEqual(['in.extxyz']);
-  });
+    // predict and validate stop the same way
+    const model = join(sub, 'model.json');
+    expect((await cli(['train', join(sub, 'in.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', ...FAST, '--regularisation', '1e-6', '-o', model])).code).toBe(0);
+    const p = await cli(['predict', model, join(sub, 'in.extxyz'), '-o', join(sub, 'out.csv')], c.signal);
+    expect(p.code).toBe(130);
+    expect(readdirSync(sub).sort()).toEqual(['in.extxyz', 'model.json']);
+    const v = await cli(['validate', join(sub, 'in.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', ...FAST], c.signal);
+    expect(v.code).toBe(130);
+  }, 60_000);
 });
