@@ -33,7 +33,7 @@ import {
   representativeFactor,
   representativeKernel,
   representativesFrom,
-  rowDistance,
+  nearestDistance,
   structureToRepresentatives,
   type EnvironmentPool,
   type Representatives,
@@ -776,12 +776,7 @@ function applicabilityOf(model: Model, fe: EnvironmentFeatures, nAtoms: number):
   let atomsOutside = 0;
   const m = a.species.length;
   for (let e = 0; e < fe.count; e++) {
-    let best = Infinity;
-    for (let r = 0; r < m; r++) {
-      if (a.species[r] !== fe.centreSpecies[e]) continue;
-      const d = rowDistance(fe.scalar, e, a.p, r, a.n0);
-      if (d < best) best = d;
-    }
+    let best = nearestDistance(fe.scalar, e, a.p, a.species, fe.centreSpecies[e], a.n0);
     if (!Number.isFinite(best)) best = 2;
     atomDistance[fe.centre[e]] = best;
     if (best > maxDistance) maxDistance = best;

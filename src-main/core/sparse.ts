@@ -241,3 +241,28 @@ export function foldCoefficients(reps: Representatives, x: Float64Array, zeta: n
   }
   return { zeta, n0: reps.n0, n, species: Int32Array.from(reps.species), p: Float64Array.from(reps.p), v };
 }
+
+/**
+ * Distance from row i of `a` to the nearest row of `reps` whose species is `species` (Infinity if none).
+ * Partial sums are checked every 16 features against the best so far, so far-away representatives are left
+ * early; the result is exact.
+ */
+export function nearestDistance(a: Float64Array, i: number, reps: Float64Array, repSpecies: Int32Array, species: number, n0: number): number {
+  let best = Infinity;
+  const oa = i * n0;
+  for (let r = 0; r < repSpecies.length; r++) {
+    if (repSpecies[r] !== species) continue;
+    const ob = r * n0;
+    let s = 0;
+    let f = 0;
+    while (f < n0 && s < best) {
+      const end = Math.min(n0, f + 16);
+      for (; f < end; f++) {
+        const d = a[oa + f] - reps[ob + f];
+        s += d * d;
+      }
+    }
+    if (s < best) best = s;
+  }
+  return Math.sqrt(best);
+}
