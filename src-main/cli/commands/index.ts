@@ -2,5 +2,8 @@
 import type { Command } from '../command.ts';
 import { convertCommand } from './convert.ts';
 import { inspectCommand } from './inspect.ts';
+import { trainCommand } from './train.ts';
+import { predictCommand } from './predict.ts';
+import { validateCommand } from './validate.ts';
 
-export const commands: Command[] = [inspectCommand, convertCommand];
+export const commands: Command[] = [inspectCommand, convertCommand, trainCommand, predictCommand, validateCommand];
