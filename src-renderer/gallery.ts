@@ -2,7 +2,8 @@
 // at and screenshotted (scripts/gallery-screenshot.mjs) without a trained model. Not part of the app.
 import { mount, type Component } from 'svelte';
 import ParityChart from './components/charts/ParityChart.svelte';
-import { syntheticParity, figuresOf } from './gallery-data.ts';
+import StructureView from './components/structure/StructureView.svelte';
+import { syntheticParity, figuresOf, syntheticWaterBox } from './gallery-data.ts';
 
 const root = document.getElementById('gallery');
 if (!root) throw new Error('gallery.html has no #gallery element');
@@ -55,4 +56,19 @@ show('parity-norm', 'ParityChart, λ=2 invariant', ParityChart, {
   units: 'Å³',
   errors,
   width: 460,
+});
+
+const water = syntheticWaterBox();
+show('structure-atoms', 'StructureView, per atom', StructureView, {
+  ...water,
+  groups: water.groups,
+  options: { ellipsoids: 'atom', tensorUnits: 'Å³', tensorLabel: 'local α_CM', epsLabel: 'synthetic values' },
+  width: 900,
+  height: 560,
+});
+show('structure-molecules', 'StructureView, per molecule, periodic images', StructureView, {
+  ...water,
+  options: { ellipsoids: 'molecule', images: true, tensorUnits: 'Å³', tensorLabel: 'local α_CM', epsLabel: 'synthetic values' },
+  width: 900,
+  height: 560,
 });
