@@ -3,7 +3,9 @@
 import { mount, type Component } from 'svelte';
 import ParityChart from './components/charts/ParityChart.svelte';
 import StructureView from './components/structure/StructureView.svelte';
-import { syntheticParity, figuresOf, syntheticWaterBox } from './gallery-data.ts';
+import LearningCurve from './components/charts/LearningCurve.svelte';
+import TrajectoryChart from './components/charts/TrajectoryChart.svelte';
+import { syntheticParity, figuresOf, syntheticWaterBox, syntheticLearningCurves, syntheticTrajectory } from './gallery-data.ts';
 
 const root = document.getElementById('gallery');
 if (!root) throw new Error('gallery.html has no #gallery element');
@@ -71,4 +73,27 @@ show('structure-molecules', 'StructureView, per molecule, periodic images', Stru
   options: { ellipsoids: 'molecule', images: true, tensorUnits: 'Å³', tensorLabel: 'local α_CM', epsLabel: 'synthetic values' },
   width: 900,
   height: 560,
+});
+
+show('learning-curve', 'LearningCurve, both routes', LearningCurve, {
+  curves: syntheticLearningCurves(),
+  units: 'Å³',
+  width: 620,
+});
+show('learning-curve-one', 'LearningCurve, one route, RMSE', LearningCurve, {
+  curves: syntheticLearningCurves().slice(0, 1),
+  metric: 'rmse',
+  units: 'Å³',
+  width: 460,
+});
+
+const traj = syntheticTrajectory();
+show('trajectory', 'TrajectoryChart, 20 000 frames', TrajectoryChart, {
+  series: traj.labels.map((label, k) => ({ label, values: traj.values[k] })),
+  x: traj.time,
+  xLabel: 'time (ps)',
+  yLabel: 'ε (optical, principal-frame components)',
+  title: 'Optical dielectric tensor along the run',
+  current: 12000,
+  width: 900,
 });
