@@ -1,6 +1,7 @@
 // Development gallery: mounts each visual component with SYNTHETIC data (gallery-data.ts) so it can be looked
 // at and screenshotted (scripts/gallery-screenshot.mjs) without a trained model. Not part of the app.
 import { mount, type Component } from 'svelte';
+import { svgToString, svgToPng } from './components/charts/export-figure.ts';
 import ParityChart from './components/charts/ParityChart.svelte';
 import StructureView from './components/structure/StructureView.svelte';
 import LearningCurve from './components/charts/LearningCurve.svelte';
@@ -39,6 +40,7 @@ show('parity-iso', 'ParityChart, λ=0', ParityChart, {
   units: 'Å³',
   errors,
   width: 460,
+  figuresPerGroup: true,
   onselect: log,
 });
 show('parity-aniso', 'ParityChart, λ=2 components', ParityChart, {
@@ -97,3 +99,15 @@ show('trajectory', 'TrajectoryChart, 20 000 frames', TrajectoryChart, {
   current: 12000,
   width: 900,
 });
+
+// Hook for scripts/gallery-screenshot.mjs: export a section's figure as SVG text and PNG (base64).
+async function exportFigure(id: string): Promise<{ svg: string; png: string }> {
+  const svg = document.querySelector(`#${id} svg`);
+  if (!(svg instanceof SVGSVGElement)) throw new Error(`gallery: no SVG in #${id}`);
+  const text = svgToString(svg, '#ffffff');
+  const bytes = new Uint8Array(await (await svgToPng(svg, 1)).arrayBuffer());
+  let bin = '';
+  for (let i = 0; i < bytes.length; i += 0x8000) bin += String.fromCharCode(...bytes.subarray(i, i + 0x8000));
+  return { svg: text, png: btoa(bin) };
+}
+(window as unknown as { pwGallery: unknown }).pwGallery = { exportFigure };
