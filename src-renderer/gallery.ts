@@ -111,3 +111,38 @@ async function exportFigure(id: string): Promise<{ svg: string; png: string }> {
   return { svg: text, png: btoa(bin) };
 }
 (window as unknown as { pwGallery: unknown }).pwGallery = { exportFigure };
+
+// ?large: a 3×3×3 supercell of the synthetic box (972 atoms) for timing redraws (scripts/gallery-screenshot.mjs --perf).
+if (location.search.includes('large')) {
+  root.replaceChildren();
+  const reps = 3;
+  const species: string[] = [];
+  const pos: number[] = [];
+  const tens: number[] = [];
+  const groups: number[] = [];
+  const c = water.cell;
+  const ng = Math.max(...water.groups) + 1;
+  let block = 0;
+  for (let i = 0; i < reps; i++)
+    for (let j = 0; j < reps; j++)
+      for (let k = 0; k < reps; k++, block++) {
+        water.species.forEach((s, a) => {
+          species.push(s);
+          for (let m = 0; m < 3; m++) pos.push(water.positions[3 * a + m] + i * c[m] + j * c[3 + m] + k * c[6 + m]);
+          for (let m = 0; m < 9; m++) tens.push(water.tensors[9 * a + m]);
+          groups.push(water.groups[a] + block * ng);
+        });
+      }
+  const big = Float64Array.from(c, (v) => v * reps);
+  show('structure-large', `StructureView, ${species.length} atoms`, StructureView, {
+    species,
+    positions: Float64Array.from(pos),
+    cell: big,
+    tensors: Float64Array.from(tens),
+    groups: Int32Array.from(groups),
+    frameEps: water.frameEps,
+    options: { ellipsoids: 'atom', tensorUnits: 'Å³' },
+    width: 900,
+    height: 600,
+  });
+}

@@ -82,6 +82,11 @@ function svgSize(svg: SVGSVGElement): { width: number; height: number } {
 export async function svgToPng(svg: SVGSVGElement, scale = 2, background = '#ffffff'): Promise<Blob> {
   const text = svgToString(svg, background);
   const { width, height } = svgSize(svg);
+  return svgTextToPng(text, width, height, scale);
+}
+
+/** A serialised standalone SVG document drawn to a PNG of (width × height) × scale pixels. */
+export async function svgTextToPng(text: string, width: number, height: number, scale = 2): Promise<Blob> {
   const url = URL.createObjectURL(new Blob([text], { type: 'image/svg+xml;charset=utf-8' }));
   try {
     const img = new Image();
@@ -115,6 +120,13 @@ export interface FigureExport {
   name: string;
   svg: () => string;
   png: (scale?: number) => Promise<Blob>;
+}
+
+/** Export handle for an SVG serialised now (for views that add content to the SVG only while exporting). */
+export function figureFromSvg(name: string, svg: SVGSVGElement, background = '#ffffff'): FigureExport {
+  const text = svgToString(svg, background);
+  const { width, height } = svgSize(svg);
+  return { name, svg: () => text, png: (scale = 2) => svgTextToPng(text, width, height, scale) };
 }
 
 /** Export handle for a live SVG element. */
