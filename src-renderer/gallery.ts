@@ -24,8 +24,28 @@ function section(id: string, heading: string): HTMLElement {
   return body;
 }
 
-function show<P extends Record<string, unknown>>(id: string, heading: string, component: Component<P>, props: P): void {
-  mount(component, { target: section(id, heading), props });
+function show<P extends Record<string, unknown>>(id: string, heading: string, component: Component<P>, props: P, dark = false): void {
+  const target = section(id, heading);
+  if (dark) {
+    // the theme variables the components read (h-ui's dark theme sets its own values)
+    const s = target.parentElement as HTMLElement;
+    const vars: Record<string, string> = {
+      '--pw-fg': '#e3e8ef',
+      '--pw-muted': '#9aa5b4',
+      '--pw-grid': '#39424f',
+      '--pw-bg': '#1a1f27',
+      '--pw-panel': '#232a34',
+      '--pw-accent': '#4fb0c6',
+      '--pw-warn': '#ff6fa8',
+      '--pw-group-0': '#5cc0d6',
+      '--pw-group-1': '#f0a04b',
+      '--pw-group-2': '#b48ade',
+    };
+    for (const [k, v] of Object.entries(vars)) s.style.setProperty(k, v);
+    s.style.background = '#1a1f27';
+    s.style.color = '#e3e8ef';
+  }
+  mount(component, { target, props });
 }
 
 const parity = syntheticParity();
@@ -88,6 +108,21 @@ show('learning-curve-one', 'LearningCurve, one route, RMSE', LearningCurve, {
   units: 'Å³',
   width: 460,
 });
+
+show(
+  'parity-dark',
+  'ParityChart, dark theme variables',
+  ParityChart,
+  { points: parity.points, groups: parity.groups, part: 'aniso', units: 'Å³', errors, width: 460 },
+  true,
+);
+show(
+  'structure-dark',
+  'StructureView, dark theme variables',
+  StructureView,
+  { ...water, options: { ellipsoids: 'molecule', tensorUnits: 'Å³', tensorLabel: 'local α_CM', epsLabel: 'synthetic values' }, width: 900, height: 520 },
+  true,
+);
 
 const traj = syntheticTrajectory();
 show('trajectory', 'TrajectoryChart, 20 000 frames', TrajectoryChart, {
