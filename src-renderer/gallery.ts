@@ -24,7 +24,7 @@ function section(id: string, heading: string): HTMLElement {
   return body;
 }
 
-function show<P extends Record<string, unknown>>(id: string, heading: string, component: Component<P>, props: P, dark = false): void {
+function show<P extends Record<string, any>>(id: string, heading: string, component: Component<P>, props: NoInfer<P>, dark = false): void {
   const target = section(id, heading);
   if (dark) {
     // the theme variables the components read (h-ui's dark theme sets its own values)
@@ -140,7 +140,7 @@ async function exportFigure(id: string): Promise<{ svg: string; png: string }> {
   const svg = document.querySelector(`#${id} svg`);
   if (!(svg instanceof SVGSVGElement)) throw new Error(`gallery: no SVG in #${id}`);
   const text = svgToString(svg, '#ffffff');
-  const bytes = new Uint8Array(await (await svgToPng(svg, 1)).arrayBuffer());
+  const bytes = new Uint8Array(await (await svgToPng(svg, 1.5)).arrayBuffer());
   let bin = '';
   for (let i = 0; i < bytes.length; i += 0x8000) bin += String.fromCharCode(...bytes.subarray(i, i + 0x8000));
   return { svg: text, png: btoa(bin) };

@@ -146,3 +146,17 @@ export function downloadBlob(data: Blob | string, fileName: string, type = 'imag
   a.remove();
   setTimeout(() => URL.revokeObjectURL(url), 1000);
 }
+
+/**
+ * What an export button does: hand the figure to the view's `onexport` when it gives one (the desktop shell saves
+ * through its dialog), else let the browser save `<name>.svg` or `<name>.png`.
+ */
+export function saveFigure(
+  fig: FigureExport,
+  format: 'svg' | 'png',
+  onexport?: (figure: FigureExport, format: 'svg' | 'png') => void,
+): void {
+  if (onexport) onexport(fig, format);
+  else if (format === 'svg') downloadBlob(fig.svg(), safeFileName(fig.name, 'svg'));
+  else void fig.png().then((b) => downloadBlob(b, safeFileName(fig.name, 'png')));
+}
