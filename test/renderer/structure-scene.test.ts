@@ -93,6 +93,13 @@ describe('buildScene', () => {
     expect(s.notes.join(' ')).toMatch(/1 of 2 local tensors have a negative principal value/);
   });
 
+  it('leaves out tensors with non-finite values (with a note) and rejects non-finite positions', () => {
+    const s = buildScene({ species: ['C', 'C'], positions: [0, 0, 0, 2, 0, 0], cell: null, tensors: [...iso(1), NaN, 0, 0, 0, 1, 0, 0, 0, 1] }, 'atom');
+    expect(s.ellipsoids.map((e) => e.id)).toEqual([0]);
+    expect(s.notes.join(' ')).toMatch(/1 local tensor\(s\) contain values that are not finite.*atom 1/);
+    expect(() => buildScene({ species: ['C', 'N'], positions: [0, 0, 0, 2, Infinity, 0], cell: null }, 'none')).toThrow(/atom 1 \(N\)/);
+  });
+
   it('draws the 12 edges of the cell, each along a, b or c', () => {
     const tri = [5, 0, 0, 1, 4, 0, 0.5, 0.7, 6];
     const edges = cellEdges(tri);
