@@ -80,6 +80,13 @@ try {
     await page.mouse.move(box.x + box.width / 2, box.y + box.height / 2);
     await page.waitForTimeout(100);
     await page.locator('#parity-iso').screenshot({ path: join(shotDir, 'components-parity-hover.png') });
+    // keyboard on the parity chart: the first arrow press shows the frame with the largest error
+    await page.locator('#parity-aniso .pw-parity').focus();
+    await page.keyboard.press('ArrowRight');
+    await page.locator('#parity-aniso').screenshot({ path: join(shotDir, 'components-parity-keyboard.png') });
+    await page.keyboard.press('Enter');
+    const selected = await page.title();
+    if (!/^selected frame \d+$/.test(selected)) problems.push(`parity chart: Enter did not select a frame (title "${selected}")`);
     await page.locator('#structure-atoms .pw-structure').focus();
     for (const key of ['ArrowRight', 'ArrowRight', 'ArrowRight', 'ArrowDown', 'ArrowDown', '+', '+']) await page.keyboard.press(key);
     await page.locator('#structure-atoms').screenshot({ path: join(shotDir, 'components-structure-rotated.png') });
