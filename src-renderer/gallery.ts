@@ -109,6 +109,13 @@ show('learning-curve-one', 'LearningCurve, one route, RMSE', LearningCurve, {
   width: 460,
 });
 
+show('structure-plain', 'StructureView, structure only (no tensors, no ε), skewed cell', StructureView, {
+  species: water.species,
+  positions: water.positions,
+  cell: Float64Array.of(9.3, 0, 0, 1.8, 6.1, 0, 0.9, 1.2, 5.9),
+  width: 640,
+  height: 420,
+});
 show(
   'parity-dark',
   'ParityChart, dark theme variables',

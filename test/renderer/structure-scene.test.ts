@@ -93,6 +93,13 @@ describe('buildScene', () => {
     expect(s.notes.join(' ')).toMatch(/1 of 2 local tensors have a negative principal value/);
   });
 
+  it('draws no ellipsoids (mode none) when no local tensors are given', () => {
+    const s = buildScene({ species: ['C', 'C'], positions: [0, 0, 0, 1.5, 0, 0], cell: null }, 'atom');
+    expect(s.mode).toBe('none');
+    expect(s.ellipsoids).toHaveLength(0);
+    expect(s.bonds).toHaveLength(2);
+  });
+
   it('leaves out tensors with non-finite values (with a note) and rejects non-finite positions', () => {
     const s = buildScene({ species: ['C', 'C'], positions: [0, 0, 0, 2, 0, 0], cell: null, tensors: [...iso(1), NaN, 0, 0, 0, 1, 0, 0, 0, 1] }, 'atom');
     expect(s.ellipsoids.map((e) => e.id)).toEqual([0]);

@@ -197,7 +197,7 @@ export function buildScene(input: SceneInput, mode: EllipsoidMode, bondCutoffFac
           'A local contribution need not be positive definite; only the sum over the cell is a physical polarisability.',
       );
     }
-  } else used = mode === 'none' ? 'none' : used;
+  } else used = 'none'; // nothing to draw: say so in the title rather than promise ellipsoids
 
   // Bounding sphere for the camera: cell corners and atoms.
   const pts: V3[] = atoms.map((a) => a.centre);
