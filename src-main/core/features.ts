@@ -362,6 +362,98 @@ function tensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Arr
   normalise(out, base, base + nM * n);
 }
 
+/** A frame prepared for featurisation: plan, species channels, centre atoms, neighbour pairs. */
+interface Prepared {
+  P: Plan;
+  channelOf: Int32Array;
+  /** Centre atoms in order, and the index of each one's species in settings.centres. */
+  centres: Int32Array;
+  centreSpecies: Int32Array;
+  pairs: NeighbourPairs;
+  where: { file?: string; line?: number; frame?: number };
+}
+
+function prepare(frame: Frame, settings: FeatureSettings, lambdas: Lambda[], neighbours: NeighbourPairs | undefined, timings: FeatureTimings | undefined): Prepared {
+  for (const l of lambdas) {
+    if (l !== 0 && l !== 1 && l !== 2) throw new RangeError(`computeFeatures: λ must be 0, 1 or 2, got ${String(l)}`);
+  }
+  const P = plan(settings, ([1, 2] as const).filter((l) => lambdas.includes(l)));
+  for (const T of P.tensors) {
+    if (T.n === 0) {
+      throw new InputError(`feature settings: λ = ${T.lambda} features need lmaxTensor ≥ 1 (lmax ${settings.lmax}, lmaxTensor ${tensorLimits(settings).lmax})`, {}, 'raise lmax (and lmaxTensor) to at least 1');
+    }
+  }
+  const s = P.settings;
+  const N = frame.species.length;
+  const where = { file: frame.source?.file, line: frame.source?.line, frame: frame.source?.index };
+  const speciesIndex = new Map(s.species.map((x, i) => [x, i]));
+  const centreIndex = new Map(s.centres.map((x, i) => [x, i]));
+  const channelOf = new Int32Array(N);
+  const centres: number[] = [];
+  const centreSpecies: number[] = [];
+  for (let i = 0; i < N; i++) {
+    const a = speciesIndex.get(frame.species[i]);
+    if (a === undefined) {
+      throw new InputError(
+        `atom ${i + 1} is ${frame.species[i]}, which is not among the feature species (${s.species.join(', ')})`,
+        where,
+        'use a model trained with this species, or remove those atoms from the structure',
+      );
+    }
+    channelOf[i] = a;
+    const ci = centreIndex.get(frame.species[i]);
+    if (ci !== undefined) {
+      centres.push(i);
+      centreSpecies.push(ci);
+    }
+  }
+  const t0 = timings ? performance.now() : 0;
+  const pairs = neighbours ?? neighbourList(frame, s.cutoff);
+  if (pairs.start.length !== N + 1) {
+    throw new RangeError(`computeFeatures: neighbour list has ${pairs.start.length - 1} centres, the frame ${N} atoms`);
+  }
+  if (timings) timings.neighbours += performance.now() - t0;
+  return { P, channelOf, centres: Int32Array.from(centres), centreSpecies: Int32Array.from(centreSpecies), pairs, where };
+}
+
+/**
+ * The per-environment loop shared by computeFeatures and forEachEnvironment: environment e is written to
+ * scalar[at(e)·…] and tensor[k] at block slot(e); `after(e)` runs once its features are complete.
+ */
+function featurise(
+  prep: Prepared,
+  scalar: Float64Array,
+  tensors: Float64Array[],
+  slot: (e: number) => number,
+  after: ((e: number) => void) | null,
+  timings: FeatureTimings | undefined,
+): void {
+  const { P, channelOf, centres, pairs, where } = prep;
+  const c = P.coefficients;
+  let tExpand = 0, tCouple = 0;
+  for (let e = 0; e < centres.length; e++) {
+    const i = centres[e];
+    const ta = timings ? performance.now() : 0;
+    P.expander.expand(pairs, i, channelOf[i], channelOf, c);
+    const tb = timings ? performance.now() : 0;
+    const k0 = slot(e);
+    const norm = powerSpectrum(P, c, scalar, k0 * P.n0);
+    if (!Number.isFinite(norm)) {
+      throw new InputError(`features of atom ${i + 1} are not finite (non-finite positions or cell?)`, where, 'check the structure');
+    }
+    for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensors[k], k0);
+    if (timings) {
+      tExpand += tb - ta;
+      tCouple += performance.now() - tb;
+    }
+    if (after) after(e);
+  }
+  if (timings) {
+    timings.expansion += tExpand;
+    timings.coupling += tCouple;
+  }
+}
+
 /**
  * Features of every centre of `frame` (atoms whose species is in settings.centres, in atom order). λ = 0 is
  * always computed (tensor kernels need it too); `lambdas` adds 1 and/or 2. `neighbours` may be passed when the
@@ -374,75 +466,56 @@ export function computeFeatures(
   neighbours?: NeighbourPairs,
   timings?: FeatureTimings,
 ): EnvironmentFeatures {
-  const wanted = ([1, 2] as const).filter((l) => lambdas.includes(l));
-  for (const l of lambdas) {
-    if (l !== 0 && l !== 1 && l !== 2) throw new RangeError(`computeFeatures: λ must be 0, 1 or 2, got ${String(l)}`);
-  }
-  const P = plan(settings, wanted);
-  const s = P.settings;
-  const N = frame.species.length;
-  const where = { file: frame.source?.file, line: frame.source?.line, frame: frame.source?.index };
-  const speciesIndex = new Map(s.species.map((x, i) => [x, i]));
-  const centreIndex = new Map(s.centres.map((x, i) => [x, i]));
-  const channelOf = new Int32Array(N);
-  let count = 0;
-  for (let i = 0; i < N; i++) {
-    const a = speciesIndex.get(frame.species[i]);
-    if (a === undefined) {
-      throw new InputError(
-        `atom ${i + 1} is ${frame.species[i]}, which is not among the feature species (${s.species.join(', ')})`,
-        where,
-        'use a model trained with this species, or remove those atoms from the structure',
-      );
-    }
-    channelOf[i] = a;
-    if (centreIndex.has(frame.species[i])) count++;
-  }
-  let t0 = timings ? performance.now() : 0;
-  const pairs = neighbours ?? neighbourList(frame, s.cutoff);
-  if (pairs.start.length !== N + 1) {
-    throw new RangeError(`computeFeatures: neighbour list has ${pairs.start.length - 1} centres, the frame ${N} atoms`);
-  }
-  if (timings) {
-    const t1 = performance.now();
-    timings.neighbours += t1 - t0;
-    t0 = t1;
-  }
-  const centre = new Int32Array(count);
-  const centreSpecies = new Int32Array(count);
+  const prep = prepare(frame, settings, lambdas, neighbours, timings);
+  const { P } = prep;
+  const count = prep.centres.length;
   const scalar = new Float64Array(count * P.n0);
   const tensorOut = P.tensors.map((T) => new Float64Array(count * (2 * T.lambda + 1) * T.n));
-  const c = P.coefficients;
-  let e = 0;
-  let tExpand = 0, tCouple = 0;
-  for (let i = 0; i < N; i++) {
-    const ci = centreIndex.get(frame.species[i]);
-    if (ci === undefined) continue;
-    centre[e] = i;
-    centreSpecies[e] = ci;
-    const ta = timings ? performance.now() : 0;
-    P.expander.expand(pairs, i, channelOf[i], channelOf, c);
-    const tb = timings ? performance.now() : 0;
-    const norm = powerSpectrum(P, c, scalar, e * P.n0);
-    if (!Number.isFinite(norm)) {
-      throw new InputError(`features of atom ${i + 1} are not finite (non-finite positions or cell?)`, where, 'check the structure');
-    }
-    for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensorOut[k], e);
-    if (timings) {
-      tExpand += tb - ta;
-      tCouple += performance.now() - tb;
-    }
-    e++;
-  }
-  if (timings) {
-    timings.expansion += tExpand;
-    timings.coupling += tCouple;
-  }
+  featurise(prep, scalar, tensorOut, (e) => e, null, timings);
   const tensor: EnvironmentFeatures['tensor'] = {};
   P.tensors.forEach((T, k) => {
     tensor[T.lambda] = { n: T.n, data: tensorOut[k] };
   });
-  return { count, centre, centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor };
+  return { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor };
+}
+
+/** One environment's features as handed to forEachEnvironment's visitor (buffers reused: copy what you keep). */
+export interface EnvironmentView {
+  /** Environment index within the frame, centre atom, and index of its species in settings.centres. */
+  index: number;
+  centre: number;
+  centreSpecies: number;
+  /** The λ = 0 row (length n0) and the λ > 0 blocks ((2λ+1)·nλ, row-major in μ), each of unit norm. */
+  scalar: Float64Array;
+  tensor: Partial<Record<1 | 2, Float64Array>>;
+}
+
+/**
+ * The same features as computeFeatures, one environment at a time, in a fixed amount of memory: for large
+ * frames, or for sums over environments (a linear model's prediction). Returns the number of environments.
+ */
+export function forEachEnvironment(
+  frame: Frame,
+  settings: FeatureSettings,
+  lambdas: Lambda[],
+  visit: (env: EnvironmentView) => void,
+  neighbours?: NeighbourPairs,
+): number {
+  const prep = prepare(frame, settings, lambdas, neighbours, undefined);
+  const { P } = prep;
+  const scalar = new Float64Array(P.n0);
+  const blocks = P.tensors.map((T) => new Float64Array((2 * T.lambda + 1) * T.n));
+  const view: EnvironmentView = { index: 0, centre: 0, centreSpecies: 0, scalar, tensor: {} };
+  P.tensors.forEach((T, k) => {
+    view.tensor[T.lambda] = blocks[k];
+  });
+  featurise(prep, scalar, blocks, () => 0, (e) => {
+    view.index = e;
+    view.centre = prep.centres[e];
+    view.centreSpecies = prep.centreSpecies[e];
+    visit(view);
+  }, undefined);
+  return prep.centres.length;
 }
 
 /** Concatenates per-frame features; environment k of parts[f] gets frame index f. All parts must agree in size. */

@@ -51,7 +51,7 @@ const arbCell = fc
     return 1 - c(al) ** 2 - c(be) ** 2 - c(ga) ** 2 + 2 * c(al) * c(be) * c(ga) > 0.05;
   })
   .map(([a, b, c, al, be, ga, axis]) => {
-    // Rotate the standard-orientation cell by a random rotation (Rodrigues) so no axis is special.
+    // Rotate the standard-orientation cell by a random rotation (axis–angle formula) so no axis is special.
     const h = cellFromParameters(a, b, c, al, be, ga);
     const n = Math.hypot(axis[0], axis[1], axis[2]) || 1;
     const [ux, uy, uz] = [axis[0] / n, axis[1] / n, axis[2] / n];

@@ -1,12 +1,14 @@
-// decimalAt: the strict decimal reader used for every number in extended XYZ must give exactly what the
+// decimalAtBytes / strictNumber: the strict decimal reader used for every number in extended XYZ must give exactly what the
 // engine's own Number() gives (correct rounding, IEEE 754) for every decimal spelling, and NaN otherwise.
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { decimalAt, strictNumber } from '../../src-main/io/extxyz-comment.ts';
+import { decimalAtBytes, strictNumber } from '../../src-main/io/decimal.ts';
+
+const bytes = (t: string) => new TextEncoder().encode(t);
 
 const same = (a: number, b: number) => Object.is(a, b);
 
-describe('decimalAt', () => {
+describe('decimalAtBytes', () => {
   it('equals Number() on the texts doubles print as (shortest, fixed, exponential, precision)', () => {
     fc.assert(
       fc.property(fc.double({ noNaN: true, noDefaultInfinity: true }), fc.integer({ min: 0, max: 20 }), fc.integer({ min: 1, max: 21 }), (x, d, p) => {
@@ -35,8 +37,9 @@ describe('decimalAt', () => {
       expect(strictNumber(t), JSON.stringify(t)).toBeNaN();
     }
     // offsets inside a longer text
-    expect(decimalAt('O 12.5 -3', 2, 6)).toBe(12.5);
-    expect(decimalAt('O 12.5 -3', 7, 9)).toBe(-3);
+    expect(decimalAtBytes(bytes('O 12.5 -3'), 2, 6)).toBe(12.5);
+    expect(decimalAtBytes(bytes('O 12.5 -3'), 7, 9)).toBe(-3);
+    expect(decimalAtBytes(bytes('1.5'), 0, 0)).toBeNaN();
     expect(Object.is(strictNumber('-0.0'), -0)).toBe(true);
   });
 });
