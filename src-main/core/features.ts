@@ -65,14 +65,43 @@ export interface FeatureLabel {
 interface Block {
   l: number;
   l2: number;
-  /** Non-zero real Clebsch–Gordan coefficients (m+l, m2+l2, μ, value). */
-  sparse: SparseCoupling;
+  /**
+   * The non-zero real Clebsch–Gordan coefficients in gather form for the half-coupling H[μ·(2l+1) + m] =
+   * Σ C c_{held}: for target t the entries gatherStart[t]…gatherStart[t+1] give the held factor's m index and
+   * the coefficient. The held factor is the first (degree l) when l = l2, else the second (degree l2).
+   */
+  gatherStart: Int32Array;
+  gatherIndex: Int32Array;
+  gatherValue: Float64Array;
   /** For each first channel (index into the tensor channel list) the range of its pairs in ch2/weight. */
   firstStart: Int32Array;
   ch2: Int32Array;
   weight: Float64Array;
   /** Index of the block's first feature. */
   offset: number;
+}
+
+/** The gather form of Block (see there) from the sparse coefficients. */
+function gatherForm(sp: SparseCoupling, l: number, l2: number, lambda: number): Pick<Block, 'gatherStart' | 'gatherIndex' | 'gatherValue'> {
+  const width = 2 * l + 1;
+  const targets = (2 * lambda + 1) * width;
+  // Held factor: degree l (index i1) when l = l2, contracted over i2; degree l2 (index i2) otherwise.
+  const held = l === l2 ? sp.i1 : sp.i2;
+  const free = l === l2 ? sp.i2 : sp.i1;
+  const lists: { index: number; value: number }[][] = Array.from({ length: targets }, () => []);
+  for (let k = 0; k < sp.value.length; k++) lists[sp.iL[k] * width + free[k]].push({ index: held[k], value: sp.value[k] });
+  const gatherStart = new Int32Array(targets + 1);
+  const index: number[] = [];
+  const value: number[] = [];
+  lists.forEach((list, t) => {
+    gatherStart[t] = index.length;
+    for (const e of list) {
+      index.push(e.index);
+      value.push(e.value);
+    }
+  });
+  gatherStart[targets] = index.length;
+  return { gatherStart, gatherIndex: Int32Array.from(index), gatherValue: Float64Array.from(value) };
 }
 
 interface TensorPlan {
@@ -214,7 +243,7 @@ function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
         }
       }
       firstStart[tch] = ch2.length;
-      blocks.push({ l, l2, sparse: realClebschGordanSparse(l, l2, lambda), firstStart, ch2: Int32Array.from(ch2), weight: Float64Array.from(weight), offset });
+      blocks.push({ l, l2, ...gatherForm(realClebschGordanSparse(l, l2, lambda), l, l2, lambda), firstStart, ch2: Int32Array.from(ch2), weight: Float64Array.from(weight), offset });
       offset += ch2.length;
       halfSize = Math.max(halfSize, (2 * lambda + 1) * (2 * l2 + 1));
     }
@@ -330,31 +359,35 @@ function tensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Arr
   const n = T.n;
   const base = e * nM * n;
   for (const blk of T.blocks) {
-    const { l, l2, firstStart, ch2, weight, sparse } = blk;
-    const { i1, i2, iL, value } = sparse;
-    const nnz = value.length;
+    const { l, l2, firstStart, ch2, weight, gatherStart, gatherIndex, gatherValue } = blk;
+    const width = 2 * l + 1;
+    const targets = nM * width;
+    const A0 = P.tensorBase[l];
     if (l === l2) {
-      const width = 2 * l + 1;
-      const A0 = P.tensorBase[l];
       let f = base + blk.offset;
       for (let c1 = 0; c1 < tch; c1++) {
+        // Half-coupled H[μ][m'] = Σ_m C[m, m', μ] c_{ch1, l m} (gathered: one register sum per target).
         const A = A0[c1];
-        half.fill(0, 0, nM * width);
-        for (let k = 0; k < nnz; k++) half[iL[k] * width + i2[k]] += value[k] * c[A + i1[k]];
+        for (let t = 0; t < targets; t++) {
+          let h = 0;
+          for (let k = gatherStart[t]; k < gatherStart[t + 1]; k++) h += gatherValue[k] * c[A + gatherIndex[k]];
+          half[t] = h;
+        }
         const from = firstStart[c1], to = firstStart[c1 + 1];
         contractPartners(half, nM, width, c, A0, from, to, ch2, weight, out, f, 1, n);
         f += to - from;
       }
     } else {
       // Hold the degree-l2 channel c2; contract all degree-l channels c1; feature f = offset + c1·tch + c2.
-      const width = 2 * l + 1;
-      const A0 = P.tensorBase[l];
       const B0 = P.tensorBase[l2];
       const f0 = base + blk.offset;
       for (let c2 = 0; c2 < tch; c2++) {
         const B = B0[c2];
-        half.fill(0, 0, nM * width);
-        for (let k = 0; k < nnz; k++) half[iL[k] * width + i1[k]] += value[k] * c[B + i2[k]];
+        for (let t = 0; t < targets; t++) {
+          let h = 0;
+          for (let k = gatherStart[t]; k < gatherStart[t + 1]; k++) h += gatherValue[k] * c[B + gatherIndex[k]];
+          half[t] = h;
+        }
         contractPartners(half, nM, width, c, A0, 0, tch, P.allChannels, P.sqrt2, out, f0 + c2, tch, n);
       }
     }
