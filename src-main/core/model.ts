@@ -458,8 +458,9 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   if (!cv && settings.regularisation === null) notes.push('fewer than 3 frames: regulariser not cross-validated (default 1e-6)');
 
   // Representatives (FPS per species) for kernel parts and for applicability.
+  const wantApplicability = options.applicability !== false;
   const repsPerSpecies = envPool.perSpecies.map((cand) => {
-    const m = linear ? APPLICABILITY_POINTS : exact ? cand.length : settings.sparsePoints;
+    const m = linear ? (wantApplicability ? APPLICABILITY_POINTS : 0) : exact ? cand.length : settings.sparsePoints;
     return farthestPointSample(envPool.p, n0, cand, m).chosen;
   });
   const repIndex = Int32Array.from(repsPerSpecies.flatMap((r) => [...r]));
@@ -597,7 +598,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
 
   // Applicability threshold from leave-self-out distances of the sampled training environments.
   const applicability = { n0, species: new Int32Array(0), p: new Float64Array(0), threshold: 0, perSpecies: new Array(nS).fill(0), rule: '' };
-  if (options.applicability !== false) {
+  if (wantApplicability) {
     hooks.onProgress?.({ stage: 'applicability', done: 0, total: 1 });
     await yieldToLoop();
     const dist = nearestOtherDistances(envPool, repIndex);
