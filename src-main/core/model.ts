@@ -7,7 +7,7 @@
 // See docs/learning-engine.md for the choices and their reasons.
 import { CancelledError, InputError, ModelError } from './errors.ts';
 import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
-import { computeFeatures, concatenateFeatures } from './features.ts';
+import { computeFeatures, concatenateFeatures, tensorLimits } from './features.ts';
 import { applyFeatureSelection, selectFeatures, type FeatureSelection } from './feature-selection.ts';
 import type { Frame, Mat3 } from './frame.ts';
 import {
@@ -137,6 +137,8 @@ export interface Model {
   centres: string[];
   /** Feature sizes the model was trained with (checked at prediction). */
   featureSizes: { n0: number; n?: number };
+  /** Radial and angular limits of the λ>0 features (resolved at training). */
+  tensorLimits: { nmax: number; lmax: number };
   /** Feature columns kept (settings.maxFeatures > 0): applied to computed features before the model sees them. */
   featureSelection?: FeatureSelection;
   /** Per centre species λ=0 baseline contribution per atom (first irreducible component), or zeros. */
@@ -177,8 +179,14 @@ export function resolveSettings(partial?: Partial<ModelSettings>): ModelSettings
   return s;
 }
 
-function featureSettingsOf(s: ModelSettings, species: string[], centres: string[]): FeatureSettings {
-  return { cutoff: s.cutoff, cutoffWidth: s.cutoffWidth, sigma: s.sigma, nmax: s.nmax, lmax: s.lmax, species, centres };
+/**
+ * The feature settings of a model: its own settings with the λ>0 limits resolved once (features.ts's
+ * tensorLimits) and stored, so a saved model keeps computing the same features if that default changes.
+ */
+function featureSettingsOf(s: ModelSettings, species: string[], centres: string[], limits?: { nmax: number; lmax: number }): FeatureSettings {
+  const base: FeatureSettings = { cutoff: s.cutoff, cutoffWidth: s.cutoffWidth, sigma: s.sigma, nmax: s.nmax, lmax: s.lmax, species, centres };
+  const t = limits ?? tensorLimits(base);
+  return { ...base, nmaxTensor: t.nmax, lmaxTensor: t.lmax };
 }
 
 function tensorOrderOf(shape: TargetShape): 1 | 2 | null {
@@ -186,8 +194,8 @@ function tensorOrderOf(shape: TargetShape): 1 | 2 | null {
 }
 
 /** The featuriser the trained model uses (computeFeatures with the model's settings). */
-export function modelFeaturiser(model: Pick<Model, 'settings' | 'species' | 'centres' | 'target'>): Featuriser {
-  const fs = featureSettingsOf(model.settings, model.species, model.centres);
+export function modelFeaturiser(model: Pick<Model, 'settings' | 'species' | 'centres' | 'target'> & { tensorLimits?: Model['tensorLimits'] }): Featuriser {
+  const fs = featureSettingsOf(model.settings, model.species, model.centres, model.tensorLimits);
   const order = tensorOrderOf(model.target.shape);
   const lambdas = order === null ? [] : [order];
   return (frame) => computeFeatures(frame, fs, lambdas);
@@ -450,8 +458,9 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   if (!cv && settings.regularisation === null) notes.push('fewer than 3 frames: regulariser not cross-validated (default 1e-6)');
 
   // Representatives (FPS per species) for kernel parts and for applicability.
+  const wantApplicability = options.applicability !== false;
   const repsPerSpecies = envPool.perSpecies.map((cand) => {
-    const m = linear ? APPLICABILITY_POINTS : exact ? cand.length : settings.sparsePoints;
+    const m = linear ? (wantApplicability ? APPLICABILITY_POINTS : 0) : exact ? cand.length : settings.sparsePoints;
     return farthestPointSample(envPool.p, n0, cand, m).chosen;
   });
   const repIndex = Int32Array.from(repsPerSpecies.flatMap((r) => [...r]));
@@ -589,7 +598,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
 
   // Applicability threshold from leave-self-out distances of the sampled training environments.
   const applicability = { n0, species: new Int32Array(0), p: new Float64Array(0), threshold: 0, perSpecies: new Array(nS).fill(0), rule: '' };
-  if (options.applicability !== false) {
+  if (wantApplicability) {
     hooks.onProgress?.({ stage: 'applicability', done: 0, total: 1 });
     await yieldToLoop();
     const dist = nearestOtherDistances(envPool, repIndex);
@@ -627,6 +636,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     species,
     centres,
     featureSizes: { n0, n: nOrder },
+    tensorLimits: { nmax: featureSettingsOf(settings, species, centres).nmaxTensor as number, lmax: featureSettingsOf(settings, species, centres).lmaxTensor as number },
     featureSelection,
     baseline: [...baseline],
     parts,

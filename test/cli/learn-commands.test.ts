@@ -3,7 +3,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { runCli } from '../../src-main/cli/main.ts';
-import { parseExtxyz } from '../../src-main/io/extxyz.ts';
+import { parseExtxyz, writeExtxyz } from '../../src-main/io/extxyz.ts';
 
 let dir: string;
 const data = () => join(dir, 'water.extxyz');
@@ -77,6 +77,32 @@ describe('polarweave train / predict / validate', () => {
     expect(v.out).toMatch(/sizes skipped.*20/);
     expect(v.out).toMatch(/comparison on ε: route (cm|direct)/);
   }, 180_000);
+
+  it('trains and predicts a vector (dipole-like) target to CSV', async () => {
+    // an invented per-frame 3-vector (built from the off-diagonal of ε, only to exercise the λ=1 path)
+    const frames = parseExtxyz(readFileSync(data(), 'utf8'), 'water.extxyz');
+    for (const f of frames) {
+      const e = f.info.eps_inf as number[];
+      f.info.dipole = [100 * e[5], 100 * e[2], 100 * e[1]];
+    }
+    const file = join(dir, 'dipole.extxyz');
+    await writeExtxyz(file, frames);
+    const model = join(dir, 'dip.json');
+    const t = await cli(['train', file, '--tensor', 'dipole', '--as', 'eps', ...FAST, '-o', model]);
+    expect(t.code).toBe(0);
+    expect(t.out).toMatch(/learns vector/);
+    expect(t.out).toMatch(/λ=1: linear/);
+    const csv = join(dir, 'dip.csv');
+    expect((await cli(['predict', model, file, '-o', csv])).code).toBe(0);
+    const lines = readFileSync(csv, 'utf8').trim().split('\n').filter((l) => !l.startsWith('#'));
+    expect(lines[0].split(',').slice(0, 5)).toEqual(['frame', 'tag', 'value_x', 'value_y', 'value_z']);
+    expect(lines.length).toBe(9);
+    const row = lines[1].split(',');
+    for (const k of [2, 3, 4]) expect(Number.isFinite(Number(row[k]))).toBe(true);
+    const x = await cli(['predict', model, file, '-o', join(dir, 'dip.extxyz')]);
+    expect(x.code).toBe(2);
+    expect(x.err).toMatch(/extended XYZ output is for tensor models/);
+  }, 120_000);
 
   it('reports usage errors with exit code 2 and bad data with exit code 1', async () => {
     const a = await cli(['train', data(), '--tensor', 'eps_inf', '-o', join(dir, 'x.json')]);
