@@ -168,7 +168,7 @@ export function resolveSettings(partial?: Partial<ModelSettings>): ModelSettings
     throw new InputError(`setting ${what}`, {}, hint);
   };
   if (!(s.cutoff > 0)) bad(`cutoff = ${s.cutoff} Å`, 'the cutoff must be positive (typical 3.5–6 Å)');
-  if (!(s.cutoffWidth >= 0 && s.cutoffWidth < s.cutoff)) bad(`cutoffWidth = ${s.cutoffWidth} Å`, 'the switch width must lie in [0, cutoff)');
+  if (!(s.cutoffWidth > 0 && s.cutoffWidth < s.cutoff)) bad(`cutoffWidth = ${s.cutoffWidth} Å`, 'the smooth switch width must lie in (0, cutoff): a hard cutoff makes features jump when an atom crosses it');
   if (!(s.sigma > 0)) bad(`sigma = ${s.sigma} Å`, 'the Gaussian width must be positive (typical 0.3–0.5 Å)');
   if (!Number.isInteger(s.nmax) || s.nmax < 1 || s.nmax > 16) bad(`nmax = ${s.nmax}`, 'nmax must be a whole number 1–16');
   if (!Number.isInteger(s.lmax) || s.lmax < 0 || s.lmax > 10) bad(`lmax = ${s.lmax}`, 'lmax must be a whole number 0–10');
