@@ -3,6 +3,7 @@
 // without a value means `true`. This file only tokenises and formats that line; extxyz-parse.ts gives the
 // special keys (Lattice, Properties, pbc) their meaning. Pure code, runs in a browser too.
 import type { InfoValue } from '../core/frame.ts';
+import { strictNumber } from './decimal.ts';
 
 /** One key=value item as written: `quoted` tells a bare word from a "..." string; `bracket` an {..}/[..] array. */
 export interface RawItem {
@@ -115,25 +116,7 @@ export function tokeniseComment(line: string): RawItem[] {
   }
 }
 
-/**
- * Text [s, e) of `line` as a strict decimal number, NaN if it is not one. Number() does the conversion (exact,
- * and measured as fast as a hand-written fast path here); the first character is checked beforehand because
- * Number() also takes hexadecimal, binary and octal literals and the word Infinity.
- */
-export function decimalAt(line: string, s: number, e: number): number {
-  const c0 = line.charCodeAt(s);
-  if (!((c0 >= 48 && c0 <= 57) || c0 === 45 || c0 === 43 || c0 === 46)) return NaN;
-  if (c0 === 48 && e - s > 2) {
-    const c1 = line.charCodeAt(s + 1) | 32;
-    if (c1 === 120 || c1 === 98 || c1 === 111) return NaN; // 0x.., 0b.., 0o..
-  }
-  return Number(line.slice(s, e));
-}
-
-/** A strict decimal number (1, -2.5, 3e-4, 1.5E+02), or NaN; see decimalAt. */
-export function strictNumber(token: string): number {
-  return decimalAt(token, 0, token.length);
-}
+export { strictNumber };
 
 /** Words that mean true/false in extended XYZ. */
 export function parseBoolean(token: string): boolean | undefined {
@@ -177,6 +160,7 @@ export function interpretValue(item: RawItem): InfoValue {
   }
   if (item.quoted) {
     if (item.escaped) return v;
+    if (v.startsWith('_JSON ')) return fromJson(item.key, v);
     const parts = splitArray(v);
     if (parts.length >= 2 && !/,/.test(v)) {
       const nums = parts.map(strictNumber);
@@ -192,6 +176,25 @@ export function interpretValue(item: RawItem): InfoValue {
   const x = strictNumber(v);
   if (Number.isFinite(x)) return x;
   if (isNonFiniteWord(v)) throw new ValueError(`value of '${item.key}' is not a finite number (${v})`);
+  return v;
+}
+
+/**
+ * A value some writers store as JSON behind a `_JSON ` prefix (nested arrays such as a 3×3 tensor): numbers,
+ * booleans and strings as they are, nested numeric arrays flattened row-major; anything else stays the text.
+ */
+function fromJson(key: string, v: string): InfoValue {
+  let parsed: unknown;
+  try {
+    parsed = JSON.parse(v.slice(6));
+  } catch {
+    throw new ValueError(`value of '${key}' starts with _JSON but is not valid JSON`);
+  }
+  if (typeof parsed === 'number' || typeof parsed === 'boolean' || typeof parsed === 'string') return parsed;
+  if (Array.isArray(parsed)) {
+    const flat = (parsed as unknown[]).flat(Infinity);
+    if (flat.every((x) => typeof x === 'number')) return flat as number[];
+  }
   return v;
 }
 
@@ -240,9 +243,10 @@ export function formatItem(key: string, value: InfoValue): string {
   if (typeof value === 'string') {
     if (bareSafe(value)) return `${k}=${value}`;
     const q = quote(value);
-    // A quoted text of two or more numbers would read back as an array: escape its first character, which
-    // marks the value as a string for our reader (see readQuoted) without changing the text.
-    if (q.indexOf('\\') < 0 && looksLikeNumberList(value)) return `${k}="\\${q.slice(1)}`;
+    // A quoted text of two or more numbers would read back as an array (and one starting "_JSON " as JSON):
+    // escape its first character, which marks the value as a string for our reader (see readQuoted) without
+    // changing the text.
+    if (q.indexOf('\\') < 0 && (looksLikeNumberList(value) || value.startsWith('_JSON '))) return `${k}="\\${q.slice(1)}`;
     return `${k}=${q}`;
   }
   if (value.length >= 2) return `${k}="${value.map(formatNumber).join(' ')}"`;
