@@ -1,6 +1,6 @@
 // `npm run demo:generate`: regenerate the invented demo data in resources/demo (fixed seeds, so the files come
 // out the same on every run) and its PROVENANCE.md, and print what was made. Takes a few minutes on 2 cores.
-import { statSync } from 'node:fs';
+import { mkdirSync, statSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { writeExtxyz } from '../src-main/io/extxyz.ts';
 import { writeFileAtomic } from '../src-main/io/atomic.ts';
@@ -39,6 +39,7 @@ const data = generateDemo({ log: (line) => process.stdout.write(line + '\n') });
 const seconds = (Date.now() - t0) / 1000;
 const cpu = process.cpuUsage(cpu0);
 
+mkdirSync(outDir, { recursive: true });
 const sizes: Record<string, number> = {};
 for (const [kind, name] of Object.entries(DEMO_FILES)) {
   const path = join(outDir, name);
