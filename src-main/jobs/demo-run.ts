@@ -203,7 +203,7 @@ function demoSummary(s: SummaryInput): string {
     `- principal refractive indices: predicted ${n(s.predictedMean)}; reference ${n(s.referenceMean)}`,
     `- birefringence n_max − n_min: predicted ${dn(s.predictedMean)}; reference ${dn(s.referenceMean)}`,
     `- mean α_CM diagonal (Å³): predicted ${diag(cmPred)}; reference ${diag(cmRef)}`,
-    `- applicability: ${s.outsideFrames} of ${s.crystal.length} frames flagged outside the training data (${atomsOut} of ${atoms} atoms; largest distance ${fmt(maxDist, 3)}, threshold ${fmt(s.model.applicability.threshold, 3)})`,
+    `- applicability: ${s.outsideFrames} of ${s.crystal.length} frames flagged outside the training data (${atomsOut} of ${atoms} atoms; largest feature-space distance ${fmt(maxDist, 3)}; thresholds per centre species: ${s.model.centres.map((c, k) => `${c} ${fmt(s.model.applicability.perSpecies[k], 3)}`).join(', ')})`,
     '',
     '## Files',
     `- ${s.files.csv}: predicted ε and α_CM of each crystal frame, with the reference and the applicability figures`,
