@@ -1,0 +1,491 @@
+// Extended XYZ frames from lines of text. A frame is: the atom count; a comment line of key=value pairs
+// (Lattice, Properties, pbc and any per-frame property); one line per atom with the columns Properties names.
+// The assembler is fed one line at a time, so the same code serves in-memory text (parseExtxyz) and the
+// streaming file reader (extxyz.ts). Every problem is an InputError with file, 1-based line and 0-based frame.
+// Pure code, no Node APIs: runs in a browser too.
+import { InputError } from '../core/errors.ts';
+import type { AtomArray, Frame, InfoValue, Mat3 } from '../core/frame.ts';
+import { elementSymbol, isElement, symbolIgnoringCase } from '../core/elements.ts';
+import { CommentSyntaxError, ValueError, interpretValue, parseBoolean, tokeniseComment } from './extxyz-comment.ts';
+
+export type ColumnKind = 'S' | 'R' | 'I' | 'L';
+
+/** One column block of the Properties key: name, kind (string, real, integer, logical), values per atom. */
+export interface ColumnSpec {
+  name: string;
+  kind: ColumnKind;
+  width: number;
+}
+
+export const DEFAULT_PROPERTIES = 'species:S:1:pos:R:3';
+
+/** Keys with a meaning of their own; never stored in Frame.info. */
+export const RESERVED_KEYS = new Set(['Lattice', 'Properties', 'pbc']);
+
+/** Largest atom count we believe (a count line beyond this is a corrupt file, not a real frame). */
+const MAX_ATOMS = 100_000_000;
+
+interface Where {
+  file: string;
+  line: number;
+  frame: number;
+}
+
+function fail(problem: string, where: Where, hint?: string): never {
+  throw new InputError(problem, { file: where.file, line: where.line, frame: where.frame }, hint);
+}
+
+/** Parse a Properties value such as `species:S:1:pos:R:3:forces:R:3`. */
+export function parseProperties(value: string, where: Where): ColumnSpec[] {
+  const parts = value.split(':');
+  const hint = 'Properties must be name:kind:width triples, kind one of S, R, I, L (e.g. species:S:1:pos:R:3)';
+  if (parts.length % 3 !== 0 || parts.length === 0) fail(`Properties '${value}' is not a list of name:kind:width triples`, where, hint);
+  const cols: ColumnSpec[] = [];
+  const seen = new Set<string>();
+  for (let i = 0; i < parts.length; i += 3) {
+    const name = parts[i];
+    const kind = parts[i + 1];
+    const widthText = parts[i + 2];
+    if (name.length === 0) fail(`Properties has an empty column name`, where, hint);
+    if (kind !== 'S' && kind !== 'R' && kind !== 'I' && kind !== 'L') fail(`Properties column '${name}' has unknown kind '${kind}'`, where, hint);
+    if (!/^[1-9]\d{0,5}$/.test(widthText)) fail(`Properties column '${name}' has width '${widthText}', not a positive integer`, where, hint);
+    if (seen.has(name)) fail(`Properties names column '${name}' twice`, where, 'give every column its own name');
+    seen.add(name);
+    cols.push({ name, kind, width: Number(widthText) });
+  }
+  return cols;
+}
+
+export function determinant3(m: ArrayLike<number>): number {
+  return (
+    m[0] * (m[4] * m[8] - m[5] * m[7]) - m[1] * (m[3] * m[8] - m[5] * m[6]) + m[2] * (m[3] * m[7] - m[4] * m[6])
+  );
+}
+
+/** Check a cell for finite entries and a positive volume; `what` names it in the message. */
+export function checkCell(cell: ArrayLike<number>, where: Where, what = 'Lattice'): void {
+  for (let i = 0; i < 9; i++) {
+    if (!Number.isFinite(cell[i])) fail(`${what} holds a non-finite number`, where, 'write the lattice vectors as 9 finite numbers in Å');
+  }
+  const v = determinant3(cell);
+  // scale the zero test by the vector lengths so tiny but valid cells are not refused
+  let l = 1;
+  for (let r = 0; r < 3; r++) l *= Math.hypot(cell[3 * r], cell[3 * r + 1], cell[3 * r + 2]);
+  if (!(Math.abs(v) > 1e-10 * l) || l === 0) {
+    fail(`${what} has zero volume (the lattice vectors are coplanar or zero)`, where, 'remove Lattice for an open (non-periodic) structure, or give three independent vectors');
+  }
+  if (v < 0) {
+    fail(`${what} has a negative volume (${v.toPrecision(6)} Å³: a left-handed set of vectors)`, where, 'swap two lattice vectors (or negate one) to make a right-handed cell');
+  }
+}
+
+interface Header {
+  nAtoms: number;
+  cell: Mat3 | null;
+  pbc: [boolean, boolean, boolean];
+  info: Record<string, InfoValue>;
+  columns: ColumnSpec[];
+  /** Total number of whitespace-separated fields per atom line. */
+  fieldCount: number;
+  countLine: number;
+}
+
+/** Interpret the comment line of a frame. */
+export function parseCommentLine(line: string, where: Where): Omit<Header, 'nAtoms' | 'countLine'> {
+  const info: Record<string, InfoValue> = {};
+  let cell: Mat3 | null = null;
+  let pbcGiven: boolean[] | null = null;
+  let properties = DEFAULT_PROPERTIES;
+  const trimmed = line.trim();
+  if (trimmed.length > 0 && trimmed.indexOf('=') < 0) {
+    // a plain XYZ title line, not key=value pairs: keep it whole
+    info.comment = trimmed;
+  } else if (trimmed.length > 0) {
+    let items;
+    try {
+      items = tokeniseComment(line);
+    } catch (e) {
+      if (e instanceof CommentSyntaxError) fail(`comment line, column ${e.column + 1}: ${e.message}`, where, 'quote values that contain spaces: key="a b"');
+      throw e;
+    }
+    const seen = new Set<string>();
+    for (const item of items) {
+      if (seen.has(item.key)) fail(`key '${item.key}' appears twice on the comment line`, where, 'keep one value per key');
+      seen.add(item.key);
+      if (item.key === 'Lattice') {
+        let v: InfoValue;
+        try {
+          v = interpretValue(item);
+        } catch {
+          v = '';
+        }
+        if (!Array.isArray(v) || v.length !== 9) {
+          const n = Array.isArray(v) ? v.length : item.value === null ? 0 : item.value.split(/[\s,]+/).filter(Boolean).length;
+          fail(`Lattice must be 9 numbers (3 lattice vectors), got ${Array.isArray(v) ? n + ' numbers' : `'${item.value ?? ''}'`}`, where, 'write Lattice="ax ay az bx by bz cx cy cz" in Å');
+        }
+        cell = Float64Array.from(v);
+        checkCell(cell, where);
+      } else if (item.key === 'Properties') {
+        if (item.value === null) fail('Properties has no value', where, `e.g. Properties=${DEFAULT_PROPERTIES}`);
+        properties = item.value;
+      } else if (item.key === 'pbc') {
+        const words = (item.value ?? 'T').split(/[\s,]+/).filter(Boolean);
+        const flags = words.map(parseBoolean);
+        if ((flags.length !== 3 && flags.length !== 1) || flags.some((f) => f === undefined)) {
+          fail(`pbc must be one or three of T/F, got '${item.value ?? ''}'`, where, 'write pbc="T T T" for a fully periodic cell');
+        }
+        pbcGiven = flags.length === 1 ? [flags[0]!, flags[0]!, flags[0]!] : (flags as boolean[]);
+      } else {
+        try {
+          info[item.key] = interpretValue(item);
+        } catch (e) {
+          if (e instanceof ValueError) fail(e.message, where, 'write finite numbers; leave out values that were not computed');
+          throw e;
+        }
+      }
+    }
+  }
+  let pbc: [boolean, boolean, boolean];
+  if (cell === null) {
+    if (pbcGiven !== null && pbcGiven.some(Boolean)) {
+      fail('pbc says periodic but the frame has no Lattice', where, 'add Lattice="ax ay az bx by bz cx cy cz", or write pbc="F F F"');
+    }
+    pbc = [false, false, false];
+  } else {
+    pbc = pbcGiven === null ? [true, true, true] : [pbcGiven[0], pbcGiven[1], pbcGiven[2]];
+  }
+  const columns = parseProperties(properties, where);
+  const hasSpecies = columns.some((c) => c.name === 'species');
+  const z = columns.find((c) => c.name === 'Z');
+  const species = columns.find((c) => c.name === 'species');
+  if (species && (species.kind !== 'S' || species.width !== 1)) fail(`Properties column 'species' must be S:1, got ${species.kind}:${species.width}`, where);
+  if (!hasSpecies && !(z && z.kind === 'I' && z.width === 1)) {
+    fail("Properties has no 'species' column (nor an atomic-number column Z:I:1)", where, `start Properties with species:S:1, e.g. Properties=${DEFAULT_PROPERTIES}`);
+  }
+  const pos = columns.find((c) => c.name === 'pos');
+  if (!pos) fail("Properties has no 'pos' column", where, `add pos:R:3, e.g. Properties=${DEFAULT_PROPERTIES}`);
+  if (pos.kind !== 'R' || pos.width !== 3) fail(`Properties column 'pos' must be R:3, got ${pos.kind}:${pos.width}`, where);
+  const fieldCount = columns.reduce((s, c) => s + c.width, 0);
+  return { cell, pbc, info, columns, fieldCount };
+}
+
+// Field boundaries of the current atom line, reused between lines (no allocation per line).
+let fieldStart = new Int32Array(64);
+let fieldEnd = new Int32Array(64);
+
+/** Split on spaces and tabs; returns the number of fields (boundaries in fieldStart/fieldEnd). */
+function splitFields(line: string): number {
+  let n = 0;
+  const len = line.length;
+  let i = 0;
+  while (i < len) {
+    let c = line.charCodeAt(i);
+    while (c === 32 || c === 9 || c === 13) {
+      if (++i >= len) return n;
+      c = line.charCodeAt(i);
+    }
+    const s = i;
+    while (i < len) {
+      c = line.charCodeAt(i);
+      if (c === 32 || c === 9 || c === 13) break;
+      i++;
+    }
+    if (n === fieldStart.length) {
+      const a = new Int32Array(2 * n);
+      a.set(fieldStart);
+      fieldStart = a;
+      const b = new Int32Array(2 * n);
+      b.set(fieldEnd);
+      fieldEnd = b;
+    }
+    fieldStart[n] = s;
+    fieldEnd[n] = i;
+    n++;
+  }
+  return n;
+}
+
+/** Parse field k of `line` as a strict decimal number, NaN if it is not one. */
+function numberField(line: string, k: number): number {
+  const s = fieldStart[k];
+  const c0 = line.charCodeAt(s);
+  if (!((c0 >= 48 && c0 <= 57) || c0 === 45 || c0 === 43 || c0 === 46)) return NaN;
+  if (c0 === 48 && fieldEnd[k] - s > 2) {
+    const c1 = line.charCodeAt(s + 1) | 32;
+    if (c1 === 120 || c1 === 98 || c1 === 111) return NaN; // 0x.., 0b.., 0o.. are not decimal numbers
+  }
+  return Number(line.slice(s, fieldEnd[k]));
+}
+
+const INTEGER = /^[+-]?\d+$/;
+const COUNT = /^\d+$/;
+
+interface Building {
+  header: Header;
+  species: string[];
+  positions: Float64Array;
+  arrays: Record<string, AtomArray>;
+  /** Per column: where its data goes. */
+  sinks: (Float64Array | Int32Array | Uint8Array | string[] | null)[];
+  speciesFromZ: Int32Array | null;
+  atom: number;
+  skip: boolean;
+}
+
+export type FrameDecision = 'parse' | 'skip' | 'stop';
+
+export interface AssemblerOptions {
+  /** 1-based number of the first line that will be pushed (default 1). */
+  firstLine?: number;
+  /** 0-based index of the first frame that will be met (default 0). */
+  firstFrame?: number;
+  /** Which frames to build; 'skip' reads past a frame without parsing its atoms, 'stop' ends the input. */
+  decide?: (frameIndex: number) => FrameDecision;
+}
+
+/**
+ * Line-by-line extended XYZ frame builder. push() each line (without its newline); it returns a Frame when
+ * one is complete (or 'stop' once decide() says so), else null. Call finish() at the end of input.
+ */
+export class ExtxyzAssembler {
+  private line: number;
+  private frame: number;
+  private state: 'count' | 'comment' | 'atoms' = 'count';
+  private pendingCount = 0;
+  private countLine = 0;
+  private building: Building | null = null;
+  private skipRemaining = 0;
+  private readonly decide: (k: number) => FrameDecision;
+  private stopped = false;
+
+  constructor(
+    readonly fileName: string,
+    options: AssemblerOptions = {},
+  ) {
+    this.line = (options.firstLine ?? 1) - 1;
+    this.frame = options.firstFrame ?? 0;
+    this.decide = options.decide ?? (() => 'parse');
+  }
+
+  /** Frames completed or skipped so far, counting from firstFrame. */
+  get frameIndex(): number {
+    return this.frame;
+  }
+
+  get lineNumber(): number {
+    return this.line;
+  }
+
+  private where(): Where {
+    return { file: this.fileName, line: this.line, frame: this.frame };
+  }
+
+  push(text: string): Frame | null | 'stop' {
+    if (this.stopped) return 'stop';
+    this.line++;
+    if (this.skipRemaining > 0) {
+      // a skipped frame: count its lines, do not look at them
+      if (--this.skipRemaining === 0) this.frame++;
+      return null;
+    }
+    switch (this.state) {
+      case 'count':
+        return this.onCount(text);
+      case 'comment':
+        this.onComment(text);
+        return this.pendingCount === 0 && this.building !== null ? this.complete() : null;
+      case 'atoms':
+        return this.onAtom(text);
+    }
+  }
+
+  private onCount(text: string): null | 'stop' {
+    const t = text.trim();
+    if (t.length === 0) return null; // blank lines between frames (and at the end) carry nothing
+    if (!COUNT.test(t)) {
+      const prev = this.frame > 0 ? ` — if this is an atom line, frame ${this.frame - 1} has more atom lines than its count says` : '';
+      fail(`expected the atom count of a frame, found '${clip(t)}'${prev}`, this.where(), 'each frame starts with a line holding only its number of atoms');
+    }
+    const n = Number(t);
+    if (n > MAX_ATOMS) fail(`atom count ${t} is implausibly large`, this.where(), 'check the atom count line');
+    const decision = this.decide(this.frame);
+    if (decision === 'stop') {
+      this.stopped = true;
+      return 'stop';
+    }
+    this.pendingCount = n;
+    this.countLine = this.line;
+    if (decision === 'skip') {
+      this.skipRemaining = n + 1;
+      return null;
+    }
+    this.state = 'comment';
+    return null;
+  }
+
+  private onComment(text: string): void {
+    const h = parseCommentLine(text, this.where());
+    const n = this.pendingCount;
+    const header: Header = { ...h, nAtoms: n, countLine: this.countLine };
+    const sinks: Building['sinks'] = [];
+    const arrays: Record<string, AtomArray> = {};
+    const positions = new Float64Array(3 * n);
+    let speciesFromZ: Int32Array | null = null;
+    const hasSpecies = h.columns.some((c) => c.name === 'species');
+    for (const c of h.columns) {
+      if (c.name === 'species') sinks.push(null);
+      else if (c.name === 'pos') sinks.push(positions);
+      else {
+        let data: Float64Array | Int32Array | Uint8Array | string[];
+        if (c.kind === 'R') {
+          data = new Float64Array(n * c.width);
+          arrays[c.name] = { kind: 'real', width: c.width, data };
+        } else if (c.kind === 'I') {
+          data = new Int32Array(n * c.width);
+          arrays[c.name] = { kind: 'int', width: c.width, data };
+          if (c.name === 'Z' && !hasSpecies) speciesFromZ = data;
+        } else if (c.kind === 'L') {
+          data = new Uint8Array(n * c.width);
+          arrays[c.name] = { kind: 'bool', width: c.width, data };
+        } else {
+          data = new Array<string>(n * c.width);
+          arrays[c.name] = { kind: 'string', width: c.width, data };
+        }
+        sinks.push(data);
+      }
+    }
+    if (speciesFromZ) delete arrays.Z; // species carries the same information
+    this.building = { header, species: new Array<string>(n), positions, arrays, sinks, speciesFromZ, atom: 0, skip: false };
+    this.state = 'atoms';
+  }
+
+  private onAtom(text: string): Frame | null {
+    const b = this.building!;
+    const h = b.header;
+    const nf = splitFields(text);
+    if (nf !== h.fieldCount) {
+      const where = this.where();
+      if (nf === 0) fail(`blank line inside frame: atom ${b.atom + 1} of ${h.nAtoms} expected`, where, `the frame's count line says ${h.nAtoms} atoms; fix the count or remove the blank line`);
+      if (nf === 1 && INTEGER.test(text.trim())) {
+        fail(`frame declares ${h.nAtoms} atoms but only ${b.atom} atom lines come before the next frame's count line`, where, 'correct the atom count line of this frame');
+      }
+      fail(`atom line has ${nf} fields but Properties needs ${h.fieldCount} (${describeColumns(h.columns)})`, where, 'make Properties match the columns, or fix this line');
+    }
+    const a = b.atom;
+    let f = 0;
+    for (let ci = 0; ci < h.columns.length; ci++) {
+      const c = h.columns[ci];
+      const sink = b.sinks[ci];
+      if (sink === null) {
+        // species
+        const s = text.slice(fieldStart[f], fieldEnd[f]);
+        if (!isElement(s)) this.badSpecies(s);
+        b.species[a] = s;
+        f++;
+        continue;
+      }
+      const base = a * c.width;
+      for (let w = 0; w < c.width; w++, f++) {
+        if (c.kind === 'R') {
+          const x = numberField(text, f);
+          if (!Number.isFinite(x)) this.badNumber(text, f, c.name, 'a finite real number');
+          (sink as Float64Array)[base + w] = x;
+        } else if (c.kind === 'I') {
+          const t = text.slice(fieldStart[f], fieldEnd[f]);
+          const x = Number(t);
+          if (!INTEGER.test(t) || x > 2147483647 || x < -2147483648) this.badNumber(text, f, c.name, 'an integer');
+          (sink as Int32Array)[base + w] = x;
+        } else if (c.kind === 'L') {
+          const t = text.slice(fieldStart[f], fieldEnd[f]);
+          const v = parseBoolean(t);
+          if (v === undefined) this.badNumber(text, f, c.name, 'T or F');
+          (sink as Uint8Array)[base + w] = v ? 1 : 0;
+        } else {
+          (sink as string[])[base + w] = text.slice(fieldStart[f], fieldEnd[f]);
+        }
+      }
+    }
+    if (b.speciesFromZ) {
+      const z = b.speciesFromZ[a];
+      const s = elementSymbol(z);
+      if (s === undefined) fail(`atomic number Z = ${z} is not an element`, this.where(), 'Z must be 1…118');
+      b.species[a] = s;
+    }
+    b.atom++;
+    return b.atom === h.nAtoms ? this.complete() : null;
+  }
+
+  private complete(): Frame {
+    const b = this.building!;
+    const h = b.header;
+    const frame: Frame = {
+      species: b.species,
+      positions: b.positions,
+      cell: h.cell,
+      pbc: h.pbc,
+      info: h.info,
+      arrays: b.arrays,
+      source: { file: this.fileName, index: this.frame, line: h.countLine },
+    };
+    this.building = null;
+    this.state = 'count';
+    this.frame++;
+    return frame;
+  }
+
+  private badSpecies(s: string): never {
+    const fix = symbolIgnoringCase(s);
+    fail(
+      `unknown species '${clip(s)}': not an element symbol`,
+      this.where(),
+      fix !== undefined ? `did you mean '${fix}'? symbols are case-sensitive` : 'the first column must hold element symbols such as H, C, O, Na',
+    );
+  }
+
+  private badNumber(text: string, f: number, column: string, wanted: string): never {
+    const t = text.slice(fieldStart[f], fieldEnd[f]);
+    fail(`column '${column}' needs ${wanted}, found '${clip(t)}'`, this.where(), /nan|inf/i.test(t) ? 'the file holds NaN or infinite values; regenerate or drop this frame' : 'check this atom line');
+  }
+
+  /** End of input: complain about a frame left incomplete. */
+  finish(): void {
+    if (this.stopped) return;
+    const where = { file: this.fileName, line: this.line, frame: this.frame };
+    if (this.skipRemaining > 0) {
+      fail(`file ends inside frame ${this.frame}: ${this.skipRemaining} more line(s) expected`, where, 'the file is truncated; copy it again or remove the incomplete last frame');
+    }
+    if (this.state === 'comment') {
+      fail(`file ends after the atom count of frame ${this.frame}: the comment line and ${this.pendingCount} atom lines are missing`, where, 'the file is truncated; copy it again or remove the incomplete last frame');
+    }
+    if (this.state === 'atoms') {
+      const b = this.building!;
+      fail(`file ends inside frame ${this.frame}: ${b.atom} of ${b.header.nAtoms} atom lines present`, where, 'the file is truncated; copy it again or remove the incomplete last frame');
+    }
+  }
+}
+
+function describeColumns(cols: ColumnSpec[]): string {
+  return cols.map((c) => `${c.name}:${c.kind}:${c.width}`).join(':');
+}
+
+function clip(s: string): string {
+  return s.length > 40 ? s.slice(0, 37) + '...' : s;
+}
+
+/** Every frame of an extended XYZ text held in memory (uploads, tests). */
+export function parseExtxyz(text: string, fileName: string): Frame[] {
+  const asm = new ExtxyzAssembler(fileName);
+  const frames: Frame[] = [];
+  let start = 0;
+  const n = text.length;
+  while (start < n) {
+    let end = text.indexOf('\n', start);
+    if (end < 0) end = n;
+    const r = asm.push(text.slice(start, end));
+    if (r !== null && r !== 'stop') frames.push(r);
+    start = end + 1;
+  }
+  asm.finish();
+  if (frames.length === 0) fail('no frames found', { file: fileName, line: 1, frame: 0 }, 'an extended XYZ file starts with a line holding the number of atoms');
+  return frames;
+}

@@ -1,0 +1,359 @@
+// Extended XYZ files on disk: a streaming reader (1 MiB reads, lines split here, memory flat for files of any
+// size; .gz read through a streaming gunzip), a byte-offset index for random access to frames, and an atomic
+// writer. The text-level parser and formatter live in extxyz-parse.ts / extxyz-format.ts and are re-exported.
+import { promises as fsp } from 'node:fs';
+import type { FileHandle } from 'node:fs/promises';
+import { StringDecoder } from 'node:string_decoder';
+import { createGunzip, gzipSync } from 'node:zlib';
+import { CancelledError, InputError } from '../core/errors.ts';
+import type { Frame } from '../core/frame.ts';
+import { ExtxyzAssembler, type FrameDecision } from './extxyz-parse.ts';
+import { formatExtxyzFrame } from './extxyz-format.ts';
+import { atomicWriteStream } from './atomic.ts';
+
+export { parseExtxyz, ExtxyzAssembler, parseCommentLine, parseProperties, DEFAULT_PROPERTIES } from './extxyz-parse.ts';
+export type { ColumnSpec, ColumnKind } from './extxyz-parse.ts';
+export { formatExtxyzFrame } from './extxyz-format.ts';
+
+const CHUNK_BYTES = 1 << 20;
+/** A "line" longer than this is not extended XYZ (binary data, a broken file): refuse instead of buffering it. */
+const MAX_LINE_CHARS = 64 << 20;
+
+/** Which frames to read: start, start+step, … below stop (0-based; stop exclusive, open-ended if absent). */
+export interface FrameRange {
+  start?: number;
+  stop?: number;
+  step?: number;
+}
+
+export interface ReadOptions {
+  signal?: AbortSignal;
+  range?: FrameRange;
+}
+
+function openError(file: string, err: unknown): Error {
+  const code = (err as NodeJS.ErrnoException | undefined)?.code;
+  if (code === 'ENOENT') return new InputError('file not found', { file }, 'check the path');
+  if (code === 'EACCES' || code === 'EPERM') return new InputError('cannot read the file: permission denied', { file });
+  if (code === 'EISDIR') return new InputError('this is a folder, not a file', { file }, 'give the path of a structure file');
+  return err instanceof Error ? err : new Error(String(err));
+}
+
+async function openForReading(file: string): Promise<FileHandle> {
+  try {
+    return await fsp.open(file, 'r');
+  } catch (err) {
+    throw openError(file, err);
+  }
+}
+
+async function isGzip(fh: FileHandle): Promise<boolean> {
+  const head = Buffer.alloc(2);
+  const { bytesRead } = await fh.read(head, 0, 2, 0);
+  return bytesRead === 2 && head[0] === 0x1f && head[1] === 0x8b;
+}
+
+/**
+ * The file's bytes (decompressed when it is gzip, recognised by its magic bytes), in chunks of about 1 MiB.
+ * A plain file reuses one buffer: the consumer must be done with a chunk before asking for the next.
+ */
+export async function* byteChunks(file: string, signal?: AbortSignal): AsyncGenerator<Buffer> {
+  const fh = await openForReading(file);
+  try {
+    if (await isGzip(fh)) {
+      const gunzip = createGunzip({ chunkSize: CHUNK_BYTES });
+      const raw = fh.createReadStream({ start: 0, highWaterMark: CHUNK_BYTES, autoClose: false });
+      raw.on('error', (e) => gunzip.destroy(e));
+      raw.pipe(gunzip);
+      try {
+        for await (const chunk of gunzip) {
+          if (signal?.aborted) throw new CancelledError();
+          yield chunk as Buffer;
+        }
+      } catch (err) {
+        if (err instanceof CancelledError || err instanceof InputError) throw err;
+        const code = (err as NodeJS.ErrnoException).code ?? '';
+        if (code.startsWith('Z_') || /unexpected end|incorrect header|invalid/i.test(String((err as Error).message))) {
+          throw new InputError(`the gzip data is damaged or truncated (${(err as Error).message})`, { file }, 'copy the file again, or decompress it to see how far it reads');
+        }
+        throw err;
+      } finally {
+        raw.unpipe(gunzip);
+        raw.destroy();
+        gunzip.destroy();
+      }
+    } else {
+      const buf = Buffer.allocUnsafe(CHUNK_BYTES);
+      let position = 0;
+      for (;;) {
+        if (signal?.aborted) throw new CancelledError();
+        const { bytesRead } = await fh.read(buf, 0, CHUNK_BYTES, position);
+        if (bytesRead === 0) break;
+        position += bytesRead;
+        yield buf.subarray(0, bytesRead);
+      }
+    }
+  } finally {
+    await fh.close().catch(() => undefined);
+  }
+}
+
+function checkRange(range: FrameRange | undefined, file: string): Required<Omit<FrameRange, 'stop'>> & { stop?: number } {
+  const start = range?.start ?? 0;
+  const step = range?.step ?? 1;
+  const stop = range?.stop;
+  const hint = 'frame ranges are 0-based: start ≥ 0, stop ≥ start (exclusive), step ≥ 1';
+  if (!Number.isInteger(start) || start < 0) throw new InputError(`bad frame range start ${start}`, { file }, hint);
+  if (!Number.isInteger(step) || step < 1) throw new InputError(`bad frame range step ${step}`, { file }, hint);
+  if (stop !== undefined && (!Number.isInteger(stop) || stop < start)) throw new InputError(`bad frame range stop ${stop}`, { file }, hint);
+  return { start, step, stop };
+}
+
+/** Decide per frame index from a range: parse the wanted ones, skip the rest cheaply, stop after the last. */
+export function rangeDecider(range: FrameRange | undefined, file = ''): (k: number) => FrameDecision {
+  const { start, step, stop } = checkRange(range, file);
+  return (k) => {
+    if (stop !== undefined && k >= stop) return 'stop';
+    if (k < start || (k - start) % step !== 0) return 'skip';
+    return 'parse';
+  };
+}
+
+/** Feed decoded text to an assembler line by line; returns the unfinished tail (or null after 'stop'). */
+function feedLines(asm: ExtxyzAssembler, text: string, out: Frame[], file: string): string | null {
+  let start = 0;
+  for (;;) {
+    const end = text.indexOf('\n', start);
+    if (end < 0) break;
+    const r = asm.push(text.slice(start, end));
+    start = end + 1;
+    if (r === 'stop') return null;
+    if (r !== null) out.push(r);
+  }
+  const tail = text.slice(start);
+  if (tail.length > MAX_LINE_CHARS) {
+    throw new InputError(`line ${asm.lineNumber + 1} is longer than ${MAX_LINE_CHARS >> 20} Mi characters`, { file, line: asm.lineNumber + 1, frame: asm.frameIndex }, 'this does not look like an extended XYZ text file');
+  }
+  return tail;
+}
+
+/**
+ * Stream the frames of an extended XYZ file (plain or gzip). Frames outside `range` are skipped without
+ * parsing their numbers; the file is closed when the loop ends early. Throws InputError on any bad frame.
+ */
+export async function* readExtxyz(file: string, options: ReadOptions = {}): AsyncGenerator<Frame> {
+  const { signal } = options;
+  const asm = new ExtxyzAssembler(file, { decide: rangeDecider(options.range, file) });
+  const decoder = new StringDecoder('utf8');
+  const out: Frame[] = [];
+  let carry = '';
+  let stopped = false;
+  for await (const chunk of byteChunks(file, signal)) {
+    const tail = feedLines(asm, carry + decoder.write(chunk), out, file);
+    for (const f of out) yield f;
+    out.length = 0;
+    if (tail === null) {
+      stopped = true;
+      break;
+    }
+    carry = tail;
+    if (signal?.aborted) throw new CancelledError();
+  }
+  if (!stopped) {
+    // the last line may have no newline
+    const last = carry + decoder.end();
+    if (last.length > 0) {
+      const r = asm.push(last);
+      if (r !== null && r !== 'stop') yield r;
+      if (r === 'stop') return;
+    }
+    asm.finish();
+    if (asm.frameIndex === 0) {
+      throw new InputError('no frames found', { file, line: 1, frame: 0 }, 'an extended XYZ file starts with a line holding the number of atoms');
+    }
+  }
+}
+
+/** Where each frame starts: byte offset (in the decompressed data for .gz), 1-based line, atom count. */
+export interface ExtxyzIndex {
+  file: string;
+  frames: number;
+  /** Byte offset of each frame's atom count line; offsets[frames] is the end of the data. */
+  offsets: Float64Array;
+  /** 1-based line number of each frame's atom count line. */
+  lines: Float64Array;
+  atomCounts: Int32Array;
+  /** True when the file is gzip: offsets refer to the decompressed text and readFrameAt streams from the start. */
+  compressed: boolean;
+}
+
+class Growable {
+  data = new Float64Array(1024);
+  length = 0;
+  push(x: number): void {
+    if (this.length === this.data.length) {
+      const d = new Float64Array(this.data.length * 2);
+      d.set(this.data);
+      this.data = d;
+    }
+    this.data[this.length++] = x;
+  }
+  done(): Float64Array {
+    return this.data.slice(0, this.length);
+  }
+}
+
+/**
+ * Scan a file for frame boundaries without parsing any numbers but the atom counts: reads each count line,
+ * then jumps over count + 1 lines by counting newline bytes. Fast (no text decoding).
+ */
+export async function indexExtxyz(file: string, options: { signal?: AbortSignal } = {}): Promise<ExtxyzIndex> {
+  const offsets = new Growable();
+  const lines = new Growable();
+  const counts = new Growable();
+  let compressed = false;
+  {
+    const fh = await openForReading(file);
+    compressed = await isGzip(fh).finally(() => fh.close());
+  }
+  let pos = 0; // absolute byte offset of the chunk start
+  let line = 1; // 1-based number of the line at which `lineStart` begins
+  let skip = 0; // lines still to jump over in the current frame
+  let countBytes: number[] = []; // bytes of a count line split across chunks
+  let countStart = 0;
+  let partial = false; // inside a skipped line that continues in the next chunk
+  const where = () => ({ file, line, frame: counts.length });
+  const readCount = (): void => {
+    const text = Buffer.from(countBytes).toString('latin1').trim();
+    countBytes = [];
+    if (text.length === 0) return; // blank line between frames
+    if (!/^\d+$/.test(text)) {
+      throw new InputError(`expected the atom count of a frame, found '${text.slice(0, 40)}'`, where(), 'each frame starts with a line holding only its number of atoms; the frame before may have a wrong count');
+    }
+    const n = Number(text);
+    offsets.push(countStart);
+    lines.push(line);
+    counts.push(n);
+    skip = n + 1;
+  };
+  for await (const chunk of byteChunks(file, options.signal)) {
+    let i = 0;
+    const len = chunk.length;
+    while (i < len) {
+      if (skip > 0) {
+        const nl = chunk.indexOf(10, i);
+        if (nl < 0) {
+          partial = true;
+          i = len;
+          break;
+        }
+        partial = false;
+        i = nl + 1;
+        skip--;
+        line++;
+        continue;
+      }
+      // at (or inside) a count line
+      if (countBytes.length === 0) countStart = pos + i;
+      const nl = chunk.indexOf(10, i);
+      const end = nl < 0 ? len : nl;
+      for (let k = i; k < end; k++) countBytes.push(chunk[k]);
+      if (countBytes.length > 64) {
+        throw new InputError(`expected the atom count of a frame, found a long line`, where(), 'each frame starts with a line holding only its number of atoms');
+      }
+      if (nl < 0) {
+        i = len;
+        break;
+      }
+      i = nl + 1;
+      readCount();
+      line++;
+    }
+    pos += len;
+  }
+  if (countBytes.length > 0) {
+    readCount();
+  }
+  // a last line without a newline still counts as a line
+  if (skip === 1 && partial) skip = 0;
+  if (skip > 0) {
+    throw new InputError(`file ends inside frame ${counts.length - 1}: ${skip} more line(s) expected`, { file, line, frame: counts.length - 1 }, 'the file is truncated; copy it again or remove the incomplete last frame');
+  }
+  offsets.push(pos);
+  const atomCounts = Int32Array.from(counts.done());
+  return { file, frames: atomCounts.length, offsets: offsets.done(), lines: lines.done(), atomCounts, compressed };
+}
+
+/** Frame k of a file, using an index from indexExtxyz (one read of just that frame's bytes for plain files). */
+export async function readFrameAt(file: string, index: ExtxyzIndex, k: number): Promise<Frame> {
+  if (!Number.isInteger(k) || k < 0 || k >= index.frames) {
+    throw new InputError(`frame ${k} does not exist: the file has ${index.frames} frames`, { file }, `choose a frame from 0 to ${index.frames - 1}`);
+  }
+  if (index.compressed) {
+    for await (const f of readExtxyz(file, { range: { start: k, stop: k + 1 } })) return f;
+    throw new InputError(`frame ${k} not found`, { file }, 'the file changed since it was indexed; index it again');
+  }
+  const start = index.offsets[k];
+  const length = index.offsets[k + 1] - start;
+  const buf = Buffer.alloc(length);
+  const fh = await openForReading(file);
+  try {
+    const { bytesRead } = await fh.read(buf, 0, length, start);
+    if (bytesRead !== length) throw new InputError(`frame ${k} is cut short`, { file, frame: k }, 'the file changed since it was indexed; index it again');
+  } finally {
+    await fh.close();
+  }
+  const asm = new ExtxyzAssembler(file, { firstLine: index.lines[k], firstFrame: k });
+  const text = buf.toString('utf8');
+  let s = 0;
+  while (s <= text.length) {
+    let e = text.indexOf('\n', s);
+    if (e < 0) e = text.length;
+    const r = asm.push(text.slice(s, e));
+    if (r !== null && r !== 'stop') return r;
+    s = e + 1;
+  }
+  asm.finish();
+  throw new InputError(`frame ${k} not found at its indexed offset`, { file, frame: k }, 'the file changed since it was indexed; index it again');
+}
+
+export interface WriteOptions {
+  signal?: AbortSignal;
+  /** gzip the output (default: when the path ends in .gz). */
+  gzip?: boolean;
+}
+
+/**
+ * Write frames as extended XYZ, atomically (nothing appears at `file` unless every frame was written).
+ * With gzip, text is compressed in ~1 MiB blocks, each a gzip member (a valid multi-member gzip file).
+ */
+export async function writeExtxyz(file: string, frames: Iterable<Frame> | AsyncIterable<Frame>, options: WriteOptions = {}): Promise<number> {
+  const gzip = options.gzip ?? /\.gz$/i.test(file);
+  const out = atomicWriteStream(file);
+  let block: string[] = [];
+  let blockChars = 0;
+  let count = 0;
+  const flush = async (): Promise<void> => {
+    if (blockChars === 0) return;
+    const text = block.join('');
+    block = [];
+    blockChars = 0;
+    await out.write(gzip ? gzipSync(Buffer.from(text, 'utf8')) : text);
+  };
+  try {
+    for await (const frame of frames as AsyncIterable<Frame>) {
+      if (options.signal?.aborted) throw new CancelledError();
+      const text = formatExtxyzFrame(frame);
+      block.push(text);
+      blockChars += text.length;
+      count++;
+      if (blockChars >= CHUNK_BYTES) await flush();
+    }
+    await flush();
+    await out.commit();
+  } catch (err) {
+    await out.abort();
+    throw err;
+  }
+  return count;
+}
