@@ -5,6 +5,7 @@
 // Pure code, no Node APIs: runs in a browser too.
 import { InputError } from '../core/errors.ts';
 import type { AtomArray, Frame, InfoValue, Mat3 } from '../core/frame.ts';
+import { cellDeterminant, checkCell as checkCellShape } from '../core/cell.ts';
 import { elementSymbol, isElement, symbolIgnoringCase } from '../core/elements.ts';
 import { CommentSyntaxError, ValueError, interpretValue, parseBoolean, tokeniseComment } from './extxyz-comment.ts';
 
@@ -56,24 +57,10 @@ export function parseProperties(value: string, where: Where): ColumnSpec[] {
   return cols;
 }
 
-export function determinant3(m: ArrayLike<number>): number {
-  return (
-    m[0] * (m[4] * m[8] - m[5] * m[7]) - m[1] * (m[3] * m[8] - m[5] * m[6]) + m[2] * (m[3] * m[7] - m[4] * m[6])
-  );
-}
-
-/** Check a cell for finite entries and a positive volume; `what` names it in the message. */
-export function checkCell(cell: ArrayLike<number>, where: Where, what = 'Lattice'): void {
-  for (let i = 0; i < 9; i++) {
-    if (!Number.isFinite(cell[i])) fail(`${what} holds a non-finite number`, where, 'write the lattice vectors as 9 finite numbers in Å');
-  }
-  const v = determinant3(cell);
-  // scale the zero test by the vector lengths so tiny but valid cells are not refused
-  let l = 1;
-  for (let r = 0; r < 3; r++) l *= Math.hypot(cell[3 * r], cell[3 * r + 1], cell[3 * r + 2]);
-  if (!(Math.abs(v) > 1e-10 * l) || l === 0) {
-    fail(`${what} has zero volume (the lattice vectors are coplanar or zero)`, where, 'remove Lattice for an open (non-periodic) structure, or give three independent vectors');
-  }
+/** Check a cell for finite entries, a non-zero volume (core/cell.ts) and right-handedness. */
+export function checkCell(cell: Mat3, where: Where, what = 'Lattice'): void {
+  checkCellShape(cell, where);
+  const v = cellDeterminant(cell);
   if (v < 0) {
     fail(`${what} has a negative volume (${v.toPrecision(6)} Å³: a left-handed set of vectors)`, where, 'swap two lattice vectors (or negate one) to make a right-handed cell');
   }
