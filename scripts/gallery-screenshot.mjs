@@ -6,7 +6,7 @@ import { build } from 'vite';
 import { svelte, vitePreprocess } from '@sveltejs/vite-plugin-svelte';
 import { chromium } from 'playwright-core';
 import { createServer } from 'node:http';
-import { mkdtempSync, mkdirSync, readFileSync, rmSync, existsSync, statSync } from 'node:fs';
+import { mkdtempSync, mkdirSync, readFileSync, rmSync, existsSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve, extname, normalize } from 'node:path';
 
@@ -70,6 +70,34 @@ try {
     const file = join(shotDir, `components-${id}.png`);
     await page.locator(`#${id}`).screenshot({ path: file });
     console.log(`saved ${file}`);
+  }
+  if (!only) {
+    // Interaction: hover a parity dot, rotate and zoom the structure by keyboard, zoom the trajectory by wheel.
+    const dot = page.locator('#parity-iso circle[fill-opacity="0.72"]').nth(17);
+    await page.locator('#parity-iso').scrollIntoViewIfNeeded();
+    const box = await dot.boundingBox();
+    await page.mouse.move(box.x + box.width / 2, box.y + box.height / 2);
+    await page.waitForTimeout(100);
+    await page.locator('#parity-iso').screenshot({ path: join(shotDir, 'components-parity-hover.png') });
+    await page.locator('#structure-atoms .pw-structure').focus();
+    for (const key of ['ArrowRight', 'ArrowRight', 'ArrowRight', 'ArrowDown', 'ArrowDown', '+', '+']) await page.keyboard.press(key);
+    await page.locator('#structure-atoms').screenshot({ path: join(shotDir, 'components-structure-rotated.png') });
+    await page.locator('#trajectory').scrollIntoViewIfNeeded();
+    const plot = await page.locator('#trajectory svg').boundingBox();
+    await page.mouse.move(plot.x + plot.width * 0.5, plot.y + plot.height * 0.4);
+    for (let i = 0; i < 8; i++) await page.mouse.wheel(0, -240);
+    await page.waitForTimeout(100);
+    await page.locator('#trajectory').screenshot({ path: join(shotDir, 'components-trajectory-zoomed.png') });
+    console.log('saved hover, rotated and zoomed views');
+    // Export: the SVG must stand alone (no theme variables), the PNG must decode.
+    for (const id of ['parity-iso', 'structure-molecules']) {
+      const out = await page.evaluate((i) => window.pwGallery.exportFigure(i), id);
+      if (out.svg.includes('var(--')) problems.push(`export of ${id}: SVG still uses theme variables`);
+      if (!out.svg.startsWith('<?xml')) problems.push(`export of ${id}: SVG lacks the XML header`);
+      const file = join(shotDir, `components-export-${id}.png`);
+      writeFileSync(file, Buffer.from(out.png, 'base64'));
+      console.log(`saved ${file} (exported PNG; SVG ${out.svg.length} characters)`);
+    }
   }
 } finally {
   await context.close();

@@ -116,19 +116,23 @@ export function tokeniseComment(line: string): RawItem[] {
 }
 
 /**
- * A strict decimal number (what Fortran/C/Python printers write: 1, -2.5, 3e-4, 1.5E+02), or NaN.
- * Number() alone would also take hex, binary, octal and "Infinity"; those are refused here.
+ * Text [s, e) of `line` as a strict decimal number, NaN if it is not one. Number() does the conversion (exact,
+ * and measured as fast as a hand-written fast path here); the first character is checked beforehand because
+ * Number() also takes hexadecimal, binary and octal literals and the word Infinity.
  */
-export function strictNumber(token: string): number {
-  const c0 = token.charCodeAt(0);
-  // fast path: digits, sign or '.' first; then reject 0x / 0b / 0o prefixes that Number() accepts
+export function decimalAt(line: string, s: number, e: number): number {
+  const c0 = line.charCodeAt(s);
   if (!((c0 >= 48 && c0 <= 57) || c0 === 45 || c0 === 43 || c0 === 46)) return NaN;
-  if (c0 === 48 && token.length > 2) {
-    const c1 = token.charCodeAt(1) | 32;
-    if (c1 === 120 || c1 === 98 || c1 === 111) return NaN;
+  if (c0 === 48 && e - s > 2) {
+    const c1 = line.charCodeAt(s + 1) | 32;
+    if (c1 === 120 || c1 === 98 || c1 === 111) return NaN; // 0x.., 0b.., 0o..
   }
-  // tokens never carry whitespace (Number() would ignore it at the ends)
-  return Number(token);
+  return Number(line.slice(s, e));
+}
+
+/** A strict decimal number (1, -2.5, 3e-4, 1.5E+02), or NaN; see decimalAt. */
+export function strictNumber(token: string): number {
+  return decimalAt(token, 0, token.length);
 }
 
 /** Words that mean true/false in extended XYZ. */

@@ -7,7 +7,7 @@ import { InputError } from '../core/errors.ts';
 import type { AtomArray, Frame, InfoValue, Mat3 } from '../core/frame.ts';
 import { cellDeterminant, checkCell as checkCellShape } from '../core/cell.ts';
 import { elementSymbol, isElement, symbolIgnoringCase } from '../core/elements.ts';
-import { CommentSyntaxError, ValueError, interpretValue, parseBoolean, tokeniseComment } from './extxyz-comment.ts';
+import { CommentSyntaxError, ValueError, decimalAt, interpretValue, parseBoolean, tokeniseComment } from './extxyz-comment.ts';
 
 export type ColumnKind = 'S' | 'R' | 'I' | 'L';
 
@@ -194,14 +194,7 @@ function splitFields(line: string): number {
 
 /** Parse field k of `line` as a strict decimal number, NaN if it is not one. */
 function numberField(line: string, k: number): number {
-  const s = fieldStart[k];
-  const c0 = line.charCodeAt(s);
-  if (!((c0 >= 48 && c0 <= 57) || c0 === 45 || c0 === 43 || c0 === 46)) return NaN;
-  if (c0 === 48 && fieldEnd[k] - s > 2) {
-    const c1 = line.charCodeAt(s + 1) | 32;
-    if (c1 === 120 || c1 === 98 || c1 === 111) return NaN; // 0x.., 0b.., 0o.. are not decimal numbers
-  }
-  return Number(line.slice(s, fieldEnd[k]));
+  return decimalAt(line, fieldStart[k], fieldEnd[k]);
 }
 
 const INTEGER = /^[+-]?\d+$/;
@@ -215,8 +208,14 @@ interface Building {
   /** Per column: where its data goes. */
   sinks: (Float64Array | Int32Array | Uint8Array | string[] | null)[];
   speciesFromZ: Int32Array | null;
+  /** Field index of the species column (-1 when species come from Z) and of the first pos field. */
+  speciesField: number;
+  posField: number;
+  /** The other columns: first field index, spec and destination. */
+  others: { field: number; spec: ColumnSpec; sink: Float64Array | Int32Array | Uint8Array | string[] }[];
+  /** Species strings already checked against the periodic table in this frame. */
+  lastSpecies: string;
   atom: number;
-  skip: boolean;
 }
 
 export type FrameDecision = 'parse' | 'skip' | 'stop';
@@ -342,7 +341,17 @@ export class ExtxyzAssembler {
       }
     }
     if (speciesFromZ) delete arrays.Z; // species carries the same information
-    this.building = { header, species: new Array<string>(n), positions, arrays, sinks, speciesFromZ, atom: 0, skip: false };
+    let field = 0;
+    let speciesField = -1;
+    let posField = -1;
+    const others: Building['others'] = [];
+    h.columns.forEach((c, ci) => {
+      if (c.name === 'species') speciesField = field;
+      else if (c.name === 'pos') posField = field;
+      else others.push({ field, spec: c, sink: sinks[ci]! });
+      field += c.width;
+    });
+    this.building = { header, species: new Array<string>(n), positions, arrays, sinks, speciesFromZ, speciesField, posField, others, lastSpecies: '', atom: 0 };
     this.state = 'atoms';
   }
 
@@ -359,20 +368,39 @@ export class ExtxyzAssembler {
       fail(`atom line has ${nf} fields but Properties needs ${h.fieldCount} (${describeColumns(h.columns)})`, where, 'make Properties match the columns, or fix this line');
     }
     const a = b.atom;
-    let f = 0;
-    for (let ci = 0; ci < h.columns.length; ci++) {
-      const c = h.columns[ci];
-      const sink = b.sinks[ci];
-      if (sink === null) {
-        // species
-        const s = text.slice(fieldStart[f], fieldEnd[f]);
-        if (!isElement(s)) this.badSpecies(s);
-        b.species[a] = s;
-        f++;
-        continue;
+    // the two columns every frame has, with their field positions fixed: the hot path
+    if (b.speciesField >= 0) {
+      const sf = b.speciesField;
+      const sp = text.slice(fieldStart[sf], fieldEnd[sf]);
+      if (sp !== b.lastSpecies) {
+        if (!isElement(sp)) this.badSpecies(sp);
+        b.lastSpecies = sp;
       }
+      b.species[a] = sp;
+    }
+    const pf = b.posField;
+    const pos = b.positions;
+    for (let d = 0; d < 3; d++) {
+      const x = decimalAt(text, fieldStart[pf + d], fieldEnd[pf + d]);
+      if (!(x - x === 0)) this.badNumber(text, pf + d, 'pos', 'a finite real number');
+      pos[3 * a + d] = x;
+    }
+    if (b.others.length > 0) this.otherColumns(text, b, a);
+    if (b.speciesFromZ) {
+      const z = b.speciesFromZ[a];
+      const s = elementSymbol(z);
+      if (s === undefined) fail(`atomic number Z = ${z} is not an element`, this.where(), 'Z must be 1…118');
+      b.species[a] = s;
+    }
+    b.atom++;
+    return b.atom === h.nAtoms ? this.complete() : null;
+  }
+
+  private otherColumns(text: string, b: Building, a: number): void {
+    for (const { field, spec: c, sink } of b.others) {
       const base = a * c.width;
-      for (let w = 0; w < c.width; w++, f++) {
+      for (let w = 0; w < c.width; w++) {
+        const f = field + w;
         if (c.kind === 'R') {
           const x = numberField(text, f);
           if (!Number.isFinite(x)) this.badNumber(text, f, c.name, 'a finite real number');
@@ -383,8 +411,7 @@ export class ExtxyzAssembler {
           if (!INTEGER.test(t) || x > 2147483647 || x < -2147483648) this.badNumber(text, f, c.name, 'an integer');
           (sink as Int32Array)[base + w] = x;
         } else if (c.kind === 'L') {
-          const t = text.slice(fieldStart[f], fieldEnd[f]);
-          const v = parseBoolean(t);
+          const v = parseBoolean(text.slice(fieldStart[f], fieldEnd[f]));
           if (v === undefined) this.badNumber(text, f, c.name, 'T or F');
           (sink as Uint8Array)[base + w] = v ? 1 : 0;
         } else {
@@ -392,14 +419,6 @@ export class ExtxyzAssembler {
         }
       }
     }
-    if (b.speciesFromZ) {
-      const z = b.speciesFromZ[a];
-      const s = elementSymbol(z);
-      if (s === undefined) fail(`atomic number Z = ${z} is not an element`, this.where(), 'Z must be 1…118');
-      b.species[a] = s;
-    }
-    b.atom++;
-    return b.atom === h.nAtoms ? this.complete() : null;
   }
 
   private complete(): Frame {

@@ -50,6 +50,8 @@ export function svgToString(svg: SVGSVGElement, background: string | null = null
     }
     t.setAttribute('style', parts.join(';'));
     t.removeAttribute('class');
+    // theme variables mean nothing outside the app: the computed values are now inline
+    for (const attr of Array.from(t.attributes)) if (attr.value.includes('var(')) t.removeAttribute(attr.name);
   }
   for (const el of Array.from(clone.querySelectorAll('[data-export="skip"]'))) el.remove();
   const { width, height } = svgSize(svg);

@@ -166,6 +166,6 @@ export function formatFigure(v: number, digits = 3): string {
   if (!Number.isFinite(v)) return '—';
   if (v === 0) return '0';
   const a = Math.abs(v);
-  if (a >= 1e5 || a < 1e-3) return v.toExponential(digits - 1);
-  return Number(v.toPrecision(digits)).toString();
+  const text = a >= 1e5 || a < 1e-3 ? v.toExponential(digits - 1) : Number(v.toPrecision(digits)).toString();
+  return text.replace(/-/g, '\u2212'); // typographic minus
 }
