@@ -14,6 +14,13 @@ export interface FeatureSettings {
   species: string[];
   /** Centre species: only atoms of these species get an environment. */
   centres: string[];
+  /**
+   * Radial and angular limits of the λ = 1, 2 (equivariant) features, at most nmax and lmax; they use the first
+   * nmaxTensor radial functions and degrees l ≤ lmaxTensor of the same expansion. Omitted: see
+   * `tensorLimits` in features.ts (docs/learning-engine.md gives the default and the reason).
+   */
+  nmaxTensor?: number;
+  lmaxTensor?: number;
 }
 
 /**

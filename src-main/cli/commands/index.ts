@@ -1,6 +1,9 @@
 // Every subcommand, in the order `polarweave --help` lists them. Add one line per new command.
 import type { Command } from '../command.ts';
+import { trainCommand } from './train.ts';
+import { predictCommand } from './predict.ts';
+import { validateCommand } from './validate.ts';
 import { convertCommand } from './convert.ts';
 import { inspectCommand } from './inspect.ts';
 
-export const commands: Command[] = [inspectCommand, convertCommand];
+export const commands: Command[] = [inspectCommand, convertCommand, trainCommand, predictCommand, validateCommand];

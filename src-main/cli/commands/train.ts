@@ -1,0 +1,57 @@
+// `polarweave train`: learn a model of a cell tensor (or dipole, or scalar) from frames with reference values.
+import { parseArgs, UsageError } from '../args.ts';
+import type { Command } from '../command.ts';
+import { trainModel, type Model } from '../../core/model.ts';
+import { saveModel } from '../../io/model-file.ts';
+import { parseRequest, parseRoute, progressReporter, readFrames, settingOptions, targetOptions } from '../learn-options.ts';
+import { CancelledError } from '../../core/errors.ts';
+
+const options = [
+  ...targetOptions,
+  { name: 'route', value: 'cm|direct', help: 'cm: learn α_CM and convert back; direct: learn α_c = (ε − I)V/4π', default: 'cm' },
+  ...settingOptions,
+  { name: 'output', short: 'o', value: 'MODEL', help: 'model file to write (JSON)' },
+];
+
+export function describeModel(model: Model): string {
+  const lines: string[] = [];
+  const t = model.target;
+  lines.push(`model of "${t.key}"${t.kind ? ` (${t.kind})` : ''}: learns ${t.learnt}${t.shape === 'tensor' ? ` through route ${t.route}` : ''}, units ${t.units}`);
+  lines.push(`trained on ${model.training.frames} frames, ${model.training.atoms} atoms (${Object.entries(model.training.atomsPerSpecies).map(([s, n]) => `${s} ${n}`).join(', ')})`);
+  const s = model.settings;
+  lines.push(`settings: cutoff ${s.cutoff} Å, sigma ${s.sigma} Å, nmax ${s.nmax}, lmax ${s.lmax}, ζ ${s.zeta}${s.zeta !== 1 ? `, ${s.sparsePoints ? `sparse ${s.sparsePoints} per species` : 'exact'}` : ''}`);
+  for (const p of model.parts) {
+    const r = p.regularisation;
+    const cv = r.cvError > 0 ? `, cross-validated RMSE per component ${Math.sqrt(r.cvError).toPrecision(3)} ${t.units}` : '';
+    lines.push(`  λ=${p.order}: ${p.form} (${p.method}), ${p.n} features, regulariser ${r.relative.toExponential(0)} (${r.chosenBy})${cv}`);
+  }
+  if (model.applicability.species.length) lines.push(`applicability threshold ${model.applicability.threshold.toFixed(4)} (feature-space distance; ${model.applicability.rule})`);
+  for (const n of model.notes) lines.push(`note: ${n}`);
+  return lines.join('\n');
+}
+
+export const trainCommand: Command = {
+  name: 'train',
+  summary: 'learn a model of a cell tensor from frames with reference values',
+  usage: 'IN --tensor KEY --as eps|alpha-c|alpha-cm -o MODEL [options]',
+  description:
+    'Reads every frame of IN (extended XYZ), learns the tensor as a sum of per-atom contributions and writes the\n' +
+    'model file. The regulariser is chosen by cross-validation on the training frames unless given.',
+  options,
+  async run(argv, io) {
+    const args = parseArgs(argv, options);
+    if (args.positionals.length !== 1) throw new UsageError('give exactly one input file');
+    const out = args.options.output;
+    if (!out) throw new UsageError('give the model file to write with -o MODEL');
+    const route = parseRoute(args.options.route, false) as 'cm' | 'direct';
+    const request = parseRequest(args, route);
+    const frames = await readFrames(args.positionals[0], io);
+    io.err(`train: ${frames.length} frames read from ${args.positionals[0]}\n`);
+    const model = await trainModel(frames, request, { signal: io.signal, onProgress: progressReporter(io, 'train') });
+    if (io.signal.aborted) throw new CancelledError();
+    await saveModel(out, model);
+    io.out(describeModel(model) + '\n');
+    io.out(`model written to ${out}\n`);
+    return 0;
+  },
+};

@@ -1,0 +1,92 @@
+// `polarweave validate`: k-fold cross-validation of a training request, for one route or both, with an
+// optional learning curve; prints RMSE and %RMSE of the λ=0 and λ=2 parts of ε (and α_CM) and a plain verdict.
+import { parseArgs, UsageError } from '../args.ts';
+import type { Command } from '../command.ts';
+import type { ErrorFigures, Route } from '../../core/model-types.ts';
+import { validate } from '../../core/validation.ts';
+import { parseRequest, parseRoute, progressReporter, readFrames, settingOptions, targetOptions } from '../learn-options.ts';
+
+const options = [
+  ...targetOptions,
+  { name: 'route', value: 'cm|direct|both', help: 'route(s) to validate', default: 'both' },
+  { name: 'folds', value: 'K', help: 'number of cross-validation folds', default: '5' },
+  { name: 'learning-curve', value: 'N1,N2,…', help: 'training-set sizes (frames) for a learning curve' },
+  ...settingOptions,
+];
+
+/** Rule-of-thumb verdict thresholds on %RMSE (common practice, no source). */
+export const GOOD_PERCENT = 10;
+export const USABLE_PERCENT = 30;
+
+export function verdict(e: ErrorFigures): string {
+  const worst = Math.max(e.percentIso, e.percentAniso);
+  if (worst <= GOOD_PERCENT) return `good (both %RMSE ≤ ${GOOD_PERCENT} %)`;
+  if (worst <= USABLE_PERCENT) return `usable with care (worst %RMSE ${fmtPct(worst)}, between ${GOOD_PERCENT} and ${USABLE_PERCENT} %)`;
+  return `poor (worst %RMSE ${fmtPct(worst)} > ${USABLE_PERCENT} %): more or more varied training data, or other settings, are needed`;
+}
+
+function fmtPct(p: number): string {
+  return Number.isFinite(p) ? `${p.toFixed(1)} %` : 'undefined (the reference does not vary)';
+}
+
+export function formatErrors(e: ErrorFigures, units: string): string {
+  const g = (x: number) => x.toPrecision(3);
+  return (
+    `λ=0: RMSE ${g(e.rmseIso)}${units}  %RMSE ${fmtPct(e.percentIso)}  R² ${g(e.r2Iso)}\n` +
+    `λ=2: RMSE ${g(e.rmseAniso)}${units}  %RMSE ${fmtPct(e.percentAniso)}  R² ${g(e.r2Aniso)}`
+  );
+}
+
+export const validateCommand: Command = {
+  name: 'validate',
+  summary: 'cross-validate a model of a cell tensor (both routes by default) and say whether it is good',
+  usage: 'IN --tensor KEY --as eps|alpha-c|alpha-cm [--folds K] [--learning-curve 10,20,40] [--route cm|direct|both]',
+  description:
+    'Errors are of the irreducible parts: RMSE λ=0 = sqrt(mean (ΔT⁰)²), RMSE λ=2 = sqrt(mean Σ_μ (ΔT²_μ)²),\n' +
+    '%RMSE = RMSE / standard deviation of the reference over the frames. Compared on ε and on α_CM.',
+  options,
+  async run(argv, io) {
+    const args = parseArgs(argv, options);
+    if (args.positionals.length !== 1) throw new UsageError('give exactly one input file');
+    const folds = Number(args.options.folds);
+    if (!Number.isInteger(folds) || folds < 2) throw new UsageError(`--folds must be a whole number ≥ 2, got "${args.options.folds}"`);
+    let curve: number[] | undefined;
+    if (args.options['learning-curve']) {
+      curve = args.options['learning-curve'].split(',').map((x) => Number(x.trim()));
+      if (curve.some((n) => !Number.isInteger(n) || n < 1)) throw new UsageError('--learning-curve takes whole numbers of frames, e.g. 10,20,40');
+    }
+    const which = parseRoute(args.options.route, true);
+    const routes: Route[] = which === 'both' ? ['cm', 'direct'] : [which];
+    const frames = await readFrames(args.positionals[0], io);
+    io.err(`validate: ${frames.length} frames read from ${args.positionals[0]}\n`);
+    const summary: { route: Route; eps: ErrorFigures }[] = [];
+    for (const route of routes) {
+      const request = parseRequest(args, route);
+      const report = await validate(frames, request, { folds, learningCurve: curve }, { signal: io.signal, onProgress: progressReporter(io, `validate ${route}`) });
+      io.out(`route ${route}: ${folds}-fold cross-validation over ${report.errors.count} frames\n`);
+      io.out(`  on ε:\n${indent(formatErrors(report.errors, ''), 4)}\n`);
+      for (const o of report.alsoOn) io.out(`  on ${o.target}:\n${indent(formatErrors(o.errors, ' Å³'), 4)}\n`);
+      for (const lc of report.learningCurve) {
+        io.out(`  learning curve, ${lc.trainSize} training frames: %RMSE ε λ=0 ${fmtPct(lc.errors.percentIso)}, λ=2 ${fmtPct(lc.errors.percentAniso)}\n`);
+      }
+      if (report.skippedSizes.length) io.out(`  learning-curve sizes skipped (more than the training folds hold): ${report.skippedSizes.join(', ')}\n`);
+      io.out(`  verdict (rule of thumb, on ε): ${verdict(report.errors)}\n`);
+      summary.push({ route, eps: report.errors });
+    }
+    if (summary.length === 2) {
+      const [a, b] = summary;
+      const score = (e: ErrorFigures) => e.rmseIso ** 2 + e.rmseAniso ** 2;
+      const better = score(a.eps) <= score(b.eps) ? a : b;
+      io.out(`comparison on ε: route ${better.route} has the smaller total RMSE (cm ${Math.sqrt(score(a.eps)).toPrecision(3)}, direct ${Math.sqrt(score(b.eps)).toPrecision(3)})\n`);
+    }
+    io.out('Rule-of-thumb thresholds: good ≤ 10 %RMSE, usable ≤ 30 %RMSE (common practice, no source). Predictions are model estimates.\n');
+    return 0;
+  },
+};
+
+function indent(text: string, n: number): string {
+  return text
+    .split('\n')
+    .map((l) => ' '.repeat(n) + l)
+    .join('\n');
+}
