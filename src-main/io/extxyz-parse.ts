@@ -156,45 +156,43 @@ export function parseCommentLine(line: string, where: Where): Omit<Header, 'nAto
   return { cell, pbc, info, columns, fieldCount };
 }
 
-// Field boundaries of the current atom line, reused between lines (no allocation per line).
-let fieldStart = new Int32Array(64);
-let fieldEnd = new Int32Array(64);
+// Field boundaries of the current atom line, reused between lines (no allocation per line). Offsets are
+// absolute positions in the text the line sits in (a whole read chunk, not a sliced line: reading characters
+// of the flat chunk string is several times faster than of a slice of it).
+const MAX_FIELDS = 4096;
+const fieldStart = new Int32Array(MAX_FIELDS);
+const fieldEnd = new Int32Array(MAX_FIELDS);
 
-/** Split on spaces and tabs; returns the number of fields (boundaries in fieldStart/fieldEnd). */
-function splitFields(line: string): number {
+/**
+ * Split text[start, end) on spaces, tabs and CR; returns the number of fields. Boundaries of the first
+ * MAX_FIELDS fields go to fieldStart/fieldEnd (a line with more is never a valid atom line, only counted).
+ */
+function splitFields(text: string, start: number, end: number): number {
   let n = 0;
-  const len = line.length;
-  let i = 0;
-  while (i < len) {
-    let c = line.charCodeAt(i);
+  let i = start;
+  while (i < end) {
+    let c = text.charCodeAt(i);
     while (c === 32 || c === 9 || c === 13) {
-      if (++i >= len) return n;
-      c = line.charCodeAt(i);
+      if (++i >= end) return n;
+      c = text.charCodeAt(i);
     }
     const s = i;
-    while (i < len) {
-      c = line.charCodeAt(i);
+    while (++i < end) {
+      c = text.charCodeAt(i);
       if (c === 32 || c === 9 || c === 13) break;
-      i++;
     }
-    if (n === fieldStart.length) {
-      const a = new Int32Array(2 * n);
-      a.set(fieldStart);
-      fieldStart = a;
-      const b = new Int32Array(2 * n);
-      b.set(fieldEnd);
-      fieldEnd = b;
+    if (n < MAX_FIELDS) {
+      fieldStart[n] = s;
+      fieldEnd[n] = i;
     }
-    fieldStart[n] = s;
-    fieldEnd[n] = i;
     n++;
   }
   return n;
 }
 
-/** Parse field k of `line` as a strict decimal number, NaN if it is not one. */
-function numberField(line: string, k: number): number {
-  return decimalAt(line, fieldStart[k], fieldEnd[k]);
+/** Field k of the current line as a strict decimal number, NaN if it is not one. */
+function numberField(text: string, k: number): number {
+  return decimalAt(text, fieldStart[k], fieldEnd[k]);
 }
 
 const INTEGER = /^[+-]?\d+$/;
@@ -266,7 +264,8 @@ export class ExtxyzAssembler {
     return { file: this.fileName, line: this.line, frame: this.frame };
   }
 
-  push(text: string): Frame | null | 'stop' {
+  /** Feed the line text[start, end) (without its newline; the whole string by default). */
+  push(text: string, start = 0, end = text.length): Frame | null | 'stop' {
     if (this.stopped) return 'stop';
     this.line++;
     if (this.skipRemaining > 0) {
@@ -276,12 +275,12 @@ export class ExtxyzAssembler {
     }
     switch (this.state) {
       case 'count':
-        return this.onCount(text);
+        return this.onCount(text.slice(start, end));
       case 'comment':
-        this.onComment(text);
+        this.onComment(text.slice(start, end));
         return this.pendingCount === 0 && this.building !== null ? this.complete() : null;
       case 'atoms':
-        return this.onAtom(text);
+        return this.onAtom(text, start, end);
     }
   }
 
@@ -355,14 +354,14 @@ export class ExtxyzAssembler {
     this.state = 'atoms';
   }
 
-  private onAtom(text: string): Frame | null {
+  private onAtom(text: string, start: number, end: number): Frame | null {
     const b = this.building!;
     const h = b.header;
-    const nf = splitFields(text);
+    const nf = splitFields(text, start, end);
     if (nf !== h.fieldCount) {
       const where = this.where();
       if (nf === 0) fail(`blank line inside frame: atom ${b.atom + 1} of ${h.nAtoms} expected`, where, `the frame's count line says ${h.nAtoms} atoms; fix the count or remove the blank line`);
-      if (nf === 1 && INTEGER.test(text.trim())) {
+      if (nf === 1 && INTEGER.test(text.slice(start, end).trim())) {
         fail(`frame declares ${h.nAtoms} atoms but only ${b.atom} atom lines come before the next frame's count line`, where, 'correct the atom count line of this frame');
       }
       fail(`atom line has ${nf} fields but Properties needs ${h.fieldCount} (${describeColumns(h.columns)})`, where, 'make Properties match the columns, or fix this line');
@@ -487,7 +486,7 @@ export function parseExtxyz(text: string, fileName: string): Frame[] {
   while (start < n) {
     let end = text.indexOf('\n', start);
     if (end < 0) end = n;
-    const r = asm.push(text.slice(start, end));
+    const r = asm.push(text, start, end);
     if (r !== null && r !== 'stop') frames.push(r);
     start = end + 1;
   }

@@ -125,7 +125,7 @@ function feedLines(asm: ExtxyzAssembler, text: string, out: Frame[], file: strin
   for (;;) {
     const end = text.indexOf('\n', start);
     if (end < 0) break;
-    const r = asm.push(text.slice(start, end));
+    const r = asm.push(text, start, end);
     start = end + 1;
     if (r === 'stop') return null;
     if (r !== null) out.push(r);
@@ -309,7 +309,7 @@ export async function readFrameAt(file: string, index: ExtxyzIndex, k: number): 
   while (s <= text.length) {
     let e = text.indexOf('\n', s);
     if (e < 0) e = text.length;
-    const r = asm.push(text.slice(s, e));
+    const r = asm.push(text, s, e);
     if (r !== null && r !== 'stop') return r;
     s = e + 1;
   }

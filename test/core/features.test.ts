@@ -2,6 +2,7 @@
 // continuity at the cutoff, unit norm, and the stored (unique-pair, √2-weighted) layout against a plain sum over
 // all ordered pairs built with h-math's coupleReal.
 import { describe, expect, it } from 'vitest';
+import { readFileSync } from 'node:fs';
 import { makeFrame, type Frame } from '../../src-main/core/frame.ts';
 import type { FeatureSettings } from '../../src-main/core/feature-types.ts';
 import { computeFeatures, concatenateFeatures, describeFeatures, featureCount, tensorLimits } from '../../src-main/core/features.ts';
@@ -20,7 +21,7 @@ import {
   translateFrame,
   type Equivariant,
 } from './equivariance-harness.ts';
-import { bruteForceNeighbours } from './reference-neighbours.ts';
+import { neighbourList } from '../../src-main/core/neighbours.ts';
 
 const settings: FeatureSettings = {
   cutoff: 3.2,
@@ -187,7 +188,7 @@ describe('stored layout', () => {
     const full = frames.map((fr) => {
       const c = new Float64Array(ex.size);
       const ch = Int32Array.from(fr.species.map((x) => s.species.indexOf(x)));
-      ex.expand(bruteForceNeighbours(fr, s.cutoff), 0, ch[0], ch, c);
+      ex.expand(neighbourList(fr, s.cutoff), 0, ch[0], ch, c);
       const vec = (ch1: number, l: number) => c.subarray(ch1 * 16 + l * l, ch1 * 16 + l * l + 2 * l + 1);
       const p: number[] = [];
       for (let c1 = 0; c1 < 6; c1++) for (let c2 = 0; c2 < 6; c2++) for (let l = 0; l <= 3; l++) {
@@ -244,5 +245,37 @@ describe('input checks', () => {
     expect(() => computeFeatures(frame, { ...settings, cutoffWidth: 0 })).toThrow(InputError);
     expect(() => computeFeatures(frame, { ...settings, lmaxTensor: 7 })).toThrow(InputError);
     expect(() => computeFeatures(frame, { ...settings, centres: [] })).toThrow(InputError);
+  });
+});
+
+describe('a dimer along z against scipy and sympy values (test/fixtures/radial-reference.py)', () => {
+  // Neighbour on +z: Y_lm(ẑ) = δ_m0 √((2l+1)/4π), so c_nl0 = 4π f_c(d) √((2l+1)/4π) I_nl(d) + δ_l0 √(4π) I_n0(0)
+  // with I_nl from scipy's quad; λ=2 then has only μ = 0: w ⟨l 0; l' 0 | 2 0⟩ c_nl0 c_n'l'0 (sympy CG).
+  const fx = JSON.parse(readFileSync(new URL('../fixtures/radial-reference.json', import.meta.url), 'utf8')) as {
+    integral: { cutoff: number; sigma: number; nmax: number; lmax: number; rows: { d: number; n: number; l: number; value: number }[] };
+    cg20: { l: number; l2: number; value: number }[];
+  };
+  const { cutoff, sigma, nmax, lmax, rows } = fx.integral;
+  const s: FeatureSettings = { cutoff, cutoffWidth: 1, sigma, nmax, lmax, species: ['X'], centres: ['X'], lmaxTensor: lmax };
+  const I = (d: number, n: number, l: number) => rows.find((r) => r.d === d && r.n === n && r.l === l)!.value;
+  const cg = (l: number, l2: number) => fx.cg20.find((r) => r.l === l && r.l2 === l2)!.value;
+  const unit = (x: number[]) => {
+    const norm = Math.sqrt(x.reduce((a, v) => a + v * v, 0));
+    return x.map((v) => v / norm);
+  };
+
+  it.each([1.0, 2.2, 3.7])('d = %f Å: λ=0 and λ=2 features to 1e-8', (d) => {
+    const fc = d <= cutoff - 1 ? 1 : 0.5 * (1 + Math.cos(Math.PI * (d - (cutoff - 1)))); // cosine switch, width 1 Å
+    const c = (n: number, l: number) => 4 * Math.PI * fc * Math.sqrt((2 * l + 1) / (4 * Math.PI)) * I(d, n, l) + (l === 0 ? Math.sqrt(4 * Math.PI) * I(0, n, 0) : 0);
+    const f = computeFeatures(makeFrame(['X', 'X'], [0.3, -0.2, 1.1, 0.3, -0.2, 1.1 + d], null), s, [2]);
+    const p = unit(describeFeatures(s, 0).map((q) => (q.weight / Math.sqrt(2 * q.l + 1)) * c(q.n, q.l) * c(q.n2, q.l)));
+    p.forEach((v, k) => expect(Math.abs(f.scalar[k] - v)).toBeLessThan(1e-8));
+    const labels = describeFeatures(s, 2);
+    const xi = unit(labels.map((q) => q.weight * cg(q.l, q.l2) * c(q.n, q.l) * c(q.n2, q.l2)));
+    const n2 = f.tensor[2]!.n;
+    expect(n2).toBe(labels.length);
+    for (let mu = 0; mu < 5; mu++) {
+      for (let k = 0; k < n2; k++) expect(Math.abs(f.tensor[2]!.data[mu * n2 + k] - (mu === 2 ? xi[k] : 0))).toBeLessThan(1e-8);
+    }
   });
 });
