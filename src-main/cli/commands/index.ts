@@ -5,5 +5,6 @@ import { predictCommand } from './predict.ts';
 import { validateCommand } from './validate.ts';
 import { convertCommand } from './convert.ts';
 import { inspectCommand } from './inspect.ts';
+import { mergeCommand } from './merge.ts';
 
-export const commands: Command[] = [inspectCommand, convertCommand, trainCommand, predictCommand, validateCommand];
+export const commands: Command[] = [inspectCommand, convertCommand, trainCommand, predictCommand, validateCommand, mergeCommand];
