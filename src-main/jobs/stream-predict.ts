@@ -259,8 +259,8 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     }
 
     runner = new JobRunner({ spawn: opts.spawn ?? tsWorkerFactory(new URL('./predict-worker.ts', import.meta.url)), concurrency: threads, graceMs: 500 });
-    let batchSize = opts.batchFrames ?? 2;
-    const targetMs = 1000 * (opts.batchSeconds ?? 4);
+    let batchSize = opts.batchFrames ?? 4 * threads;
+    const targetMs = 1000 * (opts.batchSeconds ?? 20);
     let seq = 0;
     let written = 0;
     let lastOffset = from.offset;

@@ -31,7 +31,7 @@ afterAll(() => rmSync(dir, { recursive: true, force: true }));
 describe('streamPredict', () => {
   it('gives the in-memory predictions, in frame order, for a range with a stride (2 threads)', async () => {
     const out = join(dir, 'a.csv');
-    const r = await streamPredict({ modelPath: modelPath(), input: input(), output: out, range: { start: 1, stop: 18, step: 2 }, threads: 2, batchFrames: 2 });
+    const r = await streamPredict({ modelPath: modelPath(), input: input(), output: out, range: { start: 1, stop: 18, step: 2 }, threads: 2, batchFrames: 5 });
     expect(r.frames).toBe(9);
     const t = parseCsv(readFileSync(out, 'utf8'), out);
     const idx = Array.from(t.numbers('frame'));
@@ -54,19 +54,19 @@ describe('streamPredict', () => {
 
   it('resumes after an interruption and ends with the bytes of an uninterrupted run', async () => {
     const clean = join(dir, 'clean.csv');
-    await streamPredict({ modelPath: modelPath(), input: input(), output: clean, threads: 2, batchFrames: 3 });
+    await streamPredict({ modelPath: modelPath(), input: input(), output: clean, threads: 2, batchFrames: 10 });
     const out = join(dir, 'resumed.csv');
     const stop = new AbortController();
     let seen = 0;
     const first = streamPredict({
-      modelPath: modelPath(), input: input(), output: out, threads: 2, batchFrames: 3, signal: stop.signal,
+      modelPath: modelPath(), input: input(), output: out, threads: 2, batchFrames: 4, signal: stop.signal,
       onProgress: (p) => {
         seen = p.done;
-        if (p.done >= 6) stop.abort();
+        if (p.done >= 8) stop.abort();
       },
     });
     await expect(first).rejects.toBeInstanceOf(CancelledError);
-    expect(seen).toBeGreaterThanOrEqual(6);
+    expect(seen).toBeGreaterThanOrEqual(8);
     expect(seen).toBeLessThan(20);
     const { partial, checkpoint } = checkpointPaths(out);
     expect(existsSync(out)).toBe(false);
@@ -76,7 +76,7 @@ describe('streamPredict', () => {
     // a crash may leave bytes past the checkpoint: they must be dropped on resume
     writeFileSync(partial, readFileSync(partial, 'utf8') + '999,garbage\n');
     let resumedFrom = -1;
-    const r = await streamPredict({ modelPath: modelPath(), input: input(), output: out, threads: 1, batchFrames: 5, onProgress: (p) => (resumedFrom = p.resumedFrom) });
+    const r = await streamPredict({ modelPath: modelPath(), input: input(), output: out, threads: 1, batchFrames: 20, onProgress: (p) => (resumedFrom = p.resumedFrom) });
     expect(resumedFrom).toBe(seen);
     expect(r.resumedFrom).toBe(seen);
     expect(r.framesThisRun).toBe(20 - seen);
@@ -86,7 +86,7 @@ describe('streamPredict', () => {
 
   it('writes extended XYZ frames stamped with frame index and model checksum', async () => {
     const out = join(dir, 'a.extxyz');
-    await streamPredict({ modelPath: modelPath(), input: input(), output: out, range: { stop: 4 }, threads: 2, batchFrames: 1 });
+    await streamPredict({ modelPath: modelPath(), input: input(), output: out, range: { stop: 4 }, threads: 2, batchFrames: 2 });
     const back = parseExtxyz(readFileSync(out, 'utf8'), out);
     expect(back.map((f) => f.info.pred_frame)).toEqual([0, 1, 2, 3]);
     expect(back[2].info.pred_model_sha256).toMatch(/^[0-9a-f]{64}$/);

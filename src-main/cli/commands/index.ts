@@ -6,5 +6,6 @@ import { validateCommand } from './validate.ts';
 import { convertCommand } from './convert.ts';
 import { inspectCommand } from './inspect.ts';
 import { mergeCommand } from './merge.ts';
+import { analyseCommand } from './analyse.ts';
 
-export const commands: Command[] = [inspectCommand, convertCommand, trainCommand, predictCommand, validateCommand, mergeCommand];
+export const commands: Command[] = [inspectCommand, convertCommand, trainCommand, predictCommand, validateCommand, mergeCommand, analyseCommand];
