@@ -29,6 +29,8 @@ export interface PredictChunkOutput {
   outside: boolean[];
   atomsOutside: number[];
   maxDistance: number[];
+  /** Time spent parsing and predicting in the worker (ms), without its start-up: sizes the next batches. */
+  computeMs: number;
 }
 
 export function sha256Hex(data: Uint8Array | string): string {
@@ -67,7 +69,8 @@ export function parseFrameBytes(file: string, index: number, line: number, bytes
 
 export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): Promise<PredictChunkOutput> {
   const m = await modelFor(input.modelPath, input.modelSha256);
-  const out: PredictChunkOutput = { text: '', index: [], outside: [], atomsOutside: [], maxDistance: [] };
+  const t0 = performance.now();
+  const out: PredictChunkOutput = { text: '', index: [], outside: [], atomsOutside: [], maxDistance: [], computeMs: 0 };
   const parts: string[] = [];
   const total = input.frames.length;
   for (let j = 0; j < total; j++) {
@@ -83,6 +86,7 @@ export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): 
     ctx.progress({ stage: 'predict', done: j + 1, total });
   }
   out.text = parts.join('');
+  out.computeMs = performance.now() - t0;
   return out;
 }
 

@@ -241,7 +241,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
 
   const fh = await fsp.open(partial, ck ? 'r+' : 'w');
   let runner: JobRunner | null = null;
-  const inFlight = new Map<number, { promise: Promise<PredictChunkOutput>; next: SlicePosition; frames: number; startedAt: number }>();
+  const inFlight = new Map<number, { promise: Promise<PredictChunkOutput>; next: SlicePosition; frames: number }>();
   try {
     if (ck) await fh.truncate(ck.partialBytes);
     else if (format === 'csv') {
@@ -303,8 +303,10 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       lastOffset = entry.next.offset;
       await writeCheckpoint(entry.next);
       if (opts.batchFrames === undefined && entry.frames > 0) {
-        const perFrame = (Date.now() - entry.startedAt) / entry.frames;
-        batchSize = Math.max(1, Math.min(1000, Math.round(targetMs / Math.max(perFrame, 0.01))));
+        // size batches by the workers' own compute time per frame (worker start-up excluded), so that one batch
+        // takes about batchSeconds: start-up is then a small share of the work
+        const perFrame = r.computeMs / entry.frames;
+        batchSize = Math.max(1, Math.min(5000, Math.round(targetMs / Math.max(perFrame, 0.01))));
       }
       report();
     };
@@ -313,7 +315,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       const input: PredictChunkInput = { modelPath: resolve(opts.modelPath), modelSha256, file: opts.input, format, stamp, frames };
       const promise = (runner as JobRunner).run<PredictChunkOutput>('predict-chunk', input, { signal });
       promise.catch(() => undefined); // awaited in order by drainOne
-      inFlight.set(seq++, { promise, next, frames: frames.length, startedAt: Date.now() });
+      inFlight.set(seq++, { promise, next, frames: frames.length });
     };
 
     const stop = selection.stop;
@@ -327,7 +329,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
         batch.push({ index: s.index, line: s.line, bytes: new Uint8Array(s.bytes.buffer, s.bytes.byteOffset, s.bytes.byteLength) });
         batchBytes += s.bytes.length;
       }
-      if (batch.length >= batchSize || batchBytes > 64 << 20) {
+      if (batch.length >= batchSize || batchBytes > 16 << 20) {
         submit(batch, pos);
         batch = [];
         batchBytes = 0;
