@@ -50,9 +50,10 @@ export async function run(): Promise<void> {
     const rates: number[] = [];
     for (const threads of [1, 2]) {
       const out = join(dir, `big-${threads}.csv`);
+      const cpu0 = process.cpuUsage();
       const r = await streamPredict({ modelPath, input, output: out, threads, mode: 'restart', batchFrames: Math.ceil(frames / threads) });
       rates.push(r.frames / r.seconds);
-      console.log(`  streamed, ${threads} worker thread${threads > 1 ? 's' : ''}: ${r.frames} frames in ${r.seconds.toFixed(1)} s = ${(r.frames / r.seconds).toFixed(2)} frames/s (one batch per thread, worker start-up included)`);
+      console.log(`  streamed, ${threads} worker thread${threads > 1 ? 's' : ''}: ${r.frames} frames in ${r.seconds.toFixed(1)} s = ${(r.frames / r.seconds).toFixed(2)} frames/s (one batch per thread, worker start-up included); CPU time / wall time ${((process.cpuUsage(cpu0).user + process.cpuUsage(cpu0).system) / 1e6 / r.seconds).toFixed(2)} (cores actually obtained)`);
     }
     console.log(`  speed-up 1 → 2 threads: ${(rates[1] / rates[0]).toFixed(2)}×`);
 

@@ -3,11 +3,8 @@
 // other lines by counting newline bytes. Selected frames come out as their raw bytes (parsed later, in a worker);
 // skipped frames cost one newline scan. Memory stays at one read buffer plus the frame being collected, and
 // every frame reports the byte offset after it, which is what a resume checkpoint stores.
-import { promises as fsp } from 'node:fs';
 import { CancelledError, InputError } from '../core/errors.ts';
 import { byteChunks } from '../io/extxyz.ts';
-
-const CHUNK_BYTES = 1 << 20;
 
 /** Where to start: a frame boundary (the atom-count line of frame `index`). */
 export interface SlicePosition {
@@ -31,51 +28,6 @@ export interface FrameSlice {
 }
 
 export type SliceDecision = 'take' | 'skip' | 'stop';
-
-async function isGzip(file: string): Promise<boolean> {
-  let fh;
-  try {
-    fh = await fsp.open(file, 'r');
-  } catch (e) {
-    const code = (e as NodeJS.ErrnoException).code;
-    if (code === 'ENOENT') throw new InputError('file not found', { file }, 'check the path');
-    throw e;
-  }
-  try {
-    const head = Buffer.alloc(2);
-    const { bytesRead } = await fh.read(head, 0, 2, 0);
-    return bytesRead === 2 && head[0] === 0x1f && head[1] === 0x8b;
-  } finally {
-    await fh.close();
-  }
-}
-
-/** The file's bytes from `offset` (decompressed for gzip, where the bytes before offset are read and dropped). */
-async function* bytesFrom(file: string, offset: number, signal?: AbortSignal): AsyncGenerator<Buffer> {
-  if (await isGzip(file)) {
-    let pos = 0;
-    for await (const chunk of byteChunks(file, signal)) {
-      const end = pos + chunk.length;
-      if (end > offset) yield pos >= offset ? chunk : chunk.subarray(offset - pos);
-      pos = end;
-    }
-    return;
-  }
-  const fh = await fsp.open(file, 'r');
-  try {
-    const buf = Buffer.allocUnsafe(CHUNK_BYTES);
-    let position = offset;
-    for (;;) {
-      if (signal?.aborted) throw new CancelledError();
-      const { bytesRead } = await fh.read(buf, 0, CHUNK_BYTES, position);
-      if (bytesRead === 0) break;
-      position += bytesRead;
-      yield buf.subarray(0, bytesRead);
-    }
-  } finally {
-    await fh.close().catch(() => undefined);
-  }
-}
 
 /**
  * Frames of `file` from `from` on. `decide(index)` says which to take; 'stop' ends the walk. A file that ends
@@ -108,7 +60,7 @@ export async function* frameSlices(file: string, from: SlicePosition, decide: (i
     return 'frame';
   };
 
-  for await (const chunk of bytesFrom(file, from.offset, signal)) {
+  for await (const chunk of byteChunks(file, signal, from.offset)) {
     let i = 0;
     const len = chunk.length;
     while (i < len) {

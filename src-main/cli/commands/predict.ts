@@ -11,6 +11,7 @@ import { annotateFrame, tensorPredictionRow, tensorRowColumns, valuePredictionRo
 import { readExtxyz, formatExtxyzFrame, type FrameRange } from '../../io/extxyz.ts';
 import { atomicWriteStream } from '../../io/atomic.ts';
 import { loadModel } from '../../io/model-file.ts';
+import { csvRecord } from '../../jobs/prediction-text.ts';
 import { checkpointPaths, progressLine, streamPredict, type StreamPredictOptions } from '../../jobs/stream-predict.ts';
 import { availableParallelism } from 'node:os';
 
@@ -91,17 +92,8 @@ export function predictOne(model: Model, frame: Frame, index: number, featurise 
   return { row: tensorPredictionRow(index, frame, fp), annotated: annotateFrame(frame, fp, model) };
 }
 
-export function csvLine(values: (number | string | boolean)[]): string {
-  return (
-    values
-      .map((v) => {
-        if (typeof v === 'number') return Number.isInteger(v) ? String(v) : v.toPrecision(10);
-        if (typeof v === 'boolean') return v ? '1' : '0';
-        return /[",\n]/.test(v) ? `"${v.replace(/"/g, '""')}"` : v;
-      })
-      .join(',') + '\n'
-  );
-}
+/** One CSV record as `predict` writes it (shared with the streaming writer). */
+export const csvLine = csvRecord;
 
 export async function runPredict(modelPath: string, input: string, output: string, range: FrameRange, io: CommandIO): Promise<number> {
   const format = /\.csv$/i.test(output) ? 'csv' : /\.(ext)?xyz(\.gz)?$/i.test(output) ? 'extxyz' : null;
