@@ -1,7 +1,9 @@
 // Environments per second of computeFeatures on water-like cells (O and H, 0.1 atoms/Å³, jittered molecules),
 // r_c 4.5 Å, nmax 8, lmax 6: λ = 0 only and λ = 0 + λ = 2; 1×, 2×, 4× cells to show linear cost; feature counts
-// and the time share of neighbour list / density expansion / coupling. Single thread. Figures only.
-import { pathToFileURL } from 'node:url';
+// and the time share of neighbour list / density expansion / coupling. Each configuration runs in its own
+// process, single thread. Figures only.
+import { spawnSync } from 'node:child_process';
+import { fileURLToPath, pathToFileURL } from 'node:url';
 import { makeFrame, type Frame } from '../src-main/core/frame.ts';
 import { supercell } from '../src-main/core/cell.ts';
 import { makeRng } from '../src-main/core/random.ts';
@@ -54,21 +56,62 @@ export const benchSettings: FeatureSettings = {
   centres: ['O', 'H'],
 };
 
-function measure(frame: Frame, settings: FeatureSettings, lambdas: Lambda[], minMs = 1500) {
-  computeFeatures(frame, settings, lambdas); // warm-up: tables, plan, JIT
-  const timings: FeatureTimings = { neighbours: 0, expansion: 0, coupling: 0 };
-  let envs = 0;
-  const t0 = performance.now();
-  const cpu0 = process.cpuUsage();
-  let reps = 0;
-  while (performance.now() - t0 < minMs || reps < 2) {
-    envs += computeFeatures(frame, settings, lambdas, undefined, timings).count;
-    reps++;
+/**
+ * Figures for computeFeatures (neighbour list included) on one frame: the best of several batches in CPU time
+ * of this process (robust on a loaded machine), and the stage shares from the same batch's timings.
+ */
+function measure(frame: Frame, settings: FeatureSettings, lambdas: Lambda[], batches = 5, minBatchMs = 250) {
+  const envs = computeFeatures(frame, settings, lambdas).count; // warm-up: tables, plan, JIT
+  let best = { cpu: Infinity, wall: Infinity, timings: { neighbours: 0, expansion: 0, coupling: 0 } as FeatureTimings };
+  for (let b = 0; b < batches; b++) {
+    const timings: FeatureTimings = { neighbours: 0, expansion: 0, coupling: 0 };
+    const cpu0 = process.cpuUsage();
+    const t0 = performance.now();
+    let calls = 0;
+    do {
+      computeFeatures(frame, settings, lambdas, undefined, timings);
+      calls++;
+    } while (performance.now() - t0 < minBatchMs);
+    const cpu = process.cpuUsage(cpu0);
+    const cpuMs = (cpu.user + cpu.system) / 1000 / calls;
+    if (cpuMs < best.cpu) best = { cpu: cpuMs, wall: (performance.now() - t0) / calls, timings };
   }
-  const total = performance.now() - t0;
-  const cpu = process.cpuUsage(cpu0);
-  const cpuMs = (cpu.user + cpu.system) / 1000;
-  return { envsPerSecond: (envs / total) * 1000, envsPerCpuSecond: (envs / cpuMs) * 1000, total, timings, reps };
+  const { neighbours, expansion, coupling } = best.timings;
+  const sum = neighbours + expansion + coupling;
+  return {
+    envs,
+    perCpuSecond: (envs / best.cpu) * 1000,
+    perWallSecond: (envs / best.wall) * 1000,
+    shares: { neighbours: neighbours / sum, expansion: expansion / sum, coupling: coupling / sum },
+  };
+}
+
+const CELLS: [string, [number, number, number]][] = [
+  ['1× (384 atoms)', [1, 1, 1]],
+  ['2× (768 atoms)', [2, 1, 1]],
+  ['4× (1536 atoms)', [2, 2, 1]],
+];
+
+function variants(s: FeatureSettings): [string, Lambda[], FeatureSettings][] {
+  return [
+    ['λ=0', [0], s],
+    ['λ=0+2', [0, 2], s],
+    [`λ=0+2 (lmaxTensor ${s.lmax})`, [0, 2], { ...s, lmaxTensor: s.lmax }],
+  ];
+}
+
+/** One line of figures for variant v on cell c (run in its own process: one settings per process, as in use). */
+function measureOne(v: number, c: number): string {
+  const [label, lambdas, settings] = variants(benchSettings)[v];
+  const [cellLabel, repeats] = CELLS[c];
+  const base = waterCell(1);
+  const frame = c === 0 ? base : supercell(base, repeats);
+  const m = measure(frame, settings, lambdas);
+  const share = (x: number) => (100 * x).toFixed(0).padStart(2);
+  return (
+    `${label.padEnd(26)} ${cellLabel.padEnd(16)} ${m.perCpuSecond.toFixed(0).padStart(6)} env per CPU-s, ${m.perWallSecond.toFixed(0).padStart(6)} env/s wall  ` +
+    `(neighbour list ${share(m.shares.neighbours)}%, expansion ${share(m.shares.expansion)}%, power spectrum + coupling ${share(m.shares.coupling)}%)`
+  );
 }
 
 export async function run(): Promise<void> {
@@ -76,34 +119,27 @@ export async function run(): Promise<void> {
   const t = tensorLimits(s);
   console.log(`features bench: r_c ${s.cutoff} Å, width ${s.cutoffWidth} Å, σ ${s.sigma} Å, nmax ${s.nmax}, lmax ${s.lmax}, species ${s.species.join(',')}; λ=2 with nmax ${t.nmax}, lmax ${t.lmax}; one thread, Node ${process.version}`);
   console.log(`feature counts: λ=0 ${featureCount(s, 0)}, λ=2 ${featureCount(s, 2)} (× 5 components), λ=1 ${featureCount(s, 1)} (× 3); λ=2 at lmaxTensor ${s.lmax}: ${featureCount({ ...s, lmaxTensor: s.lmax }, 2)}`);
-  console.log('(wall-clock figures depend on the load of the machine; "per CPU-s" divides by this process\'s CPU time)');
-  const base = waterCell(1);
-  const cells: [string, Frame][] = [
-    ['1× (384 atoms)', base],
-    ['2× (768 atoms)', supercell(base, [2, 1, 1])],
-    ['4× (1536 atoms)', supercell(base, [2, 2, 1])],
-  ];
-  const variants: [string, Lambda[], FeatureSettings][] = [
-    ['λ=0', [0], s],
-    ['λ=0+2', [0, 2], s],
-    [`λ=0+2 (lmaxTensor ${s.lmax})`, [0, 2], { ...s, lmaxTensor: s.lmax }],
-  ];
-  for (const [label, lambdas, settings] of variants) {
-    for (const [cellLabel, frame] of cells) {
-      const m = measure(frame, settings, lambdas, cellLabel.startsWith('1×') ? 2000 : 1000);
-      const sum = m.timings.neighbours + m.timings.expansion + m.timings.coupling;
-      const share = (x: number) => ((100 * x) / sum).toFixed(0).padStart(2);
-      console.log(
-        `${label.padEnd(26)} ${cellLabel.padEnd(16)} ${m.envsPerSecond.toFixed(0).padStart(6)} env/s wall, ${m.envsPerCpuSecond.toFixed(0).padStart(6)} per CPU-s  ` +
-          `(neighbours ${share(m.timings.neighbours)}%, expansion ${share(m.timings.expansion)}%, coupling ${share(m.timings.coupling)}%; ${m.reps} runs)`,
-      );
+  console.log('(each line in a fresh process; best of 5 batches; "per CPU-s" divides by the process\'s CPU time, wall figures depend on the machine\'s load; neighbour list included)');
+  const self = fileURLToPath(import.meta.url);
+  for (let v = 0; v < variants(s).length; v++) {
+    for (let c = 0; c < CELLS.length; c++) {
+      // A fresh process per configuration: mixing settings in one process makes the JIT's code for the hot loop
+      // polymorphic and slower than in real use (one settings per run).
+      const child = spawnSync(process.execPath, [...process.execArgv, self, '--one', String(v), String(c)], { encoding: 'utf8' });
+      if (child.status === 0) console.log(child.stdout.trim());
+      else console.log(`${measureOne(v, c)}  [in-process: child failed: ${(child.stderr || '').trim().split('\n')[0]}]`);
     }
   }
 }
 
 if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
-  run().catch((error: unknown) => {
-    console.error(error);
-    process.exitCode = 1;
-  });
+  const one = process.argv.indexOf('--one');
+  if (one >= 0) {
+    console.log(measureOne(Number(process.argv[one + 1]), Number(process.argv[one + 2])));
+  } else {
+    run().catch((error: unknown) => {
+      console.error(error);
+      process.exitCode = 1;
+    });
+  }
 }

@@ -42,7 +42,7 @@ export async function run(): Promise<void> {
     console.log(
       `  ${name.padEnd(22)} atoms 100000  cutoff 5 Å  pairs ${nl.count}  ${seconds.toFixed(2)} s wall ` +
         `(${cpuSeconds.toFixed(2)} s CPU)  ${(nl.count / seconds / 1e6).toFixed(2)} M pairs/s wall  ` +
-        `list ${mb(bytes)} MB  process peak RSS ${(process.resourceUsage().maxRSS / 1024).toFixed(0)} MB`,
+        `list ${mb(bytes)} MB  process peak RSS so far ${(process.resourceUsage().maxRSS / 1024).toFixed(0)} MB`,
     );
   }
   // The learning engine's cells: 384 atoms at liquid density, 4.5 Å.

@@ -18,6 +18,12 @@ async function training(): Promise<void> {
   const frames = waterLikeFrames(FRAMES, 7);
   const atoms = frames[0].species.length;
   const stages = new Map<string, number>();
+  const stagesCpu = new Map<string, number>();
+  const cpuNow = () => {
+    const c = process.cpuUsage();
+    return (c.user + c.system) / 1000;
+  };
+  let lastCpu = cpuNow();
   let last = performance.now();
   let lastStage = 'start';
   const t0 = last;
@@ -27,6 +33,9 @@ async function training(): Promise<void> {
       const now = performance.now();
       const stage = p.stage.startsWith('fit') ? 'fit (CV + solve)' : p.stage;
       stages.set(lastStage, (stages.get(lastStage) ?? 0) + now - last);
+      const c = cpuNow();
+      stagesCpu.set(lastStage, (stagesCpu.get(lastStage) ?? 0) + c - lastCpu);
+      lastCpu = c;
       last = now;
       lastStage = stage;
     },
@@ -36,23 +45,29 @@ async function training(): Promise<void> {
   const cpuSeconds = (cpu.user + cpu.system) / 1e6;
   console.log(`training, defaults (cutoff ${model.settings.cutoff} Å, nmax ${model.settings.nmax}, lmax ${model.settings.lmax}, ζ ${model.settings.zeta}), ${FRAMES} frames × ${atoms} atoms, one thread:`);
   console.log(`  total ${total.toFixed(1)} s wall, ${cpuSeconds.toFixed(1)} s CPU (the wall time includes waiting when the machine is shared); peak RSS ${peakMiB().toFixed(0)} MiB`);
-  for (const [stage, ms] of stages) if (stage !== 'start' && stage !== 'done') console.log(`  ${stage.padEnd(18)} ${(ms / 1000).toFixed(1)} s`);
+  for (const [stage, ms] of stages) {
+    if (stage !== 'start' && stage !== 'done') console.log(`  ${stage.padEnd(18)} ${(ms / 1000).toFixed(1)} s wall, ${((stagesCpu.get(stage) ?? 0) / 1000).toFixed(1)} s CPU`);
+  }
   for (const p of model.parts) console.log(`  λ=${p.order}: ${p.method}, ${p.n} features/species, regulariser ${p.regularisation.relative.toExponential(0)}, CV RMSE ${Math.sqrt(p.regularisation.cvError).toPrecision(3)} Å³`);
 
   // prediction: features + model, and the model part alone
   const test = waterLikeFrames(10, 99);
   const featurise = modelFeaturiser(model);
   let t = performance.now();
+  let c0 = cpuNow();
   for (const f of test) predictFrame(model, f);
   const whole = (performance.now() - t) / 1000;
+  const wholeCpu = (cpuNow() - c0) / 1000;
   const feats = test.map((f, i) => featurise(f, i));
   t = performance.now();
+  c0 = cpuNow();
   for (let i = 0; i < test.length; i++) predictWithFeatures(model, test[i], feats[i], i);
   const modelOnly = (performance.now() - t) / 1000;
+  const modelCpu = (cpuNow() - c0) / 1000;
   const envs = test.length * atoms;
   console.log(`prediction, ${test.length} frames × ${atoms} atoms, one thread:`);
-  console.log(`  with features ${(envs / whole).toFixed(0)} environments/s (${((1000 * whole) / test.length).toFixed(0)} ms/frame)`);
-  console.log(`  model only (dot products, variance, applicability) ${(envs / modelOnly).toFixed(0)} environments/s`);
+  console.log(`  with features ${(envs / whole).toFixed(0)} environments/s wall, ${(envs / wholeCpu).toFixed(0)} per CPU-second (${((1000 * wholeCpu) / test.length).toFixed(0)} ms CPU/frame)`);
+  console.log(`  model only (dot products, variance, applicability) ${(envs / modelOnly).toFixed(0)} environments/s wall, ${(envs / modelCpu).toFixed(0)} per CPU-second`);
 }
 
 function cholesky(): void {

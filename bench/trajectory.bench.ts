@@ -14,6 +14,7 @@ import { makeRng } from '../src-main/core/random.ts';
 import { formatExtxyzFrame, parseExtxyz } from '../src-main/io/extxyz.ts';
 import { saveModel } from '../src-main/io/model-file.ts';
 import { streamPredict } from '../src-main/jobs/stream-predict.ts';
+import { predictionCsvOptions } from '../src-main/cli/commands/predict.ts';
 
 const mib = (b: number) => (b / 2 ** 20).toFixed(1);
 
@@ -51,7 +52,7 @@ export async function run(): Promise<void> {
     for (const threads of [1, 2]) {
       const out = join(dir, `big-${threads}.csv`);
       const cpu0 = process.cpuUsage();
-      const r = await streamPredict({ modelPath, input, output: out, threads, mode: 'restart', batchFrames: Math.ceil(frames / threads) });
+      const r = await streamPredict({ modelPath, input, output: out, csvOptions: predictionCsvOptions(model, modelPath), threads, mode: 'restart', batchFrames: Math.ceil(frames / threads) });
       rates.push(r.frames / r.seconds);
       console.log(`  streamed, ${threads} worker thread${threads > 1 ? 's' : ''}: ${r.frames} frames in ${r.seconds.toFixed(1)} s = ${(r.frames / r.seconds).toFixed(2)} frames/s (one batch per thread, worker start-up included); CPU time / wall time ${((process.cpuUsage(cpu0).user + process.cpuUsage(cpu0).system) / 1e6 / r.seconds).toFixed(2)} (cores actually obtained)`);
     }
@@ -79,7 +80,7 @@ export async function run(): Promise<void> {
       samples.push({ frames: done, rss });
     }, 250);
     const before = process.memoryUsage().rss;
-    const r = await streamPredict({ modelPath: tinyPath, input: small, output: join(dir, 'small.csv'), threads: 2, mode: 'restart', batchSeconds: 5, onProgress: (p) => (done = p.done) });
+    const r = await streamPredict({ modelPath: tinyPath, csvOptions: predictionCsvOptions(tiny, tinyPath), input: small, output: join(dir, 'small.csv'), threads: 2, mode: 'restart', batchSeconds: 5, onProgress: (p) => (done = p.done) });
     clearInterval(timer);
     console.log(`  ${r.frames} frames in ${r.seconds.toFixed(1)} s (${(r.frames / r.seconds).toFixed(0)} frames/s); RSS before ${mib(before)} MiB, peak ${mib(peak)} MiB`);
     const step = Math.max(1, Math.floor(samples.length / 12));

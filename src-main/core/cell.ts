@@ -118,8 +118,9 @@ export function wrapUnit(s: number): number {
 }
 
 /**
- * Positions moved into the cell along the periodic axes: each fractional coordinate along an axis with
- * pbc true is brought into [0, 1); coordinates along non-periodic axes are left as they are.
+ * Positions moved into the cell along the periodic axes: each atom is moved by the whole lattice vectors that bring
+ * its fractional coordinate along every axis with pbc true into [0, 1) (up to rounding); nothing moves along
+ * non-periodic axes, and an atom already inside is returned bit for bit.
  */
 export function wrapPositions(
   cell: Mat3,
@@ -128,12 +129,17 @@ export function wrapPositions(
   where: Where = {},
 ): Float64Array {
   const frac = toFractional(cell, pos, where);
+  const out = Float64Array.from(pos);
   for (let i = 0; i < frac.length; i += 3) {
-    for (let k = 0; k < 3; k++) if (pbc[k]) frac[i + k] = wrapUnit(frac[i + k]);
+    for (let k = 0; k < 3; k++) {
+      if (!pbc[k]) continue;
+      const o = Math.floor(frac[i + k]);
+      if (o === 0) continue;
+      out[i] -= o * cell[3 * k];
+      out[i + 1] -= o * cell[3 * k + 1];
+      out[i + 2] -= o * cell[3 * k + 2];
+    }
   }
-  const out = toCartesian(cell, frac, where);
-  // Leave coordinates untouched (bit for bit) when no axis is periodic.
-  if (!pbc[0] && !pbc[1] && !pbc[2]) out.set(pos);
   return out;
 }
 

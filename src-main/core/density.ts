@@ -50,7 +50,7 @@ export interface RadialSettings {
 
 /**
  * I_nl(d) (and dI_nl/dd when `derivative` is given) for n < nmax, l ≤ lmax at one distance d, by quadrature:
- * panels of width ≤ σ/2 with 20 Gauss–Legendre points over [d − 9σ, d + 9σ] ∩ [0, r_c] (the Gaussian is below
+ * panels of width ≤ σ with 20 Gauss–Legendre points over [d − 9σ, d + 9σ] ∩ [0, r_c] (the Gaussian is below
  * 3e-18 of its peak outside). Output index n·(lmax+1) + l. Slow; used to build the table and in tests.
  */
 export function radialIntegral(s: RadialSettings, d: number, value: Float64Array, derivative?: Float64Array): void {
@@ -61,7 +61,7 @@ export function radialIntegral(s: RadialSettings, d: number, value: Float64Array
   const lo = Math.max(0, d - 9 * sigma);
   const hi = Math.min(cutoff, d + 9 * sigma);
   if (!(hi > lo)) return;
-  const panels = Math.max(1, Math.ceil((hi - lo) / (0.5 * sigma)));
+  const panels = Math.max(1, Math.ceil((hi - lo) / sigma));
   const { nodes, weights } = panelRule(lo, hi, panels, 20);
   const basis = radialBasis(nmax, cutoff);
   const R = new Float64Array(nmax);

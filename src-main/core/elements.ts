@@ -1,12 +1,12 @@
 // The periodic table as the readers need it: element symbols (Z = 1…118), standard atomic weights and
 // covalent radii. The engine groups atoms into molecules with the covalent radii; the readers check species.
 //
-// Atomic weights: IUPAC standard atomic weights, 2013/2016 release (Meija et al., Pure Appl. Chem. 88, 265
-// (2016)), one conventional value per element; for elements without a standard weight, the mass number of the
-// longest-lived isotope. Covalent radii: Cordero et al., "Covalent radii revisited", Dalton Trans. 2008,
-// 2832–2838 (single-bond radii, Å; C is the sp3 value, Mn, Fe and Co the low-spin values); the table stops at
-// Cm (Z = 96), later elements have none (null). The numbers were transcribed through Debian's python3-ase
-// (ase.data, which reproduces both tables) and spot-checked against the papers in test/core/elements.test.ts.
+// Atomic weights: IUPAC standard atomic weights, 2013 release ("Atomic weights of the elements 2013",
+// Pure Appl. Chem. 88, 265 (2016)), one conventional value per element; for elements without a standard
+// weight, the mass number of the longest-lived isotope. Covalent radii: "Covalent radii revisited", Dalton
+// Trans. 2008, 2832–2838 (single-bond radii, Å; C is the sp3 value, Mn, Fe and Co the low-spin values); the
+// table stops at Cm (Z = 96), later elements have none (null). The numbers were transcribed through Debian's
+// python3-ase (ase.data, which reproduces both tables) and spot-checked in test/core/elements.test.ts.
 
 /** Element symbols, index Z − 1. */
 export const ELEMENT_SYMBOLS: readonly string[] = [

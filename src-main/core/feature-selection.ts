@@ -1,6 +1,6 @@
 // Data-driven selection of feature columns, so a model can keep fewer features than the full power spectrum.
 // Method: greedy column selection by largest residual norm (Gram–Schmidt with column pivoting, i.e. the
-// deterministic "pivoted QR" variant of CUR column selection, Businger & Golub 1965): each step picks the column
+// deterministic column-pivoted QR form of CUR column selection): each step picks the column
 // farthest from the span of the columns already chosen, then projects it out of the rest. A column is one
 // feature over every sample environment (and every μ component for λ > 0). The chosen indices are stored with
 // the model; applyFeatureSelection keeps those columns and re-normalises each environment block to unit norm.

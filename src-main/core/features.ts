@@ -65,14 +65,43 @@ export interface FeatureLabel {
 interface Block {
   l: number;
   l2: number;
-  /** Non-zero real Clebsch–Gordan coefficients (m+l, m2+l2, μ, value). */
-  sparse: SparseCoupling;
+  /**
+   * The non-zero real Clebsch–Gordan coefficients in gather form for the half-coupling H[μ·(2l+1) + m] =
+   * Σ C c_{held}: for target t the entries gatherStart[t]…gatherStart[t+1] give the held factor's m index and
+   * the coefficient. The held factor is the first (degree l) when l = l2, else the second (degree l2).
+   */
+  gatherStart: Int32Array;
+  gatherIndex: Int32Array;
+  gatherValue: Float64Array;
   /** For each first channel (index into the tensor channel list) the range of its pairs in ch2/weight. */
   firstStart: Int32Array;
   ch2: Int32Array;
   weight: Float64Array;
   /** Index of the block's first feature. */
   offset: number;
+}
+
+/** The gather form of Block (see there) from the sparse coefficients. */
+function gatherForm(sp: SparseCoupling, l: number, l2: number, lambda: number): Pick<Block, 'gatherStart' | 'gatherIndex' | 'gatherValue'> {
+  const width = 2 * l + 1;
+  const targets = (2 * lambda + 1) * width;
+  // Held factor: degree l (index i1) when l = l2, contracted over i2; degree l2 (index i2) otherwise.
+  const held = l === l2 ? sp.i1 : sp.i2;
+  const free = l === l2 ? sp.i2 : sp.i1;
+  const lists: { index: number; value: number }[][] = Array.from({ length: targets }, () => []);
+  for (let k = 0; k < sp.value.length; k++) lists[sp.iL[k] * width + free[k]].push({ index: held[k], value: sp.value[k] });
+  const gatherStart = new Int32Array(targets + 1);
+  const index: number[] = [];
+  const value: number[] = [];
+  lists.forEach((list, t) => {
+    gatherStart[t] = index.length;
+    for (const e of list) {
+      index.push(e.index);
+      value.push(e.value);
+    }
+  });
+  gatherStart[targets] = index.length;
+  return { gatherStart, gatherIndex: Int32Array.from(index), gatherValue: Float64Array.from(value) };
 }
 
 interface TensorPlan {
@@ -214,7 +243,7 @@ function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
         }
       }
       firstStart[tch] = ch2.length;
-      blocks.push({ l, l2, sparse: realClebschGordanSparse(l, l2, lambda), firstStart, ch2: Int32Array.from(ch2), weight: Float64Array.from(weight), offset });
+      blocks.push({ l, l2, ...gatherForm(realClebschGordanSparse(l, l2, lambda), l, l2, lambda), firstStart, ch2: Int32Array.from(ch2), weight: Float64Array.from(weight), offset });
       offset += ch2.length;
       halfSize = Math.max(halfSize, (2 * lambda + 1) * (2 * l2 + 1));
     }
@@ -330,36 +359,132 @@ function tensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Arr
   const n = T.n;
   const base = e * nM * n;
   for (const blk of T.blocks) {
-    const { l, l2, firstStart, ch2, weight, sparse } = blk;
-    const { i1, i2, iL, value } = sparse;
-    const nnz = value.length;
+    const { l, l2, firstStart, ch2, weight, gatherStart, gatherIndex, gatherValue } = blk;
+    const width = 2 * l + 1;
+    const targets = nM * width;
+    const A0 = P.tensorBase[l];
     if (l === l2) {
-      const width = 2 * l + 1;
-      const A0 = P.tensorBase[l];
       let f = base + blk.offset;
       for (let c1 = 0; c1 < tch; c1++) {
+        // Half-coupled H[μ][m'] = Σ_m C[m, m', μ] c_{ch1, l m} (gathered: one register sum per target).
         const A = A0[c1];
-        half.fill(0, 0, nM * width);
-        for (let k = 0; k < nnz; k++) half[iL[k] * width + i2[k]] += value[k] * c[A + i1[k]];
+        for (let t = 0; t < targets; t++) {
+          let h = 0;
+          for (let k = gatherStart[t]; k < gatherStart[t + 1]; k++) h += gatherValue[k] * c[A + gatherIndex[k]];
+          half[t] = h;
+        }
         const from = firstStart[c1], to = firstStart[c1 + 1];
         contractPartners(half, nM, width, c, A0, from, to, ch2, weight, out, f, 1, n);
         f += to - from;
       }
     } else {
       // Hold the degree-l2 channel c2; contract all degree-l channels c1; feature f = offset + c1·tch + c2.
-      const width = 2 * l + 1;
-      const A0 = P.tensorBase[l];
       const B0 = P.tensorBase[l2];
       const f0 = base + blk.offset;
       for (let c2 = 0; c2 < tch; c2++) {
         const B = B0[c2];
-        half.fill(0, 0, nM * width);
-        for (let k = 0; k < nnz; k++) half[iL[k] * width + i1[k]] += value[k] * c[B + i2[k]];
+        for (let t = 0; t < targets; t++) {
+          let h = 0;
+          for (let k = gatherStart[t]; k < gatherStart[t + 1]; k++) h += gatherValue[k] * c[B + gatherIndex[k]];
+          half[t] = h;
+        }
         contractPartners(half, nM, width, c, A0, 0, tch, P.allChannels, P.sqrt2, out, f0 + c2, tch, n);
       }
     }
   }
   normalise(out, base, base + nM * n);
+}
+
+/** A frame prepared for featurisation: plan, species channels, centre atoms, neighbour pairs. */
+interface Prepared {
+  P: Plan;
+  channelOf: Int32Array;
+  /** Centre atoms in order, and the index of each one's species in settings.centres. */
+  centres: Int32Array;
+  centreSpecies: Int32Array;
+  pairs: NeighbourPairs;
+  where: { file?: string; line?: number; frame?: number };
+}
+
+function prepare(frame: Frame, settings: FeatureSettings, lambdas: Lambda[], neighbours: NeighbourPairs | undefined, timings: FeatureTimings | undefined): Prepared {
+  for (const l of lambdas) {
+    if (l !== 0 && l !== 1 && l !== 2) throw new RangeError(`computeFeatures: λ must be 0, 1 or 2, got ${String(l)}`);
+  }
+  const P = plan(settings, ([1, 2] as const).filter((l) => lambdas.includes(l)));
+  for (const T of P.tensors) {
+    if (T.n === 0) {
+      throw new InputError(`feature settings: λ = ${T.lambda} features need lmaxTensor ≥ 1 (lmax ${settings.lmax}, lmaxTensor ${tensorLimits(settings).lmax})`, {}, 'raise lmax (and lmaxTensor) to at least 1');
+    }
+  }
+  const s = P.settings;
+  const N = frame.species.length;
+  const where = { file: frame.source?.file, line: frame.source?.line, frame: frame.source?.index };
+  const speciesIndex = new Map(s.species.map((x, i) => [x, i]));
+  const centreIndex = new Map(s.centres.map((x, i) => [x, i]));
+  const channelOf = new Int32Array(N);
+  const centres: number[] = [];
+  const centreSpecies: number[] = [];
+  for (let i = 0; i < N; i++) {
+    const a = speciesIndex.get(frame.species[i]);
+    if (a === undefined) {
+      throw new InputError(
+        `atom ${i + 1} is ${frame.species[i]}, which is not among the feature species (${s.species.join(', ')})`,
+        where,
+        'use a model trained with this species, or remove those atoms from the structure',
+      );
+    }
+    channelOf[i] = a;
+    const ci = centreIndex.get(frame.species[i]);
+    if (ci !== undefined) {
+      centres.push(i);
+      centreSpecies.push(ci);
+    }
+  }
+  const t0 = timings ? performance.now() : 0;
+  const pairs = neighbours ?? neighbourList(frame, s.cutoff);
+  if (pairs.start.length !== N + 1) {
+    throw new RangeError(`computeFeatures: neighbour list has ${pairs.start.length - 1} centres, the frame ${N} atoms`);
+  }
+  if (timings) timings.neighbours += performance.now() - t0;
+  return { P, channelOf, centres: Int32Array.from(centres), centreSpecies: Int32Array.from(centreSpecies), pairs, where };
+}
+
+/**
+ * The per-environment loop shared by computeFeatures and forEachEnvironment: environment e is written to
+ * scalar[at(e)·…] and tensor[k] at block slot(e); `after(e)` runs once its features are complete.
+ */
+function featurise(
+  prep: Prepared,
+  scalar: Float64Array,
+  tensors: Float64Array[],
+  slot: (e: number) => number,
+  after: ((e: number) => void) | null,
+  timings: FeatureTimings | undefined,
+): void {
+  const { P, channelOf, centres, pairs, where } = prep;
+  const c = P.coefficients;
+  let tExpand = 0, tCouple = 0;
+  for (let e = 0; e < centres.length; e++) {
+    const i = centres[e];
+    const ta = timings ? performance.now() : 0;
+    P.expander.expand(pairs, i, channelOf[i], channelOf, c);
+    const tb = timings ? performance.now() : 0;
+    const k0 = slot(e);
+    const norm = powerSpectrum(P, c, scalar, k0 * P.n0);
+    if (!Number.isFinite(norm)) {
+      throw new InputError(`features of atom ${i + 1} are not finite (non-finite positions or cell?)`, where, 'check the structure');
+    }
+    for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensors[k], k0);
+    if (timings) {
+      tExpand += tb - ta;
+      tCouple += performance.now() - tb;
+    }
+    if (after) after(e);
+  }
+  if (timings) {
+    timings.expansion += tExpand;
+    timings.coupling += tCouple;
+  }
 }
 
 /**
@@ -374,75 +499,56 @@ export function computeFeatures(
   neighbours?: NeighbourPairs,
   timings?: FeatureTimings,
 ): EnvironmentFeatures {
-  const wanted = ([1, 2] as const).filter((l) => lambdas.includes(l));
-  for (const l of lambdas) {
-    if (l !== 0 && l !== 1 && l !== 2) throw new RangeError(`computeFeatures: λ must be 0, 1 or 2, got ${String(l)}`);
-  }
-  const P = plan(settings, wanted);
-  const s = P.settings;
-  const N = frame.species.length;
-  const where = { file: frame.source?.file, line: frame.source?.line, frame: frame.source?.index };
-  const speciesIndex = new Map(s.species.map((x, i) => [x, i]));
-  const centreIndex = new Map(s.centres.map((x, i) => [x, i]));
-  const channelOf = new Int32Array(N);
-  let count = 0;
-  for (let i = 0; i < N; i++) {
-    const a = speciesIndex.get(frame.species[i]);
-    if (a === undefined) {
-      throw new InputError(
-        `atom ${i + 1} is ${frame.species[i]}, which is not among the feature species (${s.species.join(', ')})`,
-        where,
-        'use a model trained with this species, or remove those atoms from the structure',
-      );
-    }
-    channelOf[i] = a;
-    if (centreIndex.has(frame.species[i])) count++;
-  }
-  let t0 = timings ? performance.now() : 0;
-  const pairs = neighbours ?? neighbourList(frame, s.cutoff);
-  if (pairs.start.length !== N + 1) {
-    throw new RangeError(`computeFeatures: neighbour list has ${pairs.start.length - 1} centres, the frame ${N} atoms`);
-  }
-  if (timings) {
-    const t1 = performance.now();
-    timings.neighbours += t1 - t0;
-    t0 = t1;
-  }
-  const centre = new Int32Array(count);
-  const centreSpecies = new Int32Array(count);
+  const prep = prepare(frame, settings, lambdas, neighbours, timings);
+  const { P } = prep;
+  const count = prep.centres.length;
   const scalar = new Float64Array(count * P.n0);
   const tensorOut = P.tensors.map((T) => new Float64Array(count * (2 * T.lambda + 1) * T.n));
-  const c = P.coefficients;
-  let e = 0;
-  let tExpand = 0, tCouple = 0;
-  for (let i = 0; i < N; i++) {
-    const ci = centreIndex.get(frame.species[i]);
-    if (ci === undefined) continue;
-    centre[e] = i;
-    centreSpecies[e] = ci;
-    const ta = timings ? performance.now() : 0;
-    P.expander.expand(pairs, i, channelOf[i], channelOf, c);
-    const tb = timings ? performance.now() : 0;
-    const norm = powerSpectrum(P, c, scalar, e * P.n0);
-    if (!Number.isFinite(norm)) {
-      throw new InputError(`features of atom ${i + 1} are not finite (non-finite positions or cell?)`, where, 'check the structure');
-    }
-    for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensorOut[k], e);
-    if (timings) {
-      tExpand += tb - ta;
-      tCouple += performance.now() - tb;
-    }
-    e++;
-  }
-  if (timings) {
-    timings.expansion += tExpand;
-    timings.coupling += tCouple;
-  }
+  featurise(prep, scalar, tensorOut, (e) => e, null, timings);
   const tensor: EnvironmentFeatures['tensor'] = {};
   P.tensors.forEach((T, k) => {
     tensor[T.lambda] = { n: T.n, data: tensorOut[k] };
   });
-  return { count, centre, centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor };
+  return { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor };
+}
+
+/** One environment's features as handed to forEachEnvironment's visitor (buffers reused: copy what you keep). */
+export interface EnvironmentView {
+  /** Environment index within the frame, centre atom, and index of its species in settings.centres. */
+  index: number;
+  centre: number;
+  centreSpecies: number;
+  /** The λ = 0 row (length n0) and the λ > 0 blocks ((2λ+1)·nλ, row-major in μ), each of unit norm. */
+  scalar: Float64Array;
+  tensor: Partial<Record<1 | 2, Float64Array>>;
+}
+
+/**
+ * The same features as computeFeatures, one environment at a time, in a fixed amount of memory: for large
+ * frames, or for sums over environments (a linear model's prediction). Returns the number of environments.
+ */
+export function forEachEnvironment(
+  frame: Frame,
+  settings: FeatureSettings,
+  lambdas: Lambda[],
+  visit: (env: EnvironmentView) => void,
+  neighbours?: NeighbourPairs,
+): number {
+  const prep = prepare(frame, settings, lambdas, neighbours, undefined);
+  const { P } = prep;
+  const scalar = new Float64Array(P.n0);
+  const blocks = P.tensors.map((T) => new Float64Array((2 * T.lambda + 1) * T.n));
+  const view: EnvironmentView = { index: 0, centre: 0, centreSpecies: 0, scalar, tensor: {} };
+  P.tensors.forEach((T, k) => {
+    view.tensor[T.lambda] = blocks[k];
+  });
+  featurise(prep, scalar, blocks, () => 0, (e) => {
+    view.index = e;
+    view.centre = prep.centres[e];
+    view.centreSpecies = prep.centreSpecies[e];
+    visit(view);
+  }, undefined);
+  return prep.centres.length;
 }
 
 /** Concatenates per-frame features; environment k of parts[f] gets frame index f. All parts must agree in size. */

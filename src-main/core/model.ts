@@ -7,7 +7,8 @@
 // See docs/learning-engine.md for the choices and their reasons.
 import { CancelledError, InputError, ModelError } from './errors.ts';
 import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
-import { computeFeatures } from './features.ts';
+import { computeFeatures, concatenateFeatures, tensorLimits } from './features.ts';
+import { applyFeatureSelection, selectFeatures, type FeatureSelection } from './feature-selection.ts';
 import type { Frame, Mat3 } from './frame.ts';
 import {
   blockView,
@@ -21,6 +22,7 @@ import {
 } from './kernels.ts';
 import type { Applicability, FramePrediction, ModelSettings, Route, TensorKind, TrainRequest, WorkHooks } from './model-types.ts';
 import { makeRng } from './random.ts';
+import { tuneCombinations, tuneSettings } from './tuning.ts';
 import { fitRidge, foldsOf, posteriorVariance, primalWeights, type Design } from './regression.ts';
 import {
   farthestPointSample,
@@ -31,7 +33,7 @@ import {
   representativeFactor,
   representativeKernel,
   representativesFrom,
-  rowDistance,
+  nearestDistance,
   structureToRepresentatives,
   type EnvironmentPool,
   type Representatives,
@@ -135,6 +137,10 @@ export interface Model {
   centres: string[];
   /** Feature sizes the model was trained with (checked at prediction). */
   featureSizes: { n0: number; n?: number };
+  /** Radial and angular limits of the λ>0 features (resolved at training). */
+  tensorLimits: { nmax: number; lmax: number };
+  /** Feature columns kept (settings.maxFeatures > 0): applied to computed features before the model sees them. */
+  featureSelection?: FeatureSelection;
   /** Per centre species λ=0 baseline contribution per atom (first irreducible component), or zeros. */
   baseline: number[];
   parts: ModelPart[];
@@ -162,7 +168,7 @@ export function resolveSettings(partial?: Partial<ModelSettings>): ModelSettings
     throw new InputError(`setting ${what}`, {}, hint);
   };
   if (!(s.cutoff > 0)) bad(`cutoff = ${s.cutoff} Å`, 'the cutoff must be positive (typical 3.5–6 Å)');
-  if (!(s.cutoffWidth >= 0 && s.cutoffWidth < s.cutoff)) bad(`cutoffWidth = ${s.cutoffWidth} Å`, 'the switch width must lie in [0, cutoff)');
+  if (!(s.cutoffWidth > 0 && s.cutoffWidth < s.cutoff)) bad(`cutoffWidth = ${s.cutoffWidth} Å`, 'the smooth switch width must lie in (0, cutoff): a hard cutoff makes features jump when an atom crosses it');
   if (!(s.sigma > 0)) bad(`sigma = ${s.sigma} Å`, 'the Gaussian width must be positive (typical 0.3–0.5 Å)');
   if (!Number.isInteger(s.nmax) || s.nmax < 1 || s.nmax > 16) bad(`nmax = ${s.nmax}`, 'nmax must be a whole number 1–16');
   if (!Number.isInteger(s.lmax) || s.lmax < 0 || s.lmax > 10) bad(`lmax = ${s.lmax}`, 'lmax must be a whole number 0–10');
@@ -173,8 +179,14 @@ export function resolveSettings(partial?: Partial<ModelSettings>): ModelSettings
   return s;
 }
 
-function featureSettingsOf(s: ModelSettings, species: string[], centres: string[]): FeatureSettings {
-  return { cutoff: s.cutoff, cutoffWidth: s.cutoffWidth, sigma: s.sigma, nmax: s.nmax, lmax: s.lmax, species, centres };
+/**
+ * The feature settings of a model: its own settings with the λ>0 limits resolved once (features.ts's
+ * tensorLimits) and stored, so a saved model keeps computing the same features if that default changes.
+ */
+function featureSettingsOf(s: ModelSettings, species: string[], centres: string[], limits?: { nmax: number; lmax: number }): FeatureSettings {
+  const base: FeatureSettings = { cutoff: s.cutoff, cutoffWidth: s.cutoffWidth, sigma: s.sigma, nmax: s.nmax, lmax: s.lmax, species, centres };
+  const t = limits ?? tensorLimits(base);
+  return { ...base, nmaxTensor: t.nmax, lmaxTensor: t.lmax };
 }
 
 function tensorOrderOf(shape: TargetShape): 1 | 2 | null {
@@ -182,8 +194,8 @@ function tensorOrderOf(shape: TargetShape): 1 | 2 | null {
 }
 
 /** The featuriser the trained model uses (computeFeatures with the model's settings). */
-export function modelFeaturiser(model: Pick<Model, 'settings' | 'species' | 'centres' | 'target'>): Featuriser {
-  const fs = featureSettingsOf(model.settings, model.species, model.centres);
+export function modelFeaturiser(model: Pick<Model, 'settings' | 'species' | 'centres' | 'target'> & { tensorLimits?: Model['tensorLimits'] }): Featuriser {
+  const fs = featureSettingsOf(model.settings, model.species, model.centres, model.tensorLimits);
   const order = tensorOrderOf(model.target.shape);
   const lambdas = order === null ? [] : [order];
   return (frame) => computeFeatures(frame, fs, lambdas);
@@ -366,10 +378,23 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const targets = learntTargets(frames, request);
   const { species, centres } = speciesOf(frames, settings, options.species);
   const order = tensorOrderOf(targets.shape);
-  const feat: Featuriser = featurise ?? ((frame) => computeFeatures(frame, featureSettingsOf(settings, species, centres), order === null ? [] : [order]));
+  const baseFeat: Featuriser = featurise ?? ((frame) => computeFeatures(frame, featureSettingsOf(settings, species, centres), order === null ? [] : [order]));
   const nFrames = frames.length;
   const nS = centres.length;
   const rng = makeRng(settings.seed);
+  // Data-driven feature selection (maxFeatures > 0): columns chosen on a sample of up to 8 training frames.
+  let featureSelection: FeatureSelection | undefined;
+  let feat = baseFeat;
+  if (settings.maxFeatures > 0) {
+    hooks.onProgress?.({ stage: 'feature selection', done: 0, total: 1 });
+    const picks = [...new Set(Array.from({ length: Math.min(8, nFrames) }, (_, k) => Math.floor((k * nFrames) / Math.min(8, nFrames))))];
+    const sample = concatenateFeatures(picks.map((f) => baseFeat(frames[f], f)));
+    const sel: FeatureSelection = { 0: selectFeatures(sample, settings.maxFeatures, 0) };
+    if (order !== null) sel[order] = selectFeatures(sample, settings.maxFeatures, order);
+    featureSelection = sel;
+    feat = (frame, i) => applyFeatureSelection(baseFeat(frame, i), sel);
+    await yieldToLoop();
+  }
   const linear = settings.zeta === 1;
   const exact = !linear && settings.sparsePoints === 0;
   const partsSpec: { order: Order; offset: number; width: number }[] = [];
@@ -433,8 +458,9 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   if (!cv && settings.regularisation === null) notes.push('fewer than 3 frames: regulariser not cross-validated (default 1e-6)');
 
   // Representatives (FPS per species) for kernel parts and for applicability.
+  const wantApplicability = options.applicability !== false;
   const repsPerSpecies = envPool.perSpecies.map((cand) => {
-    const m = linear ? APPLICABILITY_POINTS : exact ? cand.length : settings.sparsePoints;
+    const m = linear ? (wantApplicability ? APPLICABILITY_POINTS : 0) : exact ? cand.length : settings.sparsePoints;
     return farthestPointSample(envPool.p, n0, cand, m).chosen;
   });
   const repIndex = Int32Array.from(repsPerSpecies.flatMap((r) => [...r]));
@@ -572,7 +598,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
 
   // Applicability threshold from leave-self-out distances of the sampled training environments.
   const applicability = { n0, species: new Int32Array(0), p: new Float64Array(0), threshold: 0, perSpecies: new Array(nS).fill(0), rule: '' };
-  if (options.applicability !== false) {
+  if (wantApplicability) {
     hooks.onProgress?.({ stage: 'applicability', done: 0, total: 1 });
     await yieldToLoop();
     const dist = nearestOtherDistances(envPool, repIndex);
@@ -610,6 +636,8 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     species,
     centres,
     featureSizes: { n0, n: nOrder },
+    tensorLimits: { nmax: featureSettingsOf(settings, species, centres).nmaxTensor as number, lmax: featureSettingsOf(settings, species, centres).lmaxTensor as number },
+    featureSelection,
     baseline: [...baseline],
     parts,
     applicability,
@@ -657,9 +685,17 @@ function targetStatistics(y: Float64Array, frames: number, c: number): TrainingS
   return { mean, std: std.map(Math.sqrt), min, max };
 }
 
-/** Train a model on frames (the contract of model-types.ts). */
-export function trainModel(frames: Frame[], request: TrainRequest, hooks: WorkHooks = {}): Promise<Model> {
-  return trainWithFeaturiser(frames, request, null, hooks);
+/**
+ * Train a model on frames (the contract of model-types.ts). With `request.tune`, the listed settings are first
+ * chosen by cross-validation on the same frames (core/tuning.ts); the choice is recorded in the model's notes.
+ */
+export async function trainModel(frames: Frame[], request: TrainRequest, hooks: WorkHooks = {}): Promise<Model> {
+  if (!request.tune || tuneCombinations(request.tune).length <= 1) return trainWithFeaturiser(frames, request, null, hooks);
+  const tuned = await tuneSettings(frames, request, request.tune, hooks);
+  const model = await trainWithFeaturiser(frames, { ...request, tune: undefined, settings: { ...(request.settings ?? {}), ...tuned.best } }, null, hooks);
+  const fmt = (s: Partial<ModelSettings>) => Object.entries(s).map(([k, v]) => `${k} ${v}`).join(', ');
+  model.notes.push(`tuned by cross-validation: ${fmt(tuned.best)} (scores: ${tuned.table.map((r) => `${fmt(r.settings)} → ${r.score.toPrecision(3)}`).join('; ')})`);
+  return model;
 }
 
 /** Check that a frame can be predicted by the model: species it knows. */
@@ -673,9 +709,13 @@ export function checkFrameSpecies(model: Model, frame: Frame, index = 0): void {
   }
 }
 
-/** Prediction of the learnt target of any shape, from precomputed features. */
-export function predictWithFeatures(model: Model, frame: Frame, fe: EnvironmentFeatures, index = 0): TargetPrediction {
+/**
+ * Prediction of the learnt target of any shape, from features as computeFeatures gives them (the model's
+ * feature selection, if any, is applied here).
+ */
+export function predictWithFeatures(model: Model, frame: Frame, raw: EnvironmentFeatures, index = 0): TargetPrediction {
   checkFrameSpecies(model, frame, index);
+  const fe = model.featureSelection ? applyFeatureSelection(raw, model.featureSelection) : raw;
   if (fe.n0 !== model.featureSizes.n0) throw new ModelError(`features have ${fe.n0} λ=0 components but the model was trained with ${model.featureSizes.n0}`);
   const nAtoms = frame.species.length;
   const C = model.target.shape === 'tensor' ? 6 : model.target.shape === 'vector' ? 3 : 1;
@@ -746,12 +786,7 @@ function applicabilityOf(model: Model, fe: EnvironmentFeatures, nAtoms: number):
   let atomsOutside = 0;
   const m = a.species.length;
   for (let e = 0; e < fe.count; e++) {
-    let best = Infinity;
-    for (let r = 0; r < m; r++) {
-      if (a.species[r] !== fe.centreSpecies[e]) continue;
-      const d = rowDistance(fe.scalar, e, a.p, r, a.n0);
-      if (d < best) best = d;
-    }
+    let best = nearestDistance(fe.scalar, e, a.p, a.species, fe.centreSpecies[e], a.n0);
     if (!Number.isFinite(best)) best = 2;
     atomDistance[fe.centre[e]] = best;
     if (best > maxDistance) maxDistance = best;

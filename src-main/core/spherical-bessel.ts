@@ -5,7 +5,7 @@
 //                   all terms positive, so no cancellation.
 //   x > 30, x ≥ L²  upward recurrence s_{l+1} = s_{l−1} − (2l+1)/x s_l from the closed forms
 //                   s_0 = (1 − e^(−2x))/(2x), s_1 = ((1 + e^(−2x)) − (1 − e^(−2x))/x)/(2x)  (DLMF 10.49.8–9, 10.51.4).
-//   otherwise       downward (Miller) recurrence from well above L, normalised to the closed form of s_0.
+//   otherwise       downward recurrence from well above L (the minimal solution), normalised to the closed form of s_0.
 
 const SERIES_LIMIT = 30;
 
@@ -43,7 +43,7 @@ export function scaledSphericalBesselI(L: number, x: number, out: Float64Array):
     for (let l = 1; l < L; l++) out[l + 1] = out[l - 1] - ((2 * l + 1) / x) * out[l];
     return;
   }
-  // Miller: start far enough above L that the ratio i_{l+1}/i_l ~ x/(2l) has made the start value negligible.
+  // Downward: start far enough above L that the ratio i_{l+1}/i_l ~ x/(2l) has made the start value negligible.
   const start = L + 40 + Math.ceil(x);
   let above = 0;
   let here = 1e-300;

@@ -3,6 +3,7 @@
 // without a value means `true`. This file only tokenises and formats that line; extxyz-parse.ts gives the
 // special keys (Lattice, Properties, pbc) their meaning. Pure code, runs in a browser too.
 import type { InfoValue } from '../core/frame.ts';
+import { strictNumber } from './decimal.ts';
 
 /** One key=value item as written: `quoted` tells a bare word from a "..." string; `bracket` an {..}/[..] array. */
 export interface RawItem {
@@ -115,90 +116,7 @@ export function tokeniseComment(line: string): RawItem[] {
   }
 }
 
-const POW10 = Array.from({ length: 23 }, (_, k) => Number(`1e${k}`));
-
-/**
- * Text [s, e) as a strict decimal number ([+-]digits[.digits][(e|E)[+-]digits]), NaN if it is anything else
- * (Number() alone would also take hexadecimal, binary and octal literals, "Infinity" and surrounding spaces).
- * Made without a substring in the common case: up to 15 significant digits and a decimal exponent within ±22,
- * the value is m / 10^k or m · 10^k with m and 10^k exact doubles, so one correctly
- * rounded IEEE operation gives the correctly rounded result (the exact fast path of decimal-to-binary
- * conversion). Other numbers go to Number() after the syntax check.
- */
-export function decimalAt(text: string, s: number, e: number): number {
-  let i = s;
-  let c = text.charCodeAt(i);
-  let negative = false;
-  if (c === 45 || c === 43) {
-    negative = c === 45;
-    c = text.charCodeAt(++i);
-  }
-  let m = 0;
-  let digits = 0;
-  let seen = 0;
-  let scale = 0;
-  let lost = false;
-  while (c >= 48 && c <= 57) {
-    seen++;
-    if (digits > 0 || c !== 48) {
-      if (digits < 15) m = m * 10 + (c - 48);
-      else {
-        lost = true;
-        scale++;
-      }
-      digits++;
-    }
-    c = text.charCodeAt(++i);
-  }
-  if (c === 46) {
-    c = text.charCodeAt(++i);
-    while (c >= 48 && c <= 57) {
-      seen++;
-      if (digits > 0 || c !== 48) {
-        if (digits < 15) {
-          m = m * 10 + (c - 48);
-          scale--;
-        } else lost = true;
-        digits++;
-      } else scale--;
-      c = text.charCodeAt(++i);
-    }
-  }
-  if (seen === 0) return NaN;
-  let exp = 0;
-  if (c === 101 || c === 69) {
-    c = text.charCodeAt(++i);
-    let expNeg = false;
-    if (c === 45 || c === 43) {
-      expNeg = c === 45;
-      c = text.charCodeAt(++i);
-    }
-    let expDigits = 0;
-    while (c >= 48 && c <= 57) {
-      if (exp < 100000) exp = exp * 10 + (c - 48);
-      expDigits++;
-      c = text.charCodeAt(++i);
-    }
-    if (expDigits === 0) return NaN;
-    if (expNeg) exp = -exp;
-  }
-  if (i !== e) return NaN;
-  if (!lost) {
-    const p = exp + scale;
-    let v = -1;
-    if (m === 0) v = 0;
-    else if (p === 0) v = m;
-    else if (p < 0 && p >= -22) v = m / POW10[-p];
-    else if (p > 0 && p <= 22) v = m * POW10[p];
-    if (v >= 0) return negative ? -v : v;
-  }
-  return Number(text.slice(s, e));
-}
-
-/** A strict decimal number (1, -2.5, 3e-4, 1.5E+02), or NaN; see decimalAt. */
-export function strictNumber(token: string): number {
-  return decimalAt(token, 0, token.length);
-}
+export { strictNumber };
 
 /** Words that mean true/false in extended XYZ. */
 export function parseBoolean(token: string): boolean | undefined {
@@ -242,6 +160,7 @@ export function interpretValue(item: RawItem): InfoValue {
   }
   if (item.quoted) {
     if (item.escaped) return v;
+    if (v.startsWith('_JSON ')) return fromJson(item.key, v);
     const parts = splitArray(v);
     if (parts.length >= 2 && !/,/.test(v)) {
       const nums = parts.map(strictNumber);
@@ -257,6 +176,25 @@ export function interpretValue(item: RawItem): InfoValue {
   const x = strictNumber(v);
   if (Number.isFinite(x)) return x;
   if (isNonFiniteWord(v)) throw new ValueError(`value of '${item.key}' is not a finite number (${v})`);
+  return v;
+}
+
+/**
+ * A value some writers store as JSON behind a `_JSON ` prefix (nested arrays such as a 3×3 tensor): numbers,
+ * booleans and strings as they are, nested numeric arrays flattened row-major; anything else stays the text.
+ */
+function fromJson(key: string, v: string): InfoValue {
+  let parsed: unknown;
+  try {
+    parsed = JSON.parse(v.slice(6));
+  } catch {
+    throw new ValueError(`value of '${key}' starts with _JSON but is not valid JSON`);
+  }
+  if (typeof parsed === 'number' || typeof parsed === 'boolean' || typeof parsed === 'string') return parsed;
+  if (Array.isArray(parsed)) {
+    const flat = (parsed as unknown[]).flat(Infinity);
+    if (flat.every((x) => typeof x === 'number')) return flat as number[];
+  }
   return v;
 }
 
@@ -305,9 +243,10 @@ export function formatItem(key: string, value: InfoValue): string {
   if (typeof value === 'string') {
     if (bareSafe(value)) return `${k}=${value}`;
     const q = quote(value);
-    // A quoted text of two or more numbers would read back as an array: escape its first character, which
-    // marks the value as a string for our reader (see readQuoted) without changing the text.
-    if (q.indexOf('\\') < 0 && looksLikeNumberList(value)) return `${k}="\\${q.slice(1)}`;
+    // A quoted text of two or more numbers would read back as an array (and one starting "_JSON " as JSON):
+    // escape its first character, which marks the value as a string for our reader (see readQuoted) without
+    // changing the text.
+    if (q.indexOf('\\') < 0 && (looksLikeNumberList(value) || value.startsWith('_JSON '))) return `${k}="\\${q.slice(1)}`;
     return `${k}=${q}`;
   }
   if (value.length >= 2) return `${k}="${value.map(formatNumber).join(' ')}"`;

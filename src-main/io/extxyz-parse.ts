@@ -7,7 +7,8 @@ import { InputError } from '../core/errors.ts';
 import type { AtomArray, Frame, InfoValue, Mat3 } from '../core/frame.ts';
 import { cellDeterminant, checkCell as checkCellShape } from '../core/cell.ts';
 import { elementSymbol, isElement, symbolIgnoringCase } from '../core/elements.ts';
-import { CommentSyntaxError, ValueError, decimalAt, interpretValue, parseBoolean, tokeniseComment } from './extxyz-comment.ts';
+import { bytesText, decimalAtBytes } from './decimal.ts';
+import { CommentSyntaxError, ValueError, interpretValue, parseBoolean, tokeniseComment } from './extxyz-comment.ts';
 
 export type ColumnKind = 'S' | 'R' | 'I' | 'L';
 
@@ -25,6 +26,8 @@ export const RESERVED_KEYS = new Set(['Lattice', 'Properties', 'pbc']);
 
 /** Largest atom count we believe (a count line beyond this is a corrupt file, not a real frame). */
 const MAX_ATOMS = 100_000_000;
+/** Atoms allocated up front for a frame; more room is made as atom lines arrive. */
+const INITIAL_CAPACITY = 4096;
 
 interface Where {
   file: string;
@@ -107,8 +110,8 @@ export function parseCommentLine(line: string, where: Where): Omit<Header, 'nAto
           v = '';
         }
         if (!Array.isArray(v) || v.length !== 9) {
-          const n = Array.isArray(v) ? v.length : item.value === null ? 0 : item.value.split(/[\s,]+/).filter(Boolean).length;
-          fail(`Lattice must be 9 numbers (3 lattice vectors), got ${Array.isArray(v) ? n + ' numbers' : `'${item.value ?? ''}'`}`, where, 'write Lattice="ax ay az bx by bz cx cy cz" in Å');
+          const got = Array.isArray(v) ? `${v.length} numbers` : `'${clip(item.value ?? '')}'`;
+          fail(`Lattice must be 9 numbers (3 lattice vectors), got ${got}`, where, 'write Lattice="ax ay az bx by bz cx cy cz" in Å');
         }
         cell = Float64Array.from(v);
         checkCell(cell, where);
@@ -141,44 +144,56 @@ export function parseCommentLine(line: string, where: Where): Omit<Header, 'nAto
   } else {
     pbc = pbcGiven === null ? [true, true, true] : [pbcGiven[0], pbcGiven[1], pbcGiven[2]];
   }
+  const columns = checkedColumns(properties, where);
+  return { cell, pbc, info, columns, fieldCount: columns.reduce((s, c) => s + c.width, 0) };
+}
+
+// Consecutive frames nearly always share one Properties value: remember the last one checked.
+let lastProperties = '';
+let lastColumns: ColumnSpec[] = [];
+
+/** Columns of a Properties value, with species (or Z) and pos present and of the right shape. */
+function checkedColumns(properties: string, where: Where): ColumnSpec[] {
+  if (properties === lastProperties) return lastColumns;
   const columns = parseProperties(properties, where);
-  const hasSpecies = columns.some((c) => c.name === 'species');
   const z = columns.find((c) => c.name === 'Z');
   const species = columns.find((c) => c.name === 'species');
   if (species && (species.kind !== 'S' || species.width !== 1)) fail(`Properties column 'species' must be S:1, got ${species.kind}:${species.width}`, where);
-  if (!hasSpecies && !(z && z.kind === 'I' && z.width === 1)) {
+  if (!species && !(z && z.kind === 'I' && z.width === 1)) {
     fail("Properties has no 'species' column (nor an atomic-number column Z:I:1)", where, `start Properties with species:S:1, e.g. Properties=${DEFAULT_PROPERTIES}`);
   }
   const pos = columns.find((c) => c.name === 'pos');
   if (!pos) fail("Properties has no 'pos' column", where, `add pos:R:3, e.g. Properties=${DEFAULT_PROPERTIES}`);
   if (pos.kind !== 'R' || pos.width !== 3) fail(`Properties column 'pos' must be R:3, got ${pos.kind}:${pos.width}`, where);
-  const fieldCount = columns.reduce((s, c) => s + c.width, 0);
-  return { cell, pbc, info, columns, fieldCount };
+  lastProperties = properties;
+  lastColumns = columns;
+  return columns;
 }
 
-// Field boundaries of the current atom line, reused between lines (no allocation per line). Offsets are
-// absolute positions in the text the line sits in (a whole read chunk, not a sliced line: reading characters
-// of the flat chunk string is several times faster than of a slice of it).
+// Atom lines are parsed as bytes (ASCII in every real file) straight from the read buffer: no text decoding,
+// no substrings, monomorphic array reads. Count and comment lines, which may hold any UTF-8 text, are decoded.
+// Field boundaries of the current atom line are reused between lines (no allocation per line).
 const MAX_FIELDS = 4096;
 const fieldStart = new Int32Array(MAX_FIELDS);
 const fieldEnd = new Int32Array(MAX_FIELDS);
+const encoder = new TextEncoder();
 
 /**
- * Split text[start, end) on spaces, tabs and CR; returns the number of fields. Boundaries of the first
+ * Split bytes[start, end) on spaces, tabs and CR; returns the number of fields. Boundaries of the first
  * MAX_FIELDS fields go to fieldStart/fieldEnd (a line with more is never a valid atom line, only counted).
  */
-function splitFields(text: string, start: number, end: number): number {
+function splitFields(b: Uint8Array, start: number, end: number): number {
   let n = 0;
   let i = start;
   while (i < end) {
-    let c = text.charCodeAt(i);
+    let c = b[i];
     while (c === 32 || c === 9 || c === 13) {
       if (++i >= end) return n;
-      c = text.charCodeAt(i);
+      c = b[i];
     }
     const s = i;
     while (++i < end) {
-      c = text.charCodeAt(i);
+      c = b[i];
       if (c === 32 || c === 9 || c === 13) break;
     }
     if (n < MAX_FIELDS) {
@@ -190,9 +205,30 @@ function splitFields(text: string, start: number, end: number): number {
   return n;
 }
 
+function fieldText(b: Uint8Array, k: number): string {
+  return bytesText(b, fieldStart[k], fieldEnd[k]);
+}
+
 /** Field k of the current line as a strict decimal number, NaN if it is not one. */
-function numberField(text: string, k: number): number {
-  return decimalAt(text, fieldStart[k], fieldEnd[k]);
+function numberField(b: Uint8Array, k: number): number {
+  return decimalAtBytes(b, fieldStart[k], fieldEnd[k]);
+}
+
+/** Field k as a strict 32-bit integer, or NaN. */
+function integerField(b: Uint8Array, k: number): number {
+  let i = fieldStart[k];
+  const e = fieldEnd[k];
+  let negative = false;
+  if (b[i] === 45 || b[i] === 43) negative = b[i++] === 45;
+  if (i >= e || e - i > 10) return NaN;
+  let v = 0;
+  for (; i < e; i++) {
+    const c = b[i];
+    if (c < 48 || c > 57) return NaN;
+    v = v * 10 + (c - 48);
+  }
+  v = negative ? -v : v;
+  return v > 2147483647 || v < -2147483648 ? NaN : v;
 }
 
 const INTEGER = /^[+-]?\d+$/;
@@ -214,6 +250,8 @@ interface Building {
   /** Species strings already checked against the periodic table in this frame. */
   lastSpecies: string;
   atom: number;
+  /** Atoms the arrays have room for (≤ the count line's number). */
+  capacity: number;
 }
 
 export type FrameDecision = 'parse' | 'skip' | 'stop';
@@ -264,8 +302,14 @@ export class ExtxyzAssembler {
     return { file: this.fileName, line: this.line, frame: this.frame };
   }
 
-  /** Feed the line text[start, end) (without its newline; the whole string by default). */
-  push(text: string, start = 0, end = text.length): Frame | null | 'stop' {
+  /** Feed one line given as text (without its newline). */
+  pushLine(text: string): Frame | null | 'stop' {
+    const b = encoder.encode(text);
+    return this.push(b, 0, b.length);
+  }
+
+  /** Feed the line bytes[start, end) (UTF-8, without its newline). */
+  push(bytes: Uint8Array, start: number, end: number): Frame | null | 'stop' {
     if (this.stopped) return 'stop';
     this.line++;
     if (this.skipRemaining > 0) {
@@ -275,12 +319,12 @@ export class ExtxyzAssembler {
     }
     switch (this.state) {
       case 'count':
-        return this.onCount(text.slice(start, end));
+        return this.onCount(bytesText(bytes, start, end));
       case 'comment':
-        this.onComment(text.slice(start, end));
+        this.onComment(bytesText(bytes, start, end));
         return this.pendingCount === 0 && this.building !== null ? this.complete() : null;
       case 'atoms':
-        return this.onAtom(text, start, end);
+        return this.onAtom(bytes, start, end);
     }
   }
 
@@ -314,7 +358,10 @@ export class ExtxyzAssembler {
     const header: Header = { ...h, nAtoms: n, countLine: this.countLine };
     const sinks: Building['sinks'] = [];
     const arrays: Record<string, AtomArray> = {};
-    const positions = new Float64Array(3 * n);
+    // Room for the first atoms only; grown as lines arrive, so a corrupt count line cannot make us allocate
+    // gigabytes before the file runs out.
+    const cap = Math.min(n, INITIAL_CAPACITY);
+    const positions = new Float64Array(3 * cap);
     let speciesFromZ: Int32Array | null = null;
     const hasSpecies = h.columns.some((c) => c.name === 'species');
     for (const c of h.columns) {
@@ -323,17 +370,17 @@ export class ExtxyzAssembler {
       else {
         let data: Float64Array | Int32Array | Uint8Array | string[];
         if (c.kind === 'R') {
-          data = new Float64Array(n * c.width);
+          data = new Float64Array(cap * c.width);
           arrays[c.name] = { kind: 'real', width: c.width, data };
         } else if (c.kind === 'I') {
-          data = new Int32Array(n * c.width);
+          data = new Int32Array(cap * c.width);
           arrays[c.name] = { kind: 'int', width: c.width, data };
           if (c.name === 'Z' && !hasSpecies) speciesFromZ = data;
         } else if (c.kind === 'L') {
-          data = new Uint8Array(n * c.width);
+          data = new Uint8Array(cap * c.width);
           arrays[c.name] = { kind: 'bool', width: c.width, data };
         } else {
-          data = new Array<string>(n * c.width);
+          data = new Array<string>(cap * c.width);
           arrays[c.name] = { kind: 'string', width: c.width, data };
         }
         sinks.push(data);
@@ -350,37 +397,44 @@ export class ExtxyzAssembler {
       else others.push({ field, spec: c, sink: sinks[ci]! });
       field += c.width;
     });
-    this.building = { header, species: new Array<string>(n), positions, arrays, sinks, speciesFromZ, speciesField, posField, others, lastSpecies: '', atom: 0 };
+    this.building = { header, species: new Array<string>(cap), positions, arrays, sinks, speciesFromZ, speciesField, posField, others, lastSpecies: '', atom: 0, capacity: cap };
     this.state = 'atoms';
   }
 
-  private onAtom(text: string, start: number, end: number): Frame | null {
+  private onAtom(text: Uint8Array, start: number, end: number): Frame | null {
     const b = this.building!;
     const h = b.header;
     const nf = splitFields(text, start, end);
     if (nf !== h.fieldCount) {
       const where = this.where();
       if (nf === 0) fail(`blank line inside frame: atom ${b.atom + 1} of ${h.nAtoms} expected`, where, `the frame's count line says ${h.nAtoms} atoms; fix the count or remove the blank line`);
-      if (nf === 1 && INTEGER.test(text.slice(start, end).trim())) {
+      if (nf === 1 && INTEGER.test(bytesText(text, start, end).trim())) {
         fail(`frame declares ${h.nAtoms} atoms but only ${b.atom} atom lines come before the next frame's count line`, where, 'correct the atom count line of this frame');
       }
       fail(`atom line has ${nf} fields but Properties needs ${h.fieldCount} (${describeColumns(h.columns)})`, where, 'make Properties match the columns, or fix this line');
     }
     const a = b.atom;
+    if (a === b.capacity) this.grow(b);
     // the two columns every frame has, with their field positions fixed: the hot path
     if (b.speciesField >= 0) {
-      const sf = b.speciesField;
-      const sp = text.slice(fieldStart[sf], fieldEnd[sf]);
-      if (sp !== b.lastSpecies) {
+      // most lines repeat a recent symbol: compare bytes with the last one before making a string
+      const fs = fieldStart[b.speciesField];
+      const len = fieldEnd[b.speciesField] - fs;
+      const last = b.lastSpecies;
+      let same = len === last.length;
+      for (let k = 0; same && k < len; k++) same = text[fs + k] === last.charCodeAt(k);
+      if (same) b.species[a] = last;
+      else {
+        const sp = fieldText(text, b.speciesField);
         if (!isElement(sp)) this.badSpecies(sp);
         b.lastSpecies = sp;
+        b.species[a] = sp;
       }
-      b.species[a] = sp;
     }
     const pf = b.posField;
     const pos = b.positions;
     for (let d = 0; d < 3; d++) {
-      const x = decimalAt(text, fieldStart[pf + d], fieldEnd[pf + d]);
+      const x = decimalAtBytes(text, fieldStart[pf + d], fieldEnd[pf + d]);
       if (!(x - x === 0)) this.badNumber(text, pf + d, 'pos', 'a finite real number');
       pos[3 * a + d] = x;
     }
@@ -395,7 +449,26 @@ export class ExtxyzAssembler {
     return b.atom === h.nAtoms ? this.complete() : null;
   }
 
-  private otherColumns(text: string, b: Building, a: number): void {
+  /** Double the room of every array (up to the declared atom count). */
+  private grow(b: Building): void {
+    const cap = Math.min(b.header.nAtoms, 2 * b.capacity);
+    const bigger = <T extends Float64Array | Int32Array | Uint8Array>(old: T, width: number): T => {
+      const t = new (old.constructor as new (n: number) => T)(cap * width);
+      t.set(old);
+      return t;
+    };
+    b.positions = bigger(b.positions, 3);
+    for (const o of b.others) {
+      if (!Array.isArray(o.sink)) {
+        o.sink = bigger(o.sink, o.spec.width);
+        if (b.arrays[o.spec.name]) b.arrays[o.spec.name].data = o.sink;
+        if (b.speciesFromZ && o.spec.name === 'Z') b.speciesFromZ = o.sink as Int32Array;
+      }
+    }
+    b.capacity = cap;
+  }
+
+  private otherColumns(text: Uint8Array, b: Building, a: number): void {
     for (const { field, spec: c, sink } of b.others) {
       const base = a * c.width;
       for (let w = 0; w < c.width; w++) {
@@ -405,16 +478,15 @@ export class ExtxyzAssembler {
           if (!Number.isFinite(x)) this.badNumber(text, f, c.name, 'a finite real number');
           (sink as Float64Array)[base + w] = x;
         } else if (c.kind === 'I') {
-          const t = text.slice(fieldStart[f], fieldEnd[f]);
-          const x = Number(t);
-          if (!INTEGER.test(t) || x > 2147483647 || x < -2147483648) this.badNumber(text, f, c.name, 'an integer');
+          const x = integerField(text, f);
+          if (x !== x) this.badNumber(text, f, c.name, 'a 32-bit integer');
           (sink as Int32Array)[base + w] = x;
         } else if (c.kind === 'L') {
-          const v = parseBoolean(text.slice(fieldStart[f], fieldEnd[f]));
+          const v = parseBoolean(fieldText(text, f));
           if (v === undefined) this.badNumber(text, f, c.name, 'T or F');
           (sink as Uint8Array)[base + w] = v ? 1 : 0;
         } else {
-          (sink as string[])[base + w] = text.slice(fieldStart[f], fieldEnd[f]);
+          (sink as string[])[base + w] = fieldText(text, f);
         }
       }
     }
@@ -447,8 +519,8 @@ export class ExtxyzAssembler {
     );
   }
 
-  private badNumber(text: string, f: number, column: string, wanted: string): never {
-    const t = text.slice(fieldStart[f], fieldEnd[f]);
+  private badNumber(text: Uint8Array, f: number, column: string, wanted: string): never {
+    const t = fieldText(text, f);
     fail(`column '${column}' needs ${wanted}, found '${clip(t)}'`, this.where(), /nan|inf/i.test(t) ? 'the file holds NaN or infinite values; regenerate or drop this frame' : 'check this atom line');
   }
 
@@ -478,15 +550,16 @@ function clip(s: string): string {
 }
 
 /** Every frame of an extended XYZ text held in memory (uploads, tests). */
-export function parseExtxyz(text: string, fileName: string): Frame[] {
+export function parseExtxyz(text: string | Uint8Array, fileName: string): Frame[] {
+  const bytes = typeof text === 'string' ? encoder.encode(text) : text;
   const asm = new ExtxyzAssembler(fileName);
   const frames: Frame[] = [];
   let start = 0;
-  const n = text.length;
+  const n = bytes.length;
   while (start < n) {
-    let end = text.indexOf('\n', start);
+    let end = bytes.indexOf(10, start);
     if (end < 0) end = n;
-    const r = asm.push(text, start, end);
+    const r = asm.push(bytes, start, end);
     if (r !== null && r !== 'stop') frames.push(r);
     start = end + 1;
   }

@@ -18,6 +18,8 @@ interface ShardHead {
   modelSha256: string;
   input: string;
   identity: Identity | null;
+  /** CSV: the comment lines before the header row (with their '# '), and the header row. */
+  comments: string[];
   columns: string | null;
   frames: SelectionText | undefined;
   shard: { k: number; n: number; of: SelectionText } | undefined;
@@ -72,23 +74,26 @@ async function head(file: string, signal?: AbortSignal): Promise<ShardHead> {
   if (kind === 'csv') {
     let identity: Identity | null = null;
     let columns: string | null = null;
+    const comments: string[] = [];
+    const done = (first: number | null): ShardHead => {
+      if (!identity) throw new InputError('no identity line (# Identity: model …; model sha256 …; input …)', { file }, 'merge joins files written by `polarweave predict`');
+      if (columns === null) throw new InputError('the file has no header row', { file }, 'the shard is incomplete; predict it again');
+      return { file, kind, modelSha256: identity.modelSha256, input: `${identity.inputName}:${identity.inputBytes}`, identity, comments, columns, frames: identity.frames, shard: identity.shard, first };
+    };
     for await (const l of lines(file, signal)) {
       n++;
-      if (n === 1) {
-        identity = parseIdentityLine(l);
-        if (!identity) throw new InputError('no identity line (model checksum, input)', { file, line: 1 }, 'merge joins files written by `polarweave predict`');
+      if (columns === null && l.startsWith('#')) {
+        comments.push(l);
+        identity ??= parseIdentityLine(l);
         continue;
       }
-      if (l.startsWith('#')) continue;
       if (columns === null) {
         columns = l;
         continue;
       }
-      const id = identity as Identity;
-      return { file, kind, modelSha256: id.modelSha256, input: `${id.inputName}:${id.inputBytes}`, identity: id, columns, frames: id.frames, shard: id.shard, first: Number(l.split(',', 1)[0]) };
+      return done(Number(l.split(',', 1)[0]));
     }
-    if (!identity || columns === null) throw new InputError('the file has no header row', { file }, 'the shard is incomplete; predict it again');
-    return { file, kind, modelSha256: identity.modelSha256, input: `${identity.inputName}:${identity.inputBytes}`, identity, columns, frames: identity.frames, shard: identity.shard, first: null };
+    return done(null);
   }
   for await (const l of lines(file, signal)) {
     n++;
@@ -96,11 +101,11 @@ async function head(file: string, signal?: AbortSignal): Promise<ShardHead> {
       const m = STAMP.exec(l);
       if (!m) throw new InputError('frame 0 of the file carries no pred_frame / pred_model_sha256 / pred_input stamp', { file, line: 2 }, 'merge joins files written by `polarweave predict`');
       const s = m[5] !== undefined ? parseShardStamp(m[5], file, 2) : undefined;
-      return { file, kind, modelSha256: m[2], input: m[3], identity: null, columns: null, frames: s?.frames, shard: s ? { k: s.k, n: s.n, of: s.of } : undefined, first: Number(m[1]) };
+      return { file, kind, modelSha256: m[2], input: m[3], identity: null, comments: [], columns: null, frames: s?.frames, shard: s ? { k: s.k, n: s.n, of: s.of } : undefined, first: Number(m[1]) };
     }
   }
   // an empty extended XYZ shard (no frames): nothing to check but its name
-  return { file, kind, modelSha256: '', input: '', identity: null, columns: null, frames: undefined, shard: undefined, first: null };
+  return { file, kind, modelSha256: '', input: '', identity: null, comments: [], columns: null, frames: undefined, shard: undefined, first: null };
 }
 
 function range(a: number, b: number, step: number): string {
@@ -194,7 +199,8 @@ export async function mergeShards(files: string[], output: string, signal?: Abor
       const id: Identity = { ...ref.identity, frames: undefined, shard: undefined };
       const of = ref.identity.shard?.of;
       if (of && (of.start !== 0 || of.step !== 1)) id.frames = of;
-      await out.write(identityLine(id) + (ref.columns as string) + '\n');
+      const idText = identityLine(id).replace(/\n$/, '');
+      await out.write(ref.comments.map((c) => (parseIdentityLine(c) ? idText : c) + '\n').join('') + (ref.columns as string) + '\n');
     }
     for (const h of order) {
       let last: number | null = null;
@@ -204,7 +210,7 @@ export async function mergeShards(files: string[], output: string, signal?: Abor
         let pastHeader = false;
         for await (const l of lines(h.file, signal)) {
           n++;
-          if (n === 1 || (!pastHeader && l.startsWith('#'))) continue;
+          if (!pastHeader && l.startsWith('#')) continue;
           if (!pastHeader) {
             pastHeader = true;
             continue;

@@ -8,7 +8,8 @@ import type { Frame } from '../core/frame.ts';
 import { modelFeaturiser, type Featuriser, type Model } from '../core/model.ts';
 import { ExtxyzAssembler } from '../io/extxyz.ts';
 import { parseModel } from '../io/model-file.ts';
-import { predictFrameText, predictionColumns, type FrameStamp, type PredictFormat } from './prediction-text.ts';
+import type { TensorCsvOptions } from '../io/csv.ts';
+import { predictFrameText, type FrameStamp, type PredictFormat } from './prediction-text.ts';
 import type { TaskContext, TaskRegistry } from './task.ts';
 
 export interface PredictChunkInput {
@@ -18,6 +19,8 @@ export interface PredictChunkInput {
   file: string;
   format: PredictFormat;
   stamp: FrameStamp;
+  /** CSV layout of a tensor model's rows (io/csv.ts options). */
+  csvOptions?: TensorCsvOptions;
   /** Frames in output order: index in the file, 1-based line of the count line, the frame's bytes. */
   frames: { index: number; line: number; bytes: Uint8Array }[];
 }
@@ -37,7 +40,7 @@ export function sha256Hex(data: Uint8Array | string): string {
   return createHash('sha256').update(data).digest('hex');
 }
 
-let cached: { path: string; sha: string; model: Model; featurise: Featuriser; columns: string[] } | null = null;
+let cached: { path: string; sha: string; model: Model; featurise: Featuriser } | null = null;
 
 async function modelFor(path: string, sha: string): Promise<NonNullable<typeof cached>> {
   if (cached && cached.path === path && cached.sha === sha) return cached;
@@ -47,19 +50,19 @@ async function modelFor(path: string, sha: string): Promise<NonNullable<typeof c
   const actual = sha256Hex(bytes);
   if (actual !== sha) throw new ModelError(`${path}: the model file changed while predicting (sha256 ${actual}, expected ${sha}); start again with --restart`);
   const model = parseModel(bytes.toString('utf8'), path);
-  cached = { path, sha, model, featurise: modelFeaturiser(model), columns: predictionColumns(model) };
+  cached = { path, sha, model, featurise: modelFeaturiser(model) };
   return cached;
 }
 
 /** Parse one frame's bytes (an InputError names the file, line and frame). */
 export function parseFrameBytes(file: string, index: number, line: number, bytes: Uint8Array): Frame {
   const asm = new ExtxyzAssembler(file, { firstLine: line, firstFrame: index });
-  const text = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength).toString('utf8');
+  const buf = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   let s = 0;
-  while (s <= text.length) {
-    let e = text.indexOf('\n', s);
-    if (e < 0) e = text.length;
-    const r = asm.push(text.slice(s, e));
+  while (s <= buf.length) {
+    let e = buf.indexOf(10, s);
+    if (e < 0) e = buf.length;
+    const r = asm.push(buf, s, e);
     if (r !== null && r !== 'stop') return r;
     s = e + 1;
   }
@@ -77,7 +80,7 @@ export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): 
     if (ctx.signal.aborted) throw new CancelledError();
     const f = input.frames[j];
     const frame = parseFrameBytes(input.file, f.index, f.line, f.bytes);
-    const r = predictFrameText(m.model, m.featurise, frame, f.index, input.format, m.columns, input.stamp);
+    const r = predictFrameText(m.model, m.featurise, frame, f.index, input.format, input.stamp, input.csvOptions);
     parts.push(r.text);
     out.index.push(f.index);
     out.outside.push(r.outside);

@@ -4,26 +4,35 @@
 // streamed, resumed or sharded-and-merged run gives the same bytes as one plain run.
 import type { Frame } from '../core/frame.ts';
 import { framePredictionFrom, predictWithFeatures, type Featuriser, type Model } from '../core/model.ts';
-import { annotateFrame, tensorPredictionRow, tensorRowColumns, valuePredictionRow, valueRowColumns, type PredictionRow } from '../core/predict-rows.ts';
+import { findMolecules } from '../core/molecules.ts';
+import { annotateFrame, tensorPredictionRow, valuePredictionRow, valueRowColumns } from '../core/predict-rows.ts';
+import { csvField, tensorCsvColumns, tensorCsvPreamble, tensorCsvRow, type TensorCsvOptions } from '../io/csv.ts';
 import { formatExtxyzFrame } from '../io/extxyz.ts';
 
 export type PredictFormat = 'csv' | 'extxyz';
 
-/** One CSV record: integers as written, other numbers with 10 significant digits, booleans as 1/0. */
+/** One CSV record: numbers as the shortest text that reads back the same, booleans as 1/0, text RFC 4180. */
 export function csvRecord(values: (number | string | boolean)[]): string {
-  return (
-    values
-      .map((v) => {
-        if (typeof v === 'number') return Number.isInteger(v) ? String(v) : v.toPrecision(10);
-        if (typeof v === 'boolean') return v ? '1' : '0';
-        return /[",\n]/.test(v) ? `"${v.replace(/"/g, '""')}"` : v;
-      })
-      .join(',') + '\n'
-  );
+  return values.map((v) => (typeof v === 'number' ? String(v) : typeof v === 'boolean' ? (v ? '1' : '0') : csvField(v))).join(',') + '\n';
 }
 
-export function predictionColumns(model: Model): string[] {
-  return model.target.shape === 'tensor' ? tensorRowColumns() : valueRowColumns(model);
+/** The column names of the CSV a model's predictions go to. */
+export function predictionColumns(model: Model, csvOptions?: TensorCsvOptions): string[] {
+  if (model.target.shape !== 'tensor') return valueRowColumns(model);
+  if (!csvOptions) throw new RangeError('predictionColumns: a tensor model needs the CSV layout (csvOptions)');
+  return tensorCsvColumns(csvOptions);
+}
+
+/**
+ * The comment block and header row of a prediction CSV. Tensor models: io/csv.ts's preamble with its "Written"
+ * time replaced by the identity line (so that resumed and merged runs give the same bytes); value models: a
+ * title line, the identity line and the header.
+ */
+export function predictionCsvHeader(model: Model, id: Identity, csvOptions?: TensorCsvOptions): string {
+  const columns = predictionColumns(model, csvOptions).map(csvField).join(',') + '\n';
+  if (model.target.shape !== 'tensor') return `# Polarweave predictions (model estimates) from ${id.modelPath.replace(/\n/g, ' ')}\n${identityLine(id)}${columns}`;
+  const pre = tensorCsvPreamble(csvOptions as TensorCsvOptions, new Date(0)).replace(/^# Written: .*\n/m, identityLine(id));
+  return pre + columns;
 }
 
 /** A frame selection as text, "A:B step S" (B empty when open-ended). */
@@ -49,9 +58,9 @@ export interface Identity {
   shard?: { k: number; n: number; of: SelectionText };
 }
 
-const TITLE = '# Polarweave predictions (model estimates) from ';
+const TITLE = '# Identity: model ';
 
-/** The first line of a prediction CSV: title, model path, model checksum, input, and the selection. */
+/** The comment line of a prediction CSV that says where it came from: model, its checksum, input, selection. */
 export function identityLine(id: Identity): string {
   let line = TITLE + id.modelPath.replace(/[\r\n;]/g, ' ');
   line += `; model sha256 ${id.modelSha256}; input ${id.inputName.replace(/[\r\n;,]/g, ' ')}, ${id.inputBytes} bytes`;
@@ -103,25 +112,21 @@ export interface FrameText {
 }
 
 /** Predict one frame and format it. */
-export function predictFrameText(model: Model, featurise: Featuriser, frame: Frame, index: number, format: PredictFormat, columns: string[], stamp: FrameStamp): FrameText {
+export function predictFrameText(model: Model, featurise: Featuriser, frame: Frame, index: number, format: PredictFormat, stamp: FrameStamp, csvOptions?: TensorCsvOptions): FrameText {
   const pred = predictWithFeatures(model, frame, featurise(frame, index), index);
-  let row: PredictionRow;
-  let text: string;
+  const a = pred.applicability;
+  const figures = { outside: a.outside, atomsOutside: a.atomsOutside, maxDistance: a.maxDistance };
   if (model.target.shape !== 'tensor') {
-    row = valuePredictionRow(model, index, frame, pred);
-    text = csvRecord(columns.map((c) => row[c] ?? ''));
-  } else {
-    const fp = framePredictionFrom(model, frame, pred, index);
-    row = tensorPredictionRow(index, frame, fp);
-    if (format === 'csv') text = csvRecord(columns.map((c) => row[c] ?? ''));
-    else {
-      const a = annotateFrame(frame, fp, model);
-      a.info.pred_frame = index;
-      a.info.pred_model_sha256 = stamp.modelSha256;
-      a.info.pred_input = stamp.input;
-      if (stamp.shard) a.info.pred_shard = stamp.shard;
-      text = formatExtxyzFrame(a);
-    }
+    const row = valuePredictionRow(model, index, frame, pred);
+    return { text: csvRecord(valueRowColumns(model).map((c) => row[c] ?? '')), ...figures };
   }
-  return { text, outside: row.outside === true, atomsOutside: Number(row.atoms_outside), maxDistance: Number(row.max_distance) };
+  const fp = framePredictionFrom(model, frame, pred, index);
+  if (format === 'csv') return { text: tensorCsvRow(tensorPredictionRow(index, frame, fp, model), csvOptions as TensorCsvOptions), ...figures };
+  const out = annotateFrame(frame, fp, model);
+  out.arrays.molecule = { kind: 'int', width: 1, data: findMolecules(frame).molecule };
+  out.info.pred_frame = index;
+  out.info.pred_model_sha256 = stamp.modelSha256;
+  out.info.pred_input = stamp.input;
+  if (stamp.shard) out.info.pred_shard = stamp.shard;
+  return { text: formatExtxyzFrame(out), ...figures };
 }

@@ -17,7 +17,8 @@ import { indexExtxyz, type FrameRange } from '../io/extxyz.ts';
 import { writeFileAtomic } from '../io/atomic.ts';
 import { parseModel } from '../io/model-file.ts';
 import { frameSlices, type SlicePosition } from './frame-slices.ts';
-import { identityLine, predictionColumns, selectionText, type Identity, type PredictFormat, type SelectionText } from './prediction-text.ts';
+import type { TensorCsvOptions } from '../io/csv.ts';
+import { predictionCsvHeader, selectionText, type Identity, type PredictFormat, type SelectionText } from './prediction-text.ts';
 import { sha256Hex, type PredictChunkInput, type PredictChunkOutput } from './predict-tasks.ts';
 import { JobRunner, type WorkerFactory } from './runner.ts';
 import { tsWorkerFactory } from './spawn-ts.ts';
@@ -60,6 +61,8 @@ export interface StreamPredictOptions {
   spawn?: WorkerFactory;
   /** Model path as shown in the CSV identity line (default: modelPath). */
   modelLabel?: string;
+  /** CSV layout for a tensor model (io/csv.ts options; the CLI passes predictionCsvOptions). */
+  csvOptions?: TensorCsvOptions;
 }
 
 export interface StreamPredictResult {
@@ -178,7 +181,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   const modelSha256 = sha256Hex(modelBytes);
   const model = parseModel(modelBytes.toString('utf8'), opts.modelPath);
   if (format === 'extxyz' && model.target.shape !== 'tensor') throw new InputError('extended XYZ output is for tensor models', { file: opts.output }, 'write .csv');
-  predictionColumns(model);
+  if (format === 'csv' && model.target.shape === 'tensor' && !opts.csvOptions) throw new RangeError('streamPredict: a tensor model writing CSV needs csvOptions');
 
   let stat;
   try {
@@ -245,7 +248,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   try {
     if (ck) await fh.truncate(ck.partialBytes);
     else if (format === 'csv') {
-      const head = Buffer.from(identityLine(identity) + predictionColumns(model).join(',') + '\n', 'utf8');
+      const head = Buffer.from(predictionCsvHeader(model, identity, opts.csvOptions), 'utf8');
       await fh.write(head, 0, head.length, 0);
       partialBytes = head.length;
     }
@@ -312,7 +315,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     };
 
     const submit = (frames: PredictChunkInput['frames'], next: SlicePosition) => {
-      const input: PredictChunkInput = { modelPath: resolve(opts.modelPath), modelSha256, file: opts.input, format, stamp, frames };
+      const input: PredictChunkInput = { modelPath: resolve(opts.modelPath), modelSha256, file: opts.input, format, stamp, frames, csvOptions: opts.csvOptions };
       const promise = (runner as JobRunner).run<PredictChunkOutput>('predict-chunk', input, { signal });
       promise.catch(() => undefined); // awaited in order by drainOne
       inFlight.set(seq++, { promise, next, frames: frames.length });

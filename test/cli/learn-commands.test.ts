@@ -3,7 +3,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { runCli } from '../../src-main/cli/main.ts';
-import { parseExtxyz } from '../../src-main/io/extxyz.ts';
+import { parseExtxyz, writeExtxyz } from '../../src-main/io/extxyz.ts';
 
 let dir: string;
 const data = () => join(dir, 'water.extxyz');
@@ -37,11 +37,14 @@ describe('polarweave train / predict / validate', () => {
     expect(p.code).toBe(0);
     expect(p.out).toMatch(/3 frames predicted/);
     const lines = readFileSync(csv, 'utf8').trim().split('\n');
-    expect(lines[0]).toMatch(/^# Polarweave predictions \(model estimates\)/);
-    const header = lines[1].split(',');
+    expect(lines[0]).toMatch(/^# Polarweave predicted dielectric tensors/);
+    expect(lines.some((l) => /model estimates/.test(l))).toBe(true);
+    const body = lines.filter((l) => !l.startsWith('#'));
+    const header = body[0].split(',');
     expect(header.slice(0, 4)).toEqual(['frame', 'tag', 'volume_A3', 'eps_xx']);
     expect(header).toContain('outside');
-    const rows = lines.slice(2).map((l) => l.split(','));
+    expect(header).toContain('alpha_cm_xx_A3');
+    const rows = body.slice(1).map((l) => l.split(','));
     expect(rows.map((r) => r[0])).toEqual(['2', '4', '6']);
     expect(rows.map((r) => r[1])).toEqual(['sample-003', 'sample-005', 'sample-007']);
     const epsXX = Number(rows[0][header.indexOf('eps_xx')]);
@@ -55,6 +58,7 @@ describe('polarweave train / predict / validate', () => {
     expect(back.length).toBe(2);
     expect((back[0].info.pred_eps as number[]).length).toBe(9);
     expect(back[0].arrays.local_alpha_cm_A3.width).toBe(9);
+    expect(new Set(back[0].arrays.molecule.data as Int32Array).size).toBe(16);
     // the per-atom local tensors sum to the frame's α_CM
     const local = back[0].arrays.local_alpha_cm_A3.data as Float64Array;
     let xx = 0;
@@ -73,6 +77,32 @@ describe('polarweave train / predict / validate', () => {
     expect(v.out).toMatch(/sizes skipped.*20/);
     expect(v.out).toMatch(/comparison on ε: route (cm|direct)/);
   }, 180_000);
+
+  it('trains and predicts a vector (dipole-like) target to CSV', async () => {
+    // an invented per-frame 3-vector (built from the off-diagonal of ε, only to exercise the λ=1 path)
+    const frames = parseExtxyz(readFileSync(data(), 'utf8'), 'water.extxyz');
+    for (const f of frames) {
+      const e = f.info.eps_inf as number[];
+      f.info.dipole = [100 * e[5], 100 * e[2], 100 * e[1]];
+    }
+    const file = join(dir, 'dipole.extxyz');
+    await writeExtxyz(file, frames);
+    const model = join(dir, 'dip.json');
+    const t = await cli(['train', file, '--tensor', 'dipole', '--as', 'eps', ...FAST, '-o', model]);
+    expect(t.code).toBe(0);
+    expect(t.out).toMatch(/learns vector/);
+    expect(t.out).toMatch(/λ=1: linear/);
+    const csv = join(dir, 'dip.csv');
+    expect((await cli(['predict', model, file, '-o', csv])).code).toBe(0);
+    const lines = readFileSync(csv, 'utf8').trim().split('\n').filter((l) => !l.startsWith('#'));
+    expect(lines[0].split(',').slice(0, 5)).toEqual(['frame', 'tag', 'value_x', 'value_y', 'value_z']);
+    expect(lines.length).toBe(9);
+    const row = lines[1].split(',');
+    for (const k of [2, 3, 4]) expect(Number.isFinite(Number(row[k]))).toBe(true);
+    const x = await cli(['predict', model, file, '-o', join(dir, 'dip.extxyz')]);
+    expect(x.code).toBe(2);
+    expect(x.err).toMatch(/extended XYZ output is for tensor models/);
+  }, 120_000);
 
   it('reports usage errors with exit code 2 and bad data with exit code 1', async () => {
     const a = await cli(['train', data(), '--tensor', 'eps_inf', '-o', join(dir, 'x.json')]);
@@ -97,5 +127,13 @@ describe('polarweave train / predict / validate', () => {
     const r = await cli(['train', join(sub, 'in.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', ...FAST, '-o', join(sub, 'm.json')], c.signal);
     expect(r.code).toBe(130);
     expect(readdirSync(sub)).toEqual(['in.extxyz']);
-  });
+    // predict and validate stop the same way
+    const model = join(sub, 'model.json');
+    expect((await cli(['train', join(sub, 'in.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', ...FAST, '--regularisation', '1e-6', '-o', model])).code).toBe(0);
+    const p = await cli(['predict', model, join(sub, 'in.extxyz'), '-o', join(sub, 'out.csv')], c.signal);
+    expect(p.code).toBe(130);
+    expect(readdirSync(sub).sort()).toEqual(['in.extxyz', 'model.json']);
+    const v = await cli(['validate', join(sub, 'in.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', ...FAST], c.signal);
+    expect(v.code).toBe(130);
+  }, 60_000);
 });

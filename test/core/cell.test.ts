@@ -51,7 +51,7 @@ const arbCell = fc
     return 1 - c(al) ** 2 - c(be) ** 2 - c(ga) ** 2 + 2 * c(al) * c(be) * c(ga) > 0.05;
   })
   .map(([a, b, c, al, be, ga, axis]) => {
-    // Rotate the standard-orientation cell by a random rotation (Rodrigues) so no axis is special.
+    // Rotate the standard-orientation cell by a random rotation (axis–angle formula) so no axis is special.
     const h = cellFromParameters(a, b, c, al, be, ga);
     const n = Math.hypot(axis[0], axis[1], axis[2]) || 1;
     const [ux, uy, uz] = [axis[0] / n, axis[1] / n, axis[2] / n];
@@ -222,6 +222,13 @@ describe('cell properties on random triclinic cells', () => {
           const back = toCartesian(h, toFractional(h, pos));
           close(back, pos, 1e-11);
           const wrapped = wrapPositions(h, pos, pbc);
+          // Atoms already inside along every periodic axis are returned bit for bit.
+          const inside = toFractional(h, pos);
+          for (let i = 0; i < pos.length; i += 3) {
+            if ([0, 1, 2].every((k) => !pbc[k] || (inside[i + k] >= 0 && inside[i + k] < 1))) {
+              expect(Array.from(wrapped.subarray(i, i + 3))).toEqual(Array.from(pos.subarray(i, i + 3)));
+            }
+          }
           const s = toFractional(h, wrapped);
           const s0 = toFractional(h, pos);
           for (let i = 0; i < s.length; i++) {

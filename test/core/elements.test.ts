@@ -34,7 +34,7 @@ describe('elements', () => {
     expect(() => atomicMass('Qq')).toThrow(RangeError);
   });
 
-  it('covalent radii (Cordero et al., Dalton Trans. 2008, 2832, Table 2, from memory: H 0.31, C sp3 0.76, N 0.71, O 0.66, Na 1.66, Si 1.11, Cl 1.02, Fe l.s. 1.32)', () => {
+  it('covalent radii ("Covalent radii revisited", Dalton Trans. 2008, 2832, Table 2, from memory: H 0.31, C sp3 0.76, N 0.71, O 0.66, Na 1.66, Si 1.11, Cl 1.02, Fe l.s. 1.32)', () => {
     expect(covalentRadius('H')).toBe(0.31);
     expect(covalentRadius('C')).toBe(0.76);
     expect(covalentRadius('N')).toBe(0.71);

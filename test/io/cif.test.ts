@@ -6,6 +6,7 @@ import path from 'node:path';
 import { InputError } from '../../src-main/core/errors.ts';
 import type { Frame } from '../../src-main/core/frame.ts';
 import { cifNumber, elementFromLabel, parseCif, parseSymmetryOp } from '../../src-main/io/cif.ts';
+import { formatExtxyzFrame, parseExtxyz } from '../../src-main/io/extxyz.ts';
 
 const FIX = path.join(import.meta.dirname, '../fixtures/io');
 const ase = JSON.parse(readFileSync(path.join(FIX, 'cif-ase.json'), 'utf8')) as Record<string, { species: string[]; cell: number[]; positions: number[]; volume: number }>;
@@ -122,6 +123,18 @@ describe('parseCif: monoclinic ZrO2 against python3-ase 3.22 (test/fixtures/io/c
     expect(f.species.filter((s) => s === 'O').length).toBe(8);
     expect(det(f.cell!)).toBeCloseTo(ase['zro2-monoclinic.cif'].volume, 9);
     expectSameAtoms(f, ase['zro2-monoclinic.cif'], 1e-9);
+  });
+});
+
+describe('CIF → extended XYZ', () => {
+  it('a CIF frame (with its data items) is written as extended XYZ and reads back equal', () => {
+    for (const name of ['nacl-fm3m.cif', 'zro2-monoclinic.cif']) {
+      const [f] = parseCif(readFileSync(path.join(FIX, name), 'utf8'), name);
+      const [back] = parseExtxyz(formatExtxyzFrame(f), 'x.xyz');
+      const { source: _a, ...want } = f;
+      const { source: _b, ...got } = back;
+      expect(got).toEqual(want);
+    }
   });
 });
 

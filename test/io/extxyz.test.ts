@@ -195,6 +195,23 @@ describe('writing and streaming', () => {
     expect(readdirSync(dir).filter((n) => n.endsWith('.tmp'))).toEqual([]);
   });
 
+  it('a gzip output of several 1 MiB blocks (several gzip members) reads back whole', async () => {
+    const p = path.join(dir, 'multi.extxyz.gz');
+    const f = sampleFrame();
+    const n = 9000; // ≈ 2.5 MB of text: three blocks
+    await writeExtxyz(p, (function* () {
+      for (let k = 0; k < n; k++) yield f;
+    })());
+    const { gunzipSync } = await import('node:zlib');
+    expect(gunzipSync(readFileSync(p)).toString().split('\n').length).toBe(n * 5 + 1);
+    let count = 0;
+    for await (const g of readExtxyz(p)) {
+      if (count === n - 1) expect(strip(g)).toEqual(f);
+      count++;
+    }
+    expect(count).toBe(n);
+  });
+
   it('a failing frame source leaves no output and no temp file', async () => {
     const p = path.join(dir, 'never.extxyz');
     function* bad() {
@@ -258,5 +275,50 @@ describe('writing and streaming', () => {
     const ac = new AbortController();
     ac.abort();
     await expect(collect(readExtxyz(WATER, { signal: ac.signal }))).rejects.toMatchObject({ name: 'CancelledError' });
+  });
+});
+
+describe('index edge cases', () => {
+  it('agrees with the parser on blank lines, CRLF, a byte-order mark and a last line without newline', async () => {
+    const d = mkdtempSync(path.join(os.tmpdir(), 'pw-idx-'));
+    try {
+      const text = '\ufeff1\r\n\r\nH 0 0 0\r\n\r\n\r\n2\r\nnote=x\r\nO 0 0 0\r\nH 1 0 0';
+      const p = path.join(d, 'e.xyz');
+      writeFileSync(p, text);
+      const frames = await collect(readExtxyz(p));
+      const idx = await indexExtxyz(p);
+      expect(idx.frames).toBe(2);
+      expect(Array.from(idx.lines)).toEqual(frames.map((f) => f.source!.line));
+      expect(Array.from(idx.lines)).toEqual([1, 6]);
+      expect(strip(await readFrameAt(p, idx, 1))).toEqual(strip(frames[1]));
+      writeFileSync(p, text.slice(0, -8)); // cut inside the last frame
+      await expect(indexExtxyz(p)).rejects.toMatchObject({ name: 'InputError', where: { frame: 1 } });
+    } finally {
+      rmSync(d, { recursive: true, force: true });
+    }
+  });
+});
+
+describe('large frames', () => {
+  it('a frame of 10 000 atoms with extra columns (arrays grow past the first allocation) reads back exactly', () => {
+    const n = 10_000;
+    const species = Array.from({ length: n }, (_, i) => ['O', 'H', 'Na'][i % 3]);
+    const f = makeFrame(species, Array.from({ length: 3 * n }, (_, i) => i * 0.001 - 7), [30, 0, 0, 0, 30, 0, 0, 0, 30]);
+    f.arrays = {
+      q: { kind: 'real', width: 2, data: Float64Array.from({ length: 2 * n }, (_, i) => i / 7) },
+      id: { kind: 'int', width: 1, data: Int32Array.from({ length: n }, (_, i) => i - 5000) },
+      fixed: { kind: 'bool', width: 1, data: Uint8Array.from({ length: n }, (_, i) => i % 2) },
+      name: { kind: 'string', width: 1, data: Array.from({ length: n }, (_, i) => `a${i}`) },
+    };
+    const [back] = parseExtxyz(formatExtxyzFrame(f), 'big');
+    expect(strip(back)).toEqual(f);
+    const zText = `${n}\nProperties=Z:I:1:pos:R:3\n` + species.map((s, i) => `${s === 'O' ? 8 : s === 'H' ? 1 : 11} ${i} 0 0`).join('\n');
+    const [z] = parseExtxyz(zText, 'z');
+    expect(z.species).toEqual(species);
+    expect(z.positions[3 * 9999]).toBe(9999);
+  });
+
+  it('a corrupt huge atom count fails at the end of the file without allocating for it', () => {
+    expectInputError(() => parseExtxyz('99999999\n\nH 0 0 0\n', 'f'), { line: 3, frame: 0 }, /1 of 99999999/);
   });
 });

@@ -31,7 +31,7 @@ describe('predict --shard and merge', () => {
     await predict('all.csv');
     for (const k of [1, 2, 3]) await predict(`s${k}.csv`, '--shard', `${k}/3`);
     // shard 2 of 11 frames in 3 parts holds frames 3…6 (floor(11/3) = 3, floor(22/3) = 7)
-    expect(readFileSync(p('s2.csv'), 'utf8').split('\n')[0]).toMatch(/; frames 3:7 step 1; shard 2\/3 of frames 0:11 step 1$/);
+    expect(readFileSync(p('s2.csv'), 'utf8')).toMatch(/^# Identity: .*; frames 3:7 step 1; shard 2\/3 of frames 0:11 step 1$/m);
     const m = await cli('merge', p('s3.csv'), p('s1.csv'), p('s2.csv'), '-o', p('merged.csv'));
     expect(m.code).toBe(0);
     expect(m.out).toMatch(/11 frames from 3 shards/);

@@ -6,18 +6,12 @@ import { decimateMinMax, lowerBound } from '../../src-renderer/components/charts
 import { blockEstimates, plateauError, runningError, runningMean } from '../../src-renderer/components/charts/trajectory-stats.ts';
 import { learningLines, logDomain, logLogSlope } from '../../src-renderer/components/charts/learning-geometry.ts';
 import type { ErrorFigures } from '../../src-main/core/model-types.ts';
+import { makeRng } from '../../src-main/core/random.ts';
 
-/** A small seeded generator for the statistics tests (mulberry32 + Box–Muller). */
-function rng(seed: number) {
-  let a = seed >>> 0;
-  const u = () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-  return () => Math.sqrt(-2 * Math.log(Math.max(u(), 1e-300))) * Math.cos(2 * Math.PI * u());
+/** Seeded normal deviates for the statistics tests (the project's shared generator). */
+function rng(seed: number): () => number {
+  const r = makeRng(seed);
+  return () => r.normal();
 }
 
 describe('decimateMinMax', () => {

@@ -11,7 +11,7 @@ import type { TensorKind } from '../../core/model-types.ts';
 import { tensorFromValues } from '../../core/tensor.ts';
 import { parsePolarisabilityUnit, tensorFromA3, tensorToA3, type PolarisabilityUnit } from '../../core/units.ts';
 import { writeExtxyz } from '../../io/extxyz.ts';
-import { framesOf } from './inspect.ts';
+import { readStructures } from '../../io/read-structures.ts';
 import { writeFrameTensorCsv } from '../tensor-table.ts';
 
 const options = [
@@ -85,7 +85,7 @@ export const convertCommand: Command = {
     let count = 0;
 
     const converted = async function* (): AsyncGenerator<{ frame: Frame; eps: Mat3; alphaCM: Mat3; alphaC: Mat3; result: Mat3; volume: number }> {
-      for await (const frame of framesOf(input, io.signal)) {
+      for await (const frame of readStructures(input, { signal: io.signal })) {
         if (io.signal.aborted) throw new CancelledError();
         const raw = frameTensor(frame, key);
         const T = from === 'eps' ? raw : tensorToA3(raw, inUnit);

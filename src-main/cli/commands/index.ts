@@ -1,10 +1,10 @@
 // Every subcommand, in the order `polarweave --help` lists them. Add one line per new command.
 import type { Command } from '../command.ts';
+import { convertCommand } from './convert.ts';
+import { inspectCommand } from './inspect.ts';
 import { trainCommand } from './train.ts';
 import { predictCommand } from './predict.ts';
 import { validateCommand } from './validate.ts';
-import { convertCommand } from './convert.ts';
-import { inspectCommand } from './inspect.ts';
 import { mergeCommand } from './merge.ts';
 import { analyseCommand } from './analyse.ts';
 

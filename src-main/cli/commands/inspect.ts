@@ -1,14 +1,12 @@
 // `polarweave inspect IN`: what is in a structure file — frames, atoms, species, cell and volume range, the
 // tensor-valued properties found and the range of their values — read frame by frame (any file size).
-import { readFile } from 'node:fs/promises';
 import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import { cellVolume } from '../../core/cell.ts';
 import { CancelledError } from '../../core/errors.ts';
 import type { Frame } from '../../core/frame.ts';
 import { anisotropy, isotropicMean, symmetricEigen, tensorFromValues } from '../../core/tensor.ts';
-import { parseCif } from '../../io/cif.ts';
-import { readExtxyz } from '../../io/extxyz.ts';
+import { readStructures } from '../../io/read-structures.ts';
 
 const options = [{ name: 'json', flag: true, help: 'print the summary as JSON' }];
 
@@ -47,13 +45,6 @@ export interface FileSummary {
   atomArrays: Set<string>;
 }
 
-export async function* framesOf(file: string, signal?: AbortSignal): AsyncGenerator<Frame> {
-  if (/\.cif$/i.test(file)) {
-    yield* parseCif(await readFile(file, 'utf8'), file);
-    return;
-  }
-  yield* readExtxyz(file, { signal });
-}
 
 export async function summariseFile(file: string, signal?: AbortSignal): Promise<FileSummary> {
   const s: FileSummary = {
@@ -68,7 +59,7 @@ export async function summariseFile(file: string, signal?: AbortSignal): Promise
     strings: new Map(),
     atomArrays: new Set(),
   };
-  for await (const frame of framesOf(file, signal)) {
+  for await (const frame of readStructures(file, { signal })) {
     if (signal?.aborted) throw new CancelledError();
     s.frames++;
     s.atoms.add(frame.species.length);

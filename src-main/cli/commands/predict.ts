@@ -1,15 +1,19 @@
 // `polarweave predict`: apply a trained model to the frames of a file; CSV (one row per frame) or extended
-// XYZ (frames with the predicted tensors as info keys and per-atom local tensors). The work is streamed and
-// parallel (jobs/stream-predict.ts): constant memory, worker threads, resumable from OUT.checkpoint.json after
-// Ctrl-C or a crash, frame-range shards for clusters. The output appears atomically when every frame is done.
+// XYZ (frames with the predicted tensors as info keys and per-atom local tensors). Extended XYZ input is
+// streamed and parallel (jobs/stream-predict.ts): constant memory, worker threads, resumable from
+// OUT.checkpoint.json after Ctrl-C or a crash, frame-range shards for clusters. Other inputs (CIF) go through
+// runPredict (one pass, atomic, Ctrl-C leaves no partial file). The output appears when every frame is done.
 import { parseArgs, UsageError, type ParsedArgs } from '../args.ts';
 import type { Command, CommandIO } from '../command.ts';
 import { CancelledError } from '../../core/errors.ts';
 import type { Frame } from '../../core/frame.ts';
 import { framePredictionFrom, modelFeaturiser, predictWithFeatures, type Model } from '../../core/model.ts';
-import { annotateFrame, tensorPredictionRow, tensorRowColumns, valuePredictionRow, valueRowColumns, type PredictionRow } from '../../core/predict-rows.ts';
-import { readExtxyz, formatExtxyzFrame, type FrameRange } from '../../io/extxyz.ts';
-import { atomicWriteStream } from '../../io/atomic.ts';
+import { findMolecules } from '../../core/molecules.ts';
+import { annotateFrame, APPLICABILITY_COLUMNS, tensorPredictionRow, valuePredictionRow, valueRowColumns, type PredictionRow } from '../../core/predict-rows.ts';
+import { tensorCsvWriter, csvField, type TensorCsvOptions, type TensorRow } from '../../io/csv.ts';
+import { formatExtxyzFrame, type FrameRange } from '../../io/extxyz.ts';
+import { readStructures } from '../../io/read-structures.ts';
+import { atomicWriteStream, type AtomicWriteStream } from '../../io/atomic.ts';
 import { loadModel } from '../../io/model-file.ts';
 import { csvRecord } from '../../jobs/prediction-text.ts';
 import { checkpointPaths, progressLine, streamPredict, type StreamPredictOptions } from '../../jobs/stream-predict.ts';
@@ -36,14 +40,16 @@ export function parseShard(spec: string | undefined): { k: number; n: number } |
 }
 
 /** The streaming run behind the command: progress on stderr, a clear note on Ctrl-C. */
-export async function runStreamPredict(opts: Omit<StreamPredictOptions, 'onProgress' | 'signal'>, io: CommandIO): Promise<number> {
+export async function runStreamPredict(opts: Omit<StreamPredictOptions, 'onProgress' | 'signal' | 'csvOptions'>, io: CommandIO): Promise<number> {
   let last = 0;
   const threads = opts.threads ?? availableParallelism();
   io.err(`predict: ${threads} worker thread${threads === 1 ? '' : 's'}\n`);
   try {
+    const model = await loadModel(opts.modelPath);
     const r = await streamPredict({
       ...opts,
       threads,
+      csvOptions: model.target.shape === 'tensor' ? predictionCsvOptions(model, opts.modelPath) : undefined,
       signal: io.signal,
       onProgress: (p) => {
         const now = Date.now();
@@ -84,12 +90,25 @@ export function parseFrameRange(args: ParsedArgs): FrameRange {
   return range;
 }
 
-/** One frame's prediction as a CSV row or an annotated frame: the per-frame work, reusable by other callers. */
-export function predictOne(model: Model, frame: Frame, index: number, featurise = modelFeaturiser(model)): { row: PredictionRow; annotated?: Frame } {
+/** One frame's prediction as a table row and an annotated frame: the per-frame work, reusable by other callers. */
+export function predictOne(model: Model, frame: Frame, index: number, featurise = modelFeaturiser(model)): { tensorRow?: TensorRow; valueRow?: PredictionRow; annotated?: Frame; outside: boolean } {
   const pred = predictWithFeatures(model, frame, featurise(frame, index), index);
-  if (model.target.shape !== 'tensor') return { row: valuePredictionRow(model, index, frame, pred) };
+  if (model.target.shape !== 'tensor') return { valueRow: valuePredictionRow(model, index, frame, pred), outside: pred.applicability.outside };
   const fp = framePredictionFrom(model, frame, pred, index);
-  return { row: tensorPredictionRow(index, frame, fp), annotated: annotateFrame(frame, fp, model) };
+  return { tensorRow: tensorPredictionRow(index, frame, fp, model), annotated: annotateFrame(frame, fp, model), outside: fp.applicability.outside };
+}
+
+/** The CSV layout of a tensor model's predictions (io/csv.ts columns plus the applicability figures). */
+export function predictionCsvOptions(model: Model, modelPath: string): TensorCsvOptions {
+  return {
+    title: 'Polarweave predicted dielectric tensors',
+    tagColumns: ['tag'],
+    alpha: { kind: model.target.route === 'cm' ? 'alpha-cm' : 'alpha-c', unit: 'A3' },
+    extraColumns: Object.keys(APPLICABILITY_COLUMNS),
+    extraDescriptions: APPLICABILITY_COLUMNS,
+    source: `model ${modelPath} (route ${model.target.route}, trained on ${model.training.frames} frames)`,
+    predicted: true,
+  };
 }
 
 /** One CSV record as `predict` writes it (shared with the streaming writer). */
@@ -101,28 +120,34 @@ export async function runPredict(modelPath: string, input: string, output: strin
   const model = await loadModel(modelPath);
   if (format === 'extxyz' && model.target.shape !== 'tensor') throw new UsageError('extended XYZ output is for tensor models; use .csv');
   const featurise = modelFeaturiser(model);
-  const out = atomicWriteStream(output);
-  const columns = model.target.shape === 'tensor' ? tensorRowColumns() : valueRowColumns(model);
+  // one writer, chosen by format; each is atomic: nothing appears at `output` unless every frame was written
+  const tensorCsv = format === 'csv' && model.target.shape === 'tensor' ? tensorCsvWriter(output, predictionCsvOptions(model, modelPath)) : null;
+  const stream = tensorCsv ? null : atomicWriteStream(output);
   let count = 0;
   let outside = 0;
   const started = Date.now();
   let lastReport = started;
   try {
-    if (format === 'csv') {
-      await out.write('# Polarweave predictions (model estimates) from ' + modelPath.replace(/\n/g, ' ') + '\n');
-      await out.write(csvLine(columns));
+    if (stream && format === 'csv') {
+      await stream.write(`# Polarweave predictions (model estimates) from ${modelPath.replace(/\n/g, ' ')}\n`);
+      await stream.write(csvLine(valueRowColumns(model)));
     }
     const start = range.start ?? 0;
     const step = range.step ?? 1;
     let k = 0;
-    for await (const frame of readExtxyz(input, { signal: io.signal, range })) {
+    for await (const frame of readStructures(input, { signal: io.signal, range })) {
       if (io.signal.aborted) throw new CancelledError();
       const index = frame.source?.index ?? start + k * step;
       k++;
-      const { row, annotated } = predictOne(model, frame, index, featurise);
-      if (row.outside === true) outside++;
-      if (format === 'csv') await out.write(csvLine(columns.map((c) => row[c] ?? '')));
-      else await out.write(formatExtxyzFrame(annotated as Frame));
+      const one = predictOne(model, frame, index, featurise);
+      if (one.outside) outside++;
+      if (tensorCsv) await tensorCsv.writeRow(one.tensorRow as TensorRow);
+      else if (format === 'csv') await (stream as AtomicWriteStream).write(csvLine(valueRowColumns(model).map((c) => (one.valueRow as PredictionRow)[c] ?? '')));
+      else {
+        const annotated = one.annotated as Frame;
+        annotated.arrays.molecule = { kind: 'int', width: 1, data: findMolecules(frame).molecule };
+        await (stream as AtomicWriteStream).write(formatExtxyzFrame(annotated));
+      }
       count++;
       const now = Date.now();
       if (now - lastReport > 1000) {
@@ -132,9 +157,9 @@ export async function runPredict(modelPath: string, input: string, output: strin
       await new Promise((r) => setTimeout(r, 0)); // let Ctrl-C through
     }
     if (io.signal.aborted) throw new CancelledError();
-    await out.commit();
+    await (tensorCsv ?? (stream as AtomicWriteStream)).commit();
   } catch (e) {
-    await out.abort();
+    await (tensorCsv ?? (stream as AtomicWriteStream)).abort();
     throw e;
   }
   const secs = (Date.now() - started) / 1000;
@@ -149,25 +174,36 @@ export const predictCommand: Command = {
   name: 'predict',
   summary: 'predict cell tensors of frames with a trained model',
   usage: 'MODEL IN [--frames A:B] [--stride K] [--shard K/N] [--threads N] [--resume|--restart] -o OUT.csv|OUT.extxyz',
-  description: 'CSV: one row per frame with ε, α_CM, α_c (Voigt order xx yy zz yz xz xy), principal refractive\nindices and applicability figures. Extended XYZ: the frames with pred_* info keys and per-atom local tensors.\nStreams files of any length on all cores; OUT.partial and OUT.checkpoint.json hold the work done so far, so an\ninterrupted run continues where it stopped when started again with the same arguments.',
+  description:
+    'CSV: one row per frame with ε, the learnt cell polarisability (α_CM for route cm, α_c for direct), principal\n' +
+    'values, refractive indices and applicability figures. Extended XYZ: the frames with pred_* info keys, per-atom\n' +
+    'local tensors (9 numbers per atom), the feature-space distance per atom and the molecule index per atom.\n' +
+    'Extended XYZ input is streamed on all cores; OUT.partial and OUT.checkpoint.json hold the work done so far, so an\n' +
+    'interrupted run continues where it stopped when started again with the same arguments.',
   options,
   async run(argv, io) {
     const args = parseArgs(argv, options);
     if (args.positionals.length !== 2) throw new UsageError('give the model file and one input file');
     const output = args.options.output;
     if (!output) throw new UsageError('give the output file with -o OUT.csv or -o OUT.extxyz');
-    if (!/\.(csv|extxyz|xyz)$/i.test(output)) throw new UsageError(`cannot tell the output format from "${output}": use .csv or .extxyz (compress it afterwards if needed)`);
     if (args.flags.resume && args.flags.restart) throw new UsageError('give --resume or --restart, not both');
     const threads = args.options.threads === undefined ? undefined : Number(args.options.threads);
     if (threads !== undefined && (!Number.isInteger(threads) || threads < 1)) throw new UsageError(`--threads must be a whole number ≥ 1, got "${args.options.threads}"`);
+    const shard = parseShard(args.options.shard);
     const range = parseFrameRange(args);
+    const input = args.positionals[1];
+    if (!/\.(ext)?xyz(\.gz)?$/i.test(input)) {
+      if (shard || args.flags.resume || threads !== undefined) throw new UsageError('--shard, --threads and --resume are for extended XYZ trajectories');
+      return runPredict(args.positionals[0], input, output, range, io);
+    }
+    if (!/\.(csv|extxyz|xyz)$/i.test(output)) throw new UsageError(`cannot tell the output format from "${output}": use .csv or .extxyz (compress it afterwards if needed)`);
     return runStreamPredict(
       {
         modelPath: args.positionals[0],
-        input: args.positionals[1],
+        input,
         output,
         range: { start: range.start, stop: range.stop, step: range.step },
-        shard: parseShard(args.options.shard),
+        shard,
         threads,
         mode: args.flags.resume ? 'resume' : args.flags.restart ? 'restart' : 'auto',
       },

@@ -4,6 +4,7 @@
 // anisotropy and a common length scale. Projection and depth sorting happen per view in the component.
 import { inverse3, symmetricEigen3, type V3 } from './linear3.ts';
 import { elementRadius } from './elements.ts';
+import { findBonds, roundedImage } from './bond-search.ts';
 
 export type EllipsoidMode = 'atom' | 'molecule' | 'none';
 /** Semi-axis lengths proportional to |eigenvalue| ('linear') or to its square root ('sqrt'). */
@@ -67,10 +68,8 @@ export function rawSemiAxes(values: ArrayLike<number>, rule: SemiAxisRule): V3 {
 
 /** Cartesian displacement d reduced to its minimum image (exact for orthogonal cells, close for mildly skewed). */
 export function minimumImage(d: V3, cell: ArrayLike<number> | null, inv: Float64Array | null): V3 {
-  if (!cell || !inv) return d;
-  // fractional f = d · H⁻¹ (cell rows are the lattice vectors, cart = f · H)
-  const f = [0, 1, 2].map((j) => d[0] * inv[j] + d[1] * inv[3 + j] + d[2] * inv[6 + j]).map((x) => x - Math.round(x));
-  return [0, 1, 2].map((j) => f[0] * cell[j] + f[1] * cell[3 + j] + f[2] * cell[6 + j]) as V3;
+  // fractional f = d · H⁻¹ (cell rows are the lattice vectors, cart = f · H), rounded to the nearest image
+  return cell && inv ? roundedImage(d[0], d[1], d[2], cell, inv) : d;
 }
 
 function pos(p: ArrayLike<number>, i: number): V3 {
@@ -123,27 +122,21 @@ export function buildScene(input: SceneInput, mode: EllipsoidMode, bondCutoffFac
   const cell = input.cell ?? null;
   const inv = cell ? inverse3(cell) : null;
   const atoms = input.species.map((s, i) => ({ centre: pos(input.positions, i), radius: elementRadius(s), species: s, index: i }));
+  const badAtom = atoms.find((a) => !a.centre.every(Number.isFinite));
+  if (badAtom) {
+    throw new RangeError(`structure view: atom ${badAtom.index} (${badAtom.species}) has a position that is not a finite number`);
+  }
 
-  // Half-bonds by covalent radii (all pairs: fine for the few thousand atoms a view can show legibly).
+  // Half-bonds by covalent radii, each half in its own atom's colour, meeting at the midpoint (also through the
+  // periodic boundary).
   const bonds: Scene['bonds'] = [];
-  if (n <= 4000) {
-    for (let i = 0; i < n; i++) {
-      for (let j = i + 1; j < n; j++) {
-        const d = minimumImage(
-          [atoms[j].centre[0] - atoms[i].centre[0], atoms[j].centre[1] - atoms[i].centre[1], atoms[j].centre[2] - atoms[i].centre[2]],
-          cell,
-          inv,
-        );
-        const r = Math.hypot(...d);
-        if (r > 0.1 && r < bondCutoffFactor * (atoms[i].radius + atoms[j].radius)) {
-          const ci = atoms[i].centre;
-          const cj = atoms[j].centre;
-          bonds.push({ from: ci, to: [ci[0] + d[0] / 2, ci[1] + d[1] / 2, ci[2] + d[2] / 2], atom: i });
-          bonds.push({ from: cj, to: [cj[0] - d[0] / 2, cj[1] - d[1] / 2, cj[2] - d[2] / 2], atom: j });
-        }
-      }
-    }
-  } else notes.push(`Bonds are not drawn for more than 4000 atoms (${n} here).`);
+  const radii = Float64Array.from(atoms, (a) => a.radius);
+  for (const { i, j, d } of findBonds(input.positions, radii, cell, inv, bondCutoffFactor)) {
+    const ci = atoms[i].centre;
+    const cj = atoms[j].centre;
+    bonds.push({ from: ci, to: [ci[0] + d[0] / 2, ci[1] + d[1] / 2, ci[2] + d[2] / 2], atom: i });
+    bonds.push({ from: cj, to: [cj[0] - d[0] / 2, cj[1] - d[1] / 2, cj[2] - d[2] / 2], atom: j });
+  }
 
   // Ellipsoids.
   const ellipsoids: SceneEllipsoid[] = [];
@@ -187,6 +180,16 @@ export function buildScene(input: SceneInput, mode: EllipsoidMode, bondCutoffFac
         ellipsoids.push(makeEllipsoid([r0[0] + c[0], r0[1] + c[1], r0[2] + c[2]], tensor, m, g));
       });
     }
+    // a tensor with a non-finite entry (a failed prediction) has no shape: leave it out and say so
+    const finite = ellipsoids.filter((e) => e.tensor.every(Number.isFinite));
+    if (finite.length < ellipsoids.length) {
+      const first = ellipsoids.find((e) => !e.tensor.every(Number.isFinite));
+      notes.push(
+        `${ellipsoids.length - finite.length} local tensor(s) contain values that are not finite numbers and are not drawn ` +
+          `(first: ${used === 'molecule' ? 'molecule' : 'atom'} ${first?.id}).`,
+      );
+      ellipsoids.splice(0, ellipsoids.length, ...finite);
+    }
     const neg = ellipsoids.filter((e) => e.negative).length;
     if (neg > 0) {
       notes.push(
@@ -194,7 +197,7 @@ export function buildScene(input: SceneInput, mode: EllipsoidMode, bondCutoffFac
           'A local contribution need not be positive definite; only the sum over the cell is a physical polarisability.',
       );
     }
-  } else used = mode === 'none' ? 'none' : used;
+  } else used = 'none'; // nothing to draw: say so in the title rather than promise ellipsoids
 
   // Bounding sphere for the camera: cell corners and atoms.
   const pts: V3[] = atoms.map((a) => a.centre);
@@ -235,8 +238,9 @@ export function ellipsoidLengthScale(
       if (j === i) continue;
       const a = ellipsoids[i].centre;
       const b = ellipsoids[j].centre;
-      const d = Math.hypot(...minimumImage([b[0] - a[0], b[1] - a[1], b[2] - a[2]], cell, inv));
-      if (d > 1e-6) best = Math.min(best, d);
+      const v = cell && inv ? roundedImage(b[0] - a[0], b[1] - a[1], b[2] - a[2], cell, inv) : [b[0] - a[0], b[1] - a[1], b[2] - a[2]];
+      const d = Math.sqrt(v[0] * v[0] + v[1] * v[1] + v[2] * v[2]);
+      if (d > 1e-6 && d < best) best = d;
     }
     if (Number.isFinite(best)) nearest.push(best);
   }
