@@ -55,8 +55,9 @@ async function isGzip(fh: FileHandle): Promise<boolean> {
 /**
  * The file's bytes (decompressed when it is gzip, recognised by its magic bytes), in chunks of about 1 MiB.
  * A plain file reuses one buffer: the consumer must be done with a chunk before asking for the next.
+ * `start` skips that many bytes (read directly from there for a plain file; decompressed and dropped for gzip).
  */
-export async function* byteChunks(file: string, signal?: AbortSignal): AsyncGenerator<Buffer> {
+export async function* byteChunks(file: string, signal?: AbortSignal, start = 0): AsyncGenerator<Buffer> {
   const fh = await openForReading(file);
   try {
     if (await isGzip(fh)) {
@@ -65,9 +66,12 @@ export async function* byteChunks(file: string, signal?: AbortSignal): AsyncGene
       raw.on('error', (e) => gunzip.destroy(e));
       raw.pipe(gunzip);
       try {
+        let at = 0;
         for await (const chunk of gunzip) {
           if (signal?.aborted) throw new CancelledError();
-          yield chunk as Buffer;
+          const end = at + (chunk as Buffer).length;
+          if (end > start) yield at >= start ? (chunk as Buffer) : (chunk as Buffer).subarray(start - at);
+          at = end;
         }
       } catch (err) {
         if (err instanceof CancelledError || err instanceof InputError) throw err;
@@ -83,7 +87,7 @@ export async function* byteChunks(file: string, signal?: AbortSignal): AsyncGene
       }
     } else {
       const buf = Buffer.allocUnsafe(CHUNK_BYTES);
-      let position = 0;
+      let position = start;
       for (;;) {
         if (signal?.aborted) throw new CancelledError();
         const { bytesRead } = await fh.read(buf, 0, CHUNK_BYTES, position);

@@ -1,0 +1,230 @@
+// Reading per-frame predictions back as time series for analysis: a prediction CSV (from `predict`, or a
+// tensor table from `convert`), or an extended XYZ file with pred_* info keys and per-atom local tensors.
+// Only the numbers are kept (9 per tensor per frame, 3 per dipole), never the frames, so long files fit.
+import { readFile } from 'node:fs/promises';
+import { cellVolume } from '../core/cell.ts';
+import { InputError } from '../core/errors.ts';
+import type { Frame } from '../core/frame.ts';
+import { parseCsv, type CsvTable } from './csv.ts';
+import { readExtxyz } from './extxyz.ts';
+
+export interface SpeciesSeries {
+  species: string;
+  /** Atoms of this species per frame (from the first frame; checked constant). */
+  atoms: number;
+  /** Sum over its atoms of the local tensors, 9 per frame. */
+  sum: number[];
+}
+
+export interface FarAtom {
+  frame: number;
+  atom: number;
+  species: string;
+  distance: number;
+}
+
+export interface TrajectorySeries {
+  file: string;
+  kind: 'csv' | 'extxyz';
+  frames: number[];
+  /** Cell volume per frame (Å³), when known. */
+  volume: number[] | null;
+  eps: Float64Array | null;
+  alphaCM: Float64Array | null;
+  alphaC: Float64Array | null;
+  /** Cell dipole per frame (3 numbers), when the file has one. */
+  dipole: Float64Array | null;
+  dipoleSource: string | null;
+  outside: boolean[] | null;
+  atomsOutside: number[] | null;
+  maxDistance: number[] | null;
+  threshold: number | null;
+  /** Per-species sums of per-atom local tensors (extended XYZ with local_* arrays). */
+  species: SpeciesSeries[] | null;
+  /** What the local tensors are ("local_alpha_cm_A3": α_CM contributions in Å³; "local_eps_minus_1": to ε − 1). */
+  localKind: string | null;
+  /** The atoms farthest from the training data (largest per-atom distance), at most 10. */
+  farthest: FarAtom[];
+}
+
+const VOIGT = ['xx', 'yy', 'zz', 'yz', 'xz', 'xy'];
+const SLOT: Record<string, [number, number]> = { xx: [0, 0], yy: [4, 4], zz: [8, 8], yz: [5, 7], xz: [2, 6], xy: [1, 3] };
+
+function tensorColumns(t: CsvTable, names: (c: string) => string): Float64Array | null {
+  const cols = VOIGT.map(names);
+  if (!cols.every((c) => t.columns.includes(c))) return null;
+  const n = t.records.length;
+  const out = new Float64Array(9 * n);
+  VOIGT.forEach((c, k) => {
+    const v = t.numbers(cols[k]);
+    const [a, b] = SLOT[c];
+    for (let f = 0; f < n; f++) {
+      out[9 * f + a] = v[f];
+      out[9 * f + b] = v[f];
+    }
+  });
+  return out;
+}
+
+function fromCsv(t: CsvTable): TrajectorySeries {
+  const has = (c: string) => t.columns.includes(c);
+  if (!has('frame')) throw new InputError("no 'frame' column", { file: t.file }, 'analyse reads the CSV that `predict` writes');
+  const eps = tensorColumns(t, (c) => `eps_${c}`);
+  const alphaCM = tensorColumns(t, (c) => `alpha_cm_A3_${c}`) ?? tensorColumns(t, (c) => `alpha_cm_${c}_A3`);
+  const alphaC = tensorColumns(t, (c) => `alpha_c_A3_${c}`) ?? tensorColumns(t, (c) => `alpha_c_${c}_A3`);
+  let dipole: Float64Array | null = null;
+  let dipoleSource: string | null = null;
+  for (const p of ['dipole', 'value']) {
+    if ([`${p}_x`, `${p}_y`, `${p}_z`].every(has)) {
+      const xs = ['x', 'y', 'z'].map((a) => t.numbers(`${p}_${a}`));
+      dipole = new Float64Array(3 * t.records.length);
+      for (let f = 0; f < t.records.length; f++) for (let a = 0; a < 3; a++) dipole[3 * f + a] = xs[a][f];
+      dipoleSource = `columns ${p}_x, ${p}_y, ${p}_z`;
+      break;
+    }
+  }
+  if (!eps && !alphaCM && !alphaC && !dipole) {
+    throw new InputError('no tensor columns (eps_xx …, alpha_cm_A3_xx …) and no dipole columns', { file: t.file }, 'analyse reads the CSV that `predict` writes');
+  }
+  const threshold = has('threshold') ? t.numbers('threshold') : null;
+  return {
+    file: t.file,
+    kind: 'csv',
+    frames: Array.from(t.numbers('frame')),
+    volume: has('volume_A3') ? Array.from(t.numbers('volume_A3')) : null,
+    eps,
+    alphaCM,
+    alphaC,
+    dipole,
+    dipoleSource,
+    outside: has('outside') ? Array.from(t.numbers('outside'), (x) => x !== 0) : null,
+    atomsOutside: has('atoms_outside') ? Array.from(t.numbers('atoms_outside')) : null,
+    maxDistance: has('max_distance') ? Array.from(t.numbers('max_distance')) : null,
+    threshold: threshold && threshold.length > 0 ? threshold[0] : null,
+    species: null,
+    localKind: null,
+    farthest: [],
+  };
+}
+
+function infoTensor(frame: Frame, key: string, index: number, file: string): number[] | null {
+  const v = frame.info[key];
+  if (v === undefined) return null;
+  if (!Array.isArray(v) || (v.length !== 9 && v.length !== 3)) throw new InputError(`info key ${key} is not a 3×3 tensor or a vector`, { file, frame: index }, 'analyse reads what `predict` writes');
+  return v as number[];
+}
+
+async function fromExtxyz(file: string, signal?: AbortSignal): Promise<TrajectorySeries> {
+  const frames: number[] = [];
+  const volume: number[] = [];
+  const eps: number[] = [];
+  const alphaCM: number[] = [];
+  const alphaC: number[] = [];
+  const dipole: number[] = [];
+  let dipoleKey: string | null = null;
+  const outside: boolean[] = [];
+  const maxDistance: number[] = [];
+  let species: SpeciesSeries[] | null = null;
+  let speciesOf: number[] = [];
+  let localKind: string | null = null;
+  let farthest: FarAtom[] = [];
+  let k = 0;
+  for await (const fr of readExtxyz(file, { signal })) {
+    const index = typeof fr.info.pred_frame === 'number' ? fr.info.pred_frame : (fr.source?.index ?? k);
+    const e = infoTensor(fr, 'pred_eps', index, file) ?? infoTensor(fr, 'eps_inf', index, file);
+    const acm = infoTensor(fr, 'pred_alpha_cm_A3', index, file);
+    const ac = infoTensor(fr, 'pred_alpha_c_A3', index, file);
+    if (k === 0) dipoleKey = ['pred_dipole', 'dipole'].find((d) => Array.isArray(fr.info[d]) && (fr.info[d] as number[]).length === 3) ?? null;
+    const need = (ok: boolean, what: string) => {
+      if (!ok) throw new InputError(`frame has no ${what} but the first frame has`, { file, frame: index }, 'every frame must carry the same keys');
+    };
+    if (k === 0 || eps.length > 0) {
+      if (e) eps.push(...e);
+      else need(k === 0, 'pred_eps');
+    }
+    if (k === 0 || alphaCM.length > 0) {
+      if (acm) alphaCM.push(...acm);
+      else need(k === 0, 'pred_alpha_cm_A3');
+    }
+    if (k === 0 || alphaC.length > 0) {
+      if (ac) alphaC.push(...ac);
+      else need(k === 0, 'pred_alpha_c_A3');
+    }
+    if (dipoleKey) {
+      const d = fr.info[dipoleKey];
+      need(Array.isArray(d) && d.length === 3, dipoleKey);
+      dipole.push(...(d as number[]));
+    }
+    frames.push(index);
+    if (fr.cell) volume.push(Math.abs(cellVolume(fr.cell)));
+    if (typeof fr.info.pred_outside === 'boolean') outside.push(fr.info.pred_outside);
+    if (typeof fr.info.pred_max_distance === 'number') maxDistance.push(fr.info.pred_max_distance);
+    // per-species contributions from the per-atom local tensors
+    const localName: string | null = k === 0 ? (['local_alpha_cm_A3', 'local_eps_minus_1'].find((n) => fr.arrays[n]?.width === 9) ?? null) : localKind;
+    if (k === 0 && localName) {
+      localKind = localName;
+      const names = [...new Set(fr.species)].sort();
+      species = names.map((s) => ({ species: s, atoms: fr.species.filter((x) => x === s).length, sum: [] }));
+      speciesOf = fr.species.map((s) => names.indexOf(s));
+    }
+    if (species && localName) {
+      const arr = fr.arrays[localName];
+      if (!arr || arr.width !== 9 || fr.species.length !== speciesOf.length || fr.species.some((s, i) => species![speciesOf[i]].species !== s)) {
+        throw new InputError('the atoms (count, order or species) or the local tensors differ from the first frame', { file, frame: index }, 'per-species contributions need the same atoms in every frame');
+      }
+      const sums = species.map(() => new Float64Array(9));
+      const data = arr.data as Float64Array;
+      for (let i = 0; i < speciesOf.length; i++) for (let c = 0; c < 9; c++) sums[speciesOf[i]][c] += data[9 * i + c];
+      species.forEach((s, j) => s.sum.push(...sums[j]));
+    }
+    const dist = fr.arrays.feature_distance;
+    if (dist && dist.width === 1) {
+      const d = dist.data as Float64Array;
+      for (let i = 0; i < d.length; i++) {
+        if (farthest.length < 10 || d[i] > farthest[farthest.length - 1].distance) {
+          farthest.push({ frame: index, atom: i, species: fr.species[i], distance: d[i] });
+          farthest.sort((a, b) => b.distance - a.distance);
+          if (farthest.length > 10) farthest = farthest.slice(0, 10);
+        }
+      }
+    }
+    k++;
+  }
+  if (eps.length === 0 && alphaCM.length === 0 && alphaC.length === 0 && dipole.length === 0) {
+    throw new InputError('the frames carry no pred_eps / pred_alpha_cm_A3 / pred_alpha_c_A3 (or eps_inf) keys', { file }, 'analyse reads what `predict … -o OUT.extxyz` writes');
+  }
+  const arr = (xs: number[]) => (xs.length > 0 ? Float64Array.from(xs) : null);
+  return {
+    file,
+    kind: 'extxyz',
+    frames,
+    volume: volume.length === frames.length ? volume : null,
+    eps: arr(eps),
+    alphaCM: arr(alphaCM),
+    alphaC: arr(alphaC),
+    dipole: arr(dipole),
+    dipoleSource: dipoleKey ? `info key ${dipoleKey}` : null,
+    outside: outside.length === frames.length ? outside : null,
+    atomsOutside: null,
+    maxDistance: maxDistance.length === frames.length ? maxDistance : null,
+    threshold: null,
+    species,
+    localKind,
+    farthest,
+  };
+}
+
+/** Read a prediction file (by extension: .csv, or extended XYZ). */
+export async function readTrajectorySeries(file: string, signal?: AbortSignal): Promise<TrajectorySeries> {
+  if (/\.csv$/i.test(file)) {
+    let text: string;
+    try {
+      text = await readFile(file, 'utf8');
+    } catch {
+      throw new InputError('file not found', { file }, 'check the path');
+    }
+    return fromCsv(parseCsv(text, file));
+  }
+  if (/\.(ext)?xyz(\.gz)?$/i.test(file)) return fromExtxyz(file, signal);
+  throw new InputError('cannot tell the file kind from its name', { file }, 'give a .csv or .extxyz file written by `predict`');
+}

@@ -1,0 +1,176 @@
+// The window's one way to the computation. At start it picks the Electron bridge (window.polarweave, from
+// the preload) or the browser host (HTTP on 127.0.0.1 with the per-run token from the URL fragment); the
+// views call `client.call(method, input)` and never know which.
+import type { ApiError, ApiInput, ApiMethod, ApiOutput, ApiResponse, AppState, DatasetSummary } from '../../src-main/api.ts';
+
+/** A file handed to a save dialog or a download. */
+export interface SaveRequest {
+  fileName: string;
+  mime: string;
+  text?: string;
+  /** Binary content (PNG), base64. */
+  base64?: string;
+}
+
+/** What the preload exposes (src-main/shell/preload.ts); keep the two in step. */
+export interface ShellBridge {
+  call(method: string, payload: unknown): Promise<ApiResponse<unknown>>;
+  openStructuresDialog(): Promise<ApiResponse<DatasetSummary[]>>;
+  openProjectDialog(): Promise<ApiResponse<(AppState & { ui: Record<string, unknown> | null }) | null>>;
+  saveFile(request: SaveRequest): Promise<ApiResponse<{ saved: boolean; path?: string }>>;
+  onMenu(listener: (command: string) => void): void;
+}
+
+declare global {
+  interface Window {
+    polarweave?: ShellBridge;
+  }
+}
+
+export class CallError extends Error {
+  constructor(readonly error: ApiError) {
+    super(error.message);
+    this.name = error.name;
+  }
+}
+
+export interface Client {
+  kind: 'electron' | 'browser';
+  call<M extends ApiMethod>(method: M, input: ApiInput<M>): Promise<ApiOutput<M>>;
+  /** Asks for structure files (dialog or file picker) and opens them. */
+  openStructures(): Promise<DatasetSummary[]>;
+  /** Opens files dropped on the window. */
+  openDropped(files: FileList | File[]): Promise<DatasetSummary[]>;
+  openProject(): Promise<(AppState & { ui: Record<string, unknown> | null }) | null>;
+  save(request: SaveRequest): Promise<{ saved: boolean; path?: string }>;
+  onMenu(listener: (command: string) => void): void;
+}
+
+function unwrap<T>(r: ApiResponse<T>): T {
+  if (r.ok) return r.value;
+  throw new CallError(r.error);
+}
+
+async function fileToPayload(file: File): Promise<{ name: string; text: string } | { name: string; base64: string }> {
+  const bytes = new Uint8Array(await file.arrayBuffer());
+  const gz = bytes.length >= 2 && bytes[0] === 0x1f && bytes[1] === 0x8b;
+  if (!gz) return { name: file.name, text: new TextDecoder().decode(bytes) };
+  let binary = '';
+  for (let i = 0; i < bytes.length; i += 0x8000) binary += String.fromCharCode(...bytes.subarray(i, i + 0x8000));
+  return { name: file.name, base64: btoa(binary) };
+}
+
+export const STRUCTURE_ACCEPT = '.xyz,.extxyz,.gz,.cif';
+
+function pickFiles(accept: string, multiple: boolean): Promise<File[]> {
+  return new Promise((resolve) => {
+    const input = document.createElement('input');
+    input.type = 'file';
+    input.accept = accept;
+    input.multiple = multiple;
+    input.style.display = 'none';
+    input.addEventListener('change', () => {
+      resolve(input.files ? [...input.files] : []);
+      input.remove();
+    });
+    input.addEventListener('cancel', () => {
+      resolve([]);
+      input.remove();
+    });
+    document.body.appendChild(input);
+    input.click();
+  });
+}
+
+function download(request: SaveRequest): void {
+  let blob: Blob;
+  if (request.base64 !== undefined) {
+    const bin = atob(request.base64);
+    const bytes = new Uint8Array(bin.length);
+    for (let i = 0; i < bin.length; i++) bytes[i] = bin.charCodeAt(i);
+    blob = new Blob([bytes], { type: request.mime });
+  } else blob = new Blob([request.text ?? ''], { type: request.mime });
+  const url = URL.createObjectURL(blob);
+  const a = document.createElement('a');
+  a.href = url;
+  a.download = request.fileName;
+  document.body.appendChild(a);
+  a.click();
+  a.remove();
+  setTimeout(() => URL.revokeObjectURL(url), 10_000);
+}
+
+function electronClient(bridge: ShellBridge): Client {
+  const call = async <M extends ApiMethod>(method: M, input: ApiInput<M>) => unwrap(await bridge.call(method, input)) as ApiOutput<M>;
+  return {
+    kind: 'electron',
+    call,
+    openStructures: async () => unwrap(await bridge.openStructuresDialog()),
+    openDropped: async (files) => {
+      const out: DatasetSummary[] = [];
+      for (const f of [...files]) out.push(await call('openStructures', await fileToPayload(f)));
+      return out;
+    },
+    openProject: async () => unwrap(await bridge.openProjectDialog()),
+    save: async (request) => unwrap(await bridge.saveFile(request)),
+    onMenu: (l) => bridge.onMenu(l),
+  };
+}
+
+export const TOKEN_HEADER = 'x-polarweave-token';
+
+function browserClient(token: string): Client {
+  const call = async <M extends ApiMethod>(method: M, input: ApiInput<M>): Promise<ApiOutput<M>> => {
+    let res: Response;
+    try {
+      res = await fetch(`/api/${method}`, {
+        method: 'POST',
+        headers: { 'content-type': 'application/json', [TOKEN_HEADER]: token },
+        body: JSON.stringify(input ?? {}),
+      });
+    } catch {
+      throw new CallError({ name: 'ConnectionError', message: 'the app’s computation process is not answering (was `npm start` stopped?)' });
+    }
+    const body = (await res.json().catch(() => null)) as ApiResponse<ApiOutput<M>> | null;
+    if (!body) throw new CallError({ name: 'ConnectionError', message: `unexpected answer from the host (HTTP ${res.status})` });
+    return unwrap(body);
+  };
+  const openFiles = async (files: File[]) => {
+    const out: DatasetSummary[] = [];
+    for (const f of files) out.push(await call('openStructures', await fileToPayload(f)));
+    return out;
+  };
+  return {
+    kind: 'browser',
+    call,
+    openStructures: async () => openFiles(await pickFiles(STRUCTURE_ACCEPT, true)),
+    openDropped: async (files) => openFiles([...files]),
+    openProject: async () => {
+      const [f] = await pickFiles('.json,.pwproj', false);
+      if (!f) return null;
+      return call('openProject', { name: f.name, text: await f.text() });
+    },
+    save: async (request) => {
+      download(request);
+      return { saved: true };
+    },
+    onMenu: () => {},
+  };
+}
+
+/** The browser host's token: from the URL fragment on first load, then from this tab's session storage. */
+function hostToken(): string | null {
+  const m = /(?:^#|&)token=([0-9a-f]+)/.exec(location.hash);
+  if (m) {
+    sessionStorage.setItem('pw-token', m[1]);
+    history.replaceState(null, '', location.pathname + location.search);
+    return m[1];
+  }
+  return sessionStorage.getItem('pw-token');
+}
+
+export function makeClient(): Client | null {
+  if (window.polarweave) return electronClient(window.polarweave);
+  const token = hostToken();
+  return token ? browserClient(token) : null;
+}

@@ -1,0 +1,34 @@
+// Number formatting for tables and labels: a fixed number of significant digits, ranges, 3×3 matrices.
+import type { Range } from '../../src-main/api.ts';
+
+export function fmt(v: number | null | undefined, digits = 4): string {
+  if (v === null || v === undefined || !Number.isFinite(v)) return '—';
+  if (v === 0) return '0';
+  const a = Math.abs(v);
+  if (a >= 1e5 || a < 1e-3) return v.toExponential(digits - 1);
+  return Number(v.toPrecision(digits)).toString();
+}
+
+export function fmtRange(r: Range | null | undefined, digits = 4, unit = ''): string {
+  if (!r) return '—';
+  const u = unit ? ` ${unit}` : '';
+  if (r.min === r.max) return `${fmt(r.min, digits)}${u}`;
+  return `${fmt(r.min, digits)} – ${fmt(r.max, digits)}${u}`;
+}
+
+/** Rows of a 3×3 matrix given as 9 numbers (row-major) or 6 in Voigt order xx yy zz yz xz xy. */
+export function matrixRows(v: number[]): number[][] {
+  if (v.length === 6) {
+    const [xx, yy, zz, yz, xz, xy] = v;
+    return [
+      [xx, xy, xz],
+      [xy, yy, yz],
+      [xz, yz, zz],
+    ];
+  }
+  return [v.slice(0, 3), v.slice(3, 6), v.slice(6, 9)];
+}
+
+export function percent(v: number): string {
+  return Number.isFinite(v) ? `${v.toFixed(1)} %` : '—';
+}
