@@ -320,13 +320,8 @@ export const openStructuresSchema = z.union([
   z.object({ path: z.string().min(1).max(4096) }).strict(),
 ]);
 
-export const exportCsvSchema = z
-  .object({
-    predictionId: id,
-    /** Which tensor to write. */
-    tensor: tensorKindSchema.default('eps'),
-  })
-  .strict();
+/** The CSV holds ε, α_CM and α_c of every predicted frame (the same columns as `polarweave predict`). */
+export const exportCsvSchema = z.object({ predictionId: id }).strict();
 
 export const apiSchemas = {
   loadDemo: z.object({}).strict(),

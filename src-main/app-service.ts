@@ -434,9 +434,9 @@ export class AppService implements ApiService {
     const p = this.predictionRecord(params.predictionId);
     const d = this.dataset(p.summary.datasetId);
     const m = this.modelRecord(p.summary.modelId);
-    const text = predictionsCsv(p.summary.frames, params.tensor, { dataset: d.summary.name, model: m.summary.name, frames: d.frames });
+    const text = predictionsCsv(p.summary.frames, p.local, p.atomDistance, d.frames, m.summary.name);
     const stem = d.summary.name.replace(/\.(ext)?xyz$|\.cif$/i, '');
-    return { fileName: `${stem}-${params.tensor}-predicted.csv`, mime: 'text/csv', text };
+    return { fileName: `${stem}-predicted.csv`, mime: 'text/csv', text };
   }
 
   async exportModel(params: ApiParams<'exportModel'>): Promise<FileOut> {
@@ -447,11 +447,17 @@ export class AppService implements ApiService {
 
   async importModel(params: ApiParams<'importModel'>): Promise<ModelSummary> {
     const model = this.options.codec.parse(params.text, params.name);
-    const mm = model as { request?: ModelSummary['request'] } | null;
-    if (!mm?.request) throw new ModelError(`${params.name}: the model file does not say what it was trained on (no "request")`);
+    const target = (model as { target?: { key?: unknown; kind?: unknown; route?: unknown; shape?: unknown } } | null)?.target;
+    if (!target || typeof target.key !== 'string' || (target.route !== 'cm' && target.route !== 'direct')) {
+      throw new ModelError(`${params.name}: the model file does not say what it was trained on (no target)`);
+    }
+    if (target.shape !== undefined && target.shape !== 'tensor') {
+      throw new ModelError(`${params.name}: this model predicts a ${String(target.shape)}, not a cell tensor; use it with \`polarweave predict\``);
+    }
+    const kind = target.kind === 'eps' || target.kind === 'alpha-c' || target.kind === 'alpha-cm' ? target.kind : 'eps';
     return this.registerModel(model, {
       name: params.name.replace(/\.pwmodel\.json$|\.json$/i, ''),
-      request: mm.request,
+      request: { tensorKey: target.key, kind, route: target.route },
       trainedOn: { datasetId: null, datasetName: params.name, frames: 0 },
       report: null,
       test: null,
