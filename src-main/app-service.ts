@@ -243,7 +243,7 @@ export class AppService implements ApiService {
     if (params.kind === 'train' || params.kind === 'validate') {
       const p = params.params;
       const d = this.dataset(p.datasetId);
-      const test = params.kind === 'train' ? this.selectFrames(d, params.params.testFrames) : [];
+      const test = params.kind === 'train' && params.params.testFrames ? this.selectFrames(d, params.params.testFrames) : [];
       const train = this.selectFrames(d, p.frames, test);
       if (train.length < p.folds) throw new ApiValidationError(`${train.length} training frames cannot be split into ${p.folds} folds; use fewer folds or more frames`);
       this.checkTensorKey(d, p.request.tensorKey, [...train, ...test]);
