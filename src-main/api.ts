@@ -183,6 +183,8 @@ export interface FrameDetail {
   /** Per atom: distance to the nearest training environment. */
   atomDistance: number[];
   route: RouteJ;
+  /** Molecule index of each atom (covalent bonds), or null when molecules cannot be found. */
+  molecules: number[] | null;
 }
 
 export interface TrajectoryStats {

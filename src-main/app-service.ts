@@ -25,6 +25,7 @@ import type {
 import { toApiError, ApiValidationError } from './api.ts';
 import type { Frame } from './core/frame.ts';
 import { InputError, ModelError } from './core/errors.ts';
+import { findMolecules } from './core/molecules.ts';
 import { blockAverage, runningMean } from './core/statistics.ts';
 import type { JobHandle, JobRunner } from './jobs/runner.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './jobs/app-task-types.ts';
@@ -384,7 +385,14 @@ export class AppService implements ApiService {
     const k = p.summary.frames.findIndex((f) => f.frame === params.index);
     if (k < 0) throw new ApiValidationError(`prediction ${p.summary.id} has no frame ${params.index}`);
     const d = this.dataset(p.summary.datasetId);
+    let molecules: number[] | null = null;
+    try {
+      molecules = Array.from(findMolecules(d.frames[params.index]).molecule);
+    } catch {
+      molecules = null; // an element without a covalent radius: per-atom view only
+    }
     return {
+      molecules,
       frame: frameView(d.summary.id, params.index, d.frames[params.index]),
       prediction: p.summary.frames[k],
       local: p.local[k],
