@@ -201,6 +201,8 @@ export interface TrajectoryStats {
   /** Block sizes tried and the standard error of the isotropic mean at each (plateau = the reported error). */
   blocking: { blockSize: number; error: number }[];
   meanRefractive: number[];
+  /** Block-averaged standard error of each mean principal index. */
+  refractiveError: number[];
   birefringence: number;
 }
 

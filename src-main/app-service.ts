@@ -413,7 +413,8 @@ export class AppService implements ApiService {
       return { value: b.mean, error: b.standardError };
     };
     const isoBlock = blockAverage(iso);
-    const meanRefractive = fr[0].refractive.map((_, c) => fr.reduce((s, f) => s + f.refractive[c], 0) / fr.length);
+    const refractiveBlocks = [0, 1, 2].map((c) => blockAverage(fr.map((f) => f.refractive[c])));
+    const meanRefractive = refractiveBlocks.map((b) => b.mean);
     return {
       predictionId: p.summary.id,
       frames: fr.map((f) => f.frame),
@@ -431,6 +432,7 @@ export class AppService implements ApiService {
       },
       blocking: isoBlock.levels.map((l) => ({ blockSize: l.blockSize, error: l.standardError })),
       meanRefractive,
+      refractiveError: refractiveBlocks.map((b) => b.standardError),
       birefringence: Math.max(...meanRefractive) - Math.min(...meanRefractive),
     };
   }
