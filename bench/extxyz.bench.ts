@@ -36,11 +36,24 @@ function templateFrames(count: number): Frame[] {
   return frames;
 }
 
+/** Wall-clock and CPU seconds of this process since `start` (CPU time is the fairer figure on a shared machine). */
+function clock(): () => { wall: number; cpu: number; text: (mb: number) => string } {
+  const t0 = performance.now();
+  const c0 = process.cpuUsage();
+  return () => {
+    const wall = (performance.now() - t0) / 1000;
+    const c = process.cpuUsage(c0);
+    const cpu = (c.user + c.system) / 1e6;
+    return { wall, cpu, text: (mb: number) => `${wall.toFixed(1)} s wall = ${(mb / wall).toFixed(0)} MB/s (${cpu.toFixed(1)} s CPU = ${(mb / cpu).toFixed(0)} MB per CPU-s)` };
+  };
+}
+
 function rssMB(): number {
   return process.memoryUsage().rss / MB;
 }
 
 export async function run(): Promise<void> {
+  console.log(`conditions: node ${process.version}, one thread, ${os.cpus().length} cores shared with other work (load average ${os.loadavg()[0].toFixed(1)})`);
   const targetMB = Number(process.env.POLARWEAVE_BENCH_MB ?? 1024);
   const dir = mkdtempSync(path.join(os.tmpdir(), 'pw-bench-extxyz-'));
   const file = path.join(dir, 'big.extxyz');
@@ -51,27 +64,28 @@ export async function run(): Promise<void> {
     const nFrames = Math.max(2, Math.round((targetMB * MB) / frameBytes));
 
     // formatter rate (a sample; the big file repeats 16 formatted frames to save time)
-    let t = performance.now();
+    let c = clock();
     const sample = Math.min(nFrames, 500);
     let chars = 0;
     for (let k = 0; k < sample; k++) chars += formatExtxyzFrame(templates[k % 16]).length;
-    let s = (performance.now() - t) / 1000;
-    console.log(`format   : ${sample} frames × ${ATOMS} atoms in ${s.toFixed(2)} s = ${(chars / MB / s).toFixed(0)} MB/s, ${(sample / s).toFixed(0)} frames/s`);
+    let r = c();
+    console.log(`format   : ${sample} frames × ${ATOMS} atoms in ${r.text(chars / MB)}, ${(sample / r.cpu).toFixed(0)} frames per CPU-s`);
 
-    t = performance.now();
+    c = clock();
     const out = atomicWriteStream(file);
     for (let k = 0; k < nFrames; k++) await out.write(texts[k % 16]);
     await out.commit();
-    s = (performance.now() - t) / 1000;
+    r = c();
     const bytes = statSync(file).size;
-    console.log(`write    : ${(bytes / MB).toFixed(0)} MB, ${nFrames} frames (${ATOMS} atoms each) via atomicWriteStream in ${s.toFixed(1)} s = ${(bytes / MB / s).toFixed(0)} MB/s`);
+    const fileMB = bytes / MB;
+    console.log(`write    : ${fileMB.toFixed(0)} MB, ${nFrames} frames (${ATOMS} atoms each) via atomicWriteStream in ${r.text(fileMB)}`);
 
     // streamed read with memory sampling
     if (global.gc) global.gc();
     const rss0 = rssMB();
     let peak = rss0;
     const sampler = setInterval(() => (peak = Math.max(peak, rssMB())), 50);
-    t = performance.now();
+    c = clock();
     let frames = 0;
     let atoms = 0;
     let checksum = 0;
@@ -81,33 +95,33 @@ export async function run(): Promise<void> {
       checksum += f.positions[0];
       if (frames === 1 || frames % 5000 === 0) peak = Math.max(peak, rssMB());
     }
-    s = (performance.now() - t) / 1000;
+    r = c();
     clearInterval(sampler);
     peak = Math.max(peak, rssMB());
     console.log(
-      `read     : ${frames} frames, ${atoms} atoms in ${s.toFixed(1)} s = ${(bytes / MB / s).toFixed(0)} MB/s, ${(frames / s).toFixed(0)} frames/s, ` +
-        `${((atoms / s) / 1e6).toFixed(2)} M atoms/s; RSS before ${rss0.toFixed(0)} MB, peak during read ${peak.toFixed(0)} MB (checksum ${checksum.toFixed(3)})`,
+      `read     : ${frames} frames, ${(atoms / 1e6).toFixed(1)} M atoms in ${r.text(fileMB)}; ${(frames / r.wall).toFixed(0)} frames/s wall, ` +
+        `${(frames / r.cpu).toFixed(0)} frames per CPU-s; RSS before ${rss0.toFixed(0)} MB, peak during read ${peak.toFixed(0)} MB (checksum ${checksum.toFixed(3)})`,
     );
     if (frames !== nFrames) console.log(`!! read ${frames} frames, wrote ${nFrames}`);
 
     // every 100th frame only (range skips the others without parsing numbers)
-    t = performance.now();
+    c = clock();
     let picked = 0;
     for await (const _f of readExtxyz(file, { range: { step: 100 } })) picked++;
-    s = (performance.now() - t) / 1000;
-    console.log(`range    : every 100th frame (${picked} frames) in ${s.toFixed(1)} s = ${(bytes / MB / s).toFixed(0)} MB/s scanned`);
+    r = c();
+    console.log(`range    : every 100th frame (${picked} frames) in ${r.text(fileMB)} scanned`);
 
-    t = performance.now();
+    c = clock();
     const idx = await indexExtxyz(file);
-    s = (performance.now() - t) / 1000;
-    console.log(`index    : ${idx.frames} frames in ${s.toFixed(1)} s = ${(bytes / MB / s).toFixed(0)} MB/s, ${(idx.frames / s).toFixed(0)} frames/s`);
+    r = c();
+    console.log(`index    : ${idx.frames} frames in ${r.text(fileMB)}, ${(idx.frames / r.wall).toFixed(0)} frames/s wall`);
 
-    t = performance.now();
+    c = clock();
     const rng = makeRng(7);
     const picks = 200;
     for (let k = 0; k < picks; k++) await readFrameAt(file, idx, Math.floor(rng.uniform() * idx.frames));
-    s = (performance.now() - t) / 1000;
-    console.log(`random   : readFrameAt ${picks} random frames in ${s.toFixed(2)} s = ${((s / picks) * 1000).toFixed(2)} ms per frame`);
+    r = c();
+    console.log(`random   : readFrameAt ${picks} random frames in ${r.wall.toFixed(2)} s = ${((r.wall / picks) * 1000).toFixed(2)} ms per frame wall (${((r.cpu / picks) * 1000).toFixed(2)} ms CPU)`);
 
     // gzip: compress the first ~10 % and stream it back
     const gz = path.join(dir, 'part.extxyz.gz');
@@ -115,11 +129,11 @@ export async function run(): Promise<void> {
     const plain = idx.offsets[gzWanted];
     await pipeline(createReadStream(file, { start: 0, end: plain - 1 }), createGzip({ level: 1 }), createWriteStream(gz));
     rmSync(file);
-    t = performance.now();
+    c = clock();
     let gzFrames = 0;
     for await (const _f of readExtxyz(gz)) gzFrames++;
-    s = (performance.now() - t) / 1000;
-    console.log(`gzip read: ${gzFrames} frames (${(plain / MB).toFixed(0)} MB of text, ${(statSync(gz).size / MB).toFixed(0)} MB compressed) in ${s.toFixed(1)} s = ${(plain / MB / s).toFixed(0)} MB/s of text`);
+    r = c();
+    console.log(`gzip read: ${gzFrames} frames (${(plain / MB).toFixed(0)} MB of text, ${(statSync(gz).size / MB).toFixed(0)} MB compressed) in ${r.text(plain / MB)} of text`);
   } finally {
     rmSync(dir, { recursive: true, force: true });
   }

@@ -99,6 +99,8 @@ export interface RadialTable {
 }
 
 const tableCache = new Map<string, RadialTable>();
+/** Tables kept (about 0.5 MB each at nmax 8, lmax 6); the oldest is dropped beyond this. */
+const TABLE_CACHE_SIZE = 12;
 
 /** The tabulated radial integrals for these settings (built once, then cached by value of the settings). */
 export function radialTable(s: RadialSettings): RadialTable {
@@ -132,6 +134,7 @@ export function radialTable(s: RadialSettings): RadialTable {
     }
   }
   const table = { settings: { ...s }, spacing: h, intervals, coefficients };
+  if (tableCache.size >= TABLE_CACHE_SIZE) tableCache.delete(tableCache.keys().next().value as string);
   tableCache.set(key, table);
   return table;
 }
@@ -188,7 +191,6 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const NL = nmax * L1;
   const size = channels * nmax * LL;
   const Y = new Float64Array(LL);
-  const rad = new Float64Array(NL);
   const FOUR_PI = 4 * Math.PI;
   // The centre's own Gaussian: f_c(0) Y_00 I_n0(0) in the l = 0 slot of its channel.
   const self = new Float64Array(NL);
@@ -197,7 +199,13 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   for (let n = 0; n < nmax; n++) selfTerm[n] = (FOUR_PI / Math.sqrt(4 * Math.PI)) * self[n * L1];
   const inner = cutoff - cutoffWidth;
   const switchScale = Math.PI / cutoffWidth;
-  const coefficients = table.coefficients;
+  // The table's coefficients reordered from n·(lmax+1) + l to l·nmax + n within each (interval, power).
+  const byDegree = new Float64Array(table.coefficients.length);
+  for (let b = 0; b < table.coefficients.length; b += NL) {
+    for (let n = 0; n < nmax; n++) for (let l = 0; l <= lmax; l++) byDegree[b + l * nmax + n] = table.coefficients[b + n * L1 + l];
+  }
+  const radial = new Float64Array(NL);
+  const work = new Float64Array(size);
   const intervals = table.intervals;
   const invSpacing = 1 / table.spacing;
 
@@ -205,38 +213,46 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     settings: { ...s },
     size,
     expand(pairs, centre, centreChannel, channelOf, out) {
-      out.fill(0, 0, size);
-      if (centreChannel >= 0) for (let n = 0; n < nmax; n++) out[(centreChannel * nmax + n) * LL] += selfTerm[n];
+      // Locals, not closure slots, in the loop (V8 keeps them in registers).
+      const coef = byDegree, Yl = Y, rl = radial, acc = work, cut = cutoff, inn = inner, sw = switchScale, inv = invSpacing, last = intervals;
+      acc.fill(0);
       const { start, neighbour, vectors, distances } = pairs;
       const end = start[centre + 1];
       for (let p = start[centre]; p < end; p++) {
         const d = distances[p];
-        if (!(d < cutoff)) continue;
+        if (!(d < cut)) continue;
         const a = channelOf[neighbour[p]];
         if (a < 0) continue;
-        realSphericalHarmonics(lmax, vectors[3 * p], vectors[3 * p + 1], vectors[3 * p + 2], Y);
-        const fc = d <= inner ? 1 : 0.5 * (1 + Math.cos(switchScale * (d - inner)));
-        const w = FOUR_PI * fc;
-        // Radial integrals by the cubic pieces of interval k.
-        const u = d * invSpacing;
+        realSphericalHarmonics(lmax, vectors[3 * p], vectors[3 * p + 1], vectors[3 * p + 2], Yl);
+        const w = d <= inn ? FOUR_PI : FOUR_PI * 0.5 * (1 + Math.cos(sw * (d - inn)));
+        // Radial integrals by the cubic pieces of interval k, ordered l·nmax + n.
+        const u = d * inv;
         let k = Math.floor(u);
-        if (k >= intervals) k = intervals - 1;
+        if (k >= last) k = last - 1;
         const t = u - k;
-        const b0 = k * 4 * NL;
-        for (let q = 0; q < NL; q++) {
-          rad[q] = w * (coefficients[b0 + q] + t * (coefficients[b0 + NL + q] + t * (coefficients[b0 + 2 * NL + q] + t * coefficients[b0 + 3 * NL + q])));
-        }
-        const channelBase = a * nmax * LL;
-        for (let n = 0; n < nmax; n++) {
-          const rowBase = channelBase + n * LL;
-          for (let l = 0; l <= lmax; l++) {
-            const r = rad[n * L1 + l];
-            const lo = l * l;
-            const hi = lo + 2 * l + 1;
-            for (let m = lo; m < hi; m++) out[rowBase + m] += r * Y[m];
+        const t2 = t * t, t3 = t2 * t;
+        const q0 = k * 4 * NL, q1 = q0 + NL, q2 = q1 + NL, q3 = q2 + NL;
+        for (let j = 0; j < NL; j++) rl[j] = w * (coef[q0 + j] + t * coef[q1 + j] + t2 * coef[q2 + j] + t3 * coef[q3 + j]);
+        // Accumulate in the work layout (a·LL + lm)·nmax + n: the inner loop runs over n, contiguous.
+        const base = a * LL * nmax;
+        for (let l = 0; l <= lmax; l++) {
+          const rb = l * nmax;
+          const hi = (l + 1) * (l + 1);
+          for (let lm = l * l; lm < hi; lm++) {
+            const y = Yl[lm];
+            const ob = base + lm * nmax;
+            for (let n = 0; n < nmax; n++) acc[ob + n] += y * rl[rb + n];
           }
         }
       }
+      // Back to the public layout (a·nmax + n)·LL + lm, plus the centre's own Gaussian.
+      for (let a = 0; a < channels; a++) {
+        for (let lm = 0; lm < LL; lm++) {
+          const src = (a * LL + lm) * nmax;
+          for (let n = 0; n < nmax; n++) out[(a * nmax + n) * LL + lm] = acc[src + n];
+        }
+      }
+      if (centreChannel >= 0) for (let n = 0; n < nmax; n++) out[(centreChannel * nmax + n) * LL] += selfTerm[n];
     },
   };
 }

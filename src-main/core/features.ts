@@ -18,7 +18,7 @@
 import { InputError } from './errors.ts';
 import type { Frame } from './frame.ts';
 import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
-import { realClebschGordan } from './clebsch-gordan.ts';
+import { realClebschGordanSparse, type SparseCoupling } from './clebsch-gordan.ts';
 import { makeDensityExpander, type DensityExpander, type NeighbourPairs } from './density.ts';
 import { neighbourList } from './neighbours.ts';
 
@@ -65,8 +65,8 @@ export interface FeatureLabel {
 interface Block {
   l: number;
   l2: number;
-  /** Dense real CG, (m+l)(2l2+1)(2λ+1) + (m2+l2)(2λ+1) + μ. */
-  cg: Float64Array;
+  /** Non-zero real Clebsch–Gordan coefficients (m+l, m2+l2, μ, value). */
+  sparse: SparseCoupling;
   /** For each first channel (index into the tensor channel list) the range of its pairs in ch2/weight. */
   firstStart: Int32Array;
   ch2: Int32Array;
@@ -157,11 +157,19 @@ interface Plan {
   tensorChannel: Int32Array;
   tensors: TensorPlan[];
   coefficients: Float64Array;
-  /** Scratch for the half-coupled T[μ(2l2+1) + m2]. */
+  /** Scratch for the half-coupled H[μ(2l+1) + m]. */
   half: Float64Array;
+  /** Number of tensor channels; tensorBase[l][k] = offset of c_{k, l, m=−l} in the coefficient block. */
+  tch: number;
+  tensorBase: Int32Array[];
+  /** 0…tch−1 and √2 for each, for the l < l' blocks (every ordered pair, all off-diagonal). */
+  allChannels: Int32Array;
+  sqrt2: Float64Array;
 }
 
 const planCache = new Map<string, Plan>();
+/** Plans kept (a hyperparameter search builds one per setting; the oldest is dropped beyond this). */
+const PLAN_CACHE_SIZE = 12;
 
 function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
   const key = JSON.stringify([s.cutoff, s.cutoffWidth, s.sigma, s.nmax, s.lmax, s.species, s.centres, s.nmaxTensor ?? null, s.lmaxTensor ?? null, lambdas]);
@@ -206,7 +214,7 @@ function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
         }
       }
       firstStart[tch] = ch2.length;
-      blocks.push({ l, l2, cg: realClebschGordan(l, l2, lambda), firstStart, ch2: Int32Array.from(ch2), weight: Float64Array.from(weight), offset });
+      blocks.push({ l, l2, sparse: realClebschGordanSparse(l, l2, lambda), firstStart, ch2: Int32Array.from(ch2), weight: Float64Array.from(weight), offset });
       offset += ch2.length;
       halfSize = Math.max(halfSize, (2 * lambda + 1) * (2 * l2 + 1));
     }
@@ -226,21 +234,28 @@ function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
     tensors,
     coefficients: new Float64Array(expander.size),
     half: new Float64Array(halfSize),
+    tch,
+    tensorBase: Array.from({ length: t.lmax + 1 }, (_, l) => Int32Array.from(tensorChannel, (ch) => ch * (lmax + 1) * (lmax + 1) + l * l)),
+    allChannels: Int32Array.from({ length: tch }, (_, k) => k),
+    sqrt2: new Float64Array(tch).fill(Math.SQRT2),
   };
+  if (planCache.size >= PLAN_CACHE_SIZE) planCache.delete(planCache.keys().next().value as string);
   planCache.set(key, p);
   return p;
 }
 
-function normalise(x: Float64Array, from: number, to: number): void {
+/** Scales x[from…to) to unit norm (a zero block stays zero); returns the squared norm before scaling. */
+function normalise(x: Float64Array, from: number, to: number): number {
   let s = 0;
   for (let i = from; i < to; i++) s += x[i] * x[i];
-  if (s === 0) return;
+  if (s === 0 || !Number.isFinite(s)) return s;
   const inv = 1 / Math.sqrt(s);
   for (let i = from; i < to; i++) x[i] *= inv;
+  return s;
 }
 
 /** λ = 0 row of one environment from its coefficients c (layout of density.ts) into out[at…at+n0). */
-function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number): void {
+function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number): number {
   const { p1, p2, pw, invSqrt, LL } = P;
   const lmax = P.settings.lmax;
   const L1 = lmax + 1;
@@ -256,47 +271,187 @@ function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number):
     }
     f += L1;
   }
-  normalise(out, at, at + P.n0);
+  return normalise(out, at, at + P.n0);
 }
 
-/** λ > 0 block of one environment into out[(at + μ)·n + f]; at = e·(2λ+1). */
+/** Σ_m2 H[μ][m2] c[B + m2] for every partner channel of one first channel: the pair loop of tensorFeatures. */
+function contractPartners(
+  half: Float64Array, nM: number, width: number, c: Float64Array, partnerBase: Int32Array, from: number, to: number,
+  partner: Int32Array, weight: Float64Array, out: Float64Array, f: number, fStep: number, n: number,
+): void {
+  if (nM === 5) {
+    // λ = 2: five independent accumulators, one pass over each partner's coefficients.
+    for (let q = from; q < to; q++) {
+      const B = partnerBase[partner[q]];
+      let s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0;
+      for (let m = 0; m < width; m++) {
+        const b = c[B + m];
+        s0 += half[m] * b;
+        s1 += half[width + m] * b;
+        s2 += half[2 * width + m] * b;
+        s3 += half[3 * width + m] * b;
+        s4 += half[4 * width + m] * b;
+      }
+      const w = weight[q];
+      const at = f + (q - from) * fStep;
+      out[at] = w * s0;
+      out[at + n] = w * s1;
+      out[at + 2 * n] = w * s2;
+      out[at + 3 * n] = w * s3;
+      out[at + 4 * n] = w * s4;
+    }
+  } else {
+    for (let q = from; q < to; q++) {
+      const B = partnerBase[partner[q]];
+      let s0 = 0, s1 = 0, s2 = 0;
+      for (let m = 0; m < width; m++) {
+        const b = c[B + m];
+        s0 += half[m] * b;
+        s1 += half[width + m] * b;
+        s2 += half[2 * width + m] * b;
+      }
+      const w = weight[q];
+      const at = f + (q - from) * fStep;
+      out[at] = w * s0;
+      out[at + n] = w * s1;
+      out[at + 2 * n] = w * s2;
+    }
+  }
+}
+
+/**
+ * λ > 0 block of one environment into out[(e·(2λ+1) + μ)·n + f]. For each pair block the half-coupling
+ * H = C·c runs over the factor of HIGHER degree (once per channel), so the pair loop runs over the shorter m
+ * axis: for (l, l') with l < l' the channel of degree l' is held and every channel of degree l is contracted.
+ */
 function tensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
-  const { LL, tensorChannel, half } = P;
+  const { half, tch } = P;
   const nM = 2 * T.lambda + 1;
   const n = T.n;
   const base = e * nM * n;
   for (const blk of T.blocks) {
-    const { l, l2, cg, firstStart, ch2, weight } = blk;
-    const n1 = 2 * l + 1, n2 = 2 * l2 + 1;
-    const lo1 = l * l, lo2 = l2 * l2;
-    let f = base + blk.offset;
-    for (let c1 = 0; c1 < firstStart.length - 1; c1++) {
-      // Half-coupled T[μ][m2] = Σ_m C[m, m2, μ] c_{ch1, l m}.
-      const A = tensorChannel[c1] * LL + lo1;
-      half.fill(0, 0, nM * n2);
-      for (let m = 0; m < n1; m++) {
-        const a = c[A + m];
-        if (a === 0) continue;
-        const row = m * n2 * nM;
-        for (let m2 = 0; m2 < n2; m2++) {
-          const r = row + m2 * nM;
-          for (let mu = 0; mu < nM; mu++) half[mu * n2 + m2] += cg[r + mu] * a;
-        }
+    const { l, l2, firstStart, ch2, weight, sparse } = blk;
+    const { i1, i2, iL, value } = sparse;
+    const nnz = value.length;
+    if (l === l2) {
+      const width = 2 * l + 1;
+      const A0 = P.tensorBase[l];
+      let f = base + blk.offset;
+      for (let c1 = 0; c1 < tch; c1++) {
+        const A = A0[c1];
+        half.fill(0, 0, nM * width);
+        for (let k = 0; k < nnz; k++) half[iL[k] * width + i2[k]] += value[k] * c[A + i1[k]];
+        const from = firstStart[c1], to = firstStart[c1 + 1];
+        contractPartners(half, nM, width, c, A0, from, to, ch2, weight, out, f, 1, n);
+        f += to - from;
       }
-      for (let q = firstStart[c1]; q < firstStart[c1 + 1]; q++) {
-        const B = tensorChannel[ch2[q]] * LL + lo2;
-        const w = weight[q];
-        for (let mu = 0; mu < nM; mu++) {
-          let s = 0;
-          const h = mu * n2;
-          for (let m2 = 0; m2 < n2; m2++) s += half[h + m2] * c[B + m2];
-          out[f + mu * n] = w * s;
-        }
-        f++;
+    } else {
+      // Hold the degree-l2 channel c2; contract all degree-l channels c1; feature f = offset + c1·tch + c2.
+      const width = 2 * l + 1;
+      const A0 = P.tensorBase[l];
+      const B0 = P.tensorBase[l2];
+      const f0 = base + blk.offset;
+      for (let c2 = 0; c2 < tch; c2++) {
+        const B = B0[c2];
+        half.fill(0, 0, nM * width);
+        for (let k = 0; k < nnz; k++) half[iL[k] * width + i1[k]] += value[k] * c[B + i2[k]];
+        contractPartners(half, nM, width, c, A0, 0, tch, P.allChannels, P.sqrt2, out, f0 + c2, tch, n);
       }
     }
   }
   normalise(out, base, base + nM * n);
+}
+
+/** A frame prepared for featurisation: plan, species channels, centre atoms, neighbour pairs. */
+interface Prepared {
+  P: Plan;
+  channelOf: Int32Array;
+  /** Centre atoms in order, and the index of each one's species in settings.centres. */
+  centres: Int32Array;
+  centreSpecies: Int32Array;
+  pairs: NeighbourPairs;
+  where: { file?: string; line?: number; frame?: number };
+}
+
+function prepare(frame: Frame, settings: FeatureSettings, lambdas: Lambda[], neighbours: NeighbourPairs | undefined, timings: FeatureTimings | undefined): Prepared {
+  for (const l of lambdas) {
+    if (l !== 0 && l !== 1 && l !== 2) throw new RangeError(`computeFeatures: λ must be 0, 1 or 2, got ${String(l)}`);
+  }
+  const P = plan(settings, ([1, 2] as const).filter((l) => lambdas.includes(l)));
+  for (const T of P.tensors) {
+    if (T.n === 0) {
+      throw new InputError(`feature settings: λ = ${T.lambda} features need lmaxTensor ≥ 1 (lmax ${settings.lmax}, lmaxTensor ${tensorLimits(settings).lmax})`, {}, 'raise lmax (and lmaxTensor) to at least 1');
+    }
+  }
+  const s = P.settings;
+  const N = frame.species.length;
+  const where = { file: frame.source?.file, line: frame.source?.line, frame: frame.source?.index };
+  const speciesIndex = new Map(s.species.map((x, i) => [x, i]));
+  const centreIndex = new Map(s.centres.map((x, i) => [x, i]));
+  const channelOf = new Int32Array(N);
+  const centres: number[] = [];
+  const centreSpecies: number[] = [];
+  for (let i = 0; i < N; i++) {
+    const a = speciesIndex.get(frame.species[i]);
+    if (a === undefined) {
+      throw new InputError(
+        `atom ${i + 1} is ${frame.species[i]}, which is not among the feature species (${s.species.join(', ')})`,
+        where,
+        'use a model trained with this species, or remove those atoms from the structure',
+      );
+    }
+    channelOf[i] = a;
+    const ci = centreIndex.get(frame.species[i]);
+    if (ci !== undefined) {
+      centres.push(i);
+      centreSpecies.push(ci);
+    }
+  }
+  const t0 = timings ? performance.now() : 0;
+  const pairs = neighbours ?? neighbourList(frame, s.cutoff);
+  if (pairs.start.length !== N + 1) {
+    throw new RangeError(`computeFeatures: neighbour list has ${pairs.start.length - 1} centres, the frame ${N} atoms`);
+  }
+  if (timings) timings.neighbours += performance.now() - t0;
+  return { P, channelOf, centres: Int32Array.from(centres), centreSpecies: Int32Array.from(centreSpecies), pairs, where };
+}
+
+/**
+ * The per-environment loop shared by computeFeatures and forEachEnvironment: environment e is written to
+ * scalar[at(e)·…] and tensor[k] at block slot(e); `after(e)` runs once its features are complete.
+ */
+function featurise(
+  prep: Prepared,
+  scalar: Float64Array,
+  tensors: Float64Array[],
+  slot: (e: number) => number,
+  after: ((e: number) => void) | null,
+  timings: FeatureTimings | undefined,
+): void {
+  const { P, channelOf, centres, pairs, where } = prep;
+  const c = P.coefficients;
+  let tExpand = 0, tCouple = 0;
+  for (let e = 0; e < centres.length; e++) {
+    const i = centres[e];
+    const ta = timings ? performance.now() : 0;
+    P.expander.expand(pairs, i, channelOf[i], channelOf, c);
+    const tb = timings ? performance.now() : 0;
+    const k0 = slot(e);
+    const norm = powerSpectrum(P, c, scalar, k0 * P.n0);
+    if (!Number.isFinite(norm)) {
+      throw new InputError(`features of atom ${i + 1} are not finite (non-finite positions or cell?)`, where, 'check the structure');
+    }
+    for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensors[k], k0);
+    if (timings) {
+      tExpand += tb - ta;
+      tCouple += performance.now() - tb;
+    }
+    if (after) after(e);
+  }
+  if (timings) {
+    timings.expansion += tExpand;
+    timings.coupling += tCouple;
+  }
 }
 
 /**
@@ -311,75 +466,56 @@ export function computeFeatures(
   neighbours?: NeighbourPairs,
   timings?: FeatureTimings,
 ): EnvironmentFeatures {
-  const wanted = ([1, 2] as const).filter((l) => lambdas.includes(l));
-  for (const l of lambdas) {
-    if (l !== 0 && l !== 1 && l !== 2) throw new RangeError(`computeFeatures: λ must be 0, 1 or 2, got ${String(l)}`);
-  }
-  const P = plan(settings, wanted);
-  const s = P.settings;
-  const N = frame.species.length;
-  const where = { file: frame.source?.file, line: frame.source?.line, frame: frame.source?.index };
-  const speciesIndex = new Map(s.species.map((x, i) => [x, i]));
-  const centreIndex = new Map(s.centres.map((x, i) => [x, i]));
-  const channelOf = new Int32Array(N);
-  let count = 0;
-  for (let i = 0; i < N; i++) {
-    const a = speciesIndex.get(frame.species[i]);
-    if (a === undefined) {
-      throw new InputError(
-        `atom ${i + 1} is ${frame.species[i]}, which is not among the feature species (${s.species.join(', ')})`,
-        where,
-        'use a model trained with this species, or remove those atoms from the structure',
-      );
-    }
-    channelOf[i] = a;
-    if (centreIndex.has(frame.species[i])) count++;
-  }
-  let t0 = timings ? performance.now() : 0;
-  const pairs = neighbours ?? neighbourList(frame, s.cutoff);
-  if (pairs.start.length !== N + 1) {
-    throw new RangeError(`computeFeatures: neighbour list has ${pairs.start.length - 1} centres, the frame ${N} atoms`);
-  }
-  if (timings) {
-    const t1 = performance.now();
-    timings.neighbours += t1 - t0;
-    t0 = t1;
-  }
-  const centre = new Int32Array(count);
-  const centreSpecies = new Int32Array(count);
+  const prep = prepare(frame, settings, lambdas, neighbours, timings);
+  const { P } = prep;
+  const count = prep.centres.length;
   const scalar = new Float64Array(count * P.n0);
   const tensorOut = P.tensors.map((T) => new Float64Array(count * (2 * T.lambda + 1) * T.n));
-  const c = P.coefficients;
-  let e = 0;
-  let tExpand = 0, tCouple = 0;
-  for (let i = 0; i < N; i++) {
-    const ci = centreIndex.get(frame.species[i]);
-    if (ci === undefined) continue;
-    centre[e] = i;
-    centreSpecies[e] = ci;
-    const ta = timings ? performance.now() : 0;
-    P.expander.expand(pairs, i, channelOf[i], channelOf, c);
-    const tb = timings ? performance.now() : 0;
-    powerSpectrum(P, c, scalar, e * P.n0);
-    for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensorOut[k], e);
-    if (timings) {
-      tExpand += tb - ta;
-      tCouple += performance.now() - tb;
-    }
-    e++;
-  }
-  if (timings) {
-    timings.expansion += tExpand;
-    timings.coupling += tCouple;
-  }
-  for (let k = 0; k < scalar.length; k++) {
-    if (!Number.isFinite(scalar[k])) throw new InputError('features are not finite (overlapping atoms or non-finite positions?)', where, 'check the structure');
-  }
+  featurise(prep, scalar, tensorOut, (e) => e, null, timings);
   const tensor: EnvironmentFeatures['tensor'] = {};
   P.tensors.forEach((T, k) => {
     tensor[T.lambda] = { n: T.n, data: tensorOut[k] };
   });
-  return { count, centre, centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor };
+  return { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor };
+}
+
+/** One environment's features as handed to forEachEnvironment's visitor (buffers reused: copy what you keep). */
+export interface EnvironmentView {
+  /** Environment index within the frame, centre atom, and index of its species in settings.centres. */
+  index: number;
+  centre: number;
+  centreSpecies: number;
+  /** The λ = 0 row (length n0) and the λ > 0 blocks ((2λ+1)·nλ, row-major in μ), each of unit norm. */
+  scalar: Float64Array;
+  tensor: Partial<Record<1 | 2, Float64Array>>;
+}
+
+/**
+ * The same features as computeFeatures, one environment at a time, in a fixed amount of memory: for large
+ * frames, or for sums over environments (a linear model's prediction). Returns the number of environments.
+ */
+export function forEachEnvironment(
+  frame: Frame,
+  settings: FeatureSettings,
+  lambdas: Lambda[],
+  visit: (env: EnvironmentView) => void,
+  neighbours?: NeighbourPairs,
+): number {
+  const prep = prepare(frame, settings, lambdas, neighbours, undefined);
+  const { P } = prep;
+  const scalar = new Float64Array(P.n0);
+  const blocks = P.tensors.map((T) => new Float64Array((2 * T.lambda + 1) * T.n));
+  const view: EnvironmentView = { index: 0, centre: 0, centreSpecies: 0, scalar, tensor: {} };
+  P.tensors.forEach((T, k) => {
+    view.tensor[T.lambda] = blocks[k];
+  });
+  featurise(prep, scalar, blocks, () => 0, (e) => {
+    view.index = e;
+    view.centre = prep.centres[e];
+    view.centreSpecies = prep.centreSpecies[e];
+    visit(view);
+  }, undefined);
+  return prep.centres.length;
 }
 
 /** Concatenates per-frame features; environment k of parts[f] gets frame index f. All parts must agree in size. */

@@ -19,7 +19,10 @@ export interface NeighbourList {
   start: Int32Array;
   /** Neighbour atom index j of each pair. */
   neighbour: Int32Array;
-  /** r_j + s·H − r_i (Å), 3 per pair, with the frame's original (unwrapped) positions. */
+  /**
+   * r_j + s·H − r_i (Å), 3 per pair, for the frame's positions as given (unwrapped); computed from positions
+   * wrapped into the cell, so equal to that expression up to rounding (~1e-15 of the coordinates).
+   */
   vectors: Float64Array;
   /** |vector| (Å), one per pair. */
   distances: Float64Array;
@@ -29,7 +32,7 @@ export interface NeighbourList {
 
 export interface NeighbourOptions {
   /**
-   * Bin edge as a fraction of the cutoff (default 0.5). Smaller bins test fewer far candidates but visit more
+   * Bin edge as a fraction of the cutoff (default 1: bins just thicker than the cutoff, 27 searched per atom). Smaller bins test fewer far candidates but visit more
    * bins; the result does not depend on it (tests use it to exercise the binning).
    */
   binFraction?: number;
@@ -124,17 +127,14 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   if (!(Number.isFinite(cutoff) && cutoff > 0)) {
     throw new InputError(`neighbour cutoff ${cutoff} Å`, where, 'the cutoff must be a positive number of ångström');
   }
-  const binFraction = options.binFraction ?? 0.5;
+  const binFraction = options.binFraction ?? 1;
   if (!(binFraction > 0 && binFraction <= 4)) throw new RangeError(`binFraction must lie in (0, 4], got ${binFraction}`);
-  let maxAbs = 0;
   for (let k = 0; k < 3 * n; k++) {
     const x = pos[k];
     if (!Number.isFinite(x)) {
       throw new InputError(`atom ${Math.floor(k / 3)} has a non-finite coordinate (${x})`, where,
         'every position must be a finite number in Å');
     }
-    const ax = Math.abs(x);
-    if (ax > maxAbs) maxAbs = ax;
   }
   const pbc = frame.cell === null ? [false, false, false] : [frame.pbc[0], frame.pbc[1], frame.pbc[2]];
   if (frame.cell === null && (frame.pbc[0] || frame.pbc[1] || frame.pbc[2])) {
@@ -245,15 +245,18 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   }
   for (let t = 0; t < nBins; t++) binStart[t + 1] += binStart[t];
   const binAtom = new Int32Array(n);
-  const binX = new Float64Array(n), binY = new Float64Array(n), binZ = new Float64Array(n);
+  // Slot-ordered copies (atoms of one bin side by side), so the inner loop reads memory in order.
+  const binPos = new Float64Array(3 * n);
+  const binOff = new Int32Array(3 * n);
   {
     const fill = binStart.slice(0, nBins);
     for (let i = 0; i < n; i++) {
       const p = fill[binOf[i]]++;
       binAtom[p] = i;
-      binX[p] = wrapped[3 * i];
-      binY[p] = wrapped[3 * i + 1];
-      binZ[p] = wrapped[3 * i + 2];
+      for (let k = 0; k < 3; k++) {
+        binPos[3 * p + k] = wrapped[3 * i + k];
+        binOff[3 * p + k] = offset[3 * i + k];
+      }
     }
   }
 
@@ -291,11 +294,28 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
     order: new Int32Array(256),
     packed: new Float64Array(256),
   };
-  const cut2 = cutoff * cutoff;
-  const slack = 1e-9 * (cutoff + maxAbs);
-  const coarse2 = (cutoff + slack) * (cutoff + slack);
-  const [m0, m1, m2] = m;
-  const p0 = pbc[0], p1 = pbc[1], p2 = pbc[2];
+  // Slightly above cutoff² so that the final test is on the reported distance itself (see the inclusion rule).
+  const cut2 = cutoff * cutoff * (1 + 8 * Number.EPSILON);
+  // Per axis, for a bin index t = c + d (stored at c + d + m): the bin it falls in (−1 if outside an open axis)
+  // and the image shift that brings it there. Lookups instead of modulo arithmetic in the loop.
+  const tables = [0, 1, 2].map((k) => {
+    const len = nb[k] + 2 * m[k];
+    const wrap = new Int32Array(len), shift = new Int32Array(len);
+    for (let u = 0; u < len; u++) {
+      const t = u - m[k];
+      if (pbc[k]) {
+        const q = ((t % nb[k]) + nb[k]) % nb[k];
+        wrap[u] = q;
+        shift[u] = (t - q) / nb[k];
+      } else {
+        wrap[u] = t >= 0 && t < nb[k] ? t : -1;
+      }
+    }
+    return { wrap, shift };
+  });
+  const wrapA = tables[0].wrap, wrapB = tables[1].wrap, wrapC = tables[2].wrap;
+  const shiftA = tables[0].shift, shiftB = tables[1].shift, shiftC = tables[2].shift;
+  const w0 = 2 * m[0] + 1, w1 = 2 * m[1] + 1, w2 = 2 * m[2] + 1;
   const h0 = h[0], h1 = h[1], h2 = h[2], h3 = h[3], h4 = h[4], h5 = h[5], h6 = h[6], h7 = h[7], h8 = h[8];
   const [span0, span1, span2] = sSpan;
   const [min0, min1, min2] = sMin;
@@ -305,50 +325,35 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
     let ncand = 0;
     const xi = wrapped[3 * i], yi = wrapped[3 * i + 1], zi = wrapped[3 * i + 2];
     const oi0 = offset[3 * i], oi1 = offset[3 * i + 1], oi2 = offset[3 * i + 2];
-    const rx = pos[3 * i], ry = pos[3 * i + 1], rz = pos[3 * i + 2];
     const c0 = bin3[3 * i], c1 = bin3[3 * i + 1], c2 = bin3[3 * i + 2];
-    for (let d0 = -m0; d0 <= m0; d0++) {
-      let t0 = c0 + d0, S0 = 0;
-      if (p0) {
-        const q = ((t0 % n0) + n0) % n0;
-        S0 = (t0 - q) / n0;
-        t0 = q;
-      } else if (t0 < 0 || t0 >= n0) continue;
-      for (let d1 = -m1; d1 <= m1; d1++) {
-        let t1 = c1 + d1, S1 = 0;
-        if (p1) {
-          const q = ((t1 % n1) + n1) % n1;
-          S1 = (t1 - q) / n1;
-          t1 = q;
-        } else if (t1 < 0 || t1 >= n1) continue;
+    for (let d0 = 0; d0 < w0; d0++) {
+      const t0 = wrapA[c0 + d0];
+      if (t0 < 0) continue;
+      const S0 = shiftA[c0 + d0];
+      for (let d1 = 0; d1 < w1; d1++) {
+        const t1 = wrapB[c1 + d1];
+        if (t1 < 0) continue;
+        const S1 = shiftB[c1 + d1];
         const row = (t0 * n1 + t1) * n2;
         const tx01 = S0 * h0 + S1 * h3, ty01 = S0 * h1 + S1 * h4, tz01 = S0 * h2 + S1 * h5;
-        for (let d2 = -m2; d2 <= m2; d2++) {
-          let t2 = c2 + d2, S2 = 0;
-          if (p2) {
-            const q = ((t2 % n2) + n2) % n2;
-            S2 = (t2 - q) / n2;
-            t2 = q;
-          } else if (t2 < 0 || t2 >= n2) continue;
+        for (let d2 = 0; d2 < w2; d2++) {
+          const t2 = wrapC[c2 + d2];
+          if (t2 < 0) continue;
+          const S2 = shiftC[c2 + d2];
           const bin = row + t2;
           const ex = tx01 + S2 * h6 - xi, ey = ty01 + S2 * h7 - yi, ez = tz01 + S2 * h8 - zi;
           const zeroShift = S0 === 0 && S1 === 0 && S2 === 0;
           const end = binStart[bin + 1];
           for (let p = binStart[bin]; p < end; p++) {
-            const dx = binX[p] + ex, dy = binY[p] + ey, dz = binZ[p] + ez;
-            const q2 = dx * dx + dy * dy + dz * dz;
-            if (q2 >= coarse2) continue;
-            const j = binAtom[p];
-            if (j === i && zeroShift) continue;
-            // The shift relative to the original positions, and the vector from them.
-            const s0 = S0 - offset[3 * j] + oi0, s1 = S1 - offset[3 * j + 1] + oi1, s2 = S2 - offset[3 * j + 2] + oi2;
-            const vx = pos[3 * j] - rx + s0 * h0 + s1 * h3 + s2 * h6;
-            const vy = pos[3 * j + 1] - ry + s0 * h1 + s1 * h4 + s2 * h7;
-            const vz = pos[3 * j + 2] - rz + s0 * h2 + s1 * h5 + s2 * h8;
+            const vx = binPos[3 * p] + ex, vy = binPos[3 * p + 1] + ey, vz = binPos[3 * p + 2] + ez;
             const v2 = vx * vx + vy * vy + vz * vz;
-            if (v2 > cut2 * 1.0000001) continue;
+            if (v2 > cut2) continue;
             const dist = Math.sqrt(v2);
             if (!(dist < cutoff)) continue;
+            const j = binAtom[p];
+            if (j === i && zeroShift) continue;
+            // The shift relative to the original (unwrapped) positions.
+            const s0 = S0 - binOff[3 * p] + oi0, s1 = S1 - binOff[3 * p + 1] + oi1, s2 = S2 - binOff[3 * p + 2] + oi2;
             if (ncand === scap) {
               scap *= 2;
               cJ = growInt(cJ, scap);
@@ -432,25 +437,31 @@ function sortOrder(
     scratch.packed = new Float64Array(2 * len);
   }
   const order = scratch.order;
-  if (len < 24) {
-    // Insertion sort: the common short lists of molecular crystals and small cutoffs.
-    for (let a = 0; a < len; a++) {
-      const k = key[a];
-      let p = a - 1;
-      while (p >= 0 && key[order[p]] > k) {
-        order[p + 1] = order[p];
-        p--;
+  // Pack (key, index) into one exact double: key·2^b + index with 2^b ≥ len, so the index is the low part.
+  let pow = 1;
+  while (pow < len) pow *= 2;
+  if (keySpan * pow <= 2 ** 53) {
+    const packed = scratch.packed;
+    for (let a = 0; a < len; a++) packed[a] = key[a] * pow + a;
+    if (len <= 64) {
+      // Insertion sort: cheaper than a native call for the short lists typical of one centre.
+      for (let a = 1; a < len; a++) {
+        const v = packed[a];
+        let p = a - 1;
+        while (p >= 0 && packed[p] > v) {
+          packed[p + 1] = packed[p];
+          p--;
+        }
+        packed[p + 1] = v;
       }
-      order[p + 1] = a;
+    } else {
+      packed.subarray(0, len).sort();
     }
-    return order;
-  }
-  if (keySpan * len < 2 ** 53) {
-    // Pack (key, index) into one exact double and use the native numeric sort.
-    const packed = scratch.packed.subarray(0, len);
-    for (let a = 0; a < len; a++) packed[a] = key[a] * len + a;
-    packed.sort();
-    for (let a = 0; a < len; a++) order[a] = packed[a] % len;
+    const inv = 1 / pow;
+    for (let a = 0; a < len; a++) {
+      const v = packed[a];
+      order[a] = v - Math.floor(v * inv) * pow;
+    }
     return order;
   }
   const idx = Array.from({ length: len }, (_, a) => a).sort((u, v) => key[u] - key[v]);

@@ -10,6 +10,18 @@ export interface Rule {
 
 const legendreCache = new Map<number, Rule>();
 
+/** P_n(x) and P_n'(x) by the three-term recurrence (|x| < 1). */
+function legendreWithDerivative(n: number, x: number): [number, number] {
+  let p0 = 1, p1 = x;
+  for (let k = 2; k <= n; k++) {
+    const p2 = ((2 * k - 1) * x * p1 - (k - 1) * p0) / k;
+    p0 = p1;
+    p1 = p2;
+  }
+  // For n = 1 the loop does not run: P_1 = x, P_0 = 1 are already in (p1, p0).
+  return [p1, (n * (x * p1 - p0)) / (x * x - 1)];
+}
+
 /** n-point Gauss–Legendre rule on [−1, 1] (Newton iteration on P_n from the Chebyshev-like first guesses). */
 export function gaussLegendre(n: number): Rule {
   if (!Number.isInteger(n) || n < 1) throw new RangeError(`gaussLegendre: n must be a positive integer, got ${n}`);
@@ -20,32 +32,13 @@ export function gaussLegendre(n: number): Rule {
   const half = Math.floor((n + 1) / 2);
   for (let i = 0; i < half; i++) {
     let x = Math.cos((Math.PI * (i + 0.75)) / (n + 0.5));
-    let dp = 0;
     for (let iter = 0; iter < 100; iter++) {
-      // P_n(x) and P_n'(x) by the three-term recurrence.
-      let p0 = 1, p1 = x;
-      for (let k = 2; k <= n; k++) {
-        const p2 = ((2 * k - 1) * x * p1 - (k - 1) * p0) / k;
-        p0 = p1;
-        p1 = p2;
-      }
-      const pn = n === 1 ? x : p1;
-      const pnm1 = n === 1 ? 1 : p0;
-      dp = (n * (x * pn - pnm1)) / (x * x - 1);
+      const [pn, dp] = legendreWithDerivative(n, x);
       const dx = pn / dp;
       x -= dx;
       if (Math.abs(dx) < 1e-16) break;
     }
-    // Recompute the derivative at the converged node for the weight.
-    let p0 = 1, p1 = x;
-    for (let k = 2; k <= n; k++) {
-      const p2 = ((2 * k - 1) * x * p1 - (k - 1) * p0) / k;
-      p0 = p1;
-      p1 = p2;
-    }
-    const pn = n === 1 ? x : p1;
-    const pnm1 = n === 1 ? 1 : p0;
-    dp = (n * (x * pn - pnm1)) / (x * x - 1);
+    const dp = legendreWithDerivative(n, x)[1]; // at the converged node, for the weight
     const w = 2 / ((1 - x * x) * dp * dp);
     nodes[i] = -x;
     nodes[n - 1 - i] = x;

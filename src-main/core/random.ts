@@ -6,7 +6,7 @@
 export interface Rng {
   /** Uniform double in [0, 1) with 53 random bits. */
   uniform(): number;
-  /** Standard normal deviate (mean 0, variance 1), Marsaglia's polar method. */
+  /** Standard normal deviate (mean 0, variance 1), by the polar rejection method (a point in the unit disc). */
   normal(): number;
   /** Uniform integer in [0, n), without modulo bias; n must be a positive integer ≤ 2⁵³. */
   int(n: number): number;

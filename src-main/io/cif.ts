@@ -7,6 +7,7 @@ import { InputError } from '../core/errors.ts';
 import type { Frame, InfoValue, Mat3 } from '../core/frame.ts';
 import { cellFromParameters, wrapUnit } from '../core/cell.ts';
 import { isElement } from '../core/elements.ts';
+import { mat3Determinant } from '../core/tensor.ts';
 
 interface Token {
   kind: 'data' | 'loop' | 'tag' | 'value' | 'save' | 'global' | 'stop';
@@ -200,8 +201,7 @@ export function parseSymmetryOp(text: string): SymmetryOp | string {
       any = true;
     }
   }
-  const r = rotation;
-  const det = r[0] * (r[4] * r[8] - r[5] * r[7]) - r[1] * (r[3] * r[8] - r[5] * r[6]) + r[2] * (r[3] * r[7] - r[4] * r[6]);
+  const det = mat3Determinant(rotation);
   if (Math.abs(Math.abs(det) - 1) > 1e-6) return `'${text}' is not a symmetry operation (determinant ${det.toFixed(3)}, not ±1)`;
   return { rotation, translation, text };
 }

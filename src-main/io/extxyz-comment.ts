@@ -3,6 +3,7 @@
 // without a value means `true`. This file only tokenises and formats that line; extxyz-parse.ts gives the
 // special keys (Lattice, Properties, pbc) their meaning. Pure code, runs in a browser too.
 import type { InfoValue } from '../core/frame.ts';
+import { strictNumber } from './decimal.ts';
 
 /** One key=value item as written: `quoted` tells a bare word from a "..." string; `bracket` an {..}/[..] array. */
 export interface RawItem {
@@ -115,25 +116,7 @@ export function tokeniseComment(line: string): RawItem[] {
   }
 }
 
-/**
- * Text [s, e) of `line` as a strict decimal number, NaN if it is not one. Number() does the conversion (exact,
- * and measured as fast as a hand-written fast path here); the first character is checked beforehand because
- * Number() also takes hexadecimal, binary and octal literals and the word Infinity.
- */
-export function decimalAt(line: string, s: number, e: number): number {
-  const c0 = line.charCodeAt(s);
-  if (!((c0 >= 48 && c0 <= 57) || c0 === 45 || c0 === 43 || c0 === 46)) return NaN;
-  if (c0 === 48 && e - s > 2) {
-    const c1 = line.charCodeAt(s + 1) | 32;
-    if (c1 === 120 || c1 === 98 || c1 === 111) return NaN; // 0x.., 0b.., 0o..
-  }
-  return Number(line.slice(s, e));
-}
-
-/** A strict decimal number (1, -2.5, 3e-4, 1.5E+02), or NaN; see decimalAt. */
-export function strictNumber(token: string): number {
-  return decimalAt(token, 0, token.length);
-}
+export { strictNumber };
 
 /** Words that mean true/false in extended XYZ. */
 export function parseBoolean(token: string): boolean | undefined {

@@ -7,7 +7,8 @@ import { InputError } from '../core/errors.ts';
 import type { AtomArray, Frame, InfoValue, Mat3 } from '../core/frame.ts';
 import { cellDeterminant, checkCell as checkCellShape } from '../core/cell.ts';
 import { elementSymbol, isElement, symbolIgnoringCase } from '../core/elements.ts';
-import { CommentSyntaxError, ValueError, decimalAt, interpretValue, parseBoolean, tokeniseComment } from './extxyz-comment.ts';
+import { bytesText, decimalAtBytes } from './decimal.ts';
+import { CommentSyntaxError, ValueError, interpretValue, parseBoolean, tokeniseComment } from './extxyz-comment.ts';
 
 export type ColumnKind = 'S' | 'R' | 'I' | 'L';
 
@@ -156,45 +157,65 @@ export function parseCommentLine(line: string, where: Where): Omit<Header, 'nAto
   return { cell, pbc, info, columns, fieldCount };
 }
 
-// Field boundaries of the current atom line, reused between lines (no allocation per line).
-let fieldStart = new Int32Array(64);
-let fieldEnd = new Int32Array(64);
+// Atom lines are parsed as bytes (ASCII in every real file) straight from the read buffer: no text decoding,
+// no substrings, monomorphic array reads. Count and comment lines, which may hold any UTF-8 text, are decoded.
+// Field boundaries of the current atom line are reused between lines (no allocation per line).
+const MAX_FIELDS = 4096;
+const fieldStart = new Int32Array(MAX_FIELDS);
+const fieldEnd = new Int32Array(MAX_FIELDS);
+const encoder = new TextEncoder();
 
-/** Split on spaces and tabs; returns the number of fields (boundaries in fieldStart/fieldEnd). */
-function splitFields(line: string): number {
+/**
+ * Split bytes[start, end) on spaces, tabs and CR; returns the number of fields. Boundaries of the first
+ * MAX_FIELDS fields go to fieldStart/fieldEnd (a line with more is never a valid atom line, only counted).
+ */
+function splitFields(b: Uint8Array, start: number, end: number): number {
   let n = 0;
-  const len = line.length;
-  let i = 0;
-  while (i < len) {
-    let c = line.charCodeAt(i);
+  let i = start;
+  while (i < end) {
+    let c = b[i];
     while (c === 32 || c === 9 || c === 13) {
-      if (++i >= len) return n;
-      c = line.charCodeAt(i);
+      if (++i >= end) return n;
+      c = b[i];
     }
     const s = i;
-    while (i < len) {
-      c = line.charCodeAt(i);
+    while (++i < end) {
+      c = b[i];
       if (c === 32 || c === 9 || c === 13) break;
-      i++;
     }
-    if (n === fieldStart.length) {
-      const a = new Int32Array(2 * n);
-      a.set(fieldStart);
-      fieldStart = a;
-      const b = new Int32Array(2 * n);
-      b.set(fieldEnd);
-      fieldEnd = b;
+    if (n < MAX_FIELDS) {
+      fieldStart[n] = s;
+      fieldEnd[n] = i;
     }
-    fieldStart[n] = s;
-    fieldEnd[n] = i;
     n++;
   }
   return n;
 }
 
-/** Parse field k of `line` as a strict decimal number, NaN if it is not one. */
-function numberField(line: string, k: number): number {
-  return decimalAt(line, fieldStart[k], fieldEnd[k]);
+function fieldText(b: Uint8Array, k: number): string {
+  return bytesText(b, fieldStart[k], fieldEnd[k]);
+}
+
+/** Field k of the current line as a strict decimal number, NaN if it is not one. */
+function numberField(b: Uint8Array, k: number): number {
+  return decimalAtBytes(b, fieldStart[k], fieldEnd[k]);
+}
+
+/** Field k as a strict 32-bit integer, or NaN. */
+function integerField(b: Uint8Array, k: number): number {
+  let i = fieldStart[k];
+  const e = fieldEnd[k];
+  let negative = false;
+  if (b[i] === 45 || b[i] === 43) negative = b[i++] === 45;
+  if (i >= e || e - i > 10) return NaN;
+  let v = 0;
+  for (; i < e; i++) {
+    const c = b[i];
+    if (c < 48 || c > 57) return NaN;
+    v = v * 10 + (c - 48);
+  }
+  v = negative ? -v : v;
+  return v > 2147483647 || v < -2147483648 ? NaN : v;
 }
 
 const INTEGER = /^[+-]?\d+$/;
@@ -266,7 +287,14 @@ export class ExtxyzAssembler {
     return { file: this.fileName, line: this.line, frame: this.frame };
   }
 
-  push(text: string): Frame | null | 'stop' {
+  /** Feed one line given as text (without its newline). */
+  pushLine(text: string): Frame | null | 'stop' {
+    const b = encoder.encode(text);
+    return this.push(b, 0, b.length);
+  }
+
+  /** Feed the line bytes[start, end) (UTF-8, without its newline). */
+  push(bytes: Uint8Array, start: number, end: number): Frame | null | 'stop' {
     if (this.stopped) return 'stop';
     this.line++;
     if (this.skipRemaining > 0) {
@@ -276,12 +304,12 @@ export class ExtxyzAssembler {
     }
     switch (this.state) {
       case 'count':
-        return this.onCount(text);
+        return this.onCount(bytesText(bytes, start, end));
       case 'comment':
-        this.onComment(text);
+        this.onComment(bytesText(bytes, start, end));
         return this.pendingCount === 0 && this.building !== null ? this.complete() : null;
       case 'atoms':
-        return this.onAtom(text);
+        return this.onAtom(bytes, start, end);
     }
   }
 
@@ -355,14 +383,14 @@ export class ExtxyzAssembler {
     this.state = 'atoms';
   }
 
-  private onAtom(text: string): Frame | null {
+  private onAtom(text: Uint8Array, start: number, end: number): Frame | null {
     const b = this.building!;
     const h = b.header;
-    const nf = splitFields(text);
+    const nf = splitFields(text, start, end);
     if (nf !== h.fieldCount) {
       const where = this.where();
       if (nf === 0) fail(`blank line inside frame: atom ${b.atom + 1} of ${h.nAtoms} expected`, where, `the frame's count line says ${h.nAtoms} atoms; fix the count or remove the blank line`);
-      if (nf === 1 && INTEGER.test(text.trim())) {
+      if (nf === 1 && INTEGER.test(bytesText(text, start, end).trim())) {
         fail(`frame declares ${h.nAtoms} atoms but only ${b.atom} atom lines come before the next frame's count line`, where, 'correct the atom count line of this frame');
       }
       fail(`atom line has ${nf} fields but Properties needs ${h.fieldCount} (${describeColumns(h.columns)})`, where, 'make Properties match the columns, or fix this line');
@@ -370,18 +398,24 @@ export class ExtxyzAssembler {
     const a = b.atom;
     // the two columns every frame has, with their field positions fixed: the hot path
     if (b.speciesField >= 0) {
-      const sf = b.speciesField;
-      const sp = text.slice(fieldStart[sf], fieldEnd[sf]);
-      if (sp !== b.lastSpecies) {
+      // most lines repeat a recent symbol: compare bytes with the last one before making a string
+      const fs = fieldStart[b.speciesField];
+      const len = fieldEnd[b.speciesField] - fs;
+      const last = b.lastSpecies;
+      let same = len === last.length;
+      for (let k = 0; same && k < len; k++) same = text[fs + k] === last.charCodeAt(k);
+      if (same) b.species[a] = last;
+      else {
+        const sp = fieldText(text, b.speciesField);
         if (!isElement(sp)) this.badSpecies(sp);
         b.lastSpecies = sp;
+        b.species[a] = sp;
       }
-      b.species[a] = sp;
     }
     const pf = b.posField;
     const pos = b.positions;
     for (let d = 0; d < 3; d++) {
-      const x = decimalAt(text, fieldStart[pf + d], fieldEnd[pf + d]);
+      const x = decimalAtBytes(text, fieldStart[pf + d], fieldEnd[pf + d]);
       if (!(x - x === 0)) this.badNumber(text, pf + d, 'pos', 'a finite real number');
       pos[3 * a + d] = x;
     }
@@ -396,7 +430,7 @@ export class ExtxyzAssembler {
     return b.atom === h.nAtoms ? this.complete() : null;
   }
 
-  private otherColumns(text: string, b: Building, a: number): void {
+  private otherColumns(text: Uint8Array, b: Building, a: number): void {
     for (const { field, spec: c, sink } of b.others) {
       const base = a * c.width;
       for (let w = 0; w < c.width; w++) {
@@ -406,16 +440,15 @@ export class ExtxyzAssembler {
           if (!Number.isFinite(x)) this.badNumber(text, f, c.name, 'a finite real number');
           (sink as Float64Array)[base + w] = x;
         } else if (c.kind === 'I') {
-          const t = text.slice(fieldStart[f], fieldEnd[f]);
-          const x = Number(t);
-          if (!INTEGER.test(t) || x > 2147483647 || x < -2147483648) this.badNumber(text, f, c.name, 'an integer');
+          const x = integerField(text, f);
+          if (x !== x) this.badNumber(text, f, c.name, 'a 32-bit integer');
           (sink as Int32Array)[base + w] = x;
         } else if (c.kind === 'L') {
-          const v = parseBoolean(text.slice(fieldStart[f], fieldEnd[f]));
+          const v = parseBoolean(fieldText(text, f));
           if (v === undefined) this.badNumber(text, f, c.name, 'T or F');
           (sink as Uint8Array)[base + w] = v ? 1 : 0;
         } else {
-          (sink as string[])[base + w] = text.slice(fieldStart[f], fieldEnd[f]);
+          (sink as string[])[base + w] = fieldText(text, f);
         }
       }
     }
@@ -448,8 +481,8 @@ export class ExtxyzAssembler {
     );
   }
 
-  private badNumber(text: string, f: number, column: string, wanted: string): never {
-    const t = text.slice(fieldStart[f], fieldEnd[f]);
+  private badNumber(text: Uint8Array, f: number, column: string, wanted: string): never {
+    const t = fieldText(text, f);
     fail(`column '${column}' needs ${wanted}, found '${clip(t)}'`, this.where(), /nan|inf/i.test(t) ? 'the file holds NaN or infinite values; regenerate or drop this frame' : 'check this atom line');
   }
 
@@ -479,15 +512,16 @@ function clip(s: string): string {
 }
 
 /** Every frame of an extended XYZ text held in memory (uploads, tests). */
-export function parseExtxyz(text: string, fileName: string): Frame[] {
+export function parseExtxyz(text: string | Uint8Array, fileName: string): Frame[] {
+  const bytes = typeof text === 'string' ? encoder.encode(text) : text;
   const asm = new ExtxyzAssembler(fileName);
   const frames: Frame[] = [];
   let start = 0;
-  const n = text.length;
+  const n = bytes.length;
   while (start < n) {
-    let end = text.indexOf('\n', start);
+    let end = bytes.indexOf(10, start);
     if (end < 0) end = n;
-    const r = asm.push(text.slice(start, end));
+    const r = asm.push(bytes, start, end);
     if (r !== null && r !== 'stop') frames.push(r);
     start = end + 1;
   }

@@ -3,7 +3,6 @@
 // writer. The text-level parser and formatter live in extxyz-parse.ts / extxyz-format.ts and are re-exported.
 import { promises as fsp } from 'node:fs';
 import type { FileHandle } from 'node:fs/promises';
-import { StringDecoder } from 'node:string_decoder';
 import { createGunzip, gzipSync } from 'node:zlib';
 import { CancelledError, InputError } from '../core/errors.ts';
 import type { Frame } from '../core/frame.ts';
@@ -17,7 +16,7 @@ export { formatExtxyzFrame } from './extxyz-format.ts';
 
 const CHUNK_BYTES = 1 << 20;
 /** A "line" longer than this is not extended XYZ (binary data, a broken file): refuse instead of buffering it. */
-const MAX_LINE_CHARS = 64 << 20;
+const MAX_LINE_CHARS = 64 << 20; // bytes
 
 /** Which frames to read: start, start+step, … below stop (0-based; stop exclusive, open-ended if absent). */
 export interface FrameRange {
@@ -119,58 +118,59 @@ export function rangeDecider(range: FrameRange | undefined, file = ''): (k: numb
   };
 }
 
-/** Feed decoded text to an assembler line by line; returns the unfinished tail (or null after 'stop'). */
-function feedLines(asm: ExtxyzAssembler, text: string, out: Frame[], file: string): string | null {
-  let start = 0;
-  for (;;) {
-    const end = text.indexOf('\n', start);
-    if (end < 0) break;
-    const r = asm.push(text.slice(start, end));
-    start = end + 1;
-    if (r === 'stop') return null;
-    if (r !== null) out.push(r);
-  }
-  const tail = text.slice(start);
-  if (tail.length > MAX_LINE_CHARS) {
-    throw new InputError(`line ${asm.lineNumber + 1} is longer than ${MAX_LINE_CHARS >> 20} Mi characters`, { file, line: asm.lineNumber + 1, frame: asm.frameIndex }, 'this does not look like an extended XYZ text file');
-  }
-  return tail;
-}
-
 /**
  * Stream the frames of an extended XYZ file (plain or gzip). Frames outside `range` are skipped without
  * parsing their numbers; the file is closed when the loop ends early. Throws InputError on any bad frame.
+ * Lines are found as newline bytes in a working buffer (the unfinished last line of one read is moved to its
+ * front before the next), and handed to the assembler as byte ranges: nothing is decoded but what needs it.
  */
 export async function* readExtxyz(file: string, options: ReadOptions = {}): AsyncGenerator<Frame> {
   const { signal } = options;
   const asm = new ExtxyzAssembler(file, { decide: rangeDecider(options.range, file) });
-  const decoder = new StringDecoder('utf8');
   const out: Frame[] = [];
-  let carry = '';
-  let stopped = false;
+  let buf = Buffer.allocUnsafe(2 * CHUNK_BYTES);
+  let carry = 0; // bytes of an unfinished line at the front of buf
   for await (const chunk of byteChunks(file, signal)) {
-    const tail = feedLines(asm, carry + decoder.write(chunk), out, file);
+    const len = carry + chunk.length;
+    if (len > buf.length) {
+      if (len > MAX_LINE_CHARS + CHUNK_BYTES) {
+        throw new InputError(`line ${asm.lineNumber + 1} is longer than ${MAX_LINE_CHARS >> 20} MiB`, { file, line: asm.lineNumber + 1, frame: asm.frameIndex }, 'this does not look like an extended XYZ text file');
+      }
+      const bigger = Buffer.allocUnsafe(Math.max(len, 2 * buf.length));
+      buf.copy(bigger, 0, 0, carry);
+      buf = bigger;
+    }
+    chunk.copy(buf, carry);
+    const view = buf.subarray(0, len);
+    let start = 0;
+    let stopped = false;
+    for (;;) {
+      const nl = view.indexOf(10, start);
+      if (nl < 0) break;
+      const r = asm.push(view, start, nl);
+      start = nl + 1;
+      if (r === 'stop') {
+        stopped = true;
+        break;
+      }
+      if (r !== null) out.push(r);
+    }
     for (const f of out) yield f;
     out.length = 0;
-    if (tail === null) {
-      stopped = true;
-      break;
-    }
-    carry = tail;
+    if (stopped) return;
+    buf.copyWithin(0, start, len);
+    carry = len - start;
     if (signal?.aborted) throw new CancelledError();
   }
-  if (!stopped) {
-    // the last line may have no newline
-    const last = carry + decoder.end();
-    if (last.length > 0) {
-      const r = asm.push(last);
-      if (r !== null && r !== 'stop') yield r;
-      if (r === 'stop') return;
-    }
-    asm.finish();
-    if (asm.frameIndex === 0) {
-      throw new InputError('no frames found', { file, line: 1, frame: 0 }, 'an extended XYZ file starts with a line holding the number of atoms');
-    }
+  // the last line may have no newline
+  if (carry > 0) {
+    const r = asm.push(buf, 0, carry);
+    if (r === 'stop') return;
+    if (r !== null) yield r;
+  }
+  asm.finish();
+  if (asm.frameIndex === 0) {
+    throw new InputError('no frames found', { file, line: 1, frame: 0 }, 'an extended XYZ file starts with a line holding the number of atoms');
   }
 }
 
@@ -224,7 +224,7 @@ export async function indexExtxyz(file: string, options: { signal?: AbortSignal 
   let partial = false; // inside a skipped line that continues in the next chunk
   const where = () => ({ file, line, frame: counts.length });
   const readCount = (): void => {
-    const text = Buffer.from(countBytes).toString('latin1').trim();
+    const text = Buffer.from(countBytes).toString('utf8').trim();
     countBytes = [];
     if (text.length === 0) return; // blank line between frames
     if (!/^\d+$/.test(text)) {
@@ -304,12 +304,11 @@ export async function readFrameAt(file: string, index: ExtxyzIndex, k: number): 
     await fh.close();
   }
   const asm = new ExtxyzAssembler(file, { firstLine: index.lines[k], firstFrame: k });
-  const text = buf.toString('utf8');
   let s = 0;
-  while (s <= text.length) {
-    let e = text.indexOf('\n', s);
-    if (e < 0) e = text.length;
-    const r = asm.push(text.slice(s, e));
+  while (s <= buf.length) {
+    let e = buf.indexOf(10, s);
+    if (e < 0) e = buf.length;
+    const r = asm.push(buf, s, e);
     if (r !== null && r !== 'stop') return r;
     s = e + 1;
   }

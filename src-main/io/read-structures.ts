@@ -3,9 +3,9 @@
 import { readFile } from 'node:fs/promises';
 import { gunzipSync } from 'node:zlib';
 import path from 'node:path';
-import { InputError } from '../core/errors.ts';
+import { CancelledError, InputError } from '../core/errors.ts';
 import type { Frame } from '../core/frame.ts';
-import { readExtxyz, type ReadOptions } from './extxyz.ts';
+import { rangeDecider, readExtxyz, type ReadOptions } from './extxyz.ts';
 import { parseCif } from './cif.ts';
 
 export type StructureKind = 'extxyz' | 'cif';
@@ -33,11 +33,13 @@ async function* readCifFile(file: string, options: ReadOptions): AsyncGenerator<
       throw new InputError(`the gzip data is damaged or truncated (${(e as Error).message})`, { file }, 'copy the file again');
     }
   }
+  const decide = rangeDecider(options.range, file);
   const frames = parseCif(bytes.toString('utf8'), file);
-  const start = options.range?.start ?? 0, step = options.range?.step ?? 1, stop = options.range?.stop ?? frames.length;
-  for (let k = start; k < Math.min(stop, frames.length); k += step) {
-    if (options.signal?.aborted) break;
-    yield frames[k];
+  for (let k = 0; k < frames.length; k++) {
+    if (options.signal?.aborted) throw new CancelledError();
+    const d = decide(k);
+    if (d === 'stop') break;
+    if (d === 'parse') yield frames[k];
   }
 }
 

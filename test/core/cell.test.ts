@@ -15,6 +15,7 @@ import {
   toCartesian,
   toFractional,
   wrapPositions,
+  wrapUnit,
 } from '../../src-main/core/cell.ts';
 import { InputError } from '../../src-main/core/errors.ts';
 import { makeFrame, type Frame } from '../../src-main/core/frame.ts';
@@ -50,7 +51,7 @@ const arbCell = fc
     return 1 - c(al) ** 2 - c(be) ** 2 - c(ga) ** 2 + 2 * c(al) * c(be) * c(ga) > 0.05;
   })
   .map(([a, b, c, al, be, ga, axis]) => {
-    // Rotate the standard-orientation cell by a random rotation (Rodrigues) so no axis is special.
+    // Rotate the standard-orientation cell by a random rotation (axis–angle formula) so no axis is special.
     const h = cellFromParameters(a, b, c, al, be, ga);
     const n = Math.hypot(axis[0], axis[1], axis[2]) || 1;
     const [ux, uy, uz] = [axis[0] / n, axis[1] / n, axis[2] / n];
@@ -143,6 +144,13 @@ describe('validation', () => {
       expect(e).toBeInstanceOf(InputError);
       expect((e as Error).message).toMatch(/^water\.xyz, line 12, frame 3: /);
     }
+  });
+
+  it('wrapUnit maps into [0, 1) even for a tiny negative coordinate', () => {
+    expect(wrapUnit(-1e-17)).toBe(0);
+    expect(wrapUnit(-0.25)).toBe(0.75);
+    expect(wrapUnit(3.5)).toBe(0.5);
+    expect(wrapUnit(1)).toBe(0);
   });
 
   it('a left-handed cell is accepted with V = |det H|', () => {

@@ -11,9 +11,10 @@ import {
 } from '../../src-main/core/clausius-mossotti.ts';
 import { InputError, PhysicsError } from '../../src-main/core/errors.ts';
 import { makeRng } from '../../src-main/core/random.ts';
-import { mat3Determinant, mat3Multiply, rotateTensor, symmetricEigen } from '../../src-main/core/tensor.ts';
+import { mat3Determinant, mat3Multiply, rotateTensor, symmetricEigen, tensorFromValues } from '../../src-main/core/tensor.ts';
 import { AVOGADRO, molecularVolumeA3 } from '../../src-main/core/units.ts';
 import { randomRotation, rotationAboutAxis } from '../../src-main/core/wigner.ts';
+import { parseExtxyz } from '../../src-main/io/extxyz.ts';
 
 const diag = (a: number, b: number, c: number) => Float64Array.of(a, 0, 0, 0, b, 0, 0, 0, c);
 const iso = (v: number) => diag(v, v, v);
@@ -235,6 +236,21 @@ describe('real DFT frames (test/fixtures/water-dft-sample.extxyz)', () => {
       const perMolecule = (viaAlpha[0] + viaAlpha[4] + viaAlpha[8]) / 3 / (f.atoms / 3);
       expect(Math.abs(perMolecule / 1.12 - 1)).toBeLessThan(0.02);
       expect(maxDiff(viaAlpha, viaEps)).toBeLessThan(1e-4); // the file's 8-decimal rounding of ε, times 3V/4π
+    }
+  });
+});
+
+describe('real DFT frames through the project reader (io/extxyz.ts → tensorFromValues → convertTensor)', () => {
+  it('reads the tensors as symmetric 3×3 and reproduces eps_inf from alpha_periodic_A3', () => {
+    const path = new URL('../fixtures/water-dft-sample.extxyz', import.meta.url);
+    const frames = parseExtxyz(readFileSync(path, 'utf8'), 'water-dft-sample.extxyz');
+    expect(frames.length).toBe(8);
+    for (const [k, f] of frames.entries()) {
+      const where = { file: 'water-dft-sample.extxyz', frame: k };
+      const alpha = tensorFromValues(f.info.alpha_periodic_A3 as number[], where);
+      const eps = tensorFromValues(f.info.eps_inf as number[], where);
+      const V = Math.abs(mat3Determinant(f.cell!));
+      expect(maxDiff(convertTensor(alpha, 'alpha-c', 'eps', V, where), eps)).toBeLessThan(2e-7);
     }
   });
 });

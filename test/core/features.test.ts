@@ -2,9 +2,10 @@
 // continuity at the cutoff, unit norm, and the stored (unique-pair, √2-weighted) layout against a plain sum over
 // all ordered pairs built with h-math's coupleReal.
 import { describe, expect, it } from 'vitest';
+import { readFileSync } from 'node:fs';
 import { makeFrame, type Frame } from '../../src-main/core/frame.ts';
 import type { FeatureSettings } from '../../src-main/core/feature-types.ts';
-import { computeFeatures, concatenateFeatures, describeFeatures, featureCount, tensorLimits } from '../../src-main/core/features.ts';
+import { computeFeatures, concatenateFeatures, describeFeatures, featureCount, forEachEnvironment, tensorLimits } from '../../src-main/core/features.ts';
 import { makeDensityExpander } from '../../src-main/core/density.ts';
 import { coupleReal } from '../../src-main/core/clebsch-gordan.ts';
 import { makeRng } from '../../src-main/core/random.ts';
@@ -20,7 +21,7 @@ import {
   translateFrame,
   type Equivariant,
 } from './equivariance-harness.ts';
-import { bruteForceNeighbours } from './reference-neighbours.ts';
+import { neighbourList } from '../../src-main/core/neighbours.ts';
 
 const settings: FeatureSettings = {
   cutoff: 3.2,
@@ -40,6 +41,14 @@ function asEquivariant(frame: Frame, s: FeatureSettings = settings): Record<stri
     dipole: { data: f.tensor[1]!.data, axes: [{ lambda: 1, stride: f.tensor[1]!.n }] },
     tensor: { data: f.tensor[2]!.data, axes: [{ lambda: 2, stride: f.tensor[2]!.n }] },
   };
+}
+
+/** Largest |x_k − y_k| (one assertion instead of thousands). */
+function maxDiff(x: ArrayLike<number>, y: ArrayLike<number>): number {
+  if (x.length !== y.length) throw new Error(`maxDiff: lengths ${x.length} and ${y.length} differ`);
+  let d = 0;
+  for (let k = 0; k < x.length; k++) d = Math.max(d, Math.abs(x[k] - y[k]));
+  return Number.isNaN(d) ? Infinity : d;
 }
 
 const water = (n: number) => Array.from({ length: n }, (_, i) => (i % 3 === 0 ? 'O' : 'H'));
@@ -100,13 +109,10 @@ describe('symmetries', () => {
     for (const v of Object.values(worst)) expect(v).toBeLessThan(1e-10);
     const a = computeFeatures(frame, settings, [1, 2]);
     const b = computeFeatures(translateFrame({ ...frame, positions: frame.positions.map((x) => -x) }, [0, 0, 0]), settings, [1, 2]);
-    let flipped = 0;
-    for (let k = 0; k < a.tensor[1]!.data.length; k++) {
-      expect(b.tensor[1]!.data[k]).toBeCloseTo(-a.tensor[1]!.data[k], 12);
-      flipped = Math.max(flipped, Math.abs(a.tensor[1]!.data[k]));
-    }
-    expect(flipped).toBeGreaterThan(1e-3); // not trivially zero
-    for (let k = 0; k < a.tensor[2]!.data.length; k++) expect(b.tensor[2]!.data[k]).toBeCloseTo(a.tensor[2]!.data[k], 12);
+    const a1 = a.tensor[1]!.data, b1 = b.tensor[1]!.data, a2 = a.tensor[2]!.data, b2 = b.tensor[2]!.data;
+    expect(maxDiff(b1, a1.map((x) => -x))).toBeLessThan(1e-12);
+    expect(Math.max(...a1.map(Math.abs))).toBeGreaterThan(1e-3); // not trivially zero
+    expect(maxDiff(b2, a2)).toBeLessThan(1e-12);
   });
 
   it('permuting atoms permutes the environments and changes nothing else', () => {
@@ -117,8 +123,8 @@ describe('symmetries', () => {
     const n0 = a.n0, n2 = a.tensor[2]!.n;
     order.forEach((j, k) => {
       expect(b.centre[k]).toBe(k);
-      for (let f = 0; f < n0; f++) expect(b.scalar[k * n0 + f]).toBeCloseTo(a.scalar[j * n0 + f], 13);
-      for (let f = 0; f < 5 * n2; f++) expect(b.tensor[2]!.data[k * 5 * n2 + f]).toBeCloseTo(a.tensor[2]!.data[j * 5 * n2 + f], 13);
+      expect(maxDiff(b.scalar.subarray(k * n0, (k + 1) * n0), a.scalar.subarray(j * n0, (j + 1) * n0))).toBeLessThan(1e-13);
+      expect(maxDiff(b.tensor[2]!.data.subarray(k * 5 * n2, (k + 1) * 5 * n2), a.tensor[2]!.data.subarray(j * 5 * n2, (j + 1) * 5 * n2))).toBeLessThan(1e-13);
     });
   });
 
@@ -126,8 +132,8 @@ describe('symmetries', () => {
     for (const frame of [randomCluster(rng, water(8), 2.5), randomPeriodicFrame(rng, water(6), [3.4, 3.6, 3.5])]) {
       const a = computeFeatures(frame, settings, [0, 2]);
       const b = computeFeatures(translateFrame(frame, [1.37, -20.2, 5.05]), settings, [0, 2]);
-      for (let k = 0; k < a.scalar.length; k++) expect(Math.abs(b.scalar[k] - a.scalar[k])).toBeLessThan(1e-12);
-      for (let k = 0; k < a.tensor[2]!.data.length; k++) expect(Math.abs(b.tensor[2]!.data[k] - a.tensor[2]!.data[k])).toBeLessThan(1e-12);
+      expect(maxDiff(b.scalar, a.scalar)).toBeLessThan(1e-12);
+      expect(maxDiff(b.tensor[2]!.data, a.tensor[2]!.data)).toBeLessThan(1e-12);
     }
   });
 });
@@ -187,7 +193,7 @@ describe('stored layout', () => {
     const full = frames.map((fr) => {
       const c = new Float64Array(ex.size);
       const ch = Int32Array.from(fr.species.map((x) => s.species.indexOf(x)));
-      ex.expand(bruteForceNeighbours(fr, s.cutoff), 0, ch[0], ch, c);
+      ex.expand(neighbourList(fr, s.cutoff), 0, ch[0], ch, c);
       const vec = (ch1: number, l: number) => c.subarray(ch1 * 16 + l * l, ch1 * 16 + l * l + 2 * l + 1);
       const p: number[] = [];
       for (let c1 = 0; c1 < 6; c1++) for (let c2 = 0; c2 < 6; c2++) for (let l = 0; l <= 3; l++) {
@@ -220,6 +226,25 @@ describe('stored layout', () => {
     }
   });
 
+  it('forEachEnvironment hands over exactly the rows and blocks of computeFeatures, one at a time', () => {
+    const frame = randomPeriodicFrame(makeRng(12), water(9), [4, 4.1, 3.9]);
+    const s: FeatureSettings = { ...settings, centres: ['O'] };
+    const all = computeFeatures(frame, s, [0, 1, 2]);
+    const seen: number[] = [];
+    const count = forEachEnvironment(frame, s, [0, 1, 2], (env) => {
+      seen.push(env.centre);
+      expect(env.centreSpecies).toBe(0);
+      expect([...env.scalar]).toEqual([...all.scalar.subarray(env.index * all.n0, (env.index + 1) * all.n0)]);
+      for (const l of [1, 2] as const) {
+        const size = (2 * l + 1) * all.tensor[l]!.n;
+        expect([...env.tensor[l]!]).toEqual([...all.tensor[l]!.data.subarray(env.index * size, (env.index + 1) * size)]);
+      }
+    });
+    expect(count).toBe(3);
+    expect(seen).toEqual([...all.centre]);
+    expect(seen).toEqual([0, 3, 6]);
+  });
+
   it('concatenateFeatures stacks frames and numbers them', () => {
     const rng = makeRng(3);
     const parts = [randomCluster(rng, water(3), 1.5), randomCluster(rng, water(6), 2)].map((f) => computeFeatures(f, settings, [2]));
@@ -244,5 +269,37 @@ describe('input checks', () => {
     expect(() => computeFeatures(frame, { ...settings, cutoffWidth: 0 })).toThrow(InputError);
     expect(() => computeFeatures(frame, { ...settings, lmaxTensor: 7 })).toThrow(InputError);
     expect(() => computeFeatures(frame, { ...settings, centres: [] })).toThrow(InputError);
+    expect(() => computeFeatures(frame, { ...settings, lmax: 0, lmaxTensor: undefined }, [2])).toThrow(/λ = 2 features need lmaxTensor ≥ 1/);
+    expect(computeFeatures(frame, { ...settings, lmax: 0, lmaxTensor: undefined }, [0]).n0).toBe(36); // 8 channels: 36 pairs × 1
+  });
+});
+
+describe('a dimer along z against scipy and sympy values (test/fixtures/radial-reference.py)', () => {
+  // Neighbour on +z: Y_lm(ẑ) = δ_m0 √((2l+1)/4π), so c_nl0 = 4π f_c(d) √((2l+1)/4π) I_nl(d) + δ_l0 √(4π) I_n0(0)
+  // with I_nl from scipy's quad; λ=2 then has only μ = 0: w ⟨l 0; l' 0 | 2 0⟩ c_nl0 c_n'l'0 (sympy CG).
+  const fx = JSON.parse(readFileSync(new URL('../fixtures/radial-reference.json', import.meta.url), 'utf8')) as {
+    integral: { cutoff: number; sigma: number; nmax: number; lmax: number; rows: { d: number; n: number; l: number; value: number }[] };
+    cg20: { l: number; l2: number; value: number }[];
+  };
+  const { cutoff, sigma, nmax, lmax, rows } = fx.integral;
+  const s: FeatureSettings = { cutoff, cutoffWidth: 1, sigma, nmax, lmax, species: ['X'], centres: ['X'], lmaxTensor: lmax };
+  const I = (d: number, n: number, l: number) => rows.find((r) => r.d === d && r.n === n && r.l === l)!.value;
+  const cg = (l: number, l2: number) => fx.cg20.find((r) => r.l === l && r.l2 === l2)!.value;
+  const unit = (x: number[]) => {
+    const norm = Math.sqrt(x.reduce((a, v) => a + v * v, 0));
+    return x.map((v) => v / norm);
+  };
+
+  it.each([1.0, 2.2, 3.7])('d = %f Å: λ=0 and λ=2 features to 1e-8', (d) => {
+    const fc = d <= cutoff - 1 ? 1 : 0.5 * (1 + Math.cos(Math.PI * (d - (cutoff - 1)))); // cosine switch, width 1 Å
+    const c = (n: number, l: number) => 4 * Math.PI * fc * Math.sqrt((2 * l + 1) / (4 * Math.PI)) * I(d, n, l) + (l === 0 ? Math.sqrt(4 * Math.PI) * I(0, n, 0) : 0);
+    const f = computeFeatures(makeFrame(['X', 'X'], [0.3, -0.2, 1.1, 0.3, -0.2, 1.1 + d], null), s, [2]);
+    const p = unit(describeFeatures(s, 0).map((q) => (q.weight / Math.sqrt(2 * q.l + 1)) * c(q.n, q.l) * c(q.n2, q.l)));
+    expect(maxDiff(f.scalar.subarray(0, f.n0), p)).toBeLessThan(1e-8);
+    const labels = describeFeatures(s, 2);
+    const xi = unit(labels.map((q) => q.weight * cg(q.l, q.l2) * c(q.n, q.l) * c(q.n2, q.l2)));
+    const n2 = f.tensor[2]!.n;
+    expect(n2).toBe(labels.length);
+    for (let mu = 0; mu < 5; mu++) expect(maxDiff(f.tensor[2]!.data.subarray(mu * n2, (mu + 1) * n2), mu === 2 ? xi : new Array(n2).fill(0))).toBeLessThan(1e-8);
   });
 });

@@ -3,6 +3,7 @@ import { readFileSync } from 'node:fs';
 import fc from 'fast-check';
 import { harmonicIndex, realSphericalHarmonics } from '../../src-main/core/harmonics.ts';
 import { sphereProductRule } from '../../src-main/core/quadrature.ts';
+import { makeRng } from '../../src-main/core/random.ts';
 
 const fixture = JSON.parse(readFileSync(new URL('../fixtures/real-harmonics-scipy.json', import.meta.url), 'utf8')) as {
   lmax: number;
@@ -89,6 +90,26 @@ describe('realSphericalHarmonics', () => {
       ),
       { numRuns: 100 },
     );
+  });
+
+  it('stays accurate at high degree: addition theorem and Y_l0 at the pole up to l = 40', () => {
+    const lmax = 40;
+    const rng = makeRng(21);
+    for (let t = 0; t < 10; t++) {
+      const u = [rng.normal(), rng.normal(), rng.normal()], w = [rng.normal(), rng.normal(), rng.normal()];
+      const yu = realSphericalHarmonics(lmax, u[0], u[1], u[2]);
+      const yw = realSphericalHarmonics(lmax, w[0], w[1], w[2]);
+      const cos = (u[0] * w[0] + u[1] * w[1] + u[2] * w[2]) / (Math.hypot(u[0], u[1], u[2]) * Math.hypot(w[0], w[1], w[2]));
+      for (const l of [20, 30, 40]) {
+        let s = 0, self = 0;
+        for (let m = -l; m <= l; m++) {
+          s += yu[harmonicIndex(l, m)] * yw[harmonicIndex(l, m)];
+          self += yu[harmonicIndex(l, m)] ** 2;
+        }
+        expect(Math.abs(s - ((2 * l + 1) / (4 * Math.PI)) * legendre(l, cos))).toBeLessThan(1e-11);
+        expect(self).toBeCloseTo((2 * l + 1) / (4 * Math.PI), 11); // Unsöld's theorem (P_l(1) = 1)
+      }
+    }
   });
 
   it('depends only on the direction, not on the length', () => {

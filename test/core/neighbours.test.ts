@@ -286,6 +286,30 @@ describe('neighbourList invariances', () => {
     expectSamePairs(b, expected, 8);
   });
 
+  it('a supercell of n copies has n times the pairs, and each copy of an atom sees the same distances', () => {
+    fc.assert(
+      fc.property(arbCase, fc.tuple(fc.integer({ min: 1, max: 2 }), fc.integer({ min: 1, max: 2 }), fc.integer({ min: 1, max: 3 })), (c, reps) => {
+        const frame = frameFromCase({ ...c, pbc: [true, true, true] });
+        const n = frame.species.length;
+        const cutoff = c.cutoffScale * 1.5 * cellScale(c.cell);
+        const small = neighbourList(frame, cutoff);
+        const big = neighbourList(supercell(frame, reps), cutoff);
+        const copies = reps[0] * reps[1] * reps[2];
+        expect(big.count).toBe(copies * small.count);
+        // Copy t of atom i (index t·n + i) has the sorted distances of atom i.
+        const sortedDistances = (nl: NeighbourList, i: number) =>
+          Array.from(nl.distances.subarray(nl.start[i], nl.start[i + 1])).sort((x, y) => x - y);
+        for (let i = 0; i < n; i++) {
+          const want = sortedDistances(small, i);
+          const got = sortedDistances(big, (copies - 1) * n + i);
+          expect(got.length).toBe(want.length);
+          for (let k = 0; k < want.length; k++) expect(Math.abs(got[k] - want[k])).toBeLessThan(1e-9);
+        }
+      }),
+      { numRuns: 40 },
+    );
+  });
+
   it('the result does not depend on the bin size', () => {
     const h = cellFromParameters(11, 9, 13, 70, 100, 115);
     let state = 12345;

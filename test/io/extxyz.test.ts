@@ -260,3 +260,24 @@ describe('writing and streaming', () => {
     await expect(collect(readExtxyz(WATER, { signal: ac.signal }))).rejects.toMatchObject({ name: 'CancelledError' });
   });
 });
+
+describe('index edge cases', () => {
+  it('agrees with the parser on blank lines, CRLF, a byte-order mark and a last line without newline', async () => {
+    const d = mkdtempSync(path.join(os.tmpdir(), 'pw-idx-'));
+    try {
+      const text = '\ufeff1\r\n\r\nH 0 0 0\r\n\r\n\r\n2\r\nnote=x\r\nO 0 0 0\r\nH 1 0 0';
+      const p = path.join(d, 'e.xyz');
+      writeFileSync(p, text);
+      const frames = await collect(readExtxyz(p));
+      const idx = await indexExtxyz(p);
+      expect(idx.frames).toBe(2);
+      expect(Array.from(idx.lines)).toEqual(frames.map((f) => f.source!.line));
+      expect(Array.from(idx.lines)).toEqual([1, 6]);
+      expect(strip(await readFrameAt(p, idx, 1))).toEqual(strip(frames[1]));
+      writeFileSync(p, text.slice(0, -8)); // cut inside the last frame
+      await expect(indexExtxyz(p)).rejects.toMatchObject({ name: 'InputError', where: { frame: 1 } });
+    } finally {
+      rmSync(d, { recursive: true, force: true });
+    }
+  });
+});

@@ -1,0 +1,70 @@
+// Benchmark of core/neighbours.ts: one large liquid-density cell (100,000 atoms, 5 Å) and many small cells of the
+// learning engine's size (384 atoms, 4.5 Å). Prints figures; asserts nothing.
+import os from 'node:os';
+import { pathToFileURL } from 'node:url';
+import { cellFromParameters, toCartesian } from '../src-main/core/cell.ts';
+import { makeFrame, type Frame } from '../src-main/core/frame.ts';
+import { neighbourList } from '../src-main/core/neighbours.ts';
+import { makeRng } from '../src-main/core/random.ts';
+
+/** Uniformly random atoms at a number density (atoms/Å³) in a cell of the given angles (degrees). */
+function randomFrame(atoms: number, density: number, angles: [number, number, number], seed: number): Frame {
+  const unit = cellFromParameters(1, 1, 1, ...angles);
+  const unitVolume = unit[0] * unit[4] * unit[8];
+  const a = Math.cbrt(atoms / density / unitVolume);
+  const cell = cellFromParameters(a, a, a, ...angles);
+  const rng = makeRng(seed);
+  const frac = new Float64Array(3 * atoms);
+  for (let k = 0; k < frac.length; k++) frac[k] = rng.uniform();
+  return makeFrame(new Array<string>(atoms).fill('X'), toCartesian(cell, frac), cell);
+}
+
+function mb(bytes: number): string {
+  return (bytes / 2 ** 20).toFixed(0);
+}
+
+export async function run(): Promise<void> {
+  console.log('neighbours: full neighbour list (both directions), random positions at 0.1 atoms/Å³, one thread');
+  const shapes: [string, [number, number, number]][] = [
+    ['cubic', [90, 90, 90]],
+    ['triclinic 75/85/105°', [75, 85, 105]],
+  ];
+  for (const [name, angles] of shapes) {
+    const frame = randomFrame(100_000, 0.1, angles, 1);
+    neighbourList(randomFrame(2000, 0.1, angles, 2), 5); // warm-up
+    const cpu0 = process.cpuUsage();
+    const t0 = performance.now();
+    const nl = neighbourList(frame, 5);
+    const seconds = (performance.now() - t0) / 1000;
+    const cpu = process.cpuUsage(cpu0);
+    const cpuSeconds = (cpu.user + cpu.system) / 1e6;
+    const bytes = [nl.start, nl.neighbour, nl.vectors, nl.distances, nl.shifts].reduce((acc, a) => acc + a.buffer.byteLength, 0);
+    console.log(
+      `  ${name.padEnd(22)} atoms 100000  cutoff 5 Å  pairs ${nl.count}  ${seconds.toFixed(2)} s wall ` +
+        `(${cpuSeconds.toFixed(2)} s CPU)  ${(nl.count / seconds / 1e6).toFixed(2)} M pairs/s wall  ` +
+        `list ${mb(bytes)} MB  process peak RSS so far ${(process.resourceUsage().maxRSS / 1024).toFixed(0)} MB`,
+    );
+  }
+  // The learning engine's cells: 384 atoms at liquid density, 4.5 Å.
+  const frames = Array.from({ length: 50 }, (_, k) => randomFrame(384, 0.1, [90, 90, 90], 100 + k));
+  for (const f of frames.slice(0, 10)) neighbourList(f, 4.5); // warm-up
+  let pairs = 0;
+  const repeats = 20;
+  const cpu0 = process.cpuUsage();
+  const t0 = performance.now();
+  for (let r = 0; r < repeats; r++) for (const f of frames) pairs += neighbourList(f, 4.5).count;
+  const seconds = (performance.now() - t0) / 1000;
+  const cpu = process.cpuUsage(cpu0);
+  const cpuSeconds = (cpu.user + cpu.system) / 1e6;
+  const calls = repeats * frames.length;
+  console.log(
+    `  384-atom cubic cells   cutoff 4.5 Å  ${calls} lists  ${(pairs / calls).toFixed(0)} pairs each  ` +
+      `${((seconds / calls) * 1e3).toFixed(2)} ms/list wall (${((cpuSeconds / calls) * 1e3).toFixed(2)} ms CPU)  ` +
+      `${(pairs / seconds / 1e6).toFixed(2)} M pairs/s wall, ${(pairs / cpuSeconds / 1e6).toFixed(2)} M pairs/s CPU`,
+  );
+  console.log(`  (load average ${os.loadavg()[0].toFixed(1)} on ${os.cpus().length} cores while measuring)`);
+}
+
+if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
+  await run();
+}

@@ -1,0 +1,104 @@
+// Strict decimal numbers and short texts straight from UTF-8 bytes, for the readers' hot loops: no decoding
+// and no substrings in the common case. Pure code, runs in a browser too.
+
+const utf8 = new TextDecoder('utf-8');
+const encoder = new TextEncoder();
+
+/** Text of bytes[s, e): ASCII directly, anything else through the UTF-8 decoder. */
+export function bytesText(b: Uint8Array, s: number, e: number): string {
+  if (e - s <= 16) {
+    let out = '';
+    for (let i = s; i < e; i++) {
+      const c = b[i];
+      if (c >= 128) return utf8.decode(b.subarray(s, e));
+      out += String.fromCharCode(c);
+    }
+    return out;
+  }
+  return utf8.decode(b.subarray(s, e));
+}
+
+const POW10 = Array.from({ length: 23 }, (_, k) => Number(`1e${k}`));
+
+/**
+ * Bytes [s, e) as a strict decimal number ([+-]digits[.digits][(e|E)[+-]digits]), NaN if anything else
+ * (Number() alone would also take hexadecimal, binary and octal literals, "Infinity" and surrounding spaces).
+ * Up to 15 significant digits and a decimal exponent within ±22, the value is m / 10^k or m · 10^k with m and 10^k exact doubles, so one correctly rounded IEEE operation gives
+ * the correctly rounded result (the exact fast path of decimal-to-binary conversion); other numbers go to
+ * Number() after the syntax check.
+ */
+export function decimalAtBytes(b: Uint8Array, s: number, e: number): number {
+  let i = s;
+  let c = i < e ? b[i] : -1;
+  let negative = false;
+  if (c === 45 || c === 43) {
+    negative = c === 45;
+    c = ++i < e ? b[i] : -1;
+  }
+  let m = 0;
+  let digits = 0;
+  let seen = 0;
+  let scale = 0;
+  let lost = false;
+  while (c >= 48 && c <= 57) {
+    seen++;
+    if (digits > 0 || c !== 48) {
+      if (digits < 15) m = m * 10 + (c - 48);
+      else {
+        lost = true;
+        scale++;
+      }
+      digits++;
+    }
+    c = ++i < e ? b[i] : -1;
+  }
+  if (c === 46) {
+    c = ++i < e ? b[i] : -1;
+    while (c >= 48 && c <= 57) {
+      seen++;
+      if (digits > 0 || c !== 48) {
+        if (digits < 15) {
+          m = m * 10 + (c - 48);
+          scale--;
+        } else lost = true;
+        digits++;
+      } else scale--;
+      c = ++i < e ? b[i] : -1;
+    }
+  }
+  if (seen === 0) return NaN;
+  let exp = 0;
+  if (c === 101 || c === 69) {
+    c = ++i < e ? b[i] : -1;
+    let expNeg = false;
+    if (c === 45 || c === 43) {
+      expNeg = c === 45;
+      c = ++i < e ? b[i] : -1;
+    }
+    let expDigits = 0;
+    while (c >= 48 && c <= 57) {
+      if (exp < 100000) exp = exp * 10 + (c - 48);
+      expDigits++;
+      c = ++i < e ? b[i] : -1;
+    }
+    if (expDigits === 0) return NaN;
+    if (expNeg) exp = -exp;
+  }
+  if (i !== e) return NaN;
+  if (!lost) {
+    const p = exp + scale;
+    let v = -1;
+    if (m === 0) v = 0;
+    else if (p === 0) v = m;
+    else if (p < 0 && p >= -22) v = m / POW10[-p];
+    else if (p > 0 && p <= 22) v = m * POW10[p];
+    if (v >= 0) return negative ? -v : v;
+  }
+  return Number(bytesText(b, s, e));
+}
+
+/** A strict decimal number from a string (1, -2.5, 3e-4, 1.5E+02), or NaN; see decimalAtBytes. */
+export function strictNumber(token: string): number {
+  const b = encoder.encode(token);
+  return decimalAtBytes(b, 0, b.length);
+}
