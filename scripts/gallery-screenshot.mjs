@@ -25,6 +25,7 @@ await build({
   build: {
     outDir,
     emptyOutDir: true,
+    minify: process.env.PW_GALLERY_MINIFY !== '0',
     rollupOptions: { input: { gallery: join(repo, 'src-renderer', 'gallery.html') } },
   },
 });
@@ -79,6 +80,13 @@ try {
     await page.mouse.move(box.x + box.width / 2, box.y + box.height / 2);
     await page.waitForTimeout(100);
     await page.locator('#parity-iso').screenshot({ path: join(shotDir, 'components-parity-hover.png') });
+    // keyboard on the parity chart: the first arrow press shows the frame with the largest error
+    await page.locator('#parity-aniso .pw-parity').focus();
+    await page.keyboard.press('ArrowRight');
+    await page.locator('#parity-aniso').screenshot({ path: join(shotDir, 'components-parity-keyboard.png') });
+    await page.keyboard.press('Enter');
+    const selected = await page.title();
+    if (!/^selected frame \d+$/.test(selected)) problems.push(`parity chart: Enter did not select a frame (title "${selected}")`);
     await page.locator('#structure-atoms .pw-structure').focus();
     for (const key of ['ArrowRight', 'ArrowRight', 'ArrowRight', 'ArrowDown', 'ArrowDown', '+', '+']) await page.keyboard.press(key);
     await page.locator('#structure-atoms').screenshot({ path: join(shotDir, 'components-structure-rotated.png') });
@@ -98,6 +106,34 @@ try {
       writeFileSync(file, Buffer.from(out.png, 'base64'));
       console.log(`saved ${file} (exported PNG; SVG ${out.svg.length} characters)`);
     }
+  }
+  if (process.argv.includes('--perf')) {
+    // Redraw time of the structure view with 972 atoms (per-atom ellipsoids, bonds): keyboard rotation steps,
+    // each timed until two animation frames have passed. Printed, never asserted.
+    const page = await context.newPage();
+    await page.goto(`http://127.0.0.1:${port}/gallery.html?large`);
+    await page.waitForSelector('#structure-large svg');
+    await page.locator('#structure-large .pw-structure').focus();
+    const times = [];
+    for (let i = 0; i < 12; i++) {
+      const t = await page.evaluate(async () => {
+        const t0 = performance.now();
+        document.activeElement.dispatchEvent(new KeyboardEvent('keydown', { key: 'ArrowRight', bubbles: true }));
+        await new Promise((r) => setTimeout(r, 0));
+        const t1 = performance.now();
+        await new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r)));
+        return [t1 - t0, performance.now() - t0];
+      });
+      times.push(t);
+    }
+    const script = times.map((t) => t[0]).sort((a, b) => a - b);
+    const total = times.map((t) => t[1]).sort((a, b) => a - b);
+    const count = await page.locator('#structure-large svg *').count();
+    await page.locator('#structure-large').screenshot({ path: join(shotDir, 'components-structure-large.png') });
+    console.log(
+      `structure view, 972 atoms, ${count} SVG elements, rotation step: script + DOM update median ${script[6].toFixed(0)} ms; ` +
+        `until painted median ${total[6].toFixed(0)} ms, max ${total[11].toFixed(0)} ms (headless chromium, --disable-gpu, 2 shared cores)`,
+    );
   }
 } finally {
   await context.close();

@@ -103,6 +103,40 @@ describe('ellipsoidRing', () => {
     for (const [x, y] of all) expect(Math.hypot(x, y)).toBeLessThanOrEqual(10 + 1e-9);
   });
 
+  it('ring points lie on the ellipsoid, and the front half is the one nearer the viewer', () => {
+    fc.assert(
+      fc.property(rotation, rotation, semi, fc.constantFrom<0 | 1 | 2>(0, 1, 2), (V, R, s, k) => {
+        const v = view(R, 30);
+        const centre = [0.5, -1, 2];
+        const A = semiAxisMatrix(V, s);
+        const ring = ellipsoidRing(centre, A, k, v, 32);
+        const outline = projectEllipsoid(centre, A, v);
+        // every ring point projects inside the ellipsoid's outline
+        for (const [x, y] of [...ring.front, ...ring.back].flat()) expect(ellipseLevel(outline, x, y)).toBeLessThanOrEqual(1 + 1e-9);
+        // brute force: the ring's sample nearest the viewer (largest depth) lies on the front half
+        const i = (k + 1) % 3;
+        const j = (k + 2) % 3;
+        let best = -Infinity;
+        let worst = Infinity;
+        let bestPt: [number, number] = [0, 0];
+        for (let n = 0; n < 720; n++) {
+          const t = (2 * Math.PI * n) / 720;
+          const p = [0, 1, 2].map((r) => centre[r] + A[3 * r + i] * Math.cos(t) + A[3 * r + j] * Math.sin(t));
+          const q = projectPoint(p, v);
+          worst = Math.min(worst, q.depth);
+          if (q.depth > best) {
+            best = q.depth;
+            bestPt = [q.x, q.y];
+          }
+        }
+        fc.pre(best - worst > 0.05 * Math.max(...s)); // a ring seen face-on has no front or back
+        const dist = (pts: [number, number][]) => Math.min(...pts.map(([x, y]) => Math.hypot(x - bestPt[0], y - bestPt[1])));
+        expect(dist(ring.front[0])).toBeLessThanOrEqual(dist(ring.back[0]) + 1e-9);
+      }),
+      { numRuns: 30 },
+    );
+  });
+
   it('distinctAxis picks the eigenvalue farthest from the mean of the other two', () => {
     expect(distinctAxis([1, 1, 5])).toBe(2); // prolate
     expect(distinctAxis([0.2, 3, 3.1])).toBe(0); // oblate

@@ -93,6 +93,13 @@ describe('buildScene', () => {
     expect(s.notes.join(' ')).toMatch(/1 of 2 local tensors have a negative principal value/);
   });
 
+  it('leaves out tensors with non-finite values (with a note) and rejects non-finite positions', () => {
+    const s = buildScene({ species: ['C', 'C'], positions: [0, 0, 0, 2, 0, 0], cell: null, tensors: [...iso(1), NaN, 0, 0, 0, 1, 0, 0, 0, 1] }, 'atom');
+    expect(s.ellipsoids.map((e) => e.id)).toEqual([0]);
+    expect(s.notes.join(' ')).toMatch(/1 local tensor\(s\) contain values that are not finite.*atom 1/);
+    expect(() => buildScene({ species: ['C', 'N'], positions: [0, 0, 0, 2, Infinity, 0], cell: null }, 'none')).toThrow(/atom 1 \(N\)/);
+  });
+
   it('draws the 12 edges of the cell, each along a, b or c', () => {
     const tri = [5, 0, 0, 1, 4, 0, 0.5, 0.7, 6];
     const edges = cellEdges(tri);
@@ -129,5 +136,45 @@ describe('length scale and images', () => {
     const face = nearbyImages([[9.5, 5, 5]], cell, 0.2);
     expect(face).toHaveLength(1);
     expect(face[0].shift).toEqual([-10, 0, 0]);
+  });
+});
+
+describe('scene markup and hit testing', () => {
+  it('writes one shape per atom and ellipsoid, dashed in the warning colour for a negative principal value', async () => {
+    const { sceneMarkup } = await import('../../src-renderer/components/structure/scene-markup.ts');
+    const style = {
+      atomFill: () => 'url(#a)',
+      atomStroke: () => '#000',
+      bondColour: () => '#111',
+      ellFill: () => 'url(#e)',
+      ellStroke: () => '#222',
+      ringColour: () => '#333',
+      edge: '#444',
+      warn: '#f0f',
+    };
+    const s = sceneMarkup(
+      [
+        { kind: 'edge', depth: -1, x1: 0, y1: 0, x2: 10, y2: 0 },
+        { kind: 'atom', depth: 0, x: 5, y: 5, r: 2, sp: 'O', index: 0, faded: false },
+        { kind: 'ell', depth: 0.1, cx: 5, cy: 5, rx: 6, ry: 3, angle: 30, bin: 2, negative: true, ringFront: 'M0,0L1,1', ringBack: '', index: 0, faded: false },
+      ],
+      style,
+    );
+    expect(s.match(/<circle /g)).toHaveLength(1);
+    expect(s.match(/<ellipse /g)).toHaveLength(1);
+    expect(s).toContain('stroke="#f0f" stroke-width="1.6" stroke-dasharray="4 3"');
+    expect(s).toContain('rotate(30.0)');
+  });
+
+  it('hit testing picks the front-most shape under the pointer', async () => {
+    const { hitTest } = await import('../../src-renderer/components/structure/scene-markup.ts');
+    const items = [
+      { kind: 'atom' as const, depth: 0, x: 10, y: 10, r: 3, sp: 'C', index: 7, faded: false },
+      { kind: 'ell' as const, depth: 1, cx: 10, cy: 10, rx: 8, ry: 2, angle: 90, bin: 0, negative: false, ringFront: '', ringBack: '', index: 4, faded: false },
+    ];
+    // the ellipse (drawn later, nearer) is vertical: 8 px up/down, 2 px left/right
+    expect(hitTest(items, 10, 17)).toEqual({ kind: 'ell', index: 4 });
+    expect(hitTest(items, 12.5, 10)).toEqual({ kind: 'atom', index: 7 }); // outside the thin ellipse, inside the atom
+    expect(hitTest(items, 20, 20)).toBeNull();
   });
 });

@@ -82,6 +82,11 @@ function svgSize(svg: SVGSVGElement): { width: number; height: number } {
 export async function svgToPng(svg: SVGSVGElement, scale = 2, background = '#ffffff'): Promise<Blob> {
   const text = svgToString(svg, background);
   const { width, height } = svgSize(svg);
+  return svgTextToPng(text, width, height, scale);
+}
+
+/** A serialised standalone SVG document drawn to a PNG of (width × height) × scale pixels. */
+export async function svgTextToPng(text: string, width: number, height: number, scale = 2): Promise<Blob> {
   const url = URL.createObjectURL(new Blob([text], { type: 'image/svg+xml;charset=utf-8' }));
   try {
     const img = new Image();
@@ -117,6 +122,13 @@ export interface FigureExport {
   png: (scale?: number) => Promise<Blob>;
 }
 
+/** Export handle for an SVG serialised now (for views that add content to the SVG only while exporting). */
+export function figureFromSvg(name: string, svg: SVGSVGElement, background = '#ffffff'): FigureExport {
+  const text = svgToString(svg, background);
+  const { width, height } = svgSize(svg);
+  return { name, svg: () => text, png: (scale = 2) => svgTextToPng(text, width, height, scale) };
+}
+
 /** Export handle for a live SVG element. */
 export function figureExport(name: string, svg: SVGSVGElement, background = '#ffffff'): FigureExport {
   return { name, svg: () => svgToString(svg, background), png: (scale = 2) => svgToPng(svg, scale, background) };
@@ -133,4 +145,18 @@ export function downloadBlob(data: Blob | string, fileName: string, type = 'imag
   a.click();
   a.remove();
   setTimeout(() => URL.revokeObjectURL(url), 1000);
+}
+
+/**
+ * What an export button does: hand the figure to the view's `onexport` when it gives one (the desktop shell saves
+ * through its dialog), else let the browser save `<name>.svg` or `<name>.png`.
+ */
+export function saveFigure(
+  fig: FigureExport,
+  format: 'svg' | 'png',
+  onexport?: (figure: FigureExport, format: 'svg' | 'png') => void,
+): void {
+  if (onexport) onexport(fig, format);
+  else if (format === 'svg') downloadBlob(fig.svg(), safeFileName(fig.name, 'svg'));
+  else void fig.png().then((b) => downloadBlob(b, safeFileName(fig.name, 'png')));
 }

@@ -14,10 +14,14 @@ export const groupColours: readonly string[] = [
   '#d35fa0', // orchid
 ];
 
-/** Colour of the n-th group (cycles when there are more groups than colours). */
+/**
+ * Colour of the n-th group (cycles when there are more groups than colours), as a CSS value: the theme may
+ * override each through `--pw-group-0` … `--pw-group-7` (a dark theme wants lighter tones).
+ */
 export function groupColour(index: number): string {
   const n = groupColours.length;
-  return groupColours[((index % n) + n) % n];
+  const k = ((index % n) + n) % n;
+  return `var(--pw-group-${k}, ${groupColours[k]})`;
 }
 
 /** Theme colours as CSS custom properties with light-theme fallbacks; h-ui's themes set the variables. */

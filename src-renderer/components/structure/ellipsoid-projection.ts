@@ -101,40 +101,52 @@ export interface RingPaths {
 }
 
 /**
- * The principal section through semi-axes i and j (the ring around axis k): points c + A(cos t eᵢ + sin t eⱼ),
- * sampled, projected and split by depth relative to the centre. Drawn solid (front) and faint (back) it shows
- * how the ellipsoid is tilted.
+ * The principal section through semi-axes i and j (the ring around axis k): points c + A(cos t eᵢ + sin t eⱼ).
+ * Its screen image is c' + cos t·a' + sin t·b' (a', b' the screen images of the two semi-axis vectors) and its
+ * depth relative to the centre is cos t·a_z + sin t·b_z, so the half facing the viewer is the interval of t
+ * of length π starting where that depth crosses zero upwards. Each half is sampled with `samples`/2 segments.
+ * Drawn solid (front) and faint (back) it shows how the ellipsoid is tilted.
  */
 export function ellipsoidRing(centre: ArrayLike<number>, A: ArrayLike<number>, k: 0 | 1 | 2, view: View, samples = 48): RingPaths {
   const i = (k + 1) % 3;
   const j = (k + 2) % 3;
+  const R = view.R;
+  const s = view.scale;
   const c = projectPoint(centre, view);
-  const out: RingPaths = { front: [], back: [] };
-  let run: [number, number][] = [];
-  let runFront: boolean | null = null;
-  for (let n = 0; n <= samples; n++) {
-    const t = (2 * Math.PI * n) / samples;
-    const a = Math.cos(t);
-    const b = Math.sin(t);
-    const p = [0, 1, 2].map((r) => centre[r] + A[3 * r + i] * a + A[3 * r + j] * b);
-    const s = projectPoint(p, view);
-    const front = s.depth >= c.depth;
-    if (runFront === null) runFront = front;
-    if (front !== runFront) {
-      run.push([s.x, s.y]); // close the run at the crossing sample so the halves meet
-      (runFront ? out.front : out.back).push(run);
-      run = [];
-      runFront = front;
+  const screen = (col: number): [number, number, number] => {
+    const x = A[col];
+    const y = A[3 + col];
+    const z = A[6 + col];
+    return [
+      s * (R[0] * x + R[1] * y + R[2] * z),
+      -s * (R[3] * x + R[4] * y + R[5] * z),
+      R[6] * x + R[7] * y + R[8] * z,
+    ];
+  };
+  const a = screen(i);
+  const b = screen(j);
+  // depth(t) = a_z cos t + b_z sin t = ρ cos(t − φ): front for t ∈ [φ − π/2, φ + π/2]
+  const phi = Math.atan2(b[2], a[2]);
+  const half = Math.max(2, Math.round(samples / 2));
+  const arc = (t0: number): [number, number][] => {
+    const pts: [number, number][] = new Array(half + 1);
+    for (let n = 0; n <= half; n++) {
+      const t = t0 + (Math.PI * n) / half;
+      const ct = Math.cos(t);
+      const st = Math.sin(t);
+      pts[n] = [c.x + ct * a[0] + st * b[0], c.y + ct * a[1] + st * b[1]];
     }
-    run.push([s.x, s.y]);
-  }
-  if (run.length > 1) (runFront ? out.front : out.back).push(run);
-  return out;
+    return pts;
+  };
+  return { front: [arc(phi - Math.PI / 2)], back: [arc(phi + Math.PI / 2)] };
 }
 
 /** SVG path data of polylines. */
 export function polylinePath(lines: [number, number][][]): string {
-  return lines.map((l) => 'M' + l.map(([x, y]) => `${x.toFixed(1)},${y.toFixed(1)}`).join('L')).join('');
+  let d = '';
+  for (const l of lines)
+    for (let n = 0; n < l.length; n++) d += (n === 0 ? 'M' : 'L') + Math.round(l[n][0] * 10) / 10 + ',' + Math.round(l[n][1] * 10) / 10;
+  return d;
 }
 
 /**

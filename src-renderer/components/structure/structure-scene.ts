@@ -123,6 +123,10 @@ export function buildScene(input: SceneInput, mode: EllipsoidMode, bondCutoffFac
   const cell = input.cell ?? null;
   const inv = cell ? inverse3(cell) : null;
   const atoms = input.species.map((s, i) => ({ centre: pos(input.positions, i), radius: elementRadius(s), species: s, index: i }));
+  const badAtom = atoms.find((a) => !a.centre.every(Number.isFinite));
+  if (badAtom) {
+    throw new RangeError(`structure view: atom ${badAtom.index} (${badAtom.species}) has a position that is not a finite number`);
+  }
 
   // Half-bonds by covalent radii (all pairs: fine for the few thousand atoms a view can show legibly).
   const bonds: Scene['bonds'] = [];
@@ -186,6 +190,16 @@ export function buildScene(input: SceneInput, mode: EllipsoidMode, bondCutoffFac
         else for (const i of m) for (let k = 0; k < 9; k++) tensor[k] += t[9 * i + k];
         ellipsoids.push(makeEllipsoid([r0[0] + c[0], r0[1] + c[1], r0[2] + c[2]], tensor, m, g));
       });
+    }
+    // a tensor with a non-finite entry (a failed prediction) has no shape: leave it out and say so
+    const finite = ellipsoids.filter((e) => e.tensor.every(Number.isFinite));
+    if (finite.length < ellipsoids.length) {
+      const first = ellipsoids.find((e) => !e.tensor.every(Number.isFinite));
+      notes.push(
+        `${ellipsoids.length - finite.length} local tensor(s) contain values that are not finite numbers and are not drawn ` +
+          `(first: ${used === 'molecule' ? 'molecule' : 'atom'} ${first?.id}).`,
+      );
+      ellipsoids.splice(0, ellipsoids.length, ...finite);
     }
     const neg = ellipsoids.filter((e) => e.negative).length;
     if (neg > 0) {
