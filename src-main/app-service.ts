@@ -24,6 +24,7 @@ import type {
 } from './api.ts';
 import { toApiError, ApiValidationError } from './api.ts';
 import type { Frame } from './core/frame.ts';
+import type { Model } from './core/model.ts';
 import { InputError, ModelError } from './core/errors.ts';
 import { findMolecules } from './core/molecules.ts';
 import { blockAverage, runningMean } from './core/statistics.ts';
@@ -444,7 +445,7 @@ export class AppService implements ApiService {
     const p = this.predictionRecord(params.predictionId);
     const d = this.dataset(p.summary.datasetId);
     const m = this.modelRecord(p.summary.modelId);
-    const text = predictionsCsv(p.summary.frames, p.local, p.atomDistance, d.frames, m.summary.name);
+    const text = predictionsCsv(p.summary.frames, p.local, p.atomDistance, d.frames, m.model as Model, m.summary.name);
     const stem = d.summary.name.replace(/\.(ext)?xyz$|\.cif$/i, '');
     return { fileName: `${stem}-predicted.csv`, mime: 'text/csv', text };
   }

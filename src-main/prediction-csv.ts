@@ -1,11 +1,13 @@
-// The CSV of predicted tensors the Export view writes: the same columns and number formatting as
-// `polarweave predict -o OUT.csv` (core/predict-rows.ts, csvLine), so the window's file and the command
-// line's agree row for row. Only the comment line differs (it names the model instead of a model path).
+// The CSV of predicted tensors the Export view writes: the same layout as `polarweave predict -o OUT.csv`
+// (io/csv.ts tensorCsv with the CLI's predictionCsvOptions and core/predict-rows.ts rows), so the window's
+// file and the command line's agree row for row. Only the comment block's "Source" and "Written" lines differ.
 import type { FramePredictionJ } from './api.ts';
-import { csvLine } from './cli/commands/predict.ts';
+import { predictionCsvOptions } from './cli/commands/predict.ts';
 import type { Frame } from './core/frame.ts';
+import type { Model } from './core/model.ts';
 import type { FramePrediction } from './core/model-types.ts';
-import { tensorPredictionRow, tensorRowColumns } from './core/predict-rows.ts';
+import { tensorPredictionRow } from './core/predict-rows.ts';
+import { tensorCsv } from './io/csv.ts';
 
 function asFramePrediction(f: FramePredictionJ, local: number[], atomDistance: number[]): FramePrediction {
   const a = f.applicability;
@@ -19,12 +21,14 @@ function asFramePrediction(f: FramePredictionJ, local: number[], atomDistance: n
   };
 }
 
-export function predictionsCsv(frames: FramePredictionJ[], local: number[][], atomDistance: number[][], sourceFrames: Frame[], modelName: string): string {
-  const columns = tensorRowColumns();
-  let text = `# Polarweave predictions (model estimates) from ${modelName.replace(/\n/g, ' ')}\n` + csvLine(columns);
-  frames.forEach((f, k) => {
-    const row = tensorPredictionRow(f.frame, sourceFrames[f.frame], asFramePrediction(f, local[k], atomDistance[k]));
-    text += csvLine(columns.map((c) => row[c] ?? ''));
-  });
-  return text;
+export function predictionsCsv(
+  frames: FramePredictionJ[],
+  local: number[][],
+  atomDistance: number[][],
+  sourceFrames: Frame[],
+  model: Model,
+  modelName: string,
+): string {
+  const rows = frames.map((f, k) => tensorPredictionRow(f.frame, sourceFrames[f.frame], asFramePrediction(f, local[k], atomDistance[k]), model));
+  return tensorCsv(rows, predictionCsvOptions(model, `"${modelName}" (from the window)`));
 }

@@ -1,7 +1,7 @@
 // Options shared by `train` and `validate`: what to learn and the model settings, parsed into a TrainRequest.
 import { numberOption, UsageError, type OptionSpec, type ParsedArgs } from './args.ts';
 import { DEFAULT_SETTINGS } from '../core/model.ts';
-import type { ModelSettings, Route, TensorKind, TrainRequest } from '../core/model-types.ts';
+import type { ModelSettings, Route, TensorKind, TrainRequest, TuneGrid } from '../core/model-types.ts';
 import type { CommandIO } from './command.ts';
 import type { Progress } from '../core/model-types.ts';
 
@@ -20,6 +20,7 @@ export const settingOptions: OptionSpec[] = [
   { name: 'regularisation', value: 'R', help: 'ridge regulariser relative to the kernel scale (default: chosen by cross-validation)' },
   { name: 'sparse', value: 'M', help: 'representative environments per species for ζ > 1 (0 = exact kernel ridge)', default: String(DEFAULT_SETTINGS.sparsePoints) },
   { name: 'centres', value: 'LIST', help: 'species that carry local contributions, comma-separated (default: all)' },
+  { name: 'max-features', value: 'N', help: 'keep at most N feature columns per order, chosen from the data (0 = all)', default: '0' },
   { name: 'seed', value: 'N', help: 'random seed', default: String(DEFAULT_SETTINGS.seed) },
 ];
 
@@ -51,8 +52,30 @@ export function parseSettings(args: ParsedArgs): Partial<ModelSettings> {
   s.regularisation = reg ?? null;
   s.sparsePoints = num('sparse', { integer: true, min: 0, max: 20000 });
   s.seed = num('seed', { integer: true });
+  s.maxFeatures = num('max-features', { integer: true, min: 0, max: 100000 });
   if (args.options.centres) s.centres = args.options.centres.split(',').map((x) => x.trim()).filter(Boolean);
   return s;
+}
+
+export const tuneOptions: OptionSpec[] = [
+  { name: 'tune-cutoff', value: 'LIST', help: 'cutoffs (Å) to choose from by cross-validation, e.g. 4,4.5,5' },
+  { name: 'tune-sigma', value: 'LIST', help: 'Gaussian widths (Å) to choose from by cross-validation' },
+  { name: 'tune-zeta', value: 'LIST', help: 'kernel exponents to choose from by cross-validation, e.g. 1,2' },
+];
+
+function numberList(args: ParsedArgs, name: string, integer = false): number[] | undefined {
+  const raw = args.options[name];
+  if (raw === undefined) return undefined;
+  const values = raw.split(',').map((x) => Number(x.trim()));
+  if (values.length === 0 || values.some((v) => !Number.isFinite(v) || v <= 0 || (integer && !Number.isInteger(v)))) {
+    throw new UsageError(`--${name} takes a comma-separated list of positive ${integer ? 'whole ' : ''}numbers, got "${raw}"`);
+  }
+  return values;
+}
+
+export function parseTune(args: ParsedArgs): TuneGrid | undefined {
+  const grid: TuneGrid = { cutoff: numberList(args, 'tune-cutoff'), sigma: numberList(args, 'tune-sigma'), zeta: numberList(args, 'tune-zeta', true) };
+  return grid.cutoff || grid.sigma || grid.zeta ? grid : undefined;
 }
 
 export function parseRequest(args: ParsedArgs, route: Route): TrainRequest {
@@ -74,14 +97,15 @@ export function progressReporter(io: CommandIO, prefix: string): (p: Progress) =
   };
 }
 
-import { readExtxyz, type FrameRange } from '../io/extxyz.ts';
+import type { FrameRange } from '../io/extxyz.ts';
+import { readStructures } from '../io/read-structures.ts';
 import type { Frame } from '../core/frame.ts';
 import { CancelledError } from '../core/errors.ts';
 
-/** Every frame of an extended XYZ file (optionally a range), stopping on Ctrl-C. */
+/** Every frame of a structure file (extended XYZ or CIF; optionally a range), stopping on Ctrl-C. */
 export async function readFrames(path: string, io: CommandIO, range?: FrameRange): Promise<Frame[]> {
   const frames: Frame[] = [];
-  for await (const f of readExtxyz(path, { signal: io.signal, range })) {
+  for await (const f of readStructures(path, { signal: io.signal, range })) {
     frames.push(f);
     if (io.signal.aborted) throw new CancelledError();
   }

@@ -76,12 +76,39 @@ export function environmentKernel(a: EnvironmentFeatures, i: number, b: Environm
 export function structureKernel(a: EnvironmentFeatures, b: EnvironmentFeatures, order: Order, zeta: number): Float64Array {
   const w = 2 * order + 1;
   const sum = new Float64Array(w * w);
-  const tmp = new Float64Array(w * w);
+  if (order === 0) {
+    for (let i = 0; i < a.count; i++) {
+      for (let j = 0; j < b.count; j++) {
+        if (a.centreSpecies[i] === b.centreSpecies[j]) sum[0] += kernelPower(scalarDot(a.scalar, i, b.scalar, j, a.n0), zeta);
+      }
+    }
+    return sum;
+  }
+  // Σ_ij s(i,j) ξ_i ξ_jᵀ = Σ_i ξ_i · Y_iᵀ with Y_i = Σ_j s(i,j) ξ_j: one (2λ+1)×n accumulation per pair
+  // instead of (2λ+1)² dot products.
+  const va = blockView(a, order);
+  const vb = blockView(b, order);
+  const n = va.n;
+  const y = new Float64Array(w * n);
   for (let i = 0; i < a.count; i++) {
+    y.fill(0);
+    let any = false;
     for (let j = 0; j < b.count; j++) {
       if (a.centreSpecies[i] !== b.centreSpecies[j]) continue;
-      environmentKernel(a, i, b, j, order, zeta, tmp);
-      for (let q = 0; q < w * w; q++) sum[q] += tmp[q];
+      const s = kernelPower(scalarDot(a.scalar, i, b.scalar, j, a.n0), zeta - 1);
+      if (s === 0) continue;
+      any = true;
+      const ob = j * w * n;
+      for (let q = 0; q < w * n; q++) y[q] += s * vb.data[ob + q];
+    }
+    if (!any) continue;
+    for (let mu = 0; mu < w; mu++) {
+      const oa = (i * w + mu) * n;
+      for (let nu = 0; nu < w; nu++) {
+        let d = 0;
+        for (let f = 0; f < n; f++) d += va.data[oa + f] * y[nu * n + f];
+        sum[mu * w + nu] += d;
+      }
     }
   }
   return sum;

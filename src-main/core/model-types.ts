@@ -41,6 +41,15 @@ export interface TrainRequest {
   kind: TensorKind;
   route: Route;
   settings?: Partial<ModelSettings>;
+  /** Candidate values to choose by cross-validation on the training frames (each list tried in every combination). */
+  tune?: TuneGrid;
+}
+
+/** Settings to choose by cross-validation (on request: each combination costs one training). */
+export interface TuneGrid {
+  cutoff?: number[];
+  sigma?: number[];
+  zeta?: number[];
 }
 
 export interface Progress {

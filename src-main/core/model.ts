@@ -7,7 +7,8 @@
 // See docs/learning-engine.md for the choices and their reasons.
 import { CancelledError, InputError, ModelError } from './errors.ts';
 import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
-import { computeFeatures } from './features.ts';
+import { computeFeatures, concatenateFeatures } from './features.ts';
+import { applyFeatureSelection, selectFeatures, type FeatureSelection } from './feature-selection.ts';
 import type { Frame, Mat3 } from './frame.ts';
 import {
   blockView,
@@ -21,6 +22,7 @@ import {
 } from './kernels.ts';
 import type { Applicability, FramePrediction, ModelSettings, Route, TensorKind, TrainRequest, WorkHooks } from './model-types.ts';
 import { makeRng } from './random.ts';
+import { tuneCombinations, tuneSettings } from './tuning.ts';
 import { fitRidge, foldsOf, posteriorVariance, primalWeights, type Design } from './regression.ts';
 import {
   farthestPointSample,
@@ -135,6 +137,8 @@ export interface Model {
   centres: string[];
   /** Feature sizes the model was trained with (checked at prediction). */
   featureSizes: { n0: number; n?: number };
+  /** Feature columns kept (settings.maxFeatures > 0): applied to computed features before the model sees them. */
+  featureSelection?: FeatureSelection;
   /** Per centre species λ=0 baseline contribution per atom (first irreducible component), or zeros. */
   baseline: number[];
   parts: ModelPart[];
@@ -366,10 +370,23 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const targets = learntTargets(frames, request);
   const { species, centres } = speciesOf(frames, settings, options.species);
   const order = tensorOrderOf(targets.shape);
-  const feat: Featuriser = featurise ?? ((frame) => computeFeatures(frame, featureSettingsOf(settings, species, centres), order === null ? [] : [order]));
+  const baseFeat: Featuriser = featurise ?? ((frame) => computeFeatures(frame, featureSettingsOf(settings, species, centres), order === null ? [] : [order]));
   const nFrames = frames.length;
   const nS = centres.length;
   const rng = makeRng(settings.seed);
+  // Data-driven feature selection (maxFeatures > 0): columns chosen on a sample of up to 8 training frames.
+  let featureSelection: FeatureSelection | undefined;
+  let feat = baseFeat;
+  if (settings.maxFeatures > 0) {
+    hooks.onProgress?.({ stage: 'feature selection', done: 0, total: 1 });
+    const picks = [...new Set(Array.from({ length: Math.min(8, nFrames) }, (_, k) => Math.floor((k * nFrames) / Math.min(8, nFrames))))];
+    const sample = concatenateFeatures(picks.map((f) => baseFeat(frames[f], f)));
+    const sel: FeatureSelection = { 0: selectFeatures(sample, settings.maxFeatures, 0) };
+    if (order !== null) sel[order] = selectFeatures(sample, settings.maxFeatures, order);
+    featureSelection = sel;
+    feat = (frame, i) => applyFeatureSelection(baseFeat(frame, i), sel);
+    await yieldToLoop();
+  }
   const linear = settings.zeta === 1;
   const exact = !linear && settings.sparsePoints === 0;
   const partsSpec: { order: Order; offset: number; width: number }[] = [];
@@ -610,6 +627,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     species,
     centres,
     featureSizes: { n0, n: nOrder },
+    featureSelection,
     baseline: [...baseline],
     parts,
     applicability,
@@ -657,9 +675,17 @@ function targetStatistics(y: Float64Array, frames: number, c: number): TrainingS
   return { mean, std: std.map(Math.sqrt), min, max };
 }
 
-/** Train a model on frames (the contract of model-types.ts). */
-export function trainModel(frames: Frame[], request: TrainRequest, hooks: WorkHooks = {}): Promise<Model> {
-  return trainWithFeaturiser(frames, request, null, hooks);
+/**
+ * Train a model on frames (the contract of model-types.ts). With `request.tune`, the listed settings are first
+ * chosen by cross-validation on the same frames (core/tuning.ts); the choice is recorded in the model's notes.
+ */
+export async function trainModel(frames: Frame[], request: TrainRequest, hooks: WorkHooks = {}): Promise<Model> {
+  if (!request.tune || tuneCombinations(request.tune).length <= 1) return trainWithFeaturiser(frames, request, null, hooks);
+  const tuned = await tuneSettings(frames, request, request.tune, hooks);
+  const model = await trainWithFeaturiser(frames, { ...request, tune: undefined, settings: { ...(request.settings ?? {}), ...tuned.best } }, null, hooks);
+  const fmt = (s: Partial<ModelSettings>) => Object.entries(s).map(([k, v]) => `${k} ${v}`).join(', ');
+  model.notes.push(`tuned by cross-validation: ${fmt(tuned.best)} (scores: ${tuned.table.map((r) => `${fmt(r.settings)} → ${r.score.toPrecision(3)}`).join('; ')})`);
+  return model;
 }
 
 /** Check that a frame can be predicted by the model: species it knows. */
@@ -673,9 +699,13 @@ export function checkFrameSpecies(model: Model, frame: Frame, index = 0): void {
   }
 }
 
-/** Prediction of the learnt target of any shape, from precomputed features. */
-export function predictWithFeatures(model: Model, frame: Frame, fe: EnvironmentFeatures, index = 0): TargetPrediction {
+/**
+ * Prediction of the learnt target of any shape, from features as computeFeatures gives them (the model's
+ * feature selection, if any, is applied here).
+ */
+export function predictWithFeatures(model: Model, frame: Frame, raw: EnvironmentFeatures, index = 0): TargetPrediction {
   checkFrameSpecies(model, frame, index);
+  const fe = model.featureSelection ? applyFeatureSelection(raw, model.featureSelection) : raw;
   if (fe.n0 !== model.featureSizes.n0) throw new ModelError(`features have ${fe.n0} λ=0 components but the model was trained with ${model.featureSizes.n0}`);
   const nAtoms = frame.species.length;
   const C = model.target.shape === 'tensor' ? 6 : model.target.shape === 'vector' ? 3 : 1;

@@ -80,3 +80,10 @@ export function sumByMolecule(local: Float64Array, width: number, molecules: Mol
   }
   return out;
 }
+
+/** Per-molecule local tensors of a prediction: 9 numbers per molecule (the sum of its atoms' `local`). */
+export function moleculeContributions(frame: Frame, local: Float64Array, tolerance = BOND_TOLERANCE): { molecules: Molecules; local: Float64Array } {
+  if (local.length !== 9 * frame.species.length) throw new RangeError(`moleculeContributions: ${local.length} values for ${frame.species.length} atoms (need 9 per atom)`);
+  const molecules = findMolecules(frame, tolerance);
+  return { molecules, local: sumByMolecule(local, 9, molecules) };
+}

@@ -5,58 +5,47 @@ import type { Frame } from './frame.ts';
 import type { FramePrediction } from './model-types.ts';
 import type { Model, TargetPrediction } from './model.ts';
 import { predictedVector } from './model.ts';
-import { symmetricEigen, tensorToVoigt } from './tensor.ts';
 
 export type RowValue = number | string | boolean;
 export type PredictionRow = Record<string, RowValue>;
 
-const VOIGT = ['xx', 'yy', 'zz', 'yz', 'xz', 'xy'];
-
-function tensorColumns(prefix: string, t: Float64Array, row: PredictionRow): void {
-  const v = tensorToVoigt(t);
-  VOIGT.forEach((c, k) => (row[`${prefix}_${c}`] = v[k]));
-}
-
-/** The column names of a tensor model's rows, in order (stable for CSV headers). */
-export function tensorRowColumns(): string[] {
-  const cols = ['frame', 'tag', 'volume_A3'];
-  for (const p of ['eps', 'alpha_cm_A3', 'alpha_c_A3']) for (const c of VOIGT) cols.push(`${p}_${c}`);
-  cols.push('n_1', 'n_2', 'n_3', 'max_distance', 'threshold', 'atoms_outside', 'outside', 'variance_iso');
-  return cols;
-}
+/** Applicability figures written beside every prediction, with their meaning (for file headers). */
+export const APPLICABILITY_COLUMNS: Record<string, string> = {
+  max_distance: 'largest per-atom distance in normalised λ=0 feature space to the nearest training representative of its species (0…2)',
+  threshold: "the model's applicability threshold on that distance",
+  atoms_outside: 'number of atoms beyond the threshold',
+  outside: '1 when any atom lies outside the training data (treat the prediction with care), else 0',
+  variance_iso: 'predictive variance of the λ=0 part of the learnt tensor (Å⁶; GP posterior of the model)',
+};
 
 function tagOf(frame: Frame): string {
   const t = frame.info.tag;
   return typeof t === 'string' ? t : '';
 }
 
-function applicabilityColumns(pred: { applicability: FramePrediction['applicability'] }, row: PredictionRow): void {
-  const a = pred.applicability;
-  row.max_distance = a.maxDistance;
-  row.threshold = a.threshold;
-  row.atoms_outside = a.atomsOutside;
-  row.outside = a.outside;
-  row.variance_iso = a.variance;
+function applicabilityFigures(a: FramePrediction['applicability']): Record<string, number> {
+  return { max_distance: a.maxDistance, threshold: a.threshold, atoms_outside: a.atomsOutside, outside: a.outside ? 1 : 0, variance_iso: a.variance };
 }
 
-/** Row of a tensor prediction; `index` is the frame's index in its file. */
-export function tensorPredictionRow(index: number, frame: Frame, p: FramePrediction): PredictionRow {
-  const row: PredictionRow = { frame: index, tag: tagOf(frame), volume_A3: p.volumeA3 };
-  tensorColumns('eps', p.eps, row);
-  tensorColumns('alpha_cm_A3', p.alphaCM, row);
-  tensorColumns('alpha_c_A3', p.alphaC, row);
-  // principal refractive indices n_k = sqrt(λ_k(ε)), ascending; NaN-free: ε eigenvalues below 0 cannot come out
-  // of the forward Clausius–Mossotti relation, which raises an error first.
-  const ev = symmetricEigen(p.eps).values;
-  for (let k = 0; k < 3; k++) row[`n_${k + 1}`] = Math.sqrt(Math.max(0, ev[k]));
-  applicabilityColumns(p, row);
-  return row;
+/**
+ * A tensor prediction as a per-frame table row (the TensorRow shape of io/csv.ts): ε, the learnt cell
+ * polarisability of the route (α_CM for cm, α_c for direct), a `tag` column and the applicability figures.
+ */
+export function tensorPredictionRow(index: number, frame: Frame, p: FramePrediction, model: Model) {
+  return {
+    frame: index,
+    tags: { tag: tagOf(frame) },
+    volumeA3: p.volumeA3,
+    eps: p.eps,
+    alpha: model.target.route === 'cm' ? p.alphaCM : p.alphaC,
+    extra: applicabilityFigures(p.applicability),
+  };
 }
 
 /** Column names of a vector or scalar model's rows. */
 export function valueRowColumns(model: Model): string[] {
   const v = model.target.shape === 'vector' ? ['value_x', 'value_y', 'value_z'] : ['value'];
-  return ['frame', 'tag', ...v, 'max_distance', 'threshold', 'atoms_outside', 'outside', 'variance_iso'];
+  return ['frame', 'tag', ...v, ...Object.keys(APPLICABILITY_COLUMNS)];
 }
 
 export function valuePredictionRow(model: Model, index: number, frame: Frame, p: TargetPrediction): PredictionRow {
@@ -67,7 +56,7 @@ export function valuePredictionRow(model: Model, index: number, frame: Frame, p:
     row.value_y = v[1];
     row.value_z = v[2];
   } else row.value = p.irreducible[0];
-  applicabilityColumns(p, row);
+  Object.assign(row, applicabilityFigures(p.applicability));
   return row;
 }
 

@@ -155,13 +155,21 @@ export function crossValidateRegularisation(d: Design, opts: CrossValidationOpti
   const lambdas = grid.map((g) => g * scale);
   const sse = new Float64Array(grid.length);
   let counted = 0;
+  const splits: { train: Int32Array; test: Int32Array }[] = [];
   for (let k = 0; k < opts.folds; k++) {
-    if (opts.signal?.aborted) throw new CancelledError();
     const train: number[] = [];
     const test: number[] = [];
     for (let r = 0; r < d.rows; r++) (opts.fold[d.group[r]] === k ? test : train).push(r);
-    if (test.length === 0 || train.length === 0) continue;
-    const pred = ridgeFitPredict(d, Int32Array.from(train), Int32Array.from(test), lambdas);
+    if (test.length && train.length) splits.push({ train: Int32Array.from(train), test: Int32Array.from(test) });
+  }
+  // When the folds solve in dual form, build the kernel of all rows once instead of once per fold.
+  let work = d;
+  if (!d.gram && splits.length && featureCount(d) > Math.min(...splits.map((s) => s.train.length))) {
+    work = { rows: d.rows, group: d.group, y: d.y, gram: gramOfRows(d.phi as Float64Array, d.rows, featureCount(d)) };
+  }
+  for (const { train, test } of splits) {
+    if (opts.signal?.aborted) throw new CancelledError();
+    const pred = ridgeFitPredict(work, train, test, lambdas);
     pred.forEach((p, li) => {
       for (let t = 0; t < test.length; t++) sse[li] += (p[t] - d.y[test[t]]) ** 2;
     });
@@ -182,9 +190,16 @@ export function fitRidge(d: Design, relative: number | null, cv: CrossValidation
   let cvError = 0;
   if (chosen === null) {
     if (!cv) throw new RangeError('fitRidge: no regulariser given and no cross-validation folds');
-    grid = crossValidateRegularisation(d, cv);
-    let best = grid[0];
-    for (const g of grid) if (g.error <= best.error * (1 + 1e-9)) best = g;
+    if (cv.grid) grid = crossValidateRegularisation(d, cv);
+    else {
+      // coarse grid every second decade, then the two decades beside the best: 7 solves per fold, not 10
+      const coarse = DEFAULT_REGULARISATION_GRID.filter((_, i) => i % 2 === 0);
+      grid = crossValidateRegularisation(d, { ...cv, grid: coarse });
+      const at = DEFAULT_REGULARISATION_GRID.indexOf(bestOf(grid).relative);
+      const extra = [at - 1, at + 1].filter((i) => i >= 0 && i < DEFAULT_REGULARISATION_GRID.length).map((i) => DEFAULT_REGULARISATION_GRID[i]);
+      grid = [...grid, ...crossValidateRegularisation(d, { ...cv, grid: extra })].sort((a, b) => a.relative - b.relative);
+    }
+    const best = bestOf(grid);
     chosen = best.relative;
     cvError = best.error;
   } else if (cv) {
@@ -226,6 +241,13 @@ export function fitRidge(d: Design, relative: number | null, cv: CrossValidation
   const c = choleskySolve(factor, d.rows, d.y);
   const posterior: Posterior | undefined = wantPosterior ? { form: 'primal', size: f, factor: primalFactor(), noise, lambda } : undefined;
   return { form: 'dual', weights: c, relative: chosen, lambda, scale, cvError, grid, posterior };
+}
+
+/** Smallest CV error; ties go to the larger (smoother) regulariser. */
+function bestOf(grid: { relative: number; error: number }[]): { relative: number; error: number } {
+  let best = grid[0];
+  for (const g of grid) if (g.error < best.error * (1 - 1e-9) || (g.error <= best.error * (1 + 1e-9) && g.relative > best.relative)) best = g;
+  return best;
 }
 
 function residualNoise(d: Design, all: Int32Array, lambda: number): number {

@@ -19,14 +19,29 @@ export interface EnvironmentPool {
 
 /** Euclidean distance between two λ=0 rows (unit rows: 0 … 2). */
 export function rowDistance(a: Float64Array, ia: number, b: Float64Array, ib: number, n0: number): number {
-  let s = 0;
+  // four accumulators: this loop dominates farthest-point sampling and the applicability check
+  let s0 = 0;
+  let s1 = 0;
+  let s2 = 0;
+  let s3 = 0;
   const oa = ia * n0;
   const ob = ib * n0;
-  for (let f = 0; f < n0; f++) {
-    const d = a[oa + f] - b[ob + f];
-    s += d * d;
+  let f = 0;
+  for (; f + 3 < n0; f += 4) {
+    const d0 = a[oa + f] - b[ob + f];
+    const d1 = a[oa + f + 1] - b[ob + f + 1];
+    const d2 = a[oa + f + 2] - b[ob + f + 2];
+    const d3 = a[oa + f + 3] - b[ob + f + 3];
+    s0 += d0 * d0;
+    s1 += d1 * d1;
+    s2 += d2 * d2;
+    s3 += d3 * d3;
   }
-  return Math.sqrt(s);
+  for (; f < n0; f++) {
+    const d = a[oa + f] - b[ob + f];
+    s0 += d * d;
+  }
+  return Math.sqrt(s0 + s1 + s2 + s3);
 }
 
 /**

@@ -158,6 +158,11 @@ function checkModelShape(m: Model, file: string): void {
   need(Array.isArray(m.species) && m.species.every((s) => typeof s === 'string'), file, 'species');
   need(Array.isArray(m.centres) && m.centres.every((s) => m.species.includes(s)), file, 'centre species');
   need(typeof m.featureSizes?.n0 === 'number', file, 'feature sizes');
+  if (m.featureSelection !== undefined) {
+    const sel = m.featureSelection as Record<string, unknown>;
+    need(Object.values(sel).every((v) => Array.isArray(v) && v.every((x) => Number.isInteger(x) && x >= 0)), file, 'feature selection');
+    need(Array.isArray(sel[0]) && (sel[0] as number[]).length === m.featureSizes.n0, file, 'feature selection size');
+  }
   need(Array.isArray(m.baseline) && m.baseline.length === m.centres.length, file, 'baseline');
   need(Array.isArray(m.parts) && m.parts.length > 0, file, 'model parts');
   const nS = m.centres.length;

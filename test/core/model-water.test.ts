@@ -10,6 +10,9 @@ import { predictFrame, trainModel, type Model } from '../../src-main/core/model.
 import { makeRng } from '../../src-main/core/random.ts';
 import { rotateTensor, toIrreducible } from '../../src-main/core/tensor.ts';
 import { parseExtxyz } from '../../src-main/io/extxyz.ts';
+import { parseModel, serialiseModel } from '../../src-main/io/model-file.ts';
+import { tuneSettings } from '../../src-main/core/tuning.ts';
+import { moleculeContributions } from '../../src-main/core/molecules.ts';
 import { MIRROR, randomRotations, transformFrame } from './equivariance-harness.ts';
 
 const frames: Frame[] = parseExtxyz(readFileSync(new URL('../fixtures/water-dft-sample.extxyz', import.meta.url), 'utf8'), 'water-dft-sample.extxyz');
@@ -71,6 +74,22 @@ describe('real DFT water: train on frames 0–5, predict frames 6 and 7', () => 
     }
   });
 
+  it('per-molecule α_CM: 16 molecules of about 1.13 Å³ each, summing to the cell', () => {
+    const p = predictFrame(models.cm!, frames[6]);
+    const { molecules, local } = moleculeContributions(frames[6], p.local);
+    expect(molecules.count).toBe(16);
+    let trace = 0;
+    for (let m = 0; m < 16; m++) {
+      const t = local.subarray(m * 9, m * 9 + 9);
+      const isoM = (t[0] + t[4] + t[8]) / 3;
+      trace += isoM;
+      // local molecular polarisabilities near the cell average (1.12 Å³ per molecule, data README)
+      expect(isoM).toBeGreaterThan(0.8);
+      expect(isoM).toBeLessThan(1.5);
+    }
+    expect(trace).toBeCloseTo(iso(p.alphaCM), 9);
+  });
+
   it('the sum of the per-atom local contributions is the predicted additive tensor', () => {
     for (const route of ['cm', 'direct'] as const) {
       const p = predictFrame(models[route]!, frames[6]);
@@ -123,4 +142,33 @@ describe('symmetry and size of a trained model', () => {
     expect(q.applicability.maxDistance).toBeGreaterThan(q.applicability.threshold);
     expect(q.applicability.variance).toBeGreaterThan(p.applicability.variance);
   });
+});
+
+describe('feature selection and tuning on the real frames', () => {
+  it('a model with at most 40 feature columns per order stays equivariant and close to the reference', async () => {
+    const m = await trainModel(frames.slice(0, 6), { tensorKey: KEY, kind: 'alpha-c', route: 'cm', settings: { maxFeatures: 40, nmax: 4, lmax: 3 } });
+    expect(m.featureSelection?.[0]?.length).toBe(40);
+    expect(m.featureSelection?.[2]?.length).toBe(40);
+    expect(m.parts[1].n).toBe(40);
+    const back = parseModel(serialiseModel(m), 'sel.json');
+    for (const f of [6, 7]) {
+      const p = predictFrame(back, frames[f]);
+      expect(Math.abs(iso(p.alphaCM) / 16 - iso(reference(f).alphaCM) / 16)).toBeLessThan(0.03);
+      const R = randomRotations(makeRng(f), 1)[0];
+      const q = predictFrame(back, transformFrame(frames[f], R));
+      const expected = rotateTensor(p.alphaCM, R);
+      for (let k = 0; k < 9; k++) expect(Math.abs(q.alphaCM[k] - expected[k])).toBeLessThan(1e-9 * 30);
+    }
+  }, 120_000);
+
+  it('tuning picks the cutoff with the smaller cross-validated error and records it', async () => {
+    const request = { tensorKey: KEY, kind: 'alpha-c' as const, route: 'cm' as const, settings: { nmax: 4, lmax: 3 } };
+    const tuned = await tuneSettings(frames.slice(0, 6), request, { cutoff: [3.0, 4.5] });
+    expect(tuned.table.length).toBe(2);
+    const best = tuned.table.reduce((a, b) => (b.score < a.score ? b : a));
+    expect(tuned.best).toEqual(best.settings);
+    const m = await trainModel(frames.slice(0, 6), { ...request, tune: { cutoff: [3.0, 4.5] } });
+    expect(m.settings.cutoff).toBe(best.settings.cutoff);
+    expect(m.notes.join(' ')).toMatch(/tuned by cross-validation: cutoff/);
+  }, 180_000);
 });

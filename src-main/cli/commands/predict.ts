@@ -6,9 +6,12 @@ import type { Command, CommandIO } from '../command.ts';
 import { CancelledError } from '../../core/errors.ts';
 import type { Frame } from '../../core/frame.ts';
 import { framePredictionFrom, modelFeaturiser, predictWithFeatures, type Model } from '../../core/model.ts';
-import { annotateFrame, tensorPredictionRow, tensorRowColumns, valuePredictionRow, valueRowColumns, type PredictionRow } from '../../core/predict-rows.ts';
-import { readExtxyz, formatExtxyzFrame, type FrameRange } from '../../io/extxyz.ts';
-import { atomicWriteStream } from '../../io/atomic.ts';
+import { findMolecules } from '../../core/molecules.ts';
+import { annotateFrame, APPLICABILITY_COLUMNS, tensorPredictionRow, valuePredictionRow, valueRowColumns, type PredictionRow } from '../../core/predict-rows.ts';
+import { tensorCsvWriter, csvField, type TensorCsvOptions, type TensorRow } from '../../io/csv.ts';
+import { formatExtxyzFrame, type FrameRange } from '../../io/extxyz.ts';
+import { readStructures } from '../../io/read-structures.ts';
+import { atomicWriteStream, type AtomicWriteStream } from '../../io/atomic.ts';
 import { loadModel } from '../../io/model-file.ts';
 
 const options = [
@@ -33,24 +36,29 @@ export function parseFrameRange(args: ParsedArgs): FrameRange {
   return range;
 }
 
-/** One frame's prediction as a CSV row or an annotated frame: the per-frame work, reusable by other callers. */
-export function predictOne(model: Model, frame: Frame, index: number, featurise = modelFeaturiser(model)): { row: PredictionRow; annotated?: Frame } {
+/** One frame's prediction as a table row and an annotated frame: the per-frame work, reusable by other callers. */
+export function predictOne(model: Model, frame: Frame, index: number, featurise = modelFeaturiser(model)): { tensorRow?: TensorRow; valueRow?: PredictionRow; annotated?: Frame; outside: boolean } {
   const pred = predictWithFeatures(model, frame, featurise(frame, index), index);
-  if (model.target.shape !== 'tensor') return { row: valuePredictionRow(model, index, frame, pred) };
+  if (model.target.shape !== 'tensor') return { valueRow: valuePredictionRow(model, index, frame, pred), outside: pred.applicability.outside };
   const fp = framePredictionFrom(model, frame, pred, index);
-  return { row: tensorPredictionRow(index, frame, fp), annotated: annotateFrame(frame, fp, model) };
+  return { tensorRow: tensorPredictionRow(index, frame, fp, model), annotated: annotateFrame(frame, fp, model), outside: fp.applicability.outside };
+}
+
+/** The CSV layout of a tensor model's predictions (io/csv.ts columns plus the applicability figures). */
+export function predictionCsvOptions(model: Model, modelPath: string): TensorCsvOptions {
+  return {
+    title: 'Polarweave predicted dielectric tensors',
+    tagColumns: ['tag'],
+    alpha: { kind: model.target.route === 'cm' ? 'alpha-cm' : 'alpha-c', unit: 'A3' },
+    extraColumns: Object.keys(APPLICABILITY_COLUMNS),
+    extraDescriptions: APPLICABILITY_COLUMNS,
+    source: `model ${modelPath} (route ${model.target.route}, trained on ${model.training.frames} frames)`,
+    predicted: true,
+  };
 }
 
 export function csvLine(values: (number | string | boolean)[]): string {
-  return (
-    values
-      .map((v) => {
-        if (typeof v === 'number') return Number.isInteger(v) ? String(v) : v.toPrecision(10);
-        if (typeof v === 'boolean') return v ? '1' : '0';
-        return /[",\n]/.test(v) ? `"${v.replace(/"/g, '""')}"` : v;
-      })
-      .join(',') + '\n'
-  );
+  return values.map((v) => (typeof v === 'number' ? String(v) : typeof v === 'boolean' ? (v ? '1' : '0') : csvField(v))).join(',') + '\n';
 }
 
 export async function runPredict(modelPath: string, input: string, output: string, range: FrameRange, io: CommandIO): Promise<number> {
@@ -59,28 +67,34 @@ export async function runPredict(modelPath: string, input: string, output: strin
   const model = await loadModel(modelPath);
   if (format === 'extxyz' && model.target.shape !== 'tensor') throw new UsageError('extended XYZ output is for tensor models; use .csv');
   const featurise = modelFeaturiser(model);
-  const out = atomicWriteStream(output);
-  const columns = model.target.shape === 'tensor' ? tensorRowColumns() : valueRowColumns(model);
+  // one writer, chosen by format; each is atomic: nothing appears at `output` unless every frame was written
+  const tensorCsv = format === 'csv' && model.target.shape === 'tensor' ? tensorCsvWriter(output, predictionCsvOptions(model, modelPath)) : null;
+  const stream = tensorCsv ? null : atomicWriteStream(output);
   let count = 0;
   let outside = 0;
   const started = Date.now();
   let lastReport = started;
   try {
-    if (format === 'csv') {
-      await out.write('# Polarweave predictions (model estimates) from ' + modelPath.replace(/\n/g, ' ') + '\n');
-      await out.write(csvLine(columns));
+    if (stream && format === 'csv') {
+      await stream.write(`# Polarweave predictions (model estimates) from ${modelPath.replace(/\n/g, ' ')}\n`);
+      await stream.write(csvLine(valueRowColumns(model)));
     }
     const start = range.start ?? 0;
     const step = range.step ?? 1;
     let k = 0;
-    for await (const frame of readExtxyz(input, { signal: io.signal, range })) {
+    for await (const frame of readStructures(input, { signal: io.signal, range })) {
       if (io.signal.aborted) throw new CancelledError();
       const index = frame.source?.index ?? start + k * step;
       k++;
-      const { row, annotated } = predictOne(model, frame, index, featurise);
-      if (row.outside === true) outside++;
-      if (format === 'csv') await out.write(csvLine(columns.map((c) => row[c] ?? '')));
-      else await out.write(formatExtxyzFrame(annotated as Frame));
+      const one = predictOne(model, frame, index, featurise);
+      if (one.outside) outside++;
+      if (tensorCsv) await tensorCsv.writeRow(one.tensorRow as TensorRow);
+      else if (format === 'csv') await (stream as AtomicWriteStream).write(csvLine(valueRowColumns(model).map((c) => (one.valueRow as PredictionRow)[c] ?? '')));
+      else {
+        const annotated = one.annotated as Frame;
+        annotated.arrays.molecule = { kind: 'int', width: 1, data: findMolecules(frame).molecule };
+        await (stream as AtomicWriteStream).write(formatExtxyzFrame(annotated));
+      }
       count++;
       const now = Date.now();
       if (now - lastReport > 1000) {
@@ -90,9 +104,9 @@ export async function runPredict(modelPath: string, input: string, output: strin
       await new Promise((r) => setTimeout(r, 0)); // let Ctrl-C through
     }
     if (io.signal.aborted) throw new CancelledError();
-    await out.commit();
+    await (tensorCsv ?? (stream as AtomicWriteStream)).commit();
   } catch (e) {
-    await out.abort();
+    await (tensorCsv ?? (stream as AtomicWriteStream)).abort();
     throw e;
   }
   const secs = (Date.now() - started) / 1000;
@@ -107,7 +121,10 @@ export const predictCommand: Command = {
   name: 'predict',
   summary: 'predict cell tensors of frames with a trained model',
   usage: 'MODEL IN [--frames A:B] [--stride K] -o OUT.csv|OUT.extxyz',
-  description: 'CSV: one row per frame with ε, α_CM, α_c (Voigt order xx yy zz yz xz xy), principal refractive\nindices and applicability figures. Extended XYZ: the frames with pred_* info keys and per-atom local tensors.',
+  description:
+    'CSV: one row per frame with ε, the learnt cell polarisability (α_CM for route cm, α_c for direct), principal\n' +
+    'values, refractive indices and applicability figures. Extended XYZ: the frames with pred_* info keys, per-atom\n' +
+    'local tensors (9 numbers per atom), the feature-space distance per atom and the molecule index per atom.',
   options,
   async run(argv, io) {
     const args = parseArgs(argv, options);

@@ -3,13 +3,14 @@ import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import { trainModel, type Model } from '../../core/model.ts';
 import { saveModel } from '../../io/model-file.ts';
-import { parseRequest, parseRoute, progressReporter, readFrames, settingOptions, targetOptions } from '../learn-options.ts';
+import { parseRequest, parseRoute, parseTune, progressReporter, readFrames, settingOptions, targetOptions, tuneOptions } from '../learn-options.ts';
 import { CancelledError } from '../../core/errors.ts';
 
 const options = [
   ...targetOptions,
   { name: 'route', value: 'cm|direct', help: 'cm: learn α_CM and convert back; direct: learn α_c = (ε − I)V/4π', default: 'cm' },
   ...settingOptions,
+  ...tuneOptions,
   { name: 'output', short: 'o', value: 'MODEL', help: 'model file to write (JSON)' },
 ];
 
@@ -19,7 +20,7 @@ export function describeModel(model: Model): string {
   lines.push(`model of "${t.key}"${t.kind ? ` (${t.kind})` : ''}: learns ${t.learnt}${t.shape === 'tensor' ? ` through route ${t.route}` : ''}, units ${t.units}`);
   lines.push(`trained on ${model.training.frames} frames, ${model.training.atoms} atoms (${Object.entries(model.training.atomsPerSpecies).map(([s, n]) => `${s} ${n}`).join(', ')})`);
   const s = model.settings;
-  lines.push(`settings: cutoff ${s.cutoff} Å, sigma ${s.sigma} Å, nmax ${s.nmax}, lmax ${s.lmax}, ζ ${s.zeta}${s.zeta !== 1 ? `, ${s.sparsePoints ? `sparse ${s.sparsePoints} per species` : 'exact'}` : ''}`);
+  lines.push(`settings: cutoff ${s.cutoff} Å, sigma ${s.sigma} Å, nmax ${s.nmax}, lmax ${s.lmax}, ζ ${s.zeta}${s.zeta !== 1 ? `, ${s.sparsePoints ? `sparse ${s.sparsePoints} per species` : 'exact'}` : ''}${s.maxFeatures ? `, at most ${s.maxFeatures} features per order` : ''}`);
   for (const p of model.parts) {
     const r = p.regularisation;
     const cv = r.cvError > 0 ? `, cross-validated RMSE per component ${Math.sqrt(r.cvError).toPrecision(3)} ${t.units}` : '';
@@ -44,7 +45,7 @@ export const trainCommand: Command = {
     const out = args.options.output;
     if (!out) throw new UsageError('give the model file to write with -o MODEL');
     const route = parseRoute(args.options.route, false) as 'cm' | 'direct';
-    const request = parseRequest(args, route);
+    const request = { ...parseRequest(args, route), tune: parseTune(args) };
     const frames = await readFrames(args.positionals[0], io);
     io.err(`train: ${frames.length} frames read from ${args.positionals[0]}\n`);
     const model = await trainModel(frames, request, { signal: io.signal, onProgress: progressReporter(io, 'train') });

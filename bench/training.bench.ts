@@ -1,0 +1,101 @@
+// Training and prediction speed of the learning engine with default settings on 200 synthetic water-like
+// frames of 384 atoms (bench/water-like.ts), peak memory, prediction environments per second (one thread), and
+// the dense Cholesky solve: our Float64Array code against ml-matrix. Figures are printed, never asserted.
+import { CholeskyDecomposition, Matrix } from 'ml-matrix';
+import { pathToFileURL } from 'node:url';
+import { choleskySolve, choleskyWithJitter, gramOfRows } from '../src-main/core/cholesky.ts';
+import { modelFeaturiser, predictFrame, predictWithFeatures, trainModel } from '../src-main/core/model.ts';
+import { makeRng } from '../src-main/core/random.ts';
+import { waterLikeFrames } from './water-like.ts';
+
+const FRAMES = Number(process.env.PW_BENCH_FRAMES ?? 200);
+
+function peakMiB(): number {
+  return process.resourceUsage().maxRSS / 1024;
+}
+
+async function training(): Promise<void> {
+  const frames = waterLikeFrames(FRAMES, 7);
+  const atoms = frames[0].species.length;
+  const stages = new Map<string, number>();
+  const stagesCpu = new Map<string, number>();
+  const cpuNow = () => {
+    const c = process.cpuUsage();
+    return (c.user + c.system) / 1000;
+  };
+  let lastCpu = cpuNow();
+  let last = performance.now();
+  let lastStage = 'start';
+  const t0 = last;
+  const cpu0 = process.cpuUsage();
+  const model = await trainModel(frames, { tensorKey: 'alpha_cm', kind: 'alpha-cm', route: 'cm' }, {
+    onProgress: (p) => {
+      const now = performance.now();
+      const stage = p.stage.startsWith('fit') ? 'fit (CV + solve)' : p.stage;
+      stages.set(lastStage, (stages.get(lastStage) ?? 0) + now - last);
+      const c = cpuNow();
+      stagesCpu.set(lastStage, (stagesCpu.get(lastStage) ?? 0) + c - lastCpu);
+      lastCpu = c;
+      last = now;
+      lastStage = stage;
+    },
+  });
+  const total = (performance.now() - t0) / 1000;
+  const cpu = process.cpuUsage(cpu0);
+  const cpuSeconds = (cpu.user + cpu.system) / 1e6;
+  console.log(`training, defaults (cutoff ${model.settings.cutoff} Å, nmax ${model.settings.nmax}, lmax ${model.settings.lmax}, ζ ${model.settings.zeta}), ${FRAMES} frames × ${atoms} atoms, one thread:`);
+  console.log(`  total ${total.toFixed(1)} s wall, ${cpuSeconds.toFixed(1)} s CPU (the wall time includes waiting when the machine is shared); peak RSS ${peakMiB().toFixed(0)} MiB`);
+  for (const [stage, ms] of stages) {
+    if (stage !== 'start' && stage !== 'done') console.log(`  ${stage.padEnd(18)} ${(ms / 1000).toFixed(1)} s wall, ${((stagesCpu.get(stage) ?? 0) / 1000).toFixed(1)} s CPU`);
+  }
+  for (const p of model.parts) console.log(`  λ=${p.order}: ${p.method}, ${p.n} features/species, regulariser ${p.regularisation.relative.toExponential(0)}, CV RMSE ${Math.sqrt(p.regularisation.cvError).toPrecision(3)} Å³`);
+
+  // prediction: features + model, and the model part alone
+  const test = waterLikeFrames(10, 99);
+  const featurise = modelFeaturiser(model);
+  let t = performance.now();
+  let c0 = cpuNow();
+  for (const f of test) predictFrame(model, f);
+  const whole = (performance.now() - t) / 1000;
+  const wholeCpu = (cpuNow() - c0) / 1000;
+  const feats = test.map((f, i) => featurise(f, i));
+  t = performance.now();
+  c0 = cpuNow();
+  for (let i = 0; i < test.length; i++) predictWithFeatures(model, test[i], feats[i], i);
+  const modelOnly = (performance.now() - t) / 1000;
+  const modelCpu = (cpuNow() - c0) / 1000;
+  const envs = test.length * atoms;
+  console.log(`prediction, ${test.length} frames × ${atoms} atoms, one thread:`);
+  console.log(`  with features ${(envs / whole).toFixed(0)} environments/s wall, ${(envs / wholeCpu).toFixed(0)} per CPU-second (${((1000 * wholeCpu) / test.length).toFixed(0)} ms CPU/frame)`);
+  console.log(`  model only (dot products, variance, applicability) ${(envs / modelOnly).toFixed(0)} environments/s wall, ${(envs / modelCpu).toFixed(0)} per CPU-second`);
+}
+
+function cholesky(): void {
+  console.log('dense SPD solve (factorise + solve), one thread:');
+  const rng = makeRng(1);
+  for (const n of [500, 1000]) {
+    const m = Float64Array.from({ length: n * (n + 20) }, () => rng.normal());
+    const a = gramOfRows(m, n, n + 20);
+    const b = Float64Array.from({ length: n }, () => rng.normal());
+    let t = performance.now();
+    const { factor } = choleskyWithJitter(a, n);
+    const x = choleskySolve(factor, n, b);
+    const own = (performance.now() - t) / 1000;
+    const rows: number[][] = [];
+    for (let i = 0; i < n; i++) rows.push(Array.from(a.subarray(i * n, (i + 1) * n)));
+    t = performance.now();
+    const chol = new CholeskyDecomposition(new Matrix(rows));
+    const y = chol.solve(Matrix.columnVector(Array.from(b)));
+    const ml = (performance.now() - t) / 1000;
+    let diff = 0;
+    for (let i = 0; i < n; i++) diff = Math.max(diff, Math.abs(y.get(i, 0) - x[i]));
+    console.log(`  n = ${n}: own Float64Array ${own.toFixed(2)} s, ml-matrix ${ml.toFixed(2)} s (×${(ml / own).toFixed(1)}), max difference ${diff.toExponential(1)}`);
+  }
+}
+
+export async function run(): Promise<void> {
+  cholesky();
+  await training();
+}
+
+if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) await run();

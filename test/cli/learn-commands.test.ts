@@ -1,0 +1,113 @@
+import { copyFileSync, existsSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { runCli } from '../../src-main/cli/main.ts';
+import { parseExtxyz } from '../../src-main/io/extxyz.ts';
+
+let dir: string;
+const data = () => join(dir, 'water.extxyz');
+const FAST = ['--nmax', '4', '--lmax', '3'];
+
+async function cli(argv: string[], signal?: AbortSignal): Promise<{ code: number; out: string; err: string }> {
+  let out = '';
+  let err = '';
+  const code = await runCli(argv, { out: (t) => (out += t), err: (t) => (err += t), signal: signal ?? new AbortController().signal });
+  return { code, out, err };
+}
+
+beforeAll(() => {
+  dir = mkdtempSync(join(tmpdir(), 'pw-learn-cli-'));
+  copyFileSync(new URL('../fixtures/water-dft-sample.extxyz', import.meta.url), data());
+});
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+describe('polarweave train / predict / validate', () => {
+  it('trains, then predicts to CSV and to extended XYZ', async () => {
+    const model = join(dir, 'm.json');
+    const t = await cli(['train', data(), '--tensor', 'alpha_periodic_A3', '--as', 'alpha-c', ...FAST, '-o', model]);
+    expect(t.err).not.toMatch(/error/);
+    expect(t.code).toBe(0);
+    expect(t.out).toMatch(/trained on 8 frames, 384 atoms/);
+    expect(t.out).toMatch(/λ=2: linear/);
+    expect(existsSync(model)).toBe(true);
+
+    const csv = join(dir, 'p.csv');
+    const p = await cli(['predict', model, data(), '--frames', '2:8', '--stride', '2', '-o', csv]);
+    expect(p.code).toBe(0);
+    expect(p.out).toMatch(/3 frames predicted/);
+    const lines = readFileSync(csv, 'utf8').trim().split('\n');
+    expect(lines[0]).toMatch(/^# Polarweave predicted dielectric tensors/);
+    expect(lines.some((l) => /model estimates/.test(l))).toBe(true);
+    const body = lines.filter((l) => !l.startsWith('#'));
+    const header = body[0].split(',');
+    expect(header.slice(0, 4)).toEqual(['frame', 'tag', 'volume_A3', 'eps_xx']);
+    expect(header).toContain('outside');
+    expect(header).toContain('alpha_cm_xx_A3');
+    const rows = body.slice(1).map((l) => l.split(','));
+    expect(rows.map((r) => r[0])).toEqual(['2', '4', '6']);
+    expect(rows.map((r) => r[1])).toEqual(['sample-003', 'sample-005', 'sample-007']);
+    const epsXX = Number(rows[0][header.indexOf('eps_xx')]);
+    expect(epsXX).toBeGreaterThan(1.5);
+    expect(epsXX).toBeLessThan(1.62);
+
+    const xyz = join(dir, 'p.extxyz');
+    const q = await cli(['predict', model, data(), '--frames', ':2', '-o', xyz]);
+    expect(q.code).toBe(0);
+    const back = parseExtxyz(readFileSync(xyz, 'utf8'), 'p.extxyz');
+    expect(back.length).toBe(2);
+    expect((back[0].info.pred_eps as number[]).length).toBe(9);
+    expect(back[0].arrays.local_alpha_cm_A3.width).toBe(9);
+    expect(new Set(back[0].arrays.molecule.data as Int32Array).size).toBe(16);
+    // the per-atom local tensors sum to the frame's α_CM
+    const local = back[0].arrays.local_alpha_cm_A3.data as Float64Array;
+    let xx = 0;
+    for (let i = 0; i < 48; i++) xx += local[i * 9];
+    expect(xx).toBeCloseTo((back[0].info.pred_alpha_cm_A3 as number[])[0], 6);
+  }, 120_000);
+
+  it('validates both routes and says whether the model is good', async () => {
+    const v = await cli(['validate', data(), '--tensor', 'eps_inf', '--as', 'eps', '--folds', '4', '--learning-curve', '3,20', ...FAST]);
+    expect(v.code).toBe(0);
+    expect(v.out).toMatch(/route cm: 4-fold cross-validation over 8 frames/);
+    expect(v.out).toMatch(/route direct:/);
+    expect(v.out).toMatch(/λ=0: RMSE [0-9.e-]+ +%RMSE [0-9.]+ %/);
+    expect(v.out).toMatch(/verdict \(rule of thumb, on ε\): (good|usable|poor)/);
+    expect(v.out).toMatch(/learning curve, 3 training frames/);
+    expect(v.out).toMatch(/sizes skipped.*20/);
+    expect(v.out).toMatch(/comparison on ε: route (cm|direct)/);
+  }, 180_000);
+
+  it('reports usage errors with exit code 2 and bad data with exit code 1', async () => {
+    const a = await cli(['train', data(), '--tensor', 'eps_inf', '-o', join(dir, 'x.json')]);
+    expect(a.code).toBe(2);
+    expect(a.err).toMatch(/--as eps\|alpha-c\|alpha-cm/);
+    const b = await cli(['train', data(), '--tensor', 'missing_key', '--as', 'eps', '-o', join(dir, 'x.json')]);
+    expect(b.code).toBe(1);
+    expect(b.err).toMatch(/line 1, frame 0: no property "missing_key"/);
+    const bad = join(dir, 'bad.json');
+    writeFileSync(bad, '{"format":"polarweave-model","version":1');
+    const c = await cli(['predict', bad, data(), '-o', join(dir, 'y.csv')]);
+    expect(c.code).toBe(1);
+    expect(c.err).toMatch(/not a model file/);
+    expect(existsSync(join(dir, 'y.csv'))).toBe(false);
+  });
+
+  it('Ctrl-C stops cleanly and leaves no output file behind', async () => {
+    const sub = mkdtempSync(join(dir, 'abort-'));
+    copyFileSync(data(), join(sub, 'in.extxyz'));
+    const c = new AbortController();
+    c.abort();
+    const r = await cli(['train', join(sub, 'in.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', ...FAST, '-o', join(sub, 'm.json')], c.signal);
+    expect(r.code).toBe(130);
+    expect(readdirSync(sub)).toEqual(['in.extxyz']);
+    // predict and validate stop the same way
+    const model = join(sub, 'model.json');
+    expect((await cli(['train', join(sub, 'in.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', ...FAST, '--regularisation', '1e-6', '-o', model])).code).toBe(0);
+    const p = await cli(['predict', model, join(sub, 'in.extxyz'), '-o', join(sub, 'out.csv')], c.signal);
+    expect(p.code).toBe(130);
+    expect(readdirSync(sub).sort()).toEqual(['in.extxyz', 'model.json']);
+    const v = await cli(['validate', join(sub, 'in.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', ...FAST], c.signal);
+    expect(v.code).toBe(130);
+  }, 60_000);
+});

@@ -1,0 +1,102 @@
+import { createHash } from 'node:crypto';
+import { mkdtempSync, readdirSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { ModelError } from '../../src-main/core/errors.ts';
+import { makeFrame } from '../../src-main/core/frame.ts';
+import { predictWithFeatures, trainWithFeaturiser, type Model } from '../../src-main/core/model.ts';
+import { canonicalJson, loadModel, MODEL_FORMAT, parseModel, saveModel, serialiseModel } from '../../src-main/io/model-file.ts';
+import { makeRng, syntheticFeatures } from '../helpers/synthetic-features.ts';
+
+const rng = makeRng(12);
+const frames = Array.from({ length: 10 }, (_, f) => {
+  const species = ['H', 'H', 'O', 'H', 'O'];
+  const frame = makeFrame(species, new Float64Array(15), [8, 0, 0, 0, 8, 0, 0, 0, 8]);
+  frame.info.alpha = [3 + f * 0.1, 0.1, 0, 0.1, 3, 0.05 * f, 0, 0.05 * f, 2.9];
+  return frame;
+});
+const feats = frames.map((fr, f) => syntheticFeatures(rng, { count: 5, n0: 5, tensor: { 2: 3 }, centreSpecies: [0, 0, 1, 0, 1], frame: f }));
+let model: Model;
+let kernelModel: Model;
+let dir: string;
+
+beforeAll(async () => {
+  model = await trainWithFeaturiser(frames, { tensorKey: 'alpha', kind: 'alpha-cm', route: 'cm' }, (_f, i) => feats[i], {}, { createdAt: '2026-01-01T00:00:00.000Z' });
+  kernelModel = await trainWithFeaturiser(frames, { tensorKey: 'alpha', kind: 'alpha-cm', route: 'direct', settings: { zeta: 2, sparsePoints: 4 } }, (_f, i) => feats[i]);
+  dir = mkdtempSync(join(tmpdir(), 'pw-model-'));
+});
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+function resign(doc: { payload: unknown; checksum: { value: string } }): string {
+  doc.checksum.value = createHash('sha256').update(canonicalJson(doc.payload as never)).digest('hex');
+  return JSON.stringify(doc);
+}
+
+describe('model file', () => {
+  it('round-trips exactly (linear and kernel models): same numbers, same predictions', () => {
+    for (const m of [model, kernelModel]) {
+      const text = serialiseModel(m);
+      const back = parseModel(text, 'm.json');
+      expect(serialiseModel(back)).toBe(text);
+      for (let f = 0; f < 3; f++) {
+        const a = predictWithFeatures(m, frames[f], feats[f]);
+        const b = predictWithFeatures(back, frames[f], feats[f]);
+        expect([...b.irreducible]).toEqual([...a.irreducible]);
+        expect(b.applicability.variance).toBe(a.applicability.variance);
+      }
+    }
+  });
+
+  it('is self-describing JSON of our own format, version 1, with a sha256 checksum', () => {
+    const doc = JSON.parse(serialiseModel(model));
+    expect(doc.format).toBe(MODEL_FORMAT);
+    expect(doc.version).toBe(1);
+    expect(doc.checksum.algorithm).toBe('sha256');
+    expect(doc.description).toMatch(/alpha.*cm/);
+    expect(doc.payload.settings.cutoff).toBe(4.5);
+    expect(doc.payload.training.frames).toBe(10);
+    expect(doc.payload.parts[0].weights.f64).toMatch(/^[A-Za-z0-9+/]+=*$/);
+  });
+
+  it('refuses a truncated file, an edited number, an unknown version or another format', () => {
+    const text = serialiseModel(model);
+    expect(() => parseModel(text.slice(0, text.length / 2), 'cut.json')).toThrow(ModelError);
+    expect(() => parseModel(text.slice(0, text.length / 2), 'cut.json')).toThrow(/cut\.json: not a model file/);
+    const doc = JSON.parse(text);
+    doc.payload.baseline[0] += 1e-9;
+    expect(() => parseModel(JSON.stringify(doc), 'edited.json')).toThrow(/checksum mismatch/);
+    const v2 = JSON.parse(text);
+    v2.version = 2;
+    expect(() => parseModel(JSON.stringify(v2), 'new.json')).toThrow(/version 2 is not supported.*update/);
+    const other = JSON.parse(text);
+    other.format = 'something-else';
+    expect(() => parseModel(JSON.stringify(other), 'o.json')).toThrow(/not a Polarweave model file/);
+    expect(() => parseModel('[1,2]', 'a.json')).toThrow(ModelError);
+  });
+
+  it('refuses a correctly signed payload with a broken structure', () => {
+    const doc = JSON.parse(serialiseModel(model));
+    doc.payload.parts[1].weights = { f64: Buffer.from(new Float64Array(3).buffer).toString('base64') };
+    expect(() => parseModel(resign(doc), 'bad.json')).toThrow(/corrupt model file \(weights of λ=2\)/);
+    const doc2 = JSON.parse(serialiseModel(model));
+    doc2.payload.parts[0].weights = { f64: 'not base64!' };
+    expect(() => parseModel(resign(doc2), 'bad.json')).toThrow(/not base64/);
+  });
+
+  it('a model never predicts species it did not see', () => {
+    const frame = makeFrame(['H', 'C', 'O'], new Float64Array(9), [8, 0, 0, 0, 8, 0, 0, 0, 8]);
+    const fe = syntheticFeatures(rng, { count: 3, n0: 5, tensor: { 2: 3 }, centreSpecies: [0, 0, 1] });
+    expect(() => predictWithFeatures(model, frame, fe)).toThrow(ModelError);
+    expect(() => predictWithFeatures(model, frame, fe)).toThrow(/never saw species C/);
+  });
+
+  it('saves atomically and loads back; a missing file is a ModelError', async () => {
+    const path = join(dir, 'model.json');
+    await saveModel(path, model);
+    expect(readdirSync(dir)).toEqual(['model.json']);
+    const back = await loadModel(path);
+    expect(serialiseModel(back)).toBe(serialiseModel(model));
+    await expect(loadModel(join(dir, 'nope.json'))).rejects.toThrow(/cannot read the model file \(ENOENT\)/);
+  });
+});
