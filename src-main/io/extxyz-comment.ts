@@ -160,6 +160,7 @@ export function interpretValue(item: RawItem): InfoValue {
   }
   if (item.quoted) {
     if (item.escaped) return v;
+    if (v.startsWith('_JSON ')) return fromJson(item.key, v);
     const parts = splitArray(v);
     if (parts.length >= 2 && !/,/.test(v)) {
       const nums = parts.map(strictNumber);
@@ -175,6 +176,25 @@ export function interpretValue(item: RawItem): InfoValue {
   const x = strictNumber(v);
   if (Number.isFinite(x)) return x;
   if (isNonFiniteWord(v)) throw new ValueError(`value of '${item.key}' is not a finite number (${v})`);
+  return v;
+}
+
+/**
+ * A value some writers store as JSON behind a `_JSON ` prefix (nested arrays such as a 3×3 tensor): numbers,
+ * booleans and strings as they are, nested numeric arrays flattened row-major; anything else stays the text.
+ */
+function fromJson(key: string, v: string): InfoValue {
+  let parsed: unknown;
+  try {
+    parsed = JSON.parse(v.slice(6));
+  } catch {
+    throw new ValueError(`value of '${key}' starts with _JSON but is not valid JSON`);
+  }
+  if (typeof parsed === 'number' || typeof parsed === 'boolean' || typeof parsed === 'string') return parsed;
+  if (Array.isArray(parsed)) {
+    const flat = (parsed as unknown[]).flat(Infinity);
+    if (flat.every((x) => typeof x === 'number')) return flat as number[];
+  }
   return v;
 }
 

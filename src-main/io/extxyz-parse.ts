@@ -26,6 +26,8 @@ export const RESERVED_KEYS = new Set(['Lattice', 'Properties', 'pbc']);
 
 /** Largest atom count we believe (a count line beyond this is a corrupt file, not a real frame). */
 const MAX_ATOMS = 100_000_000;
+/** Atoms allocated up front for a frame; more room is made as atom lines arrive. */
+const INITIAL_CAPACITY = 4096;
 
 interface Where {
   file: string;
@@ -108,8 +110,8 @@ export function parseCommentLine(line: string, where: Where): Omit<Header, 'nAto
           v = '';
         }
         if (!Array.isArray(v) || v.length !== 9) {
-          const n = Array.isArray(v) ? v.length : item.value === null ? 0 : item.value.split(/[\s,]+/).filter(Boolean).length;
-          fail(`Lattice must be 9 numbers (3 lattice vectors), got ${Array.isArray(v) ? n + ' numbers' : `'${item.value ?? ''}'`}`, where, 'write Lattice="ax ay az bx by bz cx cy cz" in Å');
+          const got = Array.isArray(v) ? `${v.length} numbers` : `'${clip(item.value ?? '')}'`;
+          fail(`Lattice must be 9 numbers (3 lattice vectors), got ${got}`, where, 'write Lattice="ax ay az bx by bz cx cy cz" in Å');
         }
         cell = Float64Array.from(v);
         checkCell(cell, where);
@@ -142,19 +144,30 @@ export function parseCommentLine(line: string, where: Where): Omit<Header, 'nAto
   } else {
     pbc = pbcGiven === null ? [true, true, true] : [pbcGiven[0], pbcGiven[1], pbcGiven[2]];
   }
+  const columns = checkedColumns(properties, where);
+  return { cell, pbc, info, columns, fieldCount: columns.reduce((s, c) => s + c.width, 0) };
+}
+
+// Consecutive frames nearly always share one Properties value: remember the last one checked.
+let lastProperties = '';
+let lastColumns: ColumnSpec[] = [];
+
+/** Columns of a Properties value, with species (or Z) and pos present and of the right shape. */
+function checkedColumns(properties: string, where: Where): ColumnSpec[] {
+  if (properties === lastProperties) return lastColumns;
   const columns = parseProperties(properties, where);
-  const hasSpecies = columns.some((c) => c.name === 'species');
   const z = columns.find((c) => c.name === 'Z');
   const species = columns.find((c) => c.name === 'species');
   if (species && (species.kind !== 'S' || species.width !== 1)) fail(`Properties column 'species' must be S:1, got ${species.kind}:${species.width}`, where);
-  if (!hasSpecies && !(z && z.kind === 'I' && z.width === 1)) {
+  if (!species && !(z && z.kind === 'I' && z.width === 1)) {
     fail("Properties has no 'species' column (nor an atomic-number column Z:I:1)", where, `start Properties with species:S:1, e.g. Properties=${DEFAULT_PROPERTIES}`);
   }
   const pos = columns.find((c) => c.name === 'pos');
   if (!pos) fail("Properties has no 'pos' column", where, `add pos:R:3, e.g. Properties=${DEFAULT_PROPERTIES}`);
   if (pos.kind !== 'R' || pos.width !== 3) fail(`Properties column 'pos' must be R:3, got ${pos.kind}:${pos.width}`, where);
-  const fieldCount = columns.reduce((s, c) => s + c.width, 0);
-  return { cell, pbc, info, columns, fieldCount };
+  lastProperties = properties;
+  lastColumns = columns;
+  return columns;
 }
 
 // Atom lines are parsed as bytes (ASCII in every real file) straight from the read buffer: no text decoding,
@@ -237,6 +250,8 @@ interface Building {
   /** Species strings already checked against the periodic table in this frame. */
   lastSpecies: string;
   atom: number;
+  /** Atoms the arrays have room for (≤ the count line's number). */
+  capacity: number;
 }
 
 export type FrameDecision = 'parse' | 'skip' | 'stop';
@@ -343,7 +358,10 @@ export class ExtxyzAssembler {
     const header: Header = { ...h, nAtoms: n, countLine: this.countLine };
     const sinks: Building['sinks'] = [];
     const arrays: Record<string, AtomArray> = {};
-    const positions = new Float64Array(3 * n);
+    // Room for the first atoms only; grown as lines arrive, so a corrupt count line cannot make us allocate
+    // gigabytes before the file runs out.
+    const cap = Math.min(n, INITIAL_CAPACITY);
+    const positions = new Float64Array(3 * cap);
     let speciesFromZ: Int32Array | null = null;
     const hasSpecies = h.columns.some((c) => c.name === 'species');
     for (const c of h.columns) {
@@ -352,17 +370,17 @@ export class ExtxyzAssembler {
       else {
         let data: Float64Array | Int32Array | Uint8Array | string[];
         if (c.kind === 'R') {
-          data = new Float64Array(n * c.width);
+          data = new Float64Array(cap * c.width);
           arrays[c.name] = { kind: 'real', width: c.width, data };
         } else if (c.kind === 'I') {
-          data = new Int32Array(n * c.width);
+          data = new Int32Array(cap * c.width);
           arrays[c.name] = { kind: 'int', width: c.width, data };
           if (c.name === 'Z' && !hasSpecies) speciesFromZ = data;
         } else if (c.kind === 'L') {
-          data = new Uint8Array(n * c.width);
+          data = new Uint8Array(cap * c.width);
           arrays[c.name] = { kind: 'bool', width: c.width, data };
         } else {
-          data = new Array<string>(n * c.width);
+          data = new Array<string>(cap * c.width);
           arrays[c.name] = { kind: 'string', width: c.width, data };
         }
         sinks.push(data);
@@ -379,7 +397,7 @@ export class ExtxyzAssembler {
       else others.push({ field, spec: c, sink: sinks[ci]! });
       field += c.width;
     });
-    this.building = { header, species: new Array<string>(n), positions, arrays, sinks, speciesFromZ, speciesField, posField, others, lastSpecies: '', atom: 0 };
+    this.building = { header, species: new Array<string>(cap), positions, arrays, sinks, speciesFromZ, speciesField, posField, others, lastSpecies: '', atom: 0, capacity: cap };
     this.state = 'atoms';
   }
 
@@ -396,6 +414,7 @@ export class ExtxyzAssembler {
       fail(`atom line has ${nf} fields but Properties needs ${h.fieldCount} (${describeColumns(h.columns)})`, where, 'make Properties match the columns, or fix this line');
     }
     const a = b.atom;
+    if (a === b.capacity) this.grow(b);
     // the two columns every frame has, with their field positions fixed: the hot path
     if (b.speciesField >= 0) {
       // most lines repeat a recent symbol: compare bytes with the last one before making a string
@@ -428,6 +447,25 @@ export class ExtxyzAssembler {
     }
     b.atom++;
     return b.atom === h.nAtoms ? this.complete() : null;
+  }
+
+  /** Double the room of every array (up to the declared atom count). */
+  private grow(b: Building): void {
+    const cap = Math.min(b.header.nAtoms, 2 * b.capacity);
+    const bigger = <T extends Float64Array | Int32Array | Uint8Array>(old: T, width: number): T => {
+      const t = new (old.constructor as new (n: number) => T)(cap * width);
+      t.set(old);
+      return t;
+    };
+    b.positions = bigger(b.positions, 3);
+    for (const o of b.others) {
+      if (!Array.isArray(o.sink)) {
+        o.sink = bigger(o.sink, o.spec.width);
+        if (b.arrays[o.spec.name]) b.arrays[o.spec.name].data = o.sink;
+        if (b.speciesFromZ && o.spec.name === 'Z') b.speciesFromZ = o.sink as Int32Array;
+      }
+    }
+    b.capacity = cap;
   }
 
   private otherColumns(text: Uint8Array, b: Building, a: number): void {

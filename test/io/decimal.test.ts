@@ -14,6 +14,7 @@ describe('decimalAtBytes', () => {
       fc.property(fc.double({ noNaN: true, noDefaultInfinity: true }), fc.integer({ min: 0, max: 20 }), fc.integer({ min: 1, max: 21 }), (x, d, p) => {
         for (const t of [String(x), x.toExponential(d), x.toPrecision(p), Math.abs(x) < 1e21 ? x.toFixed(d) : String(x)]) {
           expect(same(strictNumber(t), Number(t)), t).toBe(true);
+          expect(same(decimalAtBytes(bytes(t), 0, t.length), Number(t)), t).toBe(true);
         }
       }),
       { numRuns: 3000 },
@@ -27,6 +28,7 @@ describe('decimalAtBytes', () => {
         const t = sign + int + (frac === null ? '' : '.' + frac) + (exp === null ? '' : exp.join(''));
         const want = int.length + (frac ?? '').length === 0 ? NaN : Number(t);
         expect(same(strictNumber(t), want), t).toBe(true);
+        expect(same(decimalAtBytes(bytes(t), 0, t.length), want), t).toBe(true);
       }),
       { numRuns: 3000 },
     );
@@ -35,6 +37,8 @@ describe('decimalAtBytes', () => {
   it('refuses what is not a decimal number', () => {
     for (const t of ['', '-', '+', '.', 'e5', '1e', '1e+', '0x10', '0b1', '0o7', 'Infinity', '-inf', 'nan', ' 1', '1 ', '1_000', '1.2.3', '--1', '1d5', '١']) {
       expect(strictNumber(t), JSON.stringify(t)).toBeNaN();
+      const b = bytes(t);
+      expect(decimalAtBytes(b, 0, b.length), JSON.stringify(t)).toBeNaN();
     }
     // offsets inside a longer text
     expect(decimalAtBytes(bytes('O 12.5 -3'), 2, 6)).toBe(12.5);

@@ -281,3 +281,27 @@ describe('index edge cases', () => {
     }
   });
 });
+
+describe('large frames', () => {
+  it('a frame of 10 000 atoms with extra columns (arrays grow past the first allocation) reads back exactly', () => {
+    const n = 10_000;
+    const species = Array.from({ length: n }, (_, i) => ['O', 'H', 'Na'][i % 3]);
+    const f = makeFrame(species, Array.from({ length: 3 * n }, (_, i) => i * 0.001 - 7), [30, 0, 0, 0, 30, 0, 0, 0, 30]);
+    f.arrays = {
+      q: { kind: 'real', width: 2, data: Float64Array.from({ length: 2 * n }, (_, i) => i / 7) },
+      id: { kind: 'int', width: 1, data: Int32Array.from({ length: n }, (_, i) => i - 5000) },
+      fixed: { kind: 'bool', width: 1, data: Uint8Array.from({ length: n }, (_, i) => i % 2) },
+      name: { kind: 'string', width: 1, data: Array.from({ length: n }, (_, i) => `a${i}`) },
+    };
+    const [back] = parseExtxyz(formatExtxyzFrame(f), 'big');
+    expect(strip(back)).toEqual(f);
+    const zText = `${n}\nProperties=Z:I:1:pos:R:3\n` + species.map((s, i) => `${s === 'O' ? 8 : s === 'H' ? 1 : 11} ${i} 0 0`).join('\n');
+    const [z] = parseExtxyz(zText, 'z');
+    expect(z.species).toEqual(species);
+    expect(z.positions[3 * 9999]).toBe(9999);
+  });
+
+  it('a corrupt huge atom count fails at the end of the file without allocating for it', () => {
+    expectInputError(() => parseExtxyz('99999999\n\nH 0 0 0\n', 'f'), { line: 3, frame: 0 }, /1 of 99999999/);
+  });
+});
