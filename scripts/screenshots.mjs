@@ -69,7 +69,7 @@ try {
   await view('model');
   await pick('[data-field=dataset]', /^liquid\.extxyz/);
   await page.click('[data-preset=quick]');
-  await page.fill('[data-field=max-frames]', '60');
+  await page.fill('[data-field=max-frames]', '40');
   await page.click('[data-action=train]');
   await page.waitForSelector('[role=progressbar]');
   await page.waitForTimeout(1500);
