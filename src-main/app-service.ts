@@ -24,7 +24,7 @@ import type {
 } from './api.ts';
 import { toApiError, ApiValidationError } from './api.ts';
 import type { Frame } from './core/frame.ts';
-import type { Model } from './core/model.ts';
+import { DEFAULT_SETTINGS, type Model } from './core/model.ts';
 import { InputError, ModelError } from './core/errors.ts';
 import { findMolecules } from './core/molecules.ts';
 import { blockAverage, runningMean } from './core/statistics.ts';
@@ -185,6 +185,7 @@ export class AppService implements ApiService {
 
   async getState(): Promise<AppState> {
     return {
+      defaultSettings: { ...DEFAULT_SETTINGS, centres: [...DEFAULT_SETTINGS.centres] },
       datasets: [...this.datasets.values()].map((d) => d.summary),
       models: [...this.models.values()].map((m) => m.summary),
       predictions: [...this.predictions.values()].map((p) => ({
