@@ -1,7 +1,7 @@
 // The service behind api.ts: holds the open datasets, trained models and predictions of one session, runs
 // long work (train, validate, predict) through the job runner, and answers the window's questions. The
 // Electron shell and the browser host both wrap one instance; neither adds behaviour of its own.
-import { readdir, readFile } from 'node:fs/promises';
+import { readdir } from 'node:fs/promises';
 import { basename, join } from 'node:path';
 import { gunzipSync } from 'fflate';
 import type {

@@ -46,6 +46,24 @@ describe('app service', () => {
     expect(s.otherKeys).toContain('energy_hartree');
   });
 
+  it('reads a CIF upload (values checked against python3-ase in test/fixtures/io/cif-ase.json)', async () => {
+    const text = readFileSync(new URL('../fixtures/io/nacl-fm3m.cif', import.meta.url), 'utf8');
+    const s = await service.openStructures({ name: 'nacl-fm3m.cif', text });
+    const ase = JSON.parse(readFileSync(new URL('../fixtures/io/cif-ase.json', import.meta.url), 'utf8'))['nacl-fm3m.cif'];
+    expect(s.frames).toBe(1);
+    expect(s.atoms.min).toBe(ase.species.length);
+    expect(s.volumeA3!.min).toBeCloseTo(ase.volume, 8);
+    expect(s.tensorKeys).toEqual([]);
+    expect(s.warnings.join(' ')).toMatch(/can be predicted, not trained on/);
+    await service.closeDataset({ datasetId: s.id });
+  });
+
+  it('names the file kinds it reads when given another', async () => {
+    const err = (await service.openStructures({ name: 'notes.txt', text: 'hello' }).catch((e: unknown) => e)) as { where?: unknown; hint?: string };
+    expect(err.where).toEqual({ file: 'notes.txt' });
+    expect(err.hint).toMatch(/\.xyz.*\.cif/);
+  });
+
   it('gives a frame as plain JSON with its source line', async () => {
     const f = await service.getFrame({ datasetId, index: 1 });
     expect(f.species.length).toBe(48);
