@@ -2,14 +2,15 @@
 // here; the Electron IPC handler and the browser host validate every incoming payload with `apiSchemas`
 // before the service (app-service.ts) sees it. Every value is plain JSON (tensors as number[9], row-major).
 import { z } from 'zod';
+import type { ErrorFigures, ModelSettings, ParityPoint, Route, TensorKind, ValidationReport } from './core/model-types.ts';
 
 // ---------------------------------------------------------------------------------------------------------
 // Shared shapes
 
 /** A 3×3 matrix as 9 numbers, row-major. */
 export type Mat3J = number[];
-export type TensorKindJ = 'eps' | 'alpha-c' | 'alpha-cm';
-export type RouteJ = 'cm' | 'direct';
+export type TensorKindJ = TensorKind;
+export type RouteJ = Route;
 
 export interface Range {
   min: number;
@@ -83,51 +84,18 @@ export interface FrameView {
 // ---------------------------------------------------------------------------------------------------------
 // Models, checks, predictions
 
-export interface ModelSettingsJ {
-  cutoff: number;
-  cutoffWidth: number;
-  sigma: number;
-  nmax: number;
-  lmax: number;
-  zeta: number;
-  regularisation: number | null;
-  sparsePoints: number;
-  centres: string[];
-  maxFeatures: number;
-  seed: number;
-}
+// The engine's public shapes (core/model-types.ts) are plain JSON already; the window uses them as they are.
+export type ModelSettingsJ = ModelSettings;
+export type ErrorFiguresJ = ErrorFigures;
+export type ParityPointJ = ParityPoint;
+export type ValidationReportJ = ValidationReport;
 
+/** What the window asks to train (the engine's TrainRequest without the tuning grid). */
 export interface TrainRequestJ {
   tensorKey: string;
   kind: TensorKindJ;
   route: RouteJ;
   settings?: Partial<ModelSettingsJ>;
-}
-
-export interface ErrorFiguresJ {
-  rmseIso: number;
-  rmseAniso: number;
-  percentIso: number;
-  percentAniso: number;
-  r2Iso: number;
-  r2Aniso: number;
-  count: number;
-}
-
-export interface ParityPointJ {
-  frame: number;
-  label?: string;
-  reference: number[];
-  predicted: number[];
-}
-
-export interface ValidationReportJ {
-  route: RouteJ;
-  target: string;
-  folds: number;
-  errors: ErrorFiguresJ;
-  points: ParityPointJ[];
-  learningCurve: { trainSize: number; errors: ErrorFiguresJ }[];
 }
 
 export interface ModelSummary {
@@ -183,6 +151,8 @@ export interface FrameDetail {
   /** Per atom: distance to the nearest training environment. */
   atomDistance: number[];
   route: RouteJ;
+  /** Molecule index of each atom (covalent bonds), or null when molecules cannot be found. */
+  molecules: number[] | null;
 }
 
 export interface TrajectoryStats {
@@ -199,6 +169,8 @@ export interface TrajectoryStats {
   /** Block sizes tried and the standard error of the isotropic mean at each (plateau = the reported error). */
   blocking: { blockSize: number; error: number }[];
   meanRefractive: number[];
+  /** Block-averaged standard error of each mean principal index. */
+  refractiveError: number[];
   birefringence: number;
 }
 
@@ -237,6 +209,8 @@ export interface JobStatus {
 }
 
 export interface AppState {
+  /** The engine's default settings (core/model.ts), shown in the Model view. */
+  defaultSettings: ModelSettingsJ;
   datasets: DatasetSummary[];
   models: ModelSummary[];
   predictions: { id: string; modelId: string; datasetId: string; datasetName: string; frames: number; framesOutside: number }[];
@@ -320,13 +294,8 @@ export const openStructuresSchema = z.union([
   z.object({ path: z.string().min(1).max(4096) }).strict(),
 ]);
 
-export const exportCsvSchema = z
-  .object({
-    predictionId: id,
-    /** Which tensor to write. */
-    tensor: tensorKindSchema.default('eps'),
-  })
-  .strict();
+/** The CSV holds ε, α_CM and α_c of every predicted frame (the same columns as `polarweave predict`). */
+export const exportCsvSchema = z.object({ predictionId: id }).strict();
 
 export const apiSchemas = {
   loadDemo: z.object({}).strict(),

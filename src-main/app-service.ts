@@ -1,7 +1,7 @@
 // The service behind api.ts: holds the open datasets, trained models and predictions of one session, runs
 // long work (train, validate, predict) through the job runner, and answers the window's questions. The
 // Electron shell and the browser host both wrap one instance; neither adds behaviour of its own.
-import { readdir, readFile } from 'node:fs/promises';
+import { readdir } from 'node:fs/promises';
 import { basename, join } from 'node:path';
 import { gunzipSync } from 'fflate';
 import type {
@@ -24,7 +24,9 @@ import type {
 } from './api.ts';
 import { toApiError, ApiValidationError } from './api.ts';
 import type { Frame } from './core/frame.ts';
+import { DEFAULT_SETTINGS, type Model } from './core/model.ts';
 import { InputError, ModelError } from './core/errors.ts';
+import { findMolecules } from './core/molecules.ts';
 import { blockAverage, runningMean } from './core/statistics.ts';
 import type { JobHandle, JobRunner } from './jobs/runner.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './jobs/app-task-types.ts';
@@ -183,6 +185,7 @@ export class AppService implements ApiService {
 
   async getState(): Promise<AppState> {
     return {
+      defaultSettings: { ...DEFAULT_SETTINGS, centres: [...DEFAULT_SETTINGS.centres] },
       datasets: [...this.datasets.values()].map((d) => d.summary),
       models: [...this.models.values()].map((m) => m.summary),
       predictions: [...this.predictions.values()].map((p) => ({
@@ -243,7 +246,7 @@ export class AppService implements ApiService {
     if (params.kind === 'train' || params.kind === 'validate') {
       const p = params.params;
       const d = this.dataset(p.datasetId);
-      const test = params.kind === 'train' ? this.selectFrames(d, params.params.testFrames) : [];
+      const test = params.kind === 'train' && params.params.testFrames ? this.selectFrames(d, params.params.testFrames) : [];
       const train = this.selectFrames(d, p.frames, test);
       if (train.length < p.folds) throw new ApiValidationError(`${train.length} training frames cannot be split into ${p.folds} folds; use fewer folds or more frames`);
       this.checkTensorKey(d, p.request.tensorKey, [...train, ...test]);
@@ -384,7 +387,14 @@ export class AppService implements ApiService {
     const k = p.summary.frames.findIndex((f) => f.frame === params.index);
     if (k < 0) throw new ApiValidationError(`prediction ${p.summary.id} has no frame ${params.index}`);
     const d = this.dataset(p.summary.datasetId);
+    let molecules: number[] | null = null;
+    try {
+      molecules = Array.from(findMolecules(d.frames[params.index]).molecule);
+    } catch {
+      molecules = null; // an element without a covalent radius: per-atom view only
+    }
     return {
+      molecules,
       frame: frameView(d.summary.id, params.index, d.frames[params.index]),
       prediction: p.summary.frames[k],
       local: p.local[k],
@@ -405,7 +415,8 @@ export class AppService implements ApiService {
       return { value: b.mean, error: b.standardError };
     };
     const isoBlock = blockAverage(iso);
-    const meanRefractive = fr[0].refractive.map((_, c) => fr.reduce((s, f) => s + f.refractive[c], 0) / fr.length);
+    const refractiveBlocks = [0, 1, 2].map((c) => blockAverage(fr.map((f) => f.refractive[c])));
+    const meanRefractive = refractiveBlocks.map((b) => b.mean);
     return {
       predictionId: p.summary.id,
       frames: fr.map((f) => f.frame),
@@ -423,6 +434,7 @@ export class AppService implements ApiService {
       },
       blocking: isoBlock.levels.map((l) => ({ blockSize: l.blockSize, error: l.standardError })),
       meanRefractive,
+      refractiveError: refractiveBlocks.map((b) => b.standardError),
       birefringence: Math.max(...meanRefractive) - Math.min(...meanRefractive),
     };
   }
@@ -434,9 +446,9 @@ export class AppService implements ApiService {
     const p = this.predictionRecord(params.predictionId);
     const d = this.dataset(p.summary.datasetId);
     const m = this.modelRecord(p.summary.modelId);
-    const text = predictionsCsv(p.summary.frames, params.tensor, { dataset: d.summary.name, model: m.summary.name, frames: d.frames });
+    const text = predictionsCsv(p.summary.frames, p.local, p.atomDistance, d.frames, m.model as Model, m.summary.name);
     const stem = d.summary.name.replace(/\.(ext)?xyz$|\.cif$/i, '');
-    return { fileName: `${stem}-${params.tensor}-predicted.csv`, mime: 'text/csv', text };
+    return { fileName: `${stem}-predicted.csv`, mime: 'text/csv', text };
   }
 
   async exportModel(params: ApiParams<'exportModel'>): Promise<FileOut> {
@@ -447,11 +459,17 @@ export class AppService implements ApiService {
 
   async importModel(params: ApiParams<'importModel'>): Promise<ModelSummary> {
     const model = this.options.codec.parse(params.text, params.name);
-    const mm = model as { request?: ModelSummary['request'] } | null;
-    if (!mm?.request) throw new ModelError(`${params.name}: the model file does not say what it was trained on (no "request")`);
+    const target = (model as { target?: { key?: unknown; kind?: unknown; route?: unknown; shape?: unknown } } | null)?.target;
+    if (!target || typeof target.key !== 'string' || (target.route !== 'cm' && target.route !== 'direct')) {
+      throw new ModelError(`${params.name}: the model file does not say what it was trained on (no target)`);
+    }
+    if (target.shape !== undefined && target.shape !== 'tensor') {
+      throw new ModelError(`${params.name}: this model predicts a ${String(target.shape)}, not a cell tensor; use it with \`polarweave predict\``);
+    }
+    const kind = target.kind === 'eps' || target.kind === 'alpha-c' || target.kind === 'alpha-cm' ? target.kind : 'eps';
     return this.registerModel(model, {
       name: params.name.replace(/\.pwmodel\.json$|\.json$/i, ''),
-      request: mm.request,
+      request: { tensorKey: target.key, kind, route: target.route },
       trainedOn: { datasetId: null, datasetName: params.name, frames: 0 },
       report: null,
       test: null,

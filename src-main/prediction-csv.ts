@@ -1,11 +1,34 @@
-// The CSV of predicted tensors the Export view writes (one row per frame).
-// TODO(h-io csv.ts): switch to tensorCsv so the window's file matches the CLI's byte for byte.
-import type { FramePredictionJ, TensorKindJ } from './api.ts';
+// The CSV of predicted tensors the Export view writes: the same layout as `polarweave predict -o OUT.csv`
+// (io/csv.ts tensorCsv with the CLI's predictionCsvOptions and core/predict-rows.ts rows), so the window's
+// file and the command line's agree row for row. Only the comment block's "Source" and "Written" lines differ.
+import type { FramePredictionJ } from './api.ts';
+import { predictionCsvOptions } from './cli/commands/predict.ts';
 import type { Frame } from './core/frame.ts';
+import type { Model } from './core/model.ts';
+import type { FramePrediction } from './core/model-types.ts';
+import { tensorPredictionRow } from './core/predict-rows.ts';
+import { tensorCsv } from './io/csv.ts';
 
-export function predictionsCsv(frames: FramePredictionJ[], tensor: TensorKindJ, _context: { dataset: string; model: string; frames: Frame[] }): string {
-  const pick = (f: FramePredictionJ) => (tensor === 'eps' ? f.eps : tensor === 'alpha-c' ? f.alphaC : f.alphaCM);
-  const head = ['frame', 'xx', 'xy', 'xz', 'yx', 'yy', 'yz', 'zx', 'zy', 'zz'];
-  const rows = frames.map((f) => [String(f.frame), ...pick(f).map((v) => String(v))].join(','));
-  return [head.join(','), ...rows].join('\n') + '\n';
+function asFramePrediction(f: FramePredictionJ, local: number[], atomDistance: number[]): FramePrediction {
+  const a = f.applicability;
+  return {
+    volumeA3: f.volumeA3,
+    alphaCM: Float64Array.from(f.alphaCM),
+    alphaC: Float64Array.from(f.alphaC),
+    eps: Float64Array.from(f.eps),
+    local: Float64Array.from(local),
+    applicability: { atomDistance: Float64Array.from(atomDistance), maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside },
+  };
+}
+
+export function predictionsCsv(
+  frames: FramePredictionJ[],
+  local: number[][],
+  atomDistance: number[][],
+  sourceFrames: Frame[],
+  model: Model,
+  modelName: string,
+): string {
+  const rows = frames.map((f, k) => tensorPredictionRow(f.frame, sourceFrames[f.frame], asFramePrediction(f, local[k], atomDistance[k]), model));
+  return tensorCsv(rows, predictionCsvOptions(model, `"${modelName}" (from the window)`));
 }

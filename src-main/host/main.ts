@@ -16,7 +16,8 @@ export interface RunningHost extends Host {
 export async function startBrowserHost(options: { port?: number; rendererDir?: string; demoDir?: string } = {}): Promise<RunningHost> {
   const service = createAppService({
     spawn: tsWorkerFactory(new URL('../jobs/app-worker.ts', import.meta.url)),
-    demoDir: options.demoDir ?? `${root}resources/demo`,
+    // POLARWEAVE_DEMO_DIR: another demo folder (development and tests only).
+    demoDir: options.demoDir ?? process.env.POLARWEAVE_DEMO_DIR ?? `${root}resources/demo`,
   });
   const host = await startHost({ service, rendererDir: options.rendererDir ?? `${root}out/renderer`, port: options.port });
   return {

@@ -32,3 +32,8 @@ export function matrixRows(v: number[]): number[][] {
 export function percent(v: number): string {
   return Number.isFinite(v) ? `${v.toFixed(1)} %` : '—';
 }
+
+/** The quantity a validation report compared on, in words. */
+export function targetName(target: string): string {
+  return target === 'eps' ? 'ε∞ (dimensionless)' : target;
+}

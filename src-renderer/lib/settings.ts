@@ -1,21 +1,8 @@
-// The Model view's settings: defaults, two presets, and the words shown beside each field.
+// The Model view's settings: two presets and the words shown beside each field (the defaults come from the
+// engine through AppState.defaultSettings).
 import type { ModelSettingsJ } from '../../src-main/api.ts';
 
 export type NumericSetting = Exclude<keyof ModelSettingsJ, 'centres' | 'regularisation'>;
-
-export const defaultSettings: ModelSettingsJ = {
-  cutoff: 4.5,
-  cutoffWidth: 0.5,
-  sigma: 0.4,
-  nmax: 6,
-  lmax: 4,
-  zeta: 1,
-  regularisation: null,
-  sparsePoints: 0,
-  centres: [],
-  maxFeatures: 0,
-  seed: 1,
-};
 
 export const presets: { id: string; label: string; note: string; settings: Partial<ModelSettingsJ> }[] = [
   { id: 'quick', label: 'Quick look', note: 'small basis, for a first check in seconds', settings: { cutoff: 4.0, nmax: 4, lmax: 3, zeta: 1, sparsePoints: 0 } },

@@ -49,7 +49,7 @@ function writePref(key: string, value: string): void {
 
 class AppStore {
   client: Client | null = null;
-  state: AppState = $state({ datasets: [], models: [], predictions: [], jobs: [] });
+  state: AppState = $state({ defaultSettings: null as unknown as AppState['defaultSettings'], datasets: [], models: [], predictions: [], jobs: [] });
   view: ViewName = $state('data');
   datasetId: string | null = $state(null);
   frameIndex = $state(0);

@@ -1,0 +1,120 @@
+// `npm run screenshots`: one PNG of each view of the window under docs/screenshots/app-<view>.png, taken in
+// Debian's Chromium against the browser host after the demo workflow (load demo, train a small model, predict
+// a trajectory and the crystal). Also the Checks view in the dark theme and the Data view in large text.
+import { existsSync, mkdirSync, mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+const root = resolve(fileURLToPath(new URL('..', import.meta.url)));
+const CHROMIUM = '/usr/bin/chromium';
+if (!existsSync(CHROMIUM)) {
+  console.error(`screenshots: ${CHROMIUM} is missing; install Debian's Chromium (apt-get install -y chromium).`);
+  process.exit(1);
+}
+const outDir = join(root, 'docs/screenshots');
+mkdirSync(outDir, { recursive: true });
+const scratch = mkdtempSync(join(tmpdir(), 'pw-shots-'));
+process.env.XDG_CONFIG_HOME = join(scratch, 'config');
+process.env.XDG_CACHE_HOME = join(scratch, 'cache');
+
+const { buildRenderer } = await import('./build-renderer.mjs');
+await buildRenderer({ quiet: true });
+const { tsImport } = await import('tsx/esm/api');
+const { startBrowserHost } = await tsImport('../src-main/host/main.ts', import.meta.url);
+const { chromium } = await import('playwright-core');
+
+const host = await startBrowserHost();
+const context = await chromium.launchPersistentContext(join(scratch, 'profile'), {
+  executablePath: CHROMIUM,
+  headless: true,
+  viewport: { width: 1440, height: 900 },
+  deviceScaleFactor: 1,
+  args: ['--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-quic', '--no-first-run', '--disable-component-update', '--disable-sync'],
+});
+const page = context.pages()[0] ?? (await context.newPage());
+page.on('pageerror', (e) => console.error('page error:', e.message));
+
+async function view(name) {
+  await page.click(`nav [data-view=${name}]`);
+  await page.waitForSelector(`main[data-current-view=${name}]`);
+  await page.waitForTimeout(600);
+}
+async function shot(name) {
+  await page.locator('[role=status] .x').click().catch(() => {}); // dismiss notices
+  await page.waitForTimeout(200);
+  const path = join(outDir, `app-${name}.png`);
+  await page.screenshot({ path });
+  console.log(`saved ${path}`);
+}
+async function idle() {
+  await page.waitForSelector('[data-job-state]', { state: 'detached', timeout: 600_000 });
+}
+async function pick(selector, pattern) {
+  const sel = page.locator(selector);
+  const options = await sel.locator('option').evaluateAll((os) => os.map((o) => ({ value: o.value, text: o.textContent })));
+  const hit = options.find((o) => pattern.test(o.text));
+  if (hit) await sel.selectOption(hit.value);
+}
+
+try {
+  await page.goto(host.url);
+  await page.waitForSelector('[data-empty=data]');
+  await page.click('[data-action=load-demo]');
+  await page.waitForSelector('[data-dataset]');
+  await page.click('[data-dataset^=liquid]:not([data-dataset*=trajectory])').catch(() => {});
+  await page.waitForTimeout(800);
+  await shot('data');
+
+  await view('model');
+  await pick('[data-field=dataset]', /^liquid\.extxyz/);
+  await page.click('[data-preset=quick]');
+  await page.fill('[data-field=max-frames]', '40');
+  await page.click('[data-action=train]');
+  await page.waitForSelector('[role=progressbar]');
+  await page.waitForTimeout(1500);
+  await shot('model-training');
+  await page.waitForSelector('[data-section=cv-results]', { timeout: 600_000 });
+  await idle();
+  await shot('model');
+
+  await view('checks');
+  await shot('checks');
+
+  await page.locator('[data-worst-frame]').first().click();
+  await page.waitForSelector('[data-section=structure-picture] [data-item^="e:"]', { timeout: 60_000 });
+  await page.waitForTimeout(600);
+  await shot('structure');
+
+  await view('trajectory');
+  if (await page.locator('[data-action=predict-trajectory]').count()) {
+    await pick('[data-field=trajectory-dataset]', /trajectory/);
+    await page.click('[data-action=predict-trajectory]');
+    await idle();
+    await page.waitForTimeout(800);
+  }
+  await shot('trajectory');
+
+  await view('transfer');
+  await pick('[data-field=transfer-dataset]', /^crystal/);
+  await page.click('[data-action=predict]');
+  await page.waitForSelector('[data-section=transfer-result]', { timeout: 300_000 });
+  await idle();
+  await shot('transfer');
+
+  await view('export');
+  await shot('export');
+
+  await page.click('text=Dark');
+  await view('checks');
+  await shot('checks-dark');
+  await page.click('text=Dark');
+  await page.click('text=Large text');
+  await view('data');
+  await shot('data-large-text');
+  await page.click('text=Large text');
+} finally {
+  await context.close();
+  await host.stop();
+  rmSync(scratch, { recursive: true, force: true });
+}

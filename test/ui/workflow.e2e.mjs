@@ -1,0 +1,135 @@
+// The whole workflow in the window, against the browser host: load the demo, train a small model, read the
+// RMSE off the parity chart, open the ellipsoid view, predict the crystal, export the CSV and compare it with
+// `polarweave predict` for the same model and frames.
+import assert from 'node:assert/strict';
+import { spawnSync } from 'node:child_process';
+import { readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+
+const demoDir = (root) => process.env.POLARWEAVE_DEMO_DIR ?? join(root, 'resources/demo');
+
+async function go(page, view) {
+  await page.click(`nav [data-view=${view}]`);
+  await page.waitForSelector(`main[data-current-view=${view}]`);
+}
+
+async function optionValue(select, pattern) {
+  const options = await select.locator('option').evaluateAll((os) => os.map((o) => ({ value: o.value, text: o.textContent })));
+  const hit = options.find((o) => pattern.test(o.text));
+  assert.ok(hit, `no option matching ${pattern} among ${options.map((o) => o.text).join(' | ')}`);
+  return hit.value;
+}
+
+export const tests = [
+  {
+    name: 'loads the demo with one click',
+    async run({ page, host }) {
+      await page.goto(host.url);
+      await page.waitForSelector('[data-empty=data]');
+      await page.click('[data-action=load-demo]');
+      await page.waitForSelector('[data-dataset]');
+      const names = await page.$$eval('[data-dataset]', (els) => els.map((e) => e.getAttribute('data-dataset')));
+      assert.ok(names.some((n) => /liquid/.test(n)) && names.some((n) => /crystal/.test(n)), `demo data sets: ${names.join(', ')}`);
+      assert.ok(Number(await page.textContent('[data-fact=frames]')) > 0);
+      const keys = await page.$$eval('[data-table=tensor-keys] tbody tr td:first-child', (tds) => tds.map((t) => t.textContent));
+      assert.ok(keys.length > 0, 'the tensor table lists the file’s tensors');
+      // The token came in the URL fragment and was taken out of the address bar.
+      assert.ok(!page.url().includes('token='), `token left in the URL: ${page.url()}`);
+    },
+  },
+  {
+    name: 'trains a small model, with progress and cross-validation results',
+    async run({ page, state }) {
+      await go(page, 'model');
+      const ds = page.locator('[data-field=dataset]');
+      await ds.selectOption(await optionValue(ds, /^liquid/));
+      await page.click('[data-preset=quick]');
+      await page.fill('[data-setting=nmax]', '3');
+      await page.fill('[data-setting=lmax]', '2');
+      await page.fill('[data-setting=sparsePoints]', '0');
+      await page.fill('[data-field=folds]', '3');
+      await page.selectOption('[data-field=holdout]', '0');
+      await page.fill('[data-field=max-frames]', '18');
+      assert.equal(await page.textContent('[data-count=train]'), '18');
+      await page.click('[data-action=train]');
+      await page.waitForSelector('[role=progressbar]');
+      await page.waitForSelector('[data-section=cv-results]', { timeout: 300_000 });
+      // Training is followed by a prediction of the training data (for the structure and trajectory views).
+      await page.waitForSelector('[data-job-state]', { state: 'detached', timeout: 120_000 });
+      const pct = await page.textContent('[data-figure=cv-percent-iso]');
+      assert.match(pct, /^\d+(\.\d)? %$/);
+      state.percentIso = pct;
+    },
+  },
+  {
+    name: 'reads the RMSE from the parity chart',
+    async run({ page, host, state }) {
+      await go(page, 'checks');
+      const texts = await page.$$eval('[data-chart=parity-iso] svg text', (ts) => ts.map((t) => t.textContent));
+      const line = texts.find((t) => /^RMSE /.test(t));
+      assert.ok(line, `no RMSE on the chart: ${texts.join(' | ')}`);
+      const shown = Number(line.replace(/^RMSE /, '').split(' ')[0].replace('−', '-'));
+      const models = (await host.service.getState()).models;
+      const model = models.at(-1);
+      state.model = model;
+      // The chart prints the engine's cross-validation figure to 3 significant digits.
+      assert.equal(shown, Number(model.report.errors.rmseIso.toPrecision(3)));
+      const dots = await page.$$eval('[data-chart=parity-iso] svg circle', (cs) => cs.length);
+      assert.ok(dots >= model.report.points.length, `${dots} dots for ${model.report.points.length} frames`);
+    },
+  },
+  {
+    name: 'opens the ellipsoid view from a worst frame',
+    async run({ page, state }) {
+      const first = page.locator('[data-worst-frame]').first();
+      const frame = await first.getAttribute('data-worst-frame');
+      await first.click();
+      await page.waitForSelector('main[data-current-view=structure]');
+      await page.waitForSelector('[data-section=structure-picture] [data-item^="e:"]', { timeout: 60_000 });
+      const ellipsoids = await page.locator('[data-section=structure-picture] [data-item^="e:"]').count();
+      assert.ok(ellipsoids > 0);
+      assert.equal(await page.inputValue('[data-field=structure-frame]'), frame);
+      state.ellipsoids = ellipsoids;
+    },
+  },
+  {
+    name: 'predicts the crystal and flags frames outside the training data',
+    async run({ page, state }) {
+      await go(page, 'transfer');
+      const ds = page.locator('[data-field=transfer-dataset]');
+      await ds.selectOption(await optionValue(ds, /^crystal/));
+      await page.click('[data-action=predict]');
+      await page.waitForSelector('[data-section=transfer-result]', { timeout: 120_000 });
+      const rows = await page.locator('[data-table=transfer] tbody tr').count();
+      assert.ok(rows > 0);
+      const heading = await page.textContent('[data-section=transfer-result] h3');
+      assert.match(heading, /^crystal/);
+      state.crystalRows = rows;
+    },
+  },
+  {
+    name: 'exports the CSV, the same as `polarweave predict` for the same model and frames',
+    async run({ page, host, root, scratch, state }) {
+      await go(page, 'export');
+      const [download] = await Promise.all([page.waitForEvent('download'), page.click('[data-action=export-csv]')]);
+      const ours = join(scratch, 'window.csv');
+      await download.saveAs(ours);
+      const modelFile = await host.service.exportModel({ modelId: state.model.id });
+      const modelPath = join(scratch, 'model.json');
+      writeFileSync(modelPath, modelFile.text);
+      const cliPath = join(scratch, 'cli.csv');
+      const crystal = join(demoDir(root), 'crystal.extxyz.gz');
+      const r = spawnSync(process.execPath, [join(root, 'bin/polarweave.mjs'), 'predict', modelPath, crystal, '-o', cliPath], { encoding: 'utf8' });
+      assert.equal(r.status, 0, r.stderr);
+      // The comment block differs only in its Source and Written lines; header and rows must be identical.
+      const body = (t) => t.split('\n').filter((l) => !l.startsWith('#'));
+      const comments = (t) => t.split('\n').filter((l) => l.startsWith('#') && !/^# (Source|Written):/.test(l));
+      const a = readFileSync(ours, 'utf8');
+      const b = readFileSync(cliPath, 'utf8');
+      assert.match(a, /model estimates/);
+      assert.deepEqual(body(a), body(b));
+      assert.deepEqual(comments(a), comments(b));
+      assert.equal(body(a).length - 2, state.crystalRows, 'one CSV row per predicted frame');
+    },
+  },
+];
