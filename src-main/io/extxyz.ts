@@ -307,7 +307,15 @@ export async function readFrameAt(file: string, index: ExtxyzIndex, k: number): 
   } finally {
     await fh.close();
   }
-  const asm = new ExtxyzAssembler(file, { firstLine: index.lines[k], firstFrame: k });
+  const f = frameFromBytes(file, buf, index.lines[k], k);
+  if (f) return f;
+  throw new InputError(`frame ${k} not found at its indexed offset`, { file, frame: k }, 'the file changed since it was indexed; index it again');
+}
+
+/** The first frame in `bytes` (one frame's text cut out of `file`, starting at 1-based line `firstLine`), or null. */
+export function frameFromBytes(file: string, bytes: Uint8Array, firstLine: number, firstFrame: number): Frame | null {
+  const buf = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  const asm = new ExtxyzAssembler(file, { firstLine, firstFrame });
   let s = 0;
   while (s <= buf.length) {
     let e = buf.indexOf(10, s);
@@ -317,7 +325,7 @@ export async function readFrameAt(file: string, index: ExtxyzIndex, k: number): 
     s = e + 1;
   }
   asm.finish();
-  throw new InputError(`frame ${k} not found at its indexed offset`, { file, frame: k }, 'the file changed since it was indexed; index it again');
+  return null;
 }
 
 export interface WriteOptions {

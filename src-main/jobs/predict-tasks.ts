@@ -6,7 +6,7 @@ import { readFile } from 'node:fs/promises';
 import { CancelledError, InputError, ModelError } from '../core/errors.ts';
 import type { Frame } from '../core/frame.ts';
 import { modelFeaturiser, type Featuriser, type Model } from '../core/model.ts';
-import { ExtxyzAssembler } from '../io/extxyz.ts';
+import { frameFromBytes } from '../io/extxyz.ts';
 import { parseModel } from '../io/model-file.ts';
 import type { TensorCsvOptions } from '../io/csv.ts';
 import { predictFrameText, type FrameStamp, type PredictFormat } from './prediction-text.ts';
@@ -56,18 +56,9 @@ async function modelFor(path: string, sha: string): Promise<NonNullable<typeof c
 
 /** Parse one frame's bytes (an InputError names the file, line and frame). */
 export function parseFrameBytes(file: string, index: number, line: number, bytes: Uint8Array): Frame {
-  const asm = new ExtxyzAssembler(file, { firstLine: line, firstFrame: index });
-  const buf = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
-  let s = 0;
-  while (s <= buf.length) {
-    let e = buf.indexOf(10, s);
-    if (e < 0) e = buf.length;
-    const r = asm.push(buf, s, e);
-    if (r !== null && r !== 'stop') return r;
-    s = e + 1;
-  }
-  asm.finish();
-  throw new InputError('the frame is incomplete', { file, line, frame: index }, 'the file may have been changed while it was read');
+  const f = frameFromBytes(file, bytes, line, index);
+  if (!f) throw new InputError('the frame is incomplete', { file, line, frame: index }, 'the file may have been changed while it was read');
+  return f;
 }
 
 export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): Promise<PredictChunkOutput> {

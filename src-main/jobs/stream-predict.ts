@@ -354,7 +354,11 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     runner?.cancelAll();
     await Promise.allSettled([...inFlight.values()].map((x) => x.promise));
     await fh.close().catch(() => undefined);
-    if (signal?.aborted && !(e instanceof InputError)) throw new CancelledError();
+    if (signal?.aborted && !(e instanceof InputError)) {
+      // stopped before anything worth keeping: leave nothing behind
+      if (framesDone === 0 && !ck) await Promise.all([fsp.rm(partial, { force: true }), fsp.rm(ckPath, { force: true })]);
+      throw new CancelledError();
+    }
     throw e;
   }
 }

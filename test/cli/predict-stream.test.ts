@@ -45,6 +45,15 @@ describe('polarweave predict (streamed)', () => {
     expect(out).toMatch(/12 frames predicted/);
     expect(readFileSync(p('r.csv'), 'utf8')).toBe(readFileSync(p('clean.csv'), 'utf8'));
     expect(existsSync(p('r.csv.checkpoint.json'))).toBe(false);
+
+    // analyse reads what predict wrote (12 frames: too short for a plateau, which it must say)
+    let summary = '';
+    const a = await runCli(['analyse', p('r.csv'), '-o', p('sum.csv')], { out: (t) => (summary += t), err: (t) => (err += t), signal: new AbortController().signal });
+    expect(a).toBe(0);
+    expect(summary).toMatch(/analyse: 12 frames \(0…11\)/);
+    expect(summary).toMatch(/mean α_CM \(Å³\)/);
+    expect(summary).toMatch(/principal refractive indices of the mean ε/);
+    expect(summary).toMatch(/too short for its correlation time/);
   }, 180_000);
 
   it('rejects bad --shard, --threads and conflicting flags with usage errors', async () => {

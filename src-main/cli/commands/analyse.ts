@@ -7,7 +7,7 @@ import type { Command, CommandIO } from '../command.ts';
 import type { BlockAverage } from '../../core/statistics.ts';
 import { runningMean } from '../../core/statistics.ts';
 import { infraredSpectrum, ramanSpectra, type QuantumCorrection, type Spectrum, type SpectrumOptions, type WindowKind } from '../../core/spectra.ts';
-import { COMPONENTS, opticalStats, tensorStats, type OpticalStats, type TensorStats } from '../../core/trajectory-summary.ts';
+import { opticalStats, tensorStats, type OpticalStats, type TensorStats } from '../../core/trajectory-summary.ts';
 import { InputError } from '../../core/errors.ts';
 import { writeFileAtomic } from '../../io/atomic.ts';
 import { csvField, tensorCsvWriter } from '../../io/csv.ts';
@@ -181,7 +181,7 @@ function spectraOptions(args: ParsedArgs, dtFs: number): SpectrumOptions {
   };
 }
 
-async function writeSpectra(path: string, s: TrajectorySeries, args: ParsedArgs, io: CommandIO, lines: string[]): Promise<void> {
+async function writeSpectra(path: string, s: TrajectorySeries, args: ParsedArgs, lines: string[]): Promise<void> {
   const dt = numberOption(args, 'time-step', { min: 0 }) as number;
   if (!(dt > 0)) throw new UsageError('--time-step must be positive (fs)');
   const stride = checkEvenlySpaced(s.frames, s.file);
@@ -209,7 +209,6 @@ async function writeSpectra(path: string, s: TrajectorySeries, args: ParsedArgs,
   await writeFileAtomic(path, parts.join(''));
   lines.push(`spectra: ${cols.map((c) => c.name).join(', ')} written to ${path}`);
   lines.push(`  ${cols[0].sp.note}`);
-  void io;
 }
 
 async function writePerFrame(path: string, s: TrajectorySeries): Promise<void> {
@@ -258,7 +257,7 @@ export async function runAnalyse(file: string, args: ParsedArgs, io: CommandIO):
   if (s.alphaC) tensorReport('alpha_c', 'α_c', 'Å³', tensorStats(s.alphaC, minBlocks), rows, lines, noPlateau);
   speciesReport(s, minBlocks, rows, lines, noPlateau);
   applicabilityReport(s, rows, lines);
-  if (args.options['time-step'] && args.options.spectra) await writeSpectra(args.options.spectra, s, args, io, lines);
+  if (args.options['time-step'] && args.options.spectra) await writeSpectra(args.options.spectra, s, args, lines);
   else if (args.options['time-step']) lines.push('spectra: give --spectra OUT.csv to write the line shapes');
   if (noPlateau.length > 0) {
     lines.push(
@@ -284,7 +283,6 @@ export async function runAnalyse(file: string, args: ParsedArgs, io: CommandIO):
     lines.push(`per-frame table written to ${args.options['per-frame']}`);
   }
   io.out(lines.join('\n') + '\n');
-  void COMPONENTS;
   return 0;
 }
 

@@ -46,6 +46,7 @@ export async function runStreamPredict(opts: Omit<StreamPredictOptions, 'onProgr
   io.err(`predict: ${threads} worker thread${threads === 1 ? '' : 's'}\n`);
   try {
     const model = await loadModel(opts.modelPath);
+    if (/\.(ext)?xyz$/i.test(opts.output) && model.target.shape !== 'tensor') throw new UsageError('extended XYZ output is for tensor models; use .csv');
     const r = await streamPredict({
       ...opts,
       threads,
