@@ -115,9 +115,9 @@ describe('app service', () => {
     expect(code, err).toBe(0);
     const cliText = readFileSync(outPath, 'utf8');
     expect(csv.text).toMatch(/# Note: these values are model estimates/);
-    // The comment block differs only in its Source and Written lines; header and rows are the same, byte for byte.
+    // The comment block differs only in its Source, Written and Identity lines (the CLI names its model file and input); header and rows are the same, byte for byte.
     const body = (t: string) => t.split('\n').filter((l) => !l.startsWith('#'));
-    const comments = (t: string) => t.split('\n').filter((l) => l.startsWith('#') && !/^# (Source|Written):/.test(l));
+    const comments = (t: string) => t.split('\n').filter((l) => l.startsWith('#') && !/^# (Source|Written|Identity):/.test(l));
     expect(body(csv.text)).toEqual(body(cliText));
     expect(comments(csv.text)).toEqual(comments(cliText));
     expect(body(csv.text).length).toBe(1 + 8 + 1);
