@@ -14,7 +14,7 @@ import { makeRng } from '../src-main/core/random.ts';
 import { formatExtxyzFrame, parseExtxyz } from '../src-main/io/extxyz.ts';
 import { saveModel } from '../src-main/io/model-file.ts';
 import { streamPredict } from '../src-main/jobs/stream-predict.ts';
-import { predictionCsvOptions } from '../src-main/cli/commands/predict.ts';
+import { predictionCsvOptions } from '../src-main/io/prediction-csv.ts';
 
 const mib = (b: number) => (b / 2 ** 20).toFixed(1);
 

@@ -1,8 +1,8 @@
 // The CSV of predicted tensors the Export view writes: the same layout as `polarweave predict -o OUT.csv`
-// (io/csv.ts tensorCsv with the CLI's predictionCsvOptions and core/predict-rows.ts rows), so the window's
+// (io/csv.ts tensorCsv with io/prediction-csv.ts's predictionCsvOptions and core/predict-rows.ts rows), so the window's
 // file and the command line's agree row for row. Only the comment block's "Source" and "Written" lines differ.
 import type { FramePredictionJ } from './api.ts';
-import { predictionCsvOptions } from './cli/commands/predict.ts';
+import { predictionCsvOptions } from './io/prediction-csv.ts';
 import type { Frame } from './core/frame.ts';
 import type { Model } from './core/model.ts';
 import type { FramePrediction } from './core/model-types.ts';

@@ -121,9 +121,9 @@ export const tests = [
       const crystal = join(demoDir(root), 'crystal.extxyz.gz');
       const r = spawnSync(process.execPath, [join(root, 'bin/polarweave.mjs'), 'predict', modelPath, crystal, '-o', cliPath], { encoding: 'utf8' });
       assert.equal(r.status, 0, r.stderr);
-      // The comment block differs only in its Source and Written lines; header and rows must be identical.
+      // The comment block differs only in its Source, Written and Identity lines (the CLI names its model file and input); header and rows must be identical.
       const body = (t) => t.split('\n').filter((l) => !l.startsWith('#'));
-      const comments = (t) => t.split('\n').filter((l) => l.startsWith('#') && !/^# (Source|Written):/.test(l));
+      const comments = (t) => t.split('\n').filter((l) => l.startsWith('#') && !/^# (Source|Written|Identity):/.test(l));
       const a = readFileSync(ours, 'utf8');
       const b = readFileSync(cliPath, 'utf8');
       assert.match(a, /model estimates/);

@@ -9,8 +9,9 @@ import { CancelledError } from '../../core/errors.ts';
 import type { Frame } from '../../core/frame.ts';
 import { framePredictionFrom, modelFeaturiser, predictWithFeatures, type Model } from '../../core/model.ts';
 import { findMolecules } from '../../core/molecules.ts';
-import { annotateFrame, APPLICABILITY_COLUMNS, tensorPredictionRow, valuePredictionRow, valueRowColumns, type PredictionRow } from '../../core/predict-rows.ts';
-import { tensorCsvWriter, csvField, type TensorCsvOptions, type TensorRow } from '../../io/csv.ts';
+import { annotateFrame, tensorPredictionRow, valuePredictionRow, valueRowColumns, type PredictionRow } from '../../core/predict-rows.ts';
+import { tensorCsvWriter, csvField, type TensorRow } from '../../io/csv.ts';
+import { predictionCsvOptions } from '../../io/prediction-csv.ts';
 import { formatExtxyzFrame, type FrameRange } from '../../io/extxyz.ts';
 import { readStructures } from '../../io/read-structures.ts';
 import { atomicWriteStream, type AtomicWriteStream } from '../../io/atomic.ts';
@@ -100,17 +101,6 @@ export function predictOne(model: Model, frame: Frame, index: number, featurise 
 }
 
 /** The CSV layout of a tensor model's predictions (io/csv.ts columns plus the applicability figures). */
-export function predictionCsvOptions(model: Model, modelPath: string): TensorCsvOptions {
-  return {
-    title: 'Polarweave predicted dielectric tensors',
-    tagColumns: ['tag'],
-    alpha: { kind: model.target.route === 'cm' ? 'alpha-cm' : 'alpha-c', unit: 'A3' },
-    extraColumns: Object.keys(APPLICABILITY_COLUMNS),
-    extraDescriptions: APPLICABILITY_COLUMNS,
-    source: `model ${modelPath} (route ${model.target.route}, trained on ${model.training.frames} frames)`,
-    predicted: true,
-  };
-}
 
 /** One CSV record as `predict` writes it (shared with the streaming writer). */
 export const csvLine = csvRecord;
