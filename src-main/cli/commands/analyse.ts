@@ -19,7 +19,7 @@ const options = [
   { name: 'block-min', value: 'N', help: 'fewest blocks a block size may leave in block averaging', default: '8' },
   { name: 'time-step', value: 'FS', help: 'time between consecutive frames of the trajectory file (fs); turns on the spectra' },
   { name: 'spectra', value: 'SPECTRA.csv', help: 'write the Raman (and IR) line shapes here (needs --time-step)' },
-  { name: 'raman-from', value: 'alpha-c|alpha-cm|eps', help: 'which tensor series the Raman line shapes use', default: 'alpha-c' },
+  { name: 'raman-from', value: 'alpha-c|alpha-cm|eps', help: 'which tensor series the Raman line shapes use (default: alpha-c if the file has it, else alpha-cm, else eps)' },
   { name: 'window', value: 'none|hann|gaussian', help: 'window on the correlation functions', default: 'hann' },
   { name: 'padding', value: 'P', help: 'zero padding factor before the Fourier transform', default: '4' },
   { name: 'max-correlation', value: 'FS', help: 'longest correlation time used (default: a quarter of the run)' },
@@ -186,7 +186,8 @@ async function writeSpectra(path: string, s: TrajectorySeries, args: ParsedArgs,
   if (!(dt > 0)) throw new UsageError('--time-step must be positive (fs)');
   const stride = checkEvenlySpaced(s.frames, s.file);
   const opts = spectraOptions(args, dt * stride);
-  const from = args.options['raman-from'];
+  // Default: the first polarisability series the file has (α_c, then α_CM), else ε.
+  const from = args.options['raman-from'] ?? (s.alphaC ? 'alpha-c' : s.alphaCM ? 'alpha-cm' : 'eps');
   const series = from === 'alpha-c' ? s.alphaC : from === 'alpha-cm' ? s.alphaCM : from === 'eps' ? s.eps : undefined;
   if (series === undefined) throw new UsageError(`--raman-from must be alpha-c, alpha-cm or eps, got "${from}"`);
   const cols: { name: string; sp: Spectrum }[] = [];
