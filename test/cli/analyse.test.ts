@@ -144,6 +144,24 @@ describe('polarweave analyse', () => {
     expect(vh[at1000] / vv[at1000]).toBeLessThan(1e-3);
   });
 
+  it('takes the Raman series from ε when the file has no polarisability columns, and says so', async () => {
+    const dt = 1;
+    const w = (nu: number) => 2 * Math.PI * SPEED_OF_LIGHT_CM_PER_S * nu * 1e-15;
+    writeSeries(p('eps-only.csv'), 2048, (f) => {
+      const a = 0.01 * Math.cos(w(1200) * f * dt);
+      return [2 + a, 2 + a, 2 + a, 0, 0, 0];
+    });
+    const r = await cli('analyse', p('eps-only.csv'), '--time-step', String(dt), '--spectra', p('eps-spectra.csv'));
+    expect(r.code, r.err).toBe(0);
+    const sp = parseCsv(readFileSync(p('eps-spectra.csv'), 'utf8'), 's');
+    expect(sp.comments.join('\n')).toMatch(/Raman from the eps series/);
+    const nu = sp.numbers('wavenumber_cm-1');
+    const y = sp.numbers('raman_isotropic');
+    let k = 1;
+    for (let i = 1; i < y.length; i++) if (y[i] > y[k]) k = i;
+    expect(Math.abs(nu[k] - 1200)).toBeLessThanOrEqual(nu[1] - nu[0]);
+  });
+
   it('sums per-atom local tensors per species from an extended XYZ prediction file', async () => {
     const rng = makeRng(5);
     const parts: string[] = [];
