@@ -27,7 +27,7 @@ function section(id: string, heading: string): HTMLElement {
 function show<P extends Record<string, any>>(id: string, heading: string, component: Component<P>, props: NoInfer<P>, dark = false): void {
   const target = section(id, heading);
   if (dark) {
-    // the theme variables the components read (h-ui's dark theme sets its own values)
+    // the theme variables the components read (the app's dark theme sets its own values)
     const s = target.parentElement as HTMLElement;
     const vars: Record<string, string> = {
       '--pw-fg': '#e3e8ef',

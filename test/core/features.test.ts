@@ -1,6 +1,6 @@
 // Symmetry-adapted features: counts, symmetries (rotation, mirror/inversion, permutation, translation),
 // continuity at the cutoff, unit norm, and the stored (unique-pair, √2-weighted) layout against a plain sum over
-// all ordered pairs built with h-math's coupleReal.
+// all ordered pairs built with core/clebsch-gordan.ts's coupleReal.
 import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { makeFrame, type Frame } from '../../src-main/core/frame.ts';

@@ -24,7 +24,7 @@ export function groupColour(index: number): string {
   return `var(--pw-group-${k}, ${groupColours[k]})`;
 }
 
-/** Theme colours as CSS custom properties with light-theme fallbacks; h-ui's themes set the variables. */
+/** Theme colours as CSS custom properties with light-theme fallbacks; the app's themes set the variables. */
 export const themeVar = {
   fg: 'var(--pw-fg, #1c2430)',
   muted: 'var(--pw-muted, #5d6878)',
