@@ -32,7 +32,7 @@ async function removeQuietly(p: string): Promise<void> {
 }
 
 /** Flush the folder entry of the rename too, where the platform allows it (not on Windows). */
-async function syncFolder(dir: string): Promise<void> {
+export async function syncFolder(dir: string): Promise<void> {
   let fh: FileHandle | undefined;
   try {
     fh = await fsp.open(dir, 'r');

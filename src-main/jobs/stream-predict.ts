@@ -14,7 +14,7 @@ import { availableParallelism } from 'node:os';
 import { basename, dirname, resolve } from 'node:path';
 import { CancelledError, InputError, ModelError } from '../core/errors.ts';
 import { indexExtxyz, type FrameRange } from '../io/extxyz.ts';
-import { writeFileAtomic } from '../io/atomic.ts';
+import { syncFolder, writeFileAtomic } from '../io/atomic.ts';
 import { parseModel } from '../io/model-file.ts';
 import { frameSlices, type SlicePosition } from './frame-slices.ts';
 import type { TensorCsvOptions } from '../io/csv.ts';
@@ -348,7 +348,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     await fh.close();
     await fsp.rename(partial, opts.output);
     await fsp.rm(ckPath, { force: true });
-    await syncDir(dirname(resolve(opts.output)));
+    await syncFolder(dirname(resolve(opts.output)));
     return { output: opts.output, format, frames: framesDone, framesThisRun: framesDone - resumedFrom, resumedFrom, outside, seconds: (Date.now() - started) / 1000, threads, modelSha256, selection };
   } catch (e) {
     runner?.cancelAll();
@@ -371,17 +371,5 @@ async function isGzipFile(file: string): Promise<boolean> {
     return bytesRead === 2 && head[0] === 0x1f && head[1] === 0x8b;
   } finally {
     await fh.close();
-  }
-}
-
-async function syncDir(dir: string): Promise<void> {
-  let fh;
-  try {
-    fh = await fsp.open(dir, 'r');
-    await fh.sync();
-  } catch {
-    // not every file system allows it; the rename is atomic anyway
-  } finally {
-    await fh?.close().catch(() => undefined);
   }
 }
