@@ -10,7 +10,7 @@ export interface OptionSpec {
   flag?: boolean;
   /** Shown in --help. */
   help: string;
-  /** Shown in --help as the value placeholder. */
+  /** Shown in --help as the name of the value, e.g. KEY. */
   value?: string;
   default?: string;
 }
