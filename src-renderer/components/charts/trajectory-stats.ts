@@ -2,6 +2,8 @@
 // of the standard error of the mean (used only when the analysis does not supply one), and the error band of
 // the running mean, scaled as 1/√t from the error at the end of the run (stationary series assumed).
 
+import { blockAverage } from '../../../src-main/core/statistics.ts';
+
 /** m_t = (1/t) Σ_{i<t} y_i for t = 1…n (non-finite samples are skipped and repeat the previous mean). */
 export function runningMean(values: ArrayLike<number>): Float64Array {
   const out = new Float64Array(values.length);
@@ -27,23 +29,9 @@ export interface BlockEstimate {
 
 /** Block-averaging estimates for block sizes 1, 2, 4, … while at least `minBlocks` blocks remain. */
 export function blockEstimates(values: ArrayLike<number>, minBlocks = 8): BlockEstimate[] {
-  const n = values.length;
-  const out: BlockEstimate[] = [];
-  for (let b = 1; Math.floor(n / b) >= minBlocks; b *= 2) {
-    const m = Math.floor(n / b);
-    const means = new Float64Array(m);
-    for (let k = 0; k < m; k++) {
-      let s = 0;
-      for (let i = k * b; i < (k + 1) * b; i++) s += values[i];
-      means[k] = s / b;
-    }
-    let mu = 0;
-    for (const v of means) mu += v / m;
-    let ss = 0;
-    for (const v of means) ss += (v - mu) ** 2;
-    out.push({ blockSize: b, blocks: m, error: Math.sqrt(ss / (m - 1) / m) });
-  }
-  return out;
+  if (values.length < Math.max(2, minBlocks)) return [];
+  // The science core's block averaging (pure, no Node APIs), so the chart's fallback and the analysis agree.
+  return blockAverage(values, minBlocks).levels.map((l) => ({ blockSize: l.blockSize, blocks: l.blocks, error: l.standardError }));
 }
 
 /**
