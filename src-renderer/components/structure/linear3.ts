@@ -1,6 +1,7 @@
 // Small 3×3 linear algebra for drawing (row-major, length 9, as `Mat3` in core/frame.ts): products, rotations
 // about an axis, re-orthonormalisation of an accumulated view rotation, and the symmetric eigenproblem (cyclic
-// Jacobi). The renderer sees only the API's types, so it carries this little copy instead of importing core.
+// Jacobi, delegated to the pure core/tensor.ts so that drawing and tables use one solver).
+import { symmetricEigen } from '../../../src-main/core/tensor.ts';
 
 export type M3 = Float64Array | number[];
 export type V3 = [number, number, number];
@@ -83,48 +84,10 @@ export interface Eigen3 {
  * (½(T + Tᵀ)), so a slightly asymmetric tensor from a file is handled; values ascending, vectors as columns.
  */
 export function symmetricEigen3(t: ArrayLike<number>): Eigen3 {
-  const a = new Float64Array(9);
-  for (let i = 0; i < 3; i++) for (let j = 0; j < 3; j++) a[3 * i + j] = 0.5 * (t[3 * i + j] + t[3 * j + i]);
-  const v = identity3();
-  for (let sweep = 0; sweep < 50; sweep++) {
-    const off = a[1] * a[1] + a[2] * a[2] + a[5] * a[5];
-    const scale = a[0] * a[0] + a[4] * a[4] + a[8] * a[8] + off;
-    if (off <= 1e-30 * scale || off === 0) break;
-    for (const [p, q] of [
-      [0, 1],
-      [0, 2],
-      [1, 2],
-    ] as const) {
-      const apq = a[3 * p + q];
-      if (apq === 0) continue;
-      const theta = (a[3 * q + q] - a[3 * p + p]) / (2 * apq);
-      const tt = Math.sign(theta || 1) / (Math.abs(theta) + Math.sqrt(theta * theta + 1));
-      const c = 1 / Math.sqrt(tt * tt + 1);
-      const s = tt * c;
-      for (let k = 0; k < 3; k++) {
-        const akp = a[3 * k + p];
-        const akq = a[3 * k + q];
-        a[3 * k + p] = c * akp - s * akq;
-        a[3 * k + q] = s * akp + c * akq;
-      }
-      for (let k = 0; k < 3; k++) {
-        const apk = a[3 * p + k];
-        const aqk = a[3 * q + k];
-        a[3 * p + k] = c * apk - s * aqk;
-        a[3 * q + k] = s * apk + c * aqk;
-      }
-      for (let k = 0; k < 3; k++) {
-        const vkp = v[3 * k + p];
-        const vkq = v[3 * k + q];
-        v[3 * k + p] = c * vkp - s * vkq;
-        v[3 * k + q] = s * vkp + c * vkq;
-      }
-    }
-  }
-  const order = [0, 1, 2].sort((i, j) => a[4 * i] - a[4 * j]);
-  const vectors = new Float64Array(9);
-  order.forEach((src, dst) => {
-    for (let k = 0; k < 3; k++) vectors[3 * k + dst] = v[3 * k + src];
-  });
-  return { values: [a[4 * order[0]], a[4 * order[1]], a[4 * order[2]]], vectors };
+  // The science core's Jacobi solver (pure, no Node APIs), so the ellipsoids and the tables share one method.
+  const a = Float64Array.from(t);
+  // Drawing code checks for bad tensors itself; keep NaN in, NaN out rather than throwing mid-render.
+  if (!a.every(Number.isFinite)) return { values: [NaN, NaN, NaN], vectors: identity3() };
+  const { values, vectors } = symmetricEigen(a);
+  return { values: [values[0], values[1], values[2]], vectors };
 }
