@@ -62,7 +62,7 @@ export interface FeatureLabel {
   weight: number;
 }
 
-interface Block {
+export interface Block {
   l: number;
   l2: number;
   /**
@@ -79,6 +79,29 @@ interface Block {
   weight: Float64Array;
   /** Index of the block's first feature. */
   offset: number;
+  /**
+   * The same coefficients sorted by μ for the read-out (tensor-readout.ts): entries muStart[μ]…muStart[μ+1]
+   * have first-factor index e1 (degree l), second-factor index e2 (degree l2) and value ev.
+   */
+  muStart: Int32Array;
+  e1: Int32Array;
+  e2: Int32Array;
+  ev: Float64Array;
+}
+
+/** The sparse coefficients grouped by μ (the muStart/e1/e2/ev fields of Block). */
+function byComponent(sp: SparseCoupling, lambda: number): Pick<Block, 'muStart' | 'e1' | 'e2' | 'ev'> {
+  const nM = 2 * lambda + 1;
+  const order = Array.from(sp.value, (_, k) => k).sort((a, b) => sp.iL[a] - sp.iL[b] || a - b);
+  const muStart = new Int32Array(nM + 1);
+  for (const k of order) muStart[sp.iL[k] + 1]++;
+  for (let mu = 0; mu < nM; mu++) muStart[mu + 1] += muStart[mu];
+  return {
+    muStart,
+    e1: Int32Array.from(order, (k) => sp.i1[k]),
+    e2: Int32Array.from(order, (k) => sp.i2[k]),
+    ev: Float64Array.from(order, (k) => sp.value[k]),
+  };
 }
 
 /** The gather form of Block (see there) from the sparse coefficients. */
@@ -104,7 +127,7 @@ function gatherForm(sp: SparseCoupling, l: number, l2: number, lambda: number): 
   return { gatherStart, gatherIndex: Int32Array.from(index), gatherValue: Float64Array.from(value) };
 }
 
-interface TensorPlan {
+export interface TensorPlan {
   lambda: 1 | 2;
   n: number;
   blocks: Block[];
@@ -170,7 +193,7 @@ export interface FeatureTimings {
   coupling: number;
 }
 
-interface Plan {
+export interface Plan {
   settings: FeatureSettings;
   lambdas: (1 | 2)[];
   expander: DensityExpander;
@@ -199,6 +222,11 @@ interface Plan {
 const planCache = new Map<string, Plan>();
 /** Plans kept (a hyperparameter search builds one per setting; the oldest is dropped beyond this). */
 const PLAN_CACHE_SIZE = 12;
+
+/** The cached plan of these settings (tables, couplings, scratch) for the given λ > 0 orders. */
+export function featurePlan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
+  return plan(s, lambdas);
+}
 
 function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
   const key = JSON.stringify([s.cutoff, s.cutoffWidth, s.sigma, s.nmax, s.lmax, s.species, s.centres, s.nmaxTensor ?? null, s.lmaxTensor ?? null, lambdas]);
@@ -243,7 +271,8 @@ function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
         }
       }
       firstStart[tch] = ch2.length;
-      blocks.push({ l, l2, ...gatherForm(realClebschGordanSparse(l, l2, lambda), l, l2, lambda), firstStart, ch2: Int32Array.from(ch2), weight: Float64Array.from(weight), offset });
+      const sp = realClebschGordanSparse(l, l2, lambda);
+      blocks.push({ l, l2, ...gatherForm(sp, l, l2, lambda), ...byComponent(sp, lambda), firstStart, ch2: Int32Array.from(ch2), weight: Float64Array.from(weight), offset });
       offset += ch2.length;
       halfSize = Math.max(halfSize, (2 * lambda + 1) * (2 * l2 + 1));
     }
@@ -395,8 +424,15 @@ function tensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Arr
   normalise(out, base, base + nM * n);
 }
 
+/** The λ > 0 step of computeFeatures: every order's block of environment slot k0 into tensors[k]. */
+function tensorSteps(P: Plan, tensors: Float64Array[]): (e: number, k0: number, c: Float64Array) => void {
+  return (_e, k0, c) => {
+    for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensors[k], k0);
+  };
+}
+
 /** A frame prepared for featurisation: plan, species channels, centre atoms, neighbour pairs. */
-interface Prepared {
+export interface Prepared {
   P: Plan;
   channelOf: Int32Array;
   /** Centre atoms in order, and the index of each one's species in settings.centres. */
@@ -406,7 +442,7 @@ interface Prepared {
   where: { file?: string; line?: number; frame?: number };
 }
 
-function prepare(frame: Frame, settings: FeatureSettings, lambdas: Lambda[], neighbours: NeighbourPairs | undefined, timings: FeatureTimings | undefined): Prepared {
+export function prepare(frame: Frame, settings: FeatureSettings, lambdas: Lambda[], neighbours: NeighbourPairs | undefined, timings: FeatureTimings | undefined): Prepared {
   for (const l of lambdas) {
     if (l !== 0 && l !== 1 && l !== 2) throw new RangeError(`computeFeatures: λ must be 0, 1 or 2, got ${String(l)}`);
   }
@@ -450,14 +486,15 @@ function prepare(frame: Frame, settings: FeatureSettings, lambdas: Lambda[], nei
 }
 
 /**
- * The per-environment loop shared by computeFeatures and forEachEnvironment: environment e is written to
- * scalar[at(e)·…] and tensor[k] at block slot(e); `after(e)` runs once its features are complete.
+ * The per-environment loop shared by computeFeatures, forEachEnvironment and the read-out of
+ * tensor-readout.ts: the λ = 0 row of environment e is written to scalar at row slot(e), then
+ * `tensorStep(e, slot(e), c)` does the λ > 0 work from the density coefficients c, and `after(e)` runs.
  */
-function featurise(
+export function featurise(
   prep: Prepared,
   scalar: Float64Array,
-  tensors: Float64Array[],
   slot: (e: number) => number,
+  tensorStep: (e: number, k0: number, c: Float64Array) => void,
   after: ((e: number) => void) | null,
   timings: FeatureTimings | undefined,
 ): void {
@@ -474,7 +511,7 @@ function featurise(
     if (!Number.isFinite(norm)) {
       throw new InputError(`features of atom ${i + 1} are not finite (non-finite positions or cell?)`, where, 'check the structure');
     }
-    for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensors[k], k0);
+    tensorStep(e, k0, c);
     if (timings) {
       tExpand += tb - ta;
       tCouple += performance.now() - tb;
@@ -504,7 +541,7 @@ export function computeFeatures(
   const count = prep.centres.length;
   const scalar = new Float64Array(count * P.n0);
   const tensorOut = P.tensors.map((T) => new Float64Array(count * (2 * T.lambda + 1) * T.n));
-  featurise(prep, scalar, tensorOut, (e) => e, null, timings);
+  featurise(prep, scalar, (e) => e, tensorSteps(P, tensorOut), null, timings);
   const tensor: EnvironmentFeatures['tensor'] = {};
   P.tensors.forEach((T, k) => {
     tensor[T.lambda] = { n: T.n, data: tensorOut[k] };
@@ -542,7 +579,7 @@ export function forEachEnvironment(
   P.tensors.forEach((T, k) => {
     view.tensor[T.lambda] = blocks[k];
   });
-  featurise(prep, scalar, blocks, () => 0, (e) => {
+  featurise(prep, scalar, () => 0, tensorSteps(P, blocks), (e) => {
     view.index = e;
     view.centre = prep.centres[e];
     view.centreSpecies = prep.centreSpecies[e];

@@ -151,6 +151,22 @@ export interface KernelExpansion {
 }
 
 /**
+ * The effective linear weights of a kernel model for environment e (λ=0 row e of `scalar`, centre species s):
+ * u = Σ_m (p_e·p_m)^(ζ−1) v_m over the representatives of that species, into u (length n).
+ */
+export function kernelWeights(k: KernelExpansion, scalar: Float64Array, e: number, s: number, u: Float64Array): Float64Array {
+  u.fill(0, 0, k.n);
+  for (let r = 0; r < k.species.length; r++) {
+    if (k.species[r] !== s) continue;
+    const c = kernelPower(scalarDot(scalar, e, k.p, r, k.n0), k.zeta - 1);
+    if (c === 0) continue;
+    const ro = r * k.n;
+    for (let f = 0; f < k.n; f++) u[f] += c * k.v[ro + f];
+  }
+  return u;
+}
+
+/**
  * Local contributions of every environment: out[e*(2λ+1)+μ]. For a linear model pass `linear` (per species
  * weight blocks, species × n) instead of a kernel expansion.
  */
@@ -166,16 +182,7 @@ export function localContributions(feat: EnvironmentFeatures, order: Order, mode
       weights = model.linear;
       wOff = s * v.n;
     } else {
-      const k = model.kernel;
-      u.fill(0);
-      const m = k.species.length;
-      for (let r = 0; r < m; r++) {
-        if (k.species[r] !== s) continue;
-        const c = kernelPower(scalarDot(feat.scalar, e, k.p, r, k.n0), k.zeta - 1);
-        if (c === 0) continue;
-        const ro = r * k.n;
-        for (let f = 0; f < k.n; f++) u[f] += c * k.v[ro + f];
-      }
+      kernelWeights(model.kernel, feat.scalar, e, s, u);
       weights = u;
     }
     for (let mu = 0; mu < v.width; mu++) {

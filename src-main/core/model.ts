@@ -7,12 +7,13 @@
 // See docs/learning-engine.md for the choices and their reasons.
 import { CancelledError, InputError, ModelError } from './errors.ts';
 import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
-import { computeFeatures, concatenateFeatures, tensorLimits } from './features.ts';
+import { computeFeatures, concatenateFeatures, featureCount, tensorLimits } from './features.ts';
 import { applyFeatureSelection, selectFeatures, type FeatureSelection } from './feature-selection.ts';
 import type { Frame, Mat3 } from './frame.ts';
 import {
   blockView,
   kernelPower,
+  kernelWeights,
   linearDesignRows,
   localContributions,
   scalarDot,
@@ -52,6 +53,7 @@ import {
   type TargetShape,
 } from './targets.ts';
 import { fromIrreducible, tensorFromValues, toIrreducible } from './tensor.ts';
+import { computeReadout, makeWeightMatrices, weightMatricesLength, type TensorReadout } from './tensor-readout.ts';
 import { cellVolume } from './cell.ts';
 
 /** Defaults chosen so that `train` works untuned on 100–400-atom cells (reasons in docs/learning-engine.md). */
@@ -716,6 +718,14 @@ export function checkFrameSpecies(model: Model, frame: Frame, index = 0): void {
 export function predictWithFeatures(model: Model, frame: Frame, raw: EnvironmentFeatures, index = 0): TargetPrediction {
   checkFrameSpecies(model, frame, index);
   const fe = model.featureSelection ? applyFeatureSelection(raw, model.featureSelection) : raw;
+  return predictFromParts(model, frame, fe, null);
+}
+
+/**
+ * The model's parts applied to λ=0 features `fe`; the λ>0 part's local contributions come from `readout` when
+ * given (tensor-readout.ts), else from fe's λ>0 features.
+ */
+function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, readout: { order: Order; values: Float64Array } | null): TargetPrediction {
   if (fe.n0 !== model.featureSizes.n0) throw new ModelError(`features have ${fe.n0} λ=0 components but the model was trained with ${model.featureSizes.n0}`);
   const nAtoms = frame.species.length;
   const C = model.target.shape === 'tensor' ? 6 : model.target.shape === 'vector' ? 3 : 1;
@@ -724,9 +734,13 @@ export function predictWithFeatures(model: Model, frame: Frame, raw: Environment
   let variance = 0;
   for (const part of model.parts) {
     const w = 2 * part.order + 1;
-    const v = blockView(fe, part.order);
-    if (v.n !== part.n) throw new ModelError(`features of order λ=${part.order} have ${v.n} components but the model expects ${part.n}`);
-    const contrib = localContributions(fe, part.order, part.form === 'linear' ? { linear: part.weights as Float64Array } : { kernel: part.kernel as KernelExpansion });
+    let contrib: Float64Array;
+    if (readout && readout.order === part.order) contrib = readout.values;
+    else {
+      const v = blockView(fe, part.order);
+      if (v.n !== part.n) throw new ModelError(`features of order λ=${part.order} have ${v.n} components but the model expects ${part.n}`);
+      contrib = localContributions(fe, part.order, part.form === 'linear' ? { linear: part.weights as Float64Array } : { kernel: part.kernel as KernelExpansion });
+    }
     for (let e = 0; e < fe.count; e++) {
       const atom = fe.centre[e];
       for (let mu = 0; mu < w; mu++) {
@@ -741,6 +755,44 @@ export function predictWithFeatures(model: Model, frame: Frame, raw: Environment
   const applicability = applicabilityOf(model, fe, nAtoms);
   applicability.variance = variance;
   return { irreducible: total, localIrreducible: local, components: C, applicability };
+}
+
+/** Predicts one frame (features included): what `predict` runs per frame. */
+export type Predictor = (frame: Frame, index: number) => TargetPrediction;
+
+/**
+ * The fastest exact way for this model to predict frames. A λ>0 part (tensor or vector target) is applied by
+ * the read-out of tensor-readout.ts, which never forms the λ>0 features (several times cheaper; equal to the
+ * feature route to round-off); models with a feature selection take the feature route. Build it once per model
+ * and reuse it: it prepares the weight matrices.
+ */
+export function modelPredictor(model: Model): Predictor {
+  const order = tensorOrderOf(model.target.shape);
+  const part = order === null ? undefined : model.parts.find((p) => p.order === order);
+  if (order === null || !part || model.featureSelection) {
+    const featurise = modelFeaturiser(model);
+    return (frame, index) => predictTarget(model, frame, index, featurise);
+  }
+  const fs = featureSettingsOf(model.settings, model.species, model.centres, model.tensorLimits);
+  const expected = featureCount(fs, order);
+  if (part.n !== expected) throw new ModelError(`the model's λ=${order} part expects ${part.n} features, its settings give ${expected}`);
+  const toMatrices = makeWeightMatrices(fs, order);
+  let readout: TensorReadout;
+  if (part.form === 'linear') {
+    const weights = part.weights as Float64Array;
+    const perSpecies = model.centres.map((_, s) => toMatrices(weights, s * part.n));
+    readout = { lambda: order, matrices: (_e, s) => perSpecies[s] };
+  } else {
+    const k = part.kernel as KernelExpansion;
+    const u = new Float64Array(k.n);
+    const W = new Float64Array(weightMatricesLength(fs, order));
+    readout = { lambda: order, matrices: (e, s, scalar) => toMatrices(kernelWeights(k, scalar, e, s, u), 0, W) };
+  }
+  return (frame, index) => {
+    checkFrameSpecies(model, frame, index);
+    const r = computeReadout(frame, fs, readout);
+    return predictFromParts(model, frame, r.features, { order, values: r.values });
+  };
 }
 
 function partVariance(model: Model, part: ModelPart, fe: EnvironmentFeatures): number {
@@ -795,11 +847,23 @@ function applicabilityOf(model: Model, fe: EnvironmentFeatures, nAtoms: number):
   return { atomDistance, maxDistance, threshold: a.threshold, atomsOutside, variance: 0, outside: atomsOutside > 0 };
 }
 
-/** Prediction of the learnt target for any shape (tensor, vector, scalar). */
+const predictors = new WeakMap<Model, Predictor>();
+
+/**
+ * Prediction of the learnt target for any shape (tensor, vector, scalar): through `featurise` when given (the
+ * feature route), else through the model's own predictor (modelPredictor, kept per model object).
+ */
 export function predictTarget(model: Model, frame: Frame, index = 0, featurise?: Featuriser): TargetPrediction {
-  checkFrameSpecies(model, frame, index);
-  const fe = (featurise ?? modelFeaturiser(model))(frame, index);
-  return predictWithFeatures(model, frame, fe, index);
+  if (featurise) {
+    checkFrameSpecies(model, frame, index);
+    return predictWithFeatures(model, frame, featurise(frame, index), index);
+  }
+  let predictor = predictors.get(model);
+  if (!predictor) {
+    predictor = modelPredictor(model);
+    predictors.set(model, predictor);
+  }
+  return predictor(frame, index);
 }
 
 /** The tensors of a tensor model's prediction (the contract of model-types.ts). */

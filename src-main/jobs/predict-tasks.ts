@@ -5,7 +5,7 @@ import { createHash } from 'node:crypto';
 import { readFile } from 'node:fs/promises';
 import { CancelledError, InputError, ModelError } from '../core/errors.ts';
 import type { Frame } from '../core/frame.ts';
-import { modelFeaturiser, type Featuriser, type Model } from '../core/model.ts';
+import { modelPredictor, type Model, type Predictor } from '../core/model.ts';
 import { frameFromBytes } from '../io/extxyz.ts';
 import { parseModel } from '../io/model-file.ts';
 import type { TensorCsvOptions } from '../io/csv.ts';
@@ -40,7 +40,7 @@ export function sha256Hex(data: Uint8Array | string): string {
   return createHash('sha256').update(data).digest('hex');
 }
 
-let cached: { path: string; sha: string; model: Model; featurise: Featuriser } | null = null;
+let cached: { path: string; sha: string; model: Model; predict: Predictor } | null = null;
 
 async function modelFor(path: string, sha: string): Promise<NonNullable<typeof cached>> {
   if (cached && cached.path === path && cached.sha === sha) return cached;
@@ -50,7 +50,7 @@ async function modelFor(path: string, sha: string): Promise<NonNullable<typeof c
   const actual = sha256Hex(bytes);
   if (actual !== sha) throw new ModelError(`${path}: the model file changed while predicting (sha256 ${actual}, expected ${sha}); start again with --restart`);
   const model = parseModel(bytes.toString('utf8'), path);
-  cached = { path, sha, model, featurise: modelFeaturiser(model) };
+  cached = { path, sha, model, predict: modelPredictor(model) };
   return cached;
 }
 
@@ -71,7 +71,7 @@ export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): 
     if (ctx.signal.aborted) throw new CancelledError();
     const f = input.frames[j];
     const frame = parseFrameBytes(input.file, f.index, f.line, f.bytes);
-    const r = predictFrameText(m.model, m.featurise, frame, f.index, input.format, input.stamp, input.csvOptions);
+    const r = predictFrameText(m.model, m.predict, frame, f.index, input.format, input.stamp, input.csvOptions);
     parts.push(r.text);
     out.index.push(f.index);
     out.outside.push(r.outside);

@@ -3,7 +3,7 @@
 // Shared by the worker task (which formats) and merge (which checks and rewrites the identity line), so that a
 // streamed, resumed or sharded-and-merged run gives the same bytes as one plain run.
 import type { Frame } from '../core/frame.ts';
-import { framePredictionFrom, predictWithFeatures, type Featuriser, type Model } from '../core/model.ts';
+import { framePredictionFrom, type Model, type Predictor } from '../core/model.ts';
 import { findMolecules } from '../core/molecules.ts';
 import { annotateFrame, tensorPredictionRow, valuePredictionRow, valueRowColumns } from '../core/predict-rows.ts';
 import { csvField, tensorCsvColumns, tensorCsvPreamble, tensorCsvRow, type TensorCsvOptions } from '../io/csv.ts';
@@ -112,8 +112,8 @@ export interface FrameText {
 }
 
 /** Predict one frame and format it. */
-export function predictFrameText(model: Model, featurise: Featuriser, frame: Frame, index: number, format: PredictFormat, stamp: FrameStamp, csvOptions?: TensorCsvOptions): FrameText {
-  const pred = predictWithFeatures(model, frame, featurise(frame, index), index);
+export function predictFrameText(model: Model, predict: Predictor, frame: Frame, index: number, format: PredictFormat, stamp: FrameStamp, csvOptions?: TensorCsvOptions): FrameText {
+  const pred = predict(frame, index);
   const a = pred.applicability;
   const figures = { outside: a.outside, atomsOutside: a.atomsOutside, maxDistance: a.maxDistance };
   if (model.target.shape !== 'tensor') {

@@ -7,7 +7,7 @@ import { parseArgs, UsageError, type ParsedArgs } from '../args.ts';
 import type { Command, CommandIO } from '../command.ts';
 import { CancelledError } from '../../core/errors.ts';
 import type { Frame } from '../../core/frame.ts';
-import { framePredictionFrom, modelFeaturiser, predictWithFeatures, type Model } from '../../core/model.ts';
+import { framePredictionFrom, modelPredictor, type Model, type Predictor } from '../../core/model.ts';
 import { findMolecules } from '../../core/molecules.ts';
 import { annotateFrame, tensorPredictionRow, valuePredictionRow, valueRowColumns, type PredictionRow } from '../../core/predict-rows.ts';
 import { tensorCsvWriter, csvField, type TensorRow } from '../../io/csv.ts';
@@ -93,8 +93,8 @@ export function parseFrameRange(args: ParsedArgs): FrameRange {
 }
 
 /** One frame's prediction as a table row and an annotated frame: the per-frame work, reusable by other callers. */
-export function predictOne(model: Model, frame: Frame, index: number, featurise = modelFeaturiser(model)): { tensorRow?: TensorRow; valueRow?: PredictionRow; annotated?: Frame; outside: boolean } {
-  const pred = predictWithFeatures(model, frame, featurise(frame, index), index);
+export function predictOne(model: Model, frame: Frame, index: number, predict: Predictor = modelPredictor(model)): { tensorRow?: TensorRow; valueRow?: PredictionRow; annotated?: Frame; outside: boolean } {
+  const pred = predict(frame, index);
   if (model.target.shape !== 'tensor') return { valueRow: valuePredictionRow(model, index, frame, pred), outside: pred.applicability.outside };
   const fp = framePredictionFrom(model, frame, pred, index);
   return { tensorRow: tensorPredictionRow(index, frame, fp, model), annotated: annotateFrame(frame, fp, model), outside: fp.applicability.outside };
@@ -110,7 +110,7 @@ export async function runPredict(modelPath: string, input: string, output: strin
   if (!format) throw new UsageError(`cannot tell the output format from "${output}": use .csv or .extxyz`);
   const model = await loadModel(modelPath);
   if (format === 'extxyz' && model.target.shape !== 'tensor') throw new UsageError('extended XYZ output is for tensor models; use .csv');
-  const featurise = modelFeaturiser(model);
+  const predict = modelPredictor(model);
   // one writer, chosen by format; each is atomic: nothing appears at `output` unless every frame was written
   const tensorCsv = format === 'csv' && model.target.shape === 'tensor' ? tensorCsvWriter(output, predictionCsvOptions(model, modelPath)) : null;
   const stream = tensorCsv ? null : atomicWriteStream(output);
@@ -130,7 +130,7 @@ export async function runPredict(modelPath: string, input: string, output: strin
       if (io.signal.aborted) throw new CancelledError();
       const index = frame.source?.index ?? start + k * step;
       k++;
-      const one = predictOne(model, frame, index, featurise);
+      const one = predictOne(model, frame, index, predict);
       if (one.outside) outside++;
       if (tensorCsv) await tensorCsv.writeRow(one.tensorRow as TensorRow);
       else if (format === 'csv') await (stream as AtomicWriteStream).write(csvLine(valueRowColumns(model).map((c) => (one.valueRow as PredictionRow)[c] ?? '')));
