@@ -132,7 +132,8 @@ function readOne(P: Plan, T: TensorPlan, c: Float64Array, W: Float64Array, S: Sc
     const w1 = 2 * blk.l + 1, w2 = 2 * blk.l2 + 1;
     const a = S.ct[blk.l], bt = S.ct[blk.l2];
     const wb = b * tch * tch;
-    // left = Aᵀ W (w1 × channels)
+    // left = Aᵀ W (w1 × channels); an l = l' block's W is upper triangular (pairs c1 ≤ c2 only)
+    const upper = blk.l === blk.l2;
     left.fill(0, 0, w1 * tch);
     for (let m = 0; m < w1; m++) {
       const lo = m * tch;
@@ -140,7 +141,7 @@ function readOne(P: Plan, T: TensorPlan, c: Float64Array, W: Float64Array, S: Sc
         const x = a[lo + c1];
         if (x === 0) continue;
         const wo = wb + c1 * tch;
-        for (let c2 = 0; c2 < tch; c2++) left[lo + c2] += x * W[wo + c2];
+        for (let c2 = upper ? c1 : 0; c2 < tch; c2++) left[lo + c2] += x * W[wo + c2];
       }
     }
     // both = Aᵀ W B (w1 × w2)

@@ -1,0 +1,133 @@
+// Prediction speed at the conditions of the learning-engine target: 384-atom water-like cells (two species,
+// 0.1 atoms/Å³), r_c 4.5 Å, nmax 8, lmax 6 (λ=2 at the default lmaxTensor 4), ζ = 1, a tensor model trained
+// on synthetic frames (bench/water-like.ts). It prints
+//   1. one thread, in process: environments/s of the whole per-frame work (neighbour list, density expansion,
+//      λ=0 power spectrum, λ=2 read-out, model, variance, applicability search), split by stage, against the
+//      feature route (computeFeatures with λ=2 + dot products) that prediction used before the read-out;
+//   2. the same on 1×, 2×, 4× cells (384, 768, 1536 atoms), to show the cost is linear in the atoms;
+//   3. streamed end to end (extended XYZ in, CSV out, worker threads) with 1 and 2 threads: the rate over the
+//      whole run (worker start-up included) and the marginal rate (extra frames / extra seconds between a
+//      short and a long run, i.e. with start-up removed), with the peak RSS.
+// Figures only, never asserted. Env: PW_BENCH_TRAIN_FRAMES (30), PW_BENCH_STREAM_FRAMES (120).
+import { createWriteStream, mkdtempSync, rmSync } from 'node:fs';
+import { availableParallelism, cpus, loadavg, tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { pathToFileURL } from 'node:url';
+import { supercell } from '../src-main/core/cell.ts';
+import type { Frame } from '../src-main/core/frame.ts';
+import { modelFeaturiser, modelPredictor, predictWithFeatures, trainModel, type Model } from '../src-main/core/model.ts';
+import { formatExtxyzFrame } from '../src-main/io/extxyz.ts';
+import { saveModel } from '../src-main/io/model-file.ts';
+import { predictionCsvOptions } from '../src-main/io/prediction-csv.ts';
+import { streamPredict } from '../src-main/jobs/stream-predict.ts';
+import { waterLikeFrames } from './water-like.ts';
+
+const TRAIN = Number(process.env.PW_BENCH_TRAIN_FRAMES ?? 30);
+const STREAM = Number(process.env.PW_BENCH_STREAM_FRAMES ?? 120);
+
+const cpuMs = () => {
+  const c = process.cpuUsage();
+  return (c.user + c.system) / 1000;
+};
+
+/** Best of `rounds` passes over the frames: environments per wall second and per CPU second. */
+function rate(frames: Frame[], work: (f: Frame, i: number) => unknown, rounds = 3): { wall: number; cpu: number } {
+  const envs = frames.reduce((s, f) => s + f.species.length, 0);
+  let best = { wall: 0, cpu: 0 };
+  for (let r = 0; r < rounds; r++) {
+    const t0 = performance.now();
+    const c0 = cpuMs();
+    frames.forEach((f, i) => work(f, i));
+    const wall = (envs / (performance.now() - t0)) * 1000;
+    const cpu = (envs / (cpuMs() - c0)) * 1000;
+    if (wall > best.wall) best = { wall, cpu };
+  }
+  return best;
+}
+
+async function writeFrames(path: string, frames: Frame[], count: number): Promise<void> {
+  const out = createWriteStream(path);
+  for (let k = 0; k < count; k++) {
+    const f = frames[k % frames.length];
+    if (!out.write(formatExtxyzFrame({ ...f, info: { step: k }, arrays: {} }))) await new Promise<void>((r) => out.once('drain', () => r()));
+  }
+  await new Promise<void>((res, rej) => out.end((e?: Error | null) => (e ? rej(e) : res())));
+}
+
+function inProcess(model: Model): void {
+  const test = waterLikeFrames(8, 99);
+  const predict = modelPredictor(model);
+  const featurise = modelFeaturiser(model);
+  predict(test[0], 0); // warm-up (tables, JIT)
+  const whole = rate(test, (f, i) => predict(f, i));
+  const oldRoute = rate(test, (f, i) => predictWithFeatures(model, f, featurise(f, i), i));
+  console.log('1. one thread, in process, 8 frames × 384 atoms (best of 3 passes):');
+  console.log(`   whole prediction (read-out route):      ${whole.wall.toFixed(0).padStart(6)} env/s wall, ${whole.cpu.toFixed(0).padStart(6)} env per CPU-s`);
+  console.log(`   feature route (λ=2 features + dot):     ${oldRoute.wall.toFixed(0).padStart(6)} env/s wall, ${oldRoute.cpu.toFixed(0).padStart(6)} env per CPU-s  (×${(whole.wall / oldRoute.wall).toFixed(2)} faster now)`);
+  // stage split: features alone (λ=0 only, as the read-out computes them) and the model part alone
+  const lambda0 = modelFeaturiser({ ...model, target: { ...model.target, shape: 'scalar' } });
+  const feats = rate(test, (f, i) => lambda0(f, i));
+  const fe = test.map((f, i) => featurise(f, i));
+  const modelPart = rate(test, (f, i) => predictWithFeatures(model, f, fe[i], i));
+  console.log(`   of which: λ=0 features (neighbours, expansion, power spectrum) ${feats.wall.toFixed(0)} env/s alone; ` +
+    `model part of the feature route (dot products, variance, applicability) ${modelPart.wall.toFixed(0)} env/s alone`);
+}
+
+function linearCost(model: Model): void {
+  const predict = modelPredictor(model);
+  const base = waterLikeFrames(2, 55);
+  console.log('2. cost against cell size (one thread, best of 3):');
+  for (const [label, rep] of [['1× (384 atoms)', [1, 1, 1]], ['2× (768 atoms)', [2, 1, 1]], ['4× (1536 atoms)', [2, 2, 1]]] as const) {
+    const frames = base.map((f) => supercell(f, [...rep]));
+    predict(frames[0], 0);
+    const r = rate(frames, (f, i) => predict(f, i));
+    console.log(`   ${label.padEnd(16)} ${r.wall.toFixed(0).padStart(6)} env/s wall, ${r.cpu.toFixed(0).padStart(6)} env per CPU-s`);
+  }
+}
+
+async function streamed(model: Model, dir: string): Promise<void> {
+  const modelPath = join(dir, 'model.json');
+  await saveModel(modelPath, model);
+  const pool = waterLikeFrames(20, 123);
+  const short = Math.max(8, Math.round(STREAM / 4));
+  const inputs = { short: join(dir, 'short.extxyz'), long: join(dir, 'long.extxyz') };
+  await writeFrames(inputs.short, pool, short);
+  await writeFrames(inputs.long, pool, STREAM);
+  const atoms = pool[0].species.length;
+  console.log(`3. streamed end to end (extended XYZ → CSV, worker threads, ${availableParallelism()} cores): ${short} and ${STREAM} frames × ${atoms} atoms`);
+  for (const threads of [1, 2]) {
+    const seconds: Record<string, number> = {};
+    let peak = process.memoryUsage().rss;
+    const timer = setInterval(() => (peak = Math.max(peak, process.memoryUsage().rss)), 100);
+    for (const [name, path] of Object.entries(inputs)) {
+      const r = await streamPredict({ modelPath, input: path, output: join(dir, `${name}-${threads}.csv`), csvOptions: predictionCsvOptions(model, modelPath), threads, mode: 'restart' });
+      seconds[name] = r.seconds;
+    }
+    clearInterval(timer);
+    const whole = (STREAM * atoms) / seconds.long;
+    const marginal = ((STREAM - short) * atoms) / (seconds.long - seconds.short);
+    console.log(`   ${threads} thread${threads > 1 ? 's' : ' '}: ${STREAM} frames in ${seconds.long.toFixed(1)} s = ${whole.toFixed(0)} env/s (start-up included); ` +
+      `marginal ${marginal.toFixed(0)} env/s (${short} frames took ${seconds.short.toFixed(1)} s); main-process peak RSS ${(peak / 2 ** 20).toFixed(0)} MiB`);
+  }
+}
+
+export async function run(): Promise<void> {
+  console.log(`prediction bench: ${cpus().length} cores (${cpus()[0]?.model ?? 'unknown'}), load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}, Node ${process.version}`);
+  const frames = waterLikeFrames(TRAIN, 7);
+  const t0 = performance.now();
+  const model = await trainModel(frames, { tensorKey: 'alpha_cm', kind: 'alpha-cm', route: 'cm', settings: { nmax: 8, lmax: 6 } });
+  const s = model.settings;
+  console.log(`model: ${TRAIN} training frames × ${frames[0].species.length} atoms (trained in ${((performance.now() - t0) / 1000).toFixed(1)} s), r_c ${s.cutoff} Å, ` +
+    `nmax ${s.nmax}, lmax ${s.lmax}, λ=2 at nmax ${model.tensorLimits.nmax} / lmax ${model.tensorLimits.lmax}, ζ ${s.zeta}, species ${model.species.join(',')}; ` +
+    `features per environment λ=0 ${model.featureSizes.n0}, λ=2 ${model.parts.find((p) => p.order === 2)?.n} × 5`);
+  inProcess(model);
+  linearCost(model);
+  const dir = mkdtempSync(join(tmpdir(), 'pw-predict-bench-'));
+  try {
+    await streamed(model, dir);
+  } finally {
+    rmSync(dir, { recursive: true, force: true });
+  }
+}
+
+if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) await run();
