@@ -3,6 +3,7 @@ import { numberOption, UsageError, type OptionSpec, type ParsedArgs } from './ar
 import { DEFAULT_SETTINGS } from '../core/model.ts';
 import type { ModelSettings, Route, TensorKind, TrainRequest, TuneGrid } from '../core/model-types.ts';
 import type { CommandIO } from './command.ts';
+import { readValues, shapeOfValues, whereOf, type TargetShape } from '../core/targets.ts';
 import type { Progress } from '../core/model-types.ts';
 
 export const targetOptions: OptionSpec[] = [
@@ -78,10 +79,23 @@ export function parseTune(args: ParsedArgs): TuneGrid | undefined {
   return grid.cutoff || grid.sigma || grid.zeta ? grid : undefined;
 }
 
-export function parseRequest(args: ParsedArgs, route: Route): TrainRequest {
+/**
+ * The training request of the command line. `shape` is the shape of the reference property in the data: --as
+ * is required for a tensor only (a dipole or scalar is learnt as it is, so its kind does not matter).
+ */
+export function parseRequest(args: ParsedArgs, route: Route, shape: TargetShape = 'tensor'): TrainRequest {
   const key = args.options.tensor;
   if (!key) throw new UsageError('name the reference property with --tensor KEY');
-  return { tensorKey: key, kind: parseKind(args), route, settings: parseSettings(args) };
+  const kind: TensorKind = shape === 'tensor' || args.options.as !== undefined ? parseKind(args) : 'alpha-cm';
+  return { tensorKey: key, kind, route, settings: parseSettings(args) };
+}
+
+/** The shape of the reference property --tensor KEY in the first frame (an InputError naming the frame if absent). */
+export function targetShapeOf(args: ParsedArgs, frames: Frame[]): TargetShape {
+  const key = args.options.tensor;
+  if (!key) throw new UsageError('name the reference property with --tensor KEY');
+  if (frames.length === 0) throw new UsageError('the input holds no frames');
+  return shapeOfValues(readValues(frames[0], key, 0), key, whereOf(frames[0], 0));
 }
 
 /** Progress lines on stderr, at most a few per second, always the last of each stage. */

@@ -14,15 +14,17 @@ import {
   framePredictionFrom,
   modelFeaturiser,
   predictWithFeatures,
+  predictedVector,
   resolveSettings,
   speciesOf,
   trainWithFeaturiser,
   type Featuriser,
+  type Model,
 } from './model.ts';
 import type { ErrorFigures, ParityPoint, TrainRequest, ValidationReport, WorkHooks } from './model-types.ts';
 import { makeRng } from './random.ts';
 import { foldsOf } from './regression.ts';
-import { frameVolume, readTensor } from './targets.ts';
+import { frameVolume, readTensor, readValues, shapeOfValues, whereOf } from './targets.ts';
 import { toIrreducible } from './tensor.ts';
 
 /** Error figures of paired 6-component irreducible vectors [T⁰, T²₋₂…T²₂]. */
@@ -99,6 +101,65 @@ function cachedFeaturiser(base: Featuriser, frames: Frame[]): Featuriser {
   };
 }
 
+/** The folds of a cross-validation: a seeded shuffle of the frames, k folds, and the usable curve sizes. */
+interface FoldPlan {
+  k: number;
+  trainIndices: (f: number) => number[];
+  testIndices: (f: number) => number[];
+  usable: number[];
+  skippedSizes: number[];
+  steps: number;
+}
+
+function planFolds(n: number, k: number, seed: number, learningCurve: number[] | undefined): FoldPlan {
+  const rng = makeRng(seed + 7919);
+  const perm = Int32Array.from({ length: n }, (_, i) => i);
+  for (let i = n - 1; i > 0; i--) {
+    const j = rng.int(i + 1);
+    [perm[i], perm[j]] = [perm[j], perm[i]];
+  }
+  const fold = foldsOf(perm, k);
+  const trainIndices = (f: number) => [...perm].filter((i) => fold[i] !== f);
+  const testIndices = (f: number) => [...perm].filter((i) => fold[i] === f).sort((a, b) => a - b);
+  const sizes = [...(learningCurve ?? [])].sort((a, b) => a - b);
+  const minTrain = Math.min(...Array.from({ length: k }, (_, f) => trainIndices(f).length));
+  const usable = sizes.filter((s) => Number.isInteger(s) && s >= 1 && s <= minTrain);
+  const skippedSizes = sizes.filter((s) => !usable.includes(s));
+  return { k, trainIndices, testIndices, usable, skippedSizes, steps: k * (1 + usable.length) };
+}
+
+/**
+ * Trains on every fold's training frames (the first `size` of them for a learning curve) and calls `predict`
+ * for each held-out frame. Returns the held-out frame indices, ascending.
+ */
+async function runFoldsOf(
+  frames: Frame[],
+  request: TrainRequest,
+  plan: FoldPlan,
+  size: number | null,
+  featurise: Featuriser,
+  species: string[],
+  hooks: WorkHooks,
+  predict: (model: Model, frame: number) => void,
+): Promise<number[]> {
+  const tested: number[] = [];
+  const done = size === null ? 0 : (1 + plan.usable.indexOf(size)) * plan.k;
+  for (let f = 0; f < plan.k; f++) {
+    if (hooks.signal?.aborted) throw new CancelledError();
+    let train = plan.trainIndices(f);
+    if (size !== null) train = train.slice(0, size);
+    const trainFrames = train.map((i) => frames[i]);
+    const local: Featuriser = (frame, idx) => featurise(frame, train[idx]);
+    const model = await trainWithFeaturiser(trainFrames, request, local, { signal: hooks.signal }, { applicability: false, species, createdAt: 'validation' });
+    for (const i of plan.testIndices(f)) {
+      predict(model, i);
+      tested.push(i);
+    }
+    hooks.onProgress?.({ stage: size === null ? `fold ${f + 1}/${plan.k}` : `learning curve, ${size} frames`, done: done + f + 1, total: plan.steps });
+  }
+  return tested.sort((a, b) => a - b);
+}
+
 /** k-fold cross-validation (and optional learning curve) of one training request (model-types.ts contract). */
 export async function validate(
   frames: Frame[],
@@ -114,7 +175,7 @@ export async function validate(
   const { species, centres } = speciesOf(frames, settings);
   const firstValues = frames[0].info[request.tensorKey];
   if (!Array.isArray(firstValues) || (firstValues.length !== 9 && firstValues.length !== 6)) {
-    throw new InputError(`validation compares cell tensors; "${request.tensorKey}" is not a 3×3 tensor`, { frame: 0 }, 'use `train` and `predict` for vector or scalar targets');
+    throw new InputError(`validation compares cell tensors; "${request.tensorKey}" is not a 3×3 tensor`, { frame: 0 }, 'the window validates tensors only; for a dipole or a scalar run `polarweave validate` on the command line');
   }
   const base = modelFeaturiser({ settings, species, centres, target: { key: request.tensorKey, shape: 'tensor', kind: request.kind, route: request.route, learnt: 'alpha-cm', units: 'Å³' } });
   const featurise = cachedFeaturiser(base, frames);
@@ -129,45 +190,17 @@ export async function validate(
     refCM.push(toIrreducible(convertTensor(t, request.kind, 'alpha-cm', v)));
   });
 
-  const rng = makeRng(settings.seed + 7919);
-  const perm = Int32Array.from({ length: n }, (_, i) => i);
-  for (let i = n - 1; i > 0; i--) {
-    const j = rng.int(i + 1);
-    [perm[i], perm[j]] = [perm[j], perm[i]];
-  }
-  const fold = foldsOf(perm, k);
-  const trainIndices = (f: number) => [...perm].filter((i) => fold[i] !== f);
-  const testIndices = (f: number) => [...perm].filter((i) => fold[i] === f).sort((a, b) => a - b);
-
-  const sizes = [...(options.learningCurve ?? [])].sort((a, b) => a - b);
-  const minTrain = Math.min(...Array.from({ length: k }, (_, f) => trainIndices(f).length));
-  const usable = sizes.filter((s) => Number.isInteger(s) && s >= 1 && s <= minTrain);
-  const skippedSizes = sizes.filter((s) => !usable.includes(s));
-  const steps = k * (1 + usable.length);
-  let step = 0;
-
+  const plan = planFolds(n, k, settings.seed, options.learningCurve);
+  const { usable, skippedSizes } = plan;
   const runFolds = async (size: number | null) => {
     const pe: Float64Array[] = new Array(n);
     const pc: Float64Array[] = new Array(n);
-    const tested: number[] = [];
-    for (let f = 0; f < k; f++) {
-      if (hooks.signal?.aborted) throw new CancelledError();
-      let train = trainIndices(f);
-      if (size !== null) train = train.slice(0, size);
-      const trainFrames = train.map((i) => frames[i]);
-      const local: Featuriser = (frame, idx) => featurise(frame, train[idx]);
-      const model = await trainWithFeaturiser(trainFrames, request, local, { signal: hooks.signal }, { applicability: false, species, createdAt: 'validation' });
-      for (const i of testIndices(f)) {
-        const pred = predictWithFeatures(model, frames[i], featurise(frames[i], i), i);
-        const fp = framePredictionFrom(model, frames[i], pred, i);
-        pe[i] = toIrreducible(fp.eps);
-        pc[i] = toIrreducible(fp.alphaCM);
-        tested.push(i);
-      }
-      step++;
-      hooks.onProgress?.({ stage: size === null ? `fold ${f + 1}/${k}` : `learning curve, ${size} frames`, done: step, total: steps });
-    }
-    tested.sort((a, b) => a - b);
+    const tested = await runFoldsOf(frames, request, plan, size, featurise, species, hooks, (model, i) => {
+      const pred = predictWithFeatures(model, frames[i], featurise(frames[i], i), i);
+      const fp = framePredictionFrom(model, frames[i], pred, i);
+      pe[i] = toIrreducible(fp.eps);
+      pc[i] = toIrreducible(fp.alphaCM);
+    });
     return { tested, pe, pc };
   };
 
@@ -195,5 +228,109 @@ export async function validate(
     learningCurve,
     alsoOn: [{ target: 'alpha-cm (Å³)', errors: errorsOf(refCM, main.pc, main.tested), points: pointsOf(refCM, main.pc) }],
     skippedSizes,
+  };
+}
+
+/** Error figures of a vector (3 Cartesian components, compared as a whole) or scalar target. */
+export interface ValueErrorFigures {
+  /** sqrt(mean over frames of |Δv|²); for a vector the per-frame norm of the 3-component error. */
+  rmse: number;
+  /** 100 · RMSE / SD, SD = sqrt(mean over frames of |v − mean v|²). */
+  percent: number;
+  /** 1 − Σ|Δv|² / Σ|v − mean v|². */
+  r2: number;
+  /** Largest |Δv| of one frame. */
+  maxError: number;
+  count: number;
+}
+
+export function valueErrorFigures(reference: ArrayLike<number>[], predicted: ArrayLike<number>[]): ValueErrorFigures {
+  const n = reference.length;
+  if (n === 0 || predicted.length !== n) throw new RangeError('valueErrorFigures: need equal, non-empty lists');
+  const c = reference[0].length;
+  const mean = new Float64Array(c);
+  for (const r of reference) for (let k = 0; k < c; k++) mean[k] += r[k] / n;
+  let sse = 0;
+  let sst = 0;
+  let maxError = 0;
+  for (let i = 0; i < n; i++) {
+    let e2 = 0;
+    for (let k = 0; k < c; k++) {
+      e2 += (predicted[i][k] - reference[i][k]) ** 2;
+      sst += (reference[i][k] - mean[k]) ** 2;
+    }
+    sse += e2;
+    maxError = Math.max(maxError, Math.sqrt(e2));
+  }
+  const rmse = Math.sqrt(sse / n);
+  const sd = Math.sqrt(sst / n);
+  return {
+    rmse,
+    percent: sd > 0 ? (100 * rmse) / sd : rmse > 0 ? Infinity : 0,
+    r2: sst > 0 ? 1 - sse / sst : sse > 0 ? -Infinity : 1,
+    maxError,
+    count: n,
+  };
+}
+
+export interface ValueValidationReport {
+  shape: 'vector' | 'scalar';
+  key: string;
+  folds: number;
+  errors: ValueErrorFigures;
+  /** Held-out frames: reference and predicted value (Cartesian x, y, z for a vector). */
+  points: { frame: number; reference: number[]; predicted: number[] }[];
+  learningCurve: { trainSize: number; errors: ValueErrorFigures }[];
+  skippedSizes: number[];
+}
+
+/**
+ * k-fold cross-validation (and optional learning curve) of a vector (λ = 1, e.g. a cell dipole) or scalar
+ * (λ = 0) target, with the same folds as `validate`: the value is learnt as a sum of local contributions and
+ * compared as it is (no Clausius–Mossotti conversion).
+ */
+export async function validateValues(
+  frames: Frame[],
+  request: TrainRequest,
+  options: ValidationOptions,
+  hooks: WorkHooks = {},
+): Promise<ValueValidationReport> {
+  const n = frames.length;
+  const k = options.folds;
+  if (!Number.isInteger(k) || k < 2) throw new InputError(`${k} folds`, {}, 'cross-validation needs at least 2 folds');
+  if (n < k) throw new InputError(`${n} frames for ${k} folds`, {}, `give at least ${k} frames, or fewer folds`);
+  const reference = frames.map((f, i) => readValues(f, request.tensorKey, i));
+  const shape = shapeOfValues(reference[0], request.tensorKey, whereOf(frames[0], 0));
+  if (shape === 'tensor') throw new InputError(`"${request.tensorKey}" is a 3×3 tensor`, whereOf(frames[0], 0), 'tensors are validated by `validate` (on ε and α_CM)');
+  reference.forEach((v, i) => {
+    if (v.length !== reference[0].length) {
+      throw new InputError(`property "${request.tensorKey}" has ${v.length} numbers here but ${reference[0].length} in the first frame`, whereOf(frames[i], i), 'every frame needs the same kind of value');
+    }
+  });
+  const settings = resolveSettings(request.settings);
+  const { species, centres } = speciesOf(frames, settings);
+  const base = modelFeaturiser({ settings, species, centres, target: { key: request.tensorKey, shape, kind: null, route: request.route, learnt: shape, units: '' } });
+  const featurise = cachedFeaturiser(base, frames);
+  const plan = planFolds(n, k, settings.seed, options.learningCurve);
+  const runFolds = async (size: number | null) => {
+    const predicted: number[][] = new Array(n);
+    const tested = await runFoldsOf(frames, request, plan, size, featurise, species, hooks, (model, i) => {
+      const pred = predictWithFeatures(model, frames[i], featurise(frames[i], i), i);
+      predicted[i] = shape === 'vector' ? [...predictedVector(pred)] : [pred.irreducible[0]];
+    });
+    return { tested, predicted };
+  };
+  const errorsOf = (r: { tested: number[]; predicted: number[][] }) => valueErrorFigures(r.tested.map((i) => reference[i]), r.tested.map((i) => r.predicted[i]));
+  const main = await runFolds(null);
+  const learningCurve: ValueValidationReport['learningCurve'] = [];
+  for (const size of plan.usable) learningCurve.push({ trainSize: size, errors: errorsOf(await runFolds(size)) });
+  return {
+    shape,
+    key: request.tensorKey,
+    folds: k,
+    errors: errorsOf(main),
+    points: main.tested.map((i) => ({ frame: i, reference: [...reference[i]], predicted: main.predicted[i] })),
+    learningCurve,
+    skippedSizes: plan.skippedSizes,
   };
 }

@@ -104,6 +104,57 @@ describe('polarweave train / predict / validate', () => {
     expect(x.err).toMatch(/extended XYZ output is for tensor models/);
   }, 120_000);
 
+  it('validates a dipole and a scalar target without --as, and trains them without it', async () => {
+    // Invented additive targets on the real DFT geometries (not measured quantities): a dipole of point charges
+    // +0.4 e on each H relative to its O (Σ over molecules of 0.4 (r_H1 + r_H2 − 2 r_O), in e·Å), and a scalar
+    // sum over O–O pairs of exp(−(d − 2.8 Å)²/0.1 Å²). Both are sums of local terms, so the model can learn them.
+    const frames = parseExtxyz(readFileSync(data(), 'utf8'), 'water.extxyz');
+    for (const f of frames) {
+      const L = f.cell![0];
+      const mi = (d: number) => d - L * Math.round(d / L);
+      const vec = (i: number, j: number) => [0, 1, 2].map((k) => mi(f.positions[3 * j + k] - f.positions[3 * i + k]));
+      const dip = [0, 0, 0];
+      let pairs = 0;
+      const n = f.species.length;
+      for (let i = 0; i < n; i++) {
+        if (f.species[i] !== 'O') continue;
+        const hs = [...Array(n).keys()].filter((j) => f.species[j] === 'H').map((j) => vec(i, j)).sort((a, b) => Math.hypot(...a) - Math.hypot(...b));
+        for (const v of hs.slice(0, 2)) for (let k = 0; k < 3; k++) dip[k] += 0.4 * v[k];
+        for (let j = i + 1; j < n; j++) if (f.species[j] === 'O') pairs += Math.exp(-((Math.hypot(...vec(i, j)) - 2.8) ** 2) / 0.1);
+      }
+      f.info.cell_dipole = dip;
+      f.info.oo_pairs = pairs;
+    }
+    const file = join(dir, 'values.extxyz');
+    await writeExtxyz(file, frames);
+    const v = await cli(['validate', file, '--tensor', 'cell_dipole', '--folds', '4', ...FAST]);
+    expect(v.err).not.toMatch(/error/);
+    expect(v.code).toBe(0);
+    expect(v.out).toMatch(/vector "cell_dipole".*4-fold cross-validation over 8 frames/);
+    const pct = Number(/%RMSE ([\d.]+) %/.exec(v.out)?.[1]);
+    const r2 = Number(/R² ([-\d.]+)/.exec(v.out)?.[1]);
+    // observed when written: 12.8 %RMSE, R² 0.984 (a wrong component order or sign would give R² < 0)
+    expect(pct).toBeLessThan(30);
+    expect(r2).toBeGreaterThan(0.9);
+    expect(v.out).toMatch(/verdict \(rule of thumb\): (good|usable with care)/);
+
+    const s = await cli(['validate', file, '--tensor', 'oo_pairs', '--folds', '4', '--learning-curve', '2,6', ...FAST]);
+    expect(s.code).toBe(0);
+    expect(s.out).toMatch(/scalar "oo_pairs": 4-fold/);
+    // observed when written: %RMSE 136 % with 2 training frames, 62 % with 6 — more data must help
+    const curve = [...s.out.matchAll(/learning curve, (\d+) training frames: %RMSE ([\d.]+) %/g)].map((m) => Number(m[2]));
+    expect(curve).toHaveLength(2);
+    expect(curve[1]).toBeLessThan(curve[0]);
+
+    const t = await cli(['train', file, '--tensor', 'cell_dipole', ...FAST, '-o', join(dir, 'cd.json')]);
+    expect(t.code).toBe(0);
+    expect(t.out).toMatch(/learns vector/);
+    // a tensor still needs --as
+    const e = await cli(['validate', file, '--tensor', 'eps_inf', ...FAST]);
+    expect(e.code).toBe(2);
+    expect(e.err).toMatch(/--as eps\|alpha-c\|alpha-cm/);
+  }, 240_000);
+
   it('reports usage errors with exit code 2 and bad data with exit code 1', async () => {
     const a = await cli(['train', data(), '--tensor', 'eps_inf', '-o', join(dir, 'x.json')]);
     expect(a.code).toBe(2);

@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { errorFigures, validate } from '../../src-main/core/validation.ts';
+import { errorFigures, validate, validateValues, valueErrorFigures } from '../../src-main/core/validation.ts';
 import { parseExtxyz } from '../../src-main/io/extxyz.ts';
 
 describe('error figures of the irreducible parts', () => {
@@ -34,6 +34,35 @@ describe('error figures of the irreducible parts', () => {
     expect(e.percentIso).toBe(Infinity);
     expect(e.percentAniso).toBe(0);
     expect(e.r2Aniso).toBe(1);
+  });
+});
+
+describe('error figures of a vector or scalar target', () => {
+  it('follow the documented definitions (values worked by hand)', () => {
+    // reference vectors (1,0,0), (0,1,0), (0,0,0): mean (1/3, 1/3, 0);
+    //   SD = sqrt(mean |v − mean|²) = sqrt(((4/9 + 1/9) + (1/9 + 4/9) + (1/9 + 1/9))/3) = 2/3
+    // predicted (1,0,0), (0,0,0), (0,0,1): errors 0, 1, 1 → RMSE sqrt(2/3), largest 1, R² = 1 − 2/(4/3) = −0.5
+    const f = valueErrorFigures([[1, 0, 0], [0, 1, 0], [0, 0, 0]], [[1, 0, 0], [0, 0, 0], [0, 0, 1]]);
+    expect(f.rmse).toBeCloseTo(Math.sqrt(2 / 3), 14);
+    expect(f.percent).toBeCloseTo((100 * Math.sqrt(2 / 3)) / (2 / 3), 12);
+    expect(f.r2).toBeCloseTo(-0.5, 14);
+    expect(f.maxError).toBe(1);
+    expect(f.count).toBe(3);
+    // scalars 1, 2, 3 predicted 1, 2, 4: RMSE sqrt(1/3), SD sqrt(2/3), R² = 1 − 1/2
+    const s = valueErrorFigures([[1], [2], [3]], [[1], [2], [4]]);
+    expect(s.rmse).toBeCloseTo(Math.sqrt(1 / 3), 14);
+    expect(s.percent).toBeCloseTo(100 * Math.sqrt(1 / 2), 12);
+    expect(s.r2).toBeCloseTo(0.5, 14);
+    // a constant reference gives infinite %RMSE, never NaN
+    expect(valueErrorFigures([[2], [2]], [[2], [3]]).percent).toBe(Infinity);
+    expect(valueErrorFigures([[2], [2]], [[2], [2]]).percent).toBe(0);
+  });
+
+  it('validateValues refuses a tensor and a property whose size changes between frames', async () => {
+    const frames = parseExtxyz(readFileSync(new URL('../fixtures/water-dft-sample.extxyz', import.meta.url), 'utf8'), 'water.extxyz');
+    await expect(validateValues(frames, { tensorKey: 'eps_inf', kind: 'eps', route: 'cm' }, { folds: 2 })).rejects.toThrow(/3×3 tensor/);
+    const mixed = frames.map((f, i) => ({ ...f, info: { ...f.info, v: i === 3 ? [1, 2] : [1, 2, 3] } }));
+    await expect(validateValues(mixed, { tensorKey: 'v', kind: 'eps', route: 'cm' }, { folds: 2 })).rejects.toThrow(/has 2 numbers here but 3/);
   });
 });
 

@@ -3,7 +3,7 @@ import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import { trainModel, type Model } from '../../core/model.ts';
 import { saveModel } from '../../io/model-file.ts';
-import { parseRequest, parseRoute, parseTune, progressReporter, readFrames, settingOptions, targetOptions, tuneOptions } from '../learn-options.ts';
+import { parseKind, parseRequest, parseRoute, parseSettings, parseTune, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf, tuneOptions } from '../learn-options.ts';
 import { CancelledError } from '../../core/errors.ts';
 
 const options = [
@@ -34,7 +34,7 @@ export function describeModel(model: Model): string {
 export const trainCommand: Command = {
   name: 'train',
   summary: 'learn a model of a cell tensor from frames with reference values',
-  usage: 'IN --tensor KEY --as eps|alpha-c|alpha-cm -o MODEL [options]',
+  usage: 'IN --tensor KEY --as eps|alpha-c|alpha-cm -o MODEL [options]   (--as only for a tensor)',
   description:
     'Reads every frame of IN (extended XYZ), learns the tensor as a sum of per-atom contributions and writes the\n' +
     'model file. The regulariser is chosen by cross-validation on the training frames unless given.',
@@ -45,9 +45,13 @@ export const trainCommand: Command = {
     const out = args.options.output;
     if (!out) throw new UsageError('give the model file to write with -o MODEL');
     const route = parseRoute(args.options.route, false) as 'cm' | 'direct';
-    const request = { ...parseRequest(args, route), tune: parseTune(args) };
+    if (!args.options.tensor) throw new UsageError('name the reference property with --tensor KEY');
+    // option errors before the (possibly long) read; --as is checked against the data's shape after it
+    parseSettings(args);
+    if (args.options.as !== undefined) parseKind(args);
     const frames = await readFrames(args.positionals[0], io);
     io.err(`train: ${frames.length} frames read from ${args.positionals[0]}\n`);
+    const request = { ...parseRequest(args, route, targetShapeOf(args, frames)), tune: parseTune(args) };
     const model = await trainModel(frames, request, { signal: io.signal, onProgress: progressReporter(io, 'train') });
     if (io.signal.aborted) throw new CancelledError();
     await saveModel(out, model);

@@ -3,8 +3,8 @@
 import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import type { ErrorFigures, Route } from '../../core/model-types.ts';
-import { validate } from '../../core/validation.ts';
-import { parseRequest, parseRoute, progressReporter, readFrames, settingOptions, targetOptions } from '../learn-options.ts';
+import { validate, validateValues, type ValueErrorFigures } from '../../core/validation.ts';
+import { parseKind, parseRequest, parseRoute, parseSettings, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf } from '../learn-options.ts';
 
 const options = [
   ...targetOptions,
@@ -19,8 +19,12 @@ export const GOOD_PERCENT = 10;
 export const USABLE_PERCENT = 30;
 
 export function verdict(e: ErrorFigures): string {
-  const worst = Math.max(e.percentIso, e.percentAniso);
-  if (worst <= GOOD_PERCENT) return `good (both %RMSE ≤ ${GOOD_PERCENT} %)`;
+  return verdictOf(Math.max(e.percentIso, e.percentAniso), 'both %RMSE');
+}
+
+/** The verdict on the worst %RMSE of a validation; `what` names the figures for the good case. */
+function verdictOf(worst: number, what: string): string {
+  if (worst <= GOOD_PERCENT) return `good (${what} ≤ ${GOOD_PERCENT} %)`;
   if (worst <= USABLE_PERCENT) return `usable with care (worst %RMSE ${fmtPct(worst)}, between ${GOOD_PERCENT} and ${USABLE_PERCENT} %)`;
   return `poor (worst %RMSE ${fmtPct(worst)} > ${USABLE_PERCENT} %): more or more varied training data, or other settings, are needed`;
 }
@@ -37,13 +41,19 @@ export function formatErrors(e: ErrorFigures, units: string): string {
   );
 }
 
+export function formatValueErrors(e: ValueErrorFigures): string {
+  const g = (x: number) => x.toPrecision(3);
+  return `RMSE ${g(e.rmse)}  %RMSE ${fmtPct(e.percent)}  R² ${g(e.r2)}  largest error ${g(e.maxError)} (in the property's own units)`;
+}
+
 export const validateCommand: Command = {
   name: 'validate',
-  summary: 'cross-validate a model of a cell tensor (both routes by default) and say whether it is good',
-  usage: 'IN --tensor KEY --as eps|alpha-c|alpha-cm [--folds K] [--learning-curve 10,20,40] [--route cm|direct|both]',
+  summary: 'cross-validate a model of a cell tensor (both routes by default), dipole or scalar, and say whether it is good',
+  usage: 'IN --tensor KEY --as eps|alpha-c|alpha-cm [--folds K] [--learning-curve 10,20,40] [--route cm|direct|both]   (--as only for a tensor)',
   description:
-    'Errors are of the irreducible parts: RMSE λ=0 = sqrt(mean (ΔT⁰)²), RMSE λ=2 = sqrt(mean Σ_μ (ΔT²_μ)²),\n' +
-    '%RMSE = RMSE / standard deviation of the reference over the frames. Compared on ε and on α_CM.',
+    'Tensor errors are of the irreducible parts: RMSE λ=0 = sqrt(mean (ΔT⁰)²), RMSE λ=2 = sqrt(mean Σ_μ (ΔT²_μ)²),\n' +
+    '%RMSE = RMSE / standard deviation of the reference over the frames; compared on ε and on α_CM.\n' +
+    'A dipole (3 numbers) is compared as a vector, RMSE = sqrt(mean |Δμ|²); a scalar as it is.',
   options,
   async run(argv, io) {
     const args = parseArgs(argv, options);
@@ -57,8 +67,24 @@ export const validateCommand: Command = {
     }
     const which = parseRoute(args.options.route, true);
     const routes: Route[] = which === 'both' ? ['cm', 'direct'] : [which];
+    if (!args.options.tensor) throw new UsageError('name the reference property with --tensor KEY');
+    parseSettings(args);
+    if (args.options.as !== undefined) parseKind(args);
     const frames = await readFrames(args.positionals[0], io);
     io.err(`validate: ${frames.length} frames read from ${args.positionals[0]}\n`);
+    const shape = targetShapeOf(args, frames);
+    if (shape !== 'tensor') {
+      // a dipole or a scalar: learnt as it is, one comparison (routes and --as do not apply)
+      const report = await validateValues(frames, parseRequest(args, 'cm', shape), { folds, learningCurve: curve }, { signal: io.signal, onProgress: progressReporter(io, 'validate') });
+      const what = shape === 'vector' ? `vector "${report.key}" (compared as a whole: RMSE of |Δv|)` : `scalar "${report.key}"`;
+      io.out(`${what}: ${folds}-fold cross-validation over ${report.errors.count} frames\n`);
+      io.out(`  ${formatValueErrors(report.errors)}\n`);
+      for (const lc of report.learningCurve) io.out(`  learning curve, ${lc.trainSize} training frames: %RMSE ${fmtPct(lc.errors.percent)}\n`);
+      if (report.skippedSizes.length) io.out(`  learning-curve sizes skipped (more than the training folds hold): ${report.skippedSizes.join(', ')}\n`);
+      io.out(`  verdict (rule of thumb): ${verdictOf(report.errors.percent, '%RMSE')}\n`);
+      io.out('Rule-of-thumb thresholds: good ≤ 10 %RMSE, usable ≤ 30 %RMSE (common practice, no source). Predictions are model estimates.\n');
+      return 0;
+    }
     const summary: { route: Route; eps: ErrorFigures }[] = [];
     for (const route of routes) {
       const request = parseRequest(args, route);
