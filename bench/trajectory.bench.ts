@@ -1,10 +1,12 @@
 // Trajectory benchmark: end-to-end streamed prediction (read → features → predict → CSV) of a 384-atom
-// trajectory with 1 and 2 worker threads (frames/s and speed-up), and the process RSS sampled while streaming
+// trajectory with 1 and 2 worker threads (frames/s and speed-up); the same run in small batches with a fresh
+// worker per batch against workers kept between batches; the fixed cost of one batch (messages, fsync,
+// checkpoint) from many tiny frames in 200 vs 2 batches; and the process RSS sampled while streaming
 // many small synthetic frames that are generated on the fly (written through a stream, never held in memory),
 // to show that memory stays flat. POLARWEAVE_BENCH_FRAMES sets the frame count of the memory run (100 000).
 // Figures are printed, never asserted.
 import { createWriteStream, mkdtempSync, readFileSync, rmSync, statSync } from 'node:fs';
-import { availableParallelism, tmpdir } from 'node:os';
+import { availableParallelism, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { supercell } from '../src-main/core/cell.ts';
@@ -58,6 +60,22 @@ export async function run(): Promise<void> {
     }
     console.log(`  speed-up 1 → 2 threads: ${(rates[1] / rates[0]).toFixed(2)}×`);
 
+    // ---- worker reuse: the same 384-atom run in small batches ----
+    const load = () => loadavg().map((x) => x.toFixed(2)).join(' ');
+    console.log(`worker reuse: the ${frames} frames above, 2 threads, fixed batches (load average before: ${load()})`);
+    for (const batchFrames of [1, 2, 4]) {
+      for (const reuseWorkers of [false, true]) {
+        const out = join(dir, `reuse-${batchFrames}-${reuseWorkers}.csv`);
+        let first = 0;
+        let batches = 0;
+        const t1 = performance.now();
+        const r = await streamPredict({ modelPath, input, output: out, csvOptions: predictionCsvOptions(model, modelPath), threads: 2, mode: 'restart', batchFrames, reuseWorkers,
+          onProgress: () => ((first ||= performance.now() - t1), batches++) });
+        console.log(`  ${batchFrames} frame${batchFrames > 1 ? 's' : ''}/batch (${batches} batches), ${reuseWorkers ? 'workers reused       ' : 'fresh worker per batch'}: ` +
+          `${r.seconds.toFixed(1)} s wall = ${(r.frames / r.seconds).toFixed(2)} frames/s, first batch written after ${(first / 1000).toFixed(1)} s`);
+      }
+    }
+
     // ---- memory while streaming many small synthetic frames ----
     const count = Number(process.env.POLARWEAVE_BENCH_FRAMES ?? 100_000);
     const small = join(dir, 'small.extxyz');
@@ -86,6 +104,24 @@ export async function run(): Promise<void> {
     const step = Math.max(1, Math.floor(samples.length / 12));
     console.log(`  RSS samples (frames done → MiB): ${samples.filter((_, i) => i % step === 0).map((s) => `${s.frames}→${mib(s.rss)}`).join(', ')}`);
     console.log(`  output ${mib(statSync(join(dir, 'small.csv')).size)} MiB of CSV`);
+
+    // ---- fixed cost of one batch, with workers reused: what bounds how short batches can be ----
+    const first = Math.min(count, 4000);
+    console.log(`per-batch cost: the first ${first} of those frames, tiny model, 2 threads, workers reused, fixed batches, each size twice (load average before: ${load()})`);
+    const walls = new Map<number, number[]>();
+    const cpus = new Map<number, number[]>();
+    for (const batchFrames of [first / 2, first / 200, first / 2, first / 200]) {
+      const cpu0 = process.cpuUsage();
+      const r = await streamPredict({ modelPath: tinyPath, csvOptions: predictionCsvOptions(tiny, tinyPath), input: small, output: join(dir, 'cost.csv'), range: { stop: first }, threads: 2, mode: 'restart', batchFrames });
+      const cpu = process.cpuUsage(cpu0);
+      walls.set(batchFrames, [...(walls.get(batchFrames) ?? []), r.seconds]);
+      cpus.set(batchFrames, [...(cpus.get(batchFrames) ?? []), (cpu.user + cpu.system) / 1e6]);
+      console.log(`  ${first / batchFrames} batches of ${batchFrames} frames: ${r.seconds.toFixed(2)} s wall, CPU ${((cpu.user + cpu.system) / 1e6).toFixed(2)} s (all threads)`);
+    }
+    const mean = (xs: number[]) => xs.reduce((x, y) => x + y, 0) / xs.length;
+    const perBatch = (m: Map<number, number[]>) => (1000 * (mean(m.get(first / 200) ?? []) - mean(m.get(first / 2) ?? []))) / 198;
+    console.log(`  per extra batch (difference of the means / 198): ${perBatch(walls).toFixed(1)} ms wall, ${perBatch(cpus).toFixed(1)} ms CPU ` +
+      `(against a default batch of 5 s; under load the wall figure is mostly noise, the CPU figure less so)`);
   } finally {
     rmSync(dir, { recursive: true, force: true });
   }

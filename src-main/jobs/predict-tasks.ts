@@ -40,6 +40,9 @@ export function sha256Hex(data: Uint8Array | string): string {
   return createHash('sha256').update(data).digest('hex');
 }
 
+// One model per worker. A reused worker (stream-predict's runner keeps its workers) serves every later batch
+// from here: the model in memory is the one whose bytes matched `sha`, so its predictions stay those of the
+// checksum written in the output even if the file is replaced meanwhile (only a new worker would notice that).
 let cached: { path: string; sha: string; model: Model; predict: Predictor } | null = null;
 
 async function modelFor(path: string, sha: string): Promise<NonNullable<typeof cached>> {

@@ -1,17 +1,19 @@
 // The messages between a job runner and its worker thread, and how errors cross the thread boundary with
-// their type and their "where" (file, line, frame) intact.
+// their type and their "where" (file, line, frame) intact. Every message carries the run id of the job it
+// belongs to: a worker may serve many jobs in turn, and a finished task can still post (a late log, a stray
+// progress timer), so the parent drops whatever does not carry the id of the job the worker is running now.
 import { CancelledError, InputError, ModelError, PhysicsError, type Where } from '../core/errors.ts';
 import type { Progress } from '../core/model-types.ts';
 
 /** Parent → worker. */
-export type ToWorker = { type: 'run'; task: string; input: unknown } | { type: 'abort' };
+export type ToWorker = { type: 'run'; runId: number; task: string; input: unknown } | { type: 'abort'; runId: number };
 
 /** Worker → parent. */
 export type FromWorker =
-  | { type: 'progress'; progress: Progress }
-  | { type: 'log'; text: string }
-  | { type: 'result'; value: unknown }
-  | { type: 'error'; error: SerialisedError };
+  | { type: 'progress'; runId: number; progress: Progress }
+  | { type: 'log'; runId: number; text: string }
+  | { type: 'result'; runId: number; value: unknown }
+  | { type: 'error'; runId: number; error: SerialisedError };
 
 /** An error as plain data (structured-clone safe). */
 export interface SerialisedError {

@@ -1,14 +1,16 @@
 // Streaming, parallel, resumable prediction over an extended XYZ trajectory of any length.
 //
 // The main thread cuts selected frames out of the file as raw bytes (jobs/frame-slices.ts), groups them in
-// batches and hands the batches to a JobRunner ('predict-chunk' task, one worker per batch, at most `threads`
-// at once, one batch read ahead). Results are appended to OUT.partial strictly in frame order. After each batch
-// the partial file is fsynced and OUT.checkpoint.json is written atomically with the model checksum, the input
-// file's size and mtime, the selection, the frames done, the bytes of OUT.partial that hold them and the input
-// position (byte offset, frame index, line) to go on from. A restart with the same arguments truncates
-// OUT.partial to those bytes and continues; when all frames are done OUT.partial is renamed to OUT (atomic)
-// and the checkpoint removed. The output depends only on the model, the input and the selection, never on the
-// batch sizes, the thread count or the interruptions, so a resumed run gives the same bytes as a clean one.
+// batches and hands the batches to a JobRunner ('predict-chunk' task, at most `threads` at once, one batch read
+// ahead). The runner keeps its workers between batches, so loading the code and the model is paid once per
+// thread, not once per batch, and batches can be short (about `batchSeconds`, 5 s) for frequent progress.
+// Results are appended to OUT.partial strictly in frame order. After each batch the partial file is fsynced
+// and OUT.checkpoint.json is written atomically with the model checksum, the input file's size and mtime, the
+// selection, the frames done, the bytes of OUT.partial that hold them and the input position (byte offset,
+// frame index, line) to go on from. A restart with the same arguments truncates OUT.partial to those bytes and
+// continues; when all frames are done OUT.partial is renamed to OUT (atomic) and the checkpoint removed. The
+// output depends only on the model, the input and the selection, never on the batch sizes, the thread count,
+// worker reuse or the interruptions, so a resumed run gives the same bytes as a clean one.
 import { promises as fsp } from 'node:fs';
 import { availableParallelism } from 'node:os';
 import { basename, dirname, resolve } from 'node:path';
@@ -24,6 +26,13 @@ import { JobRunner, type WorkerFactory } from './runner.ts';
 import { tsWorkerFactory } from './spawn-ts.ts';
 
 export const CHECKPOINT_FORMAT = 'polarweave-predict-checkpoint';
+
+/**
+ * Default compute time of one batch. Workers are kept between batches, so a batch costs only its messages, an
+ * fsync and a checkpoint (milliseconds): 5 s keeps that well under 1 % while progress and the first results
+ * come often (see bench/trajectory.bench.ts for the measured effect of batch size and worker reuse).
+ */
+export const DEFAULT_BATCH_SECONDS = 5;
 
 export interface StreamProgress {
   /** Frames written so far (including those of an earlier, interrupted run). */
@@ -54,7 +63,10 @@ export interface StreamPredictOptions {
   mode?: 'auto' | 'resume' | 'restart';
   /** Fixed frames per batch (default: adapted so that a batch takes about `batchSeconds`). */
   batchFrames?: number;
+  /** Target compute time of one batch in a worker (default 5 s). */
   batchSeconds?: number;
+  /** Keep workers for the next batches (default true); false starts a fresh worker per batch (for comparison). */
+  reuseWorkers?: boolean;
   signal?: AbortSignal;
   onProgress?: (p: StreamProgress) => void;
   /** Worker factory (default: tsx-loaded jobs/predict-worker.ts). */
@@ -261,9 +273,15 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       await writeCheckpoint(from);
     }
 
-    runner = new JobRunner({ spawn: opts.spawn ?? tsWorkerFactory(new URL('./predict-worker.ts', import.meta.url)), concurrency: threads, graceMs: 500 });
+    // 'predict-chunk' leaves only its model cache behind, keyed on path and checksum: safe to reuse workers
+    runner = new JobRunner({
+      spawn: opts.spawn ?? tsWorkerFactory(new URL('./predict-worker.ts', import.meta.url)),
+      concurrency: threads,
+      graceMs: 500,
+      reuseWorkers: opts.reuseWorkers ?? true,
+    });
     let batchSize = opts.batchFrames ?? 4 * threads;
-    const targetMs = 1000 * (opts.batchSeconds ?? 20);
+    const targetMs = 1000 * (opts.batchSeconds ?? DEFAULT_BATCH_SECONDS);
     let seq = 0;
     let written = 0;
     let lastOffset = from.offset;
@@ -307,7 +325,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       await writeCheckpoint(entry.next);
       if (opts.batchFrames === undefined && entry.frames > 0) {
         // size batches by the workers' own compute time per frame (worker start-up excluded), so that one batch
-        // takes about batchSeconds: start-up is then a small share of the work
+        // takes about batchSeconds: the per-batch cost (messages, fsync, checkpoint) is then a small share
         const perFrame = r.computeMs / entry.frames;
         batchSize = Math.max(1, Math.min(5000, Math.round(targetMs / Math.max(perFrame, 0.01))));
       }
@@ -360,6 +378,9 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       throw new CancelledError();
     }
     throw e;
+  } finally {
+    // idle workers are unref'd and would not hold the process, but they hold memory (the model): free them now
+    await runner?.close();
   }
 }
 

@@ -1,8 +1,12 @@
-// A worker entry with small test tasks for the job runner's tests (progress, typed errors, cancel).
+// A worker entry with small test tasks for the job runner's tests (progress, typed errors, cancel, reuse).
+import { threadId } from 'node:worker_threads';
 import { CancelledError, InputError } from '../../src-main/core/errors.ts';
 import { serveTasks } from '../../src-main/jobs/serve.ts';
 
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
+
+/** Jobs this worker has served: shows whether a worker was reused. */
+let served = 0;
 
 serveTasks({
   async count(input: { n: number; delayMs: number }, ctx) {
@@ -38,5 +42,22 @@ serveTasks({
   },
   crash() {
     process.exit(3);
+  },
+  whoami() {
+    served++;
+    return { threadId, served };
+  },
+  late(input: { afterMs: number }, ctx) {
+    // posts after its result: those messages belong to this job, not to the next one on the same worker
+    setTimeout(() => {
+      ctx.log('late log');
+      ctx.progress({ stage: 'late', done: 99, total: 99 });
+    }, input.afterMs);
+    return 'early';
+  },
+  exitSoon(input: { afterMs: number }) {
+    // succeeds, then the (now idle) worker stops by itself
+    setTimeout(() => process.exit(0), input.afterMs);
+    return threadId;
   },
 });

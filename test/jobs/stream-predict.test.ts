@@ -89,6 +89,15 @@ describe('streamPredict', () => {
     expect(existsSync(checkpoint)).toBe(false);
   }, 90_000);
 
+  it('writes the same bytes with workers reused over one-frame batches as with a fresh worker per batch', async () => {
+    const fresh = join(dir, 'fresh.csv');
+    const reused = join(dir, 'reused.csv');
+    await run({ modelPath: modelPath(), input: input(), output: fresh, range: { stop: 9 }, threads: 2, batchFrames: 4, reuseWorkers: false });
+    const r = await run({ modelPath: modelPath(), input: input(), output: reused, range: { stop: 9 }, threads: 2, batchFrames: 1 });
+    expect(r.frames).toBe(9);
+    expect(readFileSync(reused, 'utf8')).toBe(readFileSync(fresh, 'utf8'));
+  }, 60_000);
+
   it('writes extended XYZ frames stamped with frame index and model checksum', async () => {
     const out = join(dir, 'a.extxyz');
     await run({ modelPath: modelPath(), input: input(), output: out, range: { stop: 4 }, threads: 2, batchFrames: 2 });
