@@ -23,6 +23,7 @@ import {
 } from './kernels.ts';
 import type { Applicability, FramePrediction, ModelSettings, Route, TensorKind, TrainRequest, WorkHooks } from './model-types.ts';
 import { makeRng } from './random.ts';
+import { cachedNearestSearch, searchNearest } from './nearest-search.ts';
 import { tuneCombinations, tuneSettings } from './tuning.ts';
 import { fitRidge, foldsOf, posteriorVariance, primalWeights, type Design } from './regression.ts';
 import {
@@ -34,7 +35,6 @@ import {
   representativeFactor,
   representativeKernel,
   representativesFrom,
-  nearestDistance,
   structureToRepresentatives,
   type EnvironmentPool,
   type Representatives,
@@ -837,8 +837,10 @@ function applicabilityOf(model: Model, fe: EnvironmentFeatures, nAtoms: number):
   let maxDistance = 0;
   let atomsOutside = 0;
   const m = a.species.length;
+  // bounded search, prepared once per model object; bit-identical to sparse.ts nearestDistance (nearest-search.ts)
+  const search = cachedNearestSearch(a);
   for (let e = 0; e < fe.count; e++) {
-    let best = nearestDistance(fe.scalar, e, a.p, a.species, fe.centreSpecies[e], a.n0);
+    let best = searchNearest(search, fe.scalar, e, fe.centreSpecies[e]);
     if (!Number.isFinite(best)) best = 2;
     atomDistance[fe.centre[e]] = best;
     if (best > maxDistance) maxDistance = best;

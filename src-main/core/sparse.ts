@@ -245,7 +245,8 @@ export function foldCoefficients(reps: Representatives, x: Float64Array, zeta: n
 /**
  * Distance from row i of `a` to the nearest row of `reps` whose species is `species` (Infinity if none).
  * Partial sums are checked every 16 features against the best so far, so far-away representatives are left
- * early; the result is exact.
+ * early; the result is exact. Prediction uses the bounded search of nearest-search.ts, which returns the same
+ * number bit for bit; this plain scan stays as its reference.
  */
 export function nearestDistance(a: Float64Array, i: number, reps: Float64Array, repSpecies: Int32Array, species: number, n0: number): number {
   let best = Infinity;

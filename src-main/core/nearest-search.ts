@@ -1,0 +1,371 @@
+// Exact nearest-representative search with a lower bound, for the per-atom applicability distance. The plain
+// scan (nearestDistance in sparse.ts) starts a distance to every representative of the species: the distances
+// are all similar, so its partial-sum exit only comes after a good part of the features. Here each species'
+// representatives get a small orthonormal basis Q spanning most of their spread (greedy pivoted Gram–Schmidt of the
+// centred rows, refined by a few steps of subspace iteration towards the leading principal directions), their
+// coordinates b = Qᵀ(p − μ) and residual norms ρ_p. For a query x with a = Qᵀ(x − μ) and residual norm ρ_x,
+//   |x − p|² = |a − b|² + |r_x − r_p|²  ≥  |a − b|² + (ρ_x − ρ_p)²     (Pythagoras, then the triangle inequality)
+// for any orthonormal Q, so a representative whose bound exceeds the best exact squared distance found so far
+// cannot be the nearest. Exact distances use the same summation (same features, same order, same checks) as
+// nearestDistance, so the minimum is bit-identical to the plain scan; the bound only decides what to skip, with
+// a margin far above its round-off. The prepared search is kept outside the stored model (a WeakMap keyed on the
+// representatives' owner object), so the saved model stays a plain structured-clone-friendly object.
+
+/**
+ * Basis size per species, chosen by measurement (bench/applicability.bench.ts: water-like frames, nmax 8, lmax 6,
+ * n0 = 952, 256 representatives per species). Each basis vector costs a query n0 multiply-adds and shrinks the
+ * exact work; with d = 4/8/16/24 about 54/20/10/6 exact distances per query remain, and beyond d ≈ 8 the
+ * projection costs more than the exact distances it saves.
+ */
+export const SEARCH_BASIS = 8;
+/** Below this many representatives a basis does not pay; the bound then uses ρ = |x − μ| alone. */
+const MIN_ROWS_FOR_BASIS = 8;
+/** Subspace-iteration steps after the Gram–Schmidt start (measured at d = 8: 0/2 steps leave about 38/21 exact
+ * distances per query; more steps change little). */
+export const SUBSPACE_STEPS = 2;
+/** Gram–Schmidt stops when the largest remaining residual is below this fraction of the largest row norm. */
+const RANK_TOLERANCE = 1e-9;
+/**
+ * Pruning margins. The bound and the exact sums each carry round-off of order n0·ε·(scale) ≈ 1e-13 for unit
+ * rows (n0 ≈ 1000, ε ≈ 1.1e-16), and Q is orthonormal to about 1e-15 after re-orthogonalisation; a representative
+ * is skipped only when its bound beats the best by RELATIVE·best + ABSOLUTE, orders of magnitude above that.
+ */
+const MARGIN_RELATIVE = 1e-8;
+const MARGIN_ABSOLUTE = 1e-10;
+/** Allowance on ρ_x² = |x − μ|² − |a|² (cancellation when the residual is small), relative to |x − μ|². */
+const RHO_ALLOWANCE = 1e-10;
+
+/** One species' prepared representatives. */
+export interface SpeciesSearch {
+  /** Representative indices (rows of the full array) of this species, in their original order. */
+  rows: Int32Array;
+  /** Basis size actually used (≤ SEARCH_BASIS; smaller for few or rank-deficient rows, or n0 < basis). */
+  d: number;
+  mean: Float64Array;
+  /** d × n0, row-major: the orthonormal basis vectors. */
+  basis: Float64Array;
+  /** d × rows, row-major: the representatives' coordinates Qᵀ(p − μ), one basis direction per row. */
+  coordsT: Float64Array;
+  /** Each representative's residual norm |(I − QQᵀ)(p − μ)|. */
+  residual: Float64Array;
+}
+
+/** A prepared search over all species of one set of representatives. */
+export interface NearestSearch {
+  n0: number;
+  reps: Float64Array;
+  species: Map<number, SpeciesSearch>;
+}
+
+/** Statistics of the searches made (for the benchmark): queries and exact distance evaluations. */
+export interface SearchCounter {
+  queries: number;
+  exact: number;
+  /** Feature differences summed in those evaluations (the partial-sum exit stops most of them early). */
+  summed: number;
+}
+
+/** Row k of a (rows of n0) dotted with row j of b; four partial sums (preparation only, order does not matter). */
+function dotRows(a: Float64Array, k: number, b: Float64Array, j: number, n0: number): number {
+  let s0 = 0;
+  let s1 = 0;
+  let s2 = 0;
+  let s3 = 0;
+  const oa = k * n0;
+  const ob = j * n0;
+  let f = 0;
+  for (; f + 3 < n0; f += 4) {
+    s0 += a[oa + f] * b[ob + f];
+    s1 += a[oa + f + 1] * b[ob + f + 1];
+    s2 += a[oa + f + 2] * b[ob + f + 2];
+    s3 += a[oa + f + 3] * b[ob + f + 3];
+  }
+  for (; f < n0; f++) s0 += a[oa + f] * b[ob + f];
+  return s0 + s1 + s2 + s3;
+}
+
+/**
+ * Orthonormalises the first `count` rows of `v` in place (Gram–Schmidt, two passes so that orthogonality holds to
+ * round-off). Returns false when a row is (numerically) dependent on the ones before it.
+ */
+function orthonormaliseRows(v: Float64Array, count: number, n0: number, tiny: number): boolean {
+  for (let j = 0; j < count; j++) {
+    const before = Math.sqrt(dotRows(v, j, v, j, n0));
+    for (let pass = 0; pass < 2; pass++) {
+      for (let i = 0; i < j; i++) {
+        const c = dotRows(v, j, v, i, n0);
+        for (let f = 0; f < n0; f++) v[j * n0 + f] -= c * v[i * n0 + f];
+      }
+    }
+    const nv = Math.sqrt(dotRows(v, j, v, j, n0));
+    if (!(nv > tiny * before) || !(nv > 0)) return false;
+    for (let f = 0; f < n0; f++) v[j * n0 + f] /= nv;
+  }
+  return true;
+}
+
+function prepareSpecies(reps: Float64Array, rows: Int32Array, n0: number, maxBasis: number, steps: number): SpeciesSearch {
+  const m = rows.length;
+  const mean = new Float64Array(n0);
+  for (const r of rows) for (let f = 0; f < n0; f++) mean[f] += reps[r * n0 + f];
+  for (let f = 0; f < n0; f++) mean[f] /= m;
+  const centred = new Float64Array(m * n0);
+  rows.forEach((r, k) => {
+    for (let f = 0; f < n0; f++) centred[k * n0 + f] = reps[r * n0 + f] - mean[f];
+  });
+  // Start: greedy pivoted Gram–Schmidt (the row with the largest residual next), which also finds the rank.
+  const res = Float64Array.from(centred);
+  const limit = m < MIN_ROWS_FOR_BASIS ? 0 : Math.min(maxBasis, n0, m);
+  let basis = new Float64Array(limit * n0);
+  // squared residual norms, kept up to date by subtraction: they only choose the pivot
+  const left = new Float64Array(m);
+  // the scale for the rank test: the rows themselves, not their spread (identical rows leave only round-off)
+  let first = 0;
+  for (let k = 0; k < m; k++) {
+    left[k] = dotRows(res, k, res, k, n0);
+    first = Math.max(first, dotRows(reps, rows[k], reps, rows[k], n0));
+  }
+  let d = 0;
+  while (d < limit) {
+    let pivot = -1;
+    let largest = 0;
+    for (let k = 0; k < m; k++) {
+      if (left[k] > largest) {
+        largest = left[k];
+        pivot = k;
+      }
+    }
+    if (pivot < 0 || largest <= RANK_TOLERANCE * RANK_TOLERANCE * first) break;
+    basis.set(res.subarray(pivot * n0, pivot * n0 + n0), d * n0);
+    if (!orthonormaliseRows(basis, d + 1, n0, RANK_TOLERANCE)) break;
+    for (let k = 0; k < m; k++) {
+      const c = dotRows(basis, d, res, k, n0);
+      for (let f = 0; f < n0; f++) res[k * n0 + f] -= c * basis[d * n0 + f];
+      left[k] = k === pivot ? 0 : left[k] - c * c;
+    }
+    d++;
+  }
+  basis = basis.slice(0, d * n0);
+  // Then a few steps of subspace iteration Q ← orth(CᵀC Q) towards the d leading principal directions: the bound
+  // depends only on the span, and the principal span holds the most spread, so fewer exact distances are needed.
+  const proj = new Float64Array(m * d);
+  for (let step = 0; step < steps && d > 0; step++) {
+    for (let k = 0; k < m; k++) for (let j = 0; j < d; j++) proj[k * d + j] = dotRows(centred, k, basis, j, n0);
+    const next = new Float64Array(d * n0);
+    for (let k = 0; k < m; k++) {
+      for (let j = 0; j < d; j++) {
+        const c = proj[k * d + j];
+        for (let f = 0; f < n0; f++) next[j * n0 + f] += c * centred[k * n0 + f];
+      }
+    }
+    if (!orthonormaliseRows(next, d, n0, RANK_TOLERANCE)) break; // keep the last good basis
+    basis = next;
+  }
+  // coordinates and residual norms from the centred rows, computed explicitly (not by cancellation)
+  const residual = new Float64Array(m);
+  const coordsT = new Float64Array(d * m);
+  const r = new Float64Array(n0);
+  for (let k = 0; k < m; k++) {
+    r.set(centred.subarray(k * n0, k * n0 + n0));
+    for (let j = 0; j < d; j++) {
+      const c = dotRows(centred, k, basis, j, n0);
+      coordsT[j * m + k] = c;
+      for (let f = 0; f < n0; f++) r[f] -= c * basis[j * n0 + f];
+    }
+    residual[k] = Math.sqrt(dotRows(r, 0, r, 0, n0));
+  }
+  return { rows, d, mean, basis, coordsT, residual };
+}
+
+/** Prepares the search over representatives `reps` (rows of n0) with species `repSpecies`. */
+export function prepareNearestSearch(
+  reps: Float64Array,
+  repSpecies: Int32Array,
+  n0: number,
+  options: { basis?: number; steps?: number } = {},
+): NearestSearch {
+  const maxBasis = options.basis ?? SEARCH_BASIS;
+  const steps = options.steps ?? SUBSPACE_STEPS;
+  const bySpecies = new Map<number, number[]>();
+  repSpecies.forEach((s, r) => {
+    const list = bySpecies.get(s);
+    if (list) list.push(r);
+    else bySpecies.set(s, [r]);
+  });
+  const species = new Map<number, SpeciesSearch>();
+  for (const [s, list] of bySpecies) species.set(s, prepareSpecies(reps, Int32Array.from(list), n0, maxBasis, steps));
+  return { n0, reps, species };
+}
+
+const cache = new WeakMap<object, NearestSearch>();
+
+/**
+ * The prepared search for representatives owned by `owner` (e.g. a model's applicability object), built on first
+ * use and kept as long as the owner lives. The owner's arrays must not be changed in place afterwards.
+ */
+export function cachedNearestSearch(owner: { n0: number; species: Int32Array; p: Float64Array }): NearestSearch {
+  let s = cache.get(owner);
+  if (!s || s.reps !== owner.p || s.n0 !== owner.n0) {
+    s = prepareNearestSearch(owner.p, owner.species, owner.n0);
+    cache.set(owner, s);
+  }
+  return s;
+}
+
+// scratch buffers reused between queries (prediction is single-threaded per worker)
+let scratchBound = new Float64Array(0);
+let scratchCoords = new Float64Array(0);
+let scratchCentred = new Float64Array(0);
+const scratchFirst = new Int32Array(4);
+const scratchFirstBound = new Float64Array(4);
+const scratchGroup = new Int32Array(4);
+const scratchSums = new Float64Array(4);
+
+/**
+ * Squared distances from the query row (offset oa in a) to four representative rows (offsets o0 … o3 in reps),
+ * each summed feature by feature in order exactly as nearestDistance does, with the same check every 16 features:
+ * stop once all four partial sums reach `best` (a stopped sum is then ≥ best and cannot win). Writes the four sums
+ * to `out`; returns the number of feature differences summed (for the counter).
+ */
+function sumFour(a: Float64Array, oa: number, reps: Float64Array, o0: number, o1: number, o2: number, o3: number, n0: number, best: number, out: Float64Array): number {
+  let s0 = 0;
+  let s1 = 0;
+  let s2 = 0;
+  let s3 = 0;
+  let f = 0;
+  while (f < n0 && (s0 < best || s1 < best || s2 < best || s3 < best)) {
+    const end = Math.min(n0, f + 16);
+    for (; f < end; f++) {
+      const x = a[oa + f];
+      const d0 = x - reps[o0 + f];
+      const d1 = x - reps[o1 + f];
+      const d2 = x - reps[o2 + f];
+      const d3 = x - reps[o3 + f];
+      s0 += d0 * d0;
+      s1 += d1 * d1;
+      s2 += d2 * d2;
+      s3 += d3 * d3;
+    }
+  }
+  out[0] = s0;
+  out[1] = s1;
+  out[2] = s2;
+  out[3] = s3;
+  return f;
+}
+
+/**
+ * Distance from row i of `a` to the nearest representative of `species` (Infinity if none): the same value, bit for
+ * bit, as nearestDistance(a, i, reps, repSpecies, species, n0).
+ */
+export function searchNearest(search: NearestSearch, a: Float64Array, i: number, species: number, counter?: SearchCounter): number {
+  const sp = search.species.get(species);
+  if (counter) counter.queries++;
+  if (!sp) return Infinity;
+  const { n0, reps } = search;
+  const { rows, d, mean, basis, coordsT, residual } = sp;
+  const m = rows.length;
+  if (scratchBound.length < m) scratchBound = new Float64Array(m);
+  if (scratchCoords.length < d) scratchCoords = new Float64Array(d);
+  if (scratchCentred.length < n0) scratchCentred = new Float64Array(n0);
+  const bound = scratchBound;
+  const q = scratchCoords;
+  const oa = i * n0;
+  // the centred query and |x − μ|², then its coordinates a = Qᵀ(x − μ) as dot products with four partial sums
+  // each (these only feed the bound, so their summation order is free; one chain would stall on add latency)
+  const xc = scratchCentred;
+  let xx = 0;
+  for (let f = 0; f < n0; f++) {
+    const c = a[oa + f] - mean[f];
+    xc[f] = c;
+    xx += c * c;
+  }
+  const n4 = n0 - (n0 % 4);
+  for (let j = 0; j < d; j++) {
+    const ob = j * n0;
+    let c0 = 0;
+    let c1 = 0;
+    let c2 = 0;
+    let c3 = 0;
+    let f = 0;
+    for (; f < n4; f += 4) {
+      c0 += basis[ob + f] * xc[f];
+      c1 += basis[ob + f + 1] * xc[f + 1];
+      c2 += basis[ob + f + 2] * xc[f + 2];
+      c3 += basis[ob + f + 3] * xc[f + 3];
+    }
+    for (; f < n0; f++) c0 += basis[ob + f] * xc[f];
+    q[j] = c0 + c1 + c2 + c3;
+  }
+  let qq = 0;
+  for (let j = 0; j < d; j++) qq += q[j] * q[j];
+  // ρ_x lies in [lo, hi]: the residual from |x − μ|² − |a|², widened for the cancellation in that difference
+  const t = xx - qq;
+  const allowance = RHO_ALLOWANCE * xx;
+  const lo = Math.sqrt(Math.max(0, t - allowance));
+  const hi = Math.sqrt(Math.max(0, t + allowance));
+  // bounds for all representatives, one basis direction at a time (again independent sums)
+  for (let k = 0; k < m; k++) {
+    const rk = residual[k];
+    const gap = rk > hi ? rk - hi : rk < lo ? lo - rk : 0;
+    bound[k] = gap * gap;
+  }
+  for (let j = 0; j < d; j++) {
+    const qj = q[j];
+    const oc = j * m;
+    for (let k = 0; k < m; k++) {
+      const g = qj - coordsT[oc + k];
+      bound[k] += g * g;
+    }
+  }
+  // Exact distances, four representatives at a time: each keeps its own sum in the same feature order as
+  // nearestDistance (so a winning value is bit-identical), and four independent sums do not stall on add latency.
+  // First the four smallest bounds (usually holding the winner), then every representative not ruled out.
+  const first = scratchFirst;
+  first.fill(-1);
+  const firstBound = scratchFirstBound;
+  firstBound.fill(Infinity);
+  for (let k = 0; k < m; k++) {
+    const b = bound[k];
+    if (!(b < firstBound[3])) continue;
+    let g = 3;
+    while (g > 0 && b < firstBound[g - 1]) {
+      firstBound[g] = firstBound[g - 1];
+      first[g] = first[g - 1];
+      g--;
+    }
+    firstBound[g] = b;
+    first[g] = k;
+  }
+  const group = scratchGroup;
+  const sums = scratchSums;
+  let filled = 0;
+  while (filled < 4 && first[filled] >= 0) {
+    group[filled] = first[filled];
+    filled++;
+  }
+  let best = Infinity;
+  let exact = 0;
+  let summed = 0;
+  let next = 0;
+  while (filled > 0) {
+    for (let g = filled; g < 4; g++) group[g] = group[0]; // a short group repeats a member (harmless)
+    exact += filled;
+    summed += sumFour(a, oa, reps, rows[group[0]] * n0, rows[group[1]] * n0, rows[group[2]] * n0, rows[group[3]] * n0, n0, best, sums);
+    for (let g = 0; g < 4; g++) if (sums[g] < best) best = sums[g];
+    // refill from the representatives not yet visited whose bound does not rule them out: skipped only when the
+    // bound beats the best by a margin far above round-off (a NaN bound is never skipped)
+    filled = 0;
+    while (filled < 4 && next < m) {
+      const k = next++;
+      if (k === first[0] || k === first[1] || k === first[2] || k === first[3]) continue;
+      if (bound[k] - MARGIN_RELATIVE * best - MARGIN_ABSOLUTE > best) continue;
+      group[filled++] = k;
+    }
+  }
+  if (counter) {
+    counter.exact += exact;
+    counter.summed += summed;
+  }
+  return Math.sqrt(best);
+}
