@@ -7,7 +7,7 @@
 //   2. the same on 1×, 2×, 4× cells (384, 768, 1536 atoms), to show the cost is linear in the atoms;
 //   3. streamed end to end (extended XYZ in, CSV out, worker threads) with 1 and 2 threads: the rate over the
 //      whole run (worker start-up included) and the marginal rate (extra frames / extra seconds between a
-//      short and a long run, i.e. with start-up removed), with the peak RSS.
+//      short and a long run, i.e. with start-up removed), with the process RSS before and at its peak.
 // Figures only, never asserted. Env: PW_BENCH_TRAIN_FRAMES (30), PW_BENCH_STREAM_FRAMES (120).
 import { createWriteStream, mkdtempSync, rmSync } from 'node:fs';
 import { availableParallelism, cpus, loadavg, tmpdir } from 'node:os';
@@ -97,7 +97,8 @@ async function streamed(model: Model, dir: string): Promise<void> {
   console.log(`3. streamed end to end (extended XYZ → CSV, worker threads, ${availableParallelism()} cores): ${short} and ${STREAM} frames × ${atoms} atoms`);
   for (const threads of [1, 2]) {
     const seconds: Record<string, number> = {};
-    let peak = process.memoryUsage().rss;
+    const before = process.memoryUsage().rss;
+    let peak = before;
     const timer = setInterval(() => (peak = Math.max(peak, process.memoryUsage().rss)), 100);
     for (const [name, path] of Object.entries(inputs)) {
       const r = await streamPredict({ modelPath, input: path, output: join(dir, `${name}-${threads}.csv`), csvOptions: predictionCsvOptions(model, modelPath), threads, mode: 'restart' });
@@ -107,7 +108,7 @@ async function streamed(model: Model, dir: string): Promise<void> {
     const whole = (STREAM * atoms) / seconds.long;
     const marginal = ((STREAM - short) * atoms) / (seconds.long - seconds.short);
     console.log(`   ${threads} thread${threads > 1 ? 's' : ' '}: ${STREAM} frames in ${seconds.long.toFixed(1)} s = ${whole.toFixed(0)} env/s (start-up included); ` +
-      `marginal ${marginal.toFixed(0)} env/s (${short} frames took ${seconds.short.toFixed(1)} s); main-process peak RSS ${(peak / 2 ** 20).toFixed(0)} MiB`);
+      `marginal ${marginal.toFixed(0)} env/s (${short} frames took ${seconds.short.toFixed(1)} s); process RSS (main thread and workers) ${(before / 2 ** 20).toFixed(0)} MiB before, peak ${(peak / 2 ** 20).toFixed(0)} MiB`);
   }
 }
 
