@@ -90,6 +90,16 @@ export function parseRequest(args: ParsedArgs, route: Route, shape: TargetShape 
   return { tensorKey: key, kind, route, settings: parseSettings(args) };
 }
 
+/**
+ * The option errors of `train` and `validate` that need no data, checked before the (possibly long) read: the
+ * property key, the settings and a given --as. Whether --as is needed depends on the data (targetShapeOf).
+ */
+export function checkTargetOptions(args: ParsedArgs): void {
+  if (!args.options.tensor) throw new UsageError('name the reference property with --tensor KEY');
+  parseSettings(args);
+  if (args.options.as !== undefined) parseKind(args);
+}
+
 /** The shape of the reference property --tensor KEY in the first frame (an InputError naming the frame if absent). */
 export function targetShapeOf(args: ParsedArgs, frames: Frame[]): TargetShape {
   const key = args.options.tensor;

@@ -101,6 +101,12 @@ function cachedFeaturiser(base: Featuriser, frames: Frame[]): Featuriser {
   };
 }
 
+/** InputError unless k is a usable number of folds for n frames. */
+function checkFolds(n: number, k: number): void {
+  if (!Number.isInteger(k) || k < 2) throw new InputError(`${k} folds`, {}, 'cross-validation needs at least 2 folds');
+  if (n < k) throw new InputError(`${n} frames for ${k} folds`, {}, `give at least ${k} frames, or fewer folds`);
+}
+
 /** The folds of a cross-validation: a seeded shuffle of the frames, k folds, and the usable curve sizes. */
 interface FoldPlan {
   k: number;
@@ -169,8 +175,7 @@ export async function validate(
 ): Promise<ValidationReport & { alsoOn: SecondaryComparison[]; skippedSizes: number[] }> {
   const n = frames.length;
   const k = options.folds;
-  if (!Number.isInteger(k) || k < 2) throw new InputError(`${k} folds`, {}, 'cross-validation needs at least 2 folds');
-  if (n < k) throw new InputError(`${n} frames for ${k} folds`, {}, `give at least ${k} frames, or fewer folds`);
+  checkFolds(n, k);
   const settings = resolveSettings(request.settings);
   const { species, centres } = speciesOf(frames, settings);
   const firstValues = frames[0].info[request.tensorKey];
@@ -297,8 +302,7 @@ export async function validateValues(
 ): Promise<ValueValidationReport> {
   const n = frames.length;
   const k = options.folds;
-  if (!Number.isInteger(k) || k < 2) throw new InputError(`${k} folds`, {}, 'cross-validation needs at least 2 folds');
-  if (n < k) throw new InputError(`${n} frames for ${k} folds`, {}, `give at least ${k} frames, or fewer folds`);
+  checkFolds(n, k);
   const reference = frames.map((f, i) => readValues(f, request.tensorKey, i));
   const shape = shapeOfValues(reference[0], request.tensorKey, whereOf(frames[0], 0));
   if (shape === 'tensor') throw new InputError(`"${request.tensorKey}" is a 3×3 tensor`, whereOf(frames[0], 0), 'tensors are validated by `validate` (on ε and α_CM)');

@@ -3,7 +3,7 @@ import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import { trainModel, type Model } from '../../core/model.ts';
 import { saveModel } from '../../io/model-file.ts';
-import { parseKind, parseRequest, parseRoute, parseSettings, parseTune, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf, tuneOptions } from '../learn-options.ts';
+import { checkTargetOptions, parseRequest, parseRoute, parseTune, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf, tuneOptions } from '../learn-options.ts';
 import { CancelledError } from '../../core/errors.ts';
 
 const options = [
@@ -45,10 +45,7 @@ export const trainCommand: Command = {
     const out = args.options.output;
     if (!out) throw new UsageError('give the model file to write with -o MODEL');
     const route = parseRoute(args.options.route, false) as 'cm' | 'direct';
-    if (!args.options.tensor) throw new UsageError('name the reference property with --tensor KEY');
-    // option errors before the (possibly long) read; --as is checked against the data's shape after it
-    parseSettings(args);
-    if (args.options.as !== undefined) parseKind(args);
+    checkTargetOptions(args);
     const frames = await readFrames(args.positionals[0], io);
     io.err(`train: ${frames.length} frames read from ${args.positionals[0]}\n`);
     const request = { ...parseRequest(args, route, targetShapeOf(args, frames)), tune: parseTune(args) };

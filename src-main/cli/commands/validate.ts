@@ -4,7 +4,7 @@ import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import type { ErrorFigures, Route } from '../../core/model-types.ts';
 import { validate, validateValues, type ValueErrorFigures } from '../../core/validation.ts';
-import { parseKind, parseRequest, parseRoute, parseSettings, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf } from '../learn-options.ts';
+import { checkTargetOptions, parseRequest, parseRoute, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf } from '../learn-options.ts';
 
 const options = [
   ...targetOptions,
@@ -67,9 +67,7 @@ export const validateCommand: Command = {
     }
     const which = parseRoute(args.options.route, true);
     const routes: Route[] = which === 'both' ? ['cm', 'direct'] : [which];
-    if (!args.options.tensor) throw new UsageError('name the reference property with --tensor KEY');
-    parseSettings(args);
-    if (args.options.as !== undefined) parseKind(args);
+    checkTargetOptions(args);
     const frames = await readFrames(args.positionals[0], io);
     io.err(`validate: ${frames.length} frames read from ${args.positionals[0]}\n`);
     const shape = targetShapeOf(args, frames);
