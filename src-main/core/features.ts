@@ -225,10 +225,6 @@ const PLAN_CACHE_SIZE = 12;
 
 /** The cached plan of these settings (tables, couplings, scratch) for the given λ > 0 orders. */
 export function featurePlan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
-  return plan(s, lambdas);
-}
-
-function plan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
   const key = JSON.stringify([s.cutoff, s.cutoffWidth, s.sigma, s.nmax, s.lmax, s.species, s.centres, s.nmaxTensor ?? null, s.lmaxTensor ?? null, lambdas]);
   const hit = planCache.get(key);
   if (hit) return hit;
@@ -446,7 +442,7 @@ export function prepare(frame: Frame, settings: FeatureSettings, lambdas: Lambda
   for (const l of lambdas) {
     if (l !== 0 && l !== 1 && l !== 2) throw new RangeError(`computeFeatures: λ must be 0, 1 or 2, got ${String(l)}`);
   }
-  const P = plan(settings, ([1, 2] as const).filter((l) => lambdas.includes(l)));
+  const P = featurePlan(settings, ([1, 2] as const).filter((l) => lambdas.includes(l)));
   for (const T of P.tensors) {
     if (T.n === 0) {
       throw new InputError(`feature settings: λ = ${T.lambda} features need lmaxTensor ≥ 1 (lmax ${settings.lmax}, lmaxTensor ${tensorLimits(settings).lmax})`, {}, 'raise lmax (and lmaxTensor) to at least 1');
