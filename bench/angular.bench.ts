@@ -1,10 +1,10 @@
 // Speed of the angular maths: real harmonics per neighbour (the density expansion's inner call), Wigner
 // matrices, and the first (uncached) and later (cached) real Clebsch–Gordan tables. Figures only.
-import { realClebschGordan } from '../src-main/core/clebsch-gordan.ts';
-import { realSphericalHarmonics } from '../src-main/core/harmonics.ts';
-import { makeRng } from '../src-main/core/random.ts';
-import { symmetricEigen } from '../src-main/core/tensor.ts';
-import { randomRotation, wignerDRealUpTo } from '../src-main/core/wigner.ts';
+import { realClebschGordan } from '../src-main/core/descriptors/clebsch-gordan.ts';
+import { realSphericalHarmonics } from '../src-main/core/descriptors/harmonics.ts';
+import { makeRng } from '../src-main/core/numerics/random.ts';
+import { symmetricEigen } from '../src-main/core/dielectric/tensor.ts';
+import { randomRotation, wignerDRealUpTo } from '../src-main/core/descriptors/wigner.ts';
 
 function time(label: string, count: number, unit: string, body: () => void): void {
   body(); // warm-up

@@ -1,15 +1,15 @@
 // The per-atom applicability search of prediction: the plain scan (sparse.ts nearestDistance) against the
-// bounded search (core/nearest-search.ts) on 384-atom water-like frames, model trained at nmax 8, lmax 6.
+// bounded search (core/learning/nearest-search.ts) on 384-atom water-like frames, model trained at nmax 8, lmax 6.
 // Prints CPU µs per environment, the basis size d, exact distance evaluations per query, the one-off preparation
 // time, and whether every distance agrees bit for bit; a sweep over d (and the subspace-iteration steps) shows
 // why SEARCH_BASIS and SUBSPACE_STEPS were chosen.
 // Figures are printed, never asserted.
 import { loadavg } from 'node:os';
 import { pathToFileURL } from 'node:url';
-import { modelFeaturiser, trainModel } from '../src-main/core/model.ts';
-import { nearestDistance } from '../src-main/core/sparse.ts';
-import { prepareNearestSearch, searchNearest, SEARCH_BASIS, SUBSPACE_STEPS, type SearchCounter } from '../src-main/core/nearest-search.ts';
-import type { EnvironmentFeatures } from '../src-main/core/feature-types.ts';
+import { modelFeaturiser, trainModel } from '../src-main/core/learning/model.ts';
+import { nearestDistance } from '../src-main/core/learning/sparse.ts';
+import { prepareNearestSearch, searchNearest, SEARCH_BASIS, SUBSPACE_STEPS, type SearchCounter } from '../src-main/core/learning/nearest-search.ts';
+import type { EnvironmentFeatures } from '../src-main/core/descriptors/feature-types.ts';
 import { waterLikeFrames } from './water-like.ts';
 
 const TRAIN = Number(process.env.PW_BENCH_FRAMES ?? 24);

@@ -1,11 +1,11 @@
 // The interacting point-dipole model on demo-sized cells: wall and CPU time per frame for the conducting
 // boundary (what the demo generator computes per frame), at the generator's accuracy and a tight one.
-import { cellPolarisability } from '../src-main/core/dipole-model.ts';
+import { cellPolarisability } from '../src-main/core/dielectric/dipole-model.ts';
 import { demoDipoleModel, demoMolecule, REFERENCE_ACCURACY } from '../src-main/demo/scenario.ts';
 import { rigidBody, systemFrame } from '../src-main/demo/rigid-system.ts';
 import { latticeStart } from '../src-main/demo/crystal.ts';
-import { makeRng } from '../src-main/core/random.ts';
-import { randomRotation } from '../src-main/core/wigner.ts';
+import { makeRng } from '../src-main/core/numerics/random.ts';
+import { randomRotation } from '../src-main/core/descriptors/wigner.ts';
 
 export async function run(): Promise<void> {
   const mol = rigidBody(demoMolecule);

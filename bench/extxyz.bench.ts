@@ -9,8 +9,8 @@ import path from 'node:path';
 import { pipeline } from 'node:stream/promises';
 import { createGzip } from 'node:zlib';
 import { fileURLToPath } from 'node:url';
-import { makeFrame, type Frame } from '../src-main/core/frame.ts';
-import { makeRng } from '../src-main/core/random.ts';
+import { makeFrame, type Frame } from '../src-main/core/geometry/frame.ts';
+import { makeRng } from '../src-main/core/numerics/random.ts';
 import { formatExtxyzFrame, indexExtxyz, readExtxyz, readFrameAt } from '../src-main/io/extxyz.ts';
 import { atomicWriteStream } from '../src-main/io/atomic.ts';
 

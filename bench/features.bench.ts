@@ -4,11 +4,11 @@
 // process, single thread. Figures only.
 import { spawnSync } from 'node:child_process';
 import { fileURLToPath, pathToFileURL } from 'node:url';
-import { makeFrame, type Frame } from '../src-main/core/frame.ts';
-import { supercell } from '../src-main/core/cell.ts';
-import { makeRng } from '../src-main/core/random.ts';
-import type { FeatureSettings } from '../src-main/core/feature-types.ts';
-import { computeFeatures, featureCount, tensorLimits, type FeatureTimings, type Lambda } from '../src-main/core/features.ts';
+import { makeFrame, type Frame } from '../src-main/core/geometry/frame.ts';
+import { supercell } from '../src-main/core/geometry/cell.ts';
+import { makeRng } from '../src-main/core/numerics/random.ts';
+import type { FeatureSettings } from '../src-main/core/descriptors/feature-types.ts';
+import { computeFeatures, featureCount, tensorLimits, type FeatureTimings, type Lambda } from '../src-main/core/descriptors/features.ts';
 
 /** 128 water molecules in a cubic cell at 0.1 atoms/Å³: O at least 2.5 Å apart, H at 0.96 Å, 104.5°, random orientation. */
 export function waterCell(seed: number, molecules = 128): Frame {

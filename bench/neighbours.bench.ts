@@ -1,11 +1,11 @@
-// Benchmark of core/neighbours.ts: one large liquid-density cell (100,000 atoms, 5 Å) and many small cells of the
+// Benchmark of core/geometry/neighbours.ts: one large liquid-density cell (100,000 atoms, 5 Å) and many small cells of the
 // learning engine's size (384 atoms, 4.5 Å). Prints figures; asserts nothing.
 import os from 'node:os';
 import { pathToFileURL } from 'node:url';
-import { cellFromParameters, toCartesian } from '../src-main/core/cell.ts';
-import { makeFrame, type Frame } from '../src-main/core/frame.ts';
-import { neighbourList } from '../src-main/core/neighbours.ts';
-import { makeRng } from '../src-main/core/random.ts';
+import { cellFromParameters, toCartesian } from '../src-main/core/geometry/cell.ts';
+import { makeFrame, type Frame } from '../src-main/core/geometry/frame.ts';
+import { neighbourList } from '../src-main/core/geometry/neighbours.ts';
+import { makeRng } from '../src-main/core/numerics/random.ts';
 
 /** Uniformly random atoms at a number density (atoms/Å³) in a cell of the given angles (degrees). */
 function randomFrame(atoms: number, density: number, angles: [number, number, number], seed: number): Frame {

@@ -13,13 +13,13 @@ import { createWriteStream, mkdtempSync, rmSync } from 'node:fs';
 import { availableParallelism, cpus, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
-import { supercell } from '../src-main/core/cell.ts';
-import type { Frame } from '../src-main/core/frame.ts';
-import { modelFeaturiser, modelPredictor, predictWithFeatures, trainModel, type Model } from '../src-main/core/model.ts';
+import { supercell } from '../src-main/core/geometry/cell.ts';
+import type { Frame } from '../src-main/core/geometry/frame.ts';
+import { modelFeaturiser, modelPredictor, predictWithFeatures, trainModel, type Model } from '../src-main/core/learning/model.ts';
 import { formatExtxyzFrame } from '../src-main/io/extxyz.ts';
 import { saveModel } from '../src-main/io/model-file.ts';
-import { predictionCsvOptions } from '../src-main/io/prediction-csv.ts';
-import { streamPredict } from '../src-main/jobs/stream-predict.ts';
+import { predictionCsvOptions } from '../src-main/io/prediction/prediction-csv-layout.ts';
+import { streamPredict } from '../src-main/app/predict/stream-predict.ts';
 import { waterLikeFrames } from './water-like.ts';
 
 const TRAIN = Number(process.env.PW_BENCH_TRAIN_FRAMES ?? 30);

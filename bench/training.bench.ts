@@ -3,9 +3,9 @@
 // the dense Cholesky solve: our Float64Array code against ml-matrix. Figures are printed, never asserted.
 import { CholeskyDecomposition, Matrix } from 'ml-matrix';
 import { pathToFileURL } from 'node:url';
-import { choleskySolve, choleskyWithJitter, gramOfRows } from '../src-main/core/cholesky.ts';
-import { modelFeaturiser, predictFrame, predictWithFeatures, trainModel } from '../src-main/core/model.ts';
-import { makeRng } from '../src-main/core/random.ts';
+import { choleskySolve, choleskyWithJitter, gramOfRows } from '../src-main/core/numerics/cholesky.ts';
+import { modelFeaturiser, predictFrame, predictWithFeatures, trainModel } from '../src-main/core/learning/model.ts';
+import { makeRng } from '../src-main/core/numerics/random.ts';
 import { waterLikeFrames } from './water-like.ts';
 
 const FRAMES = Number(process.env.PW_BENCH_FRAMES ?? 200);

@@ -9,14 +9,14 @@ import { createWriteStream, mkdtempSync, readFileSync, rmSync, statSync } from '
 import { availableParallelism, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { supercell } from '../src-main/core/cell.ts';
-import type { Frame } from '../src-main/core/frame.ts';
-import { predictFrame, trainModel } from '../src-main/core/model.ts';
-import { makeRng } from '../src-main/core/random.ts';
+import { supercell } from '../src-main/core/geometry/cell.ts';
+import type { Frame } from '../src-main/core/geometry/frame.ts';
+import { predictFrame, trainModel } from '../src-main/core/learning/model.ts';
+import { makeRng } from '../src-main/core/numerics/random.ts';
 import { formatExtxyzFrame, parseExtxyz } from '../src-main/io/extxyz.ts';
 import { saveModel } from '../src-main/io/model-file.ts';
-import { streamPredict } from '../src-main/jobs/stream-predict.ts';
-import { predictionCsvOptions } from '../src-main/io/prediction-csv.ts';
+import { streamPredict } from '../src-main/app/predict/stream-predict.ts';
+import { predictionCsvOptions } from '../src-main/io/prediction/prediction-csv-layout.ts';
 
 const mib = (b: number) => (b / 2 ** 20).toFixed(1);
 

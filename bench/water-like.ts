@@ -1,9 +1,9 @@
 // Synthetic water-like periodic cells for benchmarks: rigid molecules (O–H 0.957 Å, 104.5°, from memory) on a
 // jittered 4×4×8 grid at about liquid density, randomly oriented, with an additive reference α_CM (invented,
 // for timing only): each molecule contributes 1.47 Å³ isotropic plus 0.1 Å³ along its H–H axis.
-import { makeFrame, type Frame } from '../src-main/core/frame.ts';
-import { makeRng } from '../src-main/core/random.ts';
-import { randomRotation } from '../src-main/core/wigner.ts';
+import { makeFrame, type Frame } from '../src-main/core/geometry/frame.ts';
+import { makeRng } from '../src-main/core/numerics/random.ts';
+import { randomRotation } from '../src-main/core/descriptors/wigner.ts';
 
 export function waterLikeFrames(count: number, seed = 1): Frame[] {
   const rng = makeRng(seed);

@@ -22,7 +22,7 @@ export function rendererStale() {
   const index = join(outDir, 'index.html');
   if (!existsSync(index)) return true;
   const built = statSync(index).mtimeMs;
-  const sources = Math.max(newest(join(root, 'src-renderer')), statSync(join(root, 'src-main/api.ts')).mtimeMs, newest(join(root, 'src-main/core')));
+  const sources = Math.max(newest(join(root, 'src-renderer')), statSync(join(root, 'src-main/api/contract.ts')).mtimeMs, newest(join(root, 'src-main/core')));
   return sources > built;
 }
 

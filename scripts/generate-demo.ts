@@ -9,8 +9,8 @@ import {
   CRYSTAL_EQUILIBRATION_SWEEPS, CRYSTAL_START, crystalStatePoints, demoDipoleModel, demoMolecule, LJ_CUTOFF,
   liquidStatePoints, MC_EQUILIBRATION_SWEEPS, MC_SWEEPS_BETWEEN_FRAMES, REFERENCE_ACCURACY, trajectorySettings,
 } from '../src-main/demo/scenario.ts';
-import { birefringence, refractiveIndices } from '../src-main/core/clausius-mossotti.ts';
-import type { Frame } from '../src-main/core/frame.ts';
+import { birefringence, refractiveIndices } from '../src-main/core/dielectric/clausius-mossotti.ts';
+import type { Frame } from '../src-main/core/geometry/frame.ts';
 
 const outDir = resolve(process.argv[2] ?? 'resources/demo');
 const DEMO_FILES = { liquid: 'liquid.extxyz.gz', crystal: 'crystal.extxyz.gz', trajectory: 'liquid-trajectory.extxyz.gz' };
@@ -86,7 +86,7 @@ image in orthorhombic boxes; no charges.
 ## Reference tensors
 \`eps_ref\` (optical dielectric tensor, dimensionless), \`alpha_c_ref_A3\` (conducting-boundary cell polarisability,
 Å³) and \`alpha_cm_ref_A3\` (Clausius–Mossotti cell polarisability, Å³), each 9 numbers row-major, from the
-project's interacting point-dipole model (src-main/core/dipole-model.ts): point polarisabilities above, Thole damping
+project's interacting point-dipole model (src-main/core/dielectric/dipole-model.ts): point polarisabilities above, Thole damping
 ρ(u) = (3a/4π) e^(−a u³) with a = ${demoDipoleModel.thole}, Ewald sum with the conducting boundary (tail accuracy
 ${REFERENCE_ACCURACY.accuracy}, induced dipoles converged to a relative residual of ${REFERENCE_ACCURACY.tolerance});
 α_CM and ε follow from α_c through the exact Clausius–Mossotti relations. Positions are rounded to 1e−5 Å before the

@@ -21,7 +21,7 @@ process.env.XDG_CACHE_HOME = join(scratch, 'cache');
 const { buildRenderer } = await import('./build-renderer.mjs');
 await buildRenderer({ quiet: true });
 const { tsImport } = await import('tsx/esm/api');
-const { startBrowserHost } = await tsImport('../src-main/host/main.ts', import.meta.url);
+const { startBrowserHost } = await tsImport('../src-main/host/browser-host.ts', import.meta.url);
 const { chromium } = await import('playwright-core');
 
 const host = await startBrowserHost();

@@ -51,7 +51,7 @@ if (exe) {
     await buildRenderer({ quiet: true });
   }
   const { tsImport } = await import('tsx/esm/api');
-  const { startBrowserHost } = await tsImport('../src-main/host/main.ts', import.meta.url);
+  const { startBrowserHost } = await tsImport('../src-main/host/browser-host.ts', import.meta.url);
   const port = option('port') ? Number(option('port')) : 0;
   const host = await startBrowserHost({ port });
   console.log('');

@@ -27,7 +27,7 @@ const { buildRenderer } = await import('./build-renderer.mjs');
 await buildRenderer({ quiet: true });
 
 const { tsImport } = await import('tsx/esm/api');
-const { startBrowserHost } = await tsImport('../src-main/host/main.ts', import.meta.url);
+const { startBrowserHost } = await tsImport('../src-main/host/browser-host.ts', import.meta.url);
 const { chromium } = await import('playwright-core');
 
 let passed = 0;

@@ -1,6 +1,6 @@
 // SYNTHETIC data for the development gallery only: made-up numbers with a plausible shape, so each component
 // can be looked at without a trained model. Nothing here is a measurement or a model result.
-import type { ErrorFigures, ParityPoint } from '../src-main/core/model-types.ts';
+import type { ErrorFigures, ParityPoint } from '../src-main/core/learning/model-types.ts';
 
 /** Small seeded generator (mulberry32) so the gallery looks the same on every run. */
 export function seeded(seed: number): { uniform: () => number; normal: () => number } {

@@ -3,7 +3,7 @@
 import { mount, type Component } from 'svelte';
 import { svgToString, svgToPng } from './components/charts/export-figure.ts';
 import ParityChart from './components/charts/ParityChart.svelte';
-import StructureView from './components/structure/StructureView.svelte';
+import StructureView from './components/structure/CellView.svelte';
 import LearningCurve from './components/charts/LearningCurve.svelte';
 import TrajectoryChart from './components/charts/TrajectoryChart.svelte';
 import { syntheticParity, figuresOf, syntheticWaterBox, syntheticLearningCurves, syntheticTrajectory } from './gallery-data.ts';

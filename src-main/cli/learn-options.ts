@@ -1,10 +1,10 @@
 // Options shared by `train` and `validate`: what to learn and the model settings, parsed into a TrainRequest.
 import { numberOption, UsageError, type OptionSpec, type ParsedArgs } from './args.ts';
-import { DEFAULT_SETTINGS } from '../core/model.ts';
-import type { ModelSettings, Route, TensorKind, TrainRequest, TuneGrid } from '../core/model-types.ts';
+import { DEFAULT_SETTINGS } from '../core/learning/model.ts';
+import type { ModelSettings, Route, TensorKind, TrainRequest, TuneGrid } from '../core/learning/model-types.ts';
 import type { CommandIO } from './command.ts';
-import { readValues, shapeOfValues, whereOf, type TargetShape } from '../core/targets.ts';
-import type { Progress } from '../core/model-types.ts';
+import { readValues, shapeOfValues, whereOf, type TargetShape } from '../core/learning/targets.ts';
+import type { Progress } from '../core/learning/model-types.ts';
 
 export const targetOptions: OptionSpec[] = [
   { name: 'tensor', value: 'KEY', help: 'per-frame property holding the reference tensor (9 or 6 numbers; 3 for a dipole, 1 for a scalar)' },
@@ -123,7 +123,7 @@ export function progressReporter(io: CommandIO, prefix: string): (p: Progress) =
 
 import type { FrameRange } from '../io/extxyz.ts';
 import { readStructures } from '../io/read-structures.ts';
-import type { Frame } from '../core/frame.ts';
+import type { Frame } from '../core/geometry/frame.ts';
 import { CancelledError } from '../core/errors.ts';
 
 /** Every frame of a structure file (extended XYZ or CIF; optionally a range), stopping on Ctrl-C. */

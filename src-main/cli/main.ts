@@ -2,7 +2,7 @@
 // plain messages on stderr and a non-zero exit code.
 import { formatOptions, parseArgs, UsageError } from './args.ts';
 import type { Command, CommandIO } from './command.ts';
-import { commands } from './commands/index.ts';
+import { commands } from './commands/registry.ts';
 import { CancelledError, InputError, ModelError, PhysicsError } from '../core/errors.ts';
 
 const helpOption = { name: 'help', short: 'h', flag: true, help: 'show this help' } as const;

@@ -1,7 +1,7 @@
 // Streams per-frame tensors into the CSV table of io/csv.ts (atomically: nothing appears unless every frame
 // converted), shared by the commands that write one row per frame.
-import type { Frame, Mat3 } from '../core/frame.ts';
-import type { PolarisabilityUnit } from '../core/units.ts';
+import type { Frame, Mat3 } from '../core/geometry/frame.ts';
+import type { PolarisabilityUnit } from '../core/dielectric/units.ts';
 import { tensorCsvWriter } from '../io/csv.ts';
 
 export interface FrameTensors {

@@ -3,7 +3,7 @@
 // shifted by half the a edge), 4 molecules per orthorhombic unit cell. The edges a, b, c and the angle θ are
 // chosen by minimising the lattice energy (coordinate descent, golden-section line searches) of the rigid
 // molecules at zero temperature; thermal motion then comes from Monte Carlo at fixed cell.
-import { rotationAboutAxis } from '../core/wigner.ts';
+import { rotationAboutAxis } from '../core/descriptors/wigner.ts';
 import { mul3, totalEnergy, type PairTable, type RigidBody, type RigidSystem } from './rigid-system.ts';
 
 export interface CrystalCell {

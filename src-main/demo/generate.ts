@@ -2,10 +2,10 @@
 // crystal frames from Monte Carlo about the relaxed invented lattice at two temperatures, and a consecutive
 // rigid-body dynamics trajectory; every stored frame carries reference tensors from the interacting point-dipole
 // model and provenance keys. Pure computation (no files): scripts/generate-demo.ts writes the results.
-import type { Frame, InfoValue } from '../core/frame.ts';
-import { makeRng } from '../core/random.ts';
-import { randomRotation } from '../core/wigner.ts';
-import { referenceTensors } from '../core/dipole-model.ts';
+import type { Frame, InfoValue } from '../core/geometry/frame.ts';
+import { makeRng } from '../core/numerics/random.ts';
+import { randomRotation } from '../core/descriptors/wigner.ts';
+import { referenceTensors } from '../core/dielectric/dipole-model.ts';
 import {
   CRYSTAL_EQUILIBRATION_SWEEPS,
   CRYSTAL_START,

@@ -2,8 +2,8 @@
 // random molecule's centre of mass and turns it about a random axis; accepted with probability
 // min(1, e^(−ΔU/kT)). Step sizes adapt towards ~40 % acceptance during equilibration only (so the sampled
 // chain stays a proper Markov chain afterwards).
-import type { Rng } from '../core/random.ts';
-import { rotationAboutAxis } from '../core/wigner.ts';
+import type { Rng } from '../core/numerics/random.ts';
+import { rotationAboutAxis } from '../core/descriptors/wigner.ts';
 import { mul3, orthonormalise, pairEnergy, sitePositions, type PairTable, type RigidSystem } from './rigid-system.ts';
 
 /** Boltzmann constant in kJ/mol/K (CODATA 2018: k_B·N_A = 8.314462618 J/mol/K). */

@@ -4,7 +4,7 @@
 // symplectic splitting for rigid bodies, Dullweber, Leimkuhler & McLachlan, J. Chem. Phys. 107, 5840 (1997)).
 // The thermostat is the "BAOAB" arrangement of Langevin dynamics (Leimkuhler & Matthews, 2013): kick, drift,
 // Ornstein–Uhlenbeck step on momenta, drift, kick. Units: Å, fs, amu, kJ/mol.
-import type { Rng } from '../core/random.ts';
+import type { Rng } from '../core/numerics/random.ts';
 import { KB_KJ_PER_MOL_K } from './monte-carlo.ts';
 import { allSites, orthonormalise, siteForces, type PairTable, type RigidSystem } from './rigid-system.ts';
 

@@ -1,7 +1,7 @@
 // A box of identical rigid molecules: centres of mass, orientations (body → lab rotation matrices) and the
 // site–site Lennard-Jones interaction with a cutoff and minimum image in an orthorhombic box. Shared by the
 // Monte Carlo sampler, the rigid-body dynamics and the crystal builder of the demo scenario.
-import type { Frame } from '../core/frame.ts';
+import type { Frame } from '../core/geometry/frame.ts';
 import type { MoleculeDef } from './scenario.ts';
 
 export interface RigidBody {

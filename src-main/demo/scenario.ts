@@ -1,7 +1,7 @@
 // Every invented parameter of the demo scenario in one place: the made-up rigid molecule, its force field, its
 // point polarisabilities, the state points and the seeds. Nothing here describes a real substance: the element
 // symbols only label the sites so that files read naturally. resources/demo/PROVENANCE.md repeats these values.
-import type { DipoleModel } from '../core/dipole-model.ts';
+import type { DipoleModel } from '../core/dielectric/dipole-model.ts';
 
 export interface Site {
   element: string;

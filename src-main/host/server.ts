@@ -8,8 +8,8 @@ import { stat } from 'node:fs/promises';
 import { createServer, type IncomingMessage, type ServerResponse } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { extname, join, normalize, resolve, sep } from 'node:path';
-import type { ApiService } from '../api.ts';
-import { dispatch } from '../api-dispatch.ts';
+import type { ApiService } from '../api/contract.ts';
+import { dispatch } from '../api/dispatch.ts';
 import { CONTENT_SECURITY_POLICY } from './csp.ts';
 
 export const TOKEN_HEADER = 'x-polarweave-token';

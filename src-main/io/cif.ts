@@ -4,10 +4,10 @@
 // the asymmetric unit to give the full cell, wrapped into [0, 1) with duplicate sites merged (periodic minimum
 // image, tolerance in Å). One Frame per data block that holds atoms. Pure code, runs in a browser too.
 import { InputError } from '../core/errors.ts';
-import type { Frame, InfoValue, Mat3 } from '../core/frame.ts';
-import { cellFromParameters, wrapUnit } from '../core/cell.ts';
-import { isElement } from '../core/elements.ts';
-import { mat3Determinant } from '../core/tensor.ts';
+import type { Frame, InfoValue, Mat3 } from '../core/geometry/frame.ts';
+import { cellFromParameters, wrapUnit } from '../core/geometry/cell.ts';
+import { isElement } from '../core/geometry/elements.ts';
+import { mat3Determinant } from '../core/dielectric/tensor.ts';
 
 interface Token {
   kind: 'data' | 'loop' | 'tag' | 'value' | 'save' | 'global' | 'stop';

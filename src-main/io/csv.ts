@@ -3,9 +3,9 @@
 // says; numbers are written with the shortest decimal that reads back to the same double. Also a streaming
 // writer for long trajectories (atomic, via atomicWriteStream) and parseCsv to read our own tables back.
 import { InputError, PhysicsError } from '../core/errors.ts';
-import type { Mat3 } from '../core/frame.ts';
-import { anisotropy, isotropicMean, symmetricEigen } from '../core/tensor.ts';
-import { polarisabilityFromA3, type PolarisabilityUnit } from '../core/units.ts';
+import type { Mat3 } from '../core/geometry/frame.ts';
+import { anisotropy, isotropicMean, symmetricEigen } from '../core/dielectric/tensor.ts';
+import { polarisabilityFromA3, type PolarisabilityUnit } from '../core/dielectric/units.ts';
 import { atomicWriteStream, writeFileAtomic } from './atomic.ts';
 
 /** One frame's results. Tensors are symmetric 3×3, row-major; `alpha` in Å³ (polarisability volume). */

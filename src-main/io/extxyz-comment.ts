@@ -2,7 +2,7 @@
 // double-quoted strings (with backslash escapes), or arrays written as "1 2 3", {1 2 3} or [1, 2, 3]; a key
 // without a value means `true`. This file only tokenises and formats that line; extxyz-parse.ts gives the
 // special keys (Lattice, Properties, pbc) their meaning. Pure code, runs in a browser too.
-import type { InfoValue } from '../core/frame.ts';
+import type { InfoValue } from '../core/geometry/frame.ts';
 import { strictNumber } from './decimal.ts';
 
 /** One key=value item as written: `quoted` tells a bare word from a "..." string; `bracket` an {..}/[..] array. */

@@ -1,6 +1,6 @@
 // Writing one Frame as extended XYZ text. Numbers use the shortest decimal that reads back to the same double,
 // so formatExtxyzFrame → parseExtxyz gives an equal frame. Pure code, runs in a browser too.
-import type { AtomArray, Frame } from '../core/frame.ts';
+import type { AtomArray, Frame } from '../core/geometry/frame.ts';
 import { formatItem, formatNumber } from './extxyz-comment.ts';
 import { RESERVED_KEYS } from './extxyz-parse.ts';
 

@@ -4,9 +4,9 @@
 // streaming file reader (extxyz.ts). Every problem is an InputError with file, 1-based line and 0-based frame.
 // Pure code, no Node APIs: runs in a browser too.
 import { InputError } from '../core/errors.ts';
-import type { AtomArray, Frame, InfoValue, Mat3 } from '../core/frame.ts';
-import { cellDeterminant, checkCell as checkCellShape } from '../core/cell.ts';
-import { elementSymbol, isElement, symbolIgnoringCase } from '../core/elements.ts';
+import type { AtomArray, Frame, InfoValue, Mat3 } from '../core/geometry/frame.ts';
+import { cellDeterminant, checkCell as checkCellShape } from '../core/geometry/cell.ts';
+import { elementSymbol, isElement, symbolIgnoringCase } from '../core/geometry/elements.ts';
 import { bytesText, decimalAtBytes } from './decimal.ts';
 import { CommentSyntaxError, ValueError, interpretValue, parseBoolean, tokeniseComment } from './extxyz-comment.ts';
 
@@ -60,7 +60,7 @@ export function parseProperties(value: string, where: Where): ColumnSpec[] {
   return cols;
 }
 
-/** Check a cell for finite entries, a non-zero volume (core/cell.ts) and right-handedness. */
+/** Check a cell for finite entries, a non-zero volume (core/geometry/cell.ts) and right-handedness. */
 export function checkCell(cell: Mat3, where: Where, what = 'Lattice'): void {
   checkCellShape(cell, where);
   const v = cellDeterminant(cell);

@@ -5,7 +5,7 @@ import { promises as fsp } from 'node:fs';
 import type { FileHandle } from 'node:fs/promises';
 import { createGunzip, gzipSync } from 'node:zlib';
 import { CancelledError, InputError } from '../core/errors.ts';
-import type { Frame } from '../core/frame.ts';
+import type { Frame } from '../core/geometry/frame.ts';
 import { ExtxyzAssembler, type FrameDecision } from './extxyz-parse.ts';
 import { formatExtxyzFrame } from './extxyz-format.ts';
 import { atomicWriteStream } from './atomic.ts';

@@ -1,13 +1,13 @@
 // Trained-model files: versioned, self-describing JSON of our own format "polarweave-model", version 1.
 //   { format, version, description, checksum: { algorithm: "sha256", value }, payload }
-// The payload is the Model of core/model.ts with every typed array stored as base64 of its little-endian bytes
+// The payload is the Model of core/learning/model.ts with every typed array stored as base64 of its little-endian bytes
 // ({"f64": …} / {"i32": …}; Cholesky factors as their packed lower triangle, {"f64lower": …, "n": …}).
 // The checksum is sha256 over the canonical JSON of the payload (keys sorted, no spaces), so any edit or
 // truncation is caught. A corrupt file, a bad checksum or an unknown version is a ModelError, never a model.
 import { createHash } from 'node:crypto';
 import { readFile } from 'node:fs/promises';
 import { ModelError } from '../core/errors.ts';
-import type { Model } from '../core/model.ts';
+import type { Model } from '../core/learning/model.ts';
 import { writeFileAtomic } from './atomic.ts';
 
 export const MODEL_FORMAT = 'polarweave-model';

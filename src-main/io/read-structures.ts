@@ -4,7 +4,7 @@ import { readFile } from 'node:fs/promises';
 import { gunzipSync } from 'node:zlib';
 import path from 'node:path';
 import { CancelledError, InputError } from '../core/errors.ts';
-import type { Frame } from '../core/frame.ts';
+import type { Frame } from '../core/geometry/frame.ts';
 import { rangeDecider, readExtxyz, type ReadOptions } from './extxyz.ts';
 import { parseCif } from './cif.ts';
 

@@ -2,9 +2,9 @@
 // tensor table from `convert`), or an extended XYZ file with pred_* info keys and per-atom local tensors.
 // Only the numbers are kept (9 per tensor per frame, 3 per dipole), never the frames, so long files fit.
 import { readFile } from 'node:fs/promises';
-import { cellVolume } from '../core/cell.ts';
+import { cellVolume } from '../core/geometry/cell.ts';
 import { InputError } from '../core/errors.ts';
-import type { Frame } from '../core/frame.ts';
+import type { Frame } from '../core/geometry/frame.ts';
 import { parseCsv, type CsvTable } from './csv.ts';
 import { readExtxyz } from './extxyz.ts';
 

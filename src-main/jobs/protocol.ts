@@ -3,7 +3,7 @@
 // belongs to: a worker may serve many jobs in turn, and a finished task can still post (a late log, a stray
 // progress timer), so the parent drops whatever does not carry the id of the job the worker is running now.
 import { CancelledError, InputError, ModelError, PhysicsError, type Where } from '../core/errors.ts';
-import type { Progress } from '../core/model-types.ts';
+import type { Progress } from '../core/learning/model-types.ts';
 
 /** Parent → worker. */
 export type ToWorker = { type: 'run'; runId: number; task: string; input: unknown } | { type: 'abort'; runId: number };

@@ -8,7 +8,7 @@
 import { availableParallelism } from 'node:os';
 import type { Worker } from 'node:worker_threads';
 import { CancelledError } from '../core/errors.ts';
-import type { Progress } from '../core/model-types.ts';
+import type { Progress } from '../core/learning/model-types.ts';
 import { reviveError, type FromWorker, type ToWorker } from './protocol.ts';
 
 /** Makes a fresh worker thread whose entry calls `serveTasks(registry)`. */

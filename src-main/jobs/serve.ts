@@ -3,7 +3,7 @@
 // progress throttle, and posts progress, the result or the error back, tagged with the run's id. A worker may
 // serve many runs in sequence (a runner with reuseWorkers) or just one (the parent terminates it after).
 import { parentPort } from 'node:worker_threads';
-import type { Progress } from '../core/model-types.ts';
+import type { Progress } from '../core/learning/model-types.ts';
 import { serialiseError, type FromWorker, type ToWorker } from './protocol.ts';
 import type { TaskRegistry } from './task.ts';
 

@@ -1,6 +1,6 @@
 // What a job task is: an async function of plain (structured-clone safe) input that reports progress and
 // stops when its signal is aborted. Tasks are registered by name in a TaskRegistry and run in a worker thread.
-import type { Progress } from '../core/model-types.ts';
+import type { Progress } from '../core/learning/model-types.ts';
 
 export interface TaskContext {
   /** Report progress; the runner forwards it (throttled) to whoever started the job. */

@@ -5,10 +5,10 @@
 import { dirname, join } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { app, BrowserWindow, dialog, Menu, screen, session } from 'electron';
-import makeWorker from '../jobs/app-worker.ts?nodeWorker';
-import { createAppService } from '../app-wiring.ts';
+import makeWorker from '../app/worker.ts?nodeWorker';
+import { createAppService } from '../app/wiring.ts';
 import { CONTENT_SECURITY_POLICY } from '../host/csp.ts';
-import { toApiError } from '../api.ts';
+import { toApiError } from '../api/contract.ts';
 import { registerIpc, openStructurePaths, type IpcContext } from './ipc.ts';
 import { buildMenu } from './menu.ts';
 import { ShellMemory } from './window-state.ts';

@@ -1,13 +1,13 @@
-// The IPC handlers of the window: the API call (validated by api-dispatch against api.ts's schemas) and
+// The IPC handlers of the window: the API call (validated by api-dispatch against api/contract.ts's schemas) and
 // the few things only the main process may do — file dialogs and writing the files the user chose.
 // Each handler first checks that the message comes from our own page.
 import { readFile } from 'node:fs/promises';
 import { basename } from 'node:path';
 import { dialog, ipcMain, type BrowserWindow, type IpcMainInvokeEvent } from 'electron';
 import { z } from 'zod';
-import { toApiError, type ApiResponse, type DatasetSummary } from '../api.ts';
-import type { AppService } from '../app-service.ts';
-import { dispatch } from '../api-dispatch.ts';
+import { toApiError, type ApiResponse, type DatasetSummary } from '../api/contract.ts';
+import type { AppService } from '../app/service.ts';
+import { dispatch } from '../api/dispatch.ts';
 import { writeFileAtomic } from '../io/atomic.ts';
 
 const saveSchema = z

@@ -1,7 +1,7 @@
 // The window's one way to the computation. At start it picks the Electron bridge (window.polarweave, from
 // the preload) or the browser host (HTTP on 127.0.0.1 with the per-run token from the URL fragment); the
 // views call `client.call(method, input)` and never know which.
-import type { ApiError, ApiInput, ApiMethod, ApiOutput, ApiResponse, AppState, DatasetSummary } from '../../src-main/api.ts';
+import type { ApiError, ApiInput, ApiMethod, ApiOutput, ApiResponse, AppState, DatasetSummary } from '../../src-main/api/contract.ts';
 
 /** A file handed to a save dialog or a download. */
 export interface SaveRequest {

@@ -1,5 +1,5 @@
 // Number formatting for tables and labels: a fixed number of significant digits, ranges, 3×3 matrices.
-import type { Range } from '../../src-main/api.ts';
+import type { Range } from '../../src-main/api/contract.ts';
 
 export function fmt(v: number | null | undefined, digits = 4): string {
   if (v === null || v === undefined || !Number.isFinite(v)) return '—';

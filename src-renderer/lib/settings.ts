@@ -1,6 +1,6 @@
 // The Model view's settings: two presets and the words shown beside each field (the defaults come from the
 // engine through AppState.defaultSettings).
-import type { ModelSettingsJ } from '../../src-main/api.ts';
+import type { ModelSettingsJ } from '../../src-main/api/contract.ts';
 
 export type NumericSetting = Exclude<keyof ModelSettingsJ, 'centres' | 'regularisation'>;
 

@@ -1,6 +1,6 @@
 // The window's state (Svelte 5 runes): what is open, what is selected, the running job, the last error,
 // and the display preferences. Components read it; actions here talk to the client.
-import type { ApiError, AppState, JobKind, JobStatus, ModelSummary, PredictionSummary } from '../../src-main/api.ts';
+import type { ApiError, AppState, JobKind, JobStatus, ModelSummary, PredictionSummary } from '../../src-main/api/contract.ts';
 import { CallError, type Client } from './client.ts';
 
 export type ViewName = 'data' | 'model' | 'checks' | 'structure' | 'trajectory' | 'transfer' | 'export';

@@ -2,11 +2,11 @@ import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { makeFrame } from '../../src-main/core/frame.ts';
-import { makeRng } from '../../src-main/core/random.ts';
+import { makeFrame } from '../../src-main/core/geometry/frame.ts';
+import { makeRng } from '../../src-main/core/numerics/random.ts';
 import { parseCsv } from '../../src-main/io/csv.ts';
 import { formatExtxyzFrame } from '../../src-main/io/extxyz.ts';
-import { SPEED_OF_LIGHT_CM_PER_S } from '../../src-main/core/spectra.ts';
+import { SPEED_OF_LIGHT_CM_PER_S } from '../../src-main/core/trajectory/spectra.ts';
 import { cli } from './run-cli.ts';
 
 let dir: string;

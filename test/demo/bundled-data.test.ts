@@ -4,9 +4,9 @@ import { readdirSync, statSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { readAllStructures } from '../../src-main/io/read-structures.ts';
-import { convertTensor, birefringence } from '../../src-main/core/clausius-mossotti.ts';
-import { cellVolume } from '../../src-main/core/cell.ts';
-import type { Frame } from '../../src-main/core/frame.ts';
+import { convertTensor, birefringence } from '../../src-main/core/dielectric/clausius-mossotti.ts';
+import { cellVolume } from '../../src-main/core/geometry/cell.ts';
+import type { Frame } from '../../src-main/core/geometry/frame.ts';
 
 const dir = join(__dirname, '../../resources/demo');
 

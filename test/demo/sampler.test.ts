@@ -8,9 +8,9 @@ import { latticeStart } from '../../src-main/demo/crystal.ts';
 import { equilibrate, makeMonteCarlo } from '../../src-main/demo/monte-carlo.ts';
 import { kinetic, makeDynamics, step } from '../../src-main/demo/rigid-md.ts';
 import { generateDemo } from '../../src-main/demo/generate.ts';
-import { makeRng } from '../../src-main/core/random.ts';
-import { randomRotation } from '../../src-main/core/wigner.ts';
-import { cellVolume } from '../../src-main/core/cell.ts';
+import { makeRng } from '../../src-main/core/numerics/random.ts';
+import { randomRotation } from '../../src-main/core/descriptors/wigner.ts';
+import { cellVolume } from '../../src-main/core/geometry/cell.ts';
 
 const mol = rigidBody(demoMolecule);
 const table = pairTable(demoMolecule, LJ_CUTOFF);

@@ -1,7 +1,7 @@
 // Synthetic EnvironmentFeatures (random, unit-normalised blocks) for testing the regression without the
-// feature code: the regression only needs the layout of core/feature-types.ts.
-import type { EnvironmentFeatures } from '../../src-main/core/feature-types.ts';
-import { makeRng, type Rng } from '../../src-main/core/random.ts';
+// feature code: the regression only needs the layout of core/descriptors/feature-types.ts.
+import type { EnvironmentFeatures } from '../../src-main/core/descriptors/feature-types.ts';
+import { makeRng, type Rng } from '../../src-main/core/numerics/random.ts';
 
 export interface SyntheticOptions {
   count: number;

@@ -1,9 +1,9 @@
 // Small trajectories and a small model for the trajectory tests: the real DFT water frames (test/fixtures,
 // from /work/shared/data) with seeded random displacements, and a model trained on the unperturbed frames.
 import { readFileSync } from 'node:fs';
-import type { Frame } from '../../src-main/core/frame.ts';
-import { trainModel, type Model } from '../../src-main/core/model.ts';
-import { makeRng } from '../../src-main/core/random.ts';
+import type { Frame } from '../../src-main/core/geometry/frame.ts';
+import { trainModel, type Model } from '../../src-main/core/learning/model.ts';
+import { makeRng } from '../../src-main/core/numerics/random.ts';
 import { formatExtxyzFrame, parseExtxyz } from '../../src-main/io/extxyz.ts';
 
 export function waterFrames(): Frame[] {

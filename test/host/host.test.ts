@@ -1,11 +1,11 @@
-// The browser host: token required on every API call, loopback only, payloads validated against api.ts's
+// The browser host: token required on every API call, loopback only, payloads validated against api/contract.ts's
 // schemas before the service sees them, static files served with the CSP and never from outside the folder.
 import { mkdtempSync, mkdirSync, writeFileSync } from 'node:fs';
 import { request } from 'node:http';
 import { networkInterfaces, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { ApiService } from '../../src-main/api.ts';
+import type { ApiService } from '../../src-main/api/contract.ts';
 import { InputError } from '../../src-main/core/errors.ts';
 import { startHost, TOKEN_HEADER, type Host } from '../../src-main/host/server.ts';
 

@@ -4,7 +4,7 @@ import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { InputError } from '../../src-main/core/errors.ts';
-import type { Frame } from '../../src-main/core/frame.ts';
+import type { Frame } from '../../src-main/core/geometry/frame.ts';
 import { cifNumber, elementFromLabel, parseCif, parseSymmetryOp } from '../../src-main/io/cif.ts';
 import { formatExtxyzFrame, parseExtxyz } from '../../src-main/io/extxyz.ts';
 

@@ -3,7 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import path from 'node:path';
-import type { Frame } from '../../src-main/core/frame.ts';
+import type { Frame } from '../../src-main/core/geometry/frame.ts';
 import { parseExtxyz } from '../../src-main/io/extxyz.ts';
 
 const FIX = path.join(import.meta.dirname, '../fixtures/io');

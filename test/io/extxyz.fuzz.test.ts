@@ -6,8 +6,8 @@ import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { InputError } from '../../src-main/core/errors.ts';
-import { ELEMENT_SYMBOLS } from '../../src-main/core/elements.ts';
-import type { AtomArray, Frame, InfoValue } from '../../src-main/core/frame.ts';
+import { ELEMENT_SYMBOLS } from '../../src-main/core/geometry/elements.ts';
+import type { AtomArray, Frame, InfoValue } from '../../src-main/core/geometry/frame.ts';
 import { formatExtxyzFrame, parseExtxyz, readExtxyz } from '../../src-main/io/extxyz.ts';
 
 const finite = fc.double({ noNaN: true, noDefaultInfinity: true });

@@ -5,7 +5,7 @@ import { gzipSync } from 'node:zlib';
 import os from 'node:os';
 import path from 'node:path';
 import { InputError } from '../../src-main/core/errors.ts';
-import { makeFrame, type Frame } from '../../src-main/core/frame.ts';
+import { makeFrame, type Frame } from '../../src-main/core/geometry/frame.ts';
 import { formatExtxyzFrame, indexExtxyz, parseExtxyz, readExtxyz, readFrameAt, writeExtxyz } from '../../src-main/io/extxyz.ts';
 
 const WATER = '/work/shared/data/water-dft-sample.extxyz';

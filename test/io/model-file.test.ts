@@ -4,8 +4,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ModelError } from '../../src-main/core/errors.ts';
-import { makeFrame } from '../../src-main/core/frame.ts';
-import { predictWithFeatures, trainWithFeaturiser, type Model } from '../../src-main/core/model.ts';
+import { makeFrame } from '../../src-main/core/geometry/frame.ts';
+import { predictWithFeatures, trainWithFeaturiser, type Model } from '../../src-main/core/learning/model.ts';
 import { canonicalJson, loadModel, MODEL_FORMAT, parseModel, saveModel, serialiseModel } from '../../src-main/io/model-file.ts';
 import { makeRng, syntheticFeatures } from '../helpers/synthetic-features.ts';
 

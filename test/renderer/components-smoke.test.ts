@@ -6,7 +6,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createServer, type ViteDevServer } from 'vite';
 import { svelte, vitePreprocess } from '@sveltejs/vite-plugin-svelte';
 import { join } from 'node:path';
-import type { ParityPoint, ErrorFigures } from '../../src-main/core/model-types.ts';
+import type { ParityPoint, ErrorFigures } from '../../src-main/core/learning/model-types.ts';
 
 const root = join(import.meta.dirname, '../..');
 let server: ViteDevServer;
@@ -76,8 +76,8 @@ describe('components render on the server', () => {
     expect(tc).toContain('± 0.001');
   }, 60_000);
 
-  it('StructureView: atoms, ellipsoids, legends and the ε panel', async () => {
-    const View = await load('src-renderer/components/structure/StructureView.svelte');
+  it('CellView: atoms, ellipsoids, legends and the ε panel', async () => {
+    const View = await load('src-renderer/components/structure/CellView.svelte');
     const out = html(View, {
         species: ['O', 'H', 'H'],
         positions: [0, 0, 0, 0.76, 0.59, 0, -0.76, 0.59, 0],

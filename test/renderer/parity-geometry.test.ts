@@ -1,7 +1,7 @@
 // Parity chart geometry: what is plotted for each part, the common axis range, and the figures of the dots.
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import type { ParityPoint } from '../../src-main/core/model-types.ts';
+import type { ParityPoint } from '../../src-main/core/learning/model-types.ts';
 import {
   anisoNorm,
   paritySeries,

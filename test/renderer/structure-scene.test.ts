@@ -12,7 +12,7 @@ import {
   nearbyImages,
   rawSemiAxes,
 } from '../../src-renderer/components/structure/structure-scene.ts';
-import { covalentRadius, elementColour } from '../../src-renderer/components/structure/elements.ts';
+import { covalentRadius, elementColour } from '../../src-renderer/components/structure/element-style.ts';
 import { inverse3 } from '../../src-renderer/components/structure/linear3.ts';
 
 const iso = (a: number) => [a, 0, 0, 0, a, 0, 0, 0, a];

@@ -5,8 +5,8 @@ import fc from 'fast-check';
 import { decimateMinMax, lowerBound } from '../../src-renderer/components/charts/decimate.ts';
 import { blockEstimates, plateauError, runningError, runningMean } from '../../src-renderer/components/charts/trajectory-stats.ts';
 import { learningLines, logDomain, logLogSlope } from '../../src-renderer/components/charts/learning-geometry.ts';
-import type { ErrorFigures } from '../../src-main/core/model-types.ts';
-import { makeRng } from '../../src-main/core/random.ts';
+import type { ErrorFigures } from '../../src-main/core/learning/model-types.ts';
+import { makeRng } from '../../src-main/core/numerics/random.ts';
 
 /** Seeded normal deviates for the statistics tests (the project's shared generator). */
 function rng(seed: number): () => number {

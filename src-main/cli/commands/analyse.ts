@@ -4,10 +4,10 @@
 // applicability summary, and optionally a per-frame CSV, a summary CSV and Raman/IR line shapes.
 import { parseArgs, numberOption, UsageError, type ParsedArgs } from '../args.ts';
 import type { Command, CommandIO } from '../command.ts';
-import type { BlockAverage } from '../../core/statistics.ts';
-import { runningMean } from '../../core/statistics.ts';
-import { infraredSpectrum, ramanSpectra, type QuantumCorrection, type Spectrum, type SpectrumOptions, type WindowKind } from '../../core/spectra.ts';
-import { opticalStats, tensorStats, type OpticalStats, type TensorStats } from '../../core/trajectory-summary.ts';
+import type { BlockAverage } from '../../core/trajectory/statistics.ts';
+import { runningMean } from '../../core/trajectory/statistics.ts';
+import { infraredSpectrum, ramanSpectra, type QuantumCorrection, type Spectrum, type SpectrumOptions, type WindowKind } from '../../core/trajectory/spectra.ts';
+import { opticalStats, tensorStats, type OpticalStats, type TensorStats } from '../../core/trajectory/trajectory-summary.ts';
 import { InputError } from '../../core/errors.ts';
 import { writeFileAtomic } from '../../io/atomic.ts';
 import { csvField, tensorCsvWriter } from '../../io/csv.ts';

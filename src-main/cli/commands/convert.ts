@@ -3,13 +3,13 @@
 // extended XYZ (the tensor added as a property) or as a per-frame CSV table.
 import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
-import { cellVolume } from '../../core/cell.ts';
-import { convertTensor, epsWarnings, TENSOR_KINDS } from '../../core/clausius-mossotti.ts';
+import { cellVolume } from '../../core/geometry/cell.ts';
+import { convertTensor, epsWarnings, TENSOR_KINDS } from '../../core/dielectric/clausius-mossotti.ts';
 import { CancelledError, InputError, type Where } from '../../core/errors.ts';
-import type { Frame, Mat3 } from '../../core/frame.ts';
-import type { TensorKind } from '../../core/model-types.ts';
-import { tensorFromValues } from '../../core/tensor.ts';
-import { parsePolarisabilityUnit, tensorFromA3, tensorToA3, type PolarisabilityUnit } from '../../core/units.ts';
+import type { Frame, Mat3 } from '../../core/geometry/frame.ts';
+import type { TensorKind } from '../../core/learning/model-types.ts';
+import { tensorFromValues } from '../../core/dielectric/tensor.ts';
+import { parsePolarisabilityUnit, tensorFromA3, tensorToA3, type PolarisabilityUnit } from '../../core/dielectric/units.ts';
 import { writeExtxyz } from '../../io/extxyz.ts';
 import { readStructures } from '../../io/read-structures.ts';
 import { writeFrameTensorCsv } from '../tensor-table.ts';

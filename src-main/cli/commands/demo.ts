@@ -1,8 +1,8 @@
-// `polarweave demo`: the whole job on the bundled invented demo data (jobs/demo-run.ts), printing where the
+// `polarweave demo`: the whole job on the bundled invented demo data (demo/run-demo.ts), printing where the
 // outputs went.
 import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
-import { runDemo } from '../../jobs/demo-run.ts';
+import { runDemo } from '../../demo/run-demo.ts';
 
 const options = [
   { name: 'output', short: 'o', value: 'DIR', help: 'folder for the outputs', default: 'polarweave-demo' },

@@ -2,10 +2,10 @@
 // tensor-valued properties found and the range of their values — read frame by frame (any file size).
 import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
-import { cellVolume } from '../../core/cell.ts';
+import { cellVolume } from '../../core/geometry/cell.ts';
 import { CancelledError } from '../../core/errors.ts';
-import type { Frame } from '../../core/frame.ts';
-import { anisotropy, isotropicMean, symmetricEigen, tensorFromValues } from '../../core/tensor.ts';
+import type { Frame } from '../../core/geometry/frame.ts';
+import { anisotropy, isotropicMean, symmetricEigen, tensorFromValues } from '../../core/dielectric/tensor.ts';
 import { readStructures } from '../../io/read-structures.ts';
 
 const options = [{ name: 'json', flag: true, help: 'print the summary as JSON' }];

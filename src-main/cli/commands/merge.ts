@@ -2,7 +2,7 @@
 // frame order, after checking that none is missing or doubled and that all come from one model and one input.
 import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
-import { mergeShards } from '../../jobs/merge-shards.ts';
+import { mergeShards } from '../../app/predict/merge-shards.ts';
 
 const options = [{ name: 'output', short: 'o', value: 'OUT.csv|OUT.extxyz', help: 'the joined file (same format as the shards)' }];
 

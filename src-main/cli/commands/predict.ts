@@ -1,23 +1,23 @@
 // `polarweave predict`: apply a trained model to the frames of a file; CSV (one row per frame) or extended
 // XYZ (frames with the predicted tensors as info keys and per-atom local tensors). Extended XYZ input is
-// streamed and parallel (jobs/stream-predict.ts): constant memory, worker threads, resumable from
+// streamed and parallel (app/predict/stream-predict.ts): constant memory, worker threads, resumable from
 // OUT.checkpoint.json after Ctrl-C or a crash, frame-range shards for clusters. Other inputs (CIF) go through
 // runPredict (one pass, atomic, Ctrl-C leaves no partial file). The output appears when every frame is done.
 import { parseArgs, UsageError, type ParsedArgs } from '../args.ts';
 import type { Command, CommandIO } from '../command.ts';
 import { CancelledError } from '../../core/errors.ts';
-import type { Frame } from '../../core/frame.ts';
-import { framePredictionFrom, modelPredictor, type Model, type Predictor } from '../../core/model.ts';
-import { findMolecules } from '../../core/molecules.ts';
-import { annotateFrame, tensorPredictionRow, valuePredictionRow, valueRowColumns, type PredictionRow } from '../../core/predict-rows.ts';
+import type { Frame } from '../../core/geometry/frame.ts';
+import { framePredictionFrom, modelPredictor, type Model, type Predictor } from '../../core/learning/model.ts';
+import { findMolecules } from '../../core/geometry/molecules.ts';
+import { annotateFrame, tensorPredictionRow, valuePredictionRow, valueRowColumns, type PredictionRow } from '../../io/prediction/prediction-rows.ts';
 import { tensorCsvWriter, csvField, type TensorRow } from '../../io/csv.ts';
-import { predictionCsvOptions } from '../../io/prediction-csv.ts';
+import { predictionCsvOptions } from '../../io/prediction/prediction-csv-layout.ts';
 import { formatExtxyzFrame, type FrameRange } from '../../io/extxyz.ts';
 import { readStructures } from '../../io/read-structures.ts';
 import { atomicWriteStream, type AtomicWriteStream } from '../../io/atomic.ts';
 import { loadModel } from '../../io/model-file.ts';
-import { csvRecord } from '../../jobs/prediction-text.ts';
-import { checkpointPaths, progressLine, streamPredict, type StreamPredictOptions } from '../../jobs/stream-predict.ts';
+import { csvRecord } from '../../io/prediction/prediction-text.ts';
+import { checkpointPaths, progressLine, streamPredict, type StreamPredictOptions } from '../../app/predict/stream-predict.ts';
 import { availableParallelism } from 'node:os';
 
 const options = [

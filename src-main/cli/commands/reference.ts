@@ -1,11 +1,11 @@
 // `polarweave reference`: a physics baseline without any training — the interacting point-dipole model
-// (core/dipole-model.ts) applied to every frame of a file, writing the frames back with its tensors added as
+// (core/dielectric/dipole-model.ts) applied to every frame of a file, writing the frames back with its tensors added as
 // info keys, so a trained model can be compared with it. The point polarisabilities and damping are the user's.
 import { numberOption, parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import { CancelledError } from '../../core/errors.ts';
-import type { Frame } from '../../core/frame.ts';
-import { cellPolarisability, referenceTensors, type DipoleModel } from '../../core/dipole-model.ts';
+import type { Frame } from '../../core/geometry/frame.ts';
+import { cellPolarisability, referenceTensors, type DipoleModel } from '../../core/dielectric/dipole-model.ts';
 import { readStructures } from '../../io/read-structures.ts';
 import { writeExtxyz } from '../../io/extxyz.ts';
 

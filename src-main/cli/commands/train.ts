@@ -1,7 +1,7 @@
 // `polarweave train`: learn a model of a cell tensor (or dipole, or scalar) from frames with reference values.
 import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
-import { trainModel, type Model } from '../../core/model.ts';
+import { trainModel, type Model } from '../../core/learning/model.ts';
 import { saveModel } from '../../io/model-file.ts';
 import { checkTargetOptions, parseRequest, parseRoute, parseTune, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf, tuneOptions } from '../learn-options.ts';
 import { CancelledError } from '../../core/errors.ts';

@@ -2,8 +2,8 @@
 // optional learning curve; prints RMSE and %RMSE of the λ=0 and λ=2 parts of ε (and α_CM) and a plain verdict.
 import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
-import type { ErrorFigures, Route } from '../../core/model-types.ts';
-import { validate, validateValues, type ValueErrorFigures } from '../../core/validation.ts';
+import type { ErrorFigures, Route } from '../../core/learning/model-types.ts';
+import { validate, validateValues, type ValueErrorFigures } from '../../core/learning/validation.ts';
 import { checkTargetOptions, parseRequest, parseRoute, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf } from '../learn-options.ts';
 
 const options = [

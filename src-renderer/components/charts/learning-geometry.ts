@@ -1,7 +1,7 @@
 // Geometry of the learning curve: one line per (route, part) with the chosen error figure against the
 // training-set size, and log-axis ranges padded by a fraction of a decade. Non-positive values cannot be drawn
 // on a log axis: they are left out and counted, so the chart can say so.
-import type { ErrorFigures } from '../../../src-main/core/model-types.ts';
+import type { ErrorFigures } from '../../../src-main/core/learning/model-types.ts';
 
 export type CurveMetric = 'percent' | 'rmse';
 export type CurvePart = 'iso' | 'aniso';

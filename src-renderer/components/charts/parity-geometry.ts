@@ -1,7 +1,7 @@
 // Geometry of the parity chart (reference against predicted), kept out of the component so it can be tested
 // without a browser: which numbers are plotted for each part, the common axis range of both axes, the error
 // figures of what is plotted, and the frames with the largest errors.
-import type { ParityPoint } from '../../../src-main/core/model-types.ts';
+import type { ParityPoint } from '../../../src-main/core/learning/model-types.ts';
 
 /** Which irreducible part is plotted. */
 export type ParityPart = 'iso' | 'aniso';

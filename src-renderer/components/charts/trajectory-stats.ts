@@ -2,7 +2,7 @@
 // of the standard error of the mean (used only when the analysis does not supply one), and the error band of
 // the running mean, scaled as 1/√t from the error at the end of the run (stationary series assumed).
 
-import { blockAverage } from '../../../src-main/core/statistics.ts';
+import { blockAverage } from '../../../src-main/core/trajectory/statistics.ts';
 
 /** m_t = (1/t) Σ_{i<t} y_i for t = 1…n (non-finite samples are skipped and repeat the previous mean). */
 export function runningMean(values: ArrayLike<number>): Float64Array {

@@ -1,7 +1,7 @@
-// Small 3×3 linear algebra for drawing (row-major, length 9, as `Mat3` in core/frame.ts): products, rotations
+// Small 3×3 linear algebra for drawing (row-major, length 9, as `Mat3` in core/geometry/frame.ts): products, rotations
 // about an axis, re-orthonormalisation of an accumulated view rotation, and the symmetric eigenproblem (cyclic
-// Jacobi, delegated to the pure core/tensor.ts so that drawing and tables use one solver).
-import { symmetricEigen } from '../../../src-main/core/tensor.ts';
+// Jacobi, delegated to the pure core/dielectric/tensor.ts so that drawing and tables use one solver).
+import { symmetricEigen } from '../../../src-main/core/dielectric/tensor.ts';
 
 export type M3 = Float64Array | number[];
 export type V3 = [number, number, number];

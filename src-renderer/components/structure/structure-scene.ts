@@ -3,7 +3,7 @@
 // the additive local contributions of its atoms, placed at its unwrapped centroid), with their principal axes,
 // anisotropy and a common length scale. Projection and depth sorting happen per view in the component.
 import { inverse3, symmetricEigen3, type V3 } from './linear3.ts';
-import { elementRadius } from './elements.ts';
+import { elementRadius } from './element-style.ts';
 import { findBonds, roundedImage } from './bond-search.ts';
 
 export type EllipsoidMode = 'atom' | 'molecule' | 'none';

@@ -1,0 +1,392 @@
+// The one typed contract between the window and the computation. The renderer imports only the types from
+// here; the Electron IPC handler and the browser host validate every incoming payload with `apiSchemas`
+// before the service (app/service.ts) sees it. Every value is plain JSON (tensors as number[9], row-major).
+import { z } from 'zod';
+import type { ErrorFigures, ModelSettings, ParityPoint, Route, TensorKind, ValidationReport } from '../core/learning/model-types.ts';
+
+// ---------------------------------------------------------------------------------------------------------
+// Shared shapes
+
+/** A 3×3 matrix as 9 numbers, row-major. */
+export type Mat3J = number[];
+export type TensorKindJ = TensorKind;
+export type RouteJ = Route;
+
+export interface Range {
+  min: number;
+  max: number;
+}
+
+/** An error as the window sees it: plain words, and where. */
+export interface ApiError {
+  name: string;
+  message: string;
+  where?: { file?: string; line?: number; frame?: number };
+  hint?: string;
+}
+
+export type ApiResponse<T> = { ok: true; value: T } | { ok: false; error: ApiError };
+
+// ---------------------------------------------------------------------------------------------------------
+// Data
+
+export interface TensorKeyInfo {
+  key: string;
+  /** Our guess from the key's name and values; the user confirms it in the Model view. */
+  kindGuess: TensorKindJ | null;
+  /** Plain-words unit (e.g. "dimensionless", "Å³"). */
+  unit: string;
+  /** How many frames carry it. */
+  frames: number;
+  /** Range over frames of the isotropic mean (trace / 3). */
+  isoRange: Range;
+}
+
+export interface SpeciesCount {
+  symbol: string;
+  /** Atoms of this species in the first frame. */
+  perFrame: number;
+}
+
+export interface DatasetSummary {
+  id: string;
+  name: string;
+  /** Where it came from, shown in the Data view. */
+  origin: 'file' | 'upload' | 'demo' | 'project';
+  frames: number;
+  atoms: Range;
+  species: SpeciesCount[];
+  /** True when every frame has a cell with pbc on all axes. */
+  periodic: boolean;
+  volumeA3: Range | null;
+  /** Cell lengths a, b, c (Å) and angles (°) of the first frame, if periodic. */
+  firstCell: { a: number; b: number; c: number; alpha: number; beta: number; gamma: number } | null;
+  tensorKeys: TensorKeyInfo[];
+  /** Other per-frame numeric keys (e.g. energies), by name. */
+  otherKeys: string[];
+  warnings: string[];
+}
+
+export interface FrameView {
+  datasetId: string;
+  index: number;
+  species: string[];
+  /** 3 per atom, Å. */
+  positions: number[];
+  cell: Mat3J | null;
+  pbc: [boolean, boolean, boolean];
+  volumeA3: number | null;
+  /** Per-frame properties; tensors as number[]. */
+  info: Record<string, number | string | boolean | number[]>;
+  source: { file: string; index: number; line: number } | null;
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Models, checks, predictions
+
+// The engine's public shapes (core/learning/model-types.ts) are plain JSON already; the window uses them as they are.
+export type ModelSettingsJ = ModelSettings;
+export type ErrorFiguresJ = ErrorFigures;
+export type ParityPointJ = ParityPoint;
+export type ValidationReportJ = ValidationReport;
+
+/** What the window asks to train (the engine's TrainRequest without the tuning grid). */
+export interface TrainRequestJ {
+  tensorKey: string;
+  kind: TensorKindJ;
+  route: RouteJ;
+  settings?: Partial<ModelSettingsJ>;
+}
+
+export interface ModelSummary {
+  id: string;
+  name: string;
+  request: TrainRequestJ;
+  /** Settings as used (defaults filled in). */
+  settings: ModelSettingsJ | null;
+  species: string[];
+  trainedOn: { datasetId: string | null; datasetName: string; frames: number };
+  /** Cross-validation on the training set (null when the model was loaded from a file without one). */
+  report: ValidationReportJ | null;
+  /** Errors on the frames held out of training (null when none were held out). */
+  test: ValidationReportJ | null;
+}
+
+export interface ApplicabilityJ {
+  maxDistance: number;
+  threshold: number;
+  atomsOutside: number;
+  variance: number;
+  outside: boolean;
+}
+
+export interface FramePredictionJ {
+  frame: number;
+  volumeA3: number;
+  eps: Mat3J;
+  alphaCM: Mat3J;
+  alphaC: Mat3J;
+  /** Principal refractive indices √λ(ε), ascending. */
+  refractive: number[];
+  applicability: ApplicabilityJ;
+  /** The reference tensor of the frame in the model's target kind, if the file has it. */
+  reference: Mat3J | null;
+}
+
+export interface PredictionSummary {
+  id: string;
+  modelId: string;
+  datasetId: string;
+  datasetName: string;
+  frames: FramePredictionJ[];
+  framesOutside: number;
+}
+
+/** One frame's prediction with per-atom detail (for the ellipsoid view). */
+export interface FrameDetail {
+  frame: FrameView;
+  prediction: FramePredictionJ;
+  /** 9 per atom: local contribution (Å³ for route cm). */
+  local: number[];
+  /** Per atom: distance to the nearest training environment. */
+  atomDistance: number[];
+  route: RouteJ;
+  /** Molecule index of each atom (covalent bonds), or null when molecules cannot be found. */
+  molecules: number[] | null;
+}
+
+export interface TrajectoryStats {
+  predictionId: string;
+  frames: number[];
+  /** Per frame: εxx, εyy, εzz, εxy, εxz, εyz. */
+  components: Record<'xx' | 'yy' | 'zz' | 'xy' | 'xz' | 'yz', number[]>;
+  /** Per frame: principal refractive indices (ascending). */
+  refractive: [number[], number[], number[]];
+  /** Running mean of the isotropic ε after each frame. */
+  runningMeanIso: number[];
+  /** Mean of each component over the frames, and its block-averaged standard error. */
+  mean: Record<'xx' | 'yy' | 'zz' | 'xy' | 'xz' | 'yz' | 'iso', { value: number; error: number }>;
+  /** Block sizes tried and the standard error of the isotropic mean at each (plateau = the reported error). */
+  blocking: { blockSize: number; error: number }[];
+  meanRefractive: number[];
+  /** Block-averaged standard error of each mean principal index. */
+  refractiveError: number[];
+  birefringence: number;
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Jobs
+
+export type JobKind = 'train' | 'validate' | 'predict';
+export type JobStateJ = 'queued' | 'running' | 'done' | 'failed' | 'cancelled';
+
+export interface JobEvent {
+  seq: number;
+  /** ms since the job started. */
+  t: number;
+  type: 'progress' | 'log' | 'state';
+  stage?: string;
+  done?: number;
+  total?: number;
+  text?: string;
+  state?: JobStateJ;
+}
+
+export type JobResult =
+  | { kind: 'train'; model: ModelSummary }
+  | { kind: 'validate'; report: ValidationReportJ }
+  | { kind: 'predict'; prediction: PredictionSummary };
+
+export interface JobStatus {
+  id: string;
+  kind: JobKind;
+  state: JobStateJ;
+  progress: { stage: string; done: number; total: number } | null;
+  /** Events after the `since` sequence number asked for. */
+  events: JobEvent[];
+  result: JobResult | null;
+  error: ApiError | null;
+}
+
+export interface AppState {
+  /** The engine's default settings (core/learning/model.ts), shown in the Model view. */
+  defaultSettings: ModelSettingsJ;
+  datasets: DatasetSummary[];
+  models: ModelSummary[];
+  predictions: { id: string; modelId: string; datasetId: string; datasetName: string; frames: number; framesOutside: number }[];
+  jobs: { id: string; kind: JobKind; state: JobStateJ }[];
+}
+
+/** A file to hand to the browser (download) or to a save dialog. */
+export interface FileOut {
+  fileName: string;
+  mime: string;
+  text: string;
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Payload schemas (validated on the receiving side)
+
+const id = z.string().min(1).max(200);
+const finite = z.number().finite();
+const MAX_TEXT = 512 * 1024 * 1024;
+
+export const tensorKindSchema = z.enum(['eps', 'alpha-c', 'alpha-cm']);
+export const routeSchema = z.enum(['cm', 'direct']);
+
+export const modelSettingsSchema = z
+  .object({
+    cutoff: finite.positive().max(20),
+    cutoffWidth: finite.min(0).max(10),
+    sigma: finite.positive().max(5),
+    nmax: z.number().int().min(1).max(20),
+    lmax: z.number().int().min(0).max(12),
+    zeta: z.number().int().min(1).max(8),
+    regularisation: finite.positive().nullable(),
+    sparsePoints: z.number().int().min(0).max(100_000),
+    centres: z.array(z.string().min(1).max(3)).max(120),
+    maxFeatures: z.number().int().min(0).max(1_000_000),
+    seed: z.number().int().min(0).max(2 ** 31 - 1),
+  })
+  .strict();
+
+export const trainRequestSchema = z
+  .object({
+    tensorKey: z.string().min(1).max(200),
+    kind: tensorKindSchema,
+    route: routeSchema,
+    settings: modelSettingsSchema.partial().optional(),
+  })
+  .strict();
+
+const frameList = z.array(z.number().int().min(0)).max(10_000_000);
+
+export const trainParamsSchema = z
+  .object({
+    datasetId: id,
+    /** Frames to train on (default: all not held out). */
+    frames: frameList.optional(),
+    /** Frames held out as a test set (their errors reported separately). */
+    testFrames: frameList.optional(),
+    request: trainRequestSchema,
+    folds: z.number().int().min(2).max(20).default(5),
+    /** Training-set sizes for the learning curve (empty: none). */
+    learningCurve: z.array(z.number().int().min(1)).max(20).default([]),
+    name: z.string().max(200).optional(),
+  })
+  .strict();
+
+export const validateParamsSchema = trainParamsSchema.omit({ name: true, testFrames: true });
+
+export const predictParamsSchema = z
+  .object({ modelId: id, datasetId: id, frames: frameList.optional() })
+  .strict();
+
+export const startJobSchema = z.discriminatedUnion('kind', [
+  z.object({ kind: z.literal('train'), params: trainParamsSchema }).strict(),
+  z.object({ kind: z.literal('validate'), params: validateParamsSchema }).strict(),
+  z.object({ kind: z.literal('predict'), params: predictParamsSchema }).strict(),
+]);
+
+export const openStructuresSchema = z.union([
+  z.object({ name: z.string().min(1).max(500), text: z.string().max(MAX_TEXT) }).strict(),
+  z.object({ name: z.string().min(1).max(500), base64: z.string().max(MAX_TEXT) }).strict(),
+  z.object({ path: z.string().min(1).max(4096) }).strict(),
+]);
+
+/** The CSV holds ε, α_CM and α_c of every predicted frame (the same columns as `polarweave predict`). */
+export const exportCsvSchema = z.object({ predictionId: id }).strict();
+
+export const apiSchemas = {
+  loadDemo: z.object({}).strict(),
+  getState: z.object({}).strict(),
+  openStructures: openStructuresSchema,
+  closeDataset: z.object({ datasetId: id }).strict(),
+  getFrame: z.object({ datasetId: id, index: z.number().int().min(0) }).strict(),
+  startJob: startJobSchema,
+  jobStatus: z.object({ jobId: id, since: z.number().int().min(0).default(0) }).strict(),
+  cancelJob: z.object({ jobId: id }).strict(),
+  getModel: z.object({ modelId: id }).strict(),
+  getPrediction: z.object({ predictionId: id }).strict(),
+  getFrameDetail: z.object({ predictionId: id, index: z.number().int().min(0) }).strict(),
+  trajectoryStats: z.object({ predictionId: id }).strict(),
+  exportCsv: exportCsvSchema,
+  exportModel: z.object({ modelId: id }).strict(),
+  importModel: z.object({ name: z.string().min(1).max(500), text: z.string().max(MAX_TEXT) }).strict(),
+  saveProject: z.object({ ui: z.record(z.string(), z.unknown()).optional() }).strict(),
+  openProject: z.object({ name: z.string().min(1).max(500), text: z.string().max(MAX_TEXT) }).strict(),
+} as const;
+
+export type ApiMethod = keyof typeof apiSchemas;
+/** What a caller sends (defaults may be left out). */
+export type ApiInput<M extends ApiMethod> = z.input<(typeof apiSchemas)[M]>;
+/** What the service receives after validation (defaults filled in). */
+export type ApiParams<M extends ApiMethod> = z.output<(typeof apiSchemas)[M]>;
+
+export interface ApiOutputs {
+  loadDemo: AppState;
+  getState: AppState;
+  openStructures: DatasetSummary;
+  closeDataset: AppState;
+  getFrame: FrameView;
+  startJob: { jobId: string };
+  jobStatus: JobStatus;
+  cancelJob: { jobId: string; state: JobStateJ };
+  getModel: ModelSummary;
+  getPrediction: PredictionSummary;
+  getFrameDetail: FrameDetail;
+  trajectoryStats: TrajectoryStats;
+  exportCsv: FileOut;
+  exportModel: FileOut;
+  importModel: ModelSummary;
+  saveProject: FileOut;
+  openProject: AppState & { ui: Record<string, unknown> | null };
+}
+
+export type ApiOutput<M extends ApiMethod> = ApiOutputs[M];
+
+/** The service behind the contract: one async function per method. */
+export type ApiService = { [M in ApiMethod]: (params: ApiParams<M>) => Promise<ApiOutput<M>> };
+
+export const apiMethods = Object.keys(apiSchemas) as ApiMethod[];
+
+export function isApiMethod(name: string): name is ApiMethod {
+  return Object.prototype.hasOwnProperty.call(apiSchemas, name);
+}
+
+/**
+ * Validates a payload for `method`; throws ApiValidationError with a plain message naming the first bad
+ * field. Used by the IPC handler and the browser host (never trust the other side of a boundary).
+ */
+export function parseParams<M extends ApiMethod>(method: M, payload: unknown): ApiParams<M> {
+  const r = apiSchemas[method].safeParse(payload ?? {});
+  if (!r.success) {
+    const issue = r.error.issues[0];
+    const at = issue?.path.length ? issue.path.join('.') : '(payload)';
+    throw new ApiValidationError(`bad request to ${method}: ${at}: ${issue?.message ?? 'invalid'}`);
+  }
+  return r.data as ApiParams<M>;
+}
+
+export class ApiValidationError extends Error {
+  override name = 'ApiValidationError';
+}
+
+/** Turns any thrown value into the plain ApiError the window shows. */
+export function toApiError(e: unknown): ApiError {
+  if (e && typeof e === 'object') {
+    const o = e as { name?: unknown; message?: unknown; where?: unknown; hint?: unknown };
+    const out: ApiError = { name: typeof o.name === 'string' ? o.name : 'Error', message: typeof o.message === 'string' ? o.message : String(e) };
+    if (o.where && typeof o.where === 'object') {
+      const w = o.where as { file?: unknown; line?: unknown; frame?: unknown };
+      const where: ApiError['where'] = {};
+      if (typeof w.file === 'string') where.file = w.file;
+      if (typeof w.line === 'number') where.line = w.line;
+      if (typeof w.frame === 'number') where.frame = w.frame;
+      if (Object.keys(where).length) out.where = where;
+    }
+    if (typeof o.hint === 'string') out.hint = o.hint;
+    return out;
+  }
+  return { name: 'Error', message: String(e) };
+}

@@ -1,0 +1,396 @@
+// Streaming, parallel, resumable prediction over an extended XYZ trajectory of any length.
+//
+// The main thread cuts selected frames out of the file as raw bytes (io/frame-slices.ts), groups them in
+// batches and hands the batches to a JobRunner ('predict-chunk' task, at most `threads` at once, one batch read
+// ahead). The runner keeps its workers between batches, so loading the code and the model is paid once per
+// thread, not once per batch, and batches can be short (about `batchSeconds`, 5 s) for frequent progress.
+// Results are appended to OUT.partial strictly in frame order. After each batch the partial file is fsynced
+// and OUT.checkpoint.json is written atomically with the model checksum, the input file's size and mtime, the
+// selection, the frames done, the bytes of OUT.partial that hold them and the input position (byte offset,
+// frame index, line) to go on from. A restart with the same arguments truncates OUT.partial to those bytes and
+// continues; when all frames are done OUT.partial is renamed to OUT (atomic) and the checkpoint removed. The
+// output depends only on the model, the input and the selection, never on the batch sizes, the thread count,
+// worker reuse or the interruptions, so a resumed run gives the same bytes as a clean one.
+import { promises as fsp } from 'node:fs';
+import { availableParallelism } from 'node:os';
+import { basename, dirname, resolve } from 'node:path';
+import { CancelledError, InputError, ModelError } from '../../core/errors.ts';
+import { indexExtxyz, type FrameRange } from '../../io/extxyz.ts';
+import { syncFolder, writeFileAtomic } from '../../io/atomic.ts';
+import { parseModel } from '../../io/model-file.ts';
+import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
+import type { TensorCsvOptions } from '../../io/csv.ts';
+import { predictionCsvHeader, selectionText, type Identity, type PredictFormat, type SelectionText } from '../../io/prediction/prediction-text.ts';
+import { sha256Hex, type PredictChunkInput, type PredictChunkOutput } from './predict-tasks.ts';
+import { JobRunner, type WorkerFactory } from '../../jobs/runner.ts';
+import { tsWorkerFactory } from '../../jobs/spawn-ts.ts';
+
+export const CHECKPOINT_FORMAT = 'polarweave-predict-checkpoint';
+
+/**
+ * Default compute time of one batch. Workers are kept between batches, so a batch costs only its messages, an
+ * fsync and a checkpoint (milliseconds): 5 s keeps that well under 1 % while progress and the first results
+ * come often (see bench/trajectory.bench.ts for the measured effect of batch size and worker reuse).
+ */
+export const DEFAULT_BATCH_SECONDS = 5;
+
+export interface StreamProgress {
+  /** Frames written so far (including those of an earlier, interrupted run). */
+  done: number;
+  /** Frames written by this run. */
+  doneThisRun: number;
+  /** Frames the selection holds, when known (shards, or an index). */
+  total: number | null;
+  /** 0…1, from frames when the total is known, else from the bytes read of a plain file; null if unknown. */
+  fraction: number | null;
+  framesPerSecond: number;
+  /** Estimated seconds left; null when no fraction is known yet. */
+  secondsLeft: number | null;
+  resumedFrom: number;
+}
+
+export interface StreamPredictOptions {
+  modelPath: string;
+  input: string;
+  output: string;
+  /** Frames start, start+step, … below stop. */
+  range?: FrameRange;
+  /** Part k (1-based) of n equal parts of the selected frames. */
+  shard?: { k: number; n: number };
+  /** Worker threads (default: the number of cores). */
+  threads?: number;
+  /** auto: continue a matching checkpoint if there is one; resume: insist on one; restart: ignore it. */
+  mode?: 'auto' | 'resume' | 'restart';
+  /** Fixed frames per batch (default: adapted so that a batch takes about `batchSeconds`). */
+  batchFrames?: number;
+  /** Target compute time of one batch in a worker (default 5 s). */
+  batchSeconds?: number;
+  /** Keep workers for the next batches (default true); false starts a fresh worker per batch (for comparison). */
+  reuseWorkers?: boolean;
+  signal?: AbortSignal;
+  onProgress?: (p: StreamProgress) => void;
+  /** Worker factory (default: tsx-loaded app/predict/predict-worker.ts). */
+  spawn?: WorkerFactory;
+  /** Model path as shown in the CSV identity line (default: modelPath). */
+  modelLabel?: string;
+  /** CSV layout for a tensor model (io/csv.ts options; the CLI passes predictionCsvOptions). */
+  csvOptions?: TensorCsvOptions;
+}
+
+export interface StreamPredictResult {
+  output: string;
+  format: PredictFormat;
+  frames: number;
+  /** Frames written by this run. */
+  framesThisRun: number;
+  resumedFrom: number;
+  outside: number;
+  seconds: number;
+  threads: number;
+  modelSha256: string;
+  selection: SelectionText;
+}
+
+interface Checkpoint {
+  format: typeof CHECKPOINT_FORMAT;
+  version: 1;
+  modelSha256: string;
+  input: { path: string; size: number; mtimeMs: number };
+  outputFormat: PredictFormat;
+  selection: SelectionText;
+  shard: { k: number; n: number } | null;
+  framesDone: number;
+  outside: number;
+  partialBytes: number;
+  next: SlicePosition;
+}
+
+export function checkpointPaths(output: string): { partial: string; checkpoint: string } {
+  return { partial: `${output}.partial`, checkpoint: `${output}.checkpoint.json` };
+}
+
+export function outputFormat(output: string): PredictFormat | null {
+  return /\.csv$/i.test(output) ? 'csv' : /\.(ext)?xyz$/i.test(output) ? 'extxyz' : null;
+}
+
+async function readCheckpoint(path: string): Promise<Checkpoint | null> {
+  let text: string;
+  try {
+    text = await fsp.readFile(path, 'utf8');
+  } catch {
+    return null;
+  }
+  try {
+    const c = JSON.parse(text) as Checkpoint;
+    if (c.format !== CHECKPOINT_FORMAT || c.version !== 1) return null;
+    return c;
+  } catch {
+    throw new InputError('the checkpoint file is damaged', { file: path }, 'start again with --restart (the frames done so far are predicted again)');
+  }
+}
+
+function sameSelection(a: SelectionText, b: SelectionText): boolean {
+  return a.start === b.start && a.stop === b.stop && a.step === b.step;
+}
+
+/** Why a checkpoint does not belong to this run (null when it does). */
+function mismatch(c: Checkpoint, want: Omit<Checkpoint, 'framesDone' | 'outside' | 'partialBytes' | 'next' | 'format' | 'version'>): string | null {
+  if (c.modelSha256 !== want.modelSha256) return 'it was made with another model file';
+  if (c.input.size !== want.input.size || c.input.mtimeMs !== want.input.mtimeMs) return 'the input file changed since (size or modification time)';
+  if (basename(c.input.path) !== basename(want.input.path)) return `it is for input ${c.input.path}`;
+  if (c.outputFormat !== want.outputFormat) return 'it is for another output format';
+  if (!sameSelection(c.selection, want.selection)) return `it is for frames ${selectionText(c.selection)}`;
+  if ((c.shard?.k ?? 0) !== (want.shard?.k ?? 0) || (c.shard?.n ?? 0) !== (want.shard?.n ?? 0)) return 'it is for another shard';
+  return null;
+}
+
+/** Resolve --shard k/n into a concrete frame range, using an index of the file (frame count and offsets). */
+async function resolveShard(input: string, range: FrameRange, shard: { k: number; n: number }, signal?: AbortSignal) {
+  const index = await indexExtxyz(input, { signal });
+  const start = range.start ?? 0;
+  const step = range.step ?? 1;
+  const stop = Math.min(range.stop ?? index.frames, index.frames);
+  const count = stop > start ? Math.ceil((stop - start) / step) : 0;
+  const j0 = Math.floor(((shard.k - 1) * count) / shard.n);
+  const j1 = Math.floor((shard.k * count) / shard.n);
+  const a = start + j0 * step;
+  const b = j1 > j0 ? start + (j1 - 1) * step + 1 : a;
+  const from: SlicePosition = a < index.frames ? { offset: index.offsets[a], index: a, line: index.lines[a] } : { offset: index.offsets[index.frames], index: index.frames, line: 1 };
+  return { part: { start: a, stop: b, step }, whole: { start, stop, step }, count: j1 - j0, from, compressed: index.compressed };
+}
+
+function format1(x: number): string {
+  return x.toFixed(1);
+}
+
+/** "1 h 02 min", "3 min 20 s", "12 s". */
+export function formatDuration(seconds: number): string {
+  const s = Math.max(0, Math.round(seconds));
+  if (s >= 3600) return `${Math.floor(s / 3600)} h ${String(Math.floor((s % 3600) / 60)).padStart(2, '0')} min`;
+  if (s >= 60) return `${Math.floor(s / 60)} min ${String(s % 60).padStart(2, '0')} s`;
+  return `${s} s`;
+}
+
+export function progressLine(p: StreamProgress): string {
+  const pct = p.fraction !== null ? ` (${format1(100 * p.fraction)} %)` : '';
+  const of = p.total !== null ? ` of ${p.total}` : '';
+  const left = p.secondsLeft !== null ? `, about ${formatDuration(p.secondsLeft)} left` : '';
+  return `${p.done}${of} frames${pct}, ${format1(p.framesPerSecond)} frames/s${left}`;
+}
+
+export async function streamPredict(opts: StreamPredictOptions): Promise<StreamPredictResult> {
+  const format = outputFormat(opts.output);
+  if (!format) throw new InputError(`cannot tell the output format from "${opts.output}"`, { file: opts.output }, 'use .csv or .extxyz');
+  const threads = Math.max(1, opts.threads ?? availableParallelism());
+  const signal = opts.signal;
+  const started = Date.now();
+  const { partial, checkpoint: ckPath } = checkpointPaths(opts.output);
+
+  // model: checksum of its bytes identifies it in the checkpoint, the CSV header and every worker
+  const modelBytes = await fsp.readFile(opts.modelPath).catch((e: NodeJS.ErrnoException) => {
+    throw new ModelError(`${opts.modelPath}: cannot read the model file (${e.code ?? e.message})`);
+  });
+  const modelSha256 = sha256Hex(modelBytes);
+  const model = parseModel(modelBytes.toString('utf8'), opts.modelPath);
+  if (format === 'extxyz' && model.target.shape !== 'tensor') throw new InputError('extended XYZ output is for tensor models', { file: opts.output }, 'write .csv');
+  if (format === 'csv' && model.target.shape === 'tensor' && !opts.csvOptions) throw new RangeError('streamPredict: a tensor model writing CSV needs csvOptions');
+
+  let stat;
+  try {
+    stat = await fsp.stat(opts.input);
+  } catch {
+    throw new InputError('file not found', { file: opts.input }, 'check the path');
+  }
+  const range = opts.range ?? {};
+  const step = range.step ?? 1;
+  let selection: SelectionText = { start: range.start ?? 0, stop: range.stop ?? null, step };
+  let from: SlicePosition = { offset: 0, index: 0, line: 1 };
+  let total: number | null = null;
+  let shardOf: SelectionText | undefined;
+  if (opts.shard) {
+    const { k, n } = opts.shard;
+    if (!Number.isInteger(n) || n < 1 || !Number.isInteger(k) || k < 1 || k > n) throw new InputError(`bad shard ${k}/${n}`, {}, 'give --shard K/N with 1 ≤ K ≤ N');
+    const r = await resolveShard(opts.input, range, opts.shard, signal);
+    selection = r.part;
+    shardOf = r.whole;
+    total = r.count;
+    from = r.from;
+  }
+  const identity: Identity = {
+    modelPath: opts.modelLabel ?? opts.modelPath,
+    modelSha256,
+    inputName: basename(opts.input),
+    inputBytes: stat.size,
+    frames: opts.shard || opts.range?.start !== undefined || opts.range?.stop !== undefined || step !== 1 ? selection : undefined,
+    shard: opts.shard && shardOf ? { ...opts.shard, of: shardOf } : undefined,
+  };
+  const stamp = {
+    modelSha256,
+    input: `${identity.inputName}:${stat.size}`,
+    shard: opts.shard && shardOf ? `${opts.shard.k}/${opts.shard.n} frames ${selectionText(selection)} of ${selectionText(shardOf)}` : undefined,
+  };
+  const want = {
+    modelSha256,
+    input: { path: resolve(opts.input), size: stat.size, mtimeMs: stat.mtimeMs },
+    outputFormat: format,
+    selection,
+    shard: opts.shard ?? null,
+  };
+
+  // resume or start fresh
+  const mode = opts.mode ?? 'auto';
+  let ck = mode === 'restart' ? null : await readCheckpoint(ckPath);
+  if (ck) {
+    const why = mismatch(ck, want);
+    if (why) throw new InputError(`a checkpoint of an earlier run is here, but ${why}`, { file: ckPath }, 'run with --restart to start again (or use another output name)');
+    const size = (await fsp.stat(partial).catch(() => null))?.size ?? -1;
+    if (size < ck.partialBytes) throw new InputError(`the partial output holds ${Math.max(size, 0)} bytes, the checkpoint expects ${ck.partialBytes}`, { file: partial }, 'run with --restart to start again');
+  } else if (mode === 'resume') {
+    throw new InputError('no checkpoint to resume from', { file: ckPath }, 'run without --resume to start');
+  }
+  const resumedFrom = ck?.framesDone ?? 0;
+  let framesDone = resumedFrom;
+  let outside = ck?.outside ?? 0;
+  let partialBytes = ck?.partialBytes ?? 0;
+  if (ck) from = ck.next;
+
+  const fh = await fsp.open(partial, ck ? 'r+' : 'w');
+  let runner: JobRunner | null = null;
+  const inFlight = new Map<number, { promise: Promise<PredictChunkOutput>; next: SlicePosition; frames: number }>();
+  try {
+    if (ck) await fh.truncate(ck.partialBytes);
+    else if (format === 'csv') {
+      const head = Buffer.from(predictionCsvHeader(model, identity, opts.csvOptions), 'utf8');
+      await fh.write(head, 0, head.length, 0);
+      partialBytes = head.length;
+    }
+    const writeCheckpoint = async (next: SlicePosition) => {
+      const c: Checkpoint = { format: CHECKPOINT_FORMAT, version: 1, ...want, framesDone, outside, partialBytes, next };
+      await writeFileAtomic(ckPath, JSON.stringify(c, null, 1) + '\n');
+    };
+    if (!ck) {
+      await fh.sync();
+      await writeCheckpoint(from);
+    }
+
+    // 'predict-chunk' leaves only its model cache behind, keyed on path and checksum: safe to reuse workers
+    runner = new JobRunner({
+      spawn: opts.spawn ?? tsWorkerFactory(new URL('./predict-worker.ts', import.meta.url)),
+      concurrency: threads,
+      graceMs: 500,
+      reuseWorkers: opts.reuseWorkers ?? true,
+    });
+    let batchSize = opts.batchFrames ?? 4 * threads;
+    const targetMs = 1000 * (opts.batchSeconds ?? DEFAULT_BATCH_SECONDS);
+    let seq = 0;
+    let written = 0;
+    let lastOffset = from.offset;
+    const fileBytes = stat.size;
+    const compressed = !!(await isGzipFile(opts.input));
+    const report = () => {
+      if (!opts.onProgress) return;
+      const secs = (Date.now() - started) / 1000;
+      const doneThisRun = framesDone - resumedFrom;
+      let fraction: number | null = null;
+      let startFraction = 0;
+      if (total !== null) {
+        fraction = total === 0 ? 1 : framesDone / total;
+        startFraction = total === 0 ? 0 : resumedFrom / total;
+      } else if (!compressed && fileBytes > 0) {
+        fraction = Math.min(1, lastOffset / fileBytes);
+        startFraction = Math.min(1, (ck?.next.offset ?? 0) / fileBytes);
+      }
+      const gained = fraction !== null ? fraction - startFraction : 0;
+      const secondsLeft = fraction !== null && gained > 0 ? (secs * (1 - fraction)) / gained : null;
+      opts.onProgress({ done: framesDone, doneThisRun, total, fraction, framesPerSecond: secs > 0 ? doneThisRun / secs : 0, secondsLeft, resumedFrom });
+    };
+
+    const drainOne = async () => {
+      const entry = inFlight.get(written);
+      if (!entry) return;
+      const r = await entry.promise;
+      inFlight.delete(written);
+      written++;
+      const buf = Buffer.from(r.text, 'utf8');
+      let off = 0;
+      while (off < buf.length) {
+        const { bytesWritten } = await fh.write(buf, off, buf.length - off, partialBytes + off);
+        off += bytesWritten;
+      }
+      partialBytes += buf.length;
+      framesDone += r.index.length;
+      for (const o of r.outside) if (o) outside++;
+      await fh.sync();
+      lastOffset = entry.next.offset;
+      await writeCheckpoint(entry.next);
+      if (opts.batchFrames === undefined && entry.frames > 0) {
+        // size batches by the workers' own compute time per frame (worker start-up excluded), so that one batch
+        // takes about batchSeconds: the per-batch cost (messages, fsync, checkpoint) is then a small share
+        const perFrame = r.computeMs / entry.frames;
+        batchSize = Math.max(1, Math.min(5000, Math.round(targetMs / Math.max(perFrame, 0.01))));
+      }
+      report();
+    };
+
+    const submit = (frames: PredictChunkInput['frames'], next: SlicePosition) => {
+      const input: PredictChunkInput = { modelPath: resolve(opts.modelPath), modelSha256, file: opts.input, format, stamp, frames, csvOptions: opts.csvOptions };
+      const promise = (runner as JobRunner).run<PredictChunkOutput>('predict-chunk', input, { signal });
+      promise.catch(() => undefined); // awaited in order by drainOne
+      inFlight.set(seq++, { promise, next, frames: frames.length });
+    };
+
+    const stop = selection.stop;
+    const decide = (k: number) => (stop !== null && k >= stop ? 'stop' : k < selection.start || (k - selection.start) % step !== 0 ? 'skip' : 'take') as 'take' | 'skip' | 'stop';
+    let batch: PredictChunkInput['frames'] = [];
+    let batchBytes = 0;
+    let pos = from;
+    for await (const s of frameSlices(opts.input, from, decide, signal)) {
+      pos = s.next;
+      if (s.bytes) {
+        batch.push({ index: s.index, line: s.line, bytes: new Uint8Array(s.bytes.buffer, s.bytes.byteOffset, s.bytes.byteLength) });
+        batchBytes += s.bytes.length;
+      }
+      if (batch.length >= batchSize || batchBytes > 16 << 20) {
+        submit(batch, pos);
+        batch = [];
+        batchBytes = 0;
+        while (inFlight.size > threads) await drainOne();
+      }
+      if (signal?.aborted) throw new CancelledError();
+    }
+    if (batch.length > 0) submit(batch, pos);
+    while (inFlight.size > 0) await drainOne();
+    if (signal?.aborted) throw new CancelledError();
+
+    await fh.sync();
+    await fh.close();
+    await fsp.rename(partial, opts.output);
+    await fsp.rm(ckPath, { force: true });
+    await syncFolder(dirname(resolve(opts.output)));
+    return { output: opts.output, format, frames: framesDone, framesThisRun: framesDone - resumedFrom, resumedFrom, outside, seconds: (Date.now() - started) / 1000, threads, modelSha256, selection };
+  } catch (e) {
+    runner?.cancelAll();
+    await Promise.allSettled([...inFlight.values()].map((x) => x.promise));
+    await fh.close().catch(() => undefined);
+    if (signal?.aborted && !(e instanceof InputError)) {
+      // stopped before anything worth keeping: leave nothing behind
+      if (framesDone === 0 && !ck) await Promise.all([fsp.rm(partial, { force: true }), fsp.rm(ckPath, { force: true })]);
+      throw new CancelledError();
+    }
+    throw e;
+  } finally {
+    // idle workers are unref'd and would not hold the process, but they hold memory (the model): free them now
+    await runner?.close();
+  }
+}
+
+async function isGzipFile(file: string): Promise<boolean> {
+  const fh = await fsp.open(file, 'r');
+  try {
+    const head = Buffer.alloc(2);
+    const { bytesRead } = await fh.read(head, 0, 2, 0);
+    return bytesRead === 2 && head[0] === 0x1f && head[1] === 0x8b;
+  } finally {
+    await fh.close();
+  }
+}

@@ -1,0 +1,536 @@
+// The service behind api/contract.ts: holds the open datasets, trained models and predictions of one session, runs
+// long work (train, validate, predict) through the job runner, and answers the window's questions. The
+// Electron shell and the browser host both wrap one instance; neither adds behaviour of its own.
+import { readdir } from 'node:fs/promises';
+import { basename, join } from 'node:path';
+import { gunzipSync } from 'fflate';
+import type {
+  ApiOutput,
+  ApiParams,
+  ApiService,
+  AppState,
+  DatasetSummary,
+  FileOut,
+  FramePredictionJ,
+  FrameView,
+  JobEvent,
+  JobKind,
+  JobResult,
+  JobStatus,
+  ModelSummary,
+  PredictionSummary,
+  TrajectoryStats,
+  ValidationReportJ,
+} from '../api/contract.ts';
+import { toApiError, ApiValidationError } from '../api/contract.ts';
+import type { Frame } from '../core/geometry/frame.ts';
+import { DEFAULT_SETTINGS, type Model } from '../core/learning/model.ts';
+import { InputError, ModelError } from '../core/errors.ts';
+import { findMolecules } from '../core/geometry/molecules.ts';
+import { blockAverage, runningMean } from '../core/trajectory/statistics.ts';
+import type { JobHandle, JobRunner } from '../jobs/runner.ts';
+import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './task-types.ts';
+import { summariseDataset } from './dataset-summary.ts';
+import { frameView } from './frame-json.ts';
+import { predictionsCsv } from './export-csv.ts';
+import { PROJECT_FORMAT, PROJECT_VERSION, parseProject, type ProjectFile, type ProjectDataset } from './project-file.ts';
+
+/** How a model file is written and read (io/model-file.ts), injected so the service stays testable. */
+export interface ModelCodec {
+  serialise(model: unknown): string;
+  parse(text: string, fileName: string): unknown;
+}
+
+/** Structure readers by file kind (io/read-structures.ts and friends). */
+export interface StructureReaders {
+  /** Frames from file text; `fileName` picks the reader (.xyz/.extxyz, .cif) and names errors. */
+  parseText(text: string, fileName: string): Frame[];
+  /** Frames from a file on disk (streaming, gzip allowed). */
+  readPath(path: string): Promise<Frame[]>;
+}
+
+export interface ServiceOptions {
+  runner: JobRunner;
+  codec: ModelCodec;
+  readers: StructureReaders;
+  /** Folder with the demo's *.extxyz.gz files. */
+  demoDir: string;
+}
+
+type DatasetOrigin = ProjectDataset['origin'];
+
+interface DatasetRecord {
+  summary: DatasetSummary;
+  frames: Frame[];
+  origin: DatasetOrigin;
+}
+
+interface ModelRecord {
+  summary: ModelSummary;
+  model: unknown;
+}
+
+interface PredictionRecord {
+  summary: PredictionSummary;
+  route: 'cm' | 'direct';
+  local: number[][];
+  atomDistance: number[][];
+}
+
+interface JobRecord {
+  id: string;
+  kind: JobKind;
+  handle: JobHandle<unknown>;
+  started: number;
+  events: JobEvent[];
+  result: JobResult | null;
+  error: ReturnType<typeof toApiError> | null;
+  settled: boolean;
+}
+
+const MAX_EVENTS_PER_POLL = 500;
+
+function decodeUpload(name: string, payload: { text?: string; base64?: string }): string {
+  if (payload.text !== undefined) return payload.text;
+  const bytes = Buffer.from(payload.base64 ?? '', 'base64');
+  if (bytes.length >= 2 && bytes[0] === 0x1f && bytes[1] === 0x8b) {
+    try {
+      return Buffer.from(gunzipSync(bytes)).toString('utf8');
+    } catch (e) {
+      throw new InputError(`the gzip data is damaged or truncated (${(e as Error).message})`, { file: name }, 'copy the file again');
+    }
+  }
+  return bytes.toString('utf8');
+}
+
+export class AppService implements ApiService {
+  private readonly datasets = new Map<string, DatasetRecord>();
+  private readonly models = new Map<string, ModelRecord>();
+  private readonly predictions = new Map<string, PredictionRecord>();
+  private readonly jobs = new Map<string, JobRecord>();
+  private counter = 0;
+
+  constructor(private readonly options: ServiceOptions) {}
+
+  private nextId(prefix: string): string {
+    return `${prefix}${++this.counter}`;
+  }
+
+  private dataset(id: string): DatasetRecord {
+    const d = this.datasets.get(id);
+    if (!d) throw new ApiValidationError(`no open dataset "${id}" (it may have been closed)`);
+    return d;
+  }
+
+  private modelRecord(id: string): ModelRecord {
+    const m = this.models.get(id);
+    if (!m) throw new ApiValidationError(`no model "${id}" in this session`);
+    return m;
+  }
+
+  private predictionRecord(id: string): PredictionRecord {
+    const p = this.predictions.get(id);
+    if (!p) throw new ApiValidationError(`no prediction "${id}" in this session`);
+    return p;
+  }
+
+  private addDataset(name: string, frames: Frame[], origin: DatasetOrigin, kind: DatasetSummary['origin']): DatasetSummary {
+    if (frames.length === 0) throw new InputError('the file holds no frames', { file: name }, 'check that it is an extended XYZ or CIF file');
+    const id = this.nextId('d');
+    const summary = summariseDataset(id, name, frames, kind);
+    this.datasets.set(id, { summary, frames, origin });
+    return summary;
+  }
+
+  // ------------------------------------------------------------------------------------------------------
+  // Data
+
+  async openStructures(params: ApiParams<'openStructures'>): Promise<DatasetSummary> {
+    if ('path' in params) {
+      const frames = await this.options.readers.readPath(params.path);
+      return this.addDataset(basename(params.path), frames, { kind: 'path', path: params.path }, 'file');
+    }
+    const text = decodeUpload(params.name, params);
+    const name = params.name.replace(/\.gz$/i, '');
+    const frames = this.options.readers.parseText(text, name);
+    return this.addDataset(params.name, frames, { kind: 'embedded', name, text }, 'upload');
+  }
+
+  async loadDemo(): Promise<AppState> {
+    const dir = this.options.demoDir;
+    const files = (await readdir(dir).catch(() => [] as string[])).filter((f) => /\.(ext)?xyz(\.gz)?$/i.test(f)).sort();
+    if (files.length === 0) {
+      throw new InputError('the demo data is missing', { file: dir }, 'reinstall the app, or run `npm run demo:generate` in a source checkout');
+    }
+    for (const f of files) {
+      if ([...this.datasets.values()].some((d) => d.origin.kind === 'demo' && d.origin.file === f)) continue;
+      const frames = await this.options.readers.readPath(join(dir, f));
+      this.addDataset(f.replace(/\.gz$/i, ''), frames, { kind: 'demo', file: f }, 'demo');
+    }
+    return this.getState();
+  }
+
+  async closeDataset(params: ApiParams<'closeDataset'>): Promise<AppState> {
+    this.dataset(params.datasetId);
+    this.datasets.delete(params.datasetId);
+    return this.getState();
+  }
+
+  async getFrame(params: ApiParams<'getFrame'>): Promise<FrameView> {
+    const d = this.dataset(params.datasetId);
+    const frame = d.frames[params.index];
+    if (!frame) throw new ApiValidationError(`${d.summary.name} has ${d.frames.length} frames; there is no frame ${params.index}`);
+    return frameView(params.datasetId, params.index, frame);
+  }
+
+  async getState(): Promise<AppState> {
+    return {
+      defaultSettings: { ...DEFAULT_SETTINGS, centres: [...DEFAULT_SETTINGS.centres] },
+      datasets: [...this.datasets.values()].map((d) => d.summary),
+      models: [...this.models.values()].map((m) => m.summary),
+      predictions: [...this.predictions.values()].map((p) => ({
+        id: p.summary.id,
+        modelId: p.summary.modelId,
+        datasetId: p.summary.datasetId,
+        datasetName: p.summary.datasetName,
+        frames: p.summary.frames.length,
+        framesOutside: p.summary.framesOutside,
+      })),
+      jobs: [...this.jobs.values()].map((j) => ({ id: j.id, kind: j.kind, state: j.handle.state() })),
+    };
+  }
+
+  // ------------------------------------------------------------------------------------------------------
+  // Jobs
+
+  private selectFrames(d: DatasetRecord, indices: number[] | undefined, exclude: number[] = []): number[] {
+    const skip = new Set(exclude);
+    const all = indices ?? d.frames.map((_, i) => i);
+    for (const i of all) {
+      if (i >= d.frames.length) throw new ApiValidationError(`${d.summary.name} has ${d.frames.length} frames; there is no frame ${i}`);
+    }
+    return all.filter((i) => !skip.has(i));
+  }
+
+  private checkTensorKey(d: DatasetRecord, key: string, indices: number[]): void {
+    for (const i of indices) {
+      const v = d.frames[i].info[key];
+      if (!Array.isArray(v) || (v.length !== 9 && v.length !== 6)) {
+        const src = d.frames[i].source;
+        throw new InputError(
+          `frame has no tensor "${key}" (9 or 6 numbers)`,
+          { file: src?.file ?? d.summary.name, line: src?.line, frame: i },
+          `choose a tensor key the file has: ${d.summary.tensorKeys.map((t) => t.key).join(', ') || 'none found'}`,
+        );
+      }
+    }
+  }
+
+  async startJob(params: ApiParams<'startJob'>): Promise<{ jobId: string }> {
+    const id = this.nextId('job');
+    const record: Omit<JobRecord, 'handle'> & { handle?: JobHandle<unknown> } = {
+      id,
+      kind: params.kind,
+      started: Date.now(),
+      events: [],
+      result: null,
+      error: null,
+      settled: false,
+    };
+    const push = (e: Omit<JobEvent, 'seq' | 't'>) => record.events.push({ seq: record.events.length + 1, t: Date.now() - record.started, ...e });
+    const hooks = {
+      onProgress: (p: { stage: string; done: number; total: number }) => push({ type: 'progress', ...p }),
+      onLog: (text: string) => push({ type: 'log', text }),
+    };
+    let finish: (value: unknown) => JobResult;
+    if (params.kind === 'train' || params.kind === 'validate') {
+      const p = params.params;
+      const d = this.dataset(p.datasetId);
+      const test = params.kind === 'train' && params.params.testFrames ? this.selectFrames(d, params.params.testFrames) : [];
+      const train = this.selectFrames(d, p.frames, test);
+      if (train.length < p.folds) throw new ApiValidationError(`${train.length} training frames cannot be split into ${p.folds} folds; use fewer folds or more frames`);
+      this.checkTensorKey(d, p.request.tensorKey, [...train, ...test]);
+      const base = { request: p.request, folds: p.folds, learningCurve: p.learningCurve, frameIndices: train, frames: train.map((i) => d.frames[i]) };
+      if (params.kind === 'train') {
+        const input: TrainTaskInput = { ...base, testIndices: test, testFrames: test.map((i) => d.frames[i]) };
+        record.handle = this.options.runner.start('train', input, hooks);
+        const name = params.params.name;
+        finish = (value) => {
+          const out = value as TrainTaskOutput;
+          const summary = this.registerModel(out.model, {
+            name: name ?? `${p.request.route === 'cm' ? 'CM' : 'direct'} model of ${d.summary.name}`,
+            request: p.request,
+            trainedOn: { datasetId: d.summary.id, datasetName: d.summary.name, frames: train.length },
+            report: out.report,
+            test: out.test,
+          });
+          return { kind: 'train', model: summary };
+        };
+      } else {
+        const input: ValidateTaskInput = base;
+        record.handle = this.options.runner.start('validate', input, hooks);
+        finish = (value) => ({ kind: 'validate', report: value as ValidationReportJ });
+      }
+    } else {
+      const p = params.params;
+      const m = this.modelRecord(p.modelId);
+      const d = this.dataset(p.datasetId);
+      const indices = this.selectFrames(d, p.frames);
+      const input: PredictTaskInput = {
+        model: m.model,
+        frames: indices.map((i) => d.frames[i]),
+        frameIndices: indices,
+        reference: { key: m.summary.request.tensorKey, kind: m.summary.request.kind },
+      };
+      record.handle = this.options.runner.start('predict', input, hooks);
+      finish = (value) => {
+        const out = value as PredictTaskOutput;
+        const pid = this.nextId('p');
+        const frames: FramePredictionJ[] = out.frames;
+        const summary: PredictionSummary = {
+          id: pid,
+          modelId: m.summary.id,
+          datasetId: d.summary.id,
+          datasetName: d.summary.name,
+          frames,
+          framesOutside: frames.filter((f) => f.applicability.outside).length,
+        };
+        this.predictions.set(pid, { summary, route: m.summary.request.route, local: out.local, atomDistance: out.atomDistance });
+        return { kind: 'predict', prediction: summary };
+      };
+    }
+    const job = record as JobRecord;
+    this.jobs.set(id, job);
+    push({ type: 'state', state: 'running' });
+    job.handle.result.then(
+      (value) => {
+        try {
+          job.result = finish(value);
+          push({ type: 'state', state: 'done' });
+        } catch (e) {
+          job.error = toApiError(e);
+          push({ type: 'state', state: 'failed' });
+        }
+        job.settled = true;
+      },
+      (e) => {
+        job.error = toApiError(e);
+        push({ type: 'state', state: job.handle.state() === 'cancelled' ? 'cancelled' : 'failed' });
+        job.settled = true;
+      },
+    );
+    return { jobId: id };
+  }
+
+  async jobStatus(params: ApiParams<'jobStatus'>): Promise<JobStatus> {
+    const j = this.jobs.get(params.jobId);
+    if (!j) throw new ApiValidationError(`no job "${params.jobId}"`);
+    // The handle may say 'done' a moment before the result is registered; report 'running' until then.
+    const raw = j.handle.state();
+    const state = (raw === 'done' || raw === 'failed' || raw === 'cancelled') && !j.settled ? 'running' : raw === 'done' && j.error ? 'failed' : raw;
+    return {
+      id: j.id,
+      kind: j.kind,
+      state,
+      progress: j.handle.progress(),
+      events: j.events.filter((e) => e.seq > params.since).slice(0, MAX_EVENTS_PER_POLL),
+      result: j.settled ? j.result : null,
+      error: j.settled ? j.error : null,
+    };
+  }
+
+  async cancelJob(params: ApiParams<'cancelJob'>): Promise<ApiOutput<'cancelJob'>> {
+    const j = this.jobs.get(params.jobId);
+    if (!j) throw new ApiValidationError(`no job "${params.jobId}"`);
+    j.handle.cancel();
+    return { jobId: j.id, state: j.handle.state() };
+  }
+
+  /** Waits for a job to settle (tests and scripts). */
+  async waitForJob(jobId: string): Promise<JobStatus> {
+    const j = this.jobs.get(jobId);
+    if (!j) throw new ApiValidationError(`no job "${jobId}"`);
+    await j.handle.result.catch(() => undefined);
+    while (!j.settled) await new Promise((r) => setTimeout(r, 5));
+    return this.jobStatus({ jobId, since: 0 });
+  }
+
+  // ------------------------------------------------------------------------------------------------------
+  // Models and predictions
+
+  private registerModel(
+    model: unknown,
+    info: Pick<ModelSummary, 'name' | 'request' | 'trainedOn' | 'report' | 'test'>,
+  ): ModelSummary {
+    const id = this.nextId('m');
+    const m = model as { settings?: ModelSummary['settings']; species?: string[] } | null;
+    const summary: ModelSummary = {
+      id,
+      ...info,
+      settings: m?.settings && typeof m.settings === 'object' ? { ...m.settings } : null,
+      species: Array.isArray(m?.species) ? [...m.species] : [],
+    };
+    this.models.set(id, { summary, model });
+    return summary;
+  }
+
+  async getModel(params: ApiParams<'getModel'>): Promise<ModelSummary> {
+    return this.modelRecord(params.modelId).summary;
+  }
+
+  async getPrediction(params: ApiParams<'getPrediction'>): Promise<PredictionSummary> {
+    return this.predictionRecord(params.predictionId).summary;
+  }
+
+  async getFrameDetail(params: ApiParams<'getFrameDetail'>): Promise<ApiOutput<'getFrameDetail'>> {
+    const p = this.predictionRecord(params.predictionId);
+    const k = p.summary.frames.findIndex((f) => f.frame === params.index);
+    if (k < 0) throw new ApiValidationError(`prediction ${p.summary.id} has no frame ${params.index}`);
+    const d = this.dataset(p.summary.datasetId);
+    let molecules: number[] | null = null;
+    try {
+      molecules = Array.from(findMolecules(d.frames[params.index]).molecule);
+    } catch {
+      molecules = null; // an element without a covalent radius: per-atom view only
+    }
+    return {
+      molecules,
+      frame: frameView(d.summary.id, params.index, d.frames[params.index]),
+      prediction: p.summary.frames[k],
+      local: p.local[k],
+      atomDistance: p.atomDistance[k],
+      route: p.route,
+    };
+  }
+
+  async trajectoryStats(params: ApiParams<'trajectoryStats'>): Promise<TrajectoryStats> {
+    const p = this.predictionRecord(params.predictionId);
+    const fr = p.summary.frames;
+    if (fr.length < 2) throw new ApiValidationError('a trajectory needs at least two predicted frames');
+    const pick = (i: number) => fr.map((f) => f.eps[i]);
+    const components = { xx: pick(0), yy: pick(4), zz: pick(8), xy: pick(1), xz: pick(2), yz: pick(5) };
+    const iso = fr.map((f) => (f.eps[0] + f.eps[4] + f.eps[8]) / 3);
+    const ba = (xs: number[]) => {
+      const b = blockAverage(xs);
+      return { value: b.mean, error: b.standardError };
+    };
+    const isoBlock = blockAverage(iso);
+    const refractiveBlocks = [0, 1, 2].map((c) => blockAverage(fr.map((f) => f.refractive[c])));
+    const meanRefractive = refractiveBlocks.map((b) => b.mean);
+    return {
+      predictionId: p.summary.id,
+      frames: fr.map((f) => f.frame),
+      components,
+      refractive: [fr.map((f) => f.refractive[0]), fr.map((f) => f.refractive[1]), fr.map((f) => f.refractive[2])],
+      runningMeanIso: Array.from(runningMean(iso)),
+      mean: {
+        xx: ba(components.xx),
+        yy: ba(components.yy),
+        zz: ba(components.zz),
+        xy: ba(components.xy),
+        xz: ba(components.xz),
+        yz: ba(components.yz),
+        iso: { value: isoBlock.mean, error: isoBlock.standardError },
+      },
+      blocking: isoBlock.levels.map((l) => ({ blockSize: l.blockSize, error: l.standardError })),
+      meanRefractive,
+      refractiveError: refractiveBlocks.map((b) => b.standardError),
+      birefringence: Math.max(...meanRefractive) - Math.min(...meanRefractive),
+    };
+  }
+
+  // ------------------------------------------------------------------------------------------------------
+  // Export and projects
+
+  async exportCsv(params: ApiParams<'exportCsv'>): Promise<FileOut> {
+    const p = this.predictionRecord(params.predictionId);
+    const d = this.dataset(p.summary.datasetId);
+    const m = this.modelRecord(p.summary.modelId);
+    const text = predictionsCsv(p.summary.frames, p.local, p.atomDistance, d.frames, m.model as Model, m.summary.name);
+    const stem = d.summary.name.replace(/\.(ext)?xyz$|\.cif$/i, '');
+    return { fileName: `${stem}-predicted.csv`, mime: 'text/csv', text };
+  }
+
+  async exportModel(params: ApiParams<'exportModel'>): Promise<FileOut> {
+    const m = this.modelRecord(params.modelId);
+    const stem = m.summary.name.replace(/[^A-Za-z0-9._-]+/g, '-').replace(/^-+|-+$/g, '') || 'model';
+    return { fileName: `${stem}.pwmodel.json`, mime: 'application/json', text: this.options.codec.serialise(m.model) };
+  }
+
+  async importModel(params: ApiParams<'importModel'>): Promise<ModelSummary> {
+    const model = this.options.codec.parse(params.text, params.name);
+    const target = (model as { target?: { key?: unknown; kind?: unknown; route?: unknown; shape?: unknown } } | null)?.target;
+    if (!target || typeof target.key !== 'string' || (target.route !== 'cm' && target.route !== 'direct')) {
+      throw new ModelError(`${params.name}: the model file does not say what it was trained on (no target)`);
+    }
+    if (target.shape !== undefined && target.shape !== 'tensor') {
+      throw new ModelError(`${params.name}: this model predicts a ${String(target.shape)}, not a cell tensor; use it with \`polarweave predict\``);
+    }
+    const kind = target.kind === 'eps' || target.kind === 'alpha-c' || target.kind === 'alpha-cm' ? target.kind : 'eps';
+    return this.registerModel(model, {
+      name: params.name.replace(/\.pwmodel\.json$|\.json$/i, ''),
+      request: { tensorKey: target.key, kind, route: target.route },
+      trainedOn: { datasetId: null, datasetName: params.name, frames: 0 },
+      report: null,
+      test: null,
+    });
+  }
+
+  async saveProject(params: ApiParams<'saveProject'>): Promise<FileOut> {
+    const project: ProjectFile = {
+      format: PROJECT_FORMAT,
+      version: PROJECT_VERSION,
+      savedAt: new Date().toISOString(),
+      datasets: [...this.datasets.values()].map((d) => ({ id: d.summary.id, name: d.summary.name, origin: d.origin })),
+      models: [...this.models.values()].map((m) => ({ summary: m.summary, model: this.options.codec.serialise(m.model) })),
+      predictions: [...this.predictions.values()].map((p) => ({ summary: p.summary, route: p.route, local: p.local, atomDistance: p.atomDistance })),
+      ui: params.ui ?? {},
+    };
+    return { fileName: 'polarweave-project.pwproj.json', mime: 'application/json', text: JSON.stringify(project) };
+  }
+
+  async openProject(params: ApiParams<'openProject'>): Promise<ApiOutput<'openProject'>> {
+    const project = parseProject(params.text, params.name);
+    // Read everything first; replace the session only when the whole project loaded.
+    const datasets = new Map<string, DatasetRecord>();
+    const idMap = new Map<string, string>();
+    for (const ds of project.datasets) {
+      let frames: Frame[];
+      if (ds.origin.kind === 'demo') frames = await this.options.readers.readPath(join(this.options.demoDir, ds.origin.file));
+      else if (ds.origin.kind === 'path') frames = await this.options.readers.readPath(ds.origin.path);
+      else frames = this.options.readers.parseText(ds.origin.text, ds.origin.name);
+      const id = this.nextId('d');
+      idMap.set(ds.id, id);
+      datasets.set(id, { summary: summariseDataset(id, ds.name, frames, ds.origin.kind === 'demo' ? 'demo' : 'project'), frames, origin: ds.origin });
+    }
+    const models = new Map<string, ModelRecord>();
+    const modelIds = new Map<string, string>();
+    for (const m of project.models) {
+      const model = this.options.codec.parse(m.model, `${params.name} (model ${m.summary.name})`);
+      const id = this.nextId('m');
+      modelIds.set(m.summary.id, id);
+      const trainedOn = { ...m.summary.trainedOn, datasetId: m.summary.trainedOn.datasetId ? idMap.get(m.summary.trainedOn.datasetId) ?? null : null };
+      models.set(id, { summary: { ...m.summary, id, trainedOn }, model });
+    }
+    const predictions = new Map<string, PredictionRecord>();
+    for (const p of project.predictions) {
+      const modelId = modelIds.get(p.summary.modelId);
+      const datasetId = idMap.get(p.summary.datasetId);
+      if (!modelId || !datasetId) continue; // its model or data did not come along
+      const id = this.nextId('p');
+      predictions.set(id, { summary: { ...p.summary, id, modelId, datasetId }, route: p.route, local: p.local, atomDistance: p.atomDistance });
+    }
+    this.datasets.clear();
+    this.models.clear();
+    this.predictions.clear();
+    for (const [k, v] of datasets) this.datasets.set(k, v);
+    for (const [k, v] of models) this.models.set(k, v);
+    for (const [k, v] of predictions) this.predictions.set(k, v);
+    return { ...(await this.getState()), ui: project.ui ?? null };
+  }
+
+  /** Stops every running job (window closed, host stopped). */
+  dispose(): void {
+    this.options.runner.cancelAll();
+  }
+}

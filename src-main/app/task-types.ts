@@ -1,0 +1,44 @@
+// Inputs and outputs of the app's job tasks (train, validate, predict), shared by the service (which starts
+// them) and the worker (app-tasks.ts, which runs them). Everything here crosses a thread boundary, so it is
+// structured-clone safe: frames with typed arrays, models as plain objects, results as plain JSON.
+import type { FramePredictionJ, TensorKindJ, TrainRequestJ, ValidationReportJ } from '../api/contract.ts';
+import type { Frame } from '../core/geometry/frame.ts';
+
+export interface ValidateTaskInput {
+  request: TrainRequestJ;
+  folds: number;
+  /** Training-set sizes for the learning curve (empty: none). */
+  learningCurve: number[];
+  frames: Frame[];
+  /** Index in the dataset of each frame (parity points are reported with these). */
+  frameIndices: number[];
+}
+
+export interface TrainTaskInput extends ValidateTaskInput {
+  /** Frames held out of training, predicted after it; their errors are the test report. */
+  testFrames: Frame[];
+  testIndices: number[];
+}
+
+export interface TrainTaskOutput {
+  /** The trained model (plain JSON-serialisable object of core/learning/model.ts). */
+  model: unknown;
+  report: ValidationReportJ;
+  test: ValidationReportJ | null;
+}
+
+export interface PredictTaskInput {
+  model: unknown;
+  frames: Frame[];
+  frameIndices: number[];
+  /** The model's reference key and kind: when a frame carries it, its ε is reported beside the prediction. */
+  reference: { key: string; kind: TensorKindJ };
+}
+
+export interface PredictTaskOutput {
+  frames: FramePredictionJ[];
+  /** Per frame: 9 numbers per atom (local contributions). */
+  local: number[][];
+  /** Per frame: per-atom distance to the nearest training environment. */
+  atomDistance: number[][];
+}

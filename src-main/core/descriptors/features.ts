@@ -1,0 +1,618 @@
+// Symmetry-adapted local features of every centre atom of a frame (science notes §4): the λ = 0 power spectrum
+// and the λ = 1, 2 equivariant couplings of the density coefficients c^a_nlm(i) of density.ts, in the layout of
+// EnvironmentFeatures (feature-types.ts). This is the hot loop of training and prediction: all scratch lives in
+// a per-settings plan reused across environments; no allocation per pair or per environment.
+//
+// Layouts and weights (docs/learning-engine.md):
+// - Channels ch = a·nmax + n (a: index into settings.species).
+// - λ = 0: feature f = pair·(lmax+1) + l over the unique channel pairs ch1 ≤ ch2 (ch1 outer), value
+//     w · (2l+1)^(−1/2) Σ_m c_{ch1,lm} c_{ch2,lm},   w = √2 for ch1 < ch2, 1 for ch1 = ch2,
+//   so the dot product of two stored rows equals that of the full (all ordered pairs) power spectra.
+// - λ = 1, 2: blocks (l, l') with l ≤ l', |l − l'| ≤ λ ≤ l + l' and l + l' + λ even (proper tensors only),
+//   l ascending then l'; in each block the channel pairs (tensor channels n < nmaxTensor): all ordered pairs
+//   when l < l', ch1 ≤ ch2 when l = l'. Value w Σ_{m m'} C^{λμ}_{lm,l'm'} c_{ch1,lm} c_{ch2,l'm'} with w = √2
+//   unless (l, ch1) = (l', ch2): the real Clebsch–Gordan coefficients with l + l' + λ even are symmetric under
+//   swapping the two factors, so again the stored dot product equals that of all ordered pairs.
+// - Every environment's block has unit norm (λ = 0: its row; λ > 0: its (2λ+1)×nλ block); a block whose norm is
+//   zero (e.g. λ = 2 of an atom with no neighbours) stays zero.
+import { InputError } from '../errors.ts';
+import type { Frame } from '../geometry/frame.ts';
+import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
+import { realClebschGordanSparse, type SparseCoupling } from './clebsch-gordan.ts';
+import { makeDensityExpander, type DensityExpander, type NeighbourPairs } from './density.ts';
+import { neighbourList } from '../geometry/neighbours.ts';
+
+export type Lambda = 0 | 1 | 2;
+
+/** Default angular limit of the tensor features when lmaxTensor is omitted (see docs/learning-engine.md). */
+export const DEFAULT_LMAX_TENSOR = 4;
+
+/** The radial and angular limits actually used for λ = 1, 2. */
+export function tensorLimits(s: FeatureSettings): { nmax: number; lmax: number } {
+  return { nmax: s.nmaxTensor ?? s.nmax, lmax: s.lmaxTensor ?? Math.min(s.lmax, DEFAULT_LMAX_TENSOR) };
+}
+
+/** Throws InputError when the settings cannot define features. */
+export function checkFeatureSettings(s: FeatureSettings): void {
+  const bad = (problem: string, hint: string): never => {
+    throw new InputError(`feature settings: ${problem}`, {}, hint);
+  };
+  if (!(s.cutoff > 0) || !Number.isFinite(s.cutoff)) bad(`cutoff ${s.cutoff} Å is not a positive length`, 'use e.g. 4.5 Å');
+  if (!(s.cutoffWidth > 0) || !(s.cutoffWidth <= s.cutoff)) bad(`cutoff width ${s.cutoffWidth} Å must lie in (0, cutoff]`, 'use e.g. 0.5 Å');
+  if (!(s.sigma > 0) || !(s.sigma < s.cutoff)) bad(`Gaussian width σ = ${s.sigma} Å must lie in (0, cutoff)`, 'use e.g. 0.4 Å');
+  if (!Number.isInteger(s.nmax) || s.nmax < 1 || s.nmax > 20) bad(`nmax = ${s.nmax} must be an integer in 1…20`, 'use e.g. 8');
+  if (!Number.isInteger(s.lmax) || s.lmax < 0 || s.lmax > 12) bad(`lmax = ${s.lmax} must be an integer in 0…12`, 'use e.g. 6');
+  const t = tensorLimits(s);
+  if (!Number.isInteger(t.nmax) || t.nmax < 1 || t.nmax > s.nmax) bad(`nmaxTensor = ${t.nmax} must be an integer in 1…nmax`, 'omit it to use nmax');
+  if (!Number.isInteger(t.lmax) || t.lmax < 0 || t.lmax > s.lmax) bad(`lmaxTensor = ${t.lmax} must be an integer in 0…lmax`, 'omit it to use the default');
+  if (s.species.length === 0) bad('no neighbour species', 'list every species of the data, e.g. ["H", "O"]');
+  if (new Set(s.species).size !== s.species.length) bad(`species ${s.species.join(', ')} repeat`, 'list each species once');
+  if (s.centres.length === 0) bad('no centre species', 'name the species that get environments, e.g. ["O", "H"]');
+  if (new Set(s.centres).size !== s.centres.length) bad(`centres ${s.centres.join(', ')} repeat`, 'list each centre species once');
+}
+
+/** One feature's indices: species a, b (into settings.species), radial n, n2, degrees l, l2, and its weight. */
+export interface FeatureLabel {
+  a: number;
+  n: number;
+  l: number;
+  b: number;
+  n2: number;
+  l2: number;
+  weight: number;
+}
+
+export interface Block {
+  l: number;
+  l2: number;
+  /**
+   * The non-zero real Clebsch–Gordan coefficients in gather form for the half-coupling H[μ·(2l+1) + m] =
+   * Σ C c_{held}: for target t the entries gatherStart[t]…gatherStart[t+1] give the held factor's m index and
+   * the coefficient. The held factor is the first (degree l) when l = l2, else the second (degree l2).
+   */
+  gatherStart: Int32Array;
+  gatherIndex: Int32Array;
+  gatherValue: Float64Array;
+  /** For each first channel (index into the tensor channel list) the range of its pairs in ch2/weight. */
+  firstStart: Int32Array;
+  ch2: Int32Array;
+  weight: Float64Array;
+  /** Index of the block's first feature. */
+  offset: number;
+  /**
+   * The same coefficients sorted by μ for the read-out (tensor-readout.ts): entries muStart[μ]…muStart[μ+1]
+   * have first-factor index e1 (degree l), second-factor index e2 (degree l2) and value ev.
+   */
+  muStart: Int32Array;
+  e1: Int32Array;
+  e2: Int32Array;
+  ev: Float64Array;
+}
+
+/** The sparse coefficients grouped by μ (the muStart/e1/e2/ev fields of Block). */
+function byComponent(sp: SparseCoupling, lambda: number): Pick<Block, 'muStart' | 'e1' | 'e2' | 'ev'> {
+  const nM = 2 * lambda + 1;
+  const order = Array.from(sp.value, (_, k) => k).sort((a, b) => sp.iL[a] - sp.iL[b] || a - b);
+  const muStart = new Int32Array(nM + 1);
+  for (const k of order) muStart[sp.iL[k] + 1]++;
+  for (let mu = 0; mu < nM; mu++) muStart[mu + 1] += muStart[mu];
+  return {
+    muStart,
+    e1: Int32Array.from(order, (k) => sp.i1[k]),
+    e2: Int32Array.from(order, (k) => sp.i2[k]),
+    ev: Float64Array.from(order, (k) => sp.value[k]),
+  };
+}
+
+/** The gather form of Block (see there) from the sparse coefficients. */
+function gatherForm(sp: SparseCoupling, l: number, l2: number, lambda: number): Pick<Block, 'gatherStart' | 'gatherIndex' | 'gatherValue'> {
+  const width = 2 * l + 1;
+  const targets = (2 * lambda + 1) * width;
+  // Held factor: degree l (index i1) when l = l2, contracted over i2; degree l2 (index i2) otherwise.
+  const held = l === l2 ? sp.i1 : sp.i2;
+  const free = l === l2 ? sp.i2 : sp.i1;
+  const lists: { index: number; value: number }[][] = Array.from({ length: targets }, () => []);
+  for (let k = 0; k < sp.value.length; k++) lists[sp.iL[k] * width + free[k]].push({ index: held[k], value: sp.value[k] });
+  const gatherStart = new Int32Array(targets + 1);
+  const index: number[] = [];
+  const value: number[] = [];
+  lists.forEach((list, t) => {
+    gatherStart[t] = index.length;
+    for (const e of list) {
+      index.push(e.index);
+      value.push(e.value);
+    }
+  });
+  gatherStart[targets] = index.length;
+  return { gatherStart, gatherIndex: Int32Array.from(index), gatherValue: Float64Array.from(value) };
+}
+
+export interface TensorPlan {
+  lambda: 1 | 2;
+  n: number;
+  blocks: Block[];
+}
+
+/** Blocks of the λ > 0 features (the proper-parity (l, l') pairs), in feature order. */
+function tensorPairs(lambda: 1 | 2, lmax: number): [number, number][] {
+  const out: [number, number][] = [];
+  for (let l = 0; l <= lmax; l++) {
+    for (let l2 = l; l2 <= lmax; l2++) {
+      if (l2 - l > lambda || l + l2 < lambda || (l + l2 + lambda) % 2 !== 0) continue;
+      out.push([l, l2]);
+    }
+  }
+  return out;
+}
+
+/** Labels of every feature of order λ, in storage order (its length is the feature count). */
+export function describeFeatures(s: FeatureSettings, lambda: Lambda): FeatureLabel[] {
+  const S = s.species.length;
+  const labels: FeatureLabel[] = [];
+  if (lambda === 0) {
+    const nch = S * s.nmax;
+    for (let c1 = 0; c1 < nch; c1++) {
+      for (let c2 = c1; c2 < nch; c2++) {
+        for (let l = 0; l <= s.lmax; l++) {
+          labels.push({ a: Math.floor(c1 / s.nmax), n: c1 % s.nmax, l, b: Math.floor(c2 / s.nmax), n2: c2 % s.nmax, l2: l, weight: c1 === c2 ? 1 : Math.SQRT2 });
+        }
+      }
+    }
+    return labels;
+  }
+  const t = tensorLimits(s);
+  const nch = S * t.nmax;
+  for (const [l, l2] of tensorPairs(lambda, t.lmax)) {
+    for (let c1 = 0; c1 < nch; c1++) {
+      for (let c2 = l === l2 ? c1 : 0; c2 < nch; c2++) {
+        labels.push({ a: Math.floor(c1 / t.nmax), n: c1 % t.nmax, l, b: Math.floor(c2 / t.nmax), n2: c2 % t.nmax, l2, weight: l === l2 && c1 === c2 ? 1 : Math.SQRT2 });
+      }
+    }
+  }
+  return labels;
+}
+
+/** Number of features of order λ for these settings (closed form; equals describeFeatures(...).length). */
+export function featureCount(s: FeatureSettings, lambda: Lambda): number {
+  const S = s.species.length;
+  if (lambda === 0) {
+    const nch = S * s.nmax;
+    return ((nch * (nch + 1)) / 2) * (s.lmax + 1);
+  }
+  const t = tensorLimits(s);
+  const nch = S * t.nmax;
+  let count = 0;
+  for (const [l, l2] of tensorPairs(lambda, t.lmax)) count += l === l2 ? (nch * (nch + 1)) / 2 : nch * nch;
+  return count;
+}
+
+/** Time spent (ms, accumulated) in the stages of computeFeatures, filled when passed. */
+export interface FeatureTimings {
+  neighbours: number;
+  expansion: number;
+  coupling: number;
+}
+
+export interface Plan {
+  settings: FeatureSettings;
+  lambdas: (1 | 2)[];
+  expander: DensityExpander;
+  LL: number;
+  /** λ = 0 unique channel pairs and their weights. */
+  p1: Int32Array;
+  p2: Int32Array;
+  pw: Float64Array;
+  /** (2l+1)^(−1/2). */
+  invSqrt: Float64Array;
+  n0: number;
+  /** Tensor channel k → density channel (a·nmax + n). */
+  tensorChannel: Int32Array;
+  tensors: TensorPlan[];
+  coefficients: Float64Array;
+  /** Scratch for the half-coupled H[μ(2l+1) + m]. */
+  half: Float64Array;
+  /** Number of tensor channels; tensorBase[l][k] = offset of c_{k, l, m=−l} in the coefficient block. */
+  tch: number;
+  tensorBase: Int32Array[];
+  /** 0…tch−1 and √2 for each, for the l < l' blocks (every ordered pair, all off-diagonal). */
+  allChannels: Int32Array;
+  sqrt2: Float64Array;
+}
+
+const planCache = new Map<string, Plan>();
+/** Plans kept (a hyperparameter search builds one per setting; the oldest is dropped beyond this). */
+const PLAN_CACHE_SIZE = 12;
+
+/** The cached plan of these settings (tables, couplings, scratch) for the given λ > 0 orders. */
+export function featurePlan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
+  const key = JSON.stringify([s.cutoff, s.cutoffWidth, s.sigma, s.nmax, s.lmax, s.species, s.centres, s.nmaxTensor ?? null, s.lmaxTensor ?? null, lambdas]);
+  const hit = planCache.get(key);
+  if (hit) return hit;
+  checkFeatureSettings(s);
+  const S = s.species.length;
+  const { nmax, lmax } = s;
+  const expander = makeDensityExpander({ nmax, lmax, cutoff: s.cutoff, sigma: s.sigma, cutoffWidth: s.cutoffWidth, channels: S });
+  const nch = S * nmax;
+  const npairs = (nch * (nch + 1)) / 2;
+  const p1 = new Int32Array(npairs), p2 = new Int32Array(npairs), pw = new Float64Array(npairs);
+  let k = 0;
+  for (let c1 = 0; c1 < nch; c1++) {
+    for (let c2 = c1; c2 < nch; c2++) {
+      p1[k] = c1;
+      p2[k] = c2;
+      pw[k] = c1 === c2 ? 1 : Math.SQRT2;
+      k++;
+    }
+  }
+  const invSqrt = new Float64Array(lmax + 1);
+  for (let l = 0; l <= lmax; l++) invSqrt[l] = 1 / Math.sqrt(2 * l + 1);
+  const t = tensorLimits(s);
+  const tch = S * t.nmax;
+  const tensorChannel = new Int32Array(tch);
+  for (let a = 0; a < S; a++) for (let n = 0; n < t.nmax; n++) tensorChannel[a * t.nmax + n] = a * nmax + n;
+  const tensors: TensorPlan[] = [];
+  let halfSize = 1;
+  for (const lambda of lambdas) {
+    const blocks: Block[] = [];
+    let offset = 0;
+    for (const [l, l2] of tensorPairs(lambda, t.lmax)) {
+      const firstStart = new Int32Array(tch + 1);
+      const ch2: number[] = [];
+      const weight: number[] = [];
+      for (let c1 = 0; c1 < tch; c1++) {
+        firstStart[c1] = ch2.length;
+        for (let c2 = l === l2 ? c1 : 0; c2 < tch; c2++) {
+          ch2.push(c2);
+          weight.push(l === l2 && c1 === c2 ? 1 : Math.SQRT2);
+        }
+      }
+      firstStart[tch] = ch2.length;
+      const sp = realClebschGordanSparse(l, l2, lambda);
+      blocks.push({ l, l2, ...gatherForm(sp, l, l2, lambda), ...byComponent(sp, lambda), firstStart, ch2: Int32Array.from(ch2), weight: Float64Array.from(weight), offset });
+      offset += ch2.length;
+      halfSize = Math.max(halfSize, (2 * lambda + 1) * (2 * l2 + 1));
+    }
+    tensors.push({ lambda, n: offset, blocks });
+  }
+  const p: Plan = {
+    settings: { ...s, species: [...s.species], centres: [...s.centres] },
+    lambdas,
+    expander,
+    LL: (lmax + 1) * (lmax + 1),
+    p1,
+    p2,
+    pw,
+    invSqrt,
+    n0: npairs * (lmax + 1),
+    tensorChannel,
+    tensors,
+    coefficients: new Float64Array(expander.size),
+    half: new Float64Array(halfSize),
+    tch,
+    tensorBase: Array.from({ length: t.lmax + 1 }, (_, l) => Int32Array.from(tensorChannel, (ch) => ch * (lmax + 1) * (lmax + 1) + l * l)),
+    allChannels: Int32Array.from({ length: tch }, (_, k) => k),
+    sqrt2: new Float64Array(tch).fill(Math.SQRT2),
+  };
+  if (planCache.size >= PLAN_CACHE_SIZE) planCache.delete(planCache.keys().next().value as string);
+  planCache.set(key, p);
+  return p;
+}
+
+/** Scales x[from…to) to unit norm (a zero block stays zero); returns the squared norm before scaling. */
+function normalise(x: Float64Array, from: number, to: number): number {
+  let s = 0;
+  for (let i = from; i < to; i++) s += x[i] * x[i];
+  if (s === 0 || !Number.isFinite(s)) return s;
+  const inv = 1 / Math.sqrt(s);
+  for (let i = from; i < to; i++) x[i] *= inv;
+  return s;
+}
+
+/** λ = 0 row of one environment from its coefficients c (layout of density.ts) into out[at…at+n0). */
+function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number): number {
+  const { p1, p2, pw, invSqrt, LL } = P;
+  const lmax = P.settings.lmax;
+  const L1 = lmax + 1;
+  let f = at;
+  for (let k = 0; k < p1.length; k++) {
+    const A = p1[k] * LL, B = p2[k] * LL;
+    const w = pw[k];
+    for (let l = 0; l <= lmax; l++) {
+      const lo = l * l, hi = lo + 2 * l + 1;
+      let s = 0;
+      for (let m = lo; m < hi; m++) s += c[A + m] * c[B + m];
+      out[f + l] = w * invSqrt[l] * s;
+    }
+    f += L1;
+  }
+  return normalise(out, at, at + P.n0);
+}
+
+/** Σ_m2 H[μ][m2] c[B + m2] for every partner channel of one first channel: the pair loop of tensorFeatures. */
+function contractPartners(
+  half: Float64Array, nM: number, width: number, c: Float64Array, partnerBase: Int32Array, from: number, to: number,
+  partner: Int32Array, weight: Float64Array, out: Float64Array, f: number, fStep: number, n: number,
+): void {
+  if (nM === 5) {
+    // λ = 2: five independent accumulators, one pass over each partner's coefficients.
+    for (let q = from; q < to; q++) {
+      const B = partnerBase[partner[q]];
+      let s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0;
+      for (let m = 0; m < width; m++) {
+        const b = c[B + m];
+        s0 += half[m] * b;
+        s1 += half[width + m] * b;
+        s2 += half[2 * width + m] * b;
+        s3 += half[3 * width + m] * b;
+        s4 += half[4 * width + m] * b;
+      }
+      const w = weight[q];
+      const at = f + (q - from) * fStep;
+      out[at] = w * s0;
+      out[at + n] = w * s1;
+      out[at + 2 * n] = w * s2;
+      out[at + 3 * n] = w * s3;
+      out[at + 4 * n] = w * s4;
+    }
+  } else {
+    for (let q = from; q < to; q++) {
+      const B = partnerBase[partner[q]];
+      let s0 = 0, s1 = 0, s2 = 0;
+      for (let m = 0; m < width; m++) {
+        const b = c[B + m];
+        s0 += half[m] * b;
+        s1 += half[width + m] * b;
+        s2 += half[2 * width + m] * b;
+      }
+      const w = weight[q];
+      const at = f + (q - from) * fStep;
+      out[at] = w * s0;
+      out[at + n] = w * s1;
+      out[at + 2 * n] = w * s2;
+    }
+  }
+}
+
+/**
+ * λ > 0 block of one environment into out[(e·(2λ+1) + μ)·n + f]. For each pair block the half-coupling
+ * H = C·c runs over the factor of HIGHER degree (once per channel), so the pair loop runs over the shorter m
+ * axis: for (l, l') with l < l' the channel of degree l' is held and every channel of degree l is contracted.
+ */
+function tensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
+  const { half, tch } = P;
+  const nM = 2 * T.lambda + 1;
+  const n = T.n;
+  const base = e * nM * n;
+  for (const blk of T.blocks) {
+    const { l, l2, firstStart, ch2, weight, gatherStart, gatherIndex, gatherValue } = blk;
+    const width = 2 * l + 1;
+    const targets = nM * width;
+    const A0 = P.tensorBase[l];
+    if (l === l2) {
+      let f = base + blk.offset;
+      for (let c1 = 0; c1 < tch; c1++) {
+        // Half-coupled H[μ][m'] = Σ_m C[m, m', μ] c_{ch1, l m} (gathered: one register sum per target).
+        const A = A0[c1];
+        for (let t = 0; t < targets; t++) {
+          let h = 0;
+          for (let k = gatherStart[t]; k < gatherStart[t + 1]; k++) h += gatherValue[k] * c[A + gatherIndex[k]];
+          half[t] = h;
+        }
+        const from = firstStart[c1], to = firstStart[c1 + 1];
+        contractPartners(half, nM, width, c, A0, from, to, ch2, weight, out, f, 1, n);
+        f += to - from;
+      }
+    } else {
+      // Hold the degree-l2 channel c2; contract all degree-l channels c1; feature f = offset + c1·tch + c2.
+      const B0 = P.tensorBase[l2];
+      const f0 = base + blk.offset;
+      for (let c2 = 0; c2 < tch; c2++) {
+        const B = B0[c2];
+        for (let t = 0; t < targets; t++) {
+          let h = 0;
+          for (let k = gatherStart[t]; k < gatherStart[t + 1]; k++) h += gatherValue[k] * c[B + gatherIndex[k]];
+          half[t] = h;
+        }
+        contractPartners(half, nM, width, c, A0, 0, tch, P.allChannels, P.sqrt2, out, f0 + c2, tch, n);
+      }
+    }
+  }
+  normalise(out, base, base + nM * n);
+}
+
+/** The λ > 0 step of computeFeatures: every order's block of environment slot k0 into tensors[k]. */
+function tensorSteps(P: Plan, tensors: Float64Array[]): (e: number, k0: number, c: Float64Array) => void {
+  return (_e, k0, c) => {
+    for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensors[k], k0);
+  };
+}
+
+/** A frame prepared for featurisation: plan, species channels, centre atoms, neighbour pairs. */
+export interface Prepared {
+  P: Plan;
+  channelOf: Int32Array;
+  /** Centre atoms in order, and the index of each one's species in settings.centres. */
+  centres: Int32Array;
+  centreSpecies: Int32Array;
+  pairs: NeighbourPairs;
+  where: { file?: string; line?: number; frame?: number };
+}
+
+export function prepare(frame: Frame, settings: FeatureSettings, lambdas: Lambda[], neighbours: NeighbourPairs | undefined, timings: FeatureTimings | undefined): Prepared {
+  for (const l of lambdas) {
+    if (l !== 0 && l !== 1 && l !== 2) throw new RangeError(`computeFeatures: λ must be 0, 1 or 2, got ${String(l)}`);
+  }
+  const P = featurePlan(settings, ([1, 2] as const).filter((l) => lambdas.includes(l)));
+  for (const T of P.tensors) {
+    if (T.n === 0) {
+      throw new InputError(`feature settings: λ = ${T.lambda} features need lmaxTensor ≥ 1 (lmax ${settings.lmax}, lmaxTensor ${tensorLimits(settings).lmax})`, {}, 'raise lmax (and lmaxTensor) to at least 1');
+    }
+  }
+  const s = P.settings;
+  const N = frame.species.length;
+  const where = { file: frame.source?.file, line: frame.source?.line, frame: frame.source?.index };
+  const speciesIndex = new Map(s.species.map((x, i) => [x, i]));
+  const centreIndex = new Map(s.centres.map((x, i) => [x, i]));
+  const channelOf = new Int32Array(N);
+  const centres: number[] = [];
+  const centreSpecies: number[] = [];
+  for (let i = 0; i < N; i++) {
+    const a = speciesIndex.get(frame.species[i]);
+    if (a === undefined) {
+      throw new InputError(
+        `atom ${i + 1} is ${frame.species[i]}, which is not among the feature species (${s.species.join(', ')})`,
+        where,
+        'use a model trained with this species, or remove those atoms from the structure',
+      );
+    }
+    channelOf[i] = a;
+    const ci = centreIndex.get(frame.species[i]);
+    if (ci !== undefined) {
+      centres.push(i);
+      centreSpecies.push(ci);
+    }
+  }
+  const t0 = timings ? performance.now() : 0;
+  const pairs = neighbours ?? neighbourList(frame, s.cutoff);
+  if (pairs.start.length !== N + 1) {
+    throw new RangeError(`computeFeatures: neighbour list has ${pairs.start.length - 1} centres, the frame ${N} atoms`);
+  }
+  if (timings) timings.neighbours += performance.now() - t0;
+  return { P, channelOf, centres: Int32Array.from(centres), centreSpecies: Int32Array.from(centreSpecies), pairs, where };
+}
+
+/**
+ * The per-environment loop shared by computeFeatures, forEachEnvironment and the read-out of
+ * tensor-readout.ts: the λ = 0 row of environment e is written to scalar at row slot(e), then
+ * `tensorStep(e, slot(e), c)` does the λ > 0 work from the density coefficients c, and `after(e)` runs.
+ */
+export function featurise(
+  prep: Prepared,
+  scalar: Float64Array,
+  slot: (e: number) => number,
+  tensorStep: (e: number, k0: number, c: Float64Array) => void,
+  after: ((e: number) => void) | null,
+  timings: FeatureTimings | undefined,
+): void {
+  const { P, channelOf, centres, pairs, where } = prep;
+  const c = P.coefficients;
+  let tExpand = 0, tCouple = 0;
+  for (let e = 0; e < centres.length; e++) {
+    const i = centres[e];
+    const ta = timings ? performance.now() : 0;
+    P.expander.expand(pairs, i, channelOf[i], channelOf, c);
+    const tb = timings ? performance.now() : 0;
+    const k0 = slot(e);
+    const norm = powerSpectrum(P, c, scalar, k0 * P.n0);
+    if (!Number.isFinite(norm)) {
+      throw new InputError(`features of atom ${i + 1} are not finite (non-finite positions or cell?)`, where, 'check the structure');
+    }
+    tensorStep(e, k0, c);
+    if (timings) {
+      tExpand += tb - ta;
+      tCouple += performance.now() - tb;
+    }
+    if (after) after(e);
+  }
+  if (timings) {
+    timings.expansion += tExpand;
+    timings.coupling += tCouple;
+  }
+}
+
+/**
+ * Features of every centre of `frame` (atoms whose species is in settings.centres, in atom order). λ = 0 is
+ * always computed (tensor kernels need it too); `lambdas` adds 1 and/or 2. `neighbours` may be passed when the
+ * caller already has a list built with at least settings.cutoff (pairs beyond the cutoff are ignored).
+ */
+export function computeFeatures(
+  frame: Frame,
+  settings: FeatureSettings,
+  lambdas: Lambda[] = [0],
+  neighbours?: NeighbourPairs,
+  timings?: FeatureTimings,
+): EnvironmentFeatures {
+  const prep = prepare(frame, settings, lambdas, neighbours, timings);
+  const { P } = prep;
+  const count = prep.centres.length;
+  const scalar = new Float64Array(count * P.n0);
+  const tensorOut = P.tensors.map((T) => new Float64Array(count * (2 * T.lambda + 1) * T.n));
+  featurise(prep, scalar, (e) => e, tensorSteps(P, tensorOut), null, timings);
+  const tensor: EnvironmentFeatures['tensor'] = {};
+  P.tensors.forEach((T, k) => {
+    tensor[T.lambda] = { n: T.n, data: tensorOut[k] };
+  });
+  return { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor };
+}
+
+/** One environment's features as handed to forEachEnvironment's visitor (buffers reused: copy what you keep). */
+export interface EnvironmentView {
+  /** Environment index within the frame, centre atom, and index of its species in settings.centres. */
+  index: number;
+  centre: number;
+  centreSpecies: number;
+  /** The λ = 0 row (length n0) and the λ > 0 blocks ((2λ+1)·nλ, row-major in μ), each of unit norm. */
+  scalar: Float64Array;
+  tensor: Partial<Record<1 | 2, Float64Array>>;
+}
+
+/**
+ * The same features as computeFeatures, one environment at a time, in a fixed amount of memory: for large
+ * frames, or for sums over environments (a linear model's prediction). Returns the number of environments.
+ */
+export function forEachEnvironment(
+  frame: Frame,
+  settings: FeatureSettings,
+  lambdas: Lambda[],
+  visit: (env: EnvironmentView) => void,
+  neighbours?: NeighbourPairs,
+): number {
+  const prep = prepare(frame, settings, lambdas, neighbours, undefined);
+  const { P } = prep;
+  const scalar = new Float64Array(P.n0);
+  const blocks = P.tensors.map((T) => new Float64Array((2 * T.lambda + 1) * T.n));
+  const view: EnvironmentView = { index: 0, centre: 0, centreSpecies: 0, scalar, tensor: {} };
+  P.tensors.forEach((T, k) => {
+    view.tensor[T.lambda] = blocks[k];
+  });
+  featurise(prep, scalar, () => 0, tensorSteps(P, blocks), (e) => {
+    view.index = e;
+    view.centre = prep.centres[e];
+    view.centreSpecies = prep.centreSpecies[e];
+    visit(view);
+  }, undefined);
+  return prep.centres.length;
+}
+
+/** Concatenates per-frame features; environment k of parts[f] gets frame index f. All parts must agree in size. */
+export function concatenateFeatures(parts: EnvironmentFeatures[]): EnvironmentFeatures {
+  if (parts.length === 0) throw new RangeError('concatenateFeatures: nothing to concatenate');
+  const n0 = parts[0].n0;
+  const lambdas = Object.keys(parts[0].tensor).map(Number) as (1 | 2)[];
+  for (const p of parts) {
+    if (p.n0 !== n0 || Object.keys(p.tensor).length !== lambdas.length || lambdas.some((l) => p.tensor[l]?.n !== parts[0].tensor[l]!.n)) {
+      throw new RangeError('concatenateFeatures: parts were computed with different settings');
+    }
+  }
+  const count = parts.reduce((s, p) => s + p.count, 0);
+  const out: EnvironmentFeatures = {
+    count,
+    centre: new Int32Array(count),
+    centreSpecies: new Int32Array(count),
+    frame: new Int32Array(count),
+    n0,
+    scalar: new Float64Array(count * n0),
+    tensor: {},
+  };
+  for (const l of lambdas) out.tensor[l] = { n: parts[0].tensor[l]!.n, data: new Float64Array(count * (2 * l + 1) * parts[0].tensor[l]!.n) };
+  let at = 0;
+  parts.forEach((p, f) => {
+    out.centre.set(p.centre, at);
+    out.centreSpecies.set(p.centreSpecies, at);
+    out.frame.fill(f, at, at + p.count);
+    out.scalar.set(p.scalar, at * n0);
+    for (const l of lambdas) out.tensor[l]!.data.set(p.tensor[l]!.data, at * (2 * l + 1) * p.tensor[l]!.n);
+    at += p.count;
+  });
+  return out;
+}

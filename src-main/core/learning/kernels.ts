@@ -1,0 +1,196 @@
+// Kernels between atomic environments and between structures (science.md §5).
+//   scalar:    k⁰(i,j) = (p_i·p_j)^ζ
+//   tensorial: K^λ_μμ'(i,j) = [Σ_f ξ_fμ(i) ξ_fμ'(j)] · (p_i·p_j)^(ζ−1)
+// Environments of different centre species never interact (kernel 0), which is the same as one model per
+// centre species. A structure kernel is the sum over the environments of both structures, so every prediction
+// is a sum of local contributions. With ζ = 1 the kernel is linear in the features: the model is a weight
+// vector per centre species and a prediction is one dot product per environment.
+import type { EnvironmentFeatures } from '../descriptors/feature-types.ts';
+
+/** The irreducible order of a model part: 0 (scalar), 1 (vector), 2 (rank-2 anisotropic part). */
+export type Order = 0 | 1 | 2;
+
+/** The (2λ+1) × n feature block of environment e for order λ (for λ = 0 the power spectrum row). */
+export interface BlockView {
+  data: Float64Array;
+  n: number;
+  /** 2λ+1 */
+  width: number;
+}
+
+export function blockView(feat: EnvironmentFeatures, order: Order): BlockView {
+  if (order === 0) return { data: feat.scalar, n: feat.n0, width: 1 };
+  const t = feat.tensor[order];
+  if (!t) throw new RangeError(`features of order λ=${order} were not computed`);
+  return { data: t.data, n: t.n, width: 2 * order + 1 };
+}
+
+/** p_i · p_j of two λ=0 rows (possibly of different feature sets). */
+export function scalarDot(a: Float64Array, ia: number, b: Float64Array, ib: number, n0: number): number {
+  let s = 0;
+  const oa = ia * n0;
+  const ob = ib * n0;
+  for (let f = 0; f < n0; f++) s += a[oa + f] * b[ob + f];
+  return s;
+}
+
+/** (x)^(ζ) for the kernel exponent; x may be slightly negative from round-off for orthogonal environments. */
+export function kernelPower(x: number, zeta: number): number {
+  if (zeta === 0) return 1;
+  if (zeta === 1) return x;
+  if (zeta === 2) return x * x;
+  return Math.sign(x) * Math.abs(x) ** zeta;
+}
+
+/**
+ * K^λ(i,j) as a (2λ+1)×(2λ+1) row-major block, environments i of `a` and j of `b`.
+ * For λ = 0 this is the 1×1 block (p_i·p_j)^ζ.
+ */
+export function environmentKernel(a: EnvironmentFeatures, i: number, b: EnvironmentFeatures, j: number, order: Order, zeta: number, out?: Float64Array): Float64Array {
+  const w = 2 * order + 1;
+  const res = out ?? new Float64Array(w * w);
+  res.fill(0);
+  if (a.centreSpecies[i] !== b.centreSpecies[j]) return res;
+  const pp = scalarDot(a.scalar, i, b.scalar, j, a.n0);
+  if (order === 0) {
+    res[0] = kernelPower(pp, zeta);
+    return res;
+  }
+  const va = blockView(a, order);
+  const vb = blockView(b, order);
+  const s = kernelPower(pp, zeta - 1);
+  const n = va.n;
+  for (let mu = 0; mu < w; mu++) {
+    const oa = (i * w + mu) * n;
+    for (let nu = 0; nu < w; nu++) {
+      const ob = (j * w + nu) * n;
+      let d = 0;
+      for (let f = 0; f < n; f++) d += va.data[oa + f] * vb.data[ob + f];
+      res[mu * w + nu] = d * s;
+    }
+  }
+  return res;
+}
+
+/** Structure kernel: Σ over environments of both structures, a (2λ+1)×(2λ+1) block. */
+export function structureKernel(a: EnvironmentFeatures, b: EnvironmentFeatures, order: Order, zeta: number): Float64Array {
+  const w = 2 * order + 1;
+  const sum = new Float64Array(w * w);
+  if (order === 0) {
+    for (let i = 0; i < a.count; i++) {
+      for (let j = 0; j < b.count; j++) {
+        if (a.centreSpecies[i] === b.centreSpecies[j]) sum[0] += kernelPower(scalarDot(a.scalar, i, b.scalar, j, a.n0), zeta);
+      }
+    }
+    return sum;
+  }
+  // Σ_ij s(i,j) ξ_i ξ_jᵀ = Σ_i ξ_i · Y_iᵀ with Y_i = Σ_j s(i,j) ξ_j: one (2λ+1)×n accumulation per pair
+  // instead of (2λ+1)² dot products.
+  const va = blockView(a, order);
+  const vb = blockView(b, order);
+  const n = va.n;
+  const y = new Float64Array(w * n);
+  for (let i = 0; i < a.count; i++) {
+    y.fill(0);
+    let any = false;
+    for (let j = 0; j < b.count; j++) {
+      if (a.centreSpecies[i] !== b.centreSpecies[j]) continue;
+      const s = kernelPower(scalarDot(a.scalar, i, b.scalar, j, a.n0), zeta - 1);
+      if (s === 0) continue;
+      any = true;
+      const ob = j * w * n;
+      for (let q = 0; q < w * n; q++) y[q] += s * vb.data[ob + q];
+    }
+    if (!any) continue;
+    for (let mu = 0; mu < w; mu++) {
+      const oa = (i * w + mu) * n;
+      for (let nu = 0; nu < w; nu++) {
+        let d = 0;
+        for (let f = 0; f < n; f++) d += va.data[oa + f] * y[nu * n + f];
+        sum[mu * w + nu] += d;
+      }
+    }
+  }
+  return sum;
+}
+
+/**
+ * The ζ = 1 design rows of one structure: for each μ, the sum of its environments' feature rows, placed in
+ * the block of the environment's centre species (length species × n). Returns (2λ+1) × (species·n).
+ */
+export function linearDesignRows(feat: EnvironmentFeatures, order: Order, species: number): Float64Array {
+  const v = blockView(feat, order);
+  const cols = species * v.n;
+  const rows = new Float64Array(v.width * cols);
+  for (let e = 0; e < feat.count; e++) {
+    const s = feat.centreSpecies[e];
+    for (let mu = 0; mu < v.width; mu++) {
+      const src = (e * v.width + mu) * v.n;
+      const dst = mu * cols + s * v.n;
+      for (let f = 0; f < v.n; f++) rows[dst + f] += v.data[src + f];
+    }
+  }
+  return rows;
+}
+
+/**
+ * A kernel model of one order, reduced for prediction: representative environments m with their λ=0 rows p_m
+ * (for the weight (p_i·p_m)^(ζ−1)) and the folded coefficients v_m = Σ_μ' x_mμ' ξ_μ'(m) (length n).
+ * Then the local contribution of environment i is T_μ(i) = ξ_μ(i) · Σ_m (p_i·p_m)^(ζ−1) v_m.
+ */
+export interface KernelExpansion {
+  zeta: number;
+  n0: number;
+  n: number;
+  /** Centre-species index of each representative. */
+  species: Int32Array;
+  /** λ=0 rows of the representatives, M × n0. */
+  p: Float64Array;
+  /** Folded coefficients, M × n. */
+  v: Float64Array;
+}
+
+/**
+ * The effective linear weights of a kernel model for environment e (λ=0 row e of `scalar`, centre species s):
+ * u = Σ_m (p_e·p_m)^(ζ−1) v_m over the representatives of that species, into u (length n).
+ */
+export function kernelWeights(k: KernelExpansion, scalar: Float64Array, e: number, s: number, u: Float64Array): Float64Array {
+  u.fill(0, 0, k.n);
+  for (let r = 0; r < k.species.length; r++) {
+    if (k.species[r] !== s) continue;
+    const c = kernelPower(scalarDot(scalar, e, k.p, r, k.n0), k.zeta - 1);
+    if (c === 0) continue;
+    const ro = r * k.n;
+    for (let f = 0; f < k.n; f++) u[f] += c * k.v[ro + f];
+  }
+  return u;
+}
+
+/**
+ * Local contributions of every environment: out[e*(2λ+1)+μ]. For a linear model pass `linear` (per species
+ * weight blocks, species × n) instead of a kernel expansion.
+ */
+export function localContributions(feat: EnvironmentFeatures, order: Order, model: { linear: Float64Array } | { kernel: KernelExpansion }): Float64Array {
+  const v = blockView(feat, order);
+  const out = new Float64Array(feat.count * v.width);
+  const u = new Float64Array(v.n);
+  for (let e = 0; e < feat.count; e++) {
+    const s = feat.centreSpecies[e];
+    let weights: Float64Array;
+    let wOff = 0;
+    if ('linear' in model) {
+      weights = model.linear;
+      wOff = s * v.n;
+    } else {
+      kernelWeights(model.kernel, feat.scalar, e, s, u);
+      weights = u;
+    }
+    for (let mu = 0; mu < v.width; mu++) {
+      const src = (e * v.width + mu) * v.n;
+      let d = 0;
+      for (let f = 0; f < v.n; f++) d += v.data[src + f] * weights[wOff + f];
+      out[e * v.width + mu] = d;
+    }
+  }
+  return out;
+}

@@ -1,0 +1,897 @@
+// The trained model: training (trainModel) and prediction (predictFrame) of frame targets as sums of local,
+// per-atom contributions. A symmetric tensor target is split into λ=0 and λ=2 parts learnt as separate
+// models; a vector target is λ=1; a scalar λ=0. Each part is either linear in the features (ζ = 1: one weight
+// vector per centre species, solved in primal or dual form) or a kernel expansion over representative
+// environments (ζ ≠ 1: sparse projected-process form, or exact kernel ridge when sparsePoints = 0).
+// A per-species baseline (λ=0) is fitted by least squares first and stored with the model.
+// See docs/learning-engine.md for the choices and their reasons.
+import { CancelledError, InputError, ModelError } from '../errors.ts';
+import type { EnvironmentFeatures, FeatureSettings } from '../descriptors/feature-types.ts';
+import { computeFeatures, concatenateFeatures, featureCount, tensorLimits } from '../descriptors/features.ts';
+import { applyFeatureSelection, selectFeatures, type FeatureSelection } from '../descriptors/feature-selection.ts';
+import type { Frame, Mat3 } from '../geometry/frame.ts';
+import {
+  blockView,
+  kernelPower,
+  kernelWeights,
+  linearDesignRows,
+  localContributions,
+  scalarDot,
+  structureKernel,
+  type KernelExpansion,
+  type Order,
+} from './kernels.ts';
+import type { Applicability, FramePrediction, ModelSettings, Route, TensorKind, TrainRequest, WorkHooks } from './model-types.ts';
+import { makeRng } from '../numerics/random.ts';
+import { cachedNearestSearch, searchNearest } from './nearest-search.ts';
+import { tuneCombinations, tuneSettings } from './tuning.ts';
+import { fitRidge, foldsOf, posteriorVariance, primalWeights, type Design } from './regression.ts';
+import {
+  farthestPointSample,
+  foldCoefficients,
+  foldSparseWeights,
+  nearestOtherDistances,
+  projectRows,
+  representativeFactor,
+  representativeKernel,
+  representativesFrom,
+  structureToRepresentatives,
+  type EnvironmentPool,
+  type Representatives,
+} from './sparse.ts';
+import {
+  frameVolume,
+  learntQuantity,
+  learntTensor,
+  readValues,
+  shapeOfValues,
+  sphericalToVector,
+  tensorsFromLearnt,
+  vectorToSpherical,
+  whereOf,
+  type LearntQuantity,
+  type TargetShape,
+} from './targets.ts';
+import { fromIrreducible, tensorFromValues, toIrreducible } from '../dielectric/tensor.ts';
+import { computeReadout, makeWeightMatrices, weightMatricesLength, type TensorReadout } from './tensor-readout.ts';
+import { cellVolume } from '../geometry/cell.ts';
+
+/** Defaults chosen so that `train` works untuned on 100–400-atom cells (reasons in docs/learning-engine.md). */
+export const DEFAULT_SETTINGS: ModelSettings = {
+  cutoff: 4.5,
+  cutoffWidth: 0.5,
+  sigma: 0.4,
+  nmax: 6,
+  lmax: 4,
+  zeta: 1,
+  regularisation: null,
+  sparsePoints: 500,
+  centres: [],
+  maxFeatures: 0,
+  seed: 1,
+};
+
+/** Environments kept per centre species for sampling representatives (linear / kernel models). */
+const POOL_LINEAR = 6000;
+const POOL_KERNEL = 2000;
+/** Representatives per species for the applicability distance of a linear model. */
+const APPLICABILITY_POINTS = 256;
+/** Applicability threshold = factor × quantile of the training environments' leave-self-out distances. */
+const APPLICABILITY_QUANTILE = 0.999;
+const APPLICABILITY_FACTOR = 1.2;
+/** Exact kernel ridge keeps every environment; beyond this many it is too slow, use the sparse form. */
+const EXACT_LIMIT = 6000;
+
+export interface PartPosterior {
+  form: 'primal' | 'dual';
+  size: number;
+  /** Cholesky factor, size × size, row-major lower triangle. */
+  factor: Float64Array;
+  noise: number;
+  lambda: number;
+  /** Sparse form: Cholesky factor of K_MM, for φ' = L⁻¹ k. */
+  nystrom?: Float64Array;
+  /** Exact form: training frame of each representative (frames = posterior size). */
+  repFrame?: Int32Array;
+  /** Exact form: per-species centre counts of the training frames (frames × species), for the count kernel. */
+  counts?: Float64Array;
+}
+
+export interface ModelPart {
+  order: Order;
+  /** Index of the part's first component in the target's irreducible vector. */
+  offset: number;
+  form: 'linear' | 'kernel';
+  method: 'primal' | 'dual' | 'sparse' | 'exact';
+  /** Features per row of this order. */
+  n: number;
+  /** Linear form: species × n weights. */
+  weights?: Float64Array;
+  kernel?: KernelExpansion;
+  regularisation: { relative: number; lambda: number; cvError: number; chosenBy: 'cross-validation' | 'given' | 'default'; grid: { relative: number; error: number }[] };
+  posterior?: PartPosterior;
+}
+
+export interface TrainingSummary {
+  frames: number;
+  atoms: number;
+  atomsPerSpecies: Record<string, number>;
+  volumeA3: { min: number; max: number };
+  /** Irreducible components of the learnt target per frame: mean, std dev, min, max. */
+  target: { mean: number[]; std: number[]; min: number[]; max: number[] };
+}
+
+export interface Model {
+  createdAt: string;
+  target: {
+    key: string;
+    shape: TargetShape;
+    /** Kind of the reference tensor in the training file (tensors only). */
+    kind: TensorKind | null;
+    route: Route;
+    learnt: LearntQuantity;
+    /** Units of the learnt quantity and of `local`. */
+    units: string;
+  };
+  settings: ModelSettings;
+  /** Neighbour species (density channels) and centre species, in feature order. */
+  species: string[];
+  centres: string[];
+  /** Feature sizes the model was trained with (checked at prediction). */
+  featureSizes: { n0: number; n?: number };
+  /** Radial and angular limits of the λ>0 features (resolved at training). */
+  tensorLimits: { nmax: number; lmax: number };
+  /** Feature columns kept (settings.maxFeatures > 0): applied to computed features before the model sees them. */
+  featureSelection?: FeatureSelection;
+  /** Per centre species λ=0 baseline contribution per atom (first irreducible component), or zeros. */
+  baseline: number[];
+  parts: ModelPart[];
+  applicability: { n0: number; species: Int32Array; p: Float64Array; threshold: number; perSpecies: number[]; rule: string };
+  training: TrainingSummary;
+  notes: string[];
+}
+
+/** Prediction of any target shape: irreducible components, per-atom contributions, applicability. */
+export interface TargetPrediction {
+  /** Irreducible components of the learnt target ([T⁰, T²…] / λ=1 μ=−1…1 / [value]). */
+  irreducible: Float64Array;
+  /** Per atom, `components` values of the learnt target (same layout). */
+  localIrreducible: Float64Array;
+  components: number;
+  applicability: Applicability;
+}
+
+export type Featuriser = (frame: Frame, index: number) => EnvironmentFeatures;
+
+export function resolveSettings(partial?: Partial<ModelSettings>): ModelSettings {
+  const s: ModelSettings = { ...DEFAULT_SETTINGS, ...(partial ?? {}) };
+  for (const [k, v] of Object.entries(partial ?? {})) if (v === undefined) (s as unknown as Record<string, unknown>)[k] = (DEFAULT_SETTINGS as unknown as Record<string, unknown>)[k];
+  const bad = (what: string, hint: string) => {
+    throw new InputError(`setting ${what}`, {}, hint);
+  };
+  if (!(s.cutoff > 0)) bad(`cutoff = ${s.cutoff} Å`, 'the cutoff must be positive (typical 3.5–6 Å)');
+  if (!(s.cutoffWidth > 0 && s.cutoffWidth < s.cutoff)) bad(`cutoffWidth = ${s.cutoffWidth} Å`, 'the smooth switch width must lie in (0, cutoff): a hard cutoff makes features jump when an atom crosses it');
+  if (!(s.sigma > 0)) bad(`sigma = ${s.sigma} Å`, 'the Gaussian width must be positive (typical 0.3–0.5 Å)');
+  if (!Number.isInteger(s.nmax) || s.nmax < 1 || s.nmax > 16) bad(`nmax = ${s.nmax}`, 'nmax must be a whole number 1–16');
+  if (!Number.isInteger(s.lmax) || s.lmax < 0 || s.lmax > 10) bad(`lmax = ${s.lmax}`, 'lmax must be a whole number 0–10');
+  if (!(s.zeta >= 1) || !Number.isInteger(s.zeta)) bad(`zeta = ${s.zeta}`, 'ζ must be a whole number ≥ 1 (1 = linear)');
+  if (s.regularisation !== null && !(s.regularisation > 0)) bad(`regularisation = ${s.regularisation}`, 'give a positive number or leave it unset to cross-validate');
+  if (!Number.isInteger(s.sparsePoints) || s.sparsePoints < 0) bad(`sparsePoints = ${s.sparsePoints}`, 'a whole number ≥ 0 (0 = exact kernel ridge)');
+  if (!Number.isInteger(s.maxFeatures) || s.maxFeatures < 0) bad(`maxFeatures = ${s.maxFeatures}`, 'a whole number ≥ 0');
+  return s;
+}
+
+/**
+ * The feature settings of a model: its own settings with the λ>0 limits resolved once (features.ts's
+ * tensorLimits) and stored, so a saved model keeps computing the same features if that default changes.
+ */
+function featureSettingsOf(s: ModelSettings, species: string[], centres: string[], limits?: { nmax: number; lmax: number }): FeatureSettings {
+  const base: FeatureSettings = { cutoff: s.cutoff, cutoffWidth: s.cutoffWidth, sigma: s.sigma, nmax: s.nmax, lmax: s.lmax, species, centres };
+  const t = limits ?? tensorLimits(base);
+  return { ...base, nmaxTensor: t.nmax, lmaxTensor: t.lmax };
+}
+
+function tensorOrderOf(shape: TargetShape): 1 | 2 | null {
+  return shape === 'tensor' ? 2 : shape === 'vector' ? 1 : null;
+}
+
+/** The featuriser the trained model uses (computeFeatures with the model's settings). */
+export function modelFeaturiser(model: Pick<Model, 'settings' | 'species' | 'centres' | 'target'> & { tensorLimits?: Model['tensorLimits'] }): Featuriser {
+  const fs = featureSettingsOf(model.settings, model.species, model.centres, model.tensorLimits);
+  const order = tensorOrderOf(model.target.shape);
+  const lambdas = order === null ? [] : [order];
+  return (frame) => computeFeatures(frame, fs, lambdas);
+}
+
+const yieldToLoop = (): Promise<void> => new Promise((r) => setTimeout(r, 0));
+
+function checkAbort(hooks?: WorkHooks): void {
+  if (hooks?.signal?.aborted) throw new CancelledError();
+}
+
+/** Irreducible components of a frame's learnt target. */
+interface TargetRows {
+  shape: TargetShape;
+  components: number;
+  /** frames × components */
+  values: Float64Array;
+  volumes: Float64Array;
+}
+
+export function learntTargets(frames: Frame[], request: TrainRequest): TargetRows {
+  if (frames.length === 0) throw new InputError('no frames to learn from', {}, 'give a file with at least one frame carrying the reference tensor');
+  const first = readValues(frames[0], request.tensorKey, 0);
+  const shape = shapeOfValues(first, request.tensorKey, whereOf(frames[0], 0));
+  const components = shape === 'tensor' ? 6 : shape === 'vector' ? 3 : 1;
+  const values = new Float64Array(frames.length * components);
+  const volumes = new Float64Array(frames.length);
+  frames.forEach((frame, f) => {
+    const raw = readValues(frame, request.tensorKey, f);
+    const s = shapeOfValues(raw, request.tensorKey, whereOf(frame, f));
+    if (s !== shape) throw new InputError(`property "${request.tensorKey}" has ${raw.length} numbers here but ${first.length} in the first frame`, whereOf(frame, f));
+    volumes[f] = frame.cell ? cellVolume(frame.cell, whereOf(frame, f)) : 0;
+    if (shape === 'tensor') {
+      const v = frameVolume(frame, f);
+      const t = learntTensor(readTensorValues(raw, frame, f), request.kind, request.route, v);
+      values.set(toIrreducible(t), f * 6);
+    } else if (shape === 'vector') values.set(vectorToSpherical(raw), f * 3);
+    else values[f] = raw[0];
+  });
+  return { shape, components, values, volumes };
+}
+
+function readTensorValues(raw: number[], frame: Frame, f: number): Mat3 {
+  return tensorFromValues(raw, whereOf(frame, f));
+}
+
+export function speciesOf(frames: Frame[], settings: ModelSettings, given?: string[]): { species: string[]; centres: string[] } {
+  const all = new Set<string>(given ?? []);
+  for (const f of frames) for (const s of f.species) all.add(s);
+  const species = [...all].sort();
+  const centres = settings.centres.length ? [...settings.centres] : species;
+  for (const c of centres) {
+    if (!all.has(c)) throw new InputError(`centre species "${c}" does not occur in the training frames`, {}, `species present: ${species.join(', ')}`);
+  }
+  return { species, centres };
+}
+
+/** Reservoir sample of environments per centre species (seeded), with the order-λ blocks when needed. */
+class PoolBuilder {
+  private seen: number[];
+  private rows: { species: number; p: Float64Array; block?: Float64Array; frame: number; centre: number }[][];
+  constructor(
+    private readonly nSpecies: number,
+    private readonly cap: number,
+    private readonly order: Order | null,
+    private readonly rng: ReturnType<typeof makeRng>,
+  ) {
+    this.seen = new Array(nSpecies).fill(0);
+    this.rows = Array.from({ length: nSpecies }, () => []);
+  }
+  add(feat: EnvironmentFeatures, frame: number): void {
+    const n0 = feat.n0;
+    const view = this.order !== null && this.order !== 0 ? blockView(feat, this.order) : null;
+    for (let e = 0; e < feat.count; e++) {
+      const s = feat.centreSpecies[e];
+      const k = this.seen[s]++;
+      let slot = -1;
+      if (k < this.cap) slot = k;
+      else {
+        const j = this.rng.int(k + 1);
+        if (j < this.cap) slot = j;
+      }
+      if (slot < 0) continue;
+      const row = {
+        species: s,
+        p: feat.scalar.slice(e * n0, (e + 1) * n0),
+        block: view ? view.data.slice(e * view.width * view.n, (e + 1) * view.width * view.n) : undefined,
+        frame,
+        centre: feat.centre[e],
+      };
+      this.rows[s][slot] = row;
+    }
+  }
+  build(n0: number): EnvironmentPool & { perSpecies: Int32Array[] } {
+    const flat = this.rows.flat();
+    const count = flat.length;
+    const p = new Float64Array(count * n0);
+    const species = new Int32Array(count);
+    let blocks: EnvironmentPool['blocks'];
+    if (this.order !== null && this.order !== 0 && count > 0 && flat[0].block) {
+      const size = flat[0].block.length;
+      const data = new Float64Array(count * size);
+      flat.forEach((r, i) => data.set(r.block as Float64Array, i * size));
+      blocks = { order: this.order, n: size / (2 * this.order + 1), data };
+    }
+    flat.forEach((r, i) => {
+      p.set(r.p, i * n0);
+      species[i] = r.species;
+    });
+    const perSpecies: Int32Array[] = [];
+    let at = 0;
+    for (let s = 0; s < this.nSpecies; s++) {
+      perSpecies.push(Int32Array.from({ length: this.rows[s].length }, (_, k) => at + k));
+      at += this.rows[s].length;
+    }
+    return { n0, count, species, p, blocks, perSpecies };
+  }
+}
+
+function quantile(values: number[], q: number): number {
+  if (values.length === 0) return 0;
+  const s = [...values].sort((a, b) => a - b);
+  const pos = q * (s.length - 1);
+  const lo = Math.floor(pos);
+  const hi = Math.ceil(pos);
+  return s[lo] + (s[hi] - s[lo]) * (pos - lo);
+}
+
+/** Per-species baseline b (per atom) minimising |N b − y|² with a tiny ridge (composition is often fixed). */
+function fitBaseline(counts: Float64Array, frames: number, species: number, y: Float64Array, stride: number): Float64Array {
+  const a = new Float64Array(species * species);
+  const rhs = new Float64Array(species);
+  for (let f = 0; f < frames; f++) {
+    for (let s = 0; s < species; s++) {
+      rhs[s] += counts[f * species + s] * y[f * stride];
+      for (let t = 0; t < species; t++) a[s * species + t] += counts[f * species + s] * counts[f * species + t];
+    }
+  }
+  let tr = 0;
+  for (let s = 0; s < species; s++) tr += a[s * species + s];
+  const eps = 1e-8 * (tr / species || 1);
+  for (let s = 0; s < species; s++) a[s * species + s] += eps;
+  // small S: Gaussian elimination is enough
+  const m = Float64Array.from(a);
+  const b = Float64Array.from(rhs);
+  for (let i = 0; i < species; i++) {
+    let piv = i;
+    for (let r = i + 1; r < species; r++) if (Math.abs(m[r * species + i]) > Math.abs(m[piv * species + i])) piv = r;
+    if (piv !== i) {
+      for (let c = 0; c < species; c++) [m[i * species + c], m[piv * species + c]] = [m[piv * species + c], m[i * species + c]];
+      [b[i], b[piv]] = [b[piv], b[i]];
+    }
+    for (let r = i + 1; r < species; r++) {
+      const g = m[r * species + i] / m[i * species + i];
+      for (let c = i; c < species; c++) m[r * species + c] -= g * m[i * species + c];
+      b[r] -= g * b[i];
+    }
+  }
+  for (let i = species - 1; i >= 0; i--) {
+    let s = b[i];
+    for (let c = i + 1; c < species; c++) s -= m[i * species + c] * b[c];
+    b[i] = s / m[i * species + i];
+  }
+  return b;
+}
+
+export interface TrainOptions {
+  /** Skip the applicability representatives (validation folds do not need them). */
+  applicability?: boolean;
+  /** Creation date to record (tests pass a fixed one). */
+  createdAt?: string;
+  /** Neighbour species to use instead of those of the training frames (validation folds share one set). */
+  species?: string[];
+}
+
+/** Training on frames with a given featuriser (trainModel uses computeFeatures; tests pass synthetic ones). */
+export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest, featurise: Featuriser | null, hooks: WorkHooks = {}, options: TrainOptions = {}): Promise<Model> {
+  const settings = resolveSettings(request.settings);
+  checkAbort(hooks);
+  const targets = learntTargets(frames, request);
+  const { species, centres } = speciesOf(frames, settings, options.species);
+  const order = tensorOrderOf(targets.shape);
+  const baseFeat: Featuriser = featurise ?? ((frame) => computeFeatures(frame, featureSettingsOf(settings, species, centres), order === null ? [] : [order]));
+  const nFrames = frames.length;
+  const nS = centres.length;
+  const rng = makeRng(settings.seed);
+  // Data-driven feature selection (maxFeatures > 0): columns chosen on a sample of up to 8 training frames.
+  let featureSelection: FeatureSelection | undefined;
+  let feat = baseFeat;
+  if (settings.maxFeatures > 0) {
+    hooks.onProgress?.({ stage: 'feature selection', done: 0, total: 1 });
+    const picks = [...new Set(Array.from({ length: Math.min(8, nFrames) }, (_, k) => Math.floor((k * nFrames) / Math.min(8, nFrames))))];
+    const sample = concatenateFeatures(picks.map((f) => baseFeat(frames[f], f)));
+    const sel: FeatureSelection = { 0: selectFeatures(sample, settings.maxFeatures, 0) };
+    if (order !== null) sel[order] = selectFeatures(sample, settings.maxFeatures, order);
+    featureSelection = sel;
+    feat = (frame, i) => applyFeatureSelection(baseFeat(frame, i), sel);
+    await yieldToLoop();
+  }
+  const linear = settings.zeta === 1;
+  const exact = !linear && settings.sparsePoints === 0;
+  const partsSpec: { order: Order; offset: number; width: number }[] = [];
+  if (targets.shape === 'tensor') partsSpec.push({ order: 0, offset: 0, width: 1 }, { order: 2, offset: 1, width: 5 });
+  else if (targets.shape === 'vector') partsSpec.push({ order: 1, offset: 0, width: 3 });
+  else partsSpec.push({ order: 0, offset: 0, width: 1 });
+  const hasIso = partsSpec[0].order === 0;
+
+  // Pass 1: features of every frame → composition, linear design rows, a sample of environments.
+  const counts = new Float64Array(nFrames * nS);
+  const pool = new PoolBuilder(nS, linear ? POOL_LINEAR : POOL_KERNEL, linear ? null : order ?? 0, rng);
+  const linearRows: Float64Array[][] = partsSpec.map(() => []);
+  const kept: EnvironmentFeatures[] = [];
+  let n0 = -1;
+  let nOrder: number | undefined;
+  let totalEnv = 0;
+  const atomsPerSpecies: Record<string, number> = {};
+  let atoms = 0;
+  for (let f = 0; f < nFrames; f++) {
+    checkAbort(hooks);
+    const fe = feat(frames[f], f);
+    if (n0 < 0) {
+      n0 = fe.n0;
+      if (order !== null) nOrder = blockView(fe, order).n;
+    }
+    totalEnv += fe.count;
+    if (exact && totalEnv > EXACT_LIMIT) {
+      throw new InputError(`exact kernel ridge would keep more than ${EXACT_LIMIT} environments`, {}, 'use the sparse form (sparsePoints > 0) or ζ = 1');
+    }
+    for (let e = 0; e < fe.count; e++) counts[f * nS + fe.centreSpecies[e]]++;
+    for (const s of frames[f].species) atomsPerSpecies[s] = (atomsPerSpecies[s] ?? 0) + 1;
+    atoms += frames[f].species.length;
+    if (linear) partsSpec.forEach((p, k) => linearRows[k].push(linearDesignRows(fe, p.order, nS)));
+    pool.add(fe, f);
+    if (exact) kept.push(fe);
+    hooks.onProgress?.({ stage: 'features', done: f + 1, total: nFrames });
+    await yieldToLoop();
+  }
+  for (let s = 0; s < nS; s++) {
+    let any = false;
+    for (let f = 0; f < nFrames; f++) if (counts[f * nS + s] > 0) any = true;
+    if (!any) throw new InputError(`no environments of centre species "${centres[s]}"`, {}, 'check the centre species');
+  }
+  const envPool = pool.build(n0);
+
+  // Baseline on the λ=0 component.
+  const y = targets.values;
+  const C = targets.components;
+  const baseline = hasIso ? fitBaseline(counts, nFrames, nS, y, C) : new Float64Array(nS);
+
+  // Cross-validation folds over frames (seeded).
+  const folds = Math.min(5, nFrames);
+  const perm = Int32Array.from({ length: nFrames }, (_, i) => i);
+  for (let i = nFrames - 1; i > 0; i--) {
+    const j = rng.int(i + 1);
+    [perm[i], perm[j]] = [perm[j], perm[i]];
+  }
+  const foldOf = foldsOf(perm, folds);
+  const cv = nFrames >= 3 ? { fold: foldOf, folds, signal: hooks.signal } : null;
+  const notes: string[] = [];
+  if (!cv && settings.regularisation === null) notes.push('fewer than 3 frames: regulariser not cross-validated (default 1e-6)');
+
+  // Representatives (FPS per species) for kernel parts and for applicability.
+  const wantApplicability = options.applicability !== false;
+  const repsPerSpecies = envPool.perSpecies.map((cand) => {
+    const m = linear ? (wantApplicability ? APPLICABILITY_POINTS : 0) : exact ? cand.length : settings.sparsePoints;
+    return farthestPointSample(envPool.p, n0, cand, m).chosen;
+  });
+  const repIndex = Int32Array.from(repsPerSpecies.flatMap((r) => [...r]));
+
+  // Pass 2 for the sparse form: K_NM rows per frame and order.
+  const parts: ModelPart[] = [];
+  const sparseReps = new Map<Order, Representatives>();
+  const sparseFactor = new Map<Order, Float64Array>();
+  const sparseRows: Float64Array[][] = partsSpec.map(() => []);
+  if (!linear && !exact) {
+    for (const p of partsSpec) {
+      const reps = representativesFrom(
+        p.order === 0 ? { ...envPool, blocks: undefined } : envPool,
+        repIndex,
+        p.order,
+      );
+      sparseReps.set(p.order, reps);
+      const size = reps.species.length * reps.width;
+      sparseFactor.set(p.order, representativeFactor(representativeKernel(reps, settings.zeta), size));
+    }
+    for (let f = 0; f < nFrames; f++) {
+      checkAbort(hooks);
+      const fe = feat(frames[f], f);
+      partsSpec.forEach((p, k) => {
+        const reps = sparseReps.get(p.order) as Representatives;
+        const size = reps.species.length * reps.width;
+        const knm = structureToRepresentatives(fe, reps, settings.zeta);
+        sparseRows[k].push(projectRows(knm, p.width, sparseFactor.get(p.order) as Float64Array, size));
+      });
+      hooks.onProgress?.({ stage: 'kernel', done: f + 1, total: nFrames });
+      await yieldToLoop();
+    }
+  }
+
+  for (let k = 0; k < partsSpec.length; k++) {
+    checkAbort(hooks);
+    const p = partsSpec[k];
+    hooks.onProgress?.({ stage: `fit λ=${p.order}`, done: k, total: partsSpec.length });
+    await yieldToLoop();
+    const rows = nFrames * p.width;
+    const yy = new Float64Array(rows);
+    const group = new Int32Array(rows);
+    for (let f = 0; f < nFrames; f++) {
+      for (let mu = 0; mu < p.width; mu++) {
+        let v = y[f * C + p.offset + mu];
+        if (p.order === 0) for (let s = 0; s < nS; s++) v -= counts[f * nS + s] * baseline[s];
+        yy[f * p.width + mu] = v;
+        group[f * p.width + mu] = f;
+      }
+    }
+    let design: Design;
+    if (exact) {
+      const gram = new Float64Array(rows * rows);
+      for (let a = 0; a < nFrames; a++) {
+        for (let b = 0; b <= a; b++) {
+          const blk = structureKernel(kept[a], kept[b], p.order, settings.zeta);
+          for (let mu = 0; mu < p.width; mu++) {
+            for (let nu = 0; nu < p.width; nu++) {
+              gram[(a * p.width + mu) * rows + b * p.width + nu] = blk[mu * p.width + nu];
+              gram[(b * p.width + nu) * rows + a * p.width + mu] = blk[mu * p.width + nu];
+            }
+          }
+        }
+      }
+      // λ=0: the per-species counts enter as a linear kernel N Nᵀ, so the baseline is refined jointly
+      if (p.order === 0) {
+        for (let a = 0; a < nFrames; a++) {
+          for (let b = 0; b < nFrames; b++) {
+            let c = 0;
+            for (let s = 0; s < nS; s++) c += counts[a * nS + s] * counts[b * nS + s];
+            gram[a * rows + b] += c;
+          }
+        }
+      }
+      design = { rows, group, y: yy, gram };
+    } else {
+      const src = linear ? linearRows[k] : sparseRows[k];
+      const base = src[0].length / p.width;
+      // λ=0: the per-species counts are extra columns, so the baseline is refined jointly with the weights
+      const extra = p.order === 0 ? nS : 0;
+      const fcount = base + extra;
+      const phi = new Float64Array(rows * fcount);
+      src.forEach((r, f) => {
+        for (let mu = 0; mu < p.width; mu++) {
+          phi.set(r.subarray(mu * base, (mu + 1) * base), (f * p.width + mu) * fcount);
+          if (extra) phi.set(counts.subarray(f * nS, (f + 1) * nS), (f * p.width + mu) * fcount + base);
+        }
+      });
+      design = { rows, group, y: yy, phi, features: fcount };
+    }
+    const given = settings.regularisation ?? (cv ? null : 1e-6);
+    const fit = fitRidge(design, given, cv, p.order === 0);
+    const regularisation = {
+      relative: fit.relative,
+      lambda: fit.lambda,
+      cvError: fit.cvError,
+      chosenBy: (settings.regularisation !== null ? 'given' : cv ? 'cross-validation' : 'default') as ModelPart['regularisation']['chosenBy'],
+      grid: fit.grid,
+    };
+    const n = p.order === 0 ? n0 : (nOrder as number);
+    const part: ModelPart = { order: p.order, offset: p.offset, form: linear ? 'linear' : 'kernel', method: linear ? fit.form : exact ? 'exact' : 'sparse', n, regularisation };
+    const refineBaseline = (delta: ArrayLike<number>) => {
+      for (let s = 0; s < nS; s++) baseline[s] += delta[s];
+    };
+    if (exact) {
+      // Representatives are every training environment; x_j = c of its frame's rows.
+      const allReps = exactRepresentatives(kept, p.order);
+      const x = new Float64Array(allReps.reps.species.length * p.width);
+      allReps.frame.forEach((fr, j) => {
+        for (let mu = 0; mu < p.width; mu++) x[j * p.width + mu] = fit.weights[fr * p.width + mu];
+      });
+      part.kernel = foldCoefficients(allReps.reps, x, settings.zeta);
+      if (p.order === 0) {
+        const delta = new Float64Array(nS);
+        for (let f = 0; f < nFrames; f++) for (let s = 0; s < nS; s++) delta[s] += fit.weights[f] * counts[f * nS + s];
+        refineBaseline(delta);
+      }
+      if (fit.posterior) part.posterior = { ...fit.posterior, repFrame: allReps.frame, counts: Float64Array.from(counts) };
+    } else {
+      const w = primalWeights(design, fit);
+      const base = (design.features as number) - (p.order === 0 ? nS : 0);
+      if (p.order === 0) refineBaseline(w.subarray(base));
+      if (linear) {
+        part.weights = w.slice(0, base);
+        if (fit.posterior) part.posterior = { form: 'primal', size: fit.posterior.size, factor: fit.posterior.factor, noise: fit.posterior.noise, lambda: fit.posterior.lambda };
+      } else {
+        const reps = sparseReps.get(p.order) as Representatives;
+        const l = sparseFactor.get(p.order) as Float64Array;
+        part.kernel = foldSparseWeights(reps, l, w.subarray(0, base), settings.zeta);
+        if (fit.posterior) part.posterior = { ...fit.posterior, nystrom: l };
+      }
+    }
+    parts.push(part);
+  }
+
+  // Applicability threshold from leave-self-out distances of the sampled training environments.
+  const applicability = { n0, species: new Int32Array(0), p: new Float64Array(0), threshold: 0, perSpecies: new Array(nS).fill(0), rule: '' };
+  if (wantApplicability) {
+    hooks.onProgress?.({ stage: 'applicability', done: 0, total: 1 });
+    await yieldToLoop();
+    const dist = nearestOtherDistances(envPool, repIndex);
+    for (let s = 0; s < nS; s++) {
+      const ds: number[] = [];
+      for (const i of envPool.perSpecies[s]) if (Number.isFinite(dist[i])) ds.push(dist[i]);
+      applicability.perSpecies[s] = APPLICABILITY_FACTOR * quantile(ds, APPLICABILITY_QUANTILE);
+    }
+    applicability.threshold = Math.max(...applicability.perSpecies);
+    applicability.species = Int32Array.from(repIndex, (i) => envPool.species[i]);
+    applicability.p = new Float64Array(repIndex.length * n0);
+    repIndex.forEach((i, k) => applicability.p.set(envPool.p.subarray(i * n0, (i + 1) * n0), k * n0));
+    applicability.rule = `${APPLICABILITY_FACTOR} × the ${APPLICABILITY_QUANTILE} quantile of the training environments' distances to the nearest other representative (${repIndex.length} representatives)`;
+  }
+
+  const stats = targetStatistics(y, nFrames, C);
+  let vmin = Infinity;
+  let vmax = -Infinity;
+  for (const v of targets.volumes) {
+    vmin = Math.min(vmin, v);
+    vmax = Math.max(vmax, v);
+  }
+  hooks.onProgress?.({ stage: 'done', done: 1, total: 1 });
+  return {
+    createdAt: options.createdAt ?? new Date().toISOString(),
+    target: {
+      key: request.tensorKey,
+      shape: targets.shape,
+      kind: targets.shape === 'tensor' ? request.kind : null,
+      route: request.route,
+      learnt: learntQuantity(targets.shape, request.route),
+      units: targets.shape === 'tensor' ? 'Å³' : 'as in the training file',
+    },
+    settings,
+    species,
+    centres,
+    featureSizes: { n0, n: nOrder },
+    tensorLimits: { nmax: featureSettingsOf(settings, species, centres).nmaxTensor as number, lmax: featureSettingsOf(settings, species, centres).lmaxTensor as number },
+    featureSelection,
+    baseline: [...baseline],
+    parts,
+    applicability,
+    training: { frames: nFrames, atoms, atomsPerSpecies, volumeA3: { min: vmin, max: vmax }, target: stats },
+    notes,
+  };
+}
+
+function exactRepresentatives(kept: EnvironmentFeatures[], order: Order): { reps: Representatives; frame: Int32Array } {
+  const total = kept.reduce((a, f) => a + f.count, 0);
+  const n0 = kept[0].n0;
+  const v0 = blockView(kept[0], order);
+  const w = v0.width;
+  const p = new Float64Array(total * n0);
+  const blocks = new Float64Array(total * w * v0.n);
+  const species = new Int32Array(total);
+  const frame = new Int32Array(total);
+  let at = 0;
+  kept.forEach((fe, f) => {
+    const v = blockView(fe, order);
+    for (let e = 0; e < fe.count; e++, at++) {
+      p.set(fe.scalar.subarray(e * n0, (e + 1) * n0), at * n0);
+      blocks.set(v.data.subarray(e * w * v.n, (e + 1) * w * v.n), at * w * v.n);
+      species[at] = fe.centreSpecies[e];
+      frame[at] = f;
+    }
+  });
+  return { reps: { order, n0, n: v0.n, width: w, species, p, blocks }, frame };
+}
+
+function targetStatistics(y: Float64Array, frames: number, c: number): TrainingSummary['target'] {
+  const mean = new Array(c).fill(0);
+  const std = new Array(c).fill(0);
+  const min = new Array(c).fill(Infinity);
+  const max = new Array(c).fill(-Infinity);
+  for (let f = 0; f < frames; f++) {
+    for (let k = 0; k < c; k++) {
+      const v = y[f * c + k];
+      mean[k] += v / frames;
+      min[k] = Math.min(min[k], v);
+      max[k] = Math.max(max[k], v);
+    }
+  }
+  for (let f = 0; f < frames; f++) for (let k = 0; k < c; k++) std[k] += (y[f * c + k] - mean[k]) ** 2 / frames;
+  return { mean, std: std.map(Math.sqrt), min, max };
+}
+
+/**
+ * Train a model on frames (the contract of model-types.ts). With `request.tune`, the listed settings are first
+ * chosen by cross-validation on the same frames (core/learning/tuning.ts); the choice is recorded in the model's notes.
+ */
+export async function trainModel(frames: Frame[], request: TrainRequest, hooks: WorkHooks = {}): Promise<Model> {
+  if (!request.tune || tuneCombinations(request.tune).length <= 1) return trainWithFeaturiser(frames, request, null, hooks);
+  const tuned = await tuneSettings(frames, request, request.tune, hooks);
+  const model = await trainWithFeaturiser(frames, { ...request, tune: undefined, settings: { ...(request.settings ?? {}), ...tuned.best } }, null, hooks);
+  const fmt = (s: Partial<ModelSettings>) => Object.entries(s).map(([k, v]) => `${k} ${v}`).join(', ');
+  model.notes.push(`tuned by cross-validation: ${fmt(tuned.best)} (scores: ${tuned.table.map((r) => `${fmt(r.settings)} → ${r.score.toPrecision(3)}`).join('; ')})`);
+  return model;
+}
+
+/** Check that a frame can be predicted by the model: species it knows. */
+export function checkFrameSpecies(model: Model, frame: Frame, index = 0): void {
+  const known = new Set(model.species);
+  const unseen = [...new Set(frame.species.filter((s) => !known.has(s)))];
+  if (unseen.length) {
+    const where = whereOf(frame, index);
+    const at = [where.file, where.frame !== undefined ? `frame ${where.frame}` : ''].filter(Boolean).join(', ');
+    throw new ModelError(`${at ? at + ': ' : ''}the model never saw species ${unseen.join(', ')} (it knows ${model.species.join(', ')}); a prediction would be meaningless — train a model that includes them`);
+  }
+}
+
+/**
+ * Prediction of the learnt target of any shape, from features as computeFeatures gives them (the model's
+ * feature selection, if any, is applied here).
+ */
+export function predictWithFeatures(model: Model, frame: Frame, raw: EnvironmentFeatures, index = 0): TargetPrediction {
+  checkFrameSpecies(model, frame, index);
+  const fe = model.featureSelection ? applyFeatureSelection(raw, model.featureSelection) : raw;
+  return predictFromParts(model, frame, fe, null);
+}
+
+/**
+ * The model's parts applied to λ=0 features `fe`; the λ>0 part's local contributions come from `readout` when
+ * given (tensor-readout.ts), else from fe's λ>0 features.
+ */
+function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, readout: { order: Order; values: Float64Array } | null): TargetPrediction {
+  if (fe.n0 !== model.featureSizes.n0) throw new ModelError(`features have ${fe.n0} λ=0 components but the model was trained with ${model.featureSizes.n0}`);
+  const nAtoms = frame.species.length;
+  const C = model.target.shape === 'tensor' ? 6 : model.target.shape === 'vector' ? 3 : 1;
+  const total = new Float64Array(C);
+  const local = new Float64Array(nAtoms * C);
+  let variance = 0;
+  for (const part of model.parts) {
+    const w = 2 * part.order + 1;
+    let contrib: Float64Array;
+    if (readout && readout.order === part.order) contrib = readout.values;
+    else {
+      const v = blockView(fe, part.order);
+      if (v.n !== part.n) throw new ModelError(`features of order λ=${part.order} have ${v.n} components but the model expects ${part.n}`);
+      contrib = localContributions(fe, part.order, part.form === 'linear' ? { linear: part.weights as Float64Array } : { kernel: part.kernel as KernelExpansion });
+    }
+    for (let e = 0; e < fe.count; e++) {
+      const atom = fe.centre[e];
+      for (let mu = 0; mu < w; mu++) {
+        let c = contrib[e * w + mu];
+        if (part.order === 0 && mu === 0) c += model.baseline[fe.centreSpecies[e]];
+        local[atom * C + part.offset + mu] += c;
+        total[part.offset + mu] += c;
+      }
+    }
+    if (part.order === 0 && part.posterior) variance = partVariance(model, part, fe);
+  }
+  const applicability = applicabilityOf(model, fe, nAtoms);
+  applicability.variance = variance;
+  return { irreducible: total, localIrreducible: local, components: C, applicability };
+}
+
+/** Predicts one frame (features included): what `predict` runs per frame. */
+export type Predictor = (frame: Frame, index: number) => TargetPrediction;
+
+/**
+ * The fastest exact way for this model to predict frames. A λ>0 part (tensor or vector target) is applied by
+ * the read-out of tensor-readout.ts, which never forms the λ>0 features (several times cheaper; equal to the
+ * feature route to round-off); models with a feature selection take the feature route. Build it once per model
+ * and reuse it: it prepares the weight matrices.
+ */
+export function modelPredictor(model: Model): Predictor {
+  const order = tensorOrderOf(model.target.shape);
+  const part = order === null ? undefined : model.parts.find((p) => p.order === order);
+  if (order === null || !part || model.featureSelection) {
+    const featurise = modelFeaturiser(model);
+    return (frame, index) => predictTarget(model, frame, index, featurise);
+  }
+  const fs = featureSettingsOf(model.settings, model.species, model.centres, model.tensorLimits);
+  const expected = featureCount(fs, order);
+  if (part.n !== expected) throw new ModelError(`the model's λ=${order} part expects ${part.n} features, its settings give ${expected}`);
+  const toMatrices = makeWeightMatrices(fs, order);
+  let readout: TensorReadout;
+  if (part.form === 'linear') {
+    const weights = part.weights as Float64Array;
+    const perSpecies = model.centres.map((_, s) => toMatrices(weights, s * part.n));
+    readout = { lambda: order, matrices: (_e, s) => perSpecies[s] };
+  } else {
+    const k = part.kernel as KernelExpansion;
+    const u = new Float64Array(k.n);
+    const W = new Float64Array(weightMatricesLength(fs, order));
+    readout = { lambda: order, matrices: (e, s, scalar) => toMatrices(kernelWeights(k, scalar, e, s, u), 0, W) };
+  }
+  return (frame, index) => {
+    checkFrameSpecies(model, frame, index);
+    const r = computeReadout(frame, fs, readout);
+    return predictFromParts(model, frame, r.features, { order, values: r.values });
+  };
+}
+
+function partVariance(model: Model, part: ModelPart, fe: EnvironmentFeatures): number {
+  const post = part.posterior as PartPosterior;
+  const nS = model.centres.length;
+  const counts = new Float64Array(nS);
+  for (let e = 0; e < fe.count; e++) counts[fe.centreSpecies[e]]++;
+  const withCounts = (row: Float64Array) => {
+    const out = new Float64Array(row.length + nS);
+    out.set(row);
+    out.set(counts, row.length);
+    return out;
+  };
+  const primal = { form: 'primal' as const, size: post.size, factor: post.factor, noise: post.noise, lambda: post.lambda };
+  if (part.form === 'linear') return posteriorVariance(primal, withCounts(linearDesignRows(fe, 0, nS)));
+  const k = part.kernel as KernelExpansion;
+  if (post.nystrom) {
+    const reps: Representatives = { order: 0, n0: k.n0, n: k.n0, width: 1, species: k.species, p: k.p, blocks: k.p };
+    const knm = structureToRepresentatives(fe, reps, k.zeta);
+    const phi = projectRows(knm, 1, post.nystrom, reps.species.length);
+    return posteriorVariance(primal, withCounts(phi));
+  }
+  // exact: k* over training frames, k** of the frame with itself
+  const repFrame = post.repFrame as Int32Array;
+  const kStar = new Float64Array(post.size);
+  for (let e = 0; e < fe.count; e++) {
+    for (let r = 0; r < k.species.length; r++) {
+      if (k.species[r] !== fe.centreSpecies[e]) continue;
+      kStar[repFrame[r]] += kernelPower(scalarDot(fe.scalar, e, k.p, r, k.n0), k.zeta);
+    }
+  }
+  const trainCounts = post.counts as Float64Array;
+  for (let b = 0; b < post.size; b++) for (let s = 0; s < nS; s++) kStar[b] += counts[s] * trainCounts[b * nS + s];
+  let kss = structureKernel(fe, fe, 0, k.zeta)[0];
+  for (let s = 0; s < nS; s++) kss += counts[s] * counts[s];
+  return posteriorVariance({ form: 'dual', size: post.size, factor: post.factor, noise: post.noise, lambda: post.lambda }, kStar, kss);
+}
+
+function applicabilityOf(model: Model, fe: EnvironmentFeatures, nAtoms: number): Applicability {
+  const a = model.applicability;
+  const atomDistance = new Float64Array(nAtoms);
+  let maxDistance = 0;
+  let atomsOutside = 0;
+  const m = a.species.length;
+  // bounded search, prepared once per model object; bit-identical to sparse.ts nearestDistance (nearest-search.ts)
+  const search = cachedNearestSearch(a);
+  for (let e = 0; e < fe.count; e++) {
+    let best = searchNearest(search, fe.scalar, e, fe.centreSpecies[e]);
+    if (!Number.isFinite(best)) best = 2;
+    atomDistance[fe.centre[e]] = best;
+    if (best > maxDistance) maxDistance = best;
+    if (m > 0 && best > a.perSpecies[fe.centreSpecies[e]]) atomsOutside++;
+  }
+  return { atomDistance, maxDistance, threshold: a.threshold, atomsOutside, variance: 0, outside: atomsOutside > 0 };
+}
+
+const predictors = new WeakMap<Model, Predictor>();
+
+/**
+ * Prediction of the learnt target for any shape (tensor, vector, scalar): through `featurise` when given (the
+ * feature route), else through the model's own predictor (modelPredictor, kept per model object).
+ */
+export function predictTarget(model: Model, frame: Frame, index = 0, featurise?: Featuriser): TargetPrediction {
+  if (featurise) {
+    checkFrameSpecies(model, frame, index);
+    return predictWithFeatures(model, frame, featurise(frame, index), index);
+  }
+  let predictor = predictors.get(model);
+  if (!predictor) {
+    predictor = modelPredictor(model);
+    predictors.set(model, predictor);
+  }
+  return predictor(frame, index);
+}
+
+/** The tensors of a tensor model's prediction (the contract of model-types.ts). */
+export function framePredictionFrom(model: Model, frame: Frame, pred: TargetPrediction, index = 0): FramePrediction {
+  if (model.target.shape !== 'tensor') {
+    throw new ModelError(`this model predicts a ${model.target.shape} ("${model.target.key}"), not a tensor; use predictTarget`);
+  }
+  const v = frameVolume(frame, index);
+  const learnt = fromIrreducible(pred.irreducible);
+  const { alphaCM, alphaC, eps } = tensorsFromLearnt(learnt, model.target.route, v);
+  const n = frame.species.length;
+  const local = new Float64Array(n * 9);
+  // route direct: contributions to ε − I of this cell, (4π/V) × the local α_c contribution (model-types.ts).
+  const scale = model.target.route === 'direct' ? (4 * Math.PI) / v : 1;
+  for (let i = 0; i < n; i++) {
+    const t = fromIrreducible(pred.localIrreducible.subarray(i * 6, i * 6 + 6));
+    for (let q = 0; q < 9; q++) local[i * 9 + q] = t[q] * scale;
+  }
+  return { volumeA3: v, alphaCM, alphaC, eps, local, applicability: pred.applicability };
+}
+
+export function predictFrame(model: Model, frame: Frame): FramePrediction {
+  return framePredictionFrom(model, frame, predictTarget(model, frame));
+}
+
+/** The Cartesian dipole of a vector model's prediction. */
+export function predictedVector(pred: TargetPrediction): Float64Array {
+  return sphericalToVector(pred.irreducible);
+}

@@ -1,0 +1,283 @@
+// Ridge regression on a design that is either explicit (rows × F features: the ζ = 1 linear model or the
+// projected-process features of the sparse model) or a precomputed structure kernel (rows × rows: exact kernel
+// ridge). The explicit form is solved in whichever space is smaller: primal (ΦᵀΦ + λI) w = Φᵀy (F×F) or dual
+// (ΦΦᵀ + λI) c = y (rows×rows), which give the same weights w = Φᵀc. The regulariser is relative to the mean
+// diagonal of the structure kernel and chosen by k-fold cross-validation over whole frames.
+import { choleskySolve, choleskyWithJitter, forwardSubstitute, gramOfColumns, gramOfRows } from '../numerics/cholesky.ts';
+import { CancelledError } from '../errors.ts';
+
+export interface Design {
+  /** Target rows (frames × (2λ+1)). */
+  rows: number;
+  /** Frame (group) of each row: cross-validation folds never split a frame. */
+  group: Int32Array;
+  y: Float64Array;
+  /** Explicit design, row-major rows × features. */
+  phi?: Float64Array;
+  features?: number;
+  /** Or the structure kernel, rows × rows. */
+  gram?: Float64Array;
+}
+
+/** What is needed for the predictive variance of new rows (GP posterior of the fitted model). */
+export type Posterior =
+  /** Latent variance = noise · |L⁻¹ φ|², with L L ᵀ = ΦᵀΦ + λI. */
+  | { form: 'primal'; size: number; factor: Float64Array; noise: number; lambda: number }
+  /** Latent variance = (noise/λ)(k** − |L⁻¹ k*|²), with L Lᵀ = K + λI and k* the kernel to the training rows. */
+  | { form: 'dual'; size: number; factor: Float64Array; noise: number; lambda: number };
+
+export interface RidgeFit {
+  /** 'primal': `weights` are w (length F); 'dual': `weights` are c (length rows). */
+  form: 'primal' | 'dual';
+  weights: Float64Array;
+  /** Relative regulariser chosen (or given) and its absolute value λ = relative × scale. */
+  relative: number;
+  lambda: number;
+  scale: number;
+  /** Cross-validated mean squared error per row at the chosen regulariser (NaN-free; 0 when no CV ran). */
+  cvError: number;
+  /** CV error for every grid value tried (empty when the regulariser was given). */
+  grid: { relative: number; error: number }[];
+  /** Present when asked for (the λ=0 part): explicit designs always get the primal form. */
+  posterior?: Posterior;
+}
+
+/** Mean diagonal of the structure kernel: the scale the relative regulariser multiplies. */
+export function designScale(d: Design): number {
+  let s = 0;
+  if (d.gram) {
+    for (let r = 0; r < d.rows; r++) s += d.gram[r * d.rows + r];
+  } else {
+    const f = featureCount(d);
+    const phi = d.phi as Float64Array;
+    for (let i = 0; i < d.rows * f; i++) s += phi[i] * phi[i];
+  }
+  const mean = d.rows > 0 ? s / d.rows : 0;
+  return mean > 0 ? mean : 1;
+}
+
+function featureCount(d: Design): number {
+  if (!d.phi || d.features === undefined) throw new RangeError('design needs phi and features, or gram');
+  return d.features;
+}
+
+/** Default grid of relative regularisers (log-spaced). */
+export const DEFAULT_REGULARISATION_GRID = [1e-9, 1e-8, 1e-7, 1e-6, 1e-5, 1e-4, 1e-3, 1e-2, 1e-1, 1];
+
+/**
+ * Fit on the rows in `train` and predict the rows in `test`, once per λ (absolute) in `lambdas`.
+ * Returns predictions[lambdaIndex][testRow].
+ */
+export function ridgeFitPredict(d: Design, train: Int32Array, test: Int32Array, lambdas: number[]): Float64Array[] {
+  const out = lambdas.map(() => new Float64Array(test.length));
+  const nt = train.length;
+  if (d.gram) {
+    const n = d.rows;
+    const k = new Float64Array(nt * nt);
+    for (let a = 0; a < nt; a++) for (let b = 0; b < nt; b++) k[a * nt + b] = d.gram[train[a] * n + train[b]];
+    const y = Float64Array.from(train, (r) => d.y[r]);
+    lambdas.forEach((lam, li) => {
+      const c = solveShifted(k, nt, lam, y);
+      for (let t = 0; t < test.length; t++) {
+        let s = 0;
+        const rt = test[t] * n;
+        for (let a = 0; a < nt; a++) s += d.gram![rt + train[a]] * c[a];
+        out[li][t] = s;
+      }
+    });
+    return out;
+  }
+  const f = featureCount(d);
+  const phi = d.phi as Float64Array;
+  const sub = new Float64Array(nt * f);
+  for (let a = 0; a < nt; a++) sub.set(phi.subarray(train[a] * f, train[a] * f + f), a * f);
+  const y = Float64Array.from(train, (r) => d.y[r]);
+  if (f <= nt) {
+    const g = gramOfColumns(sub, nt, f);
+    const b = new Float64Array(f);
+    for (let a = 0; a < nt; a++) for (let i = 0; i < f; i++) b[i] += sub[a * f + i] * y[a];
+    lambdas.forEach((lam, li) => {
+      const w = solveShifted(g, f, lam, b);
+      for (let t = 0; t < test.length; t++) out[li][t] = dotRow(phi, test[t] * f, w, f);
+    });
+  } else {
+    const k = gramOfRows(sub, nt, f);
+    lambdas.forEach((lam, li) => {
+      const c = solveShifted(k, nt, lam, y);
+      const w = new Float64Array(f);
+      for (let a = 0; a < nt; a++) {
+        const ca = c[a];
+        for (let i = 0; i < f; i++) w[i] += sub[a * f + i] * ca;
+      }
+      for (let t = 0; t < test.length; t++) out[li][t] = dotRow(phi, test[t] * f, w, f);
+    });
+  }
+  return out;
+}
+
+function dotRow(phi: Float64Array, base: number, w: Float64Array, f: number): number {
+  let s = 0;
+  for (let i = 0; i < f; i++) s += phi[base + i] * w[i];
+  return s;
+}
+
+/** Solve (A + λI) x = b for symmetric A (not modified). */
+function solveShifted(a: Float64Array, n: number, lambda: number, b: Float64Array): Float64Array {
+  const m = Float64Array.from(a);
+  for (let i = 0; i < n; i++) m[i * n + i] += lambda;
+  const { factor } = choleskyWithJitter(m, n);
+  return choleskySolve(factor, n, b);
+}
+
+/**
+ * Assign frames (groups 0…nGroups−1) to k folds: `order` is a permutation of the groups (seeded by the
+ * caller); consecutive runs of it form the folds, so fold sizes differ by at most one.
+ */
+export function foldsOf(order: ArrayLike<number>, k: number): Int32Array {
+  const n = order.length;
+  const fold = new Int32Array(n);
+  for (let p = 0; p < n; p++) fold[order[p]] = Math.floor((p * k) / n);
+  return fold;
+}
+
+export interface CrossValidationOptions {
+  /** Fold of each group (frame). */
+  fold: Int32Array;
+  folds: number;
+  grid?: number[];
+  signal?: AbortSignal;
+}
+
+/** Cross-validated mean squared error per row for every relative regulariser of the grid. */
+export function crossValidateRegularisation(d: Design, opts: CrossValidationOptions): { relative: number; error: number }[] {
+  const grid = opts.grid ?? DEFAULT_REGULARISATION_GRID;
+  const scale = designScale(d);
+  const lambdas = grid.map((g) => g * scale);
+  const sse = new Float64Array(grid.length);
+  let counted = 0;
+  const splits: { train: Int32Array; test: Int32Array }[] = [];
+  for (let k = 0; k < opts.folds; k++) {
+    const train: number[] = [];
+    const test: number[] = [];
+    for (let r = 0; r < d.rows; r++) (opts.fold[d.group[r]] === k ? test : train).push(r);
+    if (test.length && train.length) splits.push({ train: Int32Array.from(train), test: Int32Array.from(test) });
+  }
+  // When the folds solve in dual form, build the kernel of all rows once instead of once per fold.
+  let work = d;
+  if (!d.gram && splits.length && featureCount(d) > Math.min(...splits.map((s) => s.train.length))) {
+    work = { rows: d.rows, group: d.group, y: d.y, gram: gramOfRows(d.phi as Float64Array, d.rows, featureCount(d)) };
+  }
+  for (const { train, test } of splits) {
+    if (opts.signal?.aborted) throw new CancelledError();
+    const pred = ridgeFitPredict(work, train, test, lambdas);
+    pred.forEach((p, li) => {
+      for (let t = 0; t < test.length; t++) sse[li] += (p[t] - d.y[test[t]]) ** 2;
+    });
+    counted += test.length;
+  }
+  if (counted === 0) throw new RangeError('cross-validation needs at least two frames');
+  return grid.map((relative, i) => ({ relative, error: sse[i] / counted }));
+}
+
+/**
+ * Fit the ridge model on every row. With `relative` null the regulariser is chosen by cross-validation
+ * (smallest CV error; ties go to the larger, smoother regulariser).
+ */
+export function fitRidge(d: Design, relative: number | null, cv: CrossValidationOptions | null, wantPosterior = false): RidgeFit {
+  const scale = designScale(d);
+  let grid: { relative: number; error: number }[] = [];
+  let chosen = relative;
+  let cvError = 0;
+  if (chosen === null) {
+    if (!cv) throw new RangeError('fitRidge: no regulariser given and no cross-validation folds');
+    if (cv.grid) grid = crossValidateRegularisation(d, cv);
+    else {
+      // coarse grid every second decade, then the two decades beside the best: 7 solves per fold, not 10
+      const coarse = DEFAULT_REGULARISATION_GRID.filter((_, i) => i % 2 === 0);
+      grid = crossValidateRegularisation(d, { ...cv, grid: coarse });
+      const at = DEFAULT_REGULARISATION_GRID.indexOf(bestOf(grid).relative);
+      const extra = [at - 1, at + 1].filter((i) => i >= 0 && i < DEFAULT_REGULARISATION_GRID.length).map((i) => DEFAULT_REGULARISATION_GRID[i]);
+      grid = [...grid, ...crossValidateRegularisation(d, { ...cv, grid: extra })].sort((a, b) => a.relative - b.relative);
+    }
+    const best = bestOf(grid);
+    chosen = best.relative;
+    cvError = best.error;
+  } else if (cv) {
+    grid = crossValidateRegularisation(d, { ...cv, grid: [chosen] });
+    cvError = grid[0].error;
+  }
+  const lambda = chosen * scale;
+  const all = Int32Array.from({ length: d.rows }, (_, i) => i);
+  // Noise variance for the posterior: the CV error when there is one, else the training residual.
+  if (d.gram) {
+    const n = d.rows;
+    const m = Float64Array.from(d.gram);
+    for (let i = 0; i < n; i++) m[i * n + i] += lambda;
+    const { factor } = choleskyWithJitter(m, n);
+    const c = choleskySolve(factor, n, d.y);
+    const noise = !wantPosterior ? 0 : cvError > 0 ? cvError : residualNoise(d, all, lambda);
+    const posterior: Posterior | undefined = wantPosterior ? { form: 'dual', size: n, factor, noise, lambda } : undefined;
+    return { form: 'dual', weights: c, relative: chosen, lambda, scale, cvError, grid, posterior };
+  }
+  const f = featureCount(d);
+  const phi = d.phi as Float64Array;
+  const noise = !wantPosterior ? 0 : cvError > 0 ? cvError : residualNoise(d, all, lambda);
+  const primalFactor = (): Float64Array => {
+    const g = gramOfColumns(phi, d.rows, f);
+    for (let i = 0; i < f; i++) g[i * f + i] += lambda;
+    return choleskyWithJitter(g, f).factor;
+  };
+  if (f <= d.rows) {
+    const factor = primalFactor();
+    const b = new Float64Array(f);
+    for (let r = 0; r < d.rows; r++) for (let i = 0; i < f; i++) b[i] += phi[r * f + i] * d.y[r];
+    const w = choleskySolve(factor, f, b);
+    const posterior: Posterior | undefined = wantPosterior ? { form: 'primal', size: f, factor, noise, lambda } : undefined;
+    return { form: 'primal', weights: w, relative: chosen, lambda, scale, cvError, grid, posterior };
+  }
+  const k = gramOfRows(phi, d.rows, f);
+  for (let i = 0; i < d.rows; i++) k[i * d.rows + i] += lambda;
+  const { factor } = choleskyWithJitter(k, d.rows);
+  const c = choleskySolve(factor, d.rows, d.y);
+  const posterior: Posterior | undefined = wantPosterior ? { form: 'primal', size: f, factor: primalFactor(), noise, lambda } : undefined;
+  return { form: 'dual', weights: c, relative: chosen, lambda, scale, cvError, grid, posterior };
+}
+
+/** Smallest CV error; ties go to the larger (smoother) regulariser. */
+function bestOf(grid: { relative: number; error: number }[]): { relative: number; error: number } {
+  let best = grid[0];
+  for (const g of grid) if (g.error < best.error * (1 - 1e-9) || (g.error <= best.error * (1 + 1e-9) && g.relative > best.relative)) best = g;
+  return best;
+}
+
+function residualNoise(d: Design, all: Int32Array, lambda: number): number {
+  const [p] = ridgeFitPredict(d, all, all, [lambda]);
+  let s = 0;
+  for (let r = 0; r < d.rows; r++) s += (p[r] - d.y[r]) ** 2;
+  return d.rows > 0 ? s / d.rows : 0;
+}
+
+/** w = Φᵀ c for a dual fit of an explicit design. */
+export function primalWeights(d: Design, fit: RidgeFit): Float64Array {
+  if (fit.form === 'primal') return fit.weights;
+  const f = featureCount(d);
+  const phi = d.phi as Float64Array;
+  const w = new Float64Array(f);
+  for (let r = 0; r < d.rows; r++) {
+    const c = fit.weights[r];
+    for (let i = 0; i < f; i++) w[i] += phi[r * f + i] * c;
+  }
+  return w;
+}
+
+/**
+ * Latent predictive variance of one new row. Primal: pass φ. Dual: pass k* (kernel to each training row) and
+ * k** (the row's kernel with itself).
+ */
+export function posteriorVariance(post: Posterior, phiOrKStar: Float64Array, kStarStar = 0): number {
+  const z = forwardSubstitute(post.factor, post.size, Float64Array.from(phiOrKStar));
+  let q = 0;
+  for (let i = 0; i < post.size; i++) q += z[i] * z[i];
+  if (post.form === 'primal') return post.noise * q;
+  return Math.max(0, (post.noise / post.lambda) * (kStarStar - q));
+}

@@ -1,0 +1,269 @@
+// The sparse (subset-of-regressors / projected-process) form: M representative environments per centre species
+// chosen by farthest-point sampling in the λ=0 feature space, and the design that turns the sparse problem
+//   (K_NMᵀ K_NM + λ K_MM) x = K_NMᵀ y
+// into an ordinary ridge problem on the features Φ' = K_NM L⁻ᵀ (K_MM = L Lᵀ), solved by regression.ts; then
+// x = L⁻ᵀ w'. Also the per-atom applicability distances to the representatives.
+import { backSubstitute, choleskyWithJitter, forwardSubstitute } from '../numerics/cholesky.ts';
+import type { EnvironmentFeatures } from '../descriptors/feature-types.ts';
+import { kernelPower, type KernelExpansion, type Order } from './kernels.ts';
+
+/** Environments kept from training for sampling: their λ=0 rows and (optionally) the order-λ blocks. */
+export interface EnvironmentPool {
+  n0: number;
+  count: number;
+  species: Int32Array;
+  p: Float64Array;
+  /** Order-λ blocks, count × (2λ+1) × n, when the kernel form needs them. */
+  blocks?: { order: Order; n: number; data: Float64Array };
+}
+
+/** Euclidean distance between two λ=0 rows (unit rows: 0 … 2). */
+export function rowDistance(a: Float64Array, ia: number, b: Float64Array, ib: number, n0: number): number {
+  // four accumulators: this loop dominates farthest-point sampling and the applicability check
+  let s0 = 0;
+  let s1 = 0;
+  let s2 = 0;
+  let s3 = 0;
+  const oa = ia * n0;
+  const ob = ib * n0;
+  let f = 0;
+  for (; f + 3 < n0; f += 4) {
+    const d0 = a[oa + f] - b[ob + f];
+    const d1 = a[oa + f + 1] - b[ob + f + 1];
+    const d2 = a[oa + f + 2] - b[ob + f + 2];
+    const d3 = a[oa + f + 3] - b[ob + f + 3];
+    s0 += d0 * d0;
+    s1 += d1 * d1;
+    s2 += d2 * d2;
+    s3 += d3 * d3;
+  }
+  for (; f < n0; f++) {
+    const d = a[oa + f] - b[ob + f];
+    s0 += d * d;
+  }
+  return Math.sqrt(s0 + s1 + s2 + s3);
+}
+
+/**
+ * Farthest-point sampling of up to m rows among `candidates` (indices into p). Starts from the row farthest
+ * from the candidates' mean (deterministic, no randomness), then repeatedly adds the row farthest from the
+ * chosen set. Returns chosen indices in order and each candidate's distance to the chosen set.
+ */
+export function farthestPointSample(p: Float64Array, n0: number, candidates: Int32Array, m: number): { chosen: Int32Array; distance: Float64Array } {
+  const n = candidates.length;
+  const take = Math.min(m, n);
+  const chosen = new Int32Array(take);
+  const dist = new Float64Array(n).fill(Infinity);
+  if (take === 0) return { chosen, distance: dist };
+  const mean = new Float64Array(n0);
+  for (let c = 0; c < n; c++) for (let f = 0; f < n0; f++) mean[f] += p[candidates[c] * n0 + f] / n;
+  let next = 0;
+  let far = -1;
+  for (let c = 0; c < n; c++) {
+    const d = rowDistance(p, candidates[c], mean, 0, n0);
+    if (d > far) {
+      far = d;
+      next = c;
+    }
+  }
+  for (let k = 0; k < take; k++) {
+    chosen[k] = candidates[next];
+    dist[next] = 0;
+    let best = -1;
+    let bestAt = 0;
+    for (let c = 0; c < n; c++) {
+      if (dist[c] > 0) {
+        const d = rowDistance(p, candidates[c], p, chosen[k], n0);
+        if (d < dist[c]) dist[c] = d;
+      }
+      if (dist[c] > best) {
+        best = dist[c];
+        bestAt = c;
+      }
+    }
+    next = bestAt;
+    if (best <= 0) {
+      // every remaining candidate duplicates a chosen one
+      return { chosen: chosen.slice(0, k + 1), distance: dist };
+    }
+  }
+  return { chosen, distance: dist };
+}
+
+/**
+ * Distance of each pool row to the nearest representative other than itself (leave-self-out), for the
+ * applicability threshold. `reps` are pool indices; `repOf[i]` is i's own index in reps or −1.
+ */
+export function nearestOtherDistances(pool: EnvironmentPool, reps: Int32Array): Float64Array {
+  const own = new Map<number, number>();
+  reps.forEach((r, k) => own.set(r, k));
+  const out = new Float64Array(pool.count).fill(Infinity);
+  for (let i = 0; i < pool.count; i++) {
+    const self = own.get(i);
+    for (let k = 0; k < reps.length; k++) {
+      if (k === self || pool.species[reps[k]] !== pool.species[i]) continue;
+      const d = rowDistance(pool.p, i, pool.p, reps[k], pool.n0);
+      if (d < out[i]) out[i] = d;
+    }
+  }
+  return out;
+}
+
+/** The representatives of a sparse model of one order: λ=0 rows and order-λ blocks copied out of the pool. */
+export interface Representatives {
+  order: Order;
+  n0: number;
+  n: number;
+  width: number;
+  species: Int32Array;
+  p: Float64Array;
+  blocks: Float64Array;
+}
+
+export function representativesFrom(pool: EnvironmentPool, reps: Int32Array, order: Order): Representatives {
+  const n0 = pool.n0;
+  const width = 2 * order + 1;
+  let n = n0;
+  let src = pool.p;
+  if (order !== 0) {
+    if (!pool.blocks || pool.blocks.order !== order) throw new RangeError(`pool lacks order-${order} blocks`);
+    n = pool.blocks.n;
+    src = pool.blocks.data;
+  }
+  const m = reps.length;
+  const p = new Float64Array(m * n0);
+  const blocks = new Float64Array(m * width * n);
+  reps.forEach((r, k) => {
+    p.set(pool.p.subarray(r * n0, r * n0 + n0), k * n0);
+    blocks.set(src.subarray(r * width * n, (r + 1) * width * n), k * width * n);
+  });
+  return { order, n0, n, width, species: Int32Array.from(reps, (r) => pool.species[r]), p, blocks };
+}
+
+/** K_MM over (representative, μ) pairs, (M·w)×(M·w). */
+export function representativeKernel(reps: Representatives, zeta: number): Float64Array {
+  const { width: w, n, n0 } = reps;
+  const m = reps.species.length;
+  const size = m * w;
+  const k = new Float64Array(size * size);
+  for (let a = 0; a < m; a++) {
+    for (let b = 0; b <= a; b++) {
+      if (reps.species[a] !== reps.species[b]) continue;
+      let pp = 0;
+      for (let f = 0; f < n0; f++) pp += reps.p[a * n0 + f] * reps.p[b * n0 + f];
+      const s = kernelPower(pp, zeta - 1);
+      for (let mu = 0; mu < w; mu++) {
+        for (let nu = 0; nu < w; nu++) {
+          let d = 0;
+          const oa = (a * w + mu) * n;
+          const ob = (b * w + nu) * n;
+          for (let f = 0; f < n; f++) d += reps.blocks[oa + f] * reps.blocks[ob + f];
+          const val = d * s;
+          k[(a * w + mu) * size + b * w + nu] = val;
+          k[(b * w + nu) * size + a * w + mu] = val;
+        }
+      }
+    }
+  }
+  return k;
+}
+
+/**
+ * K_NM rows of one structure: for each μ, Σ over its environments of K^λ_μμ'(i, m), columns (m, μ').
+ * Returns w × (M·w).
+ */
+export function structureToRepresentatives(feat: EnvironmentFeatures, reps: Representatives, zeta: number): Float64Array {
+  const { width: w, n, n0 } = reps;
+  const m = reps.species.length;
+  const cols = m * w;
+  const out = new Float64Array(w * cols);
+  const data = reps.order === 0 ? feat.scalar : feat.tensor[reps.order]?.data;
+  if (!data) throw new RangeError(`features of order λ=${reps.order} were not computed`);
+  // Accumulate Y_m = Σ_i s(i,m) ξ(i) per representative, then contract with ξ(m).
+  const acc = new Float64Array(w * n);
+  for (let r = 0; r < m; r++) {
+    acc.fill(0);
+    let any = false;
+    for (let e = 0; e < feat.count; e++) {
+      if (feat.centreSpecies[e] !== reps.species[r]) continue;
+      let pp = 0;
+      for (let f = 0; f < n0; f++) pp += feat.scalar[e * n0 + f] * reps.p[r * n0 + f];
+      const s = kernelPower(pp, zeta - 1);
+      if (s === 0) continue;
+      any = true;
+      const src = e * w * n;
+      for (let q = 0; q < w * n; q++) acc[q] += s * data[src + q];
+    }
+    if (!any) continue;
+    for (let mu = 0; mu < w; mu++) {
+      for (let nu = 0; nu < w; nu++) {
+        let d = 0;
+        const ob = (r * w + nu) * n;
+        for (let f = 0; f < n; f++) d += acc[mu * n + f] * reps.blocks[ob + f];
+        out[mu * cols + r * w + nu] = d;
+      }
+    }
+  }
+  return out;
+}
+
+/** Cholesky factor of K_MM (with the smallest jitter that makes it positive definite). */
+export function representativeFactor(kmm: Float64Array, size: number): Float64Array {
+  return choleskyWithJitter(kmm, size).factor;
+}
+
+/** Φ' rows = L⁻¹ k for every row of a K_NM block (in place on a copy). */
+export function projectRows(knm: Float64Array, rows: number, l: Float64Array, size: number): Float64Array {
+  const out = Float64Array.from(knm);
+  for (let r = 0; r < rows; r++) forwardSubstitute(l, size, out.subarray(r * size, (r + 1) * size));
+  return out;
+}
+
+/** x = L⁻ᵀ w' and the folded expansion v_m = Σ_μ' x_mμ' ξ_μ'(m). */
+export function foldSparseWeights(reps: Representatives, l: Float64Array, wPrime: Float64Array, zeta: number): KernelExpansion {
+  const size = reps.species.length * reps.width;
+  const x = backSubstitute(l, size, Float64Array.from(wPrime));
+  return foldCoefficients(reps, x, zeta);
+}
+
+/** v_m = Σ_μ' x_(m,μ') ξ_μ'(m), for coefficients x over (representative, μ') pairs. */
+export function foldCoefficients(reps: Representatives, x: Float64Array, zeta: number): KernelExpansion {
+  const { width: w, n } = reps;
+  const m = reps.species.length;
+  const v = new Float64Array(m * n);
+  for (let r = 0; r < m; r++) {
+    for (let nu = 0; nu < w; nu++) {
+      const c = x[r * w + nu];
+      if (c === 0) continue;
+      const ob = (r * w + nu) * n;
+      for (let f = 0; f < n; f++) v[r * n + f] += c * reps.blocks[ob + f];
+    }
+  }
+  return { zeta, n0: reps.n0, n, species: Int32Array.from(reps.species), p: Float64Array.from(reps.p), v };
+}
+
+/**
+ * Distance from row i of `a` to the nearest row of `reps` whose species is `species` (Infinity if none).
+ * Partial sums are checked every 16 features against the best so far, so far-away representatives are left
+ * early; the result is exact. Prediction uses the bounded search of nearest-search.ts, which returns the same
+ * number bit for bit; this plain scan stays as its reference.
+ */
+export function nearestDistance(a: Float64Array, i: number, reps: Float64Array, repSpecies: Int32Array, species: number, n0: number): number {
+  let best = Infinity;
+  const oa = i * n0;
+  for (let r = 0; r < repSpecies.length; r++) {
+    if (repSpecies[r] !== species) continue;
+    const ob = r * n0;
+    let s = 0;
+    let f = 0;
+    while (f < n0 && s < best) {
+      const end = Math.min(n0, f + 16);
+      for (; f < end; f++) {
+        const d = a[oa + f] - reps[ob + f];
+        s += d * d;
+      }
+    }
+    if (s < best) best = s;
+  }
+  return Math.sqrt(best);
+}

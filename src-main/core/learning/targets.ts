@@ -1,0 +1,91 @@
+// What the learning engine learns from a frame's reference value, and how a prediction turns back into the
+// tensors a user asked for. A symmetric 3×3 tensor is learnt as an additive (extensive) cell polarisability,
+// split into its λ=0 and λ=2 parts; a 3-vector (dipole) as λ=1; a single number as λ=0.
+//
+// Routes for tensors (docs/learning-engine.md, "Routes"):
+//   cm     — learn α_CM = (3V/4π)(ε − I)(ε + 2I)⁻¹ as a sum of local contributions; ε by the forward relation.
+//   direct — learn α_c = (ε − I) V/4π as a sum of local contributions; ε = I + (4π/V) α_c. This is ε itself
+//            without the local-field correction, made extensive by the volume so that a supercell of the same
+//            material keeps its ε (the additive target must scale with the number of atoms).
+import { convertTensor } from '../dielectric/clausius-mossotti.ts';
+import { cellVolume } from '../geometry/cell.ts';
+import { InputError, type Where } from '../errors.ts';
+import type { Frame, Mat3 } from '../geometry/frame.ts';
+import type { Route, TensorKind } from './model-types.ts';
+import { tensorFromValues } from '../dielectric/tensor.ts';
+
+export type TargetShape = 'tensor' | 'vector' | 'scalar';
+
+/** The quantity the kernel model sums over atoms. */
+export type LearntQuantity = 'alpha-cm' | 'alpha-c' | 'vector' | 'scalar';
+
+export function whereOf(frame: Frame, index: number): Where {
+  return frame.source ? { file: frame.source.file, line: frame.source.line, frame: frame.source.index } : { frame: index };
+}
+
+/** The raw values of `key` in a frame, with a clear error when missing or not numeric. */
+export function readValues(frame: Frame, key: string, index: number): number[] {
+  const v = frame.info[key];
+  const where = whereOf(frame, index);
+  if (v === undefined) {
+    const keys = Object.keys(frame.info);
+    throw new InputError(`no property "${key}" in this frame`, where, keys.length ? `keys present: ${keys.join(', ')}` : 'the frame has no per-frame properties');
+  }
+  const values = typeof v === 'number' ? [v] : Array.isArray(v) ? v : null;
+  if (!values || values.some((x) => typeof x !== 'number' || !Number.isFinite(x))) {
+    throw new InputError(`property "${key}" is not a list of finite numbers`, where, 'give 9 (row-major 3×3), 6 (Voigt), 3 (a vector) or 1 number');
+  }
+  return values;
+}
+
+export function shapeOfValues(values: number[], key: string, where: Where): TargetShape {
+  if (values.length === 9 || values.length === 6) return 'tensor';
+  if (values.length === 3) return 'vector';
+  if (values.length === 1) return 'scalar';
+  throw new InputError(`property "${key}" has ${values.length} numbers`, where, 'a tensor needs 9 (row-major) or 6 (Voigt xx yy zz yz xz xy), a vector 3, a scalar 1');
+}
+
+export function learntQuantity(shape: TargetShape, route: Route): LearntQuantity {
+  if (shape === 'vector') return 'vector';
+  if (shape === 'scalar') return 'scalar';
+  return route === 'cm' ? 'alpha-cm' : 'alpha-c';
+}
+
+/** Cell volume (Å³) of a frame whose tensor is to be learnt or predicted; a clear error for open structures. */
+export function frameVolume(frame: Frame, index: number): number {
+  const where = whereOf(frame, index);
+  if (!frame.cell) throw new InputError('this frame has no cell', where, 'cell tensors (ε, α) need a periodic cell (Lattice="…" in extended XYZ)');
+  return cellVolume(frame.cell, where);
+}
+
+/** The reference tensor of a frame, as a symmetric Mat3 of the given kind. */
+export function readTensor(frame: Frame, key: string, index: number): Mat3 {
+  const values = readValues(frame, key, index);
+  const where = whereOf(frame, index);
+  if (shapeOfValues(values, key, where) !== 'tensor') throw new InputError(`property "${key}" is not a 3×3 tensor`, where);
+  return tensorFromValues(values, where);
+}
+
+/** The additive tensor to learn (α_CM or α_c, Å³) from a reference tensor of kind `kind`. */
+export function learntTensor(t: Mat3, kind: TensorKind, route: Route, volumeA3: number): Mat3 {
+  return convertTensor(t, kind, route === 'cm' ? 'alpha-cm' : 'alpha-c', volumeA3);
+}
+
+/** α_CM, α_c and ε from a predicted additive tensor of a route. */
+export function tensorsFromLearnt(learnt: Mat3, route: Route, volumeA3: number): { alphaCM: Mat3; alphaC: Mat3; eps: Mat3 } {
+  const from: TensorKind = route === 'cm' ? 'alpha-cm' : 'alpha-c';
+  return {
+    alphaCM: route === 'cm' ? Float64Array.from(learnt) : convertTensor(learnt, from, 'alpha-cm', volumeA3),
+    alphaC: route === 'direct' ? Float64Array.from(learnt) : convertTensor(learnt, from, 'alpha-c', volumeA3),
+    eps: convertTensor(learnt, from, 'eps', volumeA3),
+  };
+}
+
+/** A Cartesian vector (x, y, z) in the real-harmonic λ=1 order μ = −1, 0, 1 ↔ (y, z, x) (science.md §3). */
+export function vectorToSpherical(v: ArrayLike<number>): Float64Array {
+  return Float64Array.of(v[1], v[2], v[0]);
+}
+
+export function sphericalToVector(s: ArrayLike<number>): Float64Array {
+  return Float64Array.of(s[2], s[0], s[1]);
+}

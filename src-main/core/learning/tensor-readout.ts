@@ -1,0 +1,203 @@
+// Linear read-out of the λ > 0 features without forming them. A model that is linear in the unit-norm λ = 1 or
+// λ = 2 features of an environment (ζ = 1 weights, or a kernel model's per-environment folded weights u) needs
+// only y_μ = Σ_f ξ̂_fμ u_f, not the (2λ+1)·nλ features themselves, and both factors of that sum are cheap from
+// the density coefficients:
+//
+//   numerator:  Σ_f ξ_fμ u_f = Σ_blocks Σ_{m m'} C^{λμ}_{lm,l'm'} (Aᵀ W B)_{m m'}
+//   norm²:      Σ_f Σ_μ ξ_fμ² = Σ_blocks k Σ_μ tr(C^μᵀ G_A C^μ G_B),   G_A = AᵀA, G_B = BᵀB
+//
+// where, for a block (l, l'), A and B hold the coefficients c_{ch,lm} and c_{ch,l'm'} of the tensor channels
+// (channels × (2l+1) and channels × (2l'+1)), W is the channels × channels matrix of the weights u_f times the
+// storage weights (1 or √2, features.ts) of the block's stored pairs, and k = 2 for l < l' (both orders of the
+// pair are stored once with weight √2) and 1 for l = l' (the stored c1 ≤ c2 pairs with √2 off the diagonal count
+// every ordered pair once, because the coupled product is symmetric in the two factors when l + l' + λ is even).
+// The cost per environment is about Σ_blocks channels²·(2l+1) multiply-adds instead of the
+// Σ_blocks pairs·(2λ+1)·(2l+1) of the features plus the dot products; the result equals the feature route to
+// round-off (tested against computeFeatures + a dot product).
+import type { NeighbourPairs } from '../descriptors/density.ts';
+import type { EnvironmentFeatures, FeatureSettings } from '../descriptors/feature-types.ts';
+import { featurePlan, featurise, prepare, type FeatureTimings, type Plan, type TensorPlan } from '../descriptors/features.ts';
+import type { Frame } from '../geometry/frame.ts';
+
+/** What a read-out needs per environment: its weight matrices (weightMatrices layout). */
+export interface TensorReadout {
+  lambda: 1 | 2;
+  /**
+   * The weight matrices for environment e, given the index of its centre species and its complete unit-norm
+   * λ = 0 row scalar[at…at+n0) (a kernel model's weights depend on it). The array may be reused between calls.
+   */
+  matrices(e: number, centreSpecies: number, scalar: Float64Array, at: number): Float64Array;
+}
+
+export interface ReadoutResult {
+  /** The λ = 0 features of every centre (no λ > 0 block: `tensor` is empty). */
+  features: EnvironmentFeatures;
+  /** Per environment, the 2λ+1 read-out values y_μ = Σ_f ξ̂_fμ u_f (μ = 0…2λ for m = −λ…λ). */
+  values: Float64Array;
+}
+
+function tensorPlanOf(settings: FeatureSettings, lambda: 1 | 2): { P: Plan; T: TensorPlan } {
+  const P = featurePlan(settings, [lambda]);
+  return { P, T: P.tensors[0] };
+}
+
+/** Length of the weight-matrix array of order λ: one channels × channels matrix per (l, l') block. */
+export function weightMatricesLength(settings: FeatureSettings, lambda: 1 | 2): number {
+  const { P, T } = tensorPlanOf(settings, lambda);
+  return T.blocks.length * P.tch * P.tch;
+}
+
+/**
+ * A converter from weight vectors over the λ features in storage order (u[from…from+nλ)) to weight matrices:
+ * block b's matrix W[b·ch² + c1·ch + c2] = u_f × storage weight of the pair (c1, c2) stored as feature f, 0 where
+ * no pair is stored (c2 < c1 in an l = l' block). Make it once per settings (a kernel model converts per
+ * environment).
+ */
+export function makeWeightMatrices(settings: FeatureSettings, lambda: 1 | 2): (u: Float64Array, from?: number, out?: Float64Array) => Float64Array {
+  const { P, T } = tensorPlanOf(settings, lambda);
+  const tch = P.tch;
+  const size = T.blocks.length * tch * tch;
+  return (u, from = 0, out) => {
+    if (u.length < from + T.n) throw new RangeError(`weightMatrices: ${u.length - from} weights from index ${from}, the λ = ${lambda} features have ${T.n}`);
+    const W = out ?? new Float64Array(size);
+    if (W.length < size) throw new RangeError(`weightMatrices: the output holds ${W.length} numbers, ${size} are needed`);
+    W.fill(0, 0, size);
+    for (let b = 0; b < T.blocks.length; b++) {
+      const blk = T.blocks[b];
+      const base = b * tch * tch;
+      for (let c1 = 0; c1 < tch; c1++) {
+        for (let q = blk.firstStart[c1]; q < blk.firstStart[c1 + 1]; q++) {
+          W[base + c1 * tch + blk.ch2[q]] = u[from + blk.offset + q] * blk.weight[q];
+        }
+      }
+    }
+    return W;
+  };
+}
+
+/** makeWeightMatrices for a single conversion. */
+export function weightMatrices(settings: FeatureSettings, lambda: 1 | 2, u: Float64Array, from = 0, out?: Float64Array): Float64Array {
+  return makeWeightMatrices(settings, lambda)(u, from, out);
+}
+
+/** Scratch of one read-out: transposed coefficients and Gram matrices per degree, block products. */
+interface Scratch {
+  /** Per degree l: (2l+1) × channels, the coefficients c_{ch,lm} with m outer. */
+  ct: Float64Array[];
+  /** Per degree l: (2l+1) × (2l+1) Gram matrix Σ_ch c_{ch,lm} c_{ch,lm'}. */
+  gram: Float64Array[];
+  /** (2l+1) × channels product AᵀW, and (2l+1) × (2l'+1) product AᵀWB. */
+  left: Float64Array;
+  both: Float64Array;
+}
+
+function scratchFor(P: Plan, T: TensorPlan): Scratch {
+  const lmax = T.blocks.reduce((m, b) => Math.max(m, b.l2), 0);
+  const w = 2 * lmax + 1;
+  return {
+    ct: Array.from({ length: lmax + 1 }, (_, l) => new Float64Array((2 * l + 1) * P.tch)),
+    gram: Array.from({ length: lmax + 1 }, (_, l) => new Float64Array((2 * l + 1) * (2 * l + 1))),
+    left: new Float64Array(w * P.tch),
+    both: new Float64Array(w * w),
+  };
+}
+
+/** y[at…at+2λ] = the read-out of one environment with coefficients c and weight matrices W. */
+function readOne(P: Plan, T: TensorPlan, c: Float64Array, W: Float64Array, S: Scratch, y: Float64Array, at: number): void {
+  const tch = P.tch;
+  const nM = 2 * T.lambda + 1;
+  for (let l = 0; l < S.ct.length; l++) {
+    const w = 2 * l + 1;
+    const ct = S.ct[l];
+    const base = P.tensorBase[l];
+    for (let k = 0; k < tch; k++) {
+      const o = base[k];
+      for (let m = 0; m < w; m++) ct[m * tch + k] = c[o + m];
+    }
+    const g = S.gram[l];
+    for (let m = 0; m < w; m++) {
+      for (let n = m; n < w; n++) {
+        let s = 0;
+        for (let k = 0; k < tch; k++) s += ct[m * tch + k] * ct[n * tch + k];
+        g[m * w + n] = s;
+        g[n * w + m] = s;
+      }
+    }
+  }
+  for (let mu = 0; mu < nM; mu++) y[at + mu] = 0;
+  let norm2 = 0;
+  const { left, both } = S;
+  for (let b = 0; b < T.blocks.length; b++) {
+    const blk = T.blocks[b];
+    const w1 = 2 * blk.l + 1, w2 = 2 * blk.l2 + 1;
+    const a = S.ct[blk.l], bt = S.ct[blk.l2];
+    const wb = b * tch * tch;
+    // left = Aᵀ W (w1 × channels); an l = l' block's W is upper triangular (pairs c1 ≤ c2 only)
+    const upper = blk.l === blk.l2;
+    left.fill(0, 0, w1 * tch);
+    for (let m = 0; m < w1; m++) {
+      const lo = m * tch;
+      for (let c1 = 0; c1 < tch; c1++) {
+        const x = a[lo + c1];
+        if (x === 0) continue;
+        const wo = wb + c1 * tch;
+        for (let c2 = upper ? c1 : 0; c2 < tch; c2++) left[lo + c2] += x * W[wo + c2];
+      }
+    }
+    // both = Aᵀ W B (w1 × w2)
+    for (let m = 0; m < w1; m++) {
+      for (let m2 = 0; m2 < w2; m2++) {
+        let s = 0;
+        for (let k = 0; k < tch; k++) s += left[m * tch + k] * bt[m2 * tch + k];
+        both[m * w2 + m2] = s;
+      }
+    }
+    const { muStart, e1, e2, ev } = blk;
+    const ga = S.gram[blk.l], gb = S.gram[blk.l2];
+    let blockNorm = 0;
+    for (let mu = 0; mu < nM; mu++) {
+      let s = 0;
+      for (let k = muStart[mu]; k < muStart[mu + 1]; k++) {
+        s += ev[k] * both[e1[k] * w2 + e2[k]];
+        // Σ_{k'} v_k v_k' G_A[m_k, m_k'] G_B[m'_k, m'_k'], the terms k' = k once and k' < k twice
+        const ra = e1[k] * w1, rb = e2[k] * w2;
+        let t = 0.5 * ev[k] * ga[ra + e1[k]] * gb[rb + e2[k]];
+        for (let k2 = muStart[mu]; k2 < k; k2++) t += ev[k2] * ga[ra + e1[k2]] * gb[rb + e2[k2]];
+        blockNorm += 2 * ev[k] * t;
+      }
+      y[at + mu] += s;
+    }
+    norm2 += blk.l === blk.l2 ? blockNorm : 2 * blockNorm;
+  }
+  if (norm2 > 0 && Number.isFinite(norm2)) {
+    const inv = 1 / Math.sqrt(norm2);
+    for (let mu = 0; mu < nM; mu++) y[at + mu] *= inv;
+  } else {
+    // a zero block (e.g. λ = 2 of a lone atom) stays zero, as in computeFeatures
+    for (let mu = 0; mu < nM; mu++) y[at + mu] = 0;
+  }
+}
+
+/**
+ * The λ = 0 features of every centre of `frame` and the read-out of its λ > 0 features: what a prediction needs
+ * from the features, at a fraction of the cost of computeFeatures with λ > 0. Environments in atom order.
+ */
+export function computeReadout(frame: Frame, settings: FeatureSettings, readout: TensorReadout, neighbours?: NeighbourPairs, timings?: FeatureTimings): ReadoutResult {
+  const lambda = readout.lambda;
+  const prep = prepare(frame, settings, [0, lambda], neighbours, timings);
+  const P = prep.P;
+  const T = P.tensors[0];
+  const count = prep.centres.length;
+  const nM = 2 * lambda + 1;
+  const scalar = new Float64Array(count * P.n0);
+  const values = new Float64Array(count * nM);
+  const S = scratchFor(P, T);
+  featurise(prep, scalar, (e) => e, (e, k0, c) => {
+    const W = readout.matrices(e, prep.centreSpecies[e], scalar, k0 * P.n0);
+    readOne(P, T, c, W, S, values, e * nM);
+  }, null, timings);
+  return {
+    features: { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor: {} },
+    values,
+  };
+}

@@ -1,0 +1,340 @@
+// k-fold cross-validation of a training request over whole frames, learning curves, and the error figures of
+// the irreducible parts (definitions in docs/learning-engine.md, "Validation"):
+//   RMSE λ=0  = sqrt( mean over frames of (ΔT⁰)² )
+//   RMSE λ=2  = sqrt( mean over frames of Σ_μ (ΔT²_μ)² )          (the per-frame norm of the 5-component error)
+//   %RMSE     = 100 · RMSE / SD, SD λ=0 = population standard deviation of the reference T⁰ over frames,
+//               SD λ=2 = sqrt( mean over frames of Σ_μ (T²_μ − mean_μ)² )
+//   R²        = 1 − Σ Δ² / Σ (T − mean)²   (over the same components)
+// Tensor targets are compared on ε and on α_CM, whichever route was learnt.
+import { convertTensor } from '../dielectric/clausius-mossotti.ts';
+import { CancelledError, InputError } from '../errors.ts';
+import type { EnvironmentFeatures } from '../descriptors/feature-types.ts';
+import type { Frame } from '../geometry/frame.ts';
+import {
+  framePredictionFrom,
+  modelFeaturiser,
+  predictWithFeatures,
+  predictedVector,
+  resolveSettings,
+  speciesOf,
+  trainWithFeaturiser,
+  type Featuriser,
+  type Model,
+} from './model.ts';
+import type { ErrorFigures, ParityPoint, TrainRequest, ValidationReport, WorkHooks } from './model-types.ts';
+import { makeRng } from '../numerics/random.ts';
+import { foldsOf } from './regression.ts';
+import { frameVolume, readTensor, readValues, shapeOfValues, whereOf } from './targets.ts';
+import { toIrreducible } from '../dielectric/tensor.ts';
+
+/** Error figures of paired 6-component irreducible vectors [T⁰, T²₋₂…T²₂]. */
+export function errorFigures(reference: ArrayLike<number>[], predicted: ArrayLike<number>[]): ErrorFigures {
+  const n = reference.length;
+  if (n === 0 || predicted.length !== n) throw new RangeError('errorFigures: need equal, non-empty lists');
+  const mean = new Float64Array(6);
+  for (const r of reference) for (let k = 0; k < 6; k++) mean[k] += r[k] / n;
+  let sseIso = 0;
+  let sstIso = 0;
+  let sseAniso = 0;
+  let sstAniso = 0;
+  for (let i = 0; i < n; i++) {
+    const r = reference[i];
+    const p = predicted[i];
+    sseIso += (p[0] - r[0]) ** 2;
+    sstIso += (r[0] - mean[0]) ** 2;
+    for (let k = 1; k < 6; k++) {
+      sseAniso += (p[k] - r[k]) ** 2;
+      sstAniso += (r[k] - mean[k]) ** 2;
+    }
+  }
+  const rmseIso = Math.sqrt(sseIso / n);
+  const rmseAniso = Math.sqrt(sseAniso / n);
+  const sdIso = Math.sqrt(sstIso / n);
+  const sdAniso = Math.sqrt(sstAniso / n);
+  // With a constant reference the relative figures are undefined; report them as infinite error / R² 0
+  // rather than NaN so that nothing downstream mistakes them for numbers.
+  const pct = (rmse: number, sd: number) => (sd > 0 ? (100 * rmse) / sd : rmse > 0 ? Infinity : 0);
+  const r2 = (sse: number, sst: number) => (sst > 0 ? 1 - sse / sst : sse > 0 ? -Infinity : 1);
+  return {
+    rmseIso,
+    rmseAniso,
+    percentIso: pct(rmseIso, sdIso),
+    percentAniso: pct(rmseAniso, sdAniso),
+    r2Iso: r2(sseIso, sstIso),
+    r2Aniso: r2(sseAniso, sstAniso),
+    count: n,
+  };
+}
+
+/** A second comparison reported beside the main one (e.g. α_CM when the main one is ε). */
+export interface SecondaryComparison {
+  target: string;
+  errors: ErrorFigures;
+  points: ParityPoint[];
+}
+
+export interface ValidationOptions {
+  folds: number;
+  learningCurve?: number[];
+}
+
+/** Cache features of all frames when they fit comfortably in memory; else compute them on every use. */
+const CACHE_LIMIT_BYTES = 1.5e9;
+
+function cachedFeaturiser(base: Featuriser, frames: Frame[]): Featuriser {
+  const cache = new Map<number, EnvironmentFeatures>();
+  let bytes = 0;
+  let full = false;
+  return (frame, index) => {
+    const hit = cache.get(index);
+    if (hit) return hit;
+    const fe = base(frame, index);
+    if (!full) {
+      let b = fe.scalar.byteLength;
+      for (const t of Object.values(fe.tensor)) if (t) b += t.data.byteLength;
+      if (bytes + b * 1 <= CACHE_LIMIT_BYTES && frames.length > 0) {
+        cache.set(index, fe);
+        bytes += b;
+      } else full = true;
+    }
+    return fe;
+  };
+}
+
+/** InputError unless k is a usable number of folds for n frames. */
+function checkFolds(n: number, k: number): void {
+  if (!Number.isInteger(k) || k < 2) throw new InputError(`${k} folds`, {}, 'cross-validation needs at least 2 folds');
+  if (n < k) throw new InputError(`${n} frames for ${k} folds`, {}, `give at least ${k} frames, or fewer folds`);
+}
+
+/** The folds of a cross-validation: a seeded shuffle of the frames, k folds, and the usable curve sizes. */
+interface FoldPlan {
+  k: number;
+  trainIndices: (f: number) => number[];
+  testIndices: (f: number) => number[];
+  usable: number[];
+  skippedSizes: number[];
+  steps: number;
+}
+
+function planFolds(n: number, k: number, seed: number, learningCurve: number[] | undefined): FoldPlan {
+  const rng = makeRng(seed + 7919);
+  const perm = Int32Array.from({ length: n }, (_, i) => i);
+  for (let i = n - 1; i > 0; i--) {
+    const j = rng.int(i + 1);
+    [perm[i], perm[j]] = [perm[j], perm[i]];
+  }
+  const fold = foldsOf(perm, k);
+  const trainIndices = (f: number) => [...perm].filter((i) => fold[i] !== f);
+  const testIndices = (f: number) => [...perm].filter((i) => fold[i] === f).sort((a, b) => a - b);
+  const sizes = [...(learningCurve ?? [])].sort((a, b) => a - b);
+  const minTrain = Math.min(...Array.from({ length: k }, (_, f) => trainIndices(f).length));
+  const usable = sizes.filter((s) => Number.isInteger(s) && s >= 1 && s <= minTrain);
+  const skippedSizes = sizes.filter((s) => !usable.includes(s));
+  return { k, trainIndices, testIndices, usable, skippedSizes, steps: k * (1 + usable.length) };
+}
+
+/**
+ * Trains on every fold's training frames (the first `size` of them for a learning curve) and calls `predict`
+ * for each held-out frame. Returns the held-out frame indices, ascending.
+ */
+async function runFoldsOf(
+  frames: Frame[],
+  request: TrainRequest,
+  plan: FoldPlan,
+  size: number | null,
+  featurise: Featuriser,
+  species: string[],
+  hooks: WorkHooks,
+  predict: (model: Model, frame: number) => void,
+): Promise<number[]> {
+  const tested: number[] = [];
+  const done = size === null ? 0 : (1 + plan.usable.indexOf(size)) * plan.k;
+  for (let f = 0; f < plan.k; f++) {
+    if (hooks.signal?.aborted) throw new CancelledError();
+    let train = plan.trainIndices(f);
+    if (size !== null) train = train.slice(0, size);
+    const trainFrames = train.map((i) => frames[i]);
+    const local: Featuriser = (frame, idx) => featurise(frame, train[idx]);
+    const model = await trainWithFeaturiser(trainFrames, request, local, { signal: hooks.signal }, { applicability: false, species, createdAt: 'validation' });
+    for (const i of plan.testIndices(f)) {
+      predict(model, i);
+      tested.push(i);
+    }
+    hooks.onProgress?.({ stage: size === null ? `fold ${f + 1}/${plan.k}` : `learning curve, ${size} frames`, done: done + f + 1, total: plan.steps });
+  }
+  return tested.sort((a, b) => a - b);
+}
+
+/** k-fold cross-validation (and optional learning curve) of one training request (model-types.ts contract). */
+export async function validate(
+  frames: Frame[],
+  request: TrainRequest,
+  options: ValidationOptions,
+  hooks: WorkHooks = {},
+): Promise<ValidationReport & { alsoOn: SecondaryComparison[]; skippedSizes: number[] }> {
+  const n = frames.length;
+  const k = options.folds;
+  checkFolds(n, k);
+  const settings = resolveSettings(request.settings);
+  const { species, centres } = speciesOf(frames, settings);
+  const firstValues = frames[0].info[request.tensorKey];
+  if (!Array.isArray(firstValues) || (firstValues.length !== 9 && firstValues.length !== 6)) {
+    throw new InputError(`validation compares cell tensors; "${request.tensorKey}" is not a 3×3 tensor`, { frame: 0 }, 'the window validates tensors only; for a dipole or a scalar run `polarweave validate` on the command line');
+  }
+  const base = modelFeaturiser({ settings, species, centres, target: { key: request.tensorKey, shape: 'tensor', kind: request.kind, route: request.route, learnt: 'alpha-cm', units: 'Å³' } });
+  const featurise = cachedFeaturiser(base, frames);
+
+  // reference tensors, on ε and on α_CM
+  const refEps: Float64Array[] = [];
+  const refCM: Float64Array[] = [];
+  frames.forEach((f, i) => {
+    const t = readTensor(f, request.tensorKey, i);
+    const v = frameVolume(f, i);
+    refEps.push(toIrreducible(convertTensor(t, request.kind, 'eps', v)));
+    refCM.push(toIrreducible(convertTensor(t, request.kind, 'alpha-cm', v)));
+  });
+
+  const plan = planFolds(n, k, settings.seed, options.learningCurve);
+  const { usable, skippedSizes } = plan;
+  const runFolds = async (size: number | null) => {
+    const pe: Float64Array[] = new Array(n);
+    const pc: Float64Array[] = new Array(n);
+    const tested = await runFoldsOf(frames, request, plan, size, featurise, species, hooks, (model, i) => {
+      const pred = predictWithFeatures(model, frames[i], featurise(frames[i], i), i);
+      const fp = framePredictionFrom(model, frames[i], pred, i);
+      pe[i] = toIrreducible(fp.eps);
+      pc[i] = toIrreducible(fp.alphaCM);
+    });
+    return { tested, pe, pc };
+  };
+
+  const main = await runFolds(null);
+  const label = (i: number) => {
+    const tag = frames[i].info.tag;
+    return typeof tag === 'string' ? tag : frames[i].source ? `${frames[i].source!.file}#${frames[i].source!.index}` : undefined;
+  };
+  const pointsOf = (ref: Float64Array[], pred: Float64Array[]): ParityPoint[] =>
+    main.tested.map((i) => ({ frame: i, label: label(i), reference: [...ref[i]], predicted: [...pred[i]] }));
+  const errorsOf = (ref: Float64Array[], pred: Float64Array[], idx: number[]) =>
+    errorFigures(idx.map((i) => ref[i]), idx.map((i) => pred[i]));
+
+  const learningCurve: ValidationReport['learningCurve'] = [];
+  for (const size of usable) {
+    const r = await runFolds(size);
+    learningCurve.push({ trainSize: size, errors: errorsOf(refEps, r.pe, r.tested) });
+  }
+  return {
+    route: request.route,
+    target: 'eps',
+    folds: k,
+    errors: errorsOf(refEps, main.pe, main.tested),
+    points: pointsOf(refEps, main.pe),
+    learningCurve,
+    alsoOn: [{ target: 'alpha-cm (Å³)', errors: errorsOf(refCM, main.pc, main.tested), points: pointsOf(refCM, main.pc) }],
+    skippedSizes,
+  };
+}
+
+/** Error figures of a vector (3 Cartesian components, compared as a whole) or scalar target. */
+export interface ValueErrorFigures {
+  /** sqrt(mean over frames of |Δv|²); for a vector the per-frame norm of the 3-component error. */
+  rmse: number;
+  /** 100 · RMSE / SD, SD = sqrt(mean over frames of |v − mean v|²). */
+  percent: number;
+  /** 1 − Σ|Δv|² / Σ|v − mean v|². */
+  r2: number;
+  /** Largest |Δv| of one frame. */
+  maxError: number;
+  count: number;
+}
+
+export function valueErrorFigures(reference: ArrayLike<number>[], predicted: ArrayLike<number>[]): ValueErrorFigures {
+  const n = reference.length;
+  if (n === 0 || predicted.length !== n) throw new RangeError('valueErrorFigures: need equal, non-empty lists');
+  const c = reference[0].length;
+  const mean = new Float64Array(c);
+  for (const r of reference) for (let k = 0; k < c; k++) mean[k] += r[k] / n;
+  let sse = 0;
+  let sst = 0;
+  let maxError = 0;
+  for (let i = 0; i < n; i++) {
+    let e2 = 0;
+    for (let k = 0; k < c; k++) {
+      e2 += (predicted[i][k] - reference[i][k]) ** 2;
+      sst += (reference[i][k] - mean[k]) ** 2;
+    }
+    sse += e2;
+    maxError = Math.max(maxError, Math.sqrt(e2));
+  }
+  const rmse = Math.sqrt(sse / n);
+  const sd = Math.sqrt(sst / n);
+  return {
+    rmse,
+    percent: sd > 0 ? (100 * rmse) / sd : rmse > 0 ? Infinity : 0,
+    r2: sst > 0 ? 1 - sse / sst : sse > 0 ? -Infinity : 1,
+    maxError,
+    count: n,
+  };
+}
+
+export interface ValueValidationReport {
+  shape: 'vector' | 'scalar';
+  key: string;
+  folds: number;
+  errors: ValueErrorFigures;
+  /** Held-out frames: reference and predicted value (Cartesian x, y, z for a vector). */
+  points: { frame: number; reference: number[]; predicted: number[] }[];
+  learningCurve: { trainSize: number; errors: ValueErrorFigures }[];
+  skippedSizes: number[];
+}
+
+/**
+ * k-fold cross-validation (and optional learning curve) of a vector (λ = 1, e.g. a cell dipole) or scalar
+ * (λ = 0) target, with the same folds as `validate`: the value is learnt as a sum of local contributions and
+ * compared as it is (no Clausius–Mossotti conversion).
+ */
+export async function validateValues(
+  frames: Frame[],
+  request: TrainRequest,
+  options: ValidationOptions,
+  hooks: WorkHooks = {},
+): Promise<ValueValidationReport> {
+  const n = frames.length;
+  const k = options.folds;
+  checkFolds(n, k);
+  const reference = frames.map((f, i) => readValues(f, request.tensorKey, i));
+  const shape = shapeOfValues(reference[0], request.tensorKey, whereOf(frames[0], 0));
+  if (shape === 'tensor') throw new InputError(`"${request.tensorKey}" is a 3×3 tensor`, whereOf(frames[0], 0), 'tensors are validated by `validate` (on ε and α_CM)');
+  reference.forEach((v, i) => {
+    if (v.length !== reference[0].length) {
+      throw new InputError(`property "${request.tensorKey}" has ${v.length} numbers here but ${reference[0].length} in the first frame`, whereOf(frames[i], i), 'every frame needs the same kind of value');
+    }
+  });
+  const settings = resolveSettings(request.settings);
+  const { species, centres } = speciesOf(frames, settings);
+  const base = modelFeaturiser({ settings, species, centres, target: { key: request.tensorKey, shape, kind: null, route: request.route, learnt: shape, units: '' } });
+  const featurise = cachedFeaturiser(base, frames);
+  const plan = planFolds(n, k, settings.seed, options.learningCurve);
+  const runFolds = async (size: number | null) => {
+    const predicted: number[][] = new Array(n);
+    const tested = await runFoldsOf(frames, request, plan, size, featurise, species, hooks, (model, i) => {
+      const pred = predictWithFeatures(model, frames[i], featurise(frames[i], i), i);
+      predicted[i] = shape === 'vector' ? [...predictedVector(pred)] : [pred.irreducible[0]];
+    });
+    return { tested, predicted };
+  };
+  const errorsOf = (r: { tested: number[]; predicted: number[][] }) => valueErrorFigures(r.tested.map((i) => reference[i]), r.tested.map((i) => r.predicted[i]));
+  const main = await runFolds(null);
+  const learningCurve: ValueValidationReport['learningCurve'] = [];
+  for (const size of plan.usable) learningCurve.push({ trainSize: size, errors: errorsOf(await runFolds(size)) });
+  return {
+    shape,
+    key: request.tensorKey,
+    folds: k,
+    errors: errorsOf(main),
+    points: main.tested.map((i) => ({ frame: i, reference: [...reference[i]], predicted: main.predicted[i] })),
+    learningCurve,
+    skippedSizes: plan.skippedSizes,
+  };
+}

@@ -1,0 +1,129 @@
+import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { CancelledError, InputError } from '../../../src-main/core/errors.ts';
+import { predictFrame } from '../../../src-main/core/learning/model.ts';
+import { tensorToVoigt } from '../../../src-main/core/dielectric/tensor.ts';
+import { parseCsv } from '../../../src-main/io/csv.ts';
+import { parseExtxyz } from '../../../src-main/io/extxyz.ts';
+import { saveModel } from '../../../src-main/io/model-file.ts';
+import { checkpointPaths, streamPredict, type StreamPredictOptions } from '../../../src-main/app/predict/stream-predict.ts';
+import { predictionCsvOptions } from '../../../src-main/io/prediction/prediction-csv-layout.ts';
+import { jitteredTrajectory, smallModel, trajectoryText } from '../../helpers/trajectory.ts';
+import type { Frame } from '../../../src-main/core/geometry/frame.ts';
+import type { Model } from '../../../src-main/core/learning/model.ts';
+
+let dir: string;
+let model: Model;
+let frames: Frame[];
+const modelPath = () => join(dir, 'model.json');
+const input = () => join(dir, 'traj.extxyz');
+
+beforeAll(async () => {
+  dir = mkdtempSync(join(tmpdir(), 'pw-stream-'));
+  model = await smallModel();
+  await saveModel(modelPath(), model);
+  frames = jitteredTrajectory(20);
+  writeFileSync(input(), trajectoryText(frames));
+}, 60_000);
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+/** The CLI's CSV layout for this model. */
+const run = (o: StreamPredictOptions) => streamPredict({ csvOptions: predictionCsvOptions(model, o.modelPath), ...o });
+
+describe('streamPredict', () => {
+  it('gives the in-memory predictions, in frame order, for a range with a stride (2 threads)', async () => {
+    const out = join(dir, 'a.csv');
+    const r = await run({ modelPath: modelPath(), input: input(), output: out, range: { start: 1, stop: 18, step: 2 }, threads: 2, batchFrames: 5 });
+    expect(r.frames).toBe(9);
+    const t = parseCsv(readFileSync(out, 'utf8'), out);
+    const idx = Array.from(t.numbers('frame'));
+    expect(idx).toEqual([1, 3, 5, 7, 9, 11, 13, 15, 17]);
+    const cols = ['xx', 'yy', 'zz', 'yz', 'xz', 'xy'];
+    idx.forEach((k, row) => {
+      const p = predictFrame(model, frames[k]);
+      const v = tensorToVoigt(p.eps);
+      const a = tensorToVoigt(p.alphaCM);
+      cols.forEach((c, j) => {
+        // written as the shortest decimal that reads back the same double
+        expect(t.numbers(`eps_${c}`)[row]).toBe(v[j]);
+        expect(t.numbers(`alpha_cm_${c}_A3`)[row]).toBeCloseTo(a[j], 6);
+      });
+    });
+    expect(t.comments.some((c) => /^Identity: model .*model\.json; model sha256 [0-9a-f]{64}; input traj\.extxyz, \d+ bytes; frames 1:18 step 2$/.test(c))).toBe(true);
+    expect(t.comments.join('\n')).not.toMatch(/Written:/);
+    expect(existsSync(checkpointPaths(out).checkpoint)).toBe(false);
+    expect(existsSync(checkpointPaths(out).partial)).toBe(false);
+  }, 60_000);
+
+  it('resumes after an interruption and ends with the bytes of an uninterrupted run', async () => {
+    const clean = join(dir, 'clean.csv');
+    await run({ modelPath: modelPath(), input: input(), output: clean, threads: 2, batchFrames: 10 });
+    const out = join(dir, 'resumed.csv');
+    const stop = new AbortController();
+    let seen = 0;
+    const first = run({
+      modelPath: modelPath(), input: input(), output: out, threads: 2, batchFrames: 4, signal: stop.signal,
+      onProgress: (p) => {
+        seen = p.done;
+        if (p.done >= 8) stop.abort();
+      },
+    });
+    await expect(first).rejects.toBeInstanceOf(CancelledError);
+    expect(seen).toBeGreaterThanOrEqual(8);
+    expect(seen).toBeLessThan(20);
+    const { partial, checkpoint } = checkpointPaths(out);
+    expect(existsSync(out)).toBe(false);
+    expect(existsSync(partial)).toBe(true);
+    const ck = JSON.parse(readFileSync(checkpoint, 'utf8'));
+    expect(ck.framesDone).toBe(seen);
+    // a crash may leave bytes past the checkpoint: they must be dropped on resume
+    writeFileSync(partial, readFileSync(partial, 'utf8') + '999,garbage\n');
+    let resumedFrom = -1;
+    const r = await run({ modelPath: modelPath(), input: input(), output: out, threads: 1, batchFrames: 20, onProgress: (p) => (resumedFrom = p.resumedFrom) });
+    expect(resumedFrom).toBe(seen);
+    expect(r.resumedFrom).toBe(seen);
+    expect(r.framesThisRun).toBe(20 - seen);
+    expect(readFileSync(out, 'utf8')).toBe(readFileSync(clean, 'utf8'));
+    expect(existsSync(checkpoint)).toBe(false);
+  }, 90_000);
+
+  it('writes the same bytes with workers reused over one-frame batches as with a fresh worker per batch', async () => {
+    const fresh = join(dir, 'fresh.csv');
+    const reused = join(dir, 'reused.csv');
+    await run({ modelPath: modelPath(), input: input(), output: fresh, range: { stop: 9 }, threads: 2, batchFrames: 4, reuseWorkers: false });
+    const r = await run({ modelPath: modelPath(), input: input(), output: reused, range: { stop: 9 }, threads: 2, batchFrames: 1 });
+    expect(r.frames).toBe(9);
+    expect(readFileSync(reused, 'utf8')).toBe(readFileSync(fresh, 'utf8'));
+  }, 60_000);
+
+  it('writes extended XYZ frames stamped with frame index and model checksum', async () => {
+    const out = join(dir, 'a.extxyz');
+    await run({ modelPath: modelPath(), input: input(), output: out, range: { stop: 4 }, threads: 2, batchFrames: 2 });
+    const back = parseExtxyz(readFileSync(out, 'utf8'), out);
+    expect(back.map((f) => f.info.pred_frame)).toEqual([0, 1, 2, 3]);
+    expect(back[2].info.pred_model_sha256).toMatch(/^[0-9a-f]{64}$/);
+    const p = predictFrame(model, frames[2]);
+    expect((back[2].info.pred_eps as number[])[0]).toBeCloseTo(p.eps[0], 12);
+  }, 60_000);
+
+  it('refuses a checkpoint of another selection, and --resume without one', async () => {
+    const out = join(dir, 'b.csv');
+    const { checkpoint, partial } = checkpointPaths(out);
+    writeFileSync(partial, '');
+    const good = JSON.parse(JSON.stringify({ format: 'polarweave-predict-checkpoint', version: 1 }));
+    writeFileSync(checkpoint, JSON.stringify({ ...good, modelSha256: 'x', input: { path: input(), size: 1, mtimeMs: 1 }, outputFormat: 'csv', selection: { start: 0, stop: null, step: 1 }, shard: null, framesDone: 1, outside: 0, partialBytes: 0, next: { offset: 0, index: 0, line: 1 } }));
+    await expect(run({ modelPath: modelPath(), input: input(), output: out, threads: 1 })).rejects.toThrow(/another model file.*--restart/);
+    await expect(run({ modelPath: modelPath(), input: input(), output: join(dir, 'c.csv'), threads: 1, mode: 'resume' })).rejects.toBeInstanceOf(InputError);
+    const r = await run({ modelPath: modelPath(), input: input(), output: out, range: { stop: 2 }, threads: 1, mode: 'restart' });
+    expect(r.frames).toBe(2);
+  }, 60_000);
+
+  it('names the file, line and frame of a truncated trajectory', async () => {
+    const bad = join(dir, 'bad.extxyz');
+    const text = trajectoryText(frames.slice(0, 3));
+    writeFileSync(bad, text.slice(0, text.length - 200));
+    await expect(run({ modelPath: modelPath(), input: bad, output: join(dir, 'bad.csv'), threads: 1 })).rejects.toThrow(/bad\.extxyz.*frame 2.*truncated/);
+  }, 60_000);
+});

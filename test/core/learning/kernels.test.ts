@@ -1,0 +1,76 @@
+import { describe, expect, it } from 'vitest';
+import { environmentKernel, linearDesignRows, localContributions, structureKernel } from '../../../src-main/core/learning/kernels.ts';
+import { foldCoefficients, type Representatives } from '../../../src-main/core/learning/sparse.ts';
+import { makeRng, syntheticFeatures } from '../../helpers/synthetic-features.ts';
+
+describe('environment and structure kernels', () => {
+  const rng = makeRng(21);
+  const a = syntheticFeatures(rng, { count: 6, n0: 7, tensor: { 2: 4 } });
+  const b = syntheticFeatures(rng, { count: 5, n0: 7, tensor: { 2: 4 } });
+
+  it('scalar kernel is (p·p)^ζ within a species and 0 across species', () => {
+    const dot = (i: number, j: number) => {
+      let s = 0;
+      for (let f = 0; f < 7; f++) s += a.scalar[i * 7 + f] * b.scalar[j * 7 + f];
+      return s;
+    };
+    expect(environmentKernel(a, 0, b, 0, 0, 2)[0]).toBeCloseTo(dot(0, 0) ** 2, 14);
+    expect(environmentKernel(a, 2, b, 4, 0, 3)[0]).toBeCloseTo(dot(2, 4) ** 3, 14);
+    expect(environmentKernel(a, 0, b, 1, 0, 1)[0]).toBe(0); // species 0 vs 1
+  });
+
+  it('tensor kernel block is ξ(i) ξ(j)ᵀ (p_i·p_j)^(ζ−1) and symmetric under exchange', () => {
+    const k = environmentKernel(a, 1, b, 3, 2, 2);
+    const kt = environmentKernel(b, 3, a, 1, 2, 2);
+    for (let mu = 0; mu < 5; mu++) for (let nu = 0; nu < 5; nu++) expect(k[mu * 5 + nu]).toBeCloseTo(kt[nu * 5 + mu], 14);
+    let pp = 0;
+    for (let f = 0; f < 7; f++) pp += a.scalar[7 + f] * b.scalar[3 * 7 + f];
+    let d = 0;
+    for (let f = 0; f < 4; f++) d += a.tensor[2]!.data[(1 * 5 + 2) * 4 + f] * b.tensor[2]!.data[(3 * 5 + 4) * 4 + f];
+    expect(k[2 * 5 + 4]).toBeCloseTo(d * pp, 14);
+  });
+
+  it('with ζ = 1 the structure kernel is the dot product of the linear design rows', () => {
+    for (const order of [0, 2] as const) {
+      const w = 2 * order + 1;
+      const K = structureKernel(a, b, order, 1);
+      const ra = linearDesignRows(a, order, 2);
+      const rb = linearDesignRows(b, order, 2);
+      const cols = ra.length / w;
+      for (let mu = 0; mu < w; mu++) {
+        for (let nu = 0; nu < w; nu++) {
+          let s = 0;
+          for (let c = 0; c < cols; c++) s += ra[mu * cols + c] * rb[nu * cols + c];
+          expect(K[mu * w + nu]).toBeCloseTo(s, 12);
+        }
+      }
+    }
+  });
+
+  it('folded kernel expansion equals the direct sum Σ_m K(i,m) x_m', () => {
+    const reps: Representatives = {
+      order: 2,
+      n0: 7,
+      n: 4,
+      width: 5,
+      species: b.centreSpecies,
+      p: b.scalar,
+      blocks: b.tensor[2]!.data,
+    };
+    const x = Float64Array.from({ length: 5 * 5 }, () => rng.normal());
+    for (const zeta of [1, 2, 3]) {
+      const exp = foldCoefficients(reps, x, zeta);
+      const local = localContributions(a, 2, { kernel: exp });
+      for (let e = 0; e < a.count; e++) {
+        for (let mu = 0; mu < 5; mu++) {
+          let s = 0;
+          for (let m = 0; m < b.count; m++) {
+            const k = environmentKernel(a, e, b, m, 2, zeta);
+            for (let nu = 0; nu < 5; nu++) s += k[mu * 5 + nu] * x[m * 5 + nu];
+          }
+          expect(local[e * 5 + mu]).toBeCloseTo(s, 12);
+        }
+      }
+    }
+  });
+});

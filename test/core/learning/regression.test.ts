@@ -1,0 +1,107 @@
+import { describe, expect, it } from 'vitest';
+import { makeRng } from '../../../src-main/core/numerics/random.ts';
+import { crossValidateRegularisation, designScale, fitRidge, foldsOf, posteriorVariance, primalWeights, ridgeFitPredict, type Design } from '../../../src-main/core/learning/regression.ts';
+
+function inverse3(m: number[]): number[] {
+  // Cramer's rule, independent of the Cholesky code under test.
+  const [a, b, c, d, e, f, g, h, i] = m;
+  const A = e * i - f * h, B = -(d * i - f * g), C = d * h - e * g;
+  const D = -(b * i - c * h), E = a * i - c * g, F = -(a * h - b * g);
+  const G = b * f - c * e, H = -(a * f - c * d), I = a * e - b * d;
+  const det = a * A + b * B + c * C;
+  return [A, D, G, B, E, H, C, F, I].map((x) => x / det);
+}
+
+const groups = (rows: number) => Int32Array.from({ length: rows }, (_, i) => i);
+
+describe('kernel ridge regression', () => {
+  it('matches the closed-form solution of a 3×3 kernel problem', () => {
+    const K = [2, 1, 0, 1, 2, 1, 0, 1, 2];
+    const y = [1, -2, 3];
+    // relative 0.5 × mean diagonal 2 → λ = 1
+    const d: Design = { rows: 3, group: groups(3), y: Float64Array.from(y), gram: Float64Array.from(K) };
+    expect(designScale(d)).toBe(2);
+    const fit = fitRidge(d, 0.5, null);
+    expect(fit.lambda).toBe(1);
+    const inv = inverse3(K.map((v, q) => v + (q % 4 === 0 ? 1 : 0)));
+    const c = [0, 1, 2].map((r) => inv[r * 3] * y[0] + inv[r * 3 + 1] * y[1] + inv[r * 3 + 2] * y[2]);
+    for (let r = 0; r < 3; r++) expect(fit.weights[r]).toBeCloseTo(c[r], 12);
+    // by hand: (K + I) = [[3,1,0],[1,3,1],[0,1,3]], det 21, adjugate [[8,-3,1],[-3,9,-3],[1,-3,8]],
+    // so c = (K+I)⁻¹ y = [17, -30, 31]/21
+    expect(fit.weights[0]).toBeCloseTo(17 / 21, 12);
+    expect(fit.weights[1]).toBeCloseTo(-30 / 21, 12);
+    expect(fit.weights[2]).toBeCloseTo(31 / 21, 12);
+  });
+
+  it('recovers the weights of a noiseless linear target exactly (primal and dual agree)', () => {
+    const rng = makeRng(11);
+    for (const [rows, f] of [[60, 12], [12, 30]]) {
+      const phi = Float64Array.from({ length: rows * f }, () => rng.normal());
+      const w = Float64Array.from({ length: f }, () => rng.normal());
+      const y = new Float64Array(rows);
+      for (let r = 0; r < rows; r++) for (let i = 0; i < f; i++) y[r] += phi[r * f + i] * w[i];
+      const d: Design = { rows, group: groups(rows), y, phi, features: f };
+      const fit = fitRidge(d, 1e-12, null);
+      expect(fit.form).toBe(f <= rows ? 'primal' : 'dual');
+      const got = primalWeights(d, fit);
+      const [pred] = ridgeFitPredict(d, groups(rows), groups(rows), [fit.lambda]);
+      for (let r = 0; r < rows; r++) expect(pred[r]).toBeCloseTo(y[r], 6);
+      if (f <= rows) for (let i = 0; i < f; i++) expect(got[i]).toBeCloseTo(w[i], 8);
+      // the same problem through its explicit kernel gives the same predictions
+      const gram = new Float64Array(rows * rows);
+      for (let a = 0; a < rows; a++) for (let b = 0; b < rows; b++) for (let i = 0; i < f; i++) gram[a * rows + b] += phi[a * f + i] * phi[b * f + i];
+      const dk: Design = { rows, group: groups(rows), y, gram };
+      const [predK] = ridgeFitPredict(dk, groups(rows), groups(rows), [fit.lambda]);
+      for (let r = 0; r < rows; r++) expect(predK[r]).toBeCloseTo(pred[r], 6);
+    }
+  });
+
+  it('cross-validation prefers a small regulariser on clean data and a large one on noise', () => {
+    const rng = makeRng(5);
+    const rows = 40;
+    const f = 5;
+    const phi = Float64Array.from({ length: rows * f }, () => rng.normal());
+    const yClean = new Float64Array(rows);
+    for (let r = 0; r < rows; r++) for (let i = 0; i < f; i++) yClean[r] += phi[r * f + i] * (i + 1);
+    const yNoise = Float64Array.from({ length: rows }, () => rng.normal());
+    const fold = foldsOf(Int32Array.from({ length: rows }, (_, i) => i), 5);
+    const clean = fitRidge({ rows, group: groups(rows), y: yClean, phi, features: f }, null, { fold, folds: 5 });
+    const noise = fitRidge({ rows, group: groups(rows), y: yNoise, phi, features: f }, null, { fold, folds: 5 });
+    expect(clean.relative).toBeLessThanOrEqual(1e-6);
+    expect(noise.relative).toBeGreaterThanOrEqual(1e-2);
+    expect(clean.cvError).toBeLessThan(1e-6);
+    const grid = crossValidateRegularisation({ rows, group: groups(rows), y: yNoise, phi, features: f }, { fold, folds: 5 });
+    expect(Math.min(...grid.map((g) => g.error))).toBeCloseTo(noise.cvError, 12);
+  });
+
+  it('folds never split a group and have balanced sizes', () => {
+    const fold = foldsOf([4, 2, 0, 1, 3, 6, 5], 3);
+    const sizes = [0, 0, 0];
+    for (const f of fold) sizes[f]++;
+    expect(Math.max(...sizes) - Math.min(...sizes)).toBeLessThanOrEqual(1);
+  });
+
+  it('predictive variance: primal and dual formulas agree and grow away from the data', () => {
+    const rng = makeRng(8);
+    const rows = 30;
+    const f = 4;
+    const phi = Float64Array.from({ length: rows * f }, () => rng.normal());
+    const y = Float64Array.from({ length: rows }, () => rng.normal());
+    const d: Design = { rows, group: groups(rows), y, phi, features: f };
+    const fit = fitRidge(d, 1e-3, null, true);
+    const post = fit.posterior!;
+    expect(post.form).toBe('primal');
+    const gram = new Float64Array(rows * rows);
+    for (let a = 0; a < rows; a++) for (let b = 0; b < rows; b++) for (let i = 0; i < f; i++) gram[a * rows + b] += phi[a * f + i] * phi[b * f + i];
+    const fitK = fitRidge({ rows, group: groups(rows), y, gram }, fit.lambda / designScale({ rows, group: groups(rows), y, gram }), null, true);
+    const x = Float64Array.of(0.3, -0.2, 0.5, 0.1);
+    const kStar = new Float64Array(rows);
+    for (let a = 0; a < rows; a++) for (let i = 0; i < f; i++) kStar[a] += phi[a * f + i] * x[i];
+    const kss = x.reduce((s, v) => s + v * v, 0);
+    const vp = posteriorVariance(post, x);
+    const vd = posteriorVariance({ ...fitK.posterior!, noise: post.noise }, kStar, kss);
+    expect(vd).toBeCloseTo(vp, 10);
+    const far = posteriorVariance(post, Float64Array.from(x, (v) => 50 * v));
+    expect(far).toBeGreaterThan(vp);
+  });
+});

@@ -1,0 +1,163 @@
+// The λ > 0 read-out (core/learning/tensor-readout.ts) against the feature route it replaces: computeFeatures followed by
+// a dot product with the same weights, and whole-model predictions through modelPredictor against
+// predictWithFeatures, for every model form (linear and kernel tensor parts, a vector part, the fallbacks).
+// The reference values come from the feature code, which is itself checked against Clebsch–Gordan tables and
+// rotation tests in features.test.ts; here the two routes must agree to round-off.
+import { readFileSync } from 'node:fs';
+import { beforeAll, describe, expect, it } from 'vitest';
+import type { FeatureSettings } from '../../../src-main/core/descriptors/feature-types.ts';
+import { computeFeatures } from '../../../src-main/core/descriptors/features.ts';
+import { makeFrame, type Frame } from '../../../src-main/core/geometry/frame.ts';
+import { modelFeaturiser, modelPredictor, predictTarget, predictWithFeatures, trainModel, type Model } from '../../../src-main/core/learning/model.ts';
+import { makeRng } from '../../../src-main/core/numerics/random.ts';
+import { computeReadout, weightMatrices } from '../../../src-main/core/learning/tensor-readout.ts';
+import { parseExtxyz } from '../../../src-main/io/extxyz.ts';
+import { equivarianceError, MIRROR, randomCluster, randomRotations } from '../../helpers/equivariance-harness.ts';
+
+const frames: Frame[] = parseExtxyz(readFileSync(new URL('../../fixtures/water-dft-sample.extxyz', import.meta.url), 'utf8'), 'water-dft-sample.extxyz');
+
+const base: FeatureSettings = { cutoff: 4.5, cutoffWidth: 0.5, sigma: 0.4, nmax: 5, lmax: 5, species: ['O', 'H'], centres: ['O', 'H'] };
+
+/** Σ_f ξ̂_fμ(e) u_f from computeFeatures, with u per centre species (species × n). */
+function featureRoute(frame: Frame, s: FeatureSettings, lambda: 1 | 2, u: Float64Array): { values: Float64Array; scalar: Float64Array } {
+  const fe = computeFeatures(frame, s, [lambda]);
+  const t = fe.tensor[lambda]!;
+  const nM = 2 * lambda + 1;
+  const values = new Float64Array(fe.count * nM);
+  for (let e = 0; e < fe.count; e++) {
+    const off = fe.centreSpecies[e] * t.n;
+    for (let mu = 0; mu < nM; mu++) {
+      let d = 0;
+      for (let f = 0; f < t.n; f++) d += t.data[(e * nM + mu) * t.n + f] * u[off + f];
+      values[e * nM + mu] = d;
+    }
+  }
+  return { values, scalar: fe.scalar };
+}
+
+function randomWeights(s: FeatureSettings, lambda: 1 | 2, seed: number): { u: Float64Array; n: number } {
+  const n = computeFeatures(frames[0], s, [lambda]).tensor[lambda]!.n;
+  const rng = makeRng(seed);
+  return { u: Float64Array.from({ length: s.centres.length * n }, () => rng.normal()), n };
+}
+
+function maxAbsDiff(a: ArrayLike<number>, b: ArrayLike<number>): number {
+  expect(a.length).toBe(b.length);
+  let d = 0;
+  for (let i = 0; i < a.length; i++) d = Math.max(d, Math.abs(a[i] - b[i]));
+  return d;
+}
+
+describe('λ > 0 read-out without forming the features', () => {
+  const cases: [string, FeatureSettings][] = [
+    ['default tensor limits', base],
+    ['lmaxTensor = lmax', { ...base, lmaxTensor: base.lmax }],
+    ['fewer tensor radial functions', { ...base, nmaxTensor: 3, lmaxTensor: 3 }],
+    ['one centre species, three neighbour species', { ...base, species: ['O', 'H', 'C'], centres: ['O'] }],
+  ];
+  for (const lambda of [1, 2] as const) {
+    for (const [name, s] of cases) {
+      it(`λ = ${lambda}, ${name}: equals computeFeatures + dot product on a DFT water frame`, () => {
+        const { u, n } = randomWeights(s, lambda, 11 + lambda);
+        const W = s.centres.map((_, k) => weightMatrices(s, lambda, u, k * n));
+        const fast = computeReadout(frames[3], s, { lambda, matrices: (_e, k) => W[k] });
+        const slow = featureRoute(frames[3], s, lambda, u);
+        let scale = 0;
+        for (const v of slow.values) scale = Math.max(scale, Math.abs(v));
+        expect(scale).toBeGreaterThan(0.1); // a real signal, not two zeros
+        expect(maxAbsDiff(fast.values, slow.values)).toBeLessThan(1e-12 * scale);
+        // the λ = 0 rows come from the same code and are identical
+        expect(maxAbsDiff(fast.features.scalar, slow.scalar)).toBe(0);
+      });
+    }
+  }
+
+  it('weights that depend on the environment (a kernel model) are read per environment', () => {
+    const s = base;
+    const { u, n } = randomWeights(s, 2, 5);
+    const fe = computeFeatures(frames[1], s, [2]);
+    // environment e uses weights u scaled by (1 + its first λ = 0 feature): the matrices must see e's own row
+    const scaled = (e: number) => 1 + fe.scalar[e * fe.n0];
+    const fast = computeReadout(frames[1], s, {
+      lambda: 2,
+      matrices: (e, k, scalar, at) => {
+        expect(at).toBe(e * fe.n0);
+        return weightMatrices(s, 2, u.map((x) => x * (1 + scalar[at])), k * n);
+      },
+    });
+    const t = fe.tensor[2]!;
+    let worst = 0;
+    for (let e = 0; e < fe.count; e++) {
+      for (let mu = 0; mu < 5; mu++) {
+        let d = 0;
+        for (let f = 0; f < n; f++) d += t.data[(e * 5 + mu) * n + f] * u[fe.centreSpecies[e] * n + f] * scaled(e);
+        worst = Math.max(worst, Math.abs(d - fast.values[e * 5 + mu]));
+      }
+    }
+    expect(worst).toBeLessThan(1e-12);
+  });
+
+  it('a lone atom has a zero λ = 2 block, and its read-out is exactly zero', () => {
+    const lone = makeFrame(['O'], [5, 5, 5], Float64Array.of(20, 0, 0, 0, 20, 0, 0, 0, 20));
+    const s = { ...base, species: ['O'], centres: ['O'] };
+    const { u } = { u: Float64Array.from({ length: 2000 }, (_, i) => Math.sin(i)) };
+    const r = computeReadout(lone, s, { lambda: 2, matrices: () => weightMatrices(s, 2, u) });
+    expect([...r.values]).toEqual([0, 0, 0, 0, 0]);
+    expect(r.features.scalar.some((x) => x !== 0)).toBe(true);
+  });
+
+  it('rotates as a λ = 2 (λ = 1) quantity under rotations and a mirror', () => {
+    const rng = makeRng(8);
+    const cluster = randomCluster(rng, ['O', 'H', 'H', 'O', 'H', 'H', 'O'], 3);
+    const s = { ...base, cutoff: 6 };
+    for (const lambda of [1, 2] as const) {
+      const { u, n } = randomWeights(s, lambda, 21);
+      const W = s.centres.map((_, k) => weightMatrices(s, lambda, u, k * n));
+      const worst = equivarianceError(
+        (f) => ({ y: { data: computeReadout(f, s, { lambda, matrices: (_e, k) => W[k] }).values, axes: [{ lambda, stride: 1 }] } }),
+        cluster,
+        [...randomRotations(rng, 3), MIRROR],
+      );
+      expect(worst.y).toBeLessThan(1e-10);
+    }
+  });
+
+  it('refuses weight vectors of the wrong length', () => {
+    expect(() => weightMatrices(base, 2, new Float64Array(10))).toThrow(/weights/);
+  });
+});
+
+describe('modelPredictor gives the feature route’s predictions', () => {
+  const train = frames.slice(0, 5);
+  const test = frames.slice(5);
+  const models: Record<string, Model> = {};
+  beforeAll(async () => {
+    const small = { nmax: 4, lmax: 3 };
+    models.linear = await trainModel(train, { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'cm', settings: small });
+    models.kernel = await trainModel(train, { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'direct', settings: { ...small, zeta: 2, sparsePoints: 30 } });
+    models.selected = await trainModel(train, { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'cm', settings: { ...small, maxFeatures: 40 } });
+    // a vector target (λ = 1): an invented per-frame vector, only to have a model of that shape
+    const withVector = train.map((f, i) => ({ ...f, info: { ...f.info, mu: [Math.sin(i), Math.cos(i), 0.3 * i] } }));
+    models.vector = await trainModel(withVector, { tensorKey: 'mu', kind: 'alpha-cm', route: 'cm', settings: small });
+  }, 120_000);
+
+  for (const name of ['linear', 'kernel', 'selected', 'vector']) {
+    it(`${name} model`, () => {
+      const model = models[name];
+      const predict = modelPredictor(model);
+      const featurise = modelFeaturiser(model);
+      test.forEach((f, k) => {
+        const fast = predict(f, k);
+        const slow = predictWithFeatures(model, f, featurise(f, k), k);
+        const scale = Math.max(...Array.from(slow.irreducible, Math.abs));
+        expect(scale).toBeGreaterThan(0);
+        expect(maxAbsDiff(fast.irreducible, slow.irreducible)).toBeLessThan(1e-12 * scale);
+        expect(maxAbsDiff(fast.localIrreducible, slow.localIrreducible)).toBeLessThan(1e-12 * scale);
+        expect(fast.applicability.atomDistance).toEqual(slow.applicability.atomDistance);
+        expect(fast.applicability.variance).toBeCloseTo(slow.applicability.variance, 14);
+        // predictTarget without a featuriser takes the predictor
+        expect(predictTarget(model, f, k).irreducible).toEqual(fast.irreducible);
+      });
+    });
+  }
+});
