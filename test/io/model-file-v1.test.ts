@@ -27,3 +27,17 @@ describe('version-1 model files', () => {
     expect(withoutIdentity(after)).toBe(withoutIdentity(before));
   });
 });
+
+describe('fromVersion1', () => {
+  it('gives the settings under the table’s keys, with the values of the old keys', async () => {
+    const { loadModel } = await import('../../src-main/io/model-file.ts');
+    const { DEFAULT_SETTINGS } = await import('../../src-main/core/settings-table.ts');
+    const raw = JSON.parse(readFileSync(MODEL, 'utf8'));
+    expect(raw.version).toBe(1);
+    const m = await loadModel(MODEL);
+    expect(Object.keys(m.settings).sort()).toEqual(Object.keys(DEFAULT_SETTINGS).sort());
+    // The options the fixture was trained with (test/fixtures/models/README.md), in the old keys of the file.
+    expect(raw.payload.settings).toMatchObject({ cutoff: 4, cutoffWidth: 0.6, sigma: 0.45, nmax: 3, lmax: 2, zeta: 2, sparsePoints: 10, centres: ['O', 'H'], seed: 7 });
+    expect(m.settings).toMatchObject({ cutoffRadius: 4, switchWidth: 0.6, densityWidth: 0.45, radialFunctions: 3, angularOrder: 2, kernelExponent: 2, anchorEnvironments: 10, contributingSpecies: ['O', 'H'], seed: 7 });
+  });
+});
