@@ -28,6 +28,3 @@ export const MAX_LINE_BYTES = 64 << 20;
 export const MAX_WHOLE_FILE_BYTES = 256 << 20;
 /** Deepest nesting of arrays and objects accepted in JSON from files (frame properties, models, projects). */
 export const MAX_JSON_DEPTH = 64;
-
-/** Largest neighbour cutoff (Å) a model may be trained with or loaded with; the CLI and the loader share it. */
-export const MAX_CUTOFF_A = 20;

@@ -17,7 +17,7 @@ import { basename, dirname, resolve } from 'node:path';
 import { CancelledError, InputError, ModelError } from '../../core/errors.ts';
 import { indexExtxyz, type FrameRange } from '../../io/extxyz.ts';
 import { syncFolder, writeFileAtomic } from '../../io/atomic.ts';
-import { parseModel } from '../../io/model-file.ts';
+import { parseModel, readModelBytes } from '../../io/model-file.ts';
 import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import type { PredictFormat } from './predict-frame.ts';
@@ -187,9 +187,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   const { partial, checkpoint: ckPath } = checkpointPaths(opts.output);
 
   // model: checksum of its bytes identifies it in the checkpoint, the CSV header and every worker
-  const modelBytes = await fsp.readFile(opts.modelPath).catch((e: NodeJS.ErrnoException) => {
-    throw new ModelError(`${opts.modelPath}: cannot read the model file (${e.code ?? e.message})`);
-  });
+  const modelBytes = await readModelBytes(opts.modelPath);
   const modelSha256 = sha256Hex(modelBytes);
   const model = parseModel(modelBytes.toString('utf8'), opts.modelPath);
   if (format === 'extxyz' && model.target.shape !== 'tensor') throw new InputError('extended XYZ output is for tensor models', { file: opts.output }, 'write .csv');
