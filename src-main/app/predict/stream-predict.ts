@@ -16,7 +16,7 @@ import { availableParallelism } from 'node:os';
 import { basename, dirname, resolve } from 'node:path';
 import { CancelledError, InputError, ModelError } from '../../core/errors.ts';
 import { indexExtxyz, type FrameRange } from '../../io/extxyz.ts';
-import { syncFolder, writeFileAtomic } from '../../io/atomic.ts';
+import { syncFolder, writeError, writeFileAtomic } from '../../io/atomic.ts';
 import { parseModel, readModelBytes } from '../../io/model-file.ts';
 import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
@@ -252,7 +252,9 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   let partialBytes = ck?.partialBytes ?? 0;
   if (ck) from = ck.next;
 
-  const fh = await fsp.open(partial, ck ? 'r+' : 'w');
+  const fh = await fsp.open(partial, ck ? 'r+' : 'w').catch((e: unknown) => {
+    throw writeError(opts.output, e);
+  });
   let runner: JobRunner | null = null;
   const inFlight = new Map<number, { promise: Promise<PredictChunkOutput>; next: SlicePosition; frames: number }>();
   try {
@@ -375,7 +377,8 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       if (framesDone === 0 && !ck) await Promise.all([fsp.rm(partial, { force: true }), fsp.rm(ckPath, { force: true })]);
       throw new CancelledError();
     }
-    throw e;
+    // a full disk, a folder removed meanwhile…: a plain message naming the output (the checkpoint allows resuming)
+    throw typeof (e as NodeJS.ErrnoException)?.code === 'string' && !(e instanceof InputError) ? writeError(opts.output, e) : e;
   } finally {
     // idle workers are unref'd and would not hold the process, but they hold memory (the model): free them now
     await runner?.close();
