@@ -26,5 +26,10 @@ export const MAX_LINE_BYTES = 64 << 20;
  * real CIFs are kilobytes, uploaded trajectories tens of MiB; a gzip "bomb" stops here instead of filling memory.
  */
 export const MAX_WHOLE_FILE_BYTES = 256 << 20;
+/**
+ * Largest request body the browser host reads (bytes): an upload of MAX_WHOLE_FILE_BYTES as base64 (4/3 of its
+ * size) with room for the JSON around it. Refused from its Content-Length header, before reading.
+ */
+export const MAX_REQUEST_BYTES = Math.ceil((MAX_WHOLE_FILE_BYTES * 4) / 3) + (1 << 20);
 /** Deepest nesting of arrays and objects accepted in JSON from files (frame properties, models, projects). */
 export const MAX_JSON_DEPTH = 64;
