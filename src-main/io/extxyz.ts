@@ -33,11 +33,18 @@ export interface ReadOptions {
 }
 
 async function openForReading(file: string): Promise<FileHandle> {
+  let fh: FileHandle;
   try {
-    return await fsp.open(file, 'r');
+    fh = await fsp.open(file, 'r');
   } catch (err) {
     throw readError(file, err);
   }
+  // a folder opens on some systems and fails only at the first read: refuse it here, by name
+  if ((await fh.stat()).isDirectory()) {
+    await fh.close();
+    throw readError(file, Object.assign(new Error('folder'), { code: 'EISDIR' }));
+  }
+  return fh;
 }
 
 async function isGzip(fh: FileHandle): Promise<boolean> {

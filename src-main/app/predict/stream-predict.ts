@@ -18,6 +18,7 @@ import { CancelledError, InputError, ModelError } from '../../core/errors.ts';
 import { indexExtxyz, type FrameRange } from '../../io/extxyz.ts';
 import { syncFolder, writeError, writeFileAtomic } from '../../io/atomic.ts';
 import { parseModel, readModelBytes } from '../../io/model-file.ts';
+import { readError } from '../../io/whole-file.ts';
 import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import type { PredictFormat } from './predict-frame.ts';
@@ -196,8 +197,9 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   let stat;
   try {
     stat = await fsp.stat(opts.input);
-  } catch {
-    throw new InputError('file not found', { file: opts.input }, 'check the path');
+    if (stat.isDirectory()) throw Object.assign(new Error('folder'), { code: 'EISDIR' });
+  } catch (e) {
+    throw readError(opts.input, e);
   }
   const range = opts.range ?? {};
   const step = range.step ?? 1;
@@ -372,11 +374,9 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     runner?.cancelAll();
     await Promise.allSettled([...inFlight.values()].map((x) => x.promise));
     await fh.close().catch(() => undefined);
-    if (signal?.aborted && !(e instanceof InputError)) {
-      // stopped before anything worth keeping: leave nothing behind
-      if (framesDone === 0 && !ck) await Promise.all([fsp.rm(partial, { force: true }), fsp.rm(ckPath, { force: true })]);
-      throw new CancelledError();
-    }
+    // stopped or refused before anything worth keeping: leave nothing behind
+    if (framesDone === 0 && !ck) await Promise.all([fsp.rm(partial, { force: true }), fsp.rm(ckPath, { force: true })]);
+    if (signal?.aborted && !(e instanceof InputError)) throw new CancelledError();
     // a full disk, a folder removed meanwhile…: a plain message naming the output (the checkpoint allows resuming)
     throw typeof (e as NodeJS.ErrnoException)?.code === 'string' && !(e instanceof InputError) ? writeError(opts.output, e) : e;
   } finally {
