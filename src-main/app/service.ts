@@ -180,7 +180,7 @@ export class AppService implements ApiService {
 
   async getState(): Promise<AppState> {
     return {
-      defaultSettings: { ...DEFAULT_SETTINGS, centres: [...DEFAULT_SETTINGS.centres] },
+      defaultSettings: { ...DEFAULT_SETTINGS, contributingSpecies: [...DEFAULT_SETTINGS.contributingSpecies] },
       datasets: [...this.datasets.values()].map((d) => d.summary),
       models: [...this.models.values()].map((m) => m.summary),
       predictions: [...this.predictions.values()].map((p) => ({

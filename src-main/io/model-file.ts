@@ -1,5 +1,7 @@
-// Trained-model files: versioned, self-describing JSON of our own format "polarweave-model", version 1.
+// Trained-model files: versioned, self-describing JSON of our own format "polarweave-model", version 2.
 //   { format, version, description, checksum: { algorithm: "sha256", value }, payload }
+// Version 2 names the settings as the settings table does (core/settings-table.ts); version 1 used other keys
+// and is still read: fromVersion1 maps it to the model of today, and nothing else knows the old keys.
 // The payload is the Model of core/learning/model.ts with every typed array stored as base64 of its little-endian bytes
 // ({"f64": …} / {"i32": …}; Cholesky factors as their packed lower triangle, {"f64lower": …, "n": …}).
 // The checksum is sha256 over the canonical JSON of the payload (keys sorted, no spaces), so any edit or
@@ -9,9 +11,12 @@ import { readFile } from 'node:fs/promises';
 import { ModelError } from '../core/errors.ts';
 import type { Model } from '../core/learning/model.ts';
 import { writeFileAtomic } from './atomic.ts';
+import { NUMERIC_SETTINGS, SPECIES_SETTING } from '../core/settings-table.ts';
 
 export const MODEL_FORMAT = 'polarweave-model';
-export const MODEL_VERSION = 1;
+export const MODEL_VERSION = 2;
+/** Versions this program reads. */
+export const MODEL_VERSIONS_READ = [1, 2] as const;
 
 type Json = null | boolean | number | string | Json[] | { [k: string]: Json };
 
@@ -135,9 +140,9 @@ export function parseModel(text: string, fileName: string): Model {
   if (doc === null || typeof doc !== 'object' || Array.isArray(doc)) throw new ModelError(`${fileName}: not a model file (expected a JSON object)`);
   const d = doc as Record<string, Json>;
   if (d.format !== MODEL_FORMAT) throw new ModelError(`${fileName}: not a Polarweave model file (format is ${JSON.stringify(d.format ?? null)}, expected "${MODEL_FORMAT}")`);
-  if (d.version !== MODEL_VERSION) {
+  if (!(MODEL_VERSIONS_READ as readonly unknown[]).includes(d.version)) {
     const newer = typeof d.version === 'number' && d.version > MODEL_VERSION;
-    throw new ModelError(`${fileName}: model file version ${JSON.stringify(d.version ?? null)} is not supported (this program reads version ${MODEL_VERSION})${newer ? '; update Polarweave' : ''}`);
+    throw new ModelError(`${fileName}: model file version ${JSON.stringify(d.version ?? null)} is not supported (this program reads versions ${MODEL_VERSIONS_READ.join(' and ')})${newer ? '; update Polarweave' : ''}`);
   }
   const ck = d.checksum as Record<string, Json> | undefined;
   need(!!ck && ck.algorithm === 'sha256' && typeof ck.value === 'string', fileName, 'no sha256 checksum');
@@ -146,9 +151,29 @@ export function parseModel(text: string, fileName: string): Model {
   if (actual !== (ck as Record<string, Json>).value) {
     throw new ModelError(`${fileName}: checksum mismatch — the model file is corrupt or was edited; retrain or restore the file`);
   }
-  const model = decode(d.payload, '', fileName) as Model;
+  const decoded = decode(d.payload, '', fileName) as Record<string, unknown>;
+  const model = (d.version === 1 ? fromVersion1(decoded, fileName) : decoded) as unknown as Model;
   checkModelShape(model, fileName);
   return model;
+}
+
+/**
+ * A decoded version-1 payload as the model of today. Version 1 differs only in the keys of `settings` (the
+ * `v1Key` of each row of the settings table); the numbers are the same, so a version-1 model predicts exactly
+ * what it did. The one place that knows the old keys.
+ */
+export function fromVersion1(payload: Record<string, unknown>, file: string): Record<string, unknown> {
+  const old = payload.settings;
+  need(old !== null && typeof old === 'object' && !Array.isArray(old), file, 'settings');
+  const o = old as Record<string, unknown>;
+  const settings: Record<string, unknown> = {};
+  for (const spec of NUMERIC_SETTINGS) {
+    need(spec.v1Key in o, file, `settings.${spec.v1Key} of version 1`);
+    settings[spec.key] = o[spec.v1Key];
+  }
+  need(SPECIES_SETTING.v1Key in o, file, `settings.${SPECIES_SETTING.v1Key} of version 1`);
+  settings[SPECIES_SETTING.key] = o[SPECIES_SETTING.v1Key];
+  return { ...payload, settings };
 }
 
 /** Structural checks beyond the checksum (a file written by a buggy program must still not give numbers). */
@@ -179,7 +204,15 @@ function checkModelShape(m: Model, file: string): void {
   }
   const a = m.applicability;
   need(!!a && a.species instanceof Int32Array && a.p instanceof Float64Array && a.p.length === a.species.length * a.n0, file, 'applicability');
-  need(m.settings !== null && typeof m.settings === 'object' && typeof m.settings.cutoff === 'number', file, 'settings');
+  // The settings' types only, not the limits of today's form: a model trained under other limits still loads.
+  need(m.settings !== null && typeof m.settings === 'object', file, 'settings');
+  const st = m.settings as unknown as Record<string, unknown>;
+  for (const spec of NUMERIC_SETTINGS) {
+    const v = st[spec.key];
+    need((typeof v === 'number' && Number.isFinite(v)) || (spec.key === 'regularisation' && v === null), file, `settings.${spec.key}`);
+  }
+  const sp = st[SPECIES_SETTING.key];
+  need(Array.isArray(sp) && sp.every((x) => typeof x === 'string'), file, `settings.${SPECIES_SETTING.key}`);
 }
 
 export async function saveModel(path: string, model: Model): Promise<void> {
