@@ -11,7 +11,7 @@ import type { TensorKind } from '../../core/learning/model-types.ts';
 import { tensorFromValues } from '../../core/dielectric/tensor.ts';
 import { parsePolarisabilityUnit, tensorFromA3, tensorToA3, type PolarisabilityUnit } from '../../core/dielectric/units.ts';
 import { writeExtxyz } from '../../io/extxyz.ts';
-import { readStructures } from '../../io/read-structures.ts';
+import { fileKind, readStructures } from '../../io/read-structures.ts';
 import { writeFrameTensorCsv } from '../tensor-table.ts';
 
 const options = [
@@ -77,8 +77,9 @@ export const convertCommand: Command = {
     const outUnit = parsePolarisabilityUnit(args.options['out-units'] ?? args.options.units ?? 'A3');
     const out = args.options.output;
     if (!out) throw new UsageError('-o OUT is required (.extxyz, .xyz or .csv)');
-    const csv = /\.csv$/i.test(out);
-    if (!csv && !/\.(ext)?xyz$/i.test(out)) throw new UsageError(`cannot tell the output kind of "${out}": use .extxyz, .xyz or .csv`);
+    const outKind = fileKind(out);
+    const csv = outKind?.kind === 'csv' && !outKind.gzip;
+    if (!csv && outKind?.kind !== 'extxyz') throw new UsageError(`cannot tell the output kind of "${out}": use .extxyz, .xyz or .csv`);
     const outKey = args.options['out-key'] ?? defaultKey(to, outUnit);
     const input = args.positionals[0];
     let warned = 0;

@@ -6,7 +6,7 @@ import type { Command } from '../command.ts';
 import { CancelledError } from '../../core/errors.ts';
 import type { Frame } from '../../core/geometry/frame.ts';
 import { cellPolarisability, referenceTensors, type DipoleModel } from '../../core/dielectric/dipole-model.ts';
-import { readStructures } from '../../io/read-structures.ts';
+import { fileKind, readStructures } from '../../io/read-structures.ts';
 import { writeExtxyz } from '../../io/extxyz.ts';
 
 const DEFAULT_THOLE = '0.45';
@@ -81,7 +81,7 @@ export const referenceCommand: Command = {
     if (args.positionals.length !== 1) throw new UsageError('give exactly one input file');
     const output = args.options.output;
     if (!output) throw new UsageError('give the output file with -o OUT.extxyz');
-    if (!/\.(ext)?xyz(\.gz)?$/i.test(output)) throw new UsageError(`the output is extended XYZ: name it .extxyz or .extxyz.gz, got "${output}"`);
+    if (fileKind(output)?.kind !== 'extxyz') throw new UsageError(`the output is extended XYZ: name it .extxyz or .extxyz.gz, got "${output}"`);
     const spec = args.options.polarisabilities;
     if (!spec) throw new UsageError('give the point polarisabilities, e.g. --polarisabilities O=1.2,H=0.4');
     const model: DipoleModel = { polarisabilities: parsePolarisabilities(spec), thole: parseThole(args.options.thole ?? DEFAULT_THOLE) };
