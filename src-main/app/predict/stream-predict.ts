@@ -22,7 +22,7 @@ import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import type { PredictFormat } from './predict-frame.ts';
 import type { PredictChunkInput, PredictChunkOutput } from './predict-tasks.ts';
-import { csvLayoutOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './predict.ts';
+import { csvLayoutOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
 import { JobRunner, type WorkerFactory } from '../../jobs/runner.ts';
 import { tsWorkerFactory } from '../../jobs/spawn-ts.ts';
 

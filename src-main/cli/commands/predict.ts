@@ -10,7 +10,7 @@ import { CancelledError, InputError } from '../../core/errors.ts';
 import type { FrameRange } from '../../io/extxyz.ts';
 import { structureEntry } from '../../io/read-structures.ts';
 import { checkpointPaths, progressLine, streamPredict, type StreamPredictOptions } from '../../app/predict/stream-predict.ts';
-import { loadModelFile, predictOutputFormat, predictToFile, type LoadedModel } from '../../app/predict/predict.ts';
+import { loadModelFile, predictOutputFormat, predictToFile, type LoadedModel } from '../../app/predict/prediction.ts';
 import { availableParallelism } from 'node:os';
 
 const options = [
