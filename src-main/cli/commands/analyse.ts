@@ -7,7 +7,7 @@ import type { Command, CommandIO } from '../command.ts';
 import type { BlockAverage } from '../../core/trajectory/statistics.ts';
 import { runningMean } from '../../core/trajectory/statistics.ts';
 import { infraredSpectrum, ramanSpectra, type QuantumCorrection, type Spectrum, type SpectrumOptions, type WindowKind } from '../../core/trajectory/spectra.ts';
-import { opticalStats, tensorStats, type OpticalStats, type TensorStats } from '../../core/trajectory/trajectory-summary.ts';
+import { DEFAULT_MIN_BLOCKS, opticalStats, tensorStats, type OpticalStats, type TensorStats } from '../../core/trajectory/trajectory-summary.ts';
 import { InputError } from '../../core/errors.ts';
 import { writeFileAtomic } from '../../io/atomic.ts';
 import { csvField } from '../../io/csv.ts';
@@ -17,7 +17,7 @@ import { readTrajectorySeries, type TrajectorySeries } from '../../io/trajectory
 const options = [
   { name: 'output', short: 'o', value: 'SUMMARY.csv', help: 'write the summary table (means, errors, block levels, optics, species, applicability)' },
   { name: 'per-frame', value: 'FRAMES.csv', help: 'write a per-frame table (ε, principal values, indices, α_CM, running mean of ε_iso)' },
-  { name: 'block-min', value: 'N', help: 'fewest blocks a block size may leave in block averaging', default: '8' },
+  { name: 'block-min', value: 'N', help: 'fewest blocks a block size may leave in block averaging', default: String(DEFAULT_MIN_BLOCKS) },
   { name: 'time-step', value: 'FS', help: 'time between consecutive frames of the trajectory file (fs); turns on the spectra' },
   { name: 'spectra', value: 'SPECTRA.csv', help: 'write the Raman (and IR) line shapes here (needs --time-step)' },
   { name: 'raman-from', value: 'alpha-c|alpha-cm|eps', help: 'which tensor series the Raman line shapes use (default: alpha-c if the file has it, else alpha-cm, else eps)' },
@@ -243,7 +243,7 @@ async function writePerFrame(path: string, s: TrajectorySeries): Promise<void> {
 }
 
 export async function runAnalyse(file: string, args: ParsedArgs, io: CommandIO): Promise<number> {
-  const minBlocks = numberOption(args, 'block-min', { integer: true, min: 2 }) ?? 8;
+  const minBlocks = numberOption(args, 'block-min', { integer: true, min: 2 }) ?? DEFAULT_MIN_BLOCKS;
   if (args.options.spectra && !args.options['time-step']) throw new UsageError('--spectra needs --time-step FS (the time between frames)');
   const s = await readTrajectorySeries(file, io.signal);
   const n = s.frames.length;
