@@ -1,6 +1,6 @@
 // `polarweave analyse`: parses its options and runs the analyse use case (app/trajectory-analysis.ts): mean
 // tensors with error bars, refractive indices, species, applicability and spectra of a predicted trajectory.
-import { parseArgs, numberOption, UsageError, type ParsedArgs } from '../args.ts';
+import { commandArgs, numberOption, UsageError, type ParsedArgs } from '../args.ts';
 import type { Command, CommandIO } from '../command.ts';
 import type { QuantumCorrection, WindowKind } from '../../core/trajectory/spectra.ts';
 import { DEFAULT_MIN_BLOCKS } from '../../core/trajectory/trajectory-summary.ts';
@@ -68,8 +68,7 @@ export const analyseCommand: Command = {
     'Reads what `predict` wrote. Errors from block averaging with the plateau over block sizes (a warning when there is\nnone); indices and birefringence of the mean ε with delta-method errors; per-species contributions from the per-atom\nlocal tensors of an extended XYZ input; with --time-step, Raman isotropic/anisotropic/VV/VH line shapes (and infrared\nwhen the file has a dipole series).',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length !== 1) throw new UsageError('give one prediction file (.csv or .extxyz)');
+    const { args } = commandArgs(argv, options, { inputs: 1, missing: 'give one prediction file (.csv or .extxyz)' });
     return runAnalyse(args.positionals[0], args, io);
   },
 };

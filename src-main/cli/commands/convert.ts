@@ -1,7 +1,7 @@
 // `polarweave convert`: every frame's tensor from one kind to another — ε, the conducting-boundary cell
 // polarisability α_c, or the Clausius–Mossotti polarisability α_CM — with unit conversion, written as
 // extended XYZ (the tensor added as a property) or as a per-frame CSV table.
-import { parseArgs, UsageError } from '../args.ts';
+import { commandArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import { TENSOR_KINDS } from '../../core/dielectric/clausius-mossotti.ts';
 import type { TensorKind } from '../../core/learning/model-types.ts';
@@ -34,8 +34,7 @@ export const convertCommand: Command = {
     'Polarisabilities are polarisability volumes (Å³) unless --units says otherwise. V is the cell volume of each frame.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length !== 1) throw new UsageError('give exactly one input file');
+    const { args } = commandArgs(argv, options, { inputs: 1, missing: 'give exactly one input file' });
     const key = args.options.tensor;
     if (!key) throw new UsageError('--tensor KEY is required (see `polarweave inspect IN` for the keys)');
     const from = parseKind(args.options.as, 'as');

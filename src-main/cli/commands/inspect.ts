@@ -1,5 +1,5 @@
 // `polarweave inspect IN`: prints what the inspect use case (app/file-summary.ts) finds in a structure file.
-import { parseArgs, UsageError } from '../args.ts';
+import { commandArgs } from '../args.ts';
 import type { Command } from '../command.ts';
 import { summariseFile, type FileSummary, type Range } from '../../app/file-summary.ts';
 import { guessTensorKind } from '../../app/dataset-summary.ts';
@@ -47,8 +47,7 @@ export const inspectCommand: Command = {
   description: 'Reads extended XYZ (.xyz, .extxyz, also gzip-compressed) or CIF, one frame at a time.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length !== 1) throw new UsageError('give exactly one input file');
+    const { args } = commandArgs(argv, options, { inputs: 1, missing: 'give exactly one input file' });
     const s = await summariseFile(args.positionals[0], io.signal);
     if (args.flags.json) {
       io.out(

@@ -1,5 +1,5 @@
 // `polarweave train`: learn a model of a cell tensor (or dipole, or scalar) from frames with reference values.
-import { parseArgs, UsageError } from '../args.ts';
+import { commandArgs } from '../args.ts';
 import type { Command } from '../command.ts';
 import type { Model } from '../../core/learning/model.ts';
 import { trainToFile } from '../../app/learning.ts';
@@ -40,10 +40,7 @@ export const trainCommand: Command = {
     'model file. The regulariser is chosen by cross-validation on the training frames unless given.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length !== 1) throw new UsageError('give exactly one input file');
-    const out = args.options.output;
-    if (!out) throw new UsageError('give the model file to write with -o MODEL');
+    const { args, output: out } = commandArgs(argv, options, { inputs: 1, missing: 'give exactly one input file', output: 'give the model file to write with -o MODEL' });
     const route = parseRoute(args.options.route, false) as 'cm' | 'direct';
     checkTargetOptions(args);
     const frames = await readFrames(args.positionals[0], io);

@@ -1,6 +1,6 @@
 // `polarweave validate`: k-fold cross-validation of a training request, for one route or both, with an
 // optional learning curve; prints RMSE and %RMSE of the λ=0 and λ=2 parts of ε (and α_CM) and a plain verdict.
-import { parseArgs, UsageError } from '../args.ts';
+import { commandArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import type { ErrorFigures, Route } from '../../core/learning/model-types.ts';
 import { validateValues, type ValueErrorFigures } from '../../core/learning/validation.ts';
@@ -38,8 +38,7 @@ export const validateCommand: Command = {
     'A dipole (3 numbers) is compared as a vector, RMSE = sqrt(mean |Δμ|²); a scalar as it is.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length !== 1) throw new UsageError('give exactly one input file');
+    const { args } = commandArgs(argv, options, { inputs: 1, missing: 'give exactly one input file' });
     const folds = Number(args.options.folds);
     if (!Number.isInteger(folds) || folds < 2) throw new UsageError(`--folds must be a whole number ≥ 2, got "${args.options.folds}"`);
     let curve: number[] | undefined;
