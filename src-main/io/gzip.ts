@@ -4,6 +4,7 @@ import { promises as fsp } from 'node:fs';
 import type { FileHandle } from 'node:fs/promises';
 import { gunzipSync } from 'node:zlib';
 import { InputError } from '../core/errors.ts';
+import { MAX_WHOLE_FILE_BYTES } from '../core/limits.ts';
 
 /** True when the bytes start with the gzip magic number. */
 export function isGzipData(bytes: Uint8Array): boolean {
@@ -37,12 +38,20 @@ export function withoutGzipName(name: string): string {
   return name.replace(/\.gz$/i, '');
 }
 
-/** The bytes, decompressed when they are gzip; damaged gzip data is an InputError naming `file`. */
-export function gunzipIfGzip(bytes: Uint8Array, file: string): Buffer {
-  if (!isGzipData(bytes)) return Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+/**
+ * The bytes, decompressed when they are gzip, refusing output beyond `maxBytes` (default MAX_WHOLE_FILE_BYTES:
+ * a small "gzip bomb" stops with a clear error instead of filling memory); damaged gzip data is an InputError
+ * naming `file`. Plain bytes are returned as they are.
+ */
+export function gunzipIfGzip(bytes: Uint8Array, file: string, maxBytes = MAX_WHOLE_FILE_BYTES): Buffer {
+  const buf = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  if (!isGzipData(bytes)) return buf;
   try {
-    return gunzipSync(bytes);
+    return gunzipSync(buf, { maxOutputLength: maxBytes });
   } catch (e) {
-    throw new InputError(`the gzip data is damaged or truncated (${(e as Error).message})`, { file }, 'copy the file again');
+    if ((e as NodeJS.ErrnoException).code === 'ERR_BUFFER_TOO_LARGE' || e instanceof RangeError) {
+      throw new InputError(`the decompressed data is larger than ${maxBytes / (1 << 20)} MiB`, { file }, 'this file is read whole into memory; for long trajectories use extended XYZ, which is streamed');
+    }
+    throw new InputError('the gzip data is damaged or truncated', { file }, 'copy the file again');
   }
 }

@@ -3,13 +3,13 @@
 // recognised by io/gzip.ts). Everything that guesses a file kind from a name asks here: the CLI commands,
 // predict (which streams the kinds marked `streamed`), analyse, merge, the app service, the shell's dialogs.
 // Adding a structure format is one entry here and its reader beside it.
-import { readFile } from 'node:fs/promises';
 import path from 'node:path';
 import { CancelledError, InputError } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { parseExtxyz, rangeDecider, readExtxyz, writeExtxyz, type ReadOptions } from './extxyz.ts';
 import { parseCif } from './cif.ts';
 import { gunzipIfGzip, hasGzipName, withoutGzipName } from './gzip.ts';
+import { readWholeFile } from './whole-file.ts';
 
 export type StructureKind = 'extxyz' | 'cif';
 export type FileKind = StructureKind | 'csv';
@@ -33,15 +33,9 @@ interface StructureEntry extends KindEntry {
 }
 
 async function* readCifFile(file: string, options: ReadOptions): AsyncGenerator<Frame> {
-  let bytes: Buffer;
-  try {
-    bytes = await readFile(file);
-  } catch (err) {
-    const code = (err as NodeJS.ErrnoException).code;
-    throw code === 'ENOENT' ? new InputError('file not found', { file }, 'check the path') : err;
-  }
+  const bytes = await readWholeFile(file);
   const decide = rangeDecider(options.range, file);
-  const frames = parseCif(gunzipIfGzip(bytes, file).toString('utf8'), file);
+  const frames = parseCif(bytes.toString('utf8'), file);
   for (let k = 0; k < frames.length; k++) {
     if (options.signal?.aborted) throw new CancelledError();
     const d = decide(k);

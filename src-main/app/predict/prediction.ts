@@ -12,7 +12,7 @@ import type { Frame } from '../../core/geometry/frame.ts';
 import { modelPredictor, type Model, type Predictor } from '../../core/learning/model.ts';
 import { atomicWriteStream } from '../../io/atomic.ts';
 import type { FrameRange } from '../../io/extxyz.ts';
-import { parseModel } from '../../io/model-file.ts';
+import { parseModel, readModelBytes } from '../../io/model-file.ts';
 import { predictionCsvHeader, predictionCsvOptions, type FrameStamp, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import { outputKind, readStructures } from '../../io/read-structures.ts';
 import { predictedText, predictOne, type PredictedFrame, type PredictFormat } from './predict-frame.ts';
@@ -40,9 +40,7 @@ export function loadedModel(model: Model, label: string, sha256 = ''): LoadedMod
 
 /** Read, checksum and parse a model file (once per process: pass the result on rather than the path). */
 export async function loadModelFile(path: string, label = path): Promise<LoadedModel> {
-  const bytes = await fsp.readFile(path).catch((e: NodeJS.ErrnoException) => {
-    throw new ModelError(`${path}: cannot read the model file (${e.code ?? e.message})`);
-  });
+  const bytes = await readModelBytes(path);
   const model = parseModel(bytes.toString('utf8'), path);
   return { path, label, sha256: sha256Hex(bytes), model, predict: modelPredictor(model) };
 }
