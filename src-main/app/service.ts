@@ -26,12 +26,11 @@ import type { Frame } from '../core/geometry/frame.ts';
 import { DEFAULT_SETTINGS, type Model } from '../core/learning/model.ts';
 import { InputError, ModelError } from '../core/errors.ts';
 import { findMolecules } from '../core/geometry/molecules.ts';
-import { blockAverage, runningMean } from '../core/trajectory/statistics.ts';
 import type { JobHandle, JobRunner } from '../jobs/runner.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './task-types.ts';
 import { summariseDataset } from './dataset-summary.ts';
 import { PathAccess } from './path-access.ts';
-import { frameView, predictionFromJ, predictionJ } from './frame-json.ts';
+import { frameView, predictionFromJ, predictionJ, trajectoryStatsJ } from './frame-json.ts';
 import type { FramePrediction } from '../core/learning/model-types.ts';
 import { predictionsCsv } from './export-csv.ts';
 import { PROJECT_FORMAT, PROJECT_VERSION, parseProject, type ProjectFile, type ProjectDataset } from './project-file.ts';
@@ -408,38 +407,8 @@ export class AppService implements ApiService {
 
   async trajectoryStats(params: ApiParams<'trajectoryStats'>): Promise<TrajectoryStats> {
     const p = this.predictionRecord(params.predictionId);
-    const fr = p.summary.frames;
-    if (fr.length < 2) throw new ApiValidationError('a trajectory needs at least two predicted frames');
-    const pick = (i: number) => fr.map((f) => f.eps[i]);
-    const components = { xx: pick(0), yy: pick(4), zz: pick(8), xy: pick(1), xz: pick(2), yz: pick(5) };
-    const iso = fr.map((f) => (f.eps[0] + f.eps[4] + f.eps[8]) / 3);
-    const ba = (xs: number[]) => {
-      const b = blockAverage(xs);
-      return { value: b.mean, error: b.standardError };
-    };
-    const isoBlock = blockAverage(iso);
-    const refractiveBlocks = [0, 1, 2].map((c) => blockAverage(fr.map((f) => f.refractive[c])));
-    const meanRefractive = refractiveBlocks.map((b) => b.mean);
-    return {
-      predictionId: p.summary.id,
-      frames: fr.map((f) => f.frame),
-      components,
-      refractive: [fr.map((f) => f.refractive[0]), fr.map((f) => f.refractive[1]), fr.map((f) => f.refractive[2])],
-      runningMeanIso: Array.from(runningMean(iso)),
-      mean: {
-        xx: ba(components.xx),
-        yy: ba(components.yy),
-        zz: ba(components.zz),
-        xy: ba(components.xy),
-        xz: ba(components.xz),
-        yz: ba(components.yz),
-        iso: { value: isoBlock.mean, error: isoBlock.standardError },
-      },
-      blocking: isoBlock.levels.map((l) => ({ blockSize: l.blockSize, error: l.standardError })),
-      meanRefractive,
-      refractiveError: refractiveBlocks.map((b) => b.standardError),
-      birefringence: Math.max(...meanRefractive) - Math.min(...meanRefractive),
-    };
+    if (p.typed.length < 2) throw new ApiValidationError('a trajectory needs at least two predicted frames');
+    return trajectoryStatsJ(p.summary.id, p.frameIndices, p.typed);
   }
 
   // ------------------------------------------------------------------------------------------------------

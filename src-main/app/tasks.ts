@@ -12,7 +12,7 @@ import { toIrreducible } from '../core/dielectric/tensor.ts';
 import { errorFigures, validate } from '../core/learning/validation.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './task-types.ts';
 import type { TaskContext, TaskRegistry } from '../jobs/task.ts';
-import { loadedModel, predictFrames, type PredictSink } from './predict/predict.ts';
+import { loadedModel, predictFrames, type PredictSink } from './predict/prediction.ts';
 
 function reportJson(r: ValidationReport, frameIndices: number[]): ValidationReportJ {
   return {

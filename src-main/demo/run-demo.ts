@@ -17,7 +17,7 @@ import { birefringence, convertTensor, refractiveIndices } from '../core/dielect
 import { readAllStructures } from '../io/read-structures.ts';
 import { saveModel } from '../io/model-file.ts';
 import { predictionCsvOptions, writeTensorCsv, type TensorRow } from '../io/prediction/prediction-format.ts';
-import { loadedModel, predictFrames } from '../app/predict/predict.ts';
+import { loadedModel, predictFrames } from '../app/predict/prediction.ts';
 import { predictedRow, type PredictedFrame } from '../app/predict/predict-frame.ts';
 import { writeFileAtomic } from '../io/atomic.ts';
 

@@ -10,8 +10,8 @@ import type { Frame } from '../core/geometry/frame.ts';
 import { ExtxyzAssembler, type FrameDecision } from './extxyz-parse.ts';
 import { formatExtxyzFrame } from './extxyz-format.ts';
 import { atomicWriteStream } from './atomic.ts';
-import { readError } from './whole-file.ts';
 import { hasGzipName, isGzipHandle } from './gzip.ts';
+import { readError } from './whole-file.ts';
 
 export { parseExtxyz, ExtxyzAssembler, parseCommentLine, parseProperties, DEFAULT_PROPERTIES } from './extxyz-parse.ts';
 export type { ColumnSpec, ColumnKind } from './extxyz-parse.ts';

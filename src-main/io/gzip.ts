@@ -6,8 +6,6 @@ import { gunzipSync } from 'node:zlib';
 import { InputError } from '../core/errors.ts';
 import { MAX_WHOLE_FILE_BYTES } from '../core/limits.ts';
 
-const MIB = 1 << 20;
-
 /** True when the bytes start with the gzip magic number. */
 export function isGzipData(bytes: Uint8Array): boolean {
   return bytes.length >= 2 && bytes[0] === 0x1f && bytes[1] === 0x8b;
@@ -41,17 +39,18 @@ export function withoutGzipName(name: string): string {
 }
 
 /**
- * The bytes, decompressed when they are gzip, with the output capped at `maxBytes` (default MAX_WHOLE_FILE_BYTES)
- * so that a small "gzip bomb" stops with a clear error instead of filling memory. Damaged gzip data and output
- * beyond the cap are InputErrors naming `file`.
+ * The bytes, decompressed when they are gzip, refusing output beyond `maxBytes` (default MAX_WHOLE_FILE_BYTES:
+ * a small "gzip bomb" stops with a clear error instead of filling memory); damaged gzip data is an InputError
+ * naming `file`. Plain bytes are returned as they are.
  */
 export function gunzipIfGzip(bytes: Uint8Array, file: string, maxBytes = MAX_WHOLE_FILE_BYTES): Buffer {
-  if (!isGzipData(bytes)) return Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  const buf = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  if (!isGzipData(bytes)) return buf;
   try {
-    return gunzipSync(bytes, { maxOutputLength: maxBytes });
+    return gunzipSync(buf, { maxOutputLength: maxBytes });
   } catch (e) {
     if ((e as NodeJS.ErrnoException).code === 'ERR_BUFFER_TOO_LARGE' || e instanceof RangeError) {
-      throw new InputError(`the decompressed data is larger than ${Math.round(maxBytes / MIB)} MiB`, { file }, 'this file is read whole into memory; for long trajectories use extended XYZ, which is streamed');
+      throw new InputError(`the decompressed data is larger than ${maxBytes / (1 << 20)} MiB`, { file }, 'this file is read whole into memory; for long trajectories use extended XYZ, which is streamed');
     }
     throw new InputError('the gzip data is damaged or truncated', { file }, 'copy the file again');
   }

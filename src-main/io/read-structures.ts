@@ -8,8 +8,8 @@ import { CancelledError, InputError } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { parseExtxyz, rangeDecider, readExtxyz, writeExtxyz, type ReadOptions } from './extxyz.ts';
 import { parseCif } from './cif.ts';
-import { readWholeFile } from './whole-file.ts';
 import { gunzipIfGzip, hasGzipName, withoutGzipName } from './gzip.ts';
+import { readWholeFile } from './whole-file.ts';
 
 export type StructureKind = 'extxyz' | 'cif';
 export type FileKind = StructureKind | 'csv';

@@ -1,6 +1,6 @@
 // Files read whole into memory (CIF, model files, uploads): refused before reading when they are folders or
-// larger than MAX_WHOLE_FILE_BYTES, and gzip data is decompressed with the same cap (io/gzip.ts), so a small
-// "gzip bomb" stops with a clear error instead of filling memory. Errors are InputErrors naming the file.
+// larger than MAX_WHOLE_FILE_BYTES, and gzip data is decompressed with the same cap (io/gzip.ts), so a small "gzip bomb"
+// stops with a clear error instead of filling memory. Errors are InputErrors naming the file.
 import { readFile, stat } from 'node:fs/promises';
 import { InputError } from '../core/errors.ts';
 import { MAX_WHOLE_FILE_BYTES } from '../core/limits.ts';

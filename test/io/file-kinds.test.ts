@@ -6,7 +6,7 @@ import { fileKind, parseStructureText, STRUCTURE_EXTENSIONS, structureEntry } fr
 import { gunzipIfGzip, isGzipData } from '../../src-main/io/gzip.ts';
 import { structureReaders } from '../../src-main/app/structure-readers.ts';
 import { STRUCTURE_ACCEPT } from '../../src-renderer/lib/client.ts';
-import { predictOutputFormat } from '../../src-main/app/predict/predict.ts';
+import { predictOutputFormat } from '../../src-main/app/predict/prediction.ts';
 
 const WATER = new URL('../fixtures/water-dft-sample.extxyz', import.meta.url);
 

@@ -6,7 +6,7 @@ import type { Frame } from '../../core/geometry/frame.ts';
 import { frameFromBytes } from '../../io/extxyz.ts';
 import type { FrameStamp, TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import { predictFrameText, type PredictFormat } from './predict-frame.ts';
-import { loadModelFile, type LoadedModel } from './predict.ts';
+import { loadModelFile, type LoadedModel } from './prediction.ts';
 import type { TaskContext, TaskRegistry } from '../../jobs/task.ts';
 
 export interface PredictChunkInput {

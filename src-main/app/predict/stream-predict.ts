@@ -17,13 +17,13 @@ import { basename, dirname, resolve } from 'node:path';
 import { CancelledError, InputError } from '../../core/errors.ts';
 import { indexExtxyz, type FrameRange } from '../../io/extxyz.ts';
 import { syncFolder, writeError, writeFileAtomic } from '../../io/atomic.ts';
-import { readError } from '../../io/whole-file.ts';
 import { isGzipFile } from '../../io/gzip.ts';
+import { readError } from '../../io/whole-file.ts';
 import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import type { PredictFormat } from './predict-frame.ts';
 import type { PredictChunkInput, PredictChunkOutput } from './predict-tasks.ts';
-import { csvLayoutOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './predict.ts';
+import { csvLayoutOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
 import { JobRunner, type WorkerFactory } from '../../jobs/runner.ts';
 import { tsWorkerFactory } from '../../jobs/spawn-ts.ts';
 

@@ -1,6 +1,6 @@
 // `polarweave demo`: the whole job on the bundled invented demo data (demo/run-demo.ts), printing where the
 // outputs went.
-import { parseArgs, UsageError } from '../args.ts';
+import { commandArgs } from '../args.ts';
 import type { Command } from '../command.ts';
 import { runDemo } from '../../demo/run-demo.ts';
 
@@ -20,8 +20,7 @@ export const demoCommand: Command = {
     'liquid-validation.json and summary.md. The data is invented; predictions are model estimates.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length) throw new UsageError(`demo takes no input files, got "${args.positionals[0]}"`);
+    const { args } = commandArgs(argv, options, { inputs: 0, missing: 'demo takes no input files, got "{got}"' });
     const result = await runDemo({
       outDir: args.options.output as string,
       dataDir: args.options.data,

@@ -4,13 +4,13 @@
 // as streamed (extended XYZ) go through the streamed, parallel, resumable path (OUT.checkpoint.json after
 // Ctrl-C or a crash, frame-range shards for clusters); other kinds (CIF) are predicted in one pass. Both
 // write the same layout, identity line and frame stamps, atomically.
-import { parseArgs, UsageError, type ParsedArgs } from '../args.ts';
+import { commandArgs, UsageError, type ParsedArgs } from '../args.ts';
 import type { Command, CommandIO } from '../command.ts';
 import { CancelledError, InputError } from '../../core/errors.ts';
 import type { FrameRange } from '../../io/extxyz.ts';
 import { structureEntry } from '../../io/read-structures.ts';
 import { checkpointPaths, progressLine, streamPredict, type StreamPredictOptions } from '../../app/predict/stream-predict.ts';
-import { loadModelFile, predictOutputFormat, predictToFile, type LoadedModel } from '../../app/predict/predict.ts';
+import { loadModelFile, predictOutputFormat, predictToFile, type LoadedModel } from '../../app/predict/prediction.ts';
 import { availableParallelism } from 'node:os';
 
 const options = [
@@ -122,10 +122,7 @@ export const predictCommand: Command = {
     'interrupted run continues where it stopped when started again with the same arguments.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length !== 2) throw new UsageError('give the model file and one input file');
-    const output = args.options.output;
-    if (!output) throw new UsageError('give the output file with -o OUT.csv or -o OUT.extxyz');
+    const { args, output } = commandArgs(argv, options, { inputs: 2, missing: 'give the model file and one input file', output: 'give the output file with -o OUT.csv or -o OUT.extxyz' });
     if (args.flags.resume && args.flags.restart) throw new UsageError('give --resume or --restart, not both');
     const threads = args.options.threads === undefined ? undefined : Number(args.options.threads);
     if (threads !== undefined && (!Number.isInteger(threads) || threads < 1)) throw new UsageError(`--threads must be a whole number ≥ 1, got "${args.options.threads}"`);

@@ -1,9 +1,10 @@
 // `polarweave validate`: k-fold cross-validation of a training request, for one route or both, with an
 // optional learning curve; prints RMSE and %RMSE of the λ=0 and λ=2 parts of ε (and α_CM) and a plain verdict.
-import { parseArgs, UsageError } from '../args.ts';
+import { commandArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import type { ErrorFigures, Route } from '../../core/learning/model-types.ts';
-import { validate, validateValues, type ValueErrorFigures } from '../../core/learning/validation.ts';
+import { validateValues, type ValueErrorFigures } from '../../core/learning/validation.ts';
+import { fmtPct, validateRoutes, verdict, verdictOf } from '../../app/learning.ts';
 import { checkTargetOptions, parseRequest, parseRoute, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf } from '../learn-options.ts';
 
 const options = [
@@ -13,25 +14,6 @@ const options = [
   { name: 'learning-curve', value: 'N1,N2,…', help: 'training-set sizes (frames) for a learning curve' },
   ...settingOptions,
 ];
-
-/** Rule-of-thumb verdict thresholds on %RMSE (common practice, no source). */
-export const GOOD_PERCENT = 10;
-export const USABLE_PERCENT = 30;
-
-export function verdict(e: ErrorFigures): string {
-  return verdictOf(Math.max(e.percentIso, e.percentAniso), 'both %RMSE');
-}
-
-/** The verdict on the worst %RMSE of a validation; `what` names the figures for the good case. */
-function verdictOf(worst: number, what: string): string {
-  if (worst <= GOOD_PERCENT) return `good (${what} ≤ ${GOOD_PERCENT} %)`;
-  if (worst <= USABLE_PERCENT) return `usable with care (worst %RMSE ${fmtPct(worst)}, between ${GOOD_PERCENT} and ${USABLE_PERCENT} %)`;
-  return `poor (worst %RMSE ${fmtPct(worst)} > ${USABLE_PERCENT} %): more or more varied training data, or other settings, are needed`;
-}
-
-function fmtPct(p: number): string {
-  return Number.isFinite(p) ? `${p.toFixed(1)} %` : 'undefined (the reference does not vary)';
-}
 
 export function formatErrors(e: ErrorFigures, units: string): string {
   const g = (x: number) => x.toPrecision(3);
@@ -56,8 +38,7 @@ export const validateCommand: Command = {
     'A dipole (3 numbers) is compared as a vector, RMSE = sqrt(mean |Δμ|²); a scalar as it is.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length !== 1) throw new UsageError('give exactly one input file');
+    const { args } = commandArgs(argv, options, { inputs: 1, missing: 'give exactly one input file' });
     const folds = Number(args.options.folds);
     if (!Number.isInteger(folds) || folds < 2) throw new UsageError(`--folds must be a whole number ≥ 2, got "${args.options.folds}"`);
     let curve: number[] | undefined;
@@ -83,10 +64,8 @@ export const validateCommand: Command = {
       io.out('Rule-of-thumb thresholds: good ≤ 10 %RMSE, usable ≤ 30 %RMSE (common practice, no source). Predictions are model estimates.\n');
       return 0;
     }
-    const summary: { route: Route; eps: ErrorFigures }[] = [];
-    for (const route of routes) {
-      const request = parseRequest(args, route);
-      const report = await validate(frames, request, { folds, learningCurve: curve }, { signal: io.signal, onProgress: progressReporter(io, `validate ${route}`) });
+    const { reports, better } = await validateRoutes(frames, (route) => parseRequest(args, route), routes, { folds, learningCurve: curve }, (route) => ({ signal: io.signal, onProgress: progressReporter(io, `validate ${route}`) }));
+    for (const { route, report } of reports) {
       io.out(`route ${route}: ${folds}-fold cross-validation over ${report.errors.count} frames\n`);
       io.out(`  on ε:\n${indent(formatErrors(report.errors, ''), 4)}\n`);
       for (const o of report.alsoOn) io.out(`  on ${o.target}:\n${indent(formatErrors(o.errors, ' Å³'), 4)}\n`);
@@ -95,14 +74,8 @@ export const validateCommand: Command = {
       }
       if (report.skippedSizes.length) io.out(`  learning-curve sizes skipped (more than the training folds hold): ${report.skippedSizes.join(', ')}\n`);
       io.out(`  verdict (rule of thumb, on ε): ${verdict(report.errors)}\n`);
-      summary.push({ route, eps: report.errors });
     }
-    if (summary.length === 2) {
-      const [a, b] = summary;
-      const score = (e: ErrorFigures) => e.rmseIso ** 2 + e.rmseAniso ** 2;
-      const better = score(a.eps) <= score(b.eps) ? a : b;
-      io.out(`comparison on ε: route ${better.route} has the smaller total RMSE (cm ${Math.sqrt(score(a.eps)).toPrecision(3)}, direct ${Math.sqrt(score(b.eps)).toPrecision(3)})\n`);
-    }
+    if (better) io.out(`comparison on ε: route ${better.route} has the smaller total RMSE (cm ${better.totals.cm.toPrecision(3)}, direct ${better.totals.direct.toPrecision(3)})\n`);
     io.out('Rule-of-thumb thresholds: good ≤ 10 %RMSE, usable ≤ 30 %RMSE (common practice, no source). Predictions are model estimates.\n');
     return 0;
   },

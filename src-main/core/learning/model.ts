@@ -21,10 +21,10 @@ import {
   type KernelExpansion,
   type Order,
 } from './kernels.ts';
-import type { Applicability, FramePrediction, ModelSettings, Route, TensorKind, TrainRequest, WorkHooks } from './model-types.ts';
+import type { Applicability, FramePrediction, ModelSettings, Route, TensorKind, TrainRequest, TuneGrid, WorkHooks } from './model-types.ts';
 import { makeRng } from '../numerics/random.ts';
 import { cachedNearestSearch, searchNearest } from './nearest-search.ts';
-import { tuneCombinations, tuneSettings } from './tuning.ts';
+import { tuneCombinations, tuneSettingsWith, type TuneResult } from './tuning.ts';
 import { fitRidge, foldsOf, posteriorVariance, primalWeights, type Design } from './regression.ts';
 import {
   farthestPointSample,
@@ -664,6 +664,11 @@ function targetStatistics(y: Float64Array, frames: number, c: number): TrainingS
   }
   for (let f = 0; f < frames; f++) for (let k = 0; k < c; k++) std[k] += (y[f * c + k] - mean[k]) ** 2 / frames;
   return { mean, std: std.map(Math.sqrt), min, max };
+}
+
+/** Choose the settings of `grid` by cross-validation on the frames (core/learning/tuning.ts with this file's trainer). */
+export function tuneSettings(frames: Frame[], request: TrainRequest, grid: TuneGrid, hooks: WorkHooks = {}): Promise<TuneResult> {
+  return tuneSettingsWith((f, r, signal) => trainWithFeaturiser(f, r, null, { signal }, { applicability: false }), frames, request, grid, hooks);
 }
 
 /**
