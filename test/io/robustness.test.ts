@@ -1,7 +1,8 @@
 // Regression tests of hostile and degenerate input, one class each, below the CLI (test/cli/hostile-input.test.ts
 // runs the same classes through the command line): refused with a typed error that names where, in bounded time.
 import { getEventListeners } from 'node:events';
-import { existsSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { createWriteStream, existsSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { createGzip } from 'node:zlib';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -11,7 +12,7 @@ import { InputError } from '../../src-main/core/errors.ts';
 import { checkCell } from '../../src-main/core/geometry/cell.ts';
 import { makeFrame } from '../../src-main/core/geometry/frame.ts';
 import { neighbourList } from '../../src-main/core/geometry/neighbours.ts';
-import { MAX_JSON_DEPTH, MIN_ATOM_DISTANCE_A } from '../../src-main/core/limits.ts';
+import { MAX_JSON_DEPTH, MAX_LINE_BYTES, MIN_ATOM_DISTANCE_A } from '../../src-main/core/limits.ts';
 import { atomicWriteStream, removeStaleTemporaries, writeError, writeFileAtomic } from '../../src-main/io/atomic.ts';
 import { parseCif } from '../../src-main/io/cif.ts';
 import { parseCsv } from '../../src-main/io/csv.ts';
@@ -113,6 +114,22 @@ describe('the streamed predict reader (frame slices)', () => {
     expect(e.where.line).toBe(4);
     expect(e.where.frame).toBe(1);
   });
+
+  it('refuses a line that never ends (a gzip "bomb") before collecting it', async () => {
+    const file = join(dir, 'bomb.extxyz.gz');
+    const gz = createGzip({ level: 1 });
+    const out = createWriteStream(file);
+    gz.pipe(out);
+    gz.write('1\n\nO ');
+    const junk = Buffer.alloc(1 << 20, 0x37);
+    for (let k = 0; k <= MAX_LINE_BYTES >> 20; k++) if (!gz.write(junk)) await new Promise<void>((r) => gz.once('drain', () => r()));
+    gz.end();
+    await new Promise<void>((r) => out.on('close', () => r()));
+    const run = async () => {
+      for await (const _ of frameSlices(file, { offset: 0, index: 0, line: 1 }, () => 'take'));
+    };
+    await expect(run()).rejects.toThrow(/line 3 is longer than 64 MiB/);
+  }, 60_000);
 
   it('says "no frames found" for an empty file, and refuses an empty frame', async () => {
     await expect(slices('')).rejects.toThrow(/no frames found/);
