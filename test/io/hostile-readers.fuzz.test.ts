@@ -43,7 +43,7 @@ const crashes: string[] = [];
 /** Run one input: classify it, and hold accepted values and refusals to the rules. */
 async function classify(reader: string, file: string, run: () => unknown | Promise<unknown>, checkAccepted: (value: any) => void, inputOf: () => string = () => ''): Promise<void> {
   const c = (counts[reader] ??= { tried: 0, accepted: 0, refused: 0, crashed: 0, hung: 0 });
-  c.tried++;
+  // counted when done: an input cut off by the time budget (fast-check abandons the last run) is not counted
   const t0 = performance.now();
   try {
     checkAccepted(await run());
@@ -60,6 +60,7 @@ async function classify(reader: string, file: string, run: () => unknown | Promi
       if (crashes.length < 5) crashes.push(`${reader}: ${(e as Error)?.stack ?? String(e)}\ninput: ${inputOf()}`);
     }
   }
+  c.tried++;
   if (performance.now() - t0 > PER_INPUT_MS) c.hung++;
 }
 
