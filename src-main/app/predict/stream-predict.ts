@@ -374,8 +374,12 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     // stopped or refused before anything worth keeping: leave nothing behind
     if (framesDone === 0 && !ck) await Promise.all([fsp.rm(partial, { force: true }), fsp.rm(ckPath, { force: true })]);
     if (signal?.aborted && !(e instanceof InputError)) throw new CancelledError();
-    // a full disk, a folder removed meanwhile…: a plain message naming the output (the checkpoint allows resuming)
-    throw typeof (e as NodeJS.ErrnoException)?.code === 'string' && !(e instanceof InputError) ? writeError(opts.output, e) : e;
+    // a full disk, a folder removed meanwhile…: a plain message naming the output; the frames done are kept
+    if (typeof (e as NodeJS.ErrnoException)?.code !== 'string' || e instanceof InputError) throw e;
+    const w = writeError(opts.output, e);
+    const full = (e as NodeJS.ErrnoException).code === 'ENOSPC' || (e as NodeJS.ErrnoException).code === 'EDQUOT';
+    const kept = framesDone > 0 || ck !== null;
+    throw w instanceof InputError && full && kept ? new InputError(w.problem, w.where, 'free some space, then run the same command again: it continues from the checkpoint') : w;
   } finally {
     // idle workers are unref'd and would not hold the process, but they hold memory (the model): free them now
     await runner?.close();

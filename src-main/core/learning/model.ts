@@ -736,9 +736,21 @@ function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, r
     }
     if (part.order === 0 && part.posterior) variance = partVariance(model, part, fe);
   }
+  requireFinite(frame, total);
   const applicability = applicabilityOf(model, fe, nAtoms);
   applicability.variance = variance;
   return { irreducible: total, localIrreducible: local, components: C, applicability };
+}
+
+/** A model whose numbers overflow on a frame is damaged or far out of its range: no number rather than a non-finite one. */
+function requireFinite(frame: Frame, ...values: ArrayLike<number>[]): void {
+  for (const v of values) {
+    for (let i = 0; i < v.length; i++) {
+      if (Number.isFinite(v[i])) continue;
+      const at = frame.source ? ` (${frame.source.file}, frame ${frame.source.index})` : '';
+      throw new ModelError(`the model gives a non-finite prediction${at}: its stored numbers are damaged or far out of range; retrain or restore the model file`);
+    }
+  }
 }
 
 /** Predicts one frame (features included): what `predict` runs per frame. */
@@ -860,6 +872,7 @@ export function framePredictionFrom(model: Model, frame: Frame, pred: TargetPred
   const v = frameVolume(frame, index);
   const learnt = fromIrreducible(pred.irreducible);
   const { alphaCM, alphaC, eps } = tensorsFromLearnt(learnt, model.target.route, v);
+  requireFinite(frame, alphaCM, alphaC, eps);
   const n = frame.species.length;
   const local = new Float64Array(n * 9);
   // route direct: contributions to ε − I of this cell, (4π/V) × the local α_c contribution (model-types.ts).
