@@ -43,6 +43,9 @@ const RENDERER_MAY_SEE: Record<string, 'types' | 'values'> = {
   // The one table of model settings (names, units, defaults, limits, help): the window's form reads the same
   // limits as the CLI, the API schema and the engine. Pure data and small checks, no imports.
   'src-main/core/settings-table.ts': 'values',
+  // Error figures of predicted against reference tensors: the parity chart's figures for a group of dots come
+  // from the engine's own function. Imports only tensor.ts and types.
+  'src-main/core/learning/error-figures.ts': 'values',
 };
 
 /**
