@@ -4,6 +4,7 @@
 import { z } from 'zod';
 import { DEFAULT_SETTINGS, MAX_SPECIES, NUMERIC_SETTINGS, settingSpec, settingsProblems, SPECIES_LABEL, type NumericSettingKey, type NumericSettingSpec } from '../core/settings-table.ts';
 import type { ErrorFigures, ModelSettings, ParityPoint, Route, TensorKind, ValidationReport } from '../core/learning/model-types.ts';
+import { MAX_REQUEST_BYTES } from '../core/limits.ts';
 
 // ---------------------------------------------------------------------------------------------------------
 // Shared shapes
@@ -230,7 +231,8 @@ export interface FileOut {
 
 const id = z.string().min(1).max(200);
 const finite = z.number().finite();
-const MAX_TEXT = 512 * 1024 * 1024;
+/** Uploaded text or base64: no longer than a request the host reads (core/limits.ts). */
+const MAX_TEXT = MAX_REQUEST_BYTES;
 
 export const tensorKindSchema = z.enum(['eps', 'alpha-c', 'alpha-cm']);
 export const routeSchema = z.enum(['cm', 'direct']);

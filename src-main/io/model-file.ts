@@ -7,11 +7,14 @@
 // The checksum is sha256 over the canonical JSON of the payload (keys sorted, no spaces), so any edit or
 // truncation is caught. A corrupt file, a bad checksum or an unknown version is a ModelError, never a model.
 import { createHash } from 'node:crypto';
-import { readFile } from 'node:fs/promises';
-import { ModelError } from '../core/errors.ts';
+import { InputError, ModelError } from '../core/errors.ts';
+import { MAX_JSON_DEPTH } from '../core/limits.ts';
 import type { Model } from '../core/learning/model.ts';
 import { writeFileAtomic } from './atomic.ts';
 import { NUMERIC_SETTINGS, SPECIES_SETTING } from '../core/settings-table.ts';
+import { jsonTooDeep } from './json-depth.ts';
+import { checkModelContents } from './model-check.ts';
+import { readWholeFile } from './whole-file.ts';
 
 export const MODEL_FORMAT = 'polarweave-model';
 export const MODEL_VERSION = 2;
@@ -131,6 +134,8 @@ function need(cond: boolean, file: string, what: string): void {
 
 /** Read a model from text; any defect is a ModelError naming the file and what is wrong. */
 export function parseModel(text: string, fileName: string): Model {
+  // the checksum walk and the decoder recurse: refuse deep nesting before parsing anything
+  if (jsonTooDeep(text)) throw new ModelError(`${fileName}: not a model file (JSON nested deeper than ${MAX_JSON_DEPTH} levels)`);
   let doc: unknown;
   try {
     doc = JSON.parse(text);
@@ -153,7 +158,7 @@ export function parseModel(text: string, fileName: string): Model {
   }
   const decoded = decode(d.payload, '', fileName) as Record<string, unknown>;
   const model = (d.version === 1 ? fromVersion1(decoded, fileName) : decoded) as unknown as Model;
-  checkModelShape(model, fileName);
+  checkModelContents(model, fileName);
   return model;
 }
 
@@ -176,55 +181,19 @@ export function fromVersion1(payload: Record<string, unknown>, file: string): Re
   return { ...payload, settings };
 }
 
-/** Structural checks beyond the checksum (a file written by a buggy program must still not give numbers). */
-function checkModelShape(m: Model, file: string): void {
-  need(typeof m.target?.key === 'string' && ['tensor', 'vector', 'scalar'].includes(m.target.shape), file, 'target');
-  need(m.target.route === 'cm' || m.target.route === 'direct', file, 'route');
-  need(Array.isArray(m.species) && m.species.every((s) => typeof s === 'string'), file, 'species');
-  need(Array.isArray(m.centres) && m.centres.every((s) => m.species.includes(s)), file, 'centre species');
-  need(typeof m.featureSizes?.n0 === 'number', file, 'feature sizes');
-  need(Number.isInteger(m.tensorLimits?.nmax) && Number.isInteger(m.tensorLimits?.lmax), file, 'tensor feature limits');
-  if (m.featureSelection !== undefined) {
-    const sel = m.featureSelection as Record<string, unknown>;
-    need(Object.values(sel).every((v) => Array.isArray(v) && v.every((x) => Number.isInteger(x) && x >= 0)), file, 'feature selection');
-    need(Array.isArray(sel[0]) && (sel[0] as number[]).length === m.featureSizes.n0, file, 'feature selection size');
-  }
-  need(Array.isArray(m.baseline) && m.baseline.length === m.centres.length, file, 'baseline');
-  need(Array.isArray(m.parts) && m.parts.length > 0, file, 'model parts');
-  const nS = m.centres.length;
-  for (const p of m.parts) {
-    need([0, 1, 2].includes(p.order) && typeof p.n === 'number', file, 'part order');
-    if (p.form === 'linear') need(p.weights instanceof Float64Array && p.weights.length === nS * p.n, file, `weights of λ=${p.order}`);
-    else {
-      const k = p.kernel;
-      need(!!k && k.species instanceof Int32Array && k.p instanceof Float64Array && k.v instanceof Float64Array, file, `kernel of λ=${p.order}`);
-      need(k!.p.length === k!.species.length * k!.n0 && k!.v.length === k!.species.length * k!.n, file, `kernel sizes of λ=${p.order}`);
-    }
-    if (p.posterior) need(p.posterior.factor instanceof Float64Array && p.posterior.factor.length === p.posterior.size ** 2, file, `posterior of λ=${p.order}`);
-  }
-  const a = m.applicability;
-  need(!!a && a.species instanceof Int32Array && a.p instanceof Float64Array && a.p.length === a.species.length * a.n0, file, 'applicability');
-  // The settings' types only, not the limits of today's form: a model trained under other limits still loads.
-  need(m.settings !== null && typeof m.settings === 'object', file, 'settings');
-  const st = m.settings as unknown as Record<string, unknown>;
-  for (const spec of NUMERIC_SETTINGS) {
-    const v = st[spec.key];
-    need((typeof v === 'number' && Number.isFinite(v)) || (spec.key === 'regularisation' && v === null), file, `settings.${spec.key}`);
-  }
-  const sp = st[SPECIES_SETTING.key];
-  need(Array.isArray(sp) && sp.every((x) => typeof x === 'string'), file, `settings.${SPECIES_SETTING.key}`);
-}
-
 export async function saveModel(path: string, model: Model): Promise<void> {
   await writeFileAtomic(path, serialiseModel(model));
 }
 
-export async function loadModel(path: string): Promise<Model> {
-  let text: string;
+/** The bytes of a model file (size-capped, gzip allowed); a ModelError saying why when it cannot be read. */
+export async function readModelBytes(path: string): Promise<Buffer> {
   try {
-    text = await readFile(path, 'utf8');
+    return await readWholeFile(path);
   } catch (e) {
-    throw new ModelError(`${path}: cannot read the model file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+    throw e instanceof InputError ? new ModelError(`${path}: cannot read the model file (${e.problem})`) : e;
   }
-  return parseModel(text, path);
+}
+
+export async function loadModel(path: string): Promise<Model> {
+  return parseModel((await readModelBytes(path)).toString('utf8'), path);
 }

@@ -15,7 +15,8 @@
 //   swapping the two factors, so again the stored dot product equals that of all ordered pairs.
 // - Every environment's block has unit norm (λ = 0: its row; λ > 0: its (2λ+1)×nλ block); a block whose norm is
 //   zero (e.g. λ = 2 of an atom with no neighbours) stays zero.
-import { InputError } from '../errors.ts';
+import { InputError, type Where } from '../errors.ts';
+import { MIN_ATOM_DISTANCE_A } from '../limits.ts';
 import { DEFAULT_SETTINGS, settingsProblems } from '../settings-table.ts';
 import type { Frame } from '../geometry/frame.ts';
 import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
@@ -477,7 +478,24 @@ export function prepare(frame: Frame, settings: FeatureSettings, lambdas: Lambda
     throw new RangeError(`computeFeatures: neighbour list has ${pairs.start.length - 1} centres, the frame ${N} atoms`);
   }
   if (timings) timings.neighbours += performance.now() - t0;
+  checkSeparation(pairs, where);
   return { P, channelOf, centres: Int32Array.from(centres), centreSpecies: Int32Array.from(centreSpecies), pairs, where };
+}
+
+/** Refuse a structure with two atoms closer than MIN_ATOM_DISTANCE_A: features of it would be a confident number from junk. */
+function checkSeparation(pairs: NeighbourPairs, where: Where): void {
+  const d = pairs.distances;
+  for (let p = 0; p < d.length; p++) {
+    if (d[p] < MIN_ATOM_DISTANCE_A) {
+      let i = 0;
+      while (pairs.start[i + 1] <= p) i++;
+      throw new InputError(
+        `atoms ${i + 1} and ${pairs.neighbour[p] + 1} are ${d[p].toPrecision(3)} Å apart, closer than any two atoms can be (${MIN_ATOM_DISTANCE_A} Å)`,
+        where,
+        'the structure is damaged (overlapping atoms, wrong units or a wrong cell); fix or remove this frame',
+      );
+    }
+  }
 }
 
 /**
