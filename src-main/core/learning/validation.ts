@@ -1,10 +1,5 @@
-// k-fold cross-validation of a training request over whole frames, learning curves, and the error figures of
-// the irreducible parts (definitions in docs/learning-engine.md, "Validation"):
-//   RMSE λ=0  = sqrt( mean over frames of (ΔT⁰)² )
-//   RMSE λ=2  = sqrt( mean over frames of Σ_μ (ΔT²_μ)² )          (the per-frame norm of the 5-component error)
-//   %RMSE     = 100 · RMSE / SD, SD λ=0 = population standard deviation of the reference T⁰ over frames,
-//               SD λ=2 = sqrt( mean over frames of Σ_μ (T²_μ − mean_μ)² )
-//   R²        = 1 − Σ Δ² / Σ (T − mean)²   (over the same components)
+// k-fold cross-validation of a training request over whole frames and learning curves. The error figures are
+// core/learning/error-figures.ts's, in the tensor's own units (definitions in docs/learning-engine.md, "Validation").
 // Tensor targets are compared on ε and on α_CM, whichever route was learnt.
 import { convertTensor } from '../dielectric/clausius-mossotti.ts';
 import { CancelledError, InputError } from '../errors.ts';
