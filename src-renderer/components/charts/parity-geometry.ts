@@ -48,7 +48,7 @@ export interface ParitySeries {
 function checkPoint(p: ParityPointJ, i: number): void {
   if (p.reference.length !== 6 || p.predicted.length !== 6) {
     throw new RangeError(
-      `parity point ${i} (frame ${p.frame}): reference and predicted need 6 numbers each [T⁰, T²₋₂…T²₂], ` +
+      `parity point ${i} (frame ${p.frame}): reference and predicted need 6 numbers each (the irreducible parts of docs/science-conventions.md), ` +
         `got ${p.reference.length} and ${p.predicted.length}`,
     );
   }
