@@ -3,6 +3,7 @@
 // validate jobs run in app/tasks.ts on the same core functions (trainModel, validate).
 import type { Frame } from '../core/geometry/frame.ts';
 import { trainModel, type Model } from '../core/learning/model.ts';
+import { meanSquaredTensorError } from '../core/learning/error-figures.ts';
 import type { ErrorFigures, Route, TrainRequest, ValidationReport, WorkHooks } from '../core/learning/model-types.ts';
 import { validate } from '../core/learning/validation.ts';
 import { CancelledError } from '../core/errors.ts';
@@ -16,7 +17,7 @@ export async function trainToFile(frames: Frame[], request: TrainRequest, output
   return model;
 }
 
-/** Cross-validate each route in turn; with two routes, also which one has the smaller total RMSE on ε. */
+/** Cross-validate each route in turn; with two routes, also which one has the smaller root-mean-square error of the whole tensor on ε. */
 export async function validateRoutes(
   frames: Frame[],
   requestOf: (route: Route) => TrainRequest,
@@ -28,7 +29,7 @@ export async function validateRoutes(
   for (const route of routes) reports.push({ route, report: await validate(frames, requestOf(route), options, hooksOf(route)) });
   let better = null;
   if (reports.length === 2) {
-    const score = (e: ErrorFigures) => e.rmseIso ** 2 + e.rmseAniso ** 2;
+    const score = (e: ErrorFigures) => meanSquaredTensorError(e);
     const [a, b] = reports;
     const totals = { [a.route]: Math.sqrt(score(a.report.errors)), [b.route]: Math.sqrt(score(b.report.errors)) } as Record<Route, number>;
     better = { route: score(a.report.errors) <= score(b.report.errors) ? a.route : b.route, totals };
@@ -38,19 +39,19 @@ export async function validateRoutes(
 
 export type { ValidationReport };
 
-/** Rule-of-thumb verdict thresholds on %RMSE (common practice, no source). */
+/** Rule-of-thumb verdict thresholds on the error relative to the spread of the data (common practice, no source). */
 export const GOOD_PERCENT = 10;
 export const USABLE_PERCENT = 30;
 
 export function verdict(e: ErrorFigures): string {
-  return verdictOf(Math.max(e.percentIso, e.percentAniso), 'both %RMSE');
+  return verdictOf(Math.max(e.percentIso, e.percentAniso), 'both errors');
 }
 
-/** The verdict on the worst %RMSE of a validation; `what` names the figures for the good case. */
+/** The verdict on the worst relative error of a validation; `what` names the figures for the good case. */
 export function verdictOf(worst: number, what: string): string {
   if (worst <= GOOD_PERCENT) return `good (${what} ≤ ${GOOD_PERCENT} %)`;
-  if (worst <= USABLE_PERCENT) return `usable with care (worst %RMSE ${fmtPct(worst)}, between ${GOOD_PERCENT} and ${USABLE_PERCENT} %)`;
-  return `poor (worst %RMSE ${fmtPct(worst)} > ${USABLE_PERCENT} %): more or more varied training data, or other settings, are needed`;
+  if (worst <= USABLE_PERCENT) return `usable with care (worst error ${fmtPct(worst)} of the spread, between ${GOOD_PERCENT} and ${USABLE_PERCENT} %)`;
+  return `poor (worst error ${fmtPct(worst)} of the spread > ${USABLE_PERCENT} %): more or more varied training data, or other settings, are needed`;
 }
 
 export function fmtPct(p: number): string {

@@ -68,7 +68,7 @@ function fmt(x: number, digits = 4): string {
 }
 
 function errorLine(e: ErrorFigures): string {
-  return `λ=0 RMSE ${e.rmseIso.toExponential(2)} (${fmt(e.percentIso, 1)} %), λ=2 RMSE ${e.rmseAniso.toExponential(2)} (${fmt(e.percentAniso, 1)} %), R² ${fmt(e.r2Iso, 3)} / ${fmt(e.r2Aniso, 3)}, ${e.count} frames`;
+  return `isotropic (tr/3) RMSE ${e.rmseIso.toExponential(2)} (${fmt(e.percentIso, 1)} % of the spread), anisotropic RMSE ${e.rmseAniso.toExponential(2)} (${fmt(e.percentAniso, 1)} % of the spread), R² ${fmt(e.r2Iso, 3)} / ${fmt(e.r2Aniso, 3)}, ${e.count} frames`;
 }
 
 export async function runDemo(options: DemoOptions): Promise<DemoResult> {
@@ -188,13 +188,13 @@ function demoSummary(s: SummaryInput): string {
     `- ε: ${errorLine(s.report.errors)}`,
     ...(s.report.alsoOn ?? []).map((a) => `- ${a.target}: ${errorLine(a.errors)}`),
     '',
-    '| training frames | %RMSE ε λ=0 | %RMSE ε λ=2 |',
+    '| training frames | ε isotropic: % of spread | ε anisotropic: % of spread |',
     '|---|---|---|',
     ...s.report.learningCurve.map((p) => `| ${p.trainSize} | ${fmt(p.errors.percentIso, 1)} | ${fmt(p.errors.percentAniso, 1)} |`),
     `| ${Math.floor((s.liquid.length * (s.report.folds - 1)) / s.report.folds)} (full fold) | ${fmt(s.report.errors.percentIso, 1)} | ${fmt(s.report.errors.percentAniso, 1)} |`,
     '',
     `## Crystal: model trained on the ${s.liquid.length} liquid frames, ${s.crystal.length} crystal frames predicted`,
-    `- ε against the reference: RMSE of the λ=0 part ${s.crystalErrors.rmseIso.toExponential(2)} (${fmt((100 * s.crystalErrors.rmseIso) / (Math.sqrt(3) * isoMean(s.referenceMean)), 2)} % of the mean λ=0 part), of the λ=2 part ${s.crystalErrors.rmseAniso.toExponential(2)} (the crystal's frames differ so little that %RMSE against their spread says nothing here)`,
+    `- ε against the reference: RMSE of the isotropic value tr/3 ${s.crystalErrors.rmseIso.toExponential(2)} (${fmt((100 * s.crystalErrors.rmseIso) / isoMean(s.referenceMean), 2)} % of its mean), of the anisotropy ${s.crystalErrors.rmseAniso.toExponential(2)} (the crystal's frames differ so little that the error relative to their spread says nothing here)`,
     `- mean ε diagonal: predicted ${diag(s.predictedMean)}; reference ${diag(s.referenceMean)}`,
     `- principal refractive indices: predicted ${n(s.predictedMean)}; reference ${n(s.referenceMean)}`,
     `- birefringence n_max − n_min: predicted ${dn(s.predictedMean)}; reference ${dn(s.referenceMean)}`,

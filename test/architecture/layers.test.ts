@@ -48,6 +48,9 @@ const BROWSER_SAFE_CORE = [
   'src-main/core/settings-table.ts',
   // Size limits on input, shared by the readers and the API schema.
   'src-main/core/limits.ts',
+  // Error figures of predicted against reference tensors: the parity chart's figures for a group of dots come
+  // from the engine's own function.
+  'src-main/core/learning/error-figures.ts',
 ];
 
 /** What the renderer may import from src-main, and how. */

@@ -32,8 +32,8 @@ export const demoCommand: Command = {
     const c = result.crystalErrors;
     io.out(
       [
-        `liquid cross-validation (${result.liquidFrames} frames): %RMSE of ε λ=0 ${e.percentIso.toFixed(1)} %, λ=2 ${e.percentAniso.toFixed(1)} %`,
-        `crystal (${result.crystalFrames} frames): RMSE of ε λ=0 ${c.rmseIso.toExponential(2)}, λ=2 ${c.rmseAniso.toExponential(2)}; ${result.crystalOutsideFrames} frames flagged outside the training data`,
+        `liquid cross-validation (${result.liquidFrames} frames): error of ε relative to the spread of the data, isotropic ${e.percentIso.toFixed(1)} %, anisotropic ${e.percentAniso.toFixed(1)} %`,
+        `crystal (${result.crystalFrames} frames): RMSE of ε, isotropic ${c.rmseIso.toExponential(2)}, anisotropic ${c.rmseAniso.toExponential(2)}; ${result.crystalOutsideFrames} frames flagged outside the training data`,
         `outputs in ${result.files.summary.replace(/[/\\][^/\\]*$/, '')}:`,
         `  ${result.files.summary}`,
         `  ${result.files.csv}`,
