@@ -2,7 +2,7 @@
 // here; the Electron IPC handler and the browser host validate every incoming payload with `apiSchemas`
 // before the service (app/service.ts) sees it. Every value is plain JSON (tensors as number[9], row-major).
 import { z } from 'zod';
-import type { ErrorFigures, ModelSettings, ParityPoint, Route, TensorKind, ValidationReport } from '../core/learning/model-types.ts';
+import type { ErrorFigures, ModelSettings, DomainReason, ParityPoint, Route, TensorErrorBars, TensorKind, ValidationReport } from '../core/learning/model-types.ts';
 
 // ---------------------------------------------------------------------------------------------------------
 // Shared shapes
@@ -118,6 +118,11 @@ export interface ApplicabilityJ {
   atomsOutside: number;
   variance: number;
   outside: boolean;
+  /** Graded per-frame domain score and fraction of atoms outside (core/learning/domain.ts). */
+  score?: number;
+  fractionOutside?: number;
+  /** Why the frame or some atoms lie outside, worst first. */
+  reasons?: DomainReason[];
 }
 
 export interface FramePredictionJ {
@@ -129,6 +134,8 @@ export interface FramePredictionJ {
   /** Principal refractive indices √λ(ε), ascending. */
   refractive: number[];
   applicability: ApplicabilityJ;
+  /** Calibrated model error bars (one standard deviation), null when the model has no calibration. */
+  errorBars?: TensorErrorBars | null;
   /** The reference tensor of the frame in the model's target kind, if the file has it. */
   reference: Mat3J | null;
 }

@@ -17,7 +17,8 @@ function asFramePrediction(f: FramePredictionJ, local: number[], atomDistance: n
     alphaC: Float64Array.from(f.alphaC),
     eps: Float64Array.from(f.eps),
     local: Float64Array.from(local),
-    applicability: { atomDistance: Float64Array.from(atomDistance), maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside },
+    applicability: { atomDistance: Float64Array.from(atomDistance), maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, atomScore: new Float64Array(0), score: a.score ?? NaN, fractionOutside: a.fractionOutside ?? NaN, reasons: a.reasons ?? [] },
+    errorBars: f.errorBars ?? null,
   };
 }
 

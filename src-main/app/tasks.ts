@@ -53,7 +53,8 @@ function predictionJson(fp: FramePrediction, frameIndex: number, reference: Floa
     alphaCM: Array.from(fp.alphaCM),
     alphaC: Array.from(fp.alphaC),
     refractive: Array.from(refractiveIndices(fp.eps, { frame: frameIndex }).indices),
-    applicability: { maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside },
+    applicability: { maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, score: a.score, fractionOutside: a.fractionOutside, reasons: a.reasons },
+    errorBars: fp.errorBars,
     reference: reference ? Array.from(reference) : null,
   };
 }

@@ -180,6 +180,22 @@ function checkModelShape(m: Model, file: string): void {
   const a = m.applicability;
   need(!!a && a.species instanceof Int32Array && a.p instanceof Float64Array && a.p.length === a.species.length * a.n0, file, 'applicability');
   need(m.settings !== null && typeof m.settings === 'object' && typeof m.settings.cutoff === 'number', file, 'settings');
+  checkTrustShape(m, file);
+}
+
+/** Error-bar calibration and domain ranges (optional: older files lack them and predict without error bars). */
+function checkTrustShape(m: Model, file: string): void {
+  if (m.calibration !== undefined) {
+    const parts = m.calibration?.parts;
+    need(Array.isArray(parts) && parts.every((c) => m.parts.some((p) => p.order === c.order) && typeof c.varianceScale === 'number' && c.varianceScale > 0), file, 'error-bar calibration');
+  }
+  if (m.leverage !== undefined) need(m.leverage?.order === 0 && m.leverage.posterior?.factor instanceof Float64Array, file, 'leverage part');
+  if (m.domain !== undefined) {
+    const d = m.domain;
+    const S = m.species.length;
+    const len = (r: { min: unknown[]; median: unknown[]; max: unknown[] } | undefined, n: number) => !!r && [r.min, r.median, r.max].every((a) => Array.isArray(a) && a.length === n);
+    need(!!d && len(d.nearest, S * S) && len(d.count, S) && len(d.scale, m.centres.length) && Array.isArray(d.atomRate) && d.atomRate.length === S && typeof d.density?.tolerance === 'number', file, 'domain ranges');
+  }
 }
 
 export async function saveModel(path: string, model: Model): Promise<void> {
