@@ -72,10 +72,8 @@ export class DomainStatsBuilder {
       this.atomCounts[a]++;
       this.count[a].push(g.count[i]);
       total += g.count[i];
-      for (let b = 0; b < this.S; b++) {
-        const r = g.nearest[i * this.S + b];
-        if (Number.isFinite(r)) this.nearest[a * this.S + b].push(r);
-      }
+      // none within the cutoff counts as the cutoff: "at least this far"
+      for (let b = 0; b < this.S; b++) this.nearest[a * this.S + b].push(Math.min(g.nearest[i * this.S + b], this.cutoff));
     }
     this.meanCount.push(N ? total / N : 0);
     if (norms && centreSpecies) for (let e = 0; e < norms.length; e++) if (norms[e] > 0) this.scale[centreSpecies[e]].push(Math.log(norms[e]));
@@ -221,19 +219,17 @@ export function checkDomain(
       const r = g.nearest[i * S + b];
       const B = stats.species[b];
       const nr = at(stats.nearest, k);
-      const med = nr.median;
-      let ub: number;
-      if (!Number.isFinite(med)) ub = Number.isFinite(r) ? 3 : 0; // a pair training never had within the cutoff
-      else if (!Number.isFinite(r)) ub = 3; // training always had one
-      else ub = rangeScore(r, nr.min, med, nr.max);
+      if (!Number.isFinite(nr.median)) continue; // no training atom of species A
+      const rr = Math.min(r, stats.cutoff); // none within the cutoff: at least the cutoff, as in training
+      const ub = rangeScore(rr, nr.min, nr.median, nr.max);
       if (ub > u[i]) u[i] = ub;
-      const shorter = Number.isFinite(r) && (!Number.isFinite(med) || r < med);
+      const shorter = rr < nr.median;
       note(`${A}–${B} ${shorter ? 'shorter' : 'longer'}`, ub, i, () =>
-        !Number.isFinite(med)
-          ? `${A}–${B} ${fmt(r)} Å: training never had ${B} within ${stats.cutoff} Å of ${A}`
-          : !Number.isFinite(r)
+        nr.min >= stats.cutoff
+          ? `${A}–${B} ${fmt(rr)} Å: training never had ${B} within ${stats.cutoff} Å of ${A}`
+          : rr >= stats.cutoff
             ? `${A} with no ${B} within ${stats.cutoff} Å (training always had one, farthest ${fmt(nr.max)} Å)`
-            : `${A}–${B} ${fmt(r)} Å, ${shorter ? 'shorter' : 'longer'} than any in training (${fmt(shorter ? nr.min : nr.max)} Å)`,
+            : `${A}–${B} ${fmt(rr)} Å, ${shorter ? 'shorter' : 'longer'} than any in training (${fmt(shorter ? nr.min : nr.max)} Å)`,
       );
     }
   }
