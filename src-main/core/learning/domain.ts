@@ -7,8 +7,8 @@
 //   - per frame: the number density N/V.
 // Every limit is the training data's own range. Per atom a score u: 0 at the training median, 1 at the training
 // extreme (or, for the feature distance, at the 99.9 % quantile of held-out-frame distances), above 1 outside.
-// A frame is flagged when its density lies beyond the training range (tolerance from the frame-to-frame spread
-// of the training's mean coordination), when an atom is far out (u > 2: twice the training's own excursion), or
+// A frame is flagged when its density lies beyond the training range (tolerance: 3 × the relative spread of one
+// frame's mean coordination, from the spread over its atoms), when an atom is far out (u > 2: twice the training's own excursion), or
 // when more atoms are out than unseen frames of the training data would show by chance (binomial 3σ from the
 // rate at which new atoms beat a range set by n training atoms, 2/(n+1) per two-sided check, plus one atom).
 import type { Frame } from '../geometry/frame.ts';
@@ -53,7 +53,7 @@ export class DomainStatsBuilder {
   private readonly count: number[][];
   private readonly scale: number[][];
   private readonly density: number[] = [];
-  private readonly meanCount: number[] = [];
+  private frames = 0;
   private atomCounts: number[];
   constructor(private readonly species: string[], private readonly centres: string[], private readonly cutoff: number) {
     this.S = species.length;
@@ -66,30 +66,27 @@ export class DomainStatsBuilder {
   add(frame: Frame, pairs: NeighbourList, centreSpecies?: Int32Array, norms?: Float64Array): void {
     const g = atomGeometry(frame, pairs, this.species, this.cutoff);
     const N = frame.species.length;
-    let total = 0;
+    this.frames++;
     for (let i = 0; i < N; i++) {
       const a = g.speciesIndex[i];
       this.atomCounts[a]++;
       this.count[a].push(g.count[i]);
-      total += g.count[i];
       // none within the cutoff counts as the cutoff: "at least this far"
       for (let b = 0; b < this.S; b++) this.nearest[a * this.S + b].push(Math.min(g.nearest[i * this.S + b], this.cutoff));
     }
-    this.meanCount.push(N ? total / N : 0);
     if (norms && centreSpecies) for (let e = 0; e < norms.length; e++) if (norms[e] > 0) this.scale[centreSpecies[e]].push(Math.log(norms[e]));
     if (frame.cell) this.density.push(N / cellVolume(frame.cell));
   }
   build(): DomainStats {
     const S = this.S;
-    const mc = this.meanCount;
-    const mean = mc.reduce((s, v) => s + v, 0) / Math.max(1, mc.length);
-    const sdFrames = Math.sqrt(mc.reduce((s, v) => s + (v - mean) ** 2, 0) / Math.max(1, mc.length - 1));
-    // spread of one frame's mean coordination expected from its atoms alone (never zero)
+    // Tolerance on the number density beyond the training range: 3 × the relative spread one frame's mean
+    // coordination has from its atoms alone (the frame-to-frame spread of a training set that spans several state
+    // points is already in [min, max] and must not widen the tolerance further).
     const allCounts = this.count.flat();
     const atomMean = allCounts.reduce((s, v) => s + v, 0) / Math.max(1, allCounts.length);
     const sdAtoms = Math.sqrt(allCounts.reduce((s, v) => s + (v - atomMean) ** 2, 0) / Math.max(1, allCounts.length - 1));
-    const perFrame = allCounts.length / Math.max(1, mc.length);
-    const rel = mean > 0 ? Math.sqrt(sdFrames ** 2 + sdAtoms ** 2 / Math.max(1, perFrame)) / mean : 0;
+    const perFrame = allCounts.length / Math.max(1, this.frames);
+    const rel = atomMean > 0 ? sdAtoms / Math.sqrt(Math.max(1, perFrame)) / atomMean : 0;
     const checks = S + 2; // nearest per species, count, feature shape/scale
     const atomRate = this.atomCounts.map((n) => Math.min(1, (2 * checks) / (n + 1) + 0.001));
     return {
@@ -102,7 +99,7 @@ export class DomainStatsBuilder {
       atomRate,
       rule:
         'per atom: nearest-neighbour distance per species pair, neighbours within the cutoff and neighbour-density scale against the training range (score 1 at the training extreme), ' +
-        'feature distance against the 99.9 % quantile of held-out-frame distances; per frame: number density against the training range ± 3 × the spread of the mean coordination; ' +
+        'feature distance against the 99.9 % quantile of held-out-frame distances; per frame: number density against the training range ± 3 × the spread of the mean coordination of one frame; ' +
         'flag when the density is out, an atom scores above 2, or more atoms are out than chance allows (binomial 3σ + 1)',
     };
   }
@@ -284,4 +281,29 @@ export function summariseReasons(perFrame: { frame: number; reasons: DomainReaso
     }
   }
   return [...by.entries()].map(([key, v]) => ({ key, frames: v.frames, worst: v.worst.text })).sort((a, b) => b.frames - a.frames);
+}
+
+/**
+ * Reasons read back from a prediction file (the `ood_reason` text of each frame, reasons joined by "; "): grouped
+ * by their wording with the numbers taken out, most frequent first, with an example frame.
+ */
+export function summariseReasonTexts(perFrame: { frame: number; text: string }[]): { kind: string; frames: number; example: { frame: number; text: string } }[] {
+  const by = new Map<string, { frames: number; example: { frame: number; text: string } }>();
+  for (const f of perFrame) {
+    if (!f.text) continue;
+    const seen = new Set<string>();
+    for (const part of f.text.split('; ')) {
+      if (/^and \d+ more$/.test(part)) continue;
+      const kind = part
+        .replace(/\s*\([^)]*\)/g, '')
+        .replace(/×?[-+]?\d+(\.\d+)?/g, '…')
+        .trim();
+      if (seen.has(kind)) continue;
+      seen.add(kind);
+      const b = by.get(kind);
+      if (b) b.frames++;
+      else by.set(kind, { frames: 1, example: { frame: f.frame, text: part } });
+    }
+  }
+  return [...by.entries()].map(([kind, v]) => ({ kind, ...v })).sort((a, b) => b.frames - a.frames);
 }
