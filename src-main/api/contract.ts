@@ -3,6 +3,7 @@
 // before the service (app/service.ts) sees it. Every value is plain JSON (tensors as number[9], row-major).
 import { z } from 'zod';
 import type { ErrorFigures, ModelSettings, DomainReason, ParityPoint, Route, TensorErrorBars, TensorKind, ValidationReport } from '../core/learning/model-types.ts';
+import type { SetSummary } from '../core/learning/set-summary.ts';
 
 // ---------------------------------------------------------------------------------------------------------
 // Shared shapes
@@ -147,6 +148,8 @@ export interface PredictionSummary {
   datasetName: string;
   frames: FramePredictionJ[];
   framesOutside: number;
+  /** Mean ε, principal n and Δn with model error bars, beside the references (core/learning/set-summary.ts). */
+  summary?: SetSummary;
 }
 
 /** One frame's prediction with per-atom detail (for the ellipsoid view). */

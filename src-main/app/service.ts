@@ -1,6 +1,7 @@
 // The service behind api/contract.ts: holds the open datasets, trained models and predictions of one session, runs
 // long work (train, validate, predict) through the job runner, and answers the window's questions. The
 // Electron shell and the browser host both wrap one instance; neither adds behaviour of its own.
+import { setSummary } from '../core/learning/set-summary.ts';
 import { readdir } from 'node:fs/promises';
 import { basename, join } from 'node:path';
 import { gunzipSync } from 'fflate';
@@ -294,6 +295,7 @@ export class AppService implements ApiService {
           datasetName: d.summary.name,
           frames,
           framesOutside: frames.filter((f) => f.applicability.outside).length,
+          summary: frames.length ? setSummary(frames.map((f) => ({ eps: f.eps, errorBars: f.errorBars, reference: f.reference, outside: f.applicability.outside }))) : undefined,
         };
         this.predictions.set(pid, { summary, route: m.summary.request.route, local: out.local, atomDistance: out.atomDistance });
         return { kind: 'predict', prediction: summary };
