@@ -55,7 +55,7 @@ async function one(label: string, settings: Partial<ModelSettings>): Promise<voi
 export async function run(): Promise<void> {
   console.log(`trust bench: ${cpus().length} cores, load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}, Node ${process.version}`);
   await one('default settings (nmax 6, lmax 4, ζ 1)', {});
-  await one('nmax 8, lmax 6, ζ 1', { nmax: 8, lmax: 6 });
+  await one('nmax 8, lmax 6, ζ 1', { radialFunctions: 8, angularOrder: 6 });
 }
 
 if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) await run();

@@ -34,8 +34,8 @@ describe('error bars in outer cross-validation on the real DFT water sample', ()
   const frames = waterFrames();
   const forms: [string, Partial<ModelSettings>][] = [
     ['linear (defaults)', {}],
-    ['sparse ζ=2, 100 representatives', { zeta: 2, sparsePoints: 100 }],
-    ['exact kernel ζ=2', { zeta: 2, sparsePoints: 0 }],
+    ['sparse ζ=2, 100 representatives', { kernelExponent: 2, anchorEnvironments: 100 }],
+    ['exact kernel ζ=2', { kernelExponent: 2, anchorEnvironments: 0 }],
   ];
   for (const [name, settings] of forms) {
     it(`${name}: ε tensor, RMS z of every part within 0.7–1.4`, async () => {
@@ -56,7 +56,7 @@ describe('error bars in outer cross-validation on the demo liquid', () => {
     frames = all.filter((f) => f.info.state_point === 'liquid-B').slice(0, 24);
   }, 60_000);
   it('linear, nmax 4, lmax 3: RMS z of every part within 0.7–1.4', async () => {
-    const r = await validate(frames, { tensorKey: 'eps_ref', kind: 'eps', route: 'cm', settings: { nmax: 4, lmax: 3 } }, { folds: 4 });
+    const r = await validate(frames, { tensorKey: 'eps_ref', kind: 'eps', route: 'cm', settings: { radialFunctions: 4, angularOrder: 3 } }, { folds: 4 });
     expectCalibrated('demo liquid linear', r.errorBars);
   }, 180_000);
 });

@@ -98,8 +98,8 @@ describe('calibrated error bars on synthetic data with known noise', () => {
     ['linear tensor', 'tensor', {}],
     ['linear vector', 'vector', {}],
     ['linear scalar', 'scalar', {}],
-    ['sparse ζ=2 tensor', 'tensor', { zeta: 2, sparsePoints: 12 }],
-    ['exact ζ=2 tensor', 'tensor', { zeta: 2, sparsePoints: 0 }],
+    ['sparse ζ=2 tensor', 'tensor', { kernelExponent: 2, anchorEnvironments: 12 }],
+    ['exact ζ=2 tensor', 'tensor', { kernelExponent: 2, anchorEnvironments: 0 }],
   ];
   for (const [name, shape, settings] of cases) {
     it(`${name}: RMS z on new frames within 0.7–1.4 and error bars the size of the noise`, async () => {
@@ -116,7 +116,7 @@ describe('calibrated error bars on synthetic data with known noise', () => {
       // the error against a noisy reference is at least the noise; a linear model is the true model class here
       // and adds little at 60 frames (a ζ = 2 kernel cannot represent the linear target exactly: larger σ)
       expect(meanSd).toBeGreaterThan(0.8 * NOISE);
-      if (!settings.zeta) expect(meanSd).toBeLessThan(1.6 * NOISE);
+      if (!settings.kernelExponent) expect(meanSd).toBeLessThan(1.6 * NOISE);
     }, 60_000);
   }
 

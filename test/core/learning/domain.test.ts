@@ -53,7 +53,7 @@ describe('out-of-domain check on the demo liquid and crystal', () => {
   let model: Model;
   beforeAll(async () => {
     liquid = (await readAllStructures(demo('liquid.extxyz.gz'))).filter((f) => f.info.state_point === 'liquid-B');
-    model = await trainModel(liquid.filter((_, i) => i % 2 === 0), { tensorKey: 'eps_ref', kind: 'eps', route: 'cm', settings: { nmax: 4, lmax: 3 } });
+    model = await trainModel(liquid.filter((_, i) => i % 2 === 0), { tensorKey: 'eps_ref', kind: 'eps', route: 'cm', settings: { radialFunctions: 4, angularOrder: 3 } });
   }, 180_000);
 
   it('quiet on unseen frames of the state point, fires on ±5 % in length', async () => {
@@ -71,7 +71,7 @@ describe('out-of-domain check on the demo liquid and crystal', () => {
   it('on the crystal, the per-frame score ranks frames by their actual error (Spearman > 0)', async () => {
     const crystal = await readAllStructures(demo('crystal.extxyz.gz'));
     const all = await readAllStructures(demo('liquid.extxyz.gz'));
-    const liquidModel = await trainModel(all.filter((_, i) => i % 4 === 0), { tensorKey: 'eps_ref', kind: 'eps', route: 'cm', settings: { nmax: 4, lmax: 3 } });
+    const liquidModel = await trainModel(all.filter((_, i) => i % 4 === 0), { tensorKey: 'eps_ref', kind: 'eps', route: 'cm', settings: { radialFunctions: 4, angularOrder: 3 } });
     const score: number[] = [];
     const error: number[] = [];
     const perFrame: { frame: number; reasons: ReturnType<typeof predictFrame>['applicability']['reasons'] }[] = [];
