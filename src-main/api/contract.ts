@@ -184,6 +184,10 @@ export interface TrajectoryStats {
   /** Block-averaged standard error of each mean principal index. */
   refractiveError: number[];
   birefringence: number;
+  /** Per frame: flagged outside the training data (core/learning/domain.ts). */
+  outside?: boolean[];
+  /** Mean over frames of the per-frame model error bar of ε_iso (null without calibration): not reduced by averaging. */
+  modelErrorIso?: number | null;
 }
 
 // ---------------------------------------------------------------------------------------------------------

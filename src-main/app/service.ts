@@ -438,6 +438,8 @@ export class AppService implements ApiService {
       meanRefractive,
       refractiveError: refractiveBlocks.map((b) => b.standardError),
       birefringence: Math.max(...meanRefractive) - Math.min(...meanRefractive),
+      outside: fr.map((f) => f.applicability.outside),
+      modelErrorIso: p.summary.summary?.errorBars?.epsIso ?? null,
     };
   }
 
