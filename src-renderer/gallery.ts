@@ -53,7 +53,7 @@ const errors = figuresOf(parity.points);
 const log = (frame: number) => {
   document.title = `selected frame ${frame}`;
 };
-show('parity-iso', 'ParityChart, λ=0', ParityChart, {
+show('parity-iso', 'ParityChart, isotropic', ParityChart, {
   points: parity.points,
   groups: parity.groups,
   part: 'iso',
@@ -63,7 +63,7 @@ show('parity-iso', 'ParityChart, λ=0', ParityChart, {
   figuresPerGroup: true,
   onselect: log,
 });
-show('parity-aniso', 'ParityChart, λ=2 components', ParityChart, {
+show('parity-aniso', 'ParityChart, anisotropic components', ParityChart, {
   points: parity.points,
   groups: parity.groups,
   part: 'aniso',
@@ -72,7 +72,7 @@ show('parity-aniso', 'ParityChart, λ=2 components', ParityChart, {
   width: 460,
   onselect: log,
 });
-show('parity-norm', 'ParityChart, λ=2 invariant', ParityChart, {
+show('parity-norm', 'ParityChart, anisotropy', ParityChart, {
   points: parity.points,
   groups: parity.groups,
   part: 'aniso',

@@ -167,27 +167,45 @@ export interface FrameDetail {
   molecules: number[] | null;
 }
 
+export type ComponentJ = 'xx' | 'yy' | 'zz' | 'xy' | 'xz' | 'yz';
+
+/**
+ * Statistics of a predicted trajectory: the numbers of `polarweave analyse` (core/trajectory/trajectory-summary.ts,
+ * the same functions and block-averaging settings), so the window and the command line agree.
+ */
 export interface TrajectoryStats {
   predictionId: string;
   frames: number[];
   /** Per frame: εxx, εyy, εzz, εxy, εxz, εyz. */
-  components: Record<'xx' | 'yy' | 'zz' | 'xy' | 'xz' | 'yz', number[]>;
-  /** Per frame: principal refractive indices (ascending). */
+  components: Record<ComponentJ, number[]>;
+  /** Running mean of each component after each frame. */
+  runningComponents: Record<ComponentJ, number[]>;
+  /** Per frame: the indices along the principal axes of the mean ε, to first order (their means are meanRefractive). */
   refractive: [number[], number[], number[]];
+  /** Running mean of each of those series. */
+  runningRefractive: [number[], number[], number[]];
   /** Running mean of the isotropic ε after each frame. */
   runningMeanIso: number[];
   /** Mean of each component over the frames, and its block-averaged standard error. */
-  mean: Record<'xx' | 'yy' | 'zz' | 'xy' | 'xz' | 'yz' | 'iso', { value: number; error: number }>;
+  mean: Record<ComponentJ | 'iso', { value: number; error: number }>;
   /** Block sizes tried and the standard error of the isotropic mean at each (plateau = the reported error). */
   blocking: { blockSize: number; error: number }[];
+  /** Principal refractive indices of the mean ε (ascending), with delta-method errors. */
   meanRefractive: number[];
-  /** Block-averaged standard error of each mean principal index. */
   refractiveError: number[];
+  /** n_3 − n_1 of the mean ε, with its delta-method error. */
   birefringence: number;
   /** Per frame: flagged outside the training data (core/learning/domain.ts). */
   outside?: boolean[];
   /** Mean over frames of the per-frame model error bar of ε_iso (null without calibration): not reduced by averaging. */
   modelErrorIso?: number | null;
+  birefringenceError: number;
+  /** Anisotropy √(3/2)‖ε̄ − tr ε̄/3‖ of the mean ε (the CSV's eps_aniso definition), with its error (NaN when ≈ 0). */
+  anisotropy: { value: number; error: number | null };
+  /** Pairs of principal values the trajectory does not resolve (1-based), e.g. [[1, 2]]. */
+  unresolved: [number, number][];
+  /** How the errors were found, in words. */
+  method: string;
 }
 
 // ---------------------------------------------------------------------------------------------------------

@@ -1,7 +1,12 @@
-// Frames as the window sees them: plain JSON (number[] instead of typed arrays), with the cell volume.
-import type { FrameView, Mat3J } from '../api/contract.ts';
+// Frames and predictions as the window sees them: plain JSON (number[] instead of typed arrays), made at the
+// API boundary; everything behind it stays typed.
+import type { ComponentJ, FramePredictionJ, FrameView, Mat3J, TrajectoryStats } from '../api/contract.ts';
+import { opticalStats, tensorStats } from '../core/trajectory/trajectory-summary.ts';
+import { runningMean } from '../core/trajectory/statistics.ts';
 import { cellVolume } from '../core/geometry/cell.ts';
-import type { Frame } from '../core/geometry/frame.ts';
+import type { Frame, Mat3 } from '../core/geometry/frame.ts';
+import type { FramePrediction } from '../core/learning/model-types.ts';
+import { refractiveIndices } from '../core/dielectric/clausius-mossotti.ts';
 
 export function matJ(m: ArrayLike<number>): Mat3J {
   return Array.from(m);
@@ -23,5 +28,72 @@ export function frameView(datasetId: string, index: number, frame: Frame): Frame
     volumeA3: frameVolume(frame),
     info: Object.fromEntries(Object.entries(frame.info).map(([k, v]) => [k, Array.isArray(v) ? [...v] : v])),
     source: frame.source ? { ...frame.source } : null,
+  };
+}
+
+/** A frame's prediction as the window sees it (the API boundary: typed arrays become number[]). */
+export function predictionJ(fp: FramePrediction, frame: number, reference: Mat3 | null): FramePredictionJ {
+  const a = fp.applicability;
+  return {
+    frame,
+    volumeA3: fp.volumeA3,
+    eps: matJ(fp.eps),
+    alphaCM: matJ(fp.alphaCM),
+    alphaC: matJ(fp.alphaC),
+    refractive: Array.from(refractiveIndices(fp.eps, { frame }).indices),
+    applicability: { maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, score: a.score, fractionOutside: a.fractionOutside, reasons: a.reasons },
+    errorBars: fp.errorBars,
+    reference: reference ? matJ(reference) : null,
+  };
+}
+
+/** Back from the window's JSON (a saved project) to a typed prediction. */
+export function predictionFromJ(f: FramePredictionJ, local: number[], atomDistance: number[]): FramePrediction {
+  const a = f.applicability;
+  return {
+    volumeA3: f.volumeA3,
+    alphaCM: Float64Array.from(f.alphaCM),
+    alphaC: Float64Array.from(f.alphaC),
+    eps: Float64Array.from(f.eps),
+    local: Float64Array.from(local),
+    applicability: { atomDistance: Float64Array.from(atomDistance), maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, atomScore: new Float64Array(0), score: a.score ?? NaN, fractionOutside: a.fractionOutside ?? NaN, reasons: a.reasons ?? [] },
+    errorBars: f.errorBars ?? null,
+  };
+}
+
+/**
+ * A predicted trajectory's statistics for the window: the functions and settings of `polarweave analyse`
+ * (tensorStats, opticalStats of core/trajectory/trajectory-summary.ts, DEFAULT_MIN_BLOCKS), as JSON.
+ */
+export function trajectoryStatsJ(predictionId: string, frames: number[], predictions: readonly FramePrediction[]): TrajectoryStats {
+  const n = predictions.length;
+  const eps = new Float64Array(9 * n);
+  predictions.forEach((p, f) => eps.set(p.eps, 9 * f));
+  const t = tensorStats(eps);
+  const o = opticalStats(eps);
+  const comps = ['xx', 'yy', 'zz', 'xy', 'xz', 'yz'] as const;
+  const slot = { xx: 0, yy: 4, zz: 8, xy: 1, xz: 2, yz: 5 } as const;
+  const series = (c: ComponentJ) => predictions.map((p) => p.eps[slot[c]]);
+  const stat = (c: ComponentJ) => t.components.find((x) => x.component === c)!.stats;
+  const per = <T>(f: (c: ComponentJ) => T) => Object.fromEntries(comps.map((c) => [c, f(c)])) as Record<ComponentJ, T>;
+  const iso = predictions.map((p) => (p.eps[0] + p.eps[4] + p.eps[8]) / 3);
+  const three = <T>(f: (k: number) => T): [T, T, T] => [f(0), f(1), f(2)];
+  return {
+    predictionId,
+    frames: [...frames],
+    components: per(series),
+    runningComponents: per((c) => Array.from(runningMean(series(c)))),
+    refractive: three((k) => Array.from(o.series[k])),
+    runningRefractive: three((k) => Array.from(runningMean(o.series[k]))),
+    runningMeanIso: Array.from(runningMean(iso)),
+    mean: { ...per((c) => ({ value: stat(c).mean, error: stat(c).standardError })), iso: { value: t.iso.mean, error: t.iso.standardError } },
+    blocking: t.iso.levels.map((l) => ({ blockSize: l.blockSize, error: l.standardError })),
+    meanRefractive: [...o.n],
+    refractiveError: [...o.nErrors],
+    birefringence: o.birefringence,
+    birefringenceError: o.birefringenceError,
+    anisotropy: { value: t.anisotropy, error: Number.isFinite(t.anisotropyError) ? t.anisotropyError : null },
+    unresolved: o.unresolved.map(([i, j]) => [i, j] as [number, number]),
+    method: o.method,
   };
 }

@@ -4,7 +4,6 @@
 import { setSummary } from '../core/learning/set-summary.ts';
 import { readdir } from 'node:fs/promises';
 import { basename, join } from 'node:path';
-import { gunzipCapped } from '../io/whole-file.ts';
 import type {
   ApiOutput,
   ApiParams,
@@ -28,12 +27,12 @@ import type { Frame } from '../core/geometry/frame.ts';
 import { DEFAULT_SETTINGS, type Model } from '../core/learning/model.ts';
 import { InputError, ModelError } from '../core/errors.ts';
 import { findMolecules } from '../core/geometry/molecules.ts';
-import { blockAverage, runningMean } from '../core/trajectory/statistics.ts';
 import type { JobHandle, JobRunner } from '../jobs/runner.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './task-types.ts';
 import { summariseDataset } from './dataset-summary.ts';
 import { PathAccess } from './path-access.ts';
-import { frameView } from './frame-json.ts';
+import { frameView, predictionFromJ, predictionJ, trajectoryStatsJ } from './frame-json.ts';
+import type { FramePrediction } from '../core/learning/model-types.ts';
 import { predictionsCsv } from './export-csv.ts';
 import { PROJECT_FORMAT, PROJECT_VERSION, parseProject, type ProjectFile, type ProjectDataset } from './project-file.ts';
 
@@ -45,10 +44,18 @@ export interface ModelCodec {
 
 /** Structure readers by file kind (io/read-structures.ts and friends). */
 export interface StructureReaders {
-  /** Frames from file text; `fileName` picks the reader (.xyz/.extxyz, .cif) and names errors. */
+  /** Frames from file text; `fileName` picks the reader (the registry's kinds) and names errors. */
   parseText(text: string, fileName: string): Frame[];
+  /** An uploaded file (text, or base64 bytes that may be gzip): its name without .gz, its text and frames. */
+  upload(name: string, payload: { text: string } | { base64: string }): { name: string; text: string; frames: Frame[] };
   /** Frames from a file on disk (streaming, gzip allowed). */
   readPath(path: string): Promise<Frame[]>;
+  /** Whether the registry knows the kind of a file by its name. */
+  isStructureFile(name: string): boolean;
+  /** A file's name without its kind's extension (and .gz). */
+  stem(name: string): string;
+  /** A file's name without .gz. */
+  plainName(name: string): string;
 }
 
 export interface ServiceOptions {
@@ -75,10 +82,12 @@ interface ModelRecord {
 }
 
 interface PredictionRecord {
+  /** The JSON the window gets (made once, at the boundary). */
   summary: PredictionSummary;
   route: 'cm' | 'direct';
-  local: number[][];
-  atomDistance: number[][];
+  /** The predictions as the use case gave them, typed; frame k of the dataset is frameIndices[k]. */
+  typed: FramePrediction[];
+  frameIndices: number[];
 }
 
 interface JobRecord {
@@ -93,11 +102,6 @@ interface JobRecord {
 }
 
 const MAX_EVENTS_PER_POLL = 500;
-
-function decodeUpload(name: string, payload: { text?: string; base64?: string }): string {
-  if (payload.text !== undefined) return payload.text;
-  return gunzipCapped(Buffer.from(payload.base64 ?? '', 'base64'), name).toString('utf8');
-}
 
 export class AppService implements ApiService {
   private readonly datasets = new Map<string, DatasetRecord>();
@@ -151,22 +155,20 @@ export class AppService implements ApiService {
       const frames = await this.options.readers.readPath(await this.paths.check(params.path));
       return this.addDataset(basename(params.path), frames, { kind: 'path', path: params.path }, 'file');
     }
-    const text = decodeUpload(params.name, params);
-    const name = params.name.replace(/\.gz$/i, '');
-    const frames = this.options.readers.parseText(text, name);
+    const { name, text, frames } = this.options.readers.upload(params.name, params);
     return this.addDataset(params.name, frames, { kind: 'embedded', name, text }, 'upload');
   }
 
   async loadDemo(): Promise<AppState> {
     const dir = this.options.demoDir;
-    const files = (await readdir(dir).catch(() => [] as string[])).filter((f) => /\.(ext)?xyz(\.gz)?$/i.test(f)).sort();
+    const files = (await readdir(dir).catch(() => [] as string[])).filter((f) => this.options.readers.isStructureFile(f)).sort();
     if (files.length === 0) {
       throw new InputError('the demo data is missing', { file: dir }, 'reinstall the app, or run `npm run demo:generate` in a source checkout');
     }
     for (const f of files) {
       if ([...this.datasets.values()].some((d) => d.origin.kind === 'demo' && d.origin.file === f)) continue;
       const frames = await this.options.readers.readPath(join(dir, f));
-      this.addDataset(f.replace(/\.gz$/i, ''), frames, { kind: 'demo', file: f }, 'demo');
+      this.addDataset(this.options.readers.plainName(f), frames, { kind: 'demo', file: f }, 'demo');
     }
     return this.getState();
   }
@@ -287,7 +289,7 @@ export class AppService implements ApiService {
       finish = (value) => {
         const out = value as PredictTaskOutput;
         const pid = this.nextId('p');
-        const frames: FramePredictionJ[] = out.frames;
+        const frames: FramePredictionJ[] = out.predictions.map((fp, k) => predictionJ(fp, out.frameIndices[k], out.reference[k]));
         const summary: PredictionSummary = {
           id: pid,
           modelId: m.summary.id,
@@ -297,7 +299,7 @@ export class AppService implements ApiService {
           framesOutside: frames.filter((f) => f.applicability.outside).length,
           summary: frames.length ? setSummary(frames.map((f) => ({ eps: f.eps, errorBars: f.errorBars, reference: f.reference, outside: f.applicability.outside }))) : undefined,
         };
-        this.predictions.set(pid, { summary, route: m.summary.request.route, local: out.local, atomDistance: out.atomDistance });
+        this.predictions.set(pid, { summary, route: m.summary.request.route, typed: out.predictions, frameIndices: out.frameIndices });
         return { kind: 'predict', prediction: summary };
       };
     }
@@ -399,46 +401,18 @@ export class AppService implements ApiService {
       molecules,
       frame: frameView(d.summary.id, params.index, d.frames[params.index]),
       prediction: p.summary.frames[k],
-      local: p.local[k],
-      atomDistance: p.atomDistance[k],
+      local: Array.from(p.typed[k].local),
+      atomDistance: Array.from(p.typed[k].applicability.atomDistance),
       route: p.route,
     };
   }
 
   async trajectoryStats(params: ApiParams<'trajectoryStats'>): Promise<TrajectoryStats> {
     const p = this.predictionRecord(params.predictionId);
-    const fr = p.summary.frames;
-    if (fr.length < 2) throw new ApiValidationError('a trajectory needs at least two predicted frames');
-    const pick = (i: number) => fr.map((f) => f.eps[i]);
-    const components = { xx: pick(0), yy: pick(4), zz: pick(8), xy: pick(1), xz: pick(2), yz: pick(5) };
-    const iso = fr.map((f) => (f.eps[0] + f.eps[4] + f.eps[8]) / 3);
-    const ba = (xs: number[]) => {
-      const b = blockAverage(xs);
-      return { value: b.mean, error: b.standardError };
-    };
-    const isoBlock = blockAverage(iso);
-    const refractiveBlocks = [0, 1, 2].map((c) => blockAverage(fr.map((f) => f.refractive[c])));
-    const meanRefractive = refractiveBlocks.map((b) => b.mean);
+    if (p.typed.length < 2) throw new ApiValidationError('a trajectory needs at least two predicted frames');
     return {
-      predictionId: p.summary.id,
-      frames: fr.map((f) => f.frame),
-      components,
-      refractive: [fr.map((f) => f.refractive[0]), fr.map((f) => f.refractive[1]), fr.map((f) => f.refractive[2])],
-      runningMeanIso: Array.from(runningMean(iso)),
-      mean: {
-        xx: ba(components.xx),
-        yy: ba(components.yy),
-        zz: ba(components.zz),
-        xy: ba(components.xy),
-        xz: ba(components.xz),
-        yz: ba(components.yz),
-        iso: { value: isoBlock.mean, error: isoBlock.standardError },
-      },
-      blocking: isoBlock.levels.map((l) => ({ blockSize: l.blockSize, error: l.standardError })),
-      meanRefractive,
-      refractiveError: refractiveBlocks.map((b) => b.standardError),
-      birefringence: Math.max(...meanRefractive) - Math.min(...meanRefractive),
-      outside: fr.map((f) => f.applicability.outside),
+      ...trajectoryStatsJ(p.summary.id, p.frameIndices, p.typed),
+      outside: p.typed.map((f) => f.applicability.outside),
       modelErrorIso: p.summary.summary?.errorBars?.epsIso ?? null,
     };
   }
@@ -450,8 +424,8 @@ export class AppService implements ApiService {
     const p = this.predictionRecord(params.predictionId);
     const d = this.dataset(p.summary.datasetId);
     const m = this.modelRecord(p.summary.modelId);
-    const text = predictionsCsv(p.summary.frames, p.local, p.atomDistance, d.frames, m.model as Model, m.summary.name);
-    const stem = d.summary.name.replace(/\.(ext)?xyz$|\.cif$/i, '');
+    const text = predictionsCsv(p.typed, p.frameIndices, d.frames, m.model as Model, m.summary.name);
+    const stem = this.options.readers.stem(d.summary.name);
     return { fileName: `${stem}-predicted.csv`, mime: 'text/csv', text };
   }
 
@@ -487,7 +461,12 @@ export class AppService implements ApiService {
       savedAt: new Date().toISOString(),
       datasets: [...this.datasets.values()].map((d) => ({ id: d.summary.id, name: d.summary.name, origin: d.origin })),
       models: [...this.models.values()].map((m) => ({ summary: m.summary, model: this.options.codec.serialise(m.model) })),
-      predictions: [...this.predictions.values()].map((p) => ({ summary: p.summary, route: p.route, local: p.local, atomDistance: p.atomDistance })),
+      predictions: [...this.predictions.values()].map((p) => ({
+        summary: p.summary,
+        route: p.route,
+        local: p.typed.map((t) => Array.from(t.local)),
+        atomDistance: p.typed.map((t) => Array.from(t.applicability.atomDistance)),
+      })),
       ui: params.ui ?? {},
     };
     return { fileName: 'polarweave-project.pwproj.json', mime: 'application/json', text: JSON.stringify(project) };
@@ -527,7 +506,8 @@ export class AppService implements ApiService {
       const datasetId = idMap.get(p.summary.datasetId);
       if (!modelId || !datasetId) continue; // its model or data did not come along
       const id = this.nextId('p');
-      predictions.set(id, { summary: { ...p.summary, id, modelId, datasetId }, route: p.route, local: p.local, atomDistance: p.atomDistance });
+      const typed = p.summary.frames.map((f, k) => predictionFromJ(f, p.local[k], p.atomDistance[k]));
+      predictions.set(id, { summary: { ...p.summary, id, modelId, datasetId }, route: p.route, typed, frameIndices: p.summary.frames.map((f) => f.frame) });
     }
     this.datasets.clear();
     this.models.clear();

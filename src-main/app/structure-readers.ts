@@ -1,28 +1,29 @@
-// Structure files for the app service: uploads (text in memory) by file kind, and paths chosen in dialogs
-// through io/read-structures.ts (streamed, gzip allowed). The kinds are io's table (STRUCTURE_KINDS).
-import { basename } from 'node:path';
+// Structure files for the app service, through the registry of file kinds (io/read-structures.ts): uploads
+// (bytes or text in memory; gzip recognised by its bytes) and paths chosen in dialogs (streamed, gzip allowed).
 import type { StructureReaders } from './service.ts';
-import { InputError } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
-import { parseCif } from '../io/cif.ts';
-import { parseExtxyz } from '../io/extxyz.ts';
-import { readAllStructures, STRUCTURE_KINDS, structureKind } from '../io/read-structures.ts';
-
-function kindOf(fileName: string) {
-  const kind = structureKind(fileName);
-  if (!kind) {
-    const known = STRUCTURE_KINDS.flatMap((k) => k.extensions).join(', ');
-    throw new InputError(`unknown file kind "${basename(fileName)}"`, { file: fileName }, `open a structure file (${known}, optionally .gz)`);
-  }
-  return kind;
-}
+import { gunzipIfGzip, withoutGzipName } from '../io/gzip.ts';
+import { fileKind, parseStructureText, readAllStructures, structureEntry } from '../io/read-structures.ts';
 
 export const structureReaders: StructureReaders = {
   parseText(text: string, fileName: string): Frame[] {
-    return kindOf(fileName) === 'cif' ? parseCif(text, fileName) : parseExtxyz(text, fileName);
+    return parseStructureText(text, fileName);
+  },
+  upload(name: string, payload: { text: string } | { base64: string }) {
+    const text = 'text' in payload ? payload.text : gunzipIfGzip(Buffer.from(payload.base64, 'base64'), name).toString('utf8');
+    const plain = withoutGzipName(name);
+    return { name: plain, text, frames: parseStructureText(text, plain) };
   },
   readPath(path: string): Promise<Frame[]> {
-    kindOf(path);
+    structureEntry(path);
     return readAllStructures(path);
+  },
+  isStructureFile(name: string): boolean {
+    const k = fileKind(name)?.kind;
+    return k !== undefined && k !== 'csv';
+  },
+  plainName: withoutGzipName,
+  stem(name: string): string {
+    return withoutGzipName(name).replace(/\.[^.]*$/, '');
   },
 };

@@ -1,8 +1,9 @@
 // Inputs and outputs of the app's job tasks (train, validate, predict), shared by the service (which starts
 // them) and the worker (app-tasks.ts, which runs them). Everything here crosses a thread boundary, so it is
 // structured-clone safe: frames with typed arrays, models as plain objects, results as plain JSON.
-import type { FramePredictionJ, TensorKindJ, TrainRequestJ, ValidationReportJ } from '../api/contract.ts';
+import type { TensorKindJ, TrainRequestJ, ValidationReportJ } from '../api/contract.ts';
 import type { Frame } from '../core/geometry/frame.ts';
+import type { FramePrediction } from '../core/learning/model-types.ts';
 
 export interface ValidateTaskInput {
   request: TrainRequestJ;
@@ -35,10 +36,10 @@ export interface PredictTaskInput {
   reference: { key: string; kind: TensorKindJ };
 }
 
+/** Typed, as the predict use case gives it; the service turns it into JSON at the API boundary. */
 export interface PredictTaskOutput {
-  frames: FramePredictionJ[];
-  /** Per frame: 9 numbers per atom (local contributions). */
-  local: number[][];
-  /** Per frame: per-atom distance to the nearest training environment. */
-  atomDistance: number[][];
+  frameIndices: number[];
+  predictions: FramePrediction[];
+  /** The frame's reference tensor as ε, when it has one. */
+  reference: (Float64Array | null)[];
 }

@@ -1,9 +1,9 @@
 // The app's job tasks, run in a worker thread: train (cross-validation, final model, held-out test frames),
 // validate (cross-validation only) and predict (every frame, with applicability and the file's reference ε
 // where it has one). Results come back as plain JSON for the window (api/contract.ts shapes).
-import type { FramePredictionJ, ValidationReportJ } from '../api/contract.ts';
-import { convertTensor, refractiveIndices } from '../core/dielectric/clausius-mossotti.ts';
-import { CancelledError } from '../core/errors.ts';
+import type { ValidationReportJ } from '../api/contract.ts';
+import { convertTensor } from '../core/dielectric/clausius-mossotti.ts';
+import { CancelledError, ModelError } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { predictFrame, trainModel, type Model } from '../core/learning/model.ts';
 import type { FramePrediction, ParityPoint, TrainRequest, ValidationReport } from '../core/learning/model-types.ts';
@@ -12,6 +12,7 @@ import { toIrreducible } from '../core/dielectric/tensor.ts';
 import { errorFigures, validate } from '../core/learning/validation.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './task-types.ts';
 import type { TaskContext, TaskRegistry } from '../jobs/task.ts';
+import { loadedModel, predictFrames, type PredictSink } from './predict/prediction.ts';
 
 function reportJson(r: ValidationReport, frameIndices: number[]): ValidationReportJ {
   return {
@@ -44,21 +45,6 @@ function referenceEps(frame: Frame, index: number, key: string, kind: PredictTas
   }
 }
 
-function predictionJson(fp: FramePrediction, frameIndex: number, reference: Float64Array | null): FramePredictionJ {
-  const a = fp.applicability;
-  return {
-    frame: frameIndex,
-    volumeA3: fp.volumeA3,
-    eps: Array.from(fp.eps),
-    alphaCM: Array.from(fp.alphaCM),
-    alphaC: Array.from(fp.alphaC),
-    refractive: Array.from(refractiveIndices(fp.eps, { frame: frameIndex }).indices),
-    applicability: { maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, score: a.score, fractionOutside: a.fractionOutside, reasons: a.reasons },
-    errorBars: fp.errorBars,
-    reference: reference ? Array.from(reference) : null,
-  };
-}
-
 async function train(input: TrainTaskInput, ctx: TaskContext): Promise<TrainTaskOutput> {
   const extra = 1 + (input.testFrames.length ? 1 : 0);
   const report = await crossValidate(input, ctx, extra);
@@ -88,22 +74,24 @@ async function train(input: TrainTaskInput, ctx: TaskContext): Promise<TrainTask
   return { model, report, test };
 }
 
+/** The window's sink of the predict use case: typed predictions in memory, with the frames' reference ε. */
 async function predict(input: PredictTaskInput, ctx: TaskContext): Promise<PredictTaskOutput> {
-  const model = input.model as Model;
-  const out: PredictTaskOutput = { frames: [], local: [], atomDistance: [] };
+  const m = loadedModel(input.model as Model, 'the window model');
+  const out: PredictTaskOutput = { frameIndices: [], predictions: [], reference: [] };
   const n = input.frames.length;
-  for (let i = 0; i < n; i++) {
-    if (ctx.signal.aborted) throw new CancelledError();
-    const frame = input.frames[i];
-    const index = input.frameIndices[i];
-    const fp = predictFrame(model, frame);
-    out.frames.push(predictionJson(fp, index, referenceEps(frame, index, input.reference.key, input.reference.kind)));
-    out.local.push(Array.from(fp.local));
-    out.atomDistance.push(Array.from(fp.applicability.atomDistance));
-    ctx.progress({ stage: 'predicting frames', done: i + 1, total: n });
-    // Yield so an abort message can be seen between frames.
-    if (i % 4 === 3) await new Promise((r) => setImmediate(r));
-  }
+  const sink: PredictSink = {
+    frame(frame, one) {
+      if (!one.tensor) throw new ModelError('the window predicts cell tensors; this model predicts a vector or scalar');
+      out.frameIndices.push(one.index);
+      out.predictions.push(one.tensor);
+      out.reference.push(referenceEps(frame, one.index, input.reference.key, input.reference.kind));
+    },
+  };
+  await predictFrames(m, input.frames, sink, {
+    signal: ctx.signal,
+    indexOf: (_f, k) => input.frameIndices[k],
+    onFrame: (done) => ctx.progress({ stage: 'predicting frames', done, total: n }),
+  });
   return out;
 }
 

@@ -87,3 +87,20 @@ export function numberOption(args: ParsedArgs, name: string, opts: { min?: numbe
   if (opts.max !== undefined && v > opts.max) throw new UsageError(`--${name} must be at most ${opts.max}, got ${v}`);
   return v;
 }
+
+/**
+ * The arguments of a command with its input and output checked: `inputs` positionals exactly ('any': one or
+ * more; 0: none), and -o when `output` says what to write. Usage errors say what to give.
+ */
+export function commandArgs(
+  argv: string[],
+  specs: OptionSpec[],
+  want: { inputs: number | 'any'; missing: string; output?: string },
+): { args: ParsedArgs; inputs: string[]; output: string } {
+  const args = parseArgs(argv, specs);
+  const n = args.positionals.length;
+  if (want.inputs === 'any' ? n === 0 : n !== want.inputs) throw new UsageError(want.missing.replace('{got}', args.positionals[0] ?? ''));
+  const output = args.options.output;
+  if (want.output && !output) throw new UsageError(want.output);
+  return { args, inputs: args.positionals, output: output ?? '' };
+}

@@ -160,7 +160,7 @@ export function settingSpec(key: NumericSettingKey | 'regularisation'): NumericS
 }
 
 function show(v: number): string {
-  return Math.abs(v) >= 1e5 || (v !== 0 && Math.abs(v) < 1e-3) ? v.toExponential() : String(v);
+  return Number.isInteger(v) && Math.abs(v) < 1e10 ? String(v) : v !== 0 && Math.abs(v) < 1e-3 ? v.toExponential() : String(v);
 }
 
 /** The limits of a setting in words, e.g. "a whole number 1–16" or "1–12 Å". */

@@ -10,13 +10,15 @@ import { CancelledError, InputError } from '../core/errors.ts';
 import type { Frame, Mat3 } from '../core/geometry/frame.ts';
 import type { ErrorFigures, FramePrediction, ModelSettings, TrainRequest, ValidationReport } from '../core/learning/model-types.ts';
 import { describeSettings } from '../core/settings-table.ts';
-import { predictFrame, trainModel, type Model } from '../core/learning/model.ts';
+import { trainModel, type Model } from '../core/learning/model.ts';
 import { validate, errorFigures } from '../core/learning/validation.ts';
 import { toIrreducible, tensorFromValues } from '../core/dielectric/tensor.ts';
 import { birefringence, convertTensor, refractiveIndices } from '../core/dielectric/clausius-mossotti.ts';
 import { readAllStructures } from '../io/read-structures.ts';
 import { saveModel } from '../io/model-file.ts';
-import { predictionCsvOptions, tensorPredictionRow, writeTensorCsv, type TensorRow } from '../io/prediction/prediction-format.ts';
+import { predictionCsvOptions, writeTensorCsv, type TensorRow } from '../io/prediction/prediction-format.ts';
+import { loadedModel, predictFrames } from '../app/predict/prediction.ts';
+import { predictedRow, type PredictedFrame } from '../app/predict/predict-frame.ts';
 import { writeFileAtomic } from '../io/atomic.ts';
 
 /** Where the generator (scripts/generate-demo.ts) puts the bundled data. */
@@ -66,7 +68,7 @@ function fmt(x: number, digits = 4): string {
 }
 
 function errorLine(e: ErrorFigures): string {
-  return `λ=0 RMSE ${e.rmseIso.toExponential(2)} (${fmt(e.percentIso, 1)} %), λ=2 RMSE ${e.rmseAniso.toExponential(2)} (${fmt(e.percentAniso, 1)} %), R² ${fmt(e.r2Iso, 3)} / ${fmt(e.r2Aniso, 3)}, ${e.count} frames`;
+  return `isotropic (tr/3) RMSE ${e.rmseIso.toExponential(2)} (${fmt(e.percentIso, 1)} % of the spread), anisotropic RMSE ${e.rmseAniso.toExponential(2)} (${fmt(e.percentAniso, 1)} % of the spread), R² ${fmt(e.r2Iso, 3)} / ${fmt(e.r2Aniso, 3)}, ${e.count} frames`;
 }
 
 export async function runDemo(options: DemoOptions): Promise<DemoResult> {
@@ -106,12 +108,6 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
   const model: Model = await trainModel(liquid, REQUEST, { signal: options.signal });
   check();
 
-  log(`demo: predicting ${crystal.length} crystal frames`);
-  const predictions: FramePrediction[] = crystal.map((f) => predictFrame(model, f));
-  const refEps = crystal.map((f, i) => tensorFromValues(f.info.eps_ref as number[], { file: crystalPath, frame: f.source?.index ?? i }));
-  const crystalErrors = errorFigures(refEps.map((t) => toIrreducible(t)), predictions.map((p) => toIrreducible(p.eps)));
-  const outsideFrames = predictions.filter((p) => p.applicability.outside).length;
-
   await mkdir(outDir, { recursive: true });
   const files = {
     csv: join(outDir, 'crystal-eps.csv'),
@@ -119,9 +115,23 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
     summary: join(outDir, 'summary.md'),
     validation: join(outDir, 'liquid-validation.json'),
   };
+  log(`demo: predicting ${crystal.length} crystal frames`);
+  // the predict use case with the demo's sink: typed predictions in memory, then predict's table
+  const predictions: FramePrediction[] = [];
+  const ones: PredictedFrame[] = [];
+  await predictFrames(loadedModel(model, files.model), crystal, {
+    frame(_f, one) {
+      ones.push(one);
+      predictions.push(one.tensor as FramePrediction);
+    },
+  }, { signal: options.signal });
+  const refEps = crystal.map((f, i) => tensorFromValues(f.info.eps_ref as number[], { file: crystalPath, frame: f.source?.index ?? i }));
+  const crystalErrors = errorFigures(refEps.map((t) => toIrreducible(t)), predictions.map((p) => toIrreducible(p.eps)));
+  const outsideFrames = predictions.filter((p) => p.applicability.outside).length;
+
   await saveModel(files.model, model);
   // the prediction table of `predict`, with the reference ε of the invented data beside it; tag = state point
-  const rows: TensorRow[] = crystal.map((f, i) => tensorPredictionRow(f.source?.index ?? i, f, predictions[i], model, { reference: refEps[i], tagKey: 'state_point' }));
+  const rows: TensorRow[] = crystal.map((f, i) => predictedRow(model, f, ones[i], { reference: refEps[i], tagKey: 'state_point' }));
   await writeTensorCsv(files.csv, rows, predictionCsvOptions(model, files.model, {
     title: 'Polarweave demo: predicted optical dielectric tensors of the invented crystal',
     source: `demo model ${files.model} trained on the invented liquid (route cm); eps_ref_* from the invented data (interacting point-dipole model)`,
@@ -178,13 +188,13 @@ function demoSummary(s: SummaryInput): string {
     `- ε: ${errorLine(s.report.errors)}`,
     ...(s.report.alsoOn ?? []).map((a) => `- ${a.target}: ${errorLine(a.errors)}`),
     '',
-    '| training frames | %RMSE ε λ=0 | %RMSE ε λ=2 |',
+    '| training frames | ε isotropic: % of spread | ε anisotropic: % of spread |',
     '|---|---|---|',
     ...s.report.learningCurve.map((p) => `| ${p.trainSize} | ${fmt(p.errors.percentIso, 1)} | ${fmt(p.errors.percentAniso, 1)} |`),
     `| ${Math.floor((s.liquid.length * (s.report.folds - 1)) / s.report.folds)} (full fold) | ${fmt(s.report.errors.percentIso, 1)} | ${fmt(s.report.errors.percentAniso, 1)} |`,
     '',
     `## Crystal: model trained on the ${s.liquid.length} liquid frames, ${s.crystal.length} crystal frames predicted`,
-    `- ε against the reference: RMSE of the λ=0 part ${s.crystalErrors.rmseIso.toExponential(2)} (${fmt((100 * s.crystalErrors.rmseIso) / (Math.sqrt(3) * isoMean(s.referenceMean)), 2)} % of the mean λ=0 part), of the λ=2 part ${s.crystalErrors.rmseAniso.toExponential(2)} (the crystal's frames differ so little that %RMSE against their spread says nothing here)`,
+    `- ε against the reference: RMSE of the isotropic value tr/3 ${s.crystalErrors.rmseIso.toExponential(2)} (${fmt((100 * s.crystalErrors.rmseIso) / isoMean(s.referenceMean), 2)} % of its mean), of the anisotropy ${s.crystalErrors.rmseAniso.toExponential(2)} (the crystal's frames differ so little that the error relative to their spread says nothing here)`,
     `- mean ε diagonal: predicted ${diag(s.predictedMean)}; reference ${diag(s.referenceMean)}`,
     `- principal refractive indices: predicted ${n(s.predictedMean)}; reference ${n(s.referenceMean)}`,
     `- birefringence n_max − n_min: predicted ${dn(s.predictedMean)}; reference ${dn(s.referenceMean)}`,

@@ -10,6 +10,7 @@ import type { Frame } from '../core/geometry/frame.ts';
 import { ExtxyzAssembler, type FrameDecision } from './extxyz-parse.ts';
 import { formatExtxyzFrame } from './extxyz-format.ts';
 import { atomicWriteStream } from './atomic.ts';
+import { hasGzipName, isGzipHandle } from './gzip.ts';
 import { readError } from './whole-file.ts';
 
 export { parseExtxyz, ExtxyzAssembler, parseCommentLine, parseProperties, DEFAULT_PROPERTIES } from './extxyz-parse.ts';
@@ -47,11 +48,6 @@ async function openForReading(file: string): Promise<FileHandle> {
   return fh;
 }
 
-async function isGzip(fh: FileHandle): Promise<boolean> {
-  const head = Buffer.alloc(2);
-  const { bytesRead } = await fh.read(head, 0, 2, 0);
-  return bytesRead === 2 && head[0] === 0x1f && head[1] === 0x8b;
-}
 
 /**
  * The file's bytes (decompressed when it is gzip, recognised by its magic bytes), in chunks of about 1 MiB.
@@ -61,7 +57,7 @@ async function isGzip(fh: FileHandle): Promise<boolean> {
 export async function* byteChunks(file: string, signal?: AbortSignal, start = 0): AsyncGenerator<Buffer> {
   const fh = await openForReading(file);
   try {
-    if (await isGzip(fh)) {
+    if (await isGzipHandle(fh)) {
       const gunzip = createGunzip({ chunkSize: CHUNK_BYTES });
       const raw = fh.createReadStream({ start: 0, highWaterMark: CHUNK_BYTES, autoClose: false });
       raw.on('error', (e) => gunzip.destroy(e));
@@ -219,7 +215,7 @@ export async function indexExtxyz(file: string, options: { signal?: AbortSignal 
   let compressed = false;
   {
     const fh = await openForReading(file);
-    compressed = await isGzip(fh).finally(() => fh.close());
+    compressed = await isGzipHandle(fh).finally(() => fh.close());
   }
   let pos = 0; // absolute byte offset of the chunk start
   let line = 1; // 1-based number of the line at which `lineStart` begins
@@ -340,7 +336,7 @@ export interface WriteOptions {
  * With gzip, text is compressed in ~1 MiB blocks, each a gzip member (a valid multi-member gzip file).
  */
 export async function writeExtxyz(file: string, frames: Iterable<Frame> | AsyncIterable<Frame>, options: WriteOptions = {}): Promise<number> {
-  const gzip = options.gzip ?? /\.gz$/i.test(file);
+  const gzip = options.gzip ?? hasGzipName(file);
   const out = atomicWriteStream(file);
   let block: string[] = [];
   let blockChars = 0;

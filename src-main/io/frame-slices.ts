@@ -5,6 +5,7 @@
 // every frame reports the byte offset after it, which is what a resume checkpoint stores.
 import { CancelledError, InputError } from '../core/errors.ts';
 import { byteChunks } from './extxyz.ts';
+import { MAX_LINE_BYTES } from '../core/limits.ts';
 
 /** Where to start: a frame boundary (the atom-count line of frame `index`). */
 export interface SlicePosition {
@@ -46,6 +47,7 @@ export async function* frameSlices(file: string, from: SlicePosition, decide: (i
   let decision: SliceDecision = 'take';
   let parts: Buffer[] = [];
   let lastPartial = false; // the last byte seen was not a newline
+  let lineStart = from.offset; // absolute offset where the current line began
   const where = () => ({ file, line, frame: index });
 
   const finishCount = (): 'frame' | 'blank' => {
@@ -80,6 +82,7 @@ export async function* frameSlices(file: string, from: SlicePosition, decide: (i
           break;
         }
         i = nl + 1;
+        lineStart = pos + i;
         lastPartial = false;
         // a byte-order mark before the first count line carries nothing (the other readers skip it too)
         if (frameStart === 0 && countBytes[0] === 0xef && countBytes[1] === 0xbb && countBytes[2] === 0xbf) countBytes.splice(0, 3);
@@ -99,8 +102,13 @@ export async function* frameSlices(file: string, from: SlicePosition, decide: (i
         const nl = chunk.indexOf(10, k);
         if (nl < 0) break;
         k = nl + 1;
+        lineStart = pos + k;
         remaining--;
         line++;
+      }
+      if (remaining > 0 && pos + len - lineStart > MAX_LINE_BYTES) {
+        // one line that never ends (binary data, a decompressed "bomb"): refuse before collecting it
+        throw new InputError(`line ${line} is longer than ${MAX_LINE_BYTES >> 20} MiB`, where(), 'this does not look like an extended XYZ text file');
       }
       const end = remaining > 0 ? len : k;
       if (decision === 'take') parts.push(Buffer.from(chunk.subarray(i, end)));

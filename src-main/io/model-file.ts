@@ -1,7 +1,9 @@
 // Trained-model files: versioned, self-describing JSON of our own format "polarweave-model", version 2.
 //   { format, version, description, checksum: { algorithm: "sha256", value }, payload }
 // Version 2 names the settings as the settings table does (core/settings-table.ts); version 1 used other keys
-// and is still read: fromVersion1 maps it to the model of today, and nothing else knows the old keys.
+// and is still read: fromVersion1 maps it to the model of today, and nothing else knows the old keys. Version 2
+// also writes a few keys of the model itself in plain words (FILE_KEYS_V2: speciesWithContributions,
+// anisotropicFeatureLimits with radialFunctions/angularOrder, kernelExponent of a kernel part).
 // The payload is the Model of core/learning/model.ts with every typed array stored as base64 of its little-endian bytes
 // ({"f64": …} / {"i32": …}; Cholesky factors as their packed lower triangle, {"f64lower": …, "n": …}).
 // The checksum is sha256 over the canonical JSON of the payload (keys sorted, no spaces), so any edit or
@@ -121,8 +123,38 @@ function describe(model: Model): string {
   return `Polarweave trained model: predicts ${what} as a sum of per-atom contributions; species ${model.species.join(', ')}; trained on ${model.training.frames} frames (${model.training.atoms} atoms). Predictions are model estimates.`;
 }
 
+/**
+ * Keys of the model that version 2 writes in plain words (besides the settings, which carry the table's keys
+ * already): path in the model → key in the file. Applied after encoding and undone before decoding, so the engine
+ * keeps its short names and nothing else sees the difference.
+ */
+const FILE_KEYS_V2: { parent: (m: Record<string, Json>) => Record<string, Json>[]; model: string; file: string }[] = [
+  { parent: (m) => [m], model: 'centres', file: 'speciesWithContributions' },
+  { parent: (m) => [m], model: 'tensorLimits', file: 'anisotropicFeatureLimits' },
+  { parent: (m) => objects(m.anisotropicFeatureLimits ?? m.tensorLimits), model: 'nmax', file: 'radialFunctions' },
+  { parent: (m) => objects(m.anisotropicFeatureLimits ?? m.tensorLimits), model: 'lmax', file: 'angularOrder' },
+  { parent: (m) => (Array.isArray(m.parts) ? m.parts : []).flatMap((p) => objects(objects(p)[0]?.kernel)), model: 'zeta', file: 'kernelExponent' },
+];
+
+function objects(v: Json | undefined): Record<string, Json>[] {
+  return v !== null && typeof v === 'object' && !Array.isArray(v) ? [v] : [];
+}
+
+function renameKeys(payload: Record<string, Json>, toFile: boolean): Record<string, Json> {
+  for (const k of FILE_KEYS_V2) {
+    const [from, to] = toFile ? [k.model, k.file] : [k.file, k.model];
+    for (const o of k.parent(payload)) {
+      if (from in o) {
+        o[to] = o[from];
+        delete o[from];
+      }
+    }
+  }
+  return payload;
+}
+
 export function serialiseModel(model: Model): string {
-  const payload = encode(model, '', '');
+  const payload = renameKeys(encode(model, '', '') as Record<string, Json>, true);
   const checksum = sha256(canonicalJson(payload));
   const doc = { format: MODEL_FORMAT, version: MODEL_VERSION, description: describe(model), checksum: { algorithm: 'sha256', value: checksum }, payload };
   return JSON.stringify(doc) + '\n';
@@ -156,7 +188,8 @@ export function parseModel(text: string, fileName: string): Model {
   if (actual !== (ck as Record<string, Json>).value) {
     throw new ModelError(`${fileName}: checksum mismatch — the model file is corrupt or was edited; retrain or restore the file`);
   }
-  const decoded = decode(d.payload, '', fileName) as Record<string, unknown>;
+  const stored = d.version === 1 ? d.payload : renameKeys(d.payload as Record<string, Json>, false);
+  const decoded = decode(stored, '', fileName) as Record<string, unknown>;
   const model = (d.version === 1 ? fromVersion1(decoded, fileName) : decoded) as unknown as Model;
   checkModelContents(model, fileName);
   return model;

@@ -7,6 +7,7 @@ import { InputError } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { parseCsv, type CsvTable } from './csv.ts';
 import { readExtxyz } from './extxyz.ts';
+import { fileKind } from './read-structures.ts';
 import { alphaColumn, COMPONENT_SLOTS, epsColumn, PRED_ARRAYS, PRED_KEYS, PREDICTION_COLUMNS, TENSOR_COMPONENTS, VALUE_COLUMNS, type TensorComponent } from './prediction/prediction-format.ts';
 
 export interface SpeciesSeries {
@@ -241,7 +242,8 @@ async function fromExtxyz(file: string, signal?: AbortSignal): Promise<Trajector
 
 /** Read a prediction file (by extension: .csv, or extended XYZ). */
 export async function readTrajectorySeries(file: string, signal?: AbortSignal): Promise<TrajectorySeries> {
-  if (/\.csv$/i.test(file)) {
+  const kind = fileKind(file);
+  if (kind?.kind === 'csv' && !kind.gzip) {
     let text: string;
     try {
       text = await readFile(file, 'utf8');
@@ -250,6 +252,6 @@ export async function readTrajectorySeries(file: string, signal?: AbortSignal): 
     }
     return fromCsv(parseCsv(text, file));
   }
-  if (/\.(ext)?xyz(\.gz)?$/i.test(file)) return fromExtxyz(file, signal);
+  if (kind?.kind === 'extxyz') return fromExtxyz(file, signal);
   throw new InputError('cannot tell the file kind from its name', { file }, 'give a .csv or .extxyz file written by `predict`');
 }

@@ -1,10 +1,10 @@
 // Files read whole into memory (CIF, model files, uploads): refused before reading when they are folders or
-// larger than MAX_WHOLE_FILE_BYTES, and gzip data is decompressed with the same cap, so a small "gzip bomb"
+// larger than MAX_WHOLE_FILE_BYTES, and gzip data is decompressed with the same cap (io/gzip.ts), so a small "gzip bomb"
 // stops with a clear error instead of filling memory. Errors are InputErrors naming the file.
 import { readFile, stat } from 'node:fs/promises';
-import { gunzipSync } from 'node:zlib';
 import { InputError } from '../core/errors.ts';
 import { MAX_WHOLE_FILE_BYTES } from '../core/limits.ts';
+import { gunzipIfGzip } from './gzip.ts';
 
 const MIB = 1 << 20;
 
@@ -21,22 +21,6 @@ function tooLarge(file: string, what: string): InputError {
   return new InputError(`${what} is larger than ${MAX_WHOLE_FILE_BYTES / MIB} MiB`, { file }, 'this file is read whole into memory; for long trajectories use extended XYZ, which is streamed');
 }
 
-export function isGzipBytes(bytes: Uint8Array): boolean {
-  return bytes.length >= 2 && bytes[0] === 0x1f && bytes[1] === 0x8b;
-}
-
-/** Decompress gzip bytes, refusing output beyond MAX_WHOLE_FILE_BYTES; plain bytes are returned as they are. */
-export function gunzipCapped(bytes: Uint8Array, file: string): Buffer {
-  const buf = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
-  if (!isGzipBytes(bytes)) return buf;
-  try {
-    return gunzipSync(buf, { maxOutputLength: MAX_WHOLE_FILE_BYTES });
-  } catch (e) {
-    if ((e as NodeJS.ErrnoException).code === 'ERR_BUFFER_TOO_LARGE' || e instanceof RangeError) throw tooLarge(file, 'the decompressed data');
-    throw new InputError('the gzip data is damaged or truncated', { file }, 'copy the file again');
-  }
-}
-
 /** The bytes of `file` (decompressed when gzip), within MAX_WHOLE_FILE_BYTES. */
 export async function readWholeFile(file: string): Promise<Buffer> {
   let bytes: Buffer;
@@ -48,5 +32,5 @@ export async function readWholeFile(file: string): Promise<Buffer> {
   } catch (err) {
     throw err instanceof InputError ? err : readError(file, err);
   }
-  return gunzipCapped(bytes, file);
+  return gunzipIfGzip(bytes, file);
 }

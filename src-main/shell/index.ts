@@ -9,7 +9,7 @@ import makeWorker from '../app/worker.ts?nodeWorker';
 import { createAppService } from '../app/wiring.ts';
 import { CONTENT_SECURITY_POLICY } from '../host/csp.ts';
 import { toApiError } from '../api/contract.ts';
-import { registerIpc, openStructurePaths, type IpcContext } from './ipc.ts';
+import { registerIpc, openStructurePaths, STRUCTURE_FILTERS, type IpcContext } from './ipc.ts';
 import { buildMenu } from './menu.ts';
 import { ShellMemory } from './window-state.ts';
 
@@ -42,7 +42,7 @@ function rebuildMenu(ctx: IpcContext): void {
       send,
       openStructures: () => {
         void (async () => {
-          const r = await dialog.showOpenDialog(win!, { properties: ['openFile', 'multiSelections'], filters: [{ name: 'Structures', extensions: ['xyz', 'extxyz', 'gz', 'cif'] }] });
+          const r = await dialog.showOpenDialog(win!, { properties: ['openFile', 'multiSelections'], filters: STRUCTURE_FILTERS });
           if (r.canceled) return;
           await openPaths(ctx, r.filePaths);
         })();

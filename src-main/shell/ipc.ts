@@ -9,6 +9,7 @@ import { toApiError, type ApiResponse, type DatasetSummary } from '../api/contra
 import type { AppService } from '../app/service.ts';
 import { dispatch } from '../api/dispatch.ts';
 import { writeFileAtomic } from '../io/atomic.ts';
+import { STRUCTURE_EXTENSIONS } from '../io/read-structures.ts';
 
 const saveSchema = z
   .object({
@@ -20,8 +21,9 @@ const saveSchema = z
   .strict()
   .refine((r) => (r.text === undefined) !== (r.base64 === undefined), 'give text or base64, not both');
 
-const STRUCTURE_FILTERS = [
-  { name: 'Structures (extended XYZ, CIF)', extensions: ['xyz', 'extxyz', 'gz', 'cif'] },
+/** The open dialog's filters: the file registry's structure kinds (io/read-structures.ts). */
+export const STRUCTURE_FILTERS = [
+  { name: 'Structures (extended XYZ, CIF)', extensions: [...STRUCTURE_EXTENSIONS] },
   { name: 'All files', extensions: ['*'] },
 ];
 

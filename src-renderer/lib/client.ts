@@ -51,16 +51,16 @@ function unwrap<T>(r: ApiResponse<T>): T {
   throw new CallError(r.error);
 }
 
-async function fileToPayload(file: File): Promise<{ name: string; text: string } | { name: string; base64: string }> {
+/** A file's bytes as they are (the service recognises gzip and the kind: one place, the file registry). */
+async function fileToPayload(file: File): Promise<{ name: string; base64: string }> {
   const bytes = new Uint8Array(await file.arrayBuffer());
-  const gz = bytes.length >= 2 && bytes[0] === 0x1f && bytes[1] === 0x8b;
-  if (!gz) return { name: file.name, text: new TextDecoder().decode(bytes) };
   let binary = '';
   for (let i = 0; i < bytes.length; i += 0x8000) binary += String.fromCharCode(...bytes.subarray(i, i + 0x8000));
   return { name: file.name, base64: btoa(binary) };
 }
 
-export const STRUCTURE_ACCEPT = '.xyz,.extxyz,.gz,.cif';
+/** The structure extensions of the file registry (io/read-structures.ts STRUCTURE_EXTENSIONS; a test holds them equal). */
+export const STRUCTURE_ACCEPT = '.xyz,.extxyz,.exyz,.cif,.gz';
 
 function pickFiles(accept: string, multiple: boolean): Promise<File[]> {
   return new Promise((resolve) => {

@@ -34,6 +34,18 @@ export function percent(v: number): string {
 }
 
 /** The quantity a validation report compared on, in words. */
+/** The symbol of a compared tensor for chart labels: ε, α_CM or α. */
+export function targetSymbol(target: string): string {
+  return target === 'eps' ? 'ε' : target.startsWith('alpha-cm') ? 'α_CM' : target.startsWith('alpha') ? 'α' : target;
+}
+
+/** Short label of the error relative to the spread of the data, and its meaning (for a tooltip). */
+export const SPREAD_LABEL = '% of spread';
+export const SPREAD_MEANING = 'Error relative to the spread of the data: RMSE / standard deviation of the reference over the frames, in percent.';
+/** What the anisotropic error figure is (same words as the parity chart and docs/science-conventions.md). */
+export const ANISO_MEANING =
+  'Anisotropic error: for each frame, the anisotropy √(3/2)·‖Δ − (tr Δ/3) I‖ of the error tensor Δ = predicted − reference, root mean square over the frames (the invariant of the eps_aniso column).';
+
 export function targetName(target: string): string {
   return target === 'eps' ? 'ε∞ (dimensionless)' : target;
 }

@@ -1,14 +1,16 @@
 // Small numbers shown beside tensors in the views: isotropic mean and anisotropy of a symmetric 3×3 matrix
-// given as 9 numbers, row-major. (The science lives in src-main; these are display figures only.)
+// given as 9 numbers, row-major. The anisotropy is the core's one definition (core/dielectric/tensor.ts, the
+// shared browser-safe tensor algebra), the one the CSV's *_aniso columns and `analyse` use.
+import { anisotropy } from '../../src-main/core/dielectric/tensor.ts';
 
 export function isoOf(t: ArrayLike<number>): number {
   return (t[0] + t[4] + t[8]) / 3;
 }
 
-/** ‖T − tr(T)/3 · I‖_F: the size of the traceless (λ = 2) part. */
+/** √(3/2)·‖T − tr(T)/3 · I‖_F (= √(½Σ(λi − λj)²) of the principal values). */
 export function anisoOf(t: ArrayLike<number>): number {
-  const m = isoOf(t);
-  let s = 0;
-  for (let i = 0; i < 3; i++) for (let j = 0; j < 3; j++) s += (t[3 * i + j] - (i === j ? m : 0)) ** 2;
-  return Math.sqrt(s);
+  return anisotropy(Float64Array.from(t));
 }
+
+/** How the anisotropy is labelled wherever it is shown. */
+export const ANISOTROPY_LABEL = 'anisotropy √(3/2)‖T − tr/3‖';

@@ -127,7 +127,7 @@ describe('CLI on hostile input: exit 1, file named, no stack trace, no output', 
     ['missing.json', () => resigned((m) => delete m.applicability), /corrupt model file \(applicability/],
     ['shape.json', () => resigned((m) => (m.target.shape = 'vector')), /corrupt model file/],
     ['swapped.json', () => resigned((m) => (m.species = [...m.species].reverse())), /species are not distinct and in order/],
-    ['cutoff.json', () => resigned((m) => (m.settings.cutoff = 60)), /settings\.cutoff/],
+    ['cutoff.json', () => resigned((m) => (m.settings.cutoffRadius = 60)), /cutoff radius 60 Å is not allowed/],
     ['threshold.json', () => resigned((m) => (m.applicability.threshold = -1)), /applicability\.threshold/],
   ];
   for (const [name, make, pattern] of MODELS) {

@@ -71,7 +71,8 @@ describe('polarweave train / predict / validate', () => {
     expect(v.code).toBe(0);
     expect(v.out).toMatch(/route cm: 4-fold cross-validation over 8 frames/);
     expect(v.out).toMatch(/route direct:/);
-    expect(v.out).toMatch(/λ=0: RMSE [0-9.e-]+ +%RMSE [0-9.]+ %/);
+    expect(v.out).toMatch(/isotropic \(tr\/3\): +RMSE [0-9.e-]+ +[0-9.]+ % of the spread/);
+    expect(v.out).toMatch(/anisotropic \(anisotropy\): RMSE [0-9.e-]+ +[0-9.]+ % of the spread/);
     expect(v.out).toMatch(/verdict \(rule of thumb, on ε\): (good|usable|poor)/);
     expect(v.out).toMatch(/learning curve, 3 training frames/);
     expect(v.out).toMatch(/sizes skipped.*20/);
@@ -131,9 +132,9 @@ describe('polarweave train / predict / validate', () => {
     expect(v.err).not.toMatch(/error/);
     expect(v.code).toBe(0);
     expect(v.out).toMatch(/vector "cell_dipole".*4-fold cross-validation over 8 frames/);
-    const pct = Number(/%RMSE ([\d.]+) %/.exec(v.out)?.[1]);
+    const pct = Number(/RMSE [0-9.e-]+ +([\d.]+) % of the spread/.exec(v.out)?.[1]);
     const r2 = Number(/R² ([-\d.]+)/.exec(v.out)?.[1]);
-    // observed when written: 12.8 %RMSE, R² 0.984 (a wrong component order or sign would give R² < 0)
+    // observed when written: 12.8 % of the spread, R² 0.984 (a wrong component order or sign would give R² < 0)
     expect(pct).toBeLessThan(30);
     expect(r2).toBeGreaterThan(0.9);
     expect(v.out).toMatch(/verdict \(rule of thumb\): (good|usable with care)/);
@@ -141,8 +142,8 @@ describe('polarweave train / predict / validate', () => {
     const s = await cli(['validate', file, '--tensor', 'oo_pairs', '--folds', '4', '--learning-curve', '2,6', ...FAST]);
     expect(s.code).toBe(0);
     expect(s.out).toMatch(/scalar "oo_pairs": 4-fold/);
-    // observed when written: %RMSE 136 % with 2 training frames, 62 % with 6 — more data must help
-    const curve = [...s.out.matchAll(/learning curve, (\d+) training frames: %RMSE ([\d.]+) %/g)].map((m) => Number(m[2]));
+    // observed when written: 136 % of the spread with 2 training frames, 62 % with 6 — more data must help
+    const curve = [...s.out.matchAll(/learning curve, (\d+) training frames: error ([\d.]+) % of the spread/g)].map((m) => Number(m[2]));
     expect(curve).toHaveLength(2);
     expect(curve[1]).toBeLessThan(curve[0]);
 

@@ -1,6 +1,7 @@
 // The one table of model settings and the four places that read it: the command line, the window's form, the
 // API schema and the engine's checks (resolveSettings and the feature check) accept the same values and refuse
 // the same values. Every boundary comes from the table; each place is asked on its own.
+import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import {
   DEFAULT_SETTINGS,
@@ -8,6 +9,7 @@ import {
   SPECIES_SETTING,
   TUNABLE_SETTINGS,
   describeSettings,
+  limitsText,
   settingsProblems,
   type ModelSettings,
   type NumericSettingSpec,
@@ -133,6 +135,18 @@ describe('the settings table', () => {
     expect(apiAccepts({ contributingSpecies: ['O', 'O'] })).toBe(false);
     expect(apiAccepts({ contributingSpecies: ['Oxygen'] })).toBe(false);
     expect(engineAccepts({ contributingSpecies: ['Oxygen'] })).toBe(false);
+  });
+
+  it('the README lists every option of the table, with its default and limits', () => {
+    const readme = readFileSync(new URL('../../README.md', import.meta.url), 'utf8');
+    for (const spec of NUMERIC_SETTINGS) {
+      const row = readme.split('\n').find((l) => l.startsWith(`| \`--${spec.option} `));
+      expect(row, `README row of --${spec.option}`).toBeDefined();
+      const d = DEFAULT_SETTINGS[spec.key];
+      if (d !== null) expect(row).toContain(`| ${d} |`);
+      expect(row).toContain(limitsText(spec).replace('a whole number ', '').replace('e-14', 'e-14'));
+    }
+    expect(readme).toContain(`\`--${SPECIES_SETTING.option} LIST\``);
   });
 
   it('describes settings in words, without the symbols of the maths', () => {

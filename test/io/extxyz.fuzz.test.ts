@@ -10,6 +10,7 @@ import { ELEMENT_SYMBOLS } from '../../src-main/core/geometry/elements.ts';
 import type { AtomArray, Frame, InfoValue } from '../../src-main/core/geometry/frame.ts';
 import { formatExtxyzFrame, parseExtxyz, readExtxyz } from '../../src-main/io/extxyz.ts';
 import { MAX_COORDINATE_A } from '../../src-main/core/limits.ts';
+import { mutate } from '../helpers/mutate.ts';
 
 const finite = fc.double({ noNaN: true, noDefaultInfinity: true });
 // positions beyond ±MAX_COORDINATE_A are refused by the reader (tested in robustness.test.ts)
@@ -106,18 +107,6 @@ describe('extended XYZ properties', () => {
     fc.record({ op: fc.constant('delete' as const), at: fc.nat(), len: fc.integer({ min: 1, max: 8 }) }),
     fc.record({ op: fc.constant('truncate' as const), at: fc.nat() }),
   );
-  type Mutation = { op: 'set' | 'insert'; at: number; text: string } | { op: 'delete'; at: number; len: number } | { op: 'truncate'; at: number };
-  function mutate(text: string, ms: Mutation[]): string {
-    let t = text;
-    for (const m of ms) {
-      const at = t.length === 0 ? 0 : m.at % t.length;
-      if (m.op === 'set') t = t.slice(0, at) + m.text + t.slice(at + 1);
-      else if (m.op === 'insert') t = t.slice(0, at) + m.text + t.slice(at);
-      else if (m.op === 'delete') t = t.slice(0, at) + t.slice(at + m.len);
-      else t = t.slice(0, at);
-    }
-    return t;
-  }
   function checkFrames(frames: Frame[]): void {
     for (const f of frames) {
       expect(f.positions.length).toBe(3 * f.species.length);

@@ -57,6 +57,13 @@ describe('model file', () => {
     expect(doc.payload.settings.cutoffRadius).toBe(4.5);
     expect(doc.payload.settings.radialFunctions).toBe(6);
     expect(Object.keys(doc.payload.settings).sort()).toEqual(Object.keys(DEFAULT_SETTINGS).sort());
+    // Version 2 writes plain words: none of the version-1 keys of the settings or of the model's feature limits.
+    const kernelText = serialiseModel(kernelModel);
+    for (const old of ['cutoff', 'cutoffWidth', 'sigma', 'nmax', 'lmax', 'zeta', 'sparsePoints', 'centres', 'tensorLimits']) {
+      expect(kernelText, old).not.toContain(`"${old}":`);
+    }
+    expect(JSON.parse(kernelText).payload.anisotropicFeatureLimits).toEqual({ radialFunctions: 6, angularOrder: 4 });
+    expect(parseModel(kernelText, 'k.json').tensorLimits).toEqual(kernelModel.tensorLimits);
     expect(doc.payload.training.frames).toBe(10);
     expect(doc.payload.parts[0].weights.f64).toMatch(/^[A-Za-z0-9+/]+=*$/);
   });

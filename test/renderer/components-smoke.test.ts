@@ -46,16 +46,23 @@ const points: ParityPoint[] = Array.from({ length: 7 }, (_, i) => ({
 const errors: ErrorFigures = { rmseIso: 0.0214, rmseAniso: 0.0012, percentIso: 9.9, percentAniso: 11.2, r2Iso: 0.99, r2Aniso: 0.987, count: 7 };
 
 describe('components render on the server', () => {
-  it('ParityChart: one dot per frame for λ=0, five for λ=2 components; figures and units printed', async () => {
+  it('ParityChart: one dot per frame for tr/3, six for the anisotropic components; figures and units printed', async () => {
     const Parity = await load('src-renderer/components/charts/ParityChart.svelte');
     const iso = html(Parity, { points, part: 'iso', units: 'Å³', errors, width: 400 });
     expect(iso.match(/<circle[^>]*fill-opacity="0.72"/g)).toHaveLength(7);
     expect(iso).toContain('RMSE 0.0214 Å³');
     expect(iso).toContain('R² 0.99');
-    expect(iso).toMatch(/reference T⁰\s*\(Å³\)/);
+    expect(iso).toMatch(/reference ε_iso = tr ε \/ 3\s*\(Å³\)/);
+    expect(iso).not.toContain('T⁰');
     const an = html(Parity, { points, part: 'aniso', units: 'Å³', errors, width: 400 });
-    expect(an.match(/<circle[^>]*fill-opacity="0.72"/g)).toHaveLength(35);
+    expect(an.match(/<circle[^>]*fill-opacity="0.72"/g)).toHaveLength(42);
     expect(an).toContain('RMSE 0.0012 Å³');
+    expect(an).toMatch(/<title>Anisotropic error: for each frame, the anisotropy/);
+    // The other view of the anisotropic part prints the same figure (one measure, not two differing by √5).
+    const norm = html(Parity, { points, part: 'aniso', anisoMode: 'norm', units: 'Å³', errors, width: 400 });
+    expect(norm.match(/<circle[^>]*fill-opacity="0.72"/g)).toHaveLength(7);
+    expect(norm).toContain('RMSE 0.0012 Å³');
+    expect(norm).toMatch(/reference anisotropy of ε/);
   }, 60_000);
 
   it('LearningCurve and TrajectoryChart render their lines and legends', async () => {
@@ -64,13 +71,16 @@ describe('components render on the server', () => {
       curves: [{ route: 'cm', learningCurve: [10, 20, 40].map((n) => ({ trainSize: n, errors: { ...errors, percentIso: 100 / n, percentAniso: 200 / n } })) }],
       width: 500,
     });
-    expect(lc.match(/<circle[^>]*r="4.2"/g)).toHaveLength(3); // λ=0 markers, one per training-set size
+    expect(lc.match(/<circle[^>]*r="4.2"/g)).toHaveLength(3); // isotropic markers, one per training-set size
     expect(lc).toContain('training-set size');
-    expect(lc).toContain('λ=0 (isotropic)');
+    expect(lc).toContain('isotropic (tr/3)');
     expect(lc).toMatch(/log–log slope −1(?!\d)/);
     const Traj = await load('src-renderer/components/charts/TrajectoryChart.svelte');
     const values = Float64Array.from({ length: 5000 }, (_, i) => 1.8 + 0.01 * Math.sin(i / 30));
-    const tc = html(Traj, { series: [{ label: 'n₁', values, error: 0.001 }], xLabel: 'frame', yLabel: 'refractive index', width: 600 });
+    // the running mean comes from the service with the error (the chart computes no statistics)
+    let sum = 0;
+    const running = values.map((v, i) => (sum += v) / (i + 1));
+    const tc = html(Traj, { series: [{ label: 'n₁', values, running, error: 0.001 }], xLabel: 'frame', yLabel: 'refractive index', width: 600 });
     expect(tc).toContain('5000 frames');
     expect(tc).toContain('n₁: 1.8');
     expect(tc).toContain('± 0.001');

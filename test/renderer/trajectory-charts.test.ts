@@ -3,16 +3,9 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { decimateMinMax, lowerBound } from '../../src-renderer/components/charts/decimate.ts';
-import { blockEstimates, plateauError, runningError, runningMean } from '../../src-renderer/components/charts/trajectory-stats.ts';
+import { runningError } from '../../src-renderer/components/charts/trajectory-stats.ts';
 import { learningLines, logDomain, logLogSlope } from '../../src-renderer/components/charts/learning-geometry.ts';
 import type { ErrorFigures } from '../../src-main/core/learning/model-types.ts';
-import { makeRng } from '../../src-main/core/numerics/random.ts';
-
-/** Seeded normal deviates for the statistics tests (the project's shared generator). */
-function rng(seed: number): () => number {
-  const r = makeRng(seed);
-  return () => r.normal();
-}
 
 describe('decimateMinMax', () => {
   it('keeps the global extremes and every column’s min and max, with ≤ 4 points a column', () => {
@@ -62,39 +55,9 @@ describe('decimateMinMax', () => {
   });
 });
 
-describe('running statistics', () => {
-  it('running mean by hand', () => {
-    expect(Array.from(runningMean([2, 4, 6, 8]))).toEqual([2, 3, 4, 5]);
-  });
-
-  it('block error of independent normal samples ≈ σ/√n (textbook result for the mean of n samples)', () => {
-    const g = rng(1);
-    const n = 8192;
-    const v = Float64Array.from({ length: n }, () => 2 * g());
-    const e = plateauError(v);
-    expect(e / (2 / Math.sqrt(n))).toBeGreaterThan(0.7);
-    expect(e / (2 / Math.sqrt(n))).toBeLessThan(1.3);
-    expect(blockEstimates(v)[0].error).toBeCloseTo(2 / Math.sqrt(n), 2);
-  });
-
-  it('block error of a first-order autoregressive series reaches σ·√((1+φ)/((1−φ)n)) (from memory: AR(1) inefficiency)', () => {
-    const g = rng(2);
-    const n = 1 << 16;
-    const phi = 0.9;
-    const v = new Float64Array(n);
-    let x = 0;
-    for (let i = 0; i < n; i++) {
-      x = phi * x + Math.sqrt(1 - phi * phi) * g(); // unit stationary variance
-      v[i] = x;
-    }
-    const expected = Math.sqrt((1 + phi) / (1 - phi) / n);
-    const e = plateauError(v);
-    expect(e / expected).toBeGreaterThan(0.7);
-    expect(e / expected).toBeLessThan(1.35);
-    // the naive (block size 1) estimate is far too small for correlated data
-    expect(blockEstimates(v)[0].error).toBeLessThan(0.4 * expected);
-  });
-
+// The chart computes no statistics of its own: running means and block-averaged errors come from the service
+// (core/trajectory/, tested in test/core/trajectory/ and test/app/trajectory-stats.test.ts).
+describe('running error band', () => {
   it('running error scales as 1/√t and equals the final error at t = n', () => {
     expect(runningError(0.01, 400, 400)).toBeCloseTo(0.01, 15);
     expect(runningError(0.01, 400, 100)).toBeCloseTo(0.02, 15);

@@ -44,6 +44,12 @@ export const tests = [
       const ds = page.locator('[data-field=dataset]');
       await ds.selectOption(await optionValue(ds, /^liquid/));
       await page.click('[data-preset=quick]');
+      // The form names the settings in plain words, from the one settings table (no symbols of the maths).
+      const names = (await page.locator('.settings .name').allTextContents()).join(' | ');
+      for (const label of ['Cutoff radius (Å)', 'Switch width (Å)', 'Density width (Å)', 'Radial functions', 'Angular order', 'Kernel exponent', 'Anchor environments per species', 'Contributing species']) {
+        assert.ok(names.includes(label), `no "${label}" in the form: ${names}`);
+      }
+      assert.doesNotMatch(names, /n_max|l_max|ζ|σ|Centres/);
       await page.fill('[data-setting=radialFunctions]', '3');
       await page.fill('[data-setting=angularOrder]', '2');
       await page.fill('[data-setting=anchorEnvironments]', '0');

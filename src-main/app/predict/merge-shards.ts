@@ -8,6 +8,7 @@ import { createReadStream } from 'node:fs';
 import { createInterface } from 'node:readline';
 import { CancelledError, InputError } from '../../core/errors.ts';
 import { atomicWriteStream } from '../../io/atomic.ts';
+import { fileKind } from '../../io/read-structures.ts';
 import { identityLine, parseFrameStamp, parseIdentityLine, parseShardStampText, PRED_KEYS, selectionText, type Identity, type SelectionText } from '../../io/prediction/prediction-format.ts';
 
 type Kind = 'csv' | 'extxyz';
@@ -34,8 +35,8 @@ export interface MergeResult {
 }
 
 function kindOf(file: string): Kind {
-  if (/\.csv$/i.test(file)) return 'csv';
-  if (/\.(ext)?xyz$/i.test(file)) return 'extxyz';
+  const k = fileKind(file);
+  if (k && !k.gzip && (k.kind === 'csv' || k.kind === 'extxyz')) return k.kind;
   throw new InputError('not a prediction file (.csv or .extxyz)', { file }, 'give the files that `predict --shard` wrote');
 }
 

@@ -1,14 +1,12 @@
 // The 'predict-chunk' job task: parse a batch of raw extended XYZ frames (bytes cut out by the main thread),
 // predict each with the model (loaded once per worker, its file checksum checked), and return the formatted
 // output text of the batch in frame order, with the applicability figures the caller summarises.
-import { createHash } from 'node:crypto';
 import { CancelledError, InputError, ModelError } from '../../core/errors.ts';
 import type { Frame } from '../../core/geometry/frame.ts';
-import { modelPredictor, type Model, type Predictor } from '../../core/learning/model.ts';
 import { frameFromBytes } from '../../io/extxyz.ts';
-import { parseModel, readModelBytes } from '../../io/model-file.ts';
 import type { FrameStamp, TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import { predictFrameText, type PredictFormat } from './predict-frame.ts';
+import { loadModelFile, type LoadedModel } from './prediction.ts';
 import type { TaskContext, TaskRegistry } from '../../jobs/task.ts';
 
 export interface PredictChunkInput {
@@ -35,22 +33,17 @@ export interface PredictChunkOutput {
   computeMs: number;
 }
 
-export function sha256Hex(data: Uint8Array | string): string {
-  return createHash('sha256').update(data).digest('hex');
-}
-
 // One model per worker. A reused worker (stream-predict's runner keeps its workers) serves every later batch
 // from here: the model in memory is the one whose bytes matched `sha`, so its predictions stay those of the
 // checksum written in the output even if the file is replaced meanwhile (only a new worker would notice that).
-let cached: { path: string; sha: string; model: Model; predict: Predictor } | null = null;
+// A worker thread is its own JavaScript realm: it reads the model once, here, and keeps it.
+let cached: LoadedModel | null = null;
 
-async function modelFor(path: string, sha: string): Promise<NonNullable<typeof cached>> {
-  if (cached && cached.path === path && cached.sha === sha) return cached;
-  const bytes = await readModelBytes(path);
-  const actual = sha256Hex(bytes);
-  if (actual !== sha) throw new ModelError(`${path}: the model file changed while predicting (sha256 ${actual}, expected ${sha}); start again with --restart`);
-  const model = parseModel(bytes.toString('utf8'), path);
-  cached = { path, sha, model, predict: modelPredictor(model) };
+async function modelFor(path: string, sha: string): Promise<LoadedModel> {
+  if (cached && cached.path === path && cached.sha256 === sha) return cached;
+  const loaded = await loadModelFile(path);
+  if (loaded.sha256 !== sha) throw new ModelError(`${path}: the model file changed while predicting (sha256 ${loaded.sha256}, expected ${sha}); start again with --restart`);
+  cached = loaded;
   return cached;
 }
 

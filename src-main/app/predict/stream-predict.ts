@@ -14,15 +14,16 @@
 import { promises as fsp } from 'node:fs';
 import { availableParallelism } from 'node:os';
 import { basename, dirname, resolve } from 'node:path';
-import { CancelledError, InputError, ModelError } from '../../core/errors.ts';
+import { CancelledError, InputError } from '../../core/errors.ts';
 import { indexExtxyz, type FrameRange } from '../../io/extxyz.ts';
 import { syncFolder, writeError, writeFileAtomic } from '../../io/atomic.ts';
-import { parseModel, readModelBytes } from '../../io/model-file.ts';
+import { isGzipFile } from '../../io/gzip.ts';
 import { readError } from '../../io/whole-file.ts';
 import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import type { PredictFormat } from './predict-frame.ts';
-import { sha256Hex, type PredictChunkInput, type PredictChunkOutput } from './predict-tasks.ts';
+import type { PredictChunkInput, PredictChunkOutput } from './predict-tasks.ts';
+import { csvLayoutOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
 import { JobRunner, type WorkerFactory } from '../../jobs/runner.ts';
 import { tsWorkerFactory } from '../../jobs/spawn-ts.ts';
 
@@ -52,6 +53,8 @@ export interface StreamProgress {
 
 export interface StreamPredictOptions {
   modelPath: string;
+  /** The model, already read from modelPath (read here when not given): a process reads its model once. */
+  model?: LoadedModel;
   input: string;
   output: string;
   /** Frames start, start+step, … below stop. */
@@ -74,7 +77,7 @@ export interface StreamPredictOptions {
   spawn?: WorkerFactory;
   /** Model path as shown in the CSV identity line (default: modelPath). */
   modelLabel?: string;
-  /** CSV layout for a tensor model (io/csv.ts options; the CLI passes predictionCsvOptions). */
+  /** CSV layout for a tensor model (default: predictionCsvOptions of the model and its label). */
   csvOptions?: TensorCsvOptions;
 }
 
@@ -108,10 +111,6 @@ interface Checkpoint {
 
 export function checkpointPaths(output: string): { partial: string; checkpoint: string } {
   return { partial: `${output}.partial`, checkpoint: `${output}.checkpoint.json` };
-}
-
-export function outputFormat(output: string): PredictFormat | null {
-  return /\.csv$/i.test(output) ? 'csv' : /\.(ext)?xyz$/i.test(output) ? 'extxyz' : null;
 }
 
 async function readCheckpoint(path: string): Promise<Checkpoint | null> {
@@ -180,19 +179,17 @@ export function progressLine(p: StreamProgress): string {
 }
 
 export async function streamPredict(opts: StreamPredictOptions): Promise<StreamPredictResult> {
-  const format = outputFormat(opts.output);
-  if (!format) throw new InputError(`cannot tell the output format from "${opts.output}"`, { file: opts.output }, 'use .csv or .extxyz');
+  const format = predictOutputFormat(opts.output);
   const threads = Math.max(1, opts.threads ?? availableParallelism());
   const signal = opts.signal;
   const started = Date.now();
   const { partial, checkpoint: ckPath } = checkpointPaths(opts.output);
 
   // model: checksum of its bytes identifies it in the checkpoint, the CSV header and every worker
-  const modelBytes = await readModelBytes(opts.modelPath);
-  const modelSha256 = sha256Hex(modelBytes);
-  const model = parseModel(modelBytes.toString('utf8'), opts.modelPath);
-  if (format === 'extxyz' && model.target.shape !== 'tensor') throw new InputError('extended XYZ output is for tensor models', { file: opts.output }, 'write .csv');
-  if (format === 'csv' && model.target.shape === 'tensor' && !opts.csvOptions) throw new RangeError('streamPredict: a tensor model writing CSV needs csvOptions');
+  const loaded = opts.model ?? (await loadModelFile(opts.modelPath, opts.modelLabel ?? opts.modelPath));
+  const { model, sha256: modelSha256 } = loaded;
+  predictOutputFormat(opts.output, model);
+  const csvOptions = opts.csvOptions ?? csvLayoutOf(loaded);
 
   let stat;
   try {
@@ -217,11 +214,11 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     from = r.from;
   }
   const identity: Identity = {
-    modelPath: opts.modelLabel ?? opts.modelPath,
+    modelPath: opts.modelLabel ?? loaded.label,
     modelSha256,
     inputName: basename(opts.input),
     inputBytes: stat.size,
-    frames: opts.shard || opts.range?.start !== undefined || opts.range?.stop !== undefined || step !== 1 ? selection : undefined,
+    frames: opts.shard ? selection : rangeSelection(range),
     shard: opts.shard && shardOf ? { ...opts.shard, of: shardOf } : undefined,
   };
   const stamp = {
@@ -262,7 +259,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   try {
     if (ck) await fh.truncate(ck.partialBytes);
     else if (format === 'csv') {
-      const head = Buffer.from(predictionCsvHeader(model, identity, opts.csvOptions), 'utf8');
+      const head = Buffer.from(predictionCsvHeader(model, identity, csvOptions), 'utf8');
       await fh.write(head, 0, head.length, 0);
       partialBytes = head.length;
     }
@@ -335,7 +332,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     };
 
     const submit = (frames: PredictChunkInput['frames'], next: SlicePosition) => {
-      const input: PredictChunkInput = { modelPath: resolve(opts.modelPath), modelSha256, file: opts.input, format, stamp, frames, csvOptions: opts.csvOptions };
+      const input: PredictChunkInput = { modelPath: resolve(opts.modelPath), modelSha256, file: opts.input, format, stamp, frames, csvOptions };
       const promise = (runner as JobRunner).run<PredictChunkOutput>('predict-chunk', input, { signal });
       promise.catch(() => undefined); // awaited in order by drainOne
       inFlight.set(seq++, { promise, next, frames: frames.length });
@@ -377,21 +374,14 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     // stopped or refused before anything worth keeping: leave nothing behind
     if (framesDone === 0 && !ck) await Promise.all([fsp.rm(partial, { force: true }), fsp.rm(ckPath, { force: true })]);
     if (signal?.aborted && !(e instanceof InputError)) throw new CancelledError();
-    // a full disk, a folder removed meanwhile…: a plain message naming the output (the checkpoint allows resuming)
-    throw typeof (e as NodeJS.ErrnoException)?.code === 'string' && !(e instanceof InputError) ? writeError(opts.output, e) : e;
+    // a full disk, a folder removed meanwhile…: a plain message naming the output; the frames done are kept
+    if (typeof (e as NodeJS.ErrnoException)?.code !== 'string' || e instanceof InputError) throw e;
+    const w = writeError(opts.output, e);
+    const full = (e as NodeJS.ErrnoException).code === 'ENOSPC' || (e as NodeJS.ErrnoException).code === 'EDQUOT';
+    const kept = framesDone > 0 || ck !== null;
+    throw w instanceof InputError && full && kept ? new InputError(w.problem, w.where, 'free some space, then run the same command again: it continues from the checkpoint') : w;
   } finally {
     // idle workers are unref'd and would not hold the process, but they hold memory (the model): free them now
     await runner?.close();
-  }
-}
-
-async function isGzipFile(file: string): Promise<boolean> {
-  const fh = await fsp.open(file, 'r');
-  try {
-    const head = Buffer.alloc(2);
-    const { bytesRead } = await fh.read(head, 0, 2, 0);
-    return bytesRead === 2 && head[0] === 0x1f && head[1] === 0x8b;
-  } finally {
-    await fh.close();
   }
 }

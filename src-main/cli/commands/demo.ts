@@ -1,6 +1,6 @@
 // `polarweave demo`: the whole job on the bundled invented demo data (demo/run-demo.ts), printing where the
 // outputs went.
-import { parseArgs, UsageError } from '../args.ts';
+import { commandArgs } from '../args.ts';
 import type { Command } from '../command.ts';
 import { runDemo } from '../../demo/run-demo.ts';
 
@@ -20,8 +20,7 @@ export const demoCommand: Command = {
     'liquid-validation.json and summary.md. The data is invented; predictions are model estimates.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length) throw new UsageError(`demo takes no input files, got "${args.positionals[0]}"`);
+    const { args } = commandArgs(argv, options, { inputs: 0, missing: 'demo takes no input files, got "{got}"' });
     const result = await runDemo({
       outDir: args.options.output as string,
       dataDir: args.options.data,
@@ -33,8 +32,8 @@ export const demoCommand: Command = {
     const c = result.crystalErrors;
     io.out(
       [
-        `liquid cross-validation (${result.liquidFrames} frames): %RMSE of ε λ=0 ${e.percentIso.toFixed(1)} %, λ=2 ${e.percentAniso.toFixed(1)} %`,
-        `crystal (${result.crystalFrames} frames): RMSE of ε λ=0 ${c.rmseIso.toExponential(2)}, λ=2 ${c.rmseAniso.toExponential(2)}; ${result.crystalOutsideFrames} frames flagged outside the training data`,
+        `liquid cross-validation (${result.liquidFrames} frames): error of ε relative to the spread of the data, isotropic ${e.percentIso.toFixed(1)} %, anisotropic ${e.percentAniso.toFixed(1)} %`,
+        `crystal (${result.crystalFrames} frames): RMSE of ε, isotropic ${c.rmseIso.toExponential(2)}, anisotropic ${c.rmseAniso.toExponential(2)}; ${result.crystalOutsideFrames} frames flagged outside the training data`,
         `outputs in ${result.files.summary.replace(/[/\\][^/\\]*$/, '')}:`,
         `  ${result.files.summary}`,
         `  ${result.files.csv}`,

@@ -1,6 +1,6 @@
 // `polarweave merge`: join the shard outputs of `predict --shard K/N` (CSV or extended XYZ) into one file in
 // frame order, after checking that none is missing or doubled and that all come from one model and one input.
-import { parseArgs, UsageError } from '../args.ts';
+import { commandArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import { mergeShards } from '../../app/predict/merge-shards.ts';
 
@@ -14,10 +14,7 @@ export const mergeCommand: Command = {
     'Checks before writing: every shard from the same model (sha256) and input file, shards 1…N each once,\nno frame missing or doubled. The result has the bytes of one unsharded run; it appears atomically.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length === 0) throw new UsageError('give the shard files to join');
-    const output = args.options.output;
-    if (!output) throw new UsageError('give the output file with -o OUT.csv or -o OUT.extxyz');
+    const { args, output } = commandArgs(argv, options, { inputs: 'any', missing: 'give the shard files to join', output: 'give the output file with -o OUT.csv or -o OUT.extxyz' });
     if (args.positionals.includes(output)) throw new UsageError(`the output ${output} is also one of the shards`);
     const r = await mergeShards(args.positionals, output, io.signal);
     io.out(`${r.frames} frames from ${r.shards} shard${r.shards === 1 ? '' : 's'} joined into ${r.output} (model sha256 ${r.modelSha256.slice(0, 12)}…)\n`);

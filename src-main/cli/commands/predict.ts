@@ -1,21 +1,16 @@
 // `polarweave predict`: apply a trained model to the frames of a file; CSV (one row per frame) or extended
-// XYZ (frames with the predicted tensors as info keys and per-atom local tensors). Extended XYZ input is
-// streamed and parallel (app/predict/stream-predict.ts): constant memory, worker threads, resumable from
-// OUT.checkpoint.json after Ctrl-C or a crash, frame-range shards for clusters. Other inputs (CIF) go through
-// runPredict (one pass, atomic, Ctrl-C leaves no partial file). The output appears when every frame is done.
-import { parseArgs, UsageError, type ParsedArgs } from '../args.ts';
+// XYZ (frames with the predicted tensors as info keys and per-atom local tensors). The command parses its
+// arguments, reads the model once and calls the predict use case (app/predict/): kinds the file registry marks
+// as streamed (extended XYZ) go through the streamed, parallel, resumable path (OUT.checkpoint.json after
+// Ctrl-C or a crash, frame-range shards for clusters); other kinds (CIF) are predicted in one pass. Both
+// write the same layout, identity line and frame stamps, atomically.
+import { commandArgs, UsageError, type ParsedArgs } from '../args.ts';
 import type { Command, CommandIO } from '../command.ts';
-import { CancelledError } from '../../core/errors.ts';
-import type { Frame } from '../../core/geometry/frame.ts';
-import { framePredictionFrom, modelPredictor, type Model, type Predictor } from '../../core/learning/model.ts';
-import { findMolecules } from '../../core/geometry/molecules.ts';
-import { annotateFrame, predictionCsvOptions, tensorCsvWriter, tensorPredictionRow, valuePredictionRow, valueRowColumns, type PredictionRow, type TensorRow } from '../../io/prediction/prediction-format.ts';
-import { csvRecord } from '../../io/csv.ts';
-import { formatExtxyzFrame, type FrameRange } from '../../io/extxyz.ts';
-import { readStructures } from '../../io/read-structures.ts';
-import { atomicWriteStream, type AtomicWriteStream } from '../../io/atomic.ts';
-import { loadModel } from '../../io/model-file.ts';
+import { CancelledError, InputError } from '../../core/errors.ts';
+import type { FrameRange } from '../../io/extxyz.ts';
+import { structureEntry } from '../../io/read-structures.ts';
 import { checkpointPaths, progressLine, streamPredict, type StreamPredictOptions } from '../../app/predict/stream-predict.ts';
+import { loadModelFile, predictOutputFormat, predictToFile, type LoadedModel } from '../../app/predict/prediction.ts';
 import { availableParallelism } from 'node:os';
 
 const options = [
@@ -38,18 +33,23 @@ export function parseShard(spec: string | undefined): { k: number; n: number } |
   return { k, n };
 }
 
+/** The summary lines every predict run ends with. */
+function reportDone(io: CommandIO, frames: number, output: string, outside: number): void {
+  io.out(`${frames} frames predicted, written to ${output}\n`);
+  if (outside > 0) io.out(`warning: ${outside} of ${frames} frames have atoms outside the training data (column "outside"); treat those predictions with care\n`);
+  io.out('Predictions are model estimates.\n');
+}
+
 /** The streaming run behind the command: progress on stderr, a clear note on Ctrl-C. */
-export async function runStreamPredict(opts: Omit<StreamPredictOptions, 'onProgress' | 'signal' | 'csvOptions'>, io: CommandIO): Promise<number> {
+export async function runStreamPredict(model: LoadedModel, opts: Omit<StreamPredictOptions, 'onProgress' | 'signal' | 'csvOptions' | 'model'>, io: CommandIO): Promise<number> {
   let last = 0;
   const threads = opts.threads ?? availableParallelism();
   io.err(`predict: ${threads} worker thread${threads === 1 ? '' : 's'}\n`);
   try {
-    const model = await loadModel(opts.modelPath);
-    if (/\.(ext)?xyz$/i.test(opts.output) && model.target.shape !== 'tensor') throw new UsageError('extended XYZ output is for tensor models; use .csv');
     const r = await streamPredict({
       ...opts,
+      model,
       threads,
-      csvOptions: model.target.shape === 'tensor' ? predictionCsvOptions(model, opts.modelPath) : undefined,
       signal: io.signal,
       onProgress: (p) => {
         const now = Date.now();
@@ -60,9 +60,7 @@ export async function runStreamPredict(opts: Omit<StreamPredictOptions, 'onProgr
     });
     if (r.resumedFrom > 0) io.err(`predict: continued from frame ${r.resumedFrom} of an interrupted run\n`);
     io.err(`predict: ${r.framesThisRun} frames in ${r.seconds.toFixed(1)} s (${(r.framesThisRun / Math.max(r.seconds, 1e-9)).toFixed(2)} frames/s, ${r.threads} thread${r.threads === 1 ? '' : 's'})\n`);
-    io.out(`${r.frames} frames predicted, written to ${r.output}\n`);
-    if (r.outside > 0) io.out(`warning: ${r.outside} of ${r.frames} frames have atoms outside the training data (column "outside"); treat those predictions with care\n`);
-    io.out('Predictions are model estimates.\n');
+    reportDone(io, r.frames, r.output, r.outside);
     return 0;
   } catch (e) {
     if (e instanceof CancelledError) {
@@ -90,72 +88,25 @@ export function parseFrameRange(args: ParsedArgs): FrameRange {
   return range;
 }
 
-/** One frame's prediction as a table row and an annotated frame: the per-frame work, reusable by other callers. */
-export function predictOne(model: Model, frame: Frame, index: number, predict: Predictor = modelPredictor(model)): { tensorRow?: TensorRow; valueRow?: PredictionRow; annotated?: Frame; outside: boolean } {
-  const pred = predict(frame, index);
-  if (model.target.shape !== 'tensor') return { valueRow: valuePredictionRow(model, index, frame, pred), outside: pred.applicability.outside };
-  const fp = framePredictionFrom(model, frame, pred, index);
-  return { tensorRow: tensorPredictionRow(index, frame, fp, model), annotated: annotateFrame(frame, fp, model), outside: fp.applicability.outside };
-}
-
-/** The CSV layout of a tensor model's predictions (io/csv.ts columns plus the applicability figures). */
-
-/** One CSV record as `predict` writes it (shared with the streaming writer). */
-export const csvLine = csvRecord;
-
-export async function runPredict(modelPath: string, input: string, output: string, range: FrameRange, io: CommandIO): Promise<number> {
-  const format = /\.csv$/i.test(output) ? 'csv' : /\.(ext)?xyz(\.gz)?$/i.test(output) ? 'extxyz' : null;
-  if (!format) throw new UsageError(`cannot tell the output format from "${output}": use .csv or .extxyz`);
-  const model = await loadModel(modelPath);
-  if (format === 'extxyz' && model.target.shape !== 'tensor') throw new UsageError('extended XYZ output is for tensor models; use .csv');
-  const predict = modelPredictor(model);
-  // one writer, chosen by format; each is atomic: nothing appears at `output` unless every frame was written
-  const tensorCsv = format === 'csv' && model.target.shape === 'tensor' ? tensorCsvWriter(output, predictionCsvOptions(model, modelPath)) : null;
-  const stream = tensorCsv ? null : atomicWriteStream(output);
-  let count = 0;
-  let outside = 0;
+/** The one-pass run (CIF and other kinds that are not streamed): progress on stderr, nothing left on Ctrl-C. */
+export async function runPredict(model: LoadedModel, input: string, output: string, range: FrameRange, io: CommandIO): Promise<number> {
   const started = Date.now();
   let lastReport = started;
-  try {
-    if (stream && format === 'csv') {
-      await stream.write(`# Polarweave predictions (model estimates) from ${modelPath.replace(/\n/g, ' ')}\n`);
-      await stream.write(csvLine(valueRowColumns(model)));
-    }
-    const start = range.start ?? 0;
-    const step = range.step ?? 1;
-    let k = 0;
-    for await (const frame of readStructures(input, { signal: io.signal, range })) {
-      if (io.signal.aborted) throw new CancelledError();
-      const index = frame.source?.index ?? start + k * step;
-      k++;
-      const one = predictOne(model, frame, index, predict);
-      if (one.outside) outside++;
-      if (tensorCsv) await tensorCsv.writeRow(one.tensorRow as TensorRow);
-      else if (format === 'csv') await (stream as AtomicWriteStream).write(csvLine(valueRowColumns(model).map((c) => (one.valueRow as PredictionRow)[c] ?? '')));
-      else {
-        const annotated = one.annotated as Frame;
-        annotated.arrays.molecule = { kind: 'int', width: 1, data: findMolecules(frame).molecule };
-        await (stream as AtomicWriteStream).write(formatExtxyzFrame(annotated));
-      }
-      count++;
+  const r = await predictToFile(model, {
+    input,
+    output,
+    range,
+    signal: io.signal,
+    onFrame: (count) => {
       const now = Date.now();
       if (now - lastReport > 1000) {
         lastReport = now;
         io.err(`predict: ${count} frames\n`);
       }
-      await new Promise((r) => setTimeout(r, 0)); // let Ctrl-C through
-    }
-    if (io.signal.aborted) throw new CancelledError();
-    await (tensorCsv ?? (stream as AtomicWriteStream)).commit();
-  } catch (e) {
-    await (tensorCsv ?? (stream as AtomicWriteStream)).abort();
-    throw e;
-  }
-  const secs = (Date.now() - started) / 1000;
-  io.err(`predict: ${count} frames in ${secs.toFixed(1)} s\n`);
-  io.out(`${count} frames predicted, written to ${output}\n`);
-  if (outside > 0) io.out(`warning: ${outside} of ${count} frames have atoms outside the training data (column "outside"); treat those predictions with care\n`);
-  io.out('Predictions are model estimates.\n');
+    },
+  });
+  io.err(`predict: ${r.frames} frames in ${((Date.now() - started) / 1000).toFixed(1)} s\n`);
+  reportDone(io, r.frames, output, r.outside);
   return 0;
 }
 
@@ -171,24 +122,28 @@ export const predictCommand: Command = {
     'interrupted run continues where it stopped when started again with the same arguments.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length !== 2) throw new UsageError('give the model file and one input file');
-    const output = args.options.output;
-    if (!output) throw new UsageError('give the output file with -o OUT.csv or -o OUT.extxyz');
+    const { args, output } = commandArgs(argv, options, { inputs: 2, missing: 'give the model file and one input file', output: 'give the output file with -o OUT.csv or -o OUT.extxyz' });
     if (args.flags.resume && args.flags.restart) throw new UsageError('give --resume or --restart, not both');
     const threads = args.options.threads === undefined ? undefined : Number(args.options.threads);
     if (threads !== undefined && (!Number.isInteger(threads) || threads < 1)) throw new UsageError(`--threads must be a whole number ≥ 1, got "${args.options.threads}"`);
     const shard = parseShard(args.options.shard);
     const range = parseFrameRange(args);
-    const input = args.positionals[1];
-    if (!/\.(ext)?xyz(\.gz)?$/i.test(input)) {
-      if (shard || args.flags.resume || threads !== undefined) throw new UsageError('--shard, --threads and --resume are for extended XYZ trajectories');
-      return runPredict(args.positionals[0], input, output, range, io);
+    const [modelPath, input] = args.positionals;
+    const streamed = structureEntry(input).streamed;
+    if (!streamed && (shard || args.flags.resume || threads !== undefined)) throw new UsageError('--shard, --threads and --resume are for extended XYZ trajectories');
+    try {
+      predictOutputFormat(output);
+    } catch (e) {
+      if (e instanceof InputError) throw new UsageError(`${e.problem}: ${e.hint}`);
+      throw e;
     }
-    if (!/\.(csv|extxyz|xyz)$/i.test(output)) throw new UsageError(`cannot tell the output format from "${output}": use .csv or .extxyz (compress it afterwards if needed)`);
+    const model = await loadModelFile(modelPath);
+    if (model.model.target.shape !== 'tensor' && predictOutputFormat(output) === 'extxyz') throw new UsageError('extended XYZ output is for tensor models; use .csv');
+    if (!streamed) return runPredict(model, input, output, range, io);
     return runStreamPredict(
+      model,
       {
-        modelPath: args.positionals[0],
+        modelPath,
         input,
         output,
         range: { start: range.start, stop: range.stop, step: range.step },

@@ -1,12 +1,12 @@
 // `polarweave reference`: a physics baseline without any training — the interacting point-dipole model
 // (core/dielectric/dipole-model.ts) applied to every frame of a file, writing the frames back with its tensors added as
 // info keys, so a trained model can be compared with it. The point polarisabilities and damping are the user's.
-import { numberOption, parseArgs, UsageError } from '../args.ts';
+import { commandArgs, numberOption, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import { CancelledError } from '../../core/errors.ts';
 import type { Frame } from '../../core/geometry/frame.ts';
 import { cellPolarisability, referenceTensors, type DipoleModel } from '../../core/dielectric/dipole-model.ts';
-import { readStructures } from '../../io/read-structures.ts';
+import { fileKind, readStructures } from '../../io/read-structures.ts';
 import { writeExtxyz } from '../../io/extxyz.ts';
 
 const DEFAULT_THOLE = '0.45';
@@ -77,11 +77,8 @@ export const referenceCommand: Command = {
     'The polarisabilities are yours to choose: the result is a model baseline, not a measurement.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length !== 1) throw new UsageError('give exactly one input file');
-    const output = args.options.output;
-    if (!output) throw new UsageError('give the output file with -o OUT.extxyz');
-    if (!/\.(ext)?xyz(\.gz)?$/i.test(output)) throw new UsageError(`the output is extended XYZ: name it .extxyz or .extxyz.gz, got "${output}"`);
+    const { args, output } = commandArgs(argv, options, { inputs: 1, missing: 'give exactly one input file', output: 'give the output file with -o OUT.extxyz' });
+    if (fileKind(output)?.kind !== 'extxyz') throw new UsageError(`the output is extended XYZ: name it .extxyz or .extxyz.gz, got "${output}"`);
     const spec = args.options.polarisabilities;
     if (!spec) throw new UsageError('give the point polarisabilities, e.g. --polarisabilities O=1.2,H=0.4');
     const model: DipoleModel = { polarisabilities: parsePolarisabilities(spec), thole: parseThole(args.options.thole ?? DEFAULT_THOLE) };

@@ -1,10 +1,9 @@
 // `polarweave train`: learn a model of a cell tensor (or dipole, or scalar) from frames with reference values.
-import { parseArgs, UsageError } from '../args.ts';
+import { commandArgs } from '../args.ts';
 import type { Command } from '../command.ts';
-import { trainModel, type Model } from '../../core/learning/model.ts';
-import { saveModel } from '../../io/model-file.ts';
+import type { Model } from '../../core/learning/model.ts';
+import { trainToFile } from '../../app/learning.ts';
 import { checkTargetOptions, parseRequest, parseRoute, parseTune, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf, tuneOptions } from '../learn-options.ts';
-import { CancelledError } from '../../core/errors.ts';
 import { describeSettings } from '../../core/settings-table.ts';
 
 const options = [
@@ -46,18 +45,13 @@ export const trainCommand: Command = {
     'model file. The regulariser is chosen by cross-validation on the training frames unless given.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length !== 1) throw new UsageError('give exactly one input file');
-    const out = args.options.output;
-    if (!out) throw new UsageError('give the model file to write with -o MODEL');
+    const { args, output: out } = commandArgs(argv, options, { inputs: 1, missing: 'give exactly one input file', output: 'give the model file to write with -o MODEL' });
     const route = parseRoute(args.options.route, false) as 'cm' | 'direct';
     checkTargetOptions(args);
     const frames = await readFrames(args.positionals[0], io);
     io.err(`train: ${frames.length} frames read from ${args.positionals[0]}\n`);
     const request = { ...parseRequest(args, route, targetShapeOf(args, frames)), tune: parseTune(args) };
-    const model = await trainModel(frames, request, { signal: io.signal, onProgress: progressReporter(io, 'train') });
-    if (io.signal.aborted) throw new CancelledError();
-    await saveModel(out, model);
+    const model = await trainToFile(frames, request, out, { signal: io.signal, onProgress: progressReporter(io, 'train') });
     io.out(describeModel(model) + '\n');
     io.out(`model written to ${out}\n`);
     return 0;

@@ -1,10 +1,12 @@
 // `polarweave validate`: k-fold cross-validation of a training request, for one route or both, with an
-// optional learning curve; prints RMSE and %RMSE of the λ=0 and λ=2 parts of ε (and α_CM) and a plain verdict.
+// optional learning curve; prints the RMSE of the isotropic and anisotropic parts of ε (and α_CM), each also as a
+// percentage of the spread of the reference, and a plain verdict. The figures: core/learning/error-figures.ts.
 import type { ErrorBarCheck } from '../../core/learning/calibration.ts';
-import { parseArgs, UsageError } from '../args.ts';
+import { commandArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import type { ErrorFigures, Route } from '../../core/learning/model-types.ts';
-import { validate, validateValues, type ValueErrorFigures } from '../../core/learning/validation.ts';
+import { validateValues, type ValueErrorFigures } from '../../core/learning/validation.ts';
+import { fmtPct, validateRoutes, verdict, verdictOf } from '../../app/learning.ts';
 import { checkTargetOptions, parseRequest, parseRoute, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf } from '../learn-options.ts';
 
 const options = [
@@ -15,36 +17,17 @@ const options = [
   ...settingOptions,
 ];
 
-/** Rule-of-thumb verdict thresholds on %RMSE (common practice, no source). */
-export const GOOD_PERCENT = 10;
-export const USABLE_PERCENT = 30;
-
-export function verdict(e: ErrorFigures): string {
-  return verdictOf(Math.max(e.percentIso, e.percentAniso), 'both %RMSE');
-}
-
-/** The verdict on the worst %RMSE of a validation; `what` names the figures for the good case. */
-function verdictOf(worst: number, what: string): string {
-  if (worst <= GOOD_PERCENT) return `good (${what} ≤ ${GOOD_PERCENT} %)`;
-  if (worst <= USABLE_PERCENT) return `usable with care (worst %RMSE ${fmtPct(worst)}, between ${GOOD_PERCENT} and ${USABLE_PERCENT} %)`;
-  return `poor (worst %RMSE ${fmtPct(worst)} > ${USABLE_PERCENT} %): more or more varied training data, or other settings, are needed`;
-}
-
-function fmtPct(p: number): string {
-  return Number.isFinite(p) ? `${p.toFixed(1)} %` : 'undefined (the reference does not vary)';
-}
-
 export function formatErrors(e: ErrorFigures, units: string): string {
   const g = (x: number) => x.toPrecision(3);
   return (
-    `λ=0: RMSE ${g(e.rmseIso)}${units}  %RMSE ${fmtPct(e.percentIso)}  R² ${g(e.r2Iso)}\n` +
-    `λ=2: RMSE ${g(e.rmseAniso)}${units}  %RMSE ${fmtPct(e.percentAniso)}  R² ${g(e.r2Aniso)}`
+    `isotropic (tr/3):         RMSE ${g(e.rmseIso)}${units}  ${fmtPct(e.percentIso)} of the spread  R² ${g(e.r2Iso)}\n` +
+    `anisotropic (anisotropy): RMSE ${g(e.rmseAniso)}${units}  ${fmtPct(e.percentAniso)} of the spread  R² ${g(e.r2Aniso)}`
   );
 }
 
 export function formatValueErrors(e: ValueErrorFigures): string {
   const g = (x: number) => x.toPrecision(3);
-  return `RMSE ${g(e.rmse)}  %RMSE ${fmtPct(e.percent)}  R² ${g(e.r2)}  largest error ${g(e.maxError)} (in the property's own units)`;
+  return `RMSE ${g(e.rmse)}  ${fmtPct(e.percent)} of the spread  R² ${g(e.r2)}  largest error ${g(e.maxError)} (in the property's own units)`;
 }
 
 export const validateCommand: Command = {
@@ -52,13 +35,13 @@ export const validateCommand: Command = {
   summary: 'cross-validate a model of a cell tensor (both routes by default), dipole or scalar, and say whether it is good',
   usage: 'IN --tensor KEY --as eps|alpha-c|alpha-cm [--folds K] [--learning-curve 10,20,40] [--route cm|direct|both]   (--as only for a tensor)',
   description:
-    'Tensor errors are of the irreducible parts: RMSE λ=0 = sqrt(mean (ΔT⁰)²), RMSE λ=2 = sqrt(mean Σ_μ (ΔT²_μ)²),\n' +
-    '%RMSE = RMSE / standard deviation of the reference over the frames; compared on ε and on α_CM.\n' +
+    'Tensor errors are in the tensor\'s units: isotropic = RMSE of tr/3; anisotropic = root mean square over frames\n' +
+    'of the anisotropy √(3/2)·‖ΔT − tr ΔT/3‖ of the error tensor (the eps_aniso invariant of predict\'s CSV).\n' +
+    '"of the spread" = RMSE / standard deviation of the reference over the frames; compared on ε and on α_CM.\n' +
     'A dipole (3 numbers) is compared as a vector, RMSE = sqrt(mean |Δμ|²); a scalar as it is.',
   options,
   async run(argv, io) {
-    const args = parseArgs(argv, options);
-    if (args.positionals.length !== 1) throw new UsageError('give exactly one input file');
+    const { args } = commandArgs(argv, options, { inputs: 1, missing: 'give exactly one input file' });
     const folds = Number(args.options.folds);
     if (!Number.isInteger(folds) || folds < 2) throw new UsageError(`--folds must be a whole number ≥ 2, got "${args.options.folds}"`);
     let curve: number[] | undefined;
@@ -78,35 +61,27 @@ export const validateCommand: Command = {
       const what = shape === 'vector' ? `vector "${report.key}" (compared as a whole: RMSE of |Δv|)` : `scalar "${report.key}"`;
       io.out(`${what}: ${folds}-fold cross-validation over ${report.errors.count} frames\n`);
       io.out(`  ${formatValueErrors(report.errors)}\n`);
-      for (const lc of report.learningCurve) io.out(`  learning curve, ${lc.trainSize} training frames: %RMSE ${fmtPct(lc.errors.percent)}\n`);
+      for (const lc of report.learningCurve) io.out(`  learning curve, ${lc.trainSize} training frames: error ${fmtPct(lc.errors.percent)} of the spread\n`);
       if (report.skippedSizes.length) io.out(`  learning-curve sizes skipped (more than the training folds hold): ${report.skippedSizes.join(', ')}\n`);
-      io.out(`  verdict (rule of thumb): ${verdictOf(report.errors.percent, '%RMSE')}\n`);
+      io.out(`  verdict (rule of thumb): ${verdictOf(report.errors.percent, 'the error')}\n`);
       io.out(errorBarLine(report.errorBars));
-      io.out('Rule-of-thumb thresholds: good ≤ 10 %RMSE, usable ≤ 30 %RMSE (common practice, no source). Predictions are model estimates.\n');
+      io.out('Rule-of-thumb thresholds: good ≤ 10 % of the spread, usable ≤ 30 % (common practice, no source). Predictions are model estimates.\n');
       return 0;
     }
-    const summary: { route: Route; eps: ErrorFigures }[] = [];
-    for (const route of routes) {
-      const request = parseRequest(args, route);
-      const report = await validate(frames, request, { folds, learningCurve: curve }, { signal: io.signal, onProgress: progressReporter(io, `validate ${route}`) });
+    const { reports, better } = await validateRoutes(frames, (route) => parseRequest(args, route), routes, { folds, learningCurve: curve }, (route) => ({ signal: io.signal, onProgress: progressReporter(io, `validate ${route}`) }));
+    for (const { route, report } of reports) {
       io.out(`route ${route}: ${folds}-fold cross-validation over ${report.errors.count} frames\n`);
       io.out(`  on ε:\n${indent(formatErrors(report.errors, ''), 4)}\n`);
       for (const o of report.alsoOn) io.out(`  on ${o.target}:\n${indent(formatErrors(o.errors, ' Å³'), 4)}\n`);
       for (const lc of report.learningCurve) {
-        io.out(`  learning curve, ${lc.trainSize} training frames: %RMSE ε λ=0 ${fmtPct(lc.errors.percentIso)}, λ=2 ${fmtPct(lc.errors.percentAniso)}\n`);
+        io.out(`  learning curve, ${lc.trainSize} training frames: error of ε, isotropic ${fmtPct(lc.errors.percentIso)}, anisotropic ${fmtPct(lc.errors.percentAniso)} of the spread\n`);
       }
       if (report.skippedSizes.length) io.out(`  learning-curve sizes skipped (more than the training folds hold): ${report.skippedSizes.join(', ')}\n`);
       io.out(`  verdict (rule of thumb, on ε): ${verdict(report.errors)}\n`);
       io.out(errorBarLine(report.errorBars));
-      summary.push({ route, eps: report.errors });
     }
-    if (summary.length === 2) {
-      const [a, b] = summary;
-      const score = (e: ErrorFigures) => e.rmseIso ** 2 + e.rmseAniso ** 2;
-      const better = score(a.eps) <= score(b.eps) ? a : b;
-      io.out(`comparison on ε: route ${better.route} has the smaller total RMSE (cm ${Math.sqrt(score(a.eps)).toPrecision(3)}, direct ${Math.sqrt(score(b.eps)).toPrecision(3)})\n`);
-    }
-    io.out('Rule-of-thumb thresholds: good ≤ 10 %RMSE, usable ≤ 30 %RMSE (common practice, no source). Predictions are model estimates.\n');
+    if (better) io.out(`comparison on ε: route ${better.route} has the smaller root-mean-square error of the whole tensor (cm ${better.totals.cm.toPrecision(3)}, direct ${better.totals.direct.toPrecision(3)})\n`);
+    io.out('Rule-of-thumb thresholds: good ≤ 10 % of the spread, usable ≤ 30 % (common practice, no source). Predictions are model estimates.\n');
     return 0;
   },
 };

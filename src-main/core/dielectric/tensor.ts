@@ -240,8 +240,26 @@ export function isotropicMean(T: Mat3): number {
  * isotropic tensor; for an axial tensor diag(a, a, b) it is |b − a|.
  */
 export function anisotropy(T: Mat3): number {
-  const p = toIrreducible(T);
+  return anisotropyOfParts(toIrreducible(T));
+}
+
+/** tr/3 of the tensor with irreducible parts [T⁰, T²₋₂…T²₂] (T⁰ = tr/√3). */
+export function isotropicOfParts(parts: ArrayLike<number>): number {
+  return parts[0] / S3;
+}
+
+/** The anisotropy Δ = √(3/2)·‖T²‖ (see `anisotropy`) of the tensor with irreducible parts [T⁰, T²₋₂…T²₂]. */
+export function anisotropyOfParts(p: ArrayLike<number>): number {
   return Math.sqrt(1.5 * (p[1] * p[1] + p[2] * p[2] + p[3] * p[3] + p[4] * p[4] + p[5] * p[5]));
+}
+
+/**
+ * The Cartesian components xx, yy, zz, xy, xz, yz of the anisotropic part T − (tr T/3) I of the tensor with
+ * irreducible parts [T⁰, T²₋₂…T²₂]: what a user reads off a table of the tensor, minus its mean.
+ */
+export function anisotropicComponentsOfParts(p: ArrayLike<number>): number[] {
+  const A = fromIrreducible([0, p[1], p[2], p[3], p[4], p[5]]);
+  return [A[0], A[4], A[8], A[1], A[2], A[5]];
 }
 
 // ---------------------------------------------------------------------------------------------------------

@@ -114,11 +114,13 @@ export interface ParityPoint {
   predicted: number[];
 }
 
+/** Error figures in the tensor's units (definitions in core/learning/error-figures.ts). */
 export interface ErrorFigures {
-  /** RMSE of the λ=0 part, of the λ=2 part (over its 5 components, per frame norm). */
+  /** RMSE of the isotropic value tr/3 (ε_iso). */
   rmseIso: number;
+  /** RMS over frames of the anisotropy √(3/2)‖ΔT − tr ΔT/3‖ of the error tensor (the eps_aniso invariant). */
   rmseAniso: number;
-  /** RMSE / standard deviation of the reference, in percent. */
+  /** Error relative to the spread of the data: RMSE / standard deviation of the reference, in percent. */
   percentIso: number;
   percentAniso: number;
   r2Iso: number;

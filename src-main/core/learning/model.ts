@@ -21,10 +21,10 @@ import {
   type KernelExpansion,
   type Order,
 } from './kernels.ts';
-import type { Applicability, FramePrediction, ModelSettings, Route, TensorKind, TrainRequest, WorkHooks } from './model-types.ts';
+import type { Applicability, FramePrediction, ModelSettings, Route, TensorKind, TrainRequest, TuneGrid, WorkHooks } from './model-types.ts';
 import { makeRng } from '../numerics/random.ts';
 import { cachedNearestSearch, searchNearest } from './nearest-search.ts';
-import { tuneCombinations, tuneSettings } from './tuning.ts';
+import { tuneCombinations, tuneSettingsWith, type TuneResult } from './tuning.ts';
 import { fitRidge, foldsOf, heldOutRows, posteriorVariance, primalWeights, type Design } from './regression.ts';
 import { calibratePart, type Calibration, type PartCalibration } from './calibration.ts';
 import {
@@ -739,6 +739,11 @@ function targetStatistics(y: Float64Array, frames: number, c: number): TrainingS
   return { mean, std: std.map(Math.sqrt), min, max };
 }
 
+/** Choose the settings of `grid` by cross-validation on the frames (core/learning/tuning.ts with this file's trainer). */
+export function tuneSettings(frames: Frame[], request: TrainRequest, grid: TuneGrid, hooks: WorkHooks = {}): Promise<TuneResult> {
+  return tuneSettingsWith((f, r, signal) => trainWithFeaturiser(f, r, null, { signal }, { applicability: false }), frames, request, grid, hooks);
+}
+
 /**
  * Train a model on frames (the contract of model-types.ts). With `request.tune`, the listed settings are first
  * chosen by cross-validation on the same frames (core/learning/tuning.ts); the choice is recorded in the model's notes.
@@ -809,9 +814,21 @@ function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, r
     }
   }
   if (model.leverage?.posterior) leverage = partLeverage(model, model.leverage, fe);
+  requireFinite(frame, total);
   const applicability = applicabilityOf(model, frame, fe, pairs);
   applicability.variance = variance;
   return { irreducible: total, localIrreducible: local, components: C, applicability, uncertainty: uncertaintyOf(model, leverage, C) };
+}
+
+/** A model whose numbers overflow on a frame is damaged or far out of its range: no number rather than a non-finite one. */
+function requireFinite(frame: Frame, ...values: ArrayLike<number>[]): void {
+  for (const v of values) {
+    for (let i = 0; i < v.length; i++) {
+      if (Number.isFinite(v[i])) continue;
+      const at = frame.source ? ` (${frame.source.file}, frame ${frame.source.index})` : '';
+      throw new ModelError(`the model gives a non-finite prediction${at}: its stored numbers are damaged or far out of range; retrain or restore the model file`);
+    }
+  }
 }
 
 /** Predicts one frame (features included): what `predict` runs per frame. */
@@ -983,6 +1000,7 @@ export function framePredictionFrom(model: Model, frame: Frame, pred: TargetPred
   const v = frameVolume(frame, index);
   const learnt = fromIrreducible(pred.irreducible);
   const { alphaCM, alphaC, eps } = tensorsFromLearnt(learnt, model.target.route, v);
+  requireFinite(frame, alphaCM, alphaC, eps);
   const n = frame.species.length;
   const local = new Float64Array(n * 9);
   // route direct: contributions to ε − I of this cell, (4π/V) × the local α_c contribution (model-types.ts).

@@ -3,11 +3,19 @@
 // candidate values is trained once; its score is the cross-validated squared error of the learnt target summed
 // over its irreducible components (λ=0 and the 2λ+1 components of λ>0), as reported by the regulariser's CV.
 // The winner's score is slightly optimistic (it was selected on the same folds); validate() gives an honest one.
+// The trainer is passed in (model.ts hands its own), so this file depends on no model code: no import cycle.
 import { InputError } from '../errors.ts';
 import type { Frame } from '../geometry/frame.ts';
 import type { ModelSettings, TrainRequest, TuneGrid, WorkHooks } from './model-types.ts';
-import { trainWithFeaturiser, type Model } from './model.ts';
 import { TUNABLE_SETTINGS } from '../settings-table.ts';
+
+/** What tuning needs of a trained model: each part's order and the cross-validated error of its regulariser. */
+export interface ScoredModel {
+  parts: readonly { order: number; regularisation: { cvError: number } }[];
+}
+
+/** Trains one candidate (without applicability, which tuning does not need). */
+export type CandidateTrainer = (frames: Frame[], request: TrainRequest, signal?: AbortSignal) => Promise<ScoredModel>;
 
 export interface TuneResult {
   best: Partial<ModelSettings>;
@@ -24,18 +32,18 @@ export function tuneCombinations(grid: TuneGrid): Partial<ModelSettings>[] {
   return combos;
 }
 
-export function crossValidatedScore(model: Model): number {
+export function crossValidatedScore(model: ScoredModel): number {
   return model.parts.reduce((s, p) => s + p.regularisation.cvError * (2 * p.order + 1), 0);
 }
 
-export async function tuneSettings(frames: Frame[], request: TrainRequest, grid: TuneGrid, hooks: WorkHooks = {}): Promise<TuneResult> {
+export async function tuneSettingsWith(train: CandidateTrainer, frames: Frame[], request: TrainRequest, grid: TuneGrid, hooks: WorkHooks = {}): Promise<TuneResult> {
   if (frames.length < 3) throw new InputError(`${frames.length} frames are too few to tune settings`, {}, 'tuning cross-validates; give at least 3 frames');
   const combos = tuneCombinations(grid);
   const table: TuneResult['table'] = [];
   for (let k = 0; k < combos.length; k++) {
     hooks.onProgress?.({ stage: 'tuning', done: k, total: combos.length });
     const settings = { ...(request.settings ?? {}), ...combos[k] };
-    const model = await trainWithFeaturiser(frames, { ...request, tune: undefined, settings }, null, { signal: hooks.signal }, { applicability: false });
+    const model = await train(frames, { ...request, tune: undefined, settings }, hooks.signal);
     table.push({ settings: combos[k], score: crossValidatedScore(model) });
   }
   hooks.onProgress?.({ stage: 'tuning', done: combos.length, total: combos.length });

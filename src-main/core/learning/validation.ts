@@ -1,10 +1,5 @@
-// k-fold cross-validation of a training request over whole frames, learning curves, and the error figures of
-// the irreducible parts (definitions in docs/learning-engine.md, "Validation"):
-//   RMSE λ=0  = sqrt( mean over frames of (ΔT⁰)² )
-//   RMSE λ=2  = sqrt( mean over frames of Σ_μ (ΔT²_μ)² )          (the per-frame norm of the 5-component error)
-//   %RMSE     = 100 · RMSE / SD, SD λ=0 = population standard deviation of the reference T⁰ over frames,
-//               SD λ=2 = sqrt( mean over frames of Σ_μ (T²_μ − mean_μ)² )
-//   R²        = 1 − Σ Δ² / Σ (T − mean)²   (over the same components)
+// k-fold cross-validation of a training request over whole frames and learning curves. The error figures are
+// core/learning/error-figures.ts's, in the tensor's own units (definitions in docs/learning-engine.md, "Validation").
 // Tensor targets are compared on ε and on α_CM, whichever route was learnt.
 import { convertTensor } from '../dielectric/clausius-mossotti.ts';
 import { CancelledError, InputError } from '../errors.ts';
@@ -28,44 +23,8 @@ import { frameVolume, learntTensor, readTensor, readValues, shapeOfValues, vecto
 import { ZCollector, type ErrorBarCheck } from './calibration.ts';
 import { toIrreducible } from '../dielectric/tensor.ts';
 
-/** Error figures of paired 6-component irreducible vectors [T⁰, T²₋₂…T²₂]. */
-export function errorFigures(reference: ArrayLike<number>[], predicted: ArrayLike<number>[]): ErrorFigures {
-  const n = reference.length;
-  if (n === 0 || predicted.length !== n) throw new RangeError('errorFigures: need equal, non-empty lists');
-  const mean = new Float64Array(6);
-  for (const r of reference) for (let k = 0; k < 6; k++) mean[k] += r[k] / n;
-  let sseIso = 0;
-  let sstIso = 0;
-  let sseAniso = 0;
-  let sstAniso = 0;
-  for (let i = 0; i < n; i++) {
-    const r = reference[i];
-    const p = predicted[i];
-    sseIso += (p[0] - r[0]) ** 2;
-    sstIso += (r[0] - mean[0]) ** 2;
-    for (let k = 1; k < 6; k++) {
-      sseAniso += (p[k] - r[k]) ** 2;
-      sstAniso += (r[k] - mean[k]) ** 2;
-    }
-  }
-  const rmseIso = Math.sqrt(sseIso / n);
-  const rmseAniso = Math.sqrt(sseAniso / n);
-  const sdIso = Math.sqrt(sstIso / n);
-  const sdAniso = Math.sqrt(sstAniso / n);
-  // With a constant reference the relative figures are undefined; report them as infinite error / R² 0
-  // rather than NaN so that nothing downstream mistakes them for numbers.
-  const pct = (rmse: number, sd: number) => (sd > 0 ? (100 * rmse) / sd : rmse > 0 ? Infinity : 0);
-  const r2 = (sse: number, sst: number) => (sst > 0 ? 1 - sse / sst : sse > 0 ? -Infinity : 1);
-  return {
-    rmseIso,
-    rmseAniso,
-    percentIso: pct(rmseIso, sdIso),
-    percentAniso: pct(rmseAniso, sdAniso),
-    r2Iso: r2(sseIso, sstIso),
-    r2Aniso: r2(sseAniso, sstAniso),
-    count: n,
-  };
-}
+export { errorFigures } from './error-figures.ts';
+import { errorFigures } from './error-figures.ts';
 
 /** A second comparison reported beside the main one (e.g. α_CM when the main one is ε). */
 export interface SecondaryComparison {

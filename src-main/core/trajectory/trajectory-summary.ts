@@ -20,6 +20,9 @@ export interface ComponentStats {
   stats: BlockAverage;
 }
 
+/** Fewest blocks a block size may leave in block averaging, unless the caller says otherwise (analyse, the window). */
+export const DEFAULT_MIN_BLOCKS = 8;
+
 export interface TensorStats {
   mean: Mat3;
   /** Per component (xx yy zz yz xz xy). */
@@ -60,7 +63,7 @@ function linearised(series: Float64Array, mean: Mat3, grad: ArrayLike<number>): 
   return g;
 }
 
-export function tensorStats(series: Float64Array, minBlocks = 8): TensorStats {
+export function tensorStats(series: Float64Array, minBlocks = DEFAULT_MIN_BLOCKS): TensorStats {
   const n = series.length / 9;
   if (!Number.isInteger(n) || n < 2) throw new RangeError(`tensorStats: need 9 numbers per frame and at least 2 frames, got ${series.length} numbers`);
   const mean = meanTensor(series);
@@ -93,12 +96,18 @@ export interface OpticalStats {
   birefringenceError: number;
   /** Block-averaging of the linearised series behind each error (n_1, n_2, n_3, Δn), for the plateau report. */
   stats: BlockAverage[];
+  /**
+   * Per frame, the indices along the principal axes of the mean ε to first order, n_k + δn_k(t): the series
+   * whose mean is n_k and whose block-averaged error is nErrors[k] (what a chart of indices against time shows;
+   * sorting each frame's own indices instead would push n_1 down and n_3 up, a Δn even for an isotropic liquid).
+   */
+  series: Float64Array[];
   /** Pairs of principal values closer than the sum of their errors (not resolved by this trajectory). */
   unresolved: [number, number][];
   method: string;
 }
 
-export function opticalStats(epsSeries: Float64Array, minBlocks = 8): OpticalStats {
+export function opticalStats(epsSeries: Float64Array, minBlocks = DEFAULT_MIN_BLOCKS): OpticalStats {
   const mean = meanTensor(epsSeries);
   const { values, vectors } = symmetricEigen(mean);
   const principal = Array.from(values);
@@ -107,6 +116,7 @@ export function opticalStats(epsSeries: Float64Array, minBlocks = 8): OpticalSta
   const stats: BlockAverage[] = [];
   const gk: Float64Array[] = [];
   const principalErrors: number[] = [];
+  const series: Float64Array[] = [];
   for (let k = 0; k < 3; k++) {
     // v_k is column k of the eigenvector matrix
     const v = [vectors[k], vectors[3 + k], vectors[6 + k]];
@@ -118,6 +128,7 @@ export function opticalStats(epsSeries: Float64Array, minBlocks = 8): OpticalSta
     principalErrors.push(b.standardError);
     const gn = g.map((x) => x / (2 * n[k]));
     stats.push(blockAverage(gn, minBlocks));
+    series.push(gn.map((x) => n[k] + x));
   }
   const dn = new Float64Array(gk[0].length);
   for (let f = 0; f < dn.length; f++) dn[f] = gk[2][f] / (2 * n[2]) - gk[0][f] / (2 * n[0]);
@@ -133,6 +144,7 @@ export function opticalStats(epsSeries: Float64Array, minBlocks = 8): OpticalSta
     birefringence: n[2] - n[0],
     birefringenceError: dnStats.standardError,
     stats,
+    series,
     unresolved,
     method:
       'principal values, indices and birefringence are those of the mean ε; their errors by the delta method: the per-frame first-order change (∂f/∂ε at the mean)·(ε_t − ε̄), block-averaged like the components (first-order perturbation theory for the eigenvalues)',

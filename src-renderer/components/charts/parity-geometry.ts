@@ -1,16 +1,26 @@
 // Geometry of the parity chart (reference against predicted), kept out of the component so it can be tested
 // without a browser: which numbers are plotted for each part, the common axis range of both axes, the error
 // figures of what is plotted, and the frames with the largest errors.
-import type { ParityPointJ } from '../../../src-main/api/contract.ts';
+// Values are shown in the tensor's own units (ε dimensionless, α in Å³): the isotropic value tr/3, and the
+// anisotropic part T − (tr/3) I as its Cartesian components or its anisotropy (the eps_aniso invariant). The
+// error figures are the engine's (core/learning/error-figures.ts), also for a group of dots.
+import type { ErrorFiguresJ, ParityPointJ } from '../../../src-main/api/contract.ts';
+import { anisotropicComponentsOfParts, anisotropyOfParts, isotropicOfParts } from '../../../src-main/core/dielectric/tensor.ts';
+import { errorFigures } from '../../../src-main/core/learning/error-figures.ts';
 
 /** Which irreducible part is plotted. */
 export type ParityPart = 'iso' | 'aniso';
 
 /**
- * How the λ=2 part is shown: 'components' pools the five T²_μ of every frame (5 dots a frame);
- * 'norm' plots the rotation invariant ‖T²‖ = (Σ_μ T²_μ²)^½ once a frame.
+ * How the anisotropic part is shown: 'components' pools the six Cartesian components xx, yy, zz, xy, xz, yz of
+ * T − (tr/3) I of every frame (6 dots a frame); 'norm' plots its anisotropy √(3/2)‖T − (tr/3) I‖ once a frame
+ * (the invariant of the prediction CSV's eps_aniso column; for an axial tensor |ε∥ − ε⊥|).
  */
 export type AnisoMode = 'components' | 'norm';
+
+/** The components of the anisotropic part, in the order of anisotropicComponentsOfParts. */
+export const ANISO_COMPONENTS = ['xx', 'yy', 'zz', 'xy', 'xz', 'yz'] as const;
+export type AnisoComponent = (typeof ANISO_COMPONENTS)[number];
 
 export interface ParityDatum {
   /** Reference value (x). */
@@ -21,8 +31,8 @@ export interface ParityDatum {
   frame: number;
   /** Position of the point in the input array. */
   point: number;
-  /** μ = −2…2 for a pooled λ=2 component; null for T⁰ and ‖T²‖. */
-  mu: number | null;
+  /** The Cartesian component (xx … yz) of a pooled anisotropic component; null for tr/3 and the anisotropy. */
+  component: AnisoComponent | null;
   /** Index into the group list. */
   group: number;
 }
@@ -38,17 +48,15 @@ export interface ParitySeries {
 function checkPoint(p: ParityPointJ, i: number): void {
   if (p.reference.length !== 6 || p.predicted.length !== 6) {
     throw new RangeError(
-      `parity point ${i} (frame ${p.frame}): reference and predicted need 6 numbers each [T⁰, T²₋₂…T²₂], ` +
+      `parity point ${i} (frame ${p.frame}): reference and predicted need 6 numbers each (the irreducible parts of docs/science-conventions.md), ` +
         `got ${p.reference.length} and ${p.predicted.length}`,
     );
   }
 }
 
-/** ‖T²‖ of a 6-vector [T⁰, T²₋₂…T²₂]. */
+/** The anisotropy √(3/2)‖T²‖ of a 6-vector [T⁰, T²₋₂…T²₂] (same invariant as the CSV's eps_aniso). */
 export function anisoNorm(parts: readonly number[]): number {
-  let s = 0;
-  for (let k = 1; k < 6; k++) s += parts[k] * parts[k];
-  return Math.sqrt(s);
+  return anisotropyOfParts(parts);
 }
 
 /**
@@ -77,16 +85,20 @@ export function paritySeries(
       names.push(name);
       index.set(name, g);
     }
-    const push = (x: number, y: number, mu: number | null) => {
+    const push = (x: number, y: number, component: AnisoComponent | null) => {
       if (!Number.isFinite(x) || !Number.isFinite(y)) {
-        skipped.push({ point: i, frame: p.frame, reason: `non-finite value${mu === null ? '' : ` (μ=${mu})`}` });
+        skipped.push({ point: i, frame: p.frame, reason: `non-finite value${component === null ? '' : ` (${component})`}` });
         return;
       }
-      data.push({ x, y, frame: p.frame, point: i, mu, group: g });
+      data.push({ x, y, frame: p.frame, point: i, component, group: g });
     };
-    if (part === 'iso') push(p.reference[0], p.predicted[0], null);
+    if (part === 'iso') push(isotropicOfParts(p.reference), isotropicOfParts(p.predicted), null);
     else if (anisoMode === 'norm') push(anisoNorm(p.reference), anisoNorm(p.predicted), null);
-    else for (let k = 1; k < 6; k++) push(p.reference[k], p.predicted[k], k - 3);
+    else {
+      const r = anisotropicComponentsOfParts(p.reference);
+      const q = anisotropicComponentsOfParts(p.predicted);
+      ANISO_COMPONENTS.forEach((c, k) => push(r[k], q[k], c));
+    }
   });
   return { data, groups: names, skipped };
 }
@@ -110,37 +122,38 @@ export function parityDomain(data: readonly { x: number; y: number }[], pad = 0.
 
 export interface PlottedFigures {
   rmse: number;
-  /** RMSE / (population) standard deviation of the reference values, in percent. */
+  /** Error relative to the spread of the data: RMSE / (population) standard deviation of the reference, in percent. */
   percent: number;
-  /** 1 − Σ(y−x)² / Σ(x−x̄)²; equals 1 − (percent/100)² with the population standard deviation. */
+  /** 1 − (percent/100)². */
   r2: number;
+  /** Frames. */
   count: number;
 }
 
-/** Error figures of the plotted values (used for the ‖T²‖ view, whose figures the engine does not report). */
-export function plottedFigures(data: readonly { x: number; y: number }[]): PlottedFigures {
-  const n = data.length;
-  if (n === 0) return { rmse: NaN, percent: NaN, r2: NaN, count: 0 };
-  let mean = 0;
-  for (const d of data) mean += d.x;
-  mean /= n;
-  let ssRes = 0;
-  let ssTot = 0;
-  for (const d of data) {
-    ssRes += (d.y - d.x) ** 2;
-    ssTot += (d.x - mean) ** 2;
-  }
-  const rmse = Math.sqrt(ssRes / n);
-  const std = Math.sqrt(ssTot / n);
-  return { rmse, percent: std > 0 ? (100 * rmse) / std : NaN, r2: ssTot > 0 ? 1 - ssRes / ssTot : NaN, count: n };
-}
 
 export interface FrameError {
   frame: number;
   point: number;
   label?: string;
-  /** |ΔT⁰| for 'iso'; ‖ΔT²‖ (Euclidean over the five components) for 'aniso'. */
+  /** |Δ(tr/3)| for 'iso'; the anisotropy of the error tensor for 'aniso' (the measure of the error figures). */
   error: number;
+}
+
+/**
+ * The error figures of a set of points (e.g. one group of dots), from the same function as the engine's report:
+ * the same numbers whichever way the anisotropic part is drawn.
+ */
+export function pointFigures(points: readonly ParityPointJ[], part: ParityPart): PlottedFigures {
+  const ok = points.filter((p) => p.reference.every(Number.isFinite) && p.predicted.every(Number.isFinite));
+  if (ok.length === 0) return { rmse: NaN, percent: NaN, r2: NaN, count: 0 };
+  return figuresOfPart(errorFigures(ok.map((p) => p.reference), ok.map((p) => p.predicted)), part);
+}
+
+/** The figures of one part out of the engine's ErrorFigures. */
+export function figuresOfPart(e: ErrorFiguresJ, part: ParityPart): PlottedFigures {
+  return part === 'iso'
+    ? { rmse: e.rmseIso, percent: e.percentIso, r2: e.r2Iso, count: e.count }
+    : { rmse: e.rmseAniso, percent: e.percentAniso, r2: e.r2Aniso, count: e.count };
 }
 
 /** Frames sorted by their error in the given part, largest first (at most `limit`). */
@@ -148,13 +161,8 @@ export function worstFrames(points: readonly ParityPointJ[], part: ParityPart, l
   const out: FrameError[] = [];
   points.forEach((p, i) => {
     checkPoint(p, i);
-    let e: number;
-    if (part === 'iso') e = Math.abs(p.predicted[0] - p.reference[0]);
-    else {
-      let s = 0;
-      for (let k = 1; k < 6; k++) s += (p.predicted[k] - p.reference[k]) ** 2;
-      e = Math.sqrt(s);
-    }
+    const d = p.predicted.map((v, k) => v - p.reference[k]);
+    const e = part === 'iso' ? Math.abs(isotropicOfParts(d)) : anisotropyOfParts(d);
     if (Number.isFinite(e)) out.push({ frame: p.frame, point: i, label: p.label, error: e });
   });
   out.sort((a, b) => b.error - a.error);

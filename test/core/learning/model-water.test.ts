@@ -11,7 +11,7 @@ import { makeRng } from '../../../src-main/core/numerics/random.ts';
 import { rotateTensor, toIrreducible } from '../../../src-main/core/dielectric/tensor.ts';
 import { parseExtxyz } from '../../../src-main/io/extxyz.ts';
 import { parseModel, serialiseModel } from '../../../src-main/io/model-file.ts';
-import { tuneSettings } from '../../../src-main/core/learning/tuning.ts';
+import { tuneSettings } from '../../../src-main/core/learning/model.ts';
 import { moleculeContributions } from '../../../src-main/core/geometry/molecules.ts';
 import { MIRROR, randomRotations, transformFrame } from '../../helpers/equivariance-harness.ts';
 

@@ -5,10 +5,12 @@ import { parseExtxyz } from '../../../src-main/io/extxyz.ts';
 
 describe('error figures of the irreducible parts', () => {
   it('follow the documented definitions (values worked by hand)', () => {
-    // reference T⁰: 1, 2, 3 (mean 2, population SD sqrt(2/3)); predicted 1, 2, 4 → RMSE sqrt(1/3)
+    // In the tensor's units (core/learning/error-figures.ts): isotropic value tr/3 = T⁰/√3, anisotropy √(3/2)·‖T²‖.
+    // reference T⁰: 1, 2, 3 (mean 2, population SD sqrt(2/3)); predicted 1, 2, 4 → RMSE of T⁰ sqrt(1/3),
+    //   so RMSE of tr/3 = sqrt(1/3)/√3 = 1/3; the relative figures do not depend on the scale.
     // reference T²: (1,0,0,0,0), (0,1,0,0,0), (0,0,0,0,0); predicted all zero →
-    //   RMSE λ=2 = sqrt((1 + 1 + 0)/3) = sqrt(2/3); mean T² = (1/3, 1/3, 0, 0, 0),
-    //   SD λ=2 = sqrt(mean Σ_μ (T²_μ − mean_μ)²) = sqrt(((4/9 + 1/9) + (1/9 + 4/9) + (1/9 + 1/9))/3) = sqrt(4/9)
+    //   RMS ‖ΔT²‖ = sqrt((1 + 1 + 0)/3) = sqrt(2/3), so the anisotropic RMSE = √(3/2)·sqrt(2/3) = 1;
+    //   mean T² = (1/3, 1/3, 0, 0, 0), SD of ‖T²‖ = sqrt(((4/9 + 1/9) + (1/9 + 4/9) + (1/9 + 1/9))/3) = sqrt(4/9)
     const ref = [
       [1, 1, 0, 0, 0, 0],
       [2, 0, 1, 0, 0, 0],
@@ -21,10 +23,10 @@ describe('error figures of the irreducible parts', () => {
     ];
     const e = errorFigures(ref, pred);
     expect(e.count).toBe(3);
-    expect(e.rmseIso).toBeCloseTo(Math.sqrt(1 / 3), 14);
+    expect(e.rmseIso).toBeCloseTo(1 / 3, 14);
     expect(e.percentIso).toBeCloseTo((100 * Math.sqrt(1 / 3)) / Math.sqrt(2 / 3), 12);
     expect(e.r2Iso).toBeCloseTo(1 - 1 / 2, 14);
-    expect(e.rmseAniso).toBeCloseTo(Math.sqrt(2 / 3), 14);
+    expect(e.rmseAniso).toBeCloseTo(1, 14);
     expect(e.percentAniso).toBeCloseTo((100 * Math.sqrt(2 / 3)) / Math.sqrt(4 / 9), 12);
     expect(e.r2Aniso).toBeCloseTo(1 - 2 / (4 / 3), 14);
   });

@@ -1,0 +1,60 @@
+// The train and validate use cases of the command line: train a model on frames and write it (atomic), and
+// cross-validate one route or both with the rule-of-thumb verdict on the errors. The window's train and
+// validate jobs run in app/tasks.ts on the same core functions (trainModel, validate).
+import type { Frame } from '../core/geometry/frame.ts';
+import { trainModel, type Model } from '../core/learning/model.ts';
+import { meanSquaredTensorError } from '../core/learning/error-figures.ts';
+import type { ErrorFigures, Route, TrainRequest, ValidationReport, WorkHooks } from '../core/learning/model-types.ts';
+import { validate } from '../core/learning/validation.ts';
+import { CancelledError } from '../core/errors.ts';
+import { saveModel } from '../io/model-file.ts';
+
+/** Train on the frames and write the model file (nothing is written when stopped). */
+export async function trainToFile(frames: Frame[], request: TrainRequest, output: string, hooks: WorkHooks = {}): Promise<Model> {
+  const model = await trainModel(frames, request, hooks);
+  if (hooks.signal?.aborted) throw new CancelledError();
+  await saveModel(output, model);
+  return model;
+}
+
+/** Cross-validate each route in turn; with two routes, also which one has the smaller root-mean-square error of the whole tensor on ε. */
+export async function validateRoutes(
+  frames: Frame[],
+  requestOf: (route: Route) => TrainRequest,
+  routes: Route[],
+  options: { folds: number; learningCurve?: number[] },
+  hooksOf: (route: Route) => WorkHooks,
+): Promise<{ reports: { route: Route; report: Awaited<ReturnType<typeof validate>> }[]; better: { route: Route; totals: Record<Route, number> } | null }> {
+  const reports: { route: Route; report: Awaited<ReturnType<typeof validate>> }[] = [];
+  for (const route of routes) reports.push({ route, report: await validate(frames, requestOf(route), options, hooksOf(route)) });
+  let better = null;
+  if (reports.length === 2) {
+    const score = (e: ErrorFigures) => meanSquaredTensorError(e);
+    const [a, b] = reports;
+    const totals = { [a.route]: Math.sqrt(score(a.report.errors)), [b.route]: Math.sqrt(score(b.report.errors)) } as Record<Route, number>;
+    better = { route: score(a.report.errors) <= score(b.report.errors) ? a.route : b.route, totals };
+  }
+  return { reports, better };
+}
+
+export type { ValidationReport };
+
+/** Rule-of-thumb verdict thresholds on the error relative to the spread of the data (common practice, no source). */
+export const GOOD_PERCENT = 10;
+export const USABLE_PERCENT = 30;
+
+export function verdict(e: ErrorFigures): string {
+  return verdictOf(Math.max(e.percentIso, e.percentAniso), 'both errors');
+}
+
+/** The verdict on the worst relative error of a validation; `what` names the figures for the good case. */
+export function verdictOf(worst: number, what: string): string {
+  if (worst <= GOOD_PERCENT) return `good (${what} ≤ ${GOOD_PERCENT} %)`;
+  if (worst <= USABLE_PERCENT) return `usable with care (worst error ${fmtPct(worst)} of the spread, between ${GOOD_PERCENT} and ${USABLE_PERCENT} %)`;
+  return `poor (worst error ${fmtPct(worst)} of the spread > ${USABLE_PERCENT} %): more or more varied training data, or other settings, are needed`;
+}
+
+export function fmtPct(p: number): string {
+  return Number.isFinite(p) ? `${p.toFixed(1)} %` : 'undefined (the reference does not vary)';
+}
+
