@@ -3,7 +3,8 @@
 // before the service (app/service.ts) sees it. Every value is plain JSON (tensors as number[9], row-major).
 import { z } from 'zod';
 import { DEFAULT_SETTINGS, MAX_SPECIES, NUMERIC_SETTINGS, settingSpec, settingsProblems, SPECIES_LABEL, type NumericSettingKey, type NumericSettingSpec } from '../core/settings-table.ts';
-import type { ErrorFigures, ModelSettings, ParityPoint, Route, TensorKind, ValidationReport } from '../core/learning/model-types.ts';
+import type { DomainReason, ErrorFigures, ModelSettings, ParityPoint, Route, TensorErrorBars, TensorKind, ValidationReport } from '../core/learning/model-types.ts';
+import type { SetSummary } from '../core/learning/set-summary.ts';
 import { MAX_REQUEST_BYTES } from '../core/limits.ts';
 
 // ---------------------------------------------------------------------------------------------------------
@@ -120,6 +121,11 @@ export interface ApplicabilityJ {
   atomsOutside: number;
   variance: number;
   outside: boolean;
+  /** Graded per-frame domain score and fraction of atoms outside (core/learning/domain.ts). */
+  score?: number;
+  fractionOutside?: number;
+  /** Why the frame or some atoms lie outside, worst first. */
+  reasons?: DomainReason[];
 }
 
 export interface FramePredictionJ {
@@ -131,6 +137,8 @@ export interface FramePredictionJ {
   /** Principal refractive indices √λ(ε), ascending. */
   refractive: number[];
   applicability: ApplicabilityJ;
+  /** Calibrated model error bars (one standard deviation), null when the model has no calibration. */
+  errorBars?: TensorErrorBars | null;
   /** The reference tensor of the frame in the model's target kind, if the file has it. */
   reference: Mat3J | null;
 }
@@ -142,6 +150,8 @@ export interface PredictionSummary {
   datasetName: string;
   frames: FramePredictionJ[];
   framesOutside: number;
+  /** Mean ε, principal n and Δn with model error bars, beside the references (core/learning/set-summary.ts). */
+  summary?: SetSummary;
 }
 
 /** One frame's prediction with per-atom detail (for the ellipsoid view). */
@@ -185,6 +195,10 @@ export interface TrajectoryStats {
   refractiveError: number[];
   /** n_3 − n_1 of the mean ε, with its delta-method error. */
   birefringence: number;
+  /** Per frame: flagged outside the training data (core/learning/domain.ts). */
+  outside?: boolean[];
+  /** Mean over frames of the per-frame model error bar of ε_iso (null without calibration): not reduced by averaging. */
+  modelErrorIso?: number | null;
   birefringenceError: number;
   /** Anisotropy √(3/2)‖ε̄ − tr ε̄/3‖ of the mean ε (the CSV's eps_aniso definition), with its error (NaN when ≈ 0). */
   anisotropy: { value: number; error: number | null };

@@ -41,7 +41,8 @@ export function predictionJ(fp: FramePrediction, frame: number, reference: Mat3 
     alphaCM: matJ(fp.alphaCM),
     alphaC: matJ(fp.alphaC),
     refractive: Array.from(refractiveIndices(fp.eps, { frame }).indices),
-    applicability: { maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside },
+    applicability: { maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, score: a.score, fractionOutside: a.fractionOutside, reasons: a.reasons },
+    errorBars: fp.errorBars,
     reference: reference ? matJ(reference) : null,
   };
 }
@@ -55,7 +56,8 @@ export function predictionFromJ(f: FramePredictionJ, local: number[], atomDistan
     alphaC: Float64Array.from(f.alphaC),
     eps: Float64Array.from(f.eps),
     local: Float64Array.from(local),
-    applicability: { atomDistance: Float64Array.from(atomDistance), maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside },
+    applicability: { atomDistance: Float64Array.from(atomDistance), maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, atomScore: new Float64Array(0), score: a.score ?? NaN, fractionOutside: a.fractionOutside ?? NaN, reasons: a.reasons ?? [] },
+    errorBars: f.errorBars ?? null,
   };
 }
 

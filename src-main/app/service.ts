@@ -1,6 +1,7 @@
 // The service behind api/contract.ts: holds the open datasets, trained models and predictions of one session, runs
 // long work (train, validate, predict) through the job runner, and answers the window's questions. The
 // Electron shell and the browser host both wrap one instance; neither adds behaviour of its own.
+import { setSummary } from '../core/learning/set-summary.ts';
 import { readdir } from 'node:fs/promises';
 import { basename, join } from 'node:path';
 import type {
@@ -296,6 +297,7 @@ export class AppService implements ApiService {
           datasetName: d.summary.name,
           frames,
           framesOutside: frames.filter((f) => f.applicability.outside).length,
+          summary: frames.length ? setSummary(frames.map((f) => ({ eps: f.eps, errorBars: f.errorBars, reference: f.reference, outside: f.applicability.outside }))) : undefined,
         };
         this.predictions.set(pid, { summary, route: m.summary.request.route, typed: out.predictions, frameIndices: out.frameIndices });
         return { kind: 'predict', prediction: summary };
@@ -408,7 +410,11 @@ export class AppService implements ApiService {
   async trajectoryStats(params: ApiParams<'trajectoryStats'>): Promise<TrajectoryStats> {
     const p = this.predictionRecord(params.predictionId);
     if (p.typed.length < 2) throw new ApiValidationError('a trajectory needs at least two predicted frames');
-    return trajectoryStatsJ(p.summary.id, p.frameIndices, p.typed);
+    return {
+      ...trajectoryStatsJ(p.summary.id, p.frameIndices, p.typed),
+      outside: p.typed.map((f) => f.applicability.outside),
+      modelErrorIso: p.summary.summary?.errorBars?.epsIso ?? null,
+    };
   }
 
   // ------------------------------------------------------------------------------------------------------

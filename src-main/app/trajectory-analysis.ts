@@ -7,6 +7,7 @@ import { runningMean } from '../core/trajectory/statistics.ts';
 import { infraredSpectrum, ramanSpectra, type Spectrum, type SpectrumOptions } from '../core/trajectory/spectra.ts';
 import { DEFAULT_MIN_BLOCKS, opticalStats, tensorStats, type OpticalStats, type TensorStats } from '../core/trajectory/trajectory-summary.ts';
 import { InputError } from '../core/errors.ts';
+import { summariseReasonTexts } from '../core/learning/domain.ts';
 import { writeFileAtomic } from '../io/atomic.ts';
 import { csvRecord } from '../io/csv.ts';
 import { tensorCsvWriter } from '../io/prediction/prediction-format.ts';
@@ -96,7 +97,7 @@ function applicabilityReport(s: TrajectorySeries, rows: Row[], lines: string[]):
     ranges.push(i === j ? String(outIdx[i]) : `${outIdx[i]}…${outIdx[j]}`);
     i = j + 1;
   }
-  lines.push(`applicability: ${outIdx.length} of ${n} frames have atoms outside the training data${outIdx.length ? ` (frames ${ranges.join(', ')}${ranges.length >= 12 ? ', …' : ''})` : ''}`);
+  lines.push(`applicability: ${outIdx.length} of ${n} frames flagged outside the training data${outIdx.length ? ` (frames ${ranges.join(', ')}${ranges.length >= 12 ? ', …' : ''})` : ''}`);
   rows.push({ section: 'applicability', quantity: 'frames_outside', component: '', value: outIdx.length, unit: 'frames' });
   if (s.atomsOutside) {
     let max = 0;
@@ -126,6 +127,28 @@ function applicabilityReport(s: TrajectorySeries, rows: Row[], lines: string[]):
     lines.push(`  largest distance to the training data: ${fmt(max, 4)} in frame ${at}${th}`);
     rows.push({ section: 'applicability', quantity: 'max_distance', component: String(at), value: max, unit: 'feature distance (0…2)' });
     if (s.threshold !== null) rows.push({ section: 'applicability', quantity: 'threshold', component: '', value: s.threshold, unit: 'feature distance (0…2)' });
+  }
+  if (s.reasons) {
+    const kinds = summariseReasonTexts(s.reasons.map((text, i) => ({ frame: s.frames[i], text })));
+    if (kinds.length === 0) lines.push('  no atom or frame outside the training ranges');
+    else lines.push('  reasons (frames in which each appears; the three worst per frame are recorded):');
+    for (const k of kinds.slice(0, 8)) {
+      lines.push(`    ${k.kind}: ${k.frames} frame${k.frames === 1 ? '' : 's'} (e.g. frame ${k.example.frame}: ${k.example.text})`);
+      rows.push({ section: 'applicability', quantity: 'reason', component: k.kind, value: k.frames, unit: 'frames' });
+    }
+    if (kinds.length > 8) lines.push(`    … and ${kinds.length - 8} more kinds`);
+  }
+  if (s.score) {
+    let max = -Infinity;
+    let at = 0;
+    s.score.forEach((v, i) => {
+      if (v > max) {
+        max = v;
+        at = s.frames[i];
+      }
+    });
+    lines.push(`  out-of-domain score: largest ${fmt(max, 3)} in frame ${at}`);
+    rows.push({ section: 'applicability', quantity: 'ood_score_max', component: String(at), value: max, unit: '' });
   }
   if (s.farthest.length > 0) {
     lines.push(`  farthest atoms: ${s.farthest.slice(0, 5).map((a) => `${a.species}${a.atom} in frame ${a.frame} (${fmt(a.distance, 3)})`).join(', ')}`);

@@ -124,4 +124,23 @@ export function checkModelContents(m: unknown, file: string): asserts m is Model
   const a = model.applicability;
   if (a.n0 !== n0 || a.p.length !== a.species.length * n0 || !inRange(a.species, nS) || !allFinite(a.p)) bad('applicability');
   if (a.perSpecies.length !== nS) bad('applicability thresholds');
+  checkTrustContents(model, bad);
+}
+
+/** Error-bar calibration, leverage part and domain ranges: optional (older files lack them and predict without). */
+function checkTrustContents(m: Model, bad: (what: string) => never): void {
+  if (m.calibration !== undefined) {
+    const parts = m.calibration?.parts;
+    if (!Array.isArray(parts) || !parts.every((c) => m.parts.some((p) => p.order === c.order) && Number.isFinite(c.varianceScale) && c.varianceScale > 0)) bad('error-bar calibration');
+  }
+  if (m.leverage !== undefined) {
+    const post = m.leverage?.posterior;
+    if (m.leverage?.order !== 0 || !(post?.factor instanceof Float64Array) || post.factor.length !== post.size ** 2 || !allFinite(post.factor)) bad('leverage part');
+  }
+  if (m.domain !== undefined) {
+    const d = m.domain;
+    const S = m.species.length;
+    const len = (r: { min: unknown[]; median: unknown[]; max: unknown[] } | undefined, n: number) => !!r && [r.min, r.median, r.max].every((x) => Array.isArray(x) && x.length === n);
+    if (!d || !len(d.nearest, S * S) || !len(d.count, S) || !len(d.scale, m.centres.length) || !Array.isArray(d.atomRate) || d.atomRate.length !== S || !(d.density?.tolerance >= 0)) bad('domain ranges');
+  }
 }

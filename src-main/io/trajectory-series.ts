@@ -41,6 +41,9 @@ export interface TrajectorySeries {
   atomsOutside: number[] | null;
   maxDistance: number[] | null;
   threshold: number | null;
+  /** Per frame: the graded out-of-domain score, and its reasons in words ('' when none), when the file has them. */
+  score: number[] | null;
+  reasons: string[] | null;
   /** Per-species sums of per-atom local tensors (extended XYZ with local_* arrays). */
   species: SpeciesSeries[] | null;
   /** What the local tensors are ("local_alpha_cm_A3": α_CM contributions in Å³; "local_eps_minus_1": to ε − 1). */
@@ -94,6 +97,8 @@ function fromCsv(t: CsvTable): TrajectorySeries {
   const outsideCol = col('outside');
   const atomsOutsideCol = col('atoms_outside');
   const maxDistanceCol = col('max_distance');
+  const scoreCol = col('ood_score');
+  const reasonOk = has('ood_reason') && PREDICTION_COLUMNS.some((c) => c.name === 'ood_reason');
   return {
     file: t.file,
     kind: 'csv',
@@ -108,6 +113,8 @@ function fromCsv(t: CsvTable): TrajectorySeries {
     atomsOutside: atomsOutsideCol ? Array.from(atomsOutsideCol) : null,
     maxDistance: maxDistanceCol ? Array.from(maxDistanceCol) : null,
     threshold: threshold && threshold.length > 0 ? threshold[0] : null,
+    score: scoreCol ? Array.from(scoreCol) : null,
+    reasons: reasonOk ? t.text('ood_reason') : null,
     species: null,
     localKind: null,
     farthest: [],
@@ -131,6 +138,8 @@ async function fromExtxyz(file: string, signal?: AbortSignal): Promise<Trajector
   let dipoleKey: string | null = null;
   const outside: boolean[] = [];
   const maxDistance: number[] = [];
+  const score: number[] = [];
+  const reasons: string[] = [];
   let species: SpeciesSeries[] | null = null;
   let speciesOf: number[] = [];
   let localKind: string | null = null;
@@ -168,6 +177,12 @@ async function fromExtxyz(file: string, signal?: AbortSignal): Promise<Trajector
     if (typeof out === 'boolean') outside.push(out);
     const md = fr.info[PRED_KEYS.maxDistance];
     if (typeof md === 'number') maxDistance.push(md);
+    const sc = fr.info[PRED_KEYS.score];
+    if (typeof sc === 'number') {
+      score.push(sc);
+      const r = fr.info[PRED_KEYS.reason];
+      reasons.push(typeof r === 'string' ? r : '');
+    }
     // per-species contributions from the per-atom local tensors
     const localName: string | null = k === 0 ? (([PRED_ARRAYS.localCM, PRED_ARRAYS.localDirect] as string[]).find((n) => fr.arrays[n]?.width === 9) ?? null) : localKind;
     if (k === 0 && localName) {
@@ -217,6 +232,8 @@ async function fromExtxyz(file: string, signal?: AbortSignal): Promise<Trajector
     atomsOutside: null,
     maxDistance: maxDistance.length === frames.length ? maxDistance : null,
     threshold: null,
+    score: score.length === frames.length ? score : null,
+    reasons: score.length === frames.length ? reasons : null,
     species,
     localKind,
     farthest,

@@ -49,3 +49,9 @@ export const ANISO_MEANING =
 export function targetName(target: string): string {
   return target === 'eps' ? 'ε∞ (dimensionless)' : target;
 }
+
+/** A value with its model error bar, "1.5632 ± 0.0015"; the bare value with "± —" when there is no error bar. */
+export function pm(v: number | null | undefined, sd: number | null | undefined, digits = 5): string {
+  const e = sd === null || sd === undefined || !Number.isFinite(sd) ? '—' : fmt(sd, 2);
+  return `${fmt(v, digits)} ± ${e}`;
+}

@@ -89,7 +89,7 @@ describe('polarweave analyse', () => {
     const seDn = Math.hypot(seTrue / (2 * Math.sqrt(2.3)), seTrue / (2 * Math.sqrt(2.0)));
     expect(dn.se / seDn).toBeGreaterThan(0.7);
     expect(dn.se / seDn).toBeLessThan(1.4);
-    expect(r.out).toMatch(/applicability: 85 of 8192 frames have atoms outside the training data \(frames 5, 102, 199/);
+    expect(r.out).toMatch(/applicability: 85 of 8192 frames flagged outside the training data \(frames 5, 102, 199/);
     expect(r.out).toMatch(/delta method/);
     const frames = parseCsv(readFileSync(p('ar1-frames.csv'), 'utf8'), 'f');
     expect(frames.records.length).toBe(n);

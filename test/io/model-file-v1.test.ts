@@ -1,11 +1,13 @@
 // A model file of format version 1 (written before the settings got their version-2 names) still loads and
-// predicts the same numbers: the CSV of `polarweave predict` equals the one recorded with the code of that time,
-// byte for byte apart from the identity line. Fixtures and how they were made: test/fixtures/models/README.md.
+// predicts the same numbers: every column of the CSV recorded with the code of that time is the same, field for
+// field (the identity line aside); the columns added since (domain check, error bars) are extra, and a version-1
+// model's error bars are empty. Fixtures and how they were made: test/fixtures/models/README.md.
 import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { runCli } from '../../src-main/cli/main.ts';
+import { parseCsv } from '../../src-main/io/csv.ts';
 
 const MODEL = 'test/fixtures/models/water-v1.model.json';
 const DATA = 'test/fixtures/water-dft-sample.extxyz';
@@ -24,7 +26,16 @@ describe('version-1 model files', () => {
     const before = readFileSync(new URL('../fixtures/models/water-v1.predicted.csv', import.meta.url), 'utf8');
     const after = readFileSync(out, 'utf8');
     expect(after.split('\n').filter((l) => l.startsWith('# Identity:'))).toHaveLength(1);
-    expect(withoutIdentity(after)).toBe(withoutIdentity(before));
+    // Every column the recorded file has, field for field. Since then predictions gained the domain and error-bar
+    // columns (io/prediction/prediction-format.ts); a version-1 model has no calibration, so its error bars are
+    // empty — not invented.
+    const a = parseCsv(withoutIdentity(before), 'before');
+    const b = parseCsv(withoutIdentity(after), 'after');
+    expect(b.records.length).toBe(a.records.length);
+    for (const c of a.columns) expect(b.text(c)).toEqual(a.text(c));
+    for (const c of ['eps_iso_sd', 'n_1_sd', 'dn_sd', 'alpha_cm_iso_sd_A3']) expect(b.text(c).every((v) => v === '')).toBe(true);
+    expect(b.columns).toContain('ood_score');
+    for (const line of a.comments.filter((l) => !/^(variance_iso|atoms_outside|outside):/.test(l))) expect(b.comments).toContain(line);
   });
 });
 

@@ -27,6 +27,11 @@ export function describeModel(model: Model): string {
     lines.push(`  λ=${p.order}: ${p.form} (${p.method}), ${p.n} features, regulariser ${r.relative.toExponential(0)} (${r.chosenBy})${cv}`);
   }
   if (model.applicability.species.length) lines.push(`applicability threshold ${model.applicability.threshold.toFixed(4)} (feature-space distance; ${model.applicability.rule})`);
+  if (model.calibration) {
+    const c = model.calibration;
+    const parts = c.parts.map((p) => `λ=${p.order} ${p.rmsZRaw !== null ? `raw posterior RMS z ${p.rmsZRaw.toPrecision(3)} → 1, ` : ''}|z| ≤ 1 for ${(100 * p.within1).toFixed(0)} % of ${p.values}`);
+    lines.push(`error bars: calibrated on the ${c.folds} held-out folds (${parts.join('; ')})`);
+  } else lines.push('error bars: none (no calibration: fewer than 3 frames)');
   for (const n of model.notes) lines.push(`note: ${n}`);
   return lines.join('\n');
 }

@@ -1,6 +1,7 @@
 // `polarweave validate`: k-fold cross-validation of a training request, for one route or both, with an
 // optional learning curve; prints the RMSE of the isotropic and anisotropic parts of ε (and α_CM), each also as a
 // percentage of the spread of the reference, and a plain verdict. The figures: core/learning/error-figures.ts.
+import type { ErrorBarCheck } from '../../core/learning/calibration.ts';
 import { commandArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
 import type { ErrorFigures, Route } from '../../core/learning/model-types.ts';
@@ -63,6 +64,7 @@ export const validateCommand: Command = {
       for (const lc of report.learningCurve) io.out(`  learning curve, ${lc.trainSize} training frames: error ${fmtPct(lc.errors.percent)} of the spread\n`);
       if (report.skippedSizes.length) io.out(`  learning-curve sizes skipped (more than the training folds hold): ${report.skippedSizes.join(', ')}\n`);
       io.out(`  verdict (rule of thumb): ${verdictOf(report.errors.percent, 'the error')}\n`);
+      io.out(errorBarLine(report.errorBars));
       io.out('Rule-of-thumb thresholds: good ≤ 10 % of the spread, usable ≤ 30 % (common practice, no source). Predictions are model estimates.\n');
       return 0;
     }
@@ -76,6 +78,7 @@ export const validateCommand: Command = {
       }
       if (report.skippedSizes.length) io.out(`  learning-curve sizes skipped (more than the training folds hold): ${report.skippedSizes.join(', ')}\n`);
       io.out(`  verdict (rule of thumb, on ε): ${verdict(report.errors)}\n`);
+      io.out(errorBarLine(report.errorBars));
     }
     if (better) io.out(`comparison on ε: route ${better.route} has the smaller root-mean-square error of the whole tensor (cm ${better.totals.cm.toPrecision(3)}, direct ${better.totals.direct.toPrecision(3)})\n`);
     io.out('Rule-of-thumb thresholds: good ≤ 10 % of the spread, usable ≤ 30 % (common practice, no source). Predictions are model estimates.\n');
@@ -88,4 +91,12 @@ function indent(text: string, n: number): string {
     .split('\n')
     .map((l) => ' '.repeat(n) + l)
     .join('\n');
+}
+
+/** How the fold models' calibrated error bars held on the frames they never saw (RMS z near 1 = calibrated). */
+function errorBarLine(check: ErrorBarCheck | null): string {
+  if (!check) return '  error bars: none (fold models of fewer than 3 frames carry no calibration)\n';
+  const parts = check.parts.map((p) => `λ=${p.order} RMS z ${p.z.rmsZ.toFixed(2)}, |z| ≤ 1 for ${(100 * p.z.within1).toFixed(0)} % of ${p.z.count}`);
+  if (check.epsIso) parts.push(`ε_iso RMS z ${check.epsIso.rmsZ.toFixed(2)}`);
+  return `  error bars on held-out frames: ${parts.join('; ')} (1 = calibrated)\n`;
 }

@@ -41,4 +41,6 @@ export interface EnvironmentFeatures {
   scalar: Float64Array;
   /** λ → size of the feature axis, and the features, for each λ > 0 computed (1 for dipoles, 2 for tensors). */
   tensor: Partial<Record<1 | 2, { n: number; data: Float64Array }>>;
+  /** Per environment, the norm of its λ = 0 row before normalisation (the scale of its neighbour density), when computed. */
+  norms?: Float64Array;
 }

@@ -510,6 +510,7 @@ export function featurise(
   tensorStep: (e: number, k0: number, c: Float64Array) => void,
   after: ((e: number) => void) | null,
   timings: FeatureTimings | undefined,
+  norms?: Float64Array,
 ): void {
   const { P, channelOf, centres, pairs, where } = prep;
   const c = P.coefficients;
@@ -524,6 +525,7 @@ export function featurise(
     if (!Number.isFinite(norm)) {
       throw new InputError(`features of atom ${i + 1} are not finite (non-finite positions or cell?)`, where, 'check the structure');
     }
+    if (norms) norms[e] = Math.sqrt(norm);
     tensorStep(e, k0, c);
     if (timings) {
       tExpand += tb - ta;
@@ -554,12 +556,13 @@ export function computeFeatures(
   const count = prep.centres.length;
   const scalar = new Float64Array(count * P.n0);
   const tensorOut = P.tensors.map((T) => new Float64Array(count * (2 * T.lambda + 1) * T.n));
-  featurise(prep, scalar, (e) => e, tensorSteps(P, tensorOut), null, timings);
+  const norms = new Float64Array(count);
+  featurise(prep, scalar, (e) => e, tensorSteps(P, tensorOut), null, timings, norms);
   const tensor: EnvironmentFeatures['tensor'] = {};
   P.tensors.forEach((T, k) => {
     tensor[T.lambda] = { n: T.n, data: tensorOut[k] };
   });
-  return { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor };
+  return { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor, norms };
 }
 
 /** One environment's features as handed to forEachEnvironment's visitor (buffers reused: copy what you keep). */

@@ -9,8 +9,8 @@
 // Also: warnings for ε∞ below 1, principal refractive indices and birefringence.
 import { InputError, PhysicsError, type Where } from '../errors.ts';
 import type { Mat3 } from '../geometry/frame.ts';
-import type { TensorKind } from '../learning/model-types.ts';
-import { SYMMETRY_TOLERANCE, symmetricEigen, symmetricFunction } from './tensor.ts';
+import type { Route, TensorErrorBars, TensorKind } from '../learning/model-types.ts';
+import { SYMMETRY_TOLERANCE, fromIrreducible, mat3Inverse, mat3Multiply, symmetricEigen, symmetricFunction } from './tensor.ts';
 
 export type { TensorKind } from '../learning/model-types.ts';
 
@@ -212,4 +212,65 @@ export function birefringence(eps: Mat3, tolerance = INDEX_TOLERANCE, where: Whe
     signed: n[e] - nO,
     opticAxis: Float64Array.of(axes[e], axes[3 + e], axes[6 + e]),
   };
+}
+
+// ---------------------------------------------------------------------------------------------------------
+// Error propagation (delta method, science notes §8)
+
+/**
+ * First-order change of ε for a change dL of the learnt cell tensor, at the prediction ε:
+ *   route cm (L = α_CM): ε = (I + 2X)(I − X)⁻¹, X = (4π/3V) α_CM  ⇒  dε = (4π/9V) (ε + 2I) dL (ε + 2I)
+ *   route direct (L = α_c): ε = I + (4π/V) α_c                    ⇒  dε = (4π/V) dL
+ * (cm: dε = (2I + ε) dX (I − X)⁻¹ and (I − X)⁻¹ = (ε + 2I)/3.)
+ */
+export function epsDifferential(dLearnt: Mat3, route: Route, eps: Mat3, volumeA3: number): Mat3 {
+  if (route === 'direct') return Float64Array.from(dLearnt, (v) => (FOUR_PI / volumeA3) * v);
+  const e2 = Float64Array.from(eps);
+  for (const d of [0, 4, 8]) e2[d] += 2;
+  const out = mat3Multiply(mat3Multiply(e2, dLearnt), e2);
+  const f = FOUR_PI / (9 * volumeA3);
+  for (let i = 0; i < 9; i++) out[i] *= f;
+  return symmetrise(out);
+}
+
+/**
+ * Delta-method standard deviations of ε_iso, the principal ε_k, n_k, Δn and α_CM iso, from independent
+ * standard deviations of the six irreducible components [T⁰, T²₋₂…T²₂] of the learnt tensor (route cm: α_CM;
+ * direct: α_c; Å³). Each component is pushed through the linearised relation (epsDifferential) and the
+ * first-order change of each principal value (u_kᵀ dε u_k, non-degenerate perturbation theory) is summed in
+ * quadrature. Neglected: correlations between the learnt components, and the second-order terms — including
+ * those of nearly equal principal values (an almost isotropic ε), where the ordered ε_k are not Gaussian.
+ */
+export function propagateErrorBars(eps: Mat3, volumeA3: number, route: Route, learntSd: ArrayLike<number>): TensorErrorBars {
+  const { values, vectors: U } = symmetricEigen(eps);
+  const n = Array.from(values, (v) => Math.sqrt(Math.max(v, 0)));
+  const e2 = Float64Array.from(eps);
+  for (const d of [0, 4, 8]) e2[d] += 2;
+  const e2inv = mat3Inverse(e2, 'ε + 2I');
+  const cmScale = (9 * volumeA3) / FOUR_PI;
+  const acc = { iso: 0, k: [0, 0, 0], n: [0, 0, 0], dn: 0, cm: 0 };
+  const unit = new Float64Array(6);
+  for (let c = 0; c < 6; c++) {
+    const s = learntSd[c];
+    if (!(s > 0)) continue;
+    unit.fill(0);
+    unit[c] = s;
+    const de = epsDifferential(fromIrreducible(unit), route, eps, volumeA3);
+    acc.iso += ((de[0] + de[4] + de[8]) / 3) ** 2;
+    const dk = [0, 1, 2].map((k) => {
+      let q = 0;
+      for (let i = 0; i < 3; i++) for (let j = 0; j < 3; j++) q += U[i * 3 + k] * de[i * 3 + j] * U[j * 3 + k];
+      return q;
+    });
+    const dn = dk.map((d, k) => (n[k] > 0 ? d / (2 * n[k]) : NaN));
+    for (let k = 0; k < 3; k++) {
+      acc.k[k] += dk[k] ** 2;
+      acc.n[k] += dn[k] ** 2;
+    }
+    acc.dn += (dn[2] - dn[0]) ** 2;
+    const dcm = mat3Multiply(mat3Multiply(e2inv, de), e2inv);
+    acc.cm += ((cmScale * (dcm[0] + dcm[4] + dcm[8])) / 3) ** 2;
+  }
+  const r3 = (a: number[]) => [Math.sqrt(a[0]), Math.sqrt(a[1]), Math.sqrt(a[2])] as [number, number, number];
+  return { epsIso: Math.sqrt(acc.iso), epsPrincipal: r3(acc.k), n: r3(acc.n), dn: Math.sqrt(acc.dn), alphaCmIso: Math.sqrt(acc.cm) };
 }

@@ -49,8 +49,41 @@ export interface Applicability {
   atomsOutside: number;
   /** Predictive variance of the frame's λ=0 part (model units²), where the model provides one. */
   variance: number;
-  /** True when any atom lies outside the training data. */
+  /** True when the frame is at risk (core/learning/domain.ts: density out, an atom far out, or more atoms out than chance). */
   outside: boolean;
+  /** Per atom domain score u: 0 at the training median, 1 at the training's limit, above 1 outside. */
+  atomScore: Float64Array;
+  /** Graded per-frame score √(mean u² + u_density²) (about 0.3–0.6 inside the training data). */
+  score: number;
+  /** Fraction of atoms with u > 1. */
+  fractionOutside: number;
+  /** Why atoms or the frame lie outside, worst first (empty when nothing is). */
+  reasons: DomainReason[];
+}
+
+/** One reason a frame is at risk, in words, with a key to group reasons over a trajectory. */
+export interface DomainReason {
+  /** Kind of reason (e.g. "O–H shorter", "number density higher"), for summaries. */
+  key: string;
+  text: string;
+  /** The worst score of this kind in the frame. */
+  score: number;
+  /** The worst atom (0-based), or null for a frame property. */
+  atom: number | null;
+}
+
+/** Standard deviations of the quantities a user reads from a predicted ε (all dimensionless except α_CM, Å³). */
+export interface TensorErrorBars {
+  /** ε_iso = tr ε / 3. */
+  epsIso: number;
+  /** Principal values ε_1 ≤ ε_2 ≤ ε_3. */
+  epsPrincipal: [number, number, number];
+  /** Principal refractive indices n_k = √ε_k: σ(n_k) = σ(ε_k)/(2 n_k). */
+  n: [number, number, number];
+  /** Δn = n_3 − n_1 (with the correlation of n_3 and n_1 kept). */
+  dn: number;
+  /** Isotropic Clausius–Mossotti cell polarisability tr α_CM / 3 (Å³). */
+  alphaCmIso: number;
 }
 
 export interface FramePrediction {
@@ -66,6 +99,9 @@ export interface FramePrediction {
    * contributions to ε − I per cell for route direct). */
   local: Float64Array;
   applicability: Applicability;
+  /** Calibrated one-standard-deviation model error bars (delta method through Clausius–Mossotti); null when the
+   * model carries no calibration (models saved before error bars existed, or trained on fewer than 3 frames). */
+  errorBars: TensorErrorBars | null;
 }
 
 /** One frame's reference and prediction in irreducible parts (for parity charts). */

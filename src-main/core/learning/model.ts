@@ -25,7 +25,8 @@ import type { Applicability, FramePrediction, ModelSettings, Route, TensorKind, 
 import { makeRng } from '../numerics/random.ts';
 import { cachedNearestSearch, searchNearest } from './nearest-search.ts';
 import { tuneCombinations, tuneSettingsWith, type TuneResult } from './tuning.ts';
-import { fitRidge, foldsOf, posteriorVariance, primalWeights, type Design } from './regression.ts';
+import { fitRidge, foldsOf, heldOutRows, posteriorVariance, primalWeights, type Design } from './regression.ts';
+import { calibratePart, type Calibration, type PartCalibration } from './calibration.ts';
 import {
   farthestPointSample,
   foldCoefficients,
@@ -55,6 +56,9 @@ import {
 import { fromIrreducible, tensorFromValues, toIrreducible } from '../dielectric/tensor.ts';
 import { computeReadout, makeWeightMatrices, weightMatricesLength, type TensorReadout } from './tensor-readout.ts';
 import { cellVolume } from '../geometry/cell.ts';
+import { propagateErrorBars } from '../dielectric/clausius-mossotti.ts';
+import { checkDomain, DomainStatsBuilder, type DomainStats } from './domain.ts';
+import { neighbourList, type NeighbourList } from '../geometry/neighbours.ts';
 
 import { DEFAULT_SETTINGS, settingSpec, settingsProblems, type NumericSettingKey } from '../settings-table.ts';
 export { DEFAULT_SETTINGS };
@@ -64,9 +68,8 @@ const POOL_LINEAR = 6000;
 const POOL_KERNEL = 2000;
 /** Representatives per species for the applicability distance of a linear model. */
 const APPLICABILITY_POINTS = 256;
-/** Applicability threshold = factor × quantile of the training environments' leave-self-out distances. */
+/** Applicability threshold = quantile of the training environments' distances to representatives of other frames. */
 const APPLICABILITY_QUANTILE = 0.999;
-const APPLICABILITY_FACTOR = 1.2;
 /** Exact kernel ridge keeps every environment; beyond this many it is too slow, use the sparse form. */
 const EXACT_LIMIT = 6000;
 
@@ -137,6 +140,18 @@ export interface Model {
   applicability: { n0: number; species: Int32Array; p: Float64Array; threshold: number; perSpecies: number[]; rule: string };
   training: TrainingSummary;
   notes: string[];
+  /**
+   * Error-bar calibration from the training's own cross-validation (calibration.ts). Absent in models saved
+   * before it existed and in models of fewer than 3 frames: their predictions carry no error bars.
+   */
+  calibration?: Calibration;
+  /**
+   * Vector targets only: a λ=0 ridge model (of |v|) kept solely for its posterior, the leverage the error bars
+   * scale; it adds nothing to the prediction.
+   */
+  leverage?: ModelPart;
+  /** Training ranges of the domain checks (domain.ts); absent in models saved before them (feature distance only). */
+  domain?: DomainStats;
 }
 
 /** Prediction of any target shape: irreducible components, per-atom contributions, applicability. */
@@ -147,6 +162,11 @@ export interface TargetPrediction {
   localIrreducible: Float64Array;
   components: number;
   applicability: Applicability;
+  /**
+   * Calibrated error bars: the frame's leverage and the standard deviation of every irreducible component of the
+   * learnt target (same layout and units as `irreducible`); null when the model has no calibration.
+   */
+  uncertainty: { leverage: number; sd: Float64Array } | null;
 }
 
 export type Featuriser = (frame: Frame, index: number) => EnvironmentFeatures;
@@ -270,7 +290,7 @@ class PoolBuilder {
       this.rows[s][slot] = row;
     }
   }
-  build(n0: number): EnvironmentPool & { perSpecies: Int32Array[] } {
+  build(n0: number): EnvironmentPool & { perSpecies: Int32Array[]; frame: Int32Array } {
     const flat = this.rows.flat();
     const count = flat.length;
     const p = new Float64Array(count * n0);
@@ -282,9 +302,11 @@ class PoolBuilder {
       flat.forEach((r, i) => data.set(r.block as Float64Array, i * size));
       blocks = { order: this.order, n: size / (2 * this.order + 1), data };
     }
+    const frame = new Int32Array(count);
     flat.forEach((r, i) => {
       p.set(r.p, i * n0);
       species[i] = r.species;
+      frame[i] = r.frame;
     });
     const perSpecies: Int32Array[] = [];
     let at = 0;
@@ -292,7 +314,7 @@ class PoolBuilder {
       perSpecies.push(Int32Array.from({ length: this.rows[s].length }, (_, k) => at + k));
       at += this.rows[s].length;
     }
-    return { n0, count, species, p, blocks, perSpecies };
+    return { n0, count, species, p, blocks, perSpecies, frame };
   }
 }
 
@@ -378,9 +400,10 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   }
   const linear = settings.kernelExponent === 1;
   const exact = !linear && settings.anchorEnvironments === 0;
-  const partsSpec: { order: Order; offset: number; width: number }[] = [];
+  // aux: a λ=0 fit of |v| for a vector target, kept only for its posterior (the leverage of the error bars)
+  const partsSpec: { order: Order; offset: number; width: number; aux?: boolean }[] = [];
   if (targets.shape === 'tensor') partsSpec.push({ order: 0, offset: 0, width: 1 }, { order: 2, offset: 1, width: 5 });
-  else if (targets.shape === 'vector') partsSpec.push({ order: 1, offset: 0, width: 3 });
+  else if (targets.shape === 'vector') partsSpec.push({ order: 1, offset: 0, width: 3 }, { order: 0, offset: 0, width: 1, aux: true });
   else partsSpec.push({ order: 0, offset: 0, width: 1 });
   const hasIso = partsSpec[0].order === 0;
 
@@ -394,9 +417,12 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   let totalEnv = 0;
   const atomsPerSpecies: Record<string, number> = {};
   let atoms = 0;
+  const wantApplicability = options.applicability !== false;
+  const domain = wantApplicability ? new DomainStatsBuilder(species, centres, settings.cutoffRadius) : null;
   for (let f = 0; f < nFrames; f++) {
     checkAbort(hooks);
     const fe = feat(frames[f], f);
+    domain?.add(frames[f], neighbourList(frames[f], settings.cutoffRadius), fe.centreSpecies, fe.norms);
     if (n0 < 0) {
       n0 = fe.n0;
       if (order !== null) nOrder = blockView(fe, order).n;
@@ -439,7 +465,6 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   if (!cv && settings.regularisation === null) notes.push('fewer than 3 frames: regulariser not cross-validated (default 1e-6)');
 
   // Representatives (FPS per species) for kernel parts and for applicability.
-  const wantApplicability = options.applicability !== false;
   const repsPerSpecies = envPool.perSpecies.map((cand) => {
     const m = linear ? (wantApplicability ? APPLICABILITY_POINTS : 0) : exact ? cand.length : settings.anchorEnvironments;
     return farthestPointSample(envPool.p, n0, cand, m).chosen;
@@ -476,6 +501,8 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     }
   }
 
+  let leveragePart: ModelPart | undefined;
+  const fitted: FittedPart[] = [];
   for (let k = 0; k < partsSpec.length; k++) {
     checkAbort(hooks);
     const p = partsSpec[k];
@@ -487,7 +514,8 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     for (let f = 0; f < nFrames; f++) {
       for (let mu = 0; mu < p.width; mu++) {
         let v = y[f * C + p.offset + mu];
-        if (p.order === 0) for (let s = 0; s < nS; s++) v -= counts[f * nS + s] * baseline[s];
+        if (p.aux) v = Math.hypot(...y.subarray(f * C, f * C + C));
+        else if (p.order === 0) for (let s = 0; s < nS; s++) v -= counts[f * nS + s] * baseline[s];
         yy[f * p.width + mu] = v;
         group[f * p.width + mu] = f;
       }
@@ -544,6 +572,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     const n = p.order === 0 ? n0 : (nOrder as number);
     const part: ModelPart = { order: p.order, offset: p.offset, form: linear ? 'linear' : 'kernel', method: linear ? fit.form : exact ? 'exact' : 'sparse', n, regularisation };
     const refineBaseline = (delta: ArrayLike<number>) => {
+      if (p.aux) return;
       for (let s = 0; s < nS; s++) baseline[s] += delta[s];
     };
     if (exact) {
@@ -574,25 +603,30 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
         if (fit.posterior) part.posterior = { ...fit.posterior, nystrom: l };
       }
     }
-    parts.push(part);
+    if (p.aux) leveragePart = part;
+    else parts.push(part);
+    fitted.push({ design, lambda: fit.lambda, noise: fit.posterior?.noise ?? null, spec: p });
   }
+  const calibration = cv ? calibrate(fitted, cv, nFrames, hooks) : undefined;
+  if (!calibration) notes.push(cv ? 'error bars not calibrated (the held-out errors were all zero)' : 'fewer than 3 frames: error bars not calibrated, predictions carry none');
 
   // Applicability threshold from leave-self-out distances of the sampled training environments.
   const applicability = { n0, species: new Int32Array(0), p: new Float64Array(0), threshold: 0, perSpecies: new Array(nS).fill(0), rule: '' };
   if (wantApplicability) {
     hooks.onProgress?.({ stage: 'applicability', done: 0, total: 1 });
     await yieldToLoop();
-    const dist = nearestOtherDistances(envPool, repIndex);
+    // held-out-frame distances (nearest representative of another frame); one frame: leave-self-out
+    const dist = nearestOtherDistances(envPool, repIndex, nFrames >= 2 ? envPool.frame : undefined);
     for (let s = 0; s < nS; s++) {
       const ds: number[] = [];
       for (const i of envPool.perSpecies[s]) if (Number.isFinite(dist[i])) ds.push(dist[i]);
-      applicability.perSpecies[s] = APPLICABILITY_FACTOR * quantile(ds, APPLICABILITY_QUANTILE);
+      applicability.perSpecies[s] = quantile(ds, APPLICABILITY_QUANTILE);
     }
     applicability.threshold = Math.max(...applicability.perSpecies);
     applicability.species = Int32Array.from(repIndex, (i) => envPool.species[i]);
     applicability.p = new Float64Array(repIndex.length * n0);
     repIndex.forEach((i, k) => applicability.p.set(envPool.p.subarray(i * n0, (i + 1) * n0), k * n0));
-    applicability.rule = `${APPLICABILITY_FACTOR} × the ${APPLICABILITY_QUANTILE} quantile of the training environments' distances to the nearest other representative (${repIndex.length} representatives)`;
+    applicability.rule = `the ${APPLICABILITY_QUANTILE} quantile of the training environments' distances to the nearest representative ${nFrames >= 2 ? 'of another frame' : 'other than itself'} (${repIndex.length} representatives)`;
   }
 
   const stats = targetStatistics(y, nFrames, C);
@@ -624,6 +658,45 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     applicability,
     training: { frames: nFrames, atoms, atomsPerSpecies, volumeA3: { min: vmin, max: vmax }, target: stats },
     notes,
+    calibration,
+    leverage: leveragePart,
+    domain: domain?.build(),
+  };
+}
+
+interface FittedPart {
+  design: Design;
+  lambda: number;
+  noise: number | null;
+  spec: { order: Order; offset: number; width: number; aux?: boolean };
+}
+
+/**
+ * One error-bar factor per part from the held-out folds of the training's cross-validation (calibration.ts):
+ * the leverage of every held-out frame from the λ=0 design (the λ=0 part, or the auxiliary one of a vector
+ * target), the held-out error of every row of every part. Undefined when no held-out error is non-zero.
+ */
+function calibrate(fitted: FittedPart[], cv: { fold: Int32Array; folds: number; signal?: AbortSignal }, nFrames: number, hooks: WorkHooks): Calibration | undefined {
+  hooks.onProgress?.({ stage: 'calibration', done: 0, total: 1 });
+  const lev = fitted.find((f) => f.spec.order === 0) as FittedPart;
+  const levRows = heldOutRows(lev.design, cv, lev.lambda);
+  const frameLeverage = new Float64Array(nFrames);
+  for (let r = 0; r < lev.design.rows; r++) frameLeverage[lev.design.group[r]] = levRows.leverage[r];
+  const parts: PartCalibration[] = [];
+  for (const f of fitted) {
+    if (f.spec.aux) continue;
+    const held = f === lev ? levRows : { predicted: heldOutRows(f.design, cv, f.lambda).predicted };
+    const errors = Float64Array.from(held.predicted, (p, r) => p - f.design.y[r]);
+    const leverage = Float64Array.from(f.design.group, (g) => frameLeverage[g]);
+    const c = calibratePart(f.spec.order, errors, leverage, f.spec.order === 0 ? f.noise : null);
+    if (!c) return undefined;
+    parts.push(c);
+  }
+  return {
+    rule: `one factor per part: held-out squared error / leverage, averaged over the ${cv.folds} folds of the training's cross-validation (RMS of held-out z = 1)`,
+    folds: cv.folds,
+    frames: nFrames,
+    parts,
   };
 }
 
@@ -709,13 +782,14 @@ export function predictWithFeatures(model: Model, frame: Frame, raw: Environment
  * The model's parts applied to λ=0 features `fe`; the λ>0 part's local contributions come from `readout` when
  * given (tensor-readout.ts), else from fe's λ>0 features.
  */
-function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, readout: { order: Order; values: Float64Array } | null): TargetPrediction {
+function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, readout: { order: Order; values: Float64Array } | null, pairs?: NeighbourList): TargetPrediction {
   if (fe.n0 !== model.featureSizes.n0) throw new ModelError(`features have ${fe.n0} λ=0 components but the model was trained with ${model.featureSizes.n0}`);
   const nAtoms = frame.species.length;
   const C = model.target.shape === 'tensor' ? 6 : model.target.shape === 'vector' ? 3 : 1;
   const total = new Float64Array(C);
   const local = new Float64Array(nAtoms * C);
   let variance = 0;
+  let leverage = NaN;
   for (const part of model.parts) {
     const w = 2 * part.order + 1;
     let contrib: Float64Array;
@@ -734,12 +808,16 @@ function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, r
         total[part.offset + mu] += c;
       }
     }
-    if (part.order === 0 && part.posterior) variance = partVariance(model, part, fe);
+    if (part.order === 0 && part.posterior) {
+      leverage = partLeverage(model, part, fe);
+      variance = part.posterior.noise * leverage;
+    }
   }
+  if (model.leverage?.posterior) leverage = partLeverage(model, model.leverage, fe);
   requireFinite(frame, total);
-  const applicability = applicabilityOf(model, fe, nAtoms);
+  const applicability = applicabilityOf(model, frame, fe, pairs);
   applicability.variance = variance;
-  return { irreducible: total, localIrreducible: local, components: C, applicability };
+  return { irreducible: total, localIrreducible: local, components: C, applicability, uncertainty: uncertaintyOf(model, leverage, C) };
 }
 
 /** A model whose numbers overflow on a frame is damaged or far out of its range: no number rather than a non-finite one. */
@@ -786,13 +864,32 @@ export function modelPredictor(model: Model): Predictor {
   }
   return (frame, index) => {
     checkFrameSpecies(model, frame, index);
-    const r = computeReadout(frame, fs, readout);
-    return predictFromParts(model, frame, r.features, { order, values: r.values });
+    const pairs = neighbourList(frame, fs.cutoff);
+    const r = computeReadout(frame, fs, readout, pairs);
+    return predictFromParts(model, frame, r.features, { order, values: r.values }, pairs);
   };
 }
 
-function partVariance(model: Model, part: ModelPart, fe: EnvironmentFeatures): number {
-  const post = part.posterior as PartPosterior;
+/** Calibrated standard deviation of every irreducible component (calibration.ts), or null without calibration. */
+function uncertaintyOf(model: Model, leverage: number, components: number): TargetPrediction['uncertainty'] {
+  const cal = model.calibration;
+  if (!cal || !Number.isFinite(leverage)) return null;
+  const sd = new Float64Array(components);
+  for (const c of cal.parts) {
+    const part = model.parts.find((p) => p.order === c.order);
+    if (!part) return null;
+    const s = Math.sqrt(c.varianceScale * leverage);
+    for (let mu = 0; mu < 2 * c.order + 1; mu++) sd[part.offset + mu] = s;
+  }
+  return { leverage, sd };
+}
+
+/**
+ * Leverage of a frame against a part's training design: φᵀ(ΦᵀΦ + λI)⁻¹φ (its GP latent variance divided by the
+ * noise variance), for the linear, sparse and exact forms.
+ */
+function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures): number {
+  const post = { ...(part.posterior as PartPosterior), noise: 1 };
   const nS = model.centres.length;
   const counts = new Float64Array(nS);
   for (let e = 0; e < fe.count; e++) counts[fe.centreSpecies[e]]++;
@@ -827,22 +924,53 @@ function partVariance(model: Model, part: ModelPart, fe: EnvironmentFeatures): n
   return posteriorVariance({ form: 'dual', size: post.size, factor: post.factor, noise: post.noise, lambda: post.lambda }, kStar, kss);
 }
 
-function applicabilityOf(model: Model, fe: EnvironmentFeatures, nAtoms: number): Applicability {
+/**
+ * Applicability of a frame: the feature distance of every centre to the nearest representative of its species
+ * (nearest-search.ts), then the domain checks of domain.ts (geometry, density scale, number density) when the
+ * model has their training ranges; models saved before them judge by the feature distance alone (any atom
+ * beyond its species' threshold flags the frame, as they always did).
+ */
+function applicabilityOf(model: Model, frame: Frame, fe: EnvironmentFeatures, pairs?: NeighbourList): Applicability {
   const a = model.applicability;
+  const nAtoms = frame.species.length;
   const atomDistance = new Float64Array(nAtoms);
+  const featureScore = new Float64Array(nAtoms);
   let maxDistance = 0;
-  let atomsOutside = 0;
+  let beyond = 0;
   const m = a.species.length;
   // bounded search, prepared once per model object; bit-identical to sparse.ts nearestDistance (nearest-search.ts)
   const search = cachedNearestSearch(a);
   for (let e = 0; e < fe.count; e++) {
     let best = searchNearest(search, fe.scalar, e, fe.centreSpecies[e]);
     if (!Number.isFinite(best)) best = 2;
-    atomDistance[fe.centre[e]] = best;
+    const atom = fe.centre[e];
+    atomDistance[atom] = best;
     if (best > maxDistance) maxDistance = best;
-    if (m > 0 && best > a.perSpecies[fe.centreSpecies[e]]) atomsOutside++;
+    const t = a.perSpecies[fe.centreSpecies[e]];
+    if (m > 0 && t > 0) featureScore[atom] = best / t;
+    if (m > 0 && best > t) beyond++;
   }
-  return { atomDistance, maxDistance, threshold: a.threshold, atomsOutside, variance: 0, outside: atomsOutside > 0 };
+  const base = { atomDistance, maxDistance, threshold: a.threshold, variance: 0 };
+  if (model.domain && m > 0) {
+    const d = checkDomain(model.domain, frame, pairs ?? neighbourList(frame, model.domain.cutoff), featureScore, {
+      distance: atomDistance,
+      threshold: a.perSpecies,
+      centres: model.centres,
+      centre: fe.centre,
+      centreSpecies: fe.centreSpecies,
+      norms: fe.norms,
+    });
+    return { ...base, atomsOutside: d.atomsOutside, outside: d.outside, atomScore: d.atomScore, score: d.score, fractionOutside: d.fractionOutside, reasons: d.reasons };
+  }
+  let sum2 = 0;
+  for (let i = 0; i < nAtoms; i++) sum2 += featureScore[i] ** 2;
+  const reasons: Applicability['reasons'] = [];
+  if (beyond > 0) {
+    let worst = 0;
+    for (let i = 1; i < nAtoms; i++) if (featureScore[i] > featureScore[worst]) worst = i;
+    reasons.push({ key: `${frame.species[worst]} environment`, text: `${beyond} atom(s) beyond the feature-distance threshold (largest ${maxDistance.toFixed(3)}, threshold ${a.threshold.toFixed(3)}); this model has no geometric or density checks (saved before them)`, score: featureScore[worst], atom: worst });
+  }
+  return { ...base, atomsOutside: beyond, outside: beyond > 0, atomScore: featureScore, score: nAtoms ? Math.sqrt(sum2 / nAtoms) : 0, fractionOutside: nAtoms ? beyond / nAtoms : 0, reasons };
 }
 
 const predictors = new WeakMap<Model, Predictor>();
@@ -881,7 +1009,8 @@ export function framePredictionFrom(model: Model, frame: Frame, pred: TargetPred
     const t = fromIrreducible(pred.localIrreducible.subarray(i * 6, i * 6 + 6));
     for (let q = 0; q < 9; q++) local[i * 9 + q] = t[q] * scale;
   }
-  return { volumeA3: v, alphaCM, alphaC, eps, local, applicability: pred.applicability };
+  const errorBars = pred.uncertainty ? propagateErrorBars(eps, v, model.target.route, pred.uncertainty.sd) : null;
+  return { volumeA3: v, alphaCM, alphaC, eps, local, applicability: pred.applicability, errorBars };
 }
 
 export function predictFrame(model: Model, frame: Frame): FramePrediction {

@@ -281,3 +281,86 @@ export function posteriorVariance(post: Posterior, phiOrKStar: Float64Array, kSt
   if (post.form === 'primal') return post.noise * q;
   return Math.max(0, (post.noise / post.lambda) * (kStarStar - q));
 }
+
+/** Held-out predictions and leverages of every row, from the k folds of a cross-validation at one λ. */
+export interface HeldOut {
+  /** Prediction of each row by the model fitted without its fold. */
+  predicted: Float64Array;
+  /** Leverage h = φᵀ(Φ_trainᵀΦ_train + λI)⁻¹φ of each row against its fold's training rows (latent variance / noise). */
+  leverage: Float64Array;
+}
+
+/**
+ * Refits the ridge model once per fold at the absolute regulariser λ and returns every row's held-out prediction
+ * and its leverage — the latent posterior variance of that row divided by the noise variance (the quantity
+ * posteriorVariance scales). Explicit designs use the smaller of the primal (F×F) and dual (rows×rows) systems;
+ * a structure kernel uses h = (k** − k*ᵀ(K + λI)⁻¹k*)/λ. Rows of folds with no training rows get NaN.
+ */
+export function heldOutRows(d: Design, opts: CrossValidationOptions, lambda: number): HeldOut {
+  const predicted = new Float64Array(d.rows).fill(NaN);
+  const leverage = new Float64Array(d.rows).fill(NaN);
+  for (let k = 0; k < opts.folds; k++) {
+    if (opts.signal?.aborted) throw new CancelledError();
+    const train: number[] = [];
+    const test: number[] = [];
+    for (let r = 0; r < d.rows; r++) (opts.fold[d.group[r]] === k ? test : train).push(r);
+    if (!test.length || !train.length) continue;
+    const tr = Int32Array.from(train);
+    const te = Int32Array.from(test);
+    const [p] = ridgeFitPredict(d, tr, te, [lambda]);
+    const h = foldLeverage(d, tr, te, lambda);
+    te.forEach((r, t) => {
+      predicted[r] = p[t];
+      leverage[r] = h[t];
+    });
+  }
+  return { predicted, leverage };
+}
+
+function foldLeverage(d: Design, train: Int32Array, test: Int32Array, lambda: number): Float64Array {
+  const nt = train.length;
+  const out = new Float64Array(test.length);
+  const dual = (kTrain: Float64Array, kStar: (t: number, a: number) => number, kSelf: (t: number) => number) => {
+    for (let i = 0; i < nt; i++) kTrain[i * nt + i] += lambda;
+    const { factor } = choleskyWithJitter(kTrain, nt);
+    const ks = new Float64Array(nt);
+    for (let t = 0; t < test.length; t++) {
+      for (let a = 0; a < nt; a++) ks[a] = kStar(t, a);
+      const z = forwardSubstitute(factor, nt, ks);
+      let q = 0;
+      for (let a = 0; a < nt; a++) q += z[a] * z[a];
+      out[t] = Math.max(0, (kSelf(t) - q) / lambda);
+    }
+  };
+  if (d.gram) {
+    const n = d.rows;
+    const g = d.gram;
+    const k = new Float64Array(nt * nt);
+    for (let a = 0; a < nt; a++) for (let b = 0; b < nt; b++) k[a * nt + b] = g[train[a] * n + train[b]];
+    dual(k, (t, a) => g[test[t] * n + train[a]], (t) => g[test[t] * n + test[t]]);
+    return out;
+  }
+  const f = featureCount(d);
+  const phi = d.phi as Float64Array;
+  const sub = new Float64Array(nt * f);
+  for (let a = 0; a < nt; a++) sub.set(phi.subarray(train[a] * f, train[a] * f + f), a * f);
+  const dot = (x: Float64Array, ix: number, y: Float64Array, iy: number) => {
+    let s = 0;
+    for (let i = 0; i < f; i++) s += x[ix + i] * y[iy + i];
+    return s;
+  };
+  if (f <= nt) {
+    const g = gramOfColumns(sub, nt, f);
+    for (let i = 0; i < f; i++) g[i * f + i] += lambda;
+    const { factor } = choleskyWithJitter(g, f);
+    for (let t = 0; t < test.length; t++) {
+      const z = forwardSubstitute(factor, f, phi.slice(test[t] * f, test[t] * f + f));
+      let q = 0;
+      for (let i = 0; i < f; i++) q += z[i] * z[i];
+      out[t] = q;
+    }
+    return out;
+  }
+  dual(gramOfRows(sub, nt, f), (t, a) => dot(phi, test[t] * f, sub, a * f), (t) => dot(phi, test[t] * f, phi, test[t] * f));
+  return out;
+}

@@ -91,10 +91,10 @@ export function farthestPointSample(p: Float64Array, n0: number, candidates: Int
 }
 
 /**
- * Distance of each pool row to the nearest representative other than itself (leave-self-out), for the
- * applicability threshold. `reps` are pool indices; `repOf[i]` is i's own index in reps or −1.
+ * Distance of each pool row to the nearest representative other than itself (leave-self-out), or, with
+ * `frameOf`, to the nearest representative from another frame (leave-frame-out), for the applicability threshold. `reps` are pool indices; `repOf[i]` is i's own index in reps or −1.
  */
-export function nearestOtherDistances(pool: EnvironmentPool, reps: Int32Array): Float64Array {
+export function nearestOtherDistances(pool: EnvironmentPool, reps: Int32Array, frameOf?: Int32Array): Float64Array {
   const own = new Map<number, number>();
   reps.forEach((r, k) => own.set(r, k));
   const out = new Float64Array(pool.count).fill(Infinity);
@@ -102,6 +102,7 @@ export function nearestOtherDistances(pool: EnvironmentPool, reps: Int32Array): 
     const self = own.get(i);
     for (let k = 0; k < reps.length; k++) {
       if (k === self || pool.species[reps[k]] !== pool.species[i]) continue;
+      if (frameOf && frameOf[reps[k]] === frameOf[i]) continue;
       const d = rowDistance(pool.p, i, pool.p, reps[k], pool.n0);
       if (d < out[i]) out[i] = d;
     }

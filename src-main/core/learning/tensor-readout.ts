@@ -192,12 +192,13 @@ export function computeReadout(frame: Frame, settings: FeatureSettings, readout:
   const scalar = new Float64Array(count * P.n0);
   const values = new Float64Array(count * nM);
   const S = scratchFor(P, T);
+  const norms = new Float64Array(count);
   featurise(prep, scalar, (e) => e, (e, k0, c) => {
     const W = readout.matrices(e, prep.centreSpecies[e], scalar, k0 * P.n0);
     readOne(P, T, c, W, S, values, e * nM);
-  }, null, timings);
+  }, null, timings, norms);
   return {
-    features: { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor: {} },
+    features: { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor: {}, norms },
     values,
   };
 }

@@ -19,7 +19,8 @@ import {
 import type { ErrorFigures, ParityPoint, TrainRequest, ValidationReport, WorkHooks } from './model-types.ts';
 import { makeRng } from '../numerics/random.ts';
 import { foldsOf } from './regression.ts';
-import { frameVolume, readTensor, readValues, shapeOfValues, whereOf } from './targets.ts';
+import { frameVolume, learntTensor, readTensor, readValues, shapeOfValues, vectorToSpherical, whereOf } from './targets.ts';
+import { ZCollector, type ErrorBarCheck } from './calibration.ts';
 import { toIrreducible } from '../dielectric/tensor.ts';
 
 export { errorFigures } from './error-figures.ts';
@@ -131,7 +132,7 @@ export async function validate(
   request: TrainRequest,
   options: ValidationOptions,
   hooks: WorkHooks = {},
-): Promise<ValidationReport & { alsoOn: SecondaryComparison[]; skippedSizes: number[] }> {
+): Promise<ValidationReport & { alsoOn: SecondaryComparison[]; skippedSizes: number[]; errorBars: ErrorBarCheck | null }> {
   const n = frames.length;
   const k = options.folds;
   checkFolds(n, k);
@@ -147,9 +148,11 @@ export async function validate(
   // reference tensors, on ε and on α_CM
   const refEps: Float64Array[] = [];
   const refCM: Float64Array[] = [];
+  const refLearnt: Float64Array[] = [];
   frames.forEach((f, i) => {
     const t = readTensor(f, request.tensorKey, i);
     const v = frameVolume(f, i);
+    refLearnt.push(toIrreducible(learntTensor(t, request.kind, request.route, v)));
     refEps.push(toIrreducible(convertTensor(t, request.kind, 'eps', v)));
     refCM.push(toIrreducible(convertTensor(t, request.kind, 'alpha-cm', v)));
   });
@@ -159,13 +162,16 @@ export async function validate(
   const runFolds = async (size: number | null) => {
     const pe: Float64Array[] = new Array(n);
     const pc: Float64Array[] = new Array(n);
+    const z = new ZCollector([{ order: 0, offset: 0 }, { order: 2, offset: 1 }]);
     const tested = await runFoldsOf(frames, request, plan, size, featurise, species, hooks, (model, i) => {
       const pred = predictWithFeatures(model, frames[i], featurise(frames[i], i), i);
       const fp = framePredictionFrom(model, frames[i], pred, i);
       pe[i] = toIrreducible(fp.eps);
       pc[i] = toIrreducible(fp.alphaCM);
+      const S3 = Math.sqrt(3);
+      z.add(refLearnt[i], pred.irreducible, pred.uncertainty?.sd ?? null, fp.errorBars ? { reference: refEps[i][0] / S3, predicted: pe[i][0] / S3, sd: fp.errorBars.epsIso } : undefined);
     });
-    return { tested, pe, pc };
+    return { tested, pe, pc, errorBars: z.result() };
   };
 
   const main = await runFolds(null);
@@ -192,6 +198,7 @@ export async function validate(
     learningCurve,
     alsoOn: [{ target: 'alpha-cm (Å³)', errors: errorsOf(refCM, main.pc, main.tested), points: pointsOf(refCM, main.pc) }],
     skippedSizes,
+    errorBars: main.errorBars,
   };
 }
 
@@ -246,6 +253,8 @@ export interface ValueValidationReport {
   points: { frame: number; reference: number[]; predicted: number[] }[];
   learningCurve: { trainSize: number; errors: ValueErrorFigures }[];
   skippedSizes: number[];
+  /** Held-out z-scores of the models' calibrated error bars (null when no fold model was calibrated). */
+  errorBars: ErrorBarCheck | null;
 }
 
 /**
@@ -277,11 +286,13 @@ export async function validateValues(
   const plan = planFolds(n, k, settings.seed, options.learningCurve);
   const runFolds = async (size: number | null) => {
     const predicted: number[][] = new Array(n);
+    const z = new ZCollector([{ order: shape === 'vector' ? 1 : 0, offset: 0 }]);
     const tested = await runFoldsOf(frames, request, plan, size, featurise, species, hooks, (model, i) => {
       const pred = predictWithFeatures(model, frames[i], featurise(frames[i], i), i);
       predicted[i] = shape === 'vector' ? [...predictedVector(pred)] : [pred.irreducible[0]];
+      z.add(shape === 'vector' ? vectorToSpherical(reference[i]) : reference[i], pred.irreducible, pred.uncertainty?.sd ?? null);
     });
-    return { tested, predicted };
+    return { tested, predicted, errorBars: z.result() };
   };
   const errorsOf = (r: { tested: number[]; predicted: number[][] }) => valueErrorFigures(r.tested.map((i) => reference[i]), r.tested.map((i) => r.predicted[i]));
   const main = await runFolds(null);
@@ -295,5 +306,6 @@ export async function validateValues(
     points: main.tested.map((i) => ({ frame: i, reference: [...reference[i]], predicted: main.predicted[i] })),
     learningCurve,
     skippedSizes: plan.skippedSizes,
+    errorBars: main.errorBars,
   };
 }

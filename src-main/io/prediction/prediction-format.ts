@@ -6,7 +6,8 @@
 // take their names from here.
 import type { Frame } from '../../core/geometry/frame.ts';
 import { PhysicsError } from '../../core/errors.ts';
-import type { FramePrediction } from '../../core/learning/model-types.ts';
+import type { FramePrediction, TensorErrorBars } from '../../core/learning/model-types.ts';
+import { reasonText } from '../../core/learning/domain.ts';
 import type { TargetShape } from '../../core/learning/targets.ts';
 import type { Model, TargetPrediction } from '../../core/learning/model.ts';
 import { predictedVector } from '../../core/learning/model.ts';
@@ -225,7 +226,23 @@ export type PredictionOf<S extends 'any' | 'tensor'> = S extends 'tensor' ? Fram
 
 export type PredictionColumn =
   | { name: string; description: string; for: 'any'; value(p: PredictionOf<'any'>): CsvValue }
-  | { name: string; description: string; for: 'tensor'; value(p: PredictionOf<'tensor'>): CsvValue };
+  | { name: string; description: string; for: 'tensor'; value(p: PredictionOf<'tensor'>): CsvValue }
+  | { name: string; description: string; for: 'value'; value(p: Pick<TargetPrediction, 'uncertainty'>): CsvValue };
+
+/** Text written where a model has no error-bar calibration (saved before it existed, or < 3 training frames). */
+export const NO_ERROR_BAR = '';
+
+/**
+ * The calibrated model error bars of a tensor prediction (one standard deviation; core/dielectric/clausius-mossotti.ts
+ * propagateErrorBars), in column order: the CSV columns and, prefixed with pred_, the extended XYZ info keys.
+ */
+export const ERROR_BAR_COLUMNS: readonly { name: string; description: string; value(e: TensorErrorBars): number }[] = [
+  { name: 'eps_iso_sd', description: 'model error bar (1 standard deviation, calibrated on held-out training folds) of eps_iso', value: (e) => e.epsIso },
+  ...([0, 1, 2] as const).map((k) => ({ name: `eps_${k + 1}_sd`, description: `error bar of eps_${k + 1}`, value: (e: TensorErrorBars) => e.epsPrincipal[k] })),
+  ...([0, 1, 2] as const).map((k) => ({ name: `n_${k + 1}_sd`, description: `error bar of n_${k + 1} (= eps_${k + 1}_sd / (2 n_${k + 1}))`, value: (e: TensorErrorBars) => e.n[k] })),
+  { name: 'dn_sd', description: 'error bar of dn (correlation of n_3 and n_1 kept)', value: (e) => e.dn },
+  { name: 'alpha_cm_iso_sd_A3', description: 'error bar of the isotropic Clausius-Mossotti cell polarisability (Å³)', value: (e) => e.alphaCmIso },
+];
 
 /**
  * The figures written beside every prediction, in column order, with their meaning (printed in the CSV's
@@ -234,18 +251,29 @@ export type PredictionColumn =
 export const PREDICTION_COLUMNS: readonly PredictionColumn[] = [
   { name: 'max_distance', for: 'any', description: 'largest per-atom distance in normalised λ=0 feature space to the nearest training representative of its species (0…2)', value: (p) => p.applicability.maxDistance },
   { name: 'threshold', for: 'any', description: "the model's applicability threshold on that distance", value: (p) => p.applicability.threshold },
-  { name: 'atoms_outside', for: 'any', description: 'number of atoms beyond the threshold', value: (p) => p.applicability.atomsOutside },
-  { name: 'outside', for: 'any', description: '1 when any atom lies outside the training data (treat the prediction with care), else 0', value: (p) => (p.applicability.outside ? 1 : 0) },
-  { name: 'variance_iso', for: 'any', description: 'predictive variance of the λ=0 part of the learnt tensor (Å⁶; GP posterior of the model)', value: (p) => p.applicability.variance },
+  { name: 'atoms_outside', for: 'any', description: 'number of atoms outside the training ranges (feature distance, nearest-neighbour distance per species pair, neighbours within the cutoff, neighbour-density scale)', value: (p) => p.applicability.atomsOutside },
+  { name: 'outside', for: 'any', description: '1 when the frame is at risk (number density outside the training range, an atom far outside, or more atoms outside than chance allows): treat the prediction as an extrapolation; else 0', value: (p) => (p.applicability.outside ? 1 : 0) },
+  { name: 'variance_iso', for: 'any', description: 'raw posterior variance of the λ=0 part of the learnt tensor (model units squared; not an error bar: see eps_iso_sd)', value: (p) => p.applicability.variance },
+  { name: 'ood_score', for: 'any', description: 'graded out-of-domain score of the frame (about 0.3-0.8 inside the training data; larger is farther out)', value: (p) => p.applicability.score },
+  { name: 'fraction_outside', for: 'any', description: 'fraction of atoms outside the training ranges', value: (p) => p.applicability.fractionOutside },
+  { name: 'ood_reason', for: 'any', description: 'why atoms or the frame lie outside, in words (worst first; empty when nothing is)', value: (p) => reasonText(p.applicability.reasons) },
+  ...ERROR_BAR_COLUMNS.map((c) => ({
+    name: c.name,
+    for: 'tensor' as const,
+    description: `${c.description}; empty when the model carries no calibration`,
+    value: (p: FramePrediction) => (p.errorBars ? c.value(p.errorBars) : NO_ERROR_BAR),
+  })),
+  { name: 'value_sd', for: 'value', description: 'model error bar (1 standard deviation, calibrated on held-out training folds) of each value component; empty when the model carries no calibration', value: (p) => (p.uncertainty ? p.uncertainty.sd[0] : NO_ERROR_BAR) },
 ];
 
-function columnsFor(shape: TargetShape): PredictionColumn[] {
-  return PREDICTION_COLUMNS.filter((c) => c.for === 'any' || shape === 'tensor');
+/** The PREDICTION_COLUMNS entries a model of this target shape writes, in order. */
+export function columnsFor(shape: TargetShape): PredictionColumn[] {
+  return PREDICTION_COLUMNS.filter((c) => c.for === 'any' || (c.for === 'tensor') === (shape === 'tensor'));
 }
 
 function columnValues(shape: TargetShape, p: FramePrediction | TargetPrediction): Record<string, CsvValue> {
   const out: Record<string, CsvValue> = {};
-  for (const c of columnsFor(shape)) out[c.name] = c.for === 'tensor' ? c.value(p as FramePrediction) : c.value(p);
+  for (const c of columnsFor(shape)) out[c.name] = c.for === 'tensor' ? c.value(p as FramePrediction) : c.for === 'value' ? c.value(p as TargetPrediction) : c.value(p);
   return out;
 }
 
@@ -352,6 +380,9 @@ export const PRED_KEYS = {
   alphaC: 'pred_alpha_c_A3',
   outside: 'pred_outside',
   maxDistance: 'pred_max_distance',
+  score: 'pred_ood_score',
+  fractionOutside: 'pred_fraction_outside',
+  reason: 'pred_ood_reason',
   route: 'pred_route',
   frame: 'pred_frame',
   modelSha256: 'pred_model_sha256',
@@ -365,6 +396,8 @@ export const PRED_ARRAYS = {
   localCM: 'local_alpha_cm_A3',
   localDirect: 'local_eps_minus_1',
   distance: 'feature_distance',
+  /** Per-atom domain score u (core/learning/domain.ts): above 1 outside the training ranges. */
+  domainScore: 'domain_score',
   molecule: 'molecule',
 } as const;
 
@@ -374,25 +407,34 @@ export function localArrayName(route: Model['target']['route']): string {
 }
 
 /** Info keys of an annotated frame from its prediction, in the order written. */
-export const PREDICTION_INFO: readonly { key: string; value(p: FramePrediction, model: Model): number[] | number | string | boolean }[] = [
+export const PREDICTION_INFO: readonly { key: string; value(p: FramePrediction, model: Model): number[] | number | string | boolean | undefined }[] = [
   { key: PRED_KEYS.eps, value: (p) => [...p.eps] },
   { key: PRED_KEYS.alphaCM, value: (p) => [...p.alphaCM] },
   { key: PRED_KEYS.alphaC, value: (p) => [...p.alphaC] },
   { key: PRED_KEYS.outside, value: (p) => p.applicability.outside },
   { key: PRED_KEYS.maxDistance, value: (p) => p.applicability.maxDistance },
   { key: PRED_KEYS.route, value: (_p, m) => m.target.route },
+  { key: PRED_KEYS.score, value: (p) => p.applicability.score },
+  { key: PRED_KEYS.fractionOutside, value: (p) => p.applicability.fractionOutside },
+  { key: PRED_KEYS.reason, value: (p) => reasonText(p.applicability.reasons) || undefined },
+  // error bars: absent (not invented) when the model carries no calibration
+  ...ERROR_BAR_COLUMNS.map((c) => ({ key: `pred_${c.name}`, value: (p: FramePrediction) => (p.errorBars ? c.value(p.errorBars) : undefined) })),
 ];
 
 /** Per-atom arrays of an annotated frame from its prediction, in the order written. */
 export const PREDICTION_ARRAYS: readonly { name(model: Model): string; width: number; value(p: FramePrediction): Float64Array }[] = [
   { name: (m) => localArrayName(m.target.route), width: 9, value: (p) => Float64Array.from(p.local) },
   { name: () => PRED_ARRAYS.distance, width: 1, value: (p) => Float64Array.from(p.applicability.atomDistance) },
+  { name: () => PRED_ARRAYS.domainScore, width: 1, value: (p) => Float64Array.from(p.applicability.atomScore) },
 ];
 
 /** A copy of the frame with the prediction attached (PREDICTION_INFO keys, PREDICTION_ARRAYS arrays). */
 export function annotateFrame(frame: Frame, p: FramePrediction, model: Model): Frame {
   const out: Frame = { ...frame, info: { ...frame.info }, arrays: { ...frame.arrays } };
-  for (const k of PREDICTION_INFO) out.info[k.key] = k.value(p, model);
+  for (const k of PREDICTION_INFO) {
+    const v = k.value(p, model);
+    if (v !== undefined) out.info[k.key] = v;
+  }
   for (const a of PREDICTION_ARRAYS) out.arrays[a.name(model)] = { kind: 'real', width: a.width, data: a.value(p) };
   return out;
 }

@@ -13,6 +13,7 @@ import {
   PRED_ARRAYS,
   PRED_KEYS,
   PREDICTION_COLUMNS,
+  columnsFor,
   predictionCsvOptions,
   tensorCsv,
   tensorCsvColumns,
@@ -33,8 +34,9 @@ afterAll(() => rmSync(dir, { recursive: true, force: true }));
 describe('prediction output format', () => {
   it('writes every PREDICTION_COLUMNS entry, in table order, after the tensors', () => {
     const cols = tensorCsvColumns(predictionCsvOptions(model, 'm.json'));
-    const names = PREDICTION_COLUMNS.filter((c) => c.for === 'any' || model.target.shape === 'tensor').map((c) => c.name);
+    const names = columnsFor(model.target.shape).map((c) => c.name);
     expect(cols.slice(-names.length)).toEqual(names);
+    expect(names).toEqual(PREDICTION_COLUMNS.filter((c) => c.for !== 'value').map((c) => c.name));
   });
 
   it('is read back by the trajectory reader with the names it was written with (CSV and extended XYZ)', async () => {
