@@ -12,6 +12,7 @@ import { tensorFromValues } from '../../core/dielectric/tensor.ts';
 import { parsePolarisabilityUnit, tensorFromA3, tensorToA3, type PolarisabilityUnit } from '../../core/dielectric/units.ts';
 import { writeExtxyz } from '../../io/extxyz.ts';
 import { readStructures } from '../../io/read-structures.ts';
+import { tensorKey } from '../../io/tensor-keys.ts';
 import { writeFrameTensorCsv } from '../tensor-table.ts';
 
 const options = [
@@ -53,9 +54,9 @@ export function frameVolume(frame: Frame): number {
   return cellVolume(frame.cell, whereOf(frame));
 }
 
+/** The usual name (io/tensor-keys.ts), except that a converted ε is not given the name an input ε∞ has. */
 function defaultKey(kind: TensorKind, unit: PolarisabilityUnit): string {
-  if (kind === 'eps') return 'eps_converted';
-  return `${kind === 'alpha-c' ? 'alpha_c' : 'alpha_cm'}_${unit === 'si' ? 'SI' : unit}`;
+  return kind === 'eps' ? 'eps_converted' : tensorKey(kind, unit);
 }
 
 export const convertCommand: Command = {

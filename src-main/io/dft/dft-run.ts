@@ -1,0 +1,123 @@
+// What a reader of a DFT code's output hands to `collect`: one finished linear-response run (structure in Å,
+// the reference tensor with its kind and units, the settings that must agree between runs), or the reason the
+// run cannot be used (it did not finish, did not converge, or computed something else). A file that is not an
+// output of a known code, or is damaged, is an InputError naming it. Shared by the readers in this folder.
+import { readFileSync, statSync } from 'node:fs';
+import { readFile, stat } from 'node:fs/promises';
+import { InputError, type Where } from '../../core/errors.ts';
+import type { Frame, Mat3 } from '../../core/geometry/frame.ts';
+import type { TensorKind } from '../../core/learning/model-types.ts';
+
+/** Output files larger than this are refused (a linear-response single point prints well under 10 MB). */
+export const MAX_OUTPUT_BYTES = 256 << 20;
+
+/** One setting that must agree between the runs collected together, e.g. the cutoff. */
+export interface RunSetting {
+  /** Plain name shown in reports: "functional", "cutoff", "basis", "k-points". */
+  name: string;
+  /** The value as compared (exact text after normalising spaces), e.g. "250 Ry". */
+  value: string;
+}
+
+/** A usable run: everything collect writes for it. */
+export interface DftRun {
+  /** The output file the tensor was read from (the run's name in reports). */
+  file: string;
+  /** Every file read for this run (output, input, coordinate file, the pw.x output of a ph.x run). */
+  files: string[];
+  /** Program and version, e.g. "CP2K 2023.1", "Quantum ESPRESSO 6.7MaX". */
+  program: string;
+  /** Species, positions and cell in Å; periodic. */
+  frame: Frame;
+  /** The reference tensor, row-major: α_c as a polarisability volume in Å³, or ε∞ (dimensionless). */
+  tensor: Mat3;
+  kind: Extract<TensorKind, 'alpha-c' | 'eps'>;
+  /** How the code printed it, for the report: "a.u. (bohr³), converted to Å³", "dimensionless". */
+  printedAs: string;
+  settings: RunSetting[];
+}
+
+export type RunStatus = 'unfinished' | 'unconverged' | 'unsuitable';
+
+/** A recognised output of a run that cannot be used, and why. */
+export interface UnusableRun {
+  file: string;
+  status: RunStatus;
+  reason: string;
+}
+
+export type RunReading = { ok: true; run: DftRun } | { ok: false; unusable: UnusableRun };
+
+export const unusable = (file: string, status: RunStatus, reason: string): RunReading => ({ ok: false, unusable: { file, status, reason } });
+
+/** The text of an output or input file, with clear errors for a missing, huge or binary file. */
+export async function readRunText(file: string): Promise<string> {
+  let size: number;
+  try {
+    const s = await stat(file);
+    if (s.isDirectory()) throw new InputError('this is a folder, not a file', { file }, 'give the output file of the run, or the folder to search');
+    size = s.size;
+  } catch (err) {
+    if (err instanceof InputError) throw err;
+    const code = (err as NodeJS.ErrnoException).code;
+    if (code === 'ENOENT') throw new InputError('file not found', { file }, 'check the path');
+    if (code === 'EACCES' || code === 'EPERM') throw new InputError('cannot read the file: permission denied', { file });
+    throw err;
+  }
+  if (size > MAX_OUTPUT_BYTES) {
+    throw new InputError(`the file is ${(size / 2 ** 20).toFixed(0)} MiB, more than a linear-response output (limit ${MAX_OUTPUT_BYTES / 2 ** 20} MiB)`, { file }, 'give the output of a single-point linear-response run');
+  }
+  const bytes = await readFile(file);
+  const probe = bytes.subarray(0, 65536);
+  if (probe.includes(0)) throw new InputError('this is a binary file, not the text output of a DFT code', { file }, 'give the text output (the log) of the run');
+  return bytes.toString('utf8');
+}
+
+/** A small companion file (coordinate file, input) named by a run; errors say who named it. */
+export function readRunTextSync(file: string, namedAt: Where): string {
+  try {
+    const size = statSync(file).size;
+    if (size > MAX_OUTPUT_BYTES) throw new InputError(`${file} is too large (${size} bytes)`, namedAt);
+    return readFileSync(file, 'utf8');
+  } catch (err) {
+    if (err instanceof InputError) throw err;
+    const code = (err as NodeJS.ErrnoException).code;
+    throw new InputError(code === 'ENOENT' ? `${file} is not there` : `cannot read ${file} (${code ?? String(err)})`, namedAt, 'the file named here must sit where the run left it');
+  }
+}
+
+/** The lines of a text, CRLF or LF. */
+export function splitLines(text: string): string[] {
+  return text.split(/\r?\n/);
+}
+
+/** The numbers on a line (Fortran D exponents allowed); null when a field is not a number. */
+export function numbersIn(text: string): number[] | null {
+  const fields = text.trim().split(/\s+/).filter((f) => f.length > 0);
+  const out: number[] = [];
+  for (const f of fields) {
+    const v = Number(f.replace(/[dD]/, 'e'));
+    if (!Number.isFinite(v)) return null;
+    out.push(v);
+  }
+  return out;
+}
+
+/** Largest asymmetry |T_ij − T_ji| of a printed response tensor accepted, relative to its largest component. */
+export const MAX_ASYMMETRY = 0.01;
+
+/**
+ * The symmetric part ½(T + Tᵀ) of a printed row-major tensor (a response tensor is symmetric; codes print it
+ * with the small asymmetry of their linear solvers), and the largest relative asymmetry. −0 is written as 0.
+ */
+export function symmetricPart(T: ArrayLike<number>): { tensor: Mat3; asymmetry: number } {
+  const big = Math.max(...Array.from(T, Math.abs));
+  const out = Float64Array.from(T, (v) => (v === 0 ? 0 : v));
+  let asymmetry = 0;
+  for (const [i, j] of [[1, 3], [2, 6], [5, 7]]) {
+    asymmetry = Math.max(asymmetry, big > 0 ? Math.abs(T[i] - T[j]) / big : 0);
+    const m = (T[i] + T[j]) / 2;
+    out[i] = out[j] = m === 0 ? 0 : m;
+  }
+  return { tensor: out, asymmetry };
+}
