@@ -18,7 +18,7 @@ import type { Frame } from '../src-main/core/geometry/frame.ts';
 import { modelFeaturiser, modelPredictor, predictWithFeatures, trainModel, type Model } from '../src-main/core/learning/model.ts';
 import { formatExtxyzFrame } from '../src-main/io/extxyz.ts';
 import { saveModel } from '../src-main/io/model-file.ts';
-import { predictionCsvOptions } from '../src-main/io/prediction/prediction-csv-layout.ts';
+import { predictionCsvOptions } from '../src-main/io/prediction/prediction-format.ts';
 import { streamPredict } from '../src-main/app/predict/stream-predict.ts';
 import { waterLikeFrames } from './water-like.ts';
 

@@ -16,7 +16,7 @@ import { makeRng } from '../src-main/core/numerics/random.ts';
 import { formatExtxyzFrame, parseExtxyz } from '../src-main/io/extxyz.ts';
 import { saveModel } from '../src-main/io/model-file.ts';
 import { streamPredict } from '../src-main/app/predict/stream-predict.ts';
-import { predictionCsvOptions } from '../src-main/io/prediction/prediction-csv-layout.ts';
+import { predictionCsvOptions } from '../src-main/io/prediction/prediction-format.ts';
 
 const mib = (b: number) => (b / 2 ** 20).toFixed(1);
 

@@ -1,6 +1,6 @@
 // SYNTHETIC data for the development gallery only: made-up numbers with a plausible shape, so each component
 // can be looked at without a trained model. Nothing here is a measurement or a model result.
-import type { ErrorFigures, ParityPoint } from '../src-main/core/learning/model-types.ts';
+import type { ErrorFiguresJ, ParityPointJ } from '../src-main/api/contract.ts';
 
 /** Small seeded generator (mulberry32) so the gallery looks the same on every run. */
 export function seeded(seed: number): { uniform: () => number; normal: () => number } {
@@ -20,9 +20,9 @@ export function seeded(seed: number): { uniform: () => number; normal: () => num
 }
 
 /** Synthetic parity points: 'training folds' (small error) and 'test' (larger error) frames. */
-export function syntheticParity(n = 160): { points: ParityPoint[]; groups: string[] } {
+export function syntheticParity(n = 160): { points: ParityPointJ[]; groups: string[] } {
   const rng = seeded(7);
-  const points: ParityPoint[] = [];
+  const points: ParityPointJ[] = [];
   const groups: string[] = [];
   for (let i = 0; i < n; i++) {
     const test = i % 5 === 0;
@@ -35,9 +35,9 @@ export function syntheticParity(n = 160): { points: ParityPoint[]; groups: strin
   return { points, groups };
 }
 
-export function figuresOf(points: ParityPoint[]): ErrorFigures {
+export function figuresOf(points: ParityPointJ[]): ErrorFiguresJ {
   const n = points.length;
-  const stat = (get: (p: ParityPoint, w: 'reference' | 'predicted') => number[]) => {
+  const stat = (get: (p: ParityPointJ, w: 'reference' | 'predicted') => number[]) => {
     const ref = points.flatMap((p) => get(p, 'reference'));
     const pred = points.flatMap((p) => get(p, 'predicted'));
     const mean = ref.reduce((s, v) => s + v, 0) / ref.length;
@@ -124,7 +124,7 @@ export function syntheticWaterBox(): {
 }
 
 /** SYNTHETIC learning curves of both routes: errors falling as a power of the training-set size, with noise. */
-export function syntheticLearningCurves(): { route: string; learningCurve: { trainSize: number; errors: ErrorFigures }[] }[] {
+export function syntheticLearningCurves(): { route: string; learningCurve: { trainSize: number; errors: ErrorFiguresJ }[] }[] {
   const rng = seeded(3);
   const sizes = [10, 20, 40, 80, 160, 320];
   const curve = (a0: number, a2: number, slope0: number, slope2: number) =>

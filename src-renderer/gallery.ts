@@ -3,7 +3,7 @@
 import { mount, type Component } from 'svelte';
 import { svgToString, svgToPng } from './components/charts/export-figure.ts';
 import ParityChart from './components/charts/ParityChart.svelte';
-import StructureView from './components/structure/CellView.svelte';
+import CellView from './components/structure/CellView.svelte';
 import LearningCurve from './components/charts/LearningCurve.svelte';
 import TrajectoryChart from './components/charts/TrajectoryChart.svelte';
 import { syntheticParity, figuresOf, syntheticWaterBox, syntheticLearningCurves, syntheticTrajectory } from './gallery-data.ts';
@@ -83,14 +83,14 @@ show('parity-norm', 'ParityChart, λ=2 invariant', ParityChart, {
 });
 
 const water = syntheticWaterBox();
-show('structure-atoms', 'StructureView, per atom', StructureView, {
+show('structure-atoms', 'CellView, per atom', CellView, {
   ...water,
   groups: water.groups,
   options: { ellipsoids: 'atom', tensorUnits: 'Å³', tensorLabel: 'local α_CM', epsLabel: 'synthetic values' },
   width: 900,
   height: 560,
 });
-show('structure-molecules', 'StructureView, per molecule, periodic images', StructureView, {
+show('structure-molecules', 'CellView, per molecule, periodic images', CellView, {
   ...water,
   options: { ellipsoids: 'molecule', images: true, tensorUnits: 'Å³', tensorLabel: 'local α_CM', epsLabel: 'synthetic values' },
   width: 900,
@@ -109,7 +109,7 @@ show('learning-curve-one', 'LearningCurve, one route, RMSE', LearningCurve, {
   width: 460,
 });
 
-show('structure-plain', 'StructureView, structure only (no tensors, no ε), skewed cell', StructureView, {
+show('structure-plain', 'CellView, structure only (no tensors, no ε), skewed cell', CellView, {
   species: water.species,
   positions: water.positions,
   cell: Float64Array.of(9.3, 0, 0, 1.8, 6.1, 0, 0.9, 1.2, 5.9),
@@ -125,8 +125,8 @@ show(
 );
 show(
   'structure-dark',
-  'StructureView, dark theme variables',
-  StructureView,
+  'CellView, dark theme variables',
+  CellView,
   { ...water, options: { ellipsoids: 'molecule', tensorUnits: 'Å³', tensorLabel: 'local α_CM', epsLabel: 'synthetic values' }, width: 900, height: 520 },
   true,
 );
@@ -176,7 +176,7 @@ if (location.search.includes('large')) {
         });
       }
   const big = Float64Array.from(c, (v) => v * reps);
-  show('structure-large', `StructureView, ${species.length} atoms`, StructureView, {
+  show('structure-large', `CellView, ${species.length} atoms`, CellView, {
     species,
     positions: Float64Array.from(pos),
     cell: big,

@@ -1,13 +1,11 @@
 // The CSV of predicted tensors the Export view writes: the same layout as `polarweave predict -o OUT.csv`
-// (io/csv.ts tensorCsv with io/prediction/prediction-csv-layout.ts's predictionCsvOptions and io/prediction/prediction-rows.ts rows), so the window's
+// (io/prediction/prediction-format.ts: predictionCsvOptions, tensorPredictionRow, tensorCsv), so the window's
 // file and the command line's agree row for row. Only the comment block's "Source" and "Written" lines differ.
 import type { FramePredictionJ } from '../api/contract.ts';
-import { predictionCsvOptions } from '../io/prediction/prediction-csv-layout.ts';
+import { predictionCsvOptions, tensorCsv, tensorPredictionRow } from '../io/prediction/prediction-format.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import type { Model } from '../core/learning/model.ts';
 import type { FramePrediction } from '../core/learning/model-types.ts';
-import { tensorPredictionRow } from '../io/prediction/prediction-rows.ts';
-import { tensorCsv } from '../io/csv.ts';
 
 function asFramePrediction(f: FramePredictionJ, local: number[], atomDistance: number[]): FramePrediction {
   const a = f.applicability;

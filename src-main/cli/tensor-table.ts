@@ -2,7 +2,7 @@
 // converted), shared by the commands that write one row per frame.
 import type { Frame, Mat3 } from '../core/geometry/frame.ts';
 import type { PolarisabilityUnit } from '../core/dielectric/units.ts';
-import { tensorCsvWriter } from '../io/csv.ts';
+import { tensorCsvWriter } from '../io/prediction/prediction-format.ts';
 
 export interface FrameTensors {
   frame: Frame;

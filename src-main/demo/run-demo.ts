@@ -15,7 +15,7 @@ import { toIrreducible, tensorFromValues } from '../core/dielectric/tensor.ts';
 import { birefringence, convertTensor, refractiveIndices } from '../core/dielectric/clausius-mossotti.ts';
 import { readAllStructures } from '../io/read-structures.ts';
 import { saveModel } from '../io/model-file.ts';
-import { writeTensorCsv, type TensorRow } from '../io/csv.ts';
+import { predictionCsvOptions, tensorPredictionRow, writeTensorCsv, type TensorRow } from '../io/prediction/prediction-format.ts';
 import { writeFileAtomic } from '../io/atomic.ts';
 
 /** Where the generator (scripts/generate-demo.ts) puts the bundled data. */
@@ -119,28 +119,13 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
     validation: join(outDir, 'liquid-validation.json'),
   };
   await saveModel(files.model, model);
-  const rows: TensorRow[] = crystal.map((f, i) => {
-    const p = predictions[i];
-    const r = refEps[i];
-    const extra: Record<string, number> = {
-      eps_ref_xx: r[0], eps_ref_yy: r[4], eps_ref_zz: r[8], eps_ref_xy: r[1], eps_ref_xz: r[2], eps_ref_yz: r[5],
-      max_distance: p.applicability.maxDistance, atoms_outside: p.applicability.atomsOutside, outside: p.applicability.outside ? 1 : 0,
-    };
-    return { frame: f.source?.index ?? i, tags: { state_point: String(f.info.state_point ?? '') }, volumeA3: p.volumeA3, eps: p.eps, alpha: p.alphaCM, extra };
-  });
-  await writeTensorCsv(files.csv, rows, {
+  // the prediction table of `predict`, with the reference ε of the invented data beside it; tag = state point
+  const rows: TensorRow[] = crystal.map((f, i) => tensorPredictionRow(f.source?.index ?? i, f, predictions[i], model, { reference: refEps[i], tagKey: 'state_point' }));
+  await writeTensorCsv(files.csv, rows, predictionCsvOptions(model, files.model, {
     title: 'Polarweave demo: predicted optical dielectric tensors of the invented crystal',
-    tagColumns: ['state_point'],
-    alpha: { kind: 'alpha-cm', unit: 'A3' },
-    extraColumns: ['eps_ref_xx', 'eps_ref_yy', 'eps_ref_zz', 'eps_ref_xy', 'eps_ref_xz', 'eps_ref_yz', 'max_distance', 'atoms_outside', 'outside'],
-    extraDescriptions: {
-      eps_ref_xx: 'eps_ref_*: reference tensor of the invented data (interacting point-dipole model), for comparison',
-      max_distance: 'largest feature-space distance of an atom to the training environments (0…2)',
-      atoms_outside: 'atoms beyond the applicability threshold; outside = 1 when any',
-    },
-    source: `demo model ${files.model} trained on the invented liquid (route cm)`,
-    predicted: true,
-  });
+    source: `demo model ${files.model} trained on the invented liquid (route cm); eps_ref_* from the invented data (interacting point-dipole model)`,
+    reference: true,
+  }));
   await writeFileAtomic(files.validation, JSON.stringify(report, null, 1) + '\n');
 
   const predictedMean = mean(predictions.map((p) => p.eps));

@@ -7,6 +7,7 @@ import { InputError } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { parseCsv, type CsvTable } from './csv.ts';
 import { readExtxyz } from './extxyz.ts';
+import { alphaColumn, COMPONENT_SLOTS, epsColumn, PRED_ARRAYS, PRED_KEYS, PREDICTION_COLUMNS, TENSOR_COMPONENTS, VALUE_COLUMNS, type TensorComponent } from './prediction/prediction-format.ts';
 
 export interface SpeciesSeries {
   species: string;
@@ -47,17 +48,14 @@ export interface TrajectorySeries {
   farthest: FarAtom[];
 }
 
-const VOIGT = ['xx', 'yy', 'zz', 'yz', 'xz', 'xy'];
-const SLOT: Record<string, [number, number]> = { xx: [0, 0], yy: [4, 4], zz: [8, 8], yz: [5, 7], xz: [2, 6], xy: [1, 3] };
-
-function tensorColumns(t: CsvTable, names: (c: string) => string): Float64Array | null {
-  const cols = VOIGT.map(names);
+function tensorColumns(t: CsvTable, names: (c: TensorComponent) => string): Float64Array | null {
+  const cols = TENSOR_COMPONENTS.map(names);
   if (!cols.every((c) => t.columns.includes(c))) return null;
   const n = t.records.length;
   const out = new Float64Array(9 * n);
-  VOIGT.forEach((c, k) => {
+  TENSOR_COMPONENTS.forEach((c, k) => {
     const v = t.numbers(cols[k]);
-    const [a, b] = SLOT[c];
+    const [a, b] = COMPONENT_SLOTS[c];
     for (let f = 0; f < n; f++) {
       out[9 * f + a] = v[f];
       out[9 * f + b] = v[f];
@@ -69,24 +67,32 @@ function tensorColumns(t: CsvTable, names: (c: string) => string): Float64Array 
 function fromCsv(t: CsvTable): TrajectorySeries {
   const has = (c: string) => t.columns.includes(c);
   if (!has('frame')) throw new InputError("no 'frame' column", { file: t.file }, 'analyse reads the CSV that `predict` writes');
-  const eps = tensorColumns(t, (c) => `eps_${c}`);
-  const alphaCM = tensorColumns(t, (c) => `alpha_cm_A3_${c}`) ?? tensorColumns(t, (c) => `alpha_cm_${c}_A3`);
-  const alphaC = tensorColumns(t, (c) => `alpha_c_A3_${c}`) ?? tensorColumns(t, (c) => `alpha_c_${c}_A3`);
+  const eps = tensorColumns(t, epsColumn);
+  const alphaCM = tensorColumns(t, (c) => alphaColumn('alpha-cm', c));
+  const alphaC = tensorColumns(t, (c) => alphaColumn('alpha-c', c));
   let dipole: Float64Array | null = null;
   let dipoleSource: string | null = null;
-  for (const p of ['dipole', 'value']) {
-    if ([`${p}_x`, `${p}_y`, `${p}_z`].every(has)) {
-      const xs = ['x', 'y', 'z'].map((a) => t.numbers(`${p}_${a}`));
+  // a vector model's predictions (the columns `predict` writes), else a dipole table of the user's
+  for (const names of [VALUE_COLUMNS.vector, ['dipole_x', 'dipole_y', 'dipole_z']]) {
+    if (names.every(has)) {
+      const xs = names.map((c) => t.numbers(c));
       dipole = new Float64Array(3 * t.records.length);
       for (let f = 0; f < t.records.length; f++) for (let a = 0; a < 3; a++) dipole[3 * f + a] = xs[a][f];
-      dipoleSource = `columns ${p}_x, ${p}_y, ${p}_z`;
+      dipoleSource = `columns ${names.join(', ')}`;
       break;
     }
   }
   if (!eps && !alphaCM && !alphaC && !dipole) {
-    throw new InputError('no tensor columns (eps_xx …, alpha_cm_A3_xx …) and no dipole columns', { file: t.file }, 'analyse reads the CSV that `predict` writes');
+    throw new InputError(`no tensor columns (${epsColumn('xx')} …, ${alphaColumn('alpha-cm', 'xx')} …) and no dipole columns`, { file: t.file }, 'analyse reads the CSV that `predict` writes');
   }
-  const threshold = has('threshold') ? t.numbers('threshold') : null;
+  const col = (name: string) => {
+    if (!PREDICTION_COLUMNS.some((c) => c.name === name)) throw new RangeError(`trajectory-series: '${name}' is not a prediction column`);
+    return has(name) ? t.numbers(name) : null;
+  };
+  const threshold = col('threshold');
+  const outsideCol = col('outside');
+  const atomsOutsideCol = col('atoms_outside');
+  const maxDistanceCol = col('max_distance');
   return {
     file: t.file,
     kind: 'csv',
@@ -97,9 +103,9 @@ function fromCsv(t: CsvTable): TrajectorySeries {
     alphaC,
     dipole,
     dipoleSource,
-    outside: has('outside') ? Array.from(t.numbers('outside'), (x) => x !== 0) : null,
-    atomsOutside: has('atoms_outside') ? Array.from(t.numbers('atoms_outside')) : null,
-    maxDistance: has('max_distance') ? Array.from(t.numbers('max_distance')) : null,
+    outside: outsideCol ? Array.from(outsideCol, (x) => x !== 0) : null,
+    atomsOutside: atomsOutsideCol ? Array.from(atomsOutsideCol) : null,
+    maxDistance: maxDistanceCol ? Array.from(maxDistanceCol) : null,
     threshold: threshold && threshold.length > 0 ? threshold[0] : null,
     species: null,
     localKind: null,
@@ -130,25 +136,25 @@ async function fromExtxyz(file: string, signal?: AbortSignal): Promise<Trajector
   let farthest: FarAtom[] = [];
   let k = 0;
   for await (const fr of readExtxyz(file, { signal })) {
-    const index = typeof fr.info.pred_frame === 'number' ? fr.info.pred_frame : (fr.source?.index ?? k);
-    const e = infoTensor(fr, 'pred_eps', index, file) ?? infoTensor(fr, 'eps_inf', index, file);
-    const acm = infoTensor(fr, 'pred_alpha_cm_A3', index, file);
-    const ac = infoTensor(fr, 'pred_alpha_c_A3', index, file);
-    if (k === 0) dipoleKey = ['pred_dipole', 'dipole'].find((d) => Array.isArray(fr.info[d]) && (fr.info[d] as number[]).length === 3) ?? null;
+    const index = typeof fr.info[PRED_KEYS.frame] === 'number' ? (fr.info[PRED_KEYS.frame] as number) : (fr.source?.index ?? k);
+    const e = infoTensor(fr, PRED_KEYS.eps, index, file) ?? infoTensor(fr, 'eps_inf', index, file);
+    const acm = infoTensor(fr, PRED_KEYS.alphaCM, index, file);
+    const ac = infoTensor(fr, PRED_KEYS.alphaC, index, file);
+    if (k === 0) dipoleKey = ['dipole'].find((d) => Array.isArray(fr.info[d]) && (fr.info[d] as number[]).length === 3) ?? null;
     const need = (ok: boolean, what: string) => {
       if (!ok) throw new InputError(`frame has no ${what} but the first frame has`, { file, frame: index }, 'every frame must carry the same keys');
     };
     if (k === 0 || eps.length > 0) {
       if (e) eps.push(...e);
-      else need(k === 0, 'pred_eps');
+      else need(k === 0, PRED_KEYS.eps);
     }
     if (k === 0 || alphaCM.length > 0) {
       if (acm) alphaCM.push(...acm);
-      else need(k === 0, 'pred_alpha_cm_A3');
+      else need(k === 0, PRED_KEYS.alphaCM);
     }
     if (k === 0 || alphaC.length > 0) {
       if (ac) alphaC.push(...ac);
-      else need(k === 0, 'pred_alpha_c_A3');
+      else need(k === 0, PRED_KEYS.alphaC);
     }
     if (dipoleKey) {
       const d = fr.info[dipoleKey];
@@ -157,10 +163,12 @@ async function fromExtxyz(file: string, signal?: AbortSignal): Promise<Trajector
     }
     frames.push(index);
     if (fr.cell) volume.push(Math.abs(cellVolume(fr.cell)));
-    if (typeof fr.info.pred_outside === 'boolean') outside.push(fr.info.pred_outside);
-    if (typeof fr.info.pred_max_distance === 'number') maxDistance.push(fr.info.pred_max_distance);
+    const out = fr.info[PRED_KEYS.outside];
+    if (typeof out === 'boolean') outside.push(out);
+    const md = fr.info[PRED_KEYS.maxDistance];
+    if (typeof md === 'number') maxDistance.push(md);
     // per-species contributions from the per-atom local tensors
-    const localName: string | null = k === 0 ? (['local_alpha_cm_A3', 'local_eps_minus_1'].find((n) => fr.arrays[n]?.width === 9) ?? null) : localKind;
+    const localName: string | null = k === 0 ? (([PRED_ARRAYS.localCM, PRED_ARRAYS.localDirect] as string[]).find((n) => fr.arrays[n]?.width === 9) ?? null) : localKind;
     if (k === 0 && localName) {
       localKind = localName;
       const names = [...new Set(fr.species)].sort();
@@ -177,7 +185,7 @@ async function fromExtxyz(file: string, signal?: AbortSignal): Promise<Trajector
       for (let i = 0; i < speciesOf.length; i++) for (let c = 0; c < 9; c++) sums[speciesOf[i]][c] += data[9 * i + c];
       species.forEach((s, j) => s.sum.push(...sums[j]));
     }
-    const dist = fr.arrays.feature_distance;
+    const dist = fr.arrays[PRED_ARRAYS.distance];
     if (dist && dist.width === 1) {
       const d = dist.data as Float64Array;
       for (let i = 0; i < d.length; i++) {
@@ -191,7 +199,7 @@ async function fromExtxyz(file: string, signal?: AbortSignal): Promise<Trajector
     k++;
   }
   if (eps.length === 0 && alphaCM.length === 0 && alphaC.length === 0 && dipole.length === 0) {
-    throw new InputError('the frames carry no pred_eps / pred_alpha_cm_A3 / pred_alpha_c_A3 (or eps_inf) keys', { file }, 'analyse reads what `predict … -o OUT.extxyz` writes');
+    throw new InputError(`the frames carry no ${PRED_KEYS.eps} / ${PRED_KEYS.alphaCM} / ${PRED_KEYS.alphaC} (or eps_inf) keys`, { file }, 'analyse reads what `predict … -o OUT.extxyz` writes');
   }
   const arr = (xs: number[]) => (xs.length > 0 ? Float64Array.from(xs) : null);
   return {

@@ -8,18 +8,20 @@ import { parseCsv } from '../../src-main/io/csv.ts';
 import { formatExtxyzFrame } from '../../src-main/io/extxyz.ts';
 import { SPEED_OF_LIGHT_CM_PER_S } from '../../src-main/core/trajectory/spectra.ts';
 import { cli } from './run-cli.ts';
+import { alphaColumn } from '../../src-main/io/prediction/prediction-format.ts';
 
 let dir: string;
 const p = (n: string) => join(dir, n);
 beforeAll(() => (dir = mkdtempSync(join(tmpdir(), 'pw-analyse-'))));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
-const VOIGT = ['xx', 'yy', 'zz', 'yz', 'xz', 'xy'];
+const VOIGT = ['xx', 'yy', 'zz', 'yz', 'xz', 'xy'] as const;
 
 /** A prediction-style CSV: frame, volume, ε and α_c in Voigt order, and applicability columns. */
 function writeSeries(file: string, n: number, eps: (f: number) => number[], alphaC?: (f: number) => number[], dipole?: (f: number) => number[]) {
   const cols = ['frame', 'tag', 'volume_A3', ...VOIGT.map((c) => `eps_${c}`)];
-  if (alphaC) cols.push(...VOIGT.map((c) => `alpha_c_A3_${c}`));
+  // the column names predict writes (io/prediction/prediction-format.ts)
+  if (alphaC) cols.push(...VOIGT.map((c) => alphaColumn('alpha-c', c)));
   if (dipole) cols.push('dipole_x', 'dipole_y', 'dipole_z');
   cols.push('max_distance', 'threshold', 'atoms_outside', 'outside');
   const lines = ['# synthetic series for the analyse tests', cols.join(',')];

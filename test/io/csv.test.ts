@@ -5,7 +5,8 @@ import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync } from 'node
 import os from 'node:os';
 import path from 'node:path';
 import { InputError, PhysicsError } from '../../src-main/core/errors.ts';
-import { csvField, parseCsv, tensorCsv, tensorCsvColumns, tensorCsvWriter, writeTensorCsv, type TensorRow } from '../../src-main/io/csv.ts';
+import { csvField, parseCsv } from '../../src-main/io/csv.ts';
+import { tensorCsv, tensorCsvColumns, tensorCsvWriter, writeTensorCsv, type TensorRow } from '../../src-main/io/prediction/prediction-format.ts';
 
 let dir: string;
 beforeAll(() => {

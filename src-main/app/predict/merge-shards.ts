@@ -8,7 +8,7 @@ import { createReadStream } from 'node:fs';
 import { createInterface } from 'node:readline';
 import { CancelledError, InputError } from '../../core/errors.ts';
 import { atomicWriteStream } from '../../io/atomic.ts';
-import { identityLine, parseIdentityLine, selectionText, type Identity, type SelectionText } from '../../io/prediction/prediction-text.ts';
+import { identityLine, parseFrameStamp, parseIdentityLine, parseShardStampText, PRED_KEYS, selectionText, type Identity, type SelectionText } from '../../io/prediction/prediction-format.ts';
 
 type Kind = 'csv' | 'extxyz';
 
@@ -57,14 +57,12 @@ async function* lines(file: string, signal?: AbortSignal): AsyncGenerator<string
   }
 }
 
-const STAMP = / pred_frame=(\d+) pred_model_sha256=([0-9a-f]{64}) pred_input=(\S+)( pred_shard="([^"]*)")?$/;
-const SHARD_TEXT = /^(\d+)\/(\d+) frames (\d+):(\d*) step (\d+) of (\d+):(\d*) step (\d+)$/;
+const NO_STAMP = `carries no ${PRED_KEYS.frame} / ${PRED_KEYS.modelSha256} / ${PRED_KEYS.input} stamp`;
 
 function parseShardStamp(text: string, file: string, line: number) {
-  const m = SHARD_TEXT.exec(text);
-  if (!m) throw new InputError(`unreadable pred_shard value "${text}"`, { file, line }, 'the file was not written by `predict --shard`, or was edited');
-  const sel = (a: string, b: string, s: string): SelectionText => ({ start: Number(a), stop: b === '' ? null : Number(b), step: Number(s) });
-  return { k: Number(m[1]), n: Number(m[2]), frames: sel(m[3], m[4], m[5]), of: sel(m[6], m[7], m[8]) };
+  const s = parseShardStampText(text);
+  if (!s) throw new InputError(`unreadable ${PRED_KEYS.shard} value "${text}"`, { file, line }, 'the file was not written by `predict --shard`, or was edited');
+  return s;
 }
 
 /** Identity and first frame of a shard, from its first lines. */
@@ -98,10 +96,10 @@ async function head(file: string, signal?: AbortSignal): Promise<ShardHead> {
   for await (const l of lines(file, signal)) {
     n++;
     if (n === 2) {
-      const m = STAMP.exec(l);
-      if (!m) throw new InputError('frame 0 of the file carries no pred_frame / pred_model_sha256 / pred_input stamp', { file, line: 2 }, 'merge joins files written by `polarweave predict`');
-      const s = m[5] !== undefined ? parseShardStamp(m[5], file, 2) : undefined;
-      return { file, kind, modelSha256: m[2], input: m[3], identity: null, comments: [], columns: null, frames: s?.frames, shard: s ? { k: s.k, n: s.n, of: s.of } : undefined, first: Number(m[1]) };
+      const m = parseFrameStamp(l);
+      if (!m) throw new InputError(`frame 0 of the file ${NO_STAMP}`, { file, line: 2 }, 'merge joins files written by `polarweave predict`');
+      const s = m.shardText !== null ? parseShardStamp(m.shardText, file, 2) : undefined;
+      return { file, kind, modelSha256: m.modelSha256, input: m.input, identity: null, comments: [], columns: null, frames: s?.frames, shard: s ? { k: s.k, n: s.n, of: s.of } : undefined, first: m.frame };
     }
   }
   // an empty extended XYZ shard (no frames): nothing to check but its name
@@ -238,15 +236,15 @@ export async function mergeShards(files: string[], output: string, signal?: Abor
             continue;
           }
           if (atomsLeft === 0) {
-            const m = STAMP.exec(l);
-            if (!m) throw new InputError('the frame carries no pred_frame / pred_model_sha256 / pred_input stamp', { file: h.file, line: n }, 'merge joins files written by `polarweave predict`');
-            if (m[2] !== ref?.modelSha256) throw new InputError(`a frame comes from another model (sha256 ${m[2].slice(0, 12)}…)`, { file: h.file, line: n }, 'predict every shard with the same model file');
-            const frame = Number(m[1]);
+            const m = parseFrameStamp(l);
+            if (!m) throw new InputError(`the frame ${NO_STAMP}`, { file: h.file, line: n }, 'merge joins files written by `polarweave predict`');
+            if (m.modelSha256 !== ref?.modelSha256) throw new InputError(`a frame comes from another model (sha256 ${m.modelSha256.slice(0, 12)}…)`, { file: h.file, line: n }, 'predict every shard with the same model file');
+            const frame = m.frame;
             check(h.file, frame, n, last);
             if (first === null) first = frame;
             last = frame;
             count++;
-            await out.write((m[4] ? l.slice(0, l.length - m[4].length) : l) + '\n');
+            await out.write((m.shardField ? l.slice(0, l.length - m.shardField.length) : l) + '\n');
             atomsLeft = frameAtoms;
             if (atomsLeft === 0) atomsLeft = -1;
             continue;

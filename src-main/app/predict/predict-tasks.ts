@@ -8,8 +8,8 @@ import type { Frame } from '../../core/geometry/frame.ts';
 import { modelPredictor, type Model, type Predictor } from '../../core/learning/model.ts';
 import { frameFromBytes } from '../../io/extxyz.ts';
 import { parseModel } from '../../io/model-file.ts';
-import type { TensorCsvOptions } from '../../io/csv.ts';
-import { predictFrameText, type FrameStamp, type PredictFormat } from '../../io/prediction/prediction-text.ts';
+import type { FrameStamp, TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
+import { predictFrameText, type PredictFormat } from './predict-frame.ts';
 import type { TaskContext, TaskRegistry } from '../../jobs/task.ts';
 
 export interface PredictChunkInput {

@@ -19,8 +19,8 @@ import { indexExtxyz, type FrameRange } from '../../io/extxyz.ts';
 import { syncFolder, writeFileAtomic } from '../../io/atomic.ts';
 import { parseModel } from '../../io/model-file.ts';
 import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
-import type { TensorCsvOptions } from '../../io/csv.ts';
-import { predictionCsvHeader, selectionText, type Identity, type PredictFormat, type SelectionText } from '../../io/prediction/prediction-text.ts';
+import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
+import type { PredictFormat } from './predict-frame.ts';
 import { sha256Hex, type PredictChunkInput, type PredictChunkOutput } from './predict-tasks.ts';
 import { JobRunner, type WorkerFactory } from '../../jobs/runner.ts';
 import { tsWorkerFactory } from '../../jobs/spawn-ts.ts';
@@ -227,7 +227,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   const stamp = {
     modelSha256,
     input: `${identity.inputName}:${stat.size}`,
-    shard: opts.shard && shardOf ? `${opts.shard.k}/${opts.shard.n} frames ${selectionText(selection)} of ${selectionText(shardOf)}` : undefined,
+    shard: opts.shard && shardOf ? shardStampText(opts.shard.k, opts.shard.n, selection, shardOf) : undefined,
   };
   const want = {
     modelSha256,

@@ -10,7 +10,8 @@ import { infraredSpectrum, ramanSpectra, type QuantumCorrection, type Spectrum, 
 import { opticalStats, tensorStats, type OpticalStats, type TensorStats } from '../../core/trajectory/trajectory-summary.ts';
 import { InputError } from '../../core/errors.ts';
 import { writeFileAtomic } from '../../io/atomic.ts';
-import { csvField, tensorCsvWriter } from '../../io/csv.ts';
+import { csvField } from '../../io/csv.ts';
+import { tensorCsvWriter } from '../../io/prediction/prediction-format.ts';
 import { readTrajectorySeries, type TrajectorySeries } from '../../io/trajectory-series.ts';
 
 const options = [

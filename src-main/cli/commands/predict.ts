@@ -9,14 +9,12 @@ import { CancelledError } from '../../core/errors.ts';
 import type { Frame } from '../../core/geometry/frame.ts';
 import { framePredictionFrom, modelPredictor, type Model, type Predictor } from '../../core/learning/model.ts';
 import { findMolecules } from '../../core/geometry/molecules.ts';
-import { annotateFrame, tensorPredictionRow, valuePredictionRow, valueRowColumns, type PredictionRow } from '../../io/prediction/prediction-rows.ts';
-import { tensorCsvWriter, csvField, type TensorRow } from '../../io/csv.ts';
-import { predictionCsvOptions } from '../../io/prediction/prediction-csv-layout.ts';
+import { annotateFrame, predictionCsvOptions, tensorCsvWriter, tensorPredictionRow, valuePredictionRow, valueRowColumns, type PredictionRow, type TensorRow } from '../../io/prediction/prediction-format.ts';
+import { csvRecord } from '../../io/csv.ts';
 import { formatExtxyzFrame, type FrameRange } from '../../io/extxyz.ts';
 import { readStructures } from '../../io/read-structures.ts';
 import { atomicWriteStream, type AtomicWriteStream } from '../../io/atomic.ts';
 import { loadModel } from '../../io/model-file.ts';
-import { csvRecord } from '../../io/prediction/prediction-text.ts';
 import { checkpointPaths, progressLine, streamPredict, type StreamPredictOptions } from '../../app/predict/stream-predict.ts';
 import { availableParallelism } from 'node:os';
 

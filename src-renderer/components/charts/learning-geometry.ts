@@ -1,7 +1,7 @@
 // Geometry of the learning curve: one line per (route, part) with the chosen error figure against the
 // training-set size, and log-axis ranges padded by a fraction of a decade. Non-positive values cannot be drawn
 // on a log axis: they are left out and counted, so the chart can say so.
-import type { ErrorFigures } from '../../../src-main/core/learning/model-types.ts';
+import type { ErrorFiguresJ } from '../../../src-main/api/contract.ts';
 
 export type CurveMetric = 'percent' | 'rmse';
 export type CurvePart = 'iso' | 'aniso';
@@ -10,7 +10,7 @@ export interface LearningCurveInput {
   /** 'cm' or 'direct' (or any name). */
   route: string;
   label?: string;
-  learningCurve: { trainSize: number; errors: ErrorFigures }[];
+  learningCurve: { trainSize: number; errors: ErrorFiguresJ }[];
 }
 
 export interface CurveLine {
@@ -22,7 +22,7 @@ export interface CurveLine {
   points: { n: number; value: number }[];
 }
 
-export function metricOf(e: ErrorFigures, part: CurvePart, metric: CurveMetric): number {
+export function metricOf(e: ErrorFiguresJ, part: CurvePart, metric: CurveMetric): number {
   if (metric === 'percent') return part === 'iso' ? e.percentIso : e.percentAniso;
   return part === 'iso' ? e.rmseIso : e.rmseAniso;
 }

@@ -1,7 +1,7 @@
 // Geometry of the parity chart (reference against predicted), kept out of the component so it can be tested
 // without a browser: which numbers are plotted for each part, the common axis range of both axes, the error
 // figures of what is plotted, and the frames with the largest errors.
-import type { ParityPoint } from '../../../src-main/core/learning/model-types.ts';
+import type { ParityPointJ } from '../../../src-main/api/contract.ts';
 
 /** Which irreducible part is plotted. */
 export type ParityPart = 'iso' | 'aniso';
@@ -17,7 +17,7 @@ export interface ParityDatum {
   x: number;
   /** Predicted value (y). */
   y: number;
-  /** Frame index as given in the ParityPoint. */
+  /** Frame index as given in the ParityPointJ. */
   frame: number;
   /** Position of the point in the input array. */
   point: number;
@@ -35,7 +35,7 @@ export interface ParitySeries {
   skipped: { point: number; frame: number; reason: string }[];
 }
 
-function checkPoint(p: ParityPoint, i: number): void {
+function checkPoint(p: ParityPointJ, i: number): void {
   if (p.reference.length !== 6 || p.predicted.length !== 6) {
     throw new RangeError(
       `parity point ${i} (frame ${p.frame}): reference and predicted need 6 numbers each [T⁰, T²₋₂…T²₂], ` +
@@ -56,7 +56,7 @@ export function anisoNorm(parts: readonly number[]): number {
  * point's `label` is used, else "all".
  */
 export function paritySeries(
-  points: readonly ParityPoint[],
+  points: readonly ParityPointJ[],
   part: ParityPart,
   anisoMode: AnisoMode = 'components',
   groups?: readonly string[],
@@ -144,7 +144,7 @@ export interface FrameError {
 }
 
 /** Frames sorted by their error in the given part, largest first (at most `limit`). */
-export function worstFrames(points: readonly ParityPoint[], part: ParityPart, limit = 10): FrameError[] {
+export function worstFrames(points: readonly ParityPointJ[], part: ParityPart, limit = 10): FrameError[] {
   const out: FrameError[] = [];
   points.forEach((p, i) => {
     checkPoint(p, i);

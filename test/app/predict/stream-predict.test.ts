@@ -9,7 +9,7 @@ import { parseCsv } from '../../../src-main/io/csv.ts';
 import { parseExtxyz } from '../../../src-main/io/extxyz.ts';
 import { saveModel } from '../../../src-main/io/model-file.ts';
 import { checkpointPaths, streamPredict, type StreamPredictOptions } from '../../../src-main/app/predict/stream-predict.ts';
-import { predictionCsvOptions } from '../../../src-main/io/prediction/prediction-csv-layout.ts';
+import { predictionCsvOptions } from '../../../src-main/io/prediction/prediction-format.ts';
 import { jitteredTrajectory, smallModel, trajectoryText } from '../../helpers/trajectory.ts';
 import type { Frame } from '../../../src-main/core/geometry/frame.ts';
 import type { Model } from '../../../src-main/core/learning/model.ts';

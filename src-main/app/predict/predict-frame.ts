@@ -1,0 +1,77 @@
+// The per-frame step of every predict sink: predict one frame with a loaded model and give its row (CSV), its
+// annotated and stamped frame (extended XYZ) or its text. The streamed file path (in worker threads), the
+// in-memory path (CIF and other small inputs), the window's export and the demo all go through here, so a
+// frame is predicted and laid out the same way whichever front end asked. The layout itself is
+// io/prediction/prediction-format.ts.
+import type { Frame, Mat3 } from '../../core/geometry/frame.ts';
+import { framePredictionFrom, type Model, type Predictor } from '../../core/learning/model.ts';
+import type { FramePrediction } from '../../core/learning/model-types.ts';
+import { findMolecules } from '../../core/geometry/molecules.ts';
+import { formatExtxyzFrame } from '../../io/extxyz.ts';
+import {
+  annotateFrame,
+  PRED_ARRAYS,
+  stampFrame,
+  tensorCsvRow,
+  tensorPredictionRow,
+  valuePredictionRow,
+  valueRowText,
+  type FrameStamp,
+  type PredictionRow,
+  type TensorCsvOptions,
+  type TensorRow,
+} from '../../io/prediction/prediction-format.ts';
+
+export type PredictFormat = 'csv' | 'extxyz';
+
+export interface PredictedFrame {
+  index: number;
+  /** Tensor models: the cell tensors, local contributions and applicability. */
+  tensor: FramePrediction | null;
+  /** Vector and scalar models: the table row. */
+  valueRow: PredictionRow | null;
+  outside: boolean;
+  atomsOutside: number;
+  maxDistance: number;
+}
+
+/** Predict one frame (any target shape). */
+export function predictOne(model: Model, predict: Predictor, frame: Frame, index: number): PredictedFrame {
+  const pred = predict(frame, index);
+  const a = pred.applicability;
+  const figures = { index, outside: a.outside, atomsOutside: a.atomsOutside, maxDistance: a.maxDistance };
+  if (model.target.shape !== 'tensor') return { ...figures, tensor: null, valueRow: valuePredictionRow(model, index, frame, pred) };
+  return { ...figures, tensor: framePredictionFrom(model, frame, pred, index), valueRow: null };
+}
+
+/** A tensor prediction's table row (with the frame's reference tensor beside it, when given). */
+export function predictedRow(model: Model, frame: Frame, one: PredictedFrame, more: { reference?: Mat3; tagKey?: string } = {}): TensorRow {
+  return tensorPredictionRow(one.index, frame, one.tensor as FramePrediction, model, more);
+}
+
+/** The annotated frame extended XYZ output holds: prediction keys, per-atom arrays, molecules, the stamp. */
+export function predictedFrame(model: Model, frame: Frame, one: PredictedFrame, stamp: FrameStamp): Frame {
+  const out = annotateFrame(frame, one.tensor as FramePrediction, model);
+  out.arrays[PRED_ARRAYS.molecule] = { kind: 'int', width: 1, data: findMolecules(frame).molecule };
+  return stampFrame(out, one.index, stamp);
+}
+
+/** The exact text `predict` writes for one predicted frame (a CSV row or an annotated extended XYZ frame). */
+export function predictedText(model: Model, frame: Frame, one: PredictedFrame, format: PredictFormat, stamp: FrameStamp, csvOptions?: TensorCsvOptions): string {
+  if (model.target.shape !== 'tensor') return valueRowText(model, one.valueRow as PredictionRow);
+  if (format === 'csv') return tensorCsvRow(predictedRow(model, frame, one), csvOptions as TensorCsvOptions);
+  return formatExtxyzFrame(predictedFrame(model, frame, one, stamp));
+}
+
+export interface FrameText {
+  text: string;
+  outside: boolean;
+  atomsOutside: number;
+  maxDistance: number;
+}
+
+/** Predict one frame and format it. */
+export function predictFrameText(model: Model, predict: Predictor, frame: Frame, index: number, format: PredictFormat, stamp: FrameStamp, csvOptions?: TensorCsvOptions): FrameText {
+  const one = predictOne(model, predict, frame, index);
+  return { text: predictedText(model, frame, one, format, stamp, csvOptions), outside: one.outside, atomsOutside: one.atomsOutside, maxDistance: one.maxDistance };
+}
