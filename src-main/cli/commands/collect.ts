@@ -2,7 +2,7 @@
 // extended XYZ file of reference frames. The work is app/collect.ts; this prints its report.
 import { parseArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
-import { collectToFile, describeStatus } from '../../app/collect.ts';
+import { collectToFile, describeStatus } from '../../app/collect-references.ts';
 import { tensorKey } from '../../io/tensor-keys.ts';
 
 const options = [{ name: 'output', short: 'o', value: 'OUT.extxyz', help: 'the collected frames (extended XYZ; .gz compresses)' }];
@@ -41,7 +41,7 @@ export const collectCommand: Command = {
       io.err(`left out ${r.left.length} run${r.left.length === 1 ? '' : 's'}:\n`);
       for (const l of r.left) io.err(`  ${l.file}: ${describeStatus(l.status)}: ${l.reason}\n`);
     }
-    if (r.skipped) io.err(`(${r.skipped} other file${r.skipped === 1 ? '' : 's'} in the folders given are not DFT outputs and were passed over)\n`);
+    if (r.skipped) io.err(`(${r.skipped} other file${r.skipped === 1 ? '' : 's'} passed over: DFT inputs, and files in the folders given that are not DFT outputs)\n`);
     return 0;
   },
 };

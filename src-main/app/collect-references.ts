@@ -35,7 +35,7 @@ export interface CollectResult {
   settings: RunSetting[];
   /** Settings printed for only some runs, so not compared. */
   notCompared: string[];
-  /** Files met while searching folders that are not outputs of a supported code. */
+  /** Files passed over: inputs of the codes, and files in the folders given that are not outputs. */
   skipped: number;
 }
 
@@ -65,6 +65,11 @@ export function naturalCompare(a: string, b: string): number {
     return x[i] < y[i] ? -1 : 1;
   }
   return x.length - y.length;
+}
+
+/** Inputs of the supported codes: named among the runs, they are passed over (the outputs lead to them). */
+function isCompanionInput(head: string): boolean {
+  return /^\s*&(GLOBAL|FORCE_EVAL)\b/im.test(head) || /^\s*&(control|system|electrons|inputph)\b/im.test(head);
 }
 
 type Identified = { file: string; text: string; code: 'cp2k' } | { file: string; text: string; code: 'qe'; output: QeOutput };
@@ -135,6 +140,7 @@ export async function gatherRuns(inputs: string[], options: { signal?: AbortSign
       const text = await readRunText(file);
       const id = identify(file, text);
       if (id) outputs.push(id);
+      else if (isCompanionInput(text.slice(0, 16384))) skipped++;
       else if (named) {
         throw new InputError('not an output of a supported DFT code', { file }, 'give the text output of a CP2K run, or of Quantum ESPRESSO pw.x and ph.x (inputs and coordinate files are found from the output)');
       } else skipped++;
