@@ -297,7 +297,11 @@ export function readCp2kRun(file: string, text: string): RunReading {
     throw new InputError(`the output has ${count} atoms, its input (${atoms.source}) ${species.length}`, { file }, 'give the input (and coordinate file) that made this output');
   }
   const frame = makeFrame(species, positions, cell);
-  cellVolume(cell, { file: inputFile });
+  const volume = cellVolume(cell, { file: inputFile });
+  const printedVolume = outputValue(lines.slice(0, 2000), /CELL\|\s+Volume \[angstrom\^3\]:\s+(\S+)/);
+  if (printedVolume !== null && Math.abs(Number(printedVolume) - volume) > 1e-5 * volume) {
+    throw new InputError(`the output's cell has ${printedVolume} Å³, the cell of its input ${volume.toPrecision(9)} Å³`, { file }, 'give the input that made this output');
+  }
   return {
     ok: true,
     run: {
