@@ -55,7 +55,7 @@ describe('collect references from DFT output', () => {
   it('writes the tensor under the usual key with its kind and units, and ε = I + 4πα_c/V holds', async () => {
     const dir = tmp();
     await collectToFile([join(cp2k, 'water-a.out'), join(cp2k, 'water-b.out')], join(dir, 'water.extxyz'));
-    const frames = parseExtxyz(readFileSync(join(dir, 'water.extxyz'), 'utf8'));
+    const frames = parseExtxyz(readFileSync(join(dir, 'water.extxyz'), 'utf8'), 'water.extxyz');
     expect(frames).toHaveLength(2);
     const f = frames[0];
     expect(f.info.reference_kind).toBe('alpha-c');

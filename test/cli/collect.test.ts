@@ -27,7 +27,7 @@ describe('polarweave collect', () => {
     expect(r.out).toMatch(/collected 2 runs into .*refs\.extxyz: eps_inf \(ε∞, dimensionless\), Quantum ESPRESSO 6\.7MaX/);
     expect(r.out).toMatch(/k-points: mesh 4×4×4, offset 1 1 1/);
     expect(r.err).toMatch(/left out 2 runs:\n.*si-kmesh-2\.ph\.out: different settings: k-points mesh 2×2×2.*\n.*si-unconverged\.pw\.out: did not converge/);
-    const frames = parseExtxyz(readFileSync(out, 'utf8'));
+    const frames = parseExtxyz(readFileSync(out, 'utf8'), out);
     expect(frames.map((f) => f.info.dft_run)).toEqual(['si-alat.ph.out', 'si-angstrom.ph.out']);
     expect(frames[0].info.eps_inf).toEqual([13.636816049, 0, 0, 0, 13.636816049, 0, 0, 0, 13.636816049]);
   });
@@ -39,7 +39,7 @@ describe('polarweave collect', () => {
     const eps = join(dir, 'eps.extxyz');
     const c = await cli('convert', refs, '--tensor', 'alpha_c_A3', '--as', 'alpha-c', '--to', 'eps', '-o', eps);
     expect(c.code).toBe(0);
-    for (const f of parseExtxyz(readFileSync(eps, 'utf8'))) {
+    for (const f of parseExtxyz(readFileSync(eps, 'utf8'), eps)) {
       const a = f.info.alpha_c_A3 as number[];
       const e = f.info.eps_converted as number[];
       const V = cellVolume(f.cell!);
