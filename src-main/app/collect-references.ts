@@ -9,15 +9,15 @@ import { CancelledError, InputError } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { writeExtxyz } from '../io/extxyz.ts';
 import { tensorKey } from '../io/tensor-keys.ts';
-import { readRunText, splitLines, type DftRun, type RunReading, type RunSetting, type RunStatus } from '../io/dft/dft-run.ts';
+import { readRunHead, readRunText, splitLines, type DftRun, type RunReading, type RunSetting, type RunStatus } from '../io/dft/dft-run.ts';
 import { isCp2kOutput, readCp2kRun } from '../io/dft/cp2k.ts';
 import { qeProgramOf, readQeRuns, type QeOutput } from '../io/dft/quantum-espresso.ts';
 
 /** Folders are searched this deep and for at most this many files, so a wrong folder cannot hang the run. */
 const MAX_FOLDER_DEPTH = 4;
 const MAX_FILES = 20000;
-/** Only files up to this size are opened when searching a folder (outputs are recognised by their first lines). */
-const MAX_SEARCHED_FILE_BYTES = 64 << 20;
+/** Outputs are recognised by this many bytes at their start; a folder's other files are not read further. */
+const HEAD_BYTES = 16384;
 
 export type LeftOutStatus = RunStatus | 'settings' | 'error';
 
@@ -75,7 +75,7 @@ function isCompanionInput(head: string): boolean {
 type Identified = { file: string; text: string; code: 'cp2k' } | { file: string; text: string; code: 'qe'; output: QeOutput };
 
 function identify(file: string, text: string): Identified | null {
-  const head = text.slice(0, 16384);
+  const head = text.slice(0, HEAD_BYTES);
   if (isCp2kOutput(head)) return { file, text, code: 'cp2k' };
   const program = qeProgramOf(head);
   if (program) return { file, text, code: 'qe', output: { file, program, text, lines: splitLines(text) } };
@@ -133,14 +133,11 @@ export async function gatherRuns(inputs: string[], options: { signal?: AbortSign
     if (options.signal?.aborted) throw new CancelledError();
     const named = explicit.has(file);
     try {
-      if (!named && (await stat(file)).size > MAX_SEARCHED_FILE_BYTES) {
-        skipped++;
-        continue;
-      }
-      const text = await readRunText(file);
-      const id = identify(file, text);
+      const head = await readRunHead(file, HEAD_BYTES);
+      const kind = identify(file, head);
+      const id = kind ? identify(file, await readRunText(file)) : null;
       if (id) outputs.push(id);
-      else if (isCompanionInput(text.slice(0, 16384))) skipped++;
+      else if (isCompanionInput(head)) skipped++;
       else if (named) {
         throw new InputError('not an output of a supported DFT code', { file }, 'give the text output of a CP2K run, or of Quantum ESPRESSO pw.x and ph.x (inputs and coordinate files are found from the output)');
       } else skipped++;

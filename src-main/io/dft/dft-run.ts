@@ -3,7 +3,7 @@
 // run cannot be used (it did not finish, did not converge, or computed something else). A file that is not an
 // output of a known code, or is damaged, is an InputError naming it. Shared by the readers in this folder.
 import { readFileSync, statSync } from 'node:fs';
-import { readFile, stat } from 'node:fs/promises';
+import { open, readFile, stat } from 'node:fs/promises';
 import { InputError, type Where } from '../../core/errors.ts';
 import type { Frame, Mat3 } from '../../core/geometry/frame.ts';
 import type { TensorKind } from '../../core/learning/model-types.ts';
@@ -50,8 +50,21 @@ export type RunReading = { ok: true; run: DftRun } | { ok: false; unusable: Unus
 
 export const unusable = (file: string, status: RunStatus, reason: string): RunReading => ({ ok: false, unusable: { file, status, reason } });
 
-/** The text of an output or input file, with clear errors for a missing, huge or binary file. */
-export async function readRunText(file: string): Promise<string> {
+/** The first `bytes` bytes of a file as text (to recognise an output), with the same errors as readRunText. */
+export async function readRunHead(file: string, bytes: number): Promise<string> {
+  await checkRunFile(file);
+  const fh = await open(file, 'r');
+  try {
+    const buf = Buffer.alloc(bytes);
+    const { bytesRead } = await fh.read(buf, 0, bytes, 0);
+    if (buf.subarray(0, bytesRead).includes(0)) throw new InputError('this is a binary file, not the text output of a DFT code', { file }, 'give the text output (the log) of the run');
+    return buf.subarray(0, bytesRead).toString('utf8');
+  } finally {
+    await fh.close();
+  }
+}
+
+async function checkRunFile(file: string): Promise<number> {
   let size: number;
   try {
     const s = await stat(file);
@@ -64,6 +77,12 @@ export async function readRunText(file: string): Promise<string> {
     if (code === 'EACCES' || code === 'EPERM') throw new InputError('cannot read the file: permission denied', { file });
     throw err;
   }
+  return size;
+}
+
+/** The text of an output or input file, with clear errors for a missing, huge or binary file. */
+export async function readRunText(file: string): Promise<string> {
+  const size = await checkRunFile(file);
   if (size > MAX_OUTPUT_BYTES) {
     throw new InputError(`the file is ${(size / 2 ** 20).toFixed(0)} MiB, more than a linear-response output (limit ${MAX_OUTPUT_BYTES / 2 ** 20} MiB)`, { file }, 'give the output of a single-point linear-response run');
   }
