@@ -9,7 +9,7 @@ import { CancelledError, InputError } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { writeExtxyz } from '../io/extxyz.ts';
 import { tensorKey } from '../io/tensor-keys.ts';
-import { readRunHead, readRunText, splitLines, type DftRun, type RunReading, type RunSetting, type RunStatus } from '../io/dft/dft-run.ts';
+import { diskFiles, filesByName, readRunHead, readRunText, splitLines, type RunFiles, type DftRun, type RunReading, type RunSetting, type RunStatus } from '../io/dft/dft-run.ts';
 import { isCp2kOutput, readCp2kRun } from '../io/dft/cp2k.ts';
 import { qeProgramOf, readQeRuns, type QeOutput } from '../io/dft/quantum-espresso.ts';
 
@@ -147,6 +147,15 @@ export async function gatherRuns(inputs: string[], options: { signal?: AbortSign
       else skipped++;
     }
   }
+  const read = readOutputs(outputs, diskFiles);
+  return { readings: read.readings, errors: [...errors, ...read.errors], skipped };
+}
+
+type Gathered = { readings: RunReading[]; errors: LeftOut[]; skipped: number };
+
+/** The runs of recognised outputs; companions (inputs, coordinate files) come from `files`. */
+function readOutputs(outputs: Identified[], files: RunFiles): { readings: RunReading[]; errors: LeftOut[] } {
+  const errors: LeftOut[] = [];
   const readings: RunReading[] = [];
   const guard = (file: string, read: () => RunReading[]): void => {
     try {
@@ -156,11 +165,39 @@ export async function gatherRuns(inputs: string[], options: { signal?: AbortSign
       else throw e;
     }
   };
-  for (const o of outputs) if (o.code === 'cp2k') guard(o.file, () => [readCp2kRun(o.file, o.text)]);
+  for (const o of outputs) if (o.code === 'cp2k') guard(o.file, () => [readCp2kRun(o.file, o.text, files)]);
   const qe = outputs.flatMap((o) => (o.code === 'qe' ? [o.output] : []));
   // Pairing reads every pw.x output once; a broken one must not stop the others, so each ph.x pair is guarded.
-  if (qe.length) guard(qe[0].file, () => readQeRuns(qe, (file, e) => errors.push({ file, status: 'error', reason: e.message })));
-  return { readings, errors, skipped };
+  if (qe.length) guard(qe[0].file, () => readQeRuns(qe, (file, e) => errors.push({ file, status: 'error', reason: e.message }), files));
+  return { readings, errors };
+}
+
+/**
+ * The same for files handed over as texts (the window's uploads): outputs are recognised by their first lines,
+ * companions found among the same files by name; anything else is reported as not an output.
+ */
+export function gatherTexts(texts: readonly { name: string; text: string }[]): Gathered {
+  const errors: LeftOut[] = [];
+  let skipped = 0;
+  const outputs: Identified[] = [];
+  const seen = new Set<string>();
+  for (const t of [...texts].sort((a, b) => naturalCompare(a.name, b.name))) {
+    if (seen.has(t.name)) {
+      errors.push({ file: t.name, status: 'error', reason: `${t.name}: given twice` });
+      continue;
+    }
+    seen.add(t.name);
+    const head = t.text.slice(0, HEAD_BYTES);
+    if (head.includes('\0')) errors.push({ file: t.name, status: 'error', reason: `${t.name}: this is a binary file, not the text output of a DFT code` });
+    else {
+      const id = identify(t.name, t.text);
+      if (id) outputs.push(id);
+      else if (isCompanionInput(head) || /\.xyz$/i.test(t.name)) skipped++;
+      else errors.push({ file: t.name, status: 'error', reason: `${t.name}: not an output of a supported DFT code` });
+    }
+  }
+  const read = readOutputs(outputs, filesByName(texts));
+  return { readings: read.readings, errors: [...errors, ...read.errors], skipped };
 }
 
 function settingsMap(run: DftRun): Map<string, string> {
@@ -195,7 +232,15 @@ export function agreeingRuns(runs: DftRun[]): { kept: DftRun[]; left: LeftOut[];
 }
 
 export async function collectRuns(inputs: string[], options: { signal?: AbortSignal } = {}): Promise<CollectResult> {
-  const { readings, errors, skipped } = await gatherRuns(inputs, options);
+  return choose(await gatherRuns(inputs, options));
+}
+
+/** collectRuns for files handed over as texts (names without folders; companions among them by name). */
+export function collectTexts(texts: readonly { name: string; text: string }[]): CollectResult {
+  return choose(gatherTexts(texts));
+}
+
+function choose({ readings, errors, skipped }: Gathered): CollectResult {
   const usable = readings.flatMap((r) => (r.ok ? [r.run] : [])).sort((a, b) => naturalCompare(a.file, b.file));
   const unusableRuns: LeftOut[] = readings.flatMap((r) => (r.ok ? [] : [r.unusable]));
   const { kept, left, settings, notCompared } = agreeingRuns(usable);

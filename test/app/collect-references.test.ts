@@ -5,7 +5,7 @@ import { mkdtempSync, readFileSync, writeFileSync, copyFileSync, existsSync } fr
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { agreeingRuns, collectRuns, collectToFile, naturalCompare } from '../../src-main/app/collect-references.ts';
+import { agreeingRuns, collectedFrames, collectRuns, collectTexts, collectToFile, naturalCompare } from '../../src-main/app/collect-references.ts';
 import { cellVolume } from '../../src-main/core/geometry/cell.ts';
 import { convertTensor } from '../../src-main/core/dielectric/clausius-mossotti.ts';
 import { guessTensorKind } from '../../src-main/app/dataset-summary.ts';
@@ -133,5 +133,33 @@ describe('collect references from DFT output', () => {
 
   it('natural file order', () => {
     expect(['run-10.out', 'run-2.out', 'run-1.out'].sort(naturalCompare)).toEqual(['run-1.out', 'run-2.out', 'run-10.out']);
+  });
+});
+
+describe('collect from files handed over as texts (the window)', () => {
+  const text = (dir: string, name: string) => ({ name, text: readFileSync(join(dir, name), 'utf8') });
+
+  it('finds inputs and coordinate files among the same files by name, and gives what the disk gives', async () => {
+    const uploads = ['water-b.out', 'water-a.inp', 'water-b.xyz', 'water-a.out', 'water-b.inp'].map((n) => text(cp2k, n));
+    const fromTexts = collectTexts(uploads);
+    const fromDisk = await collectRuns([join(cp2k, 'water-a.out'), join(cp2k, 'water-b.out')]);
+    expect(fromTexts.left).toEqual([]);
+    expect(fromTexts.runs.map((r) => r.file)).toEqual(['water-a.out', 'water-b.out']);
+    fromTexts.runs.forEach((r, k) => {
+      expect(Array.from(r.tensor)).toEqual(Array.from(fromDisk.runs[k].tensor));
+      expect(Array.from(r.frame.positions)).toEqual(Array.from(fromDisk.runs[k].frame.positions));
+      expect(r.settings).toEqual(fromDisk.runs[k].settings);
+    });
+    expect(collectedFrames(fromTexts).map((f) => f.info.dft_run)).toEqual(['water-a.out', 'water-b.out']);
+  });
+
+  it('an output without its input, a foreign text and a binary one are each named; QE pairs by save folder', () => {
+    const r = collectTexts([text(cp2k, 'water-a.out'), { name: 'notes.txt', text: 'hello' }, { name: 'x.bin', text: 'a\0b' }, ...['si-alat.pw.out', 'si-alat.ph.out', 'si-alat.pw.in'].map((n) => text(qe, n))]);
+    expect(r.runs.map((x) => x.file)).toEqual(['si-alat.ph.out']);
+    expect(r.runs[0].settings.find((s) => s.name === 'k-points')?.value).toBe('mesh 4×4×4, offset 1 1 1');
+    const left = Object.fromEntries(r.left.map((l) => [l.file, l.reason]));
+    expect(left['water-a.out']).toMatch(/water-a\.inp is not there/);
+    expect(left['notes.txt']).toBe('notes.txt: not an output of a supported DFT code');
+    expect(left['x.bin']).toMatch(/binary file/);
   });
 });

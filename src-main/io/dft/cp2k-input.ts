@@ -1,9 +1,9 @@
 // The part of a CP2K input file that `collect` needs when the output does not print it: the section tree
 // (&NAME … &END), keywords with their lines, the preprocessor's @SET variables ($X, ${X}) and @INCLUDE files.
 // Bounded: at most MAX_INCLUDE_DEPTH nested includes and MAX_INPUT_BYTES per file.
-import { readFileSync, statSync } from 'node:fs';
 import path from 'node:path';
 import { InputError } from '../../core/errors.ts';
+import { diskFiles, type RunFiles } from './dft-run.ts';
 
 const MAX_INPUT_BYTES = 64 << 20;
 const MAX_INCLUDE_DEPTH = 8;
@@ -30,20 +30,17 @@ export interface Cp2kSection {
   line: number;
 }
 
-function readText(file: string, from: { file?: string; line?: number }): string {
-  try {
-    const size = statSync(file).size;
-    if (size > MAX_INPUT_BYTES) throw new InputError(`the CP2K input is ${size} bytes, more than an input file`, { file });
-    return readFileSync(file, 'utf8');
-  } catch (err) {
-    if (err instanceof InputError) throw err;
-    const code = (err as NodeJS.ErrnoException).code;
+function readText(files: RunFiles, file: string, from: { file?: string; line?: number }): string {
+  const text = files.read(file, from);
+  if (text === null) {
     throw new InputError(
-      code === 'ENOENT' ? `the CP2K input ${file} is not there` : `cannot read the CP2K input ${file} (${code ?? String(err)})`,
+      `the CP2K input ${file} is not there`,
       from,
       'the output does not print the atom positions at this print level, so its input (and any coordinate file it names) must sit beside the output',
     );
   }
+  if (text.length > MAX_INPUT_BYTES) throw new InputError(`the CP2K input is ${text.length} characters, more than an input file`, { file });
+  return text;
 }
 
 /** Strips a comment (# or ! outside quotes). */
@@ -60,7 +57,7 @@ function stripComment(line: string): string {
 }
 
 /** Reads and parses a CP2K input into its root (a pseudo-section holding the top-level sections). */
-export function parseCp2kInput(file: string, from: { file?: string; line?: number } = {}): Cp2kSection {
+export function parseCp2kInput(file: string, from: { file?: string; line?: number } = {}, files: RunFiles = diskFiles): Cp2kSection {
   const root: Cp2kSection = { name: '', param: '', keywords: [], sections: [], rows: [], file, line: 0 };
   const stack: Cp2kSection[] = [root];
   const vars = new Map<string, string>();
@@ -75,7 +72,7 @@ export function parseCp2kInput(file: string, from: { file?: string; line?: numbe
 
   const walk = (f: string, depth: number, includedFrom: { file?: string; line?: number }): void => {
     if (depth > MAX_INCLUDE_DEPTH) throw new InputError(`more than ${MAX_INCLUDE_DEPTH} nested @INCLUDE files`, includedFrom, 'an input that includes itself?');
-    const lines = readText(f, includedFrom).split(/\r?\n/);
+    const lines = readText(files, f, includedFrom).split(/\r?\n/);
     for (let i = 0; i < lines.length; i++) {
       const where = { file: f, line: i + 1 };
       const raw = stripComment(lines[i]).trim();

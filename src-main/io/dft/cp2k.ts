@@ -14,7 +14,6 @@
 // that input names (&TOPOLOGY COORD_FILE_NAME, XYZ). Where the output prints atom coordinates (MEDIUM and
 // above) those are used and checked against the input's count.
 import path from 'node:path';
-import { existsSync } from 'node:fs';
 import { InputError, type Where } from '../../core/errors.ts';
 import { makeFrame, type Mat3 } from '../../core/geometry/frame.ts';
 import { cellFromParameters, cellVolume, toCartesian } from '../../core/geometry/cell.ts';
@@ -22,7 +21,7 @@ import { BOHR_A, BOHR3_A3 } from '../../core/dielectric/units.ts';
 import { elementFromLabel } from '../cif.ts';
 import { parseExtxyz } from '../extxyz-parse.ts';
 import { cp2kLogical, keyword, parseCp2kInput, section, type Cp2kSection } from './cp2k-input.ts';
-import { MAX_ASYMMETRY, numbersIn, readRunTextSync, splitLines, symmetricPart, unusable, type RunReading, type RunSetting } from './dft-run.ts';
+import { diskFiles, MAX_ASYMMETRY, numbersIn, readCompanion, splitLines, symmetricPart, unusable, type RunFiles, type RunReading, type RunSetting } from './dft-run.ts';
 
 export function isCp2kOutput(head: string): boolean {
   return /^\s*CP2K\|\s+version string:\s+CP2K version/m.test(head);
@@ -89,7 +88,7 @@ interface InputAtoms {
   where: Where;
 }
 
-function atomsFromInput(subsys: Cp2kSection, cell: Mat3, inputFile: string, outputCoordName: string | null): InputAtoms {
+function atomsFromInput(subsys: Cp2kSection, cell: Mat3, inputFile: string, outputCoordName: string | null, files: RunFiles): InputAtoms {
   const coord = section(subsys, 'COORD');
   const topo = section(subsys, 'TOPOLOGY');
   const coordFile = keyword(topo, 'COORD_FILE_NAME');
@@ -125,7 +124,7 @@ function atomsFromInput(subsys: Cp2kSection, cell: Mat3, inputFile: string, outp
       throw new InputError(`the output read coordinates from ${outputCoordName}, the input names ${name}`, where, 'give the input that made this output');
     }
     const file = path.resolve(path.dirname(coordFile.file), name);
-    const text = readRunTextSync(file, where);
+    const text = readCompanion(files, file, where, 'the coordinate file the input names must sit where the input says');
     const frames = parseExtxyz(text, file);
     if (frames.length !== 1) throw new InputError(`the coordinate file holds ${frames.length} frames; a single point needs one`, { file });
     const f = frames[0];
@@ -222,7 +221,7 @@ function outputValue(lines: string[], re: RegExp): string | null {
   return null;
 }
 
-export function readCp2kRun(file: string, text: string): RunReading {
+export function readCp2kRun(file: string, text: string, files: RunFiles = diskFiles): RunReading {
   const lines = splitLines(text);
   const version = outputValue(lines.slice(0, 400), /CP2K\|\s+version string:\s+CP2K version\s+(\S+)/) ?? '?';
   const program = `CP2K ${version}`;
@@ -271,8 +270,8 @@ export function readCp2kRun(file: string, text: string): RunReading {
   const inputName = outputValue(lines.slice(0, 400), /CP2K\|\s+Input file name\s+(\S+)/);
   if (!inputName) throw new InputError('the output does not name its input file', { file }, 'give the complete output of the run');
   const candidates = [path.resolve(path.dirname(file), inputName), path.resolve(path.dirname(file), path.basename(inputName))];
-  const inputFile = candidates.find((c) => existsSync(c)) ?? candidates[0];
-  const root = parseCp2kInput(inputFile, { file });
+  const inputFile = candidates.find((c) => files.read(c, { file }) !== null) ?? candidates[0];
+  const root = parseCp2kInput(inputFile, { file }, files);
   const forceEval = section(root, 'FORCE_EVAL');
   const subsys = section(forceEval, 'SUBSYS');
   if (!forceEval || !subsys) throw new InputError('the input has no &FORCE_EVAL &SUBSYS', { file: inputFile }, 'is this the input of the run?');
@@ -282,7 +281,7 @@ export function readCp2kRun(file: string, text: string): RunReading {
   }
   const cell = cellFromInput(subsys, inputFile);
   const outputCoordName = outputValue(lines.slice(0, 400), /GLOBAL\|\s+Coordinate file name\s+(\S+)/);
-  const atoms = atomsFromInput(subsys, cell, inputFile, outputCoordName === '__STD_INPUT__' ? null : outputCoordName);
+  const atoms = atomsFromInput(subsys, cell, inputFile, outputCoordName === '__STD_INPUT__' ? null : outputCoordName, files);
   const species = atoms.labels.map((l) => elementOfKind(l, subsys, atoms.where));
   let positions = atoms.positions;
   const printed = printedAtoms(lines, file);

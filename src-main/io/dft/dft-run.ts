@@ -3,6 +3,7 @@
 // run cannot be used (it did not finish, did not converge, or computed something else). A file that is not an
 // output of a known code, or is damaged, is an InputError naming it. Shared by the readers in this folder.
 import { readFileSync, statSync } from 'node:fs';
+import { basename } from 'node:path';
 import { open, readFile, stat } from 'node:fs/promises';
 import { InputError, type Where } from '../../core/errors.ts';
 import type { Frame, Mat3 } from '../../core/geometry/frame.ts';
@@ -92,17 +93,41 @@ export async function readRunText(file: string): Promise<string> {
   return bytes.toString('utf8');
 }
 
-/** A small companion file (coordinate file, input) named by a run; errors say who named it. */
-export function readRunTextSync(file: string, namedAt: Where): string {
-  try {
-    const size = statSync(file).size;
-    if (size > MAX_OUTPUT_BYTES) throw new InputError(`${file} is too large (${size} bytes)`, namedAt);
-    return readFileSync(file, 'utf8');
-  } catch (err) {
-    if (err instanceof InputError) throw err;
-    const code = (err as NodeJS.ErrnoException).code;
-    throw new InputError(code === 'ENOENT' ? `${file} is not there` : `cannot read ${file} (${code ?? String(err)})`, namedAt, 'the file named here must sit where the run left it');
-  }
+/**
+ * Where a run's companion files (its input, the coordinate file the input names, the pw.x input) are read from:
+ * the disk beside the output, or the set of files a user handed over together (matched by file name).
+ */
+export interface RunFiles {
+  /** The text of `file`, or null when it is not there; InputError (naming `namedAt`) when it cannot be read. */
+  read(file: string, namedAt: Where): string | null;
+}
+
+export const diskFiles: RunFiles = {
+  read(file, namedAt) {
+    try {
+      const size = statSync(file).size;
+      if (size > MAX_OUTPUT_BYTES) throw new InputError(`${file} is too large (${size} bytes)`, namedAt);
+      return readFileSync(file, 'utf8');
+    } catch (err) {
+      if (err instanceof InputError) throw err;
+      const code = (err as NodeJS.ErrnoException).code;
+      if (code === 'ENOENT' || code === 'ENOTDIR') return null;
+      throw new InputError(`cannot read ${file} (${code ?? String(err)})`, namedAt);
+    }
+  },
+};
+
+/** Files handed over as texts (e.g. uploaded in the window): a companion is found by its file name alone. */
+export function filesByName(files: readonly { name: string; text: string }[]): RunFiles {
+  const byName = new Map(files.map((f) => [basename(f.name), f.text]));
+  return { read: (file) => byName.get(basename(file)) ?? null };
+}
+
+/** A companion file that must be there; the error says who named it. */
+export function readCompanion(files: RunFiles, file: string, namedAt: Where, hint: string): string {
+  const text = files.read(file, namedAt);
+  if (text === null) throw new InputError(`${file} is not there`, namedAt, hint);
+  return text;
 }
 
 /** The lines of a text, CRLF or LF. */

@@ -8,14 +8,13 @@
 // lattice parameter alat, itself in Bohr ("celldm(1)", "lattice parameter (alat) = … a.u."), whether the input
 // gave ibrav/celldm or CELL_PARAMETERS in Å. Cell and positions are therefore alat × BOHR_A Å per printed
 // unit; the printed "unit-cell volume" in (a.u.)^3 is checked against the cell built that way.
-import { readFileSync, statSync } from 'node:fs';
 import path from 'node:path';
 import { InputError } from '../../core/errors.ts';
 import { makeFrame, type Mat3 } from '../../core/geometry/frame.ts';
 import { cellVolume } from '../../core/geometry/cell.ts';
 import { BOHR_A } from '../../core/dielectric/units.ts';
 import { elementFromLabel } from '../cif.ts';
-import { MAX_ASYMMETRY, numbersIn, splitLines, symmetricPart, unusable, type RunReading, type RunSetting } from './dft-run.ts';
+import { MAX_ASYMMETRY, numbersIn, splitLines, symmetricPart, unusable, diskFiles, type RunFiles, type RunReading, type RunSetting } from './dft-run.ts';
 
 export type QeProgram = 'pw.x' | 'ph.x';
 
@@ -105,7 +104,7 @@ function speciesElements(lines: string[]): Map<string, string> {
   return map;
 }
 
-function settingsOf(lines: string[], text: string, file: string): RunSetting[] {
+function settingsOf(lines: string[], text: string, file: string, files: RunFiles): RunSetting[] {
   const settings: RunSetting[] = [];
   const xc = /Exchange-correlation\s*=\s*(.+)$/m.exec(text);
   if (xc) settings.push({ name: 'functional', value: xc[1].trim().replace(/\s+/g, ' ') });
@@ -120,7 +119,7 @@ function settingsOf(lines: string[], text: string, file: string): RunSetting[] {
     }
   }
   if (pps.length) settings.push({ name: 'pseudopotentials', value: pps.join(', ') });
-  const mesh = kMeshFromInput(lines, file);
+  const mesh = kMeshFromInput(lines, file, files);
   if (mesh) settings.push({ name: 'k-points', value: mesh });
   return settings;
 }
@@ -130,21 +129,15 @@ function settingsOf(lines: string[], text: string, file: string): RunSetting[] {
  * cannot be compared between runs. The mesh is in the input: when the output names its input file
  * ("Reading input from FILE") and that file sits beside the output, its K_POINTS card is read.
  */
-function kMeshFromInput(lines: string[], file: string): string | null {
+function kMeshFromInput(lines: string[], file: string, files: RunFiles): string | null {
   const named = lines.slice(0, 40).map((l) => /Reading input from (\S+)/.exec(l)?.[1]).find((x) => x !== undefined);
   if (!named || named === 'standard') return null;
   const input = path.resolve(path.dirname(file), path.basename(named));
-  return readKPointsCard(input);
+  const text = files.read(input, { file });
+  return text === null || text.length > 1 << 20 ? null : kPointsCard(text);
 }
 
-function readKPointsCard(input: string): string | null {
-  let text: string;
-  try {
-    if (statSync(input).size > 1 << 20) return null;
-    text = readFileSync(input, 'utf8');
-  } catch {
-    return null;
-  }
+function kPointsCard(text: string): string | null {
   const lines = splitLines(text);
   const k = lines.findIndex((l) => /^\s*K_POINTS\b/i.test(l));
   if (k < 0) return null;
@@ -223,7 +216,7 @@ function dielectricTensor(ph: QeOutput): { tensor: Mat3; line: number } | null {
 }
 
 /** ε∞ with its structure: one ph.x output and the pw.x output it continues (null when none was given). */
-export function readQePair(ph: QeOutput, pw: QeOutput | null): RunReading {
+export function readQePair(ph: QeOutput, pw: QeOutput | null, files: RunFiles): RunReading {
   const program = `Quantum ESPRESSO ${versionOf(ph.lines)} (pw.x, ph.x)`;
   if (/No convergence has been achieved/.test(ph.text)) return unusable(ph.file, 'unconverged', 'ph.x: the linear-response (electric field) iterations did not converge');
   const eps = dielectricTensor(ph);
@@ -280,7 +273,7 @@ export function readQePair(ph: QeOutput, pw: QeOutput | null): RunReading {
       tensor,
       kind: 'eps',
       printedAs: `ε∞, dimensionless (line ${eps.line}); symmetric part`,
-      settings: settingsOf(pw.lines, pw.text, pw.file),
+      settings: settingsOf(pw.lines, pw.text, pw.file, files),
     },
   };
 }
@@ -290,7 +283,7 @@ export function readQePair(ph: QeOutput, pw: QeOutput | null): RunReading {
  * on their own: no tensor), unless they failed, which is reported as such. A damaged file is handed to
  * `onError` and the other runs go on.
  */
-export function readQeRuns(outputs: QeOutput[], onError: (file: string, error: InputError) => void): RunReading[] {
+export function readQeRuns(outputs: QeOutput[], onError: (file: string, error: InputError) => void, files: RunFiles = diskFiles): RunReading[] {
   const pws = outputs.filter((o) => o.program === 'pw.x');
   const phs = outputs.filter((o) => o.program === 'ph.x');
   const pwByFolder = new Map<string, QeOutput[]>();
@@ -310,7 +303,7 @@ export function readQeRuns(outputs: QeOutput[], onError: (file: string, error: I
     }
     const pw = candidates[0] ?? null;
     if (pw) used.add(pw);
-    guarded(ph.file, onError, () => out.push(readQePair(ph, pw)));
+    guarded(ph.file, onError, () => out.push(readQePair(ph, pw, files)));
   }
   for (const pw of pws) {
     if (used.has(pw)) continue;
