@@ -163,3 +163,36 @@ describe('collect from files handed over as texts (the window)', () => {
     expect(left['x.bin']).toMatch(/binary file/);
   });
 });
+
+describe('the window\'s "collect DFT runs" (service method) and the CLI give the same file', () => {
+  it('collectReferences: a dataset, the report, and the bytes `polarweave collect` writes', async () => {
+    const { createAppService } = await import('../../src-main/app/wiring.ts');
+    const { tsWorkerFactory } = await import('../../src-main/jobs/spawn-ts.ts');
+    const { runCli } = await import('../../src-main/cli/main.ts');
+    const { dispatch } = await import('../../src-main/api/dispatch.ts');
+    const service = createAppService({ spawn: tsWorkerFactory(new URL('../../src-main/app/worker.ts', import.meta.url)), demoDir: join(tmp(), 'none') });
+    try {
+      const names = ['si-alat.pw.out', 'si-alat.ph.out', 'si-angstrom.pw.out', 'si-angstrom.ph.out', 'si-kmesh-2.pw.out', 'si-kmesh-2.ph.out', 'si-alat.pw.in', 'si-angstrom.pw.in', 'si-kmesh-2.pw.in'];
+      const files = names.map((n) => ({ name: n, text: readFileSync(join(qe, n), 'utf8') }));
+      const out = await dispatch(service, 'collectReferences', { files });
+      expect(out.status).toBe('ok');
+      const r = (out.response as { ok: true; value: import('../../src-main/api/contract.ts').CollectReport }).value;
+      expect(r.kept).toEqual(['si-alat.ph.out', 'si-angstrom.ph.out']);
+      expect(r.left.map((l) => [l.file, l.status])).toEqual([['si-kmesh-2.ph.out', 'settings']]);
+      expect([r.tensorKey, r.tensorKind]).toEqual(['eps_inf', 'eps']);
+      expect(r.dataset?.frames).toBe(2);
+      expect(r.dataset?.tensorKeys.map((k) => [k.key, k.kindGuess])).toContainEqual(['eps_inf', 'eps']);
+      // the CLI on the same files (on disk) writes the same bytes
+      const dir = tmp();
+      for (const f of files) writeFileSync(join(dir, f.name), f.text);
+      const target = join(dir, 'refs.extxyz');
+      expect(await runCli(['collect', dir, '-o', target], { out: () => {}, err: () => {}, signal: new AbortController().signal })).toBe(0);
+      expect(r.file?.text).toBe(readFileSync(target, 'utf8'));
+      // a bad request names the field
+      const bad = await dispatch(service, 'collectReferences', { files: [] });
+      expect(bad.status).toBe('bad-request');
+    } finally {
+      service.dispose();
+    }
+  });
+});
