@@ -24,7 +24,7 @@ function cpuMs(): number {
 export async function run(): Promise<void> {
   const frames = waterLikeFrames(TRAIN, 7);
   const t0 = performance.now();
-  const model = await trainModel(frames, { tensorKey: 'alpha_cm', kind: 'alpha-cm', route: 'cm', settings: { nmax: 8, lmax: 6 } });
+  const model = await trainModel(frames, { tensorKey: 'alpha_cm', kind: 'alpha-cm', route: 'cm', settings: { radialFunctions: 8, angularOrder: 6 } });
   const a = model.applicability;
   const counts = new Map<number, number>();
   for (const s of a.species) counts.set(s, (counts.get(s) ?? 0) + 1);

@@ -21,6 +21,7 @@ import { saveModel } from '../src-main/io/model-file.ts';
 import { predictionCsvOptions } from '../src-main/io/prediction/prediction-format.ts';
 import { streamPredict } from '../src-main/app/predict/stream-predict.ts';
 import { waterLikeFrames } from './water-like.ts';
+import { describeSettings } from '../src-main/core/settings-table.ts';
 
 const TRAIN = Number(process.env.PW_BENCH_TRAIN_FRAMES ?? 30);
 const STREAM = Number(process.env.PW_BENCH_STREAM_FRAMES ?? 120);
@@ -116,10 +117,10 @@ export async function run(): Promise<void> {
   console.log(`prediction bench: ${cpus().length} cores (${cpus()[0]?.model ?? 'unknown'}), load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}, Node ${process.version}`);
   const frames = waterLikeFrames(TRAIN, 7);
   const t0 = performance.now();
-  const model = await trainModel(frames, { tensorKey: 'alpha_cm', kind: 'alpha-cm', route: 'cm', settings: { nmax: 8, lmax: 6 } });
+  const model = await trainModel(frames, { tensorKey: 'alpha_cm', kind: 'alpha-cm', route: 'cm', settings: { radialFunctions: 8, angularOrder: 6 } });
   const s = model.settings;
-  console.log(`model: ${TRAIN} training frames × ${frames[0].species.length} atoms (trained in ${((performance.now() - t0) / 1000).toFixed(1)} s), r_c ${s.cutoff} Å, ` +
-    `nmax ${s.nmax}, lmax ${s.lmax}, λ=2 at nmax ${model.tensorLimits.nmax} / lmax ${model.tensorLimits.lmax}, ζ ${s.zeta}, species ${model.species.join(',')}; ` +
+  console.log(`model: ${TRAIN} training frames × ${frames[0].species.length} atoms (trained in ${((performance.now() - t0) / 1000).toFixed(1)} s), ${describeSettings(s)}, ` +
+    `λ=2 at ${model.tensorLimits.nmax} radial functions / angular order ${model.tensorLimits.lmax}, species ${model.species.join(',')}; ` +
     `features per environment λ=0 ${model.featureSizes.n0}, λ=2 ${model.parts.find((p) => p.order === 2)?.n} × 5`);
   inProcess(model);
   linearCost(model);

@@ -7,6 +7,7 @@ import { choleskySolve, choleskyWithJitter, gramOfRows } from '../src-main/core/
 import { modelFeaturiser, predictFrame, predictWithFeatures, trainModel } from '../src-main/core/learning/model.ts';
 import { makeRng } from '../src-main/core/numerics/random.ts';
 import { waterLikeFrames } from './water-like.ts';
+import { describeSettings } from '../src-main/core/settings-table.ts';
 
 const FRAMES = Number(process.env.PW_BENCH_FRAMES ?? 200);
 
@@ -43,7 +44,7 @@ async function training(): Promise<void> {
   const total = (performance.now() - t0) / 1000;
   const cpu = process.cpuUsage(cpu0);
   const cpuSeconds = (cpu.user + cpu.system) / 1e6;
-  console.log(`training, defaults (cutoff ${model.settings.cutoff} Å, nmax ${model.settings.nmax}, lmax ${model.settings.lmax}, ζ ${model.settings.zeta}), ${FRAMES} frames × ${atoms} atoms, one thread:`);
+  console.log(`training, defaults (${describeSettings(model.settings)}), ${FRAMES} frames × ${atoms} atoms, one thread:`);
   console.log(`  total ${total.toFixed(1)} s wall, ${cpuSeconds.toFixed(1)} s CPU (the wall time includes waiting when the machine is shared); peak RSS ${peakMiB().toFixed(0)} MiB`);
   for (const [stage, ms] of stages) {
     if (stage !== 'start' && stage !== 'done') console.log(`  ${stage.padEnd(18)} ${(ms / 1000).toFixed(1)} s wall, ${((stagesCpu.get(stage) ?? 0) / 1000).toFixed(1)} s CPU`);

@@ -17,6 +17,7 @@ import { formatExtxyzFrame, parseExtxyz } from '../src-main/io/extxyz.ts';
 import { saveModel } from '../src-main/io/model-file.ts';
 import { streamPredict } from '../src-main/app/predict/stream-predict.ts';
 import { predictionCsvOptions } from '../src-main/io/prediction/prediction-format.ts';
+import { describeSettings } from '../src-main/core/settings-table.ts';
 
 const mib = (b: number) => (b / 2 ** 20).toFixed(1);
 
@@ -46,7 +47,7 @@ export async function run(): Promise<void> {
     const input = join(dir, 'big.extxyz');
     await writeStreamed(input, frames, () => ({ ...big, positions: Float64Array.from(big.positions, (x) => x + 0.05 * rng.normal()), info: {}, arrays: {} }));
     console.log(`384-atom trajectory: ${frames} frames (water, 2×2×2 supercell of a 48-atom DFT frame, jittered 0.05 Å), ` +
-      `model: default settings (cutoff ${model.settings.cutoff} Å, nmax ${model.settings.nmax}, lmax ${model.settings.lmax}, ζ ${model.settings.zeta}), ${availableParallelism()} cores, load average ignored`);
+      `model: default settings (${describeSettings(model.settings)}), ${availableParallelism()} cores, load average ignored`);
     const t0 = performance.now();
     predictFrame(model, big);
     console.log(`  in-process predictFrame, one 384-atom frame: ${(performance.now() - t0).toFixed(0)} ms`);
@@ -79,7 +80,7 @@ export async function run(): Promise<void> {
     // ---- memory while streaming many small synthetic frames ----
     const count = Number(process.env.POLARWEAVE_BENCH_FRAMES ?? 100_000);
     const small = join(dir, 'small.extxyz');
-    const tiny = await trainModel(base, { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'cm', settings: { nmax: 2, lmax: 1, cutoff: 3 } });
+    const tiny = await trainModel(base, { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'cm', settings: { radialFunctions: 2, angularOrder: 1, cutoffRadius: 3 } });
     const tinyPath = join(dir, 'tiny.json');
     await saveModel(tinyPath, tiny);
     const mol = { O: [0, 0, 0], H1: [0.96, 0, 0], H2: [-0.24, 0.93, 0] };

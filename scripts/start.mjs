@@ -4,6 +4,7 @@
 //   npm start -- --preview         window from the built bundles (electron-vite preview)
 //   npm start -- --browser         browser host even when Electron is present
 //   npm start -- --port 8123       fixed port for the browser host (default: a random free one)
+//   npm start -- --folder DIR      the browser host may open files of DIR by path (no other path is readable)
 import { spawn } from 'node:child_process';
 import { existsSync, readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
@@ -53,7 +54,8 @@ if (exe) {
   const { tsImport } = await import('tsx/esm/api');
   const { startBrowserHost } = await tsImport('../src-main/host/browser-host.ts', import.meta.url);
   const port = option('port') ? Number(option('port')) : 0;
-  const host = await startBrowserHost({ port });
+  const folder = option('folder');
+  const host = await startBrowserHost({ port, folder: folder ? resolve(folder) : undefined });
   console.log('');
   console.log('Polarweave is running. Open this address in a browser on this computer:');
   console.log('');

@@ -2,7 +2,9 @@
 // here; the Electron IPC handler and the browser host validate every incoming payload with `apiSchemas`
 // before the service (app/service.ts) sees it. Every value is plain JSON (tensors as number[9], row-major).
 import { z } from 'zod';
+import { DEFAULT_SETTINGS, MAX_SPECIES, NUMERIC_SETTINGS, settingSpec, settingsProblems, SPECIES_LABEL, type NumericSettingKey, type NumericSettingSpec } from '../core/settings-table.ts';
 import type { ErrorFigures, ModelSettings, ParityPoint, Route, TensorKind, ValidationReport } from '../core/learning/model-types.ts';
+import { MAX_REQUEST_BYTES } from '../core/limits.ts';
 
 // ---------------------------------------------------------------------------------------------------------
 // Shared shapes
@@ -248,24 +250,23 @@ export interface FileOut {
 
 const id = z.string().min(1).max(200);
 const finite = z.number().finite();
-const MAX_TEXT = 512 * 1024 * 1024;
+/** Uploaded text or base64: no longer than a request the host reads (core/limits.ts). */
+const MAX_TEXT = MAX_REQUEST_BYTES;
 
 export const tensorKindSchema = z.enum(['eps', 'alpha-c', 'alpha-cm']);
 export const routeSchema = z.enum(['cm', 'direct']);
 
+/** One zod field per row of the settings table (core/settings-table.ts): the same limits as the CLI and the engine. */
+function settingField(spec: NumericSettingSpec): z.ZodNumber {
+  const n = z.number().finite().min(spec.min).max(spec.max);
+  return spec.integer ? n.int() : n;
+}
+
 export const modelSettingsSchema = z
   .object({
-    cutoff: finite.positive().max(20),
-    cutoffWidth: finite.min(0).max(10),
-    sigma: finite.positive().max(5),
-    nmax: z.number().int().min(1).max(20),
-    lmax: z.number().int().min(0).max(12),
-    zeta: z.number().int().min(1).max(8),
-    regularisation: finite.positive().nullable(),
-    sparsePoints: z.number().int().min(0).max(100_000),
-    centres: z.array(z.string().min(1).max(3)).max(120),
-    maxFeatures: z.number().int().min(0).max(1_000_000),
-    seed: z.number().int().min(0).max(2 ** 31 - 1),
+    ...(Object.fromEntries(NUMERIC_SETTINGS.filter((s) => s.key !== 'regularisation').map((s) => [s.key, settingField(s)])) as Record<NumericSettingKey, z.ZodNumber>),
+    regularisation: settingField(settingSpec('regularisation')).nullable(),
+    contributingSpecies: z.array(z.string().regex(SPECIES_LABEL)).max(MAX_SPECIES),
   })
   .strict();
 
@@ -276,7 +277,12 @@ export const trainRequestSchema = z
     route: routeSchema,
     settings: modelSettingsSchema.partial().optional(),
   })
-  .strict();
+  .strict()
+  .superRefine((r, ctx) => {
+    // The rules between settings (e.g. the switch width at most the cutoff radius), as the engine checks them.
+    const problem = settingsProblems({ ...DEFAULT_SETTINGS, ...(r.settings ?? {}) } as ModelSettings)[0];
+    if (problem) ctx.addIssue({ code: 'custom', path: ['settings'], message: problem });
+  });
 
 const frameList = z.array(z.number().int().min(0)).max(10_000_000);
 

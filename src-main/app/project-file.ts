@@ -4,6 +4,8 @@
 import { z } from 'zod';
 import type { FramePredictionJ, ModelSummary, PredictionSummary } from '../api/contract.ts';
 import { InputError } from '../core/errors.ts';
+import { MAX_JSON_DEPTH } from '../core/limits.ts';
+import { jsonTooDeep } from '../io/json-depth.ts';
 
 export const PROJECT_FORMAT = 'polarweave-project';
 export const PROJECT_VERSION = 1;
@@ -36,6 +38,7 @@ export type ProjectDataset = ProjectFile['datasets'][number];
 export type { FramePredictionJ };
 
 export function parseProject(text: string, fileName: string): ProjectFile {
+  if (jsonTooDeep(text)) throw new InputError(`not a project file (JSON nested deeper than ${MAX_JSON_DEPTH} levels)`, { file: fileName }, 'open a .pwproj.json file saved by Polarweave');
   let raw: unknown;
   try {
     raw = JSON.parse(text);

@@ -3,7 +3,7 @@
 // Electron shell and the browser host both wrap one instance; neither adds behaviour of its own.
 import { readdir } from 'node:fs/promises';
 import { basename, join } from 'node:path';
-import { gunzipSync } from 'fflate';
+import { gunzipCapped } from '../io/whole-file.ts';
 import type {
   ApiOutput,
   ApiParams,
@@ -32,6 +32,7 @@ import { blockAverage, runningMean } from '../core/trajectory/statistics.ts';
 import type { JobHandle, JobRunner } from '../jobs/runner.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './task-types.ts';
 import { summariseDataset } from './dataset-summary.ts';
+import { PathAccess } from './path-access.ts';
 import { frameView } from './frame-json.ts';
 import { predictionsCsv } from './export-csv.ts';
 import { PROJECT_FORMAT, PROJECT_VERSION, parseProject, type ProjectFile, type ProjectDataset } from './project-file.ts';
@@ -59,6 +60,8 @@ export interface ServiceOptions {
   readers: StructureReaders;
   /** Folder with the demo's *.extxyz.gz files. */
   demoDir: string;
+  /** Files and folders the service may read by path (default: none; the shell grants what the user chooses). */
+  paths?: PathAccess;
 }
 
 type DatasetOrigin = ProjectDataset['origin'];
@@ -96,15 +99,7 @@ const MAX_EVENTS_PER_POLL = 500;
 
 function decodeUpload(name: string, payload: { text?: string; base64?: string }): string {
   if (payload.text !== undefined) return payload.text;
-  const bytes = Buffer.from(payload.base64 ?? '', 'base64');
-  if (bytes.length >= 2 && bytes[0] === 0x1f && bytes[1] === 0x8b) {
-    try {
-      return Buffer.from(gunzipSync(bytes)).toString('utf8');
-    } catch (e) {
-      throw new InputError(`the gzip data is damaged or truncated (${(e as Error).message})`, { file: name }, 'copy the file again');
-    }
-  }
-  return bytes.toString('utf8');
+  return gunzipCapped(Buffer.from(payload.base64 ?? '', 'base64'), name).toString('utf8');
 }
 
 export class AppService implements ApiService {
@@ -114,7 +109,12 @@ export class AppService implements ApiService {
   private readonly jobs = new Map<string, JobRecord>();
   private counter = 0;
 
-  constructor(private readonly options: ServiceOptions) {}
+  /** What may be read by path; the shell grants the files the user chooses. */
+  readonly paths: PathAccess;
+
+  constructor(private readonly options: ServiceOptions) {
+    this.paths = options.paths ?? new PathAccess();
+  }
 
   private nextId(prefix: string): string {
     return `${prefix}${++this.counter}`;
@@ -151,7 +151,7 @@ export class AppService implements ApiService {
 
   async openStructures(params: ApiParams<'openStructures'>): Promise<DatasetSummary> {
     if ('path' in params) {
-      const frames = await this.options.readers.readPath(params.path);
+      const frames = await this.options.readers.readPath(await this.paths.check(params.path));
       return this.addDataset(basename(params.path), frames, { kind: 'path', path: params.path }, 'file');
     }
     const text = decodeUpload(params.name, params);
@@ -214,7 +214,7 @@ export class AppService implements ApiService {
 
   async getState(): Promise<AppState> {
     return {
-      defaultSettings: { ...DEFAULT_SETTINGS, centres: [...DEFAULT_SETTINGS.centres] },
+      defaultSettings: { ...DEFAULT_SETTINGS, contributingSpecies: [...DEFAULT_SETTINGS.contributingSpecies] },
       datasets: [...this.datasets.values()].map((d) => d.summary),
       models: [...this.models.values()].map((m) => m.summary),
       predictions: [...this.predictions.values()].map((p) => ({
@@ -518,15 +518,20 @@ export class AppService implements ApiService {
     return { fileName: 'polarweave-project.pwproj.json', mime: 'application/json', text: JSON.stringify(project) };
   }
 
-  async openProject(params: ApiParams<'openProject'>): Promise<ApiOutput<'openProject'>> {
+  /**
+   * `trusted`: the project file was chosen by the user in a dialog (the shell), so the files it names are
+   * granted; from the window (an API call) they must have been opened in this session, like any path.
+   */
+  async openProject(params: ApiParams<'openProject'>, trusted = false): Promise<ApiOutput<'openProject'>> {
     const project = parseProject(params.text, params.name);
+    if (trusted) for (const ds of project.datasets) if (ds.origin.kind === 'path') this.paths.grantFile(ds.origin.path);
     // Read everything first; replace the session only when the whole project loaded.
     const datasets = new Map<string, DatasetRecord>();
     const idMap = new Map<string, string>();
     for (const ds of project.datasets) {
       let frames: Frame[];
       if (ds.origin.kind === 'demo') frames = await this.options.readers.readPath(join(this.options.demoDir, ds.origin.file));
-      else if (ds.origin.kind === 'path') frames = await this.options.readers.readPath(ds.origin.path);
+      else if (ds.origin.kind === 'path') frames = await this.options.readers.readPath(await this.paths.check(ds.origin.path));
       else frames = this.options.readers.parseText(ds.origin.text, ds.origin.name);
       const id = this.nextId('d');
       idMap.set(ds.id, id);

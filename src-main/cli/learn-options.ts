@@ -1,6 +1,16 @@
 // Options shared by `train` and `validate`: what to learn and the model settings, parsed into a TrainRequest.
 import { numberOption, UsageError, type OptionSpec, type ParsedArgs } from './args.ts';
-import { DEFAULT_SETTINGS } from '../core/learning/model.ts';
+import {
+  DEFAULT_SETTINGS,
+  limitsText,
+  NUMERIC_SETTINGS,
+  settingSpec,
+  settingsProblems,
+  SPECIES_SETTING,
+  TUNABLE_SETTINGS,
+  valueProblem,
+  type TunableSetting,
+} from '../core/settings-table.ts';
 import type { ModelSettings, Route, TensorKind, TrainRequest, TuneGrid } from '../core/learning/model-types.ts';
 import type { CommandIO } from './command.ts';
 import { readValues, shapeOfValues, whereOf, type TargetShape } from '../core/learning/targets.ts';
@@ -11,18 +21,14 @@ export const targetOptions: OptionSpec[] = [
   { name: 'as', value: 'eps|alpha-c|alpha-cm', help: 'what the tensor is: optical dielectric tensor, conducting-boundary or Clausius–Mossotti cell polarisability (Å³)' },
 ];
 
+/** The model-setting options, one per row of the settings table (core/settings-table.ts). */
 export const settingOptions: OptionSpec[] = [
-  { name: 'cutoff', value: 'Å', help: 'neighbour cutoff', default: String(DEFAULT_SETTINGS.cutoff) },
-  { name: 'cutoff-width', value: 'Å', help: 'width of the smooth switch below the cutoff', default: String(DEFAULT_SETTINGS.cutoffWidth) },
-  { name: 'sigma', value: 'Å', help: 'Gaussian width of the neighbour density', default: String(DEFAULT_SETTINGS.sigma) },
-  { name: 'nmax', value: 'N', help: 'radial basis size', default: String(DEFAULT_SETTINGS.nmax) },
-  { name: 'lmax', value: 'L', help: 'angular limit', default: String(DEFAULT_SETTINGS.lmax) },
-  { name: 'zeta', value: 'Z', help: 'kernel exponent (1 = linear, fastest)', default: String(DEFAULT_SETTINGS.zeta) },
-  { name: 'regularisation', value: 'R', help: 'ridge regulariser relative to the kernel scale (default: chosen by cross-validation)' },
-  { name: 'sparse', value: 'M', help: 'representative environments per species for ζ > 1 (0 = exact kernel ridge)', default: String(DEFAULT_SETTINGS.sparsePoints) },
-  { name: 'centres', value: 'LIST', help: 'species that carry local contributions, comma-separated (default: all)' },
-  { name: 'max-features', value: 'N', help: 'keep at most N feature columns per order, chosen from the data (0 = all)', default: '0' },
-  { name: 'seed', value: 'N', help: 'random seed', default: String(DEFAULT_SETTINGS.seed) },
+  ...NUMERIC_SETTINGS.map((spec): OptionSpec => {
+    const d = DEFAULT_SETTINGS[spec.key];
+    const value = spec.unit || (spec.integer ? 'N' : 'X');
+    return { name: spec.option, value, help: `${spec.help}; ${limitsText(spec)}`, ...(d === null ? {} : { default: String(d) }) };
+  }),
+  { name: SPECIES_SETTING.option, value: 'LIST', help: SPECIES_SETTING.help },
 ];
 
 const KINDS: TensorKind[] = ['eps', 'alpha-c', 'alpha-cm'];
@@ -42,41 +48,44 @@ export function parseRoute(value: string | undefined, allowBoth: boolean): Route
 
 export function parseSettings(args: ParsedArgs): Partial<ModelSettings> {
   const s: Partial<ModelSettings> = {};
-  const num = (name: string, opts: Parameters<typeof numberOption>[2] = {}) => numberOption(args, name, opts);
-  s.cutoff = num('cutoff', { min: 0.5, max: 20 });
-  s.cutoffWidth = num('cutoff-width', { min: 0, max: 20 });
-  s.sigma = num('sigma', { min: 0.01, max: 5 });
-  s.nmax = num('nmax', { integer: true, min: 1, max: 16 });
-  s.lmax = num('lmax', { integer: true, min: 0, max: 10 });
-  s.zeta = num('zeta', { integer: true, min: 1, max: 8 });
-  const reg = num('regularisation', { min: 1e-14, max: 1e6 });
-  s.regularisation = reg ?? null;
-  s.sparsePoints = num('sparse', { integer: true, min: 0, max: 20000 });
-  s.seed = num('seed', { integer: true });
-  s.maxFeatures = num('max-features', { integer: true, min: 0, max: 100000 });
-  if (args.options.centres) s.centres = args.options.centres.split(',').map((x) => x.trim()).filter(Boolean);
+  for (const spec of NUMERIC_SETTINGS) {
+    const v = numberOption(args, spec.option, { integer: spec.integer, min: spec.min, max: spec.max });
+    if (v !== undefined) (s as Record<string, number>)[spec.key] = v;
+  }
+  const list = args.options[SPECIES_SETTING.option];
+  if (list !== undefined) s.contributingSpecies = list.split(',').map((x) => x.trim()).filter(Boolean);
+  // The rules between settings (and the species labels) as the engine checks them, before any data is read.
+  const problems = settingsProblems({ ...DEFAULT_SETTINGS, ...s });
+  if (problems.length) throw new UsageError(problems[0]);
   return s;
 }
 
-export const tuneOptions: OptionSpec[] = [
-  { name: 'tune-cutoff', value: 'LIST', help: 'cutoffs (Å) to choose from by cross-validation, e.g. 4,4.5,5' },
-  { name: 'tune-sigma', value: 'LIST', help: 'Gaussian widths (Å) to choose from by cross-validation' },
-  { name: 'tune-zeta', value: 'LIST', help: 'kernel exponents to choose from by cross-validation, e.g. 1,2' },
-];
+/** `--tune-…` options: candidate values of the tunable settings, chosen from by cross-validation. */
+export const tuneOptions: OptionSpec[] = TUNABLE_SETTINGS.map((key) => {
+  const spec = settingSpec(key);
+  return { name: `tune-${spec.option}`, value: 'LIST', help: `${spec.label.toLowerCase()}${spec.unit ? ` values (${spec.unit})` : ' values'} to choose from by cross-validation, comma-separated` };
+});
 
-function numberList(args: ParsedArgs, name: string, integer = false): number[] | undefined {
+function numberList(args: ParsedArgs, key: TunableSetting): number[] | undefined {
+  const spec = settingSpec(key);
+  const name = `tune-${spec.option}`;
   const raw = args.options[name];
   if (raw === undefined) return undefined;
   const values = raw.split(',').map((x) => Number(x.trim()));
-  if (values.length === 0 || values.some((v) => !Number.isFinite(v) || v <= 0 || (integer && !Number.isInteger(v)))) {
-    throw new UsageError(`--${name} takes a comma-separated list of positive ${integer ? 'whole ' : ''}numbers, got "${raw}"`);
+  for (const v of values) {
+    const problem = valueProblem(spec, v);
+    if (problem) throw new UsageError(`--${name}: ${problem} (got "${raw}")`);
   }
   return values;
 }
 
 export function parseTune(args: ParsedArgs): TuneGrid | undefined {
-  const grid: TuneGrid = { cutoff: numberList(args, 'tune-cutoff'), sigma: numberList(args, 'tune-sigma'), zeta: numberList(args, 'tune-zeta', true) };
-  return grid.cutoff || grid.sigma || grid.zeta ? grid : undefined;
+  const grid: TuneGrid = {};
+  for (const key of TUNABLE_SETTINGS) {
+    const values = numberList(args, key);
+    if (values) grid[key] = values;
+  }
+  return Object.keys(grid).length ? grid : undefined;
 }
 
 /**

@@ -17,6 +17,14 @@ export function describeWhere(where: Where): string {
   return parts.join(', ');
 }
 
+/** Longest piece of input quoted back in a message; longer ones are cut (errors never echo whole values). */
+export const MAX_QUOTED_CHARS = 40;
+
+/** `s` as quoted in an error message: at most MAX_QUOTED_CHARS characters, cut ones ending in "...". */
+export function clipText(s: string): string {
+  return s.length > MAX_QUOTED_CHARS ? s.slice(0, MAX_QUOTED_CHARS - 3) + '...' : s;
+}
+
 /** Bad input data: a file that cannot be read as what it claims to be, or values that make no physical sense. */
 export class InputError extends Error {
   override name = 'InputError';

@@ -8,7 +8,8 @@ import { join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { CancelledError, InputError } from '../core/errors.ts';
 import type { Frame, Mat3 } from '../core/geometry/frame.ts';
-import type { ErrorFigures, FramePrediction, TrainRequest, ValidationReport } from '../core/learning/model-types.ts';
+import type { ErrorFigures, FramePrediction, ModelSettings, TrainRequest, ValidationReport } from '../core/learning/model-types.ts';
+import { describeSettings } from '../core/settings-table.ts';
 import { predictFrame, trainModel, type Model } from '../core/learning/model.ts';
 import { validate, errorFigures } from '../core/learning/validation.ts';
 import { toIrreducible, tensorFromValues } from '../core/dielectric/tensor.ts';
@@ -45,7 +46,7 @@ export interface DemoResult {
 
 /** A light feature set keeps the whole demo within two minutes on two cores; the regulariser is still chosen by
  * cross-validation inside every training. */
-export const DEMO_SETTINGS = { nmax: 4, lmax: 3 };
+export const DEMO_SETTINGS: Partial<ModelSettings> = { radialFunctions: 4, angularOrder: 3 };
 /** Use every LIQUID_STRIDE-th liquid frame (see runDemo). */
 export const LIQUID_STRIDE = 2;
 const REQUEST: TrainRequest = { tensorKey: 'eps_ref', kind: 'eps', route: 'cm', settings: DEMO_SETTINGS };
@@ -171,7 +172,7 @@ function demoSummary(s: SummaryInput): string {
     'resources/demo/PROVENANCE.md). **Predictions are model estimates**, here of an invented system.',
     '',
     `Run: ${s.quick ? 'quick (reduced frame counts)' : 'full'}, ${s.seconds.toFixed(0)} s. Route: Clausius–Mossotti (reference ε → α_CM, learnt as a sum of atomic`,
-    `contributions, converted back). Settings: cutoff ${s.model.settings.cutoff} Å, σ ${s.model.settings.sigma} Å, nmax ${s.model.settings.nmax}, lmax ${s.model.settings.lmax}, ζ ${s.model.settings.zeta}.`,
+    `contributions, converted back). Settings: ${describeSettings(s.model.settings)}.`,
     '',
     `## Liquid: ${s.report.folds}-fold cross-validation (${s.liquid.length} frames)`,
     `- ε: ${errorLine(s.report.errors)}`,

@@ -3,6 +3,7 @@
 import { fileURLToPath } from 'node:url';
 import { createAppService } from '../app/wiring.ts';
 import type { AppService } from '../app/service.ts';
+import { PathAccess } from '../app/path-access.ts';
 import { tsWorkerFactory } from '../jobs/spawn-ts.ts';
 import { startHost, type Host } from './server.ts';
 
@@ -13,8 +14,19 @@ export interface RunningHost extends Host {
   stop(): Promise<void>;
 }
 
-export async function startBrowserHost(options: { port?: number; rendererDir?: string; demoDir?: string } = {}): Promise<RunningHost> {
+export interface BrowserHostOptions {
+  port?: number;
+  rendererDir?: string;
+  demoDir?: string;
+  /** A folder whose files the page may open by path (given at start); no other path is readable. */
+  folder?: string;
+  /** Files named on the command line: readable by path. */
+  files?: string[];
+}
+
+export async function startBrowserHost(options: BrowserHostOptions = {}): Promise<RunningHost> {
   const service = createAppService({
+    paths: new PathAccess({ files: options.files, folders: options.folder ? [options.folder] : [] }),
     spawn: tsWorkerFactory(new URL('../app/worker.ts', import.meta.url)),
     // POLARWEAVE_DEMO_DIR: another demo folder (development and tests only).
     demoDir: options.demoDir ?? process.env.POLARWEAVE_DEMO_DIR ?? `${root}resources/demo`,

@@ -8,7 +8,8 @@ import { stat } from 'node:fs/promises';
 import { createServer, type IncomingMessage, type ServerResponse } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { extname, join, normalize, resolve, sep } from 'node:path';
-import type { ApiService } from '../api/contract.ts';
+import type { ApiResponse, ApiService } from '../api/contract.ts';
+import { MAX_REQUEST_BYTES } from '../core/limits.ts';
 import { dispatch } from '../api/dispatch.ts';
 import { CONTENT_SECURITY_POLICY } from './csp.ts';
 
@@ -76,20 +77,45 @@ function tokenMatches(given: string | string[] | undefined, token: string): bool
   return a.length === b.length && timingSafeEqual(a, b);
 }
 
+class TooLarge extends Error {}
+
+/** The body as text; TooLarge as soon as it passes `limit` (announced by Content-Length, or counted). */
 async function readBody(req: IncomingMessage, limit: number): Promise<string> {
+  const declared = Number(req.headers['content-length'] ?? NaN);
+  if (declared > limit) throw new TooLarge();
   const chunks: Buffer[] = [];
   let size = 0;
   for await (const chunk of req) {
     size += (chunk as Buffer).length;
-    if (size > limit) throw new RangeError(`request body larger than ${limit} bytes`);
+    if (size > limit) throw new TooLarge();
     chunks.push(chunk as Buffer);
   }
   return Buffer.concat(chunks).toString('utf8');
 }
 
+/** Longest run of non-space characters an error message may carry back (no echo of long values). */
+const MAX_RUN = 120;
+
+/** An error's texts with every long unbroken run cut, and the whole kept short: the page never gets a value back. */
+function quiet(response: ApiResponse<unknown>): ApiResponse<unknown> {
+  if (response.ok) return response;
+  const cut = (t: string) => t.replace(new RegExp(`\\S{${MAX_RUN},}`, 'g'), (run) => run.slice(0, 40) + '…').slice(0, 2000);
+  const error = { ...response.error, message: cut(response.error.message) };
+  if (error.hint !== undefined) error.hint = cut(error.hint);
+  return { ok: false, error };
+}
+
+function decodePath(text: string): string | null {
+  try {
+    return decodeURIComponent(text);
+  } catch {
+    return null; // a malformed %-encoding: the caller answers 400
+  }
+}
+
 export async function startHost(options: HostOptions): Promise<Host> {
   const token = options.token ?? randomBytes(32).toString('hex');
-  const limit = options.maxBodyBytes ?? 600 * 1024 * 1024;
+  const limit = options.maxBodyBytes ?? MAX_REQUEST_BYTES;
   const rendererDir = options.rendererDir ? resolve(options.rendererDir) : null;
   let port = 0;
 
@@ -122,17 +148,27 @@ export async function startHost(options: HostOptions): Promise<Host> {
           const text = await readBody(req, limit);
           payload = text.length ? JSON.parse(text) : {};
         } catch (e) {
-          return sendJson(res, e instanceof RangeError ? 413 : 400, { ok: false, error: { name: 'ApiValidationError', message: `unreadable request: ${(e as Error).message}` } });
+          if (e instanceof TooLarge) {
+            // stop receiving at once: answer, then close the connection instead of reading the rest
+            res.setHeader('Connection', 'close');
+            sendJson(res, 413, { ok: false, error: { name: 'ApiValidationError', message: `request larger than ${limit >> 20} MiB` } });
+            req.destroy();
+            return;
+          }
+          return sendJson(res, 400, { ok: false, error: { name: 'ApiValidationError', message: 'unreadable request: the body is not JSON' } });
         }
-        const method = decodeURIComponent(url.pathname.slice('/api/'.length));
+        const method = decodePath(url.pathname.slice('/api/'.length));
+        if (method === null) return plain(res, 400, 'malformed URL encoding');
         const outcome = await dispatch(options.service, method, payload);
         const status = { ok: 200, 'bad-request': 400, 'unknown-method': 404, failed: 200 }[outcome.status];
-        return sendJson(res, status, outcome.response);
+        return sendJson(res, status, quiet(outcome.response));
       }
 
       if (req.method !== 'GET' && req.method !== 'HEAD') return plain(res, 405, 'only GET here');
       if (!rendererDir) return plain(res, 404, 'no renderer is served by this host');
-      const rel = url.pathname === '/' ? 'index.html' : decodeURIComponent(url.pathname).replace(/^\/+/, '');
+      const decoded = decodePath(url.pathname);
+      if (decoded === null) return plain(res, 400, 'malformed URL encoding');
+      const rel = url.pathname === '/' ? 'index.html' : decoded.replace(/^\/+/, '');
       const file = normalize(join(rendererDir, rel));
       if (file !== rendererDir && !file.startsWith(rendererDir + sep)) return plain(res, 403, 'outside the app folder');
       const info = await stat(file).catch(() => null);
@@ -145,7 +181,7 @@ export async function startHost(options: HostOptions): Promise<Host> {
       if (req.method === 'HEAD') return res.end();
       createReadStream(file).pipe(res);
     } catch (e) {
-      if (!res.headersSent) sendJson(res, 500, { ok: false, error: { name: 'Error', message: (e as Error).message } });
+      if (!res.headersSent) sendJson(res, 500, { ok: false, error: { name: 'Error', message: 'internal error in the host' } });
       else res.destroy();
     }
   });

@@ -13,12 +13,51 @@ function tempPathFor(target: string): string {
   return path.join(dir, `.${path.basename(target)}.${tag}.tmp`);
 }
 
+function processAlive(pid: number): boolean {
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch (e) {
+    return (e as NodeJS.ErrnoException).code === 'EPERM'; // alive, but someone else's
+  }
+}
+
+const swept = new Set<string>();
+
+/**
+ * Remove temporaries of `target` left by a run that was killed mid-write (kill -9, power loss): files named as
+ * tempPathFor names them, whose writing process no longer exists. Only our own pattern is touched, once per
+ * target and process; failures are ignored (the write itself reports real problems).
+ */
+export async function removeStaleTemporaries(target: string): Promise<string[]> {
+  const key = path.resolve(target);
+  if (swept.has(key)) return [];
+  swept.add(key);
+  const base = `.${path.basename(target)}.`;
+  const removed: string[] = [];
+  let names: string[];
+  try {
+    names = await fsp.readdir(path.dirname(target));
+  } catch {
+    return removed;
+  }
+  for (const name of names) {
+    if (!name.startsWith(base)) continue;
+    const m = /^(\d+)-[0-9a-f]{12}\.tmp$/.exec(name.slice(base.length));
+    if (!m || Number(m[1]) === process.pid || processAlive(Number(m[1]))) continue;
+    const p = path.join(path.dirname(target), name);
+    await removeQuietly(p);
+    removed.push(p);
+  }
+  return removed;
+}
+
 /** Turn an fs error into a message that says which file and what to do. */
-function writeError(target: string, err: unknown): Error {
+export function writeError(target: string, err: unknown): Error {
   const code = (err as NodeJS.ErrnoException | undefined)?.code;
   if (code === 'ENOENT') return new InputError('cannot write: the folder does not exist', { file: target }, 'create the folder first or choose another output path');
   if (code === 'EACCES' || code === 'EPERM') return new InputError('cannot write: permission denied', { file: target }, 'choose a folder you can write to');
-  if (code === 'ENOSPC') return new InputError('cannot write: the disk is full', { file: target }, 'free some space or write elsewhere');
+  if (code === 'ENOSPC' || code === 'EDQUOT') return new InputError('cannot write: the disk is full', { file: target }, 'free some space or write elsewhere');
   if (code === 'EISDIR') return new InputError('cannot write: the output path is a folder', { file: target }, 'give a file name');
   return err instanceof Error ? err : new Error(String(err));
 }
@@ -46,6 +85,7 @@ export async function syncFolder(dir: string): Promise<void> {
 
 /** Write `data` to `target` atomically (temp file in the same folder, fsync, rename). */
 export async function writeFileAtomic(target: string, data: string | Uint8Array): Promise<void> {
+  await removeStaleTemporaries(target);
   const tmp = tempPathFor(target);
   let fh: FileHandle | undefined;
   try {
@@ -87,7 +127,7 @@ export function atomicWriteStream(target: string): AtomicWriteStream {
   let pendingBytes = 0;
   let state: 'open' | 'committed' | 'aborted' | 'failed' = 'open';
 
-  const handle = (): Promise<FileHandle> => (opened ??= fsp.open(tmp, 'wx', 0o644));
+  const handle = (): Promise<FileHandle> => (opened ??= removeStaleTemporaries(target).then(() => fsp.open(tmp, 'wx', 0o644)));
 
   async function flush(): Promise<void> {
     if (pendingBytes === 0) return;

@@ -3,11 +3,12 @@
 // are read as the value); atom sites in fractional coordinates; the symmetry operations, which are applied to
 // the asymmetric unit to give the full cell, wrapped into [0, 1) with duplicate sites merged (periodic minimum
 // image, tolerance in Å). One Frame per data block that holds atoms. Pure code, runs in a browser too.
-import { InputError } from '../core/errors.ts';
+import { clipText as clip, InputError } from '../core/errors.ts';
 import type { Frame, InfoValue, Mat3 } from '../core/geometry/frame.ts';
-import { cellFromParameters, wrapUnit } from '../core/geometry/cell.ts';
+import { cellFromParameters, checkBelievableCell, perpendicularWidths, wrapUnit } from '../core/geometry/cell.ts';
 import { isElement } from '../core/geometry/elements.ts';
 import { mat3Determinant } from '../core/dielectric/tensor.ts';
+import { DECIMAL_SOURCE } from './decimal.ts';
 
 interface Token {
   kind: 'data' | 'loop' | 'tag' | 'value' | 'save' | 'global' | 'stop';
@@ -28,7 +29,7 @@ function isWs(c: string | undefined): boolean {
 /** Split CIF text into tokens with their 1-based line numbers. */
 export function tokeniseCif(text: string, file: string): Token[] {
   const tokens: Token[] = [];
-  const lines = text.split('\n');
+  const lines = (text.charCodeAt(0) === 0xfeff ? text.slice(1) : text).split('\n'); // a byte-order mark carries nothing
   for (let ln = 0; ln < lines.length; ln++) {
     const line = lines[ln].replace(/\r$/, '');
     const lineNo = ln + 1;
@@ -104,7 +105,7 @@ export function parseCifBlocks(text: string, file: string): CifBlock[] {
   let block: CifBlock | null = null;
   let k = 0;
   const need = (t: Token): CifBlock => {
-    if (block === null) fail(`'${t.text}' before the first data_ block header`, file, t.line, 'start the file with data_NAME');
+    if (block === null) fail(`'${clip(t.text)}' before the first data_ block header`, file, t.line, 'start the file with data_NAME');
     return block;
   };
   while (k < tokens.length) {
@@ -116,8 +117,8 @@ export function parseCifBlocks(text: string, file: string): CifBlock[] {
     } else if (t.kind === 'tag') {
       const b = need(t);
       const v = tokens[k + 1];
-      if (v === undefined || v.kind !== 'value') fail(`tag ${t.text} has no value`, file, t.line, "give a value, or '?' if it is unknown");
-      if (b.items.has(t.text) || b.loops.some((l) => l.tags.includes(t.text))) fail(`tag ${t.text} appears twice in block ${b.name}`, file, t.line, 'keep one value per tag');
+      if (v === undefined || v.kind !== 'value') fail(`tag ${clip(t.text)} has no value`, file, t.line, "give a value, or '?' if it is unknown");
+      if (b.items.has(t.text) || b.loops.some((l) => l.tags.includes(t.text))) fail(`tag ${clip(t.text)} appears twice in block ${clip(b.name)}`, file, t.line, 'keep one value per tag');
       b.items.set(t.text, { text: v.text, line: v.line, quoted: v.quoted });
       k += 2;
     } else if (t.kind === 'loop') {
@@ -138,7 +139,7 @@ export function parseCifBlocks(text: string, file: string): CifBlock[] {
       const rows: CifValue[][] = [];
       for (let r = 0; r < values.length; r += tags.length) rows.push(values.slice(r, r + tags.length));
       for (const tag of tags) {
-        if (b.items.has(tag) || b.loops.some((l) => l.tags.includes(tag))) fail(`tag ${tag} appears twice in block ${b.name}`, file, t.line, 'keep one value per tag');
+        if (b.items.has(tag) || b.loops.some((l) => l.tags.includes(tag))) fail(`tag ${tag} appears twice in block ${clip(b.name)}`, file, t.line, 'keep one value per tag');
       }
       b.loops.push({ tags, rows, line: t.line });
     } else if (t.kind === 'value') {
@@ -156,10 +157,12 @@ export function parseCifBlocks(text: string, file: string): CifBlock[] {
   return blocks;
 }
 
+const CIF_NUMBER = new RegExp(`^(${DECIMAL_SOURCE})(?:\\(\\d+\\))?$`);
+
 /** A CIF number: 5.6402(3) → 5.6402; '?' and '.' (unknown, inapplicable) → undefined. */
 export function cifNumber(v: CifValue): number | undefined {
   if (!v.quoted && (v.text === '?' || v.text === '.')) return undefined;
-  const m = /^([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)(?:\(\d+\))?$/.exec(v.text);
+  const m = CIF_NUMBER.exec(v.text);
   return m ? Number(m[1]) : NaN;
 }
 
@@ -239,20 +242,88 @@ function column(block: CifBlock, tag: string): CifValue[] | undefined {
   return v ? [v] : undefined;
 }
 
+/**
+ * Sites kept so far, hashed by fractional bins at least `tol` thick (perpendicular to the cell faces), so a new
+ * position is compared with the few sites in its own and the adjacent bins (periodic) instead of with every
+ * site: linear time in the number of sites instead of quadratic.
+ */
+class SiteHash {
+  private readonly bins = new Map<number, number[]>();
+  private readonly nb: number[];
+  private readonly tol2: number;
+
+  constructor(
+    private readonly h: Mat3,
+    tol: number,
+  ) {
+    this.nb = perpendicularWidths(h).map((w) => Math.max(1, Math.min(100_000, Math.floor(w / Math.max(tol, 1e-9)))));
+    this.tol2 = tol * tol;
+  }
+
+  private key(i: number, j: number, k: number): number {
+    const [n0, n1, n2] = this.nb;
+    return (((i % n0) + n0) % n0) * n1 * n2 + (((j % n1) + n1) % n1) * n2 + (((k % n2) + n2) % n2);
+  }
+
+  private binOf(p: number[]): [number, number, number] {
+    const [n0, n1, n2] = this.nb;
+    return [Math.min(n0 - 1, Math.floor(p[0] * n0)), Math.min(n1 - 1, Math.floor(p[1] * n1)), Math.min(n2 - 1, Math.floor(p[2] * n2))];
+  }
+
+  add(p: number[], site: number): void {
+    const [i, j, k] = this.binOf(p);
+    const key = this.key(i, j, k);
+    const list = this.bins.get(key);
+    if (list) list.push(site);
+    else this.bins.set(key, [site]);
+  }
+
+  /** The lowest-numbered kept site within the tolerance of `p` (periodic), or -1. */
+  find(p: number[], frac: number[]): number {
+    const h = this.h;
+    const [i, j, k] = this.binOf(p);
+    const seen = new Set<number>();
+    let best = -1;
+    for (let a = -1; a <= 1; a++) {
+      for (let b = -1; b <= 1; b++) {
+        for (let c = -1; c <= 1; c++) {
+          const key = this.key(i + a, j + b, k + c);
+          if (seen.has(key)) continue;
+          seen.add(key);
+          for (const q of this.bins.get(key) ?? []) {
+            if (best >= 0 && q >= best) continue;
+            let d0 = p[0] - frac[3 * q], d1 = p[1] - frac[3 * q + 1], d2 = p[2] - frac[3 * q + 2];
+            d0 -= Math.round(d0);
+            d1 -= Math.round(d1);
+            d2 -= Math.round(d2);
+            const x = d0 * h[0] + d1 * h[3] + d2 * h[6];
+            const y = d0 * h[1] + d1 * h[4] + d2 * h[7];
+            const z = d0 * h[2] + d1 * h[5] + d2 * h[8];
+            if (x * x + y * y + z * z < this.tol2) best = q;
+          }
+        }
+      }
+    }
+    return best;
+  }
+}
+
 function blockFrame(block: CifBlock, file: string, index: number, options: CifOptions): Frame {
   const tol = options.mergeTolerance ?? 0.01;
   const where = (line: number | undefined) => ({ file, line, frame: index });
   const par: number[] = [];
   for (const tag of CELL_TAGS) {
     const v = block.items.get(tag);
-    if (!v) fail(`block ${block.name} has atom sites but no ${tag}`, file, block.line, 'give all six cell parameters (_cell_length_a … _cell_angle_gamma)', index);
+    if (!v) fail(`block ${clip(block.name)} has atom sites but no ${tag}`, file, block.line, 'give all six cell parameters (_cell_length_a … _cell_angle_gamma)', index);
     const x = cifNumber(v);
-    if (x === undefined || !Number.isFinite(x)) fail(`${tag} is '${v.text}', not a number`, file, v.line, 'write the value in Å or degrees, e.g. 5.6402(3)', index);
+    if (x === undefined || !Number.isFinite(x)) fail(`${tag} is '${clip(v.text)}', not a number`, file, v.line, 'write the value in Å or degrees, e.g. 5.6402(3)', index);
     par.push(x);
   }
   let cell: Mat3;
   try {
-    cell = cellFromParameters(par[0], par[1], par[2], par[3], par[4], par[5], where(block.items.get('_cell_length_a')!.line));
+    const at = where(block.items.get('_cell_length_a')!.line);
+    cell = cellFromParameters(par[0], par[1], par[2], par[3], par[4], par[5], at);
+    checkBelievableCell(cell, at);
   } catch (e) {
     if (e instanceof InputError) throw new InputError(e.problem, { ...e.where, frame: index }, e.hint);
     throw e;
@@ -267,7 +338,7 @@ function blockFrame(block: CifBlock, file: string, index: number, options: CifOp
     opsTag = tag;
     for (const v of col) {
       const op = parseSymmetryOp(v.text);
-      if (typeof op === 'string') fail(`symmetry operation ${op}`, file, v.line, "write operations like 'x, y, z' or '-x+1/2, y, -z'", index);
+      if (typeof op === 'string') fail(`symmetry operation ${clip(op)}`, file, v.line, "write operations like 'x, y, z' or '-x+1/2, y, -z'", index);
       ops.push(op);
     }
     break;
@@ -276,7 +347,7 @@ function blockFrame(block: CifBlock, file: string, index: number, options: CifOp
     const sg = SPACE_GROUP_TAGS.map((t) => block.items.get(t)).find((v) => v !== undefined);
     const name = sg?.text.replace(/\s+/g, '').toUpperCase();
     if (sg && name !== 'P1' && name !== '?' && name !== '.') {
-      fail(`space group '${sg.text}' is named but its symmetry operations are not listed`, file, sg.line, 'add a loop of _space_group_symop_operation_xyz (or _symmetry_equiv_pos_as_xyz), or give every atom of the cell', index);
+      fail(`space group '${clip(sg.text)}' is named but its symmetry operations are not listed`, file, sg.line, 'add a loop of _space_group_symop_operation_xyz (or _symmetry_equiv_pos_as_xyz), or give every atom of the cell', index);
     }
     ops.push(parseSymmetryOp('x,y,z') as SymmetryOp);
   }
@@ -286,13 +357,14 @@ function blockFrame(block: CifBlock, file: string, index: number, options: CifOp
   const fz = column(block, '_atom_site_fract_z');
   if (!fx || !fy || !fz) {
     const cart = column(block, '_atom_site_cartn_x');
-    fail(`block ${block.name}: atom sites lack fractional coordinates`, file, block.line, cart ? 'Cartesian-only atom sites are not read; give _atom_site_fract_x/y/z' : 'give a loop with _atom_site_fract_x, _atom_site_fract_y, _atom_site_fract_z', index);
+    fail(`block ${clip(block.name)}: atom sites lack fractional coordinates`, file, block.line, cart ? 'Cartesian-only atom sites are not read; give _atom_site_fract_x/y/z' : 'give a loop with _atom_site_fract_x, _atom_site_fract_y, _atom_site_fract_z', index);
   }
+  if (fx.length === 0) fail(`block ${clip(block.name)} lists no atom sites`, file, block.line, 'give at least one row of _atom_site_fract_x/y/z: a structure without atoms has nothing to compute', index);
   const siteLoop = loopWith(block, '_atom_site_fract_x');
   const sameLoop = (tag: string) => (siteLoop ? loopWith(block, tag) === siteLoop : block.items.has(tag));
   const symbols = sameLoop('_atom_site_type_symbol') ? column(block, '_atom_site_type_symbol') : undefined;
   const labels = sameLoop('_atom_site_label') ? column(block, '_atom_site_label') : undefined;
-  if (!symbols && !labels) fail(`block ${block.name}: atom sites have neither _atom_site_type_symbol nor _atom_site_label`, file, siteLoop?.line ?? block.line, 'add _atom_site_type_symbol with element symbols', index);
+  if (!symbols && !labels) fail(`block ${clip(block.name)}: atom sites have neither _atom_site_type_symbol nor _atom_site_label`, file, siteLoop?.line ?? block.line, 'add _atom_site_type_symbol with element symbols', index);
   const occupancy = sameLoop('_atom_site_occupancy') ? column(block, '_atom_site_occupancy') : undefined;
 
   const species: string[] = [];
@@ -306,15 +378,15 @@ function blockFrame(block: CifBlock, file: string, index: number, options: CifOp
     if (sym && sym.text !== '?' && sym.text !== '.') el = elementFromLabel(sym.text);
     if (el === undefined && lab) el = elementFromLabel(lab.text);
     if (el === undefined) {
-      fail(`atom site ${lab?.text ?? s + 1}: no element in '${sym?.text ?? lab?.text}'`, file, lineOf, 'the type symbol (or label) must start with an element symbol, e.g. Na1, O2-', index);
+      fail(`atom site ${clip(String(lab?.text ?? s + 1))}: no element in '${clip(sym?.text ?? lab?.text ?? '')}'`, file, lineOf, 'the type symbol (or label) must start with an element symbol, e.g. Na1, O2-', index);
     }
     const occ = occupancy ? cifNumber(occupancy[s]) : undefined;
     if (occ !== undefined && Number.isFinite(occ) && occ < 0.999) {
-      fail(`atom site ${lab?.text ?? s + 1} has occupancy ${occupancy![s].text}: partially occupied (disordered) sites are not supported`, file, lineOf, 'choose one ordered configuration and give it with full occupancies', index);
+      fail(`atom site ${clip(String(lab?.text ?? s + 1))} has occupancy ${clip(occupancy![s].text)}: partially occupied (disordered) sites are not supported`, file, lineOf, 'choose one ordered configuration and give it with full occupancies', index);
     }
     const xyz = [fx[s], fy[s], fz[s]].map((v) => {
       const x = cifNumber(v);
-      if (x === undefined || !Number.isFinite(x)) fail(`atom site ${lab?.text ?? s + 1}: coordinate '${v.text}' is not a number`, file, v.line, 'fractional coordinates are numbers such as 0.25 or 0.2754(3)', index);
+      if (x === undefined || !Number.isFinite(x)) fail(`atom site ${clip(String(lab?.text ?? s + 1))}: coordinate '${clip(v.text)}' is not a number`, file, v.line, 'fractional coordinates are numbers such as 0.25 or 0.2754(3)', index);
       return x;
     });
     species.push(el);
@@ -327,31 +399,19 @@ function blockFrame(block: CifBlock, file: string, index: number, options: CifOp
   const outFrac: number[] = [];
   const outLine: number[] = [];
   const h = cell;
-  const tol2 = tol * tol;
+  const sites = new SiteHash(cell, tol);
   for (let s = 0; s < species.length; s++) {
     for (const op of ops) {
       const r = op.rotation;
       const p = [0, 1, 2].map((row) => wrapUnit(r[3 * row] * frac[3 * s] + r[3 * row + 1] * frac[3 * s + 1] + r[3 * row + 2] * frac[3 * s + 2] + op.translation[row]));
-      let dup = -1;
-      for (let q = 0; q < outSpecies.length; q++) {
-        let d0 = p[0] - outFrac[3 * q], d1 = p[1] - outFrac[3 * q + 1], d2 = p[2] - outFrac[3 * q + 2];
-        d0 -= Math.round(d0);
-        d1 -= Math.round(d1);
-        d2 -= Math.round(d2);
-        const x = d0 * h[0] + d1 * h[3] + d2 * h[6];
-        const y = d0 * h[1] + d1 * h[4] + d2 * h[7];
-        const z = d0 * h[2] + d1 * h[5] + d2 * h[8];
-        if (x * x + y * y + z * z < tol2) {
-          dup = q;
-          break;
-        }
-      }
+      const dup = sites.find(p, outFrac);
       if (dup >= 0) {
         if (outSpecies[dup] !== species[s]) {
           fail(`atom sites on lines ${outLine[dup]} and ${siteLine[s]} (${outSpecies[dup]}, ${species[s]}) fall on the same position under symmetry`, file, siteLine[s], 'the structure is disordered or a coordinate is wrong; give one ordered configuration', index);
         }
         continue;
       }
+      sites.add(p, outSpecies.length);
       outSpecies.push(species[s]);
       outFrac.push(p[0], p[1], p[2]);
       outLine.push(siteLine[s]);

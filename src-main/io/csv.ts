@@ -2,7 +2,8 @@
 // back to the same double, and never a non-finite number), and parseCsv to read our own tables back. The
 // per-frame tensor table (columns, comment block, rows) is the prediction output format:
 // io/prediction/prediction-format.ts.
-import { InputError, PhysicsError, type Where } from '../core/errors.ts';
+import { clipText, InputError, PhysicsError, type Where } from '../core/errors.ts';
+import { strictNumber } from './decimal.ts';
 
 /** A field as RFC 4180 wants it: quoted (with doubled quotes) when it holds a comma, quote, CR or LF. */
 export function csvField(value: string): string {
@@ -50,7 +51,7 @@ export function parseCsv(text: string, file: string): CsvTable {
   const records: string[][] = [];
   const lines: number[] = [];
   let line = 1;
-  let i = 0;
+  let i = text.charCodeAt(0) === 0xfeff ? 1 : 0; // a byte-order mark carries nothing
   const n = text.length;
   let header: string[] | null = null;
   while (i < n) {
@@ -111,7 +112,7 @@ export function parseCsv(text: string, file: string): CsvTable {
       header = fields;
       const seen = new Set<string>();
       for (const h of header) {
-        if (seen.has(h)) throw new InputError(`column '${h}' appears twice in the header`, { file, line: startLine }, 'give every column its own name');
+        if (seen.has(h)) throw new InputError(`column '${clipText(h)}' appears twice in the header`, { file, line: startLine }, 'give every column its own name');
         seen.add(h);
       }
       continue;
@@ -127,7 +128,7 @@ export function parseCsv(text: string, file: string): CsvTable {
   const columns = header;
   const indexOf = (c: string): number => {
     const k = columns.indexOf(c);
-    if (k < 0) throw new InputError(`no column '${c}'`, { file }, `the table has: ${columns.join(', ')}`);
+    if (k < 0) throw new InputError(`no column '${clipText(c)}'`, { file }, `the table has: ${clipText(columns.join(', '))}`);
     return k;
   };
   return {
@@ -140,8 +141,8 @@ export function parseCsv(text: string, file: string): CsvTable {
       const k = indexOf(c);
       return Float64Array.from(records, (r, j) => {
         const t = r[k].trim();
-        const x = t === '' ? NaN : Number(t);
-        if (!Number.isFinite(x)) throw new InputError(`column '${c}' holds '${r[k]}', not a finite number`, { file, line: lines[j] }, 'the column must hold numbers on every row');
+        const x = strictNumber(t);
+        if (!Number.isFinite(x)) throw new InputError(`column '${clipText(c)}' holds '${clipText(r[k])}', not a finite number`, { file, line: lines[j] }, 'the column must hold numbers on every row');
         return x;
       });
     },

@@ -96,8 +96,13 @@ export function decimalAtBytes(b: Uint8Array, s: number, e: number): number {
   return Number(bytesText(b, s, e));
 }
 
-/** The syntax decimalAtBytes accepts, for strings. */
-const DECIMAL = /^[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$/;
+/**
+ * The syntax decimalAtBytes accepts, for strings, as a pattern source (CIF adds its uncertainty suffix to it).
+ * Written so that no two ways of matching exist (digits, then an optional '.digits'): a long run of digits
+ * that fails to match costs linear time, not quadratic backtracking.
+ */
+export const DECIMAL_SOURCE = '[+-]?(?:\\d+(?:\\.\\d*)?|\\.\\d+)(?:[eE][+-]?\\d+)?';
+const DECIMAL = new RegExp(`^${DECIMAL_SOURCE}$`);
 
 /** A strict decimal number from a string (1, -2.5, 3e-4, 1.5E+02), or NaN; same syntax as decimalAtBytes. */
 export function strictNumber(token: string): number {

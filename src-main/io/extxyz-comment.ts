@@ -3,7 +3,10 @@
 // without a value means `true`. This file only tokenises and formats that line; extxyz-parse.ts gives the
 // special keys (Lattice, Properties, pbc) their meaning. Pure code, runs in a browser too.
 import type { InfoValue } from '../core/geometry/frame.ts';
+import { clipText as clipKey } from '../core/errors.ts';
+import { MAX_JSON_DEPTH } from '../core/limits.ts';
 import { strictNumber } from './decimal.ts';
+import { jsonTooDeep } from './json-depth.ts';
 
 /** One key=value item as written: `quoted` tells a bare word from a "..." string; `bracket` an {..}/[..] array. */
 export interface RawItem {
@@ -155,7 +158,7 @@ export function interpretValue(item: RawItem): InfoValue {
     const parts = splitArray(v);
     const nums = parts.map(strictNumber);
     if (nums.every((x) => Number.isFinite(x))) return nums;
-    if (parts.some((p) => isNonFiniteWord(p))) throw new ValueError(`array '${item.key}' holds a non-finite number`);
+    if (parts.some((p) => isNonFiniteWord(p))) throw new ValueError(`array '${clipKey(item.key)}' holds a non-finite number`);
     return item.bracket + v + (item.bracket === '{' ? '}' : ']');
   }
   if (item.quoted) {
@@ -166,7 +169,7 @@ export function interpretValue(item: RawItem): InfoValue {
       const nums = parts.map(strictNumber);
       if (nums.every((x) => Number.isFinite(x))) return nums;
       if (nums.every((x, k) => Number.isFinite(x) || isNonFiniteWord(parts[k]))) {
-        throw new ValueError(`array '${item.key}' holds a non-finite number`);
+        throw new ValueError(`array '${clipKey(item.key)}' holds a non-finite number`);
       }
     }
     return v;
@@ -175,7 +178,7 @@ export function interpretValue(item: RawItem): InfoValue {
   if (b !== undefined) return b;
   const x = strictNumber(v);
   if (Number.isFinite(x)) return x;
-  if (isNonFiniteWord(v)) throw new ValueError(`value of '${item.key}' is not a finite number (${v})`);
+  if (isNonFiniteWord(v)) throw new ValueError(`value of '${clipKey(item.key)}' is not a finite number (${v})`);
   return v;
 }
 
@@ -184,11 +187,12 @@ export function interpretValue(item: RawItem): InfoValue {
  * booleans and strings as they are, nested numeric arrays flattened row-major; anything else stays the text.
  */
 function fromJson(key: string, v: string): InfoValue {
+  if (jsonTooDeep(v)) throw new ValueError(`value of '${clipKey(key)}' nests JSON deeper than ${MAX_JSON_DEPTH} levels`);
   let parsed: unknown;
   try {
     parsed = JSON.parse(v.slice(6));
   } catch {
-    throw new ValueError(`value of '${key}' starts with _JSON but is not valid JSON`);
+    throw new ValueError(`value of '${clipKey(key)}' starts with _JSON but is not valid JSON`);
   }
   if (typeof parsed === 'number' || typeof parsed === 'boolean' || typeof parsed === 'string') return parsed;
   if (Array.isArray(parsed)) {

@@ -3,9 +3,10 @@
 // The assembler is fed one line at a time, so the same code serves in-memory text (parseExtxyz) and the
 // streaming file reader (extxyz.ts). Every problem is an InputError with file, 1-based line and 0-based frame.
 // Pure code, no Node APIs: runs in a browser too.
-import { InputError } from '../core/errors.ts';
+import { clipText as clip, InputError } from '../core/errors.ts';
 import type { AtomArray, Frame, InfoValue, Mat3 } from '../core/geometry/frame.ts';
-import { cellDeterminant, checkCell as checkCellShape } from '../core/geometry/cell.ts';
+import { cellDeterminant, checkBelievableCell } from '../core/geometry/cell.ts';
+import { MAX_ATOMS_PER_FRAME, MAX_COORDINATE_A, MAX_FIELDS_PER_ATOM } from '../core/limits.ts';
 import { elementSymbol, isElement, symbolIgnoringCase } from '../core/geometry/elements.ts';
 import { bytesText, decimalAtBytes } from './decimal.ts';
 import { CommentSyntaxError, ValueError, interpretValue, parseBoolean, tokeniseComment } from './extxyz-comment.ts';
@@ -24,8 +25,6 @@ export const DEFAULT_PROPERTIES = 'species:S:1:pos:R:3';
 /** Keys with a meaning of their own; never stored in Frame.info. */
 export const RESERVED_KEYS = new Set(['Lattice', 'Properties', 'pbc']);
 
-/** Largest atom count we believe (a count line beyond this is a corrupt file, not a real frame). */
-const MAX_ATOMS = 100_000_000;
 /** Atoms allocated up front for a frame; more room is made as atom lines arrive. */
 const INITIAL_CAPACITY = 4096;
 
@@ -43,26 +42,29 @@ function fail(problem: string, where: Where, hint?: string): never {
 export function parseProperties(value: string, where: Where): ColumnSpec[] {
   const parts = value.split(':');
   const hint = 'Properties must be name:kind:width triples, kind one of S, R, I, L (e.g. species:S:1:pos:R:3)';
-  if (parts.length % 3 !== 0 || parts.length === 0) fail(`Properties '${value}' is not a list of name:kind:width triples`, where, hint);
+  if (parts.length % 3 !== 0 || parts.length === 0) fail(`Properties '${clip(value)}' is not a list of name:kind:width triples`, where, hint);
   const cols: ColumnSpec[] = [];
   const seen = new Set<string>();
+  let total = 0;
   for (let i = 0; i < parts.length; i += 3) {
     const name = parts[i];
     const kind = parts[i + 1];
     const widthText = parts[i + 2];
     if (name.length === 0) fail(`Properties has an empty column name`, where, hint);
-    if (kind !== 'S' && kind !== 'R' && kind !== 'I' && kind !== 'L') fail(`Properties column '${name}' has unknown kind '${kind}'`, where, hint);
-    if (!/^[1-9]\d{0,5}$/.test(widthText)) fail(`Properties column '${name}' has width '${widthText}', not a positive integer`, where, hint);
-    if (seen.has(name)) fail(`Properties names column '${name}' twice`, where, 'give every column its own name');
+    if (kind !== 'S' && kind !== 'R' && kind !== 'I' && kind !== 'L') fail(`Properties column '${clip(name)}' has unknown kind '${clip(kind)}'`, where, hint);
+    if (!/^[1-9]\d{0,5}$/.test(widthText)) fail(`Properties column '${clip(name)}' has width '${clip(widthText)}', not a positive integer`, where, hint);
+    total += Number(widthText);
+    if (total > MAX_FIELDS_PER_ATOM) fail(`Properties asks for more than ${MAX_FIELDS_PER_ATOM} values per atom line`, where, 'this is not a structure file, or its Properties value is damaged');
+    if (seen.has(name)) fail(`Properties names column '${clip(name)}' twice`, where, 'give every column its own name');
     seen.add(name);
     cols.push({ name, kind, width: Number(widthText) });
   }
   return cols;
 }
 
-/** Check a cell for finite entries, a non-zero volume (core/geometry/cell.ts) and right-handedness. */
+/** Check a cell for finite entries, a believable volume (core/cell.ts) and right-handedness. */
 export function checkCell(cell: Mat3, where: Where, what = 'Lattice'): void {
-  checkCellShape(cell, where);
+  checkBelievableCell(cell, where);
   const v = cellDeterminant(cell);
   if (v < 0) {
     fail(`${what} has a negative volume (${v.toPrecision(6)} Å³: a left-handed set of vectors)`, where, 'swap two lattice vectors (or negate one) to make a right-handed cell');
@@ -173,7 +175,7 @@ function checkedColumns(properties: string, where: Where): ColumnSpec[] {
 // Atom lines are parsed as bytes (ASCII in every real file) straight from the read buffer: no text decoding,
 // no substrings, monomorphic array reads. Count and comment lines, which may hold any UTF-8 text, are decoded.
 // Field boundaries of the current atom line are reused between lines (no allocation per line).
-const MAX_FIELDS = 4096;
+const MAX_FIELDS = MAX_FIELDS_PER_ATOM;
 const fieldStart = new Int32Array(MAX_FIELDS);
 const fieldEnd = new Int32Array(MAX_FIELDS);
 const encoder = new TextEncoder();
@@ -336,7 +338,8 @@ export class ExtxyzAssembler {
       fail(`expected the atom count of a frame, found '${clip(t)}'${prev}`, this.where(), 'each frame starts with a line holding only its number of atoms');
     }
     const n = Number(t);
-    if (n > MAX_ATOMS) fail(`atom count ${t} is implausibly large`, this.where(), 'check the atom count line');
+    if (n > MAX_ATOMS_PER_FRAME) fail(`atom count ${clip(t)} is implausibly large`, this.where(), 'check the atom count line');
+    if (n === 0) fail('the frame has no atoms (its count line says 0)', this.where(), 'remove the empty frame: there is nothing to compute for it');
     const decision = this.decide(this.frame);
     if (decision === 'stop') {
       this.stopped = true;
@@ -436,6 +439,7 @@ export class ExtxyzAssembler {
     for (let d = 0; d < 3; d++) {
       const x = decimalAtBytes(text, fieldStart[pf + d], fieldEnd[pf + d]);
       if (!(x - x === 0)) this.badNumber(text, pf + d, 'pos', 'a finite real number');
+      if (x > MAX_COORDINATE_A || x < -MAX_COORDINATE_A) this.farAtom(text, pf + d);
       pos[3 * a + d] = x;
     }
     if (b.others.length > 0) this.otherColumns(text, b, a);
@@ -519,6 +523,10 @@ export class ExtxyzAssembler {
     );
   }
 
+  private farAtom(text: Uint8Array, f: number): never {
+    fail(`atom coordinate ${clip(fieldText(text, f))} Å is beyond ±${MAX_COORDINATE_A} Å`, this.where(), 'positions are in Å: check the units, or wrap the atoms into the cell');
+  }
+
   private badNumber(text: Uint8Array, f: number, column: string, wanted: string): never {
     const t = fieldText(text, f);
     fail(`column '${column}' needs ${wanted}, found '${clip(t)}'`, this.where(), /nan|inf/i.test(t) ? 'the file holds NaN or infinite values; regenerate or drop this frame' : 'check this atom line');
@@ -545,9 +553,6 @@ function describeColumns(cols: ColumnSpec[]): string {
   return cols.map((c) => `${c.name}:${c.kind}:${c.width}`).join(':');
 }
 
-function clip(s: string): string {
-  return s.length > 40 ? s.slice(0, 37) + '...' : s;
-}
 
 /** Every frame of an extended XYZ text held in memory (uploads, tests). */
 export function parseExtxyz(text: string | Uint8Array, fileName: string): Frame[] {

@@ -5,10 +5,12 @@ import { promises as fsp } from 'node:fs';
 import type { FileHandle } from 'node:fs/promises';
 import { createGunzip, gzipSync } from 'node:zlib';
 import { CancelledError, InputError } from '../core/errors.ts';
+import { MAX_LINE_BYTES } from '../core/limits.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { ExtxyzAssembler, type FrameDecision } from './extxyz-parse.ts';
 import { formatExtxyzFrame } from './extxyz-format.ts';
 import { atomicWriteStream } from './atomic.ts';
+import { readError } from './whole-file.ts';
 
 export { parseExtxyz, ExtxyzAssembler, parseCommentLine, parseProperties, DEFAULT_PROPERTIES } from './extxyz-parse.ts';
 export type { ColumnSpec, ColumnKind } from './extxyz-parse.ts';
@@ -16,7 +18,7 @@ export { formatExtxyzFrame } from './extxyz-format.ts';
 
 const CHUNK_BYTES = 1 << 20;
 /** A "line" longer than this is not extended XYZ (binary data, a broken file): refuse instead of buffering it. */
-const MAX_LINE_CHARS = 64 << 20; // bytes
+const MAX_LINE_CHARS = MAX_LINE_BYTES;
 
 /** Which frames to read: start, start+step, … below stop (0-based; stop exclusive, open-ended if absent). */
 export interface FrameRange {
@@ -30,20 +32,19 @@ export interface ReadOptions {
   range?: FrameRange;
 }
 
-function openError(file: string, err: unknown): Error {
-  const code = (err as NodeJS.ErrnoException | undefined)?.code;
-  if (code === 'ENOENT') return new InputError('file not found', { file }, 'check the path');
-  if (code === 'EACCES' || code === 'EPERM') return new InputError('cannot read the file: permission denied', { file });
-  if (code === 'EISDIR') return new InputError('this is a folder, not a file', { file }, 'give the path of a structure file');
-  return err instanceof Error ? err : new Error(String(err));
-}
-
 async function openForReading(file: string): Promise<FileHandle> {
+  let fh: FileHandle;
   try {
-    return await fsp.open(file, 'r');
+    fh = await fsp.open(file, 'r');
   } catch (err) {
-    throw openError(file, err);
+    throw readError(file, err);
   }
+  // a folder opens on some systems and fails only at the first read: refuse it here, by name
+  if ((await fh.stat()).isDirectory()) {
+    await fh.close();
+    throw readError(file, Object.assign(new Error('folder'), { code: 'EISDIR' }));
+  }
+  return fh;
 }
 
 async function isGzip(fh: FileHandle): Promise<boolean> {

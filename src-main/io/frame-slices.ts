@@ -56,6 +56,7 @@ export async function* frameSlices(file: string, from: SlicePosition, decide: (i
       throw new InputError(`expected the atom count of a frame, found '${text.slice(0, 40)}'`, where(), 'each frame starts with a line holding only its number of atoms; the frame before may have a wrong count');
     }
     atoms = Number(text);
+    if (atoms === 0) throw new InputError('the frame has no atoms (its count line says 0)', where(), 'remove the empty frame: there is nothing to compute for it');
     remaining = atoms + 1;
     return 'frame';
   };
@@ -80,9 +81,12 @@ export async function* frameSlices(file: string, from: SlicePosition, decide: (i
         }
         i = nl + 1;
         lastPartial = false;
-        line++;
+        // a byte-order mark before the first count line carries nothing (the other readers skip it too)
+        if (frameStart === 0 && countBytes[0] === 0xef && countBytes[1] === 0xbb && countBytes[2] === 0xbf) countBytes.splice(0, 3);
         const raw = Buffer.from(countBytes);
-        if (finishCount() === 'blank') continue;
+        const kind = finishCount(); // errors name the count line itself
+        line++;
+        if (kind === 'blank') continue;
         decision = decide(index);
         if (decision === 'stop') return;
         state = 'body';
@@ -116,6 +120,9 @@ export async function* frameSlices(file: string, from: SlicePosition, decide: (i
   if (state === 'count') {
     if (countBytes.length > 0 && finishCount() === 'frame') {
       throw new InputError(`file ends inside frame ${index}: only its atom count line is there`, where(), 'the file is truncated; copy it again or remove the incomplete last frame');
+    }
+    if (index === 0 && from.offset === 0) {
+      throw new InputError('no frames found', { file, line: 1, frame: 0 }, 'an extended XYZ file starts with a line holding the number of atoms');
     }
     return;
   }

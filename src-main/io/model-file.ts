@@ -1,17 +1,25 @@
-// Trained-model files: versioned, self-describing JSON of our own format "polarweave-model", version 1.
+// Trained-model files: versioned, self-describing JSON of our own format "polarweave-model", version 2.
 //   { format, version, description, checksum: { algorithm: "sha256", value }, payload }
+// Version 2 names the settings as the settings table does (core/settings-table.ts); version 1 used other keys
+// and is still read: fromVersion1 maps it to the model of today, and nothing else knows the old keys.
 // The payload is the Model of core/learning/model.ts with every typed array stored as base64 of its little-endian bytes
 // ({"f64": …} / {"i32": …}; Cholesky factors as their packed lower triangle, {"f64lower": …, "n": …}).
 // The checksum is sha256 over the canonical JSON of the payload (keys sorted, no spaces), so any edit or
 // truncation is caught. A corrupt file, a bad checksum or an unknown version is a ModelError, never a model.
 import { createHash } from 'node:crypto';
-import { readFile } from 'node:fs/promises';
-import { ModelError } from '../core/errors.ts';
+import { InputError, ModelError } from '../core/errors.ts';
+import { MAX_JSON_DEPTH } from '../core/limits.ts';
 import type { Model } from '../core/learning/model.ts';
 import { writeFileAtomic } from './atomic.ts';
+import { NUMERIC_SETTINGS, SPECIES_SETTING } from '../core/settings-table.ts';
+import { jsonTooDeep } from './json-depth.ts';
+import { checkModelContents } from './model-check.ts';
+import { readWholeFile } from './whole-file.ts';
 
 export const MODEL_FORMAT = 'polarweave-model';
-export const MODEL_VERSION = 1;
+export const MODEL_VERSION = 2;
+/** Versions this program reads. */
+export const MODEL_VERSIONS_READ = [1, 2] as const;
 
 type Json = null | boolean | number | string | Json[] | { [k: string]: Json };
 
@@ -126,6 +134,8 @@ function need(cond: boolean, file: string, what: string): void {
 
 /** Read a model from text; any defect is a ModelError naming the file and what is wrong. */
 export function parseModel(text: string, fileName: string): Model {
+  // the checksum walk and the decoder recurse: refuse deep nesting before parsing anything
+  if (jsonTooDeep(text)) throw new ModelError(`${fileName}: not a model file (JSON nested deeper than ${MAX_JSON_DEPTH} levels)`);
   let doc: unknown;
   try {
     doc = JSON.parse(text);
@@ -135,9 +145,9 @@ export function parseModel(text: string, fileName: string): Model {
   if (doc === null || typeof doc !== 'object' || Array.isArray(doc)) throw new ModelError(`${fileName}: not a model file (expected a JSON object)`);
   const d = doc as Record<string, Json>;
   if (d.format !== MODEL_FORMAT) throw new ModelError(`${fileName}: not a Polarweave model file (format is ${JSON.stringify(d.format ?? null)}, expected "${MODEL_FORMAT}")`);
-  if (d.version !== MODEL_VERSION) {
+  if (!(MODEL_VERSIONS_READ as readonly unknown[]).includes(d.version)) {
     const newer = typeof d.version === 'number' && d.version > MODEL_VERSION;
-    throw new ModelError(`${fileName}: model file version ${JSON.stringify(d.version ?? null)} is not supported (this program reads version ${MODEL_VERSION})${newer ? '; update Polarweave' : ''}`);
+    throw new ModelError(`${fileName}: model file version ${JSON.stringify(d.version ?? null)} is not supported (this program reads versions ${MODEL_VERSIONS_READ.join(' and ')})${newer ? '; update Polarweave' : ''}`);
   }
   const ck = d.checksum as Record<string, Json> | undefined;
   need(!!ck && ck.algorithm === 'sha256' && typeof ck.value === 'string', fileName, 'no sha256 checksum');
@@ -146,52 +156,44 @@ export function parseModel(text: string, fileName: string): Model {
   if (actual !== (ck as Record<string, Json>).value) {
     throw new ModelError(`${fileName}: checksum mismatch — the model file is corrupt or was edited; retrain or restore the file`);
   }
-  const model = decode(d.payload, '', fileName) as Model;
-  checkModelShape(model, fileName);
+  const decoded = decode(d.payload, '', fileName) as Record<string, unknown>;
+  const model = (d.version === 1 ? fromVersion1(decoded, fileName) : decoded) as unknown as Model;
+  checkModelContents(model, fileName);
   return model;
 }
 
-/** Structural checks beyond the checksum (a file written by a buggy program must still not give numbers). */
-function checkModelShape(m: Model, file: string): void {
-  need(typeof m.target?.key === 'string' && ['tensor', 'vector', 'scalar'].includes(m.target.shape), file, 'target');
-  need(m.target.route === 'cm' || m.target.route === 'direct', file, 'route');
-  need(Array.isArray(m.species) && m.species.every((s) => typeof s === 'string'), file, 'species');
-  need(Array.isArray(m.centres) && m.centres.every((s) => m.species.includes(s)), file, 'centre species');
-  need(typeof m.featureSizes?.n0 === 'number', file, 'feature sizes');
-  need(Number.isInteger(m.tensorLimits?.nmax) && Number.isInteger(m.tensorLimits?.lmax), file, 'tensor feature limits');
-  if (m.featureSelection !== undefined) {
-    const sel = m.featureSelection as Record<string, unknown>;
-    need(Object.values(sel).every((v) => Array.isArray(v) && v.every((x) => Number.isInteger(x) && x >= 0)), file, 'feature selection');
-    need(Array.isArray(sel[0]) && (sel[0] as number[]).length === m.featureSizes.n0, file, 'feature selection size');
+/**
+ * A decoded version-1 payload as the model of today. Version 1 differs only in the keys of `settings` (the
+ * `v1Key` of each row of the settings table); the numbers are the same, so a version-1 model predicts exactly
+ * what it did. The one place that knows the old keys.
+ */
+export function fromVersion1(payload: Record<string, unknown>, file: string): Record<string, unknown> {
+  const old = payload.settings;
+  need(old !== null && typeof old === 'object' && !Array.isArray(old), file, 'settings');
+  const o = old as Record<string, unknown>;
+  const settings: Record<string, unknown> = {};
+  for (const spec of NUMERIC_SETTINGS) {
+    need(spec.v1Key in o, file, `settings.${spec.v1Key} of version 1`);
+    settings[spec.key] = o[spec.v1Key];
   }
-  need(Array.isArray(m.baseline) && m.baseline.length === m.centres.length, file, 'baseline');
-  need(Array.isArray(m.parts) && m.parts.length > 0, file, 'model parts');
-  const nS = m.centres.length;
-  for (const p of m.parts) {
-    need([0, 1, 2].includes(p.order) && typeof p.n === 'number', file, 'part order');
-    if (p.form === 'linear') need(p.weights instanceof Float64Array && p.weights.length === nS * p.n, file, `weights of λ=${p.order}`);
-    else {
-      const k = p.kernel;
-      need(!!k && k.species instanceof Int32Array && k.p instanceof Float64Array && k.v instanceof Float64Array, file, `kernel of λ=${p.order}`);
-      need(k!.p.length === k!.species.length * k!.n0 && k!.v.length === k!.species.length * k!.n, file, `kernel sizes of λ=${p.order}`);
-    }
-    if (p.posterior) need(p.posterior.factor instanceof Float64Array && p.posterior.factor.length === p.posterior.size ** 2, file, `posterior of λ=${p.order}`);
-  }
-  const a = m.applicability;
-  need(!!a && a.species instanceof Int32Array && a.p instanceof Float64Array && a.p.length === a.species.length * a.n0, file, 'applicability');
-  need(m.settings !== null && typeof m.settings === 'object' && typeof m.settings.cutoff === 'number', file, 'settings');
+  need(SPECIES_SETTING.v1Key in o, file, `settings.${SPECIES_SETTING.v1Key} of version 1`);
+  settings[SPECIES_SETTING.key] = o[SPECIES_SETTING.v1Key];
+  return { ...payload, settings };
 }
 
 export async function saveModel(path: string, model: Model): Promise<void> {
   await writeFileAtomic(path, serialiseModel(model));
 }
 
-export async function loadModel(path: string): Promise<Model> {
-  let text: string;
+/** The bytes of a model file (size-capped, gzip allowed); a ModelError saying why when it cannot be read. */
+export async function readModelBytes(path: string): Promise<Buffer> {
   try {
-    text = await readFile(path, 'utf8');
+    return await readWholeFile(path);
   } catch (e) {
-    throw new ModelError(`${path}: cannot read the model file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`);
+    throw e instanceof InputError ? new ModelError(`${path}: cannot read the model file (${e.problem})`) : e;
   }
-  return parseModel(text, path);
+}
+
+export async function loadModel(path: string): Promise<Model> {
+  return parseModel((await readModelBytes(path)).toString('utf8'), path);
 }

@@ -1,12 +1,11 @@
 // One entry point for structure files: picks the reader by file kind. A table of kinds (name, extensions,
 // many frames or one per block, reader) so adding a format is one line here and one file beside it.
-import { readFile } from 'node:fs/promises';
-import { gunzipSync } from 'node:zlib';
 import path from 'node:path';
 import { CancelledError, InputError } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { rangeDecider, readExtxyz, type ReadOptions } from './extxyz.ts';
 import { parseCif } from './cif.ts';
+import { readWholeFile } from './whole-file.ts';
 
 export type StructureKind = 'extxyz' | 'cif';
 
@@ -19,20 +18,7 @@ interface KindEntry {
 }
 
 async function* readCifFile(file: string, options: ReadOptions): AsyncGenerator<Frame> {
-  let bytes: Buffer;
-  try {
-    bytes = await readFile(file);
-  } catch (err) {
-    const code = (err as NodeJS.ErrnoException).code;
-    throw code === 'ENOENT' ? new InputError('file not found', { file }, 'check the path') : err;
-  }
-  if (bytes[0] === 0x1f && bytes[1] === 0x8b) {
-    try {
-      bytes = gunzipSync(bytes);
-    } catch (e) {
-      throw new InputError(`the gzip data is damaged or truncated (${(e as Error).message})`, { file }, 'copy the file again');
-    }
-  }
+  const bytes = await readWholeFile(file);
   const decide = rangeDecider(options.range, file);
   const frames = parseCif(bytes.toString('utf8'), file);
   for (let k = 0; k < frames.length; k++) {

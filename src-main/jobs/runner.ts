@@ -70,6 +70,8 @@ interface Entry {
   cancelRequested: boolean;
   resolve: (v: unknown) => void;
   reject: (e: unknown) => void;
+  /** Removes the job's abort listener from the caller's signal (one signal may serve thousands of jobs). */
+  detach: () => void;
 }
 
 let nextId = 1;
@@ -112,6 +114,7 @@ export class JobRunner {
       cancelRequested: false,
       resolve,
       reject,
+      detach: () => undefined,
     };
     const handle: JobHandle<O> = {
       id: entry.id,
@@ -128,7 +131,12 @@ export class JobRunner {
     }
     if (opts.signal) {
       if (opts.signal.aborted) queueMicrotask(() => this.cancel(entry));
-      else opts.signal.addEventListener('abort', () => this.cancel(entry), { once: true });
+      else {
+        const signal = opts.signal;
+        const onAbort = () => this.cancel(entry);
+        signal.addEventListener('abort', onAbort, { once: true });
+        entry.detach = () => signal.removeEventListener('abort', onAbort);
+      }
     }
     this.queue.push(entry);
     this.pump();
@@ -175,6 +183,7 @@ export class JobRunner {
   private finish(entry: Entry, state: JobState, value: unknown): void {
     if (entry.state === 'done' || entry.state === 'failed' || entry.state === 'cancelled') return;
     entry.state = state;
+    entry.detach();
     this.running.delete(entry);
     const slot = entry.slot;
     entry.slot = null;
@@ -269,6 +278,7 @@ export class JobRunner {
       const i = this.queue.indexOf(entry);
       if (i >= 0) this.queue.splice(i, 1);
       entry.state = 'cancelled';
+      entry.detach();
       entry.reject(new CancelledError());
       return;
     }

@@ -40,6 +40,8 @@ function fail(e: unknown): ApiResponse<never> {
 export async function openStructurePaths(ctx: IpcContext, paths: string[]): Promise<DatasetSummary[]> {
   const out: DatasetSummary[] = [];
   for (const path of paths) {
+    // every caller holds a path the user chose: a dialog, a drop, the command line or the recent-files menu
+    ctx.service.paths.grantFile(path);
     out.push(await ctx.service.openStructures({ path }));
     ctx.rememberRecent(path);
   }
@@ -89,7 +91,7 @@ export function registerIpc(ctx: IpcContext): void {
       const r = win ? await dialog.showOpenDialog(win, opts) : await dialog.showOpenDialog(opts);
       if (r.canceled || !r.filePaths[0]) return { ok: true, value: null };
       const path = r.filePaths[0];
-      const value = await ctx.service.openProject({ name: basename(path), text: await readFile(path, 'utf8') });
+      const value = await ctx.service.openProject({ name: basename(path), text: await readFile(path, 'utf8') }, true);
       ctx.rememberRecent(path);
       return { ok: true, value };
     } catch (err) {

@@ -7,7 +7,7 @@ import { parseExtxyz, writeExtxyz } from '../../src-main/io/extxyz.ts';
 
 let dir: string;
 const data = () => join(dir, 'water.extxyz');
-const FAST = ['--nmax', '4', '--lmax', '3'];
+const FAST = ['--radial-functions', '4', '--angular-order', '3'];
 
 async function cli(argv: string[], signal?: AbortSignal): Promise<{ code: number; out: string; err: string }> {
   let out = '';

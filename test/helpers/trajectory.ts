@@ -28,5 +28,5 @@ export function trajectoryText(frames: Frame[]): string {
 }
 
 export function smallModel(): Promise<Model> {
-  return trainModel(waterFrames(), { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'cm', settings: { nmax: 4, lmax: 3 } });
+  return trainModel(waterFrames(), { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'cm', settings: { radialFunctions: 4, angularOrder: 3 } });
 }

@@ -9,9 +9,11 @@ import { InputError } from '../../src-main/core/errors.ts';
 import { ELEMENT_SYMBOLS } from '../../src-main/core/geometry/elements.ts';
 import type { AtomArray, Frame, InfoValue } from '../../src-main/core/geometry/frame.ts';
 import { formatExtxyzFrame, parseExtxyz, readExtxyz } from '../../src-main/io/extxyz.ts';
+import { MAX_COORDINATE_A } from '../../src-main/core/limits.ts';
 
 const finite = fc.double({ noNaN: true, noDefaultInfinity: true });
-const coordinate = fc.oneof(finite, fc.double({ min: -50, max: 50, noNaN: true }));
+// positions beyond ±MAX_COORDINATE_A are refused by the reader (tested in robustness.test.ts)
+const coordinate = fc.oneof(fc.double({ min: -MAX_COORDINATE_A, max: MAX_COORDINATE_A, noNaN: true }), fc.double({ min: -50, max: 50, noNaN: true }));
 
 const infoValue: fc.Arbitrary<InfoValue> = fc.oneof(
   finite,
@@ -47,7 +49,8 @@ function arrayOf(kind: AtomArray['kind'], n: number, width: number): fc.Arbitrar
   }
 }
 
-const frameArb: fc.Arbitrary<Frame> = fc.integer({ min: 0, max: 6 }).chain((n) =>
+// a frame without atoms is refused (robustness.test.ts)
+const frameArb: fc.Arbitrary<Frame> = fc.integer({ min: 1, max: 6 }).chain((n) =>
   fc
     .record({
       species: fc.array(fc.constantFrom(...ELEMENT_SYMBOLS), { minLength: n, maxLength: n }),

@@ -5,7 +5,7 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ModelError } from '../../src-main/core/errors.ts';
 import { makeFrame } from '../../src-main/core/geometry/frame.ts';
-import { predictWithFeatures, trainWithFeaturiser, type Model } from '../../src-main/core/learning/model.ts';
+import { DEFAULT_SETTINGS, predictWithFeatures, trainWithFeaturiser, type Model } from '../../src-main/core/learning/model.ts';
 import { canonicalJson, loadModel, MODEL_FORMAT, parseModel, saveModel, serialiseModel } from '../../src-main/io/model-file.ts';
 import { makeRng, syntheticFeatures } from '../helpers/synthetic-features.ts';
 
@@ -23,7 +23,7 @@ let dir: string;
 
 beforeAll(async () => {
   model = await trainWithFeaturiser(frames, { tensorKey: 'alpha', kind: 'alpha-cm', route: 'cm' }, (_f, i) => feats[i], {}, { createdAt: '2026-01-01T00:00:00.000Z' });
-  kernelModel = await trainWithFeaturiser(frames, { tensorKey: 'alpha', kind: 'alpha-cm', route: 'direct', settings: { zeta: 2, sparsePoints: 4 } }, (_f, i) => feats[i]);
+  kernelModel = await trainWithFeaturiser(frames, { tensorKey: 'alpha', kind: 'alpha-cm', route: 'direct', settings: { kernelExponent: 2, anchorEnvironments: 4 } }, (_f, i) => feats[i]);
   dir = mkdtempSync(join(tmpdir(), 'pw-model-'));
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
@@ -48,13 +48,15 @@ describe('model file', () => {
     }
   });
 
-  it('is self-describing JSON of our own format, version 1, with a sha256 checksum', () => {
+  it('is self-describing JSON of our own format, version 2, with a sha256 checksum', () => {
     const doc = JSON.parse(serialiseModel(model));
     expect(doc.format).toBe(MODEL_FORMAT);
-    expect(doc.version).toBe(1);
+    expect(doc.version).toBe(2);
     expect(doc.checksum.algorithm).toBe('sha256');
     expect(doc.description).toMatch(/alpha.*cm/);
-    expect(doc.payload.settings.cutoff).toBe(4.5);
+    expect(doc.payload.settings.cutoffRadius).toBe(4.5);
+    expect(doc.payload.settings.radialFunctions).toBe(6);
+    expect(Object.keys(doc.payload.settings).sort()).toEqual(Object.keys(DEFAULT_SETTINGS).sort());
     expect(doc.payload.training.frames).toBe(10);
     expect(doc.payload.parts[0].weights.f64).toMatch(/^[A-Za-z0-9+/]+=*$/);
   });
@@ -66,9 +68,13 @@ describe('model file', () => {
     const doc = JSON.parse(text);
     doc.payload.baseline[0] += 1e-9;
     expect(() => parseModel(JSON.stringify(doc), 'edited.json')).toThrow(/checksum mismatch/);
-    const v2 = JSON.parse(text);
-    v2.version = 2;
-    expect(() => parseModel(JSON.stringify(v2), 'new.json')).toThrow(/version 2 is not supported.*update/);
+    const v3 = JSON.parse(text);
+    v3.version = 3;
+    expect(() => parseModel(JSON.stringify(v3), 'new.json')).toThrow(/version 3 is not supported.*update/);
+    // A version-2 payload labelled version 1 lacks the old keys: refused, never read with defaults.
+    const mislabelled = JSON.parse(text);
+    mislabelled.version = 1;
+    expect(() => parseModel(JSON.stringify(mislabelled), 'old.json')).toThrow(/old\.json: corrupt model file \(settings\.cutoff of version 1\)/);
     const other = JSON.parse(text);
     other.format = 'something-else';
     expect(() => parseModel(JSON.stringify(other), 'o.json')).toThrow(/not a Polarweave model file/);
@@ -78,7 +84,7 @@ describe('model file', () => {
   it('refuses a correctly signed payload with a broken structure', () => {
     const doc = JSON.parse(serialiseModel(model));
     doc.payload.parts[1].weights = { f64: Buffer.from(new Float64Array(3).buffer).toString('base64') };
-    expect(() => parseModel(resign(doc), 'bad.json')).toThrow(/corrupt model file \(weights of λ=2\)/);
+    expect(() => parseModel(resign(doc), 'bad.json')).toThrow(/corrupt model file \(part λ=2 weights\)/);
     const doc2 = JSON.parse(serialiseModel(model));
     doc2.payload.parts[0].weights = { f64: 'not base64!' };
     expect(() => parseModel(resign(doc2), 'bad.json')).toThrow(/not base64/);
@@ -97,6 +103,6 @@ describe('model file', () => {
     expect(readdirSync(dir)).toEqual(['model.json']);
     const back = await loadModel(path);
     expect(serialiseModel(back)).toBe(serialiseModel(model));
-    await expect(loadModel(join(dir, 'nope.json'))).rejects.toThrow(/cannot read the model file \(ENOENT\)/);
+    await expect(loadModel(join(dir, 'nope.json'))).rejects.toThrow(/nope\.json: cannot read the model file \(file not found\)/);
   });
 });

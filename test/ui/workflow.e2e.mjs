@@ -44,9 +44,9 @@ export const tests = [
       const ds = page.locator('[data-field=dataset]');
       await ds.selectOption(await optionValue(ds, /^liquid/));
       await page.click('[data-preset=quick]');
-      await page.fill('[data-setting=nmax]', '3');
-      await page.fill('[data-setting=lmax]', '2');
-      await page.fill('[data-setting=sparsePoints]', '0');
+      await page.fill('[data-setting=radialFunctions]', '3');
+      await page.fill('[data-setting=angularOrder]', '2');
+      await page.fill('[data-setting=anchorEnvironments]', '0');
       await page.fill('[data-field=folds]', '3');
       await page.selectOption('[data-field=holdout]', '0');
       await page.fill('[data-field=max-frames]', '18');

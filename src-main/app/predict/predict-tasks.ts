@@ -2,12 +2,11 @@
 // predict each with the model (loaded once per worker, its file checksum checked), and return the formatted
 // output text of the batch in frame order, with the applicability figures the caller summarises.
 import { createHash } from 'node:crypto';
-import { readFile } from 'node:fs/promises';
 import { CancelledError, InputError, ModelError } from '../../core/errors.ts';
 import type { Frame } from '../../core/geometry/frame.ts';
 import { modelPredictor, type Model, type Predictor } from '../../core/learning/model.ts';
 import { frameFromBytes } from '../../io/extxyz.ts';
-import { parseModel } from '../../io/model-file.ts';
+import { parseModel, readModelBytes } from '../../io/model-file.ts';
 import type { FrameStamp, TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import { predictFrameText, type PredictFormat } from './predict-frame.ts';
 import type { TaskContext, TaskRegistry } from '../../jobs/task.ts';
@@ -47,9 +46,7 @@ let cached: { path: string; sha: string; model: Model; predict: Predictor } | nu
 
 async function modelFor(path: string, sha: string): Promise<NonNullable<typeof cached>> {
   if (cached && cached.path === path && cached.sha === sha) return cached;
-  const bytes = await readFile(path).catch((e: NodeJS.ErrnoException) => {
-    throw new ModelError(`${path}: cannot read the model file (${e.code ?? e.message})`);
-  });
+  const bytes = await readModelBytes(path);
   const actual = sha256Hex(bytes);
   if (actual !== sha) throw new ModelError(`${path}: the model file changed while predicting (sha256 ${actual}, expected ${sha}); start again with --restart`);
   const model = parseModel(bytes.toString('utf8'), path);

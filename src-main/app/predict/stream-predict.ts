@@ -16,8 +16,9 @@ import { availableParallelism } from 'node:os';
 import { basename, dirname, resolve } from 'node:path';
 import { CancelledError, InputError, ModelError } from '../../core/errors.ts';
 import { indexExtxyz, type FrameRange } from '../../io/extxyz.ts';
-import { syncFolder, writeFileAtomic } from '../../io/atomic.ts';
-import { parseModel } from '../../io/model-file.ts';
+import { syncFolder, writeError, writeFileAtomic } from '../../io/atomic.ts';
+import { parseModel, readModelBytes } from '../../io/model-file.ts';
+import { readError } from '../../io/whole-file.ts';
 import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import type { PredictFormat } from './predict-frame.ts';
@@ -187,9 +188,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   const { partial, checkpoint: ckPath } = checkpointPaths(opts.output);
 
   // model: checksum of its bytes identifies it in the checkpoint, the CSV header and every worker
-  const modelBytes = await fsp.readFile(opts.modelPath).catch((e: NodeJS.ErrnoException) => {
-    throw new ModelError(`${opts.modelPath}: cannot read the model file (${e.code ?? e.message})`);
-  });
+  const modelBytes = await readModelBytes(opts.modelPath);
   const modelSha256 = sha256Hex(modelBytes);
   const model = parseModel(modelBytes.toString('utf8'), opts.modelPath);
   if (format === 'extxyz' && model.target.shape !== 'tensor') throw new InputError('extended XYZ output is for tensor models', { file: opts.output }, 'write .csv');
@@ -198,8 +197,9 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   let stat;
   try {
     stat = await fsp.stat(opts.input);
-  } catch {
-    throw new InputError('file not found', { file: opts.input }, 'check the path');
+    if (stat.isDirectory()) throw Object.assign(new Error('folder'), { code: 'EISDIR' });
+  } catch (e) {
+    throw readError(opts.input, e);
   }
   const range = opts.range ?? {};
   const step = range.step ?? 1;
@@ -254,7 +254,9 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   let partialBytes = ck?.partialBytes ?? 0;
   if (ck) from = ck.next;
 
-  const fh = await fsp.open(partial, ck ? 'r+' : 'w');
+  const fh = await fsp.open(partial, ck ? 'r+' : 'w').catch((e: unknown) => {
+    throw writeError(opts.output, e);
+  });
   let runner: JobRunner | null = null;
   const inFlight = new Map<number, { promise: Promise<PredictChunkOutput>; next: SlicePosition; frames: number }>();
   try {
@@ -372,12 +374,11 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     runner?.cancelAll();
     await Promise.allSettled([...inFlight.values()].map((x) => x.promise));
     await fh.close().catch(() => undefined);
-    if (signal?.aborted && !(e instanceof InputError)) {
-      // stopped before anything worth keeping: leave nothing behind
-      if (framesDone === 0 && !ck) await Promise.all([fsp.rm(partial, { force: true }), fsp.rm(ckPath, { force: true })]);
-      throw new CancelledError();
-    }
-    throw e;
+    // stopped or refused before anything worth keeping: leave nothing behind
+    if (framesDone === 0 && !ck) await Promise.all([fsp.rm(partial, { force: true }), fsp.rm(ckPath, { force: true })]);
+    if (signal?.aborted && !(e instanceof InputError)) throw new CancelledError();
+    // a full disk, a folder removed meanwhile…: a plain message naming the output (the checkpoint allows resuming)
+    throw typeof (e as NodeJS.ErrnoException)?.code === 'string' && !(e instanceof InputError) ? writeError(opts.output, e) : e;
   } finally {
     // idle workers are unref'd and would not hold the process, but they hold memory (the model): free them now
     await runner?.close();

@@ -5,6 +5,7 @@ import { trainModel, type Model } from '../../core/learning/model.ts';
 import { saveModel } from '../../io/model-file.ts';
 import { checkTargetOptions, parseRequest, parseRoute, parseTune, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf, tuneOptions } from '../learn-options.ts';
 import { CancelledError } from '../../core/errors.ts';
+import { describeSettings } from '../../core/settings-table.ts';
 
 const options = [
   ...targetOptions,
@@ -20,7 +21,7 @@ export function describeModel(model: Model): string {
   lines.push(`model of "${t.key}"${t.kind ? ` (${t.kind})` : ''}: learns ${t.learnt}${t.shape === 'tensor' ? ` through route ${t.route}` : ''}, units ${t.units}`);
   lines.push(`trained on ${model.training.frames} frames, ${model.training.atoms} atoms (${Object.entries(model.training.atomsPerSpecies).map(([s, n]) => `${s} ${n}`).join(', ')})`);
   const s = model.settings;
-  lines.push(`settings: cutoff ${s.cutoff} Å, sigma ${s.sigma} Å, nmax ${s.nmax}, lmax ${s.lmax}, ζ ${s.zeta}${s.zeta !== 1 ? `, ${s.sparsePoints ? `sparse ${s.sparsePoints} per species` : 'exact'}` : ''}${s.maxFeatures ? `, at most ${s.maxFeatures} features per order` : ''}`);
+  lines.push(`settings: ${describeSettings(s)}`);
   for (const p of model.parts) {
     const r = p.regularisation;
     const cv = r.cvError > 0 ? `, cross-validated RMSE per component ${Math.sqrt(r.cvError).toPrecision(3)} ${t.units}` : '';

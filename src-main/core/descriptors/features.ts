@@ -15,7 +15,9 @@
 //   swapping the two factors, so again the stored dot product equals that of all ordered pairs.
 // - Every environment's block has unit norm (λ = 0: its row; λ > 0: its (2λ+1)×nλ block); a block whose norm is
 //   zero (e.g. λ = 2 of an atom with no neighbours) stays zero.
-import { InputError } from '../errors.ts';
+import { InputError, type Where } from '../errors.ts';
+import { MIN_ATOM_DISTANCE_A } from '../limits.ts';
+import { DEFAULT_SETTINGS, settingsProblems } from '../settings-table.ts';
 import type { Frame } from '../geometry/frame.ts';
 import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
 import { realClebschGordanSparse, type SparseCoupling } from './clebsch-gordan.ts';
@@ -37,11 +39,9 @@ export function checkFeatureSettings(s: FeatureSettings): void {
   const bad = (problem: string, hint: string): never => {
     throw new InputError(`feature settings: ${problem}`, {}, hint);
   };
-  if (!(s.cutoff > 0) || !Number.isFinite(s.cutoff)) bad(`cutoff ${s.cutoff} Å is not a positive length`, 'use e.g. 4.5 Å');
-  if (!(s.cutoffWidth > 0) || !(s.cutoffWidth <= s.cutoff)) bad(`cutoff width ${s.cutoffWidth} Å must lie in (0, cutoff]`, 'use e.g. 0.5 Å');
-  if (!(s.sigma > 0) || !(s.sigma < s.cutoff)) bad(`Gaussian width σ = ${s.sigma} Å must lie in (0, cutoff)`, 'use e.g. 0.4 Å');
-  if (!Number.isInteger(s.nmax) || s.nmax < 1 || s.nmax > 20) bad(`nmax = ${s.nmax} must be an integer in 1…20`, 'use e.g. 8');
-  if (!Number.isInteger(s.lmax) || s.lmax < 0 || s.lmax > 12) bad(`lmax = ${s.lmax} must be an integer in 0…12`, 'use e.g. 6');
+  // The user-facing limits and the rules between them are the settings table's (one definition).
+  const problems = settingsProblems({ ...DEFAULT_SETTINGS, cutoffRadius: s.cutoff, switchWidth: s.cutoffWidth, densityWidth: s.sigma, radialFunctions: s.nmax, angularOrder: s.lmax });
+  if (problems.length) bad(problems[0], 'see `polarweave train --help` for the limits of every setting');
   const t = tensorLimits(s);
   if (!Number.isInteger(t.nmax) || t.nmax < 1 || t.nmax > s.nmax) bad(`nmaxTensor = ${t.nmax} must be an integer in 1…nmax`, 'omit it to use nmax');
   if (!Number.isInteger(t.lmax) || t.lmax < 0 || t.lmax > s.lmax) bad(`lmaxTensor = ${t.lmax} must be an integer in 0…lmax`, 'omit it to use the default');
@@ -478,7 +478,24 @@ export function prepare(frame: Frame, settings: FeatureSettings, lambdas: Lambda
     throw new RangeError(`computeFeatures: neighbour list has ${pairs.start.length - 1} centres, the frame ${N} atoms`);
   }
   if (timings) timings.neighbours += performance.now() - t0;
+  checkSeparation(pairs, where);
   return { P, channelOf, centres: Int32Array.from(centres), centreSpecies: Int32Array.from(centreSpecies), pairs, where };
+}
+
+/** Refuse a structure with two atoms closer than MIN_ATOM_DISTANCE_A: features of it would be a confident number from junk. */
+function checkSeparation(pairs: NeighbourPairs, where: Where): void {
+  const d = pairs.distances;
+  for (let p = 0; p < d.length; p++) {
+    if (d[p] < MIN_ATOM_DISTANCE_A) {
+      let i = 0;
+      while (pairs.start[i + 1] <= p) i++;
+      throw new InputError(
+        `atoms ${i + 1} and ${pairs.neighbour[p] + 1} are ${d[p].toPrecision(3)} Å apart, closer than any two atoms can be (${MIN_ATOM_DISTANCE_A} Å)`,
+        where,
+        'the structure is damaged (overlapping atoms, wrong units or a wrong cell); fix or remove this frame',
+      );
+    }
+  }
 }
 
 /**

@@ -3,6 +3,7 @@
 // a position r has fractional coordinates s with r = s·H (row vector times matrix).
 import { InputError, type Where } from '../errors.ts';
 import type { AtomArray, Frame, InfoValue, Mat3 } from './frame.ts';
+import { MAX_CELL_VOLUME_A3, MIN_CELL_VOLUME_A3 } from '../limits.ts';
 
 /** Lattice lengths (Å) and angles (degrees): α = ∠(b, c), β = ∠(a, c), γ = ∠(a, b). */
 export interface CellParameters {
@@ -44,12 +45,32 @@ export function checkCell(cell: ArrayLike<number> | null | undefined, where: Whe
   const la = Math.hypot(h[0], h[1], h[2]);
   const lb = Math.hypot(h[3], h[4], h[5]);
   const lc = Math.hypot(h[6], h[7], h[8]);
+  if (!Number.isFinite(det) || !Number.isFinite(la * lb * lc)) {
+    throw new InputError(`the cell's volume overflows (|a| = ${la}, |b| = ${lb}, |c| = ${lc} Å)`, where,
+      'lattice vectors are lengths in Å; check the units and the numbers of the cell');
+  }
   if (!(Math.abs(det) > 1e-10 * la * lb * lc) || la === 0 || lb === 0 || lc === 0) {
     throw new InputError(
       `the cell has zero volume (det = ${det}; |a| = ${la}, |b| = ${lb}, |c| = ${lc} Å)`,
       where,
       'the three lattice vectors must not lie in one plane; for a slab or a wire, give a non-zero vector along ' +
         'each non-periodic axis (e.g. the vacuum thickness) and mark that axis non-periodic',
+    );
+  }
+}
+
+/**
+ * checkCell, and a volume within the range believed for a structure (core/limits.ts): what every reader
+ * applies to a cell from a file, so an overflowing or mistyped cell is refused where it is read.
+ */
+export function checkBelievableCell(cell: ArrayLike<number> | null | undefined, where: Where = {}): asserts cell is Mat3 {
+  checkCell(cell, where);
+  const v = Math.abs(cellDeterminant(cell));
+  if (v < MIN_CELL_VOLUME_A3 || v > MAX_CELL_VOLUME_A3) {
+    throw new InputError(
+      `the cell volume ${v.toPrecision(4)} Å³ is outside the range believed for a structure (${MIN_CELL_VOLUME_A3} to ${MAX_CELL_VOLUME_A3.toExponential(0)} Å³)`,
+      where,
+      'lattice vectors are in Å: check the units (bohr? nm?) and the numbers of the cell',
     );
   }
 }

@@ -184,11 +184,17 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   // Each slice is at least binLen thick (perpendicular to its faces); the total is capped near 2N bins.
   const nb = [1, 1, 1], f = [1, 1, 1], origin = [0, 0, 0];
   const extent = [0, 1, 2].map((k) => (pbc[k] ? width[k] : n > 0 ? (hi[k] - lo[k]) * width[k] : 0));
+  if (!extent.every(Number.isFinite) || !width.every(Number.isFinite)) {
+    throw new InputError(`the cell or the positions span a non-finite extent (${extent.map((e) => e.toPrecision(3)).join(', ')} Å)`, where,
+      'check the cell and the positions: lattice vectors and coordinates are finite lengths in Å');
+  }
   let binLen = cutoff * binFraction;
   const maxBins = Math.max(27, 2 * n);
-  for (;;) {
+  // finite extents: each pass grows binLen by 1.25, so a few hundred passes bring every axis to one bin
+  for (let pass = 0; ; pass++) {
     for (let k = 0; k < 3; k++) nb[k] = Math.max(1, Math.floor(extent[k] / (binLen * (1 + 1e-9))));
     if (nb[0] * nb[1] * nb[2] <= maxBins) break;
+    if (pass > 10_000) throw new Error('neighbourList: bin sizing did not converge');
     binLen *= 1.25;
   }
   for (let k = 0; k < 3; k++) {

@@ -9,30 +9,9 @@ export type TensorKind = 'eps' | 'alpha-c' | 'alpha-cm';
 /** cm: learn α_CM (after the inverse Clausius–Mossotti relation) and convert back; direct: learn ε itself. */
 export type Route = 'cm' | 'direct';
 
-export interface ModelSettings {
-  /** Neighbour cutoff r_c (Å). */
-  cutoff: number;
-  /** Width of the smooth switch below the cutoff (Å). */
-  cutoffWidth: number;
-  /** Gaussian width of the neighbour density (Å). */
-  sigma: number;
-  /** Radial basis size. */
-  nmax: number;
-  /** Angular limit of the expansion. */
-  lmax: number;
-  /** Kernel exponent ζ (1 = linear fast path). */
-  zeta: number;
-  /** Ridge regulariser (relative to the kernel's scale); null = choose by cross-validation. */
-  regularisation: number | null;
-  /** Number of representative environments per species for the sparse form; 0 = exact kernel ridge. */
-  sparsePoints: number;
-  /** Species that carry local contributions (centres); empty = every species in the training data. */
-  centres: string[];
-  /** Cap on the feature count (data-driven selection); 0 = keep all. */
-  maxFeatures: number;
-  /** Random seed for every random choice in training. */
-  seed: number;
-}
+/** The model settings: defined, with their names, limits and defaults, in the one settings table. */
+export type { ModelSettings } from '../settings-table.ts';
+import type { ModelSettings, TunableSetting } from '../settings-table.ts';
 
 export interface TrainRequest {
   /** Key of the reference tensor in each frame's properties. */
@@ -46,11 +25,7 @@ export interface TrainRequest {
 }
 
 /** Settings to choose by cross-validation (on request: each combination costs one training). */
-export interface TuneGrid {
-  cutoff?: number[];
-  sigma?: number[];
-  zeta?: number[];
-}
+export type TuneGrid = { [K in TunableSetting]?: number[] };
 
 export interface Progress {
   stage: string;

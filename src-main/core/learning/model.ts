@@ -2,7 +2,7 @@
 // per-atom contributions. A symmetric tensor target is split into λ=0 and λ=2 parts learnt as separate
 // models; a vector target is λ=1; a scalar λ=0. Each part is either linear in the features (ζ = 1: one weight
 // vector per centre species, solved in primal or dual form) or a kernel expansion over representative
-// environments (ζ ≠ 1: sparse projected-process form, or exact kernel ridge when sparsePoints = 0).
+// environments (ζ ≠ 1: sparse projected-process form, or exact kernel ridge when anchorEnvironments = 0).
 // A per-species baseline (λ=0) is fitted by least squares first and stored with the model.
 // See docs/learning-engine.md for the choices and their reasons.
 import { CancelledError, InputError, ModelError } from '../errors.ts';
@@ -56,20 +56,8 @@ import { fromIrreducible, tensorFromValues, toIrreducible } from '../dielectric/
 import { computeReadout, makeWeightMatrices, weightMatricesLength, type TensorReadout } from './tensor-readout.ts';
 import { cellVolume } from '../geometry/cell.ts';
 
-/** Defaults chosen so that `train` works untuned on 100–400-atom cells (reasons in docs/learning-engine.md). */
-export const DEFAULT_SETTINGS: ModelSettings = {
-  cutoff: 4.5,
-  cutoffWidth: 0.5,
-  sigma: 0.4,
-  nmax: 6,
-  lmax: 4,
-  zeta: 1,
-  regularisation: null,
-  sparsePoints: 500,
-  centres: [],
-  maxFeatures: 0,
-  seed: 1,
-};
+import { DEFAULT_SETTINGS, settingSpec, settingsProblems, type NumericSettingKey } from '../settings-table.ts';
+export { DEFAULT_SETTINGS };
 
 /** Environments kept per centre species for sampling representatives (linear / kernel models). */
 const POOL_LINEAR = 6000;
@@ -163,21 +151,12 @@ export interface TargetPrediction {
 
 export type Featuriser = (frame: Frame, index: number) => EnvironmentFeatures;
 
+/** The complete settings: the defaults where `partial` leaves a setting out; an InputError when any is not allowed. */
 export function resolveSettings(partial?: Partial<ModelSettings>): ModelSettings {
-  const s: ModelSettings = { ...DEFAULT_SETTINGS, ...(partial ?? {}) };
-  for (const [k, v] of Object.entries(partial ?? {})) if (v === undefined) (s as unknown as Record<string, unknown>)[k] = (DEFAULT_SETTINGS as unknown as Record<string, unknown>)[k];
-  const bad = (what: string, hint: string) => {
-    throw new InputError(`setting ${what}`, {}, hint);
-  };
-  if (!(s.cutoff > 0)) bad(`cutoff = ${s.cutoff} Å`, 'the cutoff must be positive (typical 3.5–6 Å)');
-  if (!(s.cutoffWidth > 0 && s.cutoffWidth < s.cutoff)) bad(`cutoffWidth = ${s.cutoffWidth} Å`, 'the smooth switch width must lie in (0, cutoff): a hard cutoff makes features jump when an atom crosses it');
-  if (!(s.sigma > 0)) bad(`sigma = ${s.sigma} Å`, 'the Gaussian width must be positive (typical 0.3–0.5 Å)');
-  if (!Number.isInteger(s.nmax) || s.nmax < 1 || s.nmax > 16) bad(`nmax = ${s.nmax}`, 'nmax must be a whole number 1–16');
-  if (!Number.isInteger(s.lmax) || s.lmax < 0 || s.lmax > 10) bad(`lmax = ${s.lmax}`, 'lmax must be a whole number 0–10');
-  if (!(s.zeta >= 1) || !Number.isInteger(s.zeta)) bad(`zeta = ${s.zeta}`, 'ζ must be a whole number ≥ 1 (1 = linear)');
-  if (s.regularisation !== null && !(s.regularisation > 0)) bad(`regularisation = ${s.regularisation}`, 'give a positive number or leave it unset to cross-validate');
-  if (!Number.isInteger(s.sparsePoints) || s.sparsePoints < 0) bad(`sparsePoints = ${s.sparsePoints}`, 'a whole number ≥ 0 (0 = exact kernel ridge)');
-  if (!Number.isInteger(s.maxFeatures) || s.maxFeatures < 0) bad(`maxFeatures = ${s.maxFeatures}`, 'a whole number ≥ 0');
+  const s: ModelSettings = { ...DEFAULT_SETTINGS, contributingSpecies: [...DEFAULT_SETTINGS.contributingSpecies] };
+  for (const [k, v] of Object.entries(partial ?? {})) if (v !== undefined) (s as unknown as Record<string, unknown>)[k] = v;
+  const problems = settingsProblems(s);
+  if (problems.length) throw new InputError(`model settings: ${problems[0]}`, {}, problems.length > 1 ? `also: ${problems.slice(1).join('; ')}` : 'see `polarweave train --help` for every setting and its limits');
   return s;
 }
 
@@ -186,7 +165,7 @@ export function resolveSettings(partial?: Partial<ModelSettings>): ModelSettings
  * tensorLimits) and stored, so a saved model keeps computing the same features if that default changes.
  */
 function featureSettingsOf(s: ModelSettings, species: string[], centres: string[], limits?: { nmax: number; lmax: number }): FeatureSettings {
-  const base: FeatureSettings = { cutoff: s.cutoff, cutoffWidth: s.cutoffWidth, sigma: s.sigma, nmax: s.nmax, lmax: s.lmax, species, centres };
+  const base: FeatureSettings = { cutoff: s.cutoffRadius, cutoffWidth: s.switchWidth, sigma: s.densityWidth, nmax: s.radialFunctions, lmax: s.angularOrder, species, centres };
   const t = limits ?? tensorLimits(base);
   return { ...base, nmaxTensor: t.nmax, lmaxTensor: t.lmax };
 }
@@ -248,7 +227,7 @@ export function speciesOf(frames: Frame[], settings: ModelSettings, given?: stri
   const all = new Set<string>(given ?? []);
   for (const f of frames) for (const s of f.species) all.add(s);
   const species = [...all].sort();
-  const centres = settings.centres.length ? [...settings.centres] : species;
+  const centres = settings.contributingSpecies.length ? [...settings.contributingSpecies] : species;
   for (const c of centres) {
     if (!all.has(c)) throw new InputError(`centre species "${c}" does not occur in the training frames`, {}, `species present: ${species.join(', ')}`);
   }
@@ -397,8 +376,8 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     feat = (frame, i) => applyFeatureSelection(baseFeat(frame, i), sel);
     await yieldToLoop();
   }
-  const linear = settings.zeta === 1;
-  const exact = !linear && settings.sparsePoints === 0;
+  const linear = settings.kernelExponent === 1;
+  const exact = !linear && settings.anchorEnvironments === 0;
   const partsSpec: { order: Order; offset: number; width: number }[] = [];
   if (targets.shape === 'tensor') partsSpec.push({ order: 0, offset: 0, width: 1 }, { order: 2, offset: 1, width: 5 });
   else if (targets.shape === 'vector') partsSpec.push({ order: 1, offset: 0, width: 3 });
@@ -424,7 +403,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     }
     totalEnv += fe.count;
     if (exact && totalEnv > EXACT_LIMIT) {
-      throw new InputError(`exact kernel ridge would keep more than ${EXACT_LIMIT} environments`, {}, 'use the sparse form (sparsePoints > 0) or ζ = 1');
+      throw new InputError(`exact kernel ridge would keep more than ${EXACT_LIMIT} environments`, {}, 'give a number of anchor environments above 0, or kernel exponent 1');
     }
     for (let e = 0; e < fe.count; e++) counts[f * nS + fe.centreSpecies[e]]++;
     for (const s of frames[f].species) atomsPerSpecies[s] = (atomsPerSpecies[s] ?? 0) + 1;
@@ -462,7 +441,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   // Representatives (FPS per species) for kernel parts and for applicability.
   const wantApplicability = options.applicability !== false;
   const repsPerSpecies = envPool.perSpecies.map((cand) => {
-    const m = linear ? (wantApplicability ? APPLICABILITY_POINTS : 0) : exact ? cand.length : settings.sparsePoints;
+    const m = linear ? (wantApplicability ? APPLICABILITY_POINTS : 0) : exact ? cand.length : settings.anchorEnvironments;
     return farthestPointSample(envPool.p, n0, cand, m).chosen;
   });
   const repIndex = Int32Array.from(repsPerSpecies.flatMap((r) => [...r]));
@@ -481,7 +460,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
       );
       sparseReps.set(p.order, reps);
       const size = reps.species.length * reps.width;
-      sparseFactor.set(p.order, representativeFactor(representativeKernel(reps, settings.zeta), size));
+      sparseFactor.set(p.order, representativeFactor(representativeKernel(reps, settings.kernelExponent), size));
     }
     for (let f = 0; f < nFrames; f++) {
       checkAbort(hooks);
@@ -489,7 +468,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
       partsSpec.forEach((p, k) => {
         const reps = sparseReps.get(p.order) as Representatives;
         const size = reps.species.length * reps.width;
-        const knm = structureToRepresentatives(fe, reps, settings.zeta);
+        const knm = structureToRepresentatives(fe, reps, settings.kernelExponent);
         sparseRows[k].push(projectRows(knm, p.width, sparseFactor.get(p.order) as Float64Array, size));
       });
       hooks.onProgress?.({ stage: 'kernel', done: f + 1, total: nFrames });
@@ -518,7 +497,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
       const gram = new Float64Array(rows * rows);
       for (let a = 0; a < nFrames; a++) {
         for (let b = 0; b <= a; b++) {
-          const blk = structureKernel(kept[a], kept[b], p.order, settings.zeta);
+          const blk = structureKernel(kept[a], kept[b], p.order, settings.kernelExponent);
           for (let mu = 0; mu < p.width; mu++) {
             for (let nu = 0; nu < p.width; nu++) {
               gram[(a * p.width + mu) * rows + b * p.width + nu] = blk[mu * p.width + nu];
@@ -574,7 +553,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
       allReps.frame.forEach((fr, j) => {
         for (let mu = 0; mu < p.width; mu++) x[j * p.width + mu] = fit.weights[fr * p.width + mu];
       });
-      part.kernel = foldCoefficients(allReps.reps, x, settings.zeta);
+      part.kernel = foldCoefficients(allReps.reps, x, settings.kernelExponent);
       if (p.order === 0) {
         const delta = new Float64Array(nS);
         for (let f = 0; f < nFrames; f++) for (let s = 0; s < nS; s++) delta[s] += fit.weights[f] * counts[f * nS + s];
@@ -591,7 +570,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
       } else {
         const reps = sparseReps.get(p.order) as Representatives;
         const l = sparseFactor.get(p.order) as Float64Array;
-        part.kernel = foldSparseWeights(reps, l, w.subarray(0, base), settings.zeta);
+        part.kernel = foldSparseWeights(reps, l, w.subarray(0, base), settings.kernelExponent);
         if (fit.posterior) part.posterior = { ...fit.posterior, nystrom: l };
       }
     }
@@ -695,7 +674,7 @@ export async function trainModel(frames: Frame[], request: TrainRequest, hooks: 
   if (!request.tune || tuneCombinations(request.tune).length <= 1) return trainWithFeaturiser(frames, request, null, hooks);
   const tuned = await tuneSettings(frames, request, request.tune, hooks);
   const model = await trainWithFeaturiser(frames, { ...request, tune: undefined, settings: { ...(request.settings ?? {}), ...tuned.best } }, null, hooks);
-  const fmt = (s: Partial<ModelSettings>) => Object.entries(s).map(([k, v]) => `${k} ${v}`).join(', ');
+  const fmt = (s: Partial<ModelSettings>) => Object.entries(s).map(([k, v]) => `${settingSpec(k as NumericSettingKey).label.toLowerCase()} ${v}`).join(', ');
   model.notes.push(`tuned by cross-validation: ${fmt(tuned.best)} (scores: ${tuned.table.map((r) => `${fmt(r.settings)} → ${r.score.toPrecision(3)}`).join('; ')})`);
   return model;
 }

@@ -1,4 +1,4 @@
-// Choice of the cutoff, the Gaussian width and the kernel exponent by cross-validation on the training frames
+// Choice of the cutoff radius, the density width and the kernel exponent by cross-validation on the training frames
 // (on request; the regulariser is always cross-validated inside each training). Every combination of the
 // candidate values is trained once; its score is the cross-validated squared error of the learnt target summed
 // over its irreducible components (λ=0 and the 2λ+1 components of λ>0), as reported by the regulariser's CV.
@@ -7,6 +7,7 @@ import { InputError } from '../errors.ts';
 import type { Frame } from '../geometry/frame.ts';
 import type { ModelSettings, TrainRequest, TuneGrid, WorkHooks } from './model-types.ts';
 import { trainWithFeaturiser, type Model } from './model.ts';
+import { TUNABLE_SETTINGS } from '../settings-table.ts';
 
 export interface TuneResult {
   best: Partial<ModelSettings>;
@@ -15,7 +16,7 @@ export interface TuneResult {
 
 export function tuneCombinations(grid: TuneGrid): Partial<ModelSettings>[] {
   let combos: Partial<ModelSettings>[] = [{}];
-  for (const key of ['cutoff', 'sigma', 'zeta'] as const) {
+  for (const key of TUNABLE_SETTINGS) {
     const values = grid[key];
     if (!values || values.length === 0) continue;
     combos = combos.flatMap((c) => values.map((v) => ({ ...c, [key]: v })));

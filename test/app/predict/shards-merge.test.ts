@@ -14,7 +14,7 @@ beforeAll(async () => {
   dir = mkdtempSync(join(tmpdir(), 'pw-shards-'));
   await saveModel(p('m.json'), await smallModel());
   // a second, different model (other angular limit) for the mixed-model check
-  await saveModel(p('m2.json'), await trainModel(waterFrames(), { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'cm', settings: { nmax: 3, lmax: 2 } }));
+  await saveModel(p('m2.json'), await trainModel(waterFrames(), { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'cm', settings: { radialFunctions: 3, angularOrder: 2 } }));
   writeFileSync(p('t.extxyz'), trajectoryText(jitteredTrajectory(11)));
 }, 60_000);
 afterAll(() => rmSync(dir, { recursive: true, force: true }));

@@ -146,7 +146,7 @@ describe('symmetry and size of a trained model', () => {
 
 describe('feature selection and tuning on the real frames', () => {
   it('a model with at most 40 feature columns per order stays equivariant and close to the reference', async () => {
-    const m = await trainModel(frames.slice(0, 6), { tensorKey: KEY, kind: 'alpha-c', route: 'cm', settings: { maxFeatures: 40, nmax: 4, lmax: 3 } });
+    const m = await trainModel(frames.slice(0, 6), { tensorKey: KEY, kind: 'alpha-c', route: 'cm', settings: { maxFeatures: 40, radialFunctions: 4, angularOrder: 3 } });
     expect(m.featureSelection?.[0]?.length).toBe(40);
     expect(m.featureSelection?.[2]?.length).toBe(40);
     expect(m.parts[1].n).toBe(40);
@@ -162,13 +162,13 @@ describe('feature selection and tuning on the real frames', () => {
   }, 120_000);
 
   it('tuning picks the cutoff with the smaller cross-validated error and records it', async () => {
-    const request = { tensorKey: KEY, kind: 'alpha-c' as const, route: 'cm' as const, settings: { nmax: 4, lmax: 3 } };
-    const tuned = await tuneSettings(frames.slice(0, 6), request, { cutoff: [3.0, 4.5] });
+    const request = { tensorKey: KEY, kind: 'alpha-c' as const, route: 'cm' as const, settings: { radialFunctions: 4, angularOrder: 3 } };
+    const tuned = await tuneSettings(frames.slice(0, 6), request, { cutoffRadius: [3.0, 4.5] });
     expect(tuned.table.length).toBe(2);
     const best = tuned.table.reduce((a, b) => (b.score < a.score ? b : a));
     expect(tuned.best).toEqual(best.settings);
-    const m = await trainModel(frames.slice(0, 6), { ...request, tune: { cutoff: [3.0, 4.5] } });
-    expect(m.settings.cutoff).toBe(best.settings.cutoff);
-    expect(m.notes.join(' ')).toMatch(/tuned by cross-validation: cutoff/);
+    const m = await trainModel(frames.slice(0, 6), { ...request, tune: { cutoffRadius: [3.0, 4.5] } });
+    expect(m.settings.cutoffRadius).toBe(best.settings.cutoffRadius);
+    expect(m.notes.join(' ')).toMatch(/tuned by cross-validation: cutoff radius [0-9.]+/);
   }, 180_000);
 });

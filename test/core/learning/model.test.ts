@@ -102,9 +102,9 @@ describe('model on a known linear target in feature space', () => {
     const set = makeSet('scalar', 30, 77);
     const featurise: Featuriser = (_frame, i) => set.features[i];
     const request = (settings: object) => ({ tensorKey: 'alpha', kind: 'alpha-cm' as const, route: 'cm' as const, settings });
-    const exact = await trainWithFeaturiser(set.frames, request({ zeta: 2, sparsePoints: 0, regularisation: 1e-6 }), featurise);
+    const exact = await trainWithFeaturiser(set.frames, request({ kernelExponent: 2, anchorEnvironments: 0, regularisation: 1e-6 }), featurise);
     // with as many representatives as environments the sparse form equals the exact one
-    const sparse = await trainWithFeaturiser(set.frames, request({ zeta: 2, sparsePoints: 10000, regularisation: 1e-6 }), featurise);
+    const sparse = await trainWithFeaturiser(set.frames, request({ kernelExponent: 2, anchorEnvironments: 5000, regularisation: 1e-6 }), featurise);
     expect(exact.parts[0].method).toBe('exact');
     expect(sparse.parts[0].method).toBe('sparse');
     for (let f = 0; f < 5; f++) {

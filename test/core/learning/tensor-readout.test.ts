@@ -132,9 +132,9 @@ describe('modelPredictor gives the feature route’s predictions', () => {
   const test = frames.slice(5);
   const models: Record<string, Model> = {};
   beforeAll(async () => {
-    const small = { nmax: 4, lmax: 3 };
+    const small = { radialFunctions: 4, angularOrder: 3 };
     models.linear = await trainModel(train, { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'cm', settings: small });
-    models.kernel = await trainModel(train, { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'direct', settings: { ...small, zeta: 2, sparsePoints: 30 } });
+    models.kernel = await trainModel(train, { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'direct', settings: { ...small, kernelExponent: 2, anchorEnvironments: 30 } });
     models.selected = await trainModel(train, { tensorKey: 'alpha_periodic_A3', kind: 'alpha-c', route: 'cm', settings: { ...small, maxFeatures: 40 } });
     // a vector target (λ = 1): an invented per-frame vector, only to have a model of that shape
     const withVector = train.map((f, i) => ({ ...f, info: { ...f.info, mu: [Math.sin(i), Math.cos(i), 0.3 * i] } }));

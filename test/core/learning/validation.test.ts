@@ -69,7 +69,7 @@ describe('error figures of a vector or scalar target', () => {
 describe('validate on the real DFT water frames', () => {
   const frames = parseExtxyz(readFileSync(new URL('../../fixtures/water-dft-sample.extxyz', import.meta.url), 'utf8'), 'water');
   it('cross-validates every frame once, on ε and on α_CM, with a learning curve', async () => {
-    const report = await validate(frames, { tensorKey: 'eps_inf', kind: 'eps', route: 'cm', settings: { nmax: 4, lmax: 3 } }, { folds: 4, learningCurve: [2, 4, 7] });
+    const report = await validate(frames, { tensorKey: 'eps_inf', kind: 'eps', route: 'cm', settings: { radialFunctions: 4, angularOrder: 3 } }, { folds: 4, learningCurve: [2, 4, 7] });
     expect(report.target).toBe('eps');
     expect(report.points.map((p) => p.frame)).toEqual([0, 1, 2, 3, 4, 5, 6, 7]);
     expect(report.points[0].label).toBe('sample-001');
