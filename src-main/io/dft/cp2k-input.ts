@@ -1,11 +1,11 @@
 // The part of a CP2K input file that `collect` needs when the output does not print it: the section tree
 // (&NAME … &END), keywords with their lines, the preprocessor's @SET variables ($X, ${X}) and @INCLUDE files.
-// Bounded: at most MAX_INCLUDE_DEPTH nested includes and MAX_INPUT_BYTES per file.
+// Bounded: at most MAX_INCLUDE_DEPTH nested includes and MAX_WHOLE_FILE_BYTES (core/limits.ts) per file.
 import path from 'node:path';
 import { InputError } from '../../core/errors.ts';
+import { MAX_WHOLE_FILE_BYTES } from '../../core/limits.ts';
 import { diskFiles, type RunFiles } from './dft-run.ts';
 
-const MAX_INPUT_BYTES = 64 << 20;
 const MAX_INCLUDE_DEPTH = 8;
 
 export interface Cp2kKeyword {
@@ -39,7 +39,7 @@ function readText(files: RunFiles, file: string, from: { file?: string; line?: n
       'the output does not print the atom positions at this print level, so its input (and any coordinate file it names) must sit beside the output',
     );
   }
-  if (text.length > MAX_INPUT_BYTES) throw new InputError(`the CP2K input is ${text.length} characters, more than an input file`, { file });
+  if (text.length > MAX_WHOLE_FILE_BYTES) throw new InputError(`the CP2K input is ${text.length} characters, more than an input file`, { file });
   return text;
 }
 

@@ -6,11 +6,12 @@ import { readFileSync, statSync } from 'node:fs';
 import { basename } from 'node:path';
 import { open, readFile, stat } from 'node:fs/promises';
 import { InputError, type Where } from '../../core/errors.ts';
+import { MAX_WHOLE_FILE_BYTES } from '../../core/limits.ts';
 import type { Frame, Mat3 } from '../../core/geometry/frame.ts';
 import type { TensorKind } from '../../core/learning/model-types.ts';
 
 /** Output files larger than this are refused (a linear-response single point prints well under 10 MB). */
-export const MAX_OUTPUT_BYTES = 256 << 20;
+const MAX_OUTPUT_BYTES = MAX_WHOLE_FILE_BYTES;
 
 /** One setting that must agree between the runs collected together, e.g. the cutoff. */
 export interface RunSetting {
