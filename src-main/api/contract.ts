@@ -251,6 +251,25 @@ export interface AppState {
   jobs: { id: string; kind: JobKind; state: JobStateJ }[];
 }
 
+/** What `collectReferences` found: the kept runs as a new dataset, the file to save, and the runs left out. */
+export interface CollectReport {
+  /** The collected frames, opened as a dataset; null when no run could be used. */
+  dataset: DatasetSummary | null;
+  /** The same extended XYZ text `polarweave collect` writes; null when no run could be used. */
+  file: FileOut | null;
+  kept: string[];
+  left: { file: string; status: 'unfinished' | 'unconverged' | 'unsuitable' | 'settings' | 'error'; reason: string }[];
+  /** The settings every kept run shares. */
+  settings: { name: string; value: string }[];
+  notCompared: string[];
+  /** Property holding the tensor (alpha_c_A3 or eps_inf), its kind, and the program, when a run was kept. */
+  tensorKey: string | null;
+  tensorKind: TensorKindJ | null;
+  program: string | null;
+  /** Files passed over (inputs and coordinate files of the runs). */
+  skipped: number;
+}
+
 /** A file to hand to the browser (download) or to a save dialog. */
 export interface FileOut {
   fileName: string;
@@ -335,10 +354,16 @@ export const openStructuresSchema = z.union([
 /** The CSV holds ε, α_CM and α_c of every predicted frame (the same columns as `polarweave predict`). */
 export const exportCsvSchema = z.object({ predictionId: id }).strict();
 
+/** Outputs of DFT runs with their inputs and coordinate files, as texts; companions are found by file name. */
+export const collectReferencesSchema = z
+  .object({ files: z.array(z.object({ name: z.string().min(1).max(500), text: z.string().max(MAX_TEXT) }).strict()).min(1).max(2000) })
+  .strict();
+
 export const apiSchemas = {
   loadDemo: z.object({}).strict(),
   getState: z.object({}).strict(),
   openStructures: openStructuresSchema,
+  collectReferences: collectReferencesSchema,
   closeDataset: z.object({ datasetId: id }).strict(),
   getFrame: z.object({ datasetId: id, index: z.number().int().min(0) }).strict(),
   startJob: startJobSchema,
@@ -365,6 +390,7 @@ export interface ApiOutputs {
   loadDemo: AppState;
   getState: AppState;
   openStructures: DatasetSummary;
+  collectReferences: CollectReport;
   closeDataset: AppState;
   getFrame: FrameView;
   startJob: { jobId: string };

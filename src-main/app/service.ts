@@ -9,6 +9,7 @@ import type {
   ApiParams,
   ApiService,
   AppState,
+  CollectReport,
   DatasetSummary,
   FileOut,
   FramePredictionJ,
@@ -35,6 +36,9 @@ import { frameView, predictionFromJ, predictionJ, trajectoryStatsJ } from './fra
 import type { FramePrediction } from '../core/learning/model-types.ts';
 import { predictionsCsv } from './export-csv.ts';
 import { PROJECT_FORMAT, PROJECT_VERSION, parseProject, type ProjectFile, type ProjectDataset } from './project-file.ts';
+import { collectedFrames, collectTexts } from './collect-references.ts';
+import { formatExtxyzFrame } from '../io/extxyz.ts';
+import { tensorKey } from '../io/tensor-keys.ts';
 
 /** How a model file is written and read (io/model-file.ts), injected so the service stays testable. */
 export interface ModelCodec {
@@ -157,6 +161,31 @@ export class AppService implements ApiService {
     }
     const { name, text, frames } = this.options.readers.upload(params.name, params);
     return this.addDataset(params.name, frames, { kind: 'embedded', name, text }, 'upload');
+  }
+
+  /** The window's "collect DFT runs": the same use case as `polarweave collect`, on files handed over as texts. */
+  async collectReferences(params: ApiParams<'collectReferences'>): Promise<CollectReport> {
+    const result = collectTexts(params.files);
+    const first = result.runs[0];
+    const report: CollectReport = {
+      dataset: null,
+      file: null,
+      kept: result.runs.map((r) => r.file),
+      left: result.left,
+      settings: result.settings,
+      notCompared: result.notCompared,
+      tensorKey: first ? tensorKey(first.kind) : null,
+      tensorKind: first ? first.kind : null,
+      program: first ? first.program : null,
+      skipped: result.skipped,
+    };
+    if (!first) return report;
+    const frames = collectedFrames(result);
+    const text = frames.map((f) => formatExtxyzFrame(f)).join('');
+    const name = 'dft-references.extxyz';
+    report.dataset = this.addDataset(name, frames, { kind: 'embedded', name, text }, 'upload');
+    report.file = { fileName: name, mime: 'chemical/x-extxyz', text };
+    return report;
   }
 
   async loadDemo(): Promise<AppState> {

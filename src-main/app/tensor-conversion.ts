@@ -2,6 +2,7 @@
 // polarisability α_c, or the Clausius–Mossotti polarisability α_CM — with unit conversion, written as extended
 // XYZ (the tensor added as a property) or as the per-frame tensor table (io/prediction/prediction-format.ts,
 // the layout `predict` writes, marked as reference values). Atomic: nothing appears unless every frame converted.
+import { tensorKey } from '../io/tensor-keys.ts';
 import { convertTensor, epsWarnings } from '../core/dielectric/clausius-mossotti.ts';
 import { CancelledError } from '../core/errors.ts';
 import type { Frame, Mat3 } from '../core/geometry/frame.ts';
@@ -30,10 +31,9 @@ export interface ConvertRequest {
   onWarning?: (text: string) => void;
 }
 
-/** The default property name of a converted tensor. */
+/** The usual name (io/tensor-keys.ts), except that a converted ε is not given the name an input ε∞ has. */
 export function defaultConvertedKey(kind: TensorKind, unit: PolarisabilityUnit): string {
-  if (kind === 'eps') return 'eps_converted';
-  return `${kind === 'alpha-c' ? 'alpha_c' : 'alpha_cm'}_${unit === 'si' ? 'SI' : unit}`;
+  return kind === 'eps' ? 'eps_converted' : tensorKey(kind, unit);
 }
 
 interface Converted {

@@ -1,6 +1,7 @@
 // Every subcommand, in the order `polarweave --help` lists them. Add one line per new command.
 import type { Command } from '../command.ts';
 import { analyseCommand } from './analyse.ts';
+import { collectCommand } from './collect.ts';
 import { convertCommand } from './convert.ts';
 import { demoCommand } from './demo.ts';
 import { inspectCommand } from './inspect.ts';
@@ -19,5 +20,6 @@ export const commands: Command[] = [
   analyseCommand,
   mergeCommand,
   referenceCommand,
+  collectCommand,
   demoCommand,
 ];
