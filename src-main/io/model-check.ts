@@ -142,5 +142,11 @@ function checkTrustContents(m: Model, bad: (what: string) => never): void {
     const S = m.species.length;
     const len = (r: { min: unknown[]; median: unknown[]; max: unknown[] } | undefined, n: number) => !!r && [r.min, r.median, r.max].every((x) => Array.isArray(x) && x.length === n);
     if (!d || !len(d.nearest, S * S) || !len(d.count, S) || !len(d.scale, m.centres.length) || !Array.isArray(d.atomRate) || d.atomRate.length !== S || !(d.density?.tolerance >= 0)) bad('domain ranges');
+    const numOrNull = (x: unknown) => x === null || (typeof x === 'number' && Number.isFinite(x));
+    const values = (r: { min: unknown[]; median: unknown[]; max: unknown[] }) => [r.min, r.median, r.max].every((x) => x.every(numOrNull));
+    if (!Array.isArray(d.species) || d.species.length !== S || d.species.some((x, k) => x !== m.species[k])) bad('domain ranges: species');
+    if (d.cutoffRadius !== m.settings.cutoffRadius) bad('domain ranges: cutoff radius');
+    if (!values(d.nearest) || !values(d.count) || !values(d.scale) || !d.atomRate.every((x) => typeof x === 'number' && x >= 0 && x <= 1)) bad('domain ranges: values');
+    if (!numOrNull(d.density.min) || !numOrNull(d.density.max) || !Number.isFinite(d.density.tolerance)) bad('domain ranges: density');
   }
 }

@@ -20,7 +20,8 @@ import type { DomainReason } from './model-types.ts';
 export interface DomainStats {
   /** Species in model order; pairs are indexed a·S + b. */
   species: string[];
-  cutoff: number;
+  /** The model's cutoff radius (Å). */
+  cutoffRadius: number;
   /** Nearest b-neighbour distance of a atoms (Å), per pair a·S+b; NaN where training never had one within the cutoff. */
   nearest: Range;
   /** Neighbours within the cutoff, per species a. */
@@ -91,7 +92,7 @@ export class DomainStatsBuilder {
     const atomRate = this.atomCounts.map((n) => Math.min(1, (2 * checks) / (n + 1) + 0.001));
     return {
       species: [...this.species],
-      cutoff: this.cutoff,
+      cutoffRadius: this.cutoff,
       nearest: rangeOf(this.nearest),
       count: rangeOf(this.count),
       scale: rangeOf(this.scale),
@@ -179,7 +180,7 @@ export function checkDomain(
 ): DomainResult {
   const S = stats.species.length;
   const N = frame.species.length;
-  const g = atomGeometry(frame, pairs, stats.species, stats.cutoff);
+  const g = atomGeometry(frame, pairs, stats.species, stats.cutoffRadius);
   const u = Float64Array.from(featureScore);
   const worst = new Map<string, DomainReason>();
   const note = (key: string, score: number, atom: number | null, text: () => string) => {
@@ -210,22 +211,22 @@ export function checkDomain(
     const uc = rangeScore(g.count[i], cr.min, cr.median, cr.max);
     if (uc > u[i]) u[i] = uc;
     const more = g.count[i] > cr.median;
-    note(`${A} neighbours ${more ? 'more' : 'fewer'}`, uc, i, () => `${A}: ${g.count[i]} neighbours within ${stats.cutoff} Å, ${more ? 'more' : 'fewer'} than any in training (${more ? cr.max : cr.min})`);
+    note(`${A} neighbours ${more ? 'more' : 'fewer'}`, uc, i, () => `${A}: ${g.count[i]} neighbours within ${stats.cutoffRadius} Å, ${more ? 'more' : 'fewer'} than any in training (${more ? cr.max : cr.min})`);
     for (let b = 0; b < S; b++) {
       const k = a * S + b;
       const r = g.nearest[i * S + b];
       const B = stats.species[b];
       const nr = at(stats.nearest, k);
       if (!Number.isFinite(nr.median)) continue; // no training atom of species A
-      const rr = Math.min(r, stats.cutoff); // none within the cutoff: at least the cutoff, as in training
+      const rr = Math.min(r, stats.cutoffRadius); // none within the cutoff: at least the cutoff, as in training
       const ub = rangeScore(rr, nr.min, nr.median, nr.max);
       if (ub > u[i]) u[i] = ub;
       const shorter = rr < nr.median;
       note(`${A}–${B} ${shorter ? 'shorter' : 'longer'}`, ub, i, () =>
-        nr.min >= stats.cutoff
-          ? `${A}–${B} ${fmt(rr)} Å: training never had ${B} within ${stats.cutoff} Å of ${A}`
-          : rr >= stats.cutoff
-            ? `${A} with no ${B} within ${stats.cutoff} Å (training always had one, farthest ${fmt(nr.max)} Å)`
+        nr.min >= stats.cutoffRadius
+          ? `${A}–${B} ${fmt(rr)} Å: training never had ${B} within ${stats.cutoffRadius} Å of ${A}`
+          : rr >= stats.cutoffRadius
+            ? `${A} with no ${B} within ${stats.cutoffRadius} Å (training always had one, farthest ${fmt(nr.max)} Å)`
             : `${A}–${B} ${fmt(rr)} Å, ${shorter ? 'shorter' : 'longer'} than any in training (${fmt(shorter ? nr.min : nr.max)} Å)`,
       );
     }

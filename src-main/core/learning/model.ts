@@ -952,7 +952,7 @@ function applicabilityOf(model: Model, frame: Frame, fe: EnvironmentFeatures, pa
   }
   const base = { atomDistance, maxDistance, threshold: a.threshold, variance: 0 };
   if (model.domain && m > 0) {
-    const d = checkDomain(model.domain, frame, pairs ?? neighbourList(frame, model.domain.cutoff), featureScore, {
+    const d = checkDomain(model.domain, frame, pairs ?? neighbourList(frame, model.domain.cutoffRadius), featureScore, {
       distance: atomDistance,
       threshold: a.perSpecies,
       centres: model.centres,

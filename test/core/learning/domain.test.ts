@@ -123,7 +123,7 @@ describe('the flag rule on hand-made training ranges', () => {
   }) as unknown as Frame;
   const stats: DomainStats = {
     species: ['X'],
-    cutoff: 3,
+    cutoffRadius: 3,
     nearest: { min: [1.9], median: [2.0], max: [2.1] },
     count: { min: [2], median: [2], max: [2] },
     scale: { min: [], median: [], max: [] },
