@@ -198,15 +198,20 @@ export async function selectFrames(source: FrameSource, req: SelectRequest, hook
   };
   if (req.model) {
     const m = req.model;
-    const numbered = (async function* () {
-      for await (const x of source.frames(stride, signal)) yield Object.assign(x.frame, { source: x.frame.source ?? { file: source.name, index: x.number, line: 0 } }) as Frame;
+    // the source numbers the frames (a file's own frame index, or the position in memory): predict under it
+    let current = 0;
+    const frames = (async function* () {
+      for await (const x of source.frames(stride, signal)) {
+        current = x.number;
+        yield x.frame;
+      }
     })();
     const by2 = by as 'error' | 'domain';
-    await predictFrames(m, numbered, {
+    await predictFrames(m, frames, {
       frame(frame, one) {
         take(frame, one.index, modelScore(m, by2, one, { file: source.name, frame: one.index }));
       },
-    }, { signal });
+    }, { signal, indexOf: () => current });
   } else {
     let k = 0;
     for await (const { frame, number } of source.frames(stride, signal)) {
