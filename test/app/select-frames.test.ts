@@ -186,7 +186,7 @@ describe('the window chooses with the same use case as the CLI', () => {
 
   it('a bad template fails the job with its line named', async () => {
     const ds = await service.openStructures({ name: 'run2.extxyz', text: readFileSync(traj, 'utf8') });
-    const { jobId } = await service.startJob({ kind: 'select', params: { datasetId: ds.id, count: 2, template: { name: 'in.tmpl', text: '{{atoms}}\n{{nope}}\n' } } });
+    const { jobId } = await service.startJob({ kind: 'select', params: { datasetId: ds.id, count: 2, stride: 1, minGapFs: 0, by: 'error', template: { name: 'in.tmpl', text: '{{atoms}}\n{{nope}}\n' } } });
     const s = await service.waitForJob(jobId);
     expect(s.state).toBe('failed');
     expect(s.error?.message).toMatch(/in\.tmpl, line 2: unknown placeholder/);
