@@ -62,7 +62,7 @@ export async function run(): Promise<void> {
       clearInterval(timer);
       peak = Math.max(peak, process.memoryUsage().rss);
       console.log(`  stride ${stride}: chose ${frames.length} of 50 (min gap 100 fs) from ${r.considered} frames read in ${((t1 - t0) / 1000).toFixed(1)} s ` +
-        `(${(r.considered / ((t1 - t0) / 1000)).toFixed(0)} frames/s described), second pass ${((t2 - t1) / 1000).toFixed(1)} s; ` +
+        `(${(r.considered / ((t1 - t0) / 1000)).toFixed(0)} frames/s), second pass ${((t2 - t1) / 1000).toFixed(1)} s; ` +
         `${r.candidates} candidates kept, effective stride ${r.effectiveStride}; RSS ${mib(before)} MiB before, peak ${mib(peak)} MiB`);
     }
   } finally {

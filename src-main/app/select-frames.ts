@@ -267,7 +267,8 @@ export async function chosenFrames(source: FrameSource, result: SelectResult, ho
   const last = Math.max(-1, ...want.keys());
   const out: Frame[] = [];
   if (want.size === 0) return out;
-  for await (const { frame, number } of source.frames(1, hooks.signal)) {
+  // every chosen frame is a multiple of the effective stride: the reader skips the others without parsing them
+  for await (const { frame, number } of source.frames(result.effectiveStride, hooks.signal)) {
     const c = want.get(number);
     if (c) {
       const info = { ...frame.info, source_file: path.basename(source.name), source_frame: c.frame, selection: SELECTION_WORDS[result.by], selection_order: c.order };
