@@ -122,7 +122,7 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
   await predictFrames(loadedModel(model, files.model), crystal, {
     frame(_f, one) {
       ones.push(one);
-      predictions.push(one.tensor as FramePrediction);
+      predictions.push(one.tensor as FramePrediction); // the crystal is periodic
     },
   }, { signal: options.signal });
   const refEps = crystal.map((f, i) => tensorFromValues(f.info.eps_ref as number[], { file: crystalPath, frame: f.source?.index ?? i }));

@@ -4,8 +4,8 @@
 // frame is predicted and laid out the same way whichever front end asked. The layout itself is
 // io/prediction/prediction-format.ts.
 import type { Frame, Mat3 } from '../../core/geometry/frame.ts';
-import { framePredictionFrom, type Model, type Predictor } from '../../core/learning/model.ts';
-import type { FramePrediction } from '../../core/learning/model-types.ts';
+import { tensorPredictionFrom, type Model, type Predictor } from '../../core/learning/model.ts';
+import type { TensorPrediction } from '../../core/learning/model-types.ts';
 import { findMolecules } from '../../core/geometry/molecules.ts';
 import { formatExtxyzFrame } from '../../io/extxyz.ts';
 import {
@@ -26,8 +26,8 @@ export type PredictFormat = 'csv' | 'extxyz';
 
 export interface PredictedFrame {
   index: number;
-  /** Tensor models: the cell tensors, local contributions and applicability. */
-  tensor: FramePrediction | null;
+  /** Tensor models: the cell tensors (an isolated frame: its polarisability), local contributions and applicability. */
+  tensor: TensorPrediction | null;
   /** Vector and scalar models: the table row. */
   valueRow: PredictionRow | null;
   outside: boolean;
@@ -41,17 +41,17 @@ export function predictOne(model: Model, predict: Predictor, frame: Frame, index
   const a = pred.applicability;
   const figures = { index, outside: a.outside, atomsOutside: a.atomsOutside, maxDistance: a.maxDistance };
   if (model.target.shape !== 'tensor') return { ...figures, tensor: null, valueRow: valuePredictionRow(model, index, frame, pred) };
-  return { ...figures, tensor: framePredictionFrom(model, frame, pred, index), valueRow: null };
+  return { ...figures, tensor: tensorPredictionFrom(model, frame, pred, index), valueRow: null };
 }
 
 /** A tensor prediction's table row (with the frame's reference tensor beside it, when given). */
 export function predictedRow(model: Model, frame: Frame, one: PredictedFrame, more: { reference?: Mat3; tagKey?: string } = {}): TensorRow {
-  return tensorPredictionRow(one.index, frame, one.tensor as FramePrediction, model, more);
+  return tensorPredictionRow(one.index, frame, one.tensor as TensorPrediction, model, more);
 }
 
 /** The annotated frame extended XYZ output holds: prediction keys, per-atom arrays, molecules, the stamp. */
 export function predictedFrame(model: Model, frame: Frame, one: PredictedFrame, stamp: FrameStamp): Frame {
-  const out = annotateFrame(frame, one.tensor as FramePrediction, model);
+  const out = annotateFrame(frame, one.tensor as TensorPrediction, model);
   out.arrays[PRED_ARRAYS.molecule] = { kind: 'int', width: 1, data: findMolecules(frame).molecule };
   return stampFrame(out, one.index, stamp);
 }
