@@ -13,7 +13,7 @@ import {
 } from '../core/settings-table.ts';
 import type { ModelSettings, Route, TensorKind, TrainRequest, TuneGrid } from '../core/learning/model-types.ts';
 import type { CommandIO } from './command.ts';
-import { isIsolated, readValues, shapeOfValues, whereOf, type TargetShape } from '../core/learning/targets.ts';
+import { frameTarget, isIsolated, readValues, shapeOfValues, whereOf, type TargetShape } from '../core/learning/targets.ts';
 import { TENSOR_KINDS } from '../core/dielectric/clausius-mossotti.ts';
 import type { Progress } from '../core/learning/model-types.ts';
 
@@ -128,9 +128,9 @@ export function targetShapeOf(args: ParsedArgs, frames: Frame[]): TargetShape {
   const tensorKey = args.options.tensor;
   if (!tensorKey) throw new UsageError('name the reference property with --tensor KEY');
   if (frames.length === 0) throw new UsageError('the input holds no frames');
-  // a set mixing clusters and periodic frames: a first frame without a cell holds the clusters' key
+  // a first frame without a cell holds the clusters' key, or says that a mixed set must name it (frameTarget)
   const isolatedKey = args.options['isolated-tensor'];
-  const key = isolatedKey !== undefined && isIsolated(frames[0]) ? isolatedKey : tensorKey;
+  const key = args.options.as !== undefined && isIsolated(frames[0]) ? frameTarget(frames[0], { tensorKey, kind: parseKind(args), isolatedKey, route: 'cm' }, 0).key : tensorKey;
   return shapeOfValues(readValues(frames[0], key, 0), key, whereOf(frames[0], 0));
 }
 
