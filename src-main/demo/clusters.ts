@@ -16,6 +16,8 @@ import type { ErrorFigures, FramePrediction, ModelSettings, TrainRequest } from 
 import { errorFigures } from '../core/learning/validation.ts';
 import { CancelledError } from '../core/errors.ts';
 import { demoDipoleModel, PROVENANCE_NOTE } from './scenario.ts';
+import { readAllStructures } from '../io/read-structures.ts';
+import { join } from 'node:path';
 
 /** The property the clusters' reference polarisability goes under (io/tensor-keys.ts naming, `_ref` as the demo's other references). */
 export const CLUSTER_KEY = 'alpha_mol_ref_A3';
@@ -167,6 +169,8 @@ export interface ClusterToBulkInput {
   /** Crystal frames with `eps_ref`. */
   crystal: Frame[];
   settings: Partial<ModelSettings>;
+  /** The model trained on `trainLiquid` (eps_ref, route cm) when the caller has one already (the demo does). */
+  periodicModel?: Model;
   clusters?: ClusterOptions;
   signal?: AbortSignal;
   log?: (line: string) => void;
@@ -183,7 +187,7 @@ export async function clusterToBulk(input: ClusterToBulkInput): Promise<ClusterT
   const periodicRequest: TrainRequest = { tensorKey: 'eps_ref', kind: 'eps', route: 'cm', settings: input.settings };
   const fromClusters = await trainModel(clusters, clusterRequest, { signal: input.signal });
   check();
-  const fromPeriodic = await trainModel(input.trainLiquid, periodicRequest, { signal: input.signal });
+  const fromPeriodic = input.periodicModel ?? (await trainModel(input.trainLiquid, periodicRequest, { signal: input.signal }));
   check();
   const ref = (f: Frame, i: number) => tensorFromValues(f.info.eps_ref as number[], { frame: f.source?.index ?? i });
   const liquidRef = input.testLiquid.map(ref);
@@ -200,6 +204,19 @@ export async function clusterToBulk(input: ClusterToBulkInput): Promise<ClusterT
     fromClusters: figuresOf(fromClusters, input.testLiquid, liquidRef, input.crystal),
     fromPeriodic: figuresOf(fromPeriodic, input.testLiquid, liquidRef, input.crystal),
   };
+}
+
+/** The bundled trajectory: bulk liquid frames (MD, 32 molecules) the demo never trains on. */
+export const DEMO_TRAJECTORY = 'liquid-trajectory.extxyz.gz';
+
+/**
+ * Cluster-to-bulk within the demo run: clusters cut from the demo's training liquid frames, the demo's own
+ * liquid-trained model as the periodic comparison, every TRAJECTORY_STRIDE-th trajectory frame as unseen bulk.
+ */
+export async function demoClusterToBulk(input: { dataDir: string; liquid: Frame[]; crystal: Frame[]; model: Model; quick: boolean; signal?: AbortSignal; log?: (line: string) => void }): Promise<ClusterToBulk> {
+  const stride = input.quick ? 100 : 25;
+  const trajectory = (await readAllStructures(join(input.dataDir, DEMO_TRAJECTORY), { signal: input.signal })).filter((_, i) => i % stride === 0);
+  return clusterToBulk({ trainLiquid: input.liquid, testLiquid: trajectory, crystal: input.crystal, settings: input.model.settings, periodicModel: input.model, signal: input.signal, log: input.log });
 }
 
 /** The cluster-to-bulk figures as a Markdown section of the demo summary. */
