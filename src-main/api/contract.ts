@@ -76,6 +76,7 @@ export interface FrameView {
   species: string[];
   /** 3 per atom, Å. */
   positions: number[];
+  /** Lattice vectors (rows, Å); null for a frame without periodicity (an isolated molecule or cluster): no cell box is drawn. */
   cell: Mat3J | null;
   pbc: [boolean, boolean, boolean];
   volumeA3: number | null;

@@ -12,7 +12,6 @@ import path from 'node:path';
 import { mkdir, stat } from 'node:fs/promises';
 import { CancelledError, InputError, ModelError, type Where } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
-import type { Progress } from '../core/learning/model-types.ts';
 import { frameFeaturiser, type FrameFeaturiser } from '../core/descriptors/frame-features.ts';
 import { CandidatePool, chooseDiverse, chooseHighest, featureSpread, type ShortReason } from '../core/trajectory/frame-choice.ts';
 import { readAllStructures, readStructures } from '../io/read-structures.ts';
@@ -21,6 +20,8 @@ import { writeFileAtomic } from '../io/atomic.ts';
 import { fillTemplate, parseTemplate, type InputTemplate } from '../io/dft/input-template.ts';
 import { readWholeFile } from '../io/whole-file.ts';
 import { predictFrames, type LoadedModel } from './predict/prediction.ts';
+import type { PredictedFrame } from './predict/predict-frame.ts';
+import type { FramePrediction, Progress } from '../core/learning/model-types.ts';
 
 /** What the frames are ranked by: diversity (no model), a model's error bar, or its domain score. */
 export type SelectBy = 'diversity' | 'error' | 'domain';
@@ -152,15 +153,23 @@ function frameTime(frame: Frame, number: number, timeStepFs: number | undefined)
   return timeStepFs !== undefined ? number * timeStepFs : NaN;
 }
 
-/** The score a model gives a frame (larger: more worth computing). */
-function modelScore(m: LoadedModel, by: 'error' | 'domain', one: Parameters<Parameters<typeof predictFrames>[2]['frame']>[1], where: Where): number {
-  if (!one.tensor) throw new ModelError(`${m.label}: frames are chosen with tensor models; this model predicts a vector or scalar`);
-  if (by === 'domain') return one.tensor.applicability.score;
-  const bars = one.tensor.errorBars;
-  if (!bars) {
+/**
+ * The score a model gives a frame (larger: more worth computing): its domain score, or its calibrated error bar —
+ * of ε_iso for a periodic frame, of α_iso (Å³) for an isolated one; a run mixing the two is refused, since the
+ * error bars would not be comparable.
+ */
+function modelScore(m: LoadedModel, by: 'error' | 'domain', one: PredictedFrame, where: Where, kinds: Set<string>): number {
+  const t = one.tensor;
+  if (!t) throw new ModelError(`${m.label}: frames are chosen with tensor models; this model predicts a vector or scalar`);
+  if (by === 'domain') return t.applicability.score;
+  const isolated = 'isolated' in t && t.isolated === true;
+  kinds.add(isolated ? 'isolated' : 'periodic');
+  if (kinds.size > 1) throw new InputError('the run mixes periodic and isolated frames, whose error bars (of ε and of α) cannot be ranked together', where, 'choose by domain score (--by domain), or choose among each kind separately');
+  const sd = 'isolated' in t && t.isolated === true ? t.alphaIsoSd : (t as FramePrediction).errorBars?.epsIso ?? null;
+  if (sd === null) {
     throw new InputError(`${m.label}: the model carries no calibrated error bars`, where, 'choose by domain score instead (--by domain), or retrain it on 3 frames or more with this version');
   }
-  return bars.epsIso;
+  return sd;
 }
 
 /** Pass 1: the chosen frames' numbers, times, scores, and how the choice went. */
@@ -207,9 +216,10 @@ export async function selectFrames(source: FrameSource, req: SelectRequest, hook
       }
     })();
     const by2 = by as 'error' | 'domain';
+    const kinds = new Set<string>();
     await predictFrames(m, frames, {
       frame(frame, one) {
-        take(frame, one.index, modelScore(m, by2, one, { file: source.name, frame: one.index }));
+        take(frame, one.index, modelScore(m, by2, one, { file: source.name, frame: one.index }, kinds));
       },
     }, { signal, indexOf: () => current });
   } else {
@@ -257,7 +267,7 @@ export async function selectFrames(source: FrameSource, req: SelectRequest, hook
 
 const SELECTION_WORDS: Record<SelectBy, string> = {
   diversity: 'farthest-point sampling on frame features',
-  error: 'largest calibrated error bar of eps_iso (model estimate)',
+  error: 'largest calibrated error bar of eps_iso, or of alpha_iso for isolated frames (model estimate)',
   domain: 'largest domain score (model estimate)',
 };
 
@@ -349,7 +359,7 @@ export function selectionSummary(r: SelectResult, sourceName: string): string[] 
   lines.push(`  read ${r.considered} frames (every ${r.stride === 1 ? '' : `${r.stride}th `}frame)${thinned}; ${r.candidates} candidates${r.scoreFloor !== null ? ` (scores above ${fmt(r.scoreFloor)})` : ''}`);
   lines.push(`  near duplicates: closer than ${fmt(r.duplicateDistance, 3)} in frame-feature distance (spread of the candidates ${fmt(r.spread, 3)})`);
   if (r.shortText) lines.push(`  fewer than asked: ${r.shortText}`);
-  const scoreName = r.by === 'error' ? 'σ(ε_iso)' : 'score';
+  const scoreName = r.by === 'error' ? 'error bar' : 'domain score';
   for (const c of r.chosen) {
     const parts = [`frame ${c.frame}`];
     if (c.timeFs !== null) parts.push(`t = ${fmt(c.timeFs, 6)} fs`);
