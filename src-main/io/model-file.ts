@@ -60,10 +60,12 @@ function encode(value: unknown, key: string, path: string): Json {
   throw new ModelError(`cannot save the model: ${path} has type ${typeof value}`);
 }
 
+// The decoded arrays live in SharedArrayBuffers: a process reads its model once, and its worker threads read the
+// same memory (a SharedArrayBuffer crosses postMessage without a copy; app/predict/shared-model.ts).
 function fromB64(text: unknown, what: string, file: string): Uint8Array {
   if (typeof text !== 'string' || !/^[A-Za-z0-9+/]*={0,2}$/.test(text)) throw new ModelError(`${file}: corrupt model file (${what} is not base64)`);
   const buf = Buffer.from(text, 'base64');
-  const copy = new Uint8Array(buf.length);
+  const copy = new Uint8Array(new SharedArrayBuffer(buf.length));
   copy.set(buf);
   return copy;
 }
@@ -89,7 +91,7 @@ function decode(value: Json, path: string, file: string): unknown {
         throw new ModelError(`${file}: corrupt model file (${path}: packed triangle does not match n = ${String(n)})`);
       }
       const packed = new Float64Array(bytes.buffer);
-      const full = new Float64Array(n * n);
+      const full = new Float64Array(new SharedArrayBuffer(8 * n * n));
       let at = 0;
       for (let i = 0; i < n; i++) for (let j = 0; j <= i; j++) full[i * n + j] = packed[at++];
       return full;
