@@ -162,6 +162,13 @@ export interface FrameDetail {
   local: number[];
   /** Per atom: distance to the nearest training environment. */
   atomDistance: number[];
+  /**
+   * Per atom: domain score u (0 at the training median, 1 at the training's extreme in its worst check: feature
+   * distance, neighbour distances, neighbour count, density scale), or empty when not known.
+   */
+  atomScore: number[];
+  /** Per atom: outside the training data (u > 1; the rule that counts atomsOutside). */
+  atomOutside: boolean[];
   route: RouteJ;
   /** Molecule index of each atom (covalent bonds), or null when molecules cannot be found. */
   molecules: number[] | null;

@@ -48,7 +48,7 @@ export function predictionJ(fp: FramePrediction, frame: number, reference: Mat3 
 }
 
 /** Back from the window's JSON (a saved project) to a typed prediction. */
-export function predictionFromJ(f: FramePredictionJ, local: number[], atomDistance: number[]): FramePrediction {
+export function predictionFromJ(f: FramePredictionJ, local: number[], atomDistance: number[], atomScore: number[] = []): FramePrediction {
   const a = f.applicability;
   return {
     volumeA3: f.volumeA3,
@@ -56,7 +56,7 @@ export function predictionFromJ(f: FramePredictionJ, local: number[], atomDistan
     alphaC: Float64Array.from(f.alphaC),
     eps: Float64Array.from(f.eps),
     local: Float64Array.from(local),
-    applicability: { atomDistance: Float64Array.from(atomDistance), maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, atomScore: new Float64Array(0), score: a.score ?? NaN, fractionOutside: a.fractionOutside ?? NaN, reasons: a.reasons ?? [] },
+    applicability: { atomDistance: Float64Array.from(atomDistance), maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, atomScore: Float64Array.from(atomScore), score: a.score ?? NaN, fractionOutside: a.fractionOutside ?? NaN, reasons: a.reasons ?? [] },
     errorBars: f.errorBars ?? null,
   };
 }

@@ -28,6 +28,7 @@ import type { Frame } from '../core/geometry/frame.ts';
 import { DEFAULT_SETTINGS, type Model } from '../core/learning/model.ts';
 import { InputError, ModelError } from '../core/errors.ts';
 import { findMolecules } from '../core/geometry/molecules.ts';
+import { atomOutside } from '../core/learning/domain.ts';
 import type { JobHandle, JobRunner } from '../jobs/runner.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './task-types.ts';
 import { summariseDataset } from './dataset-summary.ts';
@@ -432,6 +433,11 @@ export class AppService implements ApiService {
       prediction: p.summary.frames[k],
       local: Array.from(p.typed[k].local),
       atomDistance: Array.from(p.typed[k].applicability.atomDistance),
+      atomScore: Array.from(p.typed[k].applicability.atomScore),
+      // projects saved before per-atom scores were kept: the feature distance over its threshold is that score's first check
+      atomOutside: p.typed[k].applicability.atomScore.length
+        ? Array.from(p.typed[k].applicability.atomScore, atomOutside)
+        : Array.from(p.typed[k].applicability.atomDistance, (d) => atomOutside(d / p.typed[k].applicability.threshold)),
       route: p.route,
     };
   }
@@ -495,6 +501,7 @@ export class AppService implements ApiService {
         route: p.route,
         local: p.typed.map((t) => Array.from(t.local)),
         atomDistance: p.typed.map((t) => Array.from(t.applicability.atomDistance)),
+        atomScore: p.typed.map((t) => Array.from(t.applicability.atomScore)),
       })),
       ui: params.ui ?? {},
     };
@@ -535,7 +542,7 @@ export class AppService implements ApiService {
       const datasetId = idMap.get(p.summary.datasetId);
       if (!modelId || !datasetId) continue; // its model or data did not come along
       const id = this.nextId('p');
-      const typed = p.summary.frames.map((f, k) => predictionFromJ(f, p.local[k], p.atomDistance[k]));
+      const typed = p.summary.frames.map((f, k) => predictionFromJ(f, p.local[k], p.atomDistance[k], p.atomScore?.[k]));
       predictions.set(id, { summary: { ...p.summary, id, modelId, datasetId }, route: p.route, typed, frameIndices: p.summary.frames.map((f) => f.frame) });
     }
     this.datasets.clear();

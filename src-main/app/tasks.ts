@@ -2,17 +2,16 @@
 // validate (cross-validation only) and predict (every frame, with applicability and the file's reference ε
 // where it has one). Results come back as plain JSON for the window (api/contract.ts shapes).
 import type { ValidationReportJ } from '../api/contract.ts';
-import { convertTensor } from '../core/dielectric/clausius-mossotti.ts';
 import { CancelledError, ModelError } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { predictFrame, trainModel, type Model } from '../core/learning/model.ts';
 import type { FramePrediction, ParityPoint, TrainRequest, ValidationReport } from '../core/learning/model-types.ts';
-import { frameVolume, readTensor } from '../core/learning/targets.ts';
 import { toIrreducible } from '../core/dielectric/tensor.ts';
 import { errorFigures, validate } from '../core/learning/validation.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './task-types.ts';
 import type { TaskContext, TaskRegistry } from '../jobs/task.ts';
 import { loadedModel, predictFrames, type PredictSink } from './predict/prediction.ts';
+import { referenceEps } from './predict/predict-frame.ts';
 
 function reportJson(r: ValidationReport, frameIndices: number[]): ValidationReportJ {
   return {
@@ -32,17 +31,6 @@ async function crossValidate(input: ValidateTaskInput, ctx: TaskContext, extraSt
     onProgress: (p) => ctx.progress({ stage: `cross-validation, ${p.stage}`, done: p.done, total: p.total + extraSteps }),
   });
   return reportJson(report, input.frameIndices);
-}
-
-/** The frame's reference tensor as ε, or null when it has none (or it cannot be converted). */
-function referenceEps(frame: Frame, index: number, key: string, kind: PredictTaskInput['reference']['kind']): Float64Array | null {
-  const v = frame.info[key];
-  if (!Array.isArray(v)) return null;
-  try {
-    return convertTensor(readTensor(frame, key, index), kind, 'eps', frameVolume(frame, index));
-  } catch {
-    return null;
-  }
 }
 
 async function train(input: TrainTaskInput, ctx: TaskContext): Promise<TrainTaskOutput> {

@@ -51,6 +51,8 @@ const BROWSER_SAFE_CORE = [
   // Error figures of predicted against reference tensors: the parity chart's figures for a group of dots come
   // from the engine's own function.
   'src-main/core/learning/error-figures.ts',
+  // A value with its error bar, rounded to the digits the error bar justifies: the CLI and the window print alike.
+  'src-main/core/numerics/uncertain.ts',
 ];
 
 /** What the renderer may import from src-main, and how. */

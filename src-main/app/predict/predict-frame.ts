@@ -5,7 +5,10 @@
 // io/prediction/prediction-format.ts.
 import type { Frame, Mat3 } from '../../core/geometry/frame.ts';
 import { framePredictionFrom, type Model, type Predictor } from '../../core/learning/model.ts';
-import type { FramePrediction } from '../../core/learning/model-types.ts';
+import type { FramePrediction, TensorKind } from '../../core/learning/model-types.ts';
+import type { SetFrame } from '../../core/learning/set-summary.ts';
+import { convertTensor } from '../../core/dielectric/clausius-mossotti.ts';
+import { frameVolume, readTensor } from '../../core/learning/targets.ts';
 import { findMolecules } from '../../core/geometry/molecules.ts';
 import { formatExtxyzFrame } from '../../io/extxyz.ts';
 import {
@@ -44,6 +47,27 @@ export function predictOne(model: Model, predict: Predictor, frame: Frame, index
   return { ...figures, tensor: framePredictionFrom(model, frame, pred, index), valueRow: null };
 }
 
+/** The frame's reference tensor (under `key`, of `kind`) as ε, or null when it has none or it cannot be converted. */
+export function referenceEps(frame: Frame, index: number, key: string, kind: TensorKind): Float64Array | null {
+  const v = frame.info[key];
+  if (!Array.isArray(v)) return null;
+  try {
+    return convertTensor(readTensor(frame, key, index), kind, 'eps', frameVolume(frame, index));
+  } catch {
+    return null;
+  }
+}
+
+/**
+ * What the set summary (core/learning/set-summary.ts) takes of a predicted frame: ε, its error bars and the
+ * frame's reference ε under the model's own key (as the window shows it); null for vector and scalar models.
+ */
+export function setFrameOf(model: Model, frame: Frame, one: PredictedFrame): SetFrame | null {
+  if (!one.tensor) return null;
+  const kind = model.target.kind;
+  return { eps: one.tensor.eps, errorBars: one.tensor.errorBars, reference: kind ? referenceEps(frame, one.index, model.target.key, kind) : null, outside: one.outside };
+}
+
 /** A tensor prediction's table row (with the frame's reference tensor beside it, when given). */
 export function predictedRow(model: Model, frame: Frame, one: PredictedFrame, more: { reference?: Mat3; tagKey?: string } = {}): TensorRow {
   return tensorPredictionRow(one.index, frame, one.tensor as FramePrediction, model, more);
@@ -65,6 +89,8 @@ export function predictedText(model: Model, frame: Frame, one: PredictedFrame, f
 
 export interface FrameText {
   text: string;
+  /** For the set summary (tensor models). */
+  set: SetFrame | null;
   outside: boolean;
   atomsOutside: number;
   maxDistance: number;
@@ -73,5 +99,5 @@ export interface FrameText {
 /** Predict one frame and format it. */
 export function predictFrameText(model: Model, predict: Predictor, frame: Frame, index: number, format: PredictFormat, stamp: FrameStamp, csvOptions?: TensorCsvOptions): FrameText {
   const one = predictOne(model, predict, frame, index);
-  return { text: predictedText(model, frame, one, format, stamp, csvOptions), outside: one.outside, atomsOutside: one.atomsOutside, maxDistance: one.maxDistance };
+  return { text: predictedText(model, frame, one, format, stamp, csvOptions), set: setFrameOf(model, frame, one), outside: one.outside, atomsOutside: one.atomsOutside, maxDistance: one.maxDistance };
 }

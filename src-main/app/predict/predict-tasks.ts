@@ -9,6 +9,7 @@ import type { FrameStamp, TensorCsvOptions } from '../../io/prediction/predictio
 import { predictFrameText, type PredictFormat } from './predict-frame.ts';
 import { loadModelFile, type LoadedModel } from './prediction.ts';
 import type { TaskContext, TaskRegistry } from '../../jobs/task.ts';
+import type { SetFrame } from '../../core/learning/set-summary.ts';
 
 export interface PredictChunkInput {
   modelPath: string;
@@ -36,6 +37,8 @@ export interface PredictChunkOutput {
   outside: boolean[];
   atomsOutside: number[];
   maxDistance: number[];
+  /** Per frame, what the set summary takes (tensor models; null otherwise); the caller adds them in frame order. */
+  set: (SetFrame | null)[];
   /** Time spent parsing and predicting in the worker (ms), without its start-up: sizes the next batches. */
   computeMs: number;
 }
@@ -68,7 +71,7 @@ export function parseFrameBytes(file: string, index: number, line: number, bytes
 export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): Promise<PredictChunkOutput> {
   const m = await modelFor(input.modelPath, input.modelSha256, input.model);
   const t0 = performance.now();
-  const out: PredictChunkOutput = { text: '', index: [], outside: [], atomsOutside: [], maxDistance: [], computeMs: 0 };
+  const out: PredictChunkOutput = { text: '', index: [], outside: [], atomsOutside: [], maxDistance: [], set: [], computeMs: 0 };
   const parts: string[] = [];
   const total = input.frames.length;
   for (let j = 0; j < total; j++) {
@@ -81,6 +84,7 @@ export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): 
     out.outside.push(r.outside);
     out.atomsOutside.push(r.atomsOutside);
     out.maxDistance.push(r.maxDistance);
+    out.set.push(r.set);
     ctx.progress({ stage: 'predict', done: j + 1, total });
   }
   out.text = parts.join('');

@@ -4,6 +4,8 @@
 // extended XYZ trajectories (stream-predict.ts, whose workers run the same per-frame step), the window's
 // in-memory predictions (app/tasks.ts) with its CSV export (app/export-csv.ts), and the demo. Whatever the
 // sink, a frame gets the same numbers and the same layout (io/prediction/prediction-format.ts).
+import { addToSums, emptySums, summaryOfSums, type SetSummary } from '../../core/learning/set-summary.ts';
+import { decimalsFor, withError } from '../../core/numerics/uncertain.ts';
 import { createHash } from 'node:crypto';
 import { promises as fsp } from 'node:fs';
 import { basename } from 'node:path';
@@ -15,7 +17,7 @@ import type { FrameRange } from '../../io/extxyz.ts';
 import { parseModel, readModelBytes } from '../../io/model-file.ts';
 import { predictionCsvHeader, predictionCsvOptions, type FrameStamp, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import { outputKind, readStructures } from '../../io/read-structures.ts';
-import { predictedText, predictOne, type PredictedFrame, type PredictFormat } from './predict-frame.ts';
+import { predictedText, predictOne, setFrameOf, type PredictedFrame, type PredictFormat } from './predict-frame.ts';
 
 export function sha256Hex(data: Uint8Array | string): string {
   return createHash('sha256').update(data).digest('hex');
@@ -76,6 +78,33 @@ export function rangeSelection(range: FrameRange | undefined): SelectionText | u
   return whole ? undefined : { start: r.start ?? 0, stop: r.stop ?? null, step: r.step ?? 1 };
 }
 
+/**
+ * The set summary in words, as `predict` prints it: the mean ε over the frames, the principal refractive indices
+ * of that mean and its birefringence, with model error bars, and the file's reference beside them. The window's
+ * Transfer view shows the same figures (the same SetSummary, rounded by the same rule).
+ */
+export function setSummaryLines(s: SetSummary): string[] {
+  const e = s.errorBars;
+  const three = (n: number[], sd?: number[]) => n.map((x, k) => withError(x, sd?.[k])).join(', ');
+  const lines = [
+    `Mean of the ${s.frames} predicted frame${s.frames === 1 ? '' : 's'} (± model error bar, one standard deviation):`,
+    `  ε iso ${withError(s.predicted.epsIso, e?.epsIso)};  n₁, n₂, n₃ of the mean ε ${three(s.predicted.n, e?.n)};  Δn = n₃ − n₁ ${withError(s.predicted.dn, e?.dn)}`,
+  ];
+  if (s.reference) {
+    // the reference to the places of the prediction's error bars, so the two read side by side
+    const at = (x: number, sd?: number) => (sd && Number.isFinite(decimalsFor(sd)) ? x.toFixed(decimalsFor(sd)) : String(Number(x.toPrecision(5))));
+    lines.push(
+      `  reference in the file (${s.reference.frames} frame${s.reference.frames === 1 ? '' : 's'}): ε iso ${at(s.reference.epsIso, e?.epsIso)};  n ${s.reference.n.map((x, k) => at(x, e?.n[k])).join(', ')};  Δn ${at(s.reference.dn, e?.dn)}`,
+    );
+  }
+  lines.push(
+    e
+      ? '  The error bar is the model’s (calibrated on held-out folds in training); it does not shrink with more frames. For the statistical error of a trajectory mean, use `polarweave analyse`.'
+      : '  No error bars: this model carries no calibration (saved before error bars existed, or trained on fewer than 3 frames).',
+  );
+  return lines;
+}
+
 /** Where a sink puts each predicted frame. */
 export interface PredictSink {
   frame(frame: Frame, one: PredictedFrame): void | Promise<void>;
@@ -84,6 +113,8 @@ export interface PredictSink {
 export interface PredictRun {
   frames: number;
   outside: number;
+  /** Mean ε, n and Δn of the frames with error bars and the references (core/learning/set-summary.ts); null for vector and scalar models. */
+  summary: SetSummary | null;
 }
 
 /**
@@ -99,18 +130,21 @@ export async function predictFrames(
 ): Promise<PredictRun> {
   let k = 0;
   let outside = 0;
+  const sums = emptySums();
   for await (const frame of frames) {
     if (hooks.signal?.aborted) throw new CancelledError();
     const index = hooks.indexOf ? hooks.indexOf(frame, k) : (frame.source?.index ?? k);
     const one = predictOne(m.model, m.predict, frame, index);
     if (one.outside) outside++;
+    const set = setFrameOf(m.model, frame, one);
+    if (set) addToSums(sums, set);
     await sink.frame(frame, one);
     k++;
     hooks.onFrame?.(k);
     if (k % 4 === 0) await new Promise((r) => setImmediate(r));
   }
   if (hooks.signal?.aborted) throw new CancelledError();
-  return { frames: k, outside };
+  return { frames: k, outside, summary: m.model.target.shape === 'tensor' ? summaryOfSums(sums) : null };
 }
 
 export interface PredictToFileOptions {

@@ -54,6 +54,15 @@ export function drawScene(ctx: CanvasRenderingContext2D, items: readonly SceneIt
       ctx.moveTo(it.x1, it.y1);
       ctx.lineTo(it.x2, it.y2);
       ctx.stroke();
+    } else if (it.kind === 'mark') {
+      ctx.globalAlpha = it.faded ? 0.35 : 1;
+      ctx.setLineDash([5, 3]);
+      ctx.strokeStyle = style.warn;
+      ctx.lineWidth = 2.2;
+      ctx.beginPath();
+      ctx.arc(it.x, it.y, it.r, 0, 2 * Math.PI);
+      ctx.stroke();
+      ctx.setLineDash([]);
     } else if (it.kind === 'atom') {
       let g = atomGrad.get(it.sp);
       if (!g) {
