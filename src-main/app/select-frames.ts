@@ -21,7 +21,7 @@ import { fillTemplate, parseTemplate, type InputTemplate } from '../io/dft/input
 import { readWholeFile } from '../io/whole-file.ts';
 import { predictFrames, type LoadedModel } from './predict/prediction.ts';
 import type { PredictedFrame } from './predict/predict-frame.ts';
-import type { FramePrediction, Progress } from '../core/learning/model-types.ts';
+import type { Progress } from '../core/learning/model-types.ts';
 
 /** What the frames are ranked by: diversity (no model), a model's error bar, or its domain score. */
 export type SelectBy = 'diversity' | 'error' | 'domain';
@@ -162,10 +162,10 @@ function modelScore(m: LoadedModel, by: 'error' | 'domain', one: PredictedFrame,
   const t = one.tensor;
   if (!t) throw new ModelError(`${m.label}: frames are chosen with tensor models; this model predicts a vector or scalar`);
   if (by === 'domain') return t.applicability.score;
-  const isolated = 'isolated' in t && t.isolated === true;
-  kinds.add(isolated ? 'isolated' : 'periodic');
+  kinds.add(t.isolated ? 'isolated' : 'periodic');
   if (kinds.size > 1) throw new InputError('the run mixes periodic and isolated frames, whose error bars (of ε and of α) cannot be ranked together', where, 'choose by domain score (--by domain), or choose among each kind separately');
-  const sd = 'isolated' in t && t.isolated === true ? t.alphaIsoSd : (t as FramePrediction).errorBars?.epsIso ?? null;
+  // a frame without a cell (a molecule or cluster) has the error bar of its α iso instead of ε iso
+  const sd = t.isolated ? t.alphaIsoSd : (t.errorBars?.epsIso ?? null);
   if (sd === null) {
     throw new InputError(`${m.label}: the model carries no calibrated error bars`, where, 'choose by domain score instead (--by domain), or retrain it on 3 frames or more with this version');
   }

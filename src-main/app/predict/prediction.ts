@@ -40,11 +40,20 @@ export function loadedModel(model: Model, label: string, sha256 = ''): LoadedMod
   return { path: '', label, sha256, model, predict: modelPredictor(model) };
 }
 
+/**
+ * The model's predictor, built at its first use: a process that only hands the model to its workers (the streamed
+ * path) never pays for the tables. A model whose parts do not fit its settings fails on that first use.
+ */
+function predictorOnDemand(model: Model): Predictor {
+  let predict: Predictor | null = null;
+  return (frame, index) => (predict ??= modelPredictor(model))(frame, index);
+}
+
 /** Read, checksum and parse a model file (once per process: pass the result on rather than the path). */
 export async function loadModelFile(path: string, label = path): Promise<LoadedModel> {
   const bytes = await readModelBytes(path);
   const model = parseModel(bytes.toString('utf8'), path);
-  return { path, label, sha256: sha256Hex(bytes), model, predict: modelPredictor(model) };
+  return { path, label, sha256: sha256Hex(bytes), model, predict: predictorOnDemand(model) };
 }
 
 /** The output format of a prediction file from its name (the registry of file kinds), or an InputError. */
