@@ -13,6 +13,7 @@ import { parseExtxyz } from '../../src-main/io/extxyz.ts';
 import { saveModel } from '../../src-main/io/model-file.ts';
 import { framePredictionFrom, modelPredictor, type Model } from '../../src-main/core/learning/model.ts';
 import { memorySource, selectFrames } from '../../src-main/app/select-frames.ts';
+import { loadedModel } from '../../src-main/app/predict/prediction.ts';
 import { frameFeaturiser } from '../../src-main/core/descriptors/frame-features.ts';
 import { createAppService } from '../../src-main/app/wiring.ts';
 import { tsWorkerFactory } from '../../src-main/jobs/spawn-ts.ts';
@@ -137,6 +138,15 @@ describe('polarweave select --model: the largest error bars or domain scores', (
     r = await cli('select', mixedFile, '-n', '2', '-o', join(dir, 'none.extxyz'), '--model', modelFile, '--known', known);
     expect(r.code).toBe(1);
     expect(r.err).toMatch(/no frame could be chosen.*near duplicates/);
+  });
+
+  it('refuses to rank periodic and isolated frames by error bar together (ε and α error bars differ); by domain score it can', async () => {
+    const w = waterFrames();
+    const cluster = { ...w[1], cell: null, pbc: [false, false, false] as [boolean, boolean, boolean], info: {} };
+    const source = memorySource('mixed', [w[0], cluster, w[2]]);
+    await expect(selectFrames(source, { count: 2, model: loadedModel(model, 'm') })).rejects.toThrow(/mixed, frame 1: the run mixes periodic and isolated frames/);
+    const r = await selectFrames(source, { count: 2, model: loadedModel(model, 'm'), by: 'domain' });
+    expect(r.chosen.length).toBe(2);
   });
 
   it('writes the user\'s CP2K template once per chosen frame (cell and atoms filled)', async () => {
