@@ -12,13 +12,14 @@ export function guessTensorKind(key: string): TensorKindJ | null {
   const k = key.toLowerCase();
   if (/eps|epsilon|dielectric/.test(k)) return 'eps';
   if (/(alpha|polari[sz]ability).*(cm|clausius|lorentz)|(cm|clausius)[_-]?(alpha|polar)/.test(k)) return 'alpha-cm';
+  if (/(alpha|polari[sz]ability).*(mol|cluster|isolated)/.test(k)) return 'alpha-mol';
   if (/alpha|polari[sz]ability/.test(k)) return 'alpha-c';
   return null;
 }
 
 export function unitOfKind(kind: TensorKindJ | null): string {
   if (kind === 'eps') return 'dimensionless';
-  if (kind === 'alpha-c' || kind === 'alpha-cm') return 'Å³ (polarisability volume)';
+  if (kind === 'alpha-c' || kind === 'alpha-cm' || kind === 'alpha-mol') return 'Å³ (polarisability volume)';
   return 'unknown';
 }
 

@@ -70,6 +70,9 @@ async function predict(input: PredictTaskInput, ctx: TaskContext): Promise<Predi
   const sink: PredictSink = {
     frame(frame, one) {
       if (!one.tensor) throw new ModelError('the window predicts cell tensors; this model predicts a vector or scalar');
+      if (one.tensor.isolated) {
+        throw new ModelError(`frame ${one.index} has no periodic cell: the window's prediction views show ε, n and Δn, which a lone molecule or cluster does not have; predict it with \`polarweave predict\` (its table carries the polarisability)`);
+      }
       out.frameIndices.push(one.index);
       out.predictions.push(one.tensor);
       out.reference.push(referenceEps(frame, one.index, input.reference.key, input.reference.kind));

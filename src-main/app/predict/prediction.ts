@@ -5,7 +5,7 @@
 // in-memory predictions (app/tasks.ts) with its CSV export (app/export-csv.ts), and the demo. Whatever the
 // sink, a frame gets the same numbers and the same layout (io/prediction/prediction-format.ts).
 import { addToSums, emptySums, summaryOfSums, type SetSummary } from '../../core/learning/set-summary.ts';
-import { decimalsFor, withError } from '../../core/numerics/uncertain.ts';
+import { atPlacesOf, withError } from '../../core/numerics/uncertain.ts';
 import { createHash } from 'node:crypto';
 import { promises as fsp } from 'node:fs';
 import { basename } from 'node:path';
@@ -92,7 +92,7 @@ export function setSummaryLines(s: SetSummary): string[] {
   ];
   if (s.reference) {
     // the reference to the places of the prediction's error bars, so the two read side by side
-    const at = (x: number, sd?: number) => (sd && Number.isFinite(decimalsFor(sd)) ? x.toFixed(decimalsFor(sd)) : String(Number(x.toPrecision(5))));
+    const at = atPlacesOf;
     lines.push(
       `  reference in the file (${s.reference.frames} frame${s.reference.frames === 1 ? '' : 's'}): ε iso ${at(s.reference.epsIso, e?.epsIso)};  n ${s.reference.n.map((x, k) => at(x, e?.n[k])).join(', ')};  Δn ${at(s.reference.dn, e?.dn)}`,
     );
