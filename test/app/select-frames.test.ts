@@ -194,6 +194,24 @@ describe('the window chooses with the same use case as the CLI', () => {
     expect(s.result.selection.dataset?.frames).toBe(5);
   }, 120_000);
 
+  it('a select job reports progress and stops on cancel, keeping nothing', async () => {
+    const ds = await service.openStructures({ name: 'long.extxyz', text: trajectoryText(jitteredTrajectory(600, 0.01, 3)) });
+    const before = (await service.getState()).datasets.length;
+    const { jobId } = await service.startJob({ kind: 'select', params: { datasetId: ds.id, count: 5, stride: 1, minGapFs: 0, by: 'error' } });
+    let progressed = false;
+    for (let k = 0; k < 600 && !progressed; k++) {
+      const st = await service.jobStatus({ jobId, since: 0 });
+      progressed = st.events.some((e) => e.type === 'progress' && e.stage === 'describing frames' && (e.total ?? 0) === 600);
+      if (!progressed) await new Promise((r) => setTimeout(r, 50));
+    }
+    expect(progressed).toBe(true);
+    await service.cancelJob({ jobId });
+    const s = await service.waitForJob(jobId);
+    expect(s.state).toBe('cancelled');
+    expect(s.result).toBe(null);
+    expect((await service.getState()).datasets.length).toBe(before);
+  }, 120_000);
+
   it('a bad template fails the job with its line named', async () => {
     const ds = await service.openStructures({ name: 'run2.extxyz', text: readFileSync(traj, 'utf8') });
     const { jobId } = await service.startJob({ kind: 'select', params: { datasetId: ds.id, count: 2, stride: 1, minGapFs: 0, by: 'error', template: { name: 'in.tmpl', text: '{{atoms}}\n{{nope}}\n' } } });
