@@ -1,6 +1,7 @@
 // Number formatting for tables and labels: a fixed number of significant digits, ranges, 3×3 matrices.
 import type { Range } from '../../src-main/api/contract.ts';
 import { withError } from '../../src-main/core/numerics/uncertain.ts';
+export { atPlacesOf } from '../../src-main/core/numerics/uncertain.ts';
 
 export function fmt(v: number | null | undefined, digits = 4): string {
   if (v === null || v === undefined || !Number.isFinite(v)) return '—';

@@ -3,6 +3,7 @@
 // output text of the batch in frame order, with the applicability figures the caller summarises.
 import { CancelledError, InputError, ModelError } from '../../core/errors.ts';
 import type { Frame } from '../../core/geometry/frame.ts';
+import { modelPredictor, type Model } from '../../core/learning/model.ts';
 import { frameFromBytes } from '../../io/extxyz.ts';
 import type { FrameStamp, TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import { predictFrameText, type PredictFormat } from './predict-frame.ts';
@@ -13,6 +14,12 @@ import type { SetFrame } from '../../core/learning/set-summary.ts';
 export interface PredictChunkInput {
   modelPath: string;
   modelSha256: string;
+  /**
+   * The model the main thread read (sha256 `modelSha256`), its typed arrays in shared memory (shared-model.ts):
+   * the worker predicts with it instead of reading and parsing the file again. Without it, the worker reads the
+   * file and checks its checksum.
+   */
+  model?: Model;
   /** The input file (for error messages). */
   file: string;
   format: PredictFormat;
@@ -38,12 +45,16 @@ export interface PredictChunkOutput {
 
 // One model per worker. A reused worker (stream-predict's runner keeps its workers) serves every later batch
 // from here: the model in memory is the one whose bytes matched `sha`, so its predictions stay those of the
-// checksum written in the output even if the file is replaced meanwhile (only a new worker would notice that).
-// A worker thread is its own JavaScript realm: it reads the model once, here, and keeps it.
+// checksum written in the output even if the file is replaced meanwhile. A worker thread is its own JavaScript
+// realm: it builds its predictor once, here, and keeps it; the model's arrays are the main thread's, shared.
 let cached: LoadedModel | null = null;
 
-async function modelFor(path: string, sha: string): Promise<LoadedModel> {
+async function modelFor(path: string, sha: string, given?: Model): Promise<LoadedModel> {
   if (cached && cached.path === path && cached.sha256 === sha) return cached;
+  if (given) {
+    cached = { path, label: path, sha256: sha, model: given, predict: modelPredictor(given) };
+    return cached;
+  }
   const loaded = await loadModelFile(path);
   if (loaded.sha256 !== sha) throw new ModelError(`${path}: the model file changed while predicting (sha256 ${loaded.sha256}, expected ${sha}); start again with --restart`);
   cached = loaded;
@@ -58,7 +69,7 @@ export function parseFrameBytes(file: string, index: number, line: number, bytes
 }
 
 export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): Promise<PredictChunkOutput> {
-  const m = await modelFor(input.modelPath, input.modelSha256);
+  const m = await modelFor(input.modelPath, input.modelSha256, input.model);
   const t0 = performance.now();
   const out: PredictChunkOutput = { text: '', index: [], outside: [], atomsOutside: [], maxDistance: [], set: [], computeMs: 0 };
   const parts: string[] = [];

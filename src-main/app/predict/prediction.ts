@@ -5,7 +5,7 @@
 // in-memory predictions (app/tasks.ts) with its CSV export (app/export-csv.ts), and the demo. Whatever the
 // sink, a frame gets the same numbers and the same layout (io/prediction/prediction-format.ts).
 import { addToSums, emptySums, summaryOfSums, type SetSummary } from '../../core/learning/set-summary.ts';
-import { decimalsFor, withError } from '../../core/numerics/uncertain.ts';
+import { atPlacesOf, withError } from '../../core/numerics/uncertain.ts';
 import { createHash } from 'node:crypto';
 import { promises as fsp } from 'node:fs';
 import { basename } from 'node:path';
@@ -40,11 +40,20 @@ export function loadedModel(model: Model, label: string, sha256 = ''): LoadedMod
   return { path: '', label, sha256, model, predict: modelPredictor(model) };
 }
 
+/**
+ * The model's predictor, built at its first use: a process that only hands the model to its workers (the streamed
+ * path) never pays for the tables. A model whose parts do not fit its settings fails on that first use.
+ */
+function predictorOnDemand(model: Model): Predictor {
+  let predict: Predictor | null = null;
+  return (frame, index) => (predict ??= modelPredictor(model))(frame, index);
+}
+
 /** Read, checksum and parse a model file (once per process: pass the result on rather than the path). */
 export async function loadModelFile(path: string, label = path): Promise<LoadedModel> {
   const bytes = await readModelBytes(path);
   const model = parseModel(bytes.toString('utf8'), path);
-  return { path, label, sha256: sha256Hex(bytes), model, predict: modelPredictor(model) };
+  return { path, label, sha256: sha256Hex(bytes), model, predict: predictorOnDemand(model) };
 }
 
 /** The output format of a prediction file from its name (the registry of file kinds), or an InputError. */
@@ -83,7 +92,7 @@ export function setSummaryLines(s: SetSummary): string[] {
   ];
   if (s.reference) {
     // the reference to the places of the prediction's error bars, so the two read side by side
-    const at = (x: number, sd?: number) => (sd && Number.isFinite(decimalsFor(sd)) ? x.toFixed(decimalsFor(sd)) : String(Number(x.toPrecision(5))));
+    const at = atPlacesOf;
     lines.push(
       `  reference in the file (${s.reference.frames} frame${s.reference.frames === 1 ? '' : 's'}): ε iso ${at(s.reference.epsIso, e?.epsIso)};  n ${s.reference.n.map((x, k) => at(x, e?.n[k])).join(', ')};  Δn ${at(s.reference.dn, e?.dn)}`,
     );

@@ -2,8 +2,9 @@
 //
 // The main thread cuts selected frames out of the file as raw bytes (io/frame-slices.ts), groups them in
 // batches and hands the batches to a JobRunner ('predict-chunk' task, at most `threads` at once, one batch read
-// ahead). The runner keeps its workers between batches, so loading the code and the model is paid once per
-// thread, not once per batch, and batches can be short (about `batchSeconds`, 5 s) for frequent progress.
+// ahead). The runner keeps its workers between batches, so loading the code is paid once per thread, not once
+// per batch, and batches can be short (about `batchSeconds`, 5 s) for frequent progress. The model is read once,
+// in the main thread, and the workers read its arrays from shared memory (shared-model.ts).
 // Results are appended to OUT.partial strictly in frame order. After each batch the partial file is fsynced
 // and OUT.checkpoint.json is written atomically with the model checksum, the input file's size and mtime, the
 // selection, the frames done, the bytes of OUT.partial that hold them and the input position (byte offset,
@@ -25,6 +26,7 @@ import { predictionCsvHeader, selectionText, shardStampText, type Identity, type
 import type { PredictFormat } from './predict-frame.ts';
 import type { PredictChunkInput, PredictChunkOutput } from './predict-tasks.ts';
 import { csvLayoutOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
+import { sharedModel } from './shared-model.ts';
 import { JobRunner, type WorkerFactory } from '../../jobs/runner.ts';
 import { tsWorkerFactory } from '../../jobs/spawn-ts.ts';
 
@@ -280,6 +282,8 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       await writeCheckpoint(from);
     }
 
+    // the workers predict with this process's model (read once), its arrays shared, not with copies of their own
+    const shared = sharedModel(model);
     // 'predict-chunk' leaves only its model cache behind, keyed on path and checksum: safe to reuse workers
     runner = new JobRunner({
       spawn: opts.spawn ?? tsWorkerFactory(new URL('./predict-worker.ts', import.meta.url)),
@@ -342,7 +346,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     };
 
     const submit = (frames: PredictChunkInput['frames'], next: SlicePosition) => {
-      const input: PredictChunkInput = { modelPath: resolve(opts.modelPath), modelSha256, file: opts.input, format, stamp, frames, csvOptions };
+      const input: PredictChunkInput = { modelPath: resolve(opts.modelPath), modelSha256, model: shared, file: opts.input, format, stamp, frames, csvOptions };
       const promise = (runner as JobRunner).run<PredictChunkOutput>('predict-chunk', input, { signal });
       promise.catch(() => undefined); // awaited in order by drainOne
       inFlight.set(seq++, { promise, next, frames: frames.length });

@@ -19,3 +19,13 @@ export function withError(v: number, sd: number | null | undefined, fallbackDigi
   const places = Math.min(d, 15);
   return `${v.toFixed(places)} ± ${(sd as number).toFixed(places)}`;
 }
+
+/**
+ * A value without its own error bar written to the decimal places of another's, e.g. a reference beside a
+ * prediction: (2.21417, 0.019) → "2.214". Without a usable error bar, `fallbackDigits` significant digits.
+ */
+export function atPlacesOf(v: number, sd: number | null | undefined, fallbackDigits = 5): string {
+  if (!Number.isFinite(v)) return '—';
+  const d = sd === null || sd === undefined ? NaN : decimalsFor(sd);
+  return Number.isFinite(d) ? v.toFixed(Math.min(d, 15)) : String(Number(v.toPrecision(fallbackDigits)));
+}

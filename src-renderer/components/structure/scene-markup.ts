@@ -34,6 +34,8 @@ export interface SceneStyle {
   ringColour: (bin: number) => string;
   edge: string;
   warn: string;
+  /** Background colour, for the halo under a ring. */
+  halo: string;
 }
 
 /** A species name made safe for an id or attribute (letters and digits only). */
@@ -55,7 +57,9 @@ export function sceneMarkup(items: readonly SceneItem[], style: SceneStyle): str
       );
     } else if (it.kind === 'mark') {
       out.push(
-        `<circle cx="${f(it.x)}" cy="${f(it.y)}" r="${f(it.r)}" fill="none" stroke="${style.warn}" stroke-width="2.2" stroke-dasharray="5 3"${it.faded ? ' opacity="0.35"' : ''} pointer-events="none" data-mark="outside:${it.index}"/>`,
+        // a light halo under the ring keeps it readable over dark ellipsoids; solid, unlike the dashed outline of a negative principal value
+        `<circle cx="${f(it.x)}" cy="${f(it.y)}" r="${f(it.r)}" fill="none" stroke="${style.halo}" stroke-width="4.4" stroke-opacity="0.85"${it.faded ? ' opacity="0.35"' : ''} pointer-events="none"/>` +
+          `<circle cx="${f(it.x)}" cy="${f(it.y)}" r="${f(it.r)}" fill="none" stroke="${style.warn}" stroke-width="2.2"${it.faded ? ' opacity="0.35"' : ''} pointer-events="none" data-mark="outside:${it.index}"/>`,
       );
     } else if (it.kind === 'atom') {
       out.push(

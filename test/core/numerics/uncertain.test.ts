@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { decimalsFor, withError } from '../../../src-main/core/numerics/uncertain.ts';
+import { atPlacesOf, decimalsFor, withError } from '../../../src-main/core/numerics/uncertain.ts';
 
 // Two significant digits on the error bar and the value to the same place: common practice, no source.
 describe('values with error bars', () => {
@@ -19,5 +19,11 @@ describe('values with error bars', () => {
     expect(withError(1.5473217, 0)).toBe('1.5473 ± —');
     expect(withError(1.5473217, NaN)).toBe('1.5473 ± —');
     expect(withError(NaN, 0.1)).toBe('—');
+  });
+
+  it('writes a value without an error bar to the places of another’s', () => {
+    expect(atPlacesOf(2.214172, 0.019)).toBe('2.214');
+    expect(atPlacesOf(0.15, 0.018)).toBe('0.150');
+    expect(atPlacesOf(2.214172, null)).toBe('2.2142');
   });
 });
