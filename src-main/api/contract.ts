@@ -311,7 +311,7 @@ const finite = z.number().finite();
 /** Uploaded text or base64: no longer than a request the host reads (core/limits.ts). */
 const MAX_TEXT = MAX_REQUEST_BYTES;
 
-export const tensorKindSchema = z.enum(['eps', 'alpha-c', 'alpha-cm', 'alpha-mol']);
+export const tensorKindSchema = z.enum(['eps', 'alpha-c', 'alpha-cm']);
 export const routeSchema = z.enum(['cm', 'direct']);
 
 /** One zod field per row of the settings table (core/settings-table.ts): the same limits as the CLI and the engine. */
