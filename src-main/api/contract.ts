@@ -99,6 +99,8 @@ export interface TrainRequestJ {
   kind: TensorKindJ;
   route: RouteJ;
   settings?: Partial<ModelSettingsJ>;
+  /** Train even when the values look unlike `kind` (the kind guard, core/learning/kind-check.ts). */
+  trustKind?: boolean;
 }
 
 export interface ModelSummary {
@@ -308,6 +310,7 @@ export const trainRequestSchema = z
     kind: tensorKindSchema,
     route: routeSchema,
     settings: modelSettingsSchema.partial().optional(),
+    trustKind: z.boolean().optional(),
   })
   .strict()
   .superRefine((r, ctx) => {

@@ -19,6 +19,7 @@ import type { Progress } from '../core/learning/model-types.ts';
 export const targetOptions: OptionSpec[] = [
   { name: 'tensor', value: 'KEY', help: 'per-frame property holding the reference tensor (9 or 6 numbers; 3 for a dipole, 1 for a scalar)' },
   { name: 'as', value: 'eps|alpha-c|alpha-cm', help: 'what the tensor is: optical dielectric tensor, conducting-boundary or Clausius–Mossotti cell polarisability (Å³)' },
+  { name: 'trust-kind', flag: true, help: 'go on even when the values look unlike --as (ε∞ outside 1–20, α outside 0.1–100 Å³ per atom)' },
 ];
 
 /** The model-setting options, one per row of the settings table (core/settings-table.ts). */
@@ -96,7 +97,7 @@ export function parseRequest(args: ParsedArgs, route: Route, shape: TargetShape 
   const key = args.options.tensor;
   if (!key) throw new UsageError('name the reference property with --tensor KEY');
   const kind: TensorKind = shape === 'tensor' || args.options.as !== undefined ? parseKind(args) : 'alpha-cm';
-  return { tensorKey: key, kind, route, settings: parseSettings(args) };
+  return { tensorKey: key, kind, route, settings: parseSettings(args), ...(args.flags['trust-kind'] ? { trustKind: true } : {}) };
 }
 
 /**

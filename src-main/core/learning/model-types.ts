@@ -22,6 +22,8 @@ export interface TrainRequest {
   settings?: Partial<ModelSettings>;
   /** Candidate values to choose by cross-validation on the training frames (each list tried in every combination). */
   tune?: TuneGrid;
+  /** Train even when the reference values look unlike `kind` (core/learning/kind-check.ts); off by default. */
+  trustKind?: boolean;
 }
 
 /** Settings to choose by cross-validation (on request: each combination costs one training). */

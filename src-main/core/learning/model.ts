@@ -54,6 +54,7 @@ import {
   type TargetShape,
 } from './targets.ts';
 import { fromIrreducible, tensorFromValues, toIrreducible } from '../dielectric/tensor.ts';
+import { checkTensorKind } from './kind-check.ts';
 import { computeReadout, makeWeightMatrices, weightMatricesLength, type TensorReadout } from './tensor-readout.ts';
 import { cellVolume } from '../geometry/cell.ts';
 import { propagateErrorBars } from '../dielectric/clausius-mossotti.ts';
@@ -231,7 +232,9 @@ export function learntTargets(frames: Frame[], request: TrainRequest): TargetRow
     volumes[f] = frame.cell ? cellVolume(frame.cell, whereOf(frame, f)) : 0;
     if (shape === 'tensor') {
       const v = frameVolume(frame, f);
-      const t = learntTensor(readTensorValues(raw, frame, f), request.kind, request.route, v);
+      const given = readTensorValues(raw, frame, f);
+      if (!request.trustKind) checkTensorKind(given, request.kind, frame.species.length, request.tensorKey, whereOf(frame, f));
+      const t = learntTensor(given, request.kind, request.route, v);
       values.set(toIrreducible(t), f * 6);
     } else if (shape === 'vector') values.set(vectorToSpherical(raw), f * 3);
     else values[f] = raw[0];

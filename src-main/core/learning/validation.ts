@@ -25,6 +25,7 @@ import { toIrreducible } from '../dielectric/tensor.ts';
 
 export { errorFigures } from './error-figures.ts';
 import { errorFigures } from './error-figures.ts';
+import { checkTensorKind } from './kind-check.ts';
 
 /** A second comparison reported beside the main one (e.g. α_CM when the main one is ε). */
 export interface SecondaryComparison {
@@ -151,6 +152,7 @@ export async function validate(
   const refLearnt: Float64Array[] = [];
   frames.forEach((f, i) => {
     const t = readTensor(f, request.tensorKey, i);
+    if (!request.trustKind) checkTensorKind(t, request.kind, f.species.length, request.tensorKey, whereOf(f, i));
     const v = frameVolume(f, i);
     refLearnt.push(toIrreducible(learntTensor(t, request.kind, request.route, v)));
     refEps.push(toIrreducible(convertTensor(t, request.kind, 'eps', v)));
