@@ -121,6 +121,11 @@ describe('app service', () => {
     expect(body(csv.text)).toEqual(body(cliText));
     expect(comments(csv.text)).toEqual(comments(cliText));
     expect(body(csv.text).length).toBe(1 + 8 + 1);
+    // both carry the frames' reference (the file's eps_inf, from the DFT code) and the difference
+    const header = body(csv.text)[0].split(',');
+    const row0 = body(csv.text)[1].split(',');
+    expect(header).toEqual(expect.arrayContaining(['eps_ref_xx', 'eps_ref_iso', 'eps_iso_diff', 'eps_aniso_diff']));
+    expect(Number(row0[header.indexOf('eps_ref_xx')])).toBeCloseTo(1.5487774, 7);
   });
 
   it('refuses a tensor key the frames do not have, naming the choices', async () => {

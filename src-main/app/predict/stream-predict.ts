@@ -23,7 +23,7 @@ import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import type { PredictFormat } from './predict-frame.ts';
 import type { PredictChunkInput, PredictChunkOutput } from './predict-tasks.ts';
-import { csvLayoutOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
+import { csvLayoutOf, firstFrameOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
 import { JobRunner, type WorkerFactory } from '../../jobs/runner.ts';
 import { tsWorkerFactory } from '../../jobs/spawn-ts.ts';
 
@@ -189,7 +189,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   const loaded = opts.model ?? (await loadModelFile(opts.modelPath, opts.modelLabel ?? opts.modelPath));
   const { model, sha256: modelSha256 } = loaded;
   predictOutputFormat(opts.output, model);
-  const csvOptions = opts.csvOptions ?? csvLayoutOf(loaded);
+  const csvOptions = opts.csvOptions ?? (format === 'csv' ? csvLayoutOf(loaded, await firstFrameOf(opts.input, opts.range, signal)) : undefined);
 
   let stat;
   try {
