@@ -154,6 +154,8 @@ export interface PredictionSummary {
   framesOutside: number;
   /** Mean ε, principal n and Δn with model error bars, beside the references (core/learning/set-summary.ts). */
   summary?: SetSummary;
+  /** The columns of this prediction's CSV export, in order (the layout of `polarweave predict`). */
+  csvColumns?: string[];
 }
 
 /** One frame's prediction with per-atom detail (for the ellipsoid view). */
@@ -249,7 +251,8 @@ export interface AppState {
   defaultSettings: ModelSettingsJ;
   datasets: DatasetSummary[];
   models: ModelSummary[];
-  predictions: { id: string; modelId: string; datasetId: string; datasetName: string; frames: number; framesOutside: number }[];
+  /** csvColumns: the header of the prediction's CSV export (empty for a prediction opened from an older project). */
+  predictions: { id: string; modelId: string; datasetId: string; datasetName: string; frames: number; framesOutside: number; csvColumns: string[] }[];
   jobs: { id: string; kind: JobKind; state: JobStateJ }[];
 }
 

@@ -34,7 +34,7 @@ import { summariseDataset } from './dataset-summary.ts';
 import { PathAccess } from './path-access.ts';
 import { frameView, predictionFromJ, predictionJ, trajectoryStatsJ } from './frame-json.ts';
 import type { FramePrediction } from '../core/learning/model-types.ts';
-import { predictionsCsv } from './export-csv.ts';
+import { predictionsCsv, predictionsCsvColumns } from './export-csv.ts';
 import { PROJECT_FORMAT, PROJECT_VERSION, parseProject, type ProjectFile, type ProjectDataset } from './project-file.ts';
 import { collectedFrames, collectTexts } from './collect-references.ts';
 import { formatExtxyzFrame } from '../io/extxyz.ts';
@@ -227,6 +227,7 @@ export class AppService implements ApiService {
         datasetName: p.summary.datasetName,
         frames: p.summary.frames.length,
         framesOutside: p.summary.framesOutside,
+        csvColumns: p.summary.csvColumns ?? [],
       })),
       jobs: [...this.jobs.values()].map((j) => ({ id: j.id, kind: j.kind, state: j.handle.state() })),
     };
@@ -327,6 +328,7 @@ export class AppService implements ApiService {
           frames,
           framesOutside: frames.filter((f) => f.applicability.outside).length,
           summary: frames.length ? setSummary(frames.map((f) => ({ eps: f.eps, errorBars: f.errorBars, reference: f.reference, outside: f.applicability.outside }))) : undefined,
+          csvColumns: predictionsCsvColumns(out.frameIndices, d.frames, m.model as Model),
         };
         this.predictions.set(pid, { summary, route: m.summary.request.route, typed: out.predictions, frameIndices: out.frameIndices });
         return { kind: 'predict', prediction: summary };

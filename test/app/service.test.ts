@@ -126,6 +126,9 @@ describe('app service', () => {
     const row0 = body(csv.text)[1].split(',');
     expect(header).toEqual(expect.arrayContaining(['eps_ref_xx', 'eps_ref_iso', 'eps_iso_diff', 'eps_aniso_diff']));
     expect(Number(row0[header.indexOf('eps_ref_xx')])).toBeCloseTo(1.5487774, 7);
+    // the Export view describes the file from the columns the export writes
+    expect(pred.csvColumns).toEqual(header);
+    expect((await service.getState()).predictions.find((x) => x.id === pred.id)!.csvColumns).toEqual(header);
   });
 
   it('refuses a tensor key the frames do not have, naming the choices', async () => {
