@@ -20,6 +20,7 @@ function reportJson(r: ValidationReport, frameIndices: number[]): ValidationRepo
     target: r.target,
     folds: r.folds,
     errors: { ...r.errors },
+    statePoints: r.statePoints ?? null,
     // validate() numbers frames within the list it was given; the window wants dataset indices.
     points: r.points.map((p) => ({ ...p, frame: frameIndices[p.frame] ?? p.frame, reference: [...p.reference], predicted: [...p.predicted] })),
     learningCurve: r.learningCurve.map((c) => ({ trainSize: c.trainSize, errors: { ...c.errors } })),

@@ -2,6 +2,7 @@
 // for, and what validation reports. The engine (model.ts and friends) implements them; the CLI, the jobs, the
 // browser host and the window speak only these types. Extend, do not break.
 import type { Mat3 } from '../geometry/frame.ts';
+import type { StatePointErrors } from './state-points.ts';
 
 /** What a tensor in a file is: the optical dielectric tensor, or a cell polarisability (Å³). */
 export type TensorKind = 'eps' | 'alpha-c' | 'alpha-cm';
@@ -136,6 +137,8 @@ export interface ValidationReport {
   target: string;
   folds: number;
   errors: ErrorFigures;
+  /** Errors within and per state point, when the frames come from several (core/learning/state-points.ts); lead with `within`. */
+  statePoints?: StatePointErrors | null;
   points: ParityPoint[];
   /** Learning curve: training-set size → held-out errors. */
   learningCurve: { trainSize: number; errors: ErrorFigures }[];

@@ -26,6 +26,7 @@ import { toIrreducible } from '../dielectric/tensor.ts';
 export { errorFigures } from './error-figures.ts';
 import { errorFigures } from './error-figures.ts';
 import { checkTensorKind } from './kind-check.ts';
+import { statePointErrors, statePointsOf } from './state-points.ts';
 
 /** A second comparison reported beside the main one (e.g. α_CM when the main one is ε). */
 export interface SecondaryComparison {
@@ -186,6 +187,10 @@ export async function validate(
   const errorsOf = (ref: Float64Array[], pred: Float64Array[], idx: number[]) =>
     errorFigures(idx.map((i) => ref[i]), idx.map((i) => pred[i]));
 
+  // state points (a state_point property, or density clusters): errors within and per state point
+  const groups = statePointsOf(frames, frames.map((f, i) => frameVolume(f, i)));
+  const statePoints = groups ? statePointErrors(main.tested.map((i) => refEps[i]), main.tested.map((i) => main.pe[i]), groups, main.tested.map((i) => groups.labels[i])) : null;
+
   const learningCurve: ValidationReport['learningCurve'] = [];
   for (const size of usable) {
     const r = await runFolds(size);
@@ -196,6 +201,7 @@ export async function validate(
     target: 'eps',
     folds: k,
     errors: errorsOf(refEps, main.pe, main.tested),
+    statePoints,
     points: pointsOf(refEps, main.pe),
     learningCurve,
     alsoOn: [{ target: 'alpha-cm (Å³)', errors: errorsOf(refCM, main.pc, main.tested), points: pointsOf(refCM, main.pc) }],
