@@ -115,6 +115,8 @@ export interface ModelSummary {
   report: ValidationReportJ | null;
   /** Errors on the frames held out of training (null when none were held out). */
   test: ValidationReportJ | null;
+  /** The model's own notes and warnings (e.g. a regulariser at the edge of its range), as `polarweave train` prints them. */
+  notes?: string[];
 }
 
 export interface ApplicabilityJ {

@@ -398,12 +398,13 @@ export class AppService implements ApiService {
     info: Pick<ModelSummary, 'name' | 'request' | 'trainedOn' | 'report' | 'test'>,
   ): ModelSummary {
     const id = this.nextId('m');
-    const m = model as { settings?: ModelSummary['settings']; species?: string[] } | null;
+    const m = model as { settings?: ModelSummary['settings']; species?: string[]; notes?: unknown } | null;
     const summary: ModelSummary = {
       id,
       ...info,
       settings: m?.settings && typeof m.settings === 'object' ? { ...m.settings } : null,
       species: Array.isArray(m?.species) ? [...m.species] : [],
+      notes: Array.isArray(m?.notes) ? m.notes.filter((n): n is string => typeof n === 'string') : [],
     };
     this.models.set(id, { summary, model });
     return summary;

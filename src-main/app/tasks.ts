@@ -13,6 +13,7 @@ import { errorFigures, validate } from '../core/learning/validation.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './task-types.ts';
 import type { TaskContext, TaskRegistry } from '../jobs/task.ts';
 import { loadedModel, predictFrames, type PredictSink } from './predict/prediction.ts';
+import { CURVE_REPEATS } from '../core/learning/curve-splits.ts';
 
 function reportJson(r: ValidationReport, frameIndices: number[]): ValidationReportJ {
   return {
@@ -23,7 +24,8 @@ function reportJson(r: ValidationReport, frameIndices: number[]): ValidationRepo
     statePoints: r.statePoints ?? null,
     // validate() numbers frames within the list it was given; the window wants dataset indices.
     points: r.points.map((p) => ({ ...p, frame: frameIndices[p.frame] ?? p.frame, reference: [...p.reference], predicted: [...p.predicted] })),
-    learningCurve: r.learningCurve.map((c) => ({ trainSize: c.trainSize, errors: { ...c.errors } })),
+    learningCurve: r.learningCurve.map((c) => ({ ...c, errors: { ...c.errors }, ...(c.spread ? { spread: { ...c.spread } } : {}) })),
+    curveTrend: r.curveTrend ?? null,
   };
 }
 
@@ -49,7 +51,7 @@ function referenceEps(frame: Frame, index: number, key: string, kind: PredictTas
 async function train(input: TrainTaskInput, ctx: TaskContext): Promise<TrainTaskOutput> {
   const extra = 1 + (input.testFrames.length ? 1 : 0);
   const report = await crossValidate(input, ctx, extra);
-  const cvSteps = input.folds * (1 + input.learningCurve.length);
+  const cvSteps = input.folds * (1 + input.learningCurve.length * CURVE_REPEATS);
   ctx.progress({ stage: 'training the final model on all training frames', done: cvSteps, total: cvSteps + extra });
   const model = await trainModel(input.frames, input.request as TrainRequest, { signal: ctx.signal });
   let test: ValidationReportJ | null = null;

@@ -82,7 +82,9 @@ describe('polarweave train / predict / validate', () => {
     expect(v.out).toMatch(/route direct:/);
     expect(v.out).toMatch(/isotropic \(tr\/3\): +RMSE [0-9.e-]+ +[0-9.]+ % of the spread/);
     expect(v.out).toMatch(/anisotropic \(anisotropy\): RMSE [0-9.e-]+ +[0-9.]+ % of the spread/);
-    expect(v.out).toMatch(/verdict \(rule of thumb, on ε\): (good|usable|poor)/);
+    expect(v.out).toMatch(/verdict \(rule of thumb, on ε over all frames\): (good|usable|poor)/);
+    expect(v.out).toMatch(/learning curve, 3 training frames \(mean ± spread of 3 random splits\)/);
+    expect(v.out).toMatch(/learning curve: (Still falling|Flat|Not falling|Too few)/);
     expect(v.out).toMatch(/learning curve, 3 training frames/);
     expect(v.out).toMatch(/sizes skipped.*20/);
     expect(v.out).toMatch(/comparison on ε: route (cm|direct)/);

@@ -76,8 +76,11 @@ export const validateCommand: Command = {
       io.out(`  on ε${report.statePoints ? ', over all frames (the spread includes the differences between state points)' : ''}:\n${indent(formatErrors(report.errors, ''), 4)}\n`);
       for (const o of report.alsoOn) io.out(`  on ${o.target}:\n${indent(formatErrors(o.errors, ' Å³'), 4)}\n`);
       for (const lc of report.learningCurve) {
-        io.out(`  learning curve, ${lc.trainSize} training frames: error of ε, isotropic ${fmtPct(lc.errors.percentIso)}, anisotropic ${fmtPct(lc.errors.percentAniso)} of the spread\n`);
+        const pm = (m: number, sd: number | undefined) => (sd !== undefined && lc.repeats && lc.repeats > 1 ? `${fmtPct(m).replace(' %', '')} ± ${fmtPct(sd)}` : fmtPct(m));
+        const splits = lc.repeats && lc.repeats > 1 ? ` (mean ± spread of ${lc.repeats} random splits)` : '';
+        io.out(`  learning curve, ${lc.trainSize} training frames${splits}: error of ε, isotropic ${pm(lc.errors.percentIso, lc.spread?.percentIso)}, anisotropic ${pm(lc.errors.percentAniso, lc.spread?.percentAniso)} of the spread\n`);
       }
+      if (report.curveTrend) io.out(`  learning curve: ${report.curveTrend}\n`);
       if (report.skippedSizes.length) io.out(`  learning-curve sizes skipped (more than the training folds hold): ${report.skippedSizes.join(', ')}\n`);
       const head = headlineErrors(report);
       io.out(`  verdict (rule of thumb, on ε ${head.what}): ${verdict(head.errors)}\n`);

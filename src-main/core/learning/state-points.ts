@@ -9,7 +9,9 @@
 // density (an NVT or NPT run of one state point fluctuates far less; common practice, no source).
 // Pure and browser-safe.
 import { errorFigures } from './error-figures.ts';
-import type { ErrorFigures } from './model-types.ts';
+import type { ErrorFigures, StatePointErrors } from './model-types.ts';
+
+export type { StatePointErrors };
 
 /** The per-frame property naming a frame's state point. */
 export const STATE_POINT_KEY = 'state_point';
@@ -76,14 +78,6 @@ function usable(labels: string[]): boolean {
   return counts.size >= 2 && [...counts.values()].every((c) => c >= 2);
 }
 
-export interface StatePointErrors {
-  source: StatePoints['source'];
-  what: string;
-  /** Errors relative to the pooled spread within the state points: the headline figure. */
-  within: ErrorFigures;
-  /** Per state point, errors relative to that state point's own spread. */
-  groups: { label: string; errors: ErrorFigures }[];
-}
 
 /**
  * Errors within and per state point of paired irreducible 6-vectors (one pair a frame; `labels` per pair).

@@ -27,6 +27,7 @@ export { errorFigures } from './error-figures.ts';
 import { errorFigures } from './error-figures.ts';
 import { checkTensorKind } from './kind-check.ts';
 import { statePointErrors, statePointsOf } from './state-points.ts';
+import { CURVE_REPEATS, curveTrend, meanOfRepeats } from './curve-splits.ts';
 
 /** A second comparison reported beside the main one (e.g. α_CM when the main one is ε). */
 export interface SecondaryComparison {
@@ -38,6 +39,8 @@ export interface SecondaryComparison {
 export interface ValidationOptions {
   folds: number;
   learningCurve?: number[];
+  /** Random subsets drawn at each learning-curve size (tensor targets; default CURVE_REPEATS). */
+  curveRepeats?: number;
 }
 
 /** Cache features of all frames when they fit comfortably in memory; else compute them on every use. */
@@ -76,10 +79,13 @@ interface FoldPlan {
   testIndices: (f: number) => number[];
   usable: number[];
   skippedSizes: number[];
+  repeats: number;
   steps: number;
+  /** The training frames of fold f for a learning-curve point: `size` of them, a different random subset per repeat. */
+  subset: (train: number[], size: number, repeat: number) => number[];
 }
 
-function planFolds(n: number, k: number, seed: number, learningCurve: number[] | undefined): FoldPlan {
+function planFolds(n: number, k: number, seed: number, learningCurve: number[] | undefined, repeats = 1): FoldPlan {
   const rng = makeRng(seed + 7919);
   const perm = Int32Array.from({ length: n }, (_, i) => i);
   for (let i = n - 1; i > 0; i--) {
@@ -93,7 +99,17 @@ function planFolds(n: number, k: number, seed: number, learningCurve: number[] |
   const minTrain = Math.min(...Array.from({ length: k }, (_, f) => trainIndices(f).length));
   const usable = sizes.filter((s) => Number.isInteger(s) && s >= 1 && s <= minTrain);
   const skippedSizes = sizes.filter((s) => !usable.includes(s));
-  return { k, trainIndices, testIndices, usable, skippedSizes, steps: k * (1 + usable.length) };
+  const subset = (train: number[], size: number, repeat: number) => {
+    if (repeat === 0) return train.slice(0, size);
+    const r = makeRng(seed + 104729 * repeat + size);
+    const t = [...train];
+    for (let i = t.length - 1; i > 0; i--) {
+      const j = r.int(i + 1);
+      [t[i], t[j]] = [t[j], t[i]];
+    }
+    return t.slice(0, size);
+  };
+  return { k, trainIndices, testIndices, usable, skippedSizes, repeats, steps: k * (1 + usable.length * repeats), subset };
 }
 
 /**
@@ -109,13 +125,14 @@ async function runFoldsOf(
   species: string[],
   hooks: WorkHooks,
   predict: (model: Model, frame: number) => void,
+  repeat = 0,
 ): Promise<number[]> {
   const tested: number[] = [];
-  const done = size === null ? 0 : (1 + plan.usable.indexOf(size)) * plan.k;
+  const done = size === null ? 0 : (1 + plan.usable.indexOf(size) * plan.repeats + repeat) * plan.k;
   for (let f = 0; f < plan.k; f++) {
     if (hooks.signal?.aborted) throw new CancelledError();
     let train = plan.trainIndices(f);
-    if (size !== null) train = train.slice(0, size);
+    if (size !== null) train = plan.subset(train, size, repeat);
     const trainFrames = train.map((i) => frames[i]);
     const local: Featuriser = (frame, idx) => featurise(frame, train[idx]);
     const model = await trainWithFeaturiser(trainFrames, request, local, { signal: hooks.signal }, { applicability: false, species, createdAt: 'validation' });
@@ -123,7 +140,7 @@ async function runFoldsOf(
       predict(model, i);
       tested.push(i);
     }
-    hooks.onProgress?.({ stage: size === null ? `fold ${f + 1}/${plan.k}` : `learning curve, ${size} frames`, done: done + f + 1, total: plan.steps });
+    hooks.onProgress?.({ stage: size === null ? `fold ${f + 1}/${plan.k}` : `learning curve, ${size} frames${plan.repeats > 1 ? `, split ${repeat + 1}/${plan.repeats}` : ''}`, done: done + f + 1, total: plan.steps });
   }
   return tested.sort((a, b) => a - b);
 }
@@ -160,9 +177,9 @@ export async function validate(
     refCM.push(toIrreducible(convertTensor(t, request.kind, 'alpha-cm', v)));
   });
 
-  const plan = planFolds(n, k, settings.seed, options.learningCurve);
+  const plan = planFolds(n, k, settings.seed, options.learningCurve, Math.max(1, Math.round(options.curveRepeats ?? CURVE_REPEATS)));
   const { usable, skippedSizes } = plan;
-  const runFolds = async (size: number | null) => {
+  const runFolds = async (size: number | null, repeat = 0) => {
     const pe: Float64Array[] = new Array(n);
     const pc: Float64Array[] = new Array(n);
     const z = new ZCollector([{ order: 0, offset: 0 }, { order: 2, offset: 1 }]);
@@ -173,7 +190,7 @@ export async function validate(
       pc[i] = toIrreducible(fp.alphaCM);
       const S3 = Math.sqrt(3);
       z.add(refLearnt[i], pred.irreducible, pred.uncertainty?.sd ?? null, fp.errorBars ? { reference: refEps[i][0] / S3, predicted: pe[i][0] / S3, sd: fp.errorBars.epsIso } : undefined);
-    });
+    }, repeat);
     return { tested, pe, pc, errorBars: z.result() };
   };
 
@@ -193,9 +210,14 @@ export async function validate(
 
   const learningCurve: ValidationReport['learningCurve'] = [];
   for (const size of usable) {
-    const r = await runFolds(size);
-    learningCurve.push({ trainSize: size, errors: errorsOf(refEps, r.pe, r.tested) });
+    const repeats: ErrorFigures[] = [];
+    for (let r = 0; r < plan.repeats; r++) {
+      const run = await runFolds(size, r);
+      repeats.push(errorsOf(refEps, run.pe, run.tested));
+    }
+    learningCurve.push(meanOfRepeats(size, repeats));
   }
+  const full = { trainSize: Math.min(...Array.from({ length: k }, (_, f) => plan.trainIndices(f).length)), errors: errorsOf(refEps, main.pe, main.tested) };
   return {
     route: request.route,
     target: 'eps',
@@ -204,6 +226,7 @@ export async function validate(
     statePoints,
     points: pointsOf(refEps, main.pe),
     learningCurve,
+    curveTrend: learningCurve.length ? curveTrend(learningCurve, full).text : null,
     alsoOn: [{ target: 'alpha-cm (Å³)', errors: errorsOf(refCM, main.pc, main.tested), points: pointsOf(refCM, main.pc) }],
     skippedSizes,
     errorBars: main.errorBars,
