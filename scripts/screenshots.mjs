@@ -102,6 +102,12 @@ try {
   await idle();
   await shot('transfer');
 
+  // a crystal frame the liquid model flags: the atoms outside the training data ringed in the picture
+  await page.locator('[data-table=transfer] tbody tr.outside button.link').first().click();
+  await page.waitForSelector('[data-section=structure-picture] [data-mark^="outside:"]', { timeout: 60_000 });
+  await page.waitForTimeout(600);
+  await shot('structure-outside');
+
   await view('export');
   await shot('export');
 

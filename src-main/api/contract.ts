@@ -76,6 +76,7 @@ export interface FrameView {
   species: string[];
   /** 3 per atom, Å. */
   positions: number[];
+  /** Lattice vectors (rows, Å); null for a frame without periodicity (an isolated molecule or cluster): no cell box is drawn. */
   cell: Mat3J | null;
   pbc: [boolean, boolean, boolean];
   volumeA3: number | null;
@@ -168,6 +169,13 @@ export interface FrameDetail {
   local: number[];
   /** Per atom: distance to the nearest training environment. */
   atomDistance: number[];
+  /**
+   * Per atom: domain score u (0 at the training median, 1 at the training's extreme in its worst check: feature
+   * distance, neighbour distances, neighbour count, density scale), or empty when not known.
+   */
+  atomScore: number[];
+  /** Per atom: outside the training data (u > 1; the rule that counts atomsOutside). */
+  atomOutside: boolean[];
   route: RouteJ;
   /** Molecule index of each atom (covalent bonds), or null when molecules cannot be found. */
   molecules: number[] | null;
@@ -217,7 +225,7 @@ export interface TrajectoryStats {
 // ---------------------------------------------------------------------------------------------------------
 // Jobs
 
-export type JobKind = 'train' | 'validate' | 'predict';
+export type JobKind = 'train' | 'validate' | 'predict' | 'select';
 export type JobStateJ = 'queued' | 'running' | 'done' | 'failed' | 'cancelled';
 
 export interface JobEvent {
@@ -235,7 +243,25 @@ export interface JobEvent {
 export type JobResult =
   | { kind: 'train'; model: ModelSummary }
   | { kind: 'validate'; report: ValidationReportJ }
-  | { kind: 'predict'; prediction: PredictionSummary };
+  | { kind: 'predict'; prediction: PredictionSummary }
+  | { kind: 'select'; selection: SelectionReport };
+
+/** What the "choose frames for DFT" job found (app/select-frames.ts, the use case of `polarweave select`). */
+export interface SelectionReport {
+  datasetId: string;
+  datasetName: string;
+  by: 'diversity' | 'error' | 'domain';
+  /** The report in lines, as `polarweave select` prints it. */
+  lines: string[];
+  /** In frame order; scores are model estimates (null when chosen by diversity). */
+  chosen: { frame: number; timeFs: number | null; score: number | null; distance: number | null; order: number }[];
+  /** The chosen frames opened as a new dataset (null when none was chosen). */
+  dataset: DatasetSummary | null;
+  /** The extended XYZ text `polarweave select` writes. */
+  file: FileOut;
+  /** The filled DFT inputs, one per chosen frame, when a template was given. */
+  inputs: FileOut[];
+}
 
 export interface JobStatus {
   id: string;
@@ -347,10 +373,29 @@ export const predictParamsSchema = z
   .object({ modelId: id, datasetId: id, frames: frameList.optional() })
   .strict();
 
+/** Choose frames for DFT: the most diverse, or with a model the largest error bars / domain scores. */
+export const selectParamsSchema = z
+  .object({
+    datasetId: id,
+    count: z.number().int().min(1).max(10000),
+    stride: z.number().int().min(1).max(1_000_000).default(1),
+    minGapFs: z.number().min(0).max(1e12).default(0),
+    timeStepFs: z.number().positive().max(1e9).optional(),
+    modelId: id.optional(),
+    by: z.enum(['error', 'domain']).default('error'),
+    /** A dataset of frames already computed (e.g. the training set). */
+    knownDatasetId: id.optional(),
+    duplicate: z.number().min(0).max(10).optional(),
+    /** A DFT input with placeholders (docs/file-formats.md), as text. */
+    template: z.object({ name: z.string().min(1).max(500), text: z.string().max(1 << 20) }).strict().optional(),
+  })
+  .strict();
+
 export const startJobSchema = z.discriminatedUnion('kind', [
   z.object({ kind: z.literal('train'), params: trainParamsSchema }).strict(),
   z.object({ kind: z.literal('validate'), params: validateParamsSchema }).strict(),
   z.object({ kind: z.literal('predict'), params: predictParamsSchema }).strict(),
+  z.object({ kind: z.literal('select'), params: selectParamsSchema }).strict(),
 ]);
 
 export const openStructuresSchema = z.union([

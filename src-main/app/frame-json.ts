@@ -7,6 +7,7 @@ import { cellVolume } from '../core/geometry/cell.ts';
 import type { Frame, Mat3 } from '../core/geometry/frame.ts';
 import type { FramePrediction } from '../core/learning/model-types.ts';
 import { refractiveIndices } from '../core/dielectric/clausius-mossotti.ts';
+import { isIsolated } from '../core/learning/targets.ts';
 
 export function matJ(m: ArrayLike<number>): Mat3J {
   return Array.from(m);
@@ -23,7 +24,9 @@ export function frameView(datasetId: string, index: number, frame: Frame): Frame
     index,
     species: [...frame.species],
     positions: Array.from(frame.positions),
-    cell: frame.cell ? matJ(frame.cell) : null,
+    // a frame without periodicity (an isolated molecule or cluster, even with a Lattice drawn around it) has no
+    // cell: the 3D view draws no cell box and finds no bonds through periodic images
+    cell: frame.cell && !isIsolated(frame) ? matJ(frame.cell) : null,
     pbc: [...frame.pbc],
     volumeA3: frameVolume(frame),
     info: Object.fromEntries(Object.entries(frame.info).map(([k, v]) => [k, Array.isArray(v) ? [...v] : v])),
@@ -48,7 +51,7 @@ export function predictionJ(fp: FramePrediction, frame: number, reference: Mat3 
 }
 
 /** Back from the window's JSON (a saved project) to a typed prediction. */
-export function predictionFromJ(f: FramePredictionJ, local: number[], atomDistance: number[]): FramePrediction {
+export function predictionFromJ(f: FramePredictionJ, local: number[], atomDistance: number[], atomScore: number[] = []): FramePrediction {
   const a = f.applicability;
   return {
     volumeA3: f.volumeA3,
@@ -56,7 +59,7 @@ export function predictionFromJ(f: FramePredictionJ, local: number[], atomDistan
     alphaC: Float64Array.from(f.alphaC),
     eps: Float64Array.from(f.eps),
     local: Float64Array.from(local),
-    applicability: { atomDistance: Float64Array.from(atomDistance), maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, atomScore: new Float64Array(0), score: a.score ?? NaN, fractionOutside: a.fractionOutside ?? NaN, reasons: a.reasons ?? [] },
+    applicability: { atomDistance: Float64Array.from(atomDistance), maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, atomScore: Float64Array.from(atomScore), score: a.score ?? NaN, fractionOutside: a.fractionOutside ?? NaN, reasons: a.reasons ?? [] },
     errorBars: f.errorBars ?? null,
   };
 }

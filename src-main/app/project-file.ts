@@ -28,6 +28,8 @@ const projectSchema = z.object({
       route: z.enum(['cm', 'direct']),
       local: z.array(z.array(z.number())),
       atomDistance: z.array(z.array(z.number())),
+      /** Per-atom domain scores; absent in projects saved before they were kept. */
+      atomScore: z.array(z.array(z.number())).optional(),
     }),
   ),
   ui: z.record(z.string(), z.unknown()).optional(),

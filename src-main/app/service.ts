@@ -23,13 +23,16 @@ import type {
   TrajectoryStats,
   ValidationReportJ,
 } from '../api/contract.ts';
+import type { SelectionReport } from '../api/contract.ts';
 import { toApiError, ApiValidationError } from '../api/contract.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { DEFAULT_SETTINGS, type Model } from '../core/learning/model.ts';
 import { InputError, ModelError } from '../core/errors.ts';
 import { findMolecules } from '../core/geometry/molecules.ts';
+import { atomOutside } from '../core/learning/domain.ts';
 import type { JobHandle, JobRunner } from '../jobs/runner.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './task-types.ts';
+import type { SelectTaskInput, SelectTaskOutput } from './select-task.ts';
 import { summariseDataset } from './dataset-summary.ts';
 import { PathAccess } from './path-access.ts';
 import { frameView, predictionFromJ, predictionJ, trajectoryStatsJ } from './frame-json.ts';
@@ -106,6 +109,9 @@ interface JobRecord {
 }
 
 const MAX_EVENTS_PER_POLL = 500;
+
+type SelectParams = Extract<ApiParams<'startJob'>, { kind: 'select' }>['params'];
+type JobHooks = { onProgress: (p: { stage: string; done: number; total: number }) => void; onLog: (text: string) => void };
 
 export class AppService implements ApiService {
   private readonly datasets = new Map<string, DatasetRecord>();
@@ -304,6 +310,10 @@ export class AppService implements ApiService {
         record.handle = this.options.runner.start('validate', input, hooks);
         finish = (value) => ({ kind: 'validate', report: value as ValidationReportJ });
       }
+    } else if (params.kind === 'select') {
+      const started = this.startSelect(params.params, hooks);
+      record.handle = started.handle;
+      finish = started.finish;
     } else {
       const p = params.params;
       const m = this.modelRecord(p.modelId);
@@ -355,6 +365,41 @@ export class AppService implements ApiService {
       },
     );
     return { jobId: id };
+  }
+
+  /** "Choose frames for DFT": the select use case in a worker (select-task.ts), as `polarweave select` runs it. */
+  private startSelect(p: SelectParams, hooks: JobHooks): { handle: JobHandle<unknown>; finish: (value: unknown) => JobResult } {
+    const d = this.dataset(p.datasetId);
+    const m = p.modelId ? this.modelRecord(p.modelId) : null;
+    const known = p.knownDatasetId ? this.dataset(p.knownDatasetId).frames : [];
+    const input: SelectTaskInput = {
+      name: d.summary.name,
+      frames: d.frames,
+      request: { count: p.count, stride: p.stride, minGapFs: p.minGapFs, timeStepFs: p.timeStepFs, by: p.by, duplicate: p.duplicate },
+      model: m ? m.model : null,
+      modelName: m ? m.summary.name : '',
+      known,
+      template: p.template ?? null,
+    };
+    const handle = this.options.runner.start('select', input, hooks);
+    const finish = (value: unknown): JobResult => {
+      const out = value as SelectTaskOutput;
+      const name = `${this.options.readers.stem(d.summary.name)}-chosen.extxyz`;
+      const frames = out.text ? this.options.readers.parseText(out.text, name) : [];
+      const dataset = frames.length ? this.addDataset(name, frames, { kind: 'embedded', name, text: out.text }, 'upload') : null;
+      const selection: SelectionReport = {
+        datasetId: d.summary.id,
+        datasetName: d.summary.name,
+        by: out.result.by,
+        lines: out.lines,
+        chosen: out.result.chosen.map((c) => ({ ...c })),
+        dataset,
+        file: { fileName: name, mime: 'chemical/x-extxyz', text: out.text },
+        inputs: out.inputs.map((i) => ({ fileName: i.name, mime: 'text/plain', text: i.text })),
+      };
+      return { kind: 'select', selection };
+    };
+    return { handle, finish };
   }
 
   async jobStatus(params: ApiParams<'jobStatus'>): Promise<JobStatus> {
@@ -435,6 +480,11 @@ export class AppService implements ApiService {
       prediction: p.summary.frames[k],
       local: Array.from(p.typed[k].local),
       atomDistance: Array.from(p.typed[k].applicability.atomDistance),
+      atomScore: Array.from(p.typed[k].applicability.atomScore),
+      // projects saved before per-atom scores were kept: the feature distance over its threshold is that score's first check
+      atomOutside: p.typed[k].applicability.atomScore.length
+        ? Array.from(p.typed[k].applicability.atomScore, atomOutside)
+        : Array.from(p.typed[k].applicability.atomDistance, (d) => atomOutside(d / p.typed[k].applicability.threshold)),
       route: p.route,
     };
   }
@@ -498,6 +548,7 @@ export class AppService implements ApiService {
         route: p.route,
         local: p.typed.map((t) => Array.from(t.local)),
         atomDistance: p.typed.map((t) => Array.from(t.applicability.atomDistance)),
+        atomScore: p.typed.map((t) => Array.from(t.applicability.atomScore)),
       })),
       ui: params.ui ?? {},
     };
@@ -538,7 +589,7 @@ export class AppService implements ApiService {
       const datasetId = idMap.get(p.summary.datasetId);
       if (!modelId || !datasetId) continue; // its model or data did not come along
       const id = this.nextId('p');
-      const typed = p.summary.frames.map((f, k) => predictionFromJ(f, p.local[k], p.atomDistance[k]));
+      const typed = p.summary.frames.map((f, k) => predictionFromJ(f, p.local[k], p.atomDistance[k], p.atomScore?.[k]));
       predictions.set(id, { summary: { ...p.summary, id, modelId, datasetId }, route: p.route, typed, frameIndices: p.summary.frames.map((f) => f.frame) });
     }
     this.datasets.clear();

@@ -2,18 +2,17 @@
 // validate (cross-validation only) and predict (every frame, with applicability and the file's reference ε
 // where it has one). Results come back as plain JSON for the window (api/contract.ts shapes).
 import type { ValidationReportJ } from '../api/contract.ts';
-import { convertTensor } from '../core/dielectric/clausius-mossotti.ts';
 import { CancelledError, ModelError } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { predictFrame, trainModel, type Model } from '../core/learning/model.ts';
 import type { FramePrediction, ParityPoint, TrainRequest, ValidationReport } from '../core/learning/model-types.ts';
-import { frameVolume, readTensor } from '../core/learning/targets.ts';
 import { toIrreducible } from '../core/dielectric/tensor.ts';
 import { errorFigures, validate } from '../core/learning/validation.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './task-types.ts';
 import type { TaskContext, TaskRegistry } from '../jobs/task.ts';
 import { loadedModel, predictFrames, type PredictSink } from './predict/prediction.ts';
 import { CURVE_REPEATS } from '../core/learning/curve-splits.ts';
+import { referenceEps } from './predict/predict-frame.ts';
 
 function reportJson(r: ValidationReport, frameIndices: number[]): ValidationReportJ {
   return {
@@ -35,17 +34,6 @@ async function crossValidate(input: ValidateTaskInput, ctx: TaskContext, extraSt
     onProgress: (p) => ctx.progress({ stage: `cross-validation, ${p.stage}`, done: p.done, total: p.total + extraSteps }),
   });
   return reportJson(report, input.frameIndices);
-}
-
-/** The frame's reference tensor as ε, or null when it has none (or it cannot be converted). */
-function referenceEps(frame: Frame, index: number, key: string, kind: PredictTaskInput['reference']['kind']): Float64Array | null {
-  const v = frame.info[key];
-  if (!Array.isArray(v)) return null;
-  try {
-    return convertTensor(readTensor(frame, key, index), kind, 'eps', frameVolume(frame, index));
-  } catch {
-    return null;
-  }
 }
 
 async function train(input: TrainTaskInput, ctx: TaskContext): Promise<TrainTaskOutput> {
@@ -85,6 +73,9 @@ async function predict(input: PredictTaskInput, ctx: TaskContext): Promise<Predi
   const sink: PredictSink = {
     frame(frame, one) {
       if (!one.tensor) throw new ModelError('the window predicts cell tensors; this model predicts a vector or scalar');
+      if (one.tensor.isolated) {
+        throw new ModelError(`frame ${one.index} has no periodic cell: the window's prediction views show ε, n and Δn, which a lone molecule or cluster does not have; predict it with \`polarweave predict\` (its table carries the polarisability)`);
+      }
       out.frameIndices.push(one.index);
       out.predictions.push(one.tensor);
       out.reference.push(referenceEps(frame, one.index, input.reference.key, input.reference.kind));

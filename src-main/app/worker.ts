@@ -1,6 +1,8 @@
-// The app's worker entry: serves the train, validate and predict tasks (app-tasks.ts). The Electron bundle
-// loads it with `?nodeWorker`; source runs load it through tsWorkerFactory (spawn-ts.ts).
+// The app's worker entry: serves the train, validate and predict tasks (tasks.ts) and the choice of frames for
+// DFT (select-task.ts). The Electron bundle loads it with `?nodeWorker`; source runs load it through
+// tsWorkerFactory (spawn-ts.ts).
 import { appTasks } from './tasks.ts';
+import { selectTask } from './select-task.ts';
 import { serveTasks } from '../jobs/serve.ts';
 
-serveTasks(appTasks);
+serveTasks({ ...appTasks, select: selectTask });

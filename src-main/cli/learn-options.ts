@@ -13,12 +13,24 @@ import {
 } from '../core/settings-table.ts';
 import type { ModelSettings, Route, TensorKind, TrainRequest, TuneGrid } from '../core/learning/model-types.ts';
 import type { CommandIO } from './command.ts';
-import { readValues, shapeOfValues, whereOf, type TargetShape } from '../core/learning/targets.ts';
+import { frameTarget, isIsolated, readValues, shapeOfValues, whereOf, type TargetShape } from '../core/learning/targets.ts';
+import { TENSOR_KINDS } from '../core/dielectric/clausius-mossotti.ts';
 import type { Progress } from '../core/learning/model-types.ts';
+
+const KINDS_TEXT = TENSOR_KINDS.join('|');
 
 export const targetOptions: OptionSpec[] = [
   { name: 'tensor', value: 'KEY', help: 'per-frame property holding the reference tensor (9 or 6 numbers; 3 for a dipole, 1 for a scalar)' },
-  { name: 'as', value: 'eps|alpha-c|alpha-cm', help: 'what the tensor is: optical dielectric tensor, conducting-boundary or Clausius–Mossotti cell polarisability (Å³)' },
+  {
+    name: 'as',
+    value: KINDS_TEXT,
+    help: 'what the tensor is: optical dielectric tensor, conducting-boundary or Clausius–Mossotti cell polarisability (Å³), or the polarisability of an isolated molecule or cluster (Å³; frames without a cell)',
+  },
+  {
+    name: 'isolated-tensor',
+    value: 'KEY',
+    help: 'a set mixing periodic frames with isolated molecules or clusters (no cell): the property holding the clusters\' polarisability in vacuum (Å³)',
+  },
   { name: 'trust-kind', flag: true, help: 'go on even when the values look unlike --as (ε∞ outside 1–20, α outside 0.1–100 Å³ per atom)' },
 ];
 
@@ -32,12 +44,13 @@ export const settingOptions: OptionSpec[] = [
   { name: SPECIES_SETTING.option, value: 'LIST', help: SPECIES_SETTING.help },
 ];
 
-const KINDS: TensorKind[] = ['eps', 'alpha-c', 'alpha-cm'];
-
 export function parseKind(args: ParsedArgs): TensorKind {
   const kind = args.options.as;
-  if (kind === undefined) throw new UsageError('say what the tensor is with --as eps|alpha-c|alpha-cm');
-  if (!KINDS.includes(kind as TensorKind)) throw new UsageError(`--as must be one of ${KINDS.join(', ')}, got "${kind}"`);
+  if (kind === undefined) throw new UsageError(`say what the tensor is with --as ${KINDS_TEXT}`);
+  if (!TENSOR_KINDS.includes(kind as TensorKind)) throw new UsageError(`--as must be one of ${TENSOR_KINDS.join(', ')}, got "${kind}"`);
+  if (kind === 'alpha-mol' && args.options['isolated-tensor'] !== undefined) {
+    throw new UsageError('--isolated-tensor names the clusters\' key in a set mixed with periodic frames; with --as alpha-mol every frame is isolated and --tensor names it');
+  }
   return kind as TensorKind;
 }
 
@@ -97,7 +110,8 @@ export function parseRequest(args: ParsedArgs, route: Route, shape: TargetShape 
   const key = args.options.tensor;
   if (!key) throw new UsageError('name the reference property with --tensor KEY');
   const kind: TensorKind = shape === 'tensor' || args.options.as !== undefined ? parseKind(args) : 'alpha-cm';
-  return { tensorKey: key, kind, route, settings: parseSettings(args), ...(args.flags['trust-kind'] ? { trustKind: true } : {}) };
+  const isolatedKey = args.options['isolated-tensor'];
+  return { tensorKey: key, kind, route, ...(isolatedKey ? { isolatedKey } : {}), settings: parseSettings(args), ...(args.flags['trust-kind'] ? { trustKind: true } : {}) };
 }
 
 /**
@@ -112,9 +126,12 @@ export function checkTargetOptions(args: ParsedArgs): void {
 
 /** The shape of the reference property --tensor KEY in the first frame (an InputError naming the frame if absent). */
 export function targetShapeOf(args: ParsedArgs, frames: Frame[]): TargetShape {
-  const key = args.options.tensor;
-  if (!key) throw new UsageError('name the reference property with --tensor KEY');
+  const tensorKey = args.options.tensor;
+  if (!tensorKey) throw new UsageError('name the reference property with --tensor KEY');
   if (frames.length === 0) throw new UsageError('the input holds no frames');
+  // a first frame without a cell holds the clusters' key, or says that a mixed set must name it (frameTarget)
+  const isolatedKey = args.options['isolated-tensor'];
+  const key = args.options.as !== undefined && isIsolated(frames[0]) ? frameTarget(frames[0], { tensorKey, kind: parseKind(args), isolatedKey, route: 'cm' }, 0).key : tensorKey;
   return shapeOfValues(readValues(frames[0], key, 0), key, whereOf(frames[0], 0));
 }
 

@@ -19,6 +19,7 @@ import { loadedModel, predictFrames } from '../app/predict/prediction.ts';
 import { predictedRow, type PredictedFrame } from '../app/predict/predict-frame.ts';
 import { writeFileAtomic } from '../io/atomic.ts';
 import { demoSummary } from './summary.ts';
+import { clusterToBulkText, demoClusterToBulk, type ClusterToBulk } from './clusters.ts';
 
 /** Where the generator (scripts/generate-demo.ts) puts the bundled data. */
 export const BUNDLED_DEMO_DIR = fileURLToPath(new URL('../../resources/demo', import.meta.url));
@@ -42,6 +43,8 @@ export interface DemoResult {
   crystalErrors: ErrorFigures;
   crystalOutsideFrames: number;
   crystalMeanEps: { predicted: Mat3; reference: Mat3 };
+  /** A model trained on clusters cut from the liquid, beside the liquid-trained one (clusters.ts). */
+  clusterToBulk: ClusterToBulk;
   seconds: number;
 }
 
@@ -109,7 +112,7 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
   await predictFrames(loadedModel(model, files.model), crystal, {
     frame(_f, one) {
       ones.push(one);
-      predictions.push(one.tensor as FramePrediction);
+      predictions.push(one.tensor as FramePrediction); // the crystal is periodic
     },
   }, { signal: options.signal });
   const refEps = crystal.map((f, i) => tensorFromValues(f.info.eps_ref as number[], { file: crystalPath, frame: f.source?.index ?? i }));
@@ -129,10 +132,11 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
   const predictedMean = mean(predictions.map((p) => p.eps));
   const referenceMean = mean(refEps);
   const seconds = (Date.now() - started) / 1000;
-  const summary = demoSummary({ liquid, crystal, report, crystalErrors, outsideFrames, predictions, predictedMean, referenceMean, model, seconds, quick: !!options.quick, files });
+  const bulk = await demoClusterToBulk({ dataDir, liquid, crystal, model, quick: !!options.quick, signal: options.signal, log });
+  const summary = demoSummary({ liquid, crystal, report, crystalErrors, outsideFrames, predictions, predictedMean, referenceMean, model, seconds, quick: !!options.quick, files }) + '\n' + clusterToBulkText(bulk);
   await writeFileAtomic(files.summary, summary);
   return {
     files, liquidFrames: liquid.length, crystalFrames: crystal.length, validation: report, crystalErrors,
-    crystalOutsideFrames: outsideFrames, crystalMeanEps: { predicted: predictedMean, reference: referenceMean }, seconds,
+    crystalOutsideFrames: outsideFrames, crystalMeanEps: { predicted: predictedMean, reference: referenceMean }, clusterToBulk: bulk, seconds,
   };
 }

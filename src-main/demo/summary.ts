@@ -1,8 +1,8 @@
 // The demo's summary.md: what the run found, in words a class can read. Conventions kept throughout:
 // - "%" means one thing only, the error relative to the spread of the reference ("% of the spread", as validate
 //   and the window's Checks say); other comparisons are written as differences or ratios.
-// - A number gets the digits its error justifies: values compared with the reference are rounded at the
-//   decimal of their error's first significant digit (decimalsFor).
+// - A number gets the digits its error justifies: values compared with the reference are written at the
+//   decimal places of their error (core/numerics/uncertain.ts atPlacesOf, the error to two significant digits).
 // - The headline liquid figure is the error within state points (core/learning/state-points.ts): the three
 //   densities of the liquid inflate the spread of the data and flatter the overall figure.
 import type { Frame, Mat3 } from '../core/geometry/frame.ts';
@@ -12,6 +12,7 @@ import { birefringence, convertTensor, refractiveIndices } from '../core/dielect
 import { fmtPct, verdict } from '../core/learning/error-figures.ts';
 import { headlineErrors } from '../core/learning/state-points.ts';
 import { describeSettings } from '../core/settings-table.ts';
+import { atPlacesOf } from '../core/numerics/uncertain.ts';
 
 export interface SummaryInput {
   liquid: Frame[];
@@ -28,16 +29,8 @@ export interface SummaryInput {
   files: { csv: string; model: string; summary: string; validation: string };
 }
 
-/** Decimals that show a value to the first significant digit of its error (at least 0). */
-export function decimalsFor(error: number): number {
-  if (!(error > 0) || !Number.isFinite(error)) return 4;
-  return Math.max(0, -Math.floor(Math.log10(error)));
-}
-
-/** A value rounded to the first significant digit of its error. */
-export function withError(x: number, error: number): string {
-  return x.toFixed(decimalsFor(error));
-}
+/** A value at the decimal places of its error (core/numerics/uncertain.ts, as the CLI and the window print). */
+const withError = (x: number, error: number): string => atPlacesOf(x, error);
 
 /** An error or RMSE: two significant digits. */
 function g2(x: number): string {

@@ -8,14 +8,27 @@ export function jsonNestingDepth(text: string, limit = Infinity): number {
   let depth = 0;
   let deepest = 0;
   const n = text.length;
+  // next backslash at or after the scan position (n when none): strings are skipped with indexOf, which matters for
+  // model files, whose arrays are megabytes of base64 in a few strings
+  let slash = -1;
   for (let i = 0; i < n; i++) {
     const c = text.charCodeAt(i);
     if (c === 34) {
-      // a string: jump to its closing quote, past escaped characters
-      for (i++; i < n; i++) {
-        const d = text.charCodeAt(i);
-        if (d === 92) i++;
-        else if (d === 34) break;
+      // a string: jump to its closing quote, past escaped characters (a backslash and the character after it)
+      let j = i + 1;
+      for (;;) {
+        if (slash < j) {
+          slash = text.indexOf('\\', j);
+          if (slash < 0) slash = n;
+        }
+        const q = text.indexOf('"', j);
+        const quote = q < 0 ? n : q;
+        if (slash < quote) {
+          j = slash + 2;
+          continue;
+        }
+        i = quote;
+        break;
       }
     } else if (c === 91 || c === 123) {
       if (++depth > deepest) {

@@ -8,6 +8,8 @@ import { isElement } from '../core/geometry/elements.ts';
 import type { Model } from '../core/learning/model.ts';
 import { settingsProblems } from '../core/settings-table.ts';
 import { learntQuantity, type TargetShape } from '../core/learning/targets.ts';
+import { TENSOR_KINDS } from '../core/dielectric/clausius-mossotti.ts';
+import type { TensorKind } from '../core/learning/model-types.ts';
 
 const finite = z.number().finite();
 const f64 = z.instanceof(Float64Array);
@@ -36,7 +38,7 @@ const modelSchema = z.object({
   target: z.object({
     key: z.string().min(1),
     shape: z.enum(['tensor', 'vector', 'scalar']),
-    kind: z.enum(['eps', 'alpha-c', 'alpha-cm']).nullable(),
+    kind: z.enum(TENSOR_KINDS as [TensorKind, ...TensorKind[]]).nullable(),
     route: z.enum(['cm', 'direct']),
     learnt: z.enum(['alpha-cm', 'alpha-c', 'vector', 'scalar']),
     units: z.string(),

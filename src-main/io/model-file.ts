@@ -60,10 +60,16 @@ function encode(value: unknown, key: string, path: string): Json {
   throw new ModelError(`cannot save the model: ${path} has type ${typeof value}`);
 }
 
+// The decoded arrays live in SharedArrayBuffers: a process reads its model once, and its worker threads read the
+// same memory (a SharedArrayBuffer crosses postMessage without a copy; app/predict/shared-model.ts).
 function fromB64(text: unknown, what: string, file: string): Uint8Array {
-  if (typeof text !== 'string' || !/^[A-Za-z0-9+/]*={0,2}$/.test(text)) throw new ModelError(`${file}: corrupt model file (${what} is not base64)`);
-  const buf = Buffer.from(text, 'base64');
-  const copy = new Uint8Array(buf.length);
+  const buf = typeof text === 'string' ? Buffer.from(text, 'base64') : null;
+  // the text this program writes encodes back to itself (a native check, fast on megabytes); anything else must
+  // at least be base64 characters (the regular expression is slow on megabytes, so it is the second check)
+  if (buf === null || (buf.toString('base64') !== text && !/^[A-Za-z0-9+/]*={0,2}$/.test(text as string))) {
+    throw new ModelError(`${file}: corrupt model file (${what} is not base64)`);
+  }
+  const copy = new Uint8Array(new SharedArrayBuffer(buf.length));
   copy.set(buf);
   return copy;
 }
@@ -89,7 +95,7 @@ function decode(value: Json, path: string, file: string): unknown {
         throw new ModelError(`${file}: corrupt model file (${path}: packed triangle does not match n = ${String(n)})`);
       }
       const packed = new Float64Array(bytes.buffer);
-      const full = new Float64Array(n * n);
+      const full = new Float64Array(new SharedArrayBuffer(8 * n * n));
       let at = 0;
       for (let i = 0; i < n; i++) for (let j = 0; j <= i; j++) full[i * n + j] = packed[at++];
       return full;
@@ -101,20 +107,53 @@ function decode(value: Json, path: string, file: string): unknown {
   return value;
 }
 
-/** JSON with object keys sorted at every level and no whitespace: the text the checksum covers. */
-export function canonicalJson(value: Json): string {
-  if (Array.isArray(value)) return `[${value.map(canonicalJson).join(',')}]`;
-  if (value !== null && typeof value === 'object') {
-    return `{${Object.keys(value)
+/** The canonical JSON of `value` in pieces, in order (small pieces joined, big strings passed on whole). */
+function canonicalPieces(value: Json, out: (piece: string) => void): void {
+  if (Array.isArray(value)) {
+    out('[');
+    value.forEach((v, i) => {
+      if (i) out(',');
+      canonicalPieces(v, out);
+    });
+    out(']');
+  } else if (value !== null && typeof value === 'object') {
+    out('{');
+    Object.keys(value)
       .sort()
-      .map((k) => `${JSON.stringify(k)}:${canonicalJson(value[k])}`)
-      .join(',')}}`;
-  }
-  return JSON.stringify(value);
+      .forEach((k, i) => {
+        out(`${i ? ',' : ''}${JSON.stringify(k)}:`);
+        canonicalPieces(value[k], out);
+      });
+    out('}');
+  } else out(JSON.stringify(value));
 }
 
-function sha256(text: string): string {
-  return createHash('sha256').update(text, 'utf8').digest('hex');
+/** JSON with object keys sorted at every level and no whitespace: the text the checksum covers. */
+export function canonicalJson(value: Json): string {
+  const pieces: string[] = [];
+  canonicalPieces(value, (p) => pieces.push(p));
+  return pieces.join('');
+}
+
+/** sha256 of canonicalJson(value), hashed piece by piece rather than from one string of the whole payload. */
+function canonicalSha256(value: Json): string {
+  const hash = createHash('sha256');
+  let pending = '';
+  canonicalPieces(value, (p) => {
+    if (p.length > 1 << 12) {
+      // a big piece (an array's base64): hashed as it is, not copied into the pending text
+      hash.update(pending, 'utf8');
+      hash.update(p, 'utf8');
+      pending = '';
+      return;
+    }
+    pending += p;
+    if (pending.length > 1 << 16) {
+      hash.update(pending, 'utf8');
+      pending = '';
+    }
+  });
+  return hash.update(pending, 'utf8').digest('hex');
 }
 
 function describe(model: Model): string {
@@ -155,7 +194,7 @@ function renameKeys(payload: Record<string, Json>, toFile: boolean): Record<stri
 
 export function serialiseModel(model: Model): string {
   const payload = renameKeys(encode(model, '', '') as Record<string, Json>, true);
-  const checksum = sha256(canonicalJson(payload));
+  const checksum = canonicalSha256(payload);
   const doc = { format: MODEL_FORMAT, version: MODEL_VERSION, description: describe(model), checksum: { algorithm: 'sha256', value: checksum }, payload };
   return JSON.stringify(doc) + '\n';
 }
@@ -184,7 +223,7 @@ export function parseModel(text: string, fileName: string): Model {
   const ck = d.checksum as Record<string, Json> | undefined;
   need(!!ck && ck.algorithm === 'sha256' && typeof ck.value === 'string', fileName, 'no sha256 checksum');
   need(d.payload !== null && typeof d.payload === 'object' && !Array.isArray(d.payload), fileName, 'no payload');
-  const actual = sha256(canonicalJson(d.payload));
+  const actual = canonicalSha256(d.payload);
   if (actual !== (ck as Record<string, Json>).value) {
     throw new ModelError(`${fileName}: checksum mismatch — the model file is corrupt or was edited; retrain or restore the file`);
   }

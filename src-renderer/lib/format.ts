@@ -1,6 +1,8 @@
 // Number formatting for tables and labels: a fixed number of significant digits, ranges, 3×3 matrices.
 import type { Range } from '../../src-main/api/contract.ts';
 import { fmtPct } from '../../src-main/core/learning/error-figures.ts';
+import { withError } from '../../src-main/core/numerics/uncertain.ts';
+export { atPlacesOf } from '../../src-main/core/numerics/uncertain.ts';
 
 export function fmt(v: number | null | undefined, digits = 4): string {
   if (v === null || v === undefined || !Number.isFinite(v)) return '—';
@@ -52,8 +54,11 @@ export function targetName(target: string): string {
   return target === 'eps' ? 'ε∞ (dimensionless)' : target;
 }
 
-/** A value with its model error bar, "1.5632 ± 0.0015"; the bare value with "± —" when there is no error bar. */
+/**
+ * A value with its model error bar, to the digits the error bar justifies ("1.5632 ± 0.0015", the rule the
+ * command line prints with); `digits` significant digits and "± —" when there is no error bar.
+ */
 export function pm(v: number | null | undefined, sd: number | null | undefined, digits = 5): string {
-  const e = sd === null || sd === undefined || !Number.isFinite(sd) ? '—' : fmt(sd, 2);
-  return `${fmt(v, digits)} ± ${e}`;
+  if (v === null || v === undefined || !Number.isFinite(v)) return '—';
+  return withError(v, sd, digits);
 }

@@ -8,6 +8,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import type { AppService } from '../../src-main/app/service.ts';
 import { createAppService } from '../../src-main/app/wiring.ts';
 import { runCli } from '../../src-main/cli/main.ts';
+import { setSummaryLines } from '../../src-main/app/predict/prediction.ts';
 import { tsWorkerFactory } from '../../src-main/jobs/spawn-ts.ts';
 
 const WATER = '/work/shared/data/water-dft-sample.extxyz';
@@ -22,6 +23,7 @@ const small = { cutoff: 3.5, nmax: 3, lmax: 2, sparsePoints: 0, seed: 3 };
 
 describe('app service', () => {
   let datasetId = '';
+  let predictionId = '';
 
   it('summarises an uploaded extended XYZ file', async () => {
     const s = await service.openStructures({ name: 'water.extxyz', text: readFileSync(WATER, 'utf8') });
@@ -105,14 +107,28 @@ describe('app service', () => {
     const f0 = pred.frames[0];
     expect(f0.refractive.reduce((a, n) => a + n * n, 0)).toBeCloseTo(f0.eps[0] + f0.eps[4] + f0.eps[8], 10);
 
+    // The per-atom marks of the structure view follow the rule that counts the frame's atoms outside.
+    for (const f of pred.frames) {
+      const d = await service.getFrameDetail({ predictionId: pred.id, index: f.frame });
+      expect(d.atomScore).toHaveLength(48);
+      expect(d.atomOutside.filter((o) => o).length).toBe(f.applicability.atomsOutside);
+      expect(d.atomOutside).toEqual(d.atomScore.map((u) => u > 1));
+    }
+    predictionId = pred.id;
+
     const csv = await service.exportCsv({ predictionId: pred.id });
     const modelFile = await service.exportModel({ modelId: model.id });
     const modelPath = join(scratch, 'model.json');
     writeFileSync(modelPath, modelFile.text);
     const outPath = join(scratch, 'cli.csv');
     let err = '';
-    const code = await runCli(['predict', modelPath, WATER, '-o', outPath], { out: () => {}, err: (t) => (err += t), signal: new AbortController().signal });
+    let said = '';
+    const code = await runCli(['predict', modelPath, WATER, '-o', outPath], { out: (t) => (said += t), err: (t) => (err += t), signal: new AbortController().signal });
     expect(code, err).toBe(0);
+    // The CLI's closing summary is the window's Transfer summary, from the same sums and the same words.
+    expect(pred.summary!.reference!.frames).toBe(8);
+    expect(said).toContain(setSummaryLines(pred.summary!).join('\n'));
+    expect(said).toMatch(/ε iso \d\.\d+ ± 0\.\d+/);
     const cliText = readFileSync(outPath, 'utf8');
     expect(csv.text).toMatch(/# Note: these values are model estimates/);
     // The comment block differs only in its Source, Written and Identity lines (the CLI names its model file and input); header and rows are the same, byte for byte.
@@ -138,6 +154,7 @@ describe('app service', () => {
   });
 
   it('saves and reopens a project', async () => {
+    const before = await service.getFrameDetail({ predictionId, index: 7 });
     const saved = await service.saveProject({ ui: { view: 'checks' } });
     const project = JSON.parse(saved.text);
     expect(project.format).toBe('polarweave-project');
@@ -147,6 +164,11 @@ describe('app service', () => {
     expect(state.models.length).toBe(1);
     expect(state.predictions.length).toBe(1);
     expect(state.ui).toEqual({ view: 'checks' });
+    // per-atom domain scores survive the round trip
+    const reopened = state.predictions[0].id;
+    const d = await service.getFrameDetail({ predictionId: reopened, index: 7 });
+    expect(d.atomScore).toEqual(before.atomScore);
+    expect(d.atomOutside).toEqual(before.atomOutside);
     await expect(service.openProject({ name: 'x.json', text: '{"format":"other"}' })).rejects.toThrow(/x.json: not a Polarweave project file/);
   });
 });

@@ -57,6 +57,8 @@ const BROWSER_SAFE_CORE = [
   'src-main/core/learning/curve-splits.ts',
   // The caveat shown beside local and per-species contributions (CLI and window, the same words).
   'src-main/core/learning/contributions.ts',
+  // A value with its error bar, rounded to the digits the error bar justifies: the CLI and the window print alike.
+  'src-main/core/numerics/uncertain.ts',
 ];
 
 /** What the renderer may import from src-main, and how. */

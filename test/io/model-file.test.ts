@@ -97,6 +97,19 @@ describe('model file', () => {
     expect(() => parseModel(resign(doc2), 'bad.json')).toThrow(/not base64/);
   });
 
+  it('reads base64 this program would not write (no padding) and refuses other characters, once signed', () => {
+    const doc = JSON.parse(serialiseModel(model));
+    const weights = doc.payload.parts[0].weights as { f64: string };
+    const padded = weights.f64;
+    // 8 bytes per weight: padding unless the byte count is a multiple of 3
+    expect(padded.endsWith('=')).toBe(((model.parts[0].weights as Float64Array).byteLength % 3) !== 0);
+    weights.f64 = padded.replace(/=+$/, '');
+    const back = parseModel(resign(doc), 'm.json');
+    expect(Array.from(back.parts[0].weights as Float64Array)).toEqual(Array.from(model.parts[0].weights as Float64Array));
+    weights.f64 = `${padded.slice(0, 8)}*${padded.slice(9)}`;
+    expect(() => parseModel(resign(doc), 'm.json')).toThrow(/corrupt model file \(parts\[0\]\.weights is not base64\)/);
+  });
+
   it('a model never predicts species it did not see', () => {
     const frame = makeFrame(['H', 'C', 'O'], new Float64Array(9), [8, 0, 0, 0, 8, 0, 0, 0, 8]);
     const fe = syntheticFeatures(rng, { count: 3, n0: 5, tensor: { 2: 3 }, centreSpecies: [0, 0, 1] });

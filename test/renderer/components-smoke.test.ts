@@ -101,5 +101,20 @@ describe('components render on the server', () => {
     expect(out).toContain('n₁ = 1.304'); // √1.7 = 1.3038
     expect(out).toContain('1 of 3 local tensors have a negative principal value');
     expect(out).toContain('stroke-dasharray="4 3"');
+    expect(out).not.toContain('data-mark=');
+  }, 60_000);
+
+  it('CellView: rings the atoms outside the training data and says how many', async () => {
+    const View = await load('src-renderer/components/structure/CellView.svelte');
+    const out = html(View, {
+      species: ['O', 'H', 'H'],
+      positions: [0, 0, 0, 0.76, 0.59, 0, -0.76, 0.59, 0],
+      cell: [5, 0, 0, 0, 5, 0, 0, 0, 5],
+      tensors: [1, 0, 0, 0, 1.2, 0, 0, 0, 0.9, 0.3, 0, 0, 0, 0.2, 0, 0, 0, 0.2, 0.1, 0, 0, 0, 0.2, 0, 0, 0, 0.3],
+      flagged: [false, true, true],
+      width: 700,
+    });
+    expect(out.match(/data-mark="outside:(\d+)"/g)).toEqual(['data-mark="outside:1"', 'data-mark="outside:2"']);
+    expect(out).toContain('2 atoms outside the training data (ringed)');
   }, 60_000);
 });

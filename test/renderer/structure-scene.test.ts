@@ -158,6 +158,7 @@ describe('scene markup and hit testing', () => {
       ringColour: () => '#333',
       edge: '#444',
       warn: '#f0f',
+      halo: '#fff',
     };
     const s = sceneMarkup(
       [
@@ -171,6 +172,21 @@ describe('scene markup and hit testing', () => {
     expect(s.match(/<ellipse /g)).toHaveLength(1);
     expect(s).toContain('stroke="#f0f" stroke-width="1.6" stroke-dasharray="4 3"');
     expect(s).toContain('rotate(30.0)');
+  });
+
+  it('rings an atom outside the training data in the warning colour, and the ring catches no pointer', async () => {
+    const { sceneMarkup, hitTest } = await import('../../src-renderer/components/structure/scene-markup.ts');
+    const style = { atomFill: () => 'url(#a)', atomStroke: () => '#000', bondColour: () => '#111', ellFill: () => 'url(#e)', ellStroke: () => '#222', ringColour: () => '#333', edge: '#444', warn: '#f0f', halo: '#fff' };
+    const items = [
+      { kind: 'atom' as const, depth: 0, x: 5, y: 5, r: 2, sp: 'O', index: 3, faded: false },
+      { kind: 'mark' as const, depth: 0.002, x: 5, y: 5, r: 6, index: 3, faded: false },
+    ];
+    const s = sceneMarkup(items, style);
+    expect(s).toContain('r="6" fill="none" stroke="#f0f"');
+    expect(s).toContain('r="6" fill="none" stroke="#fff"'); // the halo under it
+    expect(s).toContain('data-mark="outside:3"');
+    expect(hitTest(items, 5, 5)).toEqual({ kind: 'atom', index: 3 });
+    expect(hitTest(items, 10, 5)).toBeNull(); // on the ring, off the atom
   });
 
   it('hit testing picks the front-most shape under the pointer', async () => {

@@ -114,6 +114,20 @@ export const tests = [
     },
   },
   {
+    name: 'rings the atoms outside the training data in a flagged crystal frame, as its table marks them',
+    async run({ page }) {
+      await page.locator('[data-table=transfer] tbody tr.outside button.link').first().click();
+      await page.waitForSelector('main[data-current-view=structure]');
+      await page.waitForSelector('[data-section=structure-picture] [data-item^="e:"]', { timeout: 60_000 });
+      const rings = await page.locator('[data-section=structure-picture] [data-mark^="outside:"]').count();
+      const redRows = await page.locator('[data-table=local] tbody tr.flag').count();
+      assert.ok(rings > 0, 'a flagged crystal frame has atoms outside the training data');
+      assert.equal(rings, redRows);
+      assert.match(await page.textContent('[data-field=outside-legend]'), new RegExp(`^${rings} atoms? outside the training data`));
+      await go(page, 'transfer');
+    },
+  },
+  {
     name: 'exports the CSV, the same as `polarweave predict` for the same model and frames',
     async run({ page, host, root, scratch, state }) {
       await go(page, 'export');

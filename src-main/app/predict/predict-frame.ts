@@ -4,8 +4,11 @@
 // frame is predicted and laid out the same way whichever front end asked. The layout itself is
 // io/prediction/prediction-format.ts.
 import type { Frame, Mat3 } from '../../core/geometry/frame.ts';
-import { framePredictionFrom, type Model, type Predictor } from '../../core/learning/model.ts';
-import type { FramePrediction } from '../../core/learning/model-types.ts';
+import { tensorPredictionFrom, type Model, type Predictor } from '../../core/learning/model.ts';
+import type { TensorKind, TensorPrediction } from '../../core/learning/model-types.ts';
+import type { SetFrame } from '../../core/learning/set-summary.ts';
+import { convertTensor } from '../../core/dielectric/clausius-mossotti.ts';
+import { frameVolume, readTensor } from '../../core/learning/targets.ts';
 import { findMolecules } from '../../core/geometry/molecules.ts';
 import { formatExtxyzFrame } from '../../io/extxyz.ts';
 import { referenceEpsOf } from '../../core/learning/targets.ts';
@@ -28,8 +31,8 @@ export type PredictFormat = 'csv' | 'extxyz';
 
 export interface PredictedFrame {
   index: number;
-  /** Tensor models: the cell tensors, local contributions and applicability. */
-  tensor: FramePrediction | null;
+  /** Tensor models: the cell tensors (an isolated frame: its polarisability), local contributions and applicability. */
+  tensor: TensorPrediction | null;
   /** Vector and scalar models: the table row. */
   valueRow: PredictionRow | null;
   outside: boolean;
@@ -43,7 +46,29 @@ export function predictOne(model: Model, predict: Predictor, frame: Frame, index
   const a = pred.applicability;
   const figures = { index, outside: a.outside, atomsOutside: a.atomsOutside, maxDistance: a.maxDistance };
   if (model.target.shape !== 'tensor') return { ...figures, tensor: null, valueRow: valuePredictionRow(model, index, frame, pred) };
-  return { ...figures, tensor: framePredictionFrom(model, frame, pred, index), valueRow: null };
+  return { ...figures, tensor: tensorPredictionFrom(model, frame, pred, index), valueRow: null };
+}
+
+/** The frame's reference tensor (under `key`, of `kind`) as ε, or null when it has none or it cannot be converted. */
+export function referenceEps(frame: Frame, index: number, key: string, kind: TensorKind): Float64Array | null {
+  const v = frame.info[key];
+  if (!Array.isArray(v)) return null;
+  try {
+    return kind === 'alpha-mol' ? null : convertTensor(readTensor(frame, key, index), kind, 'eps', frameVolume(frame, index));
+  } catch {
+    return null;
+  }
+}
+
+/**
+ * What the set summary (core/learning/set-summary.ts) takes of a predicted frame: ε, its error bars and the
+ * frame's reference ε under the model's own key (as the window shows it); null for vector and scalar models,
+ * and for an isolated molecule or cluster (no ε).
+ */
+export function setFrameOf(model: Model, frame: Frame, one: PredictedFrame): SetFrame | null {
+  if (!one.tensor || one.tensor.isolated) return null;
+  const kind = model.target.kind;
+  return { eps: one.tensor.eps, errorBars: one.tensor.errorBars, reference: kind ? referenceEps(frame, one.index, model.target.key, kind) : null, outside: one.outside };
 }
 
 /** The reference tensor the model was trained on, as ε, when the frame carries it (else null). */
@@ -54,12 +79,12 @@ export function modelReferenceEps(model: Model, frame: Frame, index: number): Ma
 
 /** A tensor prediction's table row (with the frame's reference tensor beside it, when given; null: empty cells). */
 export function predictedRow(model: Model, frame: Frame, one: PredictedFrame, more: { reference?: Mat3 | null; tagKey?: string } = {}): TensorRow {
-  return tensorPredictionRow(one.index, frame, one.tensor as FramePrediction, model, more);
+  return tensorPredictionRow(one.index, frame, one.tensor as TensorPrediction, model, more);
 }
 
 /** The annotated frame extended XYZ output holds: prediction keys, per-atom arrays, molecules, the stamp. */
 export function predictedFrame(model: Model, frame: Frame, one: PredictedFrame, stamp: FrameStamp): Frame {
-  const out = annotateFrame(frame, one.tensor as FramePrediction, model);
+  const out = annotateFrame(frame, one.tensor as TensorPrediction, model);
   out.arrays[PRED_ARRAYS.molecule] = { kind: 'int', width: 1, data: findMolecules(frame).molecule };
   return stampFrame(out, one.index, stamp);
 }
@@ -76,6 +101,8 @@ export function predictedText(model: Model, frame: Frame, one: PredictedFrame, f
 
 export interface FrameText {
   text: string;
+  /** For the set summary (tensor models). */
+  set: SetFrame | null;
   outside: boolean;
   atomsOutside: number;
   maxDistance: number;
@@ -84,5 +111,5 @@ export interface FrameText {
 /** Predict one frame and format it. */
 export function predictFrameText(model: Model, predict: Predictor, frame: Frame, index: number, format: PredictFormat, stamp: FrameStamp, csvOptions?: TensorCsvOptions): FrameText {
   const one = predictOne(model, predict, frame, index);
-  return { text: predictedText(model, frame, one, format, stamp, csvOptions), outside: one.outside, atomsOutside: one.atomsOutside, maxDistance: one.maxDistance };
+  return { text: predictedText(model, frame, one, format, stamp, csvOptions), set: setFrameOf(model, frame, one), outside: one.outside, atomsOutside: one.atomsOutside, maxDistance: one.maxDistance };
 }

@@ -3,15 +3,23 @@
 // output text of the batch in frame order, with the applicability figures the caller summarises.
 import { CancelledError, InputError, ModelError } from '../../core/errors.ts';
 import type { Frame } from '../../core/geometry/frame.ts';
+import { modelPredictor, type Model } from '../../core/learning/model.ts';
 import { frameFromBytes } from '../../io/extxyz.ts';
 import type { FrameStamp, TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import { predictFrameText, type PredictFormat } from './predict-frame.ts';
 import { loadModelFile, type LoadedModel } from './prediction.ts';
 import type { TaskContext, TaskRegistry } from '../../jobs/task.ts';
+import type { SetFrame } from '../../core/learning/set-summary.ts';
 
 export interface PredictChunkInput {
   modelPath: string;
   modelSha256: string;
+  /**
+   * The model the main thread read (sha256 `modelSha256`), its typed arrays in shared memory (shared-model.ts):
+   * the worker predicts with it instead of reading and parsing the file again. Without it, the worker reads the
+   * file and checks its checksum.
+   */
+  model?: Model;
   /** The input file (for error messages). */
   file: string;
   format: PredictFormat;
@@ -29,18 +37,24 @@ export interface PredictChunkOutput {
   outside: boolean[];
   atomsOutside: number[];
   maxDistance: number[];
+  /** Per frame, what the set summary takes (tensor models; null otherwise); the caller adds them in frame order. */
+  set: (SetFrame | null)[];
   /** Time spent parsing and predicting in the worker (ms), without its start-up: sizes the next batches. */
   computeMs: number;
 }
 
 // One model per worker. A reused worker (stream-predict's runner keeps its workers) serves every later batch
 // from here: the model in memory is the one whose bytes matched `sha`, so its predictions stay those of the
-// checksum written in the output even if the file is replaced meanwhile (only a new worker would notice that).
-// A worker thread is its own JavaScript realm: it reads the model once, here, and keeps it.
+// checksum written in the output even if the file is replaced meanwhile. A worker thread is its own JavaScript
+// realm: it builds its predictor once, here, and keeps it; the model's arrays are the main thread's, shared.
 let cached: LoadedModel | null = null;
 
-async function modelFor(path: string, sha: string): Promise<LoadedModel> {
+async function modelFor(path: string, sha: string, given?: Model): Promise<LoadedModel> {
   if (cached && cached.path === path && cached.sha256 === sha) return cached;
+  if (given) {
+    cached = { path, label: path, sha256: sha, model: given, predict: modelPredictor(given) };
+    return cached;
+  }
   const loaded = await loadModelFile(path);
   if (loaded.sha256 !== sha) throw new ModelError(`${path}: the model file changed while predicting (sha256 ${loaded.sha256}, expected ${sha}); start again with --restart`);
   cached = loaded;
@@ -55,9 +69,9 @@ export function parseFrameBytes(file: string, index: number, line: number, bytes
 }
 
 export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): Promise<PredictChunkOutput> {
-  const m = await modelFor(input.modelPath, input.modelSha256);
+  const m = await modelFor(input.modelPath, input.modelSha256, input.model);
   const t0 = performance.now();
-  const out: PredictChunkOutput = { text: '', index: [], outside: [], atomsOutside: [], maxDistance: [], computeMs: 0 };
+  const out: PredictChunkOutput = { text: '', index: [], outside: [], atomsOutside: [], maxDistance: [], set: [], computeMs: 0 };
   const parts: string[] = [];
   const total = input.frames.length;
   for (let j = 0; j < total; j++) {
@@ -70,6 +84,7 @@ export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): 
     out.outside.push(r.outside);
     out.atomsOutside.push(r.atomsOutside);
     out.maxDistance.push(r.maxDistance);
+    out.set.push(r.set);
     ctx.progress({ stage: 'predict', done: j + 1, total });
   }
   out.text = parts.join('');

@@ -4,6 +4,8 @@
 // extended XYZ trajectories (stream-predict.ts, whose workers run the same per-frame step), the window's
 // in-memory predictions (app/tasks.ts) with its CSV export (app/export-csv.ts), and the demo. Whatever the
 // sink, a frame gets the same numbers and the same layout (io/prediction/prediction-format.ts).
+import { addToSums, emptySums, summaryOfSums, type SetSummary } from '../../core/learning/set-summary.ts';
+import { atPlacesOf, withError } from '../../core/numerics/uncertain.ts';
 import { createHash } from 'node:crypto';
 import { promises as fsp } from 'node:fs';
 import { basename } from 'node:path';
@@ -15,7 +17,7 @@ import type { FrameRange } from '../../io/extxyz.ts';
 import { parseModel, readModelBytes } from '../../io/model-file.ts';
 import { predictionCsvHeader, predictionCsvOptions, type FrameStamp, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import { outputKind, readStructures } from '../../io/read-structures.ts';
-import { modelReferenceEps, predictedText, predictOne, type PredictedFrame, type PredictFormat } from './predict-frame.ts';
+import { modelReferenceEps, predictedText, predictOne, setFrameOf, type PredictedFrame, type PredictFormat } from './predict-frame.ts';
 
 export function sha256Hex(data: Uint8Array | string): string {
   return createHash('sha256').update(data).digest('hex');
@@ -38,11 +40,20 @@ export function loadedModel(model: Model, label: string, sha256 = ''): LoadedMod
   return { path: '', label, sha256, model, predict: modelPredictor(model) };
 }
 
+/**
+ * The model's predictor, built at its first use: a process that only hands the model to its workers (the streamed
+ * path) never pays for the tables. A model whose parts do not fit its settings fails on that first use.
+ */
+function predictorOnDemand(model: Model): Predictor {
+  let predict: Predictor | null = null;
+  return (frame, index) => (predict ??= modelPredictor(model))(frame, index);
+}
+
 /** Read, checksum and parse a model file (once per process: pass the result on rather than the path). */
 export async function loadModelFile(path: string, label = path): Promise<LoadedModel> {
   const bytes = await readModelBytes(path);
   const model = parseModel(bytes.toString('utf8'), path);
-  return { path, label, sha256: sha256Hex(bytes), model, predict: modelPredictor(model) };
+  return { path, label, sha256: sha256Hex(bytes), model, predict: predictorOnDemand(model) };
 }
 
 /** The output format of a prediction file from its name (the registry of file kinds), or an InputError. */
@@ -82,6 +93,33 @@ export function rangeSelection(range: FrameRange | undefined): SelectionText | u
   return whole ? undefined : { start: r.start ?? 0, stop: r.stop ?? null, step: r.step ?? 1 };
 }
 
+/**
+ * The set summary in words, as `predict` prints it: the mean ε over the frames, the principal refractive indices
+ * of that mean and its birefringence, with model error bars, and the file's reference beside them. The window's
+ * Transfer view shows the same figures (the same SetSummary, rounded by the same rule).
+ */
+export function setSummaryLines(s: SetSummary): string[] {
+  const e = s.errorBars;
+  const three = (n: number[], sd?: number[]) => n.map((x, k) => withError(x, sd?.[k])).join(', ');
+  const lines = [
+    `Mean of the ${s.frames} predicted frame${s.frames === 1 ? '' : 's'} (± model error bar, one standard deviation):`,
+    `  ε iso ${withError(s.predicted.epsIso, e?.epsIso)};  n₁, n₂, n₃ of the mean ε ${three(s.predicted.n, e?.n)};  Δn = n₃ − n₁ ${withError(s.predicted.dn, e?.dn)}`,
+  ];
+  if (s.reference) {
+    // the reference to the places of the prediction's error bars, so the two read side by side
+    const at = atPlacesOf;
+    lines.push(
+      `  reference in the file (${s.reference.frames} frame${s.reference.frames === 1 ? '' : 's'}): ε iso ${at(s.reference.epsIso, e?.epsIso)};  n ${s.reference.n.map((x, k) => at(x, e?.n[k])).join(', ')};  Δn ${at(s.reference.dn, e?.dn)}`,
+    );
+  }
+  lines.push(
+    e
+      ? '  The error bar is the model’s (calibrated on held-out folds in training); it does not shrink with more frames. For the statistical error of a trajectory mean, use `polarweave analyse`.'
+      : '  No error bars: this model carries no calibration (saved before error bars existed, or trained on fewer than 3 frames).',
+  );
+  return lines;
+}
+
 /** Where a sink puts each predicted frame. */
 export interface PredictSink {
   frame(frame: Frame, one: PredictedFrame): void | Promise<void>;
@@ -90,6 +128,8 @@ export interface PredictSink {
 export interface PredictRun {
   frames: number;
   outside: number;
+  /** Mean ε, n and Δn of the frames with error bars and the references (core/learning/set-summary.ts); null for vector and scalar models. */
+  summary: SetSummary | null;
 }
 
 /**
@@ -105,18 +145,21 @@ export async function predictFrames(
 ): Promise<PredictRun> {
   let k = 0;
   let outside = 0;
+  const sums = emptySums();
   for await (const frame of frames) {
     if (hooks.signal?.aborted) throw new CancelledError();
     const index = hooks.indexOf ? hooks.indexOf(frame, k) : (frame.source?.index ?? k);
     const one = predictOne(m.model, m.predict, frame, index);
     if (one.outside) outside++;
+    const set = setFrameOf(m.model, frame, one);
+    if (set) addToSums(sums, set);
     await sink.frame(frame, one);
     k++;
     hooks.onFrame?.(k);
     if (k % 4 === 0) await new Promise((r) => setImmediate(r));
   }
   if (hooks.signal?.aborted) throw new CancelledError();
-  return { frames: k, outside };
+  return { frames: k, outside, summary: m.model.target.shape === 'tensor' ? summaryOfSums(sums) : null };
 }
 
 export interface PredictToFileOptions {

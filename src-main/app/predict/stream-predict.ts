@@ -2,8 +2,9 @@
 //
 // The main thread cuts selected frames out of the file as raw bytes (io/frame-slices.ts), groups them in
 // batches and hands the batches to a JobRunner ('predict-chunk' task, at most `threads` at once, one batch read
-// ahead). The runner keeps its workers between batches, so loading the code and the model is paid once per
-// thread, not once per batch, and batches can be short (about `batchSeconds`, 5 s) for frequent progress.
+// ahead). The runner keeps its workers between batches, so loading the code is paid once per thread, not once
+// per batch, and batches can be short (about `batchSeconds`, 5 s) for frequent progress. The model is read once,
+// in the main thread, and the workers read its arrays from shared memory (shared-model.ts).
 // Results are appended to OUT.partial strictly in frame order. After each batch the partial file is fsynced
 // and OUT.checkpoint.json is written atomically with the model checksum, the input file's size and mtime, the
 // selection, the frames done, the bytes of OUT.partial that hold them and the input position (byte offset,
@@ -11,6 +12,7 @@
 // continues; when all frames are done OUT.partial is renamed to OUT (atomic) and the checkpoint removed. The
 // output depends only on the model, the input and the selection, never on the batch sizes, the thread count,
 // worker reuse or the interruptions, so a resumed run gives the same bytes as a clean one.
+import { addToSums, emptySums, isSetSums, summaryOfSums, type SetSummary, type SetSums } from '../../core/learning/set-summary.ts';
 import { promises as fsp } from 'node:fs';
 import { availableParallelism } from 'node:os';
 import { basename, dirname, resolve } from 'node:path';
@@ -24,6 +26,7 @@ import { predictionCsvHeader, selectionText, shardStampText, type Identity, type
 import type { PredictFormat } from './predict-frame.ts';
 import type { PredictChunkInput, PredictChunkOutput } from './predict-tasks.ts';
 import { csvLayoutOf, firstFrameOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
+import { sharedModel } from './shared-model.ts';
 import { JobRunner, type WorkerFactory } from '../../jobs/runner.ts';
 import { tsWorkerFactory } from '../../jobs/spawn-ts.ts';
 
@@ -89,6 +92,8 @@ export interface StreamPredictResult {
   framesThisRun: number;
   resumedFrom: number;
   outside: number;
+  /** Mean ε, n and Δn of all the frames written (this run and the one it continued), with error bars; null for vector and scalar models. */
+  summary: SetSummary | null;
   seconds: number;
   threads: number;
   modelSha256: string;
@@ -105,6 +110,8 @@ interface Checkpoint {
   shard: { k: number; n: number } | null;
   framesDone: number;
   outside: number;
+  /** Set-summary sums of the frames done (absent in checkpoints written before they were kept). */
+  sums?: SetSums | null;
   partialBytes: number;
   next: SlicePosition;
 }
@@ -248,6 +255,9 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   const resumedFrom = ck?.framesDone ?? 0;
   let framesDone = resumedFrom;
   let outside = ck?.outside ?? 0;
+  // a checkpoint without sums (older, or damaged there) leaves the summary out rather than giving one of part of the frames
+  let sums: SetSums | null = ck ? (ck.framesDone === 0 ? null : isSetSums(ck.sums) ? ck.sums : null) : null;
+  const sumsKnown = !ck || ck.framesDone === 0 || isSetSums(ck.sums);
   let partialBytes = ck?.partialBytes ?? 0;
   if (ck) from = ck.next;
 
@@ -264,7 +274,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       partialBytes = head.length;
     }
     const writeCheckpoint = async (next: SlicePosition) => {
-      const c: Checkpoint = { format: CHECKPOINT_FORMAT, version: 1, ...want, framesDone, outside, partialBytes, next };
+      const c: Checkpoint = { format: CHECKPOINT_FORMAT, version: 1, ...want, framesDone, outside, sums: sumsKnown ? sums : null, partialBytes, next };
       await writeFileAtomic(ckPath, JSON.stringify(c, null, 1) + '\n');
     };
     if (!ck) {
@@ -272,6 +282,8 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       await writeCheckpoint(from);
     }
 
+    // the workers predict with this process's model (read once), its arrays shared, not with copies of their own
+    const shared = sharedModel(model);
     // 'predict-chunk' leaves only its model cache behind, keyed on path and checksum: safe to reuse workers
     runner = new JobRunner({
       spawn: opts.spawn ?? tsWorkerFactory(new URL('./predict-worker.ts', import.meta.url)),
@@ -319,6 +331,8 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       partialBytes += buf.length;
       framesDone += r.index.length;
       for (const o of r.outside) if (o) outside++;
+      // frame by frame, in order: the same sums, bit for bit, whatever the batches, threads or interruptions
+      for (const f of r.set) if (f) sums = addToSums(sums ?? emptySums(), f);
       await fh.sync();
       lastOffset = entry.next.offset;
       await writeCheckpoint(entry.next);
@@ -332,7 +346,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     };
 
     const submit = (frames: PredictChunkInput['frames'], next: SlicePosition) => {
-      const input: PredictChunkInput = { modelPath: resolve(opts.modelPath), modelSha256, file: opts.input, format, stamp, frames, csvOptions };
+      const input: PredictChunkInput = { modelPath: resolve(opts.modelPath), modelSha256, model: shared, file: opts.input, format, stamp, frames, csvOptions };
       const promise = (runner as JobRunner).run<PredictChunkOutput>('predict-chunk', input, { signal });
       promise.catch(() => undefined); // awaited in order by drainOne
       inFlight.set(seq++, { promise, next, frames: frames.length });
@@ -366,7 +380,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     await fsp.rename(partial, opts.output);
     await fsp.rm(ckPath, { force: true });
     await syncFolder(dirname(resolve(opts.output)));
-    return { output: opts.output, format, frames: framesDone, framesThisRun: framesDone - resumedFrom, resumedFrom, outside, seconds: (Date.now() - started) / 1000, threads, modelSha256, selection };
+    return { output: opts.output, format, frames: framesDone, framesThisRun: framesDone - resumedFrom, resumedFrom, outside, summary: sumsKnown && sums ? summaryOfSums(sums) : null, seconds: (Date.now() - started) / 1000, threads, modelSha256, selection };
   } catch (e) {
     runner?.cancelAll();
     await Promise.allSettled([...inFlight.values()].map((x) => x.promise));

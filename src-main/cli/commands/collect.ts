@@ -17,6 +17,8 @@ export const collectCommand: Command = {
     `              Writes ${tensorKey('alpha-c')}: the conducting-boundary cell polarisability α_c in Å³ (CP2K prints a.u. = bohr³).`,
     '              Its input (named in the output) must sit beside it: the cell and settings come from the input, and',
     '              the atoms too (&COORD or the coordinate file it names) when the output does not print them.',
+    `              An isolated molecule (PERIODIC_DIPOLE_OPERATOR F with PERIODIC NONE in &CELL and &POISSON) gives`,
+    `              ${tensorKey('alpha-mol')}: its polarisability in vacuum (Å³), on a frame without a cell (train with --as alpha-mol).`,
     `  Quantum ESPRESSO  the ph.x output (epsil = .true. at q = 0) and the pw.x output it continues. Writes ${tensorKey('eps')}:`,
     '              the optical dielectric tensor ε∞ (dimensionless). Cells printed in alat units are converted from Bohr.',
     'Each frame also says reference_kind, reference_units, dft_run, dft_program and the settings compared.',
@@ -34,7 +36,7 @@ export const collectCommand: Command = {
     const r = await collectToFile(args.positionals, out, { signal: io.signal });
     const first = r.runs[0];
     const key = tensorKey(first.kind);
-    io.out(`collected ${r.runs.length} run${r.runs.length === 1 ? '' : 's'} into ${out}: ${key} (${first.kind === 'eps' ? 'ε∞, dimensionless' : 'α_c, conducting boundary, Å³'}), ${first.program}\n`);
+    io.out(`collected ${r.runs.length} run${r.runs.length === 1 ? '' : 's'} into ${out}: ${key} (${first.kind === 'eps' ? 'ε∞, dimensionless' : first.kind === 'alpha-mol' ? 'α of an isolated molecule, Å³' : 'α_c, conducting boundary, Å³'}), ${first.program}\n`);
     for (const s of r.settings) io.out(`  ${s.name}: ${s.value}\n`);
     if (r.notCompared.length) io.out(`  not compared (known for only some runs): ${r.notCompared.join(', ')}\n`);
     if (r.left.length) {

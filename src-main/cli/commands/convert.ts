@@ -3,8 +3,8 @@
 // extended XYZ (the tensor added as a property) or as a per-frame CSV table.
 import { commandArgs, UsageError } from '../args.ts';
 import type { Command } from '../command.ts';
-import { TENSOR_KINDS } from '../../core/dielectric/clausius-mossotti.ts';
-import type { TensorKind } from '../../core/learning/model-types.ts';
+import { CELL_TENSOR_KINDS } from '../../core/dielectric/clausius-mossotti.ts';
+import type { CellTensorKind } from '../../core/learning/model-types.ts';
 import { parsePolarisabilityUnit } from '../../core/dielectric/units.ts';
 import { fileKind } from '../../io/read-structures.ts';
 import { convertTensors } from '../../app/tensor-conversion.ts';
@@ -19,10 +19,11 @@ const options = [
   { name: 'output', short: 'o', value: 'OUT', help: 'output file: .extxyz/.xyz (frames with the tensor added) or .csv (one row per frame)' },
 ];
 
-export function parseKind(text: string | undefined, option: string): TensorKind {
+export function parseKind(text: string | undefined, option: string): CellTensorKind {
   if (text === undefined) throw new UsageError(`--${option} is required (eps, alpha-c or alpha-cm)`);
-  if (!(TENSOR_KINDS as readonly string[]).includes(text)) throw new UsageError(`--${option} must be eps, alpha-c or alpha-cm, got "${text}"`);
-  return text as TensorKind;
+  if (text === 'alpha-mol') throw new UsageError(`--${option} alpha-mol: an isolated molecule's polarisability has no cell volume, so it converts to nothing (ε, n and Δn are not defined for a lone molecule)`);
+  if (!(CELL_TENSOR_KINDS as readonly string[]).includes(text)) throw new UsageError(`--${option} must be eps, alpha-c or alpha-cm, got "${text}"`);
+  return text as CellTensorKind;
 }
 
 export const convertCommand: Command = {

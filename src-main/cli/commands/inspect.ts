@@ -14,8 +14,9 @@ export function guessKind(key: string): string {
   const kind = guessTensorKind(key);
   if (kind === 'eps') return 'looks like ε (use --as eps)';
   if (kind === 'alpha-cm') return 'looks like α_CM (use --as alpha-cm)';
+  if (kind === 'alpha-mol') return 'looks like the polarisability of an isolated molecule or cluster (frames without a cell: --as alpha-mol)';
   if (kind === 'alpha-c') return 'looks like a cell polarisability (α_c from periodic linear response: --as alpha-c)';
-  return 'kind unknown (give --as eps|alpha-c|alpha-cm)';
+  return 'kind unknown (give --as eps|alpha-c|alpha-cm|alpha-mol)';
 }
 
 export function formatSummary(s: FileSummary): string {

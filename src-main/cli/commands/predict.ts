@@ -10,7 +10,8 @@ import { CancelledError, InputError } from '../../core/errors.ts';
 import type { FrameRange } from '../../io/extxyz.ts';
 import { structureEntry } from '../../io/read-structures.ts';
 import { checkpointPaths, progressLine, streamPredict, type StreamPredictOptions } from '../../app/predict/stream-predict.ts';
-import { loadModelFile, predictOutputFormat, predictToFile, type LoadedModel } from '../../app/predict/prediction.ts';
+import { loadModelFile, predictOutputFormat, predictToFile, setSummaryLines, type LoadedModel } from '../../app/predict/prediction.ts';
+import type { SetSummary } from '../../core/learning/set-summary.ts';
 import { availableParallelism } from 'node:os';
 
 const options = [
@@ -34,8 +35,9 @@ export function parseShard(spec: string | undefined): { k: number; n: number } |
 }
 
 /** The summary lines every predict run ends with. */
-function reportDone(io: CommandIO, frames: number, output: string, outside: number): void {
+function reportDone(io: CommandIO, frames: number, output: string, outside: number, summary: SetSummary | null): void {
   io.out(`${frames} frames predicted, written to ${output}\n`);
+  if (summary) io.out(setSummaryLines(summary).join('\n') + '\n');
   if (outside > 0) io.out(`warning: ${outside} of ${frames} frames have atoms outside the training data (column "outside"); treat those predictions with care\n`);
   io.out('Predictions are model estimates.\n');
 }
@@ -60,7 +62,7 @@ export async function runStreamPredict(model: LoadedModel, opts: Omit<StreamPred
     });
     if (r.resumedFrom > 0) io.err(`predict: continued from frame ${r.resumedFrom} of an interrupted run\n`);
     io.err(`predict: ${r.framesThisRun} frames in ${r.seconds.toFixed(1)} s (${(r.framesThisRun / Math.max(r.seconds, 1e-9)).toFixed(2)} frames/s, ${r.threads} thread${r.threads === 1 ? '' : 's'})\n`);
-    reportDone(io, r.frames, r.output, r.outside);
+    reportDone(io, r.frames, r.output, r.outside, r.summary);
     return 0;
   } catch (e) {
     if (e instanceof CancelledError) {
@@ -106,7 +108,7 @@ export async function runPredict(model: LoadedModel, input: string, output: stri
     },
   });
   io.err(`predict: ${r.frames} frames in ${((Date.now() - started) / 1000).toFixed(1)} s\n`);
-  reportDone(io, r.frames, output, r.outside);
+  reportDone(io, r.frames, output, r.outside, r.summary);
   return 0;
 }
 

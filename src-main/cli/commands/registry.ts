@@ -2,6 +2,7 @@
 import type { Command } from '../command.ts';
 import { analyseCommand } from './analyse.ts';
 import { collectCommand } from './collect.ts';
+import { selectCommand } from './select.ts';
 import { convertCommand } from './convert.ts';
 import { demoCommand } from './demo.ts';
 import { inspectCommand } from './inspect.ts';
@@ -21,5 +22,6 @@ export const commands: Command[] = [
   mergeCommand,
   referenceCommand,
   collectCommand,
+  selectCommand,
   demoCommand,
 ];

@@ -39,10 +39,12 @@ export function describeModel(model: Model): string {
 export const trainCommand: Command = {
   name: 'train',
   summary: 'learn a model of a cell tensor from frames with reference values',
-  usage: 'IN --tensor KEY --as eps|alpha-c|alpha-cm -o MODEL [options]   (--as only for a tensor)',
+  usage: 'IN --tensor KEY --as eps|alpha-c|alpha-cm|alpha-mol [--isolated-tensor KEY] -o MODEL [options]   (--as only for a tensor)',
   description:
     'Reads every frame of IN (extended XYZ), learns the tensor as a sum of per-atom contributions and writes the\n' +
-    'model file. The regulariser is chosen by cross-validation on the training frames unless given.',
+    'model file. The regulariser is chosen by cross-validation on the training frames unless given.\n' +
+    'Frames without a periodic cell (pbc="F F F" or no Lattice) are isolated molecules or clusters: --as alpha-mol\n' +
+    'when every frame is one; mixed with periodic frames, name their polarisability (Å³) with --isolated-tensor KEY.',
   options,
   async run(argv, io) {
     const { args, output: out } = commandArgs(argv, options, { inputs: 1, missing: 'give exactly one input file', output: 'give the model file to write with -o MODEL' });

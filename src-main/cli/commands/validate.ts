@@ -8,6 +8,7 @@ import type { ErrorFigures, Route } from '../../core/learning/model-types.ts';
 import { validateValues, type ValueErrorFigures } from '../../core/learning/validation.ts';
 import { fmtPct, validateRoutes, verdict, verdictOf } from '../../app/learning.ts';
 import { headlineErrors, type StatePointErrors } from '../../core/learning/state-points.ts';
+import { isIsolated } from '../../core/learning/targets.ts';
 import { checkTargetOptions, parseRequest, parseRoute, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf } from '../learn-options.ts';
 
 const options = [
@@ -34,12 +35,14 @@ export function formatValueErrors(e: ValueErrorFigures): string {
 export const validateCommand: Command = {
   name: 'validate',
   summary: 'cross-validate a model of a cell tensor (both routes by default), dipole or scalar, and say whether it is good',
-  usage: 'IN --tensor KEY --as eps|alpha-c|alpha-cm [--folds K] [--learning-curve 10,20,40] [--route cm|direct|both]   (--as only for a tensor)',
+  usage: 'IN --tensor KEY --as eps|alpha-c|alpha-cm|alpha-mol [--isolated-tensor KEY] [--folds K] [--learning-curve 10,20,40] [--route cm|direct|both]   (--as only for a tensor)',
   description:
     'Tensor errors are in the tensor\'s units: isotropic = RMSE of tr/3; anisotropic = root mean square over frames\n' +
     'of the anisotropy √(3/2)·‖ΔT − tr ΔT/3‖ of the error tensor (the eps_aniso invariant of predict\'s CSV).\n' +
     '"of the spread" = RMSE / standard deviation of the reference over the frames; compared on ε and on α_CM.\n' +
-    'A dipole (3 numbers) is compared as a vector, RMSE = sqrt(mean |Δμ|²); a scalar as it is.',
+    'A dipole (3 numbers) is compared as a vector, RMSE = sqrt(mean |Δμ|²); a scalar as it is.\n' +
+    'Frames without a periodic cell (molecules, clusters) are compared on their polarisability (Å³); a set mixing\n' +
+    'them with periodic frames reports each kind separately.',
   options,
   async run(argv, io) {
     const { args } = commandArgs(argv, options, { inputs: 1, missing: 'give exactly one input file' });
@@ -51,10 +54,15 @@ export const validateCommand: Command = {
       if (curve.some((n) => !Number.isInteger(n) || n < 1)) throw new UsageError('--learning-curve takes whole numbers of frames, e.g. 10,20,40');
     }
     const which = parseRoute(args.options.route, true);
-    const routes: Route[] = which === 'both' ? ['cm', 'direct'] : [which];
+    let routes: Route[] = which === 'both' ? ['cm', 'direct'] : [which];
     checkTargetOptions(args);
     const frames = await readFrames(args.positionals[0], io);
     io.err(`validate: ${frames.length} frames read from ${args.positionals[0]}\n`);
+    if (which === 'both' && frames.some(isIsolated)) {
+      // route direct learns α_c per cell volume, which molecules and clusters do not have (targets.ts frameTarget)
+      routes = ['cm'];
+      io.out('route direct skipped: the set holds frames without a periodic cell (molecules or clusters), which only route cm can learn\n');
+    }
     const shape = targetShapeOf(args, frames);
     if (shape !== 'tensor') {
       // a dipole or a scalar: learnt as it is, one comparison (routes and --as do not apply)
@@ -71,19 +79,22 @@ export const validateCommand: Command = {
     }
     const { reports, better } = await validateRoutes(frames, (route) => parseRequest(args, route), routes, { folds, learningCurve: curve }, (route) => ({ signal: io.signal, onProgress: progressReporter(io, `validate ${route}`) }));
     for (const { route, report } of reports) {
-      io.out(`route ${route}: ${folds}-fold cross-validation over ${report.errors.count} frames\n`);
+      const onEps = report.target.startsWith('eps');
+      const mainName = onEps ? `ε${report.target === 'eps' ? '' : report.target.slice(3)}` : report.target;
+      io.out(`route ${route}: ${folds}-fold cross-validation over ${frames.length} frames\n`);
+      for (const note of report.notes) io.out(`  ${note}\n`);
       io.out(statePointLines(report.statePoints ?? null));
-      io.out(`  on ε${report.statePoints ? ', over all frames (the spread includes the differences between state points)' : ''}:\n${indent(formatErrors(report.errors, ''), 4)}\n`);
-      for (const o of report.alsoOn) io.out(`  on ${o.target}:\n${indent(formatErrors(o.errors, ' Å³'), 4)}\n`);
+      io.out(`  on ${mainName} (${report.errors.count} frames${report.statePoints ? '; the spread includes the differences between state points' : ''}):\n${indent(formatErrors(report.errors, onEps ? '' : ' Å³'), 4)}\n`);
+      for (const o of report.alsoOn) io.out(`  on ${o.target} (${o.errors.count} frames):\n${indent(formatErrors(o.errors, ' Å³'), 4)}\n`);
       for (const lc of report.learningCurve) {
         const pm = (m: number, sd: number | undefined) => (sd !== undefined && lc.repeats && lc.repeats > 1 ? `${fmtPct(m).replace(' %', '')} ± ${fmtPct(sd)}` : fmtPct(m));
         const splits = lc.repeats && lc.repeats > 1 ? ` (mean ± spread of ${lc.repeats} random splits)` : '';
-        io.out(`  learning curve, ${lc.trainSize} training frames${splits}: error of ε, isotropic ${pm(lc.errors.percentIso, lc.spread?.percentIso)}, anisotropic ${pm(lc.errors.percentAniso, lc.spread?.percentAniso)} of the spread\n`);
+        io.out(`  learning curve, ${lc.trainSize} training frames${splits}: error of ${mainName}, isotropic ${pm(lc.errors.percentIso, lc.spread?.percentIso)}, anisotropic ${pm(lc.errors.percentAniso, lc.spread?.percentAniso)} of the spread\n`);
       }
       if (report.curveTrend) io.out(`  learning curve: ${report.curveTrend}\n`);
       if (report.skippedSizes.length) io.out(`  learning-curve sizes skipped (more than the training folds hold): ${report.skippedSizes.join(', ')}\n`);
       const head = headlineErrors(report);
-      io.out(`  verdict (rule of thumb, on ε ${head.what}): ${verdict(head.errors)}\n`);
+      io.out(`  verdict (rule of thumb, on ${mainName} ${head.what}): ${verdict(head.errors)}\n`);
       io.out(errorBarLine(report.errorBars));
     }
     if (better) io.out(`comparison on ε: route ${better.route} has the smaller root-mean-square error of the whole tensor (cm ${better.totals.cm.toPrecision(3)}, direct ${better.totals.direct.toPrecision(3)})\n`);

@@ -9,19 +9,24 @@
 // Also: warnings for ε∞ below 1, principal refractive indices and birefringence.
 import { InputError, PhysicsError, type Where } from '../errors.ts';
 import type { Mat3 } from '../geometry/frame.ts';
-import type { Route, TensorErrorBars, TensorKind } from '../learning/model-types.ts';
+import type { CellTensorKind, Route, TensorErrorBars, TensorKind } from '../learning/model-types.ts';
 import { SYMMETRY_TOLERANCE, fromIrreducible, mat3Inverse, mat3Multiply, symmetricEigen, symmetricFunction } from './tensor.ts';
 
 export type { TensorKind } from '../learning/model-types.ts';
 
-export const TENSOR_KINDS: readonly TensorKind[] = ['eps', 'alpha-c', 'alpha-cm'];
+/** Every kind of tensor a file can carry (model-types.ts TensorKind), in the order the options list them. */
+export const TENSOR_KINDS: readonly TensorKind[] = ['eps', 'alpha-c', 'alpha-cm', 'alpha-mol'];
+/** The kinds of a periodic cell's tensor, which the relations below turn into one another. */
+export const CELL_TENSOR_KINDS: readonly CellTensorKind[] = ['eps', 'alpha-c', 'alpha-cm'];
 
 const FOUR_PI = 4 * Math.PI;
 
 /** Relative closeness to a singular point (ε = −2 principal value) treated as singular. */
 const SINGULAR_TOLERANCE = 1e-12;
 
-function describeKind(kind: TensorKind): string {
+/** A tensor kind in words. */
+export function describeKind(kind: TensorKind): string {
+  if (kind === 'alpha-mol') return 'the polarisability of an isolated molecule or cluster';
   return kind === 'eps' ? 'the optical dielectric tensor ε' : kind === 'alpha-c' ? 'the conducting-boundary polarisability α_c' : 'the Clausius–Mossotti polarisability α_CM';
 }
 
@@ -122,6 +127,10 @@ export function alphaCMToAlphaC(alphaCM: Mat3, volumeA3: number, where: Where = 
  */
 export function convertTensor(T: Mat3, from: TensorKind, to: TensorKind, volumeA3: number, where: Where = {}): Mat3 {
   for (const k of [from, to]) {
+    if (k === 'alpha-mol' && from !== to) {
+      throw new InputError(`${describeKind(k)} has no cell volume, so it cannot be turned into ${describeKind(k === from ? to : from)}`, where,
+        'ε, n and Δn are not defined for a lone molecule; a model trained on clusters predicts a periodic frame\'s ε through α_CM');
+    }
     if (!TENSOR_KINDS.includes(k)) throw new RangeError(`convertTensor: unknown tensor kind '${String(k)}' (use eps, alpha-c or alpha-cm)`);
   }
   checkInput(T, from, volumeA3, where);

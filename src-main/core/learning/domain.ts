@@ -152,6 +152,14 @@ function rangeScore(v: number, min: number, median: number, max: number): number
   return (v - median) / Math.max(max - median, 1e-3 * Math.abs(median), 1e-9);
 }
 
+/**
+ * Whether an atom with domain score u lies outside the training data: beyond the training's extreme in some
+ * check. The one rule for counting atoms outside and for marking them in the window.
+ */
+export function atomOutside(u: number): boolean {
+  return u > 1;
+}
+
 /** What the domain check says about one frame. */
 export interface DomainResult {
   /** Per atom score u (max over its checks; 0 inside … 1 at the training extreme). */
@@ -236,7 +244,7 @@ export function checkDomain(
   let expected = 0;
   let severe = false;
   for (let i = 0; i < N; i++) {
-    if (u[i] > 1) outsideAtoms++;
+    if (atomOutside(u[i])) outsideAtoms++;
     if (u[i] > 2) severe = true;
     sum2 += u[i] * u[i];
     const a = g.speciesIndex[i];

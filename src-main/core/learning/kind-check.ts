@@ -42,7 +42,7 @@ export function kindProblem(t: Mat3, kind: TensorKind, atoms: number): string | 
   const perAtom = iso / atoms;
   const [lo, hi] = ALPHA_PER_ATOM_RANGE_A3;
   if (!(perAtom >= lo && perAtom <= hi)) {
-    const name = kind === 'alpha-c' ? 'α_c' : 'α_CM';
+    const name = kind === 'alpha-c' ? 'α_c' : kind === 'alpha-cm' ? 'α_CM' : 'α of an isolated molecule or cluster';
     const asEps = iso >= EPS_ISO_RANGE[0] && iso <= EPS_ISO_RANGE[1] ? ` (its isotropic value ${iso.toPrecision(4)} looks like an ε∞)` : '';
     return `declared as ${name} (Å³) but it is ${perAtom.toPrecision(3)} Å³ per atom, outside ${lo}–${hi} Å³ per atom${asEps}`;
   }

@@ -3,8 +3,16 @@
 // browser host and the window speak only these types. Extend, do not break.
 import type { Mat3 } from '../geometry/frame.ts';
 
-/** What a tensor in a file is: the optical dielectric tensor, or a cell polarisability (Å³). */
-export type TensorKind = 'eps' | 'alpha-c' | 'alpha-cm';
+/**
+ * What a tensor in a file is: the optical dielectric tensor, a cell polarisability (Å³), or the polarisability
+ * of an isolated molecule or cluster in vacuum (`alpha-mol`, Å³; frames without a cell). A body in vacuum
+ * responds to the field it feels as a spherical sample in vacuum does, so `alpha-mol` is learnt as the same
+ * additive quantity as α_CM (route cm); ε, n and Δn are not defined for it.
+ */
+export type TensorKind = 'eps' | 'alpha-c' | 'alpha-cm' | 'alpha-mol';
+
+/** The kinds of a periodic cell's tensor (convertible into one another through the cell volume). */
+export type CellTensorKind = Exclude<TensorKind, 'alpha-mol'>;
 
 /** cm: learn α_CM (after the inverse Clausius–Mossotti relation) and convert back; direct: learn ε itself. */
 export type Route = 'cm' | 'direct';
@@ -19,6 +27,11 @@ export interface TrainRequest {
   /** What that tensor is. */
   kind: TensorKind;
   route: Route;
+  /**
+   * Key of the molecule's or cluster's polarisability (Å³) in frames without a cell, when the set mixes them with
+   * periodic frames of a cell kind (core/learning/targets.ts frameTarget). Not needed when kind is alpha-mol.
+   */
+  isolatedKey?: string;
   settings?: Partial<ModelSettings>;
   /** Candidate values to choose by cross-validation on the training frames (each list tried in every combination). */
   tune?: TuneGrid;
@@ -89,6 +102,8 @@ export interface TensorErrorBars {
 }
 
 export interface FramePrediction {
+  /** Absent or false: a periodic frame (IsolatedPrediction is the other case). */
+  isolated?: false;
   /** Cell volume (Å³). */
   volumeA3: number;
   /** Clausius–Mossotti cell polarisability (Å³). */
@@ -105,6 +120,24 @@ export interface FramePrediction {
    * model carries no calibration (models saved before error bars existed, or trained on fewer than 3 frames). */
   errorBars: TensorErrorBars | null;
 }
+
+/**
+ * The prediction for a frame without a periodic cell (an isolated molecule or cluster): its polarisability in
+ * vacuum and the local contributions that sum to it. It has no volume, and ε, n, Δn and α_c are not defined.
+ */
+export interface IsolatedPrediction {
+  isolated: true;
+  /** Polarisability of the molecule or cluster in vacuum (Å³), learnt as α_CM is (route cm). */
+  alphaMol: Mat3;
+  /** Per-atom local contributions, 9 per atom (Å³), summing to alphaMol. */
+  local: Float64Array;
+  applicability: Applicability;
+  /** Calibrated one-standard-deviation error bar of tr alphaMol / 3 (Å³); null when the model carries no calibration. */
+  alphaIsoSd: number | null;
+}
+
+/** A tensor model's prediction for any frame: periodic (ε and the cell polarisabilities) or isolated (α only). */
+export type TensorPrediction = FramePrediction | IsolatedPrediction;
 
 /** One frame's reference and prediction in irreducible parts (for parity charts). */
 export interface ParityPoint {

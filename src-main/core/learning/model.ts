@@ -21,7 +21,7 @@ import {
   type KernelExpansion,
   type Order,
 } from './kernels.ts';
-import type { Applicability, FramePrediction, ModelSettings, Route, TensorKind, TrainRequest, TuneGrid, WorkHooks } from './model-types.ts';
+import type { Applicability, FramePrediction, IsolatedPrediction, ModelSettings, Route, TensorKind, TensorPrediction, TrainRequest, TuneGrid, WorkHooks } from './model-types.ts';
 import { makeRng } from '../numerics/random.ts';
 import { cachedNearestSearch, searchNearest } from './nearest-search.ts';
 import { tuneCombinations, tuneSettingsWith, type TuneResult } from './tuning.ts';
@@ -41,7 +41,9 @@ import {
   type Representatives,
 } from './sparse.ts';
 import {
+  frameTarget,
   frameVolume,
+  isIsolated,
   learntQuantity,
   learntTensor,
   readValues,
@@ -109,7 +111,10 @@ export interface TrainingSummary {
   frames: number;
   atoms: number;
   atomsPerSpecies: Record<string, number>;
+  /** Range of the periodic frames' cell volumes (0 and 0 when every frame is isolated). */
   volumeA3: { min: number; max: number };
+  /** Frames without a periodic cell (molecules, clusters); absent when there were none. */
+  isolatedFrames?: number;
   /** Irreducible components of the learnt target per frame: mean, std dev, min, max. */
   target: { mean: number[]; std: number[]; min: number[]; max: number[] };
 }
@@ -216,31 +221,54 @@ interface TargetRows {
   components: number;
   /** frames × components */
   values: Float64Array;
+  /** Cell volume per frame (Å³); 0 for an isolated frame. */
   volumes: Float64Array;
+  /** Per frame: 1 for an isolated molecule or cluster (targets.ts isIsolated), else 0. */
+  isolated: Uint8Array;
 }
 
 export function learntTargets(frames: Frame[], request: TrainRequest): TargetRows {
   if (frames.length === 0) throw new InputError('no frames to learn from', {}, 'give a file with at least one frame carrying the reference tensor');
-  const first = readValues(frames[0], request.tensorKey, 0);
-  const shape = shapeOfValues(first, request.tensorKey, whereOf(frames[0], 0));
+  const firstKey = request.kind === 'alpha-mol' || !isIsolated(frames[0]) ? request.tensorKey : request.isolatedKey ?? request.tensorKey;
+  const first = readValues(frames[0], firstKey, 0);
+  const shape = shapeOfValues(first, firstKey, whereOf(frames[0], 0));
   const components = shape === 'tensor' ? 6 : shape === 'vector' ? 3 : 1;
   const values = new Float64Array(frames.length * components);
   const volumes = new Float64Array(frames.length);
+  const isolated = new Uint8Array(frames.length);
   frames.forEach((frame, f) => {
-    const raw = readValues(frame, request.tensorKey, f);
-    const s = shapeOfValues(raw, request.tensorKey, whereOf(frame, f));
-    if (s !== shape) throw new InputError(`property "${request.tensorKey}" has ${raw.length} numbers here but ${first.length} in the first frame`, whereOf(frame, f));
-    volumes[f] = frame.cell ? cellVolume(frame.cell, whereOf(frame, f)) : 0;
+    const target = shape === 'tensor' ? frameTarget(frame, request, f) : { key: request.tensorKey, kind: request.kind, isolated: isIsolated(frame) };
+    const raw = readValues(frame, target.key, f);
+    const s = shapeOfValues(raw, target.key, whereOf(frame, f));
+    if (s !== shape) throw new InputError(`property "${target.key}" has ${raw.length} numbers here but ${first.length} in the first frame`, whereOf(frame, f));
+    isolated[f] = target.isolated ? 1 : 0;
+    volumes[f] = target.isolated ? 0 : cellVolume(frame.cell as Mat3, whereOf(frame, f));
     if (shape === 'tensor') {
-      const v = frameVolume(frame, f);
       const given = readTensorValues(raw, frame, f);
-      if (!request.trustKind) checkTensorKind(given, request.kind, frame.species.length, request.tensorKey, whereOf(frame, f));
-      const t = learntTensor(given, request.kind, request.route, v);
+      if (!request.trustKind) checkTensorKind(given, target.kind, frame.species.length, target.key, whereOf(frame, f));
+      const t = learntTensor(given, target.kind, request.route, target.isolated ? null : volumes[f]);
       values.set(toIrreducible(t), f * 6);
     } else if (shape === 'vector') values.set(vectorToSpherical(raw), f * 3);
     else values[f] = raw[0];
   });
-  return { shape, components, values, volumes };
+  return { shape, components, values, volumes, isolated };
+}
+
+/**
+ * What a set that holds isolated frames tells the user about it: how many of each kind, what each is learnt
+ * as, and the weight each kind gets in the fit (every frame the same). Empty for an all-periodic set.
+ */
+export function isolatedFramesNote(isolated: ArrayLike<number>, kind: TensorKind): string[] {
+  let n = 0;
+  for (let f = 0; f < isolated.length; f++) n += isolated[f];
+  if (n === 0) return [];
+  const periodic = isolated.length - n;
+  const what = `${n} isolated frame${n === 1 ? '' : 's'} (molecules or clusters, no cell): their polarisability in vacuum is learnt as the same additive quantity as α_CM (Å³)`;
+  if (periodic === 0) return [`${what}; ε, n and Δn are defined only for periodic frames predicted through the forward Clausius–Mossotti relation`];
+  return [
+    `${what}; ${periodic} periodic frame${periodic === 1 ? '' : 's'} (${kind}) enter through α_CM (Å³). ` +
+      'Weights: every frame weighs 1 in the least-squares fit, clusters and cells alike, on its α in Å³ — a frame with more atoms has a larger α, so the same relative error weighs more there',
+  ];
 }
 
 function readTensorValues(raw: number[], frame: Frame, f: number): Mat3 {
@@ -465,7 +493,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   }
   const foldOf = foldsOf(perm, folds);
   const cv = nFrames >= 3 ? { fold: foldOf, folds, signal: hooks.signal } : null;
-  const notes: string[] = [];
+  const notes: string[] = isolatedFramesNote(targets.isolated, request.kind);
   if (!cv && settings.regularisation === null) notes.push('fewer than 3 frames: regulariser not cross-validated (default 1e-6)');
   const composition = compositionNote(centres, Array.from({ length: nFrames }, (_, f) => Array.from(counts.subarray(f * nS, (f + 1) * nS))));
   if (composition && targets.shape === 'tensor') notes.push(composition);
@@ -642,10 +670,15 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const stats = targetStatistics(y, nFrames, C);
   let vmin = Infinity;
   let vmax = -Infinity;
-  for (const v of targets.volumes) {
-    vmin = Math.min(vmin, v);
-    vmax = Math.max(vmax, v);
-  }
+  let isolatedFrames = 0;
+  targets.volumes.forEach((v, f) => {
+    if (targets.isolated[f]) isolatedFrames++;
+    else {
+      vmin = Math.min(vmin, v);
+      vmax = Math.max(vmax, v);
+    }
+  });
+  if (isolatedFrames === nFrames) vmin = vmax = 0;
   hooks.onProgress?.({ stage: 'done', done: 1, total: 1 });
   return {
     createdAt: options.createdAt ?? new Date().toISOString(),
@@ -666,7 +699,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     baseline: [...baseline],
     parts,
     applicability,
-    training: { frames: nFrames, atoms, atomsPerSpecies, volumeA3: { min: vmin, max: vmax }, target: stats },
+    training: { frames: nFrames, atoms, atomsPerSpecies, volumeA3: { min: vmin, max: vmax }, target: stats, ...(isolatedFrames ? { isolatedFrames } : {}) },
     notes,
     calibration,
     leverage: leveragePart,
@@ -1020,25 +1053,53 @@ export function predictTarget(model: Model, frame: Frame, index = 0, featurise?:
   return predictor(frame, index);
 }
 
-/** The tensors of a tensor model's prediction (the contract of model-types.ts). */
+/** The tensors of a tensor model's prediction for a periodic frame (the contract of model-types.ts). */
 export function framePredictionFrom(model: Model, frame: Frame, pred: TargetPrediction, index = 0): FramePrediction {
-  if (model.target.shape !== 'tensor') {
-    throw new ModelError(`this model predicts a ${model.target.shape} ("${model.target.key}"), not a tensor; use predictTarget`);
-  }
+  requireTensorModel(model);
   const v = frameVolume(frame, index);
   const learnt = fromIrreducible(pred.irreducible);
   const { alphaCM, alphaC, eps } = tensorsFromLearnt(learnt, model.target.route, v);
   requireFinite(frame, alphaCM, alphaC, eps);
-  const n = frame.species.length;
-  const local = new Float64Array(n * 9);
   // route direct: contributions to ε − I of this cell, (4π/V) × the local α_c contribution (model-types.ts).
-  const scale = model.target.route === 'direct' ? (4 * Math.PI) / v : 1;
-  for (let i = 0; i < n; i++) {
+  const local = localTensors(pred, frame.species.length, model.target.route === 'direct' ? (4 * Math.PI) / v : 1);
+  const errorBars = pred.uncertainty ? propagateErrorBars(eps, v, model.target.route, pred.uncertainty.sd) : null;
+  return { volumeA3: v, alphaCM, alphaC, eps, local, applicability: pred.applicability, errorBars };
+}
+
+/**
+ * A tensor model's prediction for any frame: a periodic frame as framePredictionFrom gives it; an isolated
+ * molecule or cluster as its polarisability in vacuum (the learnt α_CM-like sum), with no ε. A route-direct
+ * model learnt α_c per cell and cannot predict an isolated frame.
+ */
+export function tensorPredictionFrom(model: Model, frame: Frame, pred: TargetPrediction, index = 0): TensorPrediction {
+  if (!isIsolated(frame)) return framePredictionFrom(model, frame, pred, index);
+  requireTensorModel(model);
+  if (model.target.route !== 'cm') {
+    const at = frame.source ? `${frame.source.file}, frame ${frame.source.index}: ` : '';
+    throw new ModelError(`${at}this frame has no periodic cell, and a route-direct model learnt α_c per cell volume, which a lone molecule does not have; use a model of route cm`);
+  }
+  const alphaMol = fromIrreducible(pred.irreducible);
+  requireFinite(frame, alphaMol);
+  const sd0 = pred.uncertainty ? pred.uncertainty.sd[0] : null;
+  // tr α / 3 = T⁰/√3 (science.md §3), so its standard deviation is sd(T⁰)/√3
+  const out: IsolatedPrediction = { isolated: true, alphaMol, local: localTensors(pred, frame.species.length, 1), applicability: pred.applicability, alphaIsoSd: sd0 === null ? null : sd0 / Math.sqrt(3) };
+  return out;
+}
+
+function requireTensorModel(model: Model): void {
+  if (model.target.shape !== 'tensor') {
+    throw new ModelError(`this model predicts a ${model.target.shape} ("${model.target.key}"), not a tensor; use predictTarget`);
+  }
+}
+
+/** Per-atom local tensors, 9 per atom, from the per-atom irreducible parts, times `scale`. */
+function localTensors(pred: TargetPrediction, atoms: number, scale: number): Float64Array {
+  const local = new Float64Array(atoms * 9);
+  for (let i = 0; i < atoms; i++) {
     const t = fromIrreducible(pred.localIrreducible.subarray(i * 6, i * 6 + 6));
     for (let q = 0; q < 9; q++) local[i * 9 + q] = t[q] * scale;
   }
-  const errorBars = pred.uncertainty ? propagateErrorBars(eps, v, model.target.route, pred.uncertainty.sd) : null;
-  return { volumeA3: v, alphaCM, alphaC, eps, local, applicability: pred.applicability, errorBars };
+  return local;
 }
 
 export function predictFrame(model: Model, frame: Frame): FramePrediction {

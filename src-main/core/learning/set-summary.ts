@@ -2,6 +2,8 @@
 // and birefringence, each with the model error bar, beside the same figures of the reference tensors where the
 // file has them. The model error bar of a mean over frames of one set is the mean of the frames' error bars: model
 // errors of similar frames are correlated, so they do not shrink as 1/√N (docs/learning-engine.md, "Error bars").
+// The figures come from running sums (SetSums) so that a streamed run over any number of frames, in batches, in
+// worker threads, resumed after an interruption, gives the numbers the window gives for the same frames.
 import type { Mat3 } from '../geometry/frame.ts';
 import type { TensorErrorBars } from './model-types.ts';
 import { isotropicMean, symmetricEigen } from '../dielectric/tensor.ts';
@@ -26,39 +28,87 @@ export interface SetSummary {
   framesOutside: number;
 }
 
-function optics(mean: Mat3): OpticsFigures {
-  const v = symmetricEigen(mean).values;
+function optics(mean: ArrayLike<number>): OpticsFigures {
+  const m = Float64Array.from(mean) as Mat3;
+  const v = symmetricEigen(m).values;
   const n = [0, 1, 2].map((k) => Math.sqrt(Math.max(v[k], 0))) as [number, number, number];
-  return { epsIso: isotropicMean(mean), n, dn: n[2] - n[0] };
+  return { epsIso: isotropicMean(m), n, dn: n[2] - n[0] };
 }
 
-function meanOf(ts: ArrayLike<number>[]): Float64Array {
-  const m = new Float64Array(9);
-  for (const t of ts) for (let i = 0; i < 9; i++) m[i] += t[i] / ts.length;
-  return m;
+/** One predicted frame as the summary sees it. */
+export interface SetFrame {
+  eps: ArrayLike<number>;
+  errorBars?: TensorErrorBars | null;
+  reference?: ArrayLike<number> | null;
+  outside: boolean;
 }
 
-export function setSummary(frames: { eps: ArrayLike<number>; errorBars?: TensorErrorBars | null; reference?: ArrayLike<number> | null; outside: boolean }[]): SetSummary {
-  if (frames.length === 0) throw new RangeError('setSummary: no frames');
-  const mean = meanOf(frames.map((f) => f.eps));
-  let errorBars: TensorErrorBars | null = null;
-  if (frames.every((f) => f.errorBars)) {
-    const avg = (get: (e: TensorErrorBars) => number) => frames.reduce((s, f) => s + get(f.errorBars as TensorErrorBars), 0) / frames.length;
-    errorBars = {
-      epsIso: avg((e) => e.epsIso),
-      epsPrincipal: [0, 1, 2].map((k) => avg((e) => e.epsPrincipal[k])) as [number, number, number],
-      n: [0, 1, 2].map((k) => avg((e) => e.n[k])) as [number, number, number],
-      dn: avg((e) => e.dn),
-      alphaCmIso: avg((e) => e.alphaCmIso),
-    };
+/** Running sums over predicted frames (plain JSON: a checkpoint keeps them, a worker sends them). */
+export interface SetSums {
+  frames: number;
+  /** Σ ε (9). */
+  eps: number[];
+  /** Frames with error bars, and the sums of their figures: ε_iso, ε_1..3, n_1..3, Δn, α_CM iso. */
+  withBars: number;
+  bars: number[];
+  /** Frames with a reference ε, and Σ reference ε (9). */
+  withReference: number;
+  reference: number[];
+  outside: number;
+}
+
+export function emptySums(): SetSums {
+  return { frames: 0, eps: new Array(9).fill(0), withBars: 0, bars: new Array(9).fill(0), withReference: 0, reference: new Array(9).fill(0), outside: 0 };
+}
+
+function barFigures(e: TensorErrorBars): number[] {
+  return [e.epsIso, ...e.epsPrincipal, ...e.n, e.dn, e.alphaCmIso];
+}
+
+/** Add one frame to the sums (in place; returns them). */
+export function addToSums(s: SetSums, f: SetFrame): SetSums {
+  s.frames++;
+  for (let i = 0; i < 9; i++) s.eps[i] += f.eps[i];
+  if (f.errorBars) {
+    s.withBars++;
+    const b = barFigures(f.errorBars);
+    for (let i = 0; i < b.length; i++) s.bars[i] += b[i];
   }
-  const refs = frames.map((f) => f.reference).filter((r): r is ArrayLike<number> => !!r && r.length === 9);
+  if (f.reference && f.reference.length === 9) {
+    s.withReference++;
+    for (let i = 0; i < 9; i++) s.reference[i] += f.reference[i];
+  }
+  if (f.outside) s.outside++;
+  return s;
+}
+
+/** Whether a value read back (a checkpoint) has the shape of SetSums. */
+export function isSetSums(v: unknown): v is SetSums {
+  const s = v as SetSums;
+  const nine = (x: unknown) => Array.isArray(x) && x.length === 9 && x.every((y) => typeof y === 'number' && Number.isFinite(y));
+  return !!s && typeof s === 'object' && [s.frames, s.withBars, s.withReference, s.outside].every((x) => Number.isInteger(x) && x >= 0) && nine(s.eps) && nine(s.bars) && nine(s.reference);
+}
+
+/** The summary of the frames added to the sums; null when there are none. */
+export function summaryOfSums(s: SetSums): SetSummary | null {
+  if (s.frames === 0) return null;
+  const mean = s.eps.map((x) => x / s.frames);
+  let errorBars: TensorErrorBars | null = null;
+  if (s.withBars === s.frames) {
+    const b = s.bars.map((x) => x / s.frames);
+    errorBars = { epsIso: b[0], epsPrincipal: [b[1], b[2], b[3]], n: [b[4], b[5], b[6]], dn: b[7], alphaCmIso: b[8] };
+  }
   return {
-    frames: frames.length,
-    meanEps: Array.from(mean),
+    frames: s.frames,
+    meanEps: mean,
     predicted: optics(mean),
     errorBars,
-    reference: refs.length ? { ...optics(meanOf(refs)), frames: refs.length } : null,
-    framesOutside: frames.filter((f) => f.outside).length,
+    reference: s.withReference ? { ...optics(s.reference.map((x) => x / s.withReference)), frames: s.withReference } : null,
+    framesOutside: s.outside,
   };
+}
+
+export function setSummary(frames: SetFrame[]): SetSummary {
+  if (frames.length === 0) throw new RangeError('setSummary: no frames');
+  return summaryOfSums(frames.reduce(addToSums, emptySums())) as SetSummary;
 }

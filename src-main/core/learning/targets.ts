@@ -11,7 +11,7 @@ import { convertTensor } from '../dielectric/clausius-mossotti.ts';
 import { cellVolume } from '../geometry/cell.ts';
 import { InputError, type Where } from '../errors.ts';
 import type { Frame, Mat3 } from '../geometry/frame.ts';
-import type { Route, TensorKind } from './model-types.ts';
+import type { Route, TensorKind, TrainRequest } from './model-types.ts';
 import { tensorFromValues } from '../dielectric/tensor.ts';
 
 export type TargetShape = 'tensor' | 'vector' | 'scalar';
@@ -51,11 +51,58 @@ export function learntQuantity(shape: TargetShape, route: Route): LearntQuantity
   return route === 'cm' ? 'alpha-cm' : 'alpha-c';
 }
 
+/**
+ * True for a frame without a periodic cell — no Lattice, or pbc="F F F": an isolated molecule or cluster, whose
+ * neighbour list has no periodic images (core/geometry/neighbours.ts) and whose tensor is a polarisability in
+ * vacuum. A frame periodic along one or two axes (a slab, a wire) is not isolated.
+ */
+export function isIsolated(frame: Frame): boolean {
+  return frame.cell === null || !(frame.pbc[0] || frame.pbc[1] || frame.pbc[2]);
+}
+
 /** Cell volume (Å³) of a frame whose tensor is to be learnt or predicted; a clear error for open structures. */
 export function frameVolume(frame: Frame, index: number): number {
   const where = whereOf(frame, index);
-  if (!frame.cell) throw new InputError('this frame has no cell', where, 'cell tensors (ε, α) need a periodic cell (Lattice="…" in extended XYZ)');
-  return cellVolume(frame.cell, where);
+  if (isIsolated(frame)) {
+    throw new InputError('this frame has no periodic cell', where,
+      'cell tensors (ε, α_c, α_CM) need a periodic cell (Lattice="…" with pbc true); for an isolated molecule or cluster give its polarisability in vacuum (--as alpha-mol, Å³)');
+  }
+  return cellVolume(frame.cell as Mat3, where);
+}
+
+/** Where a frame's reference tensor is and what it is (the kind of the request, or alpha-mol for an isolated frame). */
+export interface FrameTarget {
+  key: string;
+  kind: TensorKind;
+  isolated: boolean;
+}
+
+/**
+ * The key and kind of a frame's reference tensor. Kind alpha-mol: every frame must be isolated. A cell kind
+ * (eps, alpha-c, alpha-cm): periodic frames carry it under `tensorKey`; isolated frames carry the molecule's
+ * polarisability (Å³) under `isolatedKey`, which a mixed set must name — an ε of 1.7 and a polarisability of
+ * 1.7 Å³ look alike, so the tool never guesses which one a cluster's number is.
+ */
+export function frameTarget(frame: Frame, request: Pick<TrainRequest, 'tensorKey' | 'kind' | 'isolatedKey' | 'route'>, index: number): FrameTarget {
+  const isolated = isIsolated(frame);
+  const where = whereOf(frame, index);
+  if (isolated && request.route === 'direct') {
+    throw new InputError('route direct learns α_c = (ε − I)V/4π, which a frame without a periodic cell does not have', where,
+      'learn isolated molecules and clusters through route cm (their polarisability is learnt as α_CM is)');
+  }
+  if (request.kind === 'alpha-mol') {
+    if (!isolated) {
+      throw new InputError('this frame has a periodic cell, but its tensor is given as an isolated polarisability (alpha-mol)', where,
+        'mark a molecule in a vacuum box as isolated (pbc="F F F"), or give the periodic frames\' kind (eps, alpha-c or alpha-cm) and the clusters\' key with the isolated-tensor option');
+    }
+    return { key: request.tensorKey, kind: 'alpha-mol', isolated };
+  }
+  if (!isolated) return { key: request.tensorKey, kind: request.kind, isolated };
+  if (request.isolatedKey === undefined) {
+    throw new InputError(`this frame has no periodic cell, so "${request.tensorKey}" cannot be ${request.kind === 'eps' ? 'ε' : `a cell polarisability (${request.kind})`}`, where,
+      'for isolated molecules or clusters only, use --as alpha-mol; to mix them with periodic frames, name the clusters\' polarisability (Å³) with --isolated-tensor KEY');
+  }
+  return { key: request.isolatedKey, kind: 'alpha-mol', isolated };
 }
 
 /** The reference tensor of a frame, as a symmetric Mat3 of the given kind. */
@@ -66,8 +113,16 @@ export function readTensor(frame: Frame, key: string, index: number): Mat3 {
   return tensorFromValues(values, where);
 }
 
-/** The additive tensor to learn (α_CM or α_c, Å³) from a reference tensor of kind `kind`. */
-export function learntTensor(t: Mat3, kind: TensorKind, route: Route, volumeA3: number): Mat3 {
+/**
+ * The additive tensor to learn (α_CM or α_c, Å³) from a reference tensor of kind `kind`; an isolated
+ * polarisability is learnt as it is (route cm; frameTarget refuses route direct), with no volume.
+ */
+export function learntTensor(t: Mat3, kind: TensorKind, route: Route, volumeA3: number | null): Mat3 {
+  if (kind === 'alpha-mol') {
+    if (route !== 'cm') throw new RangeError('learntTensor: an isolated polarisability is learnt through route cm only');
+    return Float64Array.from(t);
+  }
+  if (volumeA3 === null) throw new RangeError(`learntTensor: a ${kind} tensor needs the cell volume`);
   return convertTensor(t, kind, route === 'cm' ? 'alpha-cm' : 'alpha-c', volumeA3);
 }
 

@@ -6,20 +6,21 @@ import { CancelledError, InputError } from '../errors.ts';
 import type { EnvironmentFeatures } from '../descriptors/feature-types.ts';
 import type { Frame } from '../geometry/frame.ts';
 import {
-  framePredictionFrom,
+  isolatedFramesNote,
   modelFeaturiser,
   predictWithFeatures,
   predictedVector,
   resolveSettings,
   speciesOf,
   trainWithFeaturiser,
+  tensorPredictionFrom,
   type Featuriser,
   type Model,
 } from './model.ts';
-import type { ErrorFigures, ParityPoint, TrainRequest, ValidationReport, WorkHooks } from './model-types.ts';
+import type { CellTensorKind, ErrorFigures, ParityPoint, TrainRequest, ValidationReport, WorkHooks } from './model-types.ts';
 import { makeRng } from '../numerics/random.ts';
 import { foldsOf } from './regression.ts';
-import { frameVolume, learntTensor, readTensor, readValues, shapeOfValues, vectorToSpherical, whereOf } from './targets.ts';
+import { frameTarget, frameVolume, learntTensor, readTensor, readValues, shapeOfValues, vectorToSpherical, whereOf } from './targets.ts';
 import { ZCollector, type ErrorBarCheck } from './calibration.ts';
 import { toIrreducible } from '../dielectric/tensor.ts';
 
@@ -151,31 +152,44 @@ export async function validate(
   request: TrainRequest,
   options: ValidationOptions,
   hooks: WorkHooks = {},
-): Promise<ValidationReport & { alsoOn: SecondaryComparison[]; skippedSizes: number[]; errorBars: ErrorBarCheck | null }> {
+): Promise<ValidationReport & { alsoOn: SecondaryComparison[]; skippedSizes: number[]; errorBars: ErrorBarCheck | null; notes: string[] }> {
   const n = frames.length;
   const k = options.folds;
   checkFolds(n, k);
   const settings = resolveSettings(request.settings);
   const { species, centres } = speciesOf(frames, settings);
-  const firstValues = frames[0].info[request.tensorKey];
+  const firstKey = frameTarget(frames[0], request, 0).key;
+  const firstValues = frames[0].info[firstKey];
   if (!Array.isArray(firstValues) || (firstValues.length !== 9 && firstValues.length !== 6)) {
-    throw new InputError(`validation compares cell tensors; "${request.tensorKey}" is not a 3×3 tensor`, { frame: 0 }, 'the window validates tensors only; for a dipole or a scalar run `polarweave validate` on the command line');
+    throw new InputError(`validation compares cell tensors; "${firstKey}" is not a 3×3 tensor`, { frame: 0 }, 'the window validates tensors only; for a dipole or a scalar run `polarweave validate` on the command line');
   }
   const base = modelFeaturiser({ settings, species, centres, target: { key: request.tensorKey, shape: 'tensor', kind: request.kind, route: request.route, learnt: 'alpha-cm', units: 'Å³' } });
   const featurise = cachedFeaturiser(base, frames);
 
-  // reference tensors, on ε and on α_CM
+  // reference tensors: periodic frames on ε and on α_CM; isolated frames (molecules, clusters) on their α
   const refEps: Float64Array[] = [];
   const refCM: Float64Array[] = [];
   const refLearnt: Float64Array[] = [];
+  const isolated: boolean[] = [];
   frames.forEach((f, i) => {
-    const t = readTensor(f, request.tensorKey, i);
-    if (!request.trustKind) checkTensorKind(t, request.kind, f.species.length, request.tensorKey, whereOf(f, i));
+    const target = frameTarget(f, request, i);
+    const t = readTensor(f, target.key, i);
+    if (!request.trustKind) checkTensorKind(t, target.kind, f.species.length, target.key, whereOf(f, i));
+    isolated.push(target.isolated);
+    if (target.isolated) {
+      const a = toIrreducible(learntTensor(t, 'alpha-mol', request.route, null));
+      refLearnt.push(a);
+      refCM.push(a);
+      refEps.push(new Float64Array(0));
+      return;
+    }
     const v = frameVolume(f, i);
-    refLearnt.push(toIrreducible(learntTensor(t, request.kind, request.route, v)));
-    refEps.push(toIrreducible(convertTensor(t, request.kind, 'eps', v)));
-    refCM.push(toIrreducible(convertTensor(t, request.kind, 'alpha-cm', v)));
+    refLearnt.push(toIrreducible(learntTensor(t, target.kind, request.route, v)));
+    refEps.push(toIrreducible(convertTensor(t, target.kind as CellTensorKind, 'eps', v)));
+    refCM.push(toIrreducible(convertTensor(t, target.kind as CellTensorKind, 'alpha-cm', v)));
   });
+  const periodicFrames = frames.map((_, i) => i).filter((i) => !isolated[i]);
+  const isolatedFrames = frames.map((_, i) => i).filter((i) => isolated[i]);
 
   const plan = planFolds(n, k, settings.seed, options.learningCurve, Math.max(1, Math.round(options.curveRepeats ?? CURVE_REPEATS)));
   const { usable, skippedSizes } = plan;
@@ -185,7 +199,13 @@ export async function validate(
     const z = new ZCollector([{ order: 0, offset: 0 }, { order: 2, offset: 1 }]);
     const tested = await runFoldsOf(frames, request, plan, size, featurise, species, hooks, (model, i) => {
       const pred = predictWithFeatures(model, frames[i], featurise(frames[i], i), i);
-      const fp = framePredictionFrom(model, frames[i], pred, i);
+      const fp = tensorPredictionFrom(model, frames[i], pred, i);
+      if (fp.isolated) {
+        pe[i] = new Float64Array(0);
+        pc[i] = toIrreducible(fp.alphaMol);
+        z.add(refLearnt[i], pred.irreducible, pred.uncertainty?.sd ?? null);
+        return;
+      }
       pe[i] = toIrreducible(fp.eps);
       pc[i] = toIrreducible(fp.alphaCM);
       const S3 = Math.sqrt(3);
@@ -203,33 +223,48 @@ export async function validate(
     main.tested.map((i) => ({ frame: i, label: label(i), reference: [...ref[i]], predicted: [...pred[i]] }));
   const errorsOf = (ref: Float64Array[], pred: Float64Array[], idx: number[]) =>
     errorFigures(idx.map((i) => ref[i]), idx.map((i) => pred[i]));
+  const only = (idx: number[], keep: number[]) => idx.filter((i) => keep.includes(i));
 
-  // state points (a state_point property, or density clusters): errors within and per state point
-  const groups = statePointsOf(frames, frames.map((f, i) => frameVolume(f, i)));
-  const statePoints = groups ? statePointErrors(main.tested.map((i) => refEps[i]), main.tested.map((i) => main.pe[i]), groups, main.tested.map((i) => groups.labels[i])) : null;
+  // The main comparison: ε over the periodic frames; a set of isolated frames only has none, and is compared
+  // on its polarisability. A mixed set reports each kind separately (errorsByKind).
+  const onEps = periodicFrames.length > 0;
+  const mainOf = (r: { pe: Float64Array[]; pc: Float64Array[]; tested: number[] }) =>
+    onEps ? errorsOf(refEps, r.pe, only(r.tested, periodicFrames)) : errorsOf(refCM, r.pc, r.tested);
+  // state points (a state_point property, or density clusters) of the frames of the main comparison
+  const spIdx = onEps ? only(main.tested, periodicFrames) : main.tested;
+  const groups = statePointsOf(spIdx.map((i) => frames[i]), spIdx.map((i) => (isolated[i] ? 0 : frameVolume(frames[i], i))));
+  const [spRef, spPred] = onEps ? [refEps, main.pe] : [refCM, main.pc];
+  const statePoints = groups ? statePointErrors(spIdx.map((i) => spRef[i]), spIdx.map((i) => spPred[i]), groups, groups.labels) : null;
 
   const learningCurve: ValidationReport['learningCurve'] = [];
   for (const size of usable) {
     const repeats: ErrorFigures[] = [];
-    for (let r = 0; r < plan.repeats; r++) {
-      const run = await runFolds(size, r);
-      repeats.push(errorsOf(refEps, run.pe, run.tested));
-    }
+    for (let r = 0; r < plan.repeats; r++) repeats.push(mainOf(await runFolds(size, r)));
     learningCurve.push(meanOfRepeats(size, repeats));
   }
-  const full = { trainSize: Math.min(...Array.from({ length: k }, (_, f) => plan.trainIndices(f).length)), errors: errorsOf(refEps, main.pe, main.tested) };
+  const alsoOn: SecondaryComparison[] = [];
+  const mainPoints = onEps ? pointsOf(refEps, main.pe).filter((p) => !isolated[p.frame]) : pointsOf(refCM, main.pc);
+  if (onEps) {
+    const tested = only(main.tested, periodicFrames);
+    alsoOn.push({ target: isolatedFrames.length ? 'alpha-cm (Å³), periodic frames' : 'alpha-cm (Å³)', errors: errorsOf(refCM, main.pc, tested), points: pointsOf(refCM, main.pc).filter((p) => !isolated[p.frame]) });
+  }
+  if (onEps && isolatedFrames.length) {
+    alsoOn.push({ target: 'alpha-mol (Å³), isolated frames', errors: errorsOf(refCM, main.pc, only(main.tested, isolatedFrames)), points: pointsOf(refCM, main.pc).filter((p) => isolated[p.frame]) });
+  }
+  const full = { trainSize: Math.min(...Array.from({ length: k }, (_, f) => plan.trainIndices(f).length)), errors: mainOf(main) };
   return {
     route: request.route,
-    target: 'eps',
+    target: onEps ? (isolatedFrames.length ? 'eps, periodic frames' : 'eps') : 'alpha-mol (Å³)',
     folds: k,
-    errors: errorsOf(refEps, main.pe, main.tested),
+    errors: mainOf(main),
     statePoints,
-    points: pointsOf(refEps, main.pe),
+    points: mainPoints,
     learningCurve,
     curveTrend: learningCurve.length ? curveTrend(learningCurve, full).text : null,
-    alsoOn: [{ target: 'alpha-cm (Å³)', errors: errorsOf(refCM, main.pc, main.tested), points: pointsOf(refCM, main.pc) }],
+    alsoOn,
     skippedSizes,
     errorBars: main.errorBars,
+    notes: isolatedFramesNote(Uint8Array.from(isolated, Number), request.kind),
   };
 }
 

@@ -1,8 +1,10 @@
 // CP2K: the cell polarisability of a linear-response run (&PROPERTIES &LINRES &POLAR). With the Berry-phase
 // dipole operator (PERIODIC_DIPOLE_OPERATOR T; the output names the perturbation "Berry phase_x/y/z") the
 // response is to a macroscopic field at fixed (conducting, "tin-foil") boundary: the conducting-boundary cell
-// polarisability α_c, with ε∞ = I + 4πα_c/V. With the position operator it is not a periodic quantity, and the
-// run is refused. CP2K prints the tensor in atomic units (bohr³) and in ang^3; we read the a.u. one (more
+// polarisability α_c, with ε∞ = I + 4πα_c/V. With the position operator it is not a periodic quantity: the run
+// is refused, unless the input makes it an isolated molecule — &CELL PERIODIC NONE and &POISSON PERIODIC NONE (a
+// non-periodic Poisson solver) — when it is the polarisability of the molecule or cluster in vacuum (alpha-mol),
+// and the frame has no cell. CP2K prints the tensor in atomic units (bohr³) and in ang^3; we read the a.u. one (more
 // significant digits for small values) and convert with CODATA's Bohr radius, and check it against the other.
 //
 // The printed tensor is not exactly symmetric (each column comes from its own linear solve, converged to the
@@ -46,14 +48,20 @@ function lengths(value: string, defaultUnit: number, count: number, where: Where
   return v.map((x) => x * factor);
 }
 
-function cellFromInput(subsys: Cp2kSection, inputFile: string): Mat3 {
+/** True when the input treats the system as isolated: no periodicity in &CELL nor in the Poisson solver. */
+function isolatedInput(forceEval: Cp2kSection, subsys: Cp2kSection): boolean {
+  const none = (v: string | undefined) => (v ?? '').trim().toUpperCase() === 'NONE';
+  return none(keyword(section(subsys, 'CELL'), 'PERIODIC')?.value) && none(keyword(section(forceEval, 'DFT', 'POISSON'), 'PERIODIC')?.value);
+}
+
+function cellFromInput(subsys: Cp2kSection, inputFile: string, isolated = false): Mat3 {
   const cell = section(subsys, 'CELL');
   if (!cell) throw new InputError('the input has no &CELL section', { file: inputFile, line: subsys.line }, 'a periodic polarisability needs the cell');
   const at = (line: number): Where => ({ file: cell.file, line });
   const fileKw = keyword(cell, 'CELL_FILE_NAME');
   if (fileKw) throw new InputError('the cell is read from a file (CELL_FILE_NAME), which this reader does not follow', at(fileKw.line), 'write the cell in &CELL (ABC or A, B, C)');
   const periodic = keyword(cell, 'PERIODIC');
-  if (periodic && periodic.value.toUpperCase() !== 'XYZ') {
+  if (periodic && periodic.value.toUpperCase() !== 'XYZ' && !(isolated && periodic.value.toUpperCase() === 'NONE')) {
     throw new InputError(`the cell is periodic only along ${periodic.value}`, at(periodic.line), 'a bulk polarisability needs PERIODIC XYZ');
   }
   const unitKw = keyword(cell, 'UNIT');
@@ -240,13 +248,15 @@ export function readCp2kRun(file: string, text: string, files: RunFiles = diskFi
   if (!/SCF run converged in/.test(text)) return unusable(file, 'unconverged', 'CP2K: no converged SCF in this output');
   const operators = lines.map((l) => /POLAR\|\s+Response to the perturbation operator\s+(.+?)\s*$/.exec(l)?.[1]).filter((x): x is string => x !== undefined);
   if (operators.length === 0) return unusable(file, 'unsuitable', 'CP2K: the output does not say which dipole operator the response used');
-  if (!operators.every((o) => /^Berry phase_[xyz]$/i.test(o))) {
-    return unusable(
+  const berry = operators.every((o) => /^Berry phase_[xyz]$/i.test(o));
+  const position = operators.every((o) => /^R_[xyz]$/i.test(o));
+  const notPeriodic = () =>
+    unusable(
       file,
       'unsuitable',
-      `CP2K: the response used the operator "${operators[0]}", not the Berry-phase periodic dipole; that is not the periodic (conducting-boundary) polarisability — run again with PERIODIC_DIPOLE_OPERATOR T`,
+      `CP2K: the response used the operator "${operators[0]}", not the Berry-phase periodic dipole; that is not the periodic (conducting-boundary) polarisability — run again with PERIODIC_DIPOLE_OPERATOR T (or, for an isolated molecule, set PERIODIC NONE in &CELL and in &POISSON)`,
     );
-  }
+  if (!berry && !position) return notPeriodic();
   const solved = lines.filter((l) => /The linear solver converged in/.test(l)).length;
   if (solved < operators.length) return unusable(file, 'unconverged', `CP2K: the linear-response solver converged for ${solved} of ${operators.length} field directions`);
 
@@ -276,10 +286,12 @@ export function readCp2kRun(file: string, text: string, files: RunFiles = diskFi
   const subsys = section(forceEval, 'SUBSYS');
   if (!forceEval || !subsys) throw new InputError('the input has no &FORCE_EVAL &SUBSYS', { file: inputFile }, 'is this the input of the run?');
   const periodicKw = keyword(section(forceEval, 'PROPERTIES', 'LINRES', 'POLAR'), 'PERIODIC_DIPOLE_OPERATOR');
-  if (!cp2kLogical(periodicKw?.value, true)) {
-    throw new InputError('the output used the Berry-phase operator but its input does not set PERIODIC_DIPOLE_OPERATOR T', { file: inputFile }, 'is this the input of the run?');
+  const isolated = position && isolatedInput(forceEval, subsys);
+  if (position && !isolated) return notPeriodic();
+  if (cp2kLogical(periodicKw?.value, true) !== berry) {
+    throw new InputError(`the output used the ${berry ? 'Berry-phase' : 'position'} operator but its input ${berry ? 'does not set' : 'sets'} PERIODIC_DIPOLE_OPERATOR T`, { file: inputFile }, 'is this the input of the run?');
   }
-  const cell = cellFromInput(subsys, inputFile);
+  const cell = cellFromInput(subsys, inputFile, isolated);
   const outputCoordName = outputValue(lines.slice(0, 400), /GLOBAL\|\s+Coordinate file name\s+(\S+)/);
   const atoms = atomsFromInput(subsys, cell, inputFile, outputCoordName === '__STD_INPUT__' ? null : outputCoordName, files);
   const species = atoms.labels.map((l) => elementOfKind(l, subsys, atoms.where));
@@ -295,7 +307,8 @@ export function readCp2kRun(file: string, text: string, files: RunFiles = diskFi
   if (count !== null && Number(count) !== species.length) {
     throw new InputError(`the output has ${count} atoms, its input (${atoms.source}) ${species.length}`, { file }, 'give the input (and coordinate file) that made this output');
   }
-  const frame = makeFrame(species, positions, cell);
+  // an isolated molecule keeps no cell: its box only bounds the grid (targets.ts isIsolated)
+  const frame = makeFrame(species, positions, isolated ? null : cell);
   const volume = cellVolume(cell, { file: inputFile });
   const printedVolume = outputValue(lines.slice(0, 2000), /CELL\|\s+Volume \[angstrom\^3\]:\s+(\S+)/);
   if (printedVolume !== null && Math.abs(Number(printedVolume) - volume) > 1e-5 * volume) {
@@ -309,8 +322,8 @@ export function readCp2kRun(file: string, text: string, files: RunFiles = diskFi
       program,
       frame,
       tensor: sym,
-      kind: 'alpha-c',
-      printedAs: `a.u. (bohr³) on line ${au.line}, converted to Å³; symmetric part`,
+      kind: isolated ? 'alpha-mol' : 'alpha-c',
+      printedAs: `a.u. (bohr³) on line ${au.line}, converted to Å³; symmetric part${isolated ? '; an isolated molecule (position operator, non-periodic cell and Poisson solver)' : ''}`,
       settings: settingsFromInput(forceEval, subsys),
     },
   };

@@ -29,11 +29,11 @@ export interface DftRun {
   files: string[];
   /** Program and version, e.g. "CP2K 2023.1", "Quantum ESPRESSO 6.7MaX". */
   program: string;
-  /** Species, positions and cell in Å; periodic. */
+  /** Species, positions and cell in Å; periodic, or without a cell for an isolated molecule (kind alpha-mol). */
   frame: Frame;
-  /** The reference tensor, row-major: α_c as a polarisability volume in Å³, or ε∞ (dimensionless). */
+  /** The reference tensor, row-major: α_c or an isolated molecule's α as a polarisability volume in Å³, or ε∞ (dimensionless). */
   tensor: Mat3;
-  kind: Extract<TensorKind, 'alpha-c' | 'eps'>;
+  kind: Extract<TensorKind, 'alpha-c' | 'eps' | 'alpha-mol'>;
   /** How the code printed it, for the report: "a.u. (bohr³), converted to Å³", "dimensionless". */
   printedAs: string;
   settings: RunSetting[];

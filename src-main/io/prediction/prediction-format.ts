@@ -6,7 +6,7 @@
 // take their names from here.
 import type { Frame } from '../../core/geometry/frame.ts';
 import { PhysicsError } from '../../core/errors.ts';
-import type { FramePrediction, TensorErrorBars } from '../../core/learning/model-types.ts';
+import type { IsolatedPrediction, TensorErrorBars, TensorPrediction } from '../../core/learning/model-types.ts';
 import { reasonText } from '../../core/learning/domain.ts';
 import type { TargetShape } from '../../core/learning/targets.ts';
 import type { Model, TargetPrediction } from '../../core/learning/model.ts';
@@ -26,10 +26,11 @@ export interface TensorRow {
   frame: number;
   /** Values of the tag columns named in the options (file name, frame tag, phase, …). */
   tags?: Record<string, string | number>;
-  /** Cell volume in Å³. */
-  volumeA3: number;
-  /** Optical dielectric tensor ε∞ (dimensionless). */
-  eps: Mat3;
+  /** Cell volume in Å³; null for an isolated molecule or cluster (written as an empty field). */
+  volumeA3: number | null;
+  /** Optical dielectric tensor ε∞ (dimensionless); null for an isolated molecule or cluster, which has none:
+   * its ε, n and Δn fields are written empty, never as a number. */
+  eps: Mat3 | null;
   /** Cell polarisability in Å³ of the kind options.alpha.kind (needed when options.alpha is set). */
   alpha?: Mat3;
   /** Values of the extra columns named in the options (e.g. applicability figures). */
@@ -51,7 +52,13 @@ export interface TensorCsvOptions {
   predicted?: boolean;
   /** First comment line (default: "Polarweave per-frame dielectric tensors"). */
   title?: string;
+  /** Say in the comment block how rows of isolated molecules or clusters are written (prediction tables of route cm). */
+  isolatedRows?: boolean;
 }
+
+/** The comment line on rows of frames without a cell (written when the table may hold them). */
+export const ISOLATED_ROWS_NOTE =
+  'Frames without a periodic cell (isolated molecules or clusters): volume_A3, eps_*, n_* and dn are empty because ε, n and Δn are not defined for a lone molecule; alpha_cm_* then holds the polarisability of the molecule or cluster in vacuum.';
 
 /** Tensor components in the order of the columns, and their row-major indices. */
 export const TENSOR_COMPONENTS = ['xx', 'yy', 'zz', 'xy', 'xz', 'yz'] as const;
@@ -115,6 +122,7 @@ export function tensorCsvPreamble(options: TensorCsvOptions, created = new Date(
     const what = options.alpha.kind === 'alpha-c' ? 'conducting-boundary cell polarisability (eps = I + 4 pi alpha_c / V)' : 'Clausius-Mossotti cell polarisability';
     lines.push(`${p}_*: ${what}, in ${UNIT_TEXT[options.alpha.unit]}.`);
   }
+  if (options.isolatedRows) lines.push(ISOLATED_ROWS_NOTE);
   for (const c of options.extraColumns ?? []) {
     const d = options.extraDescriptions?.[c];
     if (d) lines.push(`${c}: ${d}`);
@@ -138,19 +146,27 @@ export function tensorCsvRow(row: TensorRow, options: TensorCsvOptions): string 
     if (v === undefined) throw new RangeError(`tensorCsv: frame ${f} has no value for tag column '${t}'`);
     out.push(num(v, t, f));
   }
-  out.push(num(row.volumeA3, 'volume', f));
   const e = row.eps;
-  if (!e || e.length !== 9) throw new RangeError(`tensorCsv: frame ${f} has no 3×3 eps tensor`);
-  for (const i of INDEX) out.push(num(e[i], 'eps', f));
-  const { values } = symmetricEigen(e);
-  if (values[0] < 0) {
-    throw new PhysicsError(`eps has a negative principal value (${values[0].toPrecision(6)}): no real refractive index`, { frame: f });
+  if (e === null) {
+    // an isolated molecule or cluster: no volume, ε, n or Δn (ISOLATED_ROWS_NOTE) — empty fields, not numbers
+    if (row.volumeA3 !== null) throw new RangeError(`tensorCsv: frame ${f} has a volume but no eps tensor`);
+    out.push(NOT_DEFINED);
+    for (let k = 0; k < INDEX.length + 9; k++) out.push(NOT_DEFINED);
+  } else {
+    if (row.volumeA3 === null) throw new RangeError(`tensorCsv: frame ${f} has an eps tensor but no volume`);
+    out.push(num(row.volumeA3, 'volume', f));
+    if (e.length !== 9) throw new RangeError(`tensorCsv: frame ${f} has no 3×3 eps tensor`);
+    for (const i of INDEX) out.push(num(e[i], 'eps', f));
+    const { values } = symmetricEigen(e);
+    if (values[0] < 0) {
+      throw new PhysicsError(`eps has a negative principal value (${values[0].toPrecision(6)}): no real refractive index`, { frame: f });
+    }
+    const n = Array.from(values, Math.sqrt);
+    out.push(num(isotropicMean(e), 'eps_iso', f), num(anisotropy(e), 'eps_aniso', f));
+    for (const v of values) out.push(num(v, 'eps principal value', f));
+    for (const v of n) out.push(num(v, 'refractive index', f));
+    out.push(num(n[2] - n[0], 'birefringence', f));
   }
-  const n = Array.from(values, Math.sqrt);
-  out.push(num(isotropicMean(e), 'eps_iso', f), num(anisotropy(e), 'eps_aniso', f));
-  for (const v of values) out.push(num(v, 'eps principal value', f));
-  for (const v of n) out.push(num(v, 'refractive index', f));
-  out.push(num(n[2] - n[0], 'birefringence', f));
   if (options.alpha) {
     const a = row.alpha;
     if (!a || a.length !== 9) throw new RangeError(`tensorCsv: frame ${f} has no alpha tensor, but the options ask for one`);
@@ -222,7 +238,7 @@ export function tensorCsvWriter(path: string, options: TensorCsvOptions): Tensor
 // The columns every prediction carries (tensor, vector and scalar models)
 
 /** What a prediction column reads: the prediction of any target shape (tensor models: also its tensors). */
-export type PredictionOf<S extends 'any' | 'tensor'> = S extends 'tensor' ? FramePrediction : Pick<TargetPrediction, 'applicability'>;
+export type PredictionOf<S extends 'any' | 'tensor'> = S extends 'tensor' ? TensorPrediction : Pick<TargetPrediction, 'applicability'>;
 
 export type PredictionColumn =
   | { name: string; description: string; for: 'any'; value(p: PredictionOf<'any'>): CsvValue }
@@ -231,17 +247,19 @@ export type PredictionColumn =
 
 /** Text written where a model has no error-bar calibration (saved before it existed, or < 3 training frames). */
 export const NO_ERROR_BAR = '';
+/** Text written where a quantity is not defined for the frame (ε, n, Δn of an isolated molecule or cluster). */
+export const NOT_DEFINED = '';
 
 /**
  * The calibrated model error bars of a tensor prediction (one standard deviation; core/dielectric/clausius-mossotti.ts
  * propagateErrorBars), in column order: the CSV columns and, prefixed with pred_, the extended XYZ info keys.
  */
-export const ERROR_BAR_COLUMNS: readonly { name: string; description: string; value(e: TensorErrorBars): number }[] = [
+export const ERROR_BAR_COLUMNS: readonly { name: string; description: string; value(e: TensorErrorBars): number; isolated?: (p: IsolatedPrediction) => number | null }[] = [
   { name: 'eps_iso_sd', description: 'model error bar (1 standard deviation, calibrated on held-out training folds) of eps_iso', value: (e) => e.epsIso },
   ...([0, 1, 2] as const).map((k) => ({ name: `eps_${k + 1}_sd`, description: `error bar of eps_${k + 1}`, value: (e: TensorErrorBars) => e.epsPrincipal[k] })),
   ...([0, 1, 2] as const).map((k) => ({ name: `n_${k + 1}_sd`, description: `error bar of n_${k + 1} (= eps_${k + 1}_sd / (2 n_${k + 1}))`, value: (e: TensorErrorBars) => e.n[k] })),
   { name: 'dn_sd', description: 'error bar of dn (correlation of n_3 and n_1 kept)', value: (e) => e.dn },
-  { name: 'alpha_cm_iso_sd_A3', description: 'error bar of the isotropic Clausius-Mossotti cell polarisability (Å³)', value: (e) => e.alphaCmIso },
+  { name: 'alpha_cm_iso_sd_A3', description: 'error bar of the isotropic Clausius-Mossotti cell polarisability (Å³; of the molecule or cluster for a frame without a cell)', value: (e) => e.alphaCmIso, isolated: (p) => p.alphaIsoSd },
 ];
 
 /**
@@ -261,19 +279,25 @@ export const PREDICTION_COLUMNS: readonly PredictionColumn[] = [
     name: c.name,
     for: 'tensor' as const,
     description: `${c.description}; empty when the model carries no calibration`,
-    value: (p: FramePrediction) => (p.errorBars ? c.value(p.errorBars) : NO_ERROR_BAR),
+    value: (p: TensorPrediction) => errorBarValue(c, p) ?? NO_ERROR_BAR,
   })),
   { name: 'value_sd', for: 'value', description: 'model error bar (1 standard deviation, calibrated on held-out training folds) of each value component; empty when the model carries no calibration', value: (p) => (p.uncertainty ? p.uncertainty.sd[0] : NO_ERROR_BAR) },
 ];
+
+/** An error-bar column's value for a prediction: null where the model has no calibration or ε is not defined. */
+function errorBarValue(c: (typeof ERROR_BAR_COLUMNS)[number], p: TensorPrediction): number | null {
+  if (p.isolated) return c.isolated ? c.isolated(p) : null;
+  return p.errorBars ? c.value(p.errorBars) : null;
+}
 
 /** The PREDICTION_COLUMNS entries a model of this target shape writes, in order. */
 export function columnsFor(shape: TargetShape): PredictionColumn[] {
   return PREDICTION_COLUMNS.filter((c) => c.for === 'any' || (c.for === 'tensor') === (shape === 'tensor'));
 }
 
-function columnValues(shape: TargetShape, p: FramePrediction | TargetPrediction): Record<string, CsvValue> {
+function columnValues(shape: TargetShape, p: TensorPrediction | TargetPrediction): Record<string, CsvValue> {
   const out: Record<string, CsvValue> = {};
-  for (const c of columnsFor(shape)) out[c.name] = c.for === 'tensor' ? c.value(p as FramePrediction) : c.for === 'value' ? c.value(p as TargetPrediction) : c.value(p);
+  for (const c of columnsFor(shape)) out[c.name] = c.for === 'tensor' ? c.value(p as TensorPrediction) : c.for === 'value' ? c.value(p as TargetPrediction) : c.value(p);
   return out;
 }
 
@@ -313,8 +337,8 @@ export function hasReferenceColumns(options: TensorCsvOptions | undefined): bool
   return !!options?.extraColumns?.includes(REFERENCE_COLUMNS[0].name);
 }
 
-function referenceValues(ref: Mat3 | null, eps: Mat3): Record<string, CsvValue> {
-  return Object.fromEntries(REFERENCE_COLUMNS.map((c) => [c.name, ref ? c.value(ref, eps) : NO_REFERENCE]));
+function referenceValues(ref: Mat3 | null, eps: Mat3 | null): Record<string, CsvValue> {
+  return Object.fromEntries(REFERENCE_COLUMNS.map((c) => [c.name, ref && eps ? c.value(ref, eps) : NO_REFERENCE]));
 }
 
 /** Text written in the reference columns of a frame that carries no reference. */
@@ -342,23 +366,25 @@ export function predictionCsvOptions(model: Model, modelPath: string, options: P
     extraDescriptions: descriptions,
     source: options.source ?? `model ${modelPath} (route ${model.target.route}, trained on ${model.training.frames} frames)`,
     predicted: true,
+    isolatedRows: model.target.route === 'cm',
   };
 }
 
 /**
  * A tensor prediction as a per-frame table row: ε, the learnt cell polarisability of the route (α_CM for cm,
  * α_c for direct), the tag column and the prediction columns, and the reference columns when `reference` is
- * given (a tensor as ε, or null for a frame without one: empty cells).
+ * given (a tensor as ε, or null for a frame without one: empty cells). An isolated frame's row has no volume or
+ * ε (nor reference ε) and carries the molecule's polarisability in the α_CM columns.
  */
-export function tensorPredictionRow(index: number, frame: Frame, p: FramePrediction, model: Model, more: { reference?: Mat3 | null; tagKey?: string } = {}): TensorRow {
+export function tensorPredictionRow(index: number, frame: Frame, p: TensorPrediction, model: Model, more: { reference?: Mat3 | null; tagKey?: string } = {}): TensorRow {
   const reference = more.reference;
   return {
     frame: index,
     tags: { [TAG_COLUMN]: tagOf(frame, more.tagKey) },
-    volumeA3: p.volumeA3,
-    eps: p.eps,
-    alpha: model.target.route === 'cm' ? p.alphaCM : p.alphaC,
-    extra: { ...(reference !== undefined ? referenceValues(reference, p.eps) : {}), ...columnValues('tensor', p) },
+    volumeA3: p.isolated ? null : p.volumeA3,
+    eps: p.isolated ? null : p.eps,
+    alpha: p.isolated ? p.alphaMol : model.target.route === 'cm' ? p.alphaCM : p.alphaC,
+    extra: { ...(reference !== undefined ? referenceValues(p.isolated ? null : reference, p.isolated ? null : p.eps) : {}), ...columnValues('tensor', p) },
   };
 }
 
@@ -397,6 +423,8 @@ export function valueRowText(model: Model, row: PredictionRow): string {
 export const PRED_KEYS = {
   eps: 'pred_eps',
   alphaCM: 'pred_alpha_cm_A3',
+  /** An isolated frame's polarisability in vacuum (Å³); such a frame has no pred_eps, pred_alpha_cm_A3 or pred_alpha_c_A3. */
+  alphaMol: 'pred_alpha_mol_A3',
   alphaC: 'pred_alpha_c_A3',
   outside: 'pred_outside',
   maxDistance: 'pred_max_distance',
@@ -427,10 +455,11 @@ export function localArrayName(route: Model['target']['route']): string {
 }
 
 /** Info keys of an annotated frame from its prediction, in the order written. */
-export const PREDICTION_INFO: readonly { key: string; value(p: FramePrediction, model: Model): number[] | number | string | boolean | undefined }[] = [
-  { key: PRED_KEYS.eps, value: (p) => [...p.eps] },
-  { key: PRED_KEYS.alphaCM, value: (p) => [...p.alphaCM] },
-  { key: PRED_KEYS.alphaC, value: (p) => [...p.alphaC] },
+export const PREDICTION_INFO: readonly { key: string; value(p: TensorPrediction, model: Model): number[] | number | string | boolean | undefined }[] = [
+  { key: PRED_KEYS.eps, value: (p) => (p.isolated ? undefined : [...p.eps]) },
+  { key: PRED_KEYS.alphaCM, value: (p) => (p.isolated ? undefined : [...p.alphaCM]) },
+  { key: PRED_KEYS.alphaC, value: (p) => (p.isolated ? undefined : [...p.alphaC]) },
+  { key: PRED_KEYS.alphaMol, value: (p) => (p.isolated ? [...p.alphaMol] : undefined) },
   { key: PRED_KEYS.outside, value: (p) => p.applicability.outside },
   { key: PRED_KEYS.maxDistance, value: (p) => p.applicability.maxDistance },
   { key: PRED_KEYS.route, value: (_p, m) => m.target.route },
@@ -438,18 +467,18 @@ export const PREDICTION_INFO: readonly { key: string; value(p: FramePrediction, 
   { key: PRED_KEYS.fractionOutside, value: (p) => p.applicability.fractionOutside },
   { key: PRED_KEYS.reason, value: (p) => reasonText(p.applicability.reasons) || undefined },
   // error bars: absent (not invented) when the model carries no calibration
-  ...ERROR_BAR_COLUMNS.map((c) => ({ key: `pred_${c.name}`, value: (p: FramePrediction) => (p.errorBars ? c.value(p.errorBars) : undefined) })),
+  ...ERROR_BAR_COLUMNS.map((c) => ({ key: `pred_${c.name}`, value: (p: TensorPrediction) => errorBarValue(c, p) ?? undefined })),
 ];
 
 /** Per-atom arrays of an annotated frame from its prediction, in the order written. */
-export const PREDICTION_ARRAYS: readonly { name(model: Model): string; width: number; value(p: FramePrediction): Float64Array }[] = [
+export const PREDICTION_ARRAYS: readonly { name(model: Model): string; width: number; value(p: TensorPrediction): Float64Array }[] = [
   { name: (m) => localArrayName(m.target.route), width: 9, value: (p) => Float64Array.from(p.local) },
   { name: () => PRED_ARRAYS.distance, width: 1, value: (p) => Float64Array.from(p.applicability.atomDistance) },
   { name: () => PRED_ARRAYS.domainScore, width: 1, value: (p) => Float64Array.from(p.applicability.atomScore) },
 ];
 
 /** A copy of the frame with the prediction attached (PREDICTION_INFO keys, PREDICTION_ARRAYS arrays). */
-export function annotateFrame(frame: Frame, p: FramePrediction, model: Model): Frame {
+export function annotateFrame(frame: Frame, p: TensorPrediction, model: Model): Frame {
   const out: Frame = { ...frame, info: { ...frame.info }, arrays: { ...frame.arrays } };
   for (const k of PREDICTION_INFO) {
     const v = k.value(p, model);

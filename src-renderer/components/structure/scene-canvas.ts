@@ -14,6 +14,8 @@ export interface CanvasStyle {
   ringColour: (bin: number) => string;
   edge: string;
   warn: string;
+  /** Background colour, for the halo under a ring. */
+  halo: string;
 }
 
 function unitGradient(ctx: CanvasRenderingContext2D, stops: [string, string, string], alpha: [number, number, number]): CanvasGradient {
@@ -53,6 +55,17 @@ export function drawScene(ctx: CanvasRenderingContext2D, items: readonly SceneIt
       ctx.beginPath();
       ctx.moveTo(it.x1, it.y1);
       ctx.lineTo(it.x2, it.y2);
+      ctx.stroke();
+    } else if (it.kind === 'mark') {
+      ctx.globalAlpha = it.faded ? 0.3 : 0.85;
+      ctx.strokeStyle = style.halo;
+      ctx.lineWidth = 4.4;
+      ctx.beginPath();
+      ctx.arc(it.x, it.y, it.r, 0, 2 * Math.PI);
+      ctx.stroke();
+      ctx.globalAlpha = it.faded ? 0.35 : 1;
+      ctx.strokeStyle = style.warn;
+      ctx.lineWidth = 2.2;
       ctx.stroke();
     } else if (it.kind === 'atom') {
       let g = atomGrad.get(it.sp);

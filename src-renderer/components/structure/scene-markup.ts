@@ -6,6 +6,8 @@ export type SceneItem =
   | { kind: 'atom'; depth: number; x: number; y: number; r: number; sp: string; index: number; faded: boolean }
   | { kind: 'bond'; depth: number; x1: number; y1: number; x2: number; y2: number; sp: string; w: number; faded: boolean }
   | { kind: 'edge'; depth: number; x1: number; y1: number; x2: number; y2: number }
+  /** A ring around an atom outside the training data, drawn in front of the atom and its ellipsoid. */
+  | { kind: 'mark'; depth: number; x: number; y: number; r: number; index: number; faded: boolean }
   | {
       kind: 'ell';
       depth: number;
@@ -32,6 +34,8 @@ export interface SceneStyle {
   ringColour: (bin: number) => string;
   edge: string;
   warn: string;
+  /** Background colour, for the halo under a ring. */
+  halo: string;
 }
 
 /** A species name made safe for an id or attribute (letters and digits only). */
@@ -50,6 +54,12 @@ export function sceneMarkup(items: readonly SceneItem[], style: SceneStyle): str
     } else if (it.kind === 'bond') {
       out.push(
         `<line x1="${f(it.x1)}" y1="${f(it.y1)}" x2="${f(it.x2)}" y2="${f(it.y2)}" stroke="${style.bondColour(it.sp)}" stroke-width="${f(it.w)}" stroke-linecap="round"${it.faded ? ' opacity="0.3"' : ''}/>`,
+      );
+    } else if (it.kind === 'mark') {
+      out.push(
+        // a light halo under the ring keeps it readable over dark ellipsoids; solid, unlike the dashed outline of a negative principal value
+        `<circle cx="${f(it.x)}" cy="${f(it.y)}" r="${f(it.r)}" fill="none" stroke="${style.halo}" stroke-width="4.4" stroke-opacity="0.85"${it.faded ? ' opacity="0.35"' : ''} pointer-events="none"/>` +
+          `<circle cx="${f(it.x)}" cy="${f(it.y)}" r="${f(it.r)}" fill="none" stroke="${style.warn}" stroke-width="2.2"${it.faded ? ' opacity="0.35"' : ''} pointer-events="none" data-mark="outside:${it.index}"/>`,
       );
     } else if (it.kind === 'atom') {
       out.push(

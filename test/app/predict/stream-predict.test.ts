@@ -59,7 +59,8 @@ describe('streamPredict', () => {
 
   it('resumes after an interruption and ends with the bytes of an uninterrupted run', async () => {
     const clean = join(dir, 'clean.csv');
-    await run({ modelPath: modelPath(), input: input(), output: clean, threads: 2, batchFrames: 10 });
+    const whole = await run({ modelPath: modelPath(), input: input(), output: clean, threads: 2, batchFrames: 10 });
+    expect(whole.summary!.frames).toBe(20);
     const out = join(dir, 'resumed.csv');
     const stop = new AbortController();
     let seen = 0;
@@ -87,6 +88,8 @@ describe('streamPredict', () => {
     expect(r.framesThisRun).toBe(20 - seen);
     expect(readFileSync(out, 'utf8')).toBe(readFileSync(clean, 'utf8'));
     expect(existsSync(checkpoint)).toBe(false);
+    // the set summary covers the frames of both runs, equal to the bit to the uninterrupted run's
+    expect(r.summary).toEqual(whole.summary);
   }, 90_000);
 
   it('writes the same bytes with workers reused over one-frame batches as with a fresh worker per batch', async () => {

@@ -1,0 +1,90 @@
+// Pre-builds the `polarweave` command and its worker entries as plain JavaScript (esbuild), so that neither the
+// command nor a worker thread transpiles TypeScript at start. Run by `npm ci`/`npm install` (the `prepare`
+// script) and by `npm run build`; takes about a second. Output in out/cli/:
+//   main.mjs            the command (src-main/cli/main.ts), loaded by bin/polarweave.mjs
+//   predict-worker.mjs  the streaming predictor's worker (src-main/app/predict/predict-worker.ts)
+//   worker.mjs          the app's worker (src-main/app/worker.ts)
+//   chunk-*.mjs         code the three share (loaded once per thread, not three times)
+//   manifest.json       the source files it was built from and when: bin/polarweave.mjs runs the sources through
+//                       tsx instead when any of them is newer, so an edited checkout never runs stale code.
+// The bundles say where they live (globalThis.__polarweaveBundle); jobs/spawn-ts.ts then starts a worker from
+// the bundled entry of the same name instead of loading the .ts entry through tsx.
+import { mkdirSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { dirname, join, relative, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+const root = resolve(dirname(fileURLToPath(import.meta.url)), '..');
+// `--outdir DIR` builds elsewhere (the bundle test); the command itself looks in out/cli/
+const at = process.argv.indexOf('--outdir');
+const outdir = at > 0 ? resolve(process.argv[at + 1]) : join(root, 'out', 'cli');
+
+let esbuild;
+try {
+  esbuild = await import('esbuild');
+} catch {
+  // installation must not fail for it: the command then runs from the sources through tsx, only slower to start
+  console.warn('polarweave: esbuild is not installed; the command will run from the TypeScript sources (slower start)');
+  process.exit(0);
+}
+
+const ENTRIES = {
+  main: 'src-main/cli/main.ts',
+  'predict-worker': 'src-main/app/predict/predict-worker.ts',
+  worker: 'src-main/app/worker.ts',
+};
+
+/**
+ * zod's entries (classic and core) re-export every message locale (about 370 kB, a third of the bundle, compiled at every
+ * start); Polarweave uses English messages only (zod's default, set by the same entry), so the bundle gets a
+ * locale index holding just that one.
+ */
+const zodEnglishOnly = {
+  name: 'zod-english-only',
+  setup(build) {
+    build.onResolve({ filter: /^\.\.\/locales\/index\.js$/ }, (args) =>
+      /zod[\\/]v4[\\/](classic|core)[\\/]/.test(args.importer) ? { path: 'zod-locales-en', namespace: 'zod-locales' } : undefined,
+    );
+    build.onLoad({ filter: /.*/, namespace: 'zod-locales' }, () => ({
+      contents: "export { default as en } from 'zod/v4/locales/en.js';",
+      resolveDir: root,
+    }));
+  },
+};
+
+mkdirSync(outdir, { recursive: true });
+for (const f of readdirSync(outdir)) if (f.endsWith('.mjs') || f === 'manifest.json') rmSync(join(outdir, f));
+
+const builtAt = Date.now();
+const result = await esbuild.build({
+  absWorkingDir: root,
+  entryPoints: Object.fromEntries(Object.entries(ENTRIES).map(([k, v]) => [k, join(root, v)])),
+  outdir,
+  bundle: true,
+  splitting: true,
+  format: 'esm',
+  platform: 'node',
+  target: 'node20',
+  outExtension: { '.js': '.mjs' },
+  chunkNames: 'chunk-[hash]',
+  // tsx stays outside (only the sources' fallback path uses it); CommonJS packages inside need `require`
+  external: ['tsx', 'tsx/*'],
+  banner: {
+    js: [
+      "import { createRequire as __pwRequire } from 'node:module';",
+      'const require = __pwRequire(import.meta.url);',
+      "globalThis.__polarweaveBundle ??= new URL('.', import.meta.url).href;",
+    ].join('\n'),
+  },
+  plugins: [zodEnglishOnly],
+  metafile: true,
+  logLevel: 'warning',
+  minifyWhitespace: true,
+  minifySyntax: true,
+});
+
+const inputs = Object.keys(result.metafile.inputs)
+  .map((p) => relative(root, resolve(root, p)).split('\\').join('/'))
+  .filter((p) => p.startsWith('src-main/'))
+  .sort();
+writeFileSync(join(outdir, 'manifest.json'), JSON.stringify({ builtAt, entries: ENTRIES, inputs }, null, 1) + '\n');
+console.log(`polarweave: built ${Object.keys(ENTRIES).length} bundles from ${inputs.length} source files in ${relative(root, outdir) || '.'}/`);

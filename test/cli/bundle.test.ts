@@ -1,0 +1,48 @@
+// The pre-built command (scripts/build-cli.mjs, run by `npm ci`) is the same program as the sources: built into a
+// scratch folder, its help is the sources' help, and its predictions (worker threads started from the bundled
+// worker entry: the scratch folder has no TypeScript loader to fall back on) are byte for byte those of the
+// sources run in process.
+import { execFileSync } from 'node:child_process';
+import { mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { mainHelp } from '../../src-main/cli/main.ts';
+import { cli } from './run-cli.ts';
+
+const MODEL = 'test/fixtures/models/water-v1.model.json';
+const DATA = 'test/fixtures/water-dft-sample.extxyz';
+const dir = mkdtempSync(join(tmpdir(), 'pw-bundle-'));
+const bundle = join(dir, 'cli');
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+beforeAll(() => {
+  execFileSync(process.execPath, ['scripts/build-cli.mjs', '--outdir', bundle], { encoding: 'utf8' });
+  writeFileSync(join(bundle, 'run.mjs'), "const { main } = await import('./main.mjs');\nawait main();\n");
+}, 60_000);
+
+const runBundle = (...args: string[]) => execFileSync(process.execPath, [join(bundle, 'run.mjs'), ...args], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'] });
+
+describe('pre-built command', () => {
+  it('is plain JavaScript with a manifest of the sources it was built from', () => {
+    const files = readdirSync(bundle);
+    expect(files).toEqual(expect.arrayContaining(['main.mjs', 'predict-worker.mjs', 'worker.mjs', 'manifest.json']));
+    expect(files.some((f) => f.endsWith('.ts'))).toBe(false);
+    const manifest = JSON.parse(readFileSync(join(bundle, 'manifest.json'), 'utf8')) as { builtAt: number; inputs: string[] };
+    expect(manifest.inputs).toEqual(expect.arrayContaining(['src-main/cli/main.ts', 'src-main/app/predict/predict-worker.ts', 'src-main/core/learning/model.ts']));
+    expect(manifest.builtAt).toBeGreaterThan(0);
+  });
+
+  it('prints the help of the sources', () => {
+    expect(runBundle('--help')).toBe(mainHelp() + '\n');
+  });
+
+  it('predicts with bundled workers the bytes the sources give', async () => {
+    const fromBundle = join(dir, 'bundle.csv');
+    const fromSource = join(dir, 'source.csv');
+    runBundle('predict', MODEL, DATA, '--threads', '2', '-o', fromBundle);
+    const r = await cli('predict', MODEL, DATA, '--threads', '2', '-o', fromSource);
+    expect(r.code).toBe(0);
+    expect(readFileSync(fromBundle, 'utf8')).toBe(readFileSync(fromSource, 'utf8'));
+  }, 60_000);
+});
