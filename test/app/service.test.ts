@@ -1,7 +1,7 @@
 // The app service end to end in Node (no window): open a file of real DFT water frames, check the summary,
 // train through a worker thread, predict, and export a CSV that must match `polarweave predict` row for row
 // for the same model and frames. Plus the plain errors a user sees for bad input.
-import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
@@ -17,7 +17,10 @@ const service: AppService = createAppService({
   spawn: tsWorkerFactory(new URL('../../src-main/app/worker.ts', import.meta.url)),
   demoDir: join(scratch, 'no-demo'),
 });
-afterAll(() => service.dispose());
+afterAll(() => {
+  service.dispose();
+  rmSync(scratch, { recursive: true, force: true });
+});
 
 const small = { cutoff: 3.5, nmax: 3, lmax: 2, sparsePoints: 0, seed: 3 };
 

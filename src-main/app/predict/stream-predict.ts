@@ -246,7 +246,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   let ck = mode === 'restart' ? null : await readCheckpoint(ckPath);
   if (ck) {
     const why = mismatch(ck, want);
-    if (why) throw new InputError(`a checkpoint of an earlier run is here, but ${why}`, { file: ckPath }, 'run with --restart to start again (or use another output name)');
+    if (why) throw new InputError(`a checkpoint of an earlier run (input ${ck.input.path}, ${ck.framesDone} frames done) is here, but ${why}`, { file: ckPath }, 'run with --restart to start again (or use another output name)');
     const size = (await fsp.stat(partial).catch(() => null))?.size ?? -1;
     if (size < ck.partialBytes) throw new InputError(`the partial output holds ${Math.max(size, 0)} bytes, the checkpoint expects ${ck.partialBytes}`, { file: partial }, 'run with --restart to start again');
   } else if (mode === 'resume') {
