@@ -190,6 +190,8 @@ export type ComponentJ = 'xx' | 'yy' | 'zz' | 'xy' | 'xz' | 'yz';
 export interface TrajectoryStats {
   predictionId: string;
   frames: number[];
+  /** The frames' times (ps, from their time_fs property) when every frame carries one; the charts' x axis then. */
+  timesPs?: number[] | null;
   /** Per frame: εxx, εyy, εzz, εxy, εxz, εyz. */
   components: Record<ComponentJ, number[]>;
   /** Running mean of each component after each frame. */

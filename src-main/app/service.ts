@@ -490,10 +490,12 @@ export class AppService implements ApiService {
   }
 
   async trajectoryStats(params: ApiParams<'trajectoryStats'>): Promise<TrajectoryStats> {
+    // the charts' x axis: the frames' time (ps) when every frame carries one (time_fs), else the frame number
     const p = this.predictionRecord(params.predictionId);
     if (p.typed.length < 2) throw new ApiValidationError('a trajectory needs at least two predicted frames');
     return {
       ...trajectoryStatsJ(p.summary.id, p.frameIndices, p.typed),
+      timesPs: framesTimePs(p.frameIndices.map((i) => this.dataset(p.summary.datasetId).frames[i])),
       outside: p.typed.map((f) => f.applicability.outside),
       modelErrorIso: p.summary.summary?.errorBars?.epsIso ?? null,
     };
@@ -605,4 +607,10 @@ export class AppService implements ApiService {
   dispose(): void {
     this.options.runner.cancelAll();
   }
+}
+
+/** The frames' times in ps (their time_fs property), or null when one of them carries none. */
+export function framesTimePs(frames: readonly { info: Record<string, unknown> }[]): number[] | null {
+  const t = frames.map((f) => f.info.time_fs);
+  return t.length && t.every((v) => typeof v === 'number' && Number.isFinite(v)) ? (t as number[]).map((v) => v / 1000) : null;
 }

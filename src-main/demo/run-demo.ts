@@ -10,7 +10,7 @@ import { CancelledError, InputError } from '../core/errors.ts';
 import type { Mat3 } from '../core/geometry/frame.ts';
 import type { ErrorFigures, FramePrediction, ModelSettings, TrainRequest, ValidationReport } from '../core/learning/model-types.ts';
 import { trainModel, type Model } from '../core/learning/model.ts';
-import { validate, errorFigures } from '../core/learning/validation.ts';
+import { validate, errorFigures, tensorFeaturiser } from '../core/learning/validation.ts';
 import { toIrreducible, tensorFromValues } from '../core/dielectric/tensor.ts';
 import { readAllStructures } from '../io/read-structures.ts';
 import { saveModel } from '../io/model-file.ts';
@@ -88,14 +88,15 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
   // Learning curve at 1/8, 1/4 and 1/2 of a training fold; the full fold is the main cross-validation.
   const curve = [0.125, 0.25, 0.5].map((f) => Math.max(4, Math.round(f * minTrain))).filter((v, i, a) => a.indexOf(v) === i);
   log(`demo: ${folds}-fold cross-validation on the liquid, learning curve at ${curve.join(', ')} training frames`);
-  const report = await validate(liquid, REQUEST, { folds, learningCurve: curve }, {
+  const features = tensorFeaturiser(liquid, REQUEST); // computed once, for the validation and the final training
+  const report = await validate(liquid, REQUEST, { folds, learningCurve: curve, featurise: features }, {
     signal: options.signal,
     onProgress: (p) => log(`demo: validate, ${p.stage} (${p.done}/${p.total})`),
   });
   check();
 
   log(`demo: training on the ${liquid.length} liquid frames`);
-  const model: Model = await trainModel(liquid, REQUEST, { signal: options.signal });
+  const model: Model = await trainModel(liquid, REQUEST, { signal: options.signal }, features);
   check();
 
   await mkdir(outDir, { recursive: true });

@@ -791,8 +791,9 @@ export function tuneSettings(frames: Frame[], request: TrainRequest, grid: TuneG
  * Train a model on frames (the contract of model-types.ts). With `request.tune`, the listed settings are first
  * chosen by cross-validation on the same frames (core/learning/tuning.ts); the choice is recorded in the model's notes.
  */
-export async function trainModel(frames: Frame[], request: TrainRequest, hooks: WorkHooks = {}): Promise<Model> {
-  if (!request.tune || tuneCombinations(request.tune).length <= 1) return trainWithFeaturiser(frames, request, null, hooks);
+export async function trainModel(frames: Frame[], request: TrainRequest, hooks: WorkHooks = {}, featurise: Featuriser | null = null): Promise<Model> {
+  // `featurise`: the frames' features already computed for the same settings (validation.ts tensorFeaturiser)
+  if (!request.tune || tuneCombinations(request.tune).length <= 1) return trainWithFeaturiser(frames, request, featurise, hooks);
   const tuned = await tuneSettings(frames, request, request.tune, hooks);
   const model = await trainWithFeaturiser(frames, { ...request, tune: undefined, settings: { ...(request.settings ?? {}), ...tuned.best } }, null, hooks);
   const fmt = (s: Partial<ModelSettings>) => Object.entries(s).map(([k, v]) => `${settingSpec(k as NumericSettingKey).label.toLowerCase()} ${v}`).join(', ');

@@ -42,6 +42,28 @@ export interface ValidationOptions {
   learningCurve?: number[];
   /** Random subsets drawn at each learning-curve size (tensor targets; default CURVE_REPEATS). */
   curveRepeats?: number;
+  /** Features of the frames (tensorFeaturiser), to share with the final training; made here when not given. */
+  featurise?: Featuriser;
+}
+
+/**
+ * The cached features of a tensor request's frames, as validate() and the final training compute them: pass the
+ * same featuriser to validate (options.featurise) and trainModel, and each frame's features are computed once.
+ */
+export function tensorFeaturiser(frames: Frame[], request: TrainRequest): Featuriser {
+  const settings = resolveSettings(request.settings);
+  const { species, centres } = speciesOf(frames, settings);
+  return cachedFeaturiser(modelFeaturiser({ settings, species, centres, target: { key: request.tensorKey, shape: 'tensor', kind: request.kind, route: request.route, learnt: 'alpha-cm', units: 'Å³' } }), frames);
+}
+
+/** Compute (and cache) every frame's features first, with progress: the longest silent stage otherwise. */
+async function precomputeFeatures(frames: Frame[], featurise: Featuriser, hooks: WorkHooks): Promise<void> {
+  for (let i = 0; i < frames.length; i++) {
+    if (hooks.signal?.aborted) throw new CancelledError();
+    featurise(frames[i], i);
+    hooks.onProgress?.({ stage: 'features of the frames', done: i + 1, total: frames.length });
+    await new Promise((r) => setTimeout(r, 0));
+  }
 }
 
 /** Cache features of all frames when they fit comfortably in memory; else compute them on every use. */
@@ -163,8 +185,7 @@ export async function validate(
   if (!Array.isArray(firstValues) || (firstValues.length !== 9 && firstValues.length !== 6)) {
     throw new InputError(`validation compares cell tensors; "${firstKey}" is not a 3×3 tensor`, { frame: 0 }, 'the window validates tensors only; for a dipole or a scalar run `polarweave validate` on the command line');
   }
-  const base = modelFeaturiser({ settings, species, centres, target: { key: request.tensorKey, shape: 'tensor', kind: request.kind, route: request.route, learnt: 'alpha-cm', units: 'Å³' } });
-  const featurise = cachedFeaturiser(base, frames);
+  const featurise = options.featurise ?? tensorFeaturiser(frames, request);
 
   // reference tensors: periodic frames on ε and on α_CM; isolated frames (molecules, clusters) on their α
   const refEps: Float64Array[] = [];
@@ -191,6 +212,7 @@ export async function validate(
   const periodicFrames = frames.map((_, i) => i).filter((i) => !isolated[i]);
   const isolatedFrames = frames.map((_, i) => i).filter((i) => isolated[i]);
 
+  await precomputeFeatures(frames, featurise, hooks);
   const plan = planFolds(n, k, settings.seed, options.learningCurve, Math.max(1, Math.round(options.curveRepeats ?? CURVE_REPEATS)));
   const { usable, skippedSizes } = plan;
   const runFolds = async (size: number | null, repeat = 0) => {
