@@ -7,7 +7,7 @@
 import { join } from 'node:path';
 import { openBrowserSession } from './browser-session.mjs';
 
-const { page, outDir, close } = await openBrowserSession('quick', { width: 1440, height: 1000 });
+const { host, page, outDir, close } = await openBrowserSession('quick', { width: 1440, height: 1000 });
 const shot = async (name) => {
   await page.screenshot({ path: join(outDir, name), fullPage: true });
   console.log(`saved docs/screenshots/${name}`);
