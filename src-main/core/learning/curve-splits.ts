@@ -34,7 +34,9 @@ export type CurveTrend = 'falling' | 'flat' | 'rising' | 'unknown';
  * spread. With one split and no spread, a change of under 10 % of the error counts as flat (common practice, no source).
  */
 export function curveTrend(curve: readonly CurvePoint[], full?: CurvePoint): { trend: CurveTrend; text: string } {
-  const pts = [...curve, ...(full ? [full] : [])].filter((p) => Number.isFinite(p.errors.percentIso) && Number.isFinite(p.errors.percentAniso));
+  // the full fold counts only when larger than the curve's last size (a curve may end at the full fold itself)
+  const last = curve.at(-1)?.trainSize ?? 0;
+  const pts = [...curve, ...(full && full.trainSize > last ? [full] : [])].filter((p) => Number.isFinite(p.errors.percentIso) && Number.isFinite(p.errors.percentAniso));
   if (pts.length < 2) return { trend: 'unknown', text: 'Too few sizes to tell whether more data would help.' };
   const [a, b] = pts.slice(-2);
   const worst = (p: CurvePoint) => Math.max(p.errors.percentIso, p.errors.percentAniso);

@@ -27,6 +27,8 @@ describe('curveTrend', () => {
     expect(curveTrend([pt(4, 67, 20), pt(6, 90, 20)]).trend).toBe('flat');
     expect(curveTrend([pt(10, 30, 1), pt(20, 40, 1)]).trend).toBe('rising');
     expect(curveTrend([pt(10, 30, 1)]).trend).toBe('unknown');
+    // a curve ending at the full fold's size compares its own last two points, not a point with itself
+    expect(curveTrend([pt(40, 60, 3), pt(80, 40, 3)], { trainSize: 80, errors: fig(40) }).text).toMatch(/from 40 to 80 training frames/);
   });
 });
 
