@@ -7,6 +7,8 @@
 //   chunk-*.mjs         code the three share (loaded once per thread, not three times)
 //   manifest.json       the source files it was built from and when: bin/polarweave.mjs runs the sources through
 //                       tsx instead when any of them is newer, so an edited checkout never runs stale code.
+// When it cannot build (no esbuild, an error), it says so and exits 0: installation goes on, and the command runs
+// from the sources. Only the files of an earlier build are removed from the output folder.
 // The bundles say where they live (globalThis.__polarweaveBundle); jobs/spawn-ts.ts then starts a worker from
 // the bundled entry of the same name instead of loading the .ts entry through tsx.
 import { mkdirSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
@@ -52,35 +54,45 @@ const zodEnglishOnly = {
 };
 
 mkdirSync(outdir, { recursive: true });
-for (const f of readdirSync(outdir)) if (f.endsWith('.mjs') || f === 'manifest.json') rmSync(join(outdir, f));
+// only what an earlier build wrote: the manifest first, so that a failed build leaves the sources in charge
+const ours = (f) => f === 'manifest.json' || /^chunk-[A-Z0-9]+\.mjs$/.test(f) || Object.keys(ENTRIES).some((e) => f === `${e}.mjs`);
+rmSync(join(outdir, 'manifest.json'), { force: true });
+for (const f of readdirSync(outdir)) if (ours(f)) rmSync(join(outdir, f));
 
 const builtAt = Date.now();
-const result = await esbuild.build({
-  absWorkingDir: root,
-  entryPoints: Object.fromEntries(Object.entries(ENTRIES).map(([k, v]) => [k, join(root, v)])),
-  outdir,
-  bundle: true,
-  splitting: true,
-  format: 'esm',
-  platform: 'node',
-  target: 'node20',
-  outExtension: { '.js': '.mjs' },
-  chunkNames: 'chunk-[hash]',
-  // tsx stays outside (only the sources' fallback path uses it); CommonJS packages inside need `require`
-  external: ['tsx', 'tsx/*'],
-  banner: {
-    js: [
-      "import { createRequire as __pwRequire } from 'node:module';",
-      'const require = __pwRequire(import.meta.url);',
-      "globalThis.__polarweaveBundle ??= new URL('.', import.meta.url).href;",
-    ].join('\n'),
-  },
-  plugins: [zodEnglishOnly],
-  metafile: true,
-  logLevel: 'warning',
-  minifyWhitespace: true,
-  minifySyntax: true,
-});
+let result;
+try {
+  result = await esbuild.build({
+    absWorkingDir: root,
+    entryPoints: Object.fromEntries(Object.entries(ENTRIES).map(([k, v]) => [k, join(root, v)])),
+    outdir,
+    bundle: true,
+    splitting: true,
+    format: 'esm',
+    platform: 'node',
+    target: 'node20',
+    outExtension: { '.js': '.mjs' },
+    chunkNames: 'chunk-[hash]',
+    // tsx stays outside (only the sources' fallback path uses it); CommonJS packages inside need `require`
+    external: ['tsx', 'tsx/*'],
+    banner: {
+      js: [
+        "import { createRequire as __pwRequire } from 'node:module';",
+        'const require = __pwRequire(import.meta.url);',
+        "globalThis.__polarweaveBundle ??= new URL('.', import.meta.url).href;",
+      ].join('\n'),
+    },
+    plugins: [zodEnglishOnly],
+    metafile: true,
+    logLevel: 'warning',
+    minifyWhitespace: true,
+    minifySyntax: true,
+  });
+} catch (e) {
+  // installation must not fail for it: the command then runs from the sources through tsx, only slower to start
+  console.warn(`polarweave: could not pre-build the command (${e instanceof Error ? e.message.split('\n')[0] : e}); it will run from the TypeScript sources`);
+  process.exit(0);
+}
 
 const inputs = Object.keys(result.metafile.inputs)
   .map((p) => relative(root, resolve(root, p)).split('\\').join('/'))

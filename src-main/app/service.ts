@@ -528,7 +528,7 @@ export class AppService implements ApiService {
     if (target.shape !== undefined && target.shape !== 'tensor') {
       throw new ModelError(`${params.name}: this model predicts a ${String(target.shape)}, not a cell tensor; use it with \`polarweave predict\``);
     }
-    const kind = target.kind === 'eps' || target.kind === 'alpha-c' || target.kind === 'alpha-cm' ? target.kind : 'eps';
+    const kind = target.kind === 'eps' || target.kind === 'alpha-c' || target.kind === 'alpha-cm' || target.kind === 'alpha-mol' ? target.kind : 'eps';
     return this.registerModel(model, {
       name: params.name.replace(/\.pwmodel\.json$|\.json$/i, ''),
       request: { tensorKey: target.key, kind, route: target.route },

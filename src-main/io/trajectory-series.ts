@@ -71,7 +71,13 @@ function tensorColumns(t: CsvTable, names: (c: TensorComponent) => string): Floa
 function fromCsv(t: CsvTable): TrajectorySeries {
   const has = (c: string) => t.columns.includes(c);
   if (!has('frame')) throw new InputError("no 'frame' column", { file: t.file }, 'analyse reads the CSV that `predict` writes');
-  const eps = tensorColumns(t, epsColumn);
+  // frames without a periodic cell (isolated molecules) have empty ε fields (ISOLATED_ROWS_NOTE): a table of them
+  // only is analysed on its α series; a table mixing them with periodic frames has no one ε series
+  const isolatedRows = has('volume_A3') ? t.text('volume_A3').flatMap((v, f) => (v === '' ? [f] : [])) : [];
+  if (isolatedRows.length && isolatedRows.length < t.records.length) {
+    throw new InputError(`${isolatedRows.length} of ${t.records.length} rows are frames without a periodic cell (empty volume and ε), the others periodic (first isolated row on line ${t.lines[isolatedRows[0]]})`, { file: t.file }, 'analyse a trajectory of one kind: isolated molecules (their α) or periodic frames (ε)');
+  }
+  const eps = isolatedRows.length ? null : tensorColumns(t, epsColumn);
   const alphaCM = tensorColumns(t, (c) => alphaColumn('alpha-cm', c));
   const alphaC = tensorColumns(t, (c) => alphaColumn('alpha-c', c));
   let dipole: Float64Array | null = null;
@@ -103,7 +109,7 @@ function fromCsv(t: CsvTable): TrajectorySeries {
     file: t.file,
     kind: 'csv',
     frames: Array.from(t.numbers('frame')),
-    volume: has('volume_A3') ? Array.from(t.numbers('volume_A3')) : null,
+    volume: has('volume_A3') && !isolatedRows.length ? Array.from(t.numbers('volume_A3')) : null,
     eps,
     alphaCM,
     alphaC,

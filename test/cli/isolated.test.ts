@@ -64,6 +64,19 @@ describe('frames without a cell on the command line', () => {
     // a monomer of the invented molecule: about the sum of its point polarisabilities (B 1.1, N 1.05, 2 × Cl 2.3 Å³)
     expect(alpha[0]).toBeGreaterThan(5);
     expect(alpha[0]).toBeLessThan(12);
+
+    // analyse reads a table of isolated frames on its α series (no ε), and refuses one mixing them with periodic rows
+    const a = await cli(['analyse', csv, '-o', join(dir, 'a.csv')]);
+    expect(a.err).not.toMatch(/error/i);
+    expect(a.code).toBe(0);
+    expect(a.out).toMatch(/mean α_CM/);
+    const lines = text.split('\n');
+    const header = lines.findIndex((l) => l.startsWith('frame,'));
+    const periodicRow = lines[header + 1].split(',').map((f, k) => (k >= 2 && k <= 17 ? (k === 2 ? '1000' : '1.5') : f)).join(',');
+    writeFileSync(join(dir, 'mixed.csv'), [...lines.slice(0, header + 2), periodicRow, ...lines.slice(header + 2)].join('\n'));
+    const m = await cli(['analyse', join(dir, 'mixed.csv'), '-o', join(dir, 'm.csv')]);
+    expect(m.code).not.toBe(0);
+    expect(m.err).toMatch(/without a periodic cell/);
   }, 120_000);
 
   it('a mixed set trains with --isolated-tensor, and says it is needed when missing', async () => {

@@ -74,6 +74,8 @@ export interface StreamPredictOptions {
   batchSeconds?: number;
   /** Keep workers for the next batches (default true); false starts a fresh worker per batch (for comparison). */
   reuseWorkers?: boolean;
+  /** Hand the workers this process's model in shared memory (default true); false: each reads the file (for comparison). */
+  shareModel?: boolean;
   signal?: AbortSignal;
   onProgress?: (p: StreamProgress) => void;
   /** Worker factory (default: tsx-loaded app/predict/predict-worker.ts). */
@@ -283,7 +285,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     }
 
     // the workers predict with this process's model (read once), its arrays shared, not with copies of their own
-    const shared = sharedModel(model);
+    const shared = opts.shareModel === false ? undefined : sharedModel(model);
     // 'predict-chunk' leaves only its model cache behind, keyed on path and checksum: safe to reuse workers
     runner = new JobRunner({
       spawn: opts.spawn ?? tsWorkerFactory(new URL('./predict-worker.ts', import.meta.url)),

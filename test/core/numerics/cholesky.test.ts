@@ -1,5 +1,6 @@
+import { CholeskyDecomposition, Matrix, solve } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import { choleskyInPlace, choleskySolve, choleskyWithJitter, gramOfColumns, gramOfRows } from '../../../src-main/core/numerics/cholesky.ts';
+import { backSubstitute, choleskyInPlace, choleskySolve, choleskyWithJitter, forwardSubstitute, gramOfColumns, gramOfRows } from '../../../src-main/core/numerics/cholesky.ts';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
 
 describe('Cholesky on Float64Array', () => {
@@ -39,5 +40,34 @@ describe('Cholesky on Float64Array', () => {
     const phi = Float64Array.of(1, 2, 3, 4, 5, 6); // 2×3
     expect([...gramOfRows(phi, 2, 3)]).toEqual([14, 32, 32, 77]);
     expect([...gramOfColumns(phi, 2, 3)]).toEqual([17, 22, 27, 22, 29, 36, 27, 36, 45]);
+  });
+
+  it('agrees with ml-matrix (the reference library) on the factor, both triangular solves and the solve', () => {
+    const rng = makeRng(11);
+    const n = 75;
+    const m = new Float64Array(n * 90);
+    for (let i = 0; i < m.length; i++) m[i] = rng.normal();
+    const a = gramOfRows(m, n, 90);
+    const b = Float64Array.from({ length: n }, () => rng.normal());
+    const rows = Array.from({ length: n }, (_, i) => Array.from(a.subarray(i * n, i * n + n)));
+    const ref = new CholeskyDecomposition(new Matrix(rows));
+    expect(ref.isPositiveDefinite()).toBe(true);
+    const L = ref.lowerTriangularMatrix;
+    const own = Float64Array.from(a);
+    expect(choleskyInPlace(own, n)).toBe(true);
+    let scale = 0;
+    for (let i = 0; i < n; i++) for (let j = 0; j <= i; j++) scale = Math.max(scale, Math.abs(L.get(i, j)));
+    for (let i = 0; i < n; i++) for (let j = 0; j <= i; j++) expect(Math.abs(own[i * n + j] - L.get(i, j))).toBeLessThan(1e-12 * scale);
+    const close = (x: ArrayLike<number>, y: ArrayLike<number>) => {
+      let s2 = 0;
+      for (let i = 0; i < n; i++) s2 = Math.max(s2, Math.abs(y[i]));
+      for (let i = 0; i < n; i++) expect(Math.abs(x[i] - y[i])).toBeLessThan(1e-10 * s2);
+    };
+    // L z = b and Lᵀ x = z, each against ml-matrix's general solver on the reference factor
+    const z = forwardSubstitute(own, n, Float64Array.from(b));
+    close(z, solve(L, Matrix.columnVector(Array.from(b))).getColumn(0));
+    const x = backSubstitute(own, n, Float64Array.from(z));
+    close(x, solve(L.transpose(), Matrix.columnVector(Array.from(z))).getColumn(0));
+    close(choleskySolve(own, n, b), ref.solve(Matrix.columnVector(Array.from(b))).getColumn(0));
   });
 });
