@@ -9,5 +9,7 @@ export default defineConfig({
     testTimeout: 60_000,
     hookTimeout: 60_000,
     pool: 'forks',
+    // one temporary folder per run, removed at the end (test/helpers/temp-folder.ts)
+    globalSetup: ['test/helpers/temp-folder.ts'],
   },
 });

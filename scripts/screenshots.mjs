@@ -1,39 +1,10 @@
 // `npm run screenshots`: one PNG of each view of the window under docs/screenshots/app-<view>.png, taken in
 // Debian's Chromium against the browser host after the demo workflow (load demo, train a small model, predict
 // a trajectory and the crystal). Also the Checks view in the dark theme and the Data view in large text.
-import { existsSync, mkdirSync, mkdtempSync, rmSync } from 'node:fs';
-import { tmpdir } from 'node:os';
-import { join, resolve } from 'node:path';
-import { fileURLToPath } from 'node:url';
+import { join } from 'node:path';
+import { openBrowserSession } from './browser-session.mjs';
 
-const root = resolve(fileURLToPath(new URL('..', import.meta.url)));
-const CHROMIUM = '/usr/bin/chromium';
-if (!existsSync(CHROMIUM)) {
-  console.error(`screenshots: ${CHROMIUM} is missing; install Debian's Chromium (apt-get install -y chromium).`);
-  process.exit(1);
-}
-const outDir = join(root, 'docs/screenshots');
-mkdirSync(outDir, { recursive: true });
-const scratch = mkdtempSync(join(tmpdir(), 'pw-shots-'));
-process.env.XDG_CONFIG_HOME = join(scratch, 'config');
-process.env.XDG_CACHE_HOME = join(scratch, 'cache');
-
-const { buildRenderer } = await import('./build-renderer.mjs');
-await buildRenderer({ quiet: true });
-const { tsImport } = await import('tsx/esm/api');
-const { startBrowserHost } = await tsImport('../src-main/host/browser-host.ts', import.meta.url);
-const { chromium } = await import('playwright-core');
-
-const host = await startBrowserHost();
-const context = await chromium.launchPersistentContext(join(scratch, 'profile'), {
-  executablePath: CHROMIUM,
-  headless: true,
-  viewport: { width: 1440, height: 900 },
-  deviceScaleFactor: 1,
-  args: ['--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-quic', '--no-first-run', '--disable-component-update', '--disable-sync'],
-});
-const page = context.pages()[0] ?? (await context.newPage());
-page.on('pageerror', (e) => console.error('page error:', e.message));
+const { host, page, outDir, close } = await openBrowserSession('shots', { width: 1440, height: 900 });
 
 async function view(name) {
   await page.click(`nav [data-view=${name}]`);
@@ -120,7 +91,5 @@ try {
   await shot('data-large-text');
   await page.click('text=Large text');
 } finally {
-  await context.close();
-  await host.stop();
-  rmSync(scratch, { recursive: true, force: true });
+  await close();
 }

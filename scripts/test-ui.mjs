@@ -3,6 +3,7 @@
 // Each test file exports `tests`: [{ name, run(ctx) }], run in sequence on one page (a workflow); after the
 // first failure in a file the rest of that file is skipped (counted as failed).
 // Prints `ui: N passed, M failed` and exits non-zero on any failure.
+import { spawnSync } from 'node:child_process';
 import { existsSync, mkdtempSync, readdirSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
@@ -12,8 +13,9 @@ const root = resolve(fileURLToPath(new URL('..', import.meta.url)));
 const CHROMIUM = '/usr/bin/chromium';
 const only = process.argv[2];
 
+if (!existsSync(CHROMIUM)) installChromium();
 if (!existsSync(CHROMIUM)) {
-  console.error(`ui: cannot run the browser tests: ${CHROMIUM} is missing. Install Debian's Chromium (apt-get install -y chromium).`);
+  console.error(`ui: cannot run the browser tests: ${CHROMIUM} is missing. Install Debian's Chromium (sudo apt-get install -y chromium), then run npm test again.`);
   console.error('ui: 0 passed, 1 failed');
   process.exit(1);
 }
@@ -79,3 +81,19 @@ try {
 }
 console.log(`ui: ${passed} passed, ${failed} failed`);
 process.exit(failed === 0 ? 0 : 1);
+
+/**
+ * Install Debian's Chromium as CI does (.ci/run), where this process may: as root, or with password-less sudo.
+ * Elsewhere it only says what to run.
+ */
+function installChromium() {
+  const apt = ['/usr/bin/apt-get'].find((p) => existsSync(p));
+  if (!apt) return;
+  const asRoot = typeof process.getuid === 'function' && process.getuid() === 0;
+  const sudo = !asRoot && spawnSync('sudo', ['-n', 'true'], { stdio: 'ignore' }).status === 0;
+  if (!asRoot && !sudo) return;
+  console.error(`ui: ${CHROMIUM} is missing; installing Debian's Chromium (apt-get install -y chromium)…`);
+  const run = (args) => spawnSync(asRoot ? args[0] : 'sudo', asRoot ? args.slice(1) : ['-n', ...args], { stdio: 'inherit', env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' } });
+  run([apt, 'update', '-qq']);
+  run([apt, 'install', '-y', '-qq', 'chromium']);
+}

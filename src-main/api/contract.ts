@@ -100,6 +100,8 @@ export interface TrainRequestJ {
   kind: TensorKindJ;
   route: RouteJ;
   settings?: Partial<ModelSettingsJ>;
+  /** Train even when the values look unlike `kind` (the kind guard, core/learning/kind-check.ts). */
+  trustKind?: boolean;
 }
 
 export interface ModelSummary {
@@ -114,6 +116,8 @@ export interface ModelSummary {
   report: ValidationReportJ | null;
   /** Errors on the frames held out of training (null when none were held out). */
   test: ValidationReportJ | null;
+  /** The model's own notes and warnings (e.g. a regulariser at the edge of its range), as `polarweave train` prints them. */
+  notes?: string[];
 }
 
 export interface ApplicabilityJ {
@@ -153,6 +157,8 @@ export interface PredictionSummary {
   framesOutside: number;
   /** Mean ε, principal n and Δn with model error bars, beside the references (core/learning/set-summary.ts). */
   summary?: SetSummary;
+  /** The columns of this prediction's CSV export, in order (the layout of `polarweave predict`). */
+  csvColumns?: string[];
 }
 
 /** One frame's prediction with per-atom detail (for the ellipsoid view). */
@@ -184,6 +190,8 @@ export type ComponentJ = 'xx' | 'yy' | 'zz' | 'xy' | 'xz' | 'yz';
 export interface TrajectoryStats {
   predictionId: string;
   frames: number[];
+  /** The frames' times (ps, from their time_fs property) when every frame carries one; the charts' x axis then. */
+  timesPs?: number[] | null;
   /** Per frame: εxx, εyy, εzz, εxy, εxz, εyz. */
   components: Record<ComponentJ, number[]>;
   /** Running mean of each component after each frame. */
@@ -273,7 +281,8 @@ export interface AppState {
   defaultSettings: ModelSettingsJ;
   datasets: DatasetSummary[];
   models: ModelSummary[];
-  predictions: { id: string; modelId: string; datasetId: string; datasetName: string; frames: number; framesOutside: number }[];
+  /** csvColumns: the header of the prediction's CSV export (empty for a prediction opened from an older project). */
+  predictions: { id: string; modelId: string; datasetId: string; datasetName: string; frames: number; framesOutside: number; csvColumns: string[] }[];
   jobs: { id: string; kind: JobKind; state: JobStateJ }[];
 }
 
@@ -334,6 +343,7 @@ export const trainRequestSchema = z
     kind: tensorKindSchema,
     route: routeSchema,
     settings: modelSettingsSchema.partial().optional(),
+    trustKind: z.boolean().optional(),
   })
   .strict()
   .superRefine((r, ctx) => {

@@ -1,13 +1,29 @@
 // The window's export sink of the predict use case: the CSV of predicted tensors in the layout of
 // `polarweave predict -o OUT.csv` (io/prediction/prediction-format.ts), from the session's typed predictions,
-// so the window's file and the command line's agree row for row. Only the comment block's "Source" and
-// "Written" lines differ (the window has no model file path or checksum to name).
+// so the window's file and the command line's agree row for row, reference columns included when the frames
+// carry the model's reference tensor. Only the comment block's "Source" and "Written" lines differ (the window
+// has no model file path or checksum to name).
 import type { Frame } from '../core/geometry/frame.ts';
 import type { Model } from '../core/learning/model.ts';
 import type { FramePrediction } from '../core/learning/model-types.ts';
-import { predictionCsvOptions, tensorCsv, tensorPredictionRow } from '../io/prediction/prediction-format.ts';
+import type { Mat3 } from '../core/geometry/frame.ts';
+import { predictionCsvOptions, tensorCsv, tensorCsvColumns, tensorPredictionRow, type TensorCsvOptions } from '../io/prediction/prediction-format.ts';
+import { modelReferenceEps } from './predict/predict-frame.ts';
+
+/** The export's layout: predict's, with the reference columns when any exported frame carries the model's reference. */
+function exportLayout(frameIndices: readonly number[], sourceFrames: Frame[], model: Model, modelName: string): { options: TensorCsvOptions; references: (Mat3 | null)[] | null } {
+  const references = frameIndices.map((i) => modelReferenceEps(model, sourceFrames[i], i));
+  const reference = references.some((r) => r !== null);
+  return { options: predictionCsvOptions(model, `"${modelName}" (from the window)`, { reference }), references: reference ? references : null };
+}
 
 export function predictionsCsv(predictions: readonly FramePrediction[], frameIndices: readonly number[], sourceFrames: Frame[], model: Model, modelName: string): string {
-  const rows = predictions.map((p, k) => tensorPredictionRow(frameIndices[k], sourceFrames[frameIndices[k]], p, model));
-  return tensorCsv(rows, predictionCsvOptions(model, `"${modelName}" (from the window)`));
+  const { options, references } = exportLayout(frameIndices, sourceFrames, model, modelName);
+  const rows = predictions.map((p, k) => tensorPredictionRow(frameIndices[k], sourceFrames[frameIndices[k]], p, model, references ? { reference: references[k] } : {}));
+  return tensorCsv(rows, options);
+}
+
+/** The header of that CSV, in order (the Export view describes the file from it). */
+export function predictionsCsvColumns(frameIndices: readonly number[], sourceFrames: Frame[], model: Model): string[] {
+  return tensorCsvColumns(exportLayout(frameIndices, sourceFrames, model, '').options);
 }

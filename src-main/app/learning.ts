@@ -39,22 +39,5 @@ export async function validateRoutes(
 
 export type { ValidationReport };
 
-/** Rule-of-thumb verdict thresholds on the error relative to the spread of the data (common practice, no source). */
-export const GOOD_PERCENT = 10;
-export const USABLE_PERCENT = 30;
-
-export function verdict(e: ErrorFigures): string {
-  return verdictOf(Math.max(e.percentIso, e.percentAniso), 'both errors');
-}
-
-/** The verdict on the worst relative error of a validation; `what` names the figures for the good case. */
-export function verdictOf(worst: number, what: string): string {
-  if (worst <= GOOD_PERCENT) return `good (${what} ≤ ${GOOD_PERCENT} %)`;
-  if (worst <= USABLE_PERCENT) return `usable with care (worst error ${fmtPct(worst)} of the spread, between ${GOOD_PERCENT} and ${USABLE_PERCENT} %)`;
-  return `poor (worst error ${fmtPct(worst)} of the spread > ${USABLE_PERCENT} %): more or more varied training data, or other settings, are needed`;
-}
-
-export function fmtPct(p: number): string {
-  return Number.isFinite(p) ? `${p.toFixed(1)} %` : 'undefined (the reference does not vary)';
-}
-
+// The verdict rule lives in core (browser-safe) so that the window's Checks view applies the same function.
+export { fmtPct, GOOD_PERCENT, USABLE_PERCENT, verdict, verdictOf } from '../core/learning/error-figures.ts';

@@ -37,7 +37,7 @@ import { summariseDataset } from './dataset-summary.ts';
 import { PathAccess } from './path-access.ts';
 import { frameView, predictionFromJ, predictionJ, trajectoryStatsJ } from './frame-json.ts';
 import type { FramePrediction } from '../core/learning/model-types.ts';
-import { predictionsCsv } from './export-csv.ts';
+import { predictionsCsv, predictionsCsvColumns } from './export-csv.ts';
 import { PROJECT_FORMAT, PROJECT_VERSION, parseProject, type ProjectFile, type ProjectDataset } from './project-file.ts';
 import { collectedFrames, collectTexts } from './collect-references.ts';
 import { formatExtxyzFrame } from '../io/extxyz.ts';
@@ -233,6 +233,7 @@ export class AppService implements ApiService {
         datasetName: p.summary.datasetName,
         frames: p.summary.frames.length,
         framesOutside: p.summary.framesOutside,
+        csvColumns: p.summary.csvColumns ?? [],
       })),
       jobs: [...this.jobs.values()].map((j) => ({ id: j.id, kind: j.kind, state: j.handle.state() })),
     };
@@ -337,6 +338,7 @@ export class AppService implements ApiService {
           frames,
           framesOutside: frames.filter((f) => f.applicability.outside).length,
           summary: frames.length ? setSummary(frames.map((f) => ({ eps: f.eps, errorBars: f.errorBars, reference: f.reference, outside: f.applicability.outside }))) : undefined,
+          csvColumns: predictionsCsvColumns(out.frameIndices, d.frames, m.model as Model),
         };
         this.predictions.set(pid, { summary, route: m.summary.request.route, typed: out.predictions, frameIndices: out.frameIndices });
         return { kind: 'predict', prediction: summary };
@@ -441,12 +443,13 @@ export class AppService implements ApiService {
     info: Pick<ModelSummary, 'name' | 'request' | 'trainedOn' | 'report' | 'test'>,
   ): ModelSummary {
     const id = this.nextId('m');
-    const m = model as { settings?: ModelSummary['settings']; species?: string[] } | null;
+    const m = model as { settings?: ModelSummary['settings']; species?: string[]; notes?: unknown } | null;
     const summary: ModelSummary = {
       id,
       ...info,
       settings: m?.settings && typeof m.settings === 'object' ? { ...m.settings } : null,
       species: Array.isArray(m?.species) ? [...m.species] : [],
+      notes: Array.isArray(m?.notes) ? m.notes.filter((n): n is string => typeof n === 'string') : [],
     };
     this.models.set(id, { summary, model });
     return summary;
@@ -487,10 +490,12 @@ export class AppService implements ApiService {
   }
 
   async trajectoryStats(params: ApiParams<'trajectoryStats'>): Promise<TrajectoryStats> {
+    // the charts' x axis: the frames' time (ps) when every frame carries one (time_fs), else the frame number
     const p = this.predictionRecord(params.predictionId);
     if (p.typed.length < 2) throw new ApiValidationError('a trajectory needs at least two predicted frames');
     return {
       ...trajectoryStatsJ(p.summary.id, p.frameIndices, p.typed),
+      timesPs: framesTimePs(p.frameIndices.map((i) => this.dataset(p.summary.datasetId).frames[i])),
       outside: p.typed.map((f) => f.applicability.outside),
       modelErrorIso: p.summary.summary?.errorBars?.epsIso ?? null,
     };
@@ -602,4 +607,10 @@ export class AppService implements ApiService {
   dispose(): void {
     this.options.runner.cancelAll();
   }
+}
+
+/** The frames' times in ps (their time_fs property), or null when one of them carries none. */
+export function framesTimePs(frames: readonly { info: Record<string, unknown> }[]): number[] | null {
+  const t = frames.map((f) => f.info.time_fs);
+  return t.length && t.every((v) => typeof v === 'number' && Number.isFinite(v)) ? (t as number[]).map((v) => v / 1000) : null;
 }

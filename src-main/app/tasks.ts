@@ -4,13 +4,14 @@
 import type { ValidationReportJ } from '../api/contract.ts';
 import { CancelledError, ModelError } from '../core/errors.ts';
 import type { Frame } from '../core/geometry/frame.ts';
-import { predictFrame, trainModel, type Model } from '../core/learning/model.ts';
+import { predictFrame, trainModel, type Featuriser, type Model } from '../core/learning/model.ts';
 import type { FramePrediction, ParityPoint, TrainRequest, ValidationReport } from '../core/learning/model-types.ts';
 import { toIrreducible } from '../core/dielectric/tensor.ts';
-import { errorFigures, validate } from '../core/learning/validation.ts';
+import { errorFigures, tensorFeaturiser, validate } from '../core/learning/validation.ts';
 import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutput, ValidateTaskInput } from './task-types.ts';
 import type { TaskContext, TaskRegistry } from '../jobs/task.ts';
 import { loadedModel, predictFrames, type PredictSink } from './predict/prediction.ts';
+import { CURVE_REPEATS } from '../core/learning/curve-splits.ts';
 import { referenceEps } from './predict/predict-frame.ts';
 
 function reportJson(r: ValidationReport, frameIndices: number[]): ValidationReportJ {
@@ -19,14 +20,16 @@ function reportJson(r: ValidationReport, frameIndices: number[]): ValidationRepo
     target: r.target,
     folds: r.folds,
     errors: { ...r.errors },
+    statePoints: r.statePoints ?? null,
     // validate() numbers frames within the list it was given; the window wants dataset indices.
     points: r.points.map((p) => ({ ...p, frame: frameIndices[p.frame] ?? p.frame, reference: [...p.reference], predicted: [...p.predicted] })),
-    learningCurve: r.learningCurve.map((c) => ({ trainSize: c.trainSize, errors: { ...c.errors } })),
+    learningCurve: r.learningCurve.map((c) => ({ ...c, errors: { ...c.errors }, ...(c.spread ? { spread: { ...c.spread } } : {}) })),
+    curveTrend: r.curveTrend ?? null,
   };
 }
 
-async function crossValidate(input: ValidateTaskInput, ctx: TaskContext, extraSteps: number): Promise<ValidationReportJ> {
-  const report = await validate(input.frames, input.request as TrainRequest, { folds: input.folds, learningCurve: input.learningCurve }, {
+async function crossValidate(input: ValidateTaskInput, ctx: TaskContext, extraSteps: number, featurise?: Featuriser): Promise<ValidationReportJ> {
+  const report = await validate(input.frames, input.request as TrainRequest, { folds: input.folds, learningCurve: input.learningCurve, featurise }, {
     signal: ctx.signal,
     onProgress: (p) => ctx.progress({ stage: `cross-validation, ${p.stage}`, done: p.done, total: p.total + extraSteps }),
   });
@@ -35,10 +38,12 @@ async function crossValidate(input: ValidateTaskInput, ctx: TaskContext, extraSt
 
 async function train(input: TrainTaskInput, ctx: TaskContext): Promise<TrainTaskOutput> {
   const extra = 1 + (input.testFrames.length ? 1 : 0);
-  const report = await crossValidate(input, ctx, extra);
-  const cvSteps = input.folds * (1 + input.learningCurve.length);
+  // the frames' features, computed once for the cross-validation and the final model
+  const features = tensorFeaturiser(input.frames, input.request as TrainRequest);
+  const report = await crossValidate(input, ctx, extra, features);
+  const cvSteps = input.folds * (1 + input.learningCurve.length * CURVE_REPEATS);
   ctx.progress({ stage: 'training the final model on all training frames', done: cvSteps, total: cvSteps + extra });
-  const model = await trainModel(input.frames, input.request as TrainRequest, { signal: ctx.signal });
+  const model = await trainModel(input.frames, input.request as TrainRequest, { signal: ctx.signal }, features);
   let test: ValidationReportJ | null = null;
   if (input.testFrames.length) {
     ctx.progress({ stage: 'predicting the held-out test frames', done: cvSteps + 1, total: cvSteps + extra });

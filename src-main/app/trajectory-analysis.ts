@@ -2,6 +2,7 @@
 // tensors with block-averaged standard errors and the plateau over block sizes, principal refractive indices
 // and birefringence with delta-method errors, per-species contributions (extended XYZ with local tensors), the
 // applicability summary, and optionally a per-frame CSV, a summary CSV and Raman/IR line shapes.
+import { LOCAL_CONTRIBUTION_CAVEAT } from '../core/learning/contributions.ts';
 import type { BlockAverage } from '../core/trajectory/statistics.ts';
 import { runningMean } from '../core/trajectory/statistics.ts';
 import { infraredSpectrum, ramanSpectra, type Spectrum, type SpectrumOptions } from '../core/trajectory/spectra.ts';
@@ -161,6 +162,7 @@ function speciesReport(s: TrajectorySeries, minBlocks: number, rows: Row[], line
   const unit = s.localKind === 'local_alpha_cm_A3' ? 'Å³' : '';
   const what = s.localKind === 'local_alpha_cm_A3' ? 'α_CM' : 'ε − 1';
   lines.push(`per-species contributions to ${what}${unit ? ` (${unit})` : ''} (sums of the per-atom local tensors), ± standard error:`);
+  lines.push(`  note: ${LOCAL_CONTRIBUTION_CAVEAT}`);
   let total = 0;
   const stats = s.species.map((sp) => ({ sp, t: tensorStats(Float64Array.from(sp.sum), minBlocks) }));
   for (const { t } of stats) total += t.iso.mean;

@@ -31,6 +31,7 @@ export const targetOptions: OptionSpec[] = [
     value: 'KEY',
     help: 'a set mixing periodic frames with isolated molecules or clusters (no cell): the property holding the clusters\' polarisability in vacuum (Å³)',
   },
+  { name: 'trust-kind', flag: true, help: 'go on even when the values look unlike --as (ε∞ outside 1–20, α outside 0.1–100 Å³ per atom)' },
 ];
 
 /** The model-setting options, one per row of the settings table (core/settings-table.ts). */
@@ -110,7 +111,7 @@ export function parseRequest(args: ParsedArgs, route: Route, shape: TargetShape 
   if (!key) throw new UsageError('name the reference property with --tensor KEY');
   const kind: TensorKind = shape === 'tensor' || args.options.as !== undefined ? parseKind(args) : 'alpha-cm';
   const isolatedKey = args.options['isolated-tensor'];
-  return { tensorKey: key, kind, route, ...(isolatedKey ? { isolatedKey } : {}), settings: parseSettings(args) };
+  return { tensorKey: key, kind, route, ...(isolatedKey ? { isolatedKey } : {}), settings: parseSettings(args), ...(args.flags['trust-kind'] ? { trustKind: true } : {}) };
 }
 
 /**

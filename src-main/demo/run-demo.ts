@@ -7,19 +7,18 @@ import { existsSync } from 'node:fs';
 import { join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { CancelledError, InputError } from '../core/errors.ts';
-import type { Frame, Mat3 } from '../core/geometry/frame.ts';
+import type { Mat3 } from '../core/geometry/frame.ts';
 import type { ErrorFigures, FramePrediction, ModelSettings, TrainRequest, ValidationReport } from '../core/learning/model-types.ts';
-import { describeSettings } from '../core/settings-table.ts';
 import { trainModel, type Model } from '../core/learning/model.ts';
-import { validate, errorFigures } from '../core/learning/validation.ts';
+import { validate, errorFigures, tensorFeaturiser } from '../core/learning/validation.ts';
 import { toIrreducible, tensorFromValues } from '../core/dielectric/tensor.ts';
-import { birefringence, convertTensor, refractiveIndices } from '../core/dielectric/clausius-mossotti.ts';
 import { readAllStructures } from '../io/read-structures.ts';
 import { saveModel } from '../io/model-file.ts';
 import { predictionCsvOptions, writeTensorCsv, type TensorRow } from '../io/prediction/prediction-format.ts';
 import { loadedModel, predictFrames } from '../app/predict/prediction.ts';
 import { predictedRow, type PredictedFrame } from '../app/predict/predict-frame.ts';
 import { writeFileAtomic } from '../io/atomic.ts';
+import { demoSummary } from './summary.ts';
 import { clusterToBulkText, demoClusterToBulk, type ClusterToBulk } from './clusters.ts';
 
 /** Where the generator (scripts/generate-demo.ts) puts the bundled data. */
@@ -62,18 +61,6 @@ function mean(ts: Mat3[]): Mat3 {
   return m;
 }
 
-function isoMean(t: Mat3): number {
-  return (t[0] + t[4] + t[8]) / 3;
-}
-
-function fmt(x: number, digits = 4): string {
-  return Number.isFinite(x) ? x.toFixed(digits) : String(x);
-}
-
-function errorLine(e: ErrorFigures): string {
-  return `isotropic (tr/3) RMSE ${e.rmseIso.toExponential(2)} (${fmt(e.percentIso, 1)} % of the spread), anisotropic RMSE ${e.rmseAniso.toExponential(2)} (${fmt(e.percentAniso, 1)} % of the spread), R² ${fmt(e.r2Iso, 3)} / ${fmt(e.r2Aniso, 3)}, ${e.count} frames`;
-}
-
 export async function runDemo(options: DemoOptions): Promise<DemoResult> {
   const started = Date.now();
   const log = options.log ?? (() => {});
@@ -101,14 +88,15 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
   // Learning curve at 1/8, 1/4 and 1/2 of a training fold; the full fold is the main cross-validation.
   const curve = [0.125, 0.25, 0.5].map((f) => Math.max(4, Math.round(f * minTrain))).filter((v, i, a) => a.indexOf(v) === i);
   log(`demo: ${folds}-fold cross-validation on the liquid, learning curve at ${curve.join(', ')} training frames`);
-  const report = await validate(liquid, REQUEST, { folds, learningCurve: curve }, {
+  const features = tensorFeaturiser(liquid, REQUEST); // computed once, for the validation and the final training
+  const report = await validate(liquid, REQUEST, { folds, learningCurve: curve, featurise: features }, {
     signal: options.signal,
     onProgress: (p) => log(`demo: validate, ${p.stage} (${p.done}/${p.total})`),
   });
   check();
 
   log(`demo: training on the ${liquid.length} liquid frames`);
-  const model: Model = await trainModel(liquid, REQUEST, { signal: options.signal });
+  const model: Model = await trainModel(liquid, REQUEST, { signal: options.signal }, features);
   check();
 
   await mkdir(outDir, { recursive: true });
@@ -152,64 +140,4 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
     files, liquidFrames: liquid.length, crystalFrames: crystal.length, validation: report, crystalErrors,
     crystalOutsideFrames: outsideFrames, crystalMeanEps: { predicted: predictedMean, reference: referenceMean }, clusterToBulk: bulk, seconds,
   };
-}
-
-interface SummaryInput {
-  liquid: Frame[];
-  crystal: Frame[];
-  report: ValidationReport & { alsoOn?: { target: string; errors: ErrorFigures }[] };
-  crystalErrors: ErrorFigures;
-  outsideFrames: number;
-  predictions: FramePrediction[];
-  predictedMean: Mat3;
-  referenceMean: Mat3;
-  model: Model;
-  seconds: number;
-  quick: boolean;
-  files: DemoResult['files'];
-}
-
-function demoSummary(s: SummaryInput): string {
-  const diag = (t: Mat3) => `${fmt(t[0])}, ${fmt(t[4])}, ${fmt(t[8])}`;
-  const n = (t: Mat3) => Array.from(refractiveIndices(t).indices, (v) => fmt(v)).join(', ');
-  const dn = (t: Mat3) => fmt(birefringence(t).delta);
-  const maxDist = Math.max(...s.predictions.map((p) => p.applicability.maxDistance));
-  const atomsOut = s.predictions.reduce((a, p) => a + p.applicability.atomsOutside, 0);
-  const atoms = s.predictions.reduce((a, p) => a + p.applicability.atomDistance.length, 0);
-  const v = s.crystal[0].cell ? s.predictions[0].volumeA3 : 0;
-  const cmRef = convertTensor(s.referenceMean, 'eps', 'alpha-cm', v);
-  const cmPred = convertTensor(s.predictedMean, 'eps', 'alpha-cm', v);
-  const lines = [
-    '# Polarweave demo: summary',
-    '',
-    '**The demo data is invented** (an invented molecule, force field and point-dipole reference model; see',
-    'resources/demo/PROVENANCE.md). **Predictions are model estimates**, here of an invented system.',
-    '',
-    `Run: ${s.quick ? 'quick (reduced frame counts)' : 'full'}, ${s.seconds.toFixed(0)} s. Route: Clausius–Mossotti (reference ε → α_CM, learnt as a sum of atomic`,
-    `contributions, converted back). Settings: ${describeSettings(s.model.settings)}.`,
-    '',
-    `## Liquid: ${s.report.folds}-fold cross-validation (${s.liquid.length} frames)`,
-    `- ε: ${errorLine(s.report.errors)}`,
-    ...(s.report.alsoOn ?? []).map((a) => `- ${a.target}: ${errorLine(a.errors)}`),
-    '',
-    '| training frames | ε isotropic: % of spread | ε anisotropic: % of spread |',
-    '|---|---|---|',
-    ...s.report.learningCurve.map((p) => `| ${p.trainSize} | ${fmt(p.errors.percentIso, 1)} | ${fmt(p.errors.percentAniso, 1)} |`),
-    `| ${Math.floor((s.liquid.length * (s.report.folds - 1)) / s.report.folds)} (full fold) | ${fmt(s.report.errors.percentIso, 1)} | ${fmt(s.report.errors.percentAniso, 1)} |`,
-    '',
-    `## Crystal: model trained on the ${s.liquid.length} liquid frames, ${s.crystal.length} crystal frames predicted`,
-    `- ε against the reference: RMSE of the isotropic value tr/3 ${s.crystalErrors.rmseIso.toExponential(2)} (${fmt((100 * s.crystalErrors.rmseIso) / isoMean(s.referenceMean), 2)} % of its mean), of the anisotropy ${s.crystalErrors.rmseAniso.toExponential(2)} (the crystal's frames differ so little that the error relative to their spread says nothing here)`,
-    `- mean ε diagonal: predicted ${diag(s.predictedMean)}; reference ${diag(s.referenceMean)}`,
-    `- principal refractive indices: predicted ${n(s.predictedMean)}; reference ${n(s.referenceMean)}`,
-    `- birefringence n_max − n_min: predicted ${dn(s.predictedMean)}; reference ${dn(s.referenceMean)}`,
-    `- mean α_CM diagonal (Å³): predicted ${diag(cmPred)}; reference ${diag(cmRef)}`,
-    `- applicability: ${s.outsideFrames} of ${s.crystal.length} frames flagged outside the training data (${atomsOut} of ${atoms} atoms; largest feature-space distance ${fmt(maxDist, 3)}; thresholds per centre species: ${s.model.centres.map((c, k) => `${c} ${fmt(s.model.applicability.perSpecies[k], 3)}`).join(', ')})`,
-    '',
-    '## Files',
-    `- ${s.files.csv}: predicted ε and α_CM of each crystal frame, with the reference and the applicability figures`,
-    `- ${s.files.model}: the trained model (load it with \`polarweave predict\`)`,
-    `- ${s.files.validation}: cross-validation parity points and learning curve`,
-    '',
-  ];
-  return lines.join('\n');
 }

@@ -1,5 +1,6 @@
 // Number formatting for tables and labels: a fixed number of significant digits, ranges, 3×3 matrices.
 import type { Range } from '../../src-main/api/contract.ts';
+import { fmtPct } from '../../src-main/core/learning/error-figures.ts';
 import { withError } from '../../src-main/core/numerics/uncertain.ts';
 export { atPlacesOf } from '../../src-main/core/numerics/uncertain.ts';
 
@@ -31,8 +32,9 @@ export function matrixRows(v: number[]): number[][] {
   return [v.slice(0, 3), v.slice(3, 6), v.slice(6, 9)];
 }
 
+/** A relative error as the CLI writes it (core fmtPct: one decimal below 10 %, none above); "—" when undefined. */
 export function percent(v: number): string {
-  return Number.isFinite(v) ? `${v.toFixed(1)} %` : '—';
+  return Number.isFinite(v) ? fmtPct(v) : '—';
 }
 
 /** The quantity a validation report compared on, in words. */

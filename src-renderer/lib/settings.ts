@@ -6,8 +6,15 @@ import { NUMERIC_SETTINGS, SPECIES_SETTING, type NumericSettingKey, type Numeric
 
 export type NumericSetting = NumericSettingKey;
 
-export const presets: { id: string; label: string; note: string; settings: Partial<ModelSettingsJ> }[] = [
-  { id: 'quick', label: 'Quick look', note: 'small basis, for a first check in seconds', settings: { cutoffRadius: 4.0, radialFunctions: 4, angularOrder: 3, kernelExponent: 1, anchorEnvironments: 0 } },
+/** `checks`: the amount of checking a preset also sets (folds, at most this many training frames; 0 = all). */
+export const presets: { id: string; label: string; note: string; settings: Partial<ModelSettingsJ>; checks?: { folds: number; maxFrames: number } }[] = [
+  {
+    id: 'quick',
+    label: 'Quick look',
+    note: 'small basis, 3 folds on at most 120 frames (the demo’s amount of work), for a first check',
+    settings: { cutoffRadius: 4.0, radialFunctions: 4, angularOrder: 3, kernelExponent: 1, anchorEnvironments: 0 },
+    checks: { folds: 3, maxFrames: 120 },
+  },
   { id: 'careful', label: 'Careful', note: 'larger basis; slower, usually more accurate', settings: { cutoffRadius: 5.0, radialFunctions: 8, angularOrder: 6, kernelExponent: 2, anchorEnvironments: 400 } },
 ];
 

@@ -61,6 +61,26 @@ class AppStore {
   job: RunningJob | null = $state(null);
   error: ShownError | null = $state(null);
   notice: string | null = $state(null);
+  /** What the session held when it was last saved or opened as a project (ids of files, models, predictions). */
+  savedContent: string | null = $state(null);
+
+  /** The session's content, to tell whether it changed since it was saved. */
+  contentKey(): string {
+    const s = this.state;
+    return [...s.datasets.map((d) => d.id), '|', ...s.models.map((m) => m.id), '|', ...s.predictions.map((p) => p.id)].join(',');
+  }
+
+  /**
+   * What would be lost if the session were replaced now, in words; null when nothing (empty, or unchanged since
+   * it was saved or opened).
+   */
+  unsavedWork(): string | null {
+    const s = this.state;
+    const n = s.datasets.length + s.models.length + s.predictions.length;
+    if (n === 0 || this.contentKey() === this.savedContent) return null;
+    const part = (k: number, one: string) => (k ? `${k} ${one}${k === 1 ? '' : 's'}` : '');
+    return [part(s.datasets.length, 'file'), part(s.models.length, 'model'), part(s.predictions.length, 'prediction')].filter(Boolean).join(', ');
+  }
   theme: 'light' | 'dark' = $state(readPref('pw-theme', 'light') === 'dark' ? 'dark' : 'light');
   largeText: boolean = $state(readPref('pw-large', '0') === '1');
   busy = $state(false);

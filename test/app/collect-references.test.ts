@@ -11,10 +11,11 @@ import { convertTensor } from '../../src-main/core/dielectric/clausius-mossotti.
 import { guessTensorKind } from '../../src-main/app/dataset-summary.ts';
 import { parseExtxyz } from '../../src-main/io/extxyz.ts';
 import type { DftRun } from '../../src-main/io/dft/dft-run.ts';
+import { scratchFolders } from '../helpers/scratch.ts';
 
 const cp2k = join(__dirname, '../fixtures/dft/cp2k');
 const qe = join(__dirname, '../fixtures/dft/qe');
-const tmp = () => mkdtempSync(join(tmpdir(), 'pw-collect-'));
+const tmp = scratchFolders('pw-collect-');
 
 describe('collect references from DFT output', () => {
   it('Quantum ESPRESSO folder: two runs kept, the coarser k mesh and the unconverged SCF reported', async () => {

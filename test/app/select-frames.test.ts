@@ -3,7 +3,7 @@
 // (8 distinct liquid snapshots) repeated with seeded jitter, so the right answers are known by construction:
 // diversity must take each snapshot once before any twice; with a model, the first choice must be the frame of
 // largest error bar (or domain score) as predict computes it frame by frame.
-import { existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -20,6 +20,7 @@ import { tsWorkerFactory } from '../../src-main/jobs/spawn-ts.ts';
 import type { AppService } from '../../src-main/app/service.ts';
 
 const dir = mkdtempSync(join(tmpdir(), 'pw-select-'));
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
 // jitter 0.01 Å: the snapshots stay farther apart in frame features than the jitter moves them (checked below)
 const frames = jitteredTrajectory(40, 0.01, 11);
 const traj = join(dir, 'run.extxyz');

@@ -1,7 +1,7 @@
 // The app service end to end in Node (no window): open a file of real DFT water frames, check the summary,
 // train through a worker thread, predict, and export a CSV that must match `polarweave predict` row for row
 // for the same model and frames. Plus the plain errors a user sees for bad input.
-import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
@@ -17,7 +17,10 @@ const service: AppService = createAppService({
   spawn: tsWorkerFactory(new URL('../../src-main/app/worker.ts', import.meta.url)),
   demoDir: join(scratch, 'no-demo'),
 });
-afterAll(() => service.dispose());
+afterAll(() => {
+  service.dispose();
+  rmSync(scratch, { recursive: true, force: true });
+});
 
 const small = { cutoff: 3.5, nmax: 3, lmax: 2, sparsePoints: 0, seed: 3 };
 
@@ -137,6 +140,14 @@ describe('app service', () => {
     expect(body(csv.text)).toEqual(body(cliText));
     expect(comments(csv.text)).toEqual(comments(cliText));
     expect(body(csv.text).length).toBe(1 + 8 + 1);
+    // both carry the frames' reference (the file's eps_inf, from the DFT code) and the difference
+    const header = body(csv.text)[0].split(',');
+    const row0 = body(csv.text)[1].split(',');
+    expect(header).toEqual(expect.arrayContaining(['eps_ref_xx', 'eps_ref_iso', 'eps_iso_diff', 'eps_aniso_diff']));
+    expect(Number(row0[header.indexOf('eps_ref_xx')])).toBeCloseTo(1.5487774, 7);
+    // the Export view describes the file from the columns the export writes
+    expect(pred.csvColumns).toEqual(header);
+    expect((await service.getState()).predictions.find((x) => x.id === pred.id)!.csvColumns).toEqual(header);
   });
 
   it('refuses a tensor key the frames do not have, naming the choices', async () => {

@@ -51,6 +51,12 @@ const BROWSER_SAFE_CORE = [
   // Error figures of predicted against reference tensors: the parity chart's figures for a group of dots come
   // from the engine's own function.
   'src-main/core/learning/error-figures.ts',
+  // State points and the headline figure the verdict judges: the Checks view leads with the same figure as validate.
+  'src-main/core/learning/state-points.ts',
+  // Learning curves: the caption that follows the slope, the same words as validate.
+  'src-main/core/learning/curve-splits.ts',
+  // The caveat shown beside local and per-species contributions (CLI and window, the same words).
+  'src-main/core/learning/contributions.ts',
   // A value with its error bar, rounded to the digits the error bar justifies: the CLI and the window print alike.
   'src-main/core/numerics/uncertain.ts',
 ];

@@ -5,10 +5,11 @@ import { describe, expect, it } from 'vitest';
 import { parseExtxyz } from '../../src-main/io/extxyz.ts';
 import { cellVolume } from '../../src-main/core/geometry/cell.ts';
 import { cli } from './run-cli.ts';
+import { scratchFolders } from '../helpers/scratch.ts';
 
 const qe = join(__dirname, '../fixtures/dft/qe');
 const cp2k = join(__dirname, '../fixtures/dft/cp2k');
-const tmp = () => mkdtempSync(join(tmpdir(), 'pw-cli-collect-'));
+const tmp = scratchFolders('pw-cli-collect-');
 
 describe('polarweave collect', () => {
   it('--help says what each code gives and in which units', async () => {

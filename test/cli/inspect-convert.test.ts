@@ -5,9 +5,10 @@ import { describe, expect, it } from 'vitest';
 import { parseExtxyz } from '../../src-main/io/extxyz.ts';
 import { parseCsv } from '../../src-main/io/csv.ts';
 import { cli } from './run-cli.ts';
+import { scratchFolders } from '../helpers/scratch.ts';
 
 const water = join(__dirname, '../fixtures/water-dft-sample.extxyz');
-const tmp = () => mkdtempSync(join(tmpdir(), 'pw-cli-'));
+const tmp = scratchFolders('pw-cli-');
 
 describe('polarweave inspect', () => {
   it('summarises the DFT water frames', async () => {

@@ -50,6 +50,15 @@ describe('polarweave train / predict / validate', () => {
     const epsXX = Number(rows[0][header.indexOf('eps_xx')]);
     expect(epsXX).toBeGreaterThan(1.5);
     expect(epsXX).toBeLessThan(1.62);
+    // the input carries the model's reference (alpha_periodic_A3 as α_c): beside the prediction as ε, with the
+    // difference. Check value: the same DFT run's own ε∞ (the file's eps_inf key, frame 2), from the code's output.
+    const ref = (c: string) => Number(rows[0][header.indexOf(c)]);
+    expect(header).toEqual(expect.arrayContaining(['eps_ref_xx', 'eps_ref_yz', 'eps_ref_iso', 'eps_iso_diff', 'eps_aniso_diff']));
+    const epsInf = parseExtxyz(readFileSync(data(), 'utf8'), 'w').map((f) => f.info.eps_inf as number[])[2];
+    expect(ref('eps_ref_xx')).toBeCloseTo(epsInf[0], 4);
+    expect(ref('eps_ref_yz')).toBeCloseTo(epsInf[5], 4);
+    expect(ref('eps_iso_diff')).toBeCloseTo(ref('eps_iso') - ref('eps_ref_iso'), 9);
+    expect(ref('eps_aniso_diff')).toBeGreaterThanOrEqual(0);
 
     const xyz = join(dir, 'p.extxyz');
     const q = await cli(['predict', model, data(), '--frames', ':2', '-o', xyz]);
@@ -73,7 +82,9 @@ describe('polarweave train / predict / validate', () => {
     expect(v.out).toMatch(/route direct:/);
     expect(v.out).toMatch(/isotropic \(tr\/3\): +RMSE [0-9.e-]+ +[0-9.]+ % of the spread/);
     expect(v.out).toMatch(/anisotropic \(anisotropy\): RMSE [0-9.e-]+ +[0-9.]+ % of the spread/);
-    expect(v.out).toMatch(/verdict \(rule of thumb, on ε\): (good|usable|poor)/);
+    expect(v.out).toMatch(/verdict \(rule of thumb, on ε over all frames\): (good|usable|poor)/);
+    expect(v.out).toMatch(/learning curve, 3 training frames \(mean ± spread of 3 random splits\)/);
+    expect(v.out).toMatch(/learning curve: (Still falling|Flat|Not falling|Too few)/);
     expect(v.out).toMatch(/learning curve, 3 training frames/);
     expect(v.out).toMatch(/sizes skipped.*20/);
     expect(v.out).toMatch(/comparison on ε: route (cm|direct)/);

@@ -6,8 +6,9 @@ import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { readAllStructures } from '../../src-main/io/read-structures.ts';
 import { cli } from './run-cli.ts';
+import { scratchFolders } from '../helpers/scratch.ts';
 
-const tmp = () => mkdtempSync(join(tmpdir(), 'pw-ref-'));
+const tmp = scratchFolders('pw-ref-');
 
 describe('polarweave reference', () => {
   it('open pair: α∥ = 2α/(1 − 2α/r³), α⊥ = 2α/(1 + α/r³) (standard textbook result); cubic lattice: α_CM = α', async () => {

@@ -1,6 +1,6 @@
 // The browser host: token required on every API call, loopback only, payloads validated against api/contract.ts's
 // schemas before the service sees them, static files served with the CSP and never from outside the folder.
-import { mkdtempSync, mkdirSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, mkdirSync, rmSync, writeFileSync } from 'node:fs';
 import { request } from 'node:http';
 import { networkInterfaces, tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -24,6 +24,7 @@ const service = {
 
 let host: Host;
 let dir: string;
+let scratch: string;
 
 function http(path: string, opts: { method?: string; headers?: Record<string, string>; body?: string; hostname?: string } = {}) {
   return new Promise<{ status: number; headers: Record<string, string | string[] | undefined>; body: string }>((ok, fail) => {
@@ -50,14 +51,19 @@ const api = (method: string, payload: unknown, headers: Record<string, string> =
   });
 
 beforeAll(async () => {
-  dir = mkdtempSync(join(tmpdir(), 'pw-host-'));
-  mkdirSync(join(dir, 'assets'));
+  // the served folder, with a secret file beside it (outside it) that a path trick must not reach
+  scratch = mkdtempSync(join(tmpdir(), 'pw-host-'));
+  dir = join(scratch, 'renderer');
+  mkdirSync(join(dir, 'assets'), { recursive: true });
   writeFileSync(join(dir, 'index.html'), '<!doctype html><title>t</title>');
   writeFileSync(join(dir, 'assets', 'app.js'), 'console.log(1)');
-  writeFileSync(join(tmpdir(), 'pw-secret.txt'), 'secret');
+  writeFileSync(join(scratch, 'pw-secret.txt'), 'secret');
   host = await startHost({ service, rendererDir: dir });
 });
-afterAll(async () => host.close());
+afterAll(async () => {
+  await host.close();
+  rmSync(scratch, { recursive: true, force: true });
+});
 
 describe('browser host', () => {
   it('listens on 127.0.0.1 with a random port and a long token in the URL fragment', () => {

@@ -11,8 +11,10 @@ import { convertTensor } from '../../core/dielectric/clausius-mossotti.ts';
 import { frameVolume, readTensor } from '../../core/learning/targets.ts';
 import { findMolecules } from '../../core/geometry/molecules.ts';
 import { formatExtxyzFrame } from '../../io/extxyz.ts';
+import { referenceEpsOf } from '../../core/learning/targets.ts';
 import {
   annotateFrame,
+  hasReferenceColumns,
   PRED_ARRAYS,
   stampFrame,
   tensorCsvRow,
@@ -69,8 +71,14 @@ export function setFrameOf(model: Model, frame: Frame, one: PredictedFrame): Set
   return { eps: one.tensor.eps, errorBars: one.tensor.errorBars, reference: kind ? referenceEps(frame, one.index, model.target.key, kind) : null, outside: one.outside };
 }
 
-/** A tensor prediction's table row (with the frame's reference tensor beside it, when given). */
-export function predictedRow(model: Model, frame: Frame, one: PredictedFrame, more: { reference?: Mat3; tagKey?: string } = {}): TensorRow {
+/** The reference tensor the model was trained on, as ε, when the frame carries it (else null). */
+export function modelReferenceEps(model: Model, frame: Frame, index: number): Mat3 | null {
+  const t = model.target;
+  return t.shape === 'tensor' && t.kind ? referenceEpsOf(frame, index, t.key, t.kind) : null;
+}
+
+/** A tensor prediction's table row (with the frame's reference tensor beside it, when given; null: empty cells). */
+export function predictedRow(model: Model, frame: Frame, one: PredictedFrame, more: { reference?: Mat3 | null; tagKey?: string } = {}): TensorRow {
   return tensorPredictionRow(one.index, frame, one.tensor as TensorPrediction, model, more);
 }
 
@@ -84,7 +92,10 @@ export function predictedFrame(model: Model, frame: Frame, one: PredictedFrame, 
 /** The exact text `predict` writes for one predicted frame (a CSV row or an annotated extended XYZ frame). */
 export function predictedText(model: Model, frame: Frame, one: PredictedFrame, format: PredictFormat, stamp: FrameStamp, csvOptions?: TensorCsvOptions): string {
   if (model.target.shape !== 'tensor') return valueRowText(model, one.valueRow as PredictionRow);
-  if (format === 'csv') return tensorCsvRow(predictedRow(model, frame, one), csvOptions as TensorCsvOptions);
+  if (format === 'csv') {
+    const reference = hasReferenceColumns(csvOptions) ? modelReferenceEps(model, frame, one.index) : undefined;
+    return tensorCsvRow(predictedRow(model, frame, one, { reference }), csvOptions as TensorCsvOptions);
+  }
   return formatExtxyzFrame(predictedFrame(model, frame, one, stamp));
 }
 

@@ -17,7 +17,7 @@ import type { FrameRange } from '../../io/extxyz.ts';
 import { parseModel, readModelBytes } from '../../io/model-file.ts';
 import { predictionCsvHeader, predictionCsvOptions, type FrameStamp, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import { outputKind, readStructures } from '../../io/read-structures.ts';
-import { predictedText, predictOne, setFrameOf, type PredictedFrame, type PredictFormat } from './predict-frame.ts';
+import { modelReferenceEps, predictedText, predictOne, setFrameOf, type PredictedFrame, type PredictFormat } from './predict-frame.ts';
 
 export function sha256Hex(data: Uint8Array | string): string {
   return createHash('sha256').update(data).digest('hex');
@@ -66,9 +66,24 @@ export function predictOutputFormat(output: string, model?: Model): PredictForma
   return k.kind;
 }
 
-/** The CSV layout of a loaded tensor model's predictions (undefined for vector and scalar models). */
-export function csvLayoutOf(m: LoadedModel): TensorCsvOptions | undefined {
-  return m.model.target.shape === 'tensor' ? predictionCsvOptions(m.model, m.label) : undefined;
+/**
+ * The CSV layout of a loaded tensor model's predictions (undefined for vector and scalar models), with the
+ * reference columns when `first` (the input's first selected frame) carries the model's reference tensor.
+ */
+export function csvLayoutOf(m: LoadedModel, first: Frame | null = null): TensorCsvOptions | undefined {
+  if (m.model.target.shape !== 'tensor') return undefined;
+  return predictionCsvOptions(m.model, m.label, { reference: first !== null && modelReferenceEps(m.model, first, 0) !== null });
+}
+
+/** The first frame of a selection of a structure file, or null when it cannot be read (the run itself then says why). */
+export async function firstFrameOf(input: string, range: FrameRange = {}, signal?: AbortSignal): Promise<Frame | null> {
+  const start = range.start ?? 0;
+  try {
+    for await (const f of readStructures(input, { signal, range: { start, stop: start + 1 } })) return f;
+  } catch {
+    return null;
+  }
+  return null;
 }
 
 /** The frames a range selects, as the identity line writes them; undefined when it is the whole file. */
@@ -167,7 +182,7 @@ export async function predictToFile(m: LoadedModel, opts: PredictToFileOptions):
   });
   const identity: Identity = { modelPath: m.label, modelSha256: m.sha256, inputName: basename(opts.input), inputBytes: stat.size, frames: rangeSelection(opts.range) };
   const stamp: FrameStamp = { modelSha256: m.sha256, input: `${identity.inputName}:${stat.size}` };
-  const csvOptions = csvLayoutOf(m);
+  const csvOptions = format === 'csv' ? csvLayoutOf(m, await firstFrameOf(opts.input, opts.range, opts.signal)) : undefined;
   const frames = readStructures(opts.input, { signal: opts.signal, range: opts.range });
   const start = opts.range?.start ?? 0;
   const step = opts.range?.step ?? 1;

@@ -25,7 +25,7 @@ import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import type { PredictFormat } from './predict-frame.ts';
 import type { PredictChunkInput, PredictChunkOutput } from './predict-tasks.ts';
-import { csvLayoutOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
+import { csvLayoutOf, firstFrameOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
 import { sharedModel } from './shared-model.ts';
 import { JobRunner, type WorkerFactory } from '../../jobs/runner.ts';
 import { tsWorkerFactory } from '../../jobs/spawn-ts.ts';
@@ -198,7 +198,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   const loaded = opts.model ?? (await loadModelFile(opts.modelPath, opts.modelLabel ?? opts.modelPath));
   const { model, sha256: modelSha256 } = loaded;
   predictOutputFormat(opts.output, model);
-  const csvOptions = opts.csvOptions ?? csvLayoutOf(loaded);
+  const csvOptions = opts.csvOptions ?? (format === 'csv' ? csvLayoutOf(loaded, await firstFrameOf(opts.input, opts.range, signal)) : undefined);
 
   let stat;
   try {
@@ -248,7 +248,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   let ck = mode === 'restart' ? null : await readCheckpoint(ckPath);
   if (ck) {
     const why = mismatch(ck, want);
-    if (why) throw new InputError(`a checkpoint of an earlier run is here, but ${why}`, { file: ckPath }, 'run with --restart to start again (or use another output name)');
+    if (why) throw new InputError(`a checkpoint of an earlier run (input ${ck.input.path}, ${ck.framesDone} frames done) is here, but ${why}`, { file: ckPath }, 'run with --restart to start again (or use another output name)');
     const size = (await fsp.stat(partial).catch(() => null))?.size ?? -1;
     if (size < ck.partialBytes) throw new InputError(`the partial output holds ${Math.max(size, 0)} bytes, the checkpoint expects ${ck.partialBytes}`, { file: partial }, 'run with --restart to start again');
   } else if (mode === 'resume') {

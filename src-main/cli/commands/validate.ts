@@ -7,6 +7,7 @@ import type { Command } from '../command.ts';
 import type { ErrorFigures, Route } from '../../core/learning/model-types.ts';
 import { validateValues, type ValueErrorFigures } from '../../core/learning/validation.ts';
 import { fmtPct, validateRoutes, verdict, verdictOf } from '../../app/learning.ts';
+import { headlineErrors, type StatePointErrors } from '../../core/learning/state-points.ts';
 import { isIsolated } from '../../core/learning/targets.ts';
 import { checkTargetOptions, parseRequest, parseRoute, progressReporter, readFrames, settingOptions, targetOptions, targetShapeOf } from '../learn-options.ts';
 
@@ -82,13 +83,18 @@ export const validateCommand: Command = {
       const mainName = onEps ? `ε${report.target === 'eps' ? '' : report.target.slice(3)}` : report.target;
       io.out(`route ${route}: ${folds}-fold cross-validation over ${frames.length} frames\n`);
       for (const note of report.notes) io.out(`  ${note}\n`);
-      io.out(`  on ${mainName} (${report.errors.count} frames):\n${indent(formatErrors(report.errors, onEps ? '' : ' Å³'), 4)}\n`);
+      io.out(statePointLines(report.statePoints ?? null));
+      io.out(`  on ${mainName} (${report.errors.count} frames${report.statePoints ? '; the spread includes the differences between state points' : ''}):\n${indent(formatErrors(report.errors, onEps ? '' : ' Å³'), 4)}\n`);
       for (const o of report.alsoOn) io.out(`  on ${o.target} (${o.errors.count} frames):\n${indent(formatErrors(o.errors, ' Å³'), 4)}\n`);
       for (const lc of report.learningCurve) {
-        io.out(`  learning curve, ${lc.trainSize} training frames: error of ${mainName}, isotropic ${fmtPct(lc.errors.percentIso)}, anisotropic ${fmtPct(lc.errors.percentAniso)} of the spread\n`);
+        const pm = (m: number, sd: number | undefined) => (sd !== undefined && lc.repeats && lc.repeats > 1 ? `${fmtPct(m).replace(' %', '')} ± ${fmtPct(sd)}` : fmtPct(m));
+        const splits = lc.repeats && lc.repeats > 1 ? ` (mean ± spread of ${lc.repeats} random splits)` : '';
+        io.out(`  learning curve, ${lc.trainSize} training frames${splits}: error of ${mainName}, isotropic ${pm(lc.errors.percentIso, lc.spread?.percentIso)}, anisotropic ${pm(lc.errors.percentAniso, lc.spread?.percentAniso)} of the spread\n`);
       }
+      if (report.curveTrend) io.out(`  learning curve: ${report.curveTrend}\n`);
       if (report.skippedSizes.length) io.out(`  learning-curve sizes skipped (more than the training folds hold): ${report.skippedSizes.join(', ')}\n`);
-      io.out(`  verdict (rule of thumb, on ${mainName}): ${verdict(report.errors)}\n`);
+      const head = headlineErrors(report);
+      io.out(`  verdict (rule of thumb, on ${mainName} ${head.what}): ${verdict(head.errors)}\n`);
       io.out(errorBarLine(report.errorBars));
     }
     if (better) io.out(`comparison on ε: route ${better.route} has the smaller root-mean-square error of the whole tensor (cm ${better.totals.cm.toPrecision(3)}, direct ${better.totals.direct.toPrecision(3)})\n`);
@@ -96,6 +102,14 @@ export const validateCommand: Command = {
     return 0;
   },
 };
+
+/** The per-state-point errors, the within-state figure first (the headline: it says how well the model learns within a state). */
+export function statePointLines(sp: StatePointErrors | null): string {
+  if (!sp) return '';
+  const lines = [`  state points (${sp.groups.length}, by ${sp.what}): on ε within state points (relative to the spread within each):`, indent(formatErrors(sp.within, ''), 4)];
+  for (const g of sp.groups) lines.push(`    ${g.label} (${g.errors.count} frames): isotropic ${fmtPct(g.errors.percentIso)}, anisotropic ${fmtPct(g.errors.percentAniso)} of its spread (RMSE ${g.errors.rmseIso.toPrecision(2)}, ${g.errors.rmseAniso.toPrecision(2)})`);
+  return lines.join('\n') + '\n';
+}
 
 function indent(text: string, n: number): string {
   return text

@@ -57,3 +57,29 @@ export function errorFigures(reference: ArrayLike<number>[], predicted: ArrayLik
 export function meanSquaredTensorError(e: ErrorFigures): number {
   return 3 * e.rmseIso ** 2 + (2 / 3) * e.rmseAniso ** 2;
 }
+
+// ---------------------------------------------------------------------------------------------------------
+// The verdict: one rule for the CLI (validate), the demo and the window (Checks), judged on the headline
+// figures (core/learning/state-points.ts headlineErrors: within state points when there are several).
+
+/** Rule-of-thumb verdict thresholds on the error relative to the spread of the data (common practice, no source). */
+export const GOOD_PERCENT = 10;
+export const USABLE_PERCENT = 30;
+
+/** The verdict on a tensor validation's figures (the worse of the isotropic and anisotropic relative errors). */
+export function verdict(e: ErrorFigures): string {
+  return verdictOf(Math.max(e.percentIso, e.percentAniso), 'both errors');
+}
+
+/** The verdict on the worst relative error of a validation; `what` names the figures for the good case. */
+export function verdictOf(worst: number, what: string): string {
+  if (worst <= GOOD_PERCENT) return `good (${what} ≤ ${GOOD_PERCENT} %)`;
+  if (worst <= USABLE_PERCENT) return `usable with care (worst error ${fmtPct(worst)} of the spread, between ${GOOD_PERCENT} and ${USABLE_PERCENT} %)`;
+  return `poor (worst error ${fmtPct(worst)} of the spread > ${USABLE_PERCENT} %): more or more varied training data, or other settings, are needed`;
+}
+
+/** A relative error as text, with the digits it deserves (one decimal below 10 %, none above). */
+export function fmtPct(p: number): string {
+  if (!Number.isFinite(p)) return 'undefined (the reference does not vary)';
+  return `${p < 10 ? p.toFixed(1) : p.toFixed(0)} %`;
+}

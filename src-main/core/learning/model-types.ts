@@ -35,6 +35,8 @@ export interface TrainRequest {
   settings?: Partial<ModelSettings>;
   /** Candidate values to choose by cross-validation on the training frames (each list tried in every combination). */
   tune?: TuneGrid;
+  /** Train even when the reference values look unlike `kind` (core/learning/kind-check.ts); off by default. */
+  trustKind?: boolean;
 }
 
 /** Settings to choose by cross-validation (on request: each combination costs one training). */
@@ -161,15 +163,47 @@ export interface ErrorFigures {
   count: number;
 }
 
+/** Errors within and per state point (computed in core/learning/state-points.ts). */
+export interface StatePointErrors {
+  source: 'property' | 'density';
+  what: string;
+  /** Errors relative to the pooled spread within the state points: the headline figure. */
+  within: ErrorFigures;
+  /** Per state point, errors relative to that state point's own spread. */
+  groups: { label: string; errors: ErrorFigures }[];
+}
+
+/** A learning-curve point from repeated random splits (core/learning/curve-splits.ts). */
+/** Standard deviations over the repeats of the relative and absolute errors. */
+export interface ErrorSpread {
+  percentIso: number;
+  percentAniso: number;
+  rmseIso: number;
+  rmseAniso: number;
+}
+
+export interface CurvePoint {
+  trainSize: number;
+  /** Mean over the repeats. */
+  errors: ErrorFigures;
+  /** Standard deviation over the repeats (0 with one repeat). */
+  spread?: ErrorSpread;
+  repeats?: number;
+}
+
 export interface ValidationReport {
   route: Route;
   /** What was compared (units of the comparison, e.g. "eps" or "alpha-cm (Å³)"). */
   target: string;
   folds: number;
   errors: ErrorFigures;
+  /** Errors within and per state point, when the frames come from several (core/learning/state-points.ts); lead with `within`. */
+  statePoints?: StatePointErrors | null;
   points: ParityPoint[];
-  /** Learning curve: training-set size → held-out errors. */
-  learningCurve: { trainSize: number; errors: ErrorFigures }[];
+  /** Learning curve: training-set size → held-out errors (mean over repeated random splits, with their spread). */
+  learningCurve: CurvePoint[];
+  /** Whether more data would help, from the slope of the last points against their spread (core/learning/curve-splits.ts). */
+  curveTrend?: string | null;
 }
 
 /*

@@ -25,7 +25,7 @@ import type { Applicability, FramePrediction, IsolatedPrediction, ModelSettings,
 import { makeRng } from '../numerics/random.ts';
 import { cachedNearestSearch, searchNearest } from './nearest-search.ts';
 import { tuneCombinations, tuneSettingsWith, type TuneResult } from './tuning.ts';
-import { fitRidge, foldsOf, heldOutRows, posteriorVariance, primalWeights, type Design } from './regression.ts';
+import { DEFAULT_REGULARISATION_GRID, fitRidge, foldsOf, heldOutRows, posteriorVariance, primalWeights, type Design } from './regression.ts';
 import { calibratePart, type Calibration, type PartCalibration } from './calibration.ts';
 import {
   farthestPointSample,
@@ -56,6 +56,8 @@ import {
   type TargetShape,
 } from './targets.ts';
 import { fromIrreducible, tensorFromValues, toIrreducible } from '../dielectric/tensor.ts';
+import { checkTensorKind } from './kind-check.ts';
+import { compositionNote } from './contributions.ts';
 import { computeReadout, makeWeightMatrices, weightMatricesLength, type TensorReadout } from './tensor-readout.ts';
 import { cellVolume } from '../geometry/cell.ts';
 import { propagateErrorBars } from '../dielectric/clausius-mossotti.ts';
@@ -242,7 +244,9 @@ export function learntTargets(frames: Frame[], request: TrainRequest): TargetRow
     isolated[f] = target.isolated ? 1 : 0;
     volumes[f] = target.isolated ? 0 : cellVolume(frame.cell as Mat3, whereOf(frame, f));
     if (shape === 'tensor') {
-      const t = learntTensor(readTensorValues(raw, frame, f), target.kind, request.route, target.isolated ? null : volumes[f]);
+      const given = readTensorValues(raw, frame, f);
+      if (!request.trustKind) checkTensorKind(given, target.kind, frame.species.length, target.key, whereOf(frame, f));
+      const t = learntTensor(given, target.kind, request.route, target.isolated ? null : volumes[f]);
       values.set(toIrreducible(t), f * 6);
     } else if (shape === 'vector') values.set(vectorToSpherical(raw), f * 3);
     else values[f] = raw[0];
@@ -491,6 +495,8 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const cv = nFrames >= 3 ? { fold: foldOf, folds, signal: hooks.signal } : null;
   const notes: string[] = isolatedFramesNote(targets.isolated, request.kind);
   if (!cv && settings.regularisation === null) notes.push('fewer than 3 frames: regulariser not cross-validated (default 1e-6)');
+  const composition = compositionNote(centres, Array.from({ length: nFrames }, (_, f) => Array.from(counts.subarray(f * nS, (f + 1) * nS))));
+  if (composition && targets.shape === 'tensor') notes.push(composition);
 
   // Representatives (FPS per species) for kernel parts and for applicability.
   const repsPerSpecies = envPool.perSpecies.map((cand) => {
@@ -597,6 +603,10 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
       chosenBy: (settings.regularisation !== null ? 'given' : cv ? 'cross-validation' : 'default') as ModelPart['regularisation']['chosenBy'],
       grid: fit.grid,
     };
+    if (!p.aux) {
+      const edge = regulariserEdge(regularisation);
+      if (edge) notes.push(`λ=${p.order}: ${edge}`);
+    }
     const n = p.order === 0 ? n0 : (nOrder as number);
     const part: ModelPart = { order: p.order, offset: p.offset, form: linear ? 'linear' : 'kernel', method: linear ? fit.form : exact ? 'exact' : 'sparse', n, regularisation };
     const refineBaseline = (delta: ArrayLike<number>) => {
@@ -781,13 +791,32 @@ export function tuneSettings(frames: Frame[], request: TrainRequest, grid: TuneG
  * Train a model on frames (the contract of model-types.ts). With `request.tune`, the listed settings are first
  * chosen by cross-validation on the same frames (core/learning/tuning.ts); the choice is recorded in the model's notes.
  */
-export async function trainModel(frames: Frame[], request: TrainRequest, hooks: WorkHooks = {}): Promise<Model> {
-  if (!request.tune || tuneCombinations(request.tune).length <= 1) return trainWithFeaturiser(frames, request, null, hooks);
+export async function trainModel(frames: Frame[], request: TrainRequest, hooks: WorkHooks = {}, featurise: Featuriser | null = null): Promise<Model> {
+  // `featurise`: the frames' features already computed for the same settings (validation.ts tensorFeaturiser)
+  if (!request.tune || tuneCombinations(request.tune).length <= 1) return trainWithFeaturiser(frames, request, featurise, hooks);
   const tuned = await tuneSettings(frames, request, request.tune, hooks);
   const model = await trainWithFeaturiser(frames, { ...request, tune: undefined, settings: { ...(request.settings ?? {}), ...tuned.best } }, null, hooks);
   const fmt = (s: Partial<ModelSettings>) => Object.entries(s).map(([k, v]) => `${settingSpec(k as NumericSettingKey).label.toLowerCase()} ${v}`).join(', ');
   model.notes.push(`tuned by cross-validation: ${fmt(tuned.best)} (scores: ${tuned.table.map((r) => `${fmt(r.settings)} → ${r.score.toPrecision(3)}`).join('; ')})`);
   return model;
+}
+
+/**
+ * A warning when cross-validation chose the smallest or largest regulariser it tried: the best value may lie
+ * beyond the range, and the fit is then limited by the range rather than by the data.
+ */
+export function regulariserEdge(r: Pick<ModelPart['regularisation'], 'relative' | 'chosenBy' | 'grid'>): string | null {
+  if (r.chosenBy !== 'cross-validation' || r.grid.length < 3) return null;
+  const tried = r.grid.map((g) => g.relative);
+  const lo = Math.min(...DEFAULT_REGULARISATION_GRID);
+  const hi = Math.max(...DEFAULT_REGULARISATION_GRID);
+  if (r.relative <= lo && tried.includes(lo)) {
+    return `the regulariser chosen by cross-validation, ${lo.toExponential(0)}, is the smallest of the range tried (${lo.toExponential(0)}…${hi.toExponential(0)}): the model wants more freedom than the range allows — the features may be too few for the data (try more radial functions or a larger angular order), or the references nearly free of noise; give a smaller one with --regularisation to check`;
+  }
+  if (r.relative >= hi && tried.includes(hi)) {
+    return `the regulariser chosen by cross-validation, ${hi.toExponential(0)}, is the largest of the range tried (${lo.toExponential(0)}…${hi.toExponential(0)}): the features explain little of this part beyond the per-species baseline — the part may be mostly noise, or need other settings`;
+  }
+  return null;
 }
 
 /** Check that a frame can be predicted by the model: species it knows. */

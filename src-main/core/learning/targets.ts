@@ -144,3 +144,18 @@ export function vectorToSpherical(v: ArrayLike<number>): Float64Array {
 export function sphericalToVector(s: ArrayLike<number>): Float64Array {
   return Float64Array.of(s[2], s[0], s[1]);
 }
+
+/**
+ * The reference tensor `key` of kind `kind` a frame carries, as ε; null when the frame has none (missing, not a
+ * 3×3 tensor, no cell, or not convertible). For comparing predictions with references (predict's reference
+ * columns, the window's parity of predicted frames), where a frame without one is not an error.
+ */
+export function referenceEpsOf(frame: Frame, index: number, key: string, kind: TensorKind): Mat3 | null {
+  const v = frame.info[key];
+  if (!Array.isArray(v) || (v.length !== 9 && v.length !== 6) || !frame.cell) return null;
+  try {
+    return convertTensor(readTensor(frame, key, index), kind, 'eps', frameVolume(frame, index));
+  } catch {
+    return null;
+  }
+}

@@ -26,6 +26,9 @@ import { toIrreducible } from '../dielectric/tensor.ts';
 
 export { errorFigures } from './error-figures.ts';
 import { errorFigures } from './error-figures.ts';
+import { checkTensorKind } from './kind-check.ts';
+import { statePointErrors, statePointsOf } from './state-points.ts';
+import { CURVE_REPEATS, curveTrend, meanOfRepeats } from './curve-splits.ts';
 
 /** A second comparison reported beside the main one (e.g. α_CM when the main one is ε). */
 export interface SecondaryComparison {
@@ -37,6 +40,30 @@ export interface SecondaryComparison {
 export interface ValidationOptions {
   folds: number;
   learningCurve?: number[];
+  /** Random subsets drawn at each learning-curve size (tensor targets; default CURVE_REPEATS). */
+  curveRepeats?: number;
+  /** Features of the frames (tensorFeaturiser), to share with the final training; made here when not given. */
+  featurise?: Featuriser;
+}
+
+/**
+ * The cached features of a tensor request's frames, as validate() and the final training compute them: pass the
+ * same featuriser to validate (options.featurise) and trainModel, and each frame's features are computed once.
+ */
+export function tensorFeaturiser(frames: Frame[], request: TrainRequest): Featuriser {
+  const settings = resolveSettings(request.settings);
+  const { species, centres } = speciesOf(frames, settings);
+  return cachedFeaturiser(modelFeaturiser({ settings, species, centres, target: { key: request.tensorKey, shape: 'tensor', kind: request.kind, route: request.route, learnt: 'alpha-cm', units: 'Å³' } }), frames);
+}
+
+/** Compute (and cache) every frame's features first, with progress: the longest silent stage otherwise. */
+async function precomputeFeatures(frames: Frame[], featurise: Featuriser, hooks: WorkHooks): Promise<void> {
+  for (let i = 0; i < frames.length; i++) {
+    if (hooks.signal?.aborted) throw new CancelledError();
+    featurise(frames[i], i);
+    hooks.onProgress?.({ stage: 'features of the frames', done: i + 1, total: frames.length });
+    await new Promise((r) => setTimeout(r, 0));
+  }
 }
 
 /** Cache features of all frames when they fit comfortably in memory; else compute them on every use. */
@@ -75,10 +102,13 @@ interface FoldPlan {
   testIndices: (f: number) => number[];
   usable: number[];
   skippedSizes: number[];
+  repeats: number;
   steps: number;
+  /** The training frames of fold f for a learning-curve point: `size` of them, a different random subset per repeat. */
+  subset: (train: number[], size: number, repeat: number) => number[];
 }
 
-function planFolds(n: number, k: number, seed: number, learningCurve: number[] | undefined): FoldPlan {
+function planFolds(n: number, k: number, seed: number, learningCurve: number[] | undefined, repeats = 1): FoldPlan {
   const rng = makeRng(seed + 7919);
   const perm = Int32Array.from({ length: n }, (_, i) => i);
   for (let i = n - 1; i > 0; i--) {
@@ -92,7 +122,17 @@ function planFolds(n: number, k: number, seed: number, learningCurve: number[] |
   const minTrain = Math.min(...Array.from({ length: k }, (_, f) => trainIndices(f).length));
   const usable = sizes.filter((s) => Number.isInteger(s) && s >= 1 && s <= minTrain);
   const skippedSizes = sizes.filter((s) => !usable.includes(s));
-  return { k, trainIndices, testIndices, usable, skippedSizes, steps: k * (1 + usable.length) };
+  const subset = (train: number[], size: number, repeat: number) => {
+    if (repeat === 0) return train.slice(0, size);
+    const r = makeRng(seed + 104729 * repeat + size);
+    const t = [...train];
+    for (let i = t.length - 1; i > 0; i--) {
+      const j = r.int(i + 1);
+      [t[i], t[j]] = [t[j], t[i]];
+    }
+    return t.slice(0, size);
+  };
+  return { k, trainIndices, testIndices, usable, skippedSizes, repeats, steps: k * (1 + usable.length * repeats), subset };
 }
 
 /**
@@ -108,13 +148,14 @@ async function runFoldsOf(
   species: string[],
   hooks: WorkHooks,
   predict: (model: Model, frame: number) => void,
+  repeat = 0,
 ): Promise<number[]> {
   const tested: number[] = [];
-  const done = size === null ? 0 : (1 + plan.usable.indexOf(size)) * plan.k;
+  const done = size === null ? 0 : (1 + plan.usable.indexOf(size) * plan.repeats + repeat) * plan.k;
   for (let f = 0; f < plan.k; f++) {
     if (hooks.signal?.aborted) throw new CancelledError();
     let train = plan.trainIndices(f);
-    if (size !== null) train = train.slice(0, size);
+    if (size !== null) train = plan.subset(train, size, repeat);
     const trainFrames = train.map((i) => frames[i]);
     const local: Featuriser = (frame, idx) => featurise(frame, train[idx]);
     const model = await trainWithFeaturiser(trainFrames, request, local, { signal: hooks.signal }, { applicability: false, species, createdAt: 'validation' });
@@ -122,7 +163,7 @@ async function runFoldsOf(
       predict(model, i);
       tested.push(i);
     }
-    hooks.onProgress?.({ stage: size === null ? `fold ${f + 1}/${plan.k}` : `learning curve, ${size} frames`, done: done + f + 1, total: plan.steps });
+    hooks.onProgress?.({ stage: size === null ? `fold ${f + 1}/${plan.k}` : `learning curve, ${size} frames${plan.repeats > 1 ? `, split ${repeat + 1}/${plan.repeats}` : ''}`, done: done + f + 1, total: plan.steps });
   }
   return tested.sort((a, b) => a - b);
 }
@@ -144,8 +185,7 @@ export async function validate(
   if (!Array.isArray(firstValues) || (firstValues.length !== 9 && firstValues.length !== 6)) {
     throw new InputError(`validation compares cell tensors; "${firstKey}" is not a 3×3 tensor`, { frame: 0 }, 'the window validates tensors only; for a dipole or a scalar run `polarweave validate` on the command line');
   }
-  const base = modelFeaturiser({ settings, species, centres, target: { key: request.tensorKey, shape: 'tensor', kind: request.kind, route: request.route, learnt: 'alpha-cm', units: 'Å³' } });
-  const featurise = cachedFeaturiser(base, frames);
+  const featurise = options.featurise ?? tensorFeaturiser(frames, request);
 
   // reference tensors: periodic frames on ε and on α_CM; isolated frames (molecules, clusters) on their α
   const refEps: Float64Array[] = [];
@@ -155,6 +195,7 @@ export async function validate(
   frames.forEach((f, i) => {
     const target = frameTarget(f, request, i);
     const t = readTensor(f, target.key, i);
+    if (!request.trustKind) checkTensorKind(t, target.kind, f.species.length, target.key, whereOf(f, i));
     isolated.push(target.isolated);
     if (target.isolated) {
       const a = toIrreducible(learntTensor(t, 'alpha-mol', request.route, null));
@@ -171,9 +212,10 @@ export async function validate(
   const periodicFrames = frames.map((_, i) => i).filter((i) => !isolated[i]);
   const isolatedFrames = frames.map((_, i) => i).filter((i) => isolated[i]);
 
-  const plan = planFolds(n, k, settings.seed, options.learningCurve);
+  await precomputeFeatures(frames, featurise, hooks);
+  const plan = planFolds(n, k, settings.seed, options.learningCurve, Math.max(1, Math.round(options.curveRepeats ?? CURVE_REPEATS)));
   const { usable, skippedSizes } = plan;
-  const runFolds = async (size: number | null) => {
+  const runFolds = async (size: number | null, repeat = 0) => {
     const pe: Float64Array[] = new Array(n);
     const pc: Float64Array[] = new Array(n);
     const z = new ZCollector([{ order: 0, offset: 0 }, { order: 2, offset: 1 }]);
@@ -190,7 +232,7 @@ export async function validate(
       pc[i] = toIrreducible(fp.alphaCM);
       const S3 = Math.sqrt(3);
       z.add(refLearnt[i], pred.irreducible, pred.uncertainty?.sd ?? null, fp.errorBars ? { reference: refEps[i][0] / S3, predicted: pe[i][0] / S3, sd: fp.errorBars.epsIso } : undefined);
-    });
+    }, repeat);
     return { tested, pe, pc, errorBars: z.result() };
   };
 
@@ -210,10 +252,17 @@ export async function validate(
   const onEps = periodicFrames.length > 0;
   const mainOf = (r: { pe: Float64Array[]; pc: Float64Array[]; tested: number[] }) =>
     onEps ? errorsOf(refEps, r.pe, only(r.tested, periodicFrames)) : errorsOf(refCM, r.pc, r.tested);
+  // state points (a state_point property, or density clusters) of the frames of the main comparison
+  const spIdx = onEps ? only(main.tested, periodicFrames) : main.tested;
+  const groups = statePointsOf(spIdx.map((i) => frames[i]), spIdx.map((i) => (isolated[i] ? 0 : frameVolume(frames[i], i))));
+  const [spRef, spPred] = onEps ? [refEps, main.pe] : [refCM, main.pc];
+  const statePoints = groups ? statePointErrors(spIdx.map((i) => spRef[i]), spIdx.map((i) => spPred[i]), groups, groups.labels) : null;
+
   const learningCurve: ValidationReport['learningCurve'] = [];
   for (const size of usable) {
-    const r = await runFolds(size);
-    learningCurve.push({ trainSize: size, errors: mainOf(r) });
+    const repeats: ErrorFigures[] = [];
+    for (let r = 0; r < plan.repeats; r++) repeats.push(mainOf(await runFolds(size, r)));
+    learningCurve.push(meanOfRepeats(size, repeats));
   }
   const alsoOn: SecondaryComparison[] = [];
   const mainPoints = onEps ? pointsOf(refEps, main.pe).filter((p) => !isolated[p.frame]) : pointsOf(refCM, main.pc);
@@ -224,13 +273,16 @@ export async function validate(
   if (onEps && isolatedFrames.length) {
     alsoOn.push({ target: 'alpha-mol (Å³), isolated frames', errors: errorsOf(refCM, main.pc, only(main.tested, isolatedFrames)), points: pointsOf(refCM, main.pc).filter((p) => isolated[p.frame]) });
   }
+  const full = { trainSize: Math.min(...Array.from({ length: k }, (_, f) => plan.trainIndices(f).length)), errors: mainOf(main) };
   return {
     route: request.route,
     target: onEps ? (isolatedFrames.length ? 'eps, periodic frames' : 'eps') : 'alpha-mol (Å³)',
     folds: k,
     errors: mainOf(main),
+    statePoints,
     points: mainPoints,
     learningCurve,
+    curveTrend: learningCurve.length ? curveTrend(learningCurve, full).text : null,
     alsoOn,
     skippedSizes,
     errorBars: main.errorBars,

@@ -11,7 +11,7 @@ import { reasonText } from '../../core/learning/domain.ts';
 import type { TargetShape } from '../../core/learning/targets.ts';
 import type { Model, TargetPrediction } from '../../core/learning/model.ts';
 import { predictedVector } from '../../core/learning/model.ts';
-import { anisotropy, isotropicMean, symmetricEigen } from '../../core/dielectric/tensor.ts';
+import { anisotropy, anisotropyOfParts, isotropicMean, symmetricEigen, toIrreducible } from '../../core/dielectric/tensor.ts';
 import { polarisabilityFromA3, type PolarisabilityUnit } from '../../core/dielectric/units.ts';
 import { atomicWriteStream, writeFileAtomic } from '../atomic.ts';
 import { csvField, csvRecord, csvValue, type CsvValue } from '../csv.ts';
@@ -310,40 +310,59 @@ function tagOf(frame: Frame, key: string = TAG_COLUMN): string {
   return typeof t === 'string' ? t : '';
 }
 
-/** Reference-tensor columns a caller may add beside a prediction (the demo compares with its reference ε). */
-export function referenceColumns(prefix = 'eps_ref'): { columns: string[]; description: string } {
-  return {
-    columns: TENSOR_COMPONENTS.map((c) => `${prefix}_${c}`),
-    description: `${prefix}_*: the reference tensor the input file carries for this frame, for comparison`,
-  };
+/**
+ * The reference columns written beside a prediction when the input frames carry the model's reference tensor
+ * (predict, the window's export, the demo): the reference as ε (eps_ref_*, in the order of the eps_* columns),
+ * its isotropic value, and the differences predicted − reference of the isotropic value and the anisotropy of
+ * the difference tensor (the figures of core/learning/error-figures.ts, per frame). Empty cells in a frame
+ * without a reference.
+ */
+export const REFERENCE_COLUMNS: readonly { name: string; description: string; value(ref: Mat3, eps: Mat3): number }[] = [
+  ...TENSOR_COMPONENTS.map((c, k) => ({
+    name: `eps_ref_${c}`,
+    description: k === 0 ? 'eps_ref_xx … eps_ref_yz: the reference tensor the input file carries for this frame (as eps), for comparison' : '',
+    value: (ref: Mat3) => ref[COMPONENT_SLOTS[c][0]],
+  })),
+  { name: 'eps_ref_iso', description: 'trace/3 of the reference eps', value: (ref) => isotropicMean(ref) },
+  { name: 'eps_iso_diff', description: 'eps_iso − eps_ref_iso (predicted minus reference)', value: (ref, eps) => isotropicMean(eps) - isotropicMean(ref) },
+  {
+    name: 'eps_aniso_diff',
+    description: 'anisotropy of the difference tensor eps − eps_ref (the anisotropic error of validate, for this frame; ≥ 0)',
+    value: (ref, eps) => anisotropyOfParts(toIrreducible(Float64Array.from(eps, (v, i) => v - ref[i]))),
+  },
+];
+
+/** True when a table's layout has the reference columns. */
+export function hasReferenceColumns(options: TensorCsvOptions | undefined): boolean {
+  return !!options?.extraColumns?.includes(REFERENCE_COLUMNS[0].name);
 }
 
-function referenceValues(t: Mat3, prefix = 'eps_ref'): Record<string, number> {
-  const out: Record<string, number> = {};
-  for (const c of TENSOR_COMPONENTS) out[`${prefix}_${c}`] = t[COMPONENT_SLOTS[c][0]];
-  return out;
+function referenceValues(ref: Mat3 | null, eps: Mat3 | null): Record<string, CsvValue> {
+  return Object.fromEntries(REFERENCE_COLUMNS.map((c) => [c.name, ref && eps ? c.value(ref, eps) : NO_REFERENCE]));
 }
+
+/** Text written in the reference columns of a frame that carries no reference. */
+export const NO_REFERENCE = '';
 
 export interface PredictionTableOptions {
   /** What the predictions came from, for the comment block (a model path, or a name). */
   source: string;
   /** The first comment line (default: "Polarweave predicted dielectric tensors"). */
   title?: string;
-  /** Add eps_ref_* columns (before the prediction columns) from `reference` in each row. */
+  /** Add the reference columns (REFERENCE_COLUMNS, before the prediction columns) from `reference` in each row. */
   reference?: boolean;
 }
 
 /** io/csv tensor-table options for the predictions of `model`. */
 export function predictionCsvOptions(model: Model, modelPath: string, options: Partial<PredictionTableOptions> = {}): TensorCsvOptions {
   const columns = columnsFor(model.target.shape);
-  const ref = options.reference ? referenceColumns() : null;
-  const descriptions: Record<string, string> = Object.fromEntries(columns.map((c) => [c.name, c.description]));
-  if (ref) descriptions[ref.columns[0]] = ref.description;
+  const ref = options.reference ? REFERENCE_COLUMNS : [];
+  const descriptions: Record<string, string> = Object.fromEntries([...ref, ...columns].filter((c) => c.description).map((c) => [c.name, c.description]));
   return {
     title: options.title ?? 'Polarweave predicted dielectric tensors',
     tagColumns: [TAG_COLUMN],
     alpha: { kind: model.target.route === 'cm' ? 'alpha-cm' : 'alpha-c', unit: 'A3' },
-    extraColumns: [...(ref?.columns ?? []), ...columns.map((c) => c.name)],
+    extraColumns: [...ref.map((c) => c.name), ...columns.map((c) => c.name)],
     extraDescriptions: descriptions,
     source: options.source ?? `model ${modelPath} (route ${model.target.route}, trained on ${model.training.frames} frames)`,
     predicted: true,
@@ -353,10 +372,11 @@ export function predictionCsvOptions(model: Model, modelPath: string, options: P
 
 /**
  * A tensor prediction as a per-frame table row: ε, the learnt cell polarisability of the route (α_CM for cm,
- * α_c for direct), the tag column and the prediction columns (and the reference tensor, when given). An
- * isolated frame's row has no volume or ε and carries the molecule's polarisability in the α_CM columns.
+ * α_c for direct), the tag column and the prediction columns, and the reference columns when `reference` is
+ * given (a tensor as ε, or null for a frame without one: empty cells). An isolated frame's row has no volume or
+ * ε (nor reference ε) and carries the molecule's polarisability in the α_CM columns.
  */
-export function tensorPredictionRow(index: number, frame: Frame, p: TensorPrediction, model: Model, more: { reference?: Mat3; tagKey?: string } = {}): TensorRow {
+export function tensorPredictionRow(index: number, frame: Frame, p: TensorPrediction, model: Model, more: { reference?: Mat3 | null; tagKey?: string } = {}): TensorRow {
   const reference = more.reference;
   return {
     frame: index,
@@ -364,7 +384,7 @@ export function tensorPredictionRow(index: number, frame: Frame, p: TensorPredic
     volumeA3: p.isolated ? null : p.volumeA3,
     eps: p.isolated ? null : p.eps,
     alpha: p.isolated ? p.alphaMol : model.target.route === 'cm' ? p.alphaCM : p.alphaC,
-    extra: { ...(reference ? referenceValues(reference) : {}), ...columnValues('tensor', p) },
+    extra: { ...(reference !== undefined ? referenceValues(p.isolated ? null : reference, p.isolated ? null : p.eps) : {}), ...columnValues('tensor', p) },
   };
 }
 

@@ -10,7 +10,8 @@ export interface LearningCurveInput {
   /** 'cm' or 'direct' (or any name). */
   route: string;
   label?: string;
-  learningCurve: { trainSize: number; errors: ErrorFiguresJ }[];
+  /** spread: standard deviations over repeated random splits (drawn as error bars). */
+  learningCurve: { trainSize: number; errors: ErrorFiguresJ; spread?: Record<'percentIso' | 'percentAniso' | 'rmseIso' | 'rmseAniso', number>; repeats?: number }[];
 }
 
 export interface CurveLine {
@@ -19,7 +20,8 @@ export interface CurveLine {
   part: CurvePart;
   /** Index of the curve in the input (for its colour). */
   curve: number;
-  points: { n: number; value: number }[];
+  /** sd: spread over the repeated splits (0 or absent with one split). */
+  points: { n: number; value: number; sd?: number }[];
 }
 
 export function metricOf(e: ErrorFiguresJ, part: CurvePart, metric: CurveMetric): number {
@@ -40,7 +42,8 @@ export function learningLines(
       const points: CurveLine['points'] = [];
       for (const p of c.learningCurve) {
         const v = metricOf(p.errors, part, metric);
-        if (p.trainSize > 0 && v > 0 && Number.isFinite(v)) points.push({ n: p.trainSize, value: v });
+        const sd = p.spread ? metricOf({ ...p.errors, ...p.spread }, part, metric) : undefined;
+        if (p.trainSize > 0 && v > 0 && Number.isFinite(v)) points.push({ n: p.trainSize, value: v, ...(sd !== undefined && sd > 0 ? { sd } : {}) });
         else skipped++;
       }
       points.sort((a, b) => a.n - b.n);

@@ -79,7 +79,8 @@ describe('model on a known linear target in feature space', () => {
       const nTrain = 40;
       const train = set.frames.slice(0, nTrain);
       const featurise: Featuriser = (_frame, i) => set.features[i];
-      const model = await trainWithFeaturiser(train, { tensorKey: 'alpha', kind: 'alpha-cm', route: 'cm' }, featurise, {}, { createdAt: 'test' });
+      // the synthetic target is linear in made-up features, not a physical α (some values are negative): past the kind guard
+      const model = await trainWithFeaturiser(train, { tensorKey: 'alpha', kind: 'alpha-cm', route: 'cm', trustKind: true }, featurise, {}, { createdAt: 'test' });
       expect(model.target.shape).toBe(shape);
       for (const p of model.parts) {
         expect(p.regularisation.chosenBy).toBe('cross-validation');
@@ -101,7 +102,7 @@ describe('model on a known linear target in feature space', () => {
   it('fits the per-species baseline and the kernel forms (ζ = 2 sparse and exact) agree on interpolation', async () => {
     const set = makeSet('scalar', 30, 77);
     const featurise: Featuriser = (_frame, i) => set.features[i];
-    const request = (settings: object) => ({ tensorKey: 'alpha', kind: 'alpha-cm' as const, route: 'cm' as const, settings });
+    const request = (settings: object) => ({ tensorKey: 'alpha', kind: 'alpha-cm' as const, route: 'cm' as const, settings, trustKind: true });
     const exact = await trainWithFeaturiser(set.frames, request({ kernelExponent: 2, anchorEnvironments: 0, regularisation: 1e-6 }), featurise);
     // with as many representatives as environments the sparse form equals the exact one
     const sparse = await trainWithFeaturiser(set.frames, request({ kernelExponent: 2, anchorEnvironments: 5000, regularisation: 1e-6 }), featurise);
@@ -119,7 +120,7 @@ describe('model on a known linear target in feature space', () => {
   it('is deterministic for a seed', async () => {
     const set = makeSet('tensor', 12, 5);
     const featurise: Featuriser = (_frame, i) => set.features[i];
-    const req = { tensorKey: 'alpha', kind: 'alpha-cm' as const, route: 'cm' as const, settings: { seed: 3 } };
+    const req = { tensorKey: 'alpha', kind: 'alpha-cm' as const, route: 'cm' as const, settings: { seed: 3 }, trustKind: true };
     const a = await trainWithFeaturiser(set.frames, req, featurise, {}, { createdAt: 'x' });
     const b = await trainWithFeaturiser(set.frames, req, featurise, {}, { createdAt: 'x' });
     expect([...a.parts[1].weights!]).toEqual([...b.parts[1].weights!]);

@@ -8,6 +8,9 @@ import { describe, expect, it } from 'vitest';
 import { BOHR_A } from '../../../src-main/core/dielectric/units.ts';
 import { isCp2kOutput, readCp2kRun } from '../../../src-main/io/dft/cp2k.ts';
 import type { DftRun, RunReading } from '../../../src-main/io/dft/dft-run.ts';
+import { scratchFolders } from '../../helpers/scratch.ts';
+
+const scratch = scratchFolders('pw-cp2k-');
 
 const dir = join(__dirname, '../../fixtures/dft/cp2k');
 const fixture = (name: string) => join(dir, name);
@@ -93,7 +96,7 @@ describe('CP2K linear-response polarisability', () => {
   });
 
   it('cell and coordinates in Bohr in the input (the unit trap) give the same frame in Å', () => {
-    const tmp = mkdtempSync(join(tmpdir(), 'pw-cp2k-'));
+    const tmp = scratch();
     copyFileSync(fixture('water-a.out'), join(tmp, 'water-a.out'));
     const a = xyz(fixture('water-a.xyz'));
     const input = readFileSync(fixture('water-a.inp'), 'utf8')
@@ -116,7 +119,7 @@ describe('CP2K linear-response polarisability', () => {
   });
 
   it('an output whose input is not beside it is an error naming the input', () => {
-    const tmp = mkdtempSync(join(tmpdir(), 'pw-cp2k-'));
+    const tmp = scratch();
     copyFileSync(fixture('water-a.out'), join(tmp, 'water-a.out'));
     expect(() => read(join(tmp, 'water-a.out'))).toThrow(/water-a\.out: the CP2K input .*water-a\.inp is not there — .*must sit beside the output/);
   });

@@ -11,6 +11,9 @@ import { InputError } from '../../../src-main/core/errors.ts';
 import { splitLines } from '../../../src-main/io/dft/dft-run.ts';
 import { qeProgramOf, readQeRuns, type QeOutput } from '../../../src-main/io/dft/quantum-espresso.ts';
 import type { DftRun, RunReading } from '../../../src-main/io/dft/dft-run.ts';
+import { scratchFolders } from '../../helpers/scratch.ts';
+
+const scratch = scratchFolders('pw-qe-');
 
 const dir = join(__dirname, '../../fixtures/dft/qe');
 
@@ -116,7 +119,7 @@ describe('Quantum ESPRESSO pw.x + ph.x', () => {
   });
 
   it('refuses a ph.x output whose structure is not that of the pw.x run it names', () => {
-    const tmp = mkdtempSync(join(tmpdir(), 'pw-qe-'));
+    const tmp = scratch();
     copyFileSync(join(dir, 'si-alat.pw.out'), join(tmp, 'a.pw.out'));
     // the stretched cell's ph.x output, made to name si-alat's save folder
     writeFileSync(join(tmp, 'b.ph.out'), readFileSync(join(dir, 'si-angstrom.ph.out'), 'utf8').replace('./tmp/si-angstrom.save/', './tmp/si-alat.save/'));
@@ -127,7 +130,7 @@ describe('Quantum ESPRESSO pw.x + ph.x', () => {
   });
 
   it('reports a ph.x output cut short, and a damaged tensor as an error naming the file and line', () => {
-    const tmp = mkdtempSync(join(tmpdir(), 'pw-qe-'));
+    const tmp = scratch();
     copyFileSync(join(dir, 'si-alat.pw.out'), join(tmp, 'si-alat.pw.out'));
     const ph = readFileSync(join(dir, 'si-alat.ph.out'), 'utf8').split('\n');
     writeFileSync(join(tmp, 'cut.ph.out'), ph.slice(0, 140).join('\n'));
