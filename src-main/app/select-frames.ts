@@ -355,14 +355,14 @@ function fmt(x: number, digits = 4): string {
 export function selectionSummary(r: SelectResult, sourceName: string): string[] {
   const rule = SELECTION_WORDS[r.by];
   const lines = [`chose ${r.chosen.length} of ${r.asked} frames asked for from ${sourceName}, by ${rule}`];
-  const thinned = r.effectiveStride !== r.stride ? ` (every ${r.effectiveStride}th kept to bound memory)` : '';
-  lines.push(`  read ${r.considered} frames (every ${r.stride === 1 ? '' : `${r.stride}th `}frame)${thinned}; ${r.candidates} candidates${r.scoreFloor !== null ? ` (scores above ${fmt(r.scoreFloor)})` : ''}`);
+  const thinned = r.effectiveStride !== r.stride ? ` (one in ${r.effectiveStride} kept to bound memory)` : '';
+  lines.push(`  read ${r.considered} frames (${r.stride === 1 ? 'every frame' : `one frame in ${r.stride}`})${thinned}; ${r.candidates} candidates${r.scoreFloor !== null ? ` (scores above ${fmt(r.scoreFloor)})` : ''}`);
   lines.push(`  near duplicates: closer than ${fmt(r.duplicateDistance, 3)} in frame-feature distance (spread of the candidates ${fmt(r.spread, 3)})`);
   if (r.shortText) lines.push(`  fewer than asked: ${r.shortText}`);
   const scoreName = r.by === 'error' ? 'error bar' : 'domain score';
   for (const c of r.chosen) {
     const parts = [`frame ${c.frame}`];
-    if (c.timeFs !== null) parts.push(`t = ${fmt(c.timeFs, 6)} fs`);
+    if (c.timeFs !== null) parts.push(`t = ${Number(c.timeFs.toPrecision(6))} fs`);
     if (c.score !== null) parts.push(`${scoreName} ${fmt(c.score, 3)}`);
     if (c.distance !== null) parts.push(`distance ${fmt(c.distance, 3)}`);
     lines.push(`  #${c.order}: ${parts.join(', ')}`);
