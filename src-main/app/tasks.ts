@@ -12,7 +12,7 @@ import type { PredictTaskInput, PredictTaskOutput, TrainTaskInput, TrainTaskOutp
 import type { TaskContext, TaskRegistry } from '../jobs/task.ts';
 import { loadedModel, predictFrames, type PredictSink } from './predict/prediction.ts';
 import { CURVE_REPEATS } from '../core/learning/curve-splits.ts';
-import { referenceEps } from './predict/predict-frame.ts';
+import { referenceEpsOf } from '../core/learning/targets.ts';
 
 function reportJson(r: ValidationReport, frameIndices: number[]): ValidationReportJ {
   return {
@@ -50,7 +50,7 @@ async function train(input: TrainTaskInput, ctx: TaskContext): Promise<TrainTask
     const points: ParityPoint[] = input.testFrames.map((f, i) => {
       if (ctx.signal.aborted) throw new CancelledError();
       const index = input.testIndices[i];
-      const ref = referenceEps(f, index, input.request.tensorKey, input.request.kind);
+      const ref = referenceEpsOf(f, index, input.request.tensorKey, input.request.kind);
       if (!ref) throw new Error(`test frame ${index} has no usable reference "${input.request.tensorKey}"`);
       return { frame: index, label: 'test', reference: Array.from(toIrreducible(ref)), predicted: Array.from(toIrreducible(predictFrame(model, f).eps)) };
     });
@@ -80,7 +80,7 @@ async function predict(input: PredictTaskInput, ctx: TaskContext): Promise<Predi
       }
       out.frameIndices.push(one.index);
       out.predictions.push(one.tensor);
-      out.reference.push(referenceEps(frame, one.index, input.reference.key, input.reference.kind));
+      out.reference.push(referenceEpsOf(frame, one.index, input.reference.key, input.reference.kind));
     },
   };
   await predictFrames(m, input.frames, sink, {

@@ -9,7 +9,7 @@ import { minimumImage } from '../core/geometry/cell.ts';
 import { findMolecules } from '../core/geometry/molecules.ts';
 import { cellPolarisability } from '../core/dielectric/dipole-model.ts';
 import { birefringence } from '../core/dielectric/clausius-mossotti.ts';
-import { tensorFromValues, toIrreducible } from '../core/dielectric/tensor.ts';
+import { isotropicMean, mat3Mean, tensorFromValues, toIrreducible } from '../core/dielectric/tensor.ts';
 import { makeRng } from '../core/numerics/random.ts';
 import { predictFrame, trainModel, type Model } from '../core/learning/model.ts';
 import type { ErrorFigures, FramePrediction, ModelSettings, TrainRequest } from '../core/learning/model-types.ts';
@@ -135,18 +135,10 @@ export interface ClusterToBulk {
   fromPeriodic: BulkFigures;
 }
 
-const isoOf = (t: Mat3) => (t[0] + t[4] + t[8]) / 3;
-
-function meanOf(ts: Mat3[]): Mat3 {
-  const m = new Float64Array(9);
-  for (const t of ts) for (let k = 0; k < 9; k++) m[k] += t[k] / ts.length;
-  return m;
-}
-
 function figuresOf(model: Model, liquid: Frame[], liquidRef: Mat3[], crystal: Frame[]): BulkFigures {
   const pl: FramePrediction[] = liquid.map((f) => predictFrame(model, f));
   const pc: FramePrediction[] = crystal.map((f) => predictFrame(model, f));
-  const err = pl.map((p, i) => isoOf(p.eps) - isoOf(liquidRef[i]));
+  const err = pl.map((p, i) => isotropicMean(p.eps) - isotropicMean(liquidRef[i]));
   const reasons = new Map<string, number>();
   for (const p of pl) for (const r of p.applicability.reasons) reasons.set(r.key, (reasons.get(r.key) ?? 0) + 1);
   const top = [...reasons.entries()].sort((a, b) => b[1] - a[1])[0];
@@ -155,7 +147,7 @@ function figuresOf(model: Model, liquid: Frame[], liquidRef: Mat3[], crystal: Fr
     liquidEpsIsoBias: err.reduce((s, e) => s + e, 0) / err.length,
     liquidErrors: errorFigures(liquidRef.map((t) => toIrreducible(t)), pl.map((p) => toIrreducible(p.eps))),
     liquidOutside: pl.filter((p) => p.applicability.outside).length,
-    crystalDn: birefringence(meanOf(pc.map((p) => p.eps))).delta,
+    crystalDn: birefringence(mat3Mean(pc.map((p) => p.eps))).delta,
     crystalOutside: pc.filter((p) => p.applicability.outside).length,
     topReason: top ? `${top[0]} (${top[1]} of ${pl.length} frames)` : '',
   };
@@ -200,7 +192,7 @@ export async function clusterToBulk(input: ClusterToBulkInput): Promise<ClusterT
     periodicAtoms: input.trainLiquid.reduce((s, f) => s + f.species.length, 0),
     testFrames: input.testLiquid.length,
     crystalFrames: input.crystal.length,
-    reference: { liquidEpsIso: liquidRef.reduce((s, t) => s + isoOf(t), 0) / liquidRef.length, crystalDn: birefringence(meanOf(crystalRef)).delta },
+    reference: { liquidEpsIso: liquidRef.reduce((s, t) => s + isotropicMean(t), 0) / liquidRef.length, crystalDn: birefringence(mat3Mean(crystalRef)).delta },
     fromClusters: figuresOf(fromClusters, input.testLiquid, liquidRef, input.crystal),
     fromPeriodic: figuresOf(fromPeriodic, input.testLiquid, liquidRef, input.crystal),
   };

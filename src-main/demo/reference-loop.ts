@@ -16,7 +16,8 @@ import type { TrainRequest } from '../core/learning/model-types.ts';
 import { predictFrame, trainModel, type Model } from '../core/learning/model.ts';
 import { errorFigures, meanSquaredTensorError } from '../core/learning/error-figures.ts';
 import { tensorFromValues, toIrreducible } from '../core/dielectric/tensor.ts';
-import { makeRng } from '../core/numerics/random.ts';
+import { makeRng, shuffleInPlace } from '../core/numerics/random.ts';
+import { mean, variance } from '../core/trajectory/statistics.ts';
 import { readAllStructures } from '../io/read-structures.ts';
 import { memorySource, selectFrames } from '../app/select-frames.ts';
 import { loadedModel } from '../app/predict/prediction.ts';
@@ -75,20 +76,12 @@ export function heldOutError(model: Model, frames: readonly Frame[]): number {
 }
 
 function spread(values: number[]): SpreadFigure {
-  const mean = values.reduce((a, b) => a + b, 0) / values.length;
-  const sd = values.length > 1 ? Math.sqrt(values.reduce((a, b) => a + (b - mean) ** 2, 0) / (values.length - 1)) : 0;
-  return { mean, sd, values };
+  return { mean: mean(values), sd: Math.sqrt(variance(values)), values };
 }
 
 /** k distinct indices from `from`, by a seeded shuffle. */
 function randomPick(from: number[], k: number, seed: number): number[] {
-  const rng = makeRng(seed);
-  const a = [...from];
-  for (let i = a.length - 1; i > 0; i--) {
-    const j = rng.int(i + 1);
-    [a[i], a[j]] = [a[j], a[i]];
-  }
-  return a.slice(0, k);
+  return shuffleInPlace(makeRng(seed), [...from]).slice(0, k);
 }
 
 export async function runReferenceLoop(options: ReferenceLoopOptions = {}): Promise<ReferenceLoopResult> {

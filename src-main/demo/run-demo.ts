@@ -11,7 +11,7 @@ import type { Mat3 } from '../core/geometry/frame.ts';
 import type { ErrorFigures, FramePrediction, ModelSettings, TrainRequest, ValidationReport } from '../core/learning/model-types.ts';
 import { trainModel, type Model } from '../core/learning/model.ts';
 import { validate, errorFigures, tensorFeaturiser } from '../core/learning/validation.ts';
-import { toIrreducible, tensorFromValues } from '../core/dielectric/tensor.ts';
+import { mat3Mean, toIrreducible, tensorFromValues } from '../core/dielectric/tensor.ts';
 import { readAllStructures } from '../io/read-structures.ts';
 import { saveModel } from '../io/model-file.ts';
 import { predictionCsvOptions, writeTensorCsv, type TensorRow } from '../io/prediction/prediction-format.ts';
@@ -54,12 +54,6 @@ export const DEMO_SETTINGS: Partial<ModelSettings> = { radialFunctions: 4, angul
 /** Use every LIQUID_STRIDE-th liquid frame (see runDemo). */
 export const LIQUID_STRIDE = 2;
 const REQUEST: TrainRequest = { tensorKey: 'eps_ref', kind: 'eps', route: 'cm', settings: DEMO_SETTINGS };
-
-function mean(ts: Mat3[]): Mat3 {
-  const m = new Float64Array(9);
-  for (const t of ts) for (let k = 0; k < 9; k++) m[k] += t[k] / ts.length;
-  return m;
-}
 
 export async function runDemo(options: DemoOptions): Promise<DemoResult> {
   const started = Date.now();
@@ -130,8 +124,8 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
   }));
   await writeFileAtomic(files.validation, JSON.stringify(report, null, 1) + '\n');
 
-  const predictedMean = mean(predictions.map((p) => p.eps));
-  const referenceMean = mean(refEps);
+  const predictedMean = mat3Mean(predictions.map((p) => p.eps));
+  const referenceMean = mat3Mean(refEps);
   const seconds = (Date.now() - started) / 1000;
   const bulk = await demoClusterToBulk({ dataDir, liquid, crystal, model, quick: !!options.quick, signal: options.signal, log });
   const summary = demoSummary({ liquid, crystal, report, crystalErrors, outsideFrames, predictions, predictedMean, referenceMean, model, seconds, quick: !!options.quick, files }) + '\n' + clusterToBulkText(bulk);

@@ -5,10 +5,8 @@
 // io/prediction/prediction-format.ts.
 import type { Frame, Mat3 } from '../../core/geometry/frame.ts';
 import { tensorPredictionFrom, type Model, type Predictor } from '../../core/learning/model.ts';
-import type { TensorKind, TensorPrediction } from '../../core/learning/model-types.ts';
+import type { TensorPrediction } from '../../core/learning/model-types.ts';
 import type { SetFrame } from '../../core/learning/set-summary.ts';
-import { convertTensor } from '../../core/dielectric/clausius-mossotti.ts';
-import { frameVolume, readTensor } from '../../core/learning/targets.ts';
 import { findMolecules } from '../../core/geometry/molecules.ts';
 import { formatExtxyzFrame } from '../../io/extxyz.ts';
 import { referenceEpsOf } from '../../core/learning/targets.ts';
@@ -49,17 +47,6 @@ export function predictOne(model: Model, predict: Predictor, frame: Frame, index
   return { ...figures, tensor: tensorPredictionFrom(model, frame, pred, index), valueRow: null };
 }
 
-/** The frame's reference tensor (under `key`, of `kind`) as ε, or null when it has none or it cannot be converted. */
-export function referenceEps(frame: Frame, index: number, key: string, kind: TensorKind): Float64Array | null {
-  const v = frame.info[key];
-  if (!Array.isArray(v)) return null;
-  try {
-    return kind === 'alpha-mol' ? null : convertTensor(readTensor(frame, key, index), kind, 'eps', frameVolume(frame, index));
-  } catch {
-    return null;
-  }
-}
-
 /**
  * What the set summary (core/learning/set-summary.ts) takes of a predicted frame: ε, its error bars and the
  * frame's reference ε under the model's own key (as the window shows it); null for vector and scalar models,
@@ -67,8 +54,7 @@ export function referenceEps(frame: Frame, index: number, key: string, kind: Ten
  */
 export function setFrameOf(model: Model, frame: Frame, one: PredictedFrame): SetFrame | null {
   if (!one.tensor || one.tensor.isolated) return null;
-  const kind = model.target.kind;
-  return { eps: one.tensor.eps, errorBars: one.tensor.errorBars, reference: kind ? referenceEps(frame, one.index, model.target.key, kind) : null, outside: one.outside };
+  return { eps: one.tensor.eps, errorBars: one.tensor.errorBars, reference: modelReferenceEps(model, frame, one.index), outside: one.outside };
 }
 
 /** The reference tensor the model was trained on, as ε, when the frame carries it (else null). */

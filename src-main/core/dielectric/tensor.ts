@@ -45,6 +45,13 @@ export function mat3Sub(A: Mat3, B: Mat3): Mat3 {
   return r;
 }
 
+/** Element-wise mean of 3×3 matrices (e.g. ε over the frames of a set). */
+export function mat3Mean(ts: ArrayLike<number>[]): Mat3 {
+  const m = new Float64Array(9);
+  for (const t of ts) for (let k = 0; k < 9; k++) m[k] += t[k] / ts.length;
+  return m;
+}
+
 export function mat3Scale(A: Mat3, s: number): Mat3 {
   const r = new Float64Array(9);
   for (let i = 0; i < 9; i++) r[i] = A[i] * s;

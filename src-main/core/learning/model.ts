@@ -22,7 +22,7 @@ import {
   type Order,
 } from './kernels.ts';
 import type { Applicability, FramePrediction, IsolatedPrediction, ModelSettings, Route, TensorKind, TensorPrediction, TrainRequest, TuneGrid, WorkHooks } from './model-types.ts';
-import { makeRng } from '../numerics/random.ts';
+import { makeRng, shuffleInPlace } from '../numerics/random.ts';
 import { cachedNearestSearch, searchNearest } from './nearest-search.ts';
 import { tuneCombinations, tuneSettingsWith, type TuneResult } from './tuning.ts';
 import { DEFAULT_REGULARISATION_GRID, fitRidge, foldsOf, heldOutRows, posteriorVariance, primalWeights, type Design } from './regression.ts';
@@ -486,11 +486,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
 
   // Cross-validation folds over frames (seeded).
   const folds = Math.min(5, nFrames);
-  const perm = Int32Array.from({ length: nFrames }, (_, i) => i);
-  for (let i = nFrames - 1; i > 0; i--) {
-    const j = rng.int(i + 1);
-    [perm[i], perm[j]] = [perm[j], perm[i]];
-  }
+  const perm = shuffleInPlace(rng, Int32Array.from({ length: nFrames }, (_, i) => i));
   const foldOf = foldsOf(perm, folds);
   const cv = nFrames >= 3 ? { fold: foldOf, folds, signal: hooks.signal } : null;
   const notes: string[] = isolatedFramesNote(targets.isolated, request.kind);

@@ -18,7 +18,7 @@ import {
   type Model,
 } from './model.ts';
 import type { CellTensorKind, ErrorFigures, ParityPoint, TrainRequest, ValidationReport, WorkHooks } from './model-types.ts';
-import { makeRng } from '../numerics/random.ts';
+import { makeRng, shuffleInPlace } from '../numerics/random.ts';
 import { foldsOf } from './regression.ts';
 import { frameTarget, frameVolume, learntTensor, readTensor, readValues, shapeOfValues, vectorToSpherical, whereOf } from './targets.ts';
 import { ZCollector, type ErrorBarCheck } from './calibration.ts';
@@ -110,11 +110,7 @@ interface FoldPlan {
 
 function planFolds(n: number, k: number, seed: number, learningCurve: number[] | undefined, repeats = 1): FoldPlan {
   const rng = makeRng(seed + 7919);
-  const perm = Int32Array.from({ length: n }, (_, i) => i);
-  for (let i = n - 1; i > 0; i--) {
-    const j = rng.int(i + 1);
-    [perm[i], perm[j]] = [perm[j], perm[i]];
-  }
+  const perm = shuffleInPlace(rng, Int32Array.from({ length: n }, (_, i) => i));
   const fold = foldsOf(perm, k);
   const trainIndices = (f: number) => [...perm].filter((i) => fold[i] !== f);
   const testIndices = (f: number) => [...perm].filter((i) => fold[i] === f).sort((a, b) => a - b);
@@ -124,13 +120,7 @@ function planFolds(n: number, k: number, seed: number, learningCurve: number[] |
   const skippedSizes = sizes.filter((s) => !usable.includes(s));
   const subset = (train: number[], size: number, repeat: number) => {
     if (repeat === 0) return train.slice(0, size);
-    const r = makeRng(seed + 104729 * repeat + size);
-    const t = [...train];
-    for (let i = t.length - 1; i > 0; i--) {
-      const j = r.int(i + 1);
-      [t[i], t[j]] = [t[j], t[i]];
-    }
-    return t.slice(0, size);
+    return shuffleInPlace(makeRng(seed + 104729 * repeat + size), [...train]).slice(0, size);
   };
   return { k, trainIndices, testIndices, usable, skippedSizes, repeats, steps: k * (1 + usable.length * repeats), subset };
 }

@@ -99,3 +99,17 @@ export function makeRng(seed: number): Rng {
 
   return { uniform, normal, int, nextUint32 };
 }
+
+/**
+ * Shuffle `a` in place (Fisher–Yates, from the end: position i swaps with a uniform j ≤ i) and return it. One
+ * `rng.int` call per position, so a seed gives the same order everywhere it is used.
+ */
+export function shuffleInPlace<T extends { length: number; [i: number]: unknown }>(rng: Rng, a: T): T {
+  for (let i = a.length - 1; i > 0; i--) {
+    const j = rng.int(i + 1);
+    const t = a[i];
+    a[i] = a[j];
+    a[j] = t;
+  }
+  return a;
+}
