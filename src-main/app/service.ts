@@ -603,9 +603,14 @@ export class AppService implements ApiService {
     return { ...(await this.getState()), ui: project.ui ?? null };
   }
 
-  /** Stops every running job (window closed, host stopped). */
+  /** Whether a job of this session is still running or queued. */
+  busy(): boolean {
+    return [...this.jobs.values()].some((j) => !j.settled);
+  }
+
+  /** Stops this session's running jobs (window or tab closed, host stopped); other sessions on the same runner go on. */
   dispose(): void {
-    this.options.runner.cancelAll();
+    for (const j of this.jobs.values()) if (!j.settled) j.handle.cancel();
   }
 }
 
