@@ -38,6 +38,7 @@ import { PathAccess } from './path-access.ts';
 import { frameView, predictionFromJ, predictionJ, trajectoryStatsJ } from './frame-json.ts';
 import type { FramePrediction } from '../core/learning/model-types.ts';
 import { predictionsCsv, predictionsCsvColumns } from './export-csv.ts';
+import { sharedModel } from './predict/shared-model.ts';
 import { PROJECT_FORMAT, PROJECT_VERSION, parseProject, type ProjectFile, type ProjectDataset } from './project-file.ts';
 import { collectedFrames, collectTexts } from './collect-references.ts';
 import { formatExtxyzFrame } from '../io/extxyz.ts';
@@ -320,7 +321,8 @@ export class AppService implements ApiService {
       const d = this.dataset(p.datasetId);
       const indices = this.selectFrames(d, p.frames);
       const input: PredictTaskInput = {
-        model: m.model,
+        // shared memory: the worker reads the session's model, no copy per job (as the CLI's predict workers do)
+        model: sharedModel(m.model as Model),
         frames: indices.map((i) => d.frames[i]),
         frameIndices: indices,
         reference: { key: m.summary.request.tensorKey, kind: m.summary.request.kind },
