@@ -7,11 +7,11 @@
 // Figures only, never asserted.
 import { cpus, loadavg } from 'node:os';
 import { pathToFileURL } from 'node:url';
-import { featurise, prepare, type Plan } from '../src-main/core/descriptors/features.ts';
+import { featurise, powerSpectrum, prepare, type Plan } from '../src-main/core/descriptors/features.ts';
 import type { FeatureSettings } from '../src-main/core/descriptors/feature-types.ts';
 import { makeWeightMatrices, readOne, readoutScratch } from '../src-main/core/learning/tensor-readout.ts';
 import { makeRng } from '../src-main/core/numerics/random.ts';
-import { referenceReadOne } from '../test/helpers/reference-kernels.ts';
+import { referencePowerSpectrum, referenceReadOne } from '../test/helpers/reference-kernels.ts';
 import { waterLikeFrames } from './water-like.ts';
 
 const ROUNDS = 25;
@@ -67,12 +67,20 @@ function coefficientsOf(P: Plan, prep: ReturnType<typeof prepare>): Float64Array
   return out;
 }
 
-function readoutPair(): void {
-  const frame = waterLikeFrames(1, 99)[0];
-  const prep = prepare(frame, kernelSettings, [0, 2], undefined, undefined);
+function powerSpectrumPair(P: Plan, coefficients: Float64Array[]): void {
+  const envs = coefficients.length;
+  const rowsOld = new Float64Array(envs * P.n0);
+  const rowsNew = new Float64Array(envs * P.n0);
+  const times = timeSideBySide([
+    () => coefficients.forEach((c, e) => referencePowerSpectrum(P, c, rowsOld, e * P.n0)),
+    () => coefficients.forEach((c, e) => powerSpectrum(P, c, rowsNew, e * P.n0)),
+  ]);
+  line(`λ=0 power spectrum (${P.n0} features)`, envs, times, agreement(rowsOld, rowsNew));
+}
+
+function readoutPair(prep: ReturnType<typeof prepare>, coefficients: Float64Array[]): void {
   const P = prep.P;
   const T = P.tensors[0];
-  const coefficients = coefficientsOf(P, prep);
   const rng = makeRng(5);
   const W = makeWeightMatrices(kernelSettings, 2)(Float64Array.from({ length: T.n }, () => rng.normal()));
   const S = readoutScratch(P, T);
@@ -90,7 +98,11 @@ export async function run(): Promise<void> {
   console.log(`kernels bench: ${cpus().length} cores, load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}, Node ${process.version}; ` +
     `one 384-atom water-like cell, r_c ${kernelSettings.cutoff} Å, nmax ${kernelSettings.nmax}, lmax ${kernelSettings.lmax}, λ=2 at lmaxTensor 4; ` +
     `one thread, CPU time, best of ${ROUNDS} alternating rounds`);
-  readoutPair();
+  const frame = waterLikeFrames(1, 99)[0];
+  const prep = prepare(frame, kernelSettings, [0, 2], undefined, undefined);
+  const coefficients = coefficientsOf(prep.P, prep);
+  powerSpectrumPair(prep.P, coefficients);
+  readoutPair(prep, coefficients);
 }
 
 if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) await run();

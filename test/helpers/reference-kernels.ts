@@ -2,7 +2,7 @@
 // register-blocked or restructured for speed (issue 16): plain loops, one number at a time. The tests check the
 // fast kernels against these (bit for bit where the summation order is kept, to 1e-12 relative where it had to
 // change), and `npm run bench -- kernels` times both side by side on the same inputs. Do not optimise this file.
-import type { Plan, TensorPlan } from '../../src-main/core/descriptors/features.ts';
+import { normalise, type Plan, type TensorPlan } from '../../src-main/core/descriptors/features.ts';
 import type { ReadoutScratch } from '../../src-main/core/learning/tensor-readout.ts';
 
 /** The read-out of one environment (tensor-readout.ts readOne) with the plain loops of its first version. */
@@ -75,4 +75,24 @@ export function referenceReadOne(P: Plan, T: TensorPlan, c: Float64Array, W: Flo
   } else {
     for (let mu = 0; mu < nM; mu++) y[at + mu] = 0;
   }
+}
+
+/** The λ = 0 row of one environment (features.ts powerSpectrum), pair by pair with one sum at a time. */
+export function referencePowerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number): number {
+  const { p1, p2, pw, invSqrt, LL } = P;
+  const lmax = P.settings.lmax;
+  const L1 = lmax + 1;
+  let f = at;
+  for (let k = 0; k < p1.length; k++) {
+    const A = p1[k] * LL, B = p2[k] * LL;
+    const w = pw[k];
+    for (let l = 0; l <= lmax; l++) {
+      const lo = l * l, hi = lo + 2 * l + 1;
+      let s = 0;
+      for (let m = lo; m < hi; m++) s += c[A + m] * c[B + m];
+      out[f + l] = w * invSqrt[l] * s;
+    }
+    f += L1;
+  }
+  return normalise(out, at, at + P.n0);
 }
