@@ -369,7 +369,10 @@ export const trainParamsSchema = z
   })
   .strict();
 
-export const validateParamsSchema = trainParamsSchema.omit({ name: true, testFrames: true });
+export const validateParamsSchema = trainParamsSchema.omit({ name: true, testFrames: true }).extend({
+  /** A model trained on these frames with this request and folds: its report takes the learning curve drawn here. */
+  modelId: id.optional(),
+});
 
 export const predictParamsSchema = z
   .object({ modelId: id, datasetId: id, frames: frameList.optional() })

@@ -174,6 +174,10 @@ export const tests = [
       // one state point here (the liquid run): the verdict says which figures it judged; a state-point table
       // appears only for several (core/learning/state-points.ts, tested there)
       assert.match(await page.textContent('[data-section=verdict]'), /on ε (over all frames|within state points)/);
+      // the Quick look trained without a learning curve; Checks draws it on request, on the model's own frames
+      assert.match(await page.textContent('[data-section=learning-curve]'), /Not drawn while training/);
+      await page.click('[data-action=draw-curve]');
+      await page.waitForSelector('[data-section=learning-curve] [data-field=curve-trend]', { timeout: 300_000 });
       // the learning curve: mean of repeated random splits, and a caption that follows its slope
       assert.match(await page.textContent('[data-section=learning-curve]'), /mean of 3 random splits/);
       assert.match(await page.textContent('[data-field=curve-trend]'), /^(Still falling|Flat|Not falling|Too few)/);
