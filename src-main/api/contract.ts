@@ -334,6 +334,8 @@ export const modelSettingsSchema = z
     ...(Object.fromEntries(NUMERIC_SETTINGS.filter((s) => s.key !== 'regularisation').map((s) => [s.key, settingField(s)])) as Record<NumericSettingKey, z.ZodNumber>),
     regularisation: settingField(settingSpec('regularisation')).nullable(),
     contributingSpecies: z.array(z.string().regex(SPECIES_LABEL)).max(MAX_SPECIES),
+    /** The species split (core/settings-table.ts SPLIT_SETTING): "free-atom", ratios by species, or null. */
+    speciesSplit: z.union([z.literal('free-atom'), z.record(z.string().regex(SPECIES_LABEL), z.number().finite().positive())]).nullable().optional(),
   })
   .strict();
 
