@@ -2,7 +2,7 @@
 // browser-safe), so the window offers exactly the values the engine accepts; two presets on top. The defaults
 // come from the engine through AppState.defaultSettings.
 import type { ModelSettingsJ } from '../../src-main/api/contract.ts';
-import { NUMERIC_SETTINGS, SPECIES_SETTING, type NumericSettingKey, type NumericSettingSpec } from '../../src-main/core/settings-table.ts';
+import { NUMERIC_SETTINGS, SPECIES_SETTING, SPLIT_SETTING, type NumericSettingKey, type NumericSettingSpec } from '../../src-main/core/settings-table.ts';
 
 export type NumericSetting = NumericSettingKey;
 
@@ -28,6 +28,7 @@ export const fields: (NumericSettingSpec & { key: NumericSetting })[] = NUMERIC_
 
 export const regularisationField = NUMERIC_SETTINGS.find((s) => s.key === 'regularisation')!;
 export const speciesField = SPECIES_SETTING;
+export const splitField = SPLIT_SETTING;
 
 /** Learning-curve sizes for `trainFrames` training frames in `folds` folds: 1/8, 1/4, 1/2 and all of a fold's training part. */
 export function curveSizes(trainFrames: number, folds: number): number[] {

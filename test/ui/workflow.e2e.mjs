@@ -58,6 +58,13 @@ export const tests = [
         assert.ok(names.includes(label), `no "${label}" in the form: ${names}`);
       }
       assert.doesNotMatch(names, /n_max|l_max|ζ|σ|Centres/);
+      // the species split reads as the CLI's --species-split does: a malformed one is named and blocks Train
+      assert.ok(names.includes('Split between species'), `no species split in the form: ${names}`);
+      await page.fill('[data-setting=speciesSplit]', 'O:0.8');
+      assert.match(await page.textContent('[data-field=split-problem]'), /at least two species/);
+      assert.equal(await page.isDisabled('[data-action=train]'), true);
+      await page.fill('[data-setting=speciesSplit]', '');
+      assert.equal(await page.locator('[data-field=split-problem]').count(), 0);
       await page.fill('[data-setting=radialFunctions]', '3');
       await page.fill('[data-setting=angularOrder]', '2');
       await page.fill('[data-setting=anchorEnvironments]', '0');
