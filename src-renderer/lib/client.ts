@@ -62,11 +62,12 @@ async function fileToPayload(file: File): Promise<{ name: string; base64: string
 /** The structure extensions of the file registry (io/read-structures.ts STRUCTURE_EXTENSIONS; a test holds them equal). */
 export const STRUCTURE_ACCEPT = '.xyz,.extxyz,.exyz,.cif,.gz';
 
-function pickFiles(accept: string, multiple: boolean): Promise<File[]> {
+/** The browser's file picker; resolves with the chosen files, or none when cancelled. `accept` '' takes any file. */
+export function pickFiles(accept: string, multiple: boolean): Promise<File[]> {
   return new Promise((resolve) => {
     const input = document.createElement('input');
     input.type = 'file';
-    input.accept = accept;
+    if (accept) input.accept = accept;
     input.multiple = multiple;
     input.style.display = 'none';
     input.addEventListener('change', () => {
