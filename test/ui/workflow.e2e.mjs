@@ -5,16 +5,9 @@ import assert from 'node:assert/strict';
 import { spawnSync } from 'node:child_process';
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
+import { sessionOf } from './session-of.mjs';
 
 const demoDir = (root) => process.env.POLARWEAVE_DEMO_DIR ?? join(root, 'resources/demo');
-
-/** The app session of this page's tab on the host (one per tab: src-main/host/sessions.ts). */
-async function sessionOf(page, host) {
-  const id = await page.evaluate(() => sessionStorage.getItem('pw-session'));
-  const service = host.session(id);
-  assert.ok(service, `the host has no session for this tab (${id})`);
-  return service;
-}
 
 async function go(page, view) {
   await page.click(`nav [data-view=${view}]`);
