@@ -375,6 +375,8 @@ export const modelSettingsSchema = z
     ...(Object.fromEntries(NUMERIC_SETTINGS.filter((s) => s.key !== 'regularisation').map((s) => [s.key, settingField(s)])) as Record<NumericSettingKey, z.ZodNumber>),
     regularisation: settingField(settingSpec('regularisation')).nullable(),
     contributingSpecies: z.array(z.string().regex(SPECIES_LABEL)).max(MAX_SPECIES),
+    /** The species split (core/settings-table.ts SPLIT_SETTING): "free-atom", ratios by species, or null. */
+    speciesSplit: z.union([z.literal('free-atom'), z.record(z.string().regex(SPECIES_LABEL), z.number().finite().positive())]).nullable().optional(),
   })
   .strict();
 
@@ -411,7 +413,10 @@ export const trainParamsSchema = z
   })
   .strict();
 
-export const validateParamsSchema = trainParamsSchema.omit({ name: true, testFrames: true });
+export const validateParamsSchema = trainParamsSchema.omit({ name: true, testFrames: true }).extend({
+  /** A model trained on these frames with this request and folds: its report takes the learning curve drawn here. */
+  modelId: id.optional(),
+});
 
 export const predictParamsSchema = z
   .object({ modelId: id, datasetId: id, frames: frameList.optional() })

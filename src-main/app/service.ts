@@ -328,8 +328,17 @@ export class AppService implements ApiService {
         };
       } else {
         const input: ValidateTaskInput = base;
+        const owner = params.kind === 'validate' && params.params.modelId ? this.modelRecord(params.params.modelId) : null;
+        if (owner && (owner.summary.trainedOn.datasetId !== d.summary.id || owner.summary.report?.folds !== p.folds)) {
+          throw new ApiValidationError(`model ${owner.summary.name} was not trained on ${d.summary.name} with ${p.folds} folds; its learning curve must come from its own frames and folds`);
+        }
         record.handle = this.options.runner.start('validate', input, hooks);
-        finish = (value) => ({ kind: 'validate', report: value as ValidationReportJ });
+        finish = (value) => {
+          const report = value as ValidationReportJ;
+          // a curve drawn after training (the window's Quick look trains without one): the model's report takes it
+          if (owner?.summary.report) owner.summary.report = { ...owner.summary.report, learningCurve: report.learningCurve, curveTrend: report.curveTrend };
+          return { kind: 'validate', report };
+        };
       }
     } else if (params.kind === 'select') {
       const started = this.startSelect(params.params, hooks);

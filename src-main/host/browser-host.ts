@@ -16,6 +16,8 @@ export interface RunningHost extends Host {
   sessions: SessionPool<AppService>;
   /** The session of a tab by the id its page keeps (sessionStorage 'pw-session'), if it is open. */
   session(id: string): AppService | undefined;
+  /** Gone: there is one service per tab. Reading it throws, saying what to use instead. */
+  readonly service: never;
   stop(): Promise<void>;
 }
 
@@ -46,6 +48,9 @@ export async function startBrowserHost(options: BrowserHostOptions = {}): Promis
     ...host,
     sessions,
     session: (id) => sessions.get(id),
+    get service(): never {
+      throw new Error('the browser host keeps one session per tab: use host.session(id), or sessionOf(page, host) from test/ui/session-of.mjs');
+    },
     stop: async () => {
       clearInterval(sweeper);
       sessions.dispose();

@@ -13,7 +13,7 @@ import { InputError, ModelError } from '../core/errors.ts';
 import { MAX_JSON_DEPTH } from '../core/limits.ts';
 import type { Model } from '../core/learning/model.ts';
 import { writeFileAtomic } from './atomic.ts';
-import { NUMERIC_SETTINGS, SPECIES_SETTING } from '../core/settings-table.ts';
+import { NUMERIC_SETTINGS, SPECIES_SETTING, SPLIT_SETTING } from '../core/settings-table.ts';
 import { jsonTooDeep } from './json-depth.ts';
 import { checkModelContents } from './model-check.ts';
 import { readWholeFile } from './whole-file.ts';
@@ -250,6 +250,7 @@ export function fromVersion1(payload: Record<string, unknown>, file: string): Re
   }
   need(SPECIES_SETTING.v1Key in o, file, `settings.${SPECIES_SETTING.v1Key} of version 1`);
   settings[SPECIES_SETTING.key] = o[SPECIES_SETTING.v1Key];
+  settings[SPLIT_SETTING.key] = null; // version 1 knew no species split
   return { ...payload, settings };
 }
 

@@ -193,4 +193,28 @@ describe('app service', () => {
     expect(d.atomOutside).toEqual(before.atomOutside);
     await expect(service.openProject({ name: 'x.json', text: '{"format":"other"}' })).rejects.toThrow(/x.json: not a Polarweave project file/);
   });
+
+  it('draws a learning curve after training (the Quick look) the same as training with it would, into the model’s report', async () => {
+    const datasetId = (await service.openStructures({ name: 'water.extxyz', text: readFileSync(WATER, 'utf8') })).id;
+    const request = { tensorKey: 'eps_inf', kind: 'eps' as const, route: 'cm' as const, settings: small };
+    const frames = [0, 1, 2, 3, 4, 5];
+    const train = async (learningCurve: number[]) => {
+      const s = await service.waitForJob((await service.startJob({ kind: 'train', params: { datasetId, frames, request, folds: 3, learningCurve } })).jobId);
+      if (s.result?.kind !== 'train') throw new Error(`expected a train result, got ${JSON.stringify(s.error)}`);
+      return s.result.model;
+    };
+    const quick = await train([]);
+    expect(quick.report!.learningCurve).toEqual([]);
+    const withCurve = await train([3, 4]);
+    expect(withCurve.report!.learningCurve.map((c) => c.trainSize)).toEqual([3, 4]);
+    // a curve for another model's frames or folds is refused
+    await expect(service.startJob({ kind: 'validate', params: { datasetId, frames, request, folds: 2, learningCurve: [3], modelId: quick.id } })).rejects.toThrow(/its own frames and folds/);
+    const v = await service.waitForJob((await service.startJob({ kind: 'validate', params: { datasetId, frames, request, folds: 3, learningCurve: [3, 4], modelId: quick.id } })).jobId);
+    expect(v.state).toBe('done');
+    const after = await service.getModel({ modelId: quick.id });
+    expect(after.report!.learningCurve).toEqual(withCurve.report!.learningCurve);
+    expect(after.report!.curveTrend).toBe(withCurve.report!.curveTrend);
+    // the rest of the report is the training's own
+    expect(after.report!.errors).toEqual(quick.report!.errors);
+  }, 120_000);
 });

@@ -6,6 +6,7 @@
 import assert from 'node:assert/strict';
 import { join } from 'node:path';
 import { tsImport } from 'tsx/esm/api';
+import { sessionOf } from './session-of.mjs';
 
 const KEEP = process.env.POLARWEAVE_UI_SHOTS;
 
@@ -61,7 +62,7 @@ export const tests = [
     name: 'checks the model on α, with the figures of the engine',
     async run({ page, host, state }) {
       await go(page, 'checks');
-      const model = (await host.service.getState()).models.at(-1);
+      const model = (await (await sessionOf(page, host)).getState()).models.at(-1);
       state.model = model;
       assert.equal(model.report.target, 'alpha-mol (Å³)');
       assert.match(await page.textContent('[data-section=verdict]'), /on α /);
@@ -96,8 +97,8 @@ export const tests = [
       assert.equal(await page.locator('[data-table=transfer]').count(), 0, 'no ε table for clusters');
       assert.match(await page.textContent('[data-field=isolated-note]'), /ε, n and Δn are not defined for a lone molecule/);
       const shown = await page.locator('[data-table=transfer-isolated] [data-figure=alpha-iso]').first().textContent();
-      const state0 = await host.service.getState();
-      const pred = await host.service.getPrediction({ predictionId: state0.predictions.at(-1).id });
+      const state0 = await (await sessionOf(page, host)).getState();
+      const pred = await (await sessionOf(page, host)).getPrediction({ predictionId: state0.predictions.at(-1).id });
       const f0 = pred.frames[0];
       assert.equal(f0.isolated, true);
       const iso = (f0.alphaMol[0] + f0.alphaMol[4] + f0.alphaMol[8]) / 3;

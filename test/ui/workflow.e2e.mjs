@@ -5,16 +5,9 @@ import assert from 'node:assert/strict';
 import { spawnSync } from 'node:child_process';
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
+import { sessionOf } from './session-of.mjs';
 
 const demoDir = (root) => process.env.POLARWEAVE_DEMO_DIR ?? join(root, 'resources/demo');
-
-/** The app session of this page's tab on the host (one per tab: src-main/host/sessions.ts). */
-async function sessionOf(page, host) {
-  const id = await page.evaluate(() => sessionStorage.getItem('pw-session'));
-  const service = host.session(id);
-  assert.ok(service, `the host has no session for this tab (${id})`);
-  return service;
-}
 
 async function go(page, view) {
   await page.click(`nav [data-view=${view}]`);
@@ -58,6 +51,13 @@ export const tests = [
         assert.ok(names.includes(label), `no "${label}" in the form: ${names}`);
       }
       assert.doesNotMatch(names, /n_max|l_max|ζ|σ|Centres/);
+      // the species split reads as the CLI's --species-split does: a malformed one is named and blocks Train
+      assert.ok(names.includes('Split between species'), `no species split in the form: ${names}`);
+      await page.fill('[data-setting=speciesSplit]', 'O:0.8');
+      assert.match(await page.textContent('[data-field=split-problem]'), /at least two species/);
+      assert.equal(await page.isDisabled('[data-action=train]'), true);
+      await page.fill('[data-setting=speciesSplit]', '');
+      assert.equal(await page.locator('[data-field=split-problem]').count(), 0);
       await page.fill('[data-setting=radialFunctions]', '3');
       await page.fill('[data-setting=angularOrder]', '2');
       await page.fill('[data-setting=anchorEnvironments]', '0');
@@ -178,6 +178,10 @@ export const tests = [
       assert.match(await page.textContent('[data-section=verdict]'), /on ε (over all frames|within state points)/);
       // the Model view's leading figure is the one the verdict judges
       assert.match(await page.textContent('[data-section=verdict]'), new RegExp(`Isotropic error ${state.leadIso.replace(/[.]/g, '\\.')}`));
+      // the Quick look trained without a learning curve; Checks draws it on request, on the model's own frames
+      assert.match(await page.textContent('[data-section=learning-curve]'), /Not drawn while training/);
+      await page.click('[data-action=draw-curve]');
+      await page.waitForSelector('[data-section=learning-curve] [data-field=curve-trend]', { timeout: 300_000 });
       // the learning curve: mean of repeated random splits, and a caption that follows its slope
       assert.match(await page.textContent('[data-section=learning-curve]'), /mean of 3 random splits/);
       assert.match(await page.textContent('[data-field=curve-trend]'), /^(Still falling|Flat|Not falling|Too few)/);

@@ -58,13 +58,14 @@ import {
 import { fromIrreducible, tensorFromValues, toIrreducible } from '../dielectric/tensor.ts';
 import { checkTensorKind } from './kind-check.ts';
 import { compositionNote } from './contributions.ts';
+import { FREE_ATOM_POLARISABILITY_A3, splitShift, splitValues } from './species-split.ts';
 import { computeReadout, makeWeightMatrices, weightMatricesLength, type TensorReadout } from './tensor-readout.ts';
 import { cellVolume } from '../geometry/cell.ts';
 import { propagateErrorBars } from '../dielectric/clausius-mossotti.ts';
 import { checkDomain, DomainStatsBuilder, type DomainStats } from './domain.ts';
 import { neighbourList, type NeighbourList } from '../geometry/neighbours.ts';
 
-import { DEFAULT_SETTINGS, settingSpec, settingsProblems, type NumericSettingKey } from '../settings-table.ts';
+import { DEFAULT_SETTINGS, settingSpec, settingsProblems, speciesSplitText, type NumericSettingKey, type SpeciesSplit } from '../settings-table.ts';
 export { DEFAULT_SETTINGS };
 
 /** Environments kept per centre species for sampling representatives (linear / kernel models). */
@@ -491,7 +492,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const cv = nFrames >= 3 ? { fold: foldOf, folds, signal: hooks.signal } : null;
   const notes: string[] = isolatedFramesNote(targets.isolated, request.kind);
   if (!cv && settings.regularisation === null) notes.push('fewer than 3 frames: regulariser not cross-validated (default 1e-6)');
-  const composition = compositionNote(centres, Array.from({ length: nFrames }, (_, f) => Array.from(counts.subarray(f * nS, (f + 1) * nS))));
+  const composition = compositionNote(centres, Array.from({ length: nFrames }, (_, f) => Array.from(counts.subarray(f * nS, (f + 1) * nS))), settings.speciesSplit ? speciesSplitText(settings.speciesSplit) : null);
   if (composition && targets.shape === 'tensor') notes.push(composition);
 
   // Representatives (FPS per species) for kernel parts and for applicability.
@@ -663,6 +664,12 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     applicability.rule = `the ${APPLICABILITY_QUANTILE} quantile of the training environments' distances to the nearest representative ${nFrames >= 2 ? 'of another frame' : 'other than itself'} (${repIndex.length} representatives)`;
   }
 
+  if (settings.speciesSplit && hasIso && targets.shape === 'tensor' && nS >= 2) {
+    hooks.onProgress?.({ stage: 'species split', done: 0, total: 1 });
+    await yieldToLoop();
+    notes.push(await applySpeciesSplit(settings.speciesSplit, centres, parts, baseline, counts, nFrames, (f) => feat(frames[f], f), hooks));
+  }
+
   const stats = targetStatistics(y, nFrames, C);
   let vmin = Infinity;
   let vmax = -Infinity;
@@ -701,6 +708,48 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     leverage: leveragePart,
     domain: domain?.build(),
   };
+}
+
+/**
+ * Moves the per-species offsets (species-split.ts) so that the species' mean λ=0 contributions over the training
+ * frames follow the split's ratios as far as the compositions leave them open; returns the model note saying so.
+ */
+async function applySpeciesSplit(
+  split: Exclude<SpeciesSplit, null>,
+  centres: string[],
+  parts: ModelPart[],
+  baseline: Float64Array,
+  counts: Float64Array,
+  nFrames: number,
+  featuresOf: (f: number) => EnvironmentFeatures,
+  hooks: WorkHooks,
+): Promise<string> {
+  const nS = centres.length;
+  const prior = splitValues(split, centres);
+  const part = parts.find((p) => p.order === 0) as ModelPart;
+  const sums = new Float64Array(nS);
+  const atoms = new Float64Array(nS);
+  for (let f = 0; f < nFrames; f++) {
+    checkAbort(hooks);
+    const fe = featuresOf(f);
+    const c = localContributions(fe, 0, part.form === 'linear' ? { linear: part.weights as Float64Array } : { kernel: part.kernel as KernelExpansion });
+    for (let e = 0; e < fe.count; e++) {
+      const sp = fe.centreSpecies[e];
+      sums[sp] += c[e] + baseline[sp];
+      atoms[sp]++;
+    }
+    if (f % 16 === 15) await yieldToLoop();
+  }
+  const means = Array.from(sums, (v, k) => v / Math.max(1, atoms[k]));
+  const rows = Array.from({ length: nFrames }, (_, f) => Array.from(counts.subarray(f * nS, (f + 1) * nS)));
+  const { shift, free } = splitShift(means, rows, prior);
+  for (let k = 0; k < nS; k++) baseline[k] += shift[k];
+  const given = split === 'free-atom' ? `free-atom polarisabilities (${centres.map((c, k) => `${c} ${prior[k].toPrecision(3)} Å³, ${FREE_ATOM_POLARISABILITY_A3[c].source}`).join('; ')})` : `the ratios given (${centres.map((c, k) => `${c}:${prior[k]}`).join(', ')})`;
+  // T⁰ = tr/√3: the mean per-atom contribution to the isotropic α is T⁰/√3
+  const iso = (v: number) => (v / Math.sqrt(3)).toPrecision(3);
+  const shares = (m: ArrayLike<number>) => centres.map((c, k) => `${c} ${iso(m[k])}`).join(', ');
+  if (free === 0) return `species split: the training compositions already fix how the polarisability is shared between species, so ${given} changed nothing (mean per-atom isotropic contributions, in units of the learnt tensor: ${shares(means)})`;
+  return `species split: where the training compositions leave it open, the polarisability is shared between species following ${given}; every training frame's total is unchanged (mean per-atom isotropic contributions, in units of the learnt tensor: ${shares(means.map((m, k) => m + shift[k]))}; as the fit left them: ${shares(means)})`;
 }
 
 interface FittedPart {
