@@ -5,7 +5,7 @@
 // has no model file path or checksum to name).
 import type { Frame } from '../core/geometry/frame.ts';
 import type { Model } from '../core/learning/model.ts';
-import type { FramePrediction } from '../core/learning/model-types.ts';
+import type { TensorPrediction } from '../core/learning/model-types.ts';
 import type { Mat3 } from '../core/geometry/frame.ts';
 import { predictionCsvOptions, tensorCsv, tensorCsvColumns, tensorPredictionRow, type TensorCsvOptions } from '../io/prediction/prediction-format.ts';
 import { modelReferenceEps } from './predict/predict-frame.ts';
@@ -17,7 +17,7 @@ function exportLayout(frameIndices: readonly number[], sourceFrames: Frame[], mo
   return { options: predictionCsvOptions(model, `"${modelName}" (from the window)`, { reference }), references: reference ? references : null };
 }
 
-export function predictionsCsv(predictions: readonly FramePrediction[], frameIndices: readonly number[], sourceFrames: Frame[], model: Model, modelName: string): string {
+export function predictionsCsv(predictions: readonly TensorPrediction[], frameIndices: readonly number[], sourceFrames: Frame[], model: Model, modelName: string): string {
   const { options, references } = exportLayout(frameIndices, sourceFrames, model, modelName);
   const rows = predictions.map((p, k) => tensorPredictionRow(frameIndices[k], sourceFrames[frameIndices[k]], p, model, references ? { reference: references[k] } : {}));
   return tensorCsv(rows, options);

@@ -5,6 +5,7 @@ import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { withError } from '../../src-main/core/numerics/uncertain.ts';
 import type { AppService } from '../../src-main/app/service.ts';
 import { createAppService } from '../../src-main/app/wiring.ts';
 import { tsWorkerFactory } from '../../src-main/jobs/spawn-ts.ts';
@@ -64,13 +65,20 @@ describe('trajectory statistics: the window and analyse agree', () => {
     expect(stats.mean.xy.error).toBe(xy.error);
     const aniso = row('mean', 'eps', 'aniso');
     expect(stats.anisotropy.value).toBe(aniso.value);
+    // and both write them alike: value ± error to the digits the error justifies (the window's Trajectory view
+    // formats these same stats with the same withError)
+    expect(r.out).toContain(`birefringence n_3 − n_1 = ${withError(stats.birefringence, stats.birefringenceError)}`);
+    expect(r.out).toContain(`n_1 ${withError(stats.meanRefractive[0], stats.refractiveError[0])}`);
+    expect(r.out).toMatch(new RegExp(`iso +${withError(stats.mean.iso.value, stats.mean.iso.error).replace(/[.]/g, '\\.')} `));
   }, 120_000);
 
   it("takes Δn from the mean ε, not from each frame's sorted indices (which biases Δn upwards)", async () => {
     const stats = await service.trajectoryStats({ predictionId });
     const pred = await service.getPrediction({ predictionId });
     const mean = (xs: number[]) => xs.reduce((a, x) => a + x, 0) / xs.length;
-    const perFrameSorted = mean(pred.frames.map((f) => f.refractive[2])) - mean(pred.frames.map((f) => f.refractive[0]));
+    const periodic = pred.frames.flatMap((f) => (f.isolated ? [] : [f]));
+    expect(periodic.length).toBe(pred.frames.length);
+    const perFrameSorted = mean(periodic.map((f) => f.refractive[2])) - mean(periodic.map((f) => f.refractive[0]));
     expect(stats.birefringence).toBeLessThan(perFrameSorted);
     // the charted index series are the first-order indices along the mean's axes: their means are the indices
     for (let k = 0; k < 3; k++) expect(mean(stats.refractive[k])).toBeCloseTo(stats.meanRefractive[k], 12);

@@ -22,7 +22,13 @@ export const tests = [
       await page.waitForSelector('[data-action=choose-frames]');
       await page.click('[data-action=choose-frames]');
       await page.waitForSelector('[data-panel=choose-frames]');
+      // an emptied required field is named and the run held back; an emptied optional one takes its default
+      await page.fill('[data-field=count]', '');
+      assert.match(await page.textContent('[data-problem=choose-frames]'), /Frames to choose: give a whole number/);
+      assert.equal(await page.isDisabled('[data-action=choose-frames-run]'), true);
       await page.fill('[data-field=count]', '3');
+      await page.fill('[data-field=min-gap]', '');
+      assert.equal(await page.locator('[data-problem=choose-frames]').count(), 0);
       const [tpl] = await Promise.all([page.waitForEvent('filechooser'), page.click('[data-action=pick-template]')]);
       await tpl.setFiles({ name: 'water.inp', mimeType: 'text/plain', buffer: Buffer.from(template) });
       await page.waitForSelector('[data-action=pick-template]:has-text("water.inp")');
