@@ -728,7 +728,7 @@ function calibrate(fitted: FittedPart[], cv: { fold: Int32Array; folds: number; 
   const parts: PartCalibration[] = [];
   for (const f of fitted) {
     if (f.spec.aux) continue;
-    const held = f === lev ? levRows : { predicted: heldOutRows(f.design, cv, f.lambda).predicted };
+    const held = f === lev ? levRows : heldOutRows(f.design, cv, f.lambda, false);
     const errors = Float64Array.from(held.predicted, (p, r) => p - f.design.y[r]);
     const leverage = Float64Array.from(f.design.group, (g) => frameLeverage[g]);
     const c = calibratePart(f.spec.order, errors, leverage, f.spec.order === 0 ? f.noise : null);

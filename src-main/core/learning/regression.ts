@@ -68,6 +68,34 @@ function featureCount(d: Design): number {
   return d.features;
 }
 
+/**
+ * K = ΦΦᵀ of an explicit design's rows, computed once per design and shared by the cross-validation, the fit and
+ * the held-out folds (every entry depends only on its two rows, so a fold's K is a selection of it, the same bits
+ * as computing it from the fold's rows).
+ */
+const rowGrams = new WeakMap<Design, Float64Array>();
+function rowGram(d: Design): Float64Array {
+  let k = rowGrams.get(d);
+  if (!k) {
+    k = gramOfRows(d.phi as Float64Array, d.rows, featureCount(d));
+    rowGrams.set(d, k);
+  }
+  return k;
+}
+
+/** The rows × rows selection K[rows, rows] of a design's row Gram (a new array). */
+function selectGram(d: Design, rows: Int32Array): Float64Array {
+  const all = rowGram(d);
+  const n = d.rows;
+  const m = rows.length;
+  const k = new Float64Array(m * m);
+  for (let a = 0; a < m; a++) {
+    const ra = rows[a] * n;
+    for (let b = 0; b < m; b++) k[a * m + b] = all[ra + rows[b]];
+  }
+  return k;
+}
+
 /** Default grid of relative regularisers (log-spaced). */
 export const DEFAULT_REGULARISATION_GRID = [1e-9, 1e-8, 1e-7, 1e-6, 1e-5, 1e-4, 1e-3, 1e-2, 1e-1, 1];
 
@@ -117,7 +145,7 @@ export function ridgeFitPredict(d: Design, train: Int32Array, test: Int32Array, 
       for (let t = 0; t < test.length; t++) out[li][t] = dotRow(phi, test[t] * f, w, f);
     });
   } else {
-    const k = gramOfRows(sub, nt, f);
+    const k = selectGram(d, train);
     lambdas.forEach((lam, li) => {
       const c = solveShifted(k, nt, lam, y);
       const w = new Float64Array(f);
@@ -181,7 +209,7 @@ export function crossValidateRegularisation(d: Design, opts: CrossValidationOpti
   // When the folds solve in dual form, build the kernel of all rows once instead of once per fold.
   let work = d;
   if (!d.gram && splits.length && featureCount(d) > Math.min(...splits.map((s) => s.train.length))) {
-    work = { rows: d.rows, group: d.group, y: d.y, gram: gramOfRows(d.phi as Float64Array, d.rows, featureCount(d)) };
+    work = { rows: d.rows, group: d.group, y: d.y, gram: rowGram(d) };
   }
   for (const { train, test } of splits) {
     if (opts.signal?.aborted) throw new CancelledError();
@@ -252,7 +280,7 @@ export function fitRidge(d: Design, relative: number | null, cv: CrossValidation
     const posterior: Posterior | undefined = wantPosterior ? { form: 'primal', size: f, factor, noise, lambda } : undefined;
     return { form: 'primal', weights: w, relative: chosen, lambda, scale, cvError, grid, posterior };
   }
-  const k = gramOfRows(phi, d.rows, f);
+  const k = Float64Array.from(rowGram(d));
   for (let i = 0; i < d.rows; i++) k[i * d.rows + i] += lambda;
   const { factor, jitter } = choleskyWithJitter(k, d.rows);
   const c = choleskySolve(factor, d.rows, d.y);
@@ -371,9 +399,10 @@ export interface HeldOut {
  * Refits the ridge model once per fold at the absolute regulariser λ and returns every row's held-out prediction
  * and its leverage — the latent posterior variance of that row divided by the noise variance (the quantity
  * posteriorVariance scales). Explicit designs use the smaller of the primal (F×F) and dual (rows×rows) systems
- * (the dual through designLeverage); a structure kernel uses h = (k** − k*ᵀ(K + λI)⁻¹k*)/λ. Rows of folds with no training rows get NaN.
+ * (the dual through designLeverage); a structure kernel uses h = (k** − k*ᵀ(K + λI)⁻¹k*)/λ. Rows of folds with no training rows get NaN,
+ * and every row NaN leverage when `withLeverage` is false (only the predictions are wanted).
  */
-export function heldOutRows(d: Design, opts: CrossValidationOptions, lambda: number): HeldOut {
+export function heldOutRows(d: Design, opts: CrossValidationOptions, lambda: number, withLeverage = true): HeldOut {
   const predicted = new Float64Array(d.rows).fill(NaN);
   const leverage = new Float64Array(d.rows).fill(NaN);
   for (let k = 0; k < opts.folds; k++) {
@@ -385,10 +414,10 @@ export function heldOutRows(d: Design, opts: CrossValidationOptions, lambda: num
     const tr = Int32Array.from(train);
     const te = Int32Array.from(test);
     const [p] = ridgeFitPredict(d, tr, te, [lambda]);
-    const h = foldLeverage(d, tr, te, lambda);
+    const h = withLeverage ? foldLeverage(d, tr, te, lambda) : null;
     te.forEach((r, t) => {
       predicted[r] = p[t];
-      leverage[r] = h[t];
+      if (h) leverage[r] = h[t];
     });
   }
   return { predicted, leverage };
@@ -431,7 +460,7 @@ function foldLeverage(d: Design, train: Int32Array, test: Int32Array, lambda: nu
     }
     return out;
   }
-  const k = gramOfRows(sub, nt, f);
+  const k = selectGram(d, train);
   for (let i = 0; i < nt; i++) k[i * nt + i] += lambda;
   const { factor, jitter } = choleskyWithJitter(k, nt);
   for (let t = 0; t < test.length; t++) out[t] = designLeverage(sub, nt, f, factor, lambda + jitter, phi.subarray(test[t] * f, test[t] * f + f));

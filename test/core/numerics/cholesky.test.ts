@@ -36,6 +36,25 @@ describe('Cholesky on Float64Array', () => {
     expect(() => choleskyWithJitter(Float64Array.of(-1, 0, 0, -1), 2)).toThrow(/not positive definite/);
   });
 
+  it('gram of rows: every entry the same bits as its own dot product (even and odd columns apart), whatever the rows around it', () => {
+    const rng = makeRng(17);
+    for (const [rows, f] of [[7, 13], [8, 12], [1, 5], [5, 1]]) {
+      const phi = Float64Array.from({ length: rows * f }, () => rng.normal());
+      const k = gramOfRows(phi, rows, f);
+      for (let i = 0; i < rows; i++) {
+        for (let j = 0; j < rows; j++) {
+          let s0 = 0;
+          let s1 = 0;
+          for (let c = 0; c < f; c++) {
+            if (c % 2 === 0) s0 += phi[i * f + c] * phi[j * f + c];
+            else s1 += phi[i * f + c] * phi[j * f + c];
+          }
+          expect(k[i * rows + j]).toBe(s0 + s1);
+        }
+      }
+    }
+  });
+
   it('gram of columns and of rows agree with explicit products', () => {
     const phi = Float64Array.of(1, 2, 3, 4, 5, 6); // 2×3
     expect([...gramOfRows(phi, 2, 3)]).toEqual([14, 32, 32, 77]);
