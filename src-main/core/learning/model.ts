@@ -25,7 +25,7 @@ import type { Applicability, FramePrediction, IsolatedPrediction, ModelSettings,
 import { makeRng, shuffleInPlace } from '../numerics/random.ts';
 import { cachedNearestSearch, searchNearest } from './nearest-search.ts';
 import { tuneCombinations, tuneSettingsWith, type TuneResult } from './tuning.ts';
-import { DEFAULT_REGULARISATION_GRID, fitRidge, foldsOf, heldOutRows, posteriorVariance, primalWeights, type Design } from './regression.ts';
+import { DEFAULT_REGULARISATION_GRID, fitRidge, foldsOf, heldOutRows, posteriorVariance, primalWeights, type Design, type Posterior } from './regression.ts';
 import { calibratePart, type Calibration, type PartCalibration } from './calibration.ts';
 import {
   farthestPointSample,
@@ -79,10 +79,14 @@ const APPLICABILITY_QUANTILE = 0.999;
 const EXACT_LIMIT = 6000;
 
 export interface PartPosterior {
-  form: 'primal' | 'dual';
+  /** primal: factor of ΦᵀΦ + λI; dual: factor of K + λI (exact form); design: Φ and the factor of ΦΦᵀ + λI (regression.ts Posterior). */
+  form: 'primal' | 'dual' | 'design';
   size: number;
-  /** Cholesky factor, size × size, row-major lower triangle. */
+  /** Cholesky factor, row-major lower triangle: size × size, or rows × rows in the design form. */
   factor: Float64Array;
+  /** Design form: the training design Φ (rows × size) and its row count. */
+  design?: Float64Array;
+  rows?: number;
   noise: number;
   lambda: number;
   /** Sparse form: Cholesky factor of K_MM, for φ' = L⁻¹ k. */
@@ -630,7 +634,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
       if (p.order === 0) refineBaseline(w.subarray(base));
       if (linear) {
         part.weights = w.slice(0, base);
-        if (fit.posterior) part.posterior = { form: 'primal', size: fit.posterior.size, factor: fit.posterior.factor, noise: fit.posterior.noise, lambda: fit.posterior.lambda };
+        if (fit.posterior) part.posterior = { ...fit.posterior };
       } else {
         const reps = sparseReps.get(p.order) as Representatives;
         const l = sparseFactor.get(p.order) as Float64Array;
@@ -773,7 +777,7 @@ function calibrate(fitted: FittedPart[], cv: { fold: Int32Array; folds: number; 
   const parts: PartCalibration[] = [];
   for (const f of fitted) {
     if (f.spec.aux) continue;
-    const held = f === lev ? levRows : { predicted: heldOutRows(f.design, cv, f.lambda).predicted };
+    const held = f === lev ? levRows : heldOutRows(f.design, cv, f.lambda, false);
     const errors = Float64Array.from(held.predicted, (p, r) => p - f.design.y[r]);
     const leverage = Float64Array.from(f.design.group, (g) => frameLeverage[g]);
     const c = calibratePart(f.spec.order, errors, leverage, f.spec.order === 0 ? f.noise : null);
@@ -994,6 +998,13 @@ function uncertaintyOf(model: Model, leverage: number, components: number): Targ
   return { leverage, sd };
 }
 
+/** The posterior of an explicit design (linear or sparse part) as regression.ts reads it: primal, or the design form. */
+function explicitPosterior(post: PartPosterior): Posterior {
+  const { size, factor, noise, lambda } = post;
+  if (post.form === 'design') return { form: 'design', size, rows: post.rows as number, design: post.design as Float64Array, factor, noise, lambda };
+  return { form: 'primal', size, factor, noise, lambda };
+}
+
 /**
  * Leverage of a frame against a part's training design: φᵀ(ΦᵀΦ + λI)⁻¹φ (its GP latent variance divided by the
  * noise variance), for the linear, sparse and exact forms.
@@ -1009,14 +1020,14 @@ function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures): n
     out.set(counts, row.length);
     return out;
   };
-  const primal = { form: 'primal' as const, size: post.size, factor: post.factor, noise: post.noise, lambda: post.lambda };
-  if (part.form === 'linear') return posteriorVariance(primal, withCounts(linearDesignRows(fe, 0, nS)));
+  const explicit = explicitPosterior(post);
+  if (part.form === 'linear') return posteriorVariance(explicit, withCounts(linearDesignRows(fe, 0, nS)));
   const k = part.kernel as KernelExpansion;
   if (post.nystrom) {
     const reps: Representatives = { order: 0, n0: k.n0, n: k.n0, width: 1, species: k.species, p: k.p, blocks: k.p };
     const knm = structureToRepresentatives(fe, reps, k.zeta);
     const phi = projectRows(knm, 1, post.nystrom, reps.species.length);
-    return posteriorVariance(primal, withCounts(phi));
+    return posteriorVariance(explicit, withCounts(phi));
   }
   // exact: k* over training frames, k** of the frame with itself
   const repFrame = post.repFrame as Int32Array;
