@@ -40,6 +40,7 @@ import { frameView, predictionFromJ, predictionJ, trajectoryStatsJ } from './fra
 import type { FramePrediction, TensorPrediction } from '../core/learning/model-types.ts';
 import { frameTarget, isIsolated } from '../core/learning/targets.ts';
 import { predictionsCsv, predictionsCsvColumns } from './export-csv.ts';
+import { sharedModel } from './predict/shared-model.ts';
 import { PROJECT_FORMAT, PROJECT_VERSION, parseProject, type ProjectFile, type ProjectDataset } from './project-file.ts';
 import { collectedFrames, collectTexts } from './collect-references.ts';
 import { formatExtxyzFrame } from '../io/extxyz.ts';
@@ -341,7 +342,8 @@ export class AppService implements ApiService {
       const d = this.dataset(p.datasetId);
       const indices = this.selectFrames(d, p.frames);
       const input: PredictTaskInput = {
-        model: m.model,
+        // shared memory: the worker reads the session's model, no copy per job (as the CLI's predict workers do)
+        model: sharedModel(m.model as Model),
         frames: indices.map((i) => d.frames[i]),
         frameIndices: indices,
         reference: { tensorKey: m.summary.request.tensorKey, kind: m.summary.request.kind, isolatedKey: m.summary.request.isolatedKey },
@@ -630,9 +632,14 @@ export class AppService implements ApiService {
     return { ...(await this.getState()), ui: project.ui ?? null };
   }
 
-  /** Stops every running job (window closed, host stopped). */
+  /** Whether a job of this session is still running or queued. */
+  busy(): boolean {
+    return [...this.jobs.values()].some((j) => !j.settled);
+  }
+
+  /** Stops this session's running jobs (window or tab closed, host stopped); other sessions on the same runner go on. */
   dispose(): void {
-    this.options.runner.cancelAll();
+    for (const j of this.jobs.values()) if (!j.settled) j.handle.cancel();
   }
 }
 

@@ -8,6 +8,7 @@ import { runningMean } from '../core/trajectory/statistics.ts';
 import { infraredSpectrum, ramanSpectra, type Spectrum, type SpectrumOptions } from '../core/trajectory/spectra.ts';
 import { DEFAULT_MIN_BLOCKS, opticalStats, tensorStats, type OpticalStats, type TensorStats } from '../core/trajectory/trajectory-summary.ts';
 import { InputError } from '../core/errors.ts';
+import { withError } from '../core/numerics/uncertain.ts';
 import { summariseReasonTexts } from '../core/learning/domain.ts';
 import { writeFileAtomic } from '../io/atomic.ts';
 import { csvRecord } from '../io/csv.ts';
@@ -56,29 +57,28 @@ function checkEvenlySpaced(frames: number[], file: string): number {
 function tensorReport(name: string, label: string, unit: string, t: TensorStats, rows: Row[], lines: string[], noPlateau: string[]): void {
   lines.push(`mean ${label}${unit ? ` (${unit})` : ''}, ± standard error from block averaging:`);
   for (const c of t.components) {
-    lines.push(`  ${c.component.padEnd(4)} ${fmt(c.stats.mean, 8).padStart(14)} ± ${fmt(c.stats.standardError, 3).padEnd(10)} ${plateauText(c.stats)}`);
+    lines.push(`  ${c.component.padEnd(4)} ${withError(c.stats.mean, c.stats.standardError, 8).padEnd(26)} ${plateauText(c.stats)}`);
     rows.push({ section: 'mean', quantity: name, component: c.component, value: c.stats.mean, standardError: c.stats.standardError, unit, stats: c.stats });
     for (const l of c.stats.levels) rows.push({ section: 'blocks', quantity: name, component: c.component, standardError: l.standardError, unit, blockSize: l.blockSize, blocks: l.blocks });
     if (!c.stats.plateau) noPlateau.push(`${name}_${c.component}`);
   }
-  lines.push(`  iso  ${fmt(t.iso.mean, 8).padStart(14)} ± ${fmt(t.iso.standardError, 3).padEnd(10)} ${plateauText(t.iso)}`);
+  lines.push(`  iso  ${withError(t.iso.mean, t.iso.standardError, 8).padEnd(26)} ${plateauText(t.iso)}`);
   rows.push({ section: 'mean', quantity: name, component: 'iso', value: t.iso.mean, standardError: t.iso.standardError, unit, stats: t.iso });
   for (const l of t.iso.levels) rows.push({ section: 'blocks', quantity: name, component: 'iso', standardError: l.standardError, unit, blockSize: l.blockSize, blocks: l.blocks });
   if (!t.iso.plateau) noPlateau.push(`${name}_iso`);
-  const ae = Number.isFinite(t.anisotropyError) ? ` ± ${fmt(t.anisotropyError, 3)}` : '';
-  lines.push(`  anisotropy of the mean ${fmt(t.anisotropy, 6)}${ae}`);
+  lines.push(`  anisotropy of the mean ${Number.isFinite(t.anisotropyError) ? withError(t.anisotropy, t.anisotropyError) : fmt(t.anisotropy, 6)}`);
   rows.push({ section: 'mean', quantity: name, component: 'aniso', value: t.anisotropy, standardError: t.anisotropyError, unit, stats: t.anisotropyStats ?? undefined });
 }
 
 function opticsReport(o: OpticalStats, rows: Row[], lines: string[], noPlateau: string[]): void {
   lines.push('principal refractive indices of the mean ε (ascending), ± standard error:');
   for (let k = 0; k < 3; k++) {
-    lines.push(`  n_${k + 1} ${fmt(o.n[k], 8)} ± ${fmt(o.nErrors[k], 3)}   (ε_${k + 1} ${fmt(o.principal[k], 8)} ± ${fmt(o.principalErrors[k], 3)})`);
+    lines.push(`  n_${k + 1} ${withError(o.n[k], o.nErrors[k], 8)}   (ε_${k + 1} ${withError(o.principal[k], o.principalErrors[k], 8)})`);
     rows.push({ section: 'optics', quantity: 'n', component: String(k + 1), value: o.n[k], standardError: o.nErrors[k], unit: '', stats: o.stats[k] });
     rows.push({ section: 'optics', quantity: 'eps_principal', component: String(k + 1), value: o.principal[k], standardError: o.principalErrors[k], unit: '' });
     if (!o.stats[k].plateau) noPlateau.push(`n_${k + 1}`);
   }
-  lines.push(`  birefringence n_3 − n_1 = ${fmt(o.birefringence, 4)} ± ${fmt(o.birefringenceError, 3)}`);
+  lines.push(`  birefringence n_3 − n_1 = ${withError(o.birefringence, o.birefringenceError, 4)}`);
   rows.push({ section: 'optics', quantity: 'birefringence', component: 'n3-n1', value: o.birefringence, standardError: o.birefringenceError, unit: '', stats: o.stats[3] });
   for (const [i, j] of o.unresolved) lines.push(`  note: ε_${i} and ε_${j} differ by less than their errors: this trajectory does not resolve them (the birefringence may be noise)`);
   lines.push(`  (${o.method})`);
@@ -169,7 +169,7 @@ function speciesReport(s: TrajectorySeries, minBlocks: number, rows: Row[], line
   for (const { t } of stats) total += t.iso.mean;
   for (const { sp, t } of stats) {
     const share = total !== 0 ? (100 * t.iso.mean) / total : NaN;
-    lines.push(`  ${sp.species.padEnd(3)} ${String(sp.atoms).padStart(5)} atoms   iso ${fmt(t.iso.mean, 6)} ± ${fmt(t.iso.standardError, 3)} (${share.toFixed(1)} %)   per atom ${fmt(t.iso.mean / sp.atoms, 6)} ± ${fmt(t.iso.standardError / sp.atoms, 3)}   aniso of the mean ${fmt(t.anisotropy, 4)}`);
+    lines.push(`  ${sp.species.padEnd(3)} ${String(sp.atoms).padStart(5)} atoms   iso ${withError(t.iso.mean, t.iso.standardError, 6)} (${share.toFixed(1)} %)   per atom ${withError(t.iso.mean / sp.atoms, t.iso.standardError / sp.atoms, 6)}   aniso of the mean ${fmt(t.anisotropy, 4)}`);
     rows.push({ section: 'species', quantity: sp.species, component: 'iso', value: t.iso.mean, standardError: t.iso.standardError, unit, stats: t.iso });
     rows.push({ section: 'species', quantity: sp.species, component: 'iso_per_atom', value: t.iso.mean / sp.atoms, standardError: t.iso.standardError / sp.atoms, unit, stats: t.iso });
     for (const c of t.components) rows.push({ section: 'species', quantity: sp.species, component: c.component, value: c.stats.mean, standardError: c.stats.standardError, unit, stats: c.stats });

@@ -4,12 +4,22 @@
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { afterAll, describe, expect, it } from 'vitest';
+import { afterAll, describe, expect, it, vi } from 'vitest';
 import type { AppService } from '../../src-main/app/service.ts';
 import { createAppService } from '../../src-main/app/wiring.ts';
 import { runCli } from '../../src-main/cli/main.ts';
 import { setSummaryLines } from '../../src-main/app/predict/prediction.ts';
 import { tsWorkerFactory } from '../../src-main/jobs/spawn-ts.ts';
+import type { JobRunner } from '../../src-main/jobs/runner.ts';
+import type { PredictTaskInput } from '../../src-main/app/task-types.ts';
+import type { Model } from '../../src-main/core/learning/model.ts';
+
+function typedArraysOf(value: unknown, out: ArrayBufferView[] = []): ArrayBufferView[] {
+  if (ArrayBuffer.isView(value)) out.push(value);
+  else if (Array.isArray(value)) value.forEach((v) => typedArraysOf(v, out));
+  else if (value !== null && typeof value === 'object') for (const v of Object.values(value)) typedArraysOf(v, out);
+  return out;
+}
 
 const WATER = '/work/shared/data/water-dft-sample.extxyz';
 const scratch = mkdtempSync(join(tmpdir(), 'pw-service-'));
@@ -99,7 +109,15 @@ describe('app service', () => {
     expect(model.test!.points.map((p) => p.frame)).toEqual([6, 7]);
     expect(model.trainedOn.frames).toBe(6);
 
+    // the predict job hands its worker the model in shared memory (no copy per job), as the CLI does
+    const runner = (service as unknown as { options: { runner: JobRunner } }).options.runner;
+    const start = vi.spyOn(runner, 'start');
     const p = await service.startJob({ kind: 'predict', params: { modelId: model.id, datasetId } });
+    const handed = (start.mock.calls[0][1] as PredictTaskInput).model as Model;
+    start.mockRestore();
+    const arrays = typedArraysOf(handed);
+    expect(arrays.length).toBeGreaterThan(3);
+    expect(arrays.every((a) => a.buffer instanceof SharedArrayBuffer)).toBe(true);
     const ps = await service.waitForJob(p.jobId);
     if (ps.result?.kind !== 'predict') throw new Error(`expected a predict result, got ${JSON.stringify(ps.error)}`);
     const pred = ps.result.prediction;

@@ -5,6 +5,7 @@ import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { withError } from '../../src-main/core/numerics/uncertain.ts';
 import type { AppService } from '../../src-main/app/service.ts';
 import { createAppService } from '../../src-main/app/wiring.ts';
 import { tsWorkerFactory } from '../../src-main/jobs/spawn-ts.ts';
@@ -64,6 +65,11 @@ describe('trajectory statistics: the window and analyse agree', () => {
     expect(stats.mean.xy.error).toBe(xy.error);
     const aniso = row('mean', 'eps', 'aniso');
     expect(stats.anisotropy.value).toBe(aniso.value);
+    // and both write them alike: value ± error to the digits the error justifies (the window's Trajectory view
+    // formats these same stats with the same withError)
+    expect(r.out).toContain(`birefringence n_3 − n_1 = ${withError(stats.birefringence, stats.birefringenceError)}`);
+    expect(r.out).toContain(`n_1 ${withError(stats.meanRefractive[0], stats.refractiveError[0])}`);
+    expect(r.out).toMatch(new RegExp(`iso +${withError(stats.mean.iso.value, stats.mean.iso.error).replace(/[.]/g, '\\.')} `));
   }, 120_000);
 
   it("takes Δn from the mean ε, not from each frame's sorted indices (which biases Δn upwards)", async () => {

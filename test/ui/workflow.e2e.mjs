@@ -8,6 +8,14 @@ import { join } from 'node:path';
 
 const demoDir = (root) => process.env.POLARWEAVE_DEMO_DIR ?? join(root, 'resources/demo');
 
+/** The app session of this page's tab on the host (one per tab: src-main/host/sessions.ts). */
+async function sessionOf(page, host) {
+  const id = await page.evaluate(() => sessionStorage.getItem('pw-session'));
+  const service = host.session(id);
+  assert.ok(service, `the host has no session for this tab (${id})`);
+  return service;
+}
+
 async function go(page, view) {
   await page.click(`nav [data-view=${view}]`);
   await page.waitForSelector(`main[data-current-view=${view}]`);
@@ -75,7 +83,7 @@ export const tests = [
       const line = texts.find((t) => /^RMSE /.test(t));
       assert.ok(line, `no RMSE on the chart: ${texts.join(' | ')}`);
       const shown = Number(line.replace(/^RMSE /, '').split(' ')[0].replace('−', '-'));
-      const models = (await host.service.getState()).models;
+      const models = (await (await sessionOf(page, host)).getState()).models;
       const model = models.at(-1);
       state.model = model;
       // The chart prints the engine's cross-validation figure to 3 significant digits.
@@ -134,7 +142,7 @@ export const tests = [
       const [download] = await Promise.all([page.waitForEvent('download'), page.click('[data-action=export-csv]')]);
       const ours = join(scratch, 'window.csv');
       await download.saveAs(ours);
-      const modelFile = await host.service.exportModel({ modelId: state.model.id });
+      const modelFile = await (await sessionOf(page, host)).exportModel({ modelId: state.model.id });
       const modelPath = join(scratch, 'model.json');
       writeFileSync(modelPath, modelFile.text);
       const cliPath = join(scratch, 'cli.csv');
@@ -174,7 +182,7 @@ export const tests = [
   {
     name: 'asks before a project replaces the session, and keeps it when the answer is no',
     async run({ page, host }) {
-      const before = (await host.service.getState()).models.length;
+      const before = (await (await sessionOf(page, host)).getState()).models.length;
       assert.ok(before > 0);
       let asked = '';
       page.once('dialog', (d) => {
@@ -189,7 +197,7 @@ export const tests = [
       page.off('filechooser', onChooser);
       assert.match(asked, /replaces everything in this window: .*model/);
       assert.equal(chooserOpened, false, 'no file was asked for after "no"');
-      assert.equal((await host.service.getState()).models.length, before, 'the session is unchanged');
+      assert.equal((await (await sessionOf(page, host)).getState()).models.length, before, 'the session is unchanged');
       // "yes" goes on to the file choice
       page.once('dialog', (d) => void d.accept());
       const [chooser] = await Promise.all([page.waitForEvent('filechooser'), page.click('text=Open project…')]);

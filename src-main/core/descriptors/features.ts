@@ -299,7 +299,7 @@ export function featurePlan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
 }
 
 /** Scales x[from…to) to unit norm (a zero block stays zero); returns the squared norm before scaling. */
-function normalise(x: Float64Array, from: number, to: number): number {
+export function normalise(x: Float64Array, from: number, to: number): number {
   let s = 0;
   for (let i = from; i < to; i++) s += x[i] * x[i];
   if (s === 0 || !Number.isFinite(s)) return s;
@@ -308,22 +308,57 @@ function normalise(x: Float64Array, from: number, to: number): number {
   return s;
 }
 
-/** λ = 0 row of one environment from its coefficients c (layout of density.ts) into out[at…at+n0). */
-function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number): number {
-  const { p1, p2, pw, invSqrt, LL } = P;
+/**
+ * λ = 0 row of one environment from its coefficients c (layout of density.ts) into out[at…at+n0); returns the
+ * squared norm before normalising. For each first channel the partners are taken four at a time (four
+ * independent sums sharing the loads of the first channel's coefficients); every sum runs over m in ascending
+ * order from zero, so the row is bit-identical to the plain pair-by-pair loop (kept in
+ * test/helpers/reference-kernels.ts, which the tests compare against).
+ */
+export function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number): number {
+  const { pw, invSqrt, LL } = P;
   const lmax = P.settings.lmax;
   const L1 = lmax + 1;
+  const nch = P.settings.species.length * P.settings.nmax;
   let f = at;
-  for (let k = 0; k < p1.length; k++) {
-    const A = p1[k] * LL, B = p2[k] * LL;
-    const w = pw[k];
-    for (let l = 0; l <= lmax; l++) {
-      const lo = l * l, hi = lo + 2 * l + 1;
-      let s = 0;
-      for (let m = lo; m < hi; m++) s += c[A + m] * c[B + m];
-      out[f + l] = w * invSqrt[l] * s;
+  let k = 0; // index of the pair (c1, c2) in p1/p2/pw
+  for (let c1 = 0; c1 < nch; c1++) {
+    const A = c1 * LL;
+    let c2 = c1;
+    for (; c2 + 3 < nch; c2 += 4) {
+      const B0 = c2 * LL, B1 = B0 + LL, B2 = B1 + LL, B3 = B2 + LL;
+      const w0 = pw[k], w1 = pw[k + 1], w2 = pw[k + 2], w3 = pw[k + 3];
+      for (let l = 0; l <= lmax; l++) {
+        const lo = l * l, hi = lo + 2 * l + 1;
+        let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+        for (let m = lo; m < hi; m++) {
+          const x = c[A + m];
+          s0 += x * c[B0 + m];
+          s1 += x * c[B1 + m];
+          s2 += x * c[B2 + m];
+          s3 += x * c[B3 + m];
+        }
+        const v = invSqrt[l];
+        out[f + l] = w0 * v * s0;
+        out[f + L1 + l] = w1 * v * s1;
+        out[f + 2 * L1 + l] = w2 * v * s2;
+        out[f + 3 * L1 + l] = w3 * v * s3;
+      }
+      f += 4 * L1;
+      k += 4;
     }
-    f += L1;
+    for (; c2 < nch; c2++) {
+      const B = c2 * LL;
+      const w = pw[k];
+      for (let l = 0; l <= lmax; l++) {
+        const lo = l * l, hi = lo + 2 * l + 1;
+        let s = 0;
+        for (let m = lo; m < hi; m++) s += c[A + m] * c[B + m];
+        out[f + l] = w * invSqrt[l] * s;
+      }
+      f += L1;
+      k++;
+    }
   }
   return normalise(out, at, at + P.n0);
 }

@@ -799,18 +799,21 @@ export async function trainModel(frames: Frame[], request: TrainRequest, hooks: 
 
 /**
  * A warning when cross-validation chose the smallest or largest regulariser it tried: the best value may lie
- * beyond the range, and the fit is then limited by the range rather than by the data.
+ * beyond the range, and the fit is then limited by the range rather than by the data. The range is the grid
+ * actually tried, which fitRidge has already widened at that edge (regression.ts, widenAtEdge) as far as it goes.
  */
 export function regulariserEdge(r: Pick<ModelPart['regularisation'], 'relative' | 'chosenBy' | 'grid'>): string | null {
   if (r.chosenBy !== 'cross-validation' || r.grid.length < 3) return null;
   const tried = r.grid.map((g) => g.relative);
-  const lo = Math.min(...DEFAULT_REGULARISATION_GRID);
-  const hi = Math.max(...DEFAULT_REGULARISATION_GRID);
-  if (r.relative <= lo && tried.includes(lo)) {
-    return `the regulariser chosen by cross-validation, ${lo.toExponential(0)}, is the smallest of the range tried (${lo.toExponential(0)}…${hi.toExponential(0)}): the model wants more freedom than the range allows — the features may be too few for the data (try more radial functions or a larger angular order), or the references nearly free of noise; give a smaller one with --regularisation to check`;
+  const lo = Math.min(...tried);
+  const hi = Math.max(...tried);
+  const widened = lo < Math.min(...DEFAULT_REGULARISATION_GRID) || hi > Math.max(...DEFAULT_REGULARISATION_GRID) ? ', already widened beyond the usual 1e-9…1' : '';
+  const range = `(${lo.toExponential(0)}…${hi.toExponential(0)}${widened})`;
+  if (r.relative <= lo) {
+    return `the regulariser chosen by cross-validation, ${lo.toExponential(0)}, is the smallest of the range tried ${range}: the model wants more freedom than the range allows — the features may be too few for the data (try more radial functions or a larger angular order), or the references nearly free of noise; give a smaller one with --regularisation to check`;
   }
-  if (r.relative >= hi && tried.includes(hi)) {
-    return `the regulariser chosen by cross-validation, ${hi.toExponential(0)}, is the largest of the range tried (${lo.toExponential(0)}…${hi.toExponential(0)}): the features explain little of this part beyond the per-species baseline — the part may be mostly noise, or need other settings`;
+  if (r.relative >= hi) {
+    return `the regulariser chosen by cross-validation, ${hi.toExponential(0)}, is the largest of the range tried ${range}: the features explain little of this part beyond the per-species baseline — the part may be mostly noise, or need other settings`;
   }
   return null;
 }

@@ -65,6 +65,15 @@ function featureCount(d: Design): number {
 export const DEFAULT_REGULARISATION_GRID = [1e-9, 1e-8, 1e-7, 1e-6, 1e-5, 1e-4, 1e-3, 1e-2, 1e-1, 1];
 
 /**
+ * When cross-validation picks the smallest or largest regulariser tried, the search is widened on that side by
+ * WIDEN_DECADES decades (one value per decade), at most MAX_WIDENINGS times in one fit: from 1e-9…1 to at most
+ * 1e-13…1e4 (common practice, no source: a few decades past the edge show whether the optimum lies there; far
+ * beyond it the solves only meet rounding (small) or the baseline alone (large)).
+ */
+export const WIDEN_DECADES = 2;
+export const MAX_WIDENINGS = 2;
+
+/**
  * Fit on the rows in `train` and predict the rows in `test`, once per λ (absolute) in `lambdas`.
  * Returns predictions[lambdaIndex][testRow].
  */
@@ -198,6 +207,7 @@ export function fitRidge(d: Design, relative: number | null, cv: CrossValidation
       const at = DEFAULT_REGULARISATION_GRID.indexOf(bestOf(grid).relative);
       const extra = [at - 1, at + 1].filter((i) => i >= 0 && i < DEFAULT_REGULARISATION_GRID.length).map((i) => DEFAULT_REGULARISATION_GRID[i]);
       grid = [...grid, ...crossValidateRegularisation(d, { ...cv, grid: extra })].sort((a, b) => a.relative - b.relative);
+      grid = widenAtEdge(d, cv, grid);
     }
     const best = bestOf(grid);
     chosen = best.relative;
@@ -241,6 +251,24 @@ export function fitRidge(d: Design, relative: number | null, cv: CrossValidation
   const c = choleskySolve(factor, d.rows, d.y);
   const posterior: Posterior | undefined = wantPosterior ? { form: 'primal', size: f, factor: primalFactor(), noise, lambda } : undefined;
   return { form: 'dual', weights: c, relative: chosen, lambda, scale, cvError, grid, posterior };
+}
+
+/**
+ * The grid, widened while its best value is its smallest or largest (at most MAX_WIDENINGS times, WIDEN_DECADES
+ * decades each, on the side of the edge). A best value still at the edge afterwards is left to the caller to report.
+ */
+export function widenAtEdge(d: Design, cv: CrossValidationOptions, grid: { relative: number; error: number }[]): { relative: number; error: number }[] {
+  let out = grid;
+  for (let k = 0; k < MAX_WIDENINGS; k++) {
+    const best = bestOf(out);
+    const lo = out[0].relative;
+    const hi = out[out.length - 1].relative;
+    const step = best.relative <= lo ? 0.1 : best.relative >= hi ? 10 : 0;
+    if (step === 0) break;
+    const extra = Array.from({ length: WIDEN_DECADES }, (_, i) => Number((best.relative * step ** (i + 1)).toPrecision(12)));
+    out = [...out, ...crossValidateRegularisation(d, { ...cv, grid: extra })].sort((a, b) => a.relative - b.relative);
+  }
+  return out;
 }
 
 /** Smallest CV error; ties go to the larger (smoother) regulariser. */

@@ -81,7 +81,7 @@ export function weightMatrices(settings: FeatureSettings, lambda: 1 | 2, u: Floa
 }
 
 /** Scratch of one read-out: transposed coefficients and Gram matrices per degree, block products. */
-interface Scratch {
+export interface ReadoutScratch {
   /** Per degree l: (2l+1) × channels, the coefficients c_{ch,lm} with m outer. */
   ct: Float64Array[];
   /** Per degree l: (2l+1) × (2l+1) Gram matrix Σ_ch c_{ch,lm} c_{ch,lm'}. */
@@ -91,7 +91,7 @@ interface Scratch {
   both: Float64Array;
 }
 
-function scratchFor(P: Plan, T: TensorPlan): Scratch {
+export function readoutScratch(P: Plan, T: TensorPlan): ReadoutScratch {
   const lmax = T.blocks.reduce((m, b) => Math.max(m, b.l2), 0);
   const w = 2 * lmax + 1;
   return {
@@ -102,8 +102,166 @@ function scratchFor(P: Plan, T: TensorPlan): Scratch {
   };
 }
 
-/** y[at…at+2λ] = the read-out of one environment with coefficients c and weight matrices W. */
-function readOne(P: Plan, T: TensorPlan, c: Float64Array, W: Float64Array, S: Scratch, y: Float64Array, at: number): void {
+/**
+ * out[i·cols + j] = Σ_k a[i·len + k] · b[j·len + k] for i < rows, j < cols: products of rows with rows, in tiles
+ * of two rows by four columns (eight independent sums, six loads per eight products), then two rows by one
+ * column, and one row by four or one columns for an odd last row. Every sum runs over k in ascending order from
+ * zero, so the values are those of the plain loop bit for bit.
+ */
+function rowsTimesRows(a: Float64Array, rows: number, b: Float64Array, cols: number, len: number, out: Float64Array): void {
+  let i = 0;
+  for (; i + 1 < rows; i += 2) {
+    const a0 = i * len, a1 = a0 + len;
+    const o0 = i * cols, o1 = o0 + cols;
+    let j = 0;
+    for (; j + 3 < cols; j += 4) {
+      const b0 = j * len, b1 = b0 + len, b2 = b1 + len, b3 = b2 + len;
+      let s00 = 0, s01 = 0, s02 = 0, s03 = 0, s10 = 0, s11 = 0, s12 = 0, s13 = 0;
+      for (let k = 0; k < len; k++) {
+        const x = a[a0 + k], z = a[a1 + k];
+        const y0 = b[b0 + k], y1 = b[b1 + k], y2 = b[b2 + k], y3 = b[b3 + k];
+        s00 += x * y0;
+        s01 += x * y1;
+        s02 += x * y2;
+        s03 += x * y3;
+        s10 += z * y0;
+        s11 += z * y1;
+        s12 += z * y2;
+        s13 += z * y3;
+      }
+      out[o0 + j] = s00;
+      out[o0 + j + 1] = s01;
+      out[o0 + j + 2] = s02;
+      out[o0 + j + 3] = s03;
+      out[o1 + j] = s10;
+      out[o1 + j + 1] = s11;
+      out[o1 + j + 2] = s12;
+      out[o1 + j + 3] = s13;
+    }
+    for (; j < cols; j++) {
+      const bj = j * len;
+      let s0 = 0, s1 = 0;
+      for (let k = 0; k < len; k++) {
+        const y = b[bj + k];
+        s0 += a[a0 + k] * y;
+        s1 += a[a1 + k] * y;
+      }
+      out[o0 + j] = s0;
+      out[o1 + j] = s1;
+    }
+  }
+  if (i < rows) {
+    const a0 = i * len;
+    const o0 = i * cols;
+    let j = 0;
+    for (; j + 3 < cols; j += 4) {
+      const b0 = j * len, b1 = b0 + len, b2 = b1 + len, b3 = b2 + len;
+      let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+      for (let k = 0; k < len; k++) {
+        const x = a[a0 + k];
+        s0 += x * b[b0 + k];
+        s1 += x * b[b1 + k];
+        s2 += x * b[b2 + k];
+        s3 += x * b[b3 + k];
+      }
+      out[o0 + j] = s0;
+      out[o0 + j + 1] = s1;
+      out[o0 + j + 2] = s2;
+      out[o0 + j + 3] = s3;
+    }
+    for (; j < cols; j++) {
+      const bj = j * len;
+      let s = 0;
+      for (let k = 0; k < len; k++) s += a[a0 + k] * b[bj + k];
+      out[o0 + j] = s;
+    }
+  }
+}
+
+/**
+ * left[m·tch + c2] = Σ_c1 a[m·tch + c1] · W[wb + c1·tch + c2] (c1 ascending from zero) for m < rows: Aᵀ W of a
+ * block, two rows and four columns at a time (eight independent sums). For an l = l' block W is upper triangular,
+ * so the sum for columns c2…c2+3 stops at c1 = c2 + 3: the terms it then still takes with c1 > c2 are products
+ * with the zeros below W's diagonal, which add nothing (a sum starting from +0 stays +0 when ±0 is added), so the
+ * values equal those of the plain loop that skips them, bit for bit.
+ */
+function rowsTimesMatrix(a: Float64Array, rows: number, W: Float64Array, wb: number, tch: number, upper: boolean, left: Float64Array): void {
+  let m = 0;
+  for (; m + 1 < rows; m += 2) {
+    const a0 = m * tch, a1 = a0 + tch;
+    let c2 = 0;
+    for (; c2 + 3 < tch; c2 += 4) {
+      const end = upper ? c2 + 4 : tch;
+      let s00 = 0, s01 = 0, s02 = 0, s03 = 0, s10 = 0, s11 = 0, s12 = 0, s13 = 0;
+      for (let c1 = 0; c1 < end; c1++) {
+        const wo = wb + c1 * tch + c2;
+        const w0 = W[wo], w1 = W[wo + 1], w2 = W[wo + 2], w3 = W[wo + 3];
+        const x = a[a0 + c1], z = a[a1 + c1];
+        s00 += x * w0;
+        s01 += x * w1;
+        s02 += x * w2;
+        s03 += x * w3;
+        s10 += z * w0;
+        s11 += z * w1;
+        s12 += z * w2;
+        s13 += z * w3;
+      }
+      left[a0 + c2] = s00;
+      left[a0 + c2 + 1] = s01;
+      left[a0 + c2 + 2] = s02;
+      left[a0 + c2 + 3] = s03;
+      left[a1 + c2] = s10;
+      left[a1 + c2 + 1] = s11;
+      left[a1 + c2 + 2] = s12;
+      left[a1 + c2 + 3] = s13;
+    }
+    for (; c2 < tch; c2++) {
+      const end = upper ? c2 + 1 : tch;
+      let s0 = 0, s1 = 0;
+      for (let c1 = 0; c1 < end; c1++) {
+        const w = W[wb + c1 * tch + c2];
+        s0 += a[a0 + c1] * w;
+        s1 += a[a1 + c1] * w;
+      }
+      left[a0 + c2] = s0;
+      left[a1 + c2] = s1;
+    }
+  }
+  for (; m < rows; m++) {
+    const a0 = m * tch;
+    let c2 = 0;
+    for (; c2 + 3 < tch; c2 += 4) {
+      const end = upper ? c2 + 4 : tch;
+      let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+      for (let c1 = 0; c1 < end; c1++) {
+        const wo = wb + c1 * tch + c2;
+        const x = a[a0 + c1];
+        s0 += x * W[wo];
+        s1 += x * W[wo + 1];
+        s2 += x * W[wo + 2];
+        s3 += x * W[wo + 3];
+      }
+      left[a0 + c2] = s0;
+      left[a0 + c2 + 1] = s1;
+      left[a0 + c2 + 2] = s2;
+      left[a0 + c2 + 3] = s3;
+    }
+    for (; c2 < tch; c2++) {
+      const end = upper ? c2 + 1 : tch;
+      let s = 0;
+      for (let c1 = 0; c1 < end; c1++) s += a[a0 + c1] * W[wb + c1 * tch + c2];
+      left[a0 + c2] = s;
+    }
+  }
+}
+
+/**
+ * y[at…at+2λ] = the read-out of one environment with coefficients c and weight matrices W. The products are
+ * register-blocked (rowsTimesMatrix, rowsTimesRows); every number is summed in the same order as in the
+ * plain loops, so the values are bit-identical to them (test/core/learning/tensor-readout.test.ts keeps the plain
+ * version as the reference).
+ */
+export function readOne(P: Plan, T: TensorPlan, c: Float64Array, W: Float64Array, S: ReadoutScratch, y: Float64Array, at: number): void {
   const tch = P.tch;
   const nM = 2 * T.lambda + 1;
   for (let l = 0; l < S.ct.length; l++) {
@@ -114,15 +272,8 @@ function readOne(P: Plan, T: TensorPlan, c: Float64Array, W: Float64Array, S: Sc
       const o = base[k];
       for (let m = 0; m < w; m++) ct[m * tch + k] = c[o + m];
     }
-    const g = S.gram[l];
-    for (let m = 0; m < w; m++) {
-      for (let n = m; n < w; n++) {
-        let s = 0;
-        for (let k = 0; k < tch; k++) s += ct[m * tch + k] * ct[n * tch + k];
-        g[m * w + n] = s;
-        g[n * w + m] = s;
-      }
-    }
+    // the Gram matrix: both triangles computed (the same products in the same order, so g is exactly symmetric)
+    rowsTimesRows(ct, w, ct, w, tch, S.gram[l]);
   }
   for (let mu = 0; mu < nM; mu++) y[at + mu] = 0;
   let norm2 = 0;
@@ -130,28 +281,10 @@ function readOne(P: Plan, T: TensorPlan, c: Float64Array, W: Float64Array, S: Sc
   for (let b = 0; b < T.blocks.length; b++) {
     const blk = T.blocks[b];
     const w1 = 2 * blk.l + 1, w2 = 2 * blk.l2 + 1;
-    const a = S.ct[blk.l], bt = S.ct[blk.l2];
-    const wb = b * tch * tch;
     // left = Aᵀ W (w1 × channels); an l = l' block's W is upper triangular (pairs c1 ≤ c2 only)
-    const upper = blk.l === blk.l2;
-    left.fill(0, 0, w1 * tch);
-    for (let m = 0; m < w1; m++) {
-      const lo = m * tch;
-      for (let c1 = 0; c1 < tch; c1++) {
-        const x = a[lo + c1];
-        if (x === 0) continue;
-        const wo = wb + c1 * tch;
-        for (let c2 = upper ? c1 : 0; c2 < tch; c2++) left[lo + c2] += x * W[wo + c2];
-      }
-    }
+    rowsTimesMatrix(S.ct[blk.l], w1, W, b * tch * tch, tch, blk.l === blk.l2, left);
     // both = Aᵀ W B (w1 × w2)
-    for (let m = 0; m < w1; m++) {
-      for (let m2 = 0; m2 < w2; m2++) {
-        let s = 0;
-        for (let k = 0; k < tch; k++) s += left[m * tch + k] * bt[m2 * tch + k];
-        both[m * w2 + m2] = s;
-      }
-    }
+    rowsTimesRows(left, w1, S.ct[blk.l2], w2, tch, both);
     const { muStart, e1, e2, ev } = blk;
     const ga = S.gram[blk.l], gb = S.gram[blk.l2];
     let blockNorm = 0;
@@ -191,7 +324,7 @@ export function computeReadout(frame: Frame, settings: FeatureSettings, readout:
   const nM = 2 * lambda + 1;
   const scalar = new Float64Array(count * P.n0);
   const values = new Float64Array(count * nM);
-  const S = scratchFor(P, T);
+  const S = readoutScratch(P, T);
   const norms = new Float64Array(count);
   featurise(prep, scalar, (e) => e, (e, k0, c) => {
     const W = readout.matrices(e, prep.centreSpecies[e], scalar, k0 * P.n0);

@@ -5,7 +5,8 @@ import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { makeFrame, type Frame } from '../../../src-main/core/geometry/frame.ts';
 import type { FeatureSettings } from '../../../src-main/core/descriptors/feature-types.ts';
-import { computeFeatures, concatenateFeatures, describeFeatures, featureCount, forEachEnvironment, tensorLimits } from '../../../src-main/core/descriptors/features.ts';
+import { computeFeatures, concatenateFeatures, describeFeatures, featureCount, featurePlan, forEachEnvironment, powerSpectrum, tensorLimits } from '../../../src-main/core/descriptors/features.ts';
+import { referencePowerSpectrum } from '../../helpers/reference-kernels.ts';
 import { makeDensityExpander } from '../../../src-main/core/descriptors/density.ts';
 import { coupleReal } from '../../../src-main/core/descriptors/clebsch-gordan.ts';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
@@ -302,4 +303,28 @@ describe('a dimer along z against scipy and sympy values (test/fixtures/radial-r
     expect(n2).toBe(labels.length);
     for (let mu = 0; mu < 5; mu++) expect(maxDiff(f.tensor[2]!.data.subarray(mu * n2, (mu + 1) * n2), mu === 2 ? xi : new Array(n2).fill(0))).toBeLessThan(1e-8);
   });
+});
+
+describe('the blocked power-spectrum kernel', () => {
+  // Random coefficients (some exact zeros, as an absent species gives) for channel counts that are and are not
+  // multiples of the blocking; the kept pair-by-pair loop (test/helpers/reference-kernels.ts) is the reference
+  // and, every sum keeping its order, the rows and norms must be the very same numbers.
+  const cases: [string, FeatureSettings][] = [
+    ['2 species, nmax 8, lmax 6', { cutoff: 4.5, cutoffWidth: 0.5, sigma: 0.4, nmax: 8, lmax: 6, species: ['O', 'H'], centres: ['O', 'H'] }],
+    ['3 species, nmax 3, lmax 4 (9 channels)', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 3, lmax: 4, species: ['O', 'H', 'C'], centres: ['O'] }],
+    ['1 species, nmax 2, lmax 0', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 2, lmax: 0, species: ['O'], centres: ['O'] }],
+  ];
+  for (const [name, s] of cases) {
+    it(`${name}: bit-identical to the plain loop`, () => {
+      const P = featurePlan(s, []);
+      const rng = makeRng(17);
+      const fast = new Float64Array(P.n0 + 3);
+      const plain = new Float64Array(P.n0 + 3);
+      for (let trial = 0; trial < 20; trial++) {
+        const c = Float64Array.from({ length: P.expander.size }, () => (rng.uniform() < 0.2 ? 0 : rng.normal()));
+        expect(powerSpectrum(P, c, fast, 3)).toBe(referencePowerSpectrum(P, c, plain, 3));
+        expect(Array.from(fast)).toEqual(Array.from(plain));
+      }
+    });
+  }
 });

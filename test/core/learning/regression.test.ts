@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
-import { crossValidateRegularisation, designScale, fitRidge, foldsOf, posteriorVariance, primalWeights, ridgeFitPredict, type Design } from '../../../src-main/core/learning/regression.ts';
+import { crossValidateRegularisation, DEFAULT_REGULARISATION_GRID, designScale, fitRidge, foldsOf, MAX_WIDENINGS, posteriorVariance, primalWeights, ridgeFitPredict, WIDEN_DECADES, type Design } from '../../../src-main/core/learning/regression.ts';
+import { regulariserEdge } from '../../../src-main/core/learning/model.ts';
 
 function inverse3(m: number[]): number[] {
   // Cramer's rule, independent of the Cholesky code under test.
@@ -70,8 +71,11 @@ describe('kernel ridge regression', () => {
     expect(clean.relative).toBeLessThanOrEqual(1e-6);
     expect(noise.relative).toBeGreaterThanOrEqual(1e-2);
     expect(clean.cvError).toBeLessThan(1e-6);
+    // the reported error is the best of the values tried (the range widened above 1 for the noise), and no worse than the usual grid's best
+    const tried = crossValidateRegularisation({ rows, group: groups(rows), y: yNoise, phi, features: f }, { fold, folds: 5, grid: noise.grid.map((g) => g.relative) });
+    expect(Math.min(...tried.map((g) => g.error))).toBeCloseTo(noise.cvError, 12);
     const grid = crossValidateRegularisation({ rows, group: groups(rows), y: yNoise, phi, features: f }, { fold, folds: 5 });
-    expect(Math.min(...grid.map((g) => g.error))).toBeCloseTo(noise.cvError, 12);
+    expect(Math.min(...grid.map((g) => g.error))).toBeGreaterThanOrEqual(noise.cvError);
   });
 
   it('folds never split a group and have balanced sizes', () => {
@@ -103,5 +107,52 @@ describe('kernel ridge regression', () => {
     expect(vd).toBeCloseTo(vp, 10);
     const far = posteriorVariance(post, Float64Array.from(x, (v) => 50 * v));
     expect(far).toBeGreaterThan(vp);
+  });
+});
+
+describe('regulariser range widened at its edge', () => {
+  const cvOf = (rows: number) => ({ fold: foldsOf(groups(rows), 5), folds: 5 });
+  const usualLo = Math.min(...DEFAULT_REGULARISATION_GRID);
+
+  it('goes below the usual range when the optimum lies there, and then no warning is left', () => {
+    // y = φ1 + φ2 + noise, φ2 of tiny scale s: shrinking w2 costs (s·w2)² per row, fitting it costs the noise
+    // σ² over n s²; the balance lies at λ ≈ σ²/w2² = 1e-10 (absolute; the scale is ≈ 1), below the usual 1e-9
+    const rng = makeRng(3);
+    const rows = 2000;
+    const phi = new Float64Array(rows * 2);
+    const y = new Float64Array(rows);
+    for (let r = 0; r < rows; r++) {
+      phi[2 * r] = rng.normal();
+      phi[2 * r + 1] = 2.5e-7 * rng.normal();
+      y[r] = phi[2 * r] + phi[2 * r + 1] + 1e-5 * rng.normal();
+    }
+    const d: Design = { rows, group: groups(rows), y, phi, features: 2 };
+    // the usual range alone stops at its edge
+    const usual = fitRidge(d, null, { ...cvOf(rows), grid: DEFAULT_REGULARISATION_GRID });
+    expect(usual.relative).toBe(usualLo);
+    expect(regulariserEdge({ ...usual, chosenBy: 'cross-validation' })).toMatch(/smallest of the range tried/);
+    const fit = fitRidge(d, null, cvOf(rows));
+    expect(fit.relative).toBeLessThan(usualLo);
+    expect(fit.relative).toBeGreaterThan(Math.min(...fit.grid.map((g) => g.relative)));
+    expect(regulariserEdge({ ...fit, chosenBy: 'cross-validation' })).toBeNull();
+  });
+
+  it('keeps the warning when the best value is still at the edge after the widenings, and widens no further', () => {
+    // noise-free: the smaller the regulariser, the better, however far the range goes
+    const rng = makeRng(4);
+    const rows = 60;
+    const f = 4;
+    const phi = Float64Array.from({ length: rows * f }, () => rng.normal());
+    const y = new Float64Array(rows);
+    for (let r = 0; r < rows; r++) for (let i = 0; i < f; i++) y[r] += phi[r * f + i] * (i + 1);
+    const fit = fitRidge({ rows, group: groups(rows), y, phi, features: f }, null, cvOf(rows));
+    const lowest = usualLo / 10 ** (WIDEN_DECADES * MAX_WIDENINGS);
+    expect(Math.min(...fit.grid.map((g) => g.relative))).toBeCloseTo(lowest, 25);
+    expect(fit.relative).toBeCloseTo(lowest, 25);
+    expect(regulariserEdge({ ...fit, chosenBy: 'cross-validation' })).toMatch(/smallest of the range tried \(1e-13…1e-1, already widened/);
+    // pure noise: the largest value tried wins; the range was widened above 1 too
+    const noise = fitRidge({ rows, group: groups(rows), y: Float64Array.from({ length: rows }, () => rng.normal()), phi, features: f }, null, cvOf(rows));
+    expect(Math.max(...noise.grid.map((g) => g.relative))).toBeGreaterThan(1);
+    if (noise.relative >= Math.max(...noise.grid.map((g) => g.relative))) expect(regulariserEdge({ ...noise, chosenBy: 'cross-validation' })).toMatch(/largest of the range tried/);
   });
 });

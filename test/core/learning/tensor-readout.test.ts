@@ -6,11 +6,12 @@
 import { readFileSync } from 'node:fs';
 import { beforeAll, describe, expect, it } from 'vitest';
 import type { FeatureSettings } from '../../../src-main/core/descriptors/feature-types.ts';
-import { computeFeatures } from '../../../src-main/core/descriptors/features.ts';
+import { computeFeatures, featurePlan } from '../../../src-main/core/descriptors/features.ts';
 import { makeFrame, type Frame } from '../../../src-main/core/geometry/frame.ts';
 import { modelFeaturiser, modelPredictor, predictTarget, predictWithFeatures, trainModel, type Model } from '../../../src-main/core/learning/model.ts';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
-import { computeReadout, weightMatrices } from '../../../src-main/core/learning/tensor-readout.ts';
+import { computeReadout, readOne, readoutScratch, weightMatrices } from '../../../src-main/core/learning/tensor-readout.ts';
+import { referenceReadOne } from '../../helpers/reference-kernels.ts';
 import { parseExtxyz } from '../../../src-main/io/extxyz.ts';
 import { equivarianceError, MIRROR, randomCluster, randomRotations } from '../../helpers/equivariance-harness.ts';
 
@@ -159,5 +160,37 @@ describe('modelPredictor gives the feature route’s predictions', () => {
         expect(predictTarget(model, f, k).irreducible).toEqual(fast.irreducible);
       });
     });
+  }
+});
+
+describe('the register-blocked read-out kernel', () => {
+  // Random coefficients (with some exact zeros, as a species absent from an environment gives) and random weight
+  // matrices of the stored layout; the kept plain-loop kernel (test/helpers/reference-kernels.ts) is the reference,
+  // and since every sum keeps its order the numbers must be the very same.
+  const settings: [string, FeatureSettings][] = [
+    ['nmax 8, lmax 6 (two species)', { ...base, nmax: 8, lmax: 6 }],
+    ['nmax 5, lmax 5, lmaxTensor 5, three species', { ...base, lmaxTensor: 5, species: ['O', 'H', 'C'] }],
+    ['nmaxTensor 3 (odd channel count)', { ...base, nmaxTensor: 3, species: ['O'], centres: ['O'] }],
+  ];
+  for (const lambda of [1, 2] as const) {
+    for (const [name, s] of settings) {
+      it(`λ = ${lambda}, ${name}: bit-identical to the plain loops`, () => {
+        const rng = makeRng(31 + lambda);
+        const P = featurePlan(s, [lambda]);
+        const T = P.tensors[0];
+        const W = weightMatrices(s, lambda, Float64Array.from({ length: T.n }, () => rng.normal()));
+        const S = readoutScratch(P, T);
+        const nM = 2 * lambda + 1;
+        const fast = new Float64Array(nM);
+        const plain = new Float64Array(nM);
+        for (let trial = 0; trial < 20; trial++) {
+          const c = Float64Array.from({ length: P.expander.size }, () => (rng.uniform() < 0.15 ? 0 : rng.normal()));
+          readOne(P, T, c, W, S, fast, 0);
+          referenceReadOne(P, T, c, W, S, plain, 0);
+          expect(Array.from(fast)).toEqual(Array.from(plain));
+          expect(fast.some((v) => v !== 0)).toBe(true);
+        }
+      });
+    }
   }
 });
