@@ -130,6 +130,16 @@ describe('the window on molecules and clusters', () => {
     expect(row3[header.indexOf('eps_iso')]).toBe('');
     expect(row3[header.indexOf('eps_ref_iso')]).toBe('');
     expect(Number(row3[header.indexOf('alpha_cm_xx_A3')])).toBeCloseTo(lone.alphaMol[0], 6);
+
+    // a saved project brings the clusters' predictions back as they were (α, local contributions, no ε)
+    const project = await service.saveProject({});
+    const opened = await service.openProject({ name: 'p.pwproj.json', text: project.text });
+    const again = opened.predictions.find((q) => q.frames === 15)!;
+    expect(again.isolatedFrames).toBe(12);
+    const back = await service.getFrameDetail({ predictionId: again.id, index: 3 });
+    if (!back.prediction.isolated) throw new Error('the cluster came back periodic from the project');
+    expect(back.prediction.alphaMol).toEqual(lone.alphaMol);
+    expect(back.local).toEqual(detail.local);
   }, 300_000);
 
   it('clusters only (kind alpha-mol): trained, compared on α, predicted as α with its error bar', async () => {
