@@ -70,6 +70,8 @@ export const tests = [
       await page.waitForSelector('[data-section=cv-results]', { timeout: 300_000 });
       // Training is followed by a prediction of the training data (for the structure and trajectory views).
       await page.waitForSelector('[data-job-state]', { state: 'detached', timeout: 120_000 });
+      // the table leads with the figure the verdict judges (within state points where there are several)
+      state.leadIso = await page.locator('[data-section=cv-results] tbody tr').first().locator('td').nth(1).textContent();
       const pct = await page.textContent('[data-figure=cv-percent-iso]');
       assert.match(pct, /^\d+(\.\d)? %$/);
       state.percentIso = pct;
@@ -162,7 +164,7 @@ export const tests = [
   },
   {
     name: 'gives the verdict of `polarweave validate` in Checks, with the learning curve’s caption',
-    async run({ page }) {
+    async run({ page, state }) {
       await go(page, 'checks');
       const text = await page.textContent('[data-field=verdict]');
       // the rule of core/learning/error-figures.ts: good ≤ 10 %, usable ≤ 30 %, poor above (the same function as the CLI)
@@ -171,9 +173,11 @@ export const tests = [
       const worst = text.match(/worst error (\d+(\.\d)?) %/);
       if (m[1] === 'poor') assert.ok(Number(worst[1]) > 30, text);
       if (m[1] === 'usable with care') assert.ok(Number(worst[1]) > 10 && Number(worst[1]) <= 30, text);
-      // one state point here (the liquid run): the verdict says which figures it judged; a state-point table
-      // appears only for several (core/learning/state-points.ts, tested there)
+      // the trajectory has one state point: the verdict says which figures it judged; with several, it judges the
+      // error within them (core/learning/state-points.ts, tested there; the screenshot run shows the table)
       assert.match(await page.textContent('[data-section=verdict]'), /on ε (over all frames|within state points)/);
+      // the Model view's leading figure is the one the verdict judges
+      assert.match(await page.textContent('[data-section=verdict]'), new RegExp(`Isotropic error ${state.leadIso.replace(/[.]/g, '\\.')}`));
       // the learning curve: mean of repeated random splits, and a caption that follows its slope
       assert.match(await page.textContent('[data-section=learning-curve]'), /mean of 3 random splits/);
       assert.match(await page.textContent('[data-field=curve-trend]'), /^(Still falling|Flat|Not falling|Too few)/);
