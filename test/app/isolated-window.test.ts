@@ -155,6 +155,15 @@ describe('the window on molecules and clusters', () => {
     const p = await job(service.startJob({ kind: 'predict', params: { modelId: model.id, datasetId: d.id } }));
     const pred = (p.result as { prediction: import('../../src-main/api/contract.ts').PredictionSummary }).prediction;
     expect(pred.summary).toBeUndefined();
+    // the window's CSV is `predict`'s, row for row, here too (no ε reference columns: the first frame is a cluster)
+    const csv = await service.exportCsv({ predictionId: pred.id });
+    writeFileSync(join(scratch, 'clusters-model.json'), (await service.exportModel({ modelId: model.id })).text);
+    const out = join(scratch, 'clusters.csv');
+    const r = await cli(['predict', join(scratch, 'clusters-model.json'), join(scratch, 'clusters.extxyz'), '-o', out]);
+    expect(r.code, r.err).toBe(0);
+    const body = (text: string) => text.split('\n').filter((l) => !l.startsWith('#'));
+    expect(body(csv.text)).toEqual(body(readFileSync(out, 'utf8')));
+    expect(body(csv.text)[0]).not.toMatch(/eps_ref_iso/);
     for (const f of pred.frames) {
       if (!f.isolated) throw new Error(`frame ${f.frame} came back periodic`);
       // the predicted α iso is near the file's (the dipole model's α of the cluster): within 15 % on these small training sets (common practice, no source)
