@@ -344,6 +344,8 @@ export interface CollectReport {
   program: string | null;
   /** Files passed over (inputs and coordinate files of the runs). */
   skipped: number;
+  /** What to know about kept runs, "FILE: text" (e.g. a molecule in a periodic box: the box's ε, not α in vacuum). */
+  notes: string[];
 }
 
 /** A file to hand to the browser (download) or to a save dialog. */

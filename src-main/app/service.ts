@@ -187,6 +187,7 @@ export class AppService implements ApiService {
       tensorKind: first ? first.kind : null,
       program: first ? first.program : null,
       skipped: result.skipped,
+      notes: result.notes.map((n) => `${n.file}: ${n.text}`),
     };
     if (!first) return report;
     const frames = collectedFrames(result);

@@ -130,6 +130,16 @@ describe('the window on molecules and clusters', () => {
     expect(row3[header.indexOf('eps_iso')]).toBe('');
     expect(row3[header.indexOf('eps_ref_iso')]).toBe('');
     expect(Number(row3[header.indexOf('alpha_cm_xx_A3')])).toBeCloseTo(lone.alphaMol[0], 6);
+
+    // a saved project brings the clusters' predictions back as they were (α, local contributions, no ε)
+    const project = await service.saveProject({});
+    const opened = await service.openProject({ name: 'p.pwproj.json', text: project.text });
+    const again = opened.predictions.find((q) => q.frames === 15)!;
+    expect(again.isolatedFrames).toBe(12);
+    const back = await service.getFrameDetail({ predictionId: again.id, index: 3 });
+    if (!back.prediction.isolated) throw new Error('the cluster came back periodic from the project');
+    expect(back.prediction.alphaMol).toEqual(lone.alphaMol);
+    expect(back.local).toEqual(detail.local);
   }, 300_000);
 
   it('clusters only (kind alpha-mol): trained, compared on α, predicted as α with its error bar', async () => {
@@ -145,6 +155,15 @@ describe('the window on molecules and clusters', () => {
     const p = await job(service.startJob({ kind: 'predict', params: { modelId: model.id, datasetId: d.id } }));
     const pred = (p.result as { prediction: import('../../src-main/api/contract.ts').PredictionSummary }).prediction;
     expect(pred.summary).toBeUndefined();
+    // the window's CSV is `predict`'s, row for row, here too (no ε reference columns: the first frame is a cluster)
+    const csv = await service.exportCsv({ predictionId: pred.id });
+    writeFileSync(join(scratch, 'clusters-model.json'), (await service.exportModel({ modelId: model.id })).text);
+    const out = join(scratch, 'clusters.csv');
+    const r = await cli(['predict', join(scratch, 'clusters-model.json'), join(scratch, 'clusters.extxyz'), '-o', out]);
+    expect(r.code, r.err).toBe(0);
+    const body = (text: string) => text.split('\n').filter((l) => !l.startsWith('#'));
+    expect(body(csv.text)).toEqual(body(readFileSync(out, 'utf8')));
+    expect(body(csv.text)[0]).not.toMatch(/eps_ref_iso/);
     for (const f of pred.frames) {
       if (!f.isolated) throw new Error(`frame ${f.frame} came back periodic`);
       // the predicted α iso is near the file's (the dipole model's α of the cluster): within 15 % on these small training sets (common practice, no source)

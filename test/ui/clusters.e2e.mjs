@@ -10,6 +10,14 @@ import { sessionOf } from './session-of.mjs';
 
 const KEEP = process.env.POLARWEAVE_UI_SHOTS;
 
+/** The app session of this page's tab on the host (one per tab: src-main/host/sessions.ts). */
+async function sessionOf(page, host) {
+  const id = await page.evaluate(() => sessionStorage.getItem('pw-session'));
+  const service = host.session(id);
+  assert.ok(service, `the host has no session for this tab (${id})`);
+  return service;
+}
+
 async function go(page, view) {
   await page.click(`nav [data-view=${view}]`);
   await page.waitForSelector(`main[data-current-view=${view}]`);
@@ -26,15 +34,16 @@ async function clustersFile(root) {
   const demoDir = process.env.POLARWEAVE_DEMO_DIR ?? join(root, 'resources/demo');
   const liquid = (await readAllStructures(join(demoDir, 'liquid.extxyz.gz'))).filter((_, i) => i % 40 === 0);
   const clusters = demoClusters(liquid.slice(0, 3), { sizes: [1, 2, 3, 4], perSize: 3, seed: 3 });
-  return { text: clusters.map(formatExtxyzFrame).join(''), key: CLUSTER_KEY };
+  return { text: clusters.map(formatExtxyzFrame).join(''), mixed: [...liquid.slice(3, 6), ...clusters].map(formatExtxyzFrame).join(''), key: CLUSTER_KEY };
 }
 
 export const tests = [
   {
     name: 'opens clusters without cells and trains their polarisability',
     async run({ page, host, root, state }) {
-      const { text, key } = await clustersFile(root);
+      const { text, mixed, key } = await clustersFile(root);
       state.key = key;
+      state.mixed = mixed;
       await page.goto(host.url);
       await page.waitForSelector('main[data-current-view=data]');
       const [chooser] = await Promise.all([page.waitForEvent('filechooser'), page.click('text=Open files…')]);
@@ -97,8 +106,8 @@ export const tests = [
       assert.equal(await page.locator('[data-table=transfer]').count(), 0, 'no ε table for clusters');
       assert.match(await page.textContent('[data-field=isolated-note]'), /ε, n and Δn are not defined for a lone molecule/);
       const shown = await page.locator('[data-table=transfer-isolated] [data-figure=alpha-iso]').first().textContent();
-      const state0 = await (await sessionOf(page, host)).getState();
-      const pred = await (await sessionOf(page, host)).getPrediction({ predictionId: state0.predictions.at(-1).id });
+      const service = await sessionOf(page, host);
+      const pred = await service.getPrediction({ predictionId: (await service.getState()).predictions.at(-1).id });
       const f0 = pred.frames[0];
       assert.equal(f0.isolated, true);
       const iso = (f0.alphaMol[0] + f0.alphaMol[4] + f0.alphaMol[8]) / 3;
@@ -110,6 +119,25 @@ export const tests = [
       // leave the session without data sets
       await go(page, 'data');
       await page.click('[aria-label="Close clusters.extxyz"]');
+      await page.waitForSelector('[data-empty=data]');
+    },
+  },
+  {
+    name: 'a set mixing periodic frames and clusters asks for the clusters\' key',
+    async run({ page, state }) {
+      const [chooser] = await Promise.all([page.waitForEvent('filechooser'), page.click('text=Open files…')]);
+      await chooser.setFiles({ name: 'mixed.extxyz', mimeType: 'text/plain', buffer: Buffer.from(state.mixed) });
+      await page.waitForSelector('[data-dataset="mixed.extxyz"]');
+      await go(page, 'model');
+      await page.selectOption('[data-field=dataset]', { label: 'mixed.extxyz (15 frames)' });
+      await page.waitForSelector('[data-field=mixed-note]');
+      assert.match(await page.textContent('[data-field=mixed-note]'), /^12 of the 15 frames have no periodic cell/);
+      assert.equal(await page.inputValue('[data-field=tensor]'), 'eps_ref');
+      assert.equal(await page.inputValue('[data-field=isolated-tensor]'), state.key);
+      assert.equal(await page.isDisabled('[data-route=direct]'), true);
+      await shot(page, 'model-mixed');
+      await go(page, 'data');
+      await page.click('[aria-label="Close mixed.extxyz"]');
       await page.waitForSelector('[data-empty=data]');
     },
   },
