@@ -261,3 +261,97 @@ export function referenceSearchNearest(search: NearestSearch, a: Float64Array, i
   }
   return Math.sqrt(best);
 }
+
+/** Σ_m2 H[μ][m2] c[B + m2] for every partner channel of one first channel: the pair loop of tensorFeatures. */
+function referenceContractPartners(
+  half: Float64Array, nM: number, width: number, c: Float64Array, partnerBase: Int32Array, from: number, to: number,
+  partner: Int32Array, weight: Float64Array, out: Float64Array, f: number, fStep: number, n: number,
+): void {
+  if (nM === 5) {
+    // λ = 2: five independent accumulators, one pass over each partner's coefficients.
+    for (let q = from; q < to; q++) {
+      const B = partnerBase[partner[q]];
+      let s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0;
+      for (let m = 0; m < width; m++) {
+        const b = c[B + m];
+        s0 += half[m] * b;
+        s1 += half[width + m] * b;
+        s2 += half[2 * width + m] * b;
+        s3 += half[3 * width + m] * b;
+        s4 += half[4 * width + m] * b;
+      }
+      const w = weight[q];
+      const at = f + (q - from) * fStep;
+      out[at] = w * s0;
+      out[at + n] = w * s1;
+      out[at + 2 * n] = w * s2;
+      out[at + 3 * n] = w * s3;
+      out[at + 4 * n] = w * s4;
+    }
+  } else {
+    for (let q = from; q < to; q++) {
+      const B = partnerBase[partner[q]];
+      let s0 = 0, s1 = 0, s2 = 0;
+      for (let m = 0; m < width; m++) {
+        const b = c[B + m];
+        s0 += half[m] * b;
+        s1 += half[width + m] * b;
+        s2 += half[2 * width + m] * b;
+      }
+      const w = weight[q];
+      const at = f + (q - from) * fStep;
+      out[at] = w * s0;
+      out[at + n] = w * s1;
+      out[at + 2 * n] = w * s2;
+    }
+  }
+}
+
+/**
+ * (Kept first version of features.ts tensorFeatures: one partner channel per pass.)
+ * λ > 0 block of one environment into out[(e·(2λ+1) + μ)·n + f]. For each pair block the half-coupling
+ * H = C·c runs over the factor of HIGHER degree (once per channel), so the pair loop runs over the shorter m
+ * axis: for (l, l') with l < l' the channel of degree l' is held and every channel of degree l is contracted.
+ */
+export function referenceTensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
+  const { half, tch } = P;
+  const nM = 2 * T.lambda + 1;
+  const n = T.n;
+  const base = e * nM * n;
+  for (const blk of T.blocks) {
+    const { l, l2, firstStart, ch2, weight, gatherStart, gatherIndex, gatherValue } = blk;
+    const width = 2 * l + 1;
+    const targets = nM * width;
+    const A0 = P.tensorBase[l];
+    if (l === l2) {
+      let f = base + blk.offset;
+      for (let c1 = 0; c1 < tch; c1++) {
+        // Half-coupled H[μ][m'] = Σ_m C[m, m', μ] c_{ch1, l m} (gathered: one register sum per target).
+        const A = A0[c1];
+        for (let t = 0; t < targets; t++) {
+          let h = 0;
+          for (let k = gatherStart[t]; k < gatherStart[t + 1]; k++) h += gatherValue[k] * c[A + gatherIndex[k]];
+          half[t] = h;
+        }
+        const from = firstStart[c1], to = firstStart[c1 + 1];
+        referenceContractPartners(half, nM, width, c, A0, from, to, ch2, weight, out, f, 1, n);
+        f += to - from;
+      }
+    } else {
+      // Hold the degree-l2 channel c2; contract all degree-l channels c1; feature f = offset + c1·tch + c2.
+      const B0 = P.tensorBase[l2];
+      const f0 = base + blk.offset;
+      for (let c2 = 0; c2 < tch; c2++) {
+        const B = B0[c2];
+        for (let t = 0; t < targets; t++) {
+          let h = 0;
+          for (let k = gatherStart[t]; k < gatherStart[t + 1]; k++) h += gatherValue[k] * c[B + gatherIndex[k]];
+          half[t] = h;
+        }
+        referenceContractPartners(half, nM, width, c, A0, 0, tch, P.allChannels, P.sqrt2, out, f0 + c2, tch, n);
+      }
+    }
+  }
+  normalise(out, base, base + nM * n);
+}
+
