@@ -7,11 +7,11 @@
 // Figures only, never asserted.
 import { cpus, loadavg } from 'node:os';
 import { pathToFileURL } from 'node:url';
-import { featurise, powerSpectrum, prepare, type Plan } from '../src-main/core/descriptors/features.ts';
+import { featurise, powerSpectrum, prepare, tensorFeatures, type Plan } from '../src-main/core/descriptors/features.ts';
 import type { FeatureSettings } from '../src-main/core/descriptors/feature-types.ts';
 import { makeWeightMatrices, readOne, readoutScratch } from '../src-main/core/learning/tensor-readout.ts';
 import { makeRng } from '../src-main/core/numerics/random.ts';
-import { referencePowerSpectrum, referenceReadOne } from '../test/helpers/reference-kernels.ts';
+import { referencePowerSpectrum, referenceReadOne, referenceTensorFeatures } from '../test/helpers/reference-kernels.ts';
 import { waterLikeFrames } from './water-like.ts';
 
 const ROUNDS = 25;
@@ -78,6 +78,19 @@ function powerSpectrumPair(P: Plan, coefficients: Float64Array[]): void {
   line(`λ=0 power spectrum (${P.n0} features)`, envs, times, agreement(rowsOld, rowsNew));
 }
 
+function couplingPair(P: Plan, coefficients: Float64Array[]): void {
+  const T = P.tensors[0];
+  const envs = coefficients.length;
+  const size = 5 * T.n;
+  const old = new Float64Array(envs * size);
+  const now = new Float64Array(envs * size);
+  const times = timeSideBySide([
+    () => coefficients.forEach((c, e) => referenceTensorFeatures(P, T, c, old, e)),
+    () => coefficients.forEach((c, e) => tensorFeatures(P, T, c, now, e)),
+  ]);
+  line(`λ=2 features, training (${T.n} × 5)`, envs, times, agreement(old, now));
+}
+
 function readoutPair(prep: ReturnType<typeof prepare>, coefficients: Float64Array[]): void {
   const P = prep.P;
   const T = P.tensors[0];
@@ -102,6 +115,7 @@ export async function run(): Promise<void> {
   const prep = prepare(frame, kernelSettings, [0, 2], undefined, undefined);
   const coefficients = coefficientsOf(prep.P, prep);
   powerSpectrumPair(prep.P, coefficients);
+  couplingPair(prep.P, coefficients);
   readoutPair(prep, coefficients);
 }
 

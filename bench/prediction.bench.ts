@@ -8,11 +8,16 @@
 //   3. streamed end to end (extended XYZ in, CSV out, worker threads) with 1 and 2 threads: the rate over the
 //      whole run (worker start-up included) and the marginal rate (extra frames / extra seconds between a
 //      short and a long run, i.e. with start-up removed), with the process RSS before and at its peak.
-// Figures only, never asserted. Env: PW_BENCH_TRAIN_FRAMES (30), PW_BENCH_STREAM_FRAMES (120).
-import { createWriteStream, mkdtempSync, rmSync } from 'node:fs';
+//   4. with PW_BENCH_BASELINE=<git ref> (e.g. a release tag, or the commit before a speed change): the whole
+//      in-process prediction of that ref's source beside this tree's, each in its own process on the same model
+//      (bench/prediction-rate.ts), alternating, with the ratio and whether the outputs are identical.
+// Figures only, never asserted. Env: PW_BENCH_TRAIN_FRAMES (30), PW_BENCH_STREAM_FRAMES (120), PW_BENCH_BASELINE.
+import { execFileSync, spawnSync } from 'node:child_process';
+import { createWriteStream, mkdtempSync, rmSync, symlinkSync, writeFileSync } from 'node:fs';
+import { serialize } from 'node:v8';
 import { availableParallelism, cpus, loadavg, tmpdir } from 'node:os';
-import { join } from 'node:path';
-import { pathToFileURL } from 'node:url';
+import { dirname, join } from 'node:path';
+import { fileURLToPath, pathToFileURL } from 'node:url';
 import { supercell } from '../src-main/core/geometry/cell.ts';
 import type { Frame } from '../src-main/core/geometry/frame.ts';
 import { modelFeaturiser, modelPredictor, predictWithFeatures, trainModel, type Model } from '../src-main/core/learning/model.ts';
@@ -113,6 +118,41 @@ async function streamed(model: Model, dir: string): Promise<void> {
   }
 }
 
+/** Section 4: this tree against the source of git ref `ref`, each in its own process, on the same model. */
+function againstBaseline(model: Model, ref: string, dir: string): void {
+  const here = join(dirname(fileURLToPath(import.meta.url)), '..');
+  const base = join(dir, 'baseline');
+  const modelFile = join(dir, 'model.v8');
+  writeFileSync(modelFile, serialize(model));
+  try {
+    execFileSync('sh', ['-c', `mkdir -p "${base}" && git -C "${here}" archive "${ref}" src-main bench | tar -x -C "${base}"`]);
+    symlinkSync(join(here, 'node_modules'), join(base, 'node_modules'));
+  } catch (error) {
+    console.log(`4. baseline ${ref}: could not extract it (${String(error).split('\n')[0]})`);
+    return;
+  }
+  const child = (root: string) => {
+    const r = spawnSync(process.execPath, [...process.execArgv, join(here, 'bench/prediction-rate.ts'), root, modelFile], { encoding: 'utf8' });
+    if (r.status !== 0) return { error: (r.stderr || '').trim().split('\n').slice(-1)[0] };
+    return JSON.parse(r.stdout.trim().split('\n').slice(-1)[0]) as { rate: number; hash: string };
+  };
+  let now = { rate: 0, hash: '' };
+  let then = { rate: 0, hash: '' };
+  for (let round = 0; round < 3; round++) {
+    const a = child(here);
+    const b = child(base);
+    if ('error' in a || 'error' in b) {
+      console.log(`4. baseline ${ref}: a child failed: ${'error' in a ? a.error : ''} ${'error' in b ? b.error : ''}`);
+      return;
+    }
+    if (a.rate > now.rate) now = a;
+    if (b.rate > then.rate) then = b;
+  }
+  console.log(`4. whole prediction in process, 8 frames × 384 atoms, one thread, CPU time, best of 3 alternating processes (load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}):`);
+  console.log(`   baseline ${ref}: ${then.rate.toFixed(0)} env per CPU-s; this tree: ${now.rate.toFixed(0)} env per CPU-s; ×${(now.rate / then.rate).toFixed(2)}; ` +
+    `outputs ${now.hash === then.hash ? 'identical (same hash of every predicted number at full precision)' : 'DIFFER'}`);
+}
+
 export async function run(): Promise<void> {
   console.log(`prediction bench: ${cpus().length} cores (${cpus()[0]?.model ?? 'unknown'}), load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}, Node ${process.version}`);
   const frames = waterLikeFrames(TRAIN, 7);
@@ -127,6 +167,8 @@ export async function run(): Promise<void> {
   const dir = mkdtempSync(join(tmpdir(), 'pw-predict-bench-'));
   try {
     await streamed(model, dir);
+    const baseline = process.env.PW_BENCH_BASELINE;
+    if (baseline) againstBaseline(model, baseline, dir);
   } finally {
     rmSync(dir, { recursive: true, force: true });
   }

@@ -4,6 +4,7 @@
 // change), and `npm run bench -- kernels` times both side by side on the same inputs. Do not optimise this file.
 import { normalise, type Plan, type TensorPlan } from '../../src-main/core/descriptors/features.ts';
 import type { ReadoutScratch } from '../../src-main/core/learning/tensor-readout.ts';
+import type { NearestSearch, SearchCounter } from '../../src-main/core/learning/nearest-search.ts';
 
 /** The read-out of one environment (tensor-readout.ts readOne) with the plain loops of its first version. */
 export function referenceReadOne(P: Plan, T: TensorPlan, c: Float64Array, W: Float64Array, S: ReadoutScratch, y: Float64Array, at: number): void {
@@ -96,3 +97,261 @@ export function referencePowerSpectrum(P: Plan, c: Float64Array, out: Float64Arr
   }
   return normalise(out, at, at + P.n0);
 }
+
+// Margins as in nearest-search.ts.
+const MARGIN_RELATIVE = 1e-8;
+const MARGIN_ABSOLUTE = 1e-10;
+const RHO_ALLOWANCE = 1e-10;
+
+// The bounded nearest-representative search (nearest-search.ts) as first written: one query at a time, its
+// coordinates by four-way split dot products, the bounds one basis direction at a time.
+let scratchBound = new Float64Array(0);
+let scratchCoords = new Float64Array(0);
+let scratchCentred = new Float64Array(0);
+const scratchFirst = new Int32Array(4);
+const scratchFirstBound = new Float64Array(4);
+const scratchGroup = new Int32Array(4);
+const scratchSums = new Float64Array(4);
+
+/**
+ * Squared distances from the query row (offset oa in a) to four representative rows (offsets o0 … o3 in reps),
+ * each summed feature by feature in order exactly as nearestDistance does, with the same check every 16 features:
+ * stop once all four partial sums reach `best` (a stopped sum is then ≥ best and cannot win). Writes the four sums
+ * to `out`; returns the number of feature differences summed (for the counter).
+ */
+function sumFour(a: Float64Array, oa: number, reps: Float64Array, o0: number, o1: number, o2: number, o3: number, n0: number, best: number, out: Float64Array): number {
+  let s0 = 0;
+  let s1 = 0;
+  let s2 = 0;
+  let s3 = 0;
+  let f = 0;
+  while (f < n0 && (s0 < best || s1 < best || s2 < best || s3 < best)) {
+    const end = Math.min(n0, f + 16);
+    for (; f < end; f++) {
+      const x = a[oa + f];
+      const d0 = x - reps[o0 + f];
+      const d1 = x - reps[o1 + f];
+      const d2 = x - reps[o2 + f];
+      const d3 = x - reps[o3 + f];
+      s0 += d0 * d0;
+      s1 += d1 * d1;
+      s2 += d2 * d2;
+      s3 += d3 * d3;
+    }
+  }
+  out[0] = s0;
+  out[1] = s1;
+  out[2] = s2;
+  out[3] = s3;
+  return f;
+}
+
+/**
+ * Distance from row i of `a` to the nearest representative of `species` (Infinity if none): the same value, bit for
+ * bit, as nearestDistance(a, i, reps, repSpecies, species, n0).
+ */
+export function referenceSearchNearest(search: NearestSearch, a: Float64Array, i: number, species: number, counter?: SearchCounter): number {
+  const sp = search.species.get(species);
+  if (counter) counter.queries++;
+  if (!sp) return Infinity;
+  const { n0, reps } = search;
+  const { rows, d, mean, basis, coordsT, residual } = sp;
+  const m = rows.length;
+  if (scratchBound.length < m) scratchBound = new Float64Array(m);
+  if (scratchCoords.length < d) scratchCoords = new Float64Array(d);
+  if (scratchCentred.length < n0) scratchCentred = new Float64Array(n0);
+  const bound = scratchBound;
+  const q = scratchCoords;
+  const oa = i * n0;
+  // the centred query and |x − μ|², then its coordinates a = Qᵀ(x − μ) as dot products with four partial sums
+  // each (these only feed the bound, so their summation order is free; one chain would stall on add latency)
+  const xc = scratchCentred;
+  let xx = 0;
+  for (let f = 0; f < n0; f++) {
+    const c = a[oa + f] - mean[f];
+    xc[f] = c;
+    xx += c * c;
+  }
+  const n4 = n0 - (n0 % 4);
+  for (let j = 0; j < d; j++) {
+    const ob = j * n0;
+    let c0 = 0;
+    let c1 = 0;
+    let c2 = 0;
+    let c3 = 0;
+    let f = 0;
+    for (; f < n4; f += 4) {
+      c0 += basis[ob + f] * xc[f];
+      c1 += basis[ob + f + 1] * xc[f + 1];
+      c2 += basis[ob + f + 2] * xc[f + 2];
+      c3 += basis[ob + f + 3] * xc[f + 3];
+    }
+    for (; f < n0; f++) c0 += basis[ob + f] * xc[f];
+    q[j] = c0 + c1 + c2 + c3;
+  }
+  let qq = 0;
+  for (let j = 0; j < d; j++) qq += q[j] * q[j];
+  // ρ_x lies in [lo, hi]: the residual from |x − μ|² − |a|², widened for the cancellation in that difference
+  const t = xx - qq;
+  const allowance = RHO_ALLOWANCE * xx;
+  const lo = Math.sqrt(Math.max(0, t - allowance));
+  const hi = Math.sqrt(Math.max(0, t + allowance));
+  // bounds for all representatives, one basis direction at a time (again independent sums)
+  for (let k = 0; k < m; k++) {
+    const rk = residual[k];
+    const gap = rk > hi ? rk - hi : rk < lo ? lo - rk : 0;
+    bound[k] = gap * gap;
+  }
+  for (let j = 0; j < d; j++) {
+    const qj = q[j];
+    const oc = j * m;
+    for (let k = 0; k < m; k++) {
+      const g = qj - coordsT[oc + k];
+      bound[k] += g * g;
+    }
+  }
+  // Exact distances, four representatives at a time: each keeps its own sum in the same feature order as
+  // nearestDistance (so a winning value is bit-identical), and four independent sums do not stall on add latency.
+  // First the four smallest bounds (usually holding the winner), then every representative not ruled out.
+  const first = scratchFirst;
+  first.fill(-1);
+  const firstBound = scratchFirstBound;
+  firstBound.fill(Infinity);
+  for (let k = 0; k < m; k++) {
+    const b = bound[k];
+    if (!(b < firstBound[3])) continue;
+    let g = 3;
+    while (g > 0 && b < firstBound[g - 1]) {
+      firstBound[g] = firstBound[g - 1];
+      first[g] = first[g - 1];
+      g--;
+    }
+    firstBound[g] = b;
+    first[g] = k;
+  }
+  const group = scratchGroup;
+  const sums = scratchSums;
+  let filled = 0;
+  while (filled < 4 && first[filled] >= 0) {
+    group[filled] = first[filled];
+    filled++;
+  }
+  let best = Infinity;
+  let exact = 0;
+  let summed = 0;
+  let next = 0;
+  while (filled > 0) {
+    for (let g = filled; g < 4; g++) group[g] = group[0]; // a short group repeats a member (harmless)
+    exact += filled;
+    summed += sumFour(a, oa, reps, rows[group[0]] * n0, rows[group[1]] * n0, rows[group[2]] * n0, rows[group[3]] * n0, n0, best, sums);
+    for (let g = 0; g < 4; g++) if (sums[g] < best) best = sums[g];
+    // refill from the representatives not yet visited whose bound does not rule them out: skipped only when the
+    // bound beats the best by a margin far above round-off (a NaN bound is never skipped)
+    filled = 0;
+    while (filled < 4 && next < m) {
+      const k = next++;
+      if (k === first[0] || k === first[1] || k === first[2] || k === first[3]) continue;
+      if (bound[k] - MARGIN_RELATIVE * best - MARGIN_ABSOLUTE > best) continue;
+      group[filled++] = k;
+    }
+  }
+  if (counter) {
+    counter.exact += exact;
+    counter.summed += summed;
+  }
+  return Math.sqrt(best);
+}
+
+/** Σ_m2 H[μ][m2] c[B + m2] for every partner channel of one first channel: the pair loop of tensorFeatures. */
+function referenceContractPartners(
+  half: Float64Array, nM: number, width: number, c: Float64Array, partnerBase: Int32Array, from: number, to: number,
+  partner: Int32Array, weight: Float64Array, out: Float64Array, f: number, fStep: number, n: number,
+): void {
+  if (nM === 5) {
+    // λ = 2: five independent accumulators, one pass over each partner's coefficients.
+    for (let q = from; q < to; q++) {
+      const B = partnerBase[partner[q]];
+      let s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0;
+      for (let m = 0; m < width; m++) {
+        const b = c[B + m];
+        s0 += half[m] * b;
+        s1 += half[width + m] * b;
+        s2 += half[2 * width + m] * b;
+        s3 += half[3 * width + m] * b;
+        s4 += half[4 * width + m] * b;
+      }
+      const w = weight[q];
+      const at = f + (q - from) * fStep;
+      out[at] = w * s0;
+      out[at + n] = w * s1;
+      out[at + 2 * n] = w * s2;
+      out[at + 3 * n] = w * s3;
+      out[at + 4 * n] = w * s4;
+    }
+  } else {
+    for (let q = from; q < to; q++) {
+      const B = partnerBase[partner[q]];
+      let s0 = 0, s1 = 0, s2 = 0;
+      for (let m = 0; m < width; m++) {
+        const b = c[B + m];
+        s0 += half[m] * b;
+        s1 += half[width + m] * b;
+        s2 += half[2 * width + m] * b;
+      }
+      const w = weight[q];
+      const at = f + (q - from) * fStep;
+      out[at] = w * s0;
+      out[at + n] = w * s1;
+      out[at + 2 * n] = w * s2;
+    }
+  }
+}
+
+/**
+ * (Kept first version of features.ts tensorFeatures: one partner channel per pass.)
+ * λ > 0 block of one environment into out[(e·(2λ+1) + μ)·n + f]. For each pair block the half-coupling
+ * H = C·c runs over the factor of HIGHER degree (once per channel), so the pair loop runs over the shorter m
+ * axis: for (l, l') with l < l' the channel of degree l' is held and every channel of degree l is contracted.
+ */
+export function referenceTensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
+  const { half, tch } = P;
+  const nM = 2 * T.lambda + 1;
+  const n = T.n;
+  const base = e * nM * n;
+  for (const blk of T.blocks) {
+    const { l, l2, firstStart, ch2, weight, gatherStart, gatherIndex, gatherValue } = blk;
+    const width = 2 * l + 1;
+    const targets = nM * width;
+    const A0 = P.tensorBase[l];
+    if (l === l2) {
+      let f = base + blk.offset;
+      for (let c1 = 0; c1 < tch; c1++) {
+        // Half-coupled H[μ][m'] = Σ_m C[m, m', μ] c_{ch1, l m} (gathered: one register sum per target).
+        const A = A0[c1];
+        for (let t = 0; t < targets; t++) {
+          let h = 0;
+          for (let k = gatherStart[t]; k < gatherStart[t + 1]; k++) h += gatherValue[k] * c[A + gatherIndex[k]];
+          half[t] = h;
+        }
+        const from = firstStart[c1], to = firstStart[c1 + 1];
+        referenceContractPartners(half, nM, width, c, A0, from, to, ch2, weight, out, f, 1, n);
+        f += to - from;
+      }
+    } else {
+      // Hold the degree-l2 channel c2; contract all degree-l channels c1; feature f = offset + c1·tch + c2.
+      const B0 = P.tensorBase[l2];
+      const f0 = base + blk.offset;
+      for (let c2 = 0; c2 < tch; c2++) {
+        const B = B0[c2];
+        for (let t = 0; t < targets; t++) {
+          let h = 0;
+          for (let k = gatherStart[t]; k < gatherStart[t + 1]; k++) h += gatherValue[k] * c[B + gatherIndex[k]];
+          half[t] = h;
+        }
+        referenceContractPartners(half, nM, width, c, A0, 0, tch, P.allChannels, P.sqrt2, out, f0 + c2, tch, n);
+      }
+    }
+  }
+  normalise(out, base, base + nM * n);
+}
+

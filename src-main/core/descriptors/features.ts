@@ -369,8 +369,41 @@ function contractPartners(
   partner: Int32Array, weight: Float64Array, out: Float64Array, f: number, fStep: number, n: number,
 ): void {
   if (nM === 5) {
-    // λ = 2: five independent accumulators, one pass over each partner's coefficients.
-    for (let q = from; q < to; q++) {
+    // λ = 2: two partners per pass, ten independent sums sharing the loads of H (each sum in its m order, so the
+    // values are those of one partner at a time, bit for bit); then an odd last partner alone.
+    let q = from;
+    for (; q + 1 < to; q += 2) {
+      const B = partnerBase[partner[q]], C = partnerBase[partner[q + 1]];
+      let s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0;
+      let t0 = 0, t1 = 0, t2 = 0, t3 = 0, t4 = 0;
+      for (let m = 0; m < width; m++) {
+        const b = c[B + m], d = c[C + m];
+        const h0 = half[m], h1 = half[width + m], h2 = half[2 * width + m], h3 = half[3 * width + m], h4 = half[4 * width + m];
+        s0 += h0 * b;
+        s1 += h1 * b;
+        s2 += h2 * b;
+        s3 += h3 * b;
+        s4 += h4 * b;
+        t0 += h0 * d;
+        t1 += h1 * d;
+        t2 += h2 * d;
+        t3 += h3 * d;
+        t4 += h4 * d;
+      }
+      const w = weight[q], v = weight[q + 1];
+      const at = f + (q - from) * fStep, au = at + fStep;
+      out[at] = w * s0;
+      out[at + n] = w * s1;
+      out[at + 2 * n] = w * s2;
+      out[at + 3 * n] = w * s3;
+      out[at + 4 * n] = w * s4;
+      out[au] = v * t0;
+      out[au + n] = v * t1;
+      out[au + 2 * n] = v * t2;
+      out[au + 3 * n] = v * t3;
+      out[au + 4 * n] = v * t4;
+    }
+    for (; q < to; q++) {
       const B = partnerBase[partner[q]];
       let s0 = 0, s1 = 0, s2 = 0, s3 = 0, s4 = 0;
       for (let m = 0; m < width; m++) {
@@ -413,7 +446,7 @@ function contractPartners(
  * H = C·c runs over the factor of HIGHER degree (once per channel), so the pair loop runs over the shorter m
  * axis: for (l, l') with l < l' the channel of degree l' is held and every channel of degree l is contracted.
  */
-function tensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
+export function tensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
   const { half, tch } = P;
   const nM = 2 * T.lambda + 1;
   const n = T.n;

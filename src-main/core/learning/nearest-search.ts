@@ -216,10 +216,74 @@ export function cachedNearestSearch(owner: { n0: number; species: Int32Array; p:
 let scratchBound = new Float64Array(0);
 let scratchCoords = new Float64Array(0);
 let scratchCentred = new Float64Array(0);
+const scratchNorms = new Float64Array(4);
+const scratchRows = new Int32Array(4);
 const scratchFirst = new Int32Array(4);
 const scratchFirstBound = new Float64Array(4);
 const scratchGroup = new Int32Array(4);
 const scratchSums = new Float64Array(4);
+
+/**
+ * For the query rows rowsOf[0…count) of `a` (count ≤ 4): the centred rows x − μ, their squared norms xx[g] and
+ * their coordinates q[g·d + j] = Qᵀ(x − μ). Four queries and two basis vectors per pass (eight independent sums,
+ * six loads per eight products). These numbers only feed the bound, so their summation order is free. A group of
+ * fewer than four repeats its first row (computed and ignored).
+ */
+function project(sp: SpeciesSearch, n0: number, a: Float64Array, rowsOf: Int32Array, count: number, xc: Float64Array, q: Float64Array, xx: Float64Array): void {
+  const { d, mean, basis } = sp;
+  for (let g = 0; g < 4; g++) {
+    const oa = rowsOf[g < count ? g : 0] * n0;
+    const ox = g * n0;
+    let s = 0;
+    for (let f = 0; f < n0; f++) {
+      const v = a[oa + f] - mean[f];
+      xc[ox + f] = v;
+      s += v * v;
+    }
+    xx[g] = s;
+  }
+  const x1 = n0, x2 = 2 * n0, x3 = 3 * n0;
+  let j = 0;
+  for (; j + 1 < d; j += 2) {
+    const b0 = j * n0, b1 = b0 + n0;
+    let s00 = 0, s01 = 0, s10 = 0, s11 = 0, s20 = 0, s21 = 0, s30 = 0, s31 = 0;
+    for (let f = 0; f < n0; f++) {
+      const u = basis[b0 + f], v = basis[b1 + f];
+      const y0 = xc[f], y1 = xc[x1 + f], y2 = xc[x2 + f], y3 = xc[x3 + f];
+      s00 += u * y0;
+      s01 += v * y0;
+      s10 += u * y1;
+      s11 += v * y1;
+      s20 += u * y2;
+      s21 += v * y2;
+      s30 += u * y3;
+      s31 += v * y3;
+    }
+    q[j] = s00;
+    q[j + 1] = s01;
+    q[d + j] = s10;
+    q[d + j + 1] = s11;
+    q[2 * d + j] = s20;
+    q[2 * d + j + 1] = s21;
+    q[3 * d + j] = s30;
+    q[3 * d + j + 1] = s31;
+  }
+  if (j < d) {
+    const b0 = j * n0;
+    let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+    for (let f = 0; f < n0; f++) {
+      const u = basis[b0 + f];
+      s0 += u * xc[f];
+      s1 += u * xc[x1 + f];
+      s2 += u * xc[x2 + f];
+      s3 += u * xc[x3 + f];
+    }
+    q[j] = s0;
+    q[d + j] = s1;
+    q[2 * d + j] = s2;
+    q[3 * d + j] = s3;
+  }
+}
 
 /**
  * Squared distances from the query row (offset oa in a) to four representative rows (offsets o0 … o3 in reps),
@@ -255,63 +319,38 @@ function sumFour(a: Float64Array, oa: number, reps: Float64Array, o0: number, o1
 }
 
 /**
- * Distance from row i of `a` to the nearest representative of `species` (Infinity if none): the same value, bit for
- * bit, as nearestDistance(a, i, reps, repSpecies, species, n0).
+ * The exact nearest distance of the query row at offset oa of `a`, given its coordinates q[qo…qo+d) and its
+ * squared centred norm xx (from project).
  */
-export function searchNearest(search: NearestSearch, a: Float64Array, i: number, species: number, counter?: SearchCounter): number {
-  const sp = search.species.get(species);
-  if (counter) counter.queries++;
-  if (!sp) return Infinity;
+function nearestOf(search: NearestSearch, sp: SpeciesSearch, a: Float64Array, oa: number, q: Float64Array, qo: number, xx: number, counter?: SearchCounter): number {
   const { n0, reps } = search;
-  const { rows, d, mean, basis, coordsT, residual } = sp;
+  const { rows, d, coordsT, residual } = sp;
   const m = rows.length;
-  if (scratchBound.length < m) scratchBound = new Float64Array(m);
-  if (scratchCoords.length < d) scratchCoords = new Float64Array(d);
-  if (scratchCentred.length < n0) scratchCentred = new Float64Array(n0);
   const bound = scratchBound;
-  const q = scratchCoords;
-  const oa = i * n0;
-  // the centred query and |x − μ|², then its coordinates a = Qᵀ(x − μ) as dot products with four partial sums
-  // each (these only feed the bound, so their summation order is free; one chain would stall on add latency)
-  const xc = scratchCentred;
-  let xx = 0;
-  for (let f = 0; f < n0; f++) {
-    const c = a[oa + f] - mean[f];
-    xc[f] = c;
-    xx += c * c;
-  }
-  const n4 = n0 - (n0 % 4);
-  for (let j = 0; j < d; j++) {
-    const ob = j * n0;
-    let c0 = 0;
-    let c1 = 0;
-    let c2 = 0;
-    let c3 = 0;
-    let f = 0;
-    for (; f < n4; f += 4) {
-      c0 += basis[ob + f] * xc[f];
-      c1 += basis[ob + f + 1] * xc[f + 1];
-      c2 += basis[ob + f + 2] * xc[f + 2];
-      c3 += basis[ob + f + 3] * xc[f + 3];
-    }
-    for (; f < n0; f++) c0 += basis[ob + f] * xc[f];
-    q[j] = c0 + c1 + c2 + c3;
-  }
   let qq = 0;
-  for (let j = 0; j < d; j++) qq += q[j] * q[j];
+  for (let j = 0; j < d; j++) qq += q[qo + j] * q[qo + j];
   // ρ_x lies in [lo, hi]: the residual from |x − μ|² − |a|², widened for the cancellation in that difference
   const t = xx - qq;
   const allowance = RHO_ALLOWANCE * xx;
   const lo = Math.sqrt(Math.max(0, t - allowance));
   const hi = Math.sqrt(Math.max(0, t + allowance));
-  // bounds for all representatives, one basis direction at a time (again independent sums)
+  // bounds for all representatives, four basis directions per pass (again free summation order)
   for (let k = 0; k < m; k++) {
     const rk = residual[k];
     const gap = rk > hi ? rk - hi : rk < lo ? lo - rk : 0;
     bound[k] = gap * gap;
   }
-  for (let j = 0; j < d; j++) {
-    const qj = q[j];
+  let j = 0;
+  for (; j + 3 < d; j += 4) {
+    const q0 = q[qo + j], q1 = q[qo + j + 1], q2 = q[qo + j + 2], q3 = q[qo + j + 3];
+    const o0 = j * m, o1 = o0 + m, o2 = o1 + m, o3 = o2 + m;
+    for (let k = 0; k < m; k++) {
+      const g0 = q0 - coordsT[o0 + k], g1 = q1 - coordsT[o1 + k], g2 = q2 - coordsT[o2 + k], g3 = q3 - coordsT[o3 + k];
+      bound[k] += g0 * g0 + g1 * g1 + (g2 * g2 + g3 * g3);
+    }
+  }
+  for (; j < d; j++) {
+    const qj = q[qo + j];
     const oc = j * m;
     for (let k = 0; k < m; k++) {
       const g = qj - coordsT[oc + k];
@@ -368,4 +407,52 @@ export function searchNearest(search: NearestSearch, a: Float64Array, i: number,
     counter.summed += summed;
   }
   return Math.sqrt(best);
+}
+
+/**
+ * Distance from row i of `a` to the nearest representative of `species` (Infinity if none): the same value, bit for
+ * bit, as nearestDistance(a, i, reps, repSpecies, species, n0).
+ */
+export function searchNearest(search: NearestSearch, a: Float64Array, i: number, species: number, counter?: SearchCounter): number {
+  const sp = search.species.get(species);
+  if (counter) counter.queries++;
+  if (!sp) return Infinity;
+  ensureScratch(search, sp);
+  scratchRows[0] = i;
+  project(sp, search.n0, a, scratchRows, 1, scratchCentred, scratchCoords, scratchNorms);
+  return nearestOf(search, sp, a, i * search.n0, scratchCoords, 0, scratchNorms[0], counter);
+}
+
+/**
+ * searchNearest for every row e < count of `a`, whose species is species[e], into out[e]: the same numbers, with
+ * the coordinates of four queries of one species computed in one pass (project).
+ */
+export function searchNearestAll(search: NearestSearch, a: Float64Array, count: number, species: Int32Array, out: Float64Array, counter?: SearchCounter): void {
+  const n0 = search.n0;
+  for (let e = 0; e < count; e++) if (!search.species.has(species[e])) out[e] = Infinity;
+  if (counter) counter.queries += count;
+  for (const [s, sp] of search.species) {
+    ensureScratch(search, sp);
+    let filled = 0;
+    const flush = () => {
+      project(sp, n0, a, scratchRows, filled, scratchCentred, scratchCoords, scratchNorms);
+      for (let g = 0; g < filled; g++) {
+        const e = scratchRows[g];
+        out[e] = nearestOf(search, sp, a, e * n0, scratchCoords, g * sp.d, scratchNorms[g], counter);
+      }
+      filled = 0;
+    };
+    for (let e = 0; e < count; e++) {
+      if (species[e] !== s) continue;
+      scratchRows[filled++] = e;
+      if (filled === 4) flush();
+    }
+    if (filled > 0) flush();
+  }
+}
+
+function ensureScratch(search: NearestSearch, sp: SpeciesSearch): void {
+  if (scratchBound.length < sp.rows.length) scratchBound = new Float64Array(sp.rows.length);
+  if (scratchCoords.length < 4 * sp.d) scratchCoords = new Float64Array(4 * sp.d);
+  if (scratchCentred.length < 4 * search.n0) scratchCentred = new Float64Array(4 * search.n0);
 }

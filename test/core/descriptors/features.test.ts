@@ -5,8 +5,8 @@ import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { makeFrame, type Frame } from '../../../src-main/core/geometry/frame.ts';
 import type { FeatureSettings } from '../../../src-main/core/descriptors/feature-types.ts';
-import { computeFeatures, concatenateFeatures, describeFeatures, featureCount, featurePlan, forEachEnvironment, powerSpectrum, tensorLimits } from '../../../src-main/core/descriptors/features.ts';
-import { referencePowerSpectrum } from '../../helpers/reference-kernels.ts';
+import { computeFeatures, concatenateFeatures, describeFeatures, featureCount, featurePlan, forEachEnvironment, powerSpectrum, tensorFeatures, tensorLimits } from '../../../src-main/core/descriptors/features.ts';
+import { referencePowerSpectrum, referenceTensorFeatures } from '../../helpers/reference-kernels.ts';
 import { makeDensityExpander } from '../../../src-main/core/descriptors/density.ts';
 import { coupleReal } from '../../../src-main/core/descriptors/clebsch-gordan.ts';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
@@ -326,5 +326,33 @@ describe('the blocked power-spectrum kernel', () => {
         expect(Array.from(fast)).toEqual(Array.from(plain));
       }
     });
+  }
+});
+
+describe('the blocked λ > 0 coupling kernel', () => {
+  // Two partner channels per pass for λ = 2; the kept one-partner loop (test/helpers/reference-kernels.ts) is the
+  // reference, and with every sum in its order the blocks must be the very same numbers (odd and even partner counts).
+  const cases: [string, FeatureSettings][] = [
+    ['2 species, nmax 8, lmax 6', { cutoff: 4.5, cutoffWidth: 0.5, sigma: 0.4, nmax: 8, lmax: 6, species: ['O', 'H'], centres: ['O', 'H'] }],
+    ['3 species, nmax 3, lmax 5, lmaxTensor 5 (9 channels)', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 3, lmax: 5, lmaxTensor: 5, species: ['O', 'H', 'C'], centres: ['O'] }],
+  ];
+  for (const [name, s] of cases) {
+    for (const lambda of [1, 2] as const) {
+      it(`λ = ${lambda}, ${name}: bit-identical to the one-partner loop`, () => {
+        const P = featurePlan(s, [lambda]);
+        const T = P.tensors[0];
+        const rng = makeRng(41 + lambda);
+        const size = (2 * lambda + 1) * T.n;
+        const fast = new Float64Array(2 * size);
+        const plain = new Float64Array(2 * size);
+        for (let trial = 0; trial < 10; trial++) {
+          const c = Float64Array.from({ length: P.expander.size }, () => (rng.uniform() < 0.2 ? 0 : rng.normal()));
+          tensorFeatures(P, T, c, fast, 1);
+          referenceTensorFeatures(P, T, c, plain, 1);
+          expect(Array.from(fast)).toEqual(Array.from(plain));
+          expect(fast.subarray(size).some((v) => v !== 0)).toBe(true);
+        }
+      });
+    }
   }
 });

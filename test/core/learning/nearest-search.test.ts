@@ -1,11 +1,11 @@
 // The bounded nearest-representative search (core/learning/nearest-search.ts) against the plain scan it replaces
-// (sparse.ts nearestDistance): the distances must be the very same numbers (toBe), on random, clustered and
-// degenerate sets of unit-norm rows. The plain scan is the reference; no outside values are involved.
+// (sparse.ts nearestDistance), one query at a time and batched (searchNearestAll): the distances must be the very
+// same numbers (toBe), on random, clustered and degenerate sets of unit-norm rows. The plain scan is the reference; no outside values are involved.
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { makeRng, type Rng } from '../../../src-main/core/numerics/random.ts';
 import { nearestDistance } from '../../../src-main/core/learning/sparse.ts';
-import { cachedNearestSearch, prepareNearestSearch, searchNearest, SEARCH_BASIS, type SearchCounter } from '../../../src-main/core/learning/nearest-search.ts';
+import { cachedNearestSearch, prepareNearestSearch, searchNearest, searchNearestAll, SEARCH_BASIS, type SearchCounter } from '../../../src-main/core/learning/nearest-search.ts';
 
 /** Scales row k of `rows` (length n0) to unit norm (a zero row becomes the first unit vector). */
 function normaliseRow(rows: Float64Array, k: number, n0: number): void {
@@ -73,6 +73,15 @@ function expectSameAsPlain(c: Case, basis: number, steps: number): void {
       const plain = nearestDistance(c.queries, q, c.reps, c.species, s, c.n0);
       expect(searchNearest(search, c.queries, q, s)).toBe(plain);
     }
+  }
+  // the batched entry (four queries of a species per projection pass): species assigned in turn, so groups of
+  // every size 1…4 occur, one species has no representatives, and a shorter count leaves rows unread
+  const ids = [...speciesIds];
+  for (const count of [c.queryCount, 7]) {
+    const species = Int32Array.from({ length: count }, (_, q) => ids[(q * 5 + 1) % ids.length]);
+    const out = new Float64Array(count).fill(-1);
+    searchNearestAll(search, c.queries, count, species, out);
+    for (let q = 0; q < count; q++) expect(out[q]).toBe(nearestDistance(c.queries, q, c.reps, c.species, species[q], c.n0));
   }
 }
 
