@@ -10,14 +10,6 @@ import { sessionOf } from './session-of.mjs';
 
 const KEEP = process.env.POLARWEAVE_UI_SHOTS;
 
-/** The app session of this page's tab on the host (one per tab: src-main/host/sessions.ts). */
-async function sessionOf(page, host) {
-  const id = await page.evaluate(() => sessionStorage.getItem('pw-session'));
-  const service = host.session(id);
-  assert.ok(service, `the host has no session for this tab (${id})`);
-  return service;
-}
-
 async function go(page, view) {
   await page.click(`nav [data-view=${view}]`);
   await page.waitForSelector(`main[data-current-view=${view}]`);
