@@ -3,7 +3,7 @@
 // output text of the batch in frame order, with the applicability figures the caller summarises.
 import { CancelledError, InputError, ModelError } from '../../core/errors.ts';
 import type { Frame } from '../../core/geometry/frame.ts';
-import { modelPredictor, type Model } from '../../core/learning/model.ts';
+import { modelPredictor, type Model, type Predictor } from '../../core/learning/model.ts';
 import { frameFromBytes } from '../../io/extxyz.ts';
 import type { FrameStamp, TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import { predictFrameText, type PredictFormat } from './predict-frame.ts';
@@ -70,6 +70,14 @@ export function parseFrameBytes(file: string, index: number, line: number, bytes
 
 export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): Promise<PredictChunkOutput> {
   const m = await modelFor(input.modelPath, input.modelSha256, input.model);
+  return predictFrames(m.model, m.predict, input, ctx);
+}
+
+/**
+ * The work of one 'predict-chunk' batch with a model at hand: in a worker (predictChunk), or in the calling
+ * thread for a selection too small to be worth starting a worker (stream-predict.ts), with the same code.
+ */
+export function predictFrames(model: Model, predict: Predictor, input: Omit<PredictChunkInput, 'model' | 'modelPath' | 'modelSha256'>, ctx: Pick<TaskContext, 'signal' | 'progress'>): PredictChunkOutput {
   const t0 = performance.now();
   const out: PredictChunkOutput = { text: '', index: [], outside: [], atomsOutside: [], maxDistance: [], set: [], computeMs: 0 };
   const parts: string[] = [];
@@ -78,7 +86,7 @@ export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): 
     if (ctx.signal.aborted) throw new CancelledError();
     const f = input.frames[j];
     const frame = parseFrameBytes(input.file, f.index, f.line, f.bytes);
-    const r = predictFrameText(m.model, m.predict, frame, f.index, input.format, input.stamp, input.csvOptions);
+    const r = predictFrameText(model, predict, frame, f.index, input.format, input.stamp, input.csvOptions);
     parts.push(r.text);
     out.index.push(f.index);
     out.outside.push(r.outside);

@@ -24,7 +24,7 @@ import { readError } from '../../io/whole-file.ts';
 import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import type { PredictFormat } from './predict-frame.ts';
-import type { PredictChunkInput, PredictChunkOutput } from './predict-tasks.ts';
+import { predictFrames, type PredictChunkInput, type PredictChunkOutput } from './predict-tasks.ts';
 import { csvLayoutOf, firstFrameOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
 import { sharedModel } from './shared-model.ts';
 import { JobRunner, type WorkerFactory } from '../../jobs/runner.ts';
@@ -38,6 +38,13 @@ export const CHECKPOINT_FORMAT = 'polarweave-predict-checkpoint';
  * come often (see bench/trajectory.bench.ts for the measured effect of batch size and worker reuse).
  */
 export const DEFAULT_BATCH_SECONDS = 5;
+
+/**
+ * A whole selection of at most this many bytes (about ten 384-atom frames, well under a second of compute) that
+ * fits in the first batch is predicted in the calling thread: starting a worker, loading the code again there
+ * and warming it up would cost more than the work (bench/startup.bench.ts). Same code, same bytes out.
+ */
+export const IN_PROCESS_BYTES = 256 << 10;
 
 export interface StreamProgress {
   /** Frames written so far (including those of an earlier, interrupted run). */
@@ -76,6 +83,8 @@ export interface StreamPredictOptions {
   reuseWorkers?: boolean;
   /** Hand the workers this process's model in shared memory (default true); false: each reads the file (for comparison). */
   shareModel?: boolean;
+  /** Predict a selection of at most this many bytes that fits in one batch in this thread (default IN_PROCESS_BYTES; 0: always in workers). */
+  inProcessBytes?: number;
   signal?: AbortSignal;
   onProgress?: (p: StreamProgress) => void;
   /** Worker factory (default: tsx-loaded app/predict/predict-worker.ts). */
@@ -373,7 +382,13 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       }
       if (signal?.aborted) throw new CancelledError();
     }
-    if (batch.length > 0) submit(batch, pos);
+    if (batch.length > 0 && seq === 0 && batchBytes <= (opts.inProcessBytes ?? IN_PROCESS_BYTES)) {
+      // the whole selection in one small batch: here, with this process's model and predictor
+      const input = { file: opts.input, format, stamp, frames: batch, csvOptions };
+      const promise = Promise.resolve().then(() => predictFrames(model, loaded.predict, input, { signal: signal ?? new AbortController().signal, progress: () => {} }));
+      promise.catch(() => undefined); // awaited by drainOne
+      inFlight.set(seq++, { promise, next: pos, frames: batch.length });
+    } else if (batch.length > 0) submit(batch, pos);
     while (inFlight.size > 0) await drainOne();
     if (signal?.aborted) throw new CancelledError();
 

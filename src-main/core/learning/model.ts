@@ -23,7 +23,7 @@ import {
 } from './kernels.ts';
 import type { Applicability, FramePrediction, IsolatedPrediction, ModelSettings, Route, TensorKind, TensorPrediction, TrainRequest, TuneGrid, WorkHooks } from './model-types.ts';
 import { makeRng, shuffleInPlace } from '../numerics/random.ts';
-import { cachedNearestSearch, searchNearestAll } from './nearest-search.ts';
+import { nearestAllOf } from './nearest-search.ts';
 import { tuneCombinations, tuneSettingsWith, type TuneResult } from './tuning.ts';
 import { DEFAULT_REGULARISATION_GRID, fitRidge, foldsOf, heldOutRows, posteriorVariance, primalWeights, type Design, type Posterior } from './regression.ts';
 import { calibratePart, type Calibration, type PartCalibration } from './calibration.ts';
@@ -1059,10 +1059,10 @@ function applicabilityOf(model: Model, frame: Frame, fe: EnvironmentFeatures, pa
   let maxDistance = 0;
   let beyond = 0;
   const m = a.species.length;
-  // bounded search, prepared once per model object; bit-identical to sparse.ts nearestDistance (nearest-search.ts)
-  const search = cachedNearestSearch(a);
+  // bounded search, prepared once per model object when the job is large enough to repay it; bit-identical to
+  // sparse.ts nearestDistance (nearest-search.ts)
   const nearest = new Float64Array(fe.count);
-  searchNearestAll(search, fe.scalar, fe.count, fe.centreSpecies, nearest);
+  nearestAllOf(a, fe.scalar, fe.count, fe.centreSpecies, nearest);
   for (let e = 0; e < fe.count; e++) {
     let best = nearest[e];
     if (!Number.isFinite(best)) best = 2;

@@ -11,6 +11,8 @@
 // a margin far above its round-off. The prepared search is kept outside the stored model (a WeakMap keyed on the
 // representatives' owner object), so the saved model stays a plain structured-clone-friendly object.
 
+import { nearestDistance } from './sparse.ts';
+
 /**
  * Basis size per species, chosen by measurement (bench/applicability.bench.ts: water-like frames, nmax 8, lmax 6,
  * n0 = 952, 256 representatives per species). Each basis vector costs a query n0 multiply-adds and shrinks the
@@ -210,6 +212,31 @@ export function cachedNearestSearch(owner: { n0: number; species: Int32Array; p:
     cache.set(owner, s);
   }
   return s;
+}
+
+/**
+ * Queries an owner answers by the plain scan before its search is prepared. Preparing costs about as much as
+ * 1,000–2,000 plain queries (512 representatives, n0 = 952: 170–430 ms against 0.2–0.3 ms per plain query, cold and
+ * warm, load ≈ 10 on 2 cores), so a small job (one 384-atom frame) never prepares, and a long one pays at most this
+ * many slower queries first. Either way the distances are the same numbers.
+ */
+export const PLAIN_QUERIES_BEFORE_PREPARING = 2048;
+const plainQueries = new WeakMap<object, number>();
+
+/**
+ * searchNearestAll over the representatives of `owner`: with its prepared search (cachedNearestSearch) once the
+ * owner has answered PLAIN_QUERIES_BEFORE_PREPARING queries (or was prepared already), before that by the plain
+ * scan (sparse.ts nearestDistance), whose numbers the search reproduces bit for bit.
+ */
+export function nearestAllOf(owner: { n0: number; species: Int32Array; p: Float64Array }, a: Float64Array, count: number, species: Int32Array, out: Float64Array): void {
+  const asked = plainQueries.get(owner) ?? 0;
+  const prepared = cache.get(owner);
+  if (asked + count > PLAIN_QUERIES_BEFORE_PREPARING || (prepared && prepared.reps === owner.p && prepared.n0 === owner.n0)) {
+    searchNearestAll(cachedNearestSearch(owner), a, count, species, out);
+    return;
+  }
+  plainQueries.set(owner, asked + count);
+  for (let e = 0; e < count; e++) out[e] = nearestDistance(a, e, owner.p, owner.species, species[e], owner.n0);
 }
 
 // scratch buffers reused between queries (prediction is single-threaded per worker)

@@ -10,6 +10,7 @@ import { parseExtxyz } from '../../../src-main/io/extxyz.ts';
 import { saveModel } from '../../../src-main/io/model-file.ts';
 import { checkpointPaths, streamPredict, type StreamPredictOptions } from '../../../src-main/app/predict/stream-predict.ts';
 import { predictionCsvOptions } from '../../../src-main/io/prediction/prediction-format.ts';
+import { tsWorkerFactory } from '../../../src-main/jobs/spawn-ts.ts';
 import { jitteredTrajectory, smallModel, trajectoryText } from '../../helpers/trajectory.ts';
 import type { Frame } from '../../../src-main/core/geometry/frame.ts';
 import type { Model } from '../../../src-main/core/learning/model.ts';
@@ -99,6 +100,23 @@ describe('streamPredict', () => {
     const r = await run({ modelPath: modelPath(), input: input(), output: reused, range: { stop: 9 }, threads: 2, batchFrames: 1 });
     expect(r.frames).toBe(9);
     expect(readFileSync(reused, 'utf8')).toBe(readFileSync(fresh, 'utf8'));
+  }, 60_000);
+
+  it('predicts a selection of one small batch in this thread, with the bytes workers give', async () => {
+    let started = 0;
+    const factory = tsWorkerFactory(new URL('../../../src-main/app/predict/predict-worker.ts', import.meta.url));
+    const spawn = () => (started++, factory());
+    for (const [name, range] of [['one.csv', { start: 3, stop: 4 }], ['three.extxyz', { start: 5, stop: 8 }]] as const) {
+      const here = join(dir, `here-${name}`);
+      const there = join(dir, `there-${name}`);
+      const r = await run({ modelPath: modelPath(), input: input(), output: here, range, threads: 2, spawn });
+      expect(started).toBe(0);
+      await run({ modelPath: modelPath(), input: input(), output: there, range, threads: 2, spawn, inProcessBytes: 0 });
+      expect(started).toBeGreaterThan(0);
+      started = 0;
+      expect(r.frames).toBe(range.stop - range.start);
+      expect(readFileSync(here, 'utf8')).toBe(readFileSync(there, 'utf8'));
+    }
   }, 60_000);
 
   it('writes extended XYZ frames stamped with frame index and model checksum', async () => {

@@ -5,7 +5,7 @@ import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { makeRng, type Rng } from '../../../src-main/core/numerics/random.ts';
 import { nearestDistance } from '../../../src-main/core/learning/sparse.ts';
-import { cachedNearestSearch, prepareNearestSearch, searchNearest, searchNearestAll, SEARCH_BASIS, type SearchCounter } from '../../../src-main/core/learning/nearest-search.ts';
+import { cachedNearestSearch, nearestAllOf, PLAIN_QUERIES_BEFORE_PREPARING, prepareNearestSearch, searchNearest, searchNearestAll, SEARCH_BASIS, type SearchCounter } from '../../../src-main/core/learning/nearest-search.ts';
 
 /** Scales row k of `rows` (length n0) to unit norm (a zero row becomes the first unit vector). */
 function normaliseRow(rows: Float64Array, k: number, n0: number): void {
@@ -165,6 +165,21 @@ describe('bounded nearest-representative search', () => {
     }
     // the point of the bound: far fewer exact distances than representatives (measured ≈ 10–30 of 256)
     expect(counter.exact / counter.queries).toBeLessThan(128);
+  });
+
+  it('answers a small job by the plain scan and a longer one through the prepared search, with the same numbers throughout', () => {
+    const rng = makeRng(29);
+    const c = makeCase(rng, 40, 60, 2, true, 0.1, 3);
+    const owner = { n0: c.n0, species: c.species, p: c.reps };
+    const species = Int32Array.from({ length: c.queryCount }, (_, q) => q % 3); // species 2 has no representatives
+    const want = Array.from(species, (s, q) => nearestDistance(c.queries, q, c.reps, c.species, s, c.n0));
+    const calls = Math.ceil(PLAIN_QUERIES_BEFORE_PREPARING / c.queryCount) + 2; // crosses the switch to the prepared search
+    for (let k = 0; k < calls; k++) {
+      const out = new Float64Array(c.queryCount).fill(-1);
+      nearestAllOf(owner, c.queries, c.queryCount, species, out);
+      expect(Array.from(out)).toEqual(want);
+      for (let q = 0; q < c.queryCount; q++) expect(Object.is(out[q], want[q])).toBe(true);
+    }
   });
 
   it('prepares once per owner object and again for a structured clone, with the same results', () => {
