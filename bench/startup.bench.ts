@@ -4,10 +4,13 @@
 //   1. `polarweave --help`: bin/polarweave.mjs printing the stored help text, the pre-built program, the sources (and a
 //      bare `node -e ''` for the floor);
 //   2. predicting one frame end to end (read the model, one worker thread, write the CSV): a 384-atom water-like cell
-//      with a model trained here on 5 such frames at cutoff 4.5 Å, 8 radial functions, angular order 6.
-// Figures only, never asserted. Env: PW_BENCH_STARTUP_RUNS (5).
+//      with a model trained here on 5 such frames at cutoff 4.5 Å, 8 radial functions, angular order 6;
+//   3. with PW_BENCH_BASELINE=<git ref> (e.g. the commit before a start-up change): the same one-frame predict (default
+//      threads) with that ref's pre-built program beside this tree's, alternating, with the ratio and whether the two
+//      CSV files are byte-identical.
+// Figures only, never asserted. Env: PW_BENCH_STARTUP_RUNS (5), PW_BENCH_BASELINE.
 import { execFileSync } from 'node:child_process';
-import { copyFileSync, mkdirSync, mkdtempSync, rmSync, statSync, symlinkSync, writeFileSync } from 'node:fs';
+import { copyFileSync, mkdirSync, mkdtempSync, readFileSync, rmSync, statSync, symlinkSync, writeFileSync } from 'node:fs';
 import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
@@ -32,6 +35,30 @@ function sideBySide(ways: Record<string, () => number>): Record<string, number> 
   const times: Record<string, number[]> = Object.fromEntries(Object.keys(ways).map((k) => [k, []]));
   for (let r = 0; r < RUNS; r++) for (const [k, f] of Object.entries(ways)) times[k].push(f());
   return Object.fromEntries(Object.entries(times).map(([k, v]) => [k, median(v)]));
+}
+
+/** Section 3: one-frame predict (default threads) with the pre-built program of git ref `ref` beside this tree's. */
+function againstBaseline(ref: string, dir: string, bundled: string, modelPath: string, input: string): void {
+  const here = new URL('.', root).pathname;
+  const base = join(dir, 'baseline');
+  let baseRun: string;
+  try {
+    execFileSync('sh', ['-c', `mkdir -p "${base}" && git -C "${here}" archive "${ref}" src-main scripts package.json | tar -x -C "${base}"`]);
+    symlinkSync(join(here, 'node_modules'), join(base, 'node_modules'));
+    const out = join(base, 'out', 'cli');
+    execFileSync(process.execPath, [join(base, 'scripts', 'build-cli.mjs'), '--outdir', out], { stdio: 'ignore' });
+    baseRun = join(out, 'run.mjs');
+    writeFileSync(baseRun, "const { main } = await import('./main.mjs');\nawait main();\n");
+  } catch (error) {
+    console.log(`3. baseline ${ref}: could not extract or build it (${String(error).split('\n')[0]})`);
+    return;
+  }
+  const csv = (name: string) => join(dir, `${name}.csv`);
+  const way = (program: string, name: string) => () => wallMs([program, 'predict', modelPath, input, '--restart', '-o', csv(name)]);
+  const t = sideBySide({ baseline: way(baseRun, 'baseline'), now: way(bundled, 'now') });
+  const same = readFileSync(csv('baseline')).equals(readFileSync(csv('now')));
+  console.log(`3. predict one 384-atom frame, default threads, pre-built programs, median of ${RUNS} alternating runs (load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}): ` +
+    `baseline ${ref} ${t.baseline.toFixed(0)} ms, this tree ${t.now.toFixed(0)} ms (×${(t.baseline / t.now).toFixed(2)} faster); CSV output ${same ? 'byte-identical' : 'DIFFERS'}`);
 }
 
 export async function run(): Promise<void> {
@@ -73,6 +100,9 @@ export async function run(): Promise<void> {
     });
     console.log(`2. predict one 384-atom frame (1 worker thread, model file ${(statSync(modelPath).size / 1e6).toFixed(1)} MB): ` +
       `pre-built ${one.bundled.toFixed(0)} ms, sources through tsx ${one.source.toFixed(0)} ms (×${(one.source / one.bundled).toFixed(1)} faster)`);
+    const baseline = process.env.PW_BENCH_BASELINE;
+    if (baseline) againstBaseline(baseline, dir, bundled, modelPath, input);
+    else console.log('3. (set PW_BENCH_BASELINE=<git ref> to time one-frame predict against that ref\'s pre-built program)');
   } finally {
     rmSync(dir, { recursive: true, force: true });
   }

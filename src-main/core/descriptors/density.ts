@@ -13,7 +13,7 @@
 //   d, on a uniform grid of spacing ≤ σ/32, and stored as cubic Hermite pieces; the hot loop only evaluates
 //   cubics. Hermite error ~ h⁴ f⁗/384 ≈ 1e-9 relative at that spacing.
 import { gaussLegendre } from '../numerics/quadrature.ts';
-import { radialBasis } from './radial-basis.ts';
+import { radialBasis, type RadialBasis } from './radial-basis.ts';
 import { scaledSphericalBesselI } from './spherical-bessel.ts';
 import { realSphericalHarmonics } from './harmonics.ts';
 
@@ -63,9 +63,11 @@ export function radialIntegral(s: RadialSettings, d: number, value: Float64Array
   if (!(hi > lo)) return;
   const panels = Math.max(1, Math.ceil((hi - lo) / sigma));
   const { nodes, weights } = panelRule(lo, hi, panels, 20);
-  const basis = radialBasis(nmax, cutoff);
+  const basis = basisFor(nmax, cutoff);
   const R = new Float64Array(nmax);
   const sb = new Float64Array(lmax + 2);
+  // the factor of the derivative that depends on l only (the same expression per (n, l) as before, computed once per l)
+  const dl = new Float64Array(L1);
   const inv2s2 = 1 / (2 * sigma * sigma);
   const invs2 = 1 / (sigma * sigma);
   for (let k = 0; k < nodes.length; k++) {
@@ -74,19 +76,28 @@ export function radialIntegral(s: RadialSettings, d: number, value: Float64Array
     const g = weights[k] * r * r * Math.exp(-(r - d) * (r - d) * inv2s2);
     if (g === 0) continue;
     scaledSphericalBesselI(lmax + 1, r * d * invs2, sb);
-    for (let n = 0; n < nmax; n++) {
-      const gr = g * R[n];
+    if (derivative) {
+      // d/dd [e^{−(r²+d²)/2σ²} i_l(x)] = e^{−(r²+d²)/2σ²} [−(d/σ²) i_l + (r/σ²) i_l'(x)],
+      // i_l' = (l i_{l−1} + (l+1) i_{l+1})/(2l+1)  (DLMF 10.51.5); i_0' = i_1.
       for (let l = 0; l <= lmax; l++) {
-        value[n * L1 + l] += gr * sb[l];
-        if (derivative) {
-          // d/dd [e^{−(r²+d²)/2σ²} i_l(x)] = e^{−(r²+d²)/2σ²} [−(d/σ²) i_l + (r/σ²) i_l'(x)],
-          // i_l' = (l i_{l−1} + (l+1) i_{l+1})/(2l+1)  (DLMF 10.51.5); i_0' = i_1.
-          const ds = l === 0 ? sb[1] : (l * sb[l - 1] + (l + 1) * sb[l + 1]) / (2 * l + 1);
-          derivative[n * L1 + l] += gr * (-d * invs2 * sb[l] + r * invs2 * ds);
-        }
+        const ds = l === 0 ? sb[1] : (l * sb[l - 1] + (l + 1) * sb[l + 1]) / (2 * l + 1);
+        dl[l] = -d * invs2 * sb[l] + r * invs2 * ds;
       }
     }
+    for (let n = 0; n < nmax; n++) {
+      const gr = g * R[n];
+      const o = n * L1;
+      for (let l = 0; l <= lmax; l++) value[o + l] += gr * sb[l];
+      if (derivative) for (let l = 0; l <= lmax; l++) derivative[o + l] += gr * dl[l];
+    }
   }
+}
+
+let lastBasis: RadialBasis | null = null;
+/** radialBasis(nmax, cutoff), kept from the previous call (a table asks for the same basis at every grid point). */
+function basisFor(nmax: number, cutoff: number): RadialBasis {
+  if (lastBasis?.nmax !== nmax || lastBasis.cutoff !== cutoff) lastBasis = radialBasis(nmax, cutoff);
+  return lastBasis;
 }
 
 /** Cubic Hermite pieces of I_nl(d) on [0, r_c]: coefficients[(k·4 + p)·NL + nl] of t^p on interval k. */
