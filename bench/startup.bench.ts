@@ -3,11 +3,11 @@
 // runs so that both see the same machine load. Prints the median wall time of
 //   1. `polarweave --help`: bin/polarweave.mjs printing the stored help text, the pre-built program, the sources (and a
 //      bare `node -e ''` for the floor);
-//   2. predicting one frame end to end (read the model, one worker thread, write the CSV): a 384-atom water-like cell
+//   2. predicting one frame end to end (read the model, predict — in process: one frame is one small batch — write the CSV): a 384-atom water-like cell
 //      with a model trained here on 5 such frames at cutoff 4.5 Å, 8 radial functions, angular order 6;
 //   3. with PW_BENCH_BASELINE=<git ref> (e.g. the commit before a start-up change): the same one-frame predict (default
 //      threads) with that ref's pre-built program beside this tree's, alternating, with the ratio and whether the two
-//      CSV files are byte-identical.
+//      CSV files are byte-identical. The command's cache folder (radial tables) is a scratch folder: the first run fills it.
 // Figures only, never asserted. Env: PW_BENCH_STARTUP_RUNS (5), PW_BENCH_BASELINE.
 import { execFileSync } from 'node:child_process';
 import { copyFileSync, mkdirSync, mkdtempSync, readFileSync, rmSync, statSync, symlinkSync, writeFileSync } from 'node:fs';
@@ -63,6 +63,9 @@ function againstBaseline(ref: string, dir: string, bundled: string, modelPath: s
 
 export async function run(): Promise<void> {
   const dir = mkdtempSync(join(tmpdir(), 'pw-startup-bench-'));
+  // the command's cache folder (radial tables) in the scratch folder: the first predict run builds it
+  const cacheBefore = process.env.POLARWEAVE_CACHE_DIR;
+  process.env.POLARWEAVE_CACHE_DIR = join(dir, 'cache');
   try {
     // a checkout in the scratch folder: bin/, the sources (linked, for bin's freshness check) and the bundle
     const checkout = join(dir, 'checkout');
@@ -98,12 +101,14 @@ export async function run(): Promise<void> {
       bundled: () => wallMs([bundled, ...args]),
       source: () => wallMs([source, ...args], fromSource),
     });
-    console.log(`2. predict one 384-atom frame (1 worker thread, model file ${(statSync(modelPath).size / 1e6).toFixed(1)} MB): ` +
+    console.log(`2. predict one 384-atom frame (--threads 1, model file ${(statSync(modelPath).size / 1e6).toFixed(1)} MB): ` +
       `pre-built ${one.bundled.toFixed(0)} ms, sources through tsx ${one.source.toFixed(0)} ms (×${(one.source / one.bundled).toFixed(1)} faster)`);
     const baseline = process.env.PW_BENCH_BASELINE;
     if (baseline) againstBaseline(baseline, dir, bundled, modelPath, input);
     else console.log('3. (set PW_BENCH_BASELINE=<git ref> to time one-frame predict against that ref\'s pre-built program)');
   } finally {
+    if (cacheBefore === undefined) delete process.env.POLARWEAVE_CACHE_DIR;
+    else process.env.POLARWEAVE_CACHE_DIR = cacheBefore;
     rmSync(dir, { recursive: true, force: true });
   }
 }

@@ -113,13 +113,85 @@ const tableCache = new Map<string, RadialTable>();
 /** Tables kept (about 0.5 MB each at nmax 8, lmax 6); the oldest is dropped beyond this. */
 const TABLE_CACHE_SIZE = 12;
 
+/**
+ * Where tables built by earlier runs are kept (a cache folder, set by the host: io/radial-table-store.ts); none by
+ * default. Building a table takes 0.1–0.2 s, a good share of predicting one frame. A stored table is used only when
+ * it has the expected length and a few of its pieces, rebuilt here, match it bit for bit (storedTableFits);
+ * otherwise the table is built and stored again.
+ */
+export interface RadialTableStore {
+  load(key: string, length: number): Float64Array | null;
+  save(key: string, coefficients: Float64Array): void;
+}
+let tableStore: RadialTableStore | null = null;
+export function useRadialTableStore(store: RadialTableStore | null): void {
+  tableStore = store;
+}
+
+/** Hermite pieces k of the table: coefficients[(k·4 + p)·NL + q] from the integrals at grid points k and k+1. */
+function hermitePieces(values: Float64Array, slopes: Float64Array, k: number, NL: number, h: number, coefficients: Float64Array): void {
+  for (let q = 0; q < NL; q++) {
+    const y0 = values[k * NL + q];
+    const y1 = values[(k + 1) * NL + q];
+    const m0 = h * slopes[k * NL + q];
+    const m1 = h * slopes[(k + 1) * NL + q];
+    const base = k * 4 * NL + q;
+    coefficients[base] = y0;
+    coefficients[base + NL] = m0;
+    coefficients[base + 2 * NL] = 3 * (y1 - y0) - 2 * m0 - m1;
+    coefficients[base + 3 * NL] = 2 * (y0 - y1) + m0 + m1;
+  }
+}
+
+/**
+ * Whether a stored table is the one radialTable builds for `s`: its first, last and two inner pieces rebuilt here
+ * (8 of the table's integrals) equal it bit for bit. Catches a table of other code (a changed integral, basis or
+ * Bessel function changes every piece); the store checks the bytes themselves (a checksum).
+ */
+export function storedTableFits(s: RadialSettings, intervals: number, coefficients: Float64Array): boolean {
+  const NL = s.nmax * (s.lmax + 1);
+  if (coefficients.length !== intervals * 4 * NL) return false;
+  const h = s.cutoff / intervals;
+  const values = new Float64Array((intervals + 1) * NL);
+  const slopes = new Float64Array((intervals + 1) * NL);
+  const v = new Float64Array(NL);
+  const dv = new Float64Array(NL);
+  const rebuilt = new Float64Array(coefficients.length);
+  for (const k of new Set([0, Math.floor(intervals / 3), Math.floor((2 * intervals) / 3), intervals - 1])) {
+    for (const g of [k, k + 1]) {
+      radialIntegral(s, g * h, v, dv);
+      values.set(v, g * NL);
+      slopes.set(dv, g * NL);
+    }
+    hermitePieces(values, slopes, k, NL, h, rebuilt);
+    for (let i = k * 4 * NL; i < (k + 1) * 4 * NL; i++) if (!Object.is(rebuilt[i], coefficients[i])) return false;
+  }
+  return true;
+}
+
+/** Intervals of the table grid for these settings (spacing ≤ σ/32, at least 64). */
+function tableIntervals(s: RadialSettings): number {
+  return Math.max(64, Math.ceil(s.cutoff / (s.sigma / 32)));
+}
+
 /** The tabulated radial integrals for these settings (built once, then cached by value of the settings). */
 export function radialTable(s: RadialSettings): RadialTable {
   const key = `${s.nmax}|${s.lmax}|${s.cutoff}|${s.sigma}`;
   const hit = tableCache.get(key);
   if (hit) return hit;
   const NL = s.nmax * (s.lmax + 1);
-  const intervals = Math.max(64, Math.ceil(s.cutoff / (s.sigma / 32)));
+  const intervals = tableIntervals(s);
+  const h = s.cutoff / intervals;
+  const stored = tableStore?.load(key, intervals * 4 * NL) ?? null;
+  const table = stored && storedTableFits(s, intervals, stored) ? { settings: { ...s }, spacing: h, intervals, coefficients: stored } : buildTable(s, key);
+  if (tableCache.size >= TABLE_CACHE_SIZE) tableCache.delete(tableCache.keys().next().value as string);
+  tableCache.set(key, table);
+  return table;
+}
+
+function buildTable(s: RadialSettings, key: string): RadialTable {
+  const NL = s.nmax * (s.lmax + 1);
+  const intervals = tableIntervals(s);
   const h = s.cutoff / intervals;
   const values = new Float64Array((intervals + 1) * NL);
   const slopes = new Float64Array((intervals + 1) * NL);
@@ -131,23 +203,9 @@ export function radialTable(s: RadialSettings): RadialTable {
     slopes.set(dv, k * NL);
   }
   const coefficients = new Float64Array(intervals * 4 * NL);
-  for (let k = 0; k < intervals; k++) {
-    for (let q = 0; q < NL; q++) {
-      const y0 = values[k * NL + q];
-      const y1 = values[(k + 1) * NL + q];
-      const m0 = h * slopes[k * NL + q];
-      const m1 = h * slopes[(k + 1) * NL + q];
-      const base = k * 4 * NL + q;
-      coefficients[base] = y0;
-      coefficients[base + NL] = m0;
-      coefficients[base + 2 * NL] = 3 * (y1 - y0) - 2 * m0 - m1;
-      coefficients[base + 3 * NL] = 2 * (y0 - y1) + m0 + m1;
-    }
-  }
-  const table = { settings: { ...s }, spacing: h, intervals, coefficients };
-  if (tableCache.size >= TABLE_CACHE_SIZE) tableCache.delete(tableCache.keys().next().value as string);
-  tableCache.set(key, table);
-  return table;
+  for (let k = 0; k < intervals; k++) hermitePieces(values, slopes, k, NL, h, coefficients);
+  tableStore?.save(key, coefficients);
+  return { settings: { ...s }, spacing: h, intervals, coefficients };
 }
 
 /** Interpolated I_nl(d) for all (n, l) into out[n·(lmax+1) + l]; zero at and beyond r_c. */
