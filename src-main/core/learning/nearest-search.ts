@@ -220,7 +220,7 @@ export function cachedNearestSearch(owner: { n0: number; species: Int32Array; p:
  * warm, load ≈ 10 on 2 cores), so a small job (one 384-atom frame) never prepares, and a long one pays at most this
  * many slower queries first. Either way the distances are the same numbers.
  */
-export const PLAIN_QUERIES_BEFORE_PREPARING = 2048;
+export const PLAIN_QUERIES_BEFORE_PREPARING = 1024;
 const plainQueries = new WeakMap<object, number>();
 
 /**
