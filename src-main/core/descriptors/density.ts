@@ -183,6 +183,27 @@ export interface DensityExpander {
   expand(pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): void;
 }
 
+const expanderCache = new Map<string, DensityExpander>();
+
+/**
+ * The expander of these settings, made once and shared (by every feature plan with the same density settings,
+ * e.g. the λ = 0 and the λ = 0 + 2 plans of one model). One expander per settings is also one closure of the
+ * hot loop: V8 compiles a closure that is the only one made from its code with its captured sizes as constants,
+ * and measured the loop about 2× slower once a second expander of the same code existed (bench/kernels.bench.ts
+ * conditions). Not re-entrant, like every expander (scratch of its own); prediction and training are
+ * single-threaded per worker.
+ */
+export function densityExpander(s: DensitySettings): DensityExpander {
+  const key = `${s.nmax}|${s.lmax}|${s.cutoff}|${s.sigma}|${s.cutoffWidth}|${s.channels}`;
+  let e = expanderCache.get(key);
+  if (!e) {
+    e = makeDensityExpander(s);
+    if (expanderCache.size >= TABLE_CACHE_SIZE) expanderCache.delete(expanderCache.keys().next().value as string);
+    expanderCache.set(key, e);
+  }
+  return e;
+}
+
 export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const { nmax, lmax, cutoff, cutoffWidth, channels } = s;
   const table = radialTable(s);
