@@ -16,6 +16,30 @@ function freshBundle() {
   }
 }
 
+/**
+ * `polarweave --help` (or no command) and `polarweave COMMAND --help`: the texts the build stored from the program's
+ * own help functions (out/cli/help.json), printed without loading the program. False when it is not such a call
+ * or the file is missing; the program then answers as it always does (the same text, the same exit code).
+ */
+function printStoredHelp(dir, argv) {
+  const [name, ...rest] = argv;
+  const mainHelp = name === undefined || name === '--help' || name === '-h' || name === 'help';
+  if (!mainHelp && !rest.includes('--help') && !rest.includes('-h')) return false;
+  let help;
+  try {
+    help = JSON.parse(readFileSync(new URL('help.json', dir), 'utf8'));
+  } catch {
+    return false;
+  }
+  const text = mainHelp ? help.main : Object.hasOwn(help.commands ?? {}, name) ? help.commands[name] : undefined;
+  if (typeof text !== 'string') return false;
+  process.stdout.write(text + '\n');
+  process.exitCode = name === undefined ? 2 : 0;
+  return true;
+}
+
 const bundle = process.env.POLARWEAVE_FROM_SOURCE ? null : freshBundle();
-const { main } = bundle ? await import(bundle.href) : await (await import('tsx/esm/api')).tsImport('../src-main/cli/main.ts', import.meta.url);
-await main();
+if (!(bundle && printStoredHelp(new URL('.', bundle), process.argv.slice(2)))) {
+  const { main } = bundle ? await import(bundle.href) : await (await import('tsx/esm/api')).tsImport('../src-main/cli/main.ts', import.meta.url);
+  await main();
+}

@@ -61,6 +61,8 @@ export interface DatasetSummary {
   species: SpeciesCount[];
   /** True when every frame has a cell with pbc on all axes. */
   periodic: boolean;
+  /** Frames without a periodic cell (isolated molecules or clusters: no Lattice, or pbc="F F F"). */
+  isolatedFrames: number;
   volumeA3: Range | null;
   /** Cell lengths a, b, c (Å) and angles (°) of the first frame, if periodic. */
   firstCell: { a: number; b: number; c: number; alpha: number; beta: number; gamma: number } | null;
@@ -92,13 +94,29 @@ export interface FrameView {
 export type ModelSettingsJ = ModelSettings;
 export type ErrorFiguresJ = ErrorFigures;
 export type ParityPointJ = ParityPoint;
-export type ValidationReportJ = ValidationReport;
+/** One kind's errors in a set mixing periodic frames and clusters (as `polarweave validate` prints them). */
+export interface KindErrorsJ {
+  /** What was compared, e.g. "alpha-cm (Å³), periodic frames" or "alpha-mol (Å³), isolated frames". */
+  target: string;
+  errors: ErrorFigures;
+  points: ParityPoint[];
+}
+/**
+ * A validation report (core's), with the comparisons beside the main one (α_CM over the periodic frames, α over
+ * the isolated frames of a mixed set) and the engine's notes (e.g. how the kinds are weighted).
+ */
+export type ValidationReportJ = ValidationReport & { alsoOn?: KindErrorsJ[]; notes?: string[] };
 
 /** What the window asks to train (the engine's TrainRequest without the tuning grid). */
 export interface TrainRequestJ {
   tensorKey: string;
   kind: TensorKindJ;
   route: RouteJ;
+  /**
+   * The molecules' or clusters' polarisability (Å³) in the frames without a cell, when the set mixes them with
+   * periodic frames of a cell kind (the CLI's --isolated-tensor). Not needed for kind alpha-mol.
+   */
+  isolatedKey?: string;
   settings?: Partial<ModelSettingsJ>;
   /** Train even when the values look unlike `kind` (the kind guard, core/learning/kind-check.ts). */
   trustKind?: boolean;
@@ -133,7 +151,9 @@ export interface ApplicabilityJ {
   reasons?: DomainReason[];
 }
 
-export interface FramePredictionJ {
+/** A periodic frame's prediction. */
+export interface PeriodicPredictionJ {
+  isolated?: false;
   frame: number;
   volumeA3: number;
   eps: Mat3J;
@@ -144,9 +164,27 @@ export interface FramePredictionJ {
   applicability: ApplicabilityJ;
   /** Calibrated model error bars (one standard deviation), null when the model has no calibration. */
   errorBars?: TensorErrorBars | null;
-  /** The reference tensor of the frame in the model's target kind, if the file has it. */
+  /** The frame's reference tensor as ε, if the file has it. */
   reference: Mat3J | null;
 }
+
+/**
+ * An isolated molecule's or cluster's prediction (a frame without a periodic cell): its polarisability in vacuum.
+ * It has no volume, and ε, n and Δn are not defined for it.
+ */
+export interface IsolatedPredictionJ {
+  isolated: true;
+  frame: number;
+  /** Polarisability in vacuum (Å³). */
+  alphaMol: Mat3J;
+  /** Calibrated one-standard-deviation error bar of tr alphaMol / 3 (Å³), null without calibration. */
+  alphaIsoSd: number | null;
+  applicability: ApplicabilityJ;
+  /** The frame's reference polarisability (Å³), if the file has it. */
+  reference: Mat3J | null;
+}
+
+export type FramePredictionJ = PeriodicPredictionJ | IsolatedPredictionJ;
 
 export interface PredictionSummary {
   id: string;
@@ -155,7 +193,9 @@ export interface PredictionSummary {
   datasetName: string;
   frames: FramePredictionJ[];
   framesOutside: number;
-  /** Mean ε, principal n and Δn with model error bars, beside the references (core/learning/set-summary.ts). */
+  /** Frames without a periodic cell (molecules, clusters): predicted as α, with no ε, n or Δn. */
+  isolatedFrames?: number;
+  /** Mean ε, principal n and Δn of the periodic frames with model error bars, beside the references (core/learning/set-summary.ts). */
   summary?: SetSummary;
   /** The columns of this prediction's CSV export, in order (the layout of `polarweave predict`). */
   csvColumns?: string[];
@@ -282,7 +322,8 @@ export interface AppState {
   datasets: DatasetSummary[];
   models: ModelSummary[];
   /** csvColumns: the header of the prediction's CSV export (empty for a prediction opened from an older project). */
-  predictions: { id: string; modelId: string; datasetId: string; datasetName: string; frames: number; framesOutside: number; csvColumns: string[] }[];
+  /** isolatedFrames: frames without a periodic cell (no ε: the Trajectory view leaves such predictions out). */
+  predictions: { id: string; modelId: string; datasetId: string; datasetName: string; frames: number; framesOutside: number; isolatedFrames: number; csvColumns: string[] }[];
   jobs: { id: string; kind: JobKind; state: JobStateJ }[];
 }
 
@@ -303,6 +344,8 @@ export interface CollectReport {
   program: string | null;
   /** Files passed over (inputs and coordinate files of the runs). */
   skipped: number;
+  /** What to know about kept runs, "FILE: text" (e.g. a molecule in a periodic box: the box's ε, not α in vacuum). */
+  notes: string[];
 }
 
 /** A file to hand to the browser (download) or to a save dialog. */
@@ -320,7 +363,7 @@ const finite = z.number().finite();
 /** Uploaded text or base64: no longer than a request the host reads (core/limits.ts). */
 const MAX_TEXT = MAX_REQUEST_BYTES;
 
-export const tensorKindSchema = z.enum(['eps', 'alpha-c', 'alpha-cm']);
+export const tensorKindSchema = z.enum(['eps', 'alpha-c', 'alpha-cm', 'alpha-mol']);
 export const routeSchema = z.enum(['cm', 'direct']);
 
 /** One zod field per row of the settings table (core/settings-table.ts): the same limits as the CLI and the engine. */
@@ -334,6 +377,8 @@ export const modelSettingsSchema = z
     ...(Object.fromEntries(NUMERIC_SETTINGS.filter((s) => s.key !== 'regularisation').map((s) => [s.key, settingField(s)])) as Record<NumericSettingKey, z.ZodNumber>),
     regularisation: settingField(settingSpec('regularisation')).nullable(),
     contributingSpecies: z.array(z.string().regex(SPECIES_LABEL)).max(MAX_SPECIES),
+    /** The species split (core/settings-table.ts SPLIT_SETTING): "free-atom", ratios by species, or null. */
+    speciesSplit: z.union([z.literal('free-atom'), z.record(z.string().regex(SPECIES_LABEL), z.number().finite().positive())]).nullable().optional(),
   })
   .strict();
 
@@ -342,6 +387,7 @@ export const trainRequestSchema = z
     tensorKey: z.string().min(1).max(200),
     kind: tensorKindSchema,
     route: routeSchema,
+    isolatedKey: z.string().min(1).max(200).optional(),
     settings: modelSettingsSchema.partial().optional(),
     trustKind: z.boolean().optional(),
   })
@@ -369,7 +415,10 @@ export const trainParamsSchema = z
   })
   .strict();
 
-export const validateParamsSchema = trainParamsSchema.omit({ name: true, testFrames: true });
+export const validateParamsSchema = trainParamsSchema.omit({ name: true, testFrames: true }).extend({
+  /** A model trained on these frames with this request and folds: its report takes the learning curve drawn here. */
+  modelId: id.optional(),
+});
 
 export const predictParamsSchema = z
   .object({ modelId: id, datasetId: id, frames: frameList.optional() })

@@ -37,6 +37,8 @@ export interface CollectResult {
   notCompared: string[];
   /** Files passed over: inputs of the codes, and files in the folders given that are not outputs. */
   skipped: number;
+  /** What to know about kept runs (DftRun.note), by run. */
+  notes: { file: string; text: string }[];
 }
 
 const STATUS_WORDS: Record<LeftOutStatus, string> = {
@@ -245,7 +247,8 @@ function choose({ readings, errors, skipped }: Gathered): CollectResult {
   const unusableRuns: LeftOut[] = readings.flatMap((r) => (r.ok ? [] : [r.unusable]));
   const { kept, left, settings, notCompared } = agreeingRuns(usable);
   const allLeft = [...errors, ...unusableRuns, ...left].sort((a, b) => naturalCompare(a.file, b.file));
-  return { runs: kept, left: allLeft, settings, notCompared, skipped };
+  const notes = kept.flatMap((r) => (r.note ? [{ file: r.file, text: r.note }] : []));
+  return { runs: kept, left: allLeft, settings, notCompared, skipped, notes };
 }
 
 /** The name of a setting as a frame property: "k-points" → dft_k_points. */

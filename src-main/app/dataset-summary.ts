@@ -45,6 +45,7 @@ export function summariseDataset(id: string, name: string, frames: Frame[], orig
     atoms: range(t.atoms),
     species,
     periodic: t.frames > 0 && t.periodic === t.frames,
+    isolatedFrames: t.isolated,
     volumeA3: t.periodic ? range(t.volumeA3) : null,
     firstCell: t.firstCell,
     tensorKeys,

@@ -5,19 +5,23 @@
 // has no model file path or checksum to name).
 import type { Frame } from '../core/geometry/frame.ts';
 import type { Model } from '../core/learning/model.ts';
-import type { FramePrediction } from '../core/learning/model-types.ts';
+import type { TensorPrediction } from '../core/learning/model-types.ts';
 import type { Mat3 } from '../core/geometry/frame.ts';
 import { predictionCsvOptions, tensorCsv, tensorCsvColumns, tensorPredictionRow, type TensorCsvOptions } from '../io/prediction/prediction-format.ts';
 import { modelReferenceEps } from './predict/predict-frame.ts';
 
-/** The export's layout: predict's, with the reference columns when any exported frame carries the model's reference. */
+/**
+ * The export's layout: predict's, by predict's rule (app/predict/prediction.ts csvLayoutOf) — the reference columns
+ * when the first frame carries the model's reference, since predict streams and decides on its first frame. A set
+ * whose first frame is a cluster (no ε reference) then has none, in the window as on the command line.
+ */
 function exportLayout(frameIndices: readonly number[], sourceFrames: Frame[], model: Model, modelName: string): { options: TensorCsvOptions; references: (Mat3 | null)[] | null } {
   const references = frameIndices.map((i) => modelReferenceEps(model, sourceFrames[i], i));
-  const reference = references.some((r) => r !== null);
+  const reference = references.length > 0 && references[0] !== null;
   return { options: predictionCsvOptions(model, `"${modelName}" (from the window)`, { reference }), references: reference ? references : null };
 }
 
-export function predictionsCsv(predictions: readonly FramePrediction[], frameIndices: readonly number[], sourceFrames: Frame[], model: Model, modelName: string): string {
+export function predictionsCsv(predictions: readonly TensorPrediction[], frameIndices: readonly number[], sourceFrames: Frame[], model: Model, modelName: string): string {
   const { options, references } = exportLayout(frameIndices, sourceFrames, model, modelName);
   const rows = predictions.map((p, k) => tensorPredictionRow(frameIndices[k], sourceFrames[frameIndices[k]], p, model, references ? { reference: references[k] } : {}));
   return tensorCsv(rows, options);

@@ -1,11 +1,11 @@
 // Frames and predictions as the window sees them: plain JSON (number[] instead of typed arrays), made at the
 // API boundary; everything behind it stays typed.
-import type { ComponentJ, FramePredictionJ, FrameView, Mat3J, TrajectoryStats } from '../api/contract.ts';
+import type { ApplicabilityJ, ComponentJ, FramePredictionJ, FrameView, Mat3J, TrajectoryStats } from '../api/contract.ts';
 import { opticalStats, tensorStats } from '../core/trajectory/trajectory-summary.ts';
 import { runningMean } from '../core/trajectory/statistics.ts';
 import { cellVolume } from '../core/geometry/cell.ts';
 import type { Frame, Mat3 } from '../core/geometry/frame.ts';
-import type { FramePrediction } from '../core/learning/model-types.ts';
+import type { Applicability, FramePrediction, TensorPrediction } from '../core/learning/model-types.ts';
 import { refractiveIndices } from '../core/dielectric/clausius-mossotti.ts';
 import { isIsolated } from '../core/learning/targets.ts';
 
@@ -34,9 +34,19 @@ export function frameView(datasetId: string, index: number, frame: Frame): Frame
   };
 }
 
-/** A frame's prediction as the window sees it (the API boundary: typed arrays become number[]). */
-export function predictionJ(fp: FramePrediction, frame: number, reference: Mat3 | null): FramePredictionJ {
-  const a = fp.applicability;
+function applicabilityJ(a: Applicability): ApplicabilityJ {
+  return { maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, score: a.score, fractionOutside: a.fractionOutside, reasons: a.reasons };
+}
+
+/**
+ * A frame's prediction as the window sees it (the API boundary: typed arrays become number[]). An isolated
+ * molecule or cluster keeps its polarisability only: ε, n and Δn are not defined for it. `reference`: the frame's
+ * reference as compared (core/learning/targets.ts comparedReferenceOf: ε, or α in Å³ for an isolated frame).
+ */
+export function predictionJ(fp: TensorPrediction, frame: number, reference: Mat3 | null): FramePredictionJ {
+  const applicability = applicabilityJ(fp.applicability);
+  const ref = reference ? matJ(reference) : null;
+  if (fp.isolated) return { isolated: true, frame, alphaMol: matJ(fp.alphaMol), alphaIsoSd: fp.alphaIsoSd, applicability, reference: ref };
   return {
     frame,
     volumeA3: fp.volumeA3,
@@ -44,22 +54,24 @@ export function predictionJ(fp: FramePrediction, frame: number, reference: Mat3 
     alphaCM: matJ(fp.alphaCM),
     alphaC: matJ(fp.alphaC),
     refractive: Array.from(refractiveIndices(fp.eps, { frame }).indices),
-    applicability: { maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, score: a.score, fractionOutside: a.fractionOutside, reasons: a.reasons },
+    applicability,
     errorBars: fp.errorBars,
-    reference: reference ? matJ(reference) : null,
+    reference: ref,
   };
 }
 
 /** Back from the window's JSON (a saved project) to a typed prediction. */
-export function predictionFromJ(f: FramePredictionJ, local: number[], atomDistance: number[], atomScore: number[] = []): FramePrediction {
+export function predictionFromJ(f: FramePredictionJ, local: number[], atomDistance: number[], atomScore: number[] = []): TensorPrediction {
   const a = f.applicability;
+  const applicability: Applicability = { atomDistance: Float64Array.from(atomDistance), maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, atomScore: Float64Array.from(atomScore), score: a.score ?? NaN, fractionOutside: a.fractionOutside ?? NaN, reasons: a.reasons ?? [] };
+  if (f.isolated) return { isolated: true, alphaMol: Float64Array.from(f.alphaMol), local: Float64Array.from(local), applicability, alphaIsoSd: f.alphaIsoSd ?? null };
   return {
     volumeA3: f.volumeA3,
     alphaCM: Float64Array.from(f.alphaCM),
     alphaC: Float64Array.from(f.alphaC),
     eps: Float64Array.from(f.eps),
     local: Float64Array.from(local),
-    applicability: { atomDistance: Float64Array.from(atomDistance), maxDistance: a.maxDistance, threshold: a.threshold, atomsOutside: a.atomsOutside, variance: a.variance, outside: a.outside, atomScore: Float64Array.from(atomScore), score: a.score ?? NaN, fractionOutside: a.fractionOutside ?? NaN, reasons: a.reasons ?? [] },
+    applicability,
     errorBars: f.errorBars ?? null,
   };
 }

@@ -21,6 +21,7 @@ import type {
   ModelSummary,
   PredictionSummary,
   TrajectoryStats,
+  TrainRequestJ,
   ValidationReportJ,
 } from '../api/contract.ts';
 import type { SelectionReport } from '../api/contract.ts';
@@ -36,8 +37,10 @@ import type { SelectTaskInput, SelectTaskOutput } from './select-task.ts';
 import { summariseDataset } from './dataset-summary.ts';
 import { PathAccess } from './path-access.ts';
 import { frameView, predictionFromJ, predictionJ, trajectoryStatsJ } from './frame-json.ts';
-import type { FramePrediction } from '../core/learning/model-types.ts';
+import type { FramePrediction, TensorPrediction } from '../core/learning/model-types.ts';
+import { frameTarget, isIsolated } from '../core/learning/targets.ts';
 import { predictionsCsv, predictionsCsvColumns } from './export-csv.ts';
+import { sharedModel } from './predict/shared-model.ts';
 import { PROJECT_FORMAT, PROJECT_VERSION, parseProject, type ProjectFile, type ProjectDataset } from './project-file.ts';
 import { collectedFrames, collectTexts } from './collect-references.ts';
 import { formatExtxyzFrame } from '../io/extxyz.ts';
@@ -92,8 +95,8 @@ interface PredictionRecord {
   /** The JSON the window gets (made once, at the boundary). */
   summary: PredictionSummary;
   route: 'cm' | 'direct';
-  /** The predictions as the use case gave them, typed; frame k of the dataset is frameIndices[k]. */
-  typed: FramePrediction[];
+  /** The predictions as the use case gave them, typed (periodic or isolated); frame k of the dataset is frameIndices[k]. */
+  typed: TensorPrediction[];
   frameIndices: number[];
 }
 
@@ -184,6 +187,7 @@ export class AppService implements ApiService {
       tensorKind: first ? first.kind : null,
       program: first ? first.program : null,
       skipped: result.skipped,
+      notes: result.notes.map((n) => `${n.file}: ${n.text}`),
     };
     if (!first) return report;
     const frames = collectedFrames(result);
@@ -233,6 +237,7 @@ export class AppService implements ApiService {
         datasetName: p.summary.datasetName,
         frames: p.summary.frames.length,
         framesOutside: p.summary.framesOutside,
+        isolatedFrames: p.summary.isolatedFrames ?? 0,
         csvColumns: p.summary.csvColumns ?? [],
       })),
       jobs: [...this.jobs.values()].map((j) => ({ id: j.id, kind: j.kind, state: j.handle.state() })),
@@ -251,8 +256,25 @@ export class AppService implements ApiService {
     return all.filter((i) => !skip.has(i));
   }
 
-  private checkTensorKey(d: DatasetRecord, key: string, indices: number[]): void {
+  /**
+   * Every chosen frame carries the tensor it is trained on: `tensorKey` on periodic frames (and on every frame of
+   * kind alpha-mol), the clusters' `isolatedKey` on frames without a cell in a mixed set (core's frameTarget).
+   */
+  private checkTensorKey(d: DatasetRecord, request: TrainRequestJ, indices: number[]): void {
+    const isolated = indices.filter((i) => isIsolated(d.frames[i]));
+    const periodic = indices.length - isolated.length;
+    const where = (i: number) => ({ file: d.frames[i].source?.file ?? d.summary.name, line: d.frames[i].source?.line, frame: i });
+    if (request.kind === 'alpha-mol' && periodic > 0) {
+      const i = indices.find((k) => !isIsolated(d.frames[k])) as number;
+      throw new InputError(`${periodic} of the chosen frames have a periodic cell, but the values are set to be an isolated molecule's or cluster's polarisability`, where(i),
+        'for a set mixing periodic frames and clusters, choose the periodic frames\' kind (ε∞, α or α_CM) and name the clusters\' polarisability under "Clusters\' polarisability"');
+    }
+    if (request.kind !== 'alpha-mol' && isolated.length > 0 && request.isolatedKey === undefined) {
+      throw new InputError(`${isolated.length} of the chosen frames have no periodic cell (molecules or clusters), so "${request.tensorKey}" cannot be their ${request.kind === 'eps' ? 'ε' : 'cell polarisability'}`, where(isolated[0]),
+        periodic > 0 ? 'name the clusters\' polarisability (Å³) under "Clusters\' polarisability"' : 'choose "the polarisability of an isolated molecule or cluster" as what the values are');
+    }
     for (const i of indices) {
+      const key = frameTarget(d.frames[i], request, i).key;
       const v = d.frames[i].info[key];
       if (!Array.isArray(v) || (v.length !== 9 && v.length !== 6)) {
         const src = d.frames[i].source;
@@ -288,7 +310,7 @@ export class AppService implements ApiService {
       const test = params.kind === 'train' && params.params.testFrames ? this.selectFrames(d, params.params.testFrames) : [];
       const train = this.selectFrames(d, p.frames, test);
       if (train.length < p.folds) throw new ApiValidationError(`${train.length} training frames cannot be split into ${p.folds} folds; use fewer folds or more frames`);
-      this.checkTensorKey(d, p.request.tensorKey, [...train, ...test]);
+      this.checkTensorKey(d, p.request, [...train, ...test]);
       const base = { request: p.request, folds: p.folds, learningCurve: p.learningCurve, frameIndices: train, frames: train.map((i) => d.frames[i]) };
       if (params.kind === 'train') {
         const input: TrainTaskInput = { ...base, testIndices: test, testFrames: test.map((i) => d.frames[i]) };
@@ -307,8 +329,17 @@ export class AppService implements ApiService {
         };
       } else {
         const input: ValidateTaskInput = base;
+        const owner = params.kind === 'validate' && params.params.modelId ? this.modelRecord(params.params.modelId) : null;
+        if (owner && (owner.summary.trainedOn.datasetId !== d.summary.id || owner.summary.report?.folds !== p.folds)) {
+          throw new ApiValidationError(`model ${owner.summary.name} was not trained on ${d.summary.name} with ${p.folds} folds; its learning curve must come from its own frames and folds`);
+        }
         record.handle = this.options.runner.start('validate', input, hooks);
-        finish = (value) => ({ kind: 'validate', report: value as ValidationReportJ });
+        finish = (value) => {
+          const report = value as ValidationReportJ;
+          // a curve drawn after training (the window's Quick look trains without one): the model's report takes it
+          if (owner?.summary.report) owner.summary.report = { ...owner.summary.report, learningCurve: report.learningCurve, curveTrend: report.curveTrend };
+          return { kind: 'validate', report };
+        };
       }
     } else if (params.kind === 'select') {
       const started = this.startSelect(params.params, hooks);
@@ -320,10 +351,11 @@ export class AppService implements ApiService {
       const d = this.dataset(p.datasetId);
       const indices = this.selectFrames(d, p.frames);
       const input: PredictTaskInput = {
-        model: m.model,
+        // shared memory: the worker reads the session's model, no copy per job (as the CLI's predict workers do)
+        model: sharedModel(m.model as Model),
         frames: indices.map((i) => d.frames[i]),
         frameIndices: indices,
-        reference: { key: m.summary.request.tensorKey, kind: m.summary.request.kind },
+        reference: { tensorKey: m.summary.request.tensorKey, kind: m.summary.request.kind, isolatedKey: m.summary.request.isolatedKey },
       };
       record.handle = this.options.runner.start('predict', input, hooks);
       finish = (value) => {
@@ -337,7 +369,9 @@ export class AppService implements ApiService {
           datasetName: d.summary.name,
           frames,
           framesOutside: frames.filter((f) => f.applicability.outside).length,
-          summary: frames.length ? setSummary(frames.map((f) => ({ eps: f.eps, errorBars: f.errorBars, reference: f.reference, outside: f.applicability.outside }))) : undefined,
+          isolatedFrames: frames.filter((f) => f.isolated).length,
+          // the mean ε, n and Δn are of the periodic frames: a lone molecule or cluster has none
+          summary: periodicSetSummary(frames),
           csvColumns: predictionsCsvColumns(out.frameIndices, d.frames, m.model as Model),
         };
         this.predictions.set(pid, { summary, route: m.summary.request.route, typed: out.predictions, frameIndices: out.frameIndices });
@@ -493,8 +527,12 @@ export class AppService implements ApiService {
     // the charts' x axis: the frames' time (ps) when every frame carries one (time_fs), else the frame number
     const p = this.predictionRecord(params.predictionId);
     if (p.typed.length < 2) throw new ApiValidationError('a trajectory needs at least two predicted frames');
+    const isolated = p.typed.filter((t) => t.isolated).length;
+    if (isolated > 0) {
+      throw new ApiValidationError(`${isolated} of the ${p.typed.length} predicted frames have no periodic cell (molecules or clusters): trajectory statistics are of ε, n and Δn, which a lone molecule or cluster does not have; their polarisabilities are in Transfer and Structure, and in the CSV export (\`polarweave analyse\` reads a table of isolated frames on its α)`);
+    }
     return {
-      ...trajectoryStatsJ(p.summary.id, p.frameIndices, p.typed),
+      ...trajectoryStatsJ(p.summary.id, p.frameIndices, p.typed as FramePrediction[]),
       timesPs: framesTimePs(p.frameIndices.map((i) => this.dataset(p.summary.datasetId).frames[i])),
       outside: p.typed.map((f) => f.applicability.outside),
       modelErrorIso: p.summary.summary?.errorBars?.epsIso ?? null,
@@ -603,10 +641,21 @@ export class AppService implements ApiService {
     return { ...(await this.getState()), ui: project.ui ?? null };
   }
 
-  /** Stops every running job (window closed, host stopped). */
-  dispose(): void {
-    this.options.runner.cancelAll();
+  /** Whether a job of this session is still running or queued. */
+  busy(): boolean {
+    return [...this.jobs.values()].some((j) => !j.settled);
   }
+
+  /** Stops this session's running jobs (window or tab closed, host stopped); other sessions on the same runner go on. */
+  dispose(): void {
+    for (const j of this.jobs.values()) if (!j.settled) j.handle.cancel();
+  }
+}
+
+/** Mean ε, n and Δn of a prediction's periodic frames (core/learning/set-summary.ts); undefined when it has none. */
+function periodicSetSummary(frames: FramePredictionJ[]): PredictionSummary['summary'] {
+  const periodic = frames.flatMap((f) => (f.isolated ? [] : [f]));
+  return periodic.length ? setSummary(periodic.map((f) => ({ eps: f.eps, errorBars: f.errorBars, reference: f.reference, outside: f.applicability.outside }))) : undefined;
 }
 
 /** The frames' times in ps (their time_fs property), or null when one of them carries none. */

@@ -6,6 +6,7 @@ import { cellParameters } from '../core/geometry/cell.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { anisotropy, isotropicMean, symmetricEigen, tensorFromValues } from '../core/dielectric/tensor.ts';
 import { frameVolume } from './frame-json.ts';
+import { isIsolated } from '../core/learning/targets.ts';
 
 /** Smallest and largest of the values added (Infinity / −Infinity when none was). */
 export class Range {
@@ -43,6 +44,8 @@ export class StructureTally {
   firstFrameSpecies = new Map<string, number>();
   /** Frames with a cell periodic along a, b and c (the frames with a volume). */
   periodic = 0;
+  /** Frames without a periodic cell (isolated molecules or clusters, core/learning/targets.ts isIsolated). */
+  isolated = 0;
   volumeA3 = new Range();
   /** Cell lengths (Å) and angles (°) of the first frame, when it is periodic. */
   firstCell: { a: number; b: number; c: number; alpha: number; beta: number; gamma: number } | null = null;
@@ -65,6 +68,7 @@ export class StructureTally {
     this.frames++;
     this.atoms.add(frame.species.length);
     for (const sp of frame.species) this.species.set(sp, (this.species.get(sp) ?? 0) + 1);
+    if (isIsolated(frame)) this.isolated++;
     const v = frameVolume(frame);
     if (v !== null) {
       this.periodic++;

@@ -160,7 +160,8 @@ function applicabilityReport(s: TrajectorySeries, rows: Row[], lines: string[]):
 function speciesReport(s: TrajectorySeries, minBlocks: number, rows: Row[], lines: string[], noPlateau: string[]): void {
   if (!s.species || !s.localKind) return;
   const unit = s.localKind === 'local_alpha_cm_A3' ? 'Å³' : '';
-  const what = s.localKind === 'local_alpha_cm_A3' ? 'α_CM' : 'ε − 1';
+  // molecules and clusters: the local tensors sum to their polarisability in vacuum, not to a cell's α_CM
+  const what = s.localKind === 'local_alpha_cm_A3' ? (s.alphaMol ? 'α (in vacuum)' : 'α_CM') : 'ε − 1';
   lines.push(`per-species contributions to ${what}${unit ? ` (${unit})` : ''} (sums of the per-atom local tensors), ± standard error:`);
   lines.push(`  note: ${LOCAL_CONTRIBUTION_CAVEAT}`);
   let total = 0;
@@ -183,17 +184,17 @@ export interface SpectraRequest {
   /** Time between consecutive frames of the trajectory file (fs), > 0. */
   timeStepFs: number;
   options: Omit<SpectrumOptions, 'timeStepFs'>;
-  /** Which tensor series the Raman line shapes use (default: α_c if the file has it, else α_CM, else ε). */
-  ramanFrom?: 'alpha-c' | 'alpha-cm' | 'eps';
+  /** Which tensor series the Raman line shapes use (default: α_c if the file has it, else α_CM, else a molecule's α, else ε). */
+  ramanFrom?: 'alpha-c' | 'alpha-cm' | 'alpha-mol' | 'eps';
 }
 
 async function writeSpectra(req: SpectraRequest, s: TrajectorySeries, lines: string[]): Promise<void> {
   const dt = req.timeStepFs;
   const stride = checkEvenlySpaced(s.frames, s.file);
   const opts: SpectrumOptions = { ...req.options, timeStepFs: dt * stride };
-  // Default: the first polarisability series the file has (α_c, then α_CM), else ε.
-  const from = req.ramanFrom ?? (s.alphaC ? 'alpha-c' : s.alphaCM ? 'alpha-cm' : 'eps');
-  const series = from === 'alpha-c' ? s.alphaC : from === 'alpha-cm' ? s.alphaCM : s.eps;
+  // Default: the first polarisability series the file has (α_c, then α_CM, then a molecule's α), else ε.
+  const from = req.ramanFrom ?? (s.alphaC ? 'alpha-c' : s.alphaCM ? 'alpha-cm' : s.alphaMol ? 'alpha-mol' : 'eps');
+  const series = from === 'alpha-c' ? s.alphaC : from === 'alpha-cm' ? s.alphaCM : from === 'alpha-mol' ? s.alphaMol : s.eps;
   const cols: { name: string; sp: Spectrum }[] = [];
   if (series) {
     const r = ramanSpectra(series, opts);
@@ -280,6 +281,10 @@ export async function analyseTrajectory(req: AnalyseRequest): Promise<string[]> 
   if (s.eps) opticsReport(opticalStats(s.eps, minBlocks), rows, lines, noPlateau);
   if (s.alphaCM) tensorReport('alpha_cm', 'α_CM', 'Å³', tensorStats(s.alphaCM, minBlocks), rows, lines, noPlateau);
   if (s.alphaC) tensorReport('alpha_c', 'α_c', 'Å³', tensorStats(s.alphaC, minBlocks), rows, lines, noPlateau);
+  if (s.alphaMol) {
+    lines.push('frames without a periodic cell (a molecule or cluster): ε, n and Δn are not defined for them; their α is the polarisability in vacuum');
+    tensorReport('alpha_mol', 'α of the molecule or cluster in vacuum', 'Å³', tensorStats(s.alphaMol, minBlocks), rows, lines, noPlateau);
+  }
   speciesReport(s, minBlocks, rows, lines, noPlateau);
   applicabilityReport(s, rows, lines);
   if (req.spectra) await writeSpectra(req.spectra, s, lines);

@@ -12,10 +12,16 @@ export const modelCodec: ModelCodec = {
   parse: (text, fileName) => parseModel(text, fileName),
 };
 
-export function createAppService(options: { spawn: WorkerFactory; demoDir: string; concurrency?: number; paths?: PathAccess }): AppService {
+/** The job runner of the app: at most `concurrency` jobs at once (default 2), shared by every session of a host. */
+export function createRunner(options: { spawn: WorkerFactory; concurrency?: number }): JobRunner {
+  return new JobRunner({ spawn: options.spawn, concurrency: options.concurrency ?? 2 });
+}
+
+/** One session's service; give `runner` to share one between sessions (the browser host's tabs). */
+export function createAppService(options: { spawn: WorkerFactory; demoDir: string; concurrency?: number; paths?: PathAccess; runner?: JobRunner }): AppService {
   return new AppService({
     paths: options.paths,
-    runner: new JobRunner({ spawn: options.spawn, concurrency: options.concurrency ?? 2 }),
+    runner: options.runner ?? createRunner(options),
     codec: modelCodec,
     readers: structureReaders,
     demoDir: options.demoDir,

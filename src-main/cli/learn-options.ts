@@ -7,6 +7,8 @@ import {
   settingSpec,
   settingsProblems,
   SPECIES_SETTING,
+  SPLIT_SETTING,
+  parseSpeciesSplit,
   TUNABLE_SETTINGS,
   valueProblem,
   type TunableSetting,
@@ -42,6 +44,7 @@ export const settingOptions: OptionSpec[] = [
     return { name: spec.option, value, help: `${spec.help}; ${limitsText(spec)}`, ...(d === null ? {} : { default: String(d) }) };
   }),
   { name: SPECIES_SETTING.option, value: 'LIST', help: SPECIES_SETTING.help },
+  { name: SPLIT_SETTING.option, value: 'SPLIT', help: SPLIT_SETTING.help },
 ];
 
 export function parseKind(args: ParsedArgs): TensorKind {
@@ -68,6 +71,12 @@ export function parseSettings(args: ParsedArgs): Partial<ModelSettings> {
   }
   const list = args.options[SPECIES_SETTING.option];
   if (list !== undefined) s.contributingSpecies = list.split(',').map((x) => x.trim()).filter(Boolean);
+  const split = args.options[SPLIT_SETTING.option];
+  if (split !== undefined) {
+    const parsed = parseSpeciesSplit(split);
+    if ('problem' in parsed) throw new UsageError(`--${SPLIT_SETTING.option}: ${parsed.problem}`);
+    s.speciesSplit = parsed.split;
+  }
   // The rules between settings (and the species labels) as the engine checks them, before any data is read.
   const problems = settingsProblems({ ...DEFAULT_SETTINGS, ...s });
   if (problems.length) throw new UsageError(problems[0]);

@@ -28,6 +28,14 @@ export function mainHelp(): string {
   ].join('\n');
 }
 
+/**
+ * Every help text the command prints: the main help and each command's `--help`. scripts/build-cli.mjs stores them
+ * beside the bundle (help.json), so that bin/polarweave.mjs answers `--help` without loading the program.
+ */
+export function helpTexts(): { main: string; commands: Record<string, string> } {
+  return { main: mainHelp(), commands: Object.fromEntries(commands.map((c) => [c.name, commandHelp(c)])) };
+}
+
 export async function runCli(argv: string[], io: CommandIO): Promise<number> {
   const [name, ...rest] = argv;
   if (name === undefined || name === '--help' || name === '-h' || name === 'help') {

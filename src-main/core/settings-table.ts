@@ -36,10 +36,19 @@ export interface ModelSettings {
   maxFeatures: number;
   /** Seed of every random choice in training. */
   seed: number;
+  /**
+   * How the λ=0 part is shared between species where the data leave it open (one composition): relative per-atom
+   * polarisabilities by species (only their ratios count), 'free-atom' for the free-atom table
+   * (core/learning/species-split.ts), or null: as the fit leaves it. Absent in models written before it existed.
+   */
+  speciesSplit?: SpeciesSplit;
 }
 
+/** Relative per-atom polarisabilities by species, the free-atom table, or none. */
+export type SpeciesSplit = 'free-atom' | Record<string, number> | null;
+
 export type SettingKey = keyof ModelSettings;
-export type NumericSettingKey = Exclude<SettingKey, 'contributingSpecies' | 'regularisation'>;
+export type NumericSettingKey = Exclude<SettingKey, 'contributingSpecies' | 'regularisation' | 'speciesSplit'>;
 
 export interface NumericSettingSpec {
   key: NumericSettingKey | 'regularisation';
@@ -134,6 +143,39 @@ export const SPECIES_SETTING = {
   v1Key: 'centres',
 };
 
+/** The species-split setting (a keyword or a list of ratios, not a number). */
+export const SPLIT_SETTING = {
+  key: 'speciesSplit' as const,
+  option: 'species-split',
+  label: 'Split between species',
+  help: 'where every training frame has one composition, share each frame\'s polarisability between species in these ratios: "free-atom" (free-atom polarisabilities) or a list such as O:0.80,H:0.67 (default: as the fit leaves it)',
+  explain: 'With one composition the data cannot tell how much of the polarisability belongs to each species. Give ratios (e.g. O:0.80,H:0.67) or use free-atom values; the totals stay as the data say.',
+};
+
+/** The species split in the words of the command line: "free-atom", "O:0.8,H:0.667", or "" for none. */
+export function speciesSplitText(split: SpeciesSplit | undefined): string {
+  if (!split) return '';
+  if (split === 'free-atom') return 'free-atom';
+  return Object.entries(split).map(([k, v]) => `${k}:${v}`).join(',');
+}
+
+/** A species split from its text ("free-atom", "O:0.8,H:0.667" or empty for none), or the problem with it. */
+export function parseSpeciesSplit(text: string): { split: SpeciesSplit } | { problem: string } {
+  const t = text.trim();
+  if (t === '' || t === 'none') return { split: null };
+  if (t === 'free-atom') return { split: 'free-atom' };
+  const out: Record<string, number> = {};
+  for (const item of t.split(',').map((x) => x.trim()).filter(Boolean)) {
+    const m = /^([^\s,:]{1,3})\s*:\s*(\S+)$/.exec(item);
+    const v = m ? Number(m[2]) : NaN;
+    if (!m || !Number.isFinite(v) || v <= 0) return { problem: `species split "${item}" is not SPECIES:VALUE with a positive value (e.g. O:0.80,H:0.67), nor "free-atom"` };
+    if (m[1] in out) return { problem: `species split names ${m[1]} twice` };
+    out[m[1]] = v;
+  }
+  if (Object.keys(out).length < 2) return { problem: 'a species split needs at least two species (e.g. O:0.80,H:0.67)' };
+  return { split: out };
+}
+
 /** Defaults chosen so that training works untuned on 100–400-atom cells (reasons in docs/learning-engine.md). */
 export const DEFAULT_SETTINGS: ModelSettings = {
   cutoffRadius: 4.5,
@@ -147,6 +189,7 @@ export const DEFAULT_SETTINGS: ModelSettings = {
   contributingSpecies: [],
   maxFeatures: 0,
   seed: 1,
+  speciesSplit: null,
 };
 
 /** The settings that may be chosen by cross-validation (`--tune-…` on the command line). */
@@ -200,6 +243,13 @@ export function settingsProblems(s: ModelSettings): string[] {
   if (!Array.isArray(sp) || sp.length > MAX_SPECIES || sp.some((x) => typeof x !== 'string' || !SPECIES_LABEL.test(x))) {
     out.push(`contributing species must be species labels such as O, H (got ${JSON.stringify(sp)})`);
   } else if (new Set(sp).size !== sp.length) out.push(`contributing species ${sp.join(', ')} repeat: list each once`);
+  const split = s.speciesSplit;
+  if (split !== undefined && split !== null && split !== 'free-atom') {
+    const entries = typeof split === 'object' && !Array.isArray(split) ? Object.entries(split) : null;
+    if (!entries || entries.length < 2 || entries.length > MAX_SPECIES || entries.some(([k, v]) => !SPECIES_LABEL.test(k) || typeof v !== 'number' || !Number.isFinite(v) || v <= 0)) {
+      out.push(`species split must be "free-atom" or positive values for at least two species such as O:0.80,H:0.67 (got ${JSON.stringify(split)})`);
+    }
+  }
   return out;
 }
 
@@ -215,5 +265,6 @@ export function describeSettings(s: ModelSettings): string {
   ];
   if (s.maxFeatures) parts.push(`at most ${s.maxFeatures} feature columns per order`);
   if (s.contributingSpecies.length) parts.push(`contributing species ${s.contributingSpecies.join(', ')}`);
+  if (s.speciesSplit) parts.push(`species split ${speciesSplitText(s.speciesSplit)}`);
   return parts.join(', ');
 }

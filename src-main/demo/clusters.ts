@@ -18,6 +18,8 @@ import { CancelledError } from '../core/errors.ts';
 import { demoDipoleModel, PROVENANCE_NOTE } from './scenario.ts';
 import { readAllStructures } from '../io/read-structures.ts';
 import { join } from 'node:path';
+import { writeFileAtomic } from '../io/atomic.ts';
+import { formatExtxyzFrame } from '../io/extxyz.ts';
 
 /** The property the clusters' reference polarisability goes under (io/tensor-keys.ts naming, `_ref` as the demo's other references). */
 export const CLUSTER_KEY = 'alpha_mol_ref_A3';
@@ -164,6 +166,8 @@ export interface ClusterToBulkInput {
   /** The model trained on `trainLiquid` (eps_ref, route cm) when the caller has one already (the demo does). */
   periodicModel?: Model;
   clusters?: ClusterOptions;
+  /** Where to write the clusters (extended XYZ, no cells), so the exercise can be repeated in the window. */
+  clustersFile?: string;
   signal?: AbortSignal;
   log?: (line: string) => void;
 }
@@ -174,6 +178,7 @@ export async function clusterToBulk(input: ClusterToBulkInput): Promise<ClusterT
   const check = () => { if (input.signal?.aborted) throw new CancelledError(); };
   const clusters = demoClusters(input.trainLiquid, input.clusters);
   log(`clusters: ${clusters.length} clusters of ${[...new Set(clusters.map((c) => c.info.cluster_molecules))].join(', ')} molecules labelled in vacuum`);
+  if (input.clustersFile) await writeFileAtomic(input.clustersFile, clusters.map(formatExtxyzFrame).join(''));
   check();
   const clusterRequest: TrainRequest = { tensorKey: CLUSTER_KEY, kind: 'alpha-mol', route: 'cm', settings: input.settings };
   const periodicRequest: TrainRequest = { tensorKey: 'eps_ref', kind: 'eps', route: 'cm', settings: input.settings };
@@ -205,10 +210,10 @@ export const DEMO_TRAJECTORY = 'liquid-trajectory.extxyz.gz';
  * Cluster-to-bulk within the demo run: clusters cut from the demo's training liquid frames, the demo's own
  * liquid-trained model as the periodic comparison, every TRAJECTORY_STRIDE-th trajectory frame as unseen bulk.
  */
-export async function demoClusterToBulk(input: { dataDir: string; liquid: Frame[]; crystal: Frame[]; model: Model; quick: boolean; signal?: AbortSignal; log?: (line: string) => void }): Promise<ClusterToBulk> {
+export async function demoClusterToBulk(input: { dataDir: string; liquid: Frame[]; crystal: Frame[]; model: Model; quick: boolean; clustersFile?: string; signal?: AbortSignal; log?: (line: string) => void }): Promise<ClusterToBulk> {
   const stride = input.quick ? 100 : 25;
   const trajectory = (await readAllStructures(join(input.dataDir, DEMO_TRAJECTORY), { signal: input.signal })).filter((_, i) => i % stride === 0);
-  return clusterToBulk({ trainLiquid: input.liquid, testLiquid: trajectory, crystal: input.crystal, settings: input.model.settings, periodicModel: input.model, signal: input.signal, log: input.log });
+  return clusterToBulk({ trainLiquid: input.liquid, testLiquid: trajectory, crystal: input.crystal, settings: input.model.settings, periodicModel: input.model, clustersFile: input.clustersFile, signal: input.signal, log: input.log });
 }
 
 /** The cluster-to-bulk figures as a Markdown section of the demo summary. */

@@ -36,7 +36,7 @@ export interface DemoOptions {
 }
 
 export interface DemoResult {
-  files: { csv: string; model: string; summary: string; validation: string };
+  files: { csv: string; model: string; summary: string; validation: string; clusters: string };
   liquidFrames: number;
   crystalFrames: number;
   validation: ValidationReport;
@@ -99,6 +99,7 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
     model: join(outDir, 'liquid-model.json'),
     summary: join(outDir, 'summary.md'),
     validation: join(outDir, 'liquid-validation.json'),
+    clusters: join(outDir, 'clusters.extxyz'),
   };
   log(`demo: predicting ${crystal.length} crystal frames`);
   // the predict use case with the demo's sink: typed predictions in memory, then predict's table
@@ -127,7 +128,7 @@ export async function runDemo(options: DemoOptions): Promise<DemoResult> {
   const predictedMean = mat3Mean(predictions.map((p) => p.eps));
   const referenceMean = mat3Mean(refEps);
   const seconds = (Date.now() - started) / 1000;
-  const bulk = await demoClusterToBulk({ dataDir, liquid, crystal, model, quick: !!options.quick, signal: options.signal, log });
+  const bulk = await demoClusterToBulk({ dataDir, liquid, crystal, model, quick: !!options.quick, clustersFile: files.clusters, signal: options.signal, log });
   const summary = demoSummary({ liquid, crystal, report, crystalErrors, outsideFrames, predictions, predictedMean, referenceMean, model, seconds, quick: !!options.quick, files }) + '\n' + clusterToBulkText(bulk);
   await writeFileAtomic(files.summary, summary);
   return {

@@ -26,7 +26,7 @@ export interface SummaryInput {
   model: Model;
   seconds: number;
   quick: boolean;
-  files: { csv: string; model: string; summary: string; validation: string };
+  files: { csv: string; model: string; summary: string; validation: string; clusters: string };
 }
 
 /** A value at the decimal places of its error (core/numerics/uncertain.ts, as the CLI and the window print). */
@@ -106,6 +106,7 @@ export function demoSummary(s: SummaryInput): string {
     `- ${s.files.csv}: predicted ε and α_CM of each crystal frame, with the reference (eps_ref_*), the differences and the applicability figures`,
     `- ${s.files.model}: the trained model (load it with \`polarweave predict\`)`,
     `- ${s.files.validation}: cross-validation parity points and learning curve`,
+    `- ${s.files.clusters}: the clusters of the exercise below, without cells, with their polarisability in vacuum (alpha_mol_ref_A3): open them in the window and train them as the isolated molecules' polarisability, then predict the liquid trajectory in Transfer`,
     '',
   ];
   return lines.join('\n');

@@ -1,7 +1,8 @@
 // The browser host: the same API as the Electron window, over HTTP on 127.0.0.1 only, on a random port,
 // with a per-run token required on every API call (header `x-polarweave-token`). It also serves the built
 // renderer (out/renderer) with a strict CSP; the page reads the token from the URL fragment (#token=…),
-// which browsers never send to a server or put in Referer headers.
+// which browsers never send to a server or put in Referer headers. With a session pool (sessions.ts) every tab
+// has its own session: the page sends its id with each call, and `POST /session/alive` is its sign of life.
 import { randomBytes, timingSafeEqual } from 'node:crypto';
 import { createReadStream } from 'node:fs';
 import { stat } from 'node:fs/promises';
@@ -12,11 +13,15 @@ import type { ApiResponse, ApiService } from '../api/contract.ts';
 import { MAX_REQUEST_BYTES } from '../core/limits.ts';
 import { dispatch } from '../api/dispatch.ts';
 import { CONTENT_SECURITY_POLICY } from './csp.ts';
+import { SESSION_HEADER, SessionError, type PooledService, type SessionPool } from './sessions.ts';
 
 export const TOKEN_HEADER = 'x-polarweave-token';
 
 export interface HostOptions {
-  service: ApiService;
+  /** One service for every call (tests)… */
+  service?: ApiService;
+  /** …or one per browser tab, by the session id the page sends. */
+  sessions?: SessionPool<PooledService>;
   /** Folder with the built renderer (index.html); null: API only. */
   rendererDir: string | null;
   /** 0 (default) = a random free port. */
@@ -117,6 +122,7 @@ export async function startHost(options: HostOptions): Promise<Host> {
   const token = options.token ?? randomBytes(32).toString('hex');
   const limit = options.maxBodyBytes ?? MAX_REQUEST_BYTES;
   const rendererDir = options.rendererDir ? resolve(options.rendererDir) : null;
+  if (!options.service === !options.sessions) throw new Error('startHost: give a service or a session pool, not both');
   let port = 0;
 
   const server = createServer(async (req, res) => {
@@ -129,7 +135,7 @@ export async function startHost(options: HostOptions): Promise<Host> {
       if (host !== `127.0.0.1:${port}` && host !== `localhost:${port}`) return plain(res, 403, 'unexpected Host header');
       const url = new URL(req.url ?? '/', `http://127.0.0.1:${port}`);
 
-      if (url.pathname.startsWith('/api/')) {
+      if (url.pathname.startsWith('/api/') || url.pathname === '/session/alive') {
         if (req.method !== 'POST') {
           res.setHeader('Allow', 'POST');
           return plain(res, 405, 'API calls use POST');
@@ -157,9 +163,22 @@ export async function startHost(options: HostOptions): Promise<Host> {
           }
           return sendJson(res, 400, { ok: false, error: { name: 'ApiValidationError', message: 'unreadable request: the body is not JSON' } });
         }
+        let service: ApiService;
+        try {
+          const sessionId = req.headers[SESSION_HEADER];
+          const id = typeof sessionId === 'string' ? sessionId : undefined;
+          if (url.pathname === '/session/alive') {
+            if (!options.sessions) return sendJson(res, 200, { ok: true, value: { known: true } });
+            return sendJson(res, 200, { ok: true, value: options.sessions.touch(id) });
+          }
+          service = options.sessions ? options.sessions.serviceFor(id) : (options.service as ApiService);
+        } catch (e) {
+          if (e instanceof SessionError) return sendJson(res, e.status, { ok: false, error: e.apiError });
+          throw e;
+        }
         const method = decodePath(url.pathname.slice('/api/'.length));
         if (method === null) return plain(res, 400, 'malformed URL encoding');
-        const outcome = await dispatch(options.service, method, payload);
+        const outcome = await dispatch(service, method, payload);
         const status = { ok: 200, 'bad-request': 400, 'unknown-method': 404, failed: 200 }[outcome.status];
         return sendJson(res, status, quiet(outcome.response));
       }

@@ -28,7 +28,7 @@ const partSchema = z.object({
   kernel: kernelSchema.optional(),
   regularisation: z.object({ relative: finite, lambda: finite.min(0), cvError: z.number() }).loose(),
   posterior: z
-    .object({ form: z.enum(['primal', 'dual']), size: count, factor: f64, noise: finite.min(0), lambda: finite.min(0), nystrom: f64.optional(), repFrame: i32.optional(), counts: f64.optional() })
+    .object({ form: z.enum(['primal', 'dual', 'design']), size: count, factor: f64, noise: finite.min(0), lambda: finite.min(0), nystrom: f64.optional(), repFrame: i32.optional(), counts: f64.optional(), design: f64.optional(), rows: count.optional() })
     .loose()
     .optional(),
 });
@@ -120,13 +120,24 @@ export function checkModelContents(m: unknown, file: string): asserts m is Model
       if (k.p.length !== k.species.length * n0 || k.v.length !== k.species.length * k.n || !inRange(k.species, nS)) bad(`${at} kernel sizes`);
       if (!allFinite(k.p) || !allFinite(k.v)) bad(`${at} kernel values`);
     }
-    const post = p.posterior;
-    if (post && (post.factor.length !== post.size ** 2 || !allFinite(post.factor) || (post.nystrom && !allFinite(post.nystrom)))) bad(`${at} posterior`);
+    if (p.posterior && !posteriorFits(p.posterior)) bad(`${at} posterior`);
   }
   const a = model.applicability;
   if (a.n0 !== n0 || a.p.length !== a.species.length * n0 || !inRange(a.species, nS) || !allFinite(a.p)) bad('applicability');
   if (a.perSpecies.length !== nS) bad('applicability thresholds');
   checkTrustContents(model, bad);
+}
+
+/** A posterior's arrays have the sizes its form needs, and finite numbers (regression.ts Posterior). */
+function posteriorFits(post: NonNullable<Model['parts'][number]['posterior']>): boolean {
+  if (post.nystrom && !allFinite(post.nystrom)) return false;
+  if (post.form === 'design') {
+    const rows = post.rows;
+    if (rows === undefined || rows < 1 || !(post.design instanceof Float64Array) || post.design.length !== rows * post.size || !allFinite(post.design)) return false;
+    if (!(post.lambda > 0)) return false;
+    return post.factor.length === rows * rows && allFinite(post.factor);
+  }
+  return post.factor.length === post.size ** 2 && allFinite(post.factor);
 }
 
 /** Error-bar calibration, leverage part and domain ranges: optional (older files lack them and predict without). */
@@ -137,7 +148,7 @@ function checkTrustContents(m: Model, bad: (what: string) => never): void {
   }
   if (m.leverage !== undefined) {
     const post = m.leverage?.posterior;
-    if (m.leverage?.order !== 0 || !(post?.factor instanceof Float64Array) || post.factor.length !== post.size ** 2 || !allFinite(post.factor)) bad('leverage part');
+    if (m.leverage?.order !== 0 || !(post?.factor instanceof Float64Array) || !posteriorFits(post)) bad('leverage part');
   }
   if (m.domain !== undefined) {
     const d = m.domain;

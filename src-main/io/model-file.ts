@@ -1,9 +1,13 @@
-// Trained-model files: versioned, self-describing JSON of our own format "polarweave-model", version 2.
+// Trained-model files: versioned, self-describing JSON of our own format "polarweave-model", version 3.
 //   { format, version, description, checksum: { algorithm: "sha256", value }, payload }
 // Version 2 names the settings as the settings table does (core/settings-table.ts); version 1 used other keys
 // and is still read: fromVersion1 maps it to the model of today, and nothing else knows the old keys. Version 2
 // also writes a few keys of the model itself in plain words (FILE_KEYS_V2: speciesWithContributions,
-// anisotropicFeatureLimits with radialFunctions/angularOrder, kernelExponent of a kernel part).
+// anisotropicFeatureLimits with radialFunctions/angularOrder, kernelExponent of a kernel part). Version 3 is
+// version 2 plus the variance in its smaller form: a part trained on fewer frames than it has features keeps its
+// design and a frames × frames factor (posterior form "design", core/learning/regression.ts) instead of the
+// features × features factor; versions 2 and 3 are read alike (a version-2 file keeps its primal factor and
+// predicts exactly what it did).
 // The payload is the Model of core/learning/model.ts with every typed array stored as base64 of its little-endian bytes
 // ({"f64": …} / {"i32": …}; Cholesky factors as their packed lower triangle, {"f64lower": …, "n": …}).
 // The checksum is sha256 over the canonical JSON of the payload (keys sorted, no spaces), so any edit or
@@ -13,15 +17,15 @@ import { InputError, ModelError } from '../core/errors.ts';
 import { MAX_JSON_DEPTH } from '../core/limits.ts';
 import type { Model } from '../core/learning/model.ts';
 import { writeFileAtomic } from './atomic.ts';
-import { NUMERIC_SETTINGS, SPECIES_SETTING } from '../core/settings-table.ts';
+import { NUMERIC_SETTINGS, SPECIES_SETTING, SPLIT_SETTING } from '../core/settings-table.ts';
 import { jsonTooDeep } from './json-depth.ts';
 import { checkModelContents } from './model-check.ts';
 import { readWholeFile } from './whole-file.ts';
 
 export const MODEL_FORMAT = 'polarweave-model';
-export const MODEL_VERSION = 2;
+export const MODEL_VERSION = 3;
 /** Versions this program reads. */
-export const MODEL_VERSIONS_READ = [1, 2] as const;
+export const MODEL_VERSIONS_READ = [1, 2, 3] as const;
 
 type Json = null | boolean | number | string | Json[] | { [k: string]: Json };
 
@@ -218,7 +222,7 @@ export function parseModel(text: string, fileName: string): Model {
   if (d.format !== MODEL_FORMAT) throw new ModelError(`${fileName}: not a Polarweave model file (format is ${JSON.stringify(d.format ?? null)}, expected "${MODEL_FORMAT}")`);
   if (!(MODEL_VERSIONS_READ as readonly unknown[]).includes(d.version)) {
     const newer = typeof d.version === 'number' && d.version > MODEL_VERSION;
-    throw new ModelError(`${fileName}: model file version ${JSON.stringify(d.version ?? null)} is not supported (this program reads versions ${MODEL_VERSIONS_READ.join(' and ')})${newer ? '; update Polarweave' : ''}`);
+    throw new ModelError(`${fileName}: model file version ${JSON.stringify(d.version ?? null)} is not supported (this program reads versions ${MODEL_VERSIONS_READ.slice(0, -1).join(', ')} and ${MODEL_VERSIONS_READ[MODEL_VERSIONS_READ.length - 1]})${newer ? '; update Polarweave' : ''}`);
   }
   const ck = d.checksum as Record<string, Json> | undefined;
   need(!!ck && ck.algorithm === 'sha256' && typeof ck.value === 'string', fileName, 'no sha256 checksum');
@@ -250,6 +254,7 @@ export function fromVersion1(payload: Record<string, unknown>, file: string): Re
   }
   need(SPECIES_SETTING.v1Key in o, file, `settings.${SPECIES_SETTING.v1Key} of version 1`);
   settings[SPECIES_SETTING.key] = o[SPECIES_SETTING.v1Key];
+  settings[SPLIT_SETTING.key] = null; // version 1 knew no species split
   return { ...payload, settings };
 }
 

@@ -34,6 +34,11 @@ export interface TrajectorySeries {
   eps: Float64Array | null;
   alphaCM: Float64Array | null;
   alphaC: Float64Array | null;
+  /**
+   * Frames without a periodic cell (molecules, clusters): their polarisability in vacuum (Å³), 9 per frame — not a
+   * cell's α_CM, though it is learnt as one; such a file has no ε, α_CM or α_c series.
+   */
+  alphaMol: Float64Array | null;
   /** Cell dipole per frame (3 numbers), when the file has one. */
   dipole: Float64Array | null;
   dipoleSource: string | null;
@@ -78,7 +83,10 @@ function fromCsv(t: CsvTable): TrajectorySeries {
     throw new InputError(`${isolatedRows.length} of ${t.records.length} rows are frames without a periodic cell (empty volume and ε), the others periodic (first isolated row on line ${t.lines[isolatedRows[0]]})`, { file: t.file }, 'analyse a trajectory of one kind: isolated molecules (their α) or periodic frames (ε)');
   }
   const eps = isolatedRows.length ? null : tensorColumns(t, epsColumn);
-  const alphaCM = tensorColumns(t, (c) => alphaColumn('alpha-cm', c));
+  // an isolated row's alpha_cm_* columns hold the molecule's polarisability in vacuum (ISOLATED_ROWS_NOTE)
+  const alphaColumns = tensorColumns(t, (c) => alphaColumn('alpha-cm', c));
+  const alphaCM = isolatedRows.length ? null : alphaColumns;
+  const alphaMol = isolatedRows.length ? alphaColumns : null;
   const alphaC = tensorColumns(t, (c) => alphaColumn('alpha-c', c));
   let dipole: Float64Array | null = null;
   let dipoleSource: string | null = null;
@@ -92,7 +100,7 @@ function fromCsv(t: CsvTable): TrajectorySeries {
       break;
     }
   }
-  if (!eps && !alphaCM && !alphaC && !dipole) {
+  if (!eps && !alphaCM && !alphaMol && !alphaC && !dipole) {
     throw new InputError(`no tensor columns (${epsColumn('xx')} …, ${alphaColumn('alpha-cm', 'xx')} …) and no dipole columns`, { file: t.file }, 'analyse reads the CSV that `predict` writes');
   }
   const col = (name: string) => {
@@ -113,6 +121,7 @@ function fromCsv(t: CsvTable): TrajectorySeries {
     eps,
     alphaCM,
     alphaC,
+    alphaMol,
     dipole,
     dipoleSource,
     outside: outsideCol ? Array.from(outsideCol, (x) => x !== 0) : null,
@@ -140,6 +149,9 @@ async function fromExtxyz(file: string, signal?: AbortSignal): Promise<Trajector
   const eps: number[] = [];
   const alphaCM: number[] = [];
   const alphaC: number[] = [];
+  const alphaMol: number[] = [];
+  let firstIsolated: number | null = null;
+  let firstPeriodic: number | null = null;
   const dipole: number[] = [];
   let dipoleKey: string | null = null;
   const outside: boolean[] = [];
@@ -156,6 +168,14 @@ async function fromExtxyz(file: string, signal?: AbortSignal): Promise<Trajector
     const e = infoTensor(fr, PRED_KEYS.eps, index, file) ?? infoTensor(fr, 'eps_inf', index, file);
     const acm = infoTensor(fr, PRED_KEYS.alphaCM, index, file);
     const ac = infoTensor(fr, PRED_KEYS.alphaC, index, file);
+    // a frame without a cell carries its polarisability in vacuum (pred_alpha_mol_A3) and no ε: one kind per file
+    const amol = infoTensor(fr, PRED_KEYS.alphaMol, index, file);
+    if (amol) firstIsolated ??= index;
+    else if (e || acm) firstPeriodic ??= index;
+    if (firstIsolated !== null && firstPeriodic !== null) {
+      throw new InputError(`frame ${firstIsolated} has no periodic cell (${PRED_KEYS.alphaMol}, no ε) but frame ${firstPeriodic} is periodic`, { file, frame: index }, 'analyse a trajectory of one kind: isolated molecules (their α) or periodic frames (ε)');
+    }
+    if (amol) alphaMol.push(...amol);
     if (k === 0) dipoleKey = ['dipole'].find((d) => Array.isArray(fr.info[d]) && (fr.info[d] as number[]).length === 3) ?? null;
     const need = (ok: boolean, what: string) => {
       if (!ok) throw new InputError(`frame has no ${what} but the first frame has`, { file, frame: index }, 'every frame must carry the same keys');
@@ -220,7 +240,8 @@ async function fromExtxyz(file: string, signal?: AbortSignal): Promise<Trajector
     }
     k++;
   }
-  if (eps.length === 0 && alphaCM.length === 0 && alphaC.length === 0 && dipole.length === 0) {
+  if (alphaMol.length > 0 && alphaMol.length !== 9 * frames.length) throw new InputError(`some frames have no ${PRED_KEYS.alphaMol} but the first has`, { file }, 'every frame must carry the same keys');
+  if (eps.length === 0 && alphaCM.length === 0 && alphaC.length === 0 && alphaMol.length === 0 && dipole.length === 0) {
     throw new InputError(`the frames carry no ${PRED_KEYS.eps} / ${PRED_KEYS.alphaCM} / ${PRED_KEYS.alphaC} (or eps_inf) keys`, { file }, 'analyse reads what `predict … -o OUT.extxyz` writes');
   }
   const arr = (xs: number[]) => (xs.length > 0 ? Float64Array.from(xs) : null);
@@ -232,6 +253,7 @@ async function fromExtxyz(file: string, signal?: AbortSignal): Promise<Trajector
     eps: arr(eps),
     alphaCM: arr(alphaCM),
     alphaC: arr(alphaC),
+    alphaMol: arr(alphaMol),
     dipole: arr(dipole),
     dipoleSource: dipoleKey ? `info key ${dipoleKey}` : null,
     outside: outside.length === frames.length ? outside : null,

@@ -119,23 +119,71 @@ function electronClient(bridge: ShellBridge): Client {
 }
 
 export const TOKEN_HEADER = 'x-polarweave-token';
+/** The browser host keeps one session per tab by this id (src-main/host/sessions.ts, SESSION_HEADER). */
+export const SESSION_HEADER = 'x-polarweave-session';
+/** How often an open tab tells the host it is still there (src-main/host/sessions.ts, SIGN_OF_LIFE_MS). */
+const SIGN_OF_LIFE_MS = 30_000;
+const SESSION_KEY = 'pw-session';
+
+/**
+ * This tab's session id. Kept in the tab's sessionStorage, so a reload keeps the tab's work on the host; a new tab
+ * makes its own. A tab duplicated from another gets a copy of its sessionStorage, so at start the tab asks the
+ * other open tabs of this address (BroadcastChannel) whether one of them already holds the id, and takes a new one
+ * if so. Two tabs starting at the same moment with the same id: the one with the smaller random name keeps it.
+ */
+function tabSession(): { id: () => string; ready: Promise<void>; renew: () => void } {
+  const fresh = () => {
+    const made = crypto.randomUUID();
+    sessionStorage.setItem(SESSION_KEY, made);
+    return made;
+  };
+  let id = sessionStorage.getItem(SESSION_KEY) ?? fresh();
+  const me = crypto.randomUUID();
+  let settled = false;
+  let ready = Promise.resolve();
+  if (typeof BroadcastChannel === 'function') {
+    const channel = new BroadcastChannel('polarweave-tabs');
+    channel.onmessage = (e: MessageEvent) => {
+      const m = e.data as { type?: string; id?: string; from?: string; to?: string } | null;
+      if (m?.type === 'who' && m.id === id && m.from !== me && (settled || me < (m.from ?? ''))) channel.postMessage({ type: 'mine', id, to: m.from });
+      if (m?.type === 'mine' && m.to === me && m.id === id && !settled) id = fresh();
+    };
+    ready = new Promise((resolve) => {
+      channel.postMessage({ type: 'who', id, from: me });
+      setTimeout(() => {
+        settled = true;
+        resolve();
+      }, 200);
+    });
+  } else settled = true;
+  // an ended session: this page keeps its id (every call says the session ended), the next load takes a new one
+  return { id: () => id, ready, renew: () => sessionStorage.setItem(SESSION_KEY, crypto.randomUUID()) };
+}
 
 function browserClient(token: string): Client {
+  const session = tabSession();
+  const post = async (path: string, body: unknown): Promise<Response> => {
+    await session.ready;
+    return fetch(path, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json', [TOKEN_HEADER]: token, [SESSION_HEADER]: session.id() },
+      body: JSON.stringify(body ?? {}),
+    });
+  };
   const call = async <M extends ApiMethod>(method: M, input: ApiInput<M>): Promise<ApiOutput<M>> => {
     let res: Response;
     try {
-      res = await fetch(`/api/${method}`, {
-        method: 'POST',
-        headers: { 'content-type': 'application/json', [TOKEN_HEADER]: token },
-        body: JSON.stringify(input ?? {}),
-      });
+      res = await post(`/api/${method}`, input);
     } catch {
       throw new CallError({ name: 'ConnectionError', message: 'the app’s computation process is not answering (was `npm start` stopped?)' });
     }
     const body = (await res.json().catch(() => null)) as ApiResponse<ApiOutput<M>> | null;
     if (!body) throw new CallError({ name: 'ConnectionError', message: `unexpected answer from the host (HTTP ${res.status})` });
+    if (!body.ok && body.error.name === 'SessionEnded') session.renew();
     return unwrap(body);
   };
+  // the sign of life that keeps this tab's session while the tab is open (a closed tab's session can make room)
+  setInterval(() => void post('/session/alive', {}).catch(() => undefined), SIGN_OF_LIFE_MS);
   const openFiles = async (files: File[]) => {
     const out: DatasetSummary[] = [];
     for (const f of files) out.push(await call('openStructures', await fileToPayload(f)));

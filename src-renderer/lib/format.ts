@@ -40,7 +40,7 @@ export function percent(v: number): string {
 /** The quantity a validation report compared on, in words. */
 /** The symbol of a compared tensor for chart labels: ε, α_CM or α. */
 export function targetSymbol(target: string): string {
-  return target === 'eps' ? 'ε' : target.startsWith('alpha-cm') ? 'α_CM' : target.startsWith('alpha') ? 'α' : target;
+  return target.startsWith('eps') ? 'ε' : target.startsWith('alpha-cm') ? 'α_CM' : target.startsWith('alpha') ? 'α' : target;
 }
 
 /** Short label of the error relative to the spread of the data, and its meaning (for a tooltip). */
@@ -50,8 +50,13 @@ export const SPREAD_MEANING = 'Error relative to the spread of the data: RMSE / 
 export const ANISO_MEANING =
   'Anisotropic error: for each frame, the anisotropy √(3/2)·‖Δ − (tr Δ/3) I‖ of the error tensor Δ = predicted − reference, root mean square over the frames (the invariant of the eps_aniso column).';
 
+/** What a validation compared (core/learning/error-figures.ts comparedOn), in words for the window. */
 export function targetName(target: string): string {
-  return target === 'eps' ? 'ε∞ (dimensionless)' : target;
+  const frames = target.includes(', ') ? `, ${target.slice(target.indexOf(', ') + 2)}` : '';
+  if (target.startsWith('eps')) return `ε∞ (dimensionless)${frames}`;
+  if (target.startsWith('alpha-mol')) return `α of the molecules or clusters in vacuum (Å³)${frames}`;
+  if (target.startsWith('alpha-cm')) return `α_CM (Å³)${frames}`;
+  return target;
 }
 
 /**

@@ -4,12 +4,22 @@
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { afterAll, describe, expect, it } from 'vitest';
+import { afterAll, describe, expect, it, vi } from 'vitest';
 import type { AppService } from '../../src-main/app/service.ts';
 import { createAppService } from '../../src-main/app/wiring.ts';
 import { runCli } from '../../src-main/cli/main.ts';
 import { setSummaryLines } from '../../src-main/app/predict/prediction.ts';
 import { tsWorkerFactory } from '../../src-main/jobs/spawn-ts.ts';
+import type { JobRunner } from '../../src-main/jobs/runner.ts';
+import type { PredictTaskInput } from '../../src-main/app/task-types.ts';
+import type { Model } from '../../src-main/core/learning/model.ts';
+
+function typedArraysOf(value: unknown, out: ArrayBufferView[] = []): ArrayBufferView[] {
+  if (ArrayBuffer.isView(value)) out.push(value);
+  else if (Array.isArray(value)) value.forEach((v) => typedArraysOf(v, out));
+  else if (value !== null && typeof value === 'object') for (const v of Object.values(value)) typedArraysOf(v, out);
+  return out;
+}
 
 const WATER = '/work/shared/data/water-dft-sample.extxyz';
 const scratch = mkdtempSync(join(tmpdir(), 'pw-service-'));
@@ -99,7 +109,15 @@ describe('app service', () => {
     expect(model.test!.points.map((p) => p.frame)).toEqual([6, 7]);
     expect(model.trainedOn.frames).toBe(6);
 
+    // the predict job hands its worker the model in shared memory (no copy per job), as the CLI does
+    const runner = (service as unknown as { options: { runner: JobRunner } }).options.runner;
+    const start = vi.spyOn(runner, 'start');
     const p = await service.startJob({ kind: 'predict', params: { modelId: model.id, datasetId } });
+    const handed = (start.mock.calls[0][1] as PredictTaskInput).model as Model;
+    start.mockRestore();
+    const arrays = typedArraysOf(handed);
+    expect(arrays.length).toBeGreaterThan(3);
+    expect(arrays.every((a) => a.buffer instanceof SharedArrayBuffer)).toBe(true);
     const ps = await service.waitForJob(p.jobId);
     if (ps.result?.kind !== 'predict') throw new Error(`expected a predict result, got ${JSON.stringify(ps.error)}`);
     const pred = ps.result.prediction;
@@ -108,6 +126,7 @@ describe('app service', () => {
     expect(pred.frames[0].reference![0]).toBeCloseTo(1.5487774, 7);
     // Refractive indices are √ of ε's principal values: their squares sum to tr ε.
     const f0 = pred.frames[0];
+    if (f0.isolated) throw new Error('a periodic water frame came back as isolated');
     expect(f0.refractive.reduce((a, n) => a + n * n, 0)).toBeCloseTo(f0.eps[0] + f0.eps[4] + f0.eps[8], 10);
 
     // The per-atom marks of the structure view follow the rule that counts the frame's atoms outside.
@@ -174,4 +193,28 @@ describe('app service', () => {
     expect(d.atomOutside).toEqual(before.atomOutside);
     await expect(service.openProject({ name: 'x.json', text: '{"format":"other"}' })).rejects.toThrow(/x.json: not a Polarweave project file/);
   });
+
+  it('draws a learning curve after training (the Quick look) the same as training with it would, into the model’s report', async () => {
+    const datasetId = (await service.openStructures({ name: 'water.extxyz', text: readFileSync(WATER, 'utf8') })).id;
+    const request = { tensorKey: 'eps_inf', kind: 'eps' as const, route: 'cm' as const, settings: small };
+    const frames = [0, 1, 2, 3, 4, 5];
+    const train = async (learningCurve: number[]) => {
+      const s = await service.waitForJob((await service.startJob({ kind: 'train', params: { datasetId, frames, request, folds: 3, learningCurve } })).jobId);
+      if (s.result?.kind !== 'train') throw new Error(`expected a train result, got ${JSON.stringify(s.error)}`);
+      return s.result.model;
+    };
+    const quick = await train([]);
+    expect(quick.report!.learningCurve).toEqual([]);
+    const withCurve = await train([3, 4]);
+    expect(withCurve.report!.learningCurve.map((c) => c.trainSize)).toEqual([3, 4]);
+    // a curve for another model's frames or folds is refused
+    await expect(service.startJob({ kind: 'validate', params: { datasetId, frames, request, folds: 2, learningCurve: [3], modelId: quick.id } })).rejects.toThrow(/its own frames and folds/);
+    const v = await service.waitForJob((await service.startJob({ kind: 'validate', params: { datasetId, frames, request, folds: 3, learningCurve: [3, 4], modelId: quick.id } })).jobId);
+    expect(v.state).toBe('done');
+    const after = await service.getModel({ modelId: quick.id });
+    expect(after.report!.learningCurve).toEqual(withCurve.report!.learningCurve);
+    expect(after.report!.curveTrend).toBe(withCurve.report!.curveTrend);
+    // the rest of the report is the training's own
+    expect(after.report!.errors).toEqual(quick.report!.errors);
+  }, 120_000);
 });

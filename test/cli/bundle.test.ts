@@ -3,11 +3,13 @@
 // worker entry: the scratch folder has no TypeScript loader to fall back on) are byte for byte those of the
 // sources run in process.
 import { execFileSync } from 'node:child_process';
-import { mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { copyFileSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, symlinkSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { mainHelp } from '../../src-main/cli/main.ts';
+import { commandHelp, mainHelp } from '../../src-main/cli/main.ts';
+import { commands } from '../../src-main/cli/commands/registry.ts';
+import { spawnSync } from 'node:child_process';
 import { cli } from './run-cli.ts';
 
 const MODEL = 'test/fixtures/models/water-v1.model.json';
@@ -45,4 +47,36 @@ describe('pre-built command', () => {
     expect(r.code).toBe(0);
     expect(readFileSync(fromBundle, 'utf8')).toBe(readFileSync(fromSource, 'utf8'));
   }, 60_000);
+});
+
+describe('polarweave --help from the stored texts', () => {
+  // a checkout in a scratch folder: bin/, the sources (linked, for the freshness check) and a bundle whose program
+  // cannot load — so every help printed below came from help.json, not from the program
+  const root = join(dir, 'checkout');
+  beforeAll(() => {
+    mkdirSync(join(root, 'bin'), { recursive: true });
+    copyFileSync('bin/polarweave.mjs', join(root, 'bin', 'polarweave.mjs'));
+    symlinkSync(join(process.cwd(), 'src-main'), join(root, 'src-main'));
+    execFileSync(process.execPath, ['scripts/build-cli.mjs', '--outdir', join(root, 'out', 'cli')], { encoding: 'utf8' });
+    writeFileSync(join(root, 'out', 'cli', 'main.mjs'), "throw new Error('the program was loaded');\n");
+  }, 60_000);
+  const run = (...args: string[]) => spawnSync(process.execPath, [join(root, 'bin', 'polarweave.mjs'), ...args], { encoding: 'utf8', env: { ...process.env, POLARWEAVE_FROM_SOURCE: '' } });
+
+  it('prints the program’s own help texts, with its exit codes, without loading it', () => {
+    for (const [args, code] of [[['--help'], 0], [['-h'], 0], [['help'], 0], [[], 2]] as const) {
+      const r = run(...args);
+      expect(r.stdout, args.join(' ')).toBe(mainHelp() + '\n');
+      expect(r.status).toBe(code);
+    }
+    for (const c of commands) {
+      const r = run(c.name, 'x', '--help');
+      expect(r.stdout).toBe(commandHelp(c) + '\n');
+      expect(r.status).toBe(0);
+    }
+  });
+
+  it('leaves everything else to the program (here one that cannot load, to show it was asked)', () => {
+    expect(run('no-such-command', '--help').stderr).toMatch(/the program was loaded/);
+    expect(run('inspect', 'file.extxyz').stderr).toMatch(/the program was loaded/);
+  });
 });

@@ -16,7 +16,7 @@ describe('polarweave demo --quick', () => {
     const dir = join(scratch, 'out');
     const r = await cli('demo', '--quick', '-o', dir);
     expect(r.code, r.err).toBe(0);
-    for (const f of ['crystal-eps.csv', 'liquid-model.json', 'liquid-validation.json', 'summary.md']) {
+    for (const f of ['crystal-eps.csv', 'liquid-model.json', 'liquid-validation.json', 'summary.md', 'clusters.extxyz']) {
       expect(existsSync(join(dir, f)), f).toBe(true);
       expect(r.out).toContain(join(dir, f));
     }

@@ -69,7 +69,27 @@ describe('frames without a cell on the command line', () => {
     const a = await cli(['analyse', csv, '-o', join(dir, 'a.csv')]);
     expect(a.err).not.toMatch(/error/i);
     expect(a.code).toBe(0);
-    expect(a.out).toMatch(/mean α_CM/);
+    // the α of a table of isolated frames is the molecule's polarisability in vacuum, not a cell's α_CM
+    expect(a.out).toMatch(/mean α of the molecule or cluster in vacuum \(Å³\)/);
+    expect(a.out).not.toMatch(/α_CM/);
+    expect(readFileSync(join(dir, 'a.csv'), 'utf8')).toMatch(/\nmean,alpha_mol,iso,/);
+    // the same from the extended XYZ output (pred_alpha_mol_A3 and the per-atom local tensors), on the three
+    // monomers (per-species sums need the same atoms in every frame)
+    const xyz = join(dir, 'p3.extxyz');
+    const csv3 = join(dir, 'p3.csv');
+    expect((await cli(['predict', model, clusters, '--frames', '0:3', '-o', xyz])).code).toBe(0);
+    expect((await cli(['predict', model, clusters, '--frames', '0:3', '-o', csv3])).code).toBe(0);
+    const ax = await cli(['analyse', xyz]);
+    expect(ax.err).not.toMatch(/error/i);
+    expect(ax.code).toBe(0);
+    expect(ax.out).toMatch(/mean α of the molecule or cluster in vacuum \(Å³\)/);
+    expect(ax.out).toMatch(/per-species contributions to α \(in vacuum\) \(Å³\)/);
+    expect(ax.out).not.toMatch(/α_CM/);
+    const ac = await cli(['analyse', csv3]);
+    expect(ac.code).toBe(0);
+    // the extended XYZ file and the table give the same mean α
+    const isoOf = (out: string) => /mean α of the molecule[^\n]*\n(?:.*\n){6}\s+iso\s+(\S+)/.exec(out)![1];
+    expect(isoOf(ax.out)).toBe(isoOf(ac.out));
     const lines = text.split('\n');
     const header = lines.findIndex((l) => l.startsWith('frame,'));
     const periodicRow = lines[header + 1].split(',').map((f, k) => (k >= 2 && k <= 17 ? (k === 2 ? '1000' : '1.5') : f)).join(',');

@@ -23,6 +23,20 @@ beforeAll(() => {
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 describe('polarweave train / predict / validate', () => {
+  it('takes a species split (--species-split), keeps it in the model file, and refuses a malformed one', async () => {
+    const model = join(dir, 'split.json');
+    const t = await cli(['train', data(), '--tensor', 'eps_inf', '--as', 'eps', ...FAST, '--species-split', 'O:3,H:1', '-o', model]);
+    expect(t.err).not.toMatch(/error/);
+    expect(t.code).toBe(0);
+    const { loadModel } = await import('../../src-main/io/model-file.ts');
+    const m = await loadModel(model);
+    expect(m.settings.speciesSplit).toEqual({ O: 3, H: 1 });
+    expect(m.notes.join('\n')).toMatch(/species split: where the training compositions leave it open/);
+    const bad = await cli(['train', data(), '--tensor', 'eps_inf', '--as', 'eps', ...FAST, '--species-split', 'O:3', '-o', join(dir, 'bad.json')]);
+    expect(bad.code).not.toBe(0);
+    expect(bad.err).toMatch(/--species-split: a species split needs at least two species/);
+  }, 120_000);
+
   it('trains, then predicts to CSV and to extended XYZ', async () => {
     const model = join(dir, 'm.json');
     const t = await cli(['train', data(), '--tensor', 'alpha_periodic_A3', '--as', 'alpha-c', ...FAST, '-o', model]);

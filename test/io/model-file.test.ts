@@ -19,11 +19,16 @@ const frames = Array.from({ length: 10 }, (_, f) => {
 const feats = frames.map((fr, f) => syntheticFeatures(rng, { count: 5, n0: 5, tensor: { 2: 3 }, centreSpecies: [0, 0, 1, 0, 1], frame: f }));
 let model: Model;
 let kernelModel: Model;
+/** Fewer frames than features: the variance is kept in its design form (format version 3). */
+let designModel: Model;
+let wide: ReturnType<typeof syntheticFeatures>[];
 let dir: string;
 
 beforeAll(async () => {
   model = await trainWithFeaturiser(frames, { tensorKey: 'alpha', kind: 'alpha-cm', route: 'cm' }, (_f, i) => feats[i], {}, { createdAt: '2026-01-01T00:00:00.000Z' });
   kernelModel = await trainWithFeaturiser(frames, { tensorKey: 'alpha', kind: 'alpha-cm', route: 'direct', settings: { kernelExponent: 2, anchorEnvironments: 4 } }, (_f, i) => feats[i]);
+  wide = frames.map((_, f) => syntheticFeatures(rng, { count: 5, n0: 16, tensor: { 2: 3 }, centreSpecies: [0, 0, 1, 0, 1], frame: f }));
+  designModel = await trainWithFeaturiser(frames.slice(0, 6), { tensorKey: 'alpha', kind: 'alpha-cm', route: 'cm' }, (_f, i) => wide[i]);
   dir = mkdtempSync(join(tmpdir(), 'pw-model-'));
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
@@ -34,24 +39,27 @@ function resign(doc: { payload: unknown; checksum: { value: string } }): string 
 }
 
 describe('model file', () => {
-  it('round-trips exactly (linear and kernel models): same numbers, same predictions', () => {
-    for (const m of [model, kernelModel]) {
+  it('round-trips exactly (linear and kernel models, variance in primal and design form): same numbers, same predictions', () => {
+    expect(model.parts[0].posterior?.form).toBe('primal');
+    expect(designModel.parts[0].posterior?.form).toBe('design');
+    for (const m of [model, kernelModel, designModel]) {
       const text = serialiseModel(m);
       const back = parseModel(text, 'm.json');
       expect(serialiseModel(back)).toBe(text);
+      const fs = m === designModel ? wide : feats;
       for (let f = 0; f < 3; f++) {
-        const a = predictWithFeatures(m, frames[f], feats[f]);
-        const b = predictWithFeatures(back, frames[f], feats[f]);
+        const a = predictWithFeatures(m, frames[f], fs[f]);
+        const b = predictWithFeatures(back, frames[f], fs[f]);
         expect([...b.irreducible]).toEqual([...a.irreducible]);
         expect(b.applicability.variance).toBe(a.applicability.variance);
       }
     }
   });
 
-  it('is self-describing JSON of our own format, version 2, with a sha256 checksum', () => {
+  it('is self-describing JSON of our own format, version 3, with a sha256 checksum', () => {
     const doc = JSON.parse(serialiseModel(model));
     expect(doc.format).toBe(MODEL_FORMAT);
-    expect(doc.version).toBe(2);
+    expect(doc.version).toBe(3);
     expect(doc.checksum.algorithm).toBe('sha256');
     expect(doc.description).toMatch(/alpha.*cm/);
     expect(doc.payload.settings.cutoffRadius).toBe(4.5);
@@ -75,9 +83,9 @@ describe('model file', () => {
     const doc = JSON.parse(text);
     doc.payload.baseline[0] += 1e-9;
     expect(() => parseModel(JSON.stringify(doc), 'edited.json')).toThrow(/checksum mismatch/);
-    const v3 = JSON.parse(text);
-    v3.version = 3;
-    expect(() => parseModel(JSON.stringify(v3), 'new.json')).toThrow(/version 3 is not supported.*update/);
+    const newer = JSON.parse(text);
+    newer.version = 4;
+    expect(() => parseModel(JSON.stringify(newer), 'new.json')).toThrow(/version 4 is not supported \(this program reads versions 1, 2 and 3\); update/);
     // A version-2 payload labelled version 1 lacks the old keys: refused, never read with defaults.
     const mislabelled = JSON.parse(text);
     mislabelled.version = 1;
@@ -95,6 +103,9 @@ describe('model file', () => {
     const doc2 = JSON.parse(serialiseModel(model));
     doc2.payload.parts[0].weights = { f64: 'not base64!' };
     expect(() => parseModel(resign(doc2), 'bad.json')).toThrow(/not base64/);
+    const doc3 = JSON.parse(serialiseModel(designModel));
+    doc3.payload.parts[0].posterior.rows += 1;
+    expect(() => parseModel(resign(doc3), 'bad.json')).toThrow(/corrupt model file \(part λ=0 posterior\)/);
   });
 
   it('reads base64 this program would not write (no padding) and refuses other characters, once signed', () => {

@@ -5,6 +5,7 @@ import assert from 'node:assert/strict';
 import { spawnSync } from 'node:child_process';
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
+import { sessionOf } from './session-of.mjs';
 
 const demoDir = (root) => process.env.POLARWEAVE_DEMO_DIR ?? join(root, 'resources/demo');
 
@@ -50,6 +51,13 @@ export const tests = [
         assert.ok(names.includes(label), `no "${label}" in the form: ${names}`);
       }
       assert.doesNotMatch(names, /n_max|l_max|ζ|σ|Centres/);
+      // the species split reads as the CLI's --species-split does: a malformed one is named and blocks Train
+      assert.ok(names.includes('Split between species'), `no species split in the form: ${names}`);
+      await page.fill('[data-setting=speciesSplit]', 'O:0.8');
+      assert.match(await page.textContent('[data-field=split-problem]'), /at least two species/);
+      assert.equal(await page.isDisabled('[data-action=train]'), true);
+      await page.fill('[data-setting=speciesSplit]', '');
+      assert.equal(await page.locator('[data-field=split-problem]').count(), 0);
       await page.fill('[data-setting=radialFunctions]', '3');
       await page.fill('[data-setting=angularOrder]', '2');
       await page.fill('[data-setting=anchorEnvironments]', '0');
@@ -62,6 +70,8 @@ export const tests = [
       await page.waitForSelector('[data-section=cv-results]', { timeout: 300_000 });
       // Training is followed by a prediction of the training data (for the structure and trajectory views).
       await page.waitForSelector('[data-job-state]', { state: 'detached', timeout: 120_000 });
+      // the table leads with the figure the verdict judges (within state points where there are several)
+      state.leadIso = await page.locator('[data-section=cv-results] tbody tr').first().locator('td').nth(1).textContent();
       const pct = await page.textContent('[data-figure=cv-percent-iso]');
       assert.match(pct, /^\d+(\.\d)? %$/);
       state.percentIso = pct;
@@ -75,7 +85,7 @@ export const tests = [
       const line = texts.find((t) => /^RMSE /.test(t));
       assert.ok(line, `no RMSE on the chart: ${texts.join(' | ')}`);
       const shown = Number(line.replace(/^RMSE /, '').split(' ')[0].replace('−', '-'));
-      const models = (await host.service.getState()).models;
+      const models = (await (await sessionOf(page, host)).getState()).models;
       const model = models.at(-1);
       state.model = model;
       // The chart prints the engine's cross-validation figure to 3 significant digits.
@@ -134,7 +144,7 @@ export const tests = [
       const [download] = await Promise.all([page.waitForEvent('download'), page.click('[data-action=export-csv]')]);
       const ours = join(scratch, 'window.csv');
       await download.saveAs(ours);
-      const modelFile = await host.service.exportModel({ modelId: state.model.id });
+      const modelFile = await (await sessionOf(page, host)).exportModel({ modelId: state.model.id });
       const modelPath = join(scratch, 'model.json');
       writeFileSync(modelPath, modelFile.text);
       const cliPath = join(scratch, 'cli.csv');
@@ -154,7 +164,7 @@ export const tests = [
   },
   {
     name: 'gives the verdict of `polarweave validate` in Checks, with the learning curve’s caption',
-    async run({ page }) {
+    async run({ page, state }) {
       await go(page, 'checks');
       const text = await page.textContent('[data-field=verdict]');
       // the rule of core/learning/error-figures.ts: good ≤ 10 %, usable ≤ 30 %, poor above (the same function as the CLI)
@@ -163,9 +173,15 @@ export const tests = [
       const worst = text.match(/worst error (\d+(\.\d)?) %/);
       if (m[1] === 'poor') assert.ok(Number(worst[1]) > 30, text);
       if (m[1] === 'usable with care') assert.ok(Number(worst[1]) > 10 && Number(worst[1]) <= 30, text);
-      // one state point here (the liquid run): the verdict says which figures it judged; a state-point table
-      // appears only for several (core/learning/state-points.ts, tested there)
+      // the trajectory has one state point: the verdict says which figures it judged; with several, it judges the
+      // error within them (core/learning/state-points.ts, tested there; the screenshot run shows the table)
       assert.match(await page.textContent('[data-section=verdict]'), /on ε (over all frames|within state points)/);
+      // the Model view's leading figure is the one the verdict judges
+      assert.match(await page.textContent('[data-section=verdict]'), new RegExp(`Isotropic error ${state.leadIso.replace(/[.]/g, '\\.')}`));
+      // the Quick look trained without a learning curve; Checks draws it on request, on the model's own frames
+      assert.match(await page.textContent('[data-section=learning-curve]'), /Not drawn while training/);
+      await page.click('[data-action=draw-curve]');
+      await page.waitForSelector('[data-section=learning-curve] [data-field=curve-trend]', { timeout: 300_000 });
       // the learning curve: mean of repeated random splits, and a caption that follows its slope
       assert.match(await page.textContent('[data-section=learning-curve]'), /mean of 3 random splits/);
       assert.match(await page.textContent('[data-field=curve-trend]'), /^(Still falling|Flat|Not falling|Too few)/);
@@ -174,7 +190,7 @@ export const tests = [
   {
     name: 'asks before a project replaces the session, and keeps it when the answer is no',
     async run({ page, host }) {
-      const before = (await host.service.getState()).models.length;
+      const before = (await (await sessionOf(page, host)).getState()).models.length;
       assert.ok(before > 0);
       let asked = '';
       page.once('dialog', (d) => {
@@ -189,7 +205,7 @@ export const tests = [
       page.off('filechooser', onChooser);
       assert.match(asked, /replaces everything in this window: .*model/);
       assert.equal(chooserOpened, false, 'no file was asked for after "no"');
-      assert.equal((await host.service.getState()).models.length, before, 'the session is unchanged');
+      assert.equal((await (await sessionOf(page, host)).getState()).models.length, before, 'the session is unchanged');
       // "yes" goes on to the file choice
       page.once('dialog', (d) => void d.accept());
       const [chooser] = await Promise.all([page.waitForEvent('filechooser'), page.click('text=Open project…')]);

@@ -12,7 +12,7 @@ const options = [
   { name: 'block-min', value: 'N', help: 'fewest blocks a block size may leave in block averaging', default: String(DEFAULT_MIN_BLOCKS) },
   { name: 'time-step', value: 'FS', help: 'time between consecutive frames of the trajectory file (fs); turns on the spectra' },
   { name: 'spectra', value: 'SPECTRA.csv', help: 'write the Raman (and IR) line shapes here (needs --time-step)' },
-  { name: 'raman-from', value: 'alpha-c|alpha-cm|eps', help: 'which tensor series the Raman line shapes use (default: alpha-c if the file has it, else alpha-cm, else eps)' },
+  { name: 'raman-from', value: 'alpha-c|alpha-cm|alpha-mol|eps', help: 'which tensor series the Raman line shapes use (default: alpha-c if the file has it, else alpha-cm, else alpha-mol, else eps)' },
   { name: 'window', value: 'none|hann|gaussian', help: 'window on the correlation functions', default: 'hann' },
   { name: 'padding', value: 'P', help: 'zero padding factor before the Fourier transform', default: '4' },
   { name: 'max-correlation', value: 'FS', help: 'longest correlation time used (default: a quarter of the run)' },
@@ -29,7 +29,7 @@ function spectraRequest(args: ParsedArgs): SpectraRequest | undefined {
   const correction = args.options['quantum-correction'] as QuantumCorrection;
   if (!['none', 'harmonic', 'schofield'].includes(correction)) throw new UsageError(`--quantum-correction must be none, harmonic or schofield, got "${correction}"`);
   const from = args.options['raman-from'];
-  if (from !== undefined && !['alpha-c', 'alpha-cm', 'eps'].includes(from)) throw new UsageError(`--raman-from must be alpha-c, alpha-cm or eps, got "${from}"`);
+  if (from !== undefined && !['alpha-c', 'alpha-cm', 'alpha-mol', 'eps'].includes(from)) throw new UsageError(`--raman-from must be alpha-c, alpha-cm, alpha-mol or eps, got "${from}"`);
   return {
     path: args.options.spectra,
     timeStepFs: dt,

@@ -21,6 +21,8 @@ export const collectCommand: Command = {
     `              ${tensorKey('alpha-mol')}: its polarisability in vacuum (Å³), on a frame without a cell (train with --as alpha-mol).`,
     `  Quantum ESPRESSO  the ph.x output (epsil = .true. at q = 0) and the pw.x output it continues. Writes ${tensorKey('eps')}:`,
     '              the optical dielectric tensor ε∞ (dimensionless). Cells printed in alat units are converted from Bohr.',
+    '              It prints no polarisability of an isolated molecule: for a molecule in a box (assume_isolated, or',
+    '              vacuum all round) ε∞ is the periodic box\'s; such runs are kept as periodic frames, with a note.',
     'Each frame also says reference_kind, reference_units, dft_run, dft_program and the settings compared.',
     'Runs that did not finish or converge, computed something else, or differ from the others in settings',
     '(program, functional, cutoff, basis or pseudopotentials, k-points where known) are listed and left out.',
@@ -39,6 +41,7 @@ export const collectCommand: Command = {
     io.out(`collected ${r.runs.length} run${r.runs.length === 1 ? '' : 's'} into ${out}: ${key} (${first.kind === 'eps' ? 'ε∞, dimensionless' : first.kind === 'alpha-mol' ? 'α of an isolated molecule, Å³' : 'α_c, conducting boundary, Å³'}), ${first.program}\n`);
     for (const s of r.settings) io.out(`  ${s.name}: ${s.value}\n`);
     if (r.notCompared.length) io.out(`  not compared (known for only some runs): ${r.notCompared.join(', ')}\n`);
+    for (const n of r.notes) io.out(`note: ${n.file}: ${n.text}\n`);
     if (r.left.length) {
       io.err(`left out ${r.left.length} run${r.left.length === 1 ? '' : 's'}:\n`);
       for (const l of r.left) io.err(`  ${l.file}: ${describeStatus(l.status)}: ${l.reason}\n`);

@@ -51,6 +51,7 @@ export const demoCommand: Command = {
         `  ${result.files.csv}`,
         `  ${result.files.model}`,
         `  ${result.files.validation}`,
+        `  ${result.files.clusters}`,
         ...(loopFile ? [`  ${loopFile}`] : []),
         `finished in ${result.seconds.toFixed(0)} s. The demo data is invented; predictions are model estimates.`,
       ].join('\n') + '\n',

@@ -25,8 +25,13 @@ export function singleComposition(counts: readonly (readonly number[])[]): boole
   });
 }
 
-/** The model note for a single-composition training set (null otherwise, or with one species). */
-export function compositionNote(species: readonly string[], counts: readonly (readonly number[])[]): string | null {
+/**
+ * The model note for a single-composition training set (null otherwise, or with one species). `split`: the
+ * species split the model was given (settings-table.ts SPLIT_SETTING, in its command-line words), if any.
+ */
+export function compositionNote(species: readonly string[], counts: readonly (readonly number[])[], split: string | null = null): string | null {
   if (species.length < 2 || !singleComposition(counts)) return null;
-  return `every training frame has the same composition (${species.join(':')} ${counts[0].join(':')}): the split of each frame's total between ${species.join(' and ')} is not determined by the data (it comes from the regularisers); per-species and local values are one possible split. To fix it, add frames of other compositions (e.g. isolated molecules or clusters).`;
+  const head = `every training frame has the same composition (${species.join(':')} ${counts[0].join(':')}): the split of each frame's total between ${species.join(' and ')} is not determined by the data`;
+  if (split) return `${head}; it follows the species split given (${split}), not the data — per-species and local values are that split of the learnt totals.`;
+  return `${head} (it comes from the regularisers); per-species and local values are one possible split. To fix it, add frames of other compositions (e.g. isolated molecules or clusters), or give a species split (--species-split free-atom, or ratios such as O:0.80,H:0.67).`;
 }

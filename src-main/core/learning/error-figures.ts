@@ -13,6 +13,16 @@
 import { anisotropyOfParts, isotropicOfParts } from '../dielectric/tensor.ts';
 import type { ErrorFigures } from './model-types.ts';
 
+/**
+ * What a validation compared (ValidationReport.target, and the comparisons beside it), in the tensor's units: ε
+ * over periodic frames, α_CM (Å³) over periodic frames, the polarisability in vacuum (Å³) over isolated frames
+ * (molecules, clusters). A set mixing the two kinds names the frames of each comparison.
+ */
+export function comparedOn(quantity: 'eps' | 'alpha-cm' | 'alpha-mol', mixed: boolean): string {
+  const name = quantity === 'eps' ? 'eps' : `${quantity} (Å³)`;
+  return mixed ? `${name}, ${quantity === 'alpha-mol' ? 'isolated' : 'periodic'} frames` : name;
+}
+
 /** Error figures of paired irreducible 6-vectors [T⁰, T²₋₂…T²₂] (one pair a frame), in the tensor's units. */
 export function errorFigures(reference: ArrayLike<number>[], predicted: ArrayLike<number>[]): ErrorFigures {
   const n = reference.length;

@@ -25,7 +25,7 @@ import type { Applicability, FramePrediction, IsolatedPrediction, ModelSettings,
 import { makeRng, shuffleInPlace } from '../numerics/random.ts';
 import { cachedNearestSearch, searchNearestAll } from './nearest-search.ts';
 import { tuneCombinations, tuneSettingsWith, type TuneResult } from './tuning.ts';
-import { DEFAULT_REGULARISATION_GRID, fitRidge, foldsOf, heldOutRows, posteriorVariance, primalWeights, type Design } from './regression.ts';
+import { DEFAULT_REGULARISATION_GRID, fitRidge, foldsOf, heldOutRows, posteriorVariance, primalWeights, type Design, type Posterior } from './regression.ts';
 import { calibratePart, type Calibration, type PartCalibration } from './calibration.ts';
 import {
   farthestPointSample,
@@ -58,13 +58,14 @@ import {
 import { fromIrreducible, tensorFromValues, toIrreducible } from '../dielectric/tensor.ts';
 import { checkTensorKind } from './kind-check.ts';
 import { compositionNote } from './contributions.ts';
+import { FREE_ATOM_POLARISABILITY_A3, splitShift, splitValues } from './species-split.ts';
 import { computeReadout, makeWeightMatrices, weightMatricesLength, type TensorReadout } from './tensor-readout.ts';
 import { cellVolume } from '../geometry/cell.ts';
 import { propagateErrorBars } from '../dielectric/clausius-mossotti.ts';
 import { checkDomain, DomainStatsBuilder, type DomainStats } from './domain.ts';
 import { neighbourList, type NeighbourList } from '../geometry/neighbours.ts';
 
-import { DEFAULT_SETTINGS, settingSpec, settingsProblems, type NumericSettingKey } from '../settings-table.ts';
+import { DEFAULT_SETTINGS, settingSpec, settingsProblems, speciesSplitText, type NumericSettingKey, type SpeciesSplit } from '../settings-table.ts';
 export { DEFAULT_SETTINGS };
 
 /** Environments kept per centre species for sampling representatives (linear / kernel models). */
@@ -78,10 +79,14 @@ const APPLICABILITY_QUANTILE = 0.999;
 const EXACT_LIMIT = 6000;
 
 export interface PartPosterior {
-  form: 'primal' | 'dual';
+  /** primal: factor of ΦᵀΦ + λI; dual: factor of K + λI (exact form); design: Φ and the factor of ΦΦᵀ + λI (regression.ts Posterior). */
+  form: 'primal' | 'dual' | 'design';
   size: number;
-  /** Cholesky factor, size × size, row-major lower triangle. */
+  /** Cholesky factor, row-major lower triangle: size × size, or rows × rows in the design form. */
   factor: Float64Array;
+  /** Design form: the training design Φ (rows × size) and its row count. */
+  design?: Float64Array;
+  rows?: number;
   noise: number;
   lambda: number;
   /** Sparse form: Cholesky factor of K_MM, for φ' = L⁻¹ k. */
@@ -491,7 +496,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const cv = nFrames >= 3 ? { fold: foldOf, folds, signal: hooks.signal } : null;
   const notes: string[] = isolatedFramesNote(targets.isolated, request.kind);
   if (!cv && settings.regularisation === null) notes.push('fewer than 3 frames: regulariser not cross-validated (default 1e-6)');
-  const composition = compositionNote(centres, Array.from({ length: nFrames }, (_, f) => Array.from(counts.subarray(f * nS, (f + 1) * nS))));
+  const composition = compositionNote(centres, Array.from({ length: nFrames }, (_, f) => Array.from(counts.subarray(f * nS, (f + 1) * nS))), settings.speciesSplit ? speciesSplitText(settings.speciesSplit) : null);
   if (composition && targets.shape === 'tensor') notes.push(composition);
 
   // Representatives (FPS per species) for kernel parts and for applicability.
@@ -629,7 +634,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
       if (p.order === 0) refineBaseline(w.subarray(base));
       if (linear) {
         part.weights = w.slice(0, base);
-        if (fit.posterior) part.posterior = { form: 'primal', size: fit.posterior.size, factor: fit.posterior.factor, noise: fit.posterior.noise, lambda: fit.posterior.lambda };
+        if (fit.posterior) part.posterior = { ...fit.posterior };
       } else {
         const reps = sparseReps.get(p.order) as Representatives;
         const l = sparseFactor.get(p.order) as Float64Array;
@@ -661,6 +666,12 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     applicability.p = new Float64Array(repIndex.length * n0);
     repIndex.forEach((i, k) => applicability.p.set(envPool.p.subarray(i * n0, (i + 1) * n0), k * n0));
     applicability.rule = `the ${APPLICABILITY_QUANTILE} quantile of the training environments' distances to the nearest representative ${nFrames >= 2 ? 'of another frame' : 'other than itself'} (${repIndex.length} representatives)`;
+  }
+
+  if (settings.speciesSplit && hasIso && targets.shape === 'tensor' && nS >= 2) {
+    hooks.onProgress?.({ stage: 'species split', done: 0, total: 1 });
+    await yieldToLoop();
+    notes.push(await applySpeciesSplit(settings.speciesSplit, centres, parts, baseline, counts, nFrames, (f) => feat(frames[f], f), hooks));
   }
 
   const stats = targetStatistics(y, nFrames, C);
@@ -703,6 +714,48 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   };
 }
 
+/**
+ * Moves the per-species offsets (species-split.ts) so that the species' mean λ=0 contributions over the training
+ * frames follow the split's ratios as far as the compositions leave them open; returns the model note saying so.
+ */
+async function applySpeciesSplit(
+  split: Exclude<SpeciesSplit, null>,
+  centres: string[],
+  parts: ModelPart[],
+  baseline: Float64Array,
+  counts: Float64Array,
+  nFrames: number,
+  featuresOf: (f: number) => EnvironmentFeatures,
+  hooks: WorkHooks,
+): Promise<string> {
+  const nS = centres.length;
+  const prior = splitValues(split, centres);
+  const part = parts.find((p) => p.order === 0) as ModelPart;
+  const sums = new Float64Array(nS);
+  const atoms = new Float64Array(nS);
+  for (let f = 0; f < nFrames; f++) {
+    checkAbort(hooks);
+    const fe = featuresOf(f);
+    const c = localContributions(fe, 0, part.form === 'linear' ? { linear: part.weights as Float64Array } : { kernel: part.kernel as KernelExpansion });
+    for (let e = 0; e < fe.count; e++) {
+      const sp = fe.centreSpecies[e];
+      sums[sp] += c[e] + baseline[sp];
+      atoms[sp]++;
+    }
+    if (f % 16 === 15) await yieldToLoop();
+  }
+  const means = Array.from(sums, (v, k) => v / Math.max(1, atoms[k]));
+  const rows = Array.from({ length: nFrames }, (_, f) => Array.from(counts.subarray(f * nS, (f + 1) * nS)));
+  const { shift, free } = splitShift(means, rows, prior);
+  for (let k = 0; k < nS; k++) baseline[k] += shift[k];
+  const given = split === 'free-atom' ? `free-atom polarisabilities (${centres.map((c, k) => `${c} ${prior[k].toPrecision(3)} Å³, ${FREE_ATOM_POLARISABILITY_A3[c].source}`).join('; ')})` : `the ratios given (${centres.map((c, k) => `${c}:${prior[k]}`).join(', ')})`;
+  // T⁰ = tr/√3: the mean per-atom contribution to the isotropic α is T⁰/√3
+  const iso = (v: number) => (v / Math.sqrt(3)).toPrecision(3);
+  const shares = (m: ArrayLike<number>) => centres.map((c, k) => `${c} ${iso(m[k])}`).join(', ');
+  if (free === 0) return `species split: the training compositions already fix how the polarisability is shared between species, so ${given} changed nothing (mean per-atom isotropic contributions, in units of the learnt tensor: ${shares(means)})`;
+  return `species split: where the training compositions leave it open, the polarisability is shared between species following ${given}; every training frame's total is unchanged (mean per-atom isotropic contributions, in units of the learnt tensor: ${shares(means.map((m, k) => m + shift[k]))}; as the fit left them: ${shares(means)})`;
+}
+
 interface FittedPart {
   design: Design;
   lambda: number;
@@ -724,7 +777,7 @@ function calibrate(fitted: FittedPart[], cv: { fold: Int32Array; folds: number; 
   const parts: PartCalibration[] = [];
   for (const f of fitted) {
     if (f.spec.aux) continue;
-    const held = f === lev ? levRows : { predicted: heldOutRows(f.design, cv, f.lambda).predicted };
+    const held = f === lev ? levRows : heldOutRows(f.design, cv, f.lambda, false);
     const errors = Float64Array.from(held.predicted, (p, r) => p - f.design.y[r]);
     const leverage = Float64Array.from(f.design.group, (g) => frameLeverage[g]);
     const c = calibratePart(f.spec.order, errors, leverage, f.spec.order === 0 ? f.noise : null);
@@ -799,18 +852,21 @@ export async function trainModel(frames: Frame[], request: TrainRequest, hooks: 
 
 /**
  * A warning when cross-validation chose the smallest or largest regulariser it tried: the best value may lie
- * beyond the range, and the fit is then limited by the range rather than by the data.
+ * beyond the range, and the fit is then limited by the range rather than by the data. The range is the grid
+ * actually tried, which fitRidge has already widened at that edge (regression.ts, widenAtEdge) as far as it goes.
  */
 export function regulariserEdge(r: Pick<ModelPart['regularisation'], 'relative' | 'chosenBy' | 'grid'>): string | null {
   if (r.chosenBy !== 'cross-validation' || r.grid.length < 3) return null;
   const tried = r.grid.map((g) => g.relative);
-  const lo = Math.min(...DEFAULT_REGULARISATION_GRID);
-  const hi = Math.max(...DEFAULT_REGULARISATION_GRID);
-  if (r.relative <= lo && tried.includes(lo)) {
-    return `the regulariser chosen by cross-validation, ${lo.toExponential(0)}, is the smallest of the range tried (${lo.toExponential(0)}…${hi.toExponential(0)}): the model wants more freedom than the range allows — the features may be too few for the data (try more radial functions or a larger angular order), or the references nearly free of noise; give a smaller one with --regularisation to check`;
+  const lo = Math.min(...tried);
+  const hi = Math.max(...tried);
+  const widened = lo < Math.min(...DEFAULT_REGULARISATION_GRID) || hi > Math.max(...DEFAULT_REGULARISATION_GRID) ? ', already widened beyond the usual 1e-9…1' : '';
+  const range = `(${lo.toExponential(0)}…${hi.toExponential(0)}${widened})`;
+  if (r.relative <= lo) {
+    return `the regulariser chosen by cross-validation, ${lo.toExponential(0)}, is the smallest of the range tried ${range}: the model wants more freedom than the range allows — the features may be too few for the data (try more radial functions or a larger angular order), or the references nearly free of noise; give a smaller one with --regularisation to check`;
   }
-  if (r.relative >= hi && tried.includes(hi)) {
-    return `the regulariser chosen by cross-validation, ${hi.toExponential(0)}, is the largest of the range tried (${lo.toExponential(0)}…${hi.toExponential(0)}): the features explain little of this part beyond the per-species baseline — the part may be mostly noise, or need other settings`;
+  if (r.relative >= hi) {
+    return `the regulariser chosen by cross-validation, ${hi.toExponential(0)}, is the largest of the range tried ${range}: the features explain little of this part beyond the per-species baseline — the part may be mostly noise, or need other settings`;
   }
   return null;
 }
@@ -942,6 +998,13 @@ function uncertaintyOf(model: Model, leverage: number, components: number): Targ
   return { leverage, sd };
 }
 
+/** The posterior of an explicit design (linear or sparse part) as regression.ts reads it: primal, or the design form. */
+function explicitPosterior(post: PartPosterior): Posterior {
+  const { size, factor, noise, lambda } = post;
+  if (post.form === 'design') return { form: 'design', size, rows: post.rows as number, design: post.design as Float64Array, factor, noise, lambda };
+  return { form: 'primal', size, factor, noise, lambda };
+}
+
 /**
  * Leverage of a frame against a part's training design: φᵀ(ΦᵀΦ + λI)⁻¹φ (its GP latent variance divided by the
  * noise variance), for the linear, sparse and exact forms.
@@ -957,14 +1020,14 @@ function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures): n
     out.set(counts, row.length);
     return out;
   };
-  const primal = { form: 'primal' as const, size: post.size, factor: post.factor, noise: post.noise, lambda: post.lambda };
-  if (part.form === 'linear') return posteriorVariance(primal, withCounts(linearDesignRows(fe, 0, nS)));
+  const explicit = explicitPosterior(post);
+  if (part.form === 'linear') return posteriorVariance(explicit, withCounts(linearDesignRows(fe, 0, nS)));
   const k = part.kernel as KernelExpansion;
   if (post.nystrom) {
     const reps: Representatives = { order: 0, n0: k.n0, n: k.n0, width: 1, species: k.species, p: k.p, blocks: k.p };
     const knm = structureToRepresentatives(fe, reps, k.zeta);
     const phi = projectRows(knm, 1, post.nystrom, reps.species.length);
-    return posteriorVariance(primal, withCounts(phi));
+    return posteriorVariance(explicit, withCounts(phi));
   }
   // exact: k* over training frames, k** of the frame with itself
   const repFrame = post.repFrame as Int32Array;

@@ -3,7 +3,7 @@
 // ridge). The explicit form is solved in whichever space is smaller: primal (ΦᵀΦ + λI) w = Φᵀy (F×F) or dual
 // (ΦΦᵀ + λI) c = y (rows×rows), which give the same weights w = Φᵀc. The regulariser is relative to the mean
 // diagonal of the structure kernel and chosen by k-fold cross-validation over whole frames.
-import { choleskySolve, choleskyWithJitter, forwardSubstitute, gramOfColumns, gramOfRows } from '../numerics/cholesky.ts';
+import { backSubstitute, choleskySolve, choleskyWithJitter, forwardSubstitute, gramOfColumns, gramOfRows } from '../numerics/cholesky.ts';
 import { CancelledError } from '../errors.ts';
 
 export interface Design {
@@ -21,10 +21,17 @@ export interface Design {
 
 /** What is needed for the predictive variance of new rows (GP posterior of the fitted model). */
 export type Posterior =
-  /** Latent variance = noise · |L⁻¹ φ|², with L L ᵀ = ΦᵀΦ + λI. */
+  /** Latent variance = noise · |L⁻¹ φ|², with L L ᵀ = ΦᵀΦ + λI (size × size). */
   | { form: 'primal'; size: number; factor: Float64Array; noise: number; lambda: number }
   /** Latent variance = (noise/λ)(k** − |L⁻¹ k*|²), with L Lᵀ = K + λI and k* the kernel to the training rows. */
-  | { form: 'dual'; size: number; factor: Float64Array; noise: number; lambda: number };
+  | { form: 'dual'; size: number; factor: Float64Array; noise: number; lambda: number }
+  /**
+   * An explicit design with fewer rows than features, kept as the design itself: latent variance =
+   * noise · designLeverage (the same number as the primal form's, from rows × size + rows² numbers instead of
+   * size²). `design` is Φ (rows × size), `factor` the Cholesky factor of ΦΦᵀ + λI (rows × rows), `lambda` the
+   * λ of that system.
+   */
+  | { form: 'design'; size: number; rows: number; design: Float64Array; factor: Float64Array; noise: number; lambda: number };
 
 export interface RidgeFit {
   /** 'primal': `weights` are w (length F); 'dual': `weights` are c (length rows). */
@@ -61,8 +68,45 @@ function featureCount(d: Design): number {
   return d.features;
 }
 
+/**
+ * K = ΦΦᵀ of an explicit design's rows, computed once per design and shared by the cross-validation, the fit and
+ * the held-out folds (every entry depends only on its two rows, so a fold's K is a selection of it, the same bits
+ * as computing it from the fold's rows).
+ */
+const rowGrams = new WeakMap<Design, Float64Array>();
+function rowGram(d: Design): Float64Array {
+  let k = rowGrams.get(d);
+  if (!k) {
+    k = gramOfRows(d.phi as Float64Array, d.rows, featureCount(d));
+    rowGrams.set(d, k);
+  }
+  return k;
+}
+
+/** The rows × rows selection K[rows, rows] of a design's row Gram (a new array). */
+function selectGram(d: Design, rows: Int32Array): Float64Array {
+  const all = rowGram(d);
+  const n = d.rows;
+  const m = rows.length;
+  const k = new Float64Array(m * m);
+  for (let a = 0; a < m; a++) {
+    const ra = rows[a] * n;
+    for (let b = 0; b < m; b++) k[a * m + b] = all[ra + rows[b]];
+  }
+  return k;
+}
+
 /** Default grid of relative regularisers (log-spaced). */
 export const DEFAULT_REGULARISATION_GRID = [1e-9, 1e-8, 1e-7, 1e-6, 1e-5, 1e-4, 1e-3, 1e-2, 1e-1, 1];
+
+/**
+ * When cross-validation picks the smallest or largest regulariser tried, the search is widened on that side by
+ * WIDEN_DECADES decades (one value per decade), at most MAX_WIDENINGS times in one fit: from 1e-9…1 to at most
+ * 1e-13…1e4 (common practice, no source: a few decades past the edge show whether the optimum lies there; far
+ * beyond it the solves only meet rounding (small) or the baseline alone (large)).
+ */
+export const WIDEN_DECADES = 2;
+export const MAX_WIDENINGS = 2;
 
 /**
  * Fit on the rows in `train` and predict the rows in `test`, once per λ (absolute) in `lambdas`.
@@ -101,7 +145,7 @@ export function ridgeFitPredict(d: Design, train: Int32Array, test: Int32Array, 
       for (let t = 0; t < test.length; t++) out[li][t] = dotRow(phi, test[t] * f, w, f);
     });
   } else {
-    const k = gramOfRows(sub, nt, f);
+    const k = selectGram(d, train);
     lambdas.forEach((lam, li) => {
       const c = solveShifted(k, nt, lam, y);
       const w = new Float64Array(f);
@@ -165,7 +209,7 @@ export function crossValidateRegularisation(d: Design, opts: CrossValidationOpti
   // When the folds solve in dual form, build the kernel of all rows once instead of once per fold.
   let work = d;
   if (!d.gram && splits.length && featureCount(d) > Math.min(...splits.map((s) => s.train.length))) {
-    work = { rows: d.rows, group: d.group, y: d.y, gram: gramOfRows(d.phi as Float64Array, d.rows, featureCount(d)) };
+    work = { rows: d.rows, group: d.group, y: d.y, gram: rowGram(d) };
   }
   for (const { train, test } of splits) {
     if (opts.signal?.aborted) throw new CancelledError();
@@ -198,6 +242,7 @@ export function fitRidge(d: Design, relative: number | null, cv: CrossValidation
       const at = DEFAULT_REGULARISATION_GRID.indexOf(bestOf(grid).relative);
       const extra = [at - 1, at + 1].filter((i) => i >= 0 && i < DEFAULT_REGULARISATION_GRID.length).map((i) => DEFAULT_REGULARISATION_GRID[i]);
       grid = [...grid, ...crossValidateRegularisation(d, { ...cv, grid: extra })].sort((a, b) => a.relative - b.relative);
+      grid = widenAtEdge(d, cv, grid);
     }
     const best = bestOf(grid);
     chosen = best.relative;
@@ -235,12 +280,35 @@ export function fitRidge(d: Design, relative: number | null, cv: CrossValidation
     const posterior: Posterior | undefined = wantPosterior ? { form: 'primal', size: f, factor, noise, lambda } : undefined;
     return { form: 'primal', weights: w, relative: chosen, lambda, scale, cvError, grid, posterior };
   }
-  const k = gramOfRows(phi, d.rows, f);
+  const k = Float64Array.from(rowGram(d));
   for (let i = 0; i < d.rows; i++) k[i * d.rows + i] += lambda;
-  const { factor } = choleskyWithJitter(k, d.rows);
+  const { factor, jitter } = choleskyWithJitter(k, d.rows);
   const c = choleskySolve(factor, d.rows, d.y);
-  const posterior: Posterior | undefined = wantPosterior ? { form: 'primal', size: f, factor: primalFactor(), noise, lambda } : undefined;
+  let posterior: Posterior | undefined;
+  if (wantPosterior) {
+    // the smaller of the two: the design and its rows × rows factor, or the size × size primal factor
+    const designSmaller = d.rows * f + d.rows * d.rows < f * f;
+    posterior = designSmaller ? { form: 'design', size: f, rows: d.rows, design: phi, factor, noise, lambda: lambda + jitter } : { form: 'primal', size: f, factor: primalFactor(), noise, lambda };
+  }
   return { form: 'dual', weights: c, relative: chosen, lambda, scale, cvError, grid, posterior };
+}
+
+/**
+ * The grid, widened while its best value is its smallest or largest (at most MAX_WIDENINGS times, WIDEN_DECADES
+ * decades each, on the side of the edge). A best value still at the edge afterwards is left to the caller to report.
+ */
+export function widenAtEdge(d: Design, cv: CrossValidationOptions, grid: { relative: number; error: number }[]): { relative: number; error: number }[] {
+  let out = grid;
+  for (let k = 0; k < MAX_WIDENINGS; k++) {
+    const best = bestOf(out);
+    const lo = out[0].relative;
+    const hi = out[out.length - 1].relative;
+    const step = best.relative <= lo ? 0.1 : best.relative >= hi ? 10 : 0;
+    if (step === 0) break;
+    const extra = Array.from({ length: WIDEN_DECADES }, (_, i) => Number((best.relative * step ** (i + 1)).toPrecision(12)));
+    out = [...out, ...crossValidateRegularisation(d, { ...cv, grid: extra })].sort((a, b) => a.relative - b.relative);
+  }
+  return out;
 }
 
 /** Smallest CV error; ties go to the larger (smoother) regulariser. */
@@ -275,11 +343,48 @@ export function primalWeights(d: Design, fit: RidgeFit): Float64Array {
  * k** (the row's kernel with itself).
  */
 export function posteriorVariance(post: Posterior, phiOrKStar: Float64Array, kStarStar = 0): number {
+  if (post.form === 'design') return post.noise * designLeverage(post.design, post.rows, post.size, post.factor, post.lambda, phiOrKStar);
   const z = forwardSubstitute(post.factor, post.size, Float64Array.from(phiOrKStar));
   let q = 0;
   for (let i = 0; i < post.size; i++) q += z[i] * z[i];
   if (post.form === 'primal') return post.noise * q;
   return Math.max(0, (post.noise / post.lambda) * (kStarStar - q));
+}
+
+/**
+ * Leverage φᵀ(ΦᵀΦ + λI)⁻¹φ of a row φ against an explicit design Φ (rows × f, row-major) through the rows × rows
+ * system: c = (ΦΦᵀ + λI)⁻¹Φφ, then |c|² + |φ − Φᵀc|²/λ. The same number as the primal form (ΦᵀΦ + λI = its
+ * Cholesky factor squared), but a sum of squares: the textbook (φᵀφ − (Φφ)ᵀc)/λ loses about as many digits as
+ * φᵀφ/λ exceeds the leverage (9 of them for a frame like the training frames), and the primal factor of
+ * ΦᵀΦ + λI loses them as well (its condition number is ‖Φ‖²/λ). `factor` is the Cholesky factor of ΦΦᵀ + λI.
+ */
+export function designLeverage(design: Float64Array, rows: number, f: number, factor: Float64Array, lambda: number, phi: ArrayLike<number>): number {
+  const c = new Float64Array(rows);
+  for (let a = 0; a < rows; a++) {
+    const base = a * f;
+    let s0 = 0;
+    let s1 = 0;
+    let j = 0;
+    for (; j + 1 < f; j += 2) {
+      s0 += design[base + j] * phi[j];
+      s1 += design[base + j + 1] * phi[j + 1];
+    }
+    if (j < f) s0 += design[base + j] * phi[j];
+    c[a] = s0 + s1;
+  }
+  forwardSubstitute(factor, rows, c);
+  backSubstitute(factor, rows, c);
+  let cc = 0;
+  for (let a = 0; a < rows; a++) cc += c[a] * c[a];
+  const r = Float64Array.from(phi);
+  for (let a = 0; a < rows; a++) {
+    const ca = c[a];
+    const base = a * f;
+    for (let j = 0; j < f; j++) r[j] -= design[base + j] * ca;
+  }
+  let rr = 0;
+  for (let j = 0; j < f; j++) rr += r[j] * r[j];
+  return cc + rr / lambda;
 }
 
 /** Held-out predictions and leverages of every row, from the k folds of a cross-validation at one λ. */
@@ -293,10 +398,11 @@ export interface HeldOut {
 /**
  * Refits the ridge model once per fold at the absolute regulariser λ and returns every row's held-out prediction
  * and its leverage — the latent posterior variance of that row divided by the noise variance (the quantity
- * posteriorVariance scales). Explicit designs use the smaller of the primal (F×F) and dual (rows×rows) systems;
- * a structure kernel uses h = (k** − k*ᵀ(K + λI)⁻¹k*)/λ. Rows of folds with no training rows get NaN.
+ * posteriorVariance scales). Explicit designs use the smaller of the primal (F×F) and dual (rows×rows) systems
+ * (the dual through designLeverage); a structure kernel uses h = (k** − k*ᵀ(K + λI)⁻¹k*)/λ. Rows of folds with no training rows get NaN,
+ * and every row NaN leverage when `withLeverage` is false (only the predictions are wanted).
  */
-export function heldOutRows(d: Design, opts: CrossValidationOptions, lambda: number): HeldOut {
+export function heldOutRows(d: Design, opts: CrossValidationOptions, lambda: number, withLeverage = true): HeldOut {
   const predicted = new Float64Array(d.rows).fill(NaN);
   const leverage = new Float64Array(d.rows).fill(NaN);
   for (let k = 0; k < opts.folds; k++) {
@@ -308,10 +414,10 @@ export function heldOutRows(d: Design, opts: CrossValidationOptions, lambda: num
     const tr = Int32Array.from(train);
     const te = Int32Array.from(test);
     const [p] = ridgeFitPredict(d, tr, te, [lambda]);
-    const h = foldLeverage(d, tr, te, lambda);
+    const h = withLeverage ? foldLeverage(d, tr, te, lambda) : null;
     te.forEach((r, t) => {
       predicted[r] = p[t];
-      leverage[r] = h[t];
+      if (h) leverage[r] = h[t];
     });
   }
   return { predicted, leverage };
@@ -320,35 +426,28 @@ export function heldOutRows(d: Design, opts: CrossValidationOptions, lambda: num
 function foldLeverage(d: Design, train: Int32Array, test: Int32Array, lambda: number): Float64Array {
   const nt = train.length;
   const out = new Float64Array(test.length);
-  const dual = (kTrain: Float64Array, kStar: (t: number, a: number) => number, kSelf: (t: number) => number) => {
-    for (let i = 0; i < nt; i++) kTrain[i * nt + i] += lambda;
-    const { factor } = choleskyWithJitter(kTrain, nt);
-    const ks = new Float64Array(nt);
-    for (let t = 0; t < test.length; t++) {
-      for (let a = 0; a < nt; a++) ks[a] = kStar(t, a);
-      const z = forwardSubstitute(factor, nt, ks);
-      let q = 0;
-      for (let a = 0; a < nt; a++) q += z[a] * z[a];
-      out[t] = Math.max(0, (kSelf(t) - q) / lambda);
-    }
-  };
   if (d.gram) {
+    // a structure kernel has no explicit rows: h = (k** − k*ᵀ(K + λI)⁻¹k*)/λ
     const n = d.rows;
     const g = d.gram;
     const k = new Float64Array(nt * nt);
     for (let a = 0; a < nt; a++) for (let b = 0; b < nt; b++) k[a * nt + b] = g[train[a] * n + train[b]];
-    dual(k, (t, a) => g[test[t] * n + train[a]], (t) => g[test[t] * n + test[t]]);
+    for (let i = 0; i < nt; i++) k[i * nt + i] += lambda;
+    const { factor } = choleskyWithJitter(k, nt);
+    const ks = new Float64Array(nt);
+    for (let t = 0; t < test.length; t++) {
+      for (let a = 0; a < nt; a++) ks[a] = g[test[t] * n + train[a]];
+      const z = forwardSubstitute(factor, nt, ks);
+      let q = 0;
+      for (let a = 0; a < nt; a++) q += z[a] * z[a];
+      out[t] = Math.max(0, (g[test[t] * n + test[t]] - q) / lambda);
+    }
     return out;
   }
   const f = featureCount(d);
   const phi = d.phi as Float64Array;
   const sub = new Float64Array(nt * f);
   for (let a = 0; a < nt; a++) sub.set(phi.subarray(train[a] * f, train[a] * f + f), a * f);
-  const dot = (x: Float64Array, ix: number, y: Float64Array, iy: number) => {
-    let s = 0;
-    for (let i = 0; i < f; i++) s += x[ix + i] * y[iy + i];
-    return s;
-  };
   if (f <= nt) {
     const g = gramOfColumns(sub, nt, f);
     for (let i = 0; i < f; i++) g[i * f + i] += lambda;
@@ -361,6 +460,9 @@ function foldLeverage(d: Design, train: Int32Array, test: Int32Array, lambda: nu
     }
     return out;
   }
-  dual(gramOfRows(sub, nt, f), (t, a) => dot(phi, test[t] * f, sub, a * f), (t) => dot(phi, test[t] * f, phi, test[t] * f));
+  const k = selectGram(d, train);
+  for (let i = 0; i < nt; i++) k[i * nt + i] += lambda;
+  const { factor, jitter } = choleskyWithJitter(k, nt);
+  for (let t = 0; t < test.length; t++) out[t] = designLeverage(sub, nt, f, factor, lambda + jitter, phi.subarray(test[t] * f, test[t] * f + f));
   return out;
 }

@@ -3,7 +3,7 @@
 //   (K_NMᵀ K_NM + λ K_MM) x = K_NMᵀ y
 // into an ordinary ridge problem on the features Φ' = K_NM L⁻ᵀ (K_MM = L Lᵀ), solved by regression.ts; then
 // x = L⁻ᵀ w'. Also the per-atom applicability distances to the representatives.
-import { backSubstitute, choleskyWithJitter, forwardSubstitute } from '../numerics/cholesky.ts';
+import { backSubstitute, choleskyWithJitter, forwardSubstituteRows } from '../numerics/cholesky.ts';
 import type { EnvironmentFeatures } from '../descriptors/feature-types.ts';
 import { kernelPower, type KernelExpansion, type Order } from './kernels.ts';
 
@@ -215,9 +215,7 @@ export function representativeFactor(kmm: Float64Array, size: number): Float64Ar
 
 /** Φ' rows = L⁻¹ k for every row of a K_NM block (in place on a copy). */
 export function projectRows(knm: Float64Array, rows: number, l: Float64Array, size: number): Float64Array {
-  const out = Float64Array.from(knm);
-  for (let r = 0; r < rows; r++) forwardSubstitute(l, size, out.subarray(r * size, (r + 1) * size));
-  return out;
+  return forwardSubstituteRows(l, size, Float64Array.from(knm), rows);
 }
 
 /** x = L⁻ᵀ w' and the folded expansion v_m = Σ_μ' x_mμ' ξ_μ'(m). */

@@ -11,7 +11,7 @@ import { convertTensor } from '../dielectric/clausius-mossotti.ts';
 import { cellVolume } from '../geometry/cell.ts';
 import { InputError, type Where } from '../errors.ts';
 import type { Frame, Mat3 } from '../geometry/frame.ts';
-import type { Route, TensorKind, TrainRequest } from './model-types.ts';
+import type { Route, TensorKind, TensorPrediction, TrainRequest } from './model-types.ts';
 import { tensorFromValues } from '../dielectric/tensor.ts';
 
 export type TargetShape = 'tensor' | 'vector' | 'scalar';
@@ -158,4 +158,27 @@ export function referenceEpsOf(frame: Frame, index: number, key: string, kind: T
   } catch {
     return null;
   }
+}
+
+/**
+ * A frame's reference tensor in the units its prediction is compared in — ε for a periodic frame, the
+ * polarisability in vacuum (Å³, under the request's key for alpha-mol or its isolatedKey in a mixed set) for an
+ * isolated one — or null when the frame carries none (missing, not a 3×3 tensor, not convertible). What
+ * `validate` compares per kind; the window's held-out test frames and predicted frames use it too.
+ */
+export function comparedReferenceOf(frame: Frame, index: number, request: Pick<TrainRequest, 'tensorKey' | 'kind' | 'isolatedKey'>): Mat3 | null {
+  if (!isIsolated(frame)) return request.kind === 'alpha-mol' ? null : referenceEpsOf(frame, index, request.tensorKey, request.kind);
+  const key = request.kind === 'alpha-mol' ? request.tensorKey : request.isolatedKey;
+  const v = key === undefined ? undefined : frame.info[key];
+  if (!Array.isArray(v) || (v.length !== 9 && v.length !== 6)) return null;
+  try {
+    return readTensor(frame, key as string, index);
+  } catch {
+    return null;
+  }
+}
+
+/** The predicted tensor compared with comparedReferenceOf: ε of a periodic frame, α (Å³) of an isolated one. */
+export function comparedPrediction(p: TensorPrediction): Mat3 {
+  return p.isolated ? p.alphaMol : p.eps;
 }

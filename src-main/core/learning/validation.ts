@@ -25,7 +25,7 @@ import { ZCollector, type ErrorBarCheck } from './calibration.ts';
 import { toIrreducible } from '../dielectric/tensor.ts';
 
 export { errorFigures } from './error-figures.ts';
-import { errorFigures } from './error-figures.ts';
+import { comparedOn, errorFigures } from './error-figures.ts';
 import { checkTensorKind } from './kind-check.ts';
 import { statePointErrors, statePointsOf } from './state-points.ts';
 import { CURVE_REPEATS, curveTrend, meanOfRepeats } from './curve-splits.ts';
@@ -258,15 +258,15 @@ export async function validate(
   const mainPoints = onEps ? pointsOf(refEps, main.pe).filter((p) => !isolated[p.frame]) : pointsOf(refCM, main.pc);
   if (onEps) {
     const tested = only(main.tested, periodicFrames);
-    alsoOn.push({ target: isolatedFrames.length ? 'alpha-cm (Å³), periodic frames' : 'alpha-cm (Å³)', errors: errorsOf(refCM, main.pc, tested), points: pointsOf(refCM, main.pc).filter((p) => !isolated[p.frame]) });
+    alsoOn.push({ target: comparedOn('alpha-cm', isolatedFrames.length > 0), errors: errorsOf(refCM, main.pc, tested), points: pointsOf(refCM, main.pc).filter((p) => !isolated[p.frame]) });
   }
   if (onEps && isolatedFrames.length) {
-    alsoOn.push({ target: 'alpha-mol (Å³), isolated frames', errors: errorsOf(refCM, main.pc, only(main.tested, isolatedFrames)), points: pointsOf(refCM, main.pc).filter((p) => isolated[p.frame]) });
+    alsoOn.push({ target: comparedOn('alpha-mol', true), errors: errorsOf(refCM, main.pc, only(main.tested, isolatedFrames)), points: pointsOf(refCM, main.pc).filter((p) => isolated[p.frame]) });
   }
   const full = { trainSize: Math.min(...Array.from({ length: k }, (_, f) => plan.trainIndices(f).length)), errors: mainOf(main) };
   return {
     route: request.route,
-    target: onEps ? (isolatedFrames.length ? 'eps, periodic frames' : 'eps') : 'alpha-mol (Å³)',
+    target: onEps ? comparedOn('eps', isolatedFrames.length > 0) : comparedOn('alpha-mol', false),
     folds: k,
     errors: mainOf(main),
     statePoints,

@@ -1,29 +1,50 @@
 // Dense symmetric positive-definite solves on plain Float64Array (row-major n×n), for the ridge systems of the
-// regression. Written by hand because ml-matrix's generic loops are far slower here (bench/training.bench.ts
-// measures both); the loops below run along contiguous rows so the JIT keeps them tight.
+// regression. Written by hand because ml-matrix's generic loops are far slower here (bench/cholesky.bench.ts
+// measures both, and the unblocked code this replaced); the loops run along contiguous rows so the JIT keeps them
+// tight. Tested against ml-matrix (test/core/numerics/cholesky.test.ts).
+
+/** Columns per block of the blocked Cholesky (the panel's rows, kb doubles each, stay in the first cache levels). */
+const BLOCK = 64;
 
 /**
  * Cholesky factor A = L Lᵀ, in place: the lower triangle of `a` becomes L (the strict upper triangle is left
  * untouched and must be ignored). Returns false when A is not positive definite (a pivot ≤ 0 or not finite).
+ * Blocked, right-looking: factor a BLOCK-wide diagonal block, solve the panel below it against that block (copied
+ * into a packed buffer, one row of BLOCK numbers after the other), then subtract the panel's outer product from the
+ * trailing lower triangle — the bulk of the work, a small matrix product in 4 × 4 tiles of row pairs (16 running
+ * sums per tile: each number loaded serves four products). Same result as the textbook order to round-off.
  */
 export function choleskyInPlace(a: Float64Array, n: number): boolean {
-  for (let i = 0; i < n; i++) {
+  const packed = new Float64Array(Math.min(BLOCK, n) * Math.max(0, n - BLOCK));
+  for (let k0 = 0; k0 < n; k0 += BLOCK) {
+    const kb = Math.min(BLOCK, n - k0);
+    if (!factorDiagonalBlock(a, n, k0, kb)) return false;
+    const r0 = k0 + kb;
+    if (r0 >= n) break;
+    solvePanel(a, n, k0, kb, r0, packed);
+    subtractPanelProduct(a, n, kb, r0, packed);
+  }
+  return true;
+}
+
+/** Unblocked Cholesky of the kb × kb diagonal block at (k0, k0), whose earlier columns are already subtracted. */
+function factorDiagonalBlock(a: Float64Array, n: number, k0: number, kb: number): boolean {
+  for (let i = k0; i < k0 + kb; i++) {
     const ri = i * n;
-    for (let j = 0; j <= i; j++) {
+    for (let j = k0; j <= i; j++) {
       const rj = j * n;
-      // dot product of the two row prefixes, four accumulators (about 1.5× faster in V8 than one)
       let s0 = 0;
       let s1 = 0;
       let s2 = 0;
       let s3 = 0;
-      let k = 0;
-      for (; k + 3 < j; k += 4) {
-        s0 += a[ri + k] * a[rj + k];
-        s1 += a[ri + k + 1] * a[rj + k + 1];
-        s2 += a[ri + k + 2] * a[rj + k + 2];
-        s3 += a[ri + k + 3] * a[rj + k + 3];
+      let p = k0;
+      for (; p + 3 < j; p += 4) {
+        s0 += a[ri + p] * a[rj + p];
+        s1 += a[ri + p + 1] * a[rj + p + 1];
+        s2 += a[ri + p + 2] * a[rj + p + 2];
+        s3 += a[ri + p + 3] * a[rj + p + 3];
       }
-      for (; k < j; k++) s0 += a[ri + k] * a[rj + k];
+      for (; p < j; p++) s0 += a[ri + p] * a[rj + p];
       const s = a[ri + j] - (s0 + s1 + s2 + s3);
       if (i === j) {
         if (!(s > 0) || !Number.isFinite(s)) return false;
@@ -34,6 +55,95 @@ export function choleskyInPlace(a: Float64Array, n: number): boolean {
     }
   }
   return true;
+}
+
+/** Rows r0…n−1 of the block's columns: a[i, k0:k0+kb] ← a[i, k0:k0+kb] L₁₁⁻ᵀ, also into `packed` (row i − r0, kb wide). */
+function solvePanel(a: Float64Array, n: number, k0: number, kb: number, r0: number, packed: Float64Array): void {
+  for (let i = r0; i < n; i++) {
+    const ri = i * n + k0;
+    const pi = (i - r0) * kb;
+    for (let j = 0; j < kb; j++) {
+      const rj = (k0 + j) * n + k0;
+      let s0 = 0;
+      let s1 = 0;
+      let s2 = 0;
+      let s3 = 0;
+      let p = 0;
+      for (; p + 3 < j; p += 4) {
+        s0 += packed[pi + p] * a[rj + p];
+        s1 += packed[pi + p + 1] * a[rj + p + 1];
+        s2 += packed[pi + p + 2] * a[rj + p + 2];
+        s3 += packed[pi + p + 3] * a[rj + p + 3];
+      }
+      for (; p < j; p++) s0 += packed[pi + p] * a[rj + p];
+      const x = (a[ri + j] - (s0 + s1 + s2 + s3)) / a[rj + j];
+      packed[pi + j] = x;
+      a[ri + j] = x;
+    }
+  }
+}
+
+/** a[i][j] −= Σ_p P[i−r0][p] P[j−r0][p] for r0 ≤ j ≤ i < n (the lower triangle only), P the packed panel. */
+function subtractPanelProduct(a: Float64Array, n: number, kb: number, r0: number, packed: Float64Array): void {
+  const m = n - r0;
+  let i = 0;
+  for (; i + 3 < m; i += 4) {
+    const a0 = i * kb;
+    const a1 = a0 + kb;
+    const a2 = a1 + kb;
+    const a3 = a2 + kb;
+    for (let j = 0; j <= i; j += 4) {
+      const b0 = j * kb;
+      const b1 = b0 + kb;
+      const b2 = b1 + kb;
+      const b3 = b2 + kb;
+      let s00 = 0, s01 = 0, s02 = 0, s03 = 0, s10 = 0, s11 = 0, s12 = 0, s13 = 0;
+      let s20 = 0, s21 = 0, s22 = 0, s23 = 0, s30 = 0, s31 = 0, s32 = 0, s33 = 0;
+      for (let p = 0; p < kb; p++) {
+        const x0 = packed[a0 + p];
+        const x1 = packed[a1 + p];
+        const x2 = packed[a2 + p];
+        const x3 = packed[a3 + p];
+        const y0 = packed[b0 + p];
+        const y1 = packed[b1 + p];
+        const y2 = packed[b2 + p];
+        const y3 = packed[b3 + p];
+        s00 += x0 * y0; s01 += x0 * y1; s02 += x0 * y2; s03 += x0 * y3;
+        s10 += x1 * y0; s11 += x1 * y1; s12 += x1 * y2; s13 += x1 * y3;
+        s20 += x2 * y0; s21 += x2 * y1; s22 += x2 * y2; s23 += x2 * y3;
+        s30 += x3 * y0; s31 += x3 * y1; s32 += x3 * y2; s33 += x3 * y3;
+      }
+      const r = (r0 + i) * n + r0 + j;
+      // a tile on the diagonal (j = i) touches only its lower triangle
+      a[r] -= s00;
+      a[r + n] -= s10;
+      a[r + n + 1] -= s11;
+      a[r + 2 * n] -= s20;
+      a[r + 2 * n + 1] -= s21;
+      a[r + 2 * n + 2] -= s22;
+      a[r + 3 * n] -= s30;
+      a[r + 3 * n + 1] -= s31;
+      a[r + 3 * n + 2] -= s32;
+      a[r + 3 * n + 3] -= s33;
+      if (j < i) {
+        a[r + 1] -= s01;
+        a[r + 2] -= s02;
+        a[r + 3] -= s03;
+        a[r + n + 2] -= s12;
+        a[r + n + 3] -= s13;
+        a[r + 2 * n + 3] -= s23;
+      }
+    }
+  }
+  for (; i < m; i++) {
+    const a0 = i * kb;
+    for (let j = 0; j <= i; j++) {
+      const b0 = j * kb;
+      let s = 0;
+      for (let p = 0; p < kb; p++) s += packed[a0 + p] * packed[b0 + p];
+      a[(r0 + i) * n + r0 + j] -= s;
+    }
+  }
 }
 
 /**
@@ -64,6 +174,42 @@ export function forwardSubstitute(l: Float64Array, n: number, b: Float64Array): 
     for (let k = 0; k < i; k++) s -= l[ri + k] * b[k];
     b[i] = s / l[ri + i];
   }
+  return b;
+}
+
+/**
+ * Solve L z = b in place for each of `rows` right-hand sides, the rows of `b` (row-major rows × n): four rows per
+ * pass over L, so each number of L loaded serves four solves. Every row gets the same operations in the same
+ * order as forwardSubstitute, so the same bits.
+ */
+export function forwardSubstituteRows(l: Float64Array, n: number, b: Float64Array, rows: number): Float64Array {
+  let r = 0;
+  for (; r + 3 < rows; r += 4) {
+    const o0 = r * n;
+    const o1 = o0 + n;
+    const o2 = o1 + n;
+    const o3 = o2 + n;
+    for (let i = 0; i < n; i++) {
+      const ri = i * n;
+      let s0 = b[o0 + i];
+      let s1 = b[o1 + i];
+      let s2 = b[o2 + i];
+      let s3 = b[o3 + i];
+      for (let k = 0; k < i; k++) {
+        const x = l[ri + k];
+        s0 -= x * b[o0 + k];
+        s1 -= x * b[o1 + k];
+        s2 -= x * b[o2 + k];
+        s3 -= x * b[o3 + k];
+      }
+      const d = l[ri + i];
+      b[o0 + i] = s0 / d;
+      b[o1 + i] = s1 / d;
+      b[o2 + i] = s2 / d;
+      b[o3 + i] = s3 / d;
+    }
+  }
+  for (; r < rows; r++) forwardSubstitute(l, n, b.subarray(r * n, (r + 1) * n));
   return b;
 }
 
@@ -103,25 +249,80 @@ export function gramOfColumns(phi: Float64Array, rows: number, f: number): Float
   return g;
 }
 
-/** K = Φ Φᵀ (rows×rows) of a row-major rows×F matrix. */
+/**
+ * K = Φ Φᵀ (rows×rows) of a row-major rows×F matrix. Each entry sums its even and its odd columns apart and adds
+ * the two (the order of one entry never changes, so K of a subset of rows is a selection of K's numbers); the
+ * entries go in 2 × 2 tiles of row pairs, each number loaded serving two products (×2 against one entry at a time,
+ * bench/cholesky.bench.ts).
+ */
 export function gramOfRows(phi: Float64Array, rows: number, f: number): Float64Array {
   const k = new Float64Array(rows * rows);
-  for (let i = 0; i < rows; i++) {
+  const entry = (i: number, j: number) => {
     const bi = i * f;
-    for (let j = 0; j <= i; j++) {
-      const bj = j * f;
-      let s0 = 0;
-      let s1 = 0;
+    const bj = j * f;
+    let s0 = 0;
+    let s1 = 0;
+    let c = 0;
+    for (; c + 1 < f; c += 2) {
+      s0 += phi[bi + c] * phi[bj + c];
+      s1 += phi[bi + c + 1] * phi[bj + c + 1];
+    }
+    if (c < f) s0 += phi[bi + c] * phi[bj + c];
+    const s = s0 + s1;
+    k[i * rows + j] = s;
+    k[j * rows + i] = s;
+  };
+  let i = 0;
+  for (; i + 1 < rows; i += 2) {
+    const a0 = i * f;
+    const a1 = a0 + f;
+    for (let j = 0; j + 1 <= i; j += 2) {
+      const b0 = j * f;
+      const b1 = b0 + f;
+      // (i, j), (i, j+1), (i+1, j), (i+1, j+1), each as two sums
+      let p0 = 0, p1 = 0, q0 = 0, q1 = 0, r0 = 0, r1 = 0, t0 = 0, t1 = 0;
       let c = 0;
       for (; c + 1 < f; c += 2) {
-        s0 += phi[bi + c] * phi[bj + c];
-        s1 += phi[bi + c + 1] * phi[bj + c + 1];
+        const x0 = phi[a0 + c];
+        const x1 = phi[a0 + c + 1];
+        const y0 = phi[b0 + c];
+        const y1 = phi[b0 + c + 1];
+        const u0 = phi[a1 + c];
+        const u1 = phi[a1 + c + 1];
+        const v0 = phi[b1 + c];
+        const v1 = phi[b1 + c + 1];
+        p0 += x0 * y0;
+        p1 += x1 * y1;
+        q0 += x0 * v0;
+        q1 += x1 * v1;
+        r0 += u0 * y0;
+        r1 += u1 * y1;
+        t0 += u0 * v0;
+        t1 += u1 * v1;
       }
-      if (c < f) s0 += phi[bi + c] * phi[bj + c];
-      const s = s0 + s1;
-      k[i * rows + j] = s;
-      k[j * rows + i] = s;
+      if (c < f) {
+        p0 += phi[a0 + c] * phi[b0 + c];
+        q0 += phi[a0 + c] * phi[b1 + c];
+        r0 += phi[a1 + c] * phi[b0 + c];
+        t0 += phi[a1 + c] * phi[b1 + c];
+      }
+      const sp = p0 + p1;
+      const sq = q0 + q1;
+      const sr = r0 + r1;
+      const st = t0 + t1;
+      k[i * rows + j] = sp;
+      k[j * rows + i] = sp;
+      k[i * rows + j + 1] = sq;
+      k[(j + 1) * rows + i] = sq;
+      k[(i + 1) * rows + j] = sr;
+      k[j * rows + i + 1] = sr;
+      k[(i + 1) * rows + j + 1] = st;
+      k[(j + 1) * rows + i + 1] = st;
     }
+    entry(i, i);
+    entry(i + 1, i);
+    entry(i + 1, i + 1);
   }
+  if (i < rows) for (let j = 0; j <= i; j++) entry(i, j);
   return k;
 }

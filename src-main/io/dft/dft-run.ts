@@ -37,6 +37,8 @@ export interface DftRun {
   /** How the code printed it, for the report: "a.u. (bohr³), converted to Å³", "dimensionless". */
   printedAs: string;
   settings: RunSetting[];
+  /** What the user must know about this run's tensor (e.g. a molecule in a periodic box: the box's ε, not α in vacuum). */
+  note?: string;
 }
 
 export type RunStatus = 'unfinished' | 'unconverged' | 'unsuitable';

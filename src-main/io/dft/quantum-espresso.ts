@@ -8,9 +8,17 @@
 // lattice parameter alat, itself in Bohr ("celldm(1)", "lattice parameter (alat) = … a.u."), whether the input
 // gave ibrav/celldm or CELL_PARAMETERS in Å. Cell and positions are therefore alat × BOHR_A Å per printed
 // unit; the printed "unit-cell volume" in (a.u.)^3 is checked against the cell built that way.
+//
+// Molecules: ph.x has no isolated boundary for the electric field. For a molecule in a box (assume_isolated, or
+// vacuum around it) its ε∞ is the periodic box's, and the "Polarizability (a.u.)^3 / (A^3)" block it prints for
+// Γ-only runs is that box's Clausius–Mossotti polarisability (3Ω/4π)(ε−1)(ε+2)⁻¹ (checked against the committed
+// outputs in test/io/dft/quantum-espresso-molecule.test.ts), not the molecule's polarisability in vacuum. Such a
+// run is kept as a periodic frame with ε∞, with a note saying so and what to do (boxedMoleculeNote).
 import path from 'node:path';
 import { InputError } from '../../core/errors.ts';
-import { makeFrame, type Mat3 } from '../../core/geometry/frame.ts';
+import { makeFrame, type Frame, type Mat3 } from '../../core/geometry/frame.ts';
+import { neighbourList } from '../../core/geometry/neighbours.ts';
+import { tensorKey } from '../tensor-keys.ts';
 import { cellVolume } from '../../core/geometry/cell.ts';
 import { BOHR_A } from '../../core/dielectric/units.ts';
 import { elementFromLabel } from '../cif.ts';
@@ -215,6 +223,31 @@ function dielectricTensor(ph: QeOutput): { tensor: Mat3; line: number } | null {
   return found;
 }
 
+/**
+ * Vacuum (Å) between the periodic copies of a cell's atoms from which the cell is taken to hold a molecule or
+ * cluster in a box: liquids and crystals have neighbours across the cell boundary within 2–4 Å, while boxes
+ * for molecules leave 5–10 Å or more (common practice, no source).
+ */
+export const BOX_VACUUM_A = 5;
+
+/**
+ * What to tell the user about a ph.x run of a molecule or cluster in a periodic box (pw.x ran with
+ * assume_isolated, or no atom lies within BOX_VACUUM_A of another periodic copy); null for a condensed phase.
+ */
+export function boxedMoleculeNote(frame: Frame, pwLines: string[]): string | null {
+  const flagged = pwLines.findIndex((l) => /Assuming isolated system/.test(l));
+  const list = neighbourList(frame, BOX_VACUUM_A);
+  const apart = !list.shifts.some((s) => s !== 0);
+  if (flagged < 0 && !apart) return null;
+  const why = flagged >= 0 ? `pw.x says "${pwLines[flagged].trim()}" (line ${flagged + 1}), which treats the ground state only` : `no atom lies within ${BOX_VACUUM_A} Å of a periodic copy`;
+  return (
+    `a molecule or cluster in a periodic box (${why}). Quantum ESPRESSO's ε∞ here is the dielectric tensor of the periodic box, and the "Polarizability" ph.x prints is that box's ` +
+    `Clausius–Mossotti polarisability (3Ω/4π)(ε−1)(ε+2)⁻¹, not the molecule's polarisability in vacuum. Kept as a periodic frame with ${tensorKey('eps')} (train it as ε: the box is a crystal of molecules). ` +
+    `For the molecule in vacuum, compute it with non-periodic boundaries (CP2K with PERIODIC NONE in &CELL and &POISSON, which collect reads as ${tensorKey('alpha-mol')}), ` +
+    'or check that this frame\'s α_CM no longer changes as the box grows.'
+  );
+}
+
 /** ε∞ with its structure: one ph.x output and the pw.x output it continues (null when none was given). */
 export function readQePair(ph: QeOutput, pw: QeOutput | null, files: RunFiles): RunReading {
   const program = `Quantum ESPRESSO ${versionOf(ph.lines)} (pw.x, ph.x)`;
@@ -263,6 +296,7 @@ export function readQePair(ph: QeOutput, pw: QeOutput | null, files: RunFiles): 
     }
   }
   const frame = makeFrame(species, positions, cell);
+  const note = boxedMoleculeNote(frame, pw.lines);
   return {
     ok: true,
     run: {
@@ -274,6 +308,7 @@ export function readQePair(ph: QeOutput, pw: QeOutput | null, files: RunFiles): 
       kind: 'eps',
       printedAs: `ε∞, dimensionless (line ${eps.line}); symmetric part`,
       settings: settingsOf(pw.lines, pw.text, pw.file, files),
+      ...(note ? { note } : {}),
     },
   };
 }

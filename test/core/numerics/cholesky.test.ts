@@ -1,6 +1,6 @@
 import { CholeskyDecomposition, Matrix, solve } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import { backSubstitute, choleskyInPlace, choleskySolve, choleskyWithJitter, forwardSubstitute, gramOfColumns, gramOfRows } from '../../../src-main/core/numerics/cholesky.ts';
+import { backSubstitute, choleskyInPlace, choleskySolve, choleskyWithJitter, forwardSubstitute, forwardSubstituteRows, gramOfColumns, gramOfRows } from '../../../src-main/core/numerics/cholesky.ts';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
 
 describe('Cholesky on Float64Array', () => {
@@ -36,6 +36,25 @@ describe('Cholesky on Float64Array', () => {
     expect(() => choleskyWithJitter(Float64Array.of(-1, 0, 0, -1), 2)).toThrow(/not positive definite/);
   });
 
+  it('gram of rows: every entry the same bits as its own dot product (even and odd columns apart), whatever the rows around it', () => {
+    const rng = makeRng(17);
+    for (const [rows, f] of [[7, 13], [8, 12], [1, 5], [5, 1]]) {
+      const phi = Float64Array.from({ length: rows * f }, () => rng.normal());
+      const k = gramOfRows(phi, rows, f);
+      for (let i = 0; i < rows; i++) {
+        for (let j = 0; j < rows; j++) {
+          let s0 = 0;
+          let s1 = 0;
+          for (let c = 0; c < f; c++) {
+            if (c % 2 === 0) s0 += phi[i * f + c] * phi[j * f + c];
+            else s1 += phi[i * f + c] * phi[j * f + c];
+          }
+          expect(k[i * rows + j]).toBe(s0 + s1);
+        }
+      }
+    }
+  });
+
   it('gram of columns and of rows agree with explicit products', () => {
     const phi = Float64Array.of(1, 2, 3, 4, 5, 6); // 2×3
     expect([...gramOfRows(phi, 2, 3)]).toEqual([14, 32, 32, 77]);
@@ -69,5 +88,50 @@ describe('Cholesky on Float64Array', () => {
     const x = backSubstitute(own, n, Float64Array.from(z));
     close(x, solve(L.transpose(), Matrix.columnVector(Array.from(z))).getColumn(0));
     close(choleskySolve(own, n, b), ref.solve(Matrix.columnVector(Array.from(b))).getColumn(0));
+  });
+
+  it('blocked factor of a matrix spanning several blocks (with a ragged last block and rows) agrees with ml-matrix and leaves the upper triangle alone', () => {
+    const rng = makeRng(21);
+    for (const n of [130, 203]) {
+      const m = Float64Array.from({ length: n * (n + 7) }, () => rng.normal());
+      const a = gramOfRows(m, n, n + 7);
+      const rows = Array.from({ length: n }, (_, i) => Array.from(a.subarray(i * n, i * n + n)));
+      const L = new CholeskyDecomposition(new Matrix(rows)).lowerTriangularMatrix;
+      const own = Float64Array.from(a);
+      expect(choleskyInPlace(own, n)).toBe(true);
+      let scale = 0;
+      for (let i = 0; i < n; i++) for (let j = 0; j <= i; j++) scale = Math.max(scale, Math.abs(L.get(i, j)));
+      let worst = 0;
+      for (let i = 0; i < n; i++) {
+        for (let j = 0; j <= i; j++) worst = Math.max(worst, Math.abs(own[i * n + j] - L.get(i, j)));
+        for (let j = i + 1; j < n; j++) expect(own[i * n + j]).toBe(a[i * n + j]);
+      }
+      expect(worst).toBeLessThan(1e-11 * scale);
+    }
+  });
+
+  it('finds a matrix not positive definite when the failing pivot lies in a later block', () => {
+    const rng = makeRng(4);
+    const n = 150;
+    const m = Float64Array.from({ length: n * (n + 5) }, () => rng.normal());
+    const a = gramOfRows(m, n, n + 5);
+    // make row/column 140 a copy of row/column 3 (singular), then push its diagonal below: indefinite
+    for (let j = 0; j < n; j++) {
+      a[140 * n + j] = a[3 * n + j];
+      a[j * n + 140] = a[j * n + 3];
+    }
+    a[140 * n + 140] = a[3 * n + 3] - 1;
+    expect(choleskyInPlace(Float64Array.from(a), n)).toBe(false);
+  });
+
+  it('solves many right-hand sides at once with the bits of one solve each', () => {
+    const rng = makeRng(9);
+    const n = 37;
+    const m = Float64Array.from({ length: n * 50 }, () => rng.normal());
+    const { factor } = choleskyWithJitter(gramOfRows(m, n, 50), n);
+    const rows = 7;
+    const b = Float64Array.from({ length: rows * n }, () => rng.normal());
+    const all = forwardSubstituteRows(factor, n, Float64Array.from(b), rows);
+    for (let r = 0; r < rows; r++) expect(Array.from(all.subarray(r * n, (r + 1) * n))).toEqual(Array.from(forwardSubstitute(factor, n, b.slice(r * n, (r + 1) * n))));
   });
 });
