@@ -11,7 +11,7 @@ import { featurise, powerSpectrum, prepare, tensorFeatures, type Plan } from '..
 import type { FeatureSettings } from '../src-main/core/descriptors/feature-types.ts';
 import { makeWeightMatrices, readOne, readoutScratch } from '../src-main/core/learning/tensor-readout.ts';
 import { makeRng } from '../src-main/core/numerics/random.ts';
-import { referencePowerSpectrum, referenceReadOne, referenceTensorFeatures } from '../test/helpers/reference-kernels.ts';
+import { referenceDensityExpander, referencePowerSpectrum, referenceReadOne, referenceTensorFeatures } from '../test/helpers/reference-kernels.ts';
 import { waterLikeFrames } from './water-like.ts';
 
 const ROUNDS = 25;
@@ -67,6 +67,30 @@ function coefficientsOf(P: Plan, prep: ReturnType<typeof prepare>): Float64Array
   return out;
 }
 
+function expansionPair(prep: ReturnType<typeof prepare>): void {
+  const { P, channelOf, centres, pairs } = prep;
+  const plain = referenceDensityExpander(P.expander.settings);
+  const envs = centres.length;
+  const size = P.expander.size;
+  const cOld = new Float64Array(envs * size);
+  const cNew = new Float64Array(envs * size);
+  // timed as featurisation runs it: every centre into the one reused coefficient block; compared separately
+  const block = new Float64Array(size);
+  const times = timeSideBySide([
+    () => centres.forEach((i) => plain.expand(pairs, i, channelOf[i], channelOf, block)),
+    () => centres.forEach((i) => P.expander.expand(pairs, i, channelOf[i], channelOf, block)),
+  ]);
+  centres.forEach((i, e) => {
+    plain.expand(pairs, i, channelOf[i], channelOf, block);
+    cOld.set(block, e * size);
+    P.expander.expand(pairs, i, channelOf[i], channelOf, block);
+    cNew.set(block, e * size);
+  });
+  let neighbours = 0;
+  centres.forEach((i) => (neighbours += pairs.start[i + 1] - pairs.start[i]));
+  line(`density expansion (${(neighbours / envs).toFixed(0)} pairs per env)`, envs, times, agreement(cOld, cNew));
+}
+
 function powerSpectrumPair(P: Plan, coefficients: Float64Array[]): void {
   const envs = coefficients.length;
   const rowsOld = new Float64Array(envs * P.n0);
@@ -114,6 +138,7 @@ export async function run(): Promise<void> {
   const frame = waterLikeFrames(1, 99)[0];
   const prep = prepare(frame, kernelSettings, [0, 2], undefined, undefined);
   const coefficients = coefficientsOf(prep.P, prep);
+  expansionPair(prep);
   powerSpectrumPair(prep.P, coefficients);
   couplingPair(prep.P, coefficients);
   readoutPair(prep, coefficients);

@@ -7,6 +7,7 @@ import {
   DEFAULT_SETTINGS,
   NUMERIC_SETTINGS,
   SPECIES_SETTING,
+  SPLIT_SETTING,
   TUNABLE_SETTINGS,
   describeSettings,
   limitsText,
@@ -79,7 +80,7 @@ const FEATURE_KEYS = new Set(['cutoffRadius', 'switchWidth', 'densityWidth', 'ra
 describe('the settings table', () => {
   it('has defaults that every place accepts, and one row per setting', () => {
     expect(settingsProblems(DEFAULT_SETTINGS)).toEqual([]);
-    expect([...NUMERIC_SETTINGS.map((s) => s.key), SPECIES_SETTING.key].sort()).toEqual(Object.keys(DEFAULT_SETTINGS).sort());
+    expect([...NUMERIC_SETTINGS.map((s) => s.key), SPECIES_SETTING.key, SPLIT_SETTING.key].sort()).toEqual(Object.keys(DEFAULT_SETTINGS).sort());
     expect(engineAccepts({})).toBe(true);
     expect(apiAccepts({ ...DEFAULT_SETTINGS })).toBe(true);
     expect(cliAccepts({})).toBe(true);

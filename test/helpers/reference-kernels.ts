@@ -4,6 +4,8 @@
 // change), and `npm run bench -- kernels` times both side by side on the same inputs. Do not optimise this file.
 import { normalise, type Plan, type TensorPlan } from '../../src-main/core/descriptors/features.ts';
 import type { ReadoutScratch } from '../../src-main/core/learning/tensor-readout.ts';
+import { interpolateRadial, radialTable, type DensityExpander, type DensitySettings } from '../../src-main/core/descriptors/density.ts';
+import { realSphericalHarmonics } from '../../src-main/core/descriptors/harmonics.ts';
 import type { NearestSearch, SearchCounter } from '../../src-main/core/learning/nearest-search.ts';
 
 /** The read-out of one environment (tensor-readout.ts readOne) with the plain loops of its first version. */
@@ -355,3 +357,78 @@ export function referenceTensorFeatures(P: Plan, T: TensorPlan, c: Float64Array,
   normalise(out, base, base + nM * n);
 }
 
+
+/** The density expansion (density.ts makeDensityExpander) as first written: the radial table read in its own layout. */
+export function referenceDensityExpander(s: DensitySettings): DensityExpander {
+  const { nmax, lmax, cutoff, cutoffWidth, channels } = s;
+  const table = radialTable(s);
+  const L1 = lmax + 1;
+  const LL = L1 * L1;
+  const NL = nmax * L1;
+  const size = channels * nmax * LL;
+  const Y = new Float64Array(LL);
+  const FOUR_PI = 4 * Math.PI;
+  // The centre's own Gaussian: f_c(0) Y_00 I_n0(0) in the l = 0 slot of its channel.
+  const self = new Float64Array(NL);
+  interpolateRadial(table, 0, self);
+  const selfTerm = new Float64Array(nmax);
+  for (let n = 0; n < nmax; n++) selfTerm[n] = (FOUR_PI / Math.sqrt(4 * Math.PI)) * self[n * L1];
+  const inner = cutoff - cutoffWidth;
+  const switchScale = Math.PI / cutoffWidth;
+  // The table's coefficients reordered from n·(lmax+1) + l to l·nmax + n within each (interval, power).
+  const byDegree = new Float64Array(table.coefficients.length);
+  for (let b = 0; b < table.coefficients.length; b += NL) {
+    for (let n = 0; n < nmax; n++) for (let l = 0; l <= lmax; l++) byDegree[b + l * nmax + n] = table.coefficients[b + n * L1 + l];
+  }
+  const radial = new Float64Array(NL);
+  const work = new Float64Array(size);
+  const intervals = table.intervals;
+  const invSpacing = 1 / table.spacing;
+
+  return {
+    settings: { ...s },
+    size,
+    expand(pairs, centre, centreChannel, channelOf, out) {
+      // Locals, not closure slots, in the loop (V8 keeps them in registers).
+      const coef = byDegree, Yl = Y, rl = radial, acc = work, cut = cutoff, inn = inner, sw = switchScale, inv = invSpacing, last = intervals;
+      acc.fill(0);
+      const { start, neighbour, vectors, distances } = pairs;
+      const end = start[centre + 1];
+      for (let p = start[centre]; p < end; p++) {
+        const d = distances[p];
+        if (!(d < cut)) continue;
+        const a = channelOf[neighbour[p]];
+        if (a < 0) continue;
+        realSphericalHarmonics(lmax, vectors[3 * p], vectors[3 * p + 1], vectors[3 * p + 2], Yl);
+        const w = d <= inn ? FOUR_PI : FOUR_PI * 0.5 * (1 + Math.cos(sw * (d - inn)));
+        // Radial integrals by the cubic pieces of interval k, ordered l·nmax + n.
+        const u = d * inv;
+        let k = Math.floor(u);
+        if (k >= last) k = last - 1;
+        const t = u - k;
+        const t2 = t * t, t3 = t2 * t;
+        const q0 = k * 4 * NL, q1 = q0 + NL, q2 = q1 + NL, q3 = q2 + NL;
+        for (let j = 0; j < NL; j++) rl[j] = w * (coef[q0 + j] + t * coef[q1 + j] + t2 * coef[q2 + j] + t3 * coef[q3 + j]);
+        // Accumulate in the work layout (a·LL + lm)·nmax + n: the inner loop runs over n, contiguous.
+        const base = a * LL * nmax;
+        for (let l = 0; l <= lmax; l++) {
+          const rb = l * nmax;
+          const hi = (l + 1) * (l + 1);
+          for (let lm = l * l; lm < hi; lm++) {
+            const y = Yl[lm];
+            const ob = base + lm * nmax;
+            for (let n = 0; n < nmax; n++) acc[ob + n] += y * rl[rb + n];
+          }
+        }
+      }
+      // Back to the public layout (a·nmax + n)·LL + lm, plus the centre's own Gaussian.
+      for (let a = 0; a < channels; a++) {
+        for (let lm = 0; lm < LL; lm++) {
+          const src = (a * LL + lm) * nmax;
+          for (let n = 0; n < nmax; n++) out[(a * nmax + n) * LL + lm] = acc[src + n];
+        }
+      }
+      if (centreChannel >= 0) for (let n = 0; n < nmax; n++) out[(centreChannel * nmax + n) * LL] += selfTerm[n];
+    },
+  };
+}

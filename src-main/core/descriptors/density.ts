@@ -255,6 +255,27 @@ export interface DensityExpander {
   expand(pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): void;
 }
 
+const expanderCache = new Map<string, DensityExpander>();
+
+/**
+ * The expander of these settings, made once and shared (by every feature plan with the same density settings,
+ * e.g. the λ = 0 and the λ = 0 + 2 plans of one model). One expander per settings is also one closure of the
+ * hot loop: V8 compiles a closure that is the only one made from its code with its captured sizes as constants,
+ * and measured the loop about 2× slower once a second expander of the same code existed (bench/kernels.bench.ts
+ * conditions). Not re-entrant, like every expander (scratch of its own); prediction and training are
+ * single-threaded per worker.
+ */
+export function densityExpander(s: DensitySettings): DensityExpander {
+  const key = `${s.nmax}|${s.lmax}|${s.cutoff}|${s.sigma}|${s.cutoffWidth}|${s.channels}`;
+  let e = expanderCache.get(key);
+  if (!e) {
+    e = makeDensityExpander(s);
+    if (expanderCache.size >= TABLE_CACHE_SIZE) expanderCache.delete(expanderCache.keys().next().value as string);
+    expanderCache.set(key, e);
+  }
+  return e;
+}
+
 export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const { nmax, lmax, cutoff, cutoffWidth, channels } = s;
   const table = radialTable(s);
@@ -271,10 +292,16 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   for (let n = 0; n < nmax; n++) selfTerm[n] = (FOUR_PI / Math.sqrt(4 * Math.PI)) * self[n * L1];
   const inner = cutoff - cutoffWidth;
   const switchScale = Math.PI / cutoffWidth;
-  // The table's coefficients reordered from n·(lmax+1) + l to l·nmax + n within each (interval, power).
+  // The table's coefficients reordered for the loop below: within interval k, entry (l·nmax + n)·4 + power, so the
+  // four coefficients of one cubic sit side by side and one interval is read front to back (the table, ≈ 0.6 MB
+  // at nmax 8, lmax 6, is too large for the first-level cache; the layout of the table itself reads four rows
+  // NL apart). The same numbers in the same operations: the integrals are bit-identical.
   const byDegree = new Float64Array(table.coefficients.length);
-  for (let b = 0; b < table.coefficients.length; b += NL) {
-    for (let n = 0; n < nmax; n++) for (let l = 0; l <= lmax; l++) byDegree[b + l * nmax + n] = table.coefficients[b + n * L1 + l];
+  for (let k = 0; k < table.intervals; k++) {
+    for (let power = 0; power < 4; power++) {
+      const from = (k * 4 + power) * NL;
+      for (let n = 0; n < nmax; n++) for (let l = 0; l <= lmax; l++) byDegree[k * 4 * NL + (l * nmax + n) * 4 + power] = table.coefficients[from + n * L1 + l];
+    }
   }
   const radial = new Float64Array(NL);
   const work = new Float64Array(size);
@@ -303,8 +330,11 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
         if (k >= last) k = last - 1;
         const t = u - k;
         const t2 = t * t, t3 = t2 * t;
-        const q0 = k * 4 * NL, q1 = q0 + NL, q2 = q1 + NL, q3 = q2 + NL;
-        for (let j = 0; j < NL; j++) rl[j] = w * (coef[q0 + j] + t * coef[q1 + j] + t2 * coef[q2 + j] + t3 * coef[q3 + j]);
+        const q0 = k * 4 * NL;
+        for (let j = 0; j < NL; j++) {
+          const o = q0 + 4 * j;
+          rl[j] = w * (coef[o] + t * coef[o + 1] + t2 * coef[o + 2] + t3 * coef[o + 3]);
+        }
         // Accumulate in the work layout (a·LL + lm)·nmax + n: the inner loop runs over n, contiguous.
         const base = a * LL * nmax;
         for (let l = 0; l <= lmax; l++) {

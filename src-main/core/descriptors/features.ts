@@ -21,7 +21,7 @@ import { DEFAULT_SETTINGS, settingsProblems } from '../settings-table.ts';
 import type { Frame } from '../geometry/frame.ts';
 import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
 import { realClebschGordanSparse, type SparseCoupling } from './clebsch-gordan.ts';
-import { makeDensityExpander, type DensityExpander, type NeighbourPairs } from './density.ts';
+import { densityExpander, type DensityExpander, type NeighbourPairs } from './density.ts';
 import { neighbourList } from '../geometry/neighbours.ts';
 
 export type Lambda = 0 | 1 | 2;
@@ -231,7 +231,7 @@ export function featurePlan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
   checkFeatureSettings(s);
   const S = s.species.length;
   const { nmax, lmax } = s;
-  const expander = makeDensityExpander({ nmax, lmax, cutoff: s.cutoff, sigma: s.sigma, cutoffWidth: s.cutoffWidth, channels: S });
+  const expander = densityExpander({ nmax, lmax, cutoff: s.cutoff, sigma: s.sigma, cutoffWidth: s.cutoffWidth, channels: S });
   const nch = S * nmax;
   const npairs = (nch * (nch + 1)) / 2;
   const p1 = new Int32Array(npairs), p2 = new Int32Array(npairs), pw = new Float64Array(npairs);

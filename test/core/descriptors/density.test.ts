@@ -4,6 +4,8 @@ import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { cutoffFunction, interpolateRadial, makeDensityExpander, radialIntegral, radialTable } from '../../../src-main/core/descriptors/density.ts';
 import { realSphericalHarmonics } from '../../../src-main/core/descriptors/harmonics.ts';
+import { makeRng } from '../../../src-main/core/numerics/random.ts';
+import { referenceDensityExpander } from '../../helpers/reference-kernels.ts';
 
 const fixture = JSON.parse(readFileSync(new URL('../../fixtures/radial-reference.json', import.meta.url), 'utf8')) as {
   integral: { cutoff: number; sigma: number; nmax: number; lmax: number; rows: { d: number; n: number; l: number; value: number }[] };
@@ -101,6 +103,37 @@ describe('makeDensityExpander', () => {
           const selfTerm = lm === 0 ? Math.sqrt(4 * Math.PI) * I0[n * 4] : 0;
           expect(out[(0 * 4 + n) * 16 + lm]).toBeCloseTo(selfTerm, 9);
         }
+      }
+    }
+  });
+
+  it('equals the first version bit for bit (random neighbours, channels, sizes)', () => {
+    // The kept first version (test/helpers/reference-kernels.ts) reads the radial table in its own layout; the
+    // expander reads a reordered copy with the same operations, so the numbers must be identical. Neighbours
+    // beyond the cutoff, of no channel (−1) and at distance 0 are included.
+    const rng = makeRng(29);
+    for (const [nmax, lmax, channels] of [[8, 6, 2], [5, 4, 3], [3, 0, 1], [1, 2, 2]]) {
+      const settings = { nmax, lmax, cutoff: 4.5, sigma: 0.4, cutoffWidth: 0.5, channels };
+      const fast = makeDensityExpander(settings);
+      const plain = referenceDensityExpander(settings);
+      for (const count of [0, 1, 7, 150]) {
+        const vectors = new Float64Array(3 * count);
+        const distances = new Float64Array(count);
+        for (let p = 0; p < count; p++) {
+          const r = p === 3 ? 0 : 5 * rng.uniform();
+          const v = [rng.normal(), rng.normal(), rng.normal()];
+          const n = Math.hypot(v[0], v[1], v[2]);
+          for (let k = 0; k < 3; k++) vectors[3 * p + k] = (r * v[k]) / n;
+          distances[p] = Math.hypot(vectors[3 * p], vectors[3 * p + 1], vectors[3 * p + 2]);
+        }
+        const pairs = { start: Int32Array.from([0, count]), neighbour: Int32Array.from({ length: count }, (_, p) => p + 1), vectors, distances };
+        const channelOf = Int32Array.from({ length: count + 1 }, (_, i) => (i % 5 === 4 ? -1 : rng.int(channels)));
+        const a = new Float64Array(fast.size).fill(NaN);
+        const b = new Float64Array(plain.size).fill(NaN);
+        fast.expand(pairs, 0, channelOf[0], channelOf, a);
+        plain.expand(pairs, 0, channelOf[0], channelOf, b);
+        expect(Array.from(a)).toEqual(Array.from(b));
+        if (count > 1 && lmax > 0) expect(a.some((x, k) => x !== 0 && k % ((lmax + 1) * (lmax + 1)) !== 0)).toBe(true);
       }
     }
   });
