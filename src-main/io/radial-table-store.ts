@@ -9,7 +9,7 @@
 // Written atomically (temporary file in the folder, then rename); never read above the expected length.
 import { createHash } from 'node:crypto';
 import { closeSync, mkdirSync, openSync, readSync, renameSync, rmSync, writeFileSync, fstatSync } from 'node:fs';
-import { homedir } from 'node:os';
+import { endianness, homedir } from 'node:os';
 import { join } from 'node:path';
 import { radialIntegral, radialTable, storedTableFits, type RadialTableStore } from '../core/descriptors/density.ts';
 import { radialBasis } from '../core/descriptors/radial-basis.ts';
@@ -30,6 +30,7 @@ function codeFingerprint(): string {
   return fingerprint;
 }
 
+const LITTLE_ENDIAN = endianness() === 'LE';
 const sha256 = (bytes: Uint8Array) => createHash('sha256').update(bytes).digest();
 
 /** A RadialTableStore on `folder` (created when the first table is saved). */
@@ -45,7 +46,8 @@ export function radialTableFolder(folder: string): RadialTableStore {
         const body = bytes.subarray(0, 8 * length);
         if (!sha256(body).equals(bytes.subarray(8 * length))) return null;
         const out = new Float64Array(length);
-        for (let i = 0; i < length; i++) out[i] = body.readDoubleLE(8 * i);
+        if (LITTLE_ENDIAN) new Uint8Array(out.buffer).set(body);
+        else for (let i = 0; i < length; i++) out[i] = body.readDoubleLE(8 * i);
         return out;
       } catch {
         return null;
@@ -58,7 +60,8 @@ export function radialTableFolder(folder: string): RadialTableStore {
       const temporary = `${target}.${process.pid}.${Math.random().toString(36).slice(2)}.tmp`;
       try {
         const body = Buffer.alloc(8 * coefficients.length);
-        for (let i = 0; i < coefficients.length; i++) body.writeDoubleLE(coefficients[i], 8 * i);
+        if (LITTLE_ENDIAN) body.set(new Uint8Array(coefficients.buffer, coefficients.byteOffset, coefficients.byteLength));
+        else for (let i = 0; i < coefficients.length; i++) body.writeDoubleLE(coefficients[i], 8 * i);
         mkdirSync(folder, { recursive: true });
         writeFileSync(temporary, Buffer.concat([body, sha256(body)]));
         renameSync(temporary, target);
