@@ -7,7 +7,10 @@ import {
   DEFAULT_SETTINGS,
   NUMERIC_SETTINGS,
   SPECIES_SETTING,
+  SPLIT_SETTING,
   TUNABLE_SETTINGS,
+  parseSpeciesSplit,
+  speciesSplitText,
   describeSettings,
   limitsText,
   settingsProblems,
@@ -79,12 +82,39 @@ const FEATURE_KEYS = new Set(['cutoffRadius', 'switchWidth', 'densityWidth', 'ra
 describe('the settings table', () => {
   it('has defaults that every place accepts, and one row per setting', () => {
     expect(settingsProblems(DEFAULT_SETTINGS)).toEqual([]);
-    expect([...NUMERIC_SETTINGS.map((s) => s.key), SPECIES_SETTING.key].sort()).toEqual(Object.keys(DEFAULT_SETTINGS).sort());
+    expect([...NUMERIC_SETTINGS.map((s) => s.key), SPECIES_SETTING.key, SPLIT_SETTING.key].sort()).toEqual(Object.keys(DEFAULT_SETTINGS).sort());
     expect(engineAccepts({})).toBe(true);
     expect(apiAccepts({ ...DEFAULT_SETTINGS })).toBe(true);
     expect(cliAccepts({})).toBe(true);
     // Option names and keys are unique.
     expect(new Set(NUMERIC_SETTINGS.map((s) => s.option)).size).toBe(NUMERIC_SETTINGS.length);
+  });
+
+  it('the species split: the CLI, the form’s reader, the API and the engine accept and refuse the same values', () => {
+    const cli = (text: string) => {
+      try {
+        return parseSettings(parseArgs([`--${SPLIT_SETTING.option}`, text], settingOptions)).speciesSplit;
+      } catch {
+        return 'refused';
+      }
+    };
+    for (const text of ['free-atom', 'O:0.80,H:0.67', 'O:3,H:1,C:2']) {
+      const form = parseSpeciesSplit(text);
+      if (!('split' in form)) throw new Error(`the form refused ${text}`);
+      expect(cli(text)).toEqual(form.split);
+      expect(apiAccepts({ speciesSplit: form.split })).toBe(true);
+      expect(engineAccepts({ speciesSplit: form.split })).toBe(true);
+      // written back as the CLI reads it
+      expect(parseSpeciesSplit(speciesSplitText(form.split))).toEqual(form);
+    }
+    for (const text of ['O:0.8', 'O:0,H:1', 'O:x,H:1', 'O:1,O:2', 'free atom']) {
+      expect('problem' in parseSpeciesSplit(text)).toBe(true);
+      expect(cli(text)).toBe('refused');
+    }
+    for (const bad of [{ O: 0, H: 1 }, { O: -1, H: 1 }, { 'O H': 1, H: 1 }]) {
+      expect(apiAccepts({ speciesSplit: bad })).toBe(false);
+      expect(engineAccepts({ speciesSplit: bad })).toBe(false);
+    }
   });
 
   it('the form shows every numeric setting, with the table’s limits, labels and help', () => {
