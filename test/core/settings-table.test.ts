@@ -111,7 +111,7 @@ describe('the settings table', () => {
       expect('problem' in parseSpeciesSplit(text)).toBe(true);
       expect(cli(text)).toBe('refused');
     }
-    for (const bad of [{ O: 0, H: 1 }, { O: -1, H: 1 }, { 'O H': 1, H: 1 }]) {
+    for (const bad of [{ O: 0, H: 1 }, { O: -1, H: 1 }, { 'O H': 1, H: 1 }] as Record<string, number>[]) {
       expect(apiAccepts({ speciesSplit: bad })).toBe(false);
       expect(engineAccepts({ speciesSplit: bad })).toBe(false);
     }
