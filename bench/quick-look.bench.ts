@@ -7,7 +7,7 @@
 //      for until the model and its checks are shown;
 //   3. then, separately, the learning curve drawn on request from Checks (a validate job on the model's frames).
 // Prints wall times with the load average before each run. Figures only, never asserted.
-// Env: PW_BENCH_QUICK_RUNS (1).
+// Env: PW_BENCH_QUICK_RUNS (1); PW_BENCH_QUICK_CURVE=0 leaves out step 3.
 import { execFileSync } from 'node:child_process';
 import { mkdtempSync, rmSync } from 'node:fs';
 import { loadavg, tmpdir } from 'node:os';
@@ -18,6 +18,7 @@ import { tsWorkerFactory } from '../src-main/jobs/spawn-ts.ts';
 import { curveSizes, framePlan, presets } from '../src-renderer/lib/settings.ts';
 
 const RUNS = Number(process.env.PW_BENCH_QUICK_RUNS ?? 1);
+const CURVE = process.env.PW_BENCH_QUICK_CURVE !== '0';
 const root = fileURLToPath(new URL('../', import.meta.url));
 const load = () => loadavg().map((l) => l.toFixed(1)).join(' ');
 
@@ -27,7 +28,7 @@ function cliDemo(dir: string): number {
   return (performance.now() - t0) / 1000;
 }
 
-async function quickLook(): Promise<{ shown: number; curve: number; frames: number }> {
+async function quickLook(): Promise<{ shown: number; curve: number | null; frames: number }> {
   const service = createAppService({ spawn: tsWorkerFactory(new URL('../src-main/app/worker.ts', import.meta.url)), demoDir: join(root, 'resources/demo') });
   try {
     const quick = presets.find((p) => p.id === 'quick');
@@ -49,6 +50,7 @@ async function quickLook(): Promise<{ shown: number; curve: number; frames: numb
     const predicted = await service.waitForJob((await service.startJob({ kind: 'predict', params: { modelId: model.id, datasetId: liquid.id, frames: used } })).jobId);
     if (predicted.state !== 'done') throw new Error(`prediction failed: ${predicted.error?.message}`);
     const shown = (performance.now() - t0) / 1000;
+    if (!CURVE) return { shown, curve: null, frames: plan.train.length };
     const t1 = performance.now();
     const curve = await service.waitForJob(
       (await service.startJob({ kind: 'validate', params: { datasetId: liquid.id, frames: plan.train, request, folds, learningCurve: curveSizes(plan.train.length, folds), modelId: model.id } })).jobId,
@@ -70,7 +72,7 @@ export async function run(): Promise<void> {
       const l2 = load();
       const q = await quickLook();
       console.log(`run ${r + 1}: window Quick look, model and checks shown ${q.shown.toFixed(0).padStart(5)} s wall (load ${l2}; ${q.frames} training frames)`);
-      console.log(`run ${r + 1}:   then the learning curve from Checks     ${q.curve.toFixed(0).padStart(5)} s wall (load ${load()})`);
+      if (q.curve !== null) console.log(`run ${r + 1}:   then the learning curve from Checks     ${q.curve.toFixed(0).padStart(5)} s wall (load ${load()})`);
     }
   } finally {
     rmSync(dir, { recursive: true, force: true });

@@ -9,6 +9,8 @@ import {
   SPECIES_SETTING,
   SPLIT_SETTING,
   TUNABLE_SETTINGS,
+  parseSpeciesSplit,
+  speciesSplitText,
   describeSettings,
   limitsText,
   settingsProblems,
@@ -86,6 +88,33 @@ describe('the settings table', () => {
     expect(cliAccepts({})).toBe(true);
     // Option names and keys are unique.
     expect(new Set(NUMERIC_SETTINGS.map((s) => s.option)).size).toBe(NUMERIC_SETTINGS.length);
+  });
+
+  it('the species split: the CLI, the form’s reader, the API and the engine accept and refuse the same values', () => {
+    const cli = (text: string) => {
+      try {
+        return parseSettings(parseArgs([`--${SPLIT_SETTING.option}`, text], settingOptions)).speciesSplit;
+      } catch {
+        return 'refused';
+      }
+    };
+    for (const text of ['free-atom', 'O:0.80,H:0.67', 'O:3,H:1,C:2']) {
+      const form = parseSpeciesSplit(text);
+      if (!('split' in form)) throw new Error(`the form refused ${text}`);
+      expect(cli(text)).toEqual(form.split);
+      expect(apiAccepts({ speciesSplit: form.split })).toBe(true);
+      expect(engineAccepts({ speciesSplit: form.split })).toBe(true);
+      // written back as the CLI reads it
+      expect(parseSpeciesSplit(speciesSplitText(form.split))).toEqual(form);
+    }
+    for (const text of ['O:0.8', 'O:0,H:1', 'O:x,H:1', 'O:1,O:2', 'free atom']) {
+      expect('problem' in parseSpeciesSplit(text)).toBe(true);
+      expect(cli(text)).toBe('refused');
+    }
+    for (const bad of [{ O: 0, H: 1 }, { O: -1, H: 1 }, { 'O H': 1, H: 1 }] as Record<string, number>[]) {
+      expect(apiAccepts({ speciesSplit: bad })).toBe(false);
+      expect(engineAccepts({ speciesSplit: bad })).toBe(false);
+    }
   });
 
   it('the form shows every numeric setting, with the table’s limits, labels and help', () => {

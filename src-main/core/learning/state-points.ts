@@ -109,6 +109,6 @@ export function statePointErrors(reference: ArrayLike<number>[], predicted: Arra
 /** The figures to lead with and to judge by: within the state points when there are several, else overall. */
 export function headlineErrors(report: { errors: ErrorFigures; statePoints?: StatePointErrors | null }): { errors: ErrorFigures; what: string } {
   return report.statePoints
-    ? { errors: report.statePoints.within, what: 'within state points (relative to the spread within each)' }
+    ? { errors: report.statePoints.within, what: 'within state points, relative to the spread within each' }
     : { errors: report.errors, what: 'over all frames' };
 }
