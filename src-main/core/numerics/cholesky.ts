@@ -60,8 +60,8 @@ function factorBlocks(a: Float64Array, n: number, belowBlock: (k0: number, kb: n
 }
 
 /**
- * choleskyInPlace in the kernels' memory: the matrix with four zero rows of padding below it (the kernels work on
- * whole groups of four rows; what they write past row n stays there), then the panel's tiles. Null when that is
+ * choleskyInPlace in the kernels' memory: the matrix's lower triangle with four zero rows of padding below it (the
+ * kernels work on whole groups of four rows; what they write past row n stays there), then the panel's tiles. Null when that is
  * more than KERNEL_MAX_BYTES or the module cannot grow (the caller takes the JavaScript path).
  */
 function choleskyInModule(k: DenseKernels, a: Float64Array, n: number): boolean | null {
@@ -72,14 +72,15 @@ function choleskyInModule(k: DenseKernels, a: Float64Array, n: number): boolean 
   const at = k.module.heapBase;
   const x = at + 8 * matrix;
   const m = k.module.f64(at, matrix);
-  m.set(a.subarray(0, n * n));
+  // only the lower triangle is read and written (what the module holds above it is left as it was)
+  for (let i = 0; i < n; i++) m.set(a.subarray(i * n, i * n + i + 1), i * n);
   m.fill(0, n * n);
   const ok = factorBlocks(m, n, (k0, kb, r0) => {
     const rows = roundUp4(n - r0);
     k.panelSolve(at, n, k0, kb, rows, x);
     k.trailingUpdate(at + 8 * (r0 * n + r0), n, x, rows, kb);
   });
-  a.set(m.subarray(0, n * n));
+  for (let i = 0; i < n; i++) a.set(m.subarray(i * n, i * n + i + 1), i * n);
   return ok;
 }
 
