@@ -1,17 +1,20 @@
-// Dense algebra of core/numerics/cholesky.ts: the blocked Cholesky factorisation against the unblocked code it
-// replaced (kept in bench/cholesky-unblocked.ts) and against ml-matrix, and many triangular solves at once
-// (forwardSubstituteRows, as the sparse model projects its rows) against one solve per right-hand side. Random
-// SPD matrices (M Mᵀ, M n × (n + 20) standard normal), one thread. Figures in GFLOP/s of CPU time (n³/3 for a
-// factorisation, rows·n² for the solves), so that a busy machine's waiting does not count; wall times beside them.
-// Figures only, never asserted. Env: PW_BENCH_CHOLESKY_N (500,1000,1500).
+// Dense algebra of core/numerics/cholesky.ts, side by side in one run: the blocked Cholesky factorisation with its
+// WebAssembly SIMD kernels and on its JavaScript path (setWebAssemblyKernels(false), the same bits), against the
+// unblocked code it replaced (kept in bench/cholesky-unblocked.ts) and against ml-matrix; then many triangular
+// solves at once (forwardSubstituteRows, as the sparse model projects its rows) on both paths and one solve per
+// right-hand side. Random SPD matrices (M Mᵀ, M n × (n + 20) standard normal), one thread. Figures in GFLOP/s of
+// CPU time (n³/3 for a factorisation, rows·n² for the solves), so that a busy machine's waiting does not count;
+// wall times beside them. Figures only, never asserted. Env: PW_BENCH_CHOLESKY_N (1000,1500,2000).
 import { CholeskyDecomposition, Matrix } from 'ml-matrix';
 import { loadavg } from 'node:os';
 import { pathToFileURL } from 'node:url';
 import { choleskyInPlace, forwardSubstitute, forwardSubstituteRows, gramOfRows } from '../src-main/core/numerics/cholesky.ts';
 import { makeRng } from '../src-main/core/numerics/random.ts';
+import { denseKernels } from '../src-main/core/wasm/dense.ts';
+import { setWebAssemblyKernels } from '../src-main/core/wasm/load.ts';
 import { choleskyInPlaceUnblocked } from './cholesky-unblocked.ts';
 
-const SIZES = (process.env.PW_BENCH_CHOLESKY_N ?? '500,1000,1500').split(',').map(Number);
+const SIZES = (process.env.PW_BENCH_CHOLESKY_N ?? '1000,1500,2000').split(',').map(Number);
 
 /** Best CPU and wall milliseconds of `runs` calls. */
 function time(f: () => void, runs: number): { cpu: number; wall: number } {
@@ -29,49 +32,86 @@ function time(f: () => void, runs: number): { cpu: number; wall: number } {
 }
 
 const rate = (flops: number, t: { cpu: number; wall: number }) => `${(flops / t.cpu / 1e6).toFixed(2)} GFLOP/s (${t.cpu.toFixed(0)} ms CPU, ${t.wall.toFixed(0)} ms wall)`;
+const load = () => loadavg().map((x) => x.toFixed(1)).join(' ');
+
+/** `f` with the WebAssembly kernels switched on or off. */
+function withKernels<T>(on: boolean, f: () => T): T {
+  setWebAssemblyKernels(on);
+  try {
+    return f();
+  } finally {
+    setWebAssemblyKernels(true);
+  }
+}
+
+const sameBits = (x: Float64Array, y: Float64Array) => x.length === y.length && x.every((v, i) => Object.is(v, y[i]));
 
 export async function run(): Promise<void> {
-  console.log(`dense algebra bench: load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}, Node ${process.version}, best of 3 (2 for ml-matrix)`);
+  const kernels = denseKernels() !== null;
+  console.log(`dense algebra bench: load average ${load()}, Node ${process.version}, one thread, WebAssembly kernels ${kernels ? 'available' : 'UNAVAILABLE (both columns are the JavaScript path)'}; best of 3 (1 for the unblocked code and ml-matrix)`);
   const rng = makeRng(1);
   for (const n of SIZES) {
     const m = Float64Array.from({ length: n * (n + 20) }, () => rng.normal());
     const a = gramOfRows(m, n, n + 20);
     const flops = n ** 3 / 3;
-    let blocked = a;
-    const tb = time(() => {
-      blocked = Float64Array.from(a);
-      if (!choleskyInPlace(blocked, n)) throw new Error('not positive definite');
-    }, 3);
+    const factor = (on: boolean) => {
+      let out: Float64Array = a;
+      const t = withKernels(on, () =>
+        time(() => {
+          out = Float64Array.from(a);
+          if (!choleskyInPlace(out, n)) throw new Error('not positive definite');
+        }, 3),
+      );
+      return { out, t };
+    };
+    // alternate the two paths so that a change in the machine's load falls on both
+    const js = factor(false);
+    const wasm = factor(true);
+    const js2 = factor(false);
+    const wasm2 = factor(true);
+    const tj = js2.t.cpu < js.t.cpu ? js2.t : js.t;
+    const tw = wasm2.t.cpu < wasm.t.cpu ? wasm2.t : wasm.t;
     let old = a;
     const to = time(() => {
       old = Float64Array.from(a);
       if (!choleskyInPlaceUnblocked(old, n)) throw new Error('not positive definite');
-    }, 3);
+    }, 1);
     const rows = Array.from({ length: n }, (_, i) => Array.from(a.subarray(i * n, (i + 1) * n)));
-    const tm = time(() => void new CholeskyDecomposition(new Matrix(rows)), 2);
+    const tm = time(() => void new CholeskyDecomposition(new Matrix(rows)), 1);
     let diff = 0;
     let scale = 0;
     for (let i = 0; i < n; i++) {
       scale = Math.max(scale, Math.abs(old[i * n + i]));
-      for (let j = 0; j <= i; j++) diff = Math.max(diff, Math.abs(blocked[i * n + j] - old[i * n + j]));
+      for (let j = 0; j <= i; j++) diff = Math.max(diff, Math.abs(wasm.out[i * n + j] - old[i * n + j]));
     }
-    console.log(`  Cholesky n = ${n}:`);
-    console.log(`    blocked (now)   ${rate(flops, tb)}`);
-    console.log(`    unblocked (old) ${rate(flops, to)}`);
-    console.log(`    ml-matrix       ${rate(flops, tm)}`);
-    console.log(`    ratio: ×${(to.cpu / tb.cpu).toFixed(2)} the old code, ×${(tm.cpu / tb.cpu).toFixed(2)} ml-matrix; largest factor difference to the old ${(diff / scale).toExponential(1)} of its largest pivot`);
-    // triangular solves: 64 right-hand sides (a sparse model's rows), together and one by one
+    console.log(`  Cholesky n = ${n} (load ${load()}):`);
+    console.log(`    blocked, WebAssembly  ${rate(flops, tw)}`);
+    console.log(`    blocked, JavaScript   ${rate(flops, tj)}`);
+    console.log(`    unblocked (old)       ${rate(flops, to)}`);
+    console.log(`    ml-matrix             ${rate(flops, tm)}`);
+    console.log(`    ratio: WebAssembly ×${(tj.cpu / tw.cpu).toFixed(2)} the JavaScript path (${sameBits(wasm.out, js.out) ? 'the same bits' : 'DIFFERENT results'}), ×${(to.cpu / tw.cpu).toFixed(2)} the unblocked code, ×${(tm.cpu / tw.cpu).toFixed(2)} ml-matrix; largest factor difference to the unblocked code ${(diff / scale).toExponential(1)} of its largest pivot`);
+    // triangular solves: 64 right-hand sides (a sparse model's rows), together on both paths and one by one
+    const l = wasm.out;
     const nr = 64;
     const b = Float64Array.from({ length: nr * n }, () => rng.normal());
-    let together: Float64Array = b;
-    const tt = time(() => void (together = forwardSubstituteRows(blocked, n, Float64Array.from(b), nr)), 3);
+    const together = (on: boolean) => {
+      let out: Float64Array = b;
+      const t = withKernels(on, () => time(() => void (out = forwardSubstituteRows(l, n, Float64Array.from(b), nr)), 3));
+      return { out, t };
+    };
+    const sj = together(false);
+    const sw = together(true);
     const single = Float64Array.from(b);
     const ts = time(() => {
       single.set(b);
-      for (let r = 0; r < nr; r++) forwardSubstitute(blocked, n, single.subarray(r * n, (r + 1) * n));
+      for (let r = 0; r < nr; r++) forwardSubstitute(l, n, single.subarray(r * n, (r + 1) * n));
     }, 3);
-    const same = together.every((v, i) => v === single[i]);
-    console.log(`  ${nr} triangular solves n = ${n}: four at a time ${rate(nr * n * n, tt)}; one at a time ${rate(nr * n * n, ts)}; ratio ×${(ts.cpu / tt.cpu).toFixed(2)}, ${same ? 'the same bits' : 'DIFFERENT results'}`);
+    const same = sameBits(sw.out, sj.out) && sameBits(sj.out, single);
+    console.log(`  ${nr} triangular solves L z = b, n = ${n}:`);
+    console.log(`    together, WebAssembly ${rate(nr * n * n, sw.t)}`);
+    console.log(`    together, JavaScript  ${rate(nr * n * n, sj.t)} (four at a time)`);
+    console.log(`    one at a time         ${rate(nr * n * n, ts)}`);
+    console.log(`    ratio: WebAssembly ×${(sj.t.cpu / sw.t.cpu).toFixed(2)} the JavaScript path, ×${(ts.cpu / sw.t.cpu).toFixed(2)} one at a time; ${same ? 'the same bits' : 'DIFFERENT results'}`);
   }
 }
 

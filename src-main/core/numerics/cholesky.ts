@@ -66,7 +66,7 @@ function factorBlocks(a: Float64Array, n: number, belowBlock: (k0: number, kb: n
  */
 function choleskyInModule(k: DenseKernels, a: Float64Array, n: number): boolean | null {
   const matrix = (n + 4) * n;
-  const panelRows = roundUp4(n - BLOCK);
+  const panelRows = roundUp(n - BLOCK, 4);
   const bytes = 8 * (matrix + panelRows * BLOCK);
   if (bytes > KERNEL_MAX_BYTES || !k.module.reserve(bytes)) return null;
   const at = k.module.heapBase;
@@ -76,7 +76,7 @@ function choleskyInModule(k: DenseKernels, a: Float64Array, n: number): boolean 
   for (let i = 0; i < n; i++) m.set(a.subarray(i * n, i * n + i + 1), i * n);
   m.fill(0, n * n);
   const ok = factorBlocks(m, n, (k0, kb, r0) => {
-    const rows = roundUp4(n - r0);
+    const rows = roundUp(n - r0, 4);
     k.panelSolve(at, n, k0, kb, rows, x);
     k.trailingUpdate(at + 8 * (r0 * n + r0), n, x, rows, kb);
   });
@@ -84,8 +84,9 @@ function choleskyInModule(k: DenseKernels, a: Float64Array, n: number): boolean 
   return ok;
 }
 
-function roundUp4(v: number): number {
-  return Math.max(0, Math.ceil(v / 4) * 4);
+/** The least multiple of `step` at or above v (0 for v ≤ 0). */
+function roundUp(v: number, step: number): number {
+  return Math.max(0, Math.ceil(v / step) * step);
 }
 
 /** Unblocked Cholesky of the kb × kb diagonal block at (k0, k0), whose earlier columns are already subtracted. */
@@ -283,31 +284,35 @@ export function forwardSubstituteRows(l: Float64Array, n: number, b: Float64Arra
 const ROWS_KERNEL_MIN_ORDER = 64;
 const ROWS_KERNEL_MIN_ROWS = 8;
 
+/** Right-hand sides per call of the forward-substitution kernel (the module holds L and this many at once). */
+const ROWS_PER_KERNEL_CALL = 256;
+
 /**
- * forwardSubstituteRows in the kernels' memory: L, then the right-hand sides in groups of four, interleaved (b[k] of
- * the four side by side; a last group short of four padded with zeros, whose results are dropped). False when that
- * is more than KERNEL_MAX_BYTES or the module cannot grow.
+ * forwardSubstituteRows in the kernels' memory: L, then up to ROWS_PER_KERNEL_CALL right-hand sides at a time in
+ * groups of eight, interleaved (b[k] of the eight side by side; a last group short of eight padded with zeros,
+ * whose results are dropped). False when that is more than KERNEL_MAX_BYTES or the module cannot grow.
  */
 function forwardRowsInModule(k: DenseKernels, l: Float64Array, n: number, b: Float64Array, rows: number): boolean {
-  const groups = Math.ceil(rows / 4);
-  const bytes = 8 * (n * n + groups * 4 * n);
+  const most = Math.min(rows, ROWS_PER_KERNEL_CALL);
+  const bytes = 8 * (n * n + roundUp(most, 8) * n);
   if (bytes > KERNEL_MAX_BYTES || !k.module.reserve(bytes)) return false;
   const at = k.module.heapBase;
   const bt = at + 8 * n * n;
   k.module.f64(at, n * n).set(l.subarray(0, n * n));
-  const t = k.module.f64(bt, groups * 4 * n);
-  for (let g = 0; g < groups; g++) {
-    for (let r = 0; r < 4; r++) {
-      const row = 4 * g + r;
-      const o = 4 * n * g + r;
-      if (row < rows) for (let i = 0, src = row * n; i < n; i++) t[o + 4 * i] = b[src + i];
-      else for (let i = 0; i < n; i++) t[o + 4 * i] = 0;
+  const t = k.module.f64(bt, roundUp(most, 8) * n);
+  for (let r0 = 0; r0 < rows; r0 += most) {
+    const count = Math.min(most, rows - r0);
+    const groups = Math.ceil(count / 8);
+    t.fill(0, 8 * n * (groups - 1));
+    for (let r = 0; r < count; r++) {
+      const o = 8 * n * (r >> 3) + (r & 7);
+      for (let i = 0, src = (r0 + r) * n; i < n; i++) t[o + 8 * i] = b[src + i];
     }
-  }
-  k.forwardRows(at, n, bt, groups);
-  for (let row = 0; row < rows; row++) {
-    const o = 4 * n * (row >> 2) + (row & 3);
-    for (let i = 0, dst = row * n; i < n; i++) b[dst + i] = t[o + 4 * i];
+    k.forwardRows(at, n, bt, groups);
+    for (let r = 0; r < count; r++) {
+      const o = 8 * n * (r >> 3) + (r & 7);
+      for (let i = 0, dst = (r0 + r) * n; i < n; i++) b[dst + i] = t[o + 8 * i];
+    }
   }
   return true;
 }

@@ -14,7 +14,7 @@ export interface DenseKernels {
   panelSolve(a: number, n: number, k0: number, kb: number, rows: number, x: number): void;
   /** c[i][j] −= Σ_p X[i][p]·X[j][p] for j ≤ i < rows (a multiple of four), X the panel's tiles, C row stride ldc. */
   trailingUpdate(c: number, ldc: number, x: number, rows: number, kb: number): void;
-  /** Forward substitution with L (row-major n × n) for `groups` groups of four right-hand sides, interleaved k-major. */
+  /** Forward substitution with L (row-major n × n) for `groups` groups of eight right-hand sides, interleaved k-major. */
   forwardRows(l: number, n: number, bt: number, groups: number): void;
 }
 

@@ -185,10 +185,10 @@ describe('Cholesky on Float64Array', () => {
       expect(Array.from(wasm)).toEqual(Array.from(js));
     });
 
-    it('many right-hand sides at once: the bits of one JavaScript solve each, and ml-matrix to round-off', () => {
+    it('many right-hand sides at once, more than one kernel call holds too: the bits of one JavaScript solve each, and ml-matrix to round-off', () => {
       const rng = makeRng(12);
       const k = denseKernels();
-      for (const [n, rows] of [[64, 8], [101, 9], [150, 14]] as const) {
+      for (const [n, rows] of [[64, 8], [101, 9], [150, 14], [70, 300]] as const) {
         const { factor } = choleskyWithJitter(gramOfRows(Float64Array.from({ length: n * (n + 4) }, () => rng.normal()), n, n + 4), n);
         const b = Float64Array.from({ length: rows * n }, () => rng.normal());
         const all = forwardSubstituteRows(factor, n, Float64Array.from(b), rows);

@@ -79,10 +79,10 @@ describe('dense WebAssembly kernels', () => {
     }
   });
 
-  it('forwardRows: L z = b for groups of four interleaved right-hand sides, the bits of one substitution each', () => {
+  it('forwardRows: L z = b for groups of eight interleaved right-hand sides, the bits of one substitution each', () => {
     const k = denseKernels()!;
-    for (const [n, groups] of [[1, 1], [2, 1], [7, 2], [40, 3]] as const) {
-      const nb = groups * 4 * n;
+    for (const [n, groups] of [[1, 1], [2, 1], [3, 1], [7, 2], [40, 3]] as const) {
+      const nb = groups * 8 * n;
       expect(k.module.reserve((n * n + nb) * 8)).toBe(true);
       const lAt = k.module.heapBase;
       const bAt = lAt + n * n * 8;
@@ -93,8 +93,8 @@ describe('dense WebAssembly kernels', () => {
       fill(b, n);
       const want = Float64Array.from(b);
       for (let g = 0; g < groups; g++) {
-        for (let r = 0; r < 4; r++) {
-          const at = (i: number) => (g * n + i) * 4 + r;
+        for (let r = 0; r < 8; r++) {
+          const at = (i: number) => (g * n + i) * 8 + r;
           for (let i = 0; i < n; i++) {
             let s = want[at(i)];
             for (let c = 0; c < i; c++) s -= l[i * n + c] * want[at(c)];

@@ -155,63 +155,84 @@ export function trailingUpdate(c: usize, ldc: i32, x: usize, rows: i32, kb: i32)
 }
 
 /**
- * Forward substitution L z = b for many right-hand sides at once, in groups of four interleaved: group g holds
- * b[k] of its four right-hand sides at bt + ((g·n + k)·4 + r)·8. For each: s = b[i]; s −= L[i][k]·b[k] for
+ * Forward substitution L z = b for many right-hand sides at once, in groups of eight interleaved: group g holds
+ * b[k] of its eight right-hand sides at bt + ((g·n + k)·8 + r)·8. For each: s = b[i]; s −= L[i][k]·b[k] for
  * k = 0…i−1 in order; b[i] = s / L[i][i] — the operations of forwardSubstitute in cholesky.ts, in its order.
- * L row-major n × n at `l`. Two rows i at a time share the loads of b[k].
+ * L row-major n × n at `l`. Two rows i at a time share the loads of b[k] (eight independent running sums of two
+ * lanes each keep the adder busy).
  */
 export function forwardRows(l: usize, n: i32, bt: usize, groups: i32): void {
   const rowBytes = <usize>n << 3;
-  const groupBytes = <usize>n << 5;
+  const groupBytes = <usize>n << 6;
   for (let g = 0; g < groups; g++) {
     const b = bt + <usize>g * groupBytes;
     let i = 0;
     for (; i + 1 < n; i += 2) {
       const li = l + <usize>i * rowBytes;
       const lk = li + rowBytes;
-      const bi = b + (<usize>i << 5);
-      let sa = v128.load(bi);
-      let sb = v128.load(bi, 16);
-      let ta = v128.load(bi, 32);
-      let tb = v128.load(bi, 48);
+      const bi = b + (<usize>i << 6);
+      let s0 = v128.load(bi);
+      let s1 = v128.load(bi, 16);
+      let s2 = v128.load(bi, 32);
+      let s3 = v128.load(bi, 48);
+      let t0 = v128.load(bi, 64);
+      let t1 = v128.load(bi, 80);
+      let t2 = v128.load(bi, 96);
+      let t3 = v128.load(bi, 112);
       for (let k = 0; k < i; k++) {
-        const bk = b + (<usize>k << 5);
-        const y0 = v128.load(bk);
-        const y1 = v128.load(bk, 16);
+        const bk = b + (<usize>k << 6);
         const x = v128.load64_splat(li + (<usize>k << 3));
         const z = v128.load64_splat(lk + (<usize>k << 3));
-        sa = f64x2.sub(sa, f64x2.mul(x, y0));
-        sb = f64x2.sub(sb, f64x2.mul(x, y1));
-        ta = f64x2.sub(ta, f64x2.mul(z, y0));
-        tb = f64x2.sub(tb, f64x2.mul(z, y1));
+        const y0 = v128.load(bk);
+        s0 = f64x2.sub(s0, f64x2.mul(x, y0));
+        t0 = f64x2.sub(t0, f64x2.mul(z, y0));
+        const y1 = v128.load(bk, 16);
+        s1 = f64x2.sub(s1, f64x2.mul(x, y1));
+        t1 = f64x2.sub(t1, f64x2.mul(z, y1));
+        const y2 = v128.load(bk, 32);
+        s2 = f64x2.sub(s2, f64x2.mul(x, y2));
+        t2 = f64x2.sub(t2, f64x2.mul(z, y2));
+        const y3 = v128.load(bk, 48);
+        s3 = f64x2.sub(s3, f64x2.mul(x, y3));
+        t3 = f64x2.sub(t3, f64x2.mul(z, y3));
       }
       const d = v128.load64_splat(li + (<usize>i << 3));
-      sa = f64x2.div(sa, d);
-      sb = f64x2.div(sb, d);
-      v128.store(bi, sa);
-      v128.store(bi, sb, 16);
+      s0 = f64x2.div(s0, d);
+      s1 = f64x2.div(s1, d);
+      s2 = f64x2.div(s2, d);
+      s3 = f64x2.div(s3, d);
+      v128.store(bi, s0);
+      v128.store(bi, s1, 16);
+      v128.store(bi, s2, 32);
+      v128.store(bi, s3, 48);
       // row i + 1 still owes the term of k = i, now known
       const z = v128.load64_splat(lk + (<usize>i << 3));
-      ta = f64x2.sub(ta, f64x2.mul(z, sa));
-      tb = f64x2.sub(tb, f64x2.mul(z, sb));
       const e = v128.load64_splat(lk + (<usize>(i + 1) << 3));
-      v128.store(bi, f64x2.div(ta, e), 32);
-      v128.store(bi, f64x2.div(tb, e), 48);
+      v128.store(bi, f64x2.div(f64x2.sub(t0, f64x2.mul(z, s0)), e), 64);
+      v128.store(bi, f64x2.div(f64x2.sub(t1, f64x2.mul(z, s1)), e), 80);
+      v128.store(bi, f64x2.div(f64x2.sub(t2, f64x2.mul(z, s2)), e), 96);
+      v128.store(bi, f64x2.div(f64x2.sub(t3, f64x2.mul(z, s3)), e), 112);
     }
     if (i < n) {
       const li = l + <usize>i * rowBytes;
-      const bi = b + (<usize>i << 5);
-      let sa = v128.load(bi);
-      let sb = v128.load(bi, 16);
+      const bi = b + (<usize>i << 6);
+      let s0 = v128.load(bi);
+      let s1 = v128.load(bi, 16);
+      let s2 = v128.load(bi, 32);
+      let s3 = v128.load(bi, 48);
       for (let k = 0; k < i; k++) {
-        const bk = b + (<usize>k << 5);
+        const bk = b + (<usize>k << 6);
         const x = v128.load64_splat(li + (<usize>k << 3));
-        sa = f64x2.sub(sa, f64x2.mul(x, v128.load(bk)));
-        sb = f64x2.sub(sb, f64x2.mul(x, v128.load(bk, 16)));
+        s0 = f64x2.sub(s0, f64x2.mul(x, v128.load(bk)));
+        s1 = f64x2.sub(s1, f64x2.mul(x, v128.load(bk, 16)));
+        s2 = f64x2.sub(s2, f64x2.mul(x, v128.load(bk, 32)));
+        s3 = f64x2.sub(s3, f64x2.mul(x, v128.load(bk, 48)));
       }
       const d = v128.load64_splat(li + (<usize>i << 3));
-      v128.store(bi, f64x2.div(sa, d));
-      v128.store(bi, f64x2.div(sb, d), 16);
+      v128.store(bi, f64x2.div(s0, d));
+      v128.store(bi, f64x2.div(s1, d), 16);
+      v128.store(bi, f64x2.div(s2, d), 32);
+      v128.store(bi, f64x2.div(s3, d), 48);
     }
   }
 }
