@@ -4,7 +4,8 @@
 // solves at once (forwardSubstituteRows, as the sparse model projects its rows) on both paths and one solve per
 // right-hand side. Random SPD matrices (M Mᵀ, M n × (n + 20) standard normal), one thread. Figures in GFLOP/s of
 // CPU time (n³/3 for a factorisation, rows·n² for the solves), so that a busy machine's waiting does not count;
-// wall times beside them. Figures only, never asserted. Env: PW_BENCH_CHOLESKY_N (1000,1500,2000).
+// wall times beside them; last, the row Gram matrix Φ Φᵀ on both paths. Figures only, never asserted.
+// Env: PW_BENCH_CHOLESKY_N (1000,1500,2000).
 import { CholeskyDecomposition, Matrix } from 'ml-matrix';
 import { loadavg } from 'node:os';
 import { pathToFileURL } from 'node:url';
@@ -45,6 +46,26 @@ function withKernels<T>(on: boolean, f: () => T): T {
 }
 
 const sameBits = (x: Float64Array, y: Float64Array) => x.length === y.length && x.every((v, i) => Object.is(v, y[i]));
+
+/** K = Φ Φᵀ of a 1,000 × 1,488 design (the size the default training forms), both paths side by side. */
+function gram(): void {
+  const rows = 1000;
+  const f = 1488;
+  const rng = makeRng(2);
+  const phi = Float64Array.from({ length: rows * f }, () => rng.normal());
+  const flops = rows * rows * f; // half of the entries, two operations each
+  const runs = (on: boolean) => {
+    let out: Float64Array = new Float64Array(0);
+    const t = withKernels(on, () => time(() => void (out = gramOfRows(phi, rows, f)), 2));
+    return { out, t };
+  };
+  const js = runs(false);
+  const wasm = runs(true);
+  console.log(`  gram of rows Φ Φᵀ, ${rows} × ${f} (load ${load()}):`);
+  console.log(`    WebAssembly           ${rate(flops, wasm.t)}`);
+  console.log(`    JavaScript            ${rate(flops, js.t)}`);
+  console.log(`    ratio: WebAssembly ×${(js.t.cpu / wasm.t.cpu).toFixed(2)} the JavaScript path; ${sameBits(wasm.out, js.out) ? 'the same bits' : 'DIFFERENT results'}`);
+}
 
 export async function run(): Promise<void> {
   const kernels = denseKernels() !== null;
@@ -113,6 +134,7 @@ export async function run(): Promise<void> {
     console.log(`    one at a time         ${rate(nr * n * n, ts)}`);
     console.log(`    ratio: WebAssembly ×${(sj.t.cpu / sw.t.cpu).toFixed(2)} the JavaScript path, ×${(ts.cpu / sw.t.cpu).toFixed(2)} one at a time; ${same ? 'the same bits' : 'DIFFERENT results'}`);
   }
+  gram();
 }
 
 if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) await run();

@@ -353,14 +353,32 @@ export function gramOfColumns(phi: Float64Array, rows: number, f: number): Float
   return g;
 }
 
+/** Fewest rows for which gramOfRows copies Φ into the kernels' memory (common practice, no source). */
+const GRAM_KERNEL_MIN_ROWS = 16;
+
+/** gramOfRows in the kernels' memory (Φ, then K); false when that is more than KERNEL_MAX_BYTES or it cannot grow. */
+function gramOfRowsInModule(kn: DenseKernels, phi: Float64Array, rows: number, f: number, k: Float64Array): boolean {
+  const bytes = 8 * (rows * f + rows * rows);
+  if (bytes > KERNEL_MAX_BYTES || !kn.module.reserve(bytes)) return false;
+  const at = kn.module.heapBase;
+  const kAt = at + 8 * rows * f;
+  kn.module.f64(at, rows * f).set(phi.subarray(0, rows * f));
+  kn.gramRows(at, rows, f, kAt);
+  k.set(kn.module.f64(kAt, rows * rows));
+  return true;
+}
+
 /**
  * K = Φ Φᵀ (rows×rows) of a row-major rows×F matrix. Each entry sums its even and its odd columns apart and adds
  * the two (the order of one entry never changes, so K of a subset of rows is a selection of K's numbers); the
  * entries go in 2 × 2 tiles of row pairs, each number loaded serving two products (×2 against one entry at a time,
- * bench/cholesky.bench.ts).
+ * bench/cholesky.bench.ts). With the WebAssembly kernels, the same sums in the same order in SIMD registers (the
+ * even and the odd sum of an entry in one register's two lanes).
  */
 export function gramOfRows(phi: Float64Array, rows: number, f: number): Float64Array {
   const k = new Float64Array(rows * rows);
+  const kernels = rows >= GRAM_KERNEL_MIN_ROWS ? denseKernels() : null;
+  if (kernels && gramOfRowsInModule(kernels, phi, rows, f, k)) return k;
   const entry = (i: number, j: number) => {
     const bi = i * f;
     const bj = j * f;

@@ -16,6 +16,8 @@ export interface DenseKernels {
   trailingUpdate(c: number, ldc: number, x: number, rows: number, kb: number): void;
   /** Forward substitution with L (row-major n × n) for `groups` groups of eight right-hand sides, interleaved k-major. */
   forwardRows(l: number, n: number, bt: number, groups: number): void;
+  /** K = Φ Φᵀ (rows × rows, both triangles) of a row-major rows × f matrix, even and odd columns summed apart. */
+  gramRows(phi: number, rows: number, f: number, k: number): void;
 }
 
 let cached: DenseKernels | null = null;
@@ -31,6 +33,7 @@ export function denseKernels(): DenseKernels | null {
       panelSolve: e.panelSolve as DenseKernels['panelSolve'],
       trailingUpdate: e.trailingUpdate as DenseKernels['trailingUpdate'],
       forwardRows: e.forwardRows as DenseKernels['forwardRows'],
+      gramRows: e.gramRows as DenseKernels['gramRows'],
     };
   }
   return cached;

@@ -168,6 +168,29 @@ describe('Cholesky on Float64Array', () => {
       }
     });
 
+    it('gram of rows: the same bits on both paths, each entry its own dot product of even and odd columns apart', () => {
+      const rng = makeRng(41);
+      const k = denseKernels();
+      for (const [rows, f] of [[16, 1], [17, 2], [18, 13], [19, 64], [33, 27]] as const) {
+        const phi = Float64Array.from({ length: rows * f }, () => rng.normal());
+        const { js, wasm } = bothPaths(() => gramOfRows(phi, rows, f));
+        // the kernel ran: K is what the module holds after Φ
+        expect(Array.from(k!.module.f64(k!.module.heapBase + 8 * rows * f, rows * rows))).toEqual(Array.from(wasm));
+        expect(Array.from(wasm)).toEqual(Array.from(js));
+        for (let i = 0; i < rows; i++) {
+          for (let j = 0; j < rows; j++) {
+            let s0 = 0;
+            let s1 = 0;
+            for (let c = 0; c < f; c++) {
+              if (c % 2 === 0) s0 += phi[i * f + c] * phi[j * f + c];
+              else s1 += phi[i * f + c] * phi[j * f + c];
+            }
+            expect(wasm[i * rows + j]).toBe(s0 + s1);
+          }
+        }
+      }
+    });
+
     it('a matrix not positive definite fails at the same pivot on both paths, leaving the same numbers', () => {
       const rng = makeRng(8);
       const n = 200;

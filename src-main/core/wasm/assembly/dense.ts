@@ -236,3 +236,110 @@ export function forwardRows(l: usize, n: i32, bt: usize, groups: i32): void {
     }
   }
 }
+
+/**
+ * One entry of K = Φ Φᵀ from a running pair (lane 0 the sum over even columns, lane 1 over odd ones) and the rows'
+ * last column when f is odd, added to the even sum: s0 + s1, as gramOfRows in cholesky.ts forms it.
+ */
+@inline
+function finishEntry(acc: v128, tail: bool, xi: usize, xj: usize): f64 {
+  let s0 = f64x2.extract_lane(acc, 0);
+  if (tail) s0 += f64.load(xi) * f64.load(xj);
+  return s0 + f64x2.extract_lane(acc, 1);
+}
+
+/**
+ * K = Φ Φᵀ (rows × rows, both triangles) of a row-major rows × f matrix at `phi`, into `k`. Each entry sums its even
+ * and its odd columns apart (the two lanes of one register: the pair of columns c, c + 1 is one load per row), the
+ * last column of an odd f going to the even sum, and adds the two — gramOfRows in cholesky.ts, the same bits.
+ * Entries in tiles of two rows i by four rows j below them (eight registers of running pairs); the entries beside
+ * the diagonal one by one.
+ */
+export function gramRows(phi: usize, rows: i32, f: i32, k: usize): void {
+  const rowBytes = <usize>f << 3;
+  const kRow = <usize>rows << 3;
+  const pairs = f >> 1;
+  const tail = (f & 1) != 0;
+  const tailOff = <usize>(pairs << 1) << 3;
+  for (let i = 0; i < rows; i += 2) {
+    const two = i + 1 < rows;
+    const a0 = phi + <usize>i * rowBytes;
+    const a1 = two ? a0 + rowBytes : a0;
+    let j = 0;
+    for (; j + 3 < i; j += 4) {
+      const b0 = phi + <usize>j * rowBytes;
+      const b1 = b0 + rowBytes;
+      const b2 = b1 + rowBytes;
+      const b3 = b2 + rowBytes;
+      let p0 = f64x2.splat(0);
+      let p1 = f64x2.splat(0);
+      let p2 = f64x2.splat(0);
+      let p3 = f64x2.splat(0);
+      let q0 = f64x2.splat(0);
+      let q1 = f64x2.splat(0);
+      let q2 = f64x2.splat(0);
+      let q3 = f64x2.splat(0);
+      for (let c = 0; c < pairs; c++) {
+        const o = <usize>c << 4;
+        const x = v128.load(a0 + o);
+        const u = v128.load(a1 + o);
+        const y0 = v128.load(b0 + o);
+        p0 = f64x2.add(p0, f64x2.mul(x, y0));
+        q0 = f64x2.add(q0, f64x2.mul(u, y0));
+        const y1 = v128.load(b1 + o);
+        p1 = f64x2.add(p1, f64x2.mul(x, y1));
+        q1 = f64x2.add(q1, f64x2.mul(u, y1));
+        const y2 = v128.load(b2 + o);
+        p2 = f64x2.add(p2, f64x2.mul(x, y2));
+        q2 = f64x2.add(q2, f64x2.mul(u, y2));
+        const y3 = v128.load(b3 + o);
+        p3 = f64x2.add(p3, f64x2.mul(x, y3));
+        q3 = f64x2.add(q3, f64x2.mul(u, y3));
+      }
+      const ki = k + <usize>i * kRow + (<usize>j << 3);
+      const kj = k + <usize>j * kRow + (<usize>i << 3);
+      const v0 = finishEntry(p0, tail, a0 + tailOff, b0 + tailOff);
+      const v1 = finishEntry(p1, tail, a0 + tailOff, b1 + tailOff);
+      const v2 = finishEntry(p2, tail, a0 + tailOff, b2 + tailOff);
+      const v3 = finishEntry(p3, tail, a0 + tailOff, b3 + tailOff);
+      f64.store(ki, v0);
+      f64.store(ki, v1, 8);
+      f64.store(ki, v2, 16);
+      f64.store(ki, v3, 24);
+      f64.store(kj, v0);
+      f64.store(kj + kRow, v1);
+      f64.store(kj + 2 * kRow, v2);
+      f64.store(kj + 3 * kRow, v3);
+      if (two) {
+        const w0 = finishEntry(q0, tail, a1 + tailOff, b0 + tailOff);
+        const w1 = finishEntry(q1, tail, a1 + tailOff, b1 + tailOff);
+        const w2 = finishEntry(q2, tail, a1 + tailOff, b2 + tailOff);
+        const w3 = finishEntry(q3, tail, a1 + tailOff, b3 + tailOff);
+        f64.store(ki + kRow, w0);
+        f64.store(ki + kRow, w1, 8);
+        f64.store(ki + kRow, w2, 16);
+        f64.store(ki + kRow, w3, 24);
+        f64.store(kj, w0, 8);
+        f64.store(kj + kRow, w1, 8);
+        f64.store(kj + 2 * kRow, w2, 8);
+        f64.store(kj + 3 * kRow, w3, 8);
+      }
+    }
+    // the entries from column j to the diagonal, one at a time (row i + 1 one further)
+    const last = two ? i + 1 : i;
+    for (let r = i; r <= last; r++) {
+      const ar = phi + <usize>r * rowBytes;
+      for (let jj = j; jj <= r; jj++) {
+        const bj = phi + <usize>jj * rowBytes;
+        let acc = f64x2.splat(0);
+        for (let c = 0; c < pairs; c++) {
+          const o = <usize>c << 4;
+          acc = f64x2.add(acc, f64x2.mul(v128.load(ar + o), v128.load(bj + o)));
+        }
+        const v = finishEntry(acc, tail, ar + tailOff, bj + tailOff);
+        f64.store(k + <usize>r * kRow + (<usize>jj << 3), v);
+        f64.store(k + <usize>jj * kRow + (<usize>r << 3), v);
+      }
+    }
+  }
+}
