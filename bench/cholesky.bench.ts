@@ -1,18 +1,19 @@
 // Dense algebra of core/numerics/cholesky.ts, side by side in one run: the blocked Cholesky factorisation with its
 // WebAssembly SIMD kernels and on its JavaScript path (setWebAssemblyKernels(false), the same bits), against the
 // unblocked code it replaced (kept in bench/cholesky-unblocked.ts) and against ml-matrix; then many triangular
-// solves at once (forwardSubstituteRows, as the sparse model projects its rows) on both paths and one solve per
-// right-hand side. Random SPD matrices (M Mᵀ, M n × (n + 20) standard normal), one thread. Figures in GFLOP/s of
+// solves at once (forwardSubstituteRows, as the sparse model projects its rows) on both paths, one solve per
+// right-hand side, and the back substitution, each single solve also as the plain loop it replaced. Random SPD matrices (M Mᵀ, M n × (n + 20) standard normal), one thread. Figures in GFLOP/s of
 // CPU time (n³/3 for a factorisation, rows·n² for the solves), so that a busy machine's waiting does not count;
 // wall times beside them; last, the row Gram matrix Φ Φᵀ on both paths. Figures only, never asserted.
 // Env: PW_BENCH_CHOLESKY_N (1000,1500,2000).
 import { CholeskyDecomposition, Matrix } from 'ml-matrix';
 import { loadavg } from 'node:os';
 import { pathToFileURL } from 'node:url';
-import { choleskyInPlace, forwardSubstitute, forwardSubstituteRows, gramOfRows } from '../src-main/core/numerics/cholesky.ts';
+import { backSubstitute, choleskyInPlace, forwardSubstitute, forwardSubstituteRows, gramOfRows } from '../src-main/core/numerics/cholesky.ts';
 import { makeRng } from '../src-main/core/numerics/random.ts';
 import { denseKernels } from '../src-main/core/wasm/dense.ts';
 import { setWebAssemblyKernels } from '../src-main/core/wasm/load.ts';
+import { referenceBackSubstitute, referenceForwardSubstitute } from '../test/helpers/reference-kernels.ts';
 import { choleskyInPlaceUnblocked } from './cholesky-unblocked.ts';
 
 const SIZES = (process.env.PW_BENCH_CHOLESKY_N ?? '1000,1500,2000').split(',').map(Number);
@@ -127,12 +128,29 @@ export async function run(): Promise<void> {
       single.set(b);
       for (let r = 0; r < nr; r++) forwardSubstitute(l, n, single.subarray(r * n, (r + 1) * n));
     }, 3);
-    const same = sameBits(sw.out, sj.out) && sameBits(sj.out, single);
+    const plain = Float64Array.from(b);
+    const tp = time(() => {
+      plain.set(b);
+      for (let r = 0; r < nr; r++) referenceForwardSubstitute(l, n, plain.subarray(r * n, (r + 1) * n));
+    }, 3);
+    const back = Float64Array.from(b);
+    const tb = time(() => {
+      back.set(b);
+      for (let r = 0; r < nr; r++) backSubstitute(l, n, back.subarray(r * n, (r + 1) * n));
+    }, 3);
+    const backPlain = Float64Array.from(b);
+    const tbp = time(() => {
+      backPlain.set(b);
+      for (let r = 0; r < nr; r++) referenceBackSubstitute(l, n, backPlain.subarray(r * n, (r + 1) * n));
+    }, 3);
+    const same = sameBits(sw.out, sj.out) && sameBits(sj.out, single) && sameBits(single, plain);
     console.log(`  ${nr} triangular solves L z = b, n = ${n}:`);
     console.log(`    together, WebAssembly ${rate(nr * n * n, sw.t)}`);
     console.log(`    together, JavaScript  ${rate(nr * n * n, sj.t)} (four at a time)`);
-    console.log(`    one at a time         ${rate(nr * n * n, ts)}`);
-    console.log(`    ratio: WebAssembly ×${(sj.t.cpu / sw.t.cpu).toFixed(2)} the JavaScript path, ×${(ts.cpu / sw.t.cpu).toFixed(2)} one at a time; ${same ? 'the same bits' : 'DIFFERENT results'}`);
+    console.log(`    one at a time         ${rate(nr * n * n, ts)} (forwardSubstitute, four rows of L side by side)`);
+    console.log(`    one at a time, plain  ${rate(nr * n * n, tp)} (one row after the other, test/helpers/reference-kernels.ts)`);
+    console.log(`    ratio: WebAssembly ×${(sj.t.cpu / sw.t.cpu).toFixed(2)} the JavaScript path, ×${(ts.cpu / sw.t.cpu).toFixed(2)} one at a time; one at a time ×${(tp.cpu / ts.cpu).toFixed(2)} the plain loop; ${same ? 'the same bits' : 'DIFFERENT results'}`);
+    console.log(`  ${nr} back substitutions Lᵀ x = z, n = ${n}, one at a time: ${rate(nr * n * n, tb)} (two rows of L per pass over z); plain ${rate(nr * n * n, tbp)}; ratio ×${(tbp.cpu / tb.cpu).toFixed(2)}, ${sameBits(back, backPlain) ? 'the same bits' : 'DIFFERENT results'}`);
   }
   gram();
 }

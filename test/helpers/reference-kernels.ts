@@ -525,3 +525,25 @@ export function referenceNearestOtherDistances(pool: { count: number; n0: number
   }
   return out;
 }
+
+/** L z = b in place (core/numerics/cholesky.ts forwardSubstitute) one row at a time, as first written. */
+export function referenceForwardSubstitute(l: Float64Array, n: number, b: Float64Array): Float64Array {
+  for (let i = 0; i < n; i++) {
+    const ri = i * n;
+    let s = b[i];
+    for (let k = 0; k < i; k++) s -= l[ri + k] * b[k];
+    b[i] = s / l[ri + i];
+  }
+  return b;
+}
+
+/** Lᵀ x = z in place (core/numerics/cholesky.ts backSubstitute) one row at a time, as first written. */
+export function referenceBackSubstitute(l: Float64Array, n: number, z: Float64Array): Float64Array {
+  for (let i = n - 1; i >= 0; i--) {
+    const s = z[i] / l[i * n + i];
+    z[i] = s;
+    const ri = i * n;
+    for (let k = 0; k < i; k++) z[k] -= l[ri + k] * s;
+  }
+  return z;
+}

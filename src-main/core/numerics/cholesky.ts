@@ -228,9 +228,47 @@ export function choleskyWithJitter(a: Float64Array, n: number): { factor: Float6
   throw new RangeError(`Cholesky: the ${n}×${n} system is not positive definite even with a jitter of 1e-2 × its mean diagonal`);
 }
 
-/** Solve L z = b in place (forward substitution); L lower triangular, row-major. */
+/**
+ * Solve L z = b in place (forward substitution); L lower triangular, row-major. Each z[i] is
+ * (b[i] − L[i][0]·z[0] − … − L[i][i−1]·z[i−1]) / L[i][i], subtracted in that order. Four rows at a time: their sums
+ * over the z already known run side by side (four independent chains instead of one), then each takes the terms
+ * of the rows just solved before it — every z[i] with the same operations in the same order, so the same bits as
+ * one row at a time.
+ */
 export function forwardSubstitute(l: Float64Array, n: number, b: Float64Array): Float64Array {
-  for (let i = 0; i < n; i++) {
+  let i = 0;
+  for (; i + 3 < n; i += 4) {
+    const r0 = i * n;
+    const r1 = r0 + n;
+    const r2 = r1 + n;
+    const r3 = r2 + n;
+    let s0 = b[i];
+    let s1 = b[i + 1];
+    let s2 = b[i + 2];
+    let s3 = b[i + 3];
+    for (let k = 0; k < i; k++) {
+      const x = b[k];
+      s0 -= l[r0 + k] * x;
+      s1 -= l[r1 + k] * x;
+      s2 -= l[r2 + k] * x;
+      s3 -= l[r3 + k] * x;
+    }
+    s0 /= l[r0 + i];
+    s1 -= l[r1 + i] * s0;
+    s1 /= l[r1 + i + 1];
+    s2 -= l[r2 + i] * s0;
+    s2 -= l[r2 + i + 1] * s1;
+    s2 /= l[r2 + i + 2];
+    s3 -= l[r3 + i] * s0;
+    s3 -= l[r3 + i + 1] * s1;
+    s3 -= l[r3 + i + 2] * s2;
+    s3 /= l[r3 + i + 3];
+    b[i] = s0;
+    b[i + 1] = s1;
+    b[i + 2] = s2;
+    b[i + 3] = s3;
+  }
+  for (; i < n; i++) {
     const ri = i * n;
     let s = b[i];
     for (let k = 0; k < i; k++) s -= l[ri + k] * b[k];
@@ -317,15 +355,24 @@ function forwardRowsInModule(k: DenseKernels, l: Float64Array, n: number, b: Flo
   return true;
 }
 
-/** Solve Lᵀ x = z in place (back substitution). */
+/**
+ * Solve Lᵀ x = z in place (back substitution): from the last row up, x[i] = z[i] / L[i][i], then row i of L times
+ * x[i] is subtracted from the entries above. Two rows at a time: each entry above takes row i's term, then row
+ * i − 1's, as one row at a time would — the same bits, with half the passes over z.
+ */
 export function backSubstitute(l: Float64Array, n: number, z: Float64Array): Float64Array {
-  for (let i = n - 1; i >= 0; i--) {
-    const s = z[i] / l[i * n + i];
-    z[i] = s;
-    // subtract column i of Lᵀ (row i of L) from the entries above
+  let i = n - 1;
+  for (; i >= 1; i -= 2) {
     const ri = i * n;
-    for (let k = 0; k < i; k++) z[k] -= l[ri + k] * s;
+    const rh = ri - n;
+    const s = z[i] / l[ri + i];
+    z[i] = s;
+    const t = (z[i - 1] - l[ri + i - 1] * s) / l[rh + i - 1];
+    z[i - 1] = t;
+    // subtract columns i and i − 1 of Lᵀ (rows i and i − 1 of L) from the entries above, in that order
+    for (let k = 0; k < i - 1; k++) z[k] = z[k] - l[ri + k] * s - l[rh + k] * t;
   }
+  if (i === 0) z[0] /= l[0];
   return z;
 }
 

@@ -2,6 +2,7 @@ import { CholeskyDecomposition, Matrix, solve } from 'ml-matrix';
 import { afterEach, describe, expect, it } from 'vitest';
 import { backSubstitute, choleskyInPlace, choleskySolve, choleskyWithJitter, forwardSubstitute, forwardSubstituteRows, gramOfColumns, gramOfRows } from '../../../src-main/core/numerics/cholesky.ts';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
+import { referenceBackSubstitute, referenceForwardSubstitute } from '../../helpers/reference-kernels.ts';
 import { denseKernels } from '../../../src-main/core/wasm/dense.ts';
 import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
 
@@ -135,6 +136,16 @@ describe('Cholesky on Float64Array', () => {
     const b = Float64Array.from({ length: rows * n }, () => rng.normal());
     const all = forwardSubstituteRows(factor, n, Float64Array.from(b), rows);
     for (let r = 0; r < rows; r++) expect(Array.from(all.subarray(r * n, (r + 1) * n))).toEqual(Array.from(forwardSubstitute(factor, n, b.slice(r * n, (r + 1) * n))));
+  });
+
+  it('both triangular solves, four and two rows at a time, give the bits of one row at a time (the plain loops kept as references)', () => {
+    const rng = makeRng(51);
+    for (const n of [0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 13, 64, 201]) {
+      const l = Float64Array.from({ length: n * n }, (_, i) => (i % (n + 1) === 0 ? 0.5 + rng.uniform() : rng.normal()));
+      const b = Float64Array.from({ length: n }, () => rng.normal());
+      expect(Array.from(forwardSubstitute(l, n, Float64Array.from(b)))).toEqual(Array.from(referenceForwardSubstitute(l, n, Float64Array.from(b))));
+      expect(Array.from(backSubstitute(l, n, Float64Array.from(b)))).toEqual(Array.from(referenceBackSubstitute(l, n, Float64Array.from(b))));
+    }
   });
 
   describe('WebAssembly kernels against the JavaScript path', () => {
