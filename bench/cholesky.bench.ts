@@ -4,12 +4,12 @@
 // solves at once (forwardSubstituteRows, as the sparse model projects its rows) on both paths, one solve per
 // right-hand side, and the back substitution, each single solve also as the plain loop it replaced. Random SPD matrices (M Mᵀ, M n × (n + 20) standard normal), one thread. Figures in GFLOP/s of
 // CPU time (n³/3 for a factorisation, rows·n² for the solves), so that a busy machine's waiting does not count;
-// wall times beside them; last, the row Gram matrix Φ Φᵀ on both paths. Figures only, never asserted.
+// wall times beside them; last, the Gram matrices Φ Φᵀ and Φᵀ Φ on both paths. Figures only, never asserted.
 // Env: PW_BENCH_CHOLESKY_N (1000,1500,2000).
 import { CholeskyDecomposition, Matrix } from 'ml-matrix';
 import { loadavg } from 'node:os';
 import { pathToFileURL } from 'node:url';
-import { backSubstitute, choleskyInPlace, forwardSubstitute, forwardSubstituteRows, gramOfRows } from '../src-main/core/numerics/cholesky.ts';
+import { backSubstitute, choleskyInPlace, forwardSubstitute, forwardSubstituteRows, gramOfColumns, gramOfRows } from '../src-main/core/numerics/cholesky.ts';
 import { makeRng } from '../src-main/core/numerics/random.ts';
 import { denseKernels } from '../src-main/core/wasm/dense.ts';
 import { setWebAssemblyKernels } from '../src-main/core/wasm/load.ts';
@@ -48,7 +48,10 @@ function withKernels<T>(on: boolean, f: () => T): T {
 
 const sameBits = (x: Float64Array, y: Float64Array) => x.length === y.length && x.every((v, i) => Object.is(v, y[i]));
 
-/** K = Φ Φᵀ of a 1,000 × 1,488 design (the size the default training forms), both paths side by side. */
+/**
+ * K = Φ Φᵀ of a 1,000 × 1,488 design (the size the default training forms), and G = Φᵀ Φ of a 2,000 × 782 one (the
+ * primal form, more frames than features), both paths side by side.
+ */
 function gram(): void {
   const rows = 1000;
   const f = 1488;
@@ -66,6 +69,21 @@ function gram(): void {
   console.log(`    WebAssembly           ${rate(flops, wasm.t)}`);
   console.log(`    JavaScript            ${rate(flops, js.t)}`);
   console.log(`    ratio: WebAssembly ×${(js.t.cpu / wasm.t.cpu).toFixed(2)} the JavaScript path; ${sameBits(wasm.out, js.out) ? 'the same bits' : 'DIFFERENT results'}`);
+  // the primal form's Φᵀ Φ: more frames than features
+  const tall = 2000;
+  const cols = 782;
+  const psi = Float64Array.from({ length: tall * cols }, () => rng.normal());
+  const columns = (on: boolean) => {
+    let out: Float64Array = new Float64Array(0);
+    const t = withKernels(on, () => time(() => void (out = gramOfColumns(psi, tall, cols)), 2));
+    return { out, t };
+  };
+  const cj = columns(false);
+  const cw = columns(true);
+  console.log(`  gram of columns Φᵀ Φ, ${tall} × ${cols} (load ${load()}):`);
+  console.log(`    WebAssembly           ${rate(tall * cols * cols, cw.t)}`);
+  console.log(`    JavaScript            ${rate(tall * cols * cols, cj.t)}`);
+  console.log(`    ratio: WebAssembly ×${(cj.t.cpu / cw.t.cpu).toFixed(2)} the JavaScript path; ${sameBits(cw.out, cj.out) ? 'the same bits' : 'DIFFERENT results'}`);
 }
 
 export async function run(): Promise<void> {

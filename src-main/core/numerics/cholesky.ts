@@ -384,9 +384,57 @@ export function choleskySolve(l: Float64Array, n: number, b: ArrayLike<number>):
   return x;
 }
 
-/** G = Φᵀ Φ (F×F) of a row-major rows×F matrix, both triangles filled. */
+/** Fewest columns for which gramOfColumns runs in the kernels' memory (common practice, no source). */
+const COLUMNS_KERNEL_MIN = 32;
+/** Rows of Φ per call of the column-Gram kernel (the module holds G and this strip of Φ, packed). */
+const COLUMNS_ROWS_PER_CALL = 512;
+
+/**
+ * gramOfColumns in the kernels' memory: G (its order rounded up to four), then a strip of Φ's rows packed as
+ * columns in groups of four (zero columns past f); each call continues G's sums over the next strip. False when
+ * that is more than KERNEL_MAX_BYTES, the module cannot grow, or Φ holds a number that is not finite (the
+ * JavaScript loop skips zero factors, which only a non-finite partner would notice).
+ */
+function gramOfColumnsInModule(k: DenseKernels, phi: Float64Array, rows: number, f: number, g: Float64Array): boolean {
+  const f4 = roundUp(f, 4);
+  const strip = Math.min(rows, COLUMNS_ROWS_PER_CALL);
+  const bytes = 8 * (f4 * f4 + f4 * strip);
+  if (bytes > KERNEL_MAX_BYTES) return false;
+  for (let i = 0; i < rows * f; i++) if (!Number.isFinite(phi[i])) return false;
+  if (!k.module.reserve(bytes)) return false;
+  const at = k.module.heapBase;
+  const x = at + 8 * f4 * f4;
+  const c = k.module.f64(at, f4 * f4);
+  c.fill(0);
+  const t = k.module.f64(x, f4 * strip);
+  for (let r0 = 0; r0 < rows; r0 += strip) {
+    const count = Math.min(strip, rows - r0);
+    // column q of the strip's row r at ((⌊q/4⌋·count + r)·4 + q mod 4)
+    t.fill(0);
+    for (let r = 0; r < count; r++) {
+      const src = (r0 + r) * f;
+      for (let q = 0; q < f; q++) t[((q >> 2) * count + r) * 4 + (q & 3)] = phi[src + q];
+    }
+    k.gramColumnsAdd(at, f4, x, count, f4 / 4);
+  }
+  for (let i = 0; i < f; i++) {
+    for (let j = 0; j <= i; j++) {
+      const v = c[i * f4 + j];
+      g[i * f + j] = v;
+      g[j * f + i] = v;
+    }
+  }
+  return true;
+}
+
+/**
+ * G = Φᵀ Φ (F×F) of a row-major rows×F matrix, both triangles filled: each entry summed over the rows in order
+ * (in the kernels' memory too, four by four columns at a time — the same bits).
+ */
 export function gramOfColumns(phi: Float64Array, rows: number, f: number): Float64Array {
   const g = new Float64Array(f * f);
+  const kernels = f >= COLUMNS_KERNEL_MIN && rows > 0 ? denseKernels() : null;
+  if (kernels && gramOfColumnsInModule(kernels, phi, rows, f, g)) return g;
   for (let r = 0; r < rows; r++) {
     const base = r * f;
     for (let i = 0; i < f; i++) {

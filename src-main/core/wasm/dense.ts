@@ -18,6 +18,8 @@ export interface DenseKernels {
   forwardRows(l: number, n: number, bt: number, groups: number): void;
   /** K = Φ Φᵀ (rows × rows, both triangles) of a row-major rows × f matrix, even and odd columns summed apart. */
   gramRows(phi: number, rows: number, f: number, k: number): void;
+  /** c[i][j] += Σ_r X[i][r]·X[j][r] on and below the diagonal tiles, X in `tiles` groups of four rows of `count`. */
+  gramColumnsAdd(c: number, ldc: number, x: number, count: number, tiles: number): void;
 }
 
 let cached: DenseKernels | null = null;
@@ -34,6 +36,7 @@ export function denseKernels(): DenseKernels | null {
       trailingUpdate: e.trailingUpdate as DenseKernels['trailingUpdate'],
       forwardRows: e.forwardRows as DenseKernels['forwardRows'],
       gramRows: e.gramRows as DenseKernels['gramRows'],
+      gramColumnsAdd: e.gramColumnsAdd as DenseKernels['gramColumnsAdd'],
     };
   }
   return cached;

@@ -202,6 +202,24 @@ describe('Cholesky on Float64Array', () => {
       }
     });
 
+    it('gram of columns: the same bits on both paths (zeros in Φ, strips of rows, ragged column groups), and a non-finite Φ as the JavaScript loop has it', () => {
+      const rng = makeRng(43);
+      const k = denseKernels();
+      for (const [rows, f] of [[1, 32], [5, 33], [40, 35], [600, 70]] as const) {
+        const phi = Float64Array.from({ length: rows * f }, () => (rng.uniform() < 0.2 ? 0 : rng.normal()));
+        const { js, wasm } = bothPaths(() => gramOfColumns(phi, rows, f));
+        expect(Array.from(wasm)).toEqual(Array.from(js));
+        // the kernel ran: G's lower triangle is what the module holds (row stride f rounded up to four)
+        const f4 = Math.ceil(f / 4) * 4;
+        const held = k!.module.f64(k!.module.heapBase, f4 * f4);
+        for (let i = 0; i < f; i++) for (let j = 0; j <= i; j++) expect(held[i * f4 + j]).toBe(wasm[i * f + j]);
+      }
+      // an infinite number beside a zero: the JavaScript loop skips 0·∞; the kernels are not asked
+      const phi = Float64Array.from({ length: 3 * 40 }, (_, i) => (i === 41 ? Infinity : i === 42 ? 0 : Math.sin(i)));
+      const { js, wasm } = bothPaths(() => gramOfColumns(phi, 3, 40));
+      expect(Array.from(wasm)).toEqual(Array.from(js));
+    });
+
     it('a matrix not positive definite fails at the same pivot on both paths, leaving the same numbers', () => {
       const rng = makeRng(8);
       const n = 200;

@@ -107,6 +107,32 @@ describe('dense WebAssembly kernels', () => {
     }
   });
 
+  it('gramColumnsAdd: c[i][j] += Σ_r X[i][r]·X[j][r] continuing from C, on and below the diagonal tiles, the bits of the plain loop', () => {
+    const k = denseKernels()!;
+    for (const [tiles, count, ldc] of [[1, 1, 4], [2, 5, 9], [5, 17, 20]] as const) {
+      const m = tiles * 4;
+      const nc = m * ldc;
+      const nx = m * count;
+      expect(k.module.reserve((nc + nx) * 8)).toBe(true);
+      const cAt = k.module.heapBase;
+      const xAt = cAt + nc * 8;
+      const c = k.module.f64(cAt, nc);
+      const x = k.module.f64(xAt, nx);
+      fill(c, 2);
+      fill(x, m);
+      const want = Float64Array.from(c);
+      for (let i = 0; i < m; i++) {
+        for (let j = 0; j < (i >> 2) * 4 + 4; j++) {
+          let s = want[i * ldc + j];
+          for (let r = 0; r < count; r++) s += x[tileAt(i, r, count)] * x[tileAt(j, r, count)];
+          want[i * ldc + j] = s;
+        }
+      }
+      k.gramColumnsAdd(cAt, ldc, xAt, count, tiles);
+      expect(Array.from(k.module.f64(cAt, nc))).toEqual(Array.from(want));
+    }
+  });
+
   it('switched off, the loader answers null so callers take their JavaScript path', () => {
     setWebAssemblyKernels(false);
     expect(denseKernels()).toBeNull();

@@ -343,3 +343,62 @@ export function gramRows(phi: usize, rows: i32, f: i32, k: usize): void {
     }
   }
 }
+
+/**
+ * c[i][j] += Σ_r X[i][r]·X[j][r] for the tiles on and below the diagonal (rows in `tiles` groups of four, each
+ * group r-major as the panel's tiles are), C row-major with row stride ldc. Each sum continues from the number in
+ * C (loaded into the running sums, not added at the end), so calls over consecutive strips of r give the one sum
+ * in r order: the Gram matrix of columns G = Φᵀ Φ with X = Φ's columns, as gramOfColumns in cholesky.ts sums it
+ * (row after row of Φ). Diagonal tiles are written whole (their upper part holds the mirrored entries' values).
+ */
+export function gramColumnsAdd(c: usize, ldc: i32, x: usize, count: i32, tiles: i32): void {
+  const cs = <usize>ldc << 3;
+  const tileBytes = <usize>count << 5;
+  for (let ti = 0; ti < tiles; ti++) {
+    const xiBase = x + <usize>ti * tileBytes;
+    const ri = c + ((<usize>(ti << 2) * <usize>ldc) << 3);
+    for (let tj = 0; tj <= ti; tj++) {
+      const r0 = ri + (<usize>(tj << 2) << 3);
+      const r1 = r0 + cs;
+      const r2 = r1 + cs;
+      const r3 = r2 + cs;
+      let s00 = v128.load(r0);
+      let s01 = v128.load(r0, 16);
+      let s10 = v128.load(r1);
+      let s11 = v128.load(r1, 16);
+      let s20 = v128.load(r2);
+      let s21 = v128.load(r2, 16);
+      let s30 = v128.load(r3);
+      let s31 = v128.load(r3, 16);
+      let xi = xiBase;
+      let xj = x + <usize>tj * tileBytes;
+      const end = xi + tileBytes;
+      while (xi < end) {
+        const y0 = v128.load(xj);
+        const y1 = v128.load(xj, 16);
+        const x0 = v128.load64_splat(xi);
+        s00 = f64x2.add(s00, f64x2.mul(x0, y0));
+        s01 = f64x2.add(s01, f64x2.mul(x0, y1));
+        const x1 = v128.load64_splat(xi, 8);
+        s10 = f64x2.add(s10, f64x2.mul(x1, y0));
+        s11 = f64x2.add(s11, f64x2.mul(x1, y1));
+        const x2 = v128.load64_splat(xi, 16);
+        s20 = f64x2.add(s20, f64x2.mul(x2, y0));
+        s21 = f64x2.add(s21, f64x2.mul(x2, y1));
+        const x3 = v128.load64_splat(xi, 24);
+        s30 = f64x2.add(s30, f64x2.mul(x3, y0));
+        s31 = f64x2.add(s31, f64x2.mul(x3, y1));
+        xi += 32;
+        xj += 32;
+      }
+      v128.store(r0, s00);
+      v128.store(r0, s01, 16);
+      v128.store(r1, s10);
+      v128.store(r1, s11, 16);
+      v128.store(r2, s20);
+      v128.store(r2, s21, 16);
+      v128.store(r3, s30);
+      v128.store(r3, s31, 16);
+    }
+  }
+}
