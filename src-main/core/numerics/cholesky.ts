@@ -336,7 +336,8 @@ function forwardRowsInModule(k: DenseKernels, l: Float64Array, n: number, b: Flo
   if (bytes > KERNEL_MAX_BYTES || !k.module.reserve(bytes)) return false;
   const at = k.module.heapBase;
   const bt = at + 8 * n * n;
-  k.module.f64(at, n * n).set(l.subarray(0, n * n));
+  const lm = k.module.f64(at, n * n);
+  for (let i = 0; i < n; i++) lm.set(l.subarray(i * n, i * n + i + 1), i * n); // the kernel reads L's lower triangle only
   const t = k.module.f64(bt, roundUp(most, 8) * n);
   for (let r0 = 0; r0 < rows; r0 += most) {
     const count = Math.min(most, rows - r0);
