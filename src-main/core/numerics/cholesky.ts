@@ -1,11 +1,11 @@
 // Dense symmetric positive-definite solves on plain Float64Array (row-major n×n), for the ridge systems of the
 // regression. Written by hand because ml-matrix's generic loops are far slower here (bench/cholesky.bench.ts
 // measures both, and the unblocked code this replaced); the loops run along contiguous rows so the JIT keeps them
-// tight. The bulk of the factorisation (the panel solve and the trailing update) and the many-right-hand-side
-// forward substitution run as WebAssembly SIMD kernels (core/wasm/assembly/dense.ts) when they are on and the
-// system fits: the same operations in the same order as the JavaScript here, so the same bits; the JavaScript
-// stays as the fallback and as the kernels' oracle (setWebAssemblyKernels(false)). Tested against ml-matrix
-// (test/core/numerics/cholesky.test.ts).
+// tight. The bulk of the factorisation (the panel solve and the trailing update), the many-right-hand-side
+// forward substitution and both Gram matrices run as WebAssembly SIMD kernels (core/wasm/assembly/dense.ts) when
+// they are on and the system fits: the same operations in the same order as the JavaScript here, so the same bits;
+// the JavaScript stays as the fallback and as the kernels' oracle (setWebAssemblyKernels(false)). Tested against
+// ml-matrix (test/core/numerics/cholesky.test.ts).
 import { denseKernels, type DenseKernels } from '../wasm/dense.ts';
 
 /** Columns per block of the blocked Cholesky (the panel's rows, kb doubles each, stay in the first cache levels). */
@@ -61,8 +61,8 @@ function factorBlocks(a: Float64Array, n: number, belowBlock: (k0: number, kb: n
 
 /**
  * choleskyInPlace in the kernels' memory: the matrix's lower triangle with four zero rows of padding below it (the
- * kernels work on whole groups of four rows; what they write past row n stays there), then the panel's tiles. Null when that is
- * more than KERNEL_MAX_BYTES or the module cannot grow (the caller takes the JavaScript path).
+ * kernels work on whole groups of four rows; what they write past row n stays there), then the panel's tiles.
+ * Null when that is more than KERNEL_MAX_BYTES or the module cannot grow (the caller takes the JavaScript path).
  */
 function choleskyInModule(k: DenseKernels, a: Float64Array, n: number): boolean | null {
   const matrix = (n + 4) * n;
