@@ -9,6 +9,8 @@ import { supercell } from '../src-main/core/geometry/cell.ts';
 import { makeRng } from '../src-main/core/numerics/random.ts';
 import type { FeatureSettings } from '../src-main/core/descriptors/feature-types.ts';
 import { computeFeatures, featureCount, tensorLimits, type FeatureTimings, type Lambda } from '../src-main/core/descriptors/features.ts';
+import { loadavg } from 'node:os';
+import { extractBaseline, rateChild, thisTree } from './baseline.ts';
 
 /** 128 water molecules in a cubic cell at 0.1 atoms/Å³: O at least 2.5 Å apart, H at 0.96 Å, 104.5°, random orientation. */
 export function waterCell(seed: number, molecules = 128): Frame {
@@ -129,6 +131,40 @@ export async function run(): Promise<void> {
       if (child.status === 0) console.log(child.stdout.trim());
       else console.log(`${measureOne(v, c)}  [in-process: child failed: ${(child.stderr || '').trim().split('\n')[0]}]`);
     }
+  }
+  const ref = process.env.PW_BENCH_BASELINE;
+  if (ref) againstBaseline(ref);
+  else console.log('(set PW_BENCH_BASELINE=<git ref> to time λ=0+2 features side by side with that ref)');
+}
+
+/**
+ * λ = 0 + 2 features (neighbour list included) of this tree and of `ref`, in alternating child processes, best of
+ * three each: environments per CPU-second, the ratio, and whether every feature is the same number.
+ */
+export function againstBaseline(ref: string): void {
+  const base = extractBaseline(ref);
+  if (!base) return;
+  try {
+    console.log(`side by side with ${ref} (load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}; one thread; CPU time; best of 3 alternating processes, each best of 5 batches):`);
+    for (const [lmaxTensor, repeats] of [[6, 1], [6, 4], [4, 1], [4, 4]]) {
+      type Rate = { rate: number; hash: string };
+      let now: Rate = { rate: 0, hash: '' };
+      let then: Rate = { rate: 0, hash: '' };
+      for (let round = 0; round < 3; round++) {
+        const a = rateChild<Rate>(thisTree, ['features', String(lmaxTensor), String(repeats)]);
+        const b = rateChild<Rate>(base.root, ['features', String(lmaxTensor), String(repeats)]);
+        if ('error' in a || 'error' in b) {
+          console.log(`  a child failed: ${'error' in a ? a.error : ''} ${'error' in b ? b.error : ''}`);
+          return;
+        }
+        if (a.rate > now.rate) now = a;
+        if (b.rate > then.rate) then = b;
+      }
+      console.log(`  λ=0+2 at lmaxTensor ${lmaxTensor}, ${384 * repeats} atoms: ${ref} ${then.rate.toFixed(0)} env per CPU-s, this tree ${now.rate.toFixed(0)}; ×${(now.rate / then.rate).toFixed(2)}; ` +
+        `features ${now.hash === then.hash ? 'bit-identical (same hash)' : 'DIFFER'}`);
+    }
+  } finally {
+    base.remove();
   }
 }
 

@@ -723,7 +723,8 @@ export function featurise(
 /**
  * Features of every centre of `frame` (atoms whose species is in settings.centres, in atom order). λ = 0 is
  * always computed (tensor kernels need it too); `lambdas` adds 1 and/or 2. `neighbours` may be passed when the
- * caller already has a list built with at least settings.cutoff (pairs beyond the cutoff are ignored).
+ * caller already has a list built with at least settings.cutoff (pairs beyond the cutoff are ignored). `reuse`:
+ * an earlier result the caller no longer needs, whose arrays are written over when their sizes fit.
  */
 export function computeFeatures(
   frame: Frame,
@@ -731,13 +732,18 @@ export function computeFeatures(
   lambdas: Lambda[] = [0],
   neighbours?: NeighbourPairs,
   timings?: FeatureTimings,
+  reuse?: EnvironmentFeatures,
 ): EnvironmentFeatures {
   const prep = prepare(frame, settings, lambdas, neighbours, timings);
   const { P } = prep;
   const count = prep.centres.length;
-  const scalar = new Float64Array(count * P.n0);
-  const tensorOut = P.tensors.map((T) => new Float64Array(count * (2 * T.lambda + 1) * T.n));
-  const norms = new Float64Array(count);
+  // An earlier result's arrays when they have the sizes needed (every number is overwritten): writing into
+  // memory already in use saves the operating system's zeroing of fresh pages, a good share of the time at
+  // λ = 2 (30 MB of output per 384-atom frame at lmaxTensor 6).
+  const fits = (a: Float64Array | undefined, length: number) => (a !== undefined && a.length === length ? a : undefined);
+  const scalar = fits(reuse?.scalar, count * P.n0) ?? new Float64Array(count * P.n0);
+  const tensorOut = P.tensors.map((T) => fits(reuse?.tensor[T.lambda]?.data, count * (2 * T.lambda + 1) * T.n) ?? new Float64Array(count * (2 * T.lambda + 1) * T.n));
+  const norms = fits(reuse?.norms, count) ?? new Float64Array(count);
   featurise(prep, scalar, (e) => e, tensorSteps(P, tensorOut), null, timings, norms);
   const tensor: EnvironmentFeatures['tensor'] = {};
   P.tensors.forEach((T, k) => {
