@@ -15,7 +15,8 @@
 import { gaussLegendre } from '../numerics/quadrature.ts';
 import { radialBasis, type RadialBasis } from './radial-basis.ts';
 import { scaledSphericalBesselI } from './spherical-bessel.ts';
-import { realSphericalHarmonics } from './harmonics.ts';
+import { harmonicsAt, realSphericalHarmonics } from './harmonics.ts';
+import { descriptorKernels, type DescriptorKernels } from '../wasm/descriptors.ts';
 
 /** Smooth cutoff f_c(r): 1 below cutoff − width, cosine switch to 0 at cutoff. */
 export function cutoffFunction(r: number, cutoff: number, width: number): number {
@@ -308,10 +309,82 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const intervals = table.intervals;
   const invSpacing = 1 / table.spacing;
 
+  // The WebAssembly path (core/wasm/assembly/descriptors.ts expandAccumulate): every pair's harmonics and weighted
+  // radial integrals computed here as below, side by side in the kernels' memory, then the sums there, four pairs
+  // per pass, each in pair order: the same bits. Its region: self term, output, sums, then room for `room` pairs.
+  const owner = {};
+  let room = 0;
+  let placed: { at: number; generation: number; kernels: DescriptorKernels; Y: Float64Array; R: Float64Array; chan: Int32Array; out: Float64Array } | null = null;
+  const fixedBytes = 16 * Math.ceil((nmax + 2 * size) / 2);
+  const place = (K: DescriptorKernels, count: number) => {
+    if (placed && placed.kernels === K && count <= room && placed.Y.length !== 0) {
+      const r = K.region(owner, fixedBytes + room * (LL + NL + 1) * 8);
+      if (r && r.at === placed.at && r.generation === placed.generation) return placed;
+    }
+    room = Math.max(room, count, 64);
+    const r = K.region(owner, fixedBytes + room * (LL + NL + 1) * 8);
+    if (r === null) return null;
+    const at = r.at;
+    K.module.f64(at, nmax).set(selfTerm);
+    const yAt = at + fixedBytes;
+    const rAt = yAt + room * LL * 8;
+    const chanAt = rAt + room * NL * 8;
+    placed = {
+      at,
+      generation: r.generation,
+      kernels: K,
+      Y: K.module.f64(yAt, room * LL),
+      R: K.module.f64(rAt, room * NL),
+      chan: new Int32Array(K.module.f64(0, 0).buffer, chanAt, room),
+      out: K.module.f64(at + nmax * 8, size),
+    };
+    return placed;
+  };
+  const expandKernel = (K: DescriptorKernels, pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): boolean => {
+    const { start, neighbour, vectors, distances } = pairs;
+    const from = start[centre];
+    const count = start[centre + 1] - from;
+    const at = place(K, count);
+    if (at === null) return false;
+    const { Y: Yb, R: Rb, chan } = at;
+    const coef = byDegree, cut = cutoff, inn = inner, sw = switchScale, inv = invSpacing, last = intervals;
+    for (let q = 0; q < count; q++) {
+      const p = from + q;
+      const d = distances[p];
+      chan[q] = -1;
+      if (!(d < cut)) continue;
+      const a = channelOf[neighbour[p]];
+      if (a < 0) continue;
+      chan[q] = a;
+      harmonicsAt(lmax, vectors[3 * p], vectors[3 * p + 1], vectors[3 * p + 2], Yb, q * LL);
+      const w = d <= inn ? FOUR_PI : FOUR_PI * 0.5 * (1 + Math.cos(sw * (d - inn)));
+      const u = d * inv;
+      let k = Math.floor(u);
+      if (k >= last) k = last - 1;
+      const t = u - k;
+      const t2 = t * t, t3 = t2 * t;
+      const q0 = k * 4 * NL;
+      const r0 = q * NL;
+      for (let j = 0; j < NL; j++) {
+        const o = q0 + 4 * j;
+        Rb[r0 + j] = w * (coef[o] + t * coef[o + 1] + t2 * coef[o + 2] + t3 * coef[o + 3]);
+      }
+    }
+    const yAt = at.at + fixedBytes;
+    const rAt = yAt + room * LL * 8;
+    const chanAt = rAt + room * NL * 8;
+    const idxAt = chanAt + room * 4;
+    K.expandAccumulate(yAt, rAt, chanAt, count, nmax, lmax, channels, idxAt, at.at + (nmax + size) * 8, at.at + nmax * 8, at.at, centreChannel);
+    out.set(at.out);
+    return true;
+  };
+
   return {
     settings: { ...s },
     size,
     expand(pairs, centre, centreChannel, channelOf, out) {
+      const K = descriptorKernels();
+      if (K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, out)) return;
       // Locals, not closure slots, in the loop (V8 keeps them in registers).
       const coef = byDegree, Yl = Y, rl = radial, acc = work, cut = cutoff, inn = inner, sw = switchScale, inv = invSpacing, last = intervals;
       acc.fill(0);

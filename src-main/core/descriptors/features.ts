@@ -455,55 +455,58 @@ interface KernelLayout {
   views: { cT: Float64Array; out: Float64Array[] } | null;
 }
 
-const layouts = new Map<Plan, KernelLayout>();
-let layoutTop = -1;
-let layoutModule: DescriptorKernels['module'] | null = null;
+const layouts = new WeakMap<Plan, KernelLayout & { at: number; bytes: number; generation: number }>();
 
 /**
- * The plan's tables placed in the descriptor kernels' memory (once per plan and thread), or null when the
- * WebAssembly kernels are off or unavailable. Plans are placed one after another; when more than the plan cache
- * holds have been placed, the memory is laid out afresh.
+ * The plan's tables placed in the descriptor kernels' memory (a region of its own, filled once per plan and
+ * thread), or null when the WebAssembly kernels are off or unavailable.
  */
 function kernelLayout(P: Plan): KernelLayout | null {
   const kernels = descriptorKernels();
   if (kernels === null) return null;
   const hit = layouts.get(P);
-  if (hit && layoutModule === kernels.module) return hit;
-  if (layoutModule !== kernels.module || layouts.size >= PLAN_CACHE_SIZE) {
-    layouts.clear();
-    layoutModule = kernels.module;
-    layoutTop = kernels.module.heapBase;
+  if (hit && hit.kernels === kernels) {
+    const r = kernels.region(P, hit.bytes);
+    if (r && r.at === hit.at && r.generation === hit.generation) return hit;
   }
-  let top = layoutTop;
+  let top = 0;
   const take = (bytes: number): number => {
     const at = top;
     top += Math.ceil(bytes / 16) * 16;
     return at;
   };
   const lmaxT = P.tensorBase.length - 1;
-  const cTFrom = top;
   const cT = Array.from({ length: lmaxT + 1 }, (_, l) => take((2 * l + 1) * P.tch * 8));
-  const cTLength = (top - cTFrom) / 8;
+  const cTLength = top / 8;
   const half = take(P.half.length * 8);
-  const tables: { at: number; data: Int32Array | Float64Array }[] = [];
   const tensors = P.tensors.map((T) => ({
     out: take((2 * T.lambda + 1) * T.n * 8),
-    blocks: T.blocks.map((b) => {
-      const gStart = take(b.gatherStart.length * 4);
-      const gIdx = take(b.gatherIndex.length * 4);
-      const gVal = take(b.gatherValue.length * 8);
-      tables.push({ at: gStart, data: b.gatherStart }, { at: gIdx, data: b.gatherIndex }, { at: gVal, data: b.gatherValue });
-      return { gStart, gIdx, gVal };
-    }),
+    blocks: T.blocks.map((b) => ({ gStart: take(b.gatherStart.length * 4), gIdx: take(b.gatherIndex.length * 4), gVal: take(b.gatherValue.length * 8) })),
   }));
-  if (!kernels.module.reserve(top - kernels.module.heapBase)) return null;
+  const region = kernels.region(P, top);
+  if (region === null) return null;
+  const at = region.at;
   const memory = kernels.module.f64(0, 0).buffer;
-  for (const t of tables) {
-    if (t.data instanceof Int32Array) new Int32Array(memory, t.at, t.data.length).set(t.data);
-    else new Float64Array(memory, t.at, t.data.length).set(t.data);
-  }
-  layoutTop = top;
-  const layout: KernelLayout = { kernels, cT, cTFrom, cTLength, half, tensors, views: null };
+  P.tensors.forEach((T, k) => {
+    T.blocks.forEach((b, j) => {
+      const g = tensors[k].blocks[j];
+      new Int32Array(memory, at + g.gStart, b.gatherStart.length).set(b.gatherStart);
+      new Int32Array(memory, at + g.gIdx, b.gatherIndex.length).set(b.gatherIndex);
+      new Float64Array(memory, at + g.gVal, b.gatherValue.length).set(b.gatherValue);
+    });
+  });
+  const layout = {
+    kernels,
+    cT: cT.map((o) => at + o),
+    cTFrom: at + cT[0],
+    cTLength,
+    half: at + half,
+    tensors: tensors.map((t) => ({ out: at + t.out, blocks: t.blocks.map((g) => ({ gStart: at + g.gStart, gIdx: at + g.gIdx, gVal: at + g.gVal })) })),
+    views: null,
+    at,
+    bytes: top,
+    generation: region.generation,
+  };
   layouts.set(P, layout);
   return layout;
 }

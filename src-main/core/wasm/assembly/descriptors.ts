@@ -166,3 +166,108 @@ export function normalise(x: usize, len: i32): f64 {
   }
   return s;
 }
+
+/**
+ * The density expansion's accumulation for one centre (core/descriptors/density.ts): with y_p = Y[p·LL + lm] the
+ * harmonics and r_p = R[p·NL + l·nmax + n] the weighted radial integrals of pair p (p < count, of channel chan[p];
+ * −1 for pairs left out), acc[(a·LL + lm)·nmax + n] = Σ_p y_p r_p over the pairs of channel a in pair order (each
+ * sum from zero; four pairs per pass over the accumulators, two n per vector), then written to
+ * out[(a·nmax + n)·LL + lm] with selfTerm[n] added to the l = 0 slot of channel centreChannel (when ≥ 0).
+ * idx: scratch for count Int32 pair indices; acc: scratch for channels·LL·nmax doubles.
+ */
+export function expandAccumulate(Y: usize, R: usize, chan: usize, count: i32, nmax: i32, lmax: i32, channels: i32, idx: usize, acc: usize, out: usize, selfTerm: usize, centreChannel: i32): void {
+  const L1 = lmax + 1;
+  const LL = L1 * L1;
+  const NL = nmax * L1;
+  const size = channels * LL * nmax;
+  memory.fill(acc, 0, <usize>size << 3);
+  const pairBytesY = <usize>LL << 3;
+  const pairBytesR = <usize>NL << 3;
+  const nv = nmax & ~1;
+  for (let a = 0; a < channels; a++) {
+    // this channel's pairs, in order
+    let np = 0;
+    for (let p = 0; p < count; p++) {
+      if (load<i32>(chan + (<usize>p << 2)) == a) {
+        store<i32>(idx + (<usize>np << 2), p);
+        np++;
+      }
+    }
+    const base = acc + (<usize>(a * LL * nmax) << 3);
+    let q = 0;
+    for (; q + 3 < np; q += 4) {
+      const p0 = <usize>load<i32>(idx + (<usize>q << 2));
+      const p1 = <usize>load<i32>(idx + (<usize>(q + 1) << 2));
+      const p2 = <usize>load<i32>(idx + (<usize>(q + 2) << 2));
+      const p3 = <usize>load<i32>(idx + (<usize>(q + 3) << 2));
+      const y0 = Y + p0 * pairBytesY, y1 = Y + p1 * pairBytesY, y2 = Y + p2 * pairBytesY, y3 = Y + p3 * pairBytesY;
+      const r0 = R + p0 * pairBytesR, r1 = R + p1 * pairBytesR, r2 = R + p2 * pairBytesR, r3 = R + p3 * pairBytesR;
+      for (let l = 0; l <= lmax; l++) {
+        const rb = <usize>(l * nmax) << 3;
+        const hi = (l + 1) * (l + 1);
+        for (let lm = l * l; lm < hi; lm++) {
+          const yo = <usize>lm << 3;
+          const v0 = v128.load64_splat(y0 + yo), v1 = v128.load64_splat(y1 + yo), v2 = v128.load64_splat(y2 + yo), v3 = v128.load64_splat(y3 + yo);
+          const s0 = load<f64>(y0 + yo), s1 = load<f64>(y1 + yo), s2 = load<f64>(y2 + yo), s3 = load<f64>(y3 + yo);
+          const ob = base + (<usize>(lm * nmax) << 3);
+          let n = 0;
+          for (; n < nv; n += 2) {
+            const no = <usize>n << 3;
+            let x = v128.load(ob + no);
+            x = f64x2.add(x, f64x2.mul(v0, v128.load(r0 + rb + no)));
+            x = f64x2.add(x, f64x2.mul(v1, v128.load(r1 + rb + no)));
+            x = f64x2.add(x, f64x2.mul(v2, v128.load(r2 + rb + no)));
+            x = f64x2.add(x, f64x2.mul(v3, v128.load(r3 + rb + no)));
+            v128.store(ob + no, x);
+          }
+          if (n < nmax) {
+            const no = <usize>n << 3;
+            let x = load<f64>(ob + no);
+            x += s0 * load<f64>(r0 + rb + no);
+            x += s1 * load<f64>(r1 + rb + no);
+            x += s2 * load<f64>(r2 + rb + no);
+            x += s3 * load<f64>(r3 + rb + no);
+            store<f64>(ob + no, x);
+          }
+        }
+      }
+    }
+    for (; q < np; q++) {
+      const p0 = <usize>load<i32>(idx + (<usize>q << 2));
+      const y0 = Y + p0 * pairBytesY;
+      const r0 = R + p0 * pairBytesR;
+      for (let l = 0; l <= lmax; l++) {
+        const rb = <usize>(l * nmax) << 3;
+        const hi = (l + 1) * (l + 1);
+        for (let lm = l * l; lm < hi; lm++) {
+          const yo = <usize>lm << 3;
+          const v0 = v128.load64_splat(y0 + yo);
+          const s0 = load<f64>(y0 + yo);
+          const ob = base + (<usize>(lm * nmax) << 3);
+          let n = 0;
+          for (; n < nv; n += 2) {
+            const no = <usize>n << 3;
+            v128.store(ob + no, f64x2.add(v128.load(ob + no), f64x2.mul(v0, v128.load(r0 + rb + no))));
+          }
+          if (n < nmax) {
+            const no = <usize>n << 3;
+            store<f64>(ob + no, load<f64>(ob + no) + s0 * load<f64>(r0 + rb + no));
+          }
+        }
+      }
+    }
+  }
+  // back to the public layout (a·nmax + n)·LL + lm, plus the centre's own Gaussian
+  for (let a = 0; a < channels; a++) {
+    for (let lm = 0; lm < LL; lm++) {
+      const src = acc + (<usize>((a * LL + lm) * nmax) << 3);
+      for (let n = 0; n < nmax; n++) store<f64>(out + (<usize>((a * nmax + n) * LL + lm) << 3), load<f64>(src + (<usize>n << 3)));
+    }
+  }
+  if (centreChannel >= 0) {
+    for (let n = 0; n < nmax; n++) {
+      const at = out + (<usize>((centreChannel * nmax + n) * LL) << 3);
+      store<f64>(at, load<f64>(at) + load<f64>(selfTerm + (<usize>n << 3)));
+    }
+  }
+}
