@@ -317,6 +317,23 @@ export function normalise(x: Float64Array, from: number, to: number): number {
  * test/helpers/reference-kernels.ts, which the tests compare against).
  */
 export function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number): number {
+  const L = kernelLayout(P);
+  if (L !== null) {
+    // the WebAssembly kernel: every sum in the same order, then the norm summed in index order, so the same bits
+    const views = kernelViews(L, P);
+    const nch = P.settings.species.length * P.settings.nmax;
+    views.c.set(c.length === P.expander.size ? c : c.subarray(0, P.expander.size));
+    L.kernels.transposeChannels(L.c, L.allBase, nch, P.settings.lmax, L.cTall);
+    L.kernels.powerSpectrumRow(L.cTall, nch, P.settings.lmax, L.invSqrt, L.row);
+    const norm = L.kernels.normalise(L.row, P.n0);
+    out.set(views.row, at);
+    return norm;
+  }
+  return powerSpectrumPlain(P, c, out, at);
+}
+
+/** powerSpectrum in JavaScript: the fallback where the WebAssembly kernels are off or missing, and their oracle. */
+export function powerSpectrumPlain(P: Plan, c: Float64Array, out: Float64Array, at: number): number {
   const { pw, invSqrt, LL } = P;
   const lmax = P.settings.lmax;
   const L1 = lmax + 1;
@@ -450,9 +467,17 @@ interface KernelLayout {
   cTFrom: number;
   cTLength: number;
   half: number;
+  /** A copy of one environment's coefficients; channel offsets (Int32) of the tensor channels and of all channels. */
+  c: number;
+  tensorBase: number;
+  allBase: number;
+  /** All channels' coefficients transposed (cTall_l at + nch·l² doubles), (2l+1)^(−1/2), and the λ = 0 row. */
+  cTall: number;
+  invSqrt: number;
+  row: number;
   /** Per tensor plan: its output block (nM·n doubles) and per block the gather tables. */
   tensors: { out: number; blocks: { gStart: number; gIdx: number; gVal: number }[] }[];
-  views: { cT: Float64Array; out: Float64Array[] } | null;
+  views: { c: Float64Array; row: Float64Array; out: Float64Array[] } | null;
 }
 
 const layouts = new WeakMap<Plan, KernelLayout & { at: number; bytes: number; generation: number }>();
@@ -476,9 +501,16 @@ function kernelLayout(P: Plan): KernelLayout | null {
     return at;
   };
   const lmaxT = P.tensorBase.length - 1;
-  const cT = Array.from({ length: lmaxT + 1 }, (_, l) => take((2 * l + 1) * P.tch * 8));
-  const cTLength = top / 8;
+  const nch = P.settings.species.length * P.settings.nmax;
+  const cTBlock = take(P.tch * (lmaxT + 1) * (lmaxT + 1) * 8);
+  const cTLength = P.tch * (lmaxT + 1) * (lmaxT + 1);
   const half = take(P.half.length * 8);
+  const cAt = take(P.expander.size * 8);
+  const tensorBase = take(P.tch * 4);
+  const allBase = take(nch * 4);
+  const cTall = take(nch * P.LL * 8);
+  const invSqrt = take(P.invSqrt.length * 8);
+  const row = take(P.n0 * 8);
   const tensors = P.tensors.map((T) => ({
     out: take((2 * T.lambda + 1) * T.n * 8),
     blocks: T.blocks.map((b) => ({ gStart: take(b.gatherStart.length * 4), gIdx: take(b.gatherIndex.length * 4), gVal: take(b.gatherValue.length * 8) })),
@@ -495,12 +527,21 @@ function kernelLayout(P: Plan): KernelLayout | null {
       new Float64Array(memory, at + g.gVal, b.gatherValue.length).set(b.gatherValue);
     });
   });
+  new Int32Array(memory, at + tensorBase, P.tch).set(P.tensorChannel.map((ch) => ch * P.LL));
+  new Int32Array(memory, at + allBase, nch).set(Int32Array.from({ length: nch }, (_, ch) => ch * P.LL));
+  new Float64Array(memory, at + invSqrt, P.invSqrt.length).set(P.invSqrt);
   const layout = {
     kernels,
-    cT: cT.map((o) => at + o),
-    cTFrom: at + cT[0],
+    cT: Array.from({ length: lmaxT + 1 }, (_, l) => at + cTBlock + P.tch * l * l * 8),
+    cTFrom: at + cTBlock,
     cTLength,
     half: at + half,
+    c: at + cAt,
+    tensorBase: at + tensorBase,
+    allBase: at + allBase,
+    cTall: at + cTall,
+    invSqrt: at + invSqrt,
+    row: at + row,
     tensors: tensors.map((t) => ({ out: at + t.out, blocks: t.blocks.map((g) => ({ gStart: at + g.gStart, gIdx: at + g.gIdx, gVal: at + g.gVal })) })),
     views: null,
     at,
@@ -511,28 +552,29 @@ function kernelLayout(P: Plan): KernelLayout | null {
   return layout;
 }
 
-/** tensorFeatures in the WebAssembly kernels: the same operations in the same order, so the same bits. */
-function tensorFeaturesKernel(L: KernelLayout, P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
-  const { kernels, tch } = { kernels: L.kernels, tch: P.tch };
+/** Views of the layout's buffers (made afresh when growing the memory has detached them). */
+function kernelViews(L: KernelLayout, P: Plan): NonNullable<KernelLayout['views']> {
   let views = L.views;
-  if (views === null || views.cT.length === 0) {
+  if (views === null || views.c.length === 0) {
+    const m = L.kernels.module;
     views = {
-      cT: kernels.module.f64(L.cTFrom, L.cTLength),
-      out: P.tensors.map((U, k) => kernels.module.f64(L.tensors[k].out, (2 * U.lambda + 1) * U.n)),
+      c: m.f64(L.c, P.expander.size),
+      row: m.f64(L.row, P.n0),
+      out: P.tensors.map((U, k) => m.f64(L.tensors[k].out, (2 * U.lambda + 1) * U.n)),
     };
     L.views = views;
   }
+  return views;
+}
+
+/** tensorFeatures in the WebAssembly kernels: the same operations in the same order, so the same bits. */
+function tensorFeaturesKernel(L: KernelLayout, P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
+  const kernels = L.kernels;
+  const tch = P.tch;
+  const views = kernelViews(L, P);
   const k = P.tensors.indexOf(T);
-  const cTv = views.cT;
-  for (let l = 0; l < L.cT.length; l++) {
-    const at = (L.cT[l] - L.cTFrom) / 8;
-    const w = 2 * l + 1;
-    const base = P.tensorBase[l];
-    for (let ch = 0; ch < tch; ch++) {
-      const o = base[ch];
-      for (let m = 0; m < w; m++) cTv[at + m * tch + ch] = c[o + m];
-    }
-  }
+  views.c.set(c.length === P.expander.size ? c : c.subarray(0, P.expander.size));
+  kernels.transposeChannels(L.c, L.tensorBase, tch, L.cT.length - 1, L.cTFrom);
   const nM = 2 * T.lambda + 1;
   const n = T.n;
   const region = L.tensors[k];

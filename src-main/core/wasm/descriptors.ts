@@ -26,6 +26,10 @@ export interface DescriptorKernels {
    * one on later calls while it is large enough. `generation` changes when the memory is laid out afresh (every
    * region is then new and its contents must be written again); null when the memory cannot grow that far.
    */
+  /** dst_l[m·K + k] = c[base[k] + l² + m] for l ≤ lmax (dst_l = dst + K·l² doubles; base: K Int32 offsets). */
+  transposeChannels(c: number, base: number, K: number, lmax: number, dst: number): void;
+  /** The λ = 0 row of one environment, unnormalised, from cT of all nch channels (transposeChannels). */
+  powerSpectrumRow(cT: number, nch: number, lmax: number, invSqrt: number, out: number): void;
   region(owner: object, bytes: number): { at: number; generation: number } | null;
 }
 
@@ -63,6 +67,8 @@ export function descriptorKernels(): DescriptorKernels | null {
       module,
       region,
       expandAccumulate: e.expandAccumulate as DescriptorKernels['expandAccumulate'],
+      transposeChannels: e.transposeChannels as DescriptorKernels['transposeChannels'],
+      powerSpectrumRow: e.powerSpectrumRow as DescriptorKernels['powerSpectrumRow'],
       coupleSame: e.coupleSame as DescriptorKernels['coupleSame'],
       coupleCross: e.coupleCross as DescriptorKernels['coupleCross'],
       normalise: e.normalise as DescriptorKernels['normalise'],

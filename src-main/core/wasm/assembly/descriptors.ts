@@ -271,3 +271,97 @@ export function expandAccumulate(Y: usize, R: usize, chan: usize, count: i32, nm
     }
   }
 }
+
+/**
+ * dst_l[m·K + k] = c[base[k] + l² + m] for l ≤ lmax, m ≤ 2l, k < K, with dst_l = dst + K·l² doubles: the coefficients
+ * of K channels (base: Int32 offsets of each channel's block in c) transposed per degree.
+ */
+export function transposeChannels(c: usize, base: usize, K: i32, lmax: i32, dst: usize): void {
+  for (let l = 0; l <= lmax; l++) {
+    const w = 2 * l + 1;
+    const d = dst + (<usize>(K * l * l) << 3);
+    for (let k = 0; k < K; k++) {
+      const src = c + (<usize>(load<i32>(base + (<usize>k << 2)) + l * l) << 3);
+      for (let m = 0; m < w; m++) store<f64>(d + (<usize>(m * K + k) << 3), load<f64>(src + (<usize>m << 3)));
+    }
+  }
+}
+
+/**
+ * The λ = 0 row of one environment, unnormalised (core/descriptors/features.ts powerSpectrum): for channel pairs
+ * c1 ≤ c2 (c1 outer) and l ≤ lmax, out[pair·(lmax+1) + l] = (w·invSqrt[l]) · Σ_m c_{c1,lm} c_{c2,lm}, w = 1 for
+ * c1 = c2 and √2 otherwise, each sum from zero in m order; cT the coefficients of all nch channels transposed
+ * (transposeChannels).
+ */
+export function powerSpectrumRow(cT: usize, nch: i32, lmax: i32, invSqrt: usize, out: usize): void {
+  const L1 = lmax + 1;
+  const rowBytes = <usize>nch << 3;
+  const pairStep = <usize>L1 << 3;
+  let f = out;
+  for (let c1 = 0; c1 < nch; c1++) {
+    const count = nch - c1;
+    for (let l = 0; l <= lmax; l++) {
+      const w = 2 * l + 1;
+      const v = load<f64>(invSqrt + (<usize>l << 3));
+      const wv = Math.SQRT2 * v;
+      const vwv = f64x2.splat(wv);
+      const cl = cT + (<usize>(nch * l * l) << 3);
+      const a = cl + (<usize>c1 << 3);
+      let o = f + (<usize>l << 3);
+      let j = 0;
+      for (; j + 7 < count; j += 8) {
+        let s0 = f64x2.splat(0);
+        let s1 = f64x2.splat(0);
+        let s2 = f64x2.splat(0);
+        let s3 = f64x2.splat(0);
+        let col = cl + (<usize>(c1 + j) << 3);
+        let am = a;
+        for (let m = 0; m < w; m++) {
+          const x = v128.load64_splat(am);
+          s0 = f64x2.add(s0, f64x2.mul(x, v128.load(col)));
+          s1 = f64x2.add(s1, f64x2.mul(x, v128.load(col, 16)));
+          s2 = f64x2.add(s2, f64x2.mul(x, v128.load(col, 32)));
+          s3 = f64x2.add(s3, f64x2.mul(x, v128.load(col, 48)));
+          col += rowBytes;
+          am += rowBytes;
+        }
+        const r0 = f64x2.mul(vwv, s0), r1 = f64x2.mul(vwv, s1), r2 = f64x2.mul(vwv, s2), r3 = f64x2.mul(vwv, s3);
+        store<f64>(o, j == 0 ? v * f64x2.extract_lane(s0, 0) : f64x2.extract_lane(r0, 0));
+        store<f64>(o + pairStep, f64x2.extract_lane(r0, 1));
+        store<f64>(o + 2 * pairStep, f64x2.extract_lane(r1, 0));
+        store<f64>(o + 3 * pairStep, f64x2.extract_lane(r1, 1));
+        store<f64>(o + 4 * pairStep, f64x2.extract_lane(r2, 0));
+        store<f64>(o + 5 * pairStep, f64x2.extract_lane(r2, 1));
+        store<f64>(o + 6 * pairStep, f64x2.extract_lane(r3, 0));
+        store<f64>(o + 7 * pairStep, f64x2.extract_lane(r3, 1));
+        o += 8 * pairStep;
+      }
+      for (; j + 1 < count; j += 2) {
+        let s0 = f64x2.splat(0);
+        let col = cl + (<usize>(c1 + j) << 3);
+        let am = a;
+        for (let m = 0; m < w; m++) {
+          s0 = f64x2.add(s0, f64x2.mul(v128.load64_splat(am), v128.load(col)));
+          col += rowBytes;
+          am += rowBytes;
+        }
+        const r0 = f64x2.mul(vwv, s0);
+        store<f64>(o, j == 0 ? v * f64x2.extract_lane(s0, 0) : f64x2.extract_lane(r0, 0));
+        store<f64>(o + pairStep, f64x2.extract_lane(r0, 1));
+        o += 2 * pairStep;
+      }
+      if (j < count) {
+        let s: f64 = 0;
+        let col = cl + (<usize>(c1 + j) << 3);
+        let am = a;
+        for (let m = 0; m < w; m++) {
+          s += load<f64>(am) * load<f64>(col);
+          col += rowBytes;
+          am += rowBytes;
+        }
+        store<f64>(o, (j == 0 ? v : wv) * s);
+      }
+    }
+    f += <usize>count * pairStep;
+  }
+}
