@@ -41,6 +41,12 @@ function coefficients(lmax: number): Coefficients {
 
 const INV_SQRT_4PI = 1 / Math.sqrt(4 * Math.PI);
 
+/** The recurrence tables up to lmax and Y_00, for kernels that evaluate the same recurrences (wasm/assembly/descriptors.ts pairTerms). */
+export function harmonicTables(lmax: number): { a: Float64Array; b: Float64Array; diag: Float64Array; y00: number } {
+  const { a, b, diag } = coefficients(lmax);
+  return { a, b, diag, y00: INV_SQRT_4PI };
+}
+
 /** Number of real harmonics up to and including lmax: (lmax+1)². */
 export function harmonicCount(lmax: number): number {
   return (lmax + 1) * (lmax + 1);

@@ -26,6 +26,12 @@ export interface DescriptorKernels {
    * one on later calls while it is large enough. `generation` changes when the memory is laid out afresh (every
    * region is then new and its contents must be written again); null when the memory cannot grow that far.
    */
+  /**
+   * Every pair's harmonics Y and weighted radial integrals R for expandAccumulate from its parameters (8 doubles per
+   * pair: x, y, z, r, w, interval, t; chan < 0: skipped), the harmonics' recurrence tables and the reordered radial
+   * table coef.
+   */
+  pairTerms(par: number, chan: number, count: number, lmax: number, NL: number, a: number, b: number, diag: number, y00: number, coef: number, Y: number, R: number): void;
   /** dst_l[m·K + k] = c[base[k] + l² + m] for l ≤ lmax (dst_l = dst + K·l² doubles; base: K Int32 offsets). */
   transposeChannels(c: number, base: number, K: number, lmax: number, dst: number): void;
   /** The λ = 0 row of one environment, unnormalised, from cT of all nch channels (transposeChannels). */
@@ -67,6 +73,7 @@ export function descriptorKernels(): DescriptorKernels | null {
       module,
       region,
       expandAccumulate: e.expandAccumulate as DescriptorKernels['expandAccumulate'],
+      pairTerms: e.pairTerms as DescriptorKernels['pairTerms'],
       transposeChannels: e.transposeChannels as DescriptorKernels['transposeChannels'],
       powerSpectrumRow: e.powerSpectrumRow as DescriptorKernels['powerSpectrumRow'],
       coupleSame: e.coupleSame as DescriptorKernels['coupleSame'],

@@ -365,3 +365,72 @@ export function powerSpectrumRow(cT: usize, nch: i32, lmax: i32, invSqrt: usize,
     f += <usize>count * pairStep;
   }
 }
+
+/**
+ * Every pair's harmonics and weighted radial integrals for expandAccumulate (core/descriptors/density.ts): pair p's
+ * parameters at par[8p…]: x, y, z (its vector), r (|vector| as Math.hypot gives it), w (the cutoff weight 4π f_c),
+ * k (the table's interval), t (the position in it); pairs with chan[p] < 0 are skipped. Y[p·LL + l² + l + m]: the
+ * real harmonics by the recurrences of harmonics.ts (tables: a, b at l(l+1)/2 + m, diag at m; y00 = 1/√(4π));
+ * R[p·NL + j] = w · (c0 + t c1 + t² c2 + t³ c3) from the reordered table coef[(k·NL + j)·4 + power].
+ */
+export function pairTerms(par: usize, chan: usize, count: i32, lmax: i32, NL: i32, a: usize, b: usize, diag: usize, y00: f64, coef: usize, Y: usize, R: usize): void {
+  const L1 = lmax + 1;
+  const LL = L1 * L1;
+  for (let p = 0; p < count; p++) {
+    if (load<i32>(chan + (<usize>p << 2)) < 0) continue;
+    const q = par + (<usize>p << 6);
+    const x = load<f64>(q), y = load<f64>(q, 8), z = load<f64>(q, 16), r = load<f64>(q, 24);
+    const w = load<f64>(q, 32), k = <i32>load<f64>(q, 40), t = load<f64>(q, 48);
+    const Yp = Y + (<usize>(p * LL) << 3);
+    store<f64>(Yp, y00);
+    if (lmax > 0) {
+      if (r == 0) {
+        for (let i = 1; i < LL; i++) store<f64>(Yp + (<usize>i << 3), 0);
+      } else {
+        const ux = x / r, uy = y / r, uz = z / r;
+        let pmm = y00;
+        let cm: f64 = 1, sm: f64 = 0;
+        for (let m = 0; m <= lmax; m++) {
+          if (m > 0) {
+            pmm *= load<f64>(diag + (<usize>m << 3));
+            const c = cm * ux - sm * uy;
+            sm = cm * uy + sm * ux;
+            cm = c;
+          }
+          const scaleC: f64 = m == 0 ? 1 : Math.SQRT2 * cm;
+          const scaleS = Math.SQRT2 * sm;
+          let p2 = pmm;
+          putHarmonic(Yp, m, m, p2, scaleC, scaleS);
+          if (m == lmax) break;
+          let p1 = Math.sqrt(<f64>(2 * m + 3)) * uz * pmm;
+          putHarmonic(Yp, m + 1, m, p1, scaleC, scaleS);
+          for (let l = m + 2; l <= lmax; l++) {
+            const kk = <usize>((l * (l + 1)) / 2 + m) << 3;
+            const v = load<f64>(a + kk) * (uz * p1 - load<f64>(b + kk) * p2);
+            putHarmonic(Yp, l, m, v, scaleC, scaleS);
+            p2 = p1;
+            p1 = v;
+          }
+        }
+      }
+    }
+    const t2 = t * t, t3 = t2 * t;
+    const c0 = coef + (<usize>(k * 4 * NL) << 3);
+    const Rp = R + (<usize>(p * NL) << 3);
+    for (let j = 0; j < NL; j++) {
+      const o = c0 + (<usize>j << 5);
+      store<f64>(Rp + (<usize>j << 3), w * (load<f64>(o) + t * load<f64>(o, 8) + t2 * load<f64>(o, 16) + t3 * load<f64>(o, 24)));
+    }
+  }
+}
+
+@inline
+function putHarmonic(Y: usize, l: i32, m: i32, p: f64, scaleC: f64, scaleS: f64): void {
+  const centre = l * l + l;
+  if (m == 0) {
+    store<f64>(Y + (<usize>centre << 3), p);
+  } else {
+    store<f64>(Y + (<usize>(centre + m) << 3), p * scaleC);
+    store<f64>(Y + (<usize>(centre - m) << 3), p * scaleS);
+  }
+}
