@@ -146,7 +146,7 @@ export async function run(): Promise<void> {
  * Cost per environment at 1536 atoms against 384 (λ = 0 + 2 at lmaxTensor 6), in one process, alternating: the
  * neighbour list alone, computeFeatures into fresh arrays, and into the arrays of the call before (as training).
  */
-function sizeScaling(): void {
+export function sizeScaling(): void {
   const settings = { ...benchSettings, lmaxTensor: benchSettings.lmax };
   const small = waterCell(1);
   const big = supercell(small, [2, 2, 1]);
