@@ -13,6 +13,7 @@ import { makeWeightMatrices, readOne, readoutScratch } from '../src-main/core/le
 import { makeRng } from '../src-main/core/numerics/random.ts';
 import { referenceDensityExpander, referencePowerSpectrum, referenceReadOne, referenceTensorFeatures } from '../test/helpers/reference-kernels.ts';
 import { waterLikeFrames } from './water-like.ts';
+import { descriptorKernels } from '../src-main/core/wasm/descriptors.ts';
 
 const ROUNDS = 25;
 const MIN_ROUND_MS = 40;
@@ -134,7 +135,7 @@ function readoutPair(prep: ReturnType<typeof prepare>, coefficients: Float64Arra
 export async function run(): Promise<void> {
   console.log(`kernels bench: ${cpus().length} cores, load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}, Node ${process.version}; ` +
     `one 384-atom water-like cell, r_c ${kernelSettings.cutoff} Å, nmax ${kernelSettings.nmax}, lmax ${kernelSettings.lmax}, λ=2 at lmaxTensor 4; ` +
-    `one thread, CPU time, best of ${ROUNDS} alternating rounds`);
+    `one thread, CPU time, best of ${ROUNDS} alternating rounds; "now" runs the WebAssembly kernels (${descriptorKernels() ? 'available here' : 'NOT available here: the JavaScript path'})`);
   const frame = waterLikeFrames(1, 99)[0];
   const prep = prepare(frame, kernelSettings, [0, 2], undefined, undefined);
   const coefficients = coefficientsOf(prep.P, prep);

@@ -8,6 +8,8 @@ import { modelFeaturiser, predictFrame, predictWithFeatures, trainModel } from '
 import { makeRng } from '../src-main/core/numerics/random.ts';
 import { waterLikeFrames } from './water-like.ts';
 import { describeSettings } from '../src-main/core/settings-table.ts';
+import { loadavg } from 'node:os';
+import { extractBaseline, rateChild, thisTree } from './baseline.ts';
 
 const FRAMES = Number(process.env.PW_BENCH_FRAMES ?? 200);
 
@@ -94,9 +96,44 @@ function cholesky(): void {
   }
 }
 
+/**
+ * Training at default settings on this tree and on `ref`, in alternating child processes (two rounds each): CPU and
+ * wall seconds, the ratios, and whether the two models hold the same numbers (a hash of everything but the date).
+ */
+export function trainingAgainstBaseline(ref: string, frames = FRAMES): void {
+  const base = extractBaseline(ref);
+  if (!base) return;
+  try {
+    type Run = { wall: number; cpu: number; peakMiB: number; hash: string };
+    const best = (runs: Run[]) => runs.reduce((a, b) => (b.cpu < a.cpu ? b : a));
+    const now: Run[] = [];
+    const then: Run[] = [];
+    for (let round = 0; round < 2; round++) {
+      for (const [root, into] of [[thisTree, now], [base.root, then]] as const) {
+        const r = rateChild<Run>(root, ['training', String(frames)]);
+        if ('error' in r) {
+          console.log(`  a child failed: ${r.error}`);
+          return;
+        }
+        into.push(r);
+      }
+    }
+    const a = best(now);
+    const b = best(then);
+    console.log(`training side by side with ${ref}, ${frames} frames × 384 atoms, defaults, one thread, best of 2 alternating processes (load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}):`);
+    console.log(`  ${ref}: ${b.cpu.toFixed(1)} s CPU, ${b.wall.toFixed(1)} s wall, peak ${b.peakMiB.toFixed(0)} MiB; this tree: ${a.cpu.toFixed(1)} s CPU, ${a.wall.toFixed(1)} s wall, peak ${a.peakMiB.toFixed(0)} MiB; ` +
+      `CPU ×${(b.cpu / a.cpu).toFixed(2)}; models ${a.hash === b.hash && now.every((r) => r.hash === a.hash) && then.every((r) => r.hash === b.hash) ? 'identical (same hash of every number)' : 'DIFFER'}`);
+  } finally {
+    base.remove();
+  }
+}
+
 export async function run(): Promise<void> {
   cholesky();
   await training();
+  const ref = process.env.PW_BENCH_BASELINE;
+  if (ref) trainingAgainstBaseline(ref);
+  else console.log('(set PW_BENCH_BASELINE=<git ref> to time training side by side with that ref)');
 }
 
 if (import.meta.url === pathToFileURL(process.argv[1] ?? '').href) await run();

@@ -15,7 +15,8 @@
 import { gaussLegendre } from '../numerics/quadrature.ts';
 import { radialBasis, type RadialBasis } from './radial-basis.ts';
 import { scaledSphericalBesselI } from './spherical-bessel.ts';
-import { realSphericalHarmonics } from './harmonics.ts';
+import { harmonicTables, realSphericalHarmonics } from './harmonics.ts';
+import { descriptorKernels, type DescriptorKernels } from '../wasm/descriptors.ts';
 
 /** Smooth cutoff f_c(r): 1 below cutoff − width, cosine switch to 0 at cutoff. */
 export function cutoffFunction(r: number, cutoff: number, width: number): number {
@@ -308,10 +309,99 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const intervals = table.intervals;
   const invSpacing = 1 / table.spacing;
 
+  // The WebAssembly path (core/wasm/assembly/descriptors.ts pairTerms and expandAccumulate): here each pair's
+  // channel, |vector| (Math.hypot), cutoff weight (Math.cos) and table interval as below; there its harmonics (the
+  // recurrences of harmonics.ts) and radial integrals with the same operations, then the sums, four pairs per pass,
+  // each in pair order: the same bits. Its region: the harmonics' tables, the radial table, self term, output,
+  // sums, then room for `room` pairs (parameters, harmonics, radial integrals, channel and index).
+  const owner = {};
+  const tables = harmonicTables(lmax);
+  let room = 0;
+  let placed: { at: number; generation: number; kernels: DescriptorKernels; par: Float64Array; chan: Int32Array; out: Float64Array } | null = null;
+  const align = (doubles: number) => 2 * Math.ceil(doubles / 2);
+  const aAt = 0;
+  const bAt = aAt + align(tables.a.length);
+  const diagAt = bAt + align(tables.b.length);
+  const coefAt = diagAt + align(tables.diag.length);
+  const selfAt = coefAt + align(byDegree.length);
+  const outAt = selfAt + align(nmax);
+  const accAt = outAt + align(size);
+  const fixedDoubles = accAt + align(size);
+  const perPair = 8 + LL + NL + 1;
+  const place = (K: DescriptorKernels, count: number) => {
+    if (placed && placed.kernels === K && count <= room && placed.par.length !== 0) {
+      const r = K.region(owner, (fixedDoubles + room * perPair) * 8);
+      if (r && r.at === placed.at && r.generation === placed.generation) return placed;
+    }
+    room = Math.max(room, count, 64);
+    const r = K.region(owner, (fixedDoubles + room * perPair) * 8);
+    if (r === null) return null;
+    const at = r.at;
+    K.module.f64(at + aAt * 8, tables.a.length).set(tables.a);
+    K.module.f64(at + bAt * 8, tables.b.length).set(tables.b);
+    K.module.f64(at + diagAt * 8, tables.diag.length).set(tables.diag);
+    K.module.f64(at + coefAt * 8, byDegree.length).set(byDegree);
+    K.module.f64(at + selfAt * 8, nmax).set(selfTerm);
+    const parAt = at + fixedDoubles * 8;
+    const chanAt = parAt + room * (8 + LL + NL) * 8;
+    placed = {
+      at,
+      generation: r.generation,
+      kernels: K,
+      par: K.module.f64(parAt, room * 8),
+      chan: new Int32Array(K.module.f64(0, 0).buffer, chanAt, room),
+      out: K.module.f64(at + outAt * 8, size),
+    };
+    return placed;
+  };
+  const expandKernel = (K: DescriptorKernels, pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): boolean => {
+    const { start, neighbour, vectors, distances } = pairs;
+    const from = start[centre];
+    const count = start[centre + 1] - from;
+    const at = place(K, count);
+    if (at === null) return false;
+    const { par, chan } = at;
+    const cut = cutoff, inn = inner, sw = switchScale, inv = invSpacing, last = intervals;
+    for (let q = 0; q < count; q++) {
+      const p = from + q;
+      const d = distances[p];
+      chan[q] = -1;
+      if (!(d < cut)) continue;
+      const a = channelOf[neighbour[p]];
+      if (a < 0) continue;
+      chan[q] = a;
+      const x = vectors[3 * p], y = vectors[3 * p + 1], z = vectors[3 * p + 2];
+      if (!(Number.isFinite(x) && Number.isFinite(y) && Number.isFinite(z))) realSphericalHarmonics(lmax, x, y, z, Y); // throws as the JavaScript path does
+      const o = 8 * q;
+      par[o] = x;
+      par[o + 1] = y;
+      par[o + 2] = z;
+      par[o + 3] = Math.hypot(x, y, z);
+      par[o + 4] = d <= inn ? FOUR_PI : FOUR_PI * 0.5 * (1 + Math.cos(sw * (d - inn)));
+      const u = d * inv;
+      let k = Math.floor(u);
+      if (k >= last) k = last - 1;
+      par[o + 5] = k;
+      par[o + 6] = u - k;
+    }
+    const parAt = at.at + fixedDoubles * 8;
+    const yAt = parAt + room * 8 * 8;
+    const rAt = yAt + room * LL * 8;
+    const chanAt = rAt + room * NL * 8;
+    const idxAt = chanAt + room * 4;
+    const base = at.at;
+    K.pairTerms(parAt, chanAt, count, lmax, NL, base + aAt * 8, base + bAt * 8, base + diagAt * 8, tables.y00, base + coefAt * 8, yAt, rAt);
+    K.expandAccumulate(yAt, rAt, chanAt, count, nmax, lmax, channels, idxAt, base + accAt * 8, base + outAt * 8, base + selfAt * 8, centreChannel);
+    out.set(at.out);
+    return true;
+  };
+
   return {
     settings: { ...s },
     size,
     expand(pairs, centre, centreChannel, channelOf, out) {
+      const K = descriptorKernels();
+      if (K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, out)) return;
       // Locals, not closure slots, in the loop (V8 keeps them in registers).
       const coef = byDegree, Yl = Y, rl = radial, acc = work, cut = cutoff, inn = inner, sw = switchScale, inv = invSpacing, last = intervals;
       acc.fill(0);

@@ -41,6 +41,12 @@ function coefficients(lmax: number): Coefficients {
 
 const INV_SQRT_4PI = 1 / Math.sqrt(4 * Math.PI);
 
+/** The recurrence tables up to lmax and Y_00, for kernels that evaluate the same recurrences (wasm/assembly/descriptors.ts pairTerms). */
+export function harmonicTables(lmax: number): { a: Float64Array; b: Float64Array; diag: Float64Array; y00: number } {
+  const { a, b, diag } = coefficients(lmax);
+  return { a, b, diag, y00: INV_SQRT_4PI };
+}
+
 /** Number of real harmonics up to and including lmax: (lmax+1)². */
 export function harmonicCount(lmax: number): number {
   return (lmax + 1) * (lmax + 1);
@@ -62,15 +68,25 @@ export function realSphericalHarmonics(lmax: number, x: number, y: number, z: nu
   const n = (lmax + 1) * (lmax + 1);
   const Y = out ?? new Float64Array(n);
   if (Y.length < n) throw new RangeError(`realSphericalHarmonics: output holds ${Y.length} values, lmax ${lmax} needs ${n}`);
+  harmonicsAt(lmax, x, y, z, Y, 0);
+  return Y;
+}
+
+/**
+ * realSphericalHarmonics into Y[at + l² + l + m] (the caller checks lmax and the room in Y): the same numbers, for
+ * the density expansion writing every pair's harmonics side by side.
+ */
+export function harmonicsAt(lmax: number, x: number, y: number, z: number, Y: Float64Array, at: number): void {
   if (!(Number.isFinite(x) && Number.isFinite(y) && Number.isFinite(z))) {
     throw new RangeError(`realSphericalHarmonics: non-finite direction (${x}, ${y}, ${z})`);
   }
+  const n = (lmax + 1) * (lmax + 1);
   const r = Math.hypot(x, y, z);
-  Y[0] = INV_SQRT_4PI;
-  if (lmax === 0) return Y;
+  Y[at] = INV_SQRT_4PI;
+  if (lmax === 0) return;
   if (r === 0) {
-    Y.fill(0, 1, n);
-    return Y;
+    Y.fill(0, at + 1, at + n);
+    return;
   }
   const ux = x / r, uy = y / r, uz = z / r;
   const { a, b, diag } = coefficients(lmax);
@@ -89,24 +105,23 @@ export function realSphericalHarmonics(lmax: number, x: number, y: number, z: nu
     const scaleS = Math.SQRT2 * sm;
     // l = m
     let p2 = pmm; // Ŷ_{l−2}^m
-    write(Y, m, m, p2, scaleC, scaleS);
+    write(Y, at, m, m, p2, scaleC, scaleS);
     if (m === lmax) break;
     // l = m + 1
     let p1 = Math.sqrt(2 * m + 3) * uz * pmm; // Ŷ_{l−1}^m
-    write(Y, m + 1, m, p1, scaleC, scaleS);
+    write(Y, at, m + 1, m, p1, scaleC, scaleS);
     for (let l = m + 2; l <= lmax; l++) {
       const k = (l * (l + 1)) / 2 + m;
       const p = a[k] * (uz * p1 - b[k] * p2);
-      write(Y, l, m, p, scaleC, scaleS);
+      write(Y, at, l, m, p, scaleC, scaleS);
       p2 = p1;
       p1 = p;
     }
   }
-  return Y;
 }
 
-function write(Y: Float64Array, l: number, m: number, p: number, scaleC: number, scaleS: number): void {
-  const centre = l * l + l;
+function write(Y: Float64Array, at: number, l: number, m: number, p: number, scaleC: number, scaleS: number): void {
+  const centre = at + l * l + l;
   if (m === 0) {
     Y[centre] = p;
   } else {

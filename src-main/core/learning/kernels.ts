@@ -120,14 +120,25 @@ export function structureKernel(a: EnvironmentFeatures, b: EnvironmentFeatures, 
  */
 export function linearDesignRows(feat: EnvironmentFeatures, order: Order, species: number): Float64Array {
   const v = blockView(feat, order);
-  const cols = species * v.n;
-  const rows = new Float64Array(v.width * cols);
+  // locals, not the view's fields, in the loop (V8 reloads fields after every typed-array store); each entry's
+  // sum still runs over the environments in order
+  const { data, n, width } = v;
+  const cols = species * n;
+  const rows = new Float64Array(width * cols);
+  const centreSpecies = feat.centreSpecies;
   for (let e = 0; e < feat.count; e++) {
-    const s = feat.centreSpecies[e];
-    for (let mu = 0; mu < v.width; mu++) {
-      const src = (e * v.width + mu) * v.n;
-      const dst = mu * cols + s * v.n;
-      for (let f = 0; f < v.n; f++) rows[dst + f] += v.data[src + f];
+    const s = centreSpecies[e];
+    for (let mu = 0; mu < width; mu++) {
+      const src = (e * width + mu) * n;
+      const dst = mu * cols + s * n;
+      let f = 0;
+      for (; f + 3 < n; f += 4) {
+        rows[dst + f] += data[src + f];
+        rows[dst + f + 1] += data[src + f + 1];
+        rows[dst + f + 2] += data[src + f + 2];
+        rows[dst + f + 3] += data[src + f + 3];
+      }
+      for (; f < n; f++) rows[dst + f] += data[src + f];
     }
   }
   return rows;

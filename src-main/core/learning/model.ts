@@ -419,7 +419,9 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const targets = learntTargets(frames, request);
   const { species, centres } = speciesOf(frames, settings, options.species);
   const order = tensorOrderOf(targets.shape);
-  const baseFeat: Featuriser = featurise ?? ((frame, _index, neighbours) => computeFeatures(frame, featureSettingsOf(settings, species, centres), order === null ? [] : [order], neighbours));
+  // `spare`: features of an earlier frame that nothing holds any more, written over by the next (see computeFeatures)
+  let spare: EnvironmentFeatures | undefined;
+  const baseFeat: Featuriser = featurise ?? ((frame, _index, neighbours) => computeFeatures(frame, featureSettingsOf(settings, species, centres), order === null ? [] : [order], neighbours, undefined, spare));
   const nFrames = frames.length;
   const nS = centres.length;
   const rng = makeRng(settings.seed);
@@ -477,6 +479,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     if (linear) partsSpec.forEach((p, k) => linearRows[k].push(linearDesignRows(fe, p.order, nS)));
     pool.add(fe, f);
     if (exact) kept.push(fe);
+    else if (feat === baseFeat && featurise === null) spare = fe;
     hooks.onProgress?.({ stage: 'features', done: f + 1, total: nFrames });
     await yieldToLoop();
   }
@@ -534,6 +537,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
         const knm = structureToRepresentatives(fe, reps, settings.kernelExponent);
         sparseRows[k].push(projectRows(knm, p.width, sparseFactor.get(p.order) as Float64Array, size));
       });
+      if (feat === baseFeat && featurise === null) spare = fe;
       hooks.onProgress?.({ stage: 'kernel', done: f + 1, total: nFrames });
       await yieldToLoop();
     }

@@ -15,7 +15,32 @@ export interface DescriptorKernels {
   coupleCross(cT: number, cT2: number, tch: number, w: number, nM: number, gStart: number, gIdx: number, gVal: number, half: number, out: number, n: number): void;
   /** Scales `len` doubles at x to unit norm; returns the squared norm before (features.ts normalise). */
   normalise(x: number, len: number): number;
+  /**
+   * The density expansion's sums for one centre from `count` pairs' harmonics Y (LL each), weighted radial integrals
+   * R (NL each, l·nmax + n) and channels chan (Int32, −1: left out) into out (public layout, selfTerm added to the
+   * centre's channel); idx (count Int32) and acc (channels·LL·nmax doubles) are scratch.
+   */
+  expandAccumulate(Y: number, R: number, chan: number, count: number, nmax: number, lmax: number, channels: number, idx: number, acc: number, out: number, selfTerm: number, centreChannel: number): void;
+  /**
+   * A region of at least `bytes` bytes of the module's memory for `owner` (byte offset, 16-byte aligned), the same
+   * one on later calls while it is large enough. `generation` changes when the memory is laid out afresh (every
+   * region is then new and its contents must be written again); null when the memory cannot grow that far.
+   */
+  /**
+   * Every pair's harmonics Y and weighted radial integrals R for expandAccumulate from its parameters (8 doubles per
+   * pair: x, y, z, r, w, interval, t; chan < 0: skipped), the harmonics' recurrence tables and the reordered radial
+   * table coef.
+   */
+  pairTerms(par: number, chan: number, count: number, lmax: number, NL: number, a: number, b: number, diag: number, y00: number, coef: number, Y: number, R: number): void;
+  /** dst_l[m·K + k] = c[base[k] + l² + m] for l ≤ lmax (dst_l = dst + K·l² doubles; base: K Int32 offsets). */
+  transposeChannels(c: number, base: number, K: number, lmax: number, dst: number): void;
+  /** The λ = 0 row of one environment, unnormalised, from cT of all nch channels (transposeChannels). */
+  powerSpectrumRow(cT: number, nch: number, lmax: number, invSqrt: number, out: number): void;
+  region(owner: object, bytes: number): { at: number; generation: number } | null;
 }
+
+/** Regions are laid out afresh once this much is placed (owners that are gone leave theirs behind until then). */
+const ARENA_LIMIT = 256 * 2 ** 20;
 
 let cached: DescriptorKernels | null | undefined;
 let cachedFor: KernelModule | null | undefined;
@@ -27,8 +52,30 @@ export function descriptorKernels(): DescriptorKernels | null {
   if (cachedFor !== module) {
     cachedFor = module;
     const e = module.exports;
+    const regions = new WeakMap<object, { at: number; bytes: number; generation: number }>();
+    let top = module.heapBase;
+    let generation = 0;
+    const region = (owner: object, bytes: number): { at: number; generation: number } | null => {
+      const have = regions.get(owner);
+      if (have && have.generation === generation && have.bytes >= bytes) return { at: have.at, generation };
+      const size = Math.ceil(bytes / 16) * 16;
+      if (top - module.heapBase + size > ARENA_LIMIT) {
+        top = module.heapBase;
+        generation++;
+      }
+      if (!module.reserve(top - module.heapBase + size)) return null;
+      const r = { at: top, bytes: size, generation };
+      top += size;
+      regions.set(owner, r);
+      return { at: r.at, generation };
+    };
     cached = {
       module,
+      region,
+      expandAccumulate: e.expandAccumulate as DescriptorKernels['expandAccumulate'],
+      pairTerms: e.pairTerms as DescriptorKernels['pairTerms'],
+      transposeChannels: e.transposeChannels as DescriptorKernels['transposeChannels'],
+      powerSpectrumRow: e.powerSpectrumRow as DescriptorKernels['powerSpectrumRow'],
       coupleSame: e.coupleSame as DescriptorKernels['coupleSame'],
       coupleCross: e.coupleCross as DescriptorKernels['coupleCross'],
       normalise: e.normalise as DescriptorKernels['normalise'],

@@ -6,6 +6,8 @@ import { cutoffFunction, interpolateRadial, makeDensityExpander, radialIntegral,
 import { realSphericalHarmonics } from '../../../src-main/core/descriptors/harmonics.ts';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
 import { referenceDensityExpander } from '../../helpers/reference-kernels.ts';
+import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
+import { descriptorKernels } from '../../../src-main/core/wasm/descriptors.ts';
 
 const fixture = JSON.parse(readFileSync(new URL('../../fixtures/radial-reference.json', import.meta.url), 'utf8')) as {
   integral: { cutoff: number; sigma: number; nmax: number; lmax: number; rows: { d: number; n: number; l: number; value: number }[] };
@@ -107,12 +109,15 @@ describe('makeDensityExpander', () => {
     }
   });
 
-  it('equals the first version bit for bit (random neighbours, channels, sizes)', () => {
+  for (const wasm of [true, false]) it(`equals the first version bit for bit (random neighbours, channels, sizes), ${wasm ? 'WebAssembly sums' : 'JavaScript'}`, () => {
     // The kept first version (test/helpers/reference-kernels.ts) reads the radial table in its own layout; the
-    // expander reads a reordered copy with the same operations, so the numbers must be identical. Neighbours
-    // beyond the cutoff, of no channel (−1) and at distance 0 are included.
+    // expander reads a reordered copy with the same operations, and its WebAssembly sums (core/wasm/assembly/
+    // descriptors.ts, four pairs per pass) keep each sum's pair order, so the numbers must be identical. Neighbours
+    // beyond the cutoff, of no channel (−1) and at distance 0 are included; odd and even nmax.
+    setWebAssemblyKernels(wasm);
+    if (wasm) expect(descriptorKernels()).not.toBeNull();
     const rng = makeRng(29);
-    for (const [nmax, lmax, channels] of [[8, 6, 2], [5, 4, 3], [3, 0, 1], [1, 2, 2]]) {
+    for (const [nmax, lmax, channels] of [[8, 6, 2], [6, 4, 2], [5, 4, 3], [3, 0, 1], [1, 2, 2]]) {
       const settings = { nmax, lmax, cutoff: 4.5, sigma: 0.4, cutoffWidth: 0.5, channels };
       const fast = makeDensityExpander(settings);
       const plain = referenceDensityExpander(settings);
@@ -136,5 +141,6 @@ describe('makeDensityExpander', () => {
         if (count > 1 && lmax > 0) expect(a.some((x, k) => x !== 0 && k % ((lmax + 1) * (lmax + 1)) !== 0)).toBe(true);
       }
     }
+    setWebAssemblyKernels(true);
   });
 });

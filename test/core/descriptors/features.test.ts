@@ -315,9 +315,13 @@ describe('the blocked power-spectrum kernel', () => {
     ['2 species, nmax 8, lmax 6', { cutoff: 4.5, cutoffWidth: 0.5, sigma: 0.4, nmax: 8, lmax: 6, species: ['O', 'H'], centres: ['O', 'H'] }],
     ['3 species, nmax 3, lmax 4 (9 channels)', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 3, lmax: 4, species: ['O', 'H', 'C'], centres: ['O'] }],
     ['1 species, nmax 2, lmax 0', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 2, lmax: 0, species: ['O'], centres: ['O'] }],
+    ['2 species, nmax 6, lmax 4 (the defaults)', { cutoff: 4.5, cutoffWidth: 0.5, sigma: 0.4, nmax: 6, lmax: 4, species: ['O', 'H'], centres: ['O', 'H'] }],
+    ['3 species, nmax 7, lmax 3 (21 channels)', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 7, lmax: 3, species: ['O', 'H', 'C'], centres: ['O'] }],
   ];
-  for (const [name, s] of cases) {
-    it(`${name}: bit-identical to the plain loop`, () => {
+  afterEach(() => setWebAssemblyKernels(true));
+  for (const [name, s] of cases) for (const wasm of [true, false]) {
+    it(`${name}, ${wasm ? 'WebAssembly' : 'JavaScript'}: bit-identical to the plain loop`, () => {
+      setWebAssemblyKernels(wasm);
       const P = featurePlan(s, []);
       const rng = makeRng(17);
       const fast = new Float64Array(P.n0 + 3);
@@ -342,6 +346,7 @@ describe('the blocked λ > 0 coupling kernel', () => {
     ['3 species, nmax 3, lmax 5, lmaxTensor 5 (9 channels)', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 3, lmax: 5, lmaxTensor: 5, species: ['O', 'H', 'C'], centres: ['O'] }],
     ['1 species, nmax 5, lmax 3 (5 channels)', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 5, lmax: 3, species: ['O'], centres: ['O'] }],
     ['1 species, nmax 1, lmax 2 (1 channel)', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 1, lmax: 2, species: ['O'], centres: ['O'] }],
+    ['2 species, nmax 8, nmaxTensor 3, lmax 6 (6 tensor channels of 16)', { cutoff: 4.5, cutoffWidth: 0.5, sigma: 0.4, nmax: 8, nmaxTensor: 3, lmax: 6, species: ['O', 'H'], centres: ['O', 'H'] }],
   ];
   afterEach(() => setWebAssemblyKernels(true));
   for (const [name, s] of cases) {
