@@ -1,0 +1,83 @@
+// The one loader of the WebAssembly kernels (compiled from ./assembly/*.ts by scripts/build-wasm.mjs into
+// ./generated/*.ts). Each kernel module is instantiated once per thread, on first use, from the base64 bytes
+// its generated file holds; callers place their numbers in the module's own memory (reserve, then f64 views) and
+// call its exports with byte offsets. Where WebAssembly or its SIMD instructions are missing, or the kernels
+// are switched off (setWebAssemblyKernels(false), for the benches' side-by-side runs and the tests' oracles),
+// `kernelModule` answers null and callers take their JavaScript path, which gives the same bits.
+
+let enabled = true;
+
+/** Switch the WebAssembly kernels on or off in this thread (the JavaScript paths give the same results). */
+export function setWebAssemblyKernels(on: boolean): void {
+  enabled = on;
+}
+
+/** Whether the WebAssembly kernels are switched on in this thread. */
+export function webAssemblyKernelsOn(): boolean {
+  return enabled;
+}
+
+/** Bytes in one page of WebAssembly memory. */
+const PAGE = 65536;
+/** The most memory one kernel module may hold (a 32-bit module addresses 4 GiB; leave room below it). */
+const MAX_BYTES = 2 ** 31;
+
+/** An instantiated kernel module and its memory, laid out by the caller above the module's static data. */
+export class KernelModule {
+  readonly exports: WebAssembly.Exports;
+  /** The first byte callers may use (16-byte aligned). */
+  readonly heapBase: number;
+  private readonly memory: WebAssembly.Memory;
+
+  constructor(instance: WebAssembly.Instance) {
+    this.exports = instance.exports;
+    this.memory = instance.exports.memory as WebAssembly.Memory;
+    const base = (instance.exports.heapBase as () => number)();
+    this.heapBase = Math.ceil(base / 16) * 16;
+  }
+
+  /**
+   * Make sure `bytes` bytes from heapBase are addressable. Returns false (and changes nothing) when that is more
+   * than a module may hold; the caller then takes its JavaScript path. Growing detaches every view taken before.
+   */
+  reserve(bytes: number): boolean {
+    const need = this.heapBase + bytes;
+    if (!(need <= MAX_BYTES)) return false;
+    const have = this.memory.buffer.byteLength;
+    if (need > have) this.memory.grow(Math.ceil((need - have) / PAGE));
+    return true;
+  }
+
+  /** A view of `length` doubles at byte offset `at` of the module's memory (valid until the next reserve). */
+  f64(at: number, length: number): Float64Array {
+    return new Float64Array(this.memory.buffer, at, length);
+  }
+}
+
+const modules = new Map<string, KernelModule | null>();
+
+/**
+ * The kernel module `name`, compiled from its base64 bytes on first use in this thread; null when the kernels are
+ * switched off or this engine cannot run them (no WebAssembly, no SIMD).
+ */
+export function kernelModule(name: string, base64: string): KernelModule | null {
+  if (!enabled) return null;
+  let m = modules.get(name);
+  if (m === undefined) {
+    m = instantiate(base64);
+    modules.set(name, m);
+  }
+  return m;
+}
+
+function instantiate(base64: string): KernelModule | null {
+  if (typeof WebAssembly !== 'object') return null;
+  try {
+    const bytes = Uint8Array.from(atob(base64), (c) => c.charCodeAt(0));
+    const instance = new WebAssembly.Instance(new WebAssembly.Module(bytes), {});
+    return new KernelModule(instance);
+  } catch {
+    // an engine without SIMD refuses the module at compile time: the JavaScript path serves instead
+    return null;
+  }
+}
