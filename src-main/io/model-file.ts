@@ -15,6 +15,7 @@
 // hashes them as they are; a file written otherwise (older ones: keys in the model's order) is checked by walking
 // its decoded payload. Either way the same checksum, the same guarantee. A corrupt file, a bad checksum or an
 // unknown version is a ModelError, never a model.
+import { isAscii } from 'node:buffer';
 import { createHash } from 'node:crypto';
 import { InputError, ModelError } from '../core/errors.ts';
 import { MAX_JSON_DEPTH } from '../core/limits.ts';
@@ -239,11 +240,41 @@ function need(cond: boolean, file: string, what: string): void {
 }
 
 /**
+ * The text of a model file's bytes. A model file is a few megabytes of ASCII (base64, numbers, keys) with a few
+ * short strings in UTF-8 (units such as Å³, notes); decoding it all as UTF-8 costs more than the rest of reading
+ * it, and makes a text of two bytes a character that parsing and hashing then pay for. So the bytes are read one
+ * byte a character (latin1): exactly the UTF-8 text when they are all ASCII; otherwise, when the file has no
+ * \u escapes (which could put such characters in a string by other means), the strings holding bytes ≥ 0x80
+ * are decoded from UTF-8 after parsing (mendUtf8): the text UTF-8 decoding of the whole would give. With \u
+ * escapes, the whole is decoded as UTF-8.
+ */
+function textOf(bytes: Uint8Array): { text: string; mend: boolean } {
+  const buf = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  if (isAscii(buf)) return { text: buf.toString('latin1'), mend: false };
+  if (buf.includes('\\u', 0, 'latin1')) return { text: buf.toString('utf8'), mend: false };
+  return { text: buf.toString('latin1'), mend: true };
+}
+
+const HIGH_BYTE = /[\x80-\xff]/;
+/** Strings and keys read as latin1 decoded from UTF-8 (textOf); base64 values are left as they are (their check refuses any such byte). */
+function mendUtf8(value: Json, key = ''): Json {
+  if (typeof value === 'string') return key !== 'f64' && key !== 'i32' && key !== 'f64lower' && HIGH_BYTE.test(value) ? Buffer.from(value, 'latin1').toString('utf8') : value;
+  if (Array.isArray(value)) {
+    for (let i = 0; i < value.length; i++) if (value[i] !== null && typeof value[i] !== 'number') value[i] = mendUtf8(value[i]);
+    return value;
+  }
+  if (value === null || typeof value !== 'object') return value;
+  const out: { [k: string]: Json } = {};
+  for (const [k, v] of Object.entries(value)) out[HIGH_BYTE.test(k) ? Buffer.from(k, 'latin1').toString('utf8') : k] = mendUtf8(v, k);
+  return out;
+}
+
+/**
  * Read a model from its text or the bytes of its file (UTF-8; the bytes let the checksum be taken from them
  * directly, see payloadBytesSigned); any defect is a ModelError naming the file and what is wrong.
  */
 export function parseModel(source: string | Uint8Array, fileName: string): Model {
-  const text = typeof source === 'string' ? source : Buffer.from(source.buffer, source.byteOffset, source.byteLength).toString('utf8');
+  const { text, mend } = typeof source === 'string' ? { text: source, mend: false } : textOf(source);
   // the checksum walk and the decoder recurse: refuse deep nesting before parsing anything
   if (jsonTooDeep(text)) throw new ModelError(`${fileName}: not a model file (JSON nested deeper than ${MAX_JSON_DEPTH} levels)`);
   let doc: unknown;
@@ -253,6 +284,7 @@ export function parseModel(source: string | Uint8Array, fileName: string): Model
     throw new ModelError(`${fileName}: not a model file (not valid JSON: ${(e as Error).message}); was it truncated?`);
   }
   if (doc === null || typeof doc !== 'object' || Array.isArray(doc)) throw new ModelError(`${fileName}: not a model file (expected a JSON object)`);
+  if (mend) doc = mendUtf8(doc as Json);
   const d = doc as Record<string, Json>;
   if (d.format !== MODEL_FORMAT) throw new ModelError(`${fileName}: not a Polarweave model file (format is ${JSON.stringify(d.format ?? null)}, expected "${MODEL_FORMAT}")`);
   if (!(MODEL_VERSIONS_READ as readonly unknown[]).includes(d.version)) {

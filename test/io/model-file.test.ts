@@ -147,6 +147,33 @@ describe('model file', () => {
     }
   });
 
+  it('reads the same text from bytes as UTF-8 decoding gives: ASCII, UTF-8 strings, \\u escapes, a damaged sequence', () => {
+    const doc = JSON.parse(serialiseModel(model));
+    doc.payload.notes = [...doc.payload.notes, 'Å³ ± σ — 水', 'bad \uFFFD end'];
+    doc.payload.target.units = 'Å³';
+    const text = resign(doc);
+    expect(text).toMatch(/[^\x00-\x7f]/);
+    const fromText = parseModel(text, 'm.json');
+    expect(fromText.notes).toContain('Å³ ± σ — 水');
+    expect(fromText.target.units).toBe('Å³');
+    const bytes = Buffer.from(text);
+    expect(serialiseModel(parseModel(bytes, 'm.json'))).toBe(serialiseModel(fromText));
+    // the same strings written as \u escapes (an ASCII file), and a file with both
+    const escaped = text.replace(/[^\x00-\x7f]/g, (c) => `\\u${c.charCodeAt(0).toString(16).padStart(4, '0')}`);
+    expect(escaped).not.toMatch(/[^\x00-\x7f]/);
+    expect(serialiseModel(parseModel(Buffer.from(escaped), 'm.json'))).toBe(serialiseModel(fromText));
+    const both = escaped.replace('\\u00c5\\u00b3', 'Å³');
+    expect(both).not.toBe(escaped);
+    expect(serialiseModel(parseModel(Buffer.from(both), 'm.json'))).toBe(serialiseModel(fromText));
+    // a broken UTF-8 sequence inside a string (a lone lead byte): what decoding the whole as UTF-8 gives, U+FFFD
+    const at = bytes.indexOf(Buffer.from('bad '));
+    const broken = Buffer.concat([bytes.subarray(0, at + 4), Buffer.from([0xe2, 0x82]), bytes.subarray(at + 4)]);
+    const viaUtf8 = JSON.parse(broken.toString('utf8'));
+    viaUtf8.checksum.value = createHash('sha256').update(canonicalJson(viaUtf8.payload)).digest('hex');
+    const signed = Buffer.from(broken.toString('latin1').replace(doc.checksum.value, viaUtf8.checksum.value), 'latin1');
+    expect(parseModel(signed, 'm.json').notes).toEqual(viaUtf8.payload.notes);
+  });
+
   it('reads a file written the older way (payload keys in the model order) from its bytes, as before', () => {
     const text = serialiseModel(designModel);
     const doc = JSON.parse(text);
