@@ -24,7 +24,7 @@ import { readError } from '../../io/whole-file.ts';
 import { frameSlices, type FrameSlice, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import type { PredictFormat } from './predict-frame.ts';
-import { predictFrames, type PredictChunkInput, type PredictChunkOutput } from './predict-tasks.ts';
+import { parseFrameBytes, predictFrames, type PredictChunkInput, type PredictChunkOutput } from './predict-tasks.ts';
 import { csvLayoutOf, firstFrameOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
 import { sharedModel } from './shared-model.ts';
 import { JobRunner, type WorkerFactory } from '../../jobs/runner.ts';
@@ -207,7 +207,6 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   const loaded = opts.model ?? (await loadModelFile(opts.modelPath, opts.modelLabel ?? opts.modelPath));
   const { model, sha256: modelSha256 } = loaded;
   predictOutputFormat(opts.output, model);
-  const csvOptions = opts.csvOptions ?? (format === 'csv' ? csvLayoutOf(loaded, await firstFrameOf(opts.input, opts.range, signal)) : undefined);
 
   let stat;
   try {
@@ -298,6 +297,18 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       throw e;
     }
   }
+  // the CSV layout, from the selection's first frame: parsed from the slices just read when they begin with it
+  // (no checkpoint, no shard: they start at the file's beginning), else read from the file
+  const first = !ck && !opts.shard ? head.slices.find((x) => x.bytes) : undefined;
+  const firstFrame = async () => {
+    if (!first) return firstFrameOf(opts.input, opts.range, signal);
+    try {
+      return parseFrameBytes(opts.input, first.index, first.line, first.bytes as Buffer);
+    } catch {
+      return null; // the run itself says why
+    }
+  };
+  const csvOptions = opts.csvOptions ?? (format === 'csv' ? csvLayoutOf(loaded, await firstFrame()) : undefined);
   const headFrames = head.slices.filter((x) => x.bytes).map((x) => ({ index: x.index, line: x.line, bytes: new Uint8Array((x.bytes as Buffer).buffer, (x.bytes as Buffer).byteOffset, (x.bytes as Buffer).byteLength) }));
   if (head.ended && headFrames.length > 0 && headFrames.length < batchSize && head.bytes <= inProcessBytes) {
     const r = predictFrames(model, loaded.predict, { file: opts.input, format, stamp, frames: headFrames, csvOptions }, { signal: signal ?? new AbortController().signal, progress: () => {} });
