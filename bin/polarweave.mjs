@@ -6,7 +6,6 @@
 // as modules (main.mjs).
 import { readFileSync, statSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
-import { loadProgram } from './load-program.mjs';
 
 const root = new URL('../', import.meta.url);
 
@@ -44,7 +43,8 @@ function printStoredHelp(dir, argv) {
 
 const bundle = process.env.POLARWEAVE_FROM_SOURCE ? null : freshBundle();
 if (!(bundle && printStoredHelp(new URL('.', bundle), process.argv.slice(2)))) {
-  const script = bundle && !process.env.POLARWEAVE_NO_CODE_CACHE ? loadProgram(fileURLToPath(new URL('main.cjs', bundle))) : null;
+  // imported here, not above: `--help` needs none of it
+  const script = bundle && !process.env.POLARWEAVE_NO_CODE_CACHE ? (await import('./load-program.mjs')).loadProgram(fileURLToPath(new URL('main.cjs', bundle))) : null;
   const { main } = script ? script.exports : bundle ? await import(bundle.href) : await (await import('tsx/esm/api')).tsImport('../src-main/cli/main.ts', import.meta.url);
   await main();
   script?.afterRun();
