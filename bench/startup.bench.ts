@@ -4,9 +4,10 @@
 //   1. `polarweave --help`: bin/polarweave.mjs printing the stored help text, the pre-built program, the sources (and a
 //      bare `node -e ''` for the floor);
 //   2. predicting one frame end to end (read the model, predict — in process: one frame is one small batch — write the CSV): a 384-atom water-like cell
-//      with a model trained here on 5 such frames at cutoff 4.5 Å, 8 radial functions, angular order 6;
+//      with a model trained here on 5 such frames at cutoff 4.5 Å, 8 radial functions, angular order 6; through bin
+//      with the code cache (main.cjs, bin/load-program.mjs), bin without it (main.mjs), the sources, and bare node;
 //   3. with PW_BENCH_BASELINE=<git ref> (e.g. the commit before a start-up change): the same one-frame predict (default
-//      threads) with that ref's pre-built program beside this tree's, alternating, with the ratio and whether the two
+//      threads) with that ref's command (its bin/polarweave.mjs and pre-built program) beside this tree's, alternating, with the ratio and whether the two
 //      CSV files are byte-identical. The command's cache folder (radial tables) is a scratch folder: the first run fills it.
 // Figures only, never asserted. Env: PW_BENCH_STARTUP_RUNS (5), PW_BENCH_BASELINE.
 import { execFileSync } from 'node:child_process';
@@ -38,24 +39,25 @@ function sideBySide(ways: Record<string, () => number>): Record<string, number> 
 }
 
 /** Section 3: one-frame predict (default threads) with the pre-built program of git ref `ref` beside this tree's. */
-function againstBaseline(ref: string, dir: string, bundled: string, modelPath: string, input: string): void {
+function againstBaseline(ref: string, dir: string, bin: string, modelPath: string, input: string): void {
   const here = new URL('.', root).pathname;
   const base = join(dir, 'baseline');
   let baseRun: string;
   try {
-    execFileSync('sh', ['-c', `mkdir -p "${base}" && git -C "${here}" archive "${ref}" src-main scripts package.json | tar -x -C "${base}"`]);
+    execFileSync('sh', ['-c', `mkdir -p "${base}" && git -C "${here}" archive "${ref}" bin src-main scripts package.json | tar -x -C "${base}"`]);
     symlinkSync(join(here, 'node_modules'), join(base, 'node_modules'));
-    const out = join(base, 'out', 'cli');
-    execFileSync(process.execPath, [join(base, 'scripts', 'build-cli.mjs'), '--outdir', out], { stdio: 'ignore' });
-    baseRun = join(out, 'run.mjs');
-    writeFileSync(baseRun, "const { main } = await import('./main.mjs');\nawait main();\n");
+    execFileSync(process.execPath, [join(base, 'scripts', 'build-cli.mjs')], { stdio: 'ignore' });
+    baseRun = join(base, 'bin', 'polarweave.mjs');
   } catch (error) {
     console.log(`3. baseline ${ref}: could not extract or build it (${String(error).split('\n')[0]})`);
     return;
   }
   const csv = (name: string) => join(dir, `${name}.csv`);
   const way = (program: string, name: string) => () => wallMs([program, 'predict', modelPath, input, '--restart', '-o', csv(name)]);
-  const t = sideBySide({ baseline: way(baseRun, 'baseline'), now: way(bundled, 'now') });
+  // one run of each first: each stores what it keeps in the cache folder (radial tables, a code cache)
+  way(baseRun, 'baseline')();
+  way(bin, 'now')();
+  const t = sideBySide({ baseline: way(baseRun, 'baseline'), now: way(bin, 'now') });
   const same = readFileSync(csv('baseline')).equals(readFileSync(csv('now')));
   console.log(`3. predict one 384-atom frame, default threads, pre-built programs, median of ${RUNS} alternating runs (load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}): ` +
     `baseline ${ref} ${t.baseline.toFixed(0)} ms, this tree ${t.now.toFixed(0)} ms (×${(t.baseline / t.now).toFixed(2)} faster); CSV output ${same ? 'byte-identical' : 'DIFFERS'}`);
@@ -70,7 +72,7 @@ export async function run(): Promise<void> {
     // a checkout in the scratch folder: bin/, the sources (linked, for bin's freshness check) and the bundle
     const checkout = join(dir, 'checkout');
     mkdirSync(join(checkout, 'bin'), { recursive: true });
-    copyFileSync(new URL('bin/polarweave.mjs', root), join(checkout, 'bin', 'polarweave.mjs'));
+    for (const f of ['polarweave.mjs', 'load-program.mjs']) copyFileSync(new URL(`bin/${f}`, root), join(checkout, 'bin', f));
     symlinkSync(new URL('src-main', root).pathname, join(checkout, 'src-main'));
     const bundle = join(checkout, 'out', 'cli');
     execFileSync(process.execPath, [new URL('scripts/build-cli.mjs', root).pathname, '--outdir', bundle], { stdio: 'ignore' });
@@ -97,14 +99,19 @@ export async function run(): Promise<void> {
     const input = join(dir, 'one.extxyz');
     writeFileSync(input, formatExtxyzFrame({ ...waterLikeFrames(1, 77)[0], info: { step: 0 }, arrays: {} }));
     const args = ['predict', modelPath, input, '--threads', '1', '--restart', '-o', join(dir, 'one.csv')];
+    const noCodeCache = { ...process.env, POLARWEAVE_NO_CODE_CACHE: '1' };
+    wallMs([bin, ...args]); // the first run through bin stores the code cache (bin/load-program.mjs)
     const one = sideBySide({
-      bundled: () => wallMs([bundled, ...args]),
+      cached: () => wallMs([bin, ...args]),
+      bundled: () => wallMs([bin, ...args], noCodeCache),
       source: () => wallMs([source, ...args], fromSource),
+      node: () => wallMs(['-e', '']),
     });
     console.log(`2. predict one 384-atom frame (--threads 1, model file ${(statSync(modelPath).size / 1e6).toFixed(1)} MB): ` +
-      `pre-built ${one.bundled.toFixed(0)} ms, sources through tsx ${one.source.toFixed(0)} ms (×${(one.source / one.bundled).toFixed(1)} faster)`);
+      `bin/polarweave.mjs with the code cache (main.cjs) ${one.cached.toFixed(0)} ms; the pre-built modules (main.mjs) ${one.bundled.toFixed(0)} ms (×${(one.bundled / one.cached).toFixed(2)}); ` +
+      `sources through tsx ${one.source.toFixed(0)} ms (×${(one.source / one.cached).toFixed(1)}); bare node ${one.node.toFixed(0)} ms`);
     const baseline = process.env.PW_BENCH_BASELINE;
-    if (baseline) againstBaseline(baseline, dir, bundled, modelPath, input);
+    if (baseline) againstBaseline(baseline, dir, bin, modelPath, input);
     else console.log('3. (set PW_BENCH_BASELINE=<git ref> to time one-frame predict against that ref\'s pre-built program)');
   } finally {
     if (cacheBefore === undefined) delete process.env.POLARWEAVE_CACHE_DIR;

@@ -2,7 +2,10 @@
 // The `polarweave` command. Runs the pre-built JavaScript in out/cli/ (scripts/build-cli.mjs, run by `npm ci`)
 // when it is there and no source file it was built from has changed since; otherwise the TypeScript sources
 // through tsx (an edited checkout, or an install that skipped its scripts): the same code, slower to start.
+// The pre-built program is loaded as one script with a code cache (load-program.mjs) when it was built so, else
+// as modules (main.mjs).
 import { readFileSync, statSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
 
 const root = new URL('../', import.meta.url);
 
@@ -40,6 +43,9 @@ function printStoredHelp(dir, argv) {
 
 const bundle = process.env.POLARWEAVE_FROM_SOURCE ? null : freshBundle();
 if (!(bundle && printStoredHelp(new URL('.', bundle), process.argv.slice(2)))) {
-  const { main } = bundle ? await import(bundle.href) : await (await import('tsx/esm/api')).tsImport('../src-main/cli/main.ts', import.meta.url);
+  // imported here, not above: `--help` needs none of it
+  const script = bundle && !process.env.POLARWEAVE_NO_CODE_CACHE ? (await import('./load-program.mjs')).loadProgram(fileURLToPath(new URL('main.cjs', bundle))) : null;
+  const { main } = script ? script.exports : bundle ? await import(bundle.href) : await (await import('tsx/esm/api')).tsImport('../src-main/cli/main.ts', import.meta.url);
   await main();
+  script?.afterRun();
 }

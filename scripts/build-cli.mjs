@@ -5,6 +5,8 @@
 //   predict-worker.mjs  the streaming predictor's worker (src-main/app/predict/predict-worker.ts)
 //   worker.mjs          the app's worker (src-main/app/worker.ts)
 //   chunk-*.mjs         code the three share (loaded once per thread, not three times)
+//   main.cjs            the command again as one script (no modules), which bin/polarweave.mjs compiles with a
+//                       V8 code cache kept in the cache folder: a run then skips most of compiling the program
 //   help.json           every help text (helpTexts of src-main/cli/main.ts), printed by bin/polarweave.mjs for --help
 //   manifest.json       the source files it was built from and when: bin/polarweave.mjs runs the sources through
 //                       tsx instead when any of them is newer, so an edited checkout never runs stale code.
@@ -56,7 +58,7 @@ const zodEnglishOnly = {
 
 mkdirSync(outdir, { recursive: true });
 // only what an earlier build wrote: the manifest first, so that a failed build leaves the sources in charge
-const ours = (f) => f === 'manifest.json' || f === 'help.json' || /^chunk-[A-Z0-9]+\.mjs$/.test(f) || Object.keys(ENTRIES).some((e) => f === `${e}.mjs`);
+const ours = (f) => f === 'manifest.json' || f === 'help.json' || f === 'main.cjs' || /^chunk-[A-Z0-9]+\.mjs$/.test(f) || Object.keys(ENTRIES).some((e) => f === `${e}.mjs`);
 rmSync(join(outdir, 'manifest.json'), { force: true });
 for (const f of readdirSync(outdir)) if (ours(f)) rmSync(join(outdir, f));
 
@@ -93,6 +95,36 @@ try {
   // installation must not fail for it: the command then runs from the sources through tsx, only slower to start
   console.warn(`polarweave: could not pre-build the command (${e instanceof Error ? e.message.split('\n')[0] : e}); it will run from the TypeScript sources`);
   process.exit(0);
+}
+
+// The command as one classic script, for bin/polarweave.mjs to compile with a code cache (node:vm's cachedData;
+// Node 20 keeps no code cache for modules). import.meta.url becomes the script's own URL: it sits beside main.mjs,
+// so paths relative to it (the demo data, the worker entries) resolve alike. Without it bin loads main.mjs.
+try {
+  await esbuild.build({
+    absWorkingDir: root,
+    entryPoints: [join(root, ENTRIES.main)],
+    outfile: join(outdir, 'main.cjs'),
+    bundle: true,
+    format: 'cjs',
+    platform: 'node',
+    target: 'node20',
+    external: ['tsx', 'tsx/*'],
+    define: { 'import.meta.url': '__pwScriptUrl' },
+    banner: {
+      js: [
+        "var __pwScriptUrl = require('node:url').pathToFileURL(__filename).href;",
+        "globalThis.__polarweaveBundle ??= new URL('.', __pwScriptUrl).href;",
+      ].join('\n'),
+    },
+    plugins: [zodEnglishOnly],
+    logLevel: 'warning',
+    minifyWhitespace: true,
+    minifySyntax: true,
+  });
+} catch (e) {
+  rmSync(join(outdir, 'main.cjs'), { force: true });
+  console.warn(`polarweave: could not build the single-script command (${e instanceof Error ? e.message.split('\n')[0] : e}); main.mjs is used`);
 }
 
 // The help texts, from the bundle's own functions (helpTexts in src-main/cli/main.ts): bin/polarweave.mjs prints

@@ -144,7 +144,8 @@ function posteriorFits(post: NonNullable<Model['parts'][number]['posterior']>): 
 function checkTrustContents(m: Model, bad: (what: string) => never): void {
   if (m.calibration !== undefined) {
     const parts = m.calibration?.parts;
-    if (!Array.isArray(parts) || !parts.every((c) => m.parts.some((p) => p.order === c.order) && Number.isFinite(c.varianceScale) && c.varianceScale > 0)) bad('error-bar calibration');
+    const fits = (c: (typeof parts)[number] | null) => c !== null && typeof c === 'object' && m.parts.some((p) => p.order === c.order) && Number.isFinite(c.varianceScale) && c.varianceScale > 0;
+    if (!Array.isArray(parts) || !parts.every(fits)) bad('error-bar calibration');
   }
   if (m.leverage !== undefined) {
     const post = m.leverage?.posterior;

@@ -11,7 +11,11 @@
 // The payload is the Model of core/learning/model.ts with every typed array stored as base64 of its little-endian bytes
 // ({"f64": …} / {"i32": …}; Cholesky factors as their packed lower triangle, {"f64lower": …, "n": …}).
 // The checksum is sha256 over the canonical JSON of the payload (keys sorted, no spaces), so any edit or
-// truncation is caught. A corrupt file, a bad checksum or an unknown version is a ModelError, never a model.
+// truncation is caught. The payload is written last, in that canonical form, so a reader given the file's bytes
+// hashes them as they are; a file written otherwise (older ones: keys in the model's order) is checked by walking
+// its decoded payload. Either way the same checksum, the same guarantee. A corrupt file, a bad checksum or an
+// unknown version is a ModelError, never a model.
+import { isAscii } from 'node:buffer';
 import { createHash } from 'node:crypto';
 import { InputError, ModelError } from '../core/errors.ts';
 import { MAX_JSON_DEPTH } from '../core/limits.ts';
@@ -196,19 +200,81 @@ function renameKeys(payload: Record<string, Json>, toFile: boolean): Record<stri
   return payload;
 }
 
+/**
+ * The file text. The payload is written last and in its canonical form (keys sorted), so that the bytes after
+ * `,"payload":` are the very text the checksum covers: a reader checks them with one hash of the bytes
+ * (payloadBytesSigned) instead of walking the decoded payload. Readers of older files (keys in any order) walk it.
+ */
 export function serialiseModel(model: Model): string {
   const payload = renameKeys(encode(model, '', '') as Record<string, Json>, true);
-  const checksum = canonicalSha256(payload);
-  const doc = { format: MODEL_FORMAT, version: MODEL_VERSION, description: describe(model), checksum: { algorithm: 'sha256', value: checksum }, payload };
-  return JSON.stringify(doc) + '\n';
+  const body = canonicalJson(payload);
+  const checksum = createHash('sha256').update(body, 'utf8').digest('hex');
+  const head = JSON.stringify({ format: MODEL_FORMAT, version: MODEL_VERSION, description: describe(model), checksum: { algorithm: 'sha256', value: checksum } });
+  return `${head.slice(0, -1)}${PAYLOAD_KEY}${body}}\n`;
+}
+
+const PAYLOAD_KEY = ',"payload":';
+const PAYLOAD_KEY_BYTES = Buffer.from(PAYLOAD_KEY, 'latin1');
+/** The document's keys, in the order serialiseModel writes them (every version). */
+const DOC_KEYS = ['format', 'version', 'description', 'checksum', 'payload'];
+
+/**
+ * Whether the file's payload bytes are themselves the signed canonical text: the bytes between the first
+ * `,"payload":` (a key: a quote inside a JSON string is always escaped) and the document's closing brace hash to
+ * the checksum. Then the payload is as it was written, as surely as by the walk of canonicalSha256; when they do
+ * not (an older file, keys in another order, spaces, an edit, damage), the caller walks the payload as before.
+ */
+function payloadBytesSigned(bytes: Uint8Array, doc: Record<string, Json>, checksum: string): boolean {
+  const keys = Object.keys(doc);
+  if (keys.length !== DOC_KEYS.length || keys.some((k, i) => k !== DOC_KEYS[i])) return false;
+  const buf = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  const at = buf.indexOf(PAYLOAD_KEY_BYTES);
+  let end = buf.length;
+  while (end > 0 && (buf[end - 1] === 0x0a || buf[end - 1] === 0x0d || buf[end - 1] === 0x20 || buf[end - 1] === 0x09)) end--;
+  if (at < 0 || buf[end - 1] !== 0x7d) return false;
+  return createHash('sha256').update(buf.subarray(at + PAYLOAD_KEY_BYTES.length, end - 1)).digest('hex') === checksum;
 }
 
 function need(cond: boolean, file: string, what: string): void {
   if (!cond) throw new ModelError(`${file}: corrupt model file (${what})`);
 }
 
-/** Read a model from text; any defect is a ModelError naming the file and what is wrong. */
-export function parseModel(text: string, fileName: string): Model {
+/**
+ * The text of a model file's bytes. A model file is a few megabytes of ASCII (base64, numbers, keys) with a few
+ * short strings in UTF-8 (units such as Å³, notes); decoding it all as UTF-8 costs more than the rest of reading
+ * it, and makes a text of two bytes a character that parsing and hashing then pay for. So the bytes are read one
+ * byte a character (latin1): exactly the UTF-8 text when they are all ASCII; otherwise, when the file has no
+ * \u escapes (which could put such characters in a string by other means), the strings holding bytes ≥ 0x80
+ * are decoded from UTF-8 after parsing (mendUtf8): the text UTF-8 decoding of the whole would give. With \u
+ * escapes, the whole is decoded as UTF-8.
+ */
+function textOf(bytes: Uint8Array): { text: string; mend: boolean } {
+  const buf = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  if (isAscii(buf)) return { text: buf.toString('latin1'), mend: false };
+  if (buf.includes('\\u', 0, 'latin1')) return { text: buf.toString('utf8'), mend: false };
+  return { text: buf.toString('latin1'), mend: true };
+}
+
+const HIGH_BYTE = /[\x80-\xff]/;
+/** Strings and keys read as latin1 decoded from UTF-8 (textOf); base64 values are left as they are (their check refuses any such byte). */
+function mendUtf8(value: Json, key = ''): Json {
+  if (typeof value === 'string') return key !== 'f64' && key !== 'i32' && key !== 'f64lower' && HIGH_BYTE.test(value) ? Buffer.from(value, 'latin1').toString('utf8') : value;
+  if (Array.isArray(value)) {
+    for (let i = 0; i < value.length; i++) if (value[i] !== null && typeof value[i] !== 'number') value[i] = mendUtf8(value[i]);
+    return value;
+  }
+  if (value === null || typeof value !== 'object') return value;
+  const out: { [k: string]: Json } = {};
+  for (const [k, v] of Object.entries(value)) out[HIGH_BYTE.test(k) ? Buffer.from(k, 'latin1').toString('utf8') : k] = mendUtf8(v, k);
+  return out;
+}
+
+/**
+ * Read a model from its text or the bytes of its file (UTF-8; the bytes let the checksum be taken from them
+ * directly, see payloadBytesSigned); any defect is a ModelError naming the file and what is wrong.
+ */
+export function parseModel(source: string | Uint8Array, fileName: string): Model {
+  const { text, mend } = typeof source === 'string' ? { text: source, mend: false } : textOf(source);
   // the checksum walk and the decoder recurse: refuse deep nesting before parsing anything
   if (jsonTooDeep(text)) throw new ModelError(`${fileName}: not a model file (JSON nested deeper than ${MAX_JSON_DEPTH} levels)`);
   let doc: unknown;
@@ -218,6 +284,7 @@ export function parseModel(text: string, fileName: string): Model {
     throw new ModelError(`${fileName}: not a model file (not valid JSON: ${(e as Error).message}); was it truncated?`);
   }
   if (doc === null || typeof doc !== 'object' || Array.isArray(doc)) throw new ModelError(`${fileName}: not a model file (expected a JSON object)`);
+  if (mend) doc = mendUtf8(doc as Json);
   const d = doc as Record<string, Json>;
   if (d.format !== MODEL_FORMAT) throw new ModelError(`${fileName}: not a Polarweave model file (format is ${JSON.stringify(d.format ?? null)}, expected "${MODEL_FORMAT}")`);
   if (!(MODEL_VERSIONS_READ as readonly unknown[]).includes(d.version)) {
@@ -227,8 +294,8 @@ export function parseModel(text: string, fileName: string): Model {
   const ck = d.checksum as Record<string, Json> | undefined;
   need(!!ck && ck.algorithm === 'sha256' && typeof ck.value === 'string', fileName, 'no sha256 checksum');
   need(d.payload !== null && typeof d.payload === 'object' && !Array.isArray(d.payload), fileName, 'no payload');
-  const actual = canonicalSha256(d.payload);
-  if (actual !== (ck as Record<string, Json>).value) {
+  const signed = (ck as Record<string, Json>).value as string;
+  if (!(typeof source !== 'string' && payloadBytesSigned(source, d, signed)) && canonicalSha256(d.payload) !== signed) {
     throw new ModelError(`${fileName}: checksum mismatch — the model file is corrupt or was edited; retrain or restore the file`);
   }
   const stored = d.version === 1 ? d.payload : renameKeys(d.payload as Record<string, Json>, false);
@@ -272,5 +339,5 @@ export async function readModelBytes(path: string): Promise<Buffer> {
 }
 
 export async function loadModel(path: string): Promise<Model> {
-  return parseModel((await readModelBytes(path)).toString('utf8'), path);
+  return parseModel(await readModelBytes(path), path);
 }

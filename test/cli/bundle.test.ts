@@ -3,9 +3,11 @@
 // worker entry: the scratch folder has no TypeScript loader to fall back on) are byte for byte those of the
 // sources run in process.
 import { execFileSync } from 'node:child_process';
-import { copyFileSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, symlinkSync, writeFileSync } from 'node:fs';
+import { copyFileSync, existsSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, symlinkSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { pathToFileURL } from 'node:url';
+import { cacheFolder } from '../../src-main/io/radial-table-store.ts';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { commandHelp, mainHelp } from '../../src-main/cli/main.ts';
 import { commands } from '../../src-main/cli/commands/registry.ts';
@@ -55,10 +57,11 @@ describe('polarweave --help from the stored texts', () => {
   const root = join(dir, 'checkout');
   beforeAll(() => {
     mkdirSync(join(root, 'bin'), { recursive: true });
-    copyFileSync('bin/polarweave.mjs', join(root, 'bin', 'polarweave.mjs'));
+    for (const f of ['polarweave.mjs', 'load-program.mjs']) copyFileSync(join('bin', f), join(root, 'bin', f));
     symlinkSync(join(process.cwd(), 'src-main'), join(root, 'src-main'));
     execFileSync(process.execPath, ['scripts/build-cli.mjs', '--outdir', join(root, 'out', 'cli')], { encoding: 'utf8' });
     writeFileSync(join(root, 'out', 'cli', 'main.mjs'), "throw new Error('the program was loaded');\n");
+    writeFileSync(join(root, 'out', 'cli', 'main.cjs'), "throw new Error('the program was loaded');\n");
   }, 60_000);
   const run = (...args: string[]) => spawnSync(process.execPath, [join(root, 'bin', 'polarweave.mjs'), ...args], { encoding: 'utf8', env: { ...process.env, POLARWEAVE_FROM_SOURCE: '' } });
 
@@ -79,4 +82,44 @@ describe('polarweave --help from the stored texts', () => {
     expect(run('no-such-command', '--help').stderr).toMatch(/the program was loaded/);
     expect(run('inspect', 'file.extxyz').stderr).toMatch(/the program was loaded/);
   });
+});
+
+describe('the pre-built program compiled with a code cache (bin/load-program.mjs)', () => {
+  // a checkout in a scratch folder as above, with a working bundle, and a cache folder of its own
+  const root = join(dir, 'cached');
+  const cache = join(dir, 'cache-folder');
+  beforeAll(() => {
+    mkdirSync(join(root, 'bin'), { recursive: true });
+    for (const f of ['polarweave.mjs', 'load-program.mjs']) copyFileSync(join('bin', f), join(root, 'bin', f));
+    symlinkSync(join(process.cwd(), 'src-main'), join(root, 'src-main'));
+    execFileSync(process.execPath, ['scripts/build-cli.mjs', '--outdir', join(root, 'out', 'cli')], { encoding: 'utf8' });
+  }, 60_000);
+  const env = { ...process.env, POLARWEAVE_FROM_SOURCE: '', POLARWEAVE_CACHE_DIR: cache };
+  const predict = (out: string, more: Record<string, string> = {}) =>
+    execFileSync(process.execPath, [join(root, 'bin', 'polarweave.mjs'), 'predict', MODEL, DATA, '--frames', '0:2', '-o', out], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'], env: { ...env, ...more } });
+  const caches = () => readdirSync(cache).filter((f) => /^code-[0-9a-f]{24}\.v8$/.test(f));
+
+  it('keeps its cache in the command’s cache folder, and predicts the same bytes with and without it', async () => {
+    const { cacheFolder: binFolder } = (await import(pathToFileURL(join(process.cwd(), 'bin', 'load-program.mjs')).href)) as { cacheFolder: (env: NodeJS.ProcessEnv) => string };
+    for (const e of [{ POLARWEAVE_CACHE_DIR: '/x/y' }, { XDG_CACHE_HOME: '/c' }, {}]) expect(binFolder(e)).toBe(cacheFolder(e));
+    const plain = join(dir, 'plain.csv');
+    predict(plain, { POLARWEAVE_NO_CODE_CACHE: '1' });
+    expect(existsSync(cache) ? caches() : []).toEqual([]);
+    const outs = ['first.csv', 'second.csv'].map((f) => join(dir, f));
+    predict(outs[0]); // compiles, then stores the cache
+    const [file] = caches();
+    expect(caches()).toHaveLength(1);
+    const stored = readFileSync(join(cache, file));
+    predict(outs[1]); // with the cache: not written again
+    expect(readFileSync(join(cache, file)).equals(stored)).toBe(true);
+    // a damaged cache is refused (its checksum), the program compiled as without one, and the cache written anew
+    const damaged = Buffer.from(stored);
+    damaged[damaged.length >> 1] ^= 0xff;
+    writeFileSync(join(cache, file), damaged);
+    const third = join(dir, 'third.csv');
+    predict(third);
+    expect(readFileSync(join(cache, file)).equals(stored)).toBe(false);
+    expect(readFileSync(join(cache, file)).equals(damaged)).toBe(false);
+    for (const out of [...outs, third]) expect(readFileSync(out, 'utf8')).toBe(readFileSync(plain, 'utf8'));
+  }, 120_000);
 });

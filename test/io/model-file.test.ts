@@ -106,6 +106,11 @@ describe('model file', () => {
     const doc3 = JSON.parse(serialiseModel(designModel));
     doc3.payload.parts[0].posterior.rows += 1;
     expect(() => parseModel(resign(doc3), 'bad.json')).toThrow(/corrupt model file \(part λ=0 posterior\)/);
+    // found by the fuzz test (test/io/hostile-readers.fuzz.test.ts): a null among the calibration's parts
+    const doc4 = JSON.parse(serialiseModel(model));
+    expect(doc4.payload.calibration.parts.length).toBeGreaterThan(0);
+    doc4.payload.calibration.parts[0] = null;
+    expect(() => parseModel(resign(doc4), 'bad.json')).toThrow(/corrupt model file \(error-bar calibration\)/);
   });
 
   it('reads base64 this program would not write (no padding) and refuses other characters, once signed', () => {
@@ -126,6 +131,75 @@ describe('model file', () => {
     const fe = syntheticFeatures(rng, { count: 3, n0: 5, tensor: { 2: 3 }, centreSpecies: [0, 0, 1] });
     expect(() => predictWithFeatures(model, frame, fe)).toThrow(ModelError);
     expect(() => predictWithFeatures(model, frame, fe)).toThrow(/never saw species C/);
+  });
+
+  it('writes the payload last in its canonical form, and reads the same model from the bytes and from the text', () => {
+    for (const m of [model, kernelModel, designModel]) {
+      const text = serialiseModel(m);
+      const at = text.indexOf(',"payload":');
+      expect(text.endsWith('}\n')).toBe(true);
+      // the bytes after the key are the very text the checksum covers
+      const body = text.slice(at + ',"payload":'.length, -2);
+      const doc = JSON.parse(text);
+      expect(body).toBe(canonicalJson(doc.payload));
+      expect(createHash('sha256').update(body).digest('hex')).toBe(doc.checksum.value);
+      expect(serialiseModel(parseModel(Buffer.from(text), 'm.json'))).toBe(text);
+    }
+  });
+
+  it('reads the same text from bytes as UTF-8 decoding gives: ASCII, UTF-8 strings, \\u escapes, a damaged sequence', () => {
+    const doc = JSON.parse(serialiseModel(model));
+    doc.payload.notes = [...doc.payload.notes, 'Å³ ± σ — 水', 'bad \uFFFD end'];
+    doc.payload.target.units = 'Å³';
+    const text = resign(doc);
+    expect(text).toMatch(/[^\x00-\x7f]/);
+    const fromText = parseModel(text, 'm.json');
+    expect(fromText.notes).toContain('Å³ ± σ — 水');
+    expect(fromText.target.units).toBe('Å³');
+    const bytes = Buffer.from(text);
+    expect(serialiseModel(parseModel(bytes, 'm.json'))).toBe(serialiseModel(fromText));
+    // the same strings written as \u escapes (an ASCII file), and a file with both
+    const escaped = text.replace(/[^\x00-\x7f]/g, (c) => `\\u${c.charCodeAt(0).toString(16).padStart(4, '0')}`);
+    expect(escaped).not.toMatch(/[^\x00-\x7f]/);
+    expect(serialiseModel(parseModel(Buffer.from(escaped), 'm.json'))).toBe(serialiseModel(fromText));
+    const both = escaped.replace('\\u00c5\\u00b3', 'Å³');
+    expect(both).not.toBe(escaped);
+    expect(serialiseModel(parseModel(Buffer.from(both), 'm.json'))).toBe(serialiseModel(fromText));
+    // a broken UTF-8 sequence inside a string (a lone lead byte): what decoding the whole as UTF-8 gives, U+FFFD
+    const at = bytes.indexOf(Buffer.from('bad '));
+    const broken = Buffer.concat([bytes.subarray(0, at + 4), Buffer.from([0xe2, 0x82]), bytes.subarray(at + 4)]);
+    const viaUtf8 = JSON.parse(broken.toString('utf8'));
+    viaUtf8.checksum.value = createHash('sha256').update(canonicalJson(viaUtf8.payload)).digest('hex');
+    const signed = Buffer.from(broken.toString('latin1').replace(doc.checksum.value, viaUtf8.checksum.value), 'latin1');
+    expect(parseModel(signed, 'm.json').notes).toEqual(viaUtf8.payload.notes);
+  });
+
+  it('reads a file written the older way (payload keys in the model order) from its bytes, as before', () => {
+    const text = serialiseModel(designModel);
+    const doc = JSON.parse(text);
+    // the payload's keys in another order (the writer before kept the model's), and spaces: the same checksum
+    const reordered = JSON.stringify({ ...doc, payload: Object.fromEntries(Object.entries(doc.payload).reverse()) });
+    for (const t of [reordered, ` ${reordered.replace('"payload":', '"payload": ')}\n`]) {
+      expect(t).not.toContain(text.slice(text.indexOf(',"payload":'), -2));
+      expect(serialiseModel(parseModel(Buffer.from(t), 'old.json'))).toBe(text);
+    }
+  });
+
+  it('refuses damaged bytes: a flipped character of an array, an edited digit, a cut end', () => {
+    const text = serialiseModel(model);
+    const bytes = Buffer.from(text);
+    const weights = text.indexOf('"f64":"', text.indexOf('"weights"')) + 20;
+    const flipped = Buffer.from(bytes);
+    flipped[weights] = flipped[weights] === 0x41 ? 0x42 : 0x41;
+    expect(() => parseModel(flipped, 'flipped.json')).toThrow(/flipped\.json: checksum mismatch/);
+    const doc = JSON.parse(text);
+    const digit = text.indexOf(JSON.stringify(doc.payload.baseline[0]));
+    const edited = Buffer.from(bytes);
+    edited[digit + 3] = edited[digit + 3] === 0x31 ? 0x32 : 0x31;
+    expect(() => parseModel(edited, 'edited.json')).toThrow(/edited\.json: checksum mismatch/);
+    expect(() => parseModel(bytes.subarray(0, bytes.length - 2), 'cut.json')).toThrow(/cut\.json: not a model file/);
+    // an extra key after the payload: not the signed text; the walk still finds the payload as signed
+    expect(serialiseModel(parseModel(Buffer.from(text.replace(/}\n$/, ',"extra":1}\n')), 'x.json'))).toBe(text);
   });
 
   it('saves atomically and loads back; a missing file is a ModelError', async () => {

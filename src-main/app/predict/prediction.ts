@@ -52,7 +52,7 @@ function predictorOnDemand(model: Model): Predictor {
 /** Read, checksum and parse a model file (once per process: pass the result on rather than the path). */
 export async function loadModelFile(path: string, label = path): Promise<LoadedModel> {
   const bytes = await readModelBytes(path);
-  const model = parseModel(bytes.toString('utf8'), path);
+  const model = parseModel(bytes, path);
   return { path, label, sha256: sha256Hex(bytes), model, predict: predictorOnDemand(model) };
 }
 

@@ -21,10 +21,10 @@ import { indexExtxyz, type FrameRange } from '../../io/extxyz.ts';
 import { syncFolder, writeError, writeFileAtomic } from '../../io/atomic.ts';
 import { isGzipFile } from '../../io/gzip.ts';
 import { readError } from '../../io/whole-file.ts';
-import { frameSlices, type SlicePosition } from '../../io/frame-slices.ts';
+import { frameSlices, type FrameSlice, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import type { PredictFormat } from './predict-frame.ts';
-import { predictFrames, type PredictChunkInput, type PredictChunkOutput } from './predict-tasks.ts';
+import { parseFrameBytes, predictFrames, type PredictChunkInput, type PredictChunkOutput } from './predict-tasks.ts';
 import { csvLayoutOf, firstFrameOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
 import { sharedModel } from './shared-model.ts';
 import { JobRunner, type WorkerFactory } from '../../jobs/runner.ts';
@@ -207,7 +207,6 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   const loaded = opts.model ?? (await loadModelFile(opts.modelPath, opts.modelLabel ?? opts.modelPath));
   const { model, sha256: modelSha256 } = loaded;
   predictOutputFormat(opts.output, model);
-  const csvOptions = opts.csvOptions ?? (format === 'csv' ? csvLayoutOf(loaded, await firstFrameOf(opts.input, opts.range, signal)) : undefined);
 
   let stat;
   try {
@@ -272,7 +271,62 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   let partialBytes = ck?.partialBytes ?? 0;
   if (ck) from = ck.next;
 
-  const fh = await fsp.open(partial, ck ? 'r+' : 'w').catch((e: unknown) => {
+  const stop = selection.stop;
+  const decide = (k: number) => (stop !== null && k >= stop ? 'stop' : k < selection.start || (k - selection.start) % step !== 0 ? 'skip' : 'take') as 'take' | 'skip' | 'stop';
+  const slices = frameSlices(opts.input, from, decide, signal);
+  let batchSize = opts.batchFrames ?? 4 * threads;
+  // The first slices, read before any file is made: a whole selection that fits in one small batch, with no run
+  // to continue, is predicted here (no worker) and written at once (writeFileAtomic), without the partial file and
+  // checkpoints a long run keeps; the same bytes, fewer flushes to disk.
+  const head: { slices: FrameSlice[]; bytes: number; ended: boolean } = { slices: [], bytes: 0, ended: false };
+  const inProcessBytes = opts.inProcessBytes ?? IN_PROCESS_BYTES;
+  if (!ck && inProcessBytes > 0) {
+    try {
+      while (head.slices.length < batchSize && head.bytes <= inProcessBytes) {
+        const n = await slices.next();
+        if (n.done) {
+          head.ended = true;
+          break;
+        }
+        head.slices.push(n.value);
+        head.bytes += n.value.bytes?.length ?? 0;
+        if (signal?.aborted) throw new CancelledError();
+      }
+    } catch (e) {
+      if (signal?.aborted && !(e instanceof InputError)) throw new CancelledError();
+      throw e;
+    }
+  }
+  // the CSV layout, from the selection's first frame: parsed from the slices just read when they begin with it
+  // (no checkpoint, no shard: they start at the file's beginning), else read from the file
+  const first = !ck && !opts.shard ? head.slices.find((x) => x.bytes) : undefined;
+  const firstFrame = async () => {
+    if (!first) return firstFrameOf(opts.input, opts.range, signal);
+    try {
+      return parseFrameBytes(opts.input, first.index, first.line, first.bytes as Buffer);
+    } catch {
+      return null; // the run itself says why
+    }
+  };
+  const csvOptions = opts.csvOptions ?? (format === 'csv' ? csvLayoutOf(loaded, await firstFrame()) : undefined);
+  const headFrames = head.slices.filter((x) => x.bytes).map((x) => ({ index: x.index, line: x.line, bytes: new Uint8Array((x.bytes as Buffer).buffer, (x.bytes as Buffer).byteOffset, (x.bytes as Buffer).byteLength) }));
+  if (head.ended && headFrames.length > 0 && headFrames.length < batchSize && head.bytes <= inProcessBytes) {
+    const r = predictFrames(model, loaded.predict, { file: opts.input, format, stamp, frames: headFrames, csvOptions }, { signal: signal ?? new AbortController().signal, progress: () => {} });
+    if (signal?.aborted) throw new CancelledError();
+    const text = (format === 'csv' ? predictionCsvHeader(model, identity, csvOptions) : '') + r.text;
+    await writeFileAtomic(opts.output, text);
+    // what an earlier, restarted run left: gone, as at the end of a run through the partial file
+    await Promise.all([fsp.rm(partial, { force: true }), fsp.rm(ckPath, { force: true })]);
+    let oneSums: SetSums | null = null;
+    for (const f of r.set) if (f) oneSums = addToSums(oneSums ?? emptySums(), f);
+    framesDone = r.index.length;
+    outside = r.outside.filter(Boolean).length;
+    opts.onProgress?.({ done: framesDone, doneThisRun: framesDone, total, fraction: 1, framesPerSecond: framesDone / Math.max((Date.now() - started) / 1000, 1e-9), secondsLeft: 0, resumedFrom: 0 });
+    return { output: opts.output, format, frames: framesDone, framesThisRun: framesDone, resumedFrom: 0, outside, summary: oneSums ? summaryOfSums(oneSums) : null, seconds: (Date.now() - started) / 1000, threads, modelSha256, selection };
+  }
+
+  const fh = await fsp.open(partial, ck ? 'r+' : 'w').catch(async (e: unknown) => {
+    await slices.return(undefined).catch(() => undefined);
     throw writeError(opts.output, e);
   });
   let runner: JobRunner | null = null;
@@ -302,7 +356,6 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       graceMs: 500,
       reuseWorkers: opts.reuseWorkers ?? true,
     });
-    let batchSize = opts.batchFrames ?? 4 * threads;
     const targetMs = 1000 * (opts.batchSeconds ?? DEFAULT_BATCH_SECONDS);
     let seq = 0;
     let written = 0;
@@ -363,12 +416,14 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       inFlight.set(seq++, { promise, next, frames: frames.length });
     };
 
-    const stop = selection.stop;
-    const decide = (k: number) => (stop !== null && k >= stop ? 'stop' : k < selection.start || (k - selection.start) % step !== 0 ? 'skip' : 'take') as 'take' | 'skip' | 'stop';
     let batch: PredictChunkInput['frames'] = [];
     let batchBytes = 0;
     let pos = from;
-    for await (const s of frameSlices(opts.input, from, decide, signal)) {
+    // the slices read above first, then the rest of the file
+    for await (const s of (async function* () {
+      yield* head.slices;
+      if (!head.ended) yield* slices;
+    })()) {
       pos = s.next;
       if (s.bytes) {
         batch.push({ index: s.index, line: s.line, bytes: new Uint8Array(s.bytes.buffer, s.bytes.byteOffset, s.bytes.byteLength) });
@@ -382,7 +437,7 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       }
       if (signal?.aborted) throw new CancelledError();
     }
-    if (batch.length > 0 && seq === 0 && batchBytes <= (opts.inProcessBytes ?? IN_PROCESS_BYTES)) {
+    if (batch.length > 0 && seq === 0 && batchBytes <= inProcessBytes) {
       // the whole selection in one small batch: here, with this process's model and predictor
       const input = { file: opts.input, format, stamp, frames: batch, csvOptions };
       const promise = Promise.resolve().then(() => predictFrames(model, loaded.predict, input, { signal: signal ?? new AbortController().signal, progress: () => {} }));
@@ -412,6 +467,8 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     const kept = framesDone > 0 || ck !== null;
     throw w instanceof InputError && full && kept ? new InputError(w.problem, w.where, 'free some space, then run the same command again: it continues from the checkpoint') : w;
   } finally {
+    // the file reader, when it stopped early (an error)
+    await slices.return(undefined).catch(() => undefined);
     // idle workers are unref'd and would not hold the process, but they hold memory (the model): free them now
     await runner?.close();
   }

@@ -116,6 +116,15 @@ describe('streamPredict', () => {
       started = 0;
       expect(r.frames).toBe(range.stop - range.start);
       expect(readFileSync(here, 'utf8')).toBe(readFileSync(there, 'utf8'));
+      // written at once: no partial file or checkpoint left, also none that a restarted earlier run had left
+      const { partial, checkpoint } = checkpointPaths(here);
+      writeFileSync(partial, 'left by an interrupted run');
+      writeFileSync(checkpoint, '{}');
+      const again = await run({ modelPath: modelPath(), input: input(), output: here, range, threads: 2, spawn, mode: 'restart' });
+      expect(started).toBe(0);
+      expect(again.summary).toEqual(r.summary);
+      expect(readFileSync(here, 'utf8')).toBe(readFileSync(there, 'utf8'));
+      expect(existsSync(partial) || existsSync(checkpoint)).toBe(false);
     }
   }, 60_000);
 

@@ -1,0 +1,93 @@
+// Loads the pre-built command as one script (out/cli/main.cjs, scripts/build-cli.mjs) with a V8 code cache, so
+// that a run skips most of compiling the program (Node 20 keeps no code cache for modules, so bin/polarweave.mjs
+// would otherwise compile main.mjs and its chunks at every start). The cache is a file in the command's cache
+// folder (the folder of the radial tables, src-main/io/radial-table-store.ts):
+//   code-<first 24 hex digits of SHA-256(Node version, architecture, the script's text)>.v8 — the bytes
+//   createCachedData gave after a run (so they hold the functions that run compiled), then their 32-byte SHA-256.
+// A cache only: a missing, damaged or refused cache (V8 checks its own version and flags too) costs one compile
+// and is written again after the run; any trouble reading or writing it is ignored. Written atomically
+// (temporary file, then rename); the newest few are kept.
+import { createHash } from 'node:crypto';
+import { mkdirSync, readdirSync, readFileSync, renameSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import { createRequire } from 'node:module';
+import { homedir } from 'node:os';
+import { dirname, join } from 'node:path';
+import { Script } from 'node:vm';
+
+/** Code caches kept in the folder (one per build of the command and Node version). */
+const KEEP = 4;
+
+/**
+ * The command's cache folder. The same rule as cacheFolder() of src-main/io/radial-table-store.ts, which the
+ * program uses once loaded (this runs before it is); test/cli/bundle.test.ts holds the two equal.
+ */
+export function cacheFolder(env = process.env) {
+  if (env.POLARWEAVE_CACHE_DIR) return env.POLARWEAVE_CACHE_DIR;
+  return join(env.XDG_CACHE_HOME || join(homedir(), '.cache'), 'polarweave');
+}
+
+const sha256 = (bytes) => createHash('sha256').update(bytes).digest();
+
+function readCache(file) {
+  try {
+    const bytes = readFileSync(file);
+    if (bytes.length <= 32) return undefined;
+    const body = bytes.subarray(0, bytes.length - 32);
+    return sha256(body).equals(bytes.subarray(bytes.length - 32)) ? body : undefined;
+  } catch {
+    return undefined;
+  }
+}
+
+function writeCache(file, data) {
+  const folder = dirname(file);
+  const temporary = `${file}.${process.pid}.${Math.random().toString(36).slice(2)}.tmp`;
+  try {
+    mkdirSync(folder, { recursive: true });
+    writeFileSync(temporary, Buffer.concat([data, sha256(data)]));
+    renameSync(temporary, file);
+    const caches = readdirSync(folder)
+      .filter((f) => /^code-[0-9a-f]{24}\.v8$/.test(f))
+      .map((f) => ({ f, t: statSync(join(folder, f)).mtimeMs }))
+      .sort((a, b) => b.t - a.t);
+    for (const { f } of caches.slice(KEEP)) rmSync(join(folder, f), { force: true });
+  } catch {
+    rmSync(temporary, { force: true });
+  }
+}
+
+/**
+ * The exports of the script at `file` (a CommonJS bundle), compiled with the code cache; `afterRun()` stores a
+ * new cache when there was none or V8 refused it. Null when the script cannot be read or run: the caller then
+ * loads the program its usual way (nothing of the script has run but its definitions).
+ */
+export function loadProgram(file, env = process.env) {
+  let source;
+  try {
+    source = readFileSync(file, 'utf8');
+  } catch {
+    return null;
+  }
+  const cacheFile = join(cacheFolder(env), `code-${createHash('sha256').update(`${process.version}\n${process.arch}\n`).update(source).digest('hex').slice(0, 24)}.v8`);
+  const cachedData = readCache(cacheFile);
+  const module = { exports: {} };
+  let script;
+  try {
+    script = new Script(`(function (exports, require, module, __filename, __dirname) {${source}\n})`, { filename: file, cachedData });
+    script.runInThisContext()(module.exports, createRequire(file), module, file, dirname(file));
+  } catch {
+    return null;
+  }
+  const fresh = cachedData === undefined || script.cachedDataRejected === true;
+  return {
+    exports: module.exports,
+    afterRun() {
+      if (!fresh) return;
+      try {
+        writeCache(cacheFile, script.createCachedData());
+      } catch {
+        // a cache only
+      }
+    },
+  };
+}
