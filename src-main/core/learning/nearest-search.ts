@@ -12,6 +12,7 @@
 // representatives' owner object), so the saved model stays a plain structured-clone-friendly object.
 
 import { nearestDistance } from './sparse.ts';
+import { predictKernels, residentName, type PredictKernels, type Region } from '../wasm/prediction-kernels.ts';
 
 /**
  * Basis size per species, chosen by measurement (bench/applicability.bench.ts: water-like frames, nmax 8, lmax 6,
@@ -455,6 +456,8 @@ export function searchNearest(search: NearestSearch, a: Float64Array, i: number,
  * the coordinates of four queries of one species computed in one pass (project).
  */
 export function searchNearestAll(search: NearestSearch, a: Float64Array, count: number, species: Int32Array, out: Float64Array, counter?: SearchCounter): void {
+  const k = predictKernels();
+  if (k && wasmSearchAll(k, search, a, count, species, out, counter)) return;
   const n0 = search.n0;
   for (let e = 0; e < count; e++) if (!search.species.has(species[e])) out[e] = Infinity;
   if (counter) counter.queries += count;
@@ -482,4 +485,120 @@ function ensureScratch(search: NearestSearch, sp: SpeciesSearch): void {
   if (scratchBound.length < sp.rows.length) scratchBound = new Float64Array(sp.rows.length);
   if (scratchCoords.length < 4 * sp.d) scratchCoords = new Float64Array(4 * sp.d);
   if (scratchCentred.length < 4 * search.n0) scratchCentred = new Float64Array(4 * search.n0);
+}
+
+/** Queries copied into the kernel's memory at a time (a 384-atom frame in one or two passes, bounded scratch). */
+const QUERY_CHUNK = 256;
+
+/** Byte offsets, from the start of the resident region, of each species' record (assembly searchSpecies `sp`). */
+interface SearchLayout {
+  bytes: number;
+  record: Map<number, number>;
+  /** The largest representative count and basis size of a species (the scratch is sized for them). */
+  maxRows: number;
+  maxBasis: number;
+}
+const layouts = new WeakMap<NearestSearch, SearchLayout>();
+
+const bytes16 = (n: number) => Math.ceil(n / 16) * 16;
+
+function searchLayout(search: NearestSearch): SearchLayout {
+  let l = layouts.get(search);
+  if (l) return l;
+  const n0 = search.n0;
+  let p = 0;
+  const record = new Map<number, number>();
+  let maxRows = 0;
+  let maxBasis = 0;
+  for (const [s, sp] of search.species) {
+    const m = sp.rows.length;
+    record.set(s, p);
+    // record, representatives (m × n0), mean, basis (d × n0), coordinates (d × m), residual norms (m)
+    p += 32 + bytes16(8 * m * n0) + bytes16(8 * n0) + bytes16(8 * sp.d * n0) + bytes16(8 * sp.d * m) + bytes16(8 * m);
+    maxRows = Math.max(maxRows, m);
+    maxBasis = Math.max(maxBasis, sp.d);
+  }
+  l = { bytes: p, record, maxRows, maxBasis };
+  layouts.set(search, l);
+  return l;
+}
+
+/** Writes the species' records and arrays of `search` at byte address `at` (layout of searchLayout). */
+function writeSearch(k: PredictKernels, search: NearestSearch, at: number): void {
+  const n0 = search.n0;
+  const buffer = k.module.f64(at, 0).buffer;
+  const { record } = searchLayout(search);
+  for (const [s, sp] of search.species) {
+    const m = sp.rows.length;
+    const d = sp.d;
+    const base = at + (record.get(s) as number);
+    const reps = base + 32;
+    const mean = reps + bytes16(8 * m * n0);
+    const basis = mean + bytes16(8 * n0);
+    const coordsT = basis + bytes16(8 * d * n0);
+    const residual = coordsT + bytes16(8 * d * m);
+    new Int32Array(buffer, base, 8).set([m, d, n0, reps, mean, basis, coordsT, residual]);
+    const r = k.module.f64(reps, m * n0);
+    for (let j = 0; j < m; j++) r.set(search.reps.subarray(sp.rows[j] * n0, sp.rows[j] * n0 + n0), j * n0);
+    k.module.f64(mean, n0).set(sp.mean);
+    k.module.f64(basis, d * n0).set(sp.basis);
+    k.module.f64(coordsT, d * m).set(sp.coordsT);
+    k.module.f64(residual, m).set(sp.residual);
+  }
+}
+
+/** The key of the search's scratch region in the kernel arena. */
+const SEARCH_SCRATCH = {};
+
+/**
+ * searchNearestAll through the WebAssembly kernel (assembly/prediction-kernels.ts searchSpecies: the same numbers
+ * bit for bit): the prepared representatives stay in the module's memory per search, the queries are copied in
+ * QUERY_CHUNK rows at a time. False when the kernel's memory cannot hold them (the JavaScript path then runs).
+ */
+function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array, count: number, species: Int32Array, out: Float64Array, counter?: SearchCounter): boolean {
+  const n0 = search.n0;
+  const layout = searchLayout(search);
+  // scratch: record (5 addresses), bound, centred queries, coordinates, squared norms, statistics; query rows,
+  // their indices and distances
+  const bound = 32;
+  const xc = bound + bytes16(8 * layout.maxRows);
+  const q = xc + 8 * 4 * n0;
+  const xx = q + bytes16(8 * 4 * layout.maxBasis);
+  const stats = xx + 32;
+  const rows = stats + 16;
+  const idx = rows + 8 * QUERY_CHUNK * n0;
+  const dist = idx + 4 * QUERY_CHUNK;
+  const scratchBytes = dist + 8 * QUERY_CHUNK;
+  const regions: Region[] = [
+    { name: residentName('search', search), key: search, bytes: layout.bytes, fill: (_m, at) => writeSearch(k, search, at) },
+    { name: 'search-scratch', key: SEARCH_SCRATCH, bytes: scratchBytes },
+  ];
+  const at = k.arena.acquire(regions);
+  if (!at) return false;
+  const [searchAt, scr] = at;
+  const buffer = k.module.f64(scr, 0).buffer;
+  new Int32Array(buffer, scr, 5).set([scr + bound, scr + xc, scr + q, scr + xx, scr + stats]);
+  const statsView = k.module.f64(scr + stats, 2);
+  statsView.fill(0);
+  const rowsView = k.module.f64(scr + rows, QUERY_CHUNK * n0);
+  const idxView = new Int32Array(buffer, scr + idx, QUERY_CHUNK);
+  const distView = k.module.f64(scr + dist, QUERY_CHUNK);
+  for (let e0 = 0; e0 < count; e0 += QUERY_CHUNK) {
+    const e1 = Math.min(count, e0 + QUERY_CHUNK);
+    rowsView.set(a.subarray(e0 * n0, e1 * n0));
+    for (let e = e0; e < e1; e++) if (!search.species.has(species[e])) out[e] = Infinity;
+    for (const s of search.species.keys()) {
+      let nq = 0;
+      for (let e = e0; e < e1; e++) if (species[e] === s) idxView[nq++] = e - e0;
+      if (nq === 0) continue;
+      k.searchSpecies(searchAt + (layout.record.get(s) as number), scr, scr + rows, scr + idx, nq, scr + dist);
+      for (let j = 0; j < nq; j++) out[e0 + idxView[j]] = distView[j];
+    }
+  }
+  if (counter) {
+    counter.queries += count;
+    counter.exact += statsView[0];
+    counter.summed += statsView[1];
+  }
+  return true;
 }

@@ -19,7 +19,7 @@ import type { EnvironmentFeatures, FeatureSettings } from '../descriptors/featur
 import { featurePlan, featurise, prepare, type FeatureTimings, type Plan, type TensorPlan } from '../descriptors/features.ts';
 import type { Frame } from '../geometry/frame.ts';
 import type { KernelModule } from '../wasm/load.ts';
-import { predictKernels, type Region } from '../wasm/prediction-kernels.ts';
+import { predictKernels, residentName, type Region } from '../wasm/prediction-kernels.ts';
 
 /** What a read-out needs per environment: its weight matrices (weightMatrices layout). */
 export interface TensorReadout {
@@ -378,12 +378,12 @@ function wasmReadout(P: Plan, T: TensorPlan, readout: TensorReadout, scalar: Flo
   const yOff = (cLen + 2) * 8;
   const wOff = yOff + Math.ceil(nM / 2) * 16;
   const regions: Region[] = [
-    { name: 'readout-plan', key: T, bytes: layoutPlan(P, T, 0, null), fill: (m, at) => layoutPlan(P, T, at, m) },
+    { name: residentName('readout-plan', T), key: T, bytes: layoutPlan(P, T, 0, null), fill: (m, at) => layoutPlan(P, T, at, m) },
     { name: 'readout-scratch', key: READOUT_SCRATCH, bytes: wOff + (perSpecies ? 0 : wStride) },
   ];
   if (perSpecies) {
     regions.push({
-      name: 'readout-weights',
+      name: residentName('readout-weights', perSpecies),
       key: perSpecies,
       bytes: perSpecies.length * wStride,
       fill: (m, at) => perSpecies.forEach((w, s) => m.f64(at + s * wStride, wSize).set(w.subarray(0, wSize))),

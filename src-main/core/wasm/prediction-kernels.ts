@@ -13,7 +13,11 @@ export interface PredictKernels {
   searchSpecies(species: number, scratch: number, queries: number, idx: number, nq: number, out: number): void;
 }
 
-/** What a caller asks the arena for: a region named `name` made for `key` (an object whose contents it holds). */
+/**
+ * What a caller asks the arena for: a region named `name` made for `key` (an object whose contents it holds).
+ * Name a resident region by residentName(prefix, key), so that several (two models' searches) can stay side by
+ * side; a scratch region by a fixed name.
+ */
 export interface Region {
   name: string;
   key: object;
@@ -33,7 +37,8 @@ export const ARENA_LIMIT = 256 * 2 ** 20;
  */
 export class Arena {
   private top: number;
-  private readonly slots = new Map<string, { key: object; at: number; bytes: number }>();
+  // keys are held weakly: a region never keeps a model alive (its place is reused when the arena starts again)
+  private readonly slots = new Map<string, { key: WeakRef<object>; at: number; bytes: number }>();
   constructor(private readonly module: KernelModule) {
     this.top = module.heapBase;
   }
@@ -44,7 +49,7 @@ export class Arena {
     if (!(total <= ARENA_LIMIT)) return null;
     const missing = requests.filter((r) => {
       const s = this.slots.get(r.name);
-      return !s || s.key !== r.key || s.bytes < r.bytes;
+      return !s || s.key.deref() !== r.key || s.bytes < r.bytes;
     });
     if (missing.length) {
       const extra = missing.reduce((s, r) => s + align(r.bytes), 0);
@@ -57,12 +62,25 @@ export class Arena {
       for (const r of missing) {
         const at = this.top;
         this.top += align(r.bytes);
-        this.slots.set(r.name, { key: r.key, at, bytes: align(r.bytes) });
+        this.slots.set(r.name, { key: new WeakRef(r.key), at, bytes: align(r.bytes) });
         r.fill?.(this.module, at);
       }
     }
     return requests.map((r) => (this.slots.get(r.name) as { at: number }).at);
   }
+}
+
+const ids = new WeakMap<object, number>();
+let nextId = 0;
+
+/** A region name of its own for `key` (prefix and a number given to the object on first use). */
+export function residentName(prefix: string, key: object): string {
+  let id = ids.get(key);
+  if (id === undefined) {
+    id = nextId++;
+    ids.set(key, id);
+  }
+  return `${prefix}:${id}`;
 }
 
 function align(bytes: number): number {

@@ -230,26 +230,6 @@ const RHO_ALLOWANCE: f64 = 1e-10;
   return f64x2.extract_lane(v, 0) + f64x2.extract_lane(v, 1);
 }
 
-/** Σ_f (x_f − y_f)² in any order (bounds only). */
-function squaredNorm(x: usize, n0: i32): f64 {
-  let s0 = f64x2.splat(0);
-  let s1 = f64x2.splat(0);
-  let f = 0;
-  for (; f + 3 < n0; f += 4) {
-    const p = x + (<usize>f << 3);
-    const a = v128.load(p);
-    const b = v128.load(p, 16);
-    s0 = f64x2.add(s0, f64x2.mul(a, a));
-    s1 = f64x2.add(s1, f64x2.mul(b, b));
-  }
-  let s = hsum(f64x2.add(s0, s1));
-  for (; f < n0; f++) {
-    const v = f64.load(x + (<usize>f << 3));
-    s += v * v;
-  }
-  return s;
-}
-
 /** Σ_f x_f y_f in any order (bounds only). */
 function dot(x: usize, y: usize, n0: i32): f64 {
   let s0 = f64x2.splat(0);
@@ -263,6 +243,95 @@ function dot(x: usize, y: usize, n0: i32): f64 {
   let s = hsum(f64x2.add(s0, s1));
   for (; f < n0; f++) s += f64.load(x + (<usize>f << 3)) * f64.load(y + (<usize>f << 3));
   return s;
+}
+
+/** o = x − mean (n0 numbers); returns |o|² (any summation order: bounds only). */
+function centre(x: usize, mean: usize, o: usize, n0: i32): f64 {
+  let s0 = f64x2.splat(0);
+  let s1 = f64x2.splat(0);
+  let f = 0;
+  for (; f + 3 < n0; f += 4) {
+    const b = <usize>f << 3;
+    const u = f64x2.sub(v128.load(x + b), v128.load(mean + b));
+    const v = f64x2.sub(v128.load(x + b, 16), v128.load(mean + b, 16));
+    v128.store(o + b, u);
+    v128.store(o + b, v, 16);
+    s0 = f64x2.add(s0, f64x2.mul(u, u));
+    s1 = f64x2.add(s1, f64x2.mul(v, v));
+  }
+  let s = hsum(f64x2.add(s0, s1));
+  for (; f < n0; f++) {
+    const b = <usize>f << 3;
+    const v = f64.load(x + b) - f64.load(mean + b);
+    f64.store(o + b, v);
+    s += v * v;
+  }
+  return s;
+}
+
+/**
+ * q[g·d + j] = Σ_f basis[j][f] · xc[g][f] for the four centred queries xc (rows of n0) and the d basis vectors, two
+ * basis vectors by four queries per pass over f (any summation order: bounds only).
+ */
+function project(basis: usize, d: i32, xc: usize, n0: i32, q: usize): void {
+  const rowBytes = <usize>n0 << 3;
+  const x0 = xc;
+  const x1 = x0 + rowBytes;
+  const x2 = x1 + rowBytes;
+  const x3 = x2 + rowBytes;
+  const dBytes = <usize>d << 3;
+  let j = 0;
+  for (; j + 1 < d; j += 2) {
+    const u = basis + <usize>j * rowBytes;
+    const v = u + rowBytes;
+    let a0 = f64x2.splat(0), a1 = a0, a2 = a0, a3 = a0, b0 = a0, b1 = a0, b2 = a0, b3 = a0;
+    let f = 0;
+    for (; f + 1 < n0; f += 2) {
+      const o = <usize>f << 3;
+      const bu = v128.load(u + o);
+      const bv = v128.load(v + o);
+      const y0 = v128.load(x0 + o);
+      const y1 = v128.load(x1 + o);
+      const y2 = v128.load(x2 + o);
+      const y3 = v128.load(x3 + o);
+      a0 = f64x2.add(a0, f64x2.mul(bu, y0));
+      a1 = f64x2.add(a1, f64x2.mul(bu, y1));
+      a2 = f64x2.add(a2, f64x2.mul(bu, y2));
+      a3 = f64x2.add(a3, f64x2.mul(bu, y3));
+      b0 = f64x2.add(b0, f64x2.mul(bv, y0));
+      b1 = f64x2.add(b1, f64x2.mul(bv, y1));
+      b2 = f64x2.add(b2, f64x2.mul(bv, y2));
+      b3 = f64x2.add(b3, f64x2.mul(bv, y3));
+    }
+    let s0 = hsum(a0), s1 = hsum(a1), s2 = hsum(a2), s3 = hsum(a3);
+    let t0 = hsum(b0), t1 = hsum(b1), t2 = hsum(b2), t3 = hsum(b3);
+    if (f < n0) {
+      const o = <usize>f << 3;
+      const bu = f64.load(u + o);
+      const bv = f64.load(v + o);
+      s0 += bu * f64.load(x0 + o);
+      s1 += bu * f64.load(x1 + o);
+      s2 += bu * f64.load(x2 + o);
+      s3 += bu * f64.load(x3 + o);
+      t0 += bv * f64.load(x0 + o);
+      t1 += bv * f64.load(x1 + o);
+      t2 += bv * f64.load(x2 + o);
+      t3 += bv * f64.load(x3 + o);
+    }
+    const p = q + (<usize>j << 3);
+    f64.store(p, s0);
+    f64.store(p, t0, 8);
+    f64.store(p + dBytes, s1);
+    f64.store(p + dBytes, t1, 8);
+    f64.store(p + 2 * dBytes, s2);
+    f64.store(p + 2 * dBytes, t2, 8);
+    f64.store(p + 3 * dBytes, s3);
+    f64.store(p + 3 * dBytes, t3, 8);
+  }
+  if (j < d) {
+    const u = basis + <usize>j * rowBytes;
+    for (let g = 0; g < 4; g++) f64.store(q + <usize>g * dBytes + (<usize>j << 3), dot(u, xc + <usize>g * rowBytes, n0));
+  }
 }
 
 /**
@@ -340,20 +409,9 @@ export function searchSpecies(sp: usize, scr: usize, queries: usize, idx: usize,
     // centred queries, their squared norms and coordinates (free summation order: they only feed the bound)
     for (let g = 0; g < 4; g++) {
       const row = load<i32>(idx + (<usize>(g0 + (g < count ? g : 0)) << 2));
-      const x = queries + <usize>row * rowBytes;
-      const o = xc + <usize>g * rowBytes;
-      let f = 0;
-      for (; f + 1 < n0; f += 2) {
-        const b = <usize>f << 3;
-        v128.store(o + b, f64x2.sub(v128.load(x + b), v128.load(mean + b)));
-      }
-      if (f < n0) f64.store(o + (<usize>f << 3), f64.load(x + (<usize>f << 3)) - f64.load(mean + (<usize>f << 3)));
-      f64.store(xx + (<usize>g << 3), squaredNorm(o, n0));
+      f64.store(xx + (<usize>g << 3), centre(queries + <usize>row * rowBytes, mean, xc + <usize>g * rowBytes, n0));
     }
-    for (let j = 0; j < d; j++) {
-      const bj = basis + <usize>j * rowBytes;
-      for (let g = 0; g < 4; g++) f64.store(q + (<usize>(g * d + j) << 3), dot(bj, xc + <usize>g * rowBytes, n0));
-    }
+    project(basis, d, xc, n0, q);
     for (let g = 0; g < count; g++) {
       const row = load<i32>(idx + (<usize>(g0 + g) << 2));
       const best = nearestOf(m, d, n0, reps, coordsT, residual, bound, queries + <usize>row * rowBytes, q + (<usize>(g * d) << 3), f64.load(xx + (<usize>g << 3)), stats);
@@ -362,9 +420,7 @@ export function searchSpecies(sp: usize, scr: usize, queries: usize, idx: usize,
   }
 }
 
-// the four smallest bounds and the current group (fixed scratch: the module runs one search at a time)
-const first = memory.data(16);
-const firstBound = memory.data(32);
+// the current group and its sums (fixed scratch: the module runs one search at a time)
 const group = memory.data(16);
 const sums = memory.data(32);
 
@@ -378,53 +434,72 @@ function nearestOf(m: i32, d: i32, n0: i32, reps: usize, coordsT: usize, residua
   const allowance = RHO_ALLOWANCE * xx;
   const lo = Math.sqrt(Math.max(0, t - allowance));
   const hi = Math.sqrt(Math.max(0, t + allowance));
-  for (let k = 0; k < m; k++) {
-    const rk = f64.load(residual + (<usize>k << 3));
-    const gap = rk > hi ? rk - hi : rk < lo ? lo - rk : 0;
-    f64.store(bound + (<usize>k << 3), gap * gap);
-  }
+  // bound = gap² + |q − coordinates|², two representatives per lane pair; where ρ_x is unknown (NaN) the bound
+  // is NaN and rules nothing out
+  const lov = f64x2.splat(lo);
+  const hiv = f64x2.splat(hi);
+  const zero = f64x2.splat(0);
   const rowM = <usize>m << 3;
-  for (let j = 0; j < d; j++) {
-    const qj = f64x2.splat(f64.load(q + (<usize>j << 3)));
-    const cj = coordsT + <usize>j * rowM;
-    let k = 0;
-    for (; k + 1 < m; k += 2) {
-      const o = <usize>k << 3;
-      const g = f64x2.sub(qj, v128.load(cj + o));
-      v128.store(bound + o, f64x2.add(v128.load(bound + o), f64x2.mul(g, g)));
+  let k = 0;
+  for (; k + 1 < m; k += 2) {
+    const o = <usize>k << 3;
+    const rk = v128.load(residual + o);
+    const gap = f64x2.max(f64x2.max(f64x2.sub(rk, hiv), f64x2.sub(lov, rk)), zero);
+    let b = f64x2.mul(gap, gap);
+    let c = coordsT + o;
+    for (let j = 0; j < d; j++) {
+      const g = f64x2.sub(f64x2.splat(f64.load(q + (<usize>j << 3))), v128.load(c));
+      b = f64x2.add(b, f64x2.mul(g, g));
+      c += rowM;
     }
-    if (k < m) {
-      const o = <usize>k << 3;
-      const g = f64x2.extract_lane(qj, 0) - f64.load(cj + o);
-      f64.store(bound + o, f64.load(bound + o) + g * g);
+    v128.store(bound + o, b);
+  }
+  if (k < m) {
+    const o = <usize>k << 3;
+    const rk = f64.load(residual + o);
+    const gap = Math.max(Math.max(rk - hi, lo - rk), 0);
+    let b = gap * gap;
+    for (let j = 0; j < d; j++) {
+      const g = f64.load(q + (<usize>j << 3)) - f64.load(coordsT + <usize>j * rowM + o);
+      b += g * g;
     }
+    f64.store(bound + o, b);
   }
-  // the four smallest bounds first (usually holding the winner)
-  for (let g = 0; g < 4; g++) {
-    store<i32>(first + (<usize>g << 2), -1);
-    f64.store(firstBound + (<usize>g << 3), Infinity);
-  }
+  // the four smallest bounds first (usually holding the winner), in ascending order; -1 where fewer
+  let f0 = -1, f1 = -1, f2 = -1, f3 = -1;
+  let c0: f64 = Infinity, c1: f64 = Infinity, c2: f64 = Infinity, c3: f64 = Infinity;
   for (let k = 0; k < m; k++) {
     const b = f64.load(bound + (<usize>k << 3));
-    if (!(b < f64.load(firstBound, 24))) continue;
-    let g = 3;
-    while (g > 0 && b < f64.load(firstBound + (<usize>(g - 1) << 3))) {
-      f64.store(firstBound + (<usize>g << 3), f64.load(firstBound + (<usize>(g - 1) << 3)));
-      store<i32>(first + (<usize>g << 2), load<i32>(first + (<usize>(g - 1) << 2)));
-      g--;
+    if (!(b < c3)) continue;
+    if (b < c2) {
+      c3 = c2;
+      f3 = f2;
+      if (b < c1) {
+        c2 = c1;
+        f2 = f1;
+        if (b < c0) {
+          c1 = c0;
+          f1 = f0;
+          c0 = b;
+          f0 = k;
+        } else {
+          c1 = b;
+          f1 = k;
+        }
+      } else {
+        c2 = b;
+        f2 = k;
+      }
+    } else {
+      c3 = b;
+      f3 = k;
     }
-    f64.store(firstBound + (<usize>g << 3), b);
-    store<i32>(first + (<usize>g << 2), k);
   }
-  const f0 = load<i32>(first);
-  const f1 = load<i32>(first, 4);
-  const f2 = load<i32>(first, 8);
-  const f3 = load<i32>(first, 12);
-  let filled = 0;
-  while (filled < 4 && load<i32>(first + (<usize>filled << 2)) >= 0) {
-    store<i32>(group + (<usize>filled << 2), load<i32>(first + (<usize>filled << 2)));
-    filled++;
-  }
+  store<i32>(group, f0);
+  store<i32>(group, f1, 4);
+  store<i32>(group, f2, 8);
+  store<i32>(group, f3, 12);
+  let filled = f0 < 0 ? 0 : f1 < 0 ? 1 : f2 < 0 ? 2 : f3 < 0 ? 3 : 4;
   let best: f64 = Infinity;
   let exact = 0;
   let summed = 0;
