@@ -4,5 +4,8 @@
 import { appTasks } from './tasks.ts';
 import { selectTask } from './select-task.ts';
 import { serveTasks } from '../jobs/serve.ts';
+import { useRadialTableCache } from '../io/radial-table-store.ts';
 
+// radial tables from the cache folder the command uses too (a short job would spend a good share building one)
+useRadialTableCache();
 serveTasks({ ...appTasks, select: selectTask });

@@ -3,8 +3,7 @@
 import { formatOptions, parseArgs, UsageError } from './args.ts';
 import type { Command, CommandIO } from './command.ts';
 import { commands } from './commands/registry.ts';
-import { useRadialTableStore } from '../core/descriptors/density.ts';
-import { cacheFolder, radialTableFolder } from '../io/radial-table-store.ts';
+import { useRadialTableCache } from '../io/radial-table-store.ts';
 import { CancelledError, InputError, ModelError, PhysicsError } from '../core/errors.ts';
 
 const helpOption = { name: 'help', short: 'h', flag: true, help: 'show this help' } as const;
@@ -81,7 +80,7 @@ export async function runCli(argv: string[], io: CommandIO): Promise<number> {
 /** Called by bin/polarweave.mjs. */
 export async function main(): Promise<void> {
   // radial tables built by earlier runs (a short run, one predicted frame, would spend a good share building it)
-  useRadialTableStore(radialTableFolder(cacheFolder()));
+  useRadialTableCache();
   const controller = new AbortController();
   let interrupts = 0;
   process.on('SIGINT', () => {

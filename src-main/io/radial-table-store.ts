@@ -7,11 +7,14 @@
 //   functions that build a table, so tables of other code get other names; radialTable also rebuilds a few pieces
 //   and compares them bit for bit before it uses a stored table.
 // Written atomically (temporary file in the folder, then rename); never read above the expected length.
+// Every thread that computes features calls useRadialTableCache once at its start: the command (cli/main.ts), the
+// streamed predictor's workers (app/predict/predict-worker.ts) and the window's worker (app/worker.ts); a thread
+// has its own module state, so each sets its own.
 import { createHash } from 'node:crypto';
 import { closeSync, mkdirSync, openSync, readSync, renameSync, rmSync, writeFileSync, fstatSync } from 'node:fs';
 import { endianness, homedir } from 'node:os';
 import { join } from 'node:path';
-import { radialIntegral, radialTable, storedTableFits, type RadialTableStore } from '../core/descriptors/density.ts';
+import { radialIntegral, radialTable, storedTableFits, useRadialTableStore, type RadialTableStore } from '../core/descriptors/density.ts';
 import { radialBasis } from '../core/descriptors/radial-basis.ts';
 import { scaledSphericalBesselI } from '../core/descriptors/spherical-bessel.ts';
 import { gaussLegendre } from '../core/numerics/quadrature.ts';
@@ -20,6 +23,11 @@ import { gaussLegendre } from '../core/numerics/quadrature.ts';
 export function cacheFolder(env: NodeJS.ProcessEnv = process.env): string {
   if (env.POLARWEAVE_CACHE_DIR) return env.POLARWEAVE_CACHE_DIR;
   return join(env.XDG_CACHE_HOME || join(homedir(), '.cache'), 'polarweave');
+}
+
+/** This thread's radial tables from the cache folder (the one place that says which folder). */
+export function useRadialTableCache(env: NodeJS.ProcessEnv = process.env): void {
+  useRadialTableStore(radialTableFolder(cacheFolder(env)));
 }
 
 let fingerprint: string | null = null;

@@ -432,3 +432,96 @@ export function referenceDensityExpander(s: DensitySettings): DensityExpander {
     },
   };
 }
+
+// Farthest-point sampling and the leave-frame-out distances of core/learning/sparse.ts before the pruned searches.
+function referenceRowDistance(a: Float64Array, ia: number, b: Float64Array, ib: number, n0: number): number {
+  // four accumulators: this loop dominates farthest-point sampling and the applicability check
+  let s0 = 0;
+  let s1 = 0;
+  let s2 = 0;
+  let s3 = 0;
+  const oa = ia * n0;
+  const ob = ib * n0;
+  let f = 0;
+  for (; f + 3 < n0; f += 4) {
+    const d0 = a[oa + f] - b[ob + f];
+    const d1 = a[oa + f + 1] - b[ob + f + 1];
+    const d2 = a[oa + f + 2] - b[ob + f + 2];
+    const d3 = a[oa + f + 3] - b[ob + f + 3];
+    s0 += d0 * d0;
+    s1 += d1 * d1;
+    s2 += d2 * d2;
+    s3 += d3 * d3;
+  }
+  for (; f < n0; f++) {
+    const d = a[oa + f] - b[ob + f];
+    s0 += d * d;
+  }
+  return Math.sqrt(s0 + s1 + s2 + s3);
+}
+
+/**
+ * Farthest-point sampling of up to m rows among `candidates` (indices into p). Starts from the row farthest
+ * from the candidates' mean (deterministic, no randomness), then repeatedly adds the row farthest from the
+ * chosen set. Returns chosen indices in order and each candidate's distance to the chosen set.
+ */
+export function referenceFarthestPointSample(p: Float64Array, n0: number, candidates: Int32Array, m: number): { chosen: Int32Array; distance: Float64Array } {
+  const n = candidates.length;
+  const take = Math.min(m, n);
+  const chosen = new Int32Array(take);
+  const dist = new Float64Array(n).fill(Infinity);
+  if (take === 0) return { chosen, distance: dist };
+  const mean = new Float64Array(n0);
+  for (let c = 0; c < n; c++) for (let f = 0; f < n0; f++) mean[f] += p[candidates[c] * n0 + f] / n;
+  let next = 0;
+  let far = -1;
+  for (let c = 0; c < n; c++) {
+    const d = referenceRowDistance(p, candidates[c], mean, 0, n0);
+    if (d > far) {
+      far = d;
+      next = c;
+    }
+  }
+  for (let k = 0; k < take; k++) {
+    chosen[k] = candidates[next];
+    dist[next] = 0;
+    let best = -1;
+    let bestAt = 0;
+    for (let c = 0; c < n; c++) {
+      if (dist[c] > 0) {
+        const d = referenceRowDistance(p, candidates[c], p, chosen[k], n0);
+        if (d < dist[c]) dist[c] = d;
+      }
+      if (dist[c] > best) {
+        best = dist[c];
+        bestAt = c;
+      }
+    }
+    next = bestAt;
+    if (best <= 0) {
+      // every remaining candidate duplicates a chosen one
+      return { chosen: chosen.slice(0, k + 1), distance: dist };
+    }
+  }
+  return { chosen, distance: dist };
+}
+
+/**
+ * Distance of each pool row to the nearest representative other than itself (leave-self-out), or, with
+ * `frameOf`, to the nearest representative from another frame (leave-frame-out), for the applicability threshold. `reps` are pool indices; `repOf[i]` is i's own index in reps or −1.
+ */
+export function referenceNearestOtherDistances(pool: { count: number; n0: number; species: Int32Array; p: Float64Array }, reps: Int32Array, frameOf?: Int32Array): Float64Array {
+  const own = new Map<number, number>();
+  reps.forEach((r, k) => own.set(r, k));
+  const out = new Float64Array(pool.count).fill(Infinity);
+  for (let i = 0; i < pool.count; i++) {
+    const self = own.get(i);
+    for (let k = 0; k < reps.length; k++) {
+      if (k === self || pool.species[reps[k]] !== pool.species[i]) continue;
+      if (frameOf && frameOf[reps[k]] === frameOf[i]) continue;
+      const d = referenceRowDistance(pool.p, i, pool.p, reps[k], pool.n0);
+      if (d < out[i]) out[i] = d;
+    }
+  }
+  return out;
+}

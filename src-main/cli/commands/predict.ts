@@ -114,7 +114,7 @@ export async function runPredict(model: LoadedModel, input: string, output: stri
 
 export const predictCommand: Command = {
   name: 'predict',
-  summary: 'predict cell tensors of frames with a trained model',
+  summary: 'predict with a trained model, frame by frame: ε and α of cells, α of clusters, with error bars',
   usage: 'MODEL IN [--frames A:B] [--stride K] [--shard K/N] [--threads N] [--resume|--restart] -o OUT.csv|OUT.extxyz',
   description:
     'CSV: one row per frame with ε, the learnt cell polarisability (α_CM for route cm, α_c for direct), principal\n' +

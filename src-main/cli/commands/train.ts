@@ -38,7 +38,7 @@ export function describeModel(model: Model): string {
 
 export const trainCommand: Command = {
   name: 'train',
-  summary: 'learn a model of a cell tensor from frames with reference values',
+  summary: 'learn a model from frames with reference values (ε or α of cells or clusters; dipoles, scalars)',
   usage: 'IN --tensor KEY --as eps|alpha-c|alpha-cm|alpha-mol [--isolated-tensor KEY] -o MODEL [options]   (--as only for a tensor)',
   description:
     'Reads every frame of IN (extended XYZ), learns the tensor as a sum of per-atom contributions and writes the\n' +

@@ -23,6 +23,7 @@ import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
 import { realClebschGordanSparse, type SparseCoupling } from './clebsch-gordan.ts';
 import { densityExpander, type DensityExpander, type NeighbourPairs } from './density.ts';
 import { neighbourList } from '../geometry/neighbours.ts';
+import { descriptorKernels, type DescriptorKernels } from '../wasm/descriptors.ts';
 
 export type Lambda = 0 | 1 | 2;
 
@@ -441,12 +442,124 @@ function contractPartners(
   }
 }
 
+/** Where a plan's tables and scratch live in the descriptor kernels' memory (byte offsets). */
+interface KernelLayout {
+  kernels: DescriptorKernels;
+  /** Degree-l coefficients transposed, cT_l[m·tch + k], for l ≤ the tensor lmax. */
+  cT: number[];
+  cTFrom: number;
+  cTLength: number;
+  half: number;
+  /** Per tensor plan: its output block (nM·n doubles) and per block the gather tables. */
+  tensors: { out: number; blocks: { gStart: number; gIdx: number; gVal: number }[] }[];
+  views: { cT: Float64Array; out: Float64Array[] } | null;
+}
+
+const layouts = new Map<Plan, KernelLayout>();
+let layoutTop = -1;
+let layoutModule: DescriptorKernels['module'] | null = null;
+
+/**
+ * The plan's tables placed in the descriptor kernels' memory (once per plan and thread), or null when the
+ * WebAssembly kernels are off or unavailable. Plans are placed one after another; when more than the plan cache
+ * holds have been placed, the memory is laid out afresh.
+ */
+function kernelLayout(P: Plan): KernelLayout | null {
+  const kernels = descriptorKernels();
+  if (kernels === null) return null;
+  const hit = layouts.get(P);
+  if (hit && layoutModule === kernels.module) return hit;
+  if (layoutModule !== kernels.module || layouts.size >= PLAN_CACHE_SIZE) {
+    layouts.clear();
+    layoutModule = kernels.module;
+    layoutTop = kernels.module.heapBase;
+  }
+  let top = layoutTop;
+  const take = (bytes: number): number => {
+    const at = top;
+    top += Math.ceil(bytes / 16) * 16;
+    return at;
+  };
+  const lmaxT = P.tensorBase.length - 1;
+  const cTFrom = top;
+  const cT = Array.from({ length: lmaxT + 1 }, (_, l) => take((2 * l + 1) * P.tch * 8));
+  const cTLength = (top - cTFrom) / 8;
+  const half = take(P.half.length * 8);
+  const tables: { at: number; data: Int32Array | Float64Array }[] = [];
+  const tensors = P.tensors.map((T) => ({
+    out: take((2 * T.lambda + 1) * T.n * 8),
+    blocks: T.blocks.map((b) => {
+      const gStart = take(b.gatherStart.length * 4);
+      const gIdx = take(b.gatherIndex.length * 4);
+      const gVal = take(b.gatherValue.length * 8);
+      tables.push({ at: gStart, data: b.gatherStart }, { at: gIdx, data: b.gatherIndex }, { at: gVal, data: b.gatherValue });
+      return { gStart, gIdx, gVal };
+    }),
+  }));
+  if (!kernels.module.reserve(top - kernels.module.heapBase)) return null;
+  const memory = kernels.module.f64(0, 0).buffer;
+  for (const t of tables) {
+    if (t.data instanceof Int32Array) new Int32Array(memory, t.at, t.data.length).set(t.data);
+    else new Float64Array(memory, t.at, t.data.length).set(t.data);
+  }
+  layoutTop = top;
+  const layout: KernelLayout = { kernels, cT, cTFrom, cTLength, half, tensors, views: null };
+  layouts.set(P, layout);
+  return layout;
+}
+
+/** tensorFeatures in the WebAssembly kernels: the same operations in the same order, so the same bits. */
+function tensorFeaturesKernel(L: KernelLayout, P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
+  const { kernels, tch } = { kernels: L.kernels, tch: P.tch };
+  let views = L.views;
+  if (views === null || views.cT.length === 0) {
+    views = {
+      cT: kernels.module.f64(L.cTFrom, L.cTLength),
+      out: P.tensors.map((U, k) => kernels.module.f64(L.tensors[k].out, (2 * U.lambda + 1) * U.n)),
+    };
+    L.views = views;
+  }
+  const k = P.tensors.indexOf(T);
+  const cTv = views.cT;
+  for (let l = 0; l < L.cT.length; l++) {
+    const at = (L.cT[l] - L.cTFrom) / 8;
+    const w = 2 * l + 1;
+    const base = P.tensorBase[l];
+    for (let ch = 0; ch < tch; ch++) {
+      const o = base[ch];
+      for (let m = 0; m < w; m++) cTv[at + m * tch + ch] = c[o + m];
+    }
+  }
+  const nM = 2 * T.lambda + 1;
+  const n = T.n;
+  const region = L.tensors[k];
+  for (let b = 0; b < T.blocks.length; b++) {
+    const blk = T.blocks[b];
+    const g = region.blocks[b];
+    const at = region.out + blk.offset * 8;
+    if (blk.l === blk.l2) kernels.coupleSame(L.cT[blk.l], tch, 2 * blk.l + 1, nM, g.gStart, g.gIdx, g.gVal, L.half, at, n);
+    else kernels.coupleCross(L.cT[blk.l], L.cT[blk.l2], tch, 2 * blk.l + 1, nM, g.gStart, g.gIdx, g.gVal, L.half, at, n);
+  }
+  kernels.normalise(region.out, nM * n);
+  out.set(views.out[k], e * nM * n);
+}
+
 /**
  * λ > 0 block of one environment into out[(e·(2λ+1) + μ)·n + f]. For each pair block the half-coupling
  * H = C·c runs over the factor of HIGHER degree (once per channel), so the pair loop runs over the shorter m
  * axis: for (l, l') with l < l' the channel of degree l' is held and every channel of degree l is contracted.
  */
 export function tensorFeatures(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
+  const L = kernelLayout(P);
+  if (L !== null) {
+    tensorFeaturesKernel(L, P, T, c, out, e);
+    return;
+  }
+  tensorFeaturesPlain(P, T, c, out, e);
+}
+
+/** tensorFeatures in JavaScript: the fallback where the WebAssembly kernels are off or missing, and their oracle. */
+export function tensorFeaturesPlain(P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
   const { half, tch } = P;
   const nM = 2 * T.lambda + 1;
   const n = T.n;

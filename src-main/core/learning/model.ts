@@ -181,7 +181,8 @@ export interface TargetPrediction {
   uncertainty: { leverage: number; sd: Float64Array } | null;
 }
 
-export type Featuriser = (frame: Frame, index: number) => EnvironmentFeatures;
+/** Features of one frame; `neighbours`, when given, is the frame's list built with the model's cutoff (reused, not rebuilt). */
+export type Featuriser = (frame: Frame, index: number, neighbours?: NeighbourList) => EnvironmentFeatures;
 
 /** The complete settings: the defaults where `partial` leaves a setting out; an InputError when any is not allowed. */
 export function resolveSettings(partial?: Partial<ModelSettings>): ModelSettings {
@@ -418,7 +419,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const targets = learntTargets(frames, request);
   const { species, centres } = speciesOf(frames, settings, options.species);
   const order = tensorOrderOf(targets.shape);
-  const baseFeat: Featuriser = featurise ?? ((frame) => computeFeatures(frame, featureSettingsOf(settings, species, centres), order === null ? [] : [order]));
+  const baseFeat: Featuriser = featurise ?? ((frame, _index, neighbours) => computeFeatures(frame, featureSettingsOf(settings, species, centres), order === null ? [] : [order], neighbours));
   const nFrames = frames.length;
   const nS = centres.length;
   const rng = makeRng(settings.seed);
@@ -432,7 +433,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     const sel: FeatureSelection = { 0: selectFeatures(sample, settings.maxFeatures, 0) };
     if (order !== null) sel[order] = selectFeatures(sample, settings.maxFeatures, order);
     featureSelection = sel;
-    feat = (frame, i) => applyFeatureSelection(baseFeat(frame, i), sel);
+    feat = (frame, i, neighbours) => applyFeatureSelection(baseFeat(frame, i, neighbours), sel);
     await yieldToLoop();
   }
   const linear = settings.kernelExponent === 1;
@@ -458,8 +459,10 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const domain = wantApplicability ? new DomainStatsBuilder(species, centres, settings.cutoffRadius) : null;
   for (let f = 0; f < nFrames; f++) {
     checkAbort(hooks);
-    const fe = feat(frames[f], f);
-    domain?.add(frames[f], neighbourList(frames[f], settings.cutoffRadius), fe.centreSpecies, fe.norms);
+    // one neighbour list per frame for the features and the domain statistics (the same cutoff)
+    const pairs = domain ? neighbourList(frames[f], settings.cutoffRadius) : undefined;
+    const fe = feat(frames[f], f, pairs);
+    if (domain) domain.add(frames[f], pairs as NeighbourList, fe.centreSpecies, fe.norms);
     if (n0 < 0) {
       n0 = fe.n0;
       if (order !== null) nOrder = blockView(fe, order).n;

@@ -19,6 +19,17 @@ export interface EnvironmentPool {
 
 /** Euclidean distance between two λ=0 rows (unit rows: 0 … 2). */
 export function rowDistance(a: Float64Array, ia: number, b: Float64Array, ib: number, n0: number): number {
+  return Math.sqrt(squaredDistanceBelow(a, ia, b, ib, n0, Infinity));
+}
+
+/**
+ * The squared distance of rowDistance (four accumulators over f mod 4, the tail into the first, combined as
+ * s0 + s1 + s2 + s3), or, as soon as that combination of the partial sums reaches `bound` (checked every 32
+ * features), a value ≥ `bound`. Every partial sum only grows as terms are added (rounding is monotone), so a
+ * row left early would have had a full sum ≥ `bound`: searches for a minimum that pass the sum of the best so
+ * far get the same minimum, bit for bit, as with the full sums.
+ */
+export function squaredDistanceBelow(a: Float64Array, ia: number, b: Float64Array, ib: number, n0: number, bound: number): number {
   // four accumulators: this loop dominates farthest-point sampling and the applicability check
   let s0 = 0;
   let s1 = 0;
@@ -27,27 +38,38 @@ export function rowDistance(a: Float64Array, ia: number, b: Float64Array, ib: nu
   const oa = ia * n0;
   const ob = ib * n0;
   let f = 0;
-  for (; f + 3 < n0; f += 4) {
-    const d0 = a[oa + f] - b[ob + f];
-    const d1 = a[oa + f + 1] - b[ob + f + 1];
-    const d2 = a[oa + f + 2] - b[ob + f + 2];
-    const d3 = a[oa + f + 3] - b[ob + f + 3];
-    s0 += d0 * d0;
-    s1 += d1 * d1;
-    s2 += d2 * d2;
-    s3 += d3 * d3;
+  while (f + 3 < n0) {
+    const stop = Math.min(n0 - 3, f + 32);
+    for (; f < stop; f += 4) {
+      const d0 = a[oa + f] - b[ob + f];
+      const d1 = a[oa + f + 1] - b[ob + f + 1];
+      const d2 = a[oa + f + 2] - b[ob + f + 2];
+      const d3 = a[oa + f + 3] - b[ob + f + 3];
+      s0 += d0 * d0;
+      s1 += d1 * d1;
+      s2 += d2 * d2;
+      s3 += d3 * d3;
+    }
+    if (s0 + s1 + s2 + s3 >= bound) return s0 + s1 + s2 + s3;
   }
   for (; f < n0; f++) {
     const d = a[oa + f] - b[ob + f];
     s0 += d * d;
   }
-  return Math.sqrt(s0 + s1 + s2 + s3);
+  return s0 + s1 + s2 + s3;
 }
 
 /**
  * Farthest-point sampling of up to m rows among `candidates` (indices into p). Starts from the row farthest
  * from the candidates' mean (deterministic, no randomness), then repeatedly adds the row farthest from the
  * chosen set. Returns chosen indices in order and each candidate's distance to the chosen set.
+ *
+ * The distances to each new point are computed only as far as they can still lower a candidate's distance:
+ * a candidate whose distance to the chosen point nearest it is less than half that point's distance to the
+ * new one (with a margin far above rounding) cannot come nearer (triangle inequality), and a sum that passes
+ * the candidate's squared distance so far is left early (squaredDistanceBelow). Every distance that is taken
+ * is the full sum of rowDistance, so the choice and the distances are those of the plain loop, bit for bit
+ * (kept in test/helpers/reference-kernels.ts, which the tests compare against).
  */
 export function farthestPointSample(p: Float64Array, n0: number, candidates: Int32Array, m: number): { chosen: Int32Array; distance: Float64Array } {
   const n = candidates.length;
@@ -55,6 +77,12 @@ export function farthestPointSample(p: Float64Array, n0: number, candidates: Int
   const chosen = new Int32Array(take);
   const dist = new Float64Array(n).fill(Infinity);
   if (take === 0) return { chosen, distance: dist };
+  // the squared sum whose root is dist[c], and the chosen point (index into chosen) nearest each candidate
+  const dist2 = new Float64Array(n).fill(Infinity);
+  const nearest = new Int32Array(n).fill(-1);
+  // distance of chosen point j to the newest one (computed when first needed in a step: stamp[j] = step)
+  const toNew = new Float64Array(take);
+  const stamp = new Int32Array(take).fill(-1);
   const mean = new Float64Array(n0);
   for (let c = 0; c < n; c++) for (let f = 0; f < n0; f++) mean[f] += p[candidates[c] * n0 + f] / n;
   let next = 0;
@@ -66,15 +94,35 @@ export function farthestPointSample(p: Float64Array, n0: number, candidates: Int
       next = c;
     }
   }
+  const SAFE = 1 + 1e-9;
   for (let k = 0; k < take; k++) {
-    chosen[k] = candidates[next];
+    const q = candidates[next];
+    chosen[k] = q;
     dist[next] = 0;
+    dist2[next] = 0;
+    nearest[next] = k;
     let best = -1;
     let bestAt = 0;
     for (let c = 0; c < n; c++) {
-      if (dist[c] > 0) {
-        const d = rowDistance(p, candidates[c], p, chosen[k], n0);
-        if (d < dist[c]) dist[c] = d;
+      const dc = dist[c];
+      if (dc > 0) {
+        const near = nearest[c];
+        if (near >= 0 && stamp[near] !== k) {
+          toNew[near] = rowDistance(p, chosen[near], p, q, n0);
+          stamp[near] = k;
+        }
+        // d(c, q) ≥ d(near, q) − d(c, near) ≥ d(c, near) when d(near, q) ≥ 2 d(c, near)
+        if (near < 0 || toNew[near] < 2 * dc * SAFE) {
+          const s = squaredDistanceBelow(p, candidates[c], p, q, n0, dist2[c]);
+          if (s < dist2[c]) {
+            const d = Math.sqrt(s);
+            if (d < dc) {
+              dist[c] = d;
+              dist2[c] = s;
+              nearest[c] = k;
+            }
+          }
+        }
       }
       if (dist[c] > best) {
         best = dist[c];
@@ -93,6 +141,7 @@ export function farthestPointSample(p: Float64Array, n0: number, candidates: Int
 /**
  * Distance of each pool row to the nearest representative other than itself (leave-self-out), or, with
  * `frameOf`, to the nearest representative from another frame (leave-frame-out), for the applicability threshold. `reps` are pool indices; `repOf[i]` is i's own index in reps or −1.
+ * Sums that pass the best so far are left early (squaredDistanceBelow): the same minimum, bit for bit.
  */
 export function nearestOtherDistances(pool: EnvironmentPool, reps: Int32Array, frameOf?: Int32Array): Float64Array {
   const own = new Map<number, number>();
@@ -100,11 +149,18 @@ export function nearestOtherDistances(pool: EnvironmentPool, reps: Int32Array, f
   const out = new Float64Array(pool.count).fill(Infinity);
   for (let i = 0; i < pool.count; i++) {
     const self = own.get(i);
+    let best2 = Infinity;
     for (let k = 0; k < reps.length; k++) {
       if (k === self || pool.species[reps[k]] !== pool.species[i]) continue;
       if (frameOf && frameOf[reps[k]] === frameOf[i]) continue;
-      const d = rowDistance(pool.p, i, pool.p, reps[k], pool.n0);
-      if (d < out[i]) out[i] = d;
+      const s = squaredDistanceBelow(pool.p, i, pool.p, reps[k], pool.n0, best2);
+      if (s < best2) {
+        const d = Math.sqrt(s);
+        if (d < out[i]) {
+          out[i] = d;
+          best2 = s;
+        }
+      }
     }
   }
   return out;

@@ -1,10 +1,28 @@
 // Dense symmetric positive-definite solves on plain Float64Array (row-major n×n), for the ridge systems of the
 // regression. Written by hand because ml-matrix's generic loops are far slower here (bench/cholesky.bench.ts
 // measures both, and the unblocked code this replaced); the loops run along contiguous rows so the JIT keeps them
-// tight. Tested against ml-matrix (test/core/numerics/cholesky.test.ts).
+// tight. The bulk of the factorisation (the panel solve and the trailing update) and the many-right-hand-side
+// forward substitution run as WebAssembly SIMD kernels (core/wasm/assembly/dense.ts) when they are on and the
+// system fits: the same operations in the same order as the JavaScript here, so the same bits; the JavaScript
+// stays as the fallback and as the kernels' oracle (setWebAssemblyKernels(false)). Tested against ml-matrix
+// (test/core/numerics/cholesky.test.ts).
+import { denseKernels, type DenseKernels } from '../wasm/dense.ts';
 
 /** Columns per block of the blocked Cholesky (the panel's rows, kb doubles each, stay in the first cache levels). */
 const BLOCK = 64;
+
+/**
+ * Smallest order handed to the WebAssembly kernels: below it, copying the matrix into the module's memory and back
+ * costs about what the kernels save (bench/cholesky.bench.ts; common practice, no source).
+ */
+const KERNEL_MIN_ORDER = 128;
+
+/**
+ * Most bytes of module memory one factorisation or solve may reserve (256 MiB: a factorisation up to n ≈ 5,700).
+ * The module keeps its memory once grown, so this bounds what it holds for the rest of the thread's life; larger
+ * systems take the JavaScript path.
+ */
+const KERNEL_MAX_BYTES = 256 * 2 ** 20;
 
 /**
  * Cholesky factor A = L Lᵀ, in place: the lower triangle of `a` becomes L (the strict upper triangle is left
@@ -13,18 +31,60 @@ const BLOCK = 64;
  * into a packed buffer, one row of BLOCK numbers after the other), then subtract the panel's outer product from the
  * trailing lower triangle — the bulk of the work, a small matrix product in 4 × 4 tiles of row pairs (16 running
  * sums per tile: each number loaded serves four products). Same result as the textbook order to round-off.
+ * With the WebAssembly kernels the matrix is copied into the module's memory, factored there (the panel solve and
+ * the trailing update as kernels, the diagonal block by the same JavaScript) and copied back: the same bits.
  */
 export function choleskyInPlace(a: Float64Array, n: number): boolean {
+  const kernels = n >= KERNEL_MIN_ORDER ? denseKernels() : null;
+  if (kernels) {
+    const done = choleskyInModule(kernels, a, n);
+    if (done !== null) return done;
+  }
   const packed = new Float64Array(Math.min(BLOCK, n) * Math.max(0, n - BLOCK));
+  return factorBlocks(a, n, (k0, kb, r0) => {
+    solvePanel(a, n, k0, kb, r0, packed);
+    subtractPanelProduct(a, n, kb, r0, packed);
+  });
+}
+
+/** The blocked loop: each diagonal block, then `belowBlock` (panel solve and trailing update) for the rows below it. */
+function factorBlocks(a: Float64Array, n: number, belowBlock: (k0: number, kb: number, r0: number) => void): boolean {
   for (let k0 = 0; k0 < n; k0 += BLOCK) {
     const kb = Math.min(BLOCK, n - k0);
     if (!factorDiagonalBlock(a, n, k0, kb)) return false;
     const r0 = k0 + kb;
     if (r0 >= n) break;
-    solvePanel(a, n, k0, kb, r0, packed);
-    subtractPanelProduct(a, n, kb, r0, packed);
+    belowBlock(k0, kb, r0);
   }
   return true;
+}
+
+/**
+ * choleskyInPlace in the kernels' memory: the matrix with four zero rows of padding below it (the kernels work on
+ * whole groups of four rows; what they write past row n stays there), then the panel's tiles. Null when that is
+ * more than KERNEL_MAX_BYTES or the module cannot grow (the caller takes the JavaScript path).
+ */
+function choleskyInModule(k: DenseKernels, a: Float64Array, n: number): boolean | null {
+  const matrix = (n + 4) * n;
+  const panelRows = roundUp4(n - BLOCK);
+  const bytes = 8 * (matrix + panelRows * BLOCK);
+  if (bytes > KERNEL_MAX_BYTES || !k.module.reserve(bytes)) return null;
+  const at = k.module.heapBase;
+  const x = at + 8 * matrix;
+  const m = k.module.f64(at, matrix);
+  m.set(a.subarray(0, n * n));
+  m.fill(0, n * n);
+  const ok = factorBlocks(m, n, (k0, kb, r0) => {
+    const rows = roundUp4(n - r0);
+    k.panelSolve(at, n, k0, kb, rows, x);
+    k.trailingUpdate(at + 8 * (r0 * n + r0), n, x, rows, kb);
+  });
+  a.set(m.subarray(0, n * n));
+  return ok;
+}
+
+function roundUp4(v: number): number {
+  return Math.max(0, Math.ceil(v / 4) * 4);
 }
 
 /** Unblocked Cholesky of the kb × kb diagonal block at (k0, k0), whose earlier columns are already subtracted. */
@@ -183,6 +243,8 @@ export function forwardSubstitute(l: Float64Array, n: number, b: Float64Array): 
  * order as forwardSubstitute, so the same bits.
  */
 export function forwardSubstituteRows(l: Float64Array, n: number, b: Float64Array, rows: number): Float64Array {
+  const kernels = n >= ROWS_KERNEL_MIN_ORDER && rows >= ROWS_KERNEL_MIN_ROWS ? denseKernels() : null;
+  if (kernels && forwardRowsInModule(kernels, l, n, b, rows)) return b;
   let r = 0;
   for (; r + 3 < rows; r += 4) {
     const o0 = r * n;
@@ -211,6 +273,42 @@ export function forwardSubstituteRows(l: Float64Array, n: number, b: Float64Arra
   }
   for (; r < rows; r++) forwardSubstitute(l, n, b.subarray(r * n, (r + 1) * n));
   return b;
+}
+
+/**
+ * Smallest order and number of right-hand sides for which forwardSubstituteRows copies L into the kernels' memory
+ * (the copy costs about one solve; common practice, no source).
+ */
+const ROWS_KERNEL_MIN_ORDER = 64;
+const ROWS_KERNEL_MIN_ROWS = 8;
+
+/**
+ * forwardSubstituteRows in the kernels' memory: L, then the right-hand sides in groups of four, interleaved (b[k] of
+ * the four side by side; a last group short of four padded with zeros, whose results are dropped). False when that
+ * is more than KERNEL_MAX_BYTES or the module cannot grow.
+ */
+function forwardRowsInModule(k: DenseKernels, l: Float64Array, n: number, b: Float64Array, rows: number): boolean {
+  const groups = Math.ceil(rows / 4);
+  const bytes = 8 * (n * n + groups * 4 * n);
+  if (bytes > KERNEL_MAX_BYTES || !k.module.reserve(bytes)) return false;
+  const at = k.module.heapBase;
+  const bt = at + 8 * n * n;
+  k.module.f64(at, n * n).set(l.subarray(0, n * n));
+  const t = k.module.f64(bt, groups * 4 * n);
+  for (let g = 0; g < groups; g++) {
+    for (let r = 0; r < 4; r++) {
+      const row = 4 * g + r;
+      const o = 4 * n * g + r;
+      if (row < rows) for (let i = 0, src = row * n; i < n; i++) t[o + 4 * i] = b[src + i];
+      else for (let i = 0; i < n; i++) t[o + 4 * i] = 0;
+    }
+  }
+  k.forwardRows(at, n, bt, groups);
+  for (let row = 0; row < rows; row++) {
+    const o = 4 * n * (row >> 2) + (row & 3);
+    for (let i = 0, dst = row * n; i < n; i++) b[dst + i] = t[o + 4 * i];
+  }
+  return true;
 }
 
 /** Solve Lᵀ x = z in place (back substitution). */

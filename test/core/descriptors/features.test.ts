@@ -1,7 +1,7 @@
 // Symmetry-adapted features: counts, symmetries (rotation, mirror/inversion, permutation, translation),
 // continuity at the cutoff, unit norm, and the stored (unique-pair, √2-weighted) layout against a plain sum over
 // all ordered pairs built with core/descriptors/clebsch-gordan.ts's coupleReal.
-import { describe, expect, it } from 'vitest';
+import { afterEach, describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { makeFrame, type Frame } from '../../../src-main/core/geometry/frame.ts';
 import type { FeatureSettings } from '../../../src-main/core/descriptors/feature-types.ts';
@@ -10,6 +10,8 @@ import { referencePowerSpectrum, referenceTensorFeatures } from '../../helpers/r
 import { makeDensityExpander } from '../../../src-main/core/descriptors/density.ts';
 import { coupleReal } from '../../../src-main/core/descriptors/clebsch-gordan.ts';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
+import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
+import { descriptorKernels } from '../../../src-main/core/wasm/descriptors.ts';
 import { InputError } from '../../../src-main/core/errors.ts';
 import {
   INVERSION,
@@ -330,15 +332,23 @@ describe('the blocked power-spectrum kernel', () => {
 });
 
 describe('the blocked λ > 0 coupling kernel', () => {
-  // Two partner channels per pass for λ = 2; the kept one-partner loop (test/helpers/reference-kernels.ts) is the
-  // reference, and with every sum in its order the blocks must be the very same numbers (odd and even partner counts).
+  // Two partner channels per pass for λ = 2 in JavaScript, eight per pass in the WebAssembly kernel (core/wasm/
+  // assembly/descriptors.ts); the kept one-partner loop (test/helpers/reference-kernels.ts) is the reference, and
+  // with every sum in its order the blocks must be the very same numbers (partner counts below, at and above the
+  // blocking, odd and even).
   const cases: [string, FeatureSettings][] = [
     ['2 species, nmax 8, lmax 6', { cutoff: 4.5, cutoffWidth: 0.5, sigma: 0.4, nmax: 8, lmax: 6, species: ['O', 'H'], centres: ['O', 'H'] }],
+    ['2 species, nmax 8, lmax 6, lmaxTensor 6', { cutoff: 4.5, cutoffWidth: 0.5, sigma: 0.4, nmax: 8, lmax: 6, lmaxTensor: 6, species: ['O', 'H'], centres: ['O', 'H'] }],
     ['3 species, nmax 3, lmax 5, lmaxTensor 5 (9 channels)', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 3, lmax: 5, lmaxTensor: 5, species: ['O', 'H', 'C'], centres: ['O'] }],
+    ['1 species, nmax 5, lmax 3 (5 channels)', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 5, lmax: 3, species: ['O'], centres: ['O'] }],
+    ['1 species, nmax 1, lmax 2 (1 channel)', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 1, lmax: 2, species: ['O'], centres: ['O'] }],
   ];
+  afterEach(() => setWebAssemblyKernels(true));
   for (const [name, s] of cases) {
-    for (const lambda of [1, 2] as const) {
-      it(`λ = ${lambda}, ${name}: bit-identical to the one-partner loop`, () => {
+    for (const [lambda, wasm] of [[1, true], [2, true], [1, false], [2, false]] as const) {
+      it(`λ = ${lambda}, ${name}, ${wasm ? 'WebAssembly' : 'JavaScript'}: bit-identical to the one-partner loop`, () => {
+        setWebAssemblyKernels(wasm);
+        if (wasm) expect(descriptorKernels()).not.toBeNull();
         const P = featurePlan(s, [lambda]);
         const T = P.tensors[0];
         const rng = makeRng(41 + lambda);

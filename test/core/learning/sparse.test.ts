@@ -13,6 +13,9 @@ import {
 } from '../../../src-main/core/learning/sparse.ts';
 import { structureKernel } from '../../../src-main/core/learning/kernels.ts';
 import { makeRng, syntheticFeatures } from '../../helpers/synthetic-features.ts';
+import { referenceFarthestPointSample, referenceNearestOtherDistances } from '../../helpers/reference-kernels.ts';
+import { computeFeatures } from '../../../src-main/core/descriptors/features.ts';
+import { jitteredTrajectory } from '../../helpers/trajectory.ts';
 
 describe('farthest-point sampling', () => {
   it('picks the extremes of points on a circle arc first, then fills the largest gap', () => {
@@ -36,6 +39,49 @@ describe('farthest-point sampling', () => {
   it('stops early when candidates repeat', () => {
     const p = Float64Array.of(1, 0, 1, 0, 0, 1);
     expect(farthestPointSample(p, 2, Int32Array.of(0, 1, 2), 3).chosen.length).toBe(2);
+  });
+
+  it('the pruned searches give the plain loops\' choices and distances bit for bit (real water features, repeats)', () => {
+    // λ=0 rows of the DFT water frames, jittered (test/fixtures, from /work/shared/data), and some rows repeated
+    const frames = jitteredTrajectory(6, 0.05, 3);
+    const settings = { cutoff: 4, cutoffWidth: 0.5, sigma: 0.4, nmax: 4, lmax: 3, species: ['H', 'O'], centres: ['H', 'O'] };
+    const feats = frames.map((f) => computeFeatures(f, settings, [0]));
+    const n0 = feats[0].n0;
+    const rows: Float64Array[] = [];
+    const species: number[] = [];
+    const frame: number[] = [];
+    feats.forEach((fe, f) => {
+      for (let e = 0; e < fe.count; e++) {
+        rows.push(fe.scalar.subarray(e * n0, (e + 1) * n0));
+        species.push(fe.centreSpecies[e]);
+        frame.push(f);
+      }
+    });
+    for (let k = 0; k < 40; k++) {
+      rows.push(rows[(k * 7) % rows.length]);
+      species.push(species[(k * 7) % species.length]);
+      frame.push(frame[(k * 7) % frame.length]);
+    }
+    const p = new Float64Array(rows.length * n0);
+    rows.forEach((r, i) => p.set(r, i * n0));
+    const pool = { n0, count: rows.length, species: Int32Array.from(species), p };
+    const reps: number[] = [];
+    for (const s of [0, 1]) {
+      const cand = Int32Array.from(species.flatMap((x, i) => (x === s ? [i] : [])));
+      for (const m of [1, 17, 120, cand.length]) {
+        const fast = farthestPointSample(p, n0, cand, m);
+        const plain = referenceFarthestPointSample(p, n0, cand, m);
+        expect(fast.chosen).toEqual(plain.chosen);
+        expect(Array.from(fast.distance, (d, i) => Object.is(d, plain.distance[i])).every(Boolean)).toBe(true);
+        if (m === 120) reps.push(...fast.chosen);
+      }
+    }
+    const repIndex = Int32Array.from(reps);
+    for (const frameOf of [undefined, Int32Array.from(frame)]) {
+      const fast = nearestOtherDistances(pool, repIndex, frameOf);
+      const plain = referenceNearestOtherDistances(pool, repIndex, frameOf);
+      expect(Array.from(fast, (d, i) => Object.is(d, plain[i])).every(Boolean)).toBe(true);
+    }
   });
 
   it('leave-self-out distances exclude the environment itself', () => {

@@ -1,7 +1,9 @@
 import { CholeskyDecomposition, Matrix, solve } from 'ml-matrix';
-import { describe, expect, it } from 'vitest';
+import { afterEach, describe, expect, it } from 'vitest';
 import { backSubstitute, choleskyInPlace, choleskySolve, choleskyWithJitter, forwardSubstitute, forwardSubstituteRows, gramOfColumns, gramOfRows } from '../../../src-main/core/numerics/cholesky.ts';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
+import { denseKernels } from '../../../src-main/core/wasm/dense.ts';
+import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
 
 describe('Cholesky on Float64Array', () => {
   it('factors the textbook 3×3 example', () => {
@@ -133,5 +135,74 @@ describe('Cholesky on Float64Array', () => {
     const b = Float64Array.from({ length: rows * n }, () => rng.normal());
     const all = forwardSubstituteRows(factor, n, Float64Array.from(b), rows);
     for (let r = 0; r < rows; r++) expect(Array.from(all.subarray(r * n, (r + 1) * n))).toEqual(Array.from(forwardSubstitute(factor, n, b.slice(r * n, (r + 1) * n))));
+  });
+
+  describe('WebAssembly kernels against the JavaScript path', () => {
+    afterEach(() => setWebAssemblyKernels(true));
+
+    /** Run f with the kernels off (the JavaScript path), then on; the module's memory is checked by the caller. */
+    const bothPaths = <T>(f: () => T): { js: T; wasm: T } => {
+      setWebAssemblyKernels(false);
+      const js = f();
+      setWebAssemblyKernels(true);
+      return { js, wasm: f() };
+    };
+
+    it('the blocked factor is the same bits on both paths, for every count of rows left over past the tiles of four', () => {
+      const rng = makeRng(31);
+      const k = denseKernels();
+      expect(k).not.toBeNull();
+      for (const n of [128, 129, 194, 259, 300]) {
+        const m = Float64Array.from({ length: n * (n + 9) }, () => rng.normal());
+        const a = gramOfRows(m, n, n + 9);
+        const { js, wasm } = bothPaths(() => {
+          const f = Float64Array.from(a);
+          expect(choleskyInPlace(f, n)).toBe(true);
+          return f;
+        });
+        // the kernels did the work: the factor is what the module's memory holds (the matrix at its heap base)
+        expect(Array.from(k!.module.f64(k!.module.heapBase, n * n))).toEqual(Array.from(wasm));
+        expect(Array.from(wasm)).toEqual(Array.from(js));
+      }
+    });
+
+    it('a matrix not positive definite fails at the same pivot on both paths, leaving the same numbers', () => {
+      const rng = makeRng(8);
+      const n = 200;
+      const a = gramOfRows(Float64Array.from({ length: n * (n + 5) }, () => rng.normal()), n, n + 5);
+      for (let j = 0; j < n; j++) {
+        a[170 * n + j] = a[3 * n + j];
+        a[j * n + 170] = a[j * n + 3];
+      }
+      a[170 * n + 170] = a[3 * n + 3] - 1;
+      const { js, wasm } = bothPaths(() => {
+        const f = Float64Array.from(a);
+        expect(choleskyInPlace(f, n)).toBe(false);
+        return f;
+      });
+      expect(Array.from(wasm)).toEqual(Array.from(js));
+    });
+
+    it('many right-hand sides at once: the bits of one JavaScript solve each, and ml-matrix to round-off', () => {
+      const rng = makeRng(12);
+      const k = denseKernels();
+      for (const [n, rows] of [[64, 8], [101, 9], [150, 14]] as const) {
+        const { factor } = choleskyWithJitter(gramOfRows(Float64Array.from({ length: n * (n + 4) }, () => rng.normal()), n, n + 4), n);
+        const b = Float64Array.from({ length: rows * n }, () => rng.normal());
+        const all = forwardSubstituteRows(factor, n, Float64Array.from(b), rows);
+        // the kernel ran: L sits at the module's heap base
+        expect(Array.from(k!.module.f64(k!.module.heapBase, n * n))).toEqual(Array.from(factor));
+        setWebAssemblyKernels(false);
+        const L = new Matrix(Array.from({ length: n }, (_, i) => Array.from({ length: n }, (_, j) => (j <= i ? factor[i * n + j] : 0))));
+        for (let r = 0; r < rows; r++) {
+          const one = forwardSubstitute(factor, n, b.slice(r * n, (r + 1) * n));
+          expect(Array.from(all.subarray(r * n, (r + 1) * n))).toEqual(Array.from(one));
+          const ref = solve(L, Matrix.columnVector(Array.from(b.subarray(r * n, (r + 1) * n)))).getColumn(0);
+          const scale = Math.max(...ref.map(Math.abs));
+          for (let i = 0; i < n; i++) expect(Math.abs(all[r * n + i] - ref[i])).toBeLessThan(1e-10 * scale);
+        }
+        setWebAssemblyKernels(true);
+      }
+    });
   });
 });
