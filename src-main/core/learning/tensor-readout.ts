@@ -346,7 +346,8 @@ export type ReadStep = (e: number, k0: number, c: Float64Array, species: number)
 
 /**
  * The read-out of one environment after another into values[e·(2λ+1)…]: through the WebAssembly kernel where
- * it is available (the same bits), else readOne. Make one per frame (the kernel's memory may move between frames).
+ * it is available (the same bits), else readOne. Make one per frame, and make no other use of the prediction
+ * kernels while it is in use (their arena may place other regions between frames).
  */
 export function readoutStep(P: Plan, T: TensorPlan, readout: TensorReadout, scalar: Float64Array, values: Float64Array): ReadStep {
   const fast = wasmReadout(P, T, readout, scalar, values);
@@ -394,10 +395,16 @@ function wasmReadout(P: Plan, T: TensorPlan, readout: TensorReadout, scalar: Flo
   const [planAt, cAt, weightsAt] = at;
   const yAt = cAt + yOff;
   const wAt = cAt + wOff;
-  const cView = k.module.f64(cAt, cLen);
-  const yView = k.module.f64(yAt, nM);
-  const wView = perSpecies ? null : k.module.f64(wAt, wSize);
+  let cView = k.module.f64(cAt, cLen);
+  let yView = k.module.f64(yAt, nM);
+  let wView = perSpecies ? null : k.module.f64(wAt, wSize);
   return (e, k0, c, s) => {
+    if (cView.length === 0) {
+      // the module's memory grew since (views detach; the regions stay where they are)
+      cView = k.module.f64(cAt, cLen);
+      yView = k.module.f64(yAt, nM);
+      wView = perSpecies ? null : k.module.f64(wAt, wSize);
+    }
     cView.set(c);
     let W: number;
     if (wView) {

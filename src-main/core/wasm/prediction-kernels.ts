@@ -10,7 +10,9 @@ export interface PredictKernels {
   /** The read-out of one environment (tensor-readout.ts readOne); byte addresses of the plan, c, W and y. */
   readOne(plan: number, c: number, W: number, y: number): void;
   /** Exact nearest distances of queries of one species (nearest-search.ts nearestOf); byte addresses. */
-  searchSpecies(species: number, scratch: number, queries: number, idx: number, nq: number, out: number): void;
+  searchSpecies(species: number, reps: number, scratch: number, queries: number, idx: number, nq: number, out: number): void;
+  /** The plain scan (sparse.ts nearestDistance) of queries over one species' m representatives; byte addresses. */
+  scanSpecies(reps: number, m: number, n0: number, queries: number, idx: number, nq: number, out: number): void;
 }
 
 /**
@@ -99,6 +101,7 @@ export function predictKernels(): PredictKernels | null {
       arena: new Arena(module),
       readOne: module.exports.readOne as PredictKernels['readOne'],
       searchSpecies: module.exports.searchSpecies as PredictKernels['searchSpecies'],
+      scanSpecies: module.exports.scanSpecies as PredictKernels['scanSpecies'],
     };
   }
   return cached;

@@ -96,7 +96,7 @@ function expectSameAsPlain(c: Case, basis: number, steps: number): void {
 describe('bounded nearest-representative search', () => {
   afterEach(() => setWebAssemblyKernels(true));
 
-  it('runs through the WebAssembly kernel here, at the size prediction uses (odd n0, hundreds of rows, more queries than one pass holds)', () => {
+  it('runs through the WebAssembly kernels here, prepared and plain, at the size prediction uses (odd n0, hundreds of rows, more queries than one pass holds)', () => {
     expect(predictKernels()).not.toBeNull();
     const rng = makeRng(41);
     const n0 = 301;
@@ -118,6 +118,14 @@ describe('bounded nearest-representative search', () => {
       for (let q = 0; q < count; q++) expect(out[q]).toBe(nearestDistance(queries, q, c.reps, c.species, species[q], n0));
       return counter;
     });
+    // the plain scan of a job too small to prepare (a fresh owner: 600 < PLAIN_QUERIES_BEFORE_PREPARING queries),
+    // through the kernel and its JavaScript path
+    for (const kernels of [true, false]) {
+      setWebAssemblyKernels(kernels);
+      const out = new Float64Array(count).fill(-1);
+      nearestAllOf({ n0, species: c.species, p: c.reps }, queries, count, species, out);
+      for (let q = 0; q < count; q++) expect(out[q]).toBe(nearestDistance(queries, q, c.reps, c.species, species[q], n0));
+    }
     // both count their work, and the kernel's bound rules out as much as the JavaScript one
     expect(counters[0].queries).toBe(count);
     expect(counters[0].exact).toBeGreaterThan(0);

@@ -383,17 +383,16 @@ function sumFour(x: usize, r0: usize, r1: usize, r2: usize, r3: usize, n0: i32, 
 
 /**
  * The exact nearest distances of queries of one species, as nearest-search.ts searchNearestAll computes them:
- * the same numbers bit for bit. `sp` is the species' record written by the wrapper (i32 words m, d, n0, then byte
- * addresses of its representatives (m rows of n0, contiguous), mean, basis (d × n0), coordinates (d × m) and
- * residual norms (m)); `scr` the scratch record (addresses of bound (m), centred queries (4 × n0), coordinates
- * (4 × d), squared norms (4), and a statistics pair: exact distances and features summed, added to). For the
- * query rows idx[0…nq) of `queries` (rows of n0) writes out[k] for k < nq.
+ * the same numbers bit for bit. `reps` holds the species' representatives (m rows of n0, contiguous); `sp` is
+ * the species' record written by the wrapper (i32 words m, d, n0, unused, then byte addresses of its mean, basis
+ * (d × n0), coordinates (d × m) and residual norms (m)); `scr` the scratch record (addresses of bound (m),
+ * centred queries (4 × n0), coordinates (4 × d), squared norms (4), and a statistics pair: exact distances and
+ * features summed, added to). For the query rows idx[0…nq) of `queries` (rows of n0) writes out[k] for k < nq.
  */
-export function searchSpecies(sp: usize, scr: usize, queries: usize, idx: usize, nq: i32, out: usize): void {
+export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize, idx: usize, nq: i32, out: usize): void {
   const m = load<i32>(sp);
   const d = load<i32>(sp, 4);
   const n0 = load<i32>(sp, 8);
-  const reps = <usize>load<u32>(sp, 12);
   const mean = <usize>load<u32>(sp, 16);
   const basis = <usize>load<u32>(sp, 20);
   const coordsT = <usize>load<u32>(sp, 24);
@@ -420,7 +419,32 @@ export function searchSpecies(sp: usize, scr: usize, queries: usize, idx: usize,
   }
 }
 
-// the current group and its sums (fixed scratch: the module runs one search at a time)
+/**
+ * The plain scan (sparse.ts nearestDistance) of the query rows idx[0…nq) of `queries` (rows of n0) over the m
+ * representatives at `reps` (rows of n0, contiguous): out[k] = the square root of the smallest full squared
+ * distance, Infinity when m = 0. Four representatives per pass (eight per pass measured slower), each summed in
+ * nearestDistance's order; a sum left early has passed the best so far and cannot be the minimum, so the result
+ * is its number bit for bit.
+ */
+export function scanSpecies(reps: usize, m: i32, n0: i32, queries: usize, idx: usize, nq: i32, out: usize): void {
+  const rowBytes = <usize>n0 << 3;
+  for (let k = 0; k < nq; k++) {
+    const x = queries + <usize>load<i32>(idx + (<usize>k << 2)) * rowBytes;
+    let best: f64 = Infinity;
+    for (let r = 0; r < m; r += 4) {
+      // a short last group repeats its first member (its sum is computed again and changes nothing)
+      const r0 = reps + <usize>r * rowBytes;
+      sumFour(x, r0, r + 1 < m ? r0 + rowBytes : r0, r + 2 < m ? r0 + 2 * rowBytes : r0, r + 3 < m ? r0 + 3 * rowBytes : r0, n0, best, sums);
+      for (let g = 0; g < 4; g++) {
+        const s = f64.load(sums + (<usize>g << 3));
+        if (s < best) best = s;
+      }
+    }
+    f64.store(out + (<usize>k << 3), Math.sqrt(best));
+  }
+}
+
+// the current group, its rows' addresses and its sums (fixed scratch: the module runs one search at a time)
 const group = memory.data(16);
 const sums = memory.data(32);
 
