@@ -9,7 +9,7 @@ import { makeRng, type Rng } from '../../../src-main/core/numerics/random.ts';
 import { nearestDistance } from '../../../src-main/core/learning/sparse.ts';
 import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
 import { predictKernels } from '../../../src-main/core/wasm/prediction-kernels.ts';
-import { cachedNearestSearch, nearestAllOf, PLAIN_QUERIES_BEFORE_PREPARING, prepareNearestSearch, searchNearest, searchNearestAll, SEARCH_BASIS, type SearchCounter } from '../../../src-main/core/learning/nearest-search.ts';
+import { cachedNearestSearch, nearestAllOf, plainQueriesBeforePreparing, prepareNearestSearch, searchNearest, searchNearestAll, SEARCH_BASIS, type SearchCounter } from '../../../src-main/core/learning/nearest-search.ts';
 
 /** Scales row k of `rows` (length n0) to unit norm (a zero row becomes the first unit vector). */
 function normaliseRow(rows: Float64Array, k: number, n0: number): void {
@@ -118,7 +118,7 @@ describe('bounded nearest-representative search', () => {
       for (let q = 0; q < count; q++) expect(out[q]).toBe(nearestDistance(queries, q, c.reps, c.species, species[q], n0));
       return counter;
     });
-    // the plain scan of a job too small to prepare (a fresh owner: 600 < PLAIN_QUERIES_BEFORE_PREPARING queries),
+    // the plain scan of a job too small to prepare (a fresh owner: 600 < plainQueriesBeforePreparing() queries),
     // through the kernel and its JavaScript path
     for (const kernels of [true, false]) {
       setWebAssemblyKernels(kernels);
@@ -216,15 +216,19 @@ describe('bounded nearest-representative search', () => {
   it('answers a small job by the plain scan and a longer one through the prepared search, with the same numbers throughout', () => {
     const rng = makeRng(29);
     const c = makeCase(rng, 40, 60, 2, true, 0.1, 3);
-    const owner = { n0: c.n0, species: c.species, p: c.reps };
     const species = Int32Array.from({ length: c.queryCount }, (_, q) => q % 3); // species 2 has no representatives
     const want = Array.from(species, (s, q) => nearestDistance(c.queries, q, c.reps, c.species, s, c.n0));
-    const calls = Math.ceil(PLAIN_QUERIES_BEFORE_PREPARING / c.queryCount) + 2; // crosses the switch to the prepared search
-    for (let k = 0; k < calls; k++) {
-      const out = new Float64Array(c.queryCount).fill(-1);
-      nearestAllOf(owner, c.queries, c.queryCount, species, out);
-      expect(Array.from(out)).toEqual(want);
-      for (let q = 0; q < c.queryCount; q++) expect(Object.is(out[q], want[q])).toBe(true);
+    // with the kernels on and off (each has its own switch), the calls cross the switch to the prepared search
+    for (const kernels of [true, false]) {
+      setWebAssemblyKernels(kernels);
+      const owner = { n0: c.n0, species: c.species, p: c.reps };
+      const calls = Math.ceil(plainQueriesBeforePreparing() / c.queryCount) + 2;
+      for (let k = 0; k < calls; k++) {
+        const out = new Float64Array(c.queryCount).fill(-1);
+        nearestAllOf(owner, c.queries, c.queryCount, species, out);
+        expect(Array.from(out)).toEqual(want);
+        for (let q = 0; q < c.queryCount; q++) expect(Object.is(out[q], want[q])).toBe(true);
+      }
     }
   });
 
