@@ -1,5 +1,7 @@
 // The per-atom applicability search of prediction: the plain scan (sparse.ts nearestDistance) against the
 // bounded search (core/learning/nearest-search.ts) on 384-atom water-like frames, model trained at nmax 8, lmax 6.
+// The bounded searches run through the WebAssembly kernel (as prediction runs them where it is available); the
+// chosen configuration is also timed with the kernels off (its JavaScript path), side by side in the same repeats.
 // The bounded search runs as prediction runs it (searchNearestAll: the queries of a frame, four per projection
 // pass); its first version (one query at a time, kept in test/helpers/reference-kernels.ts) is timed beside it.
 // Prints CPU µs per environment, the basis size d, exact distance evaluations per query, the one-off preparation
@@ -13,6 +15,7 @@ import { nearestDistance } from '../src-main/core/learning/sparse.ts';
 import { prepareNearestSearch, searchNearest, searchNearestAll, SEARCH_BASIS, SUBSPACE_STEPS, type SearchCounter } from '../src-main/core/learning/nearest-search.ts';
 import { referenceSearchNearest } from '../test/helpers/reference-kernels.ts';
 import type { EnvironmentFeatures } from '../src-main/core/descriptors/feature-types.ts';
+import { setWebAssemblyKernels } from '../src-main/core/wasm/load.ts';
 import { waterLikeFrames } from './water-like.ts';
 
 const TRAIN = Number(process.env.PW_BENCH_FRAMES ?? 24);
@@ -57,6 +60,7 @@ export async function run(): Promise<void> {
   const chosen = prepared.find((p) => p.basis === SEARCH_BASIS && p.steps === SUBSPACE_STEPS)!;
   const single = { best: Infinity, mismatches: 0 };
   const first = { best: Infinity, mismatches: 0 };
+  const javascript = { best: Infinity, mismatches: 0 };
   let oldBest = Infinity;
   for (let r = 0; r < REPEATS; r++) {
     let c = cpuMs();
@@ -76,6 +80,17 @@ export async function run(): Promise<void> {
       });
       if (r === 0) p.counter = local;
     }
+    // the chosen configuration with the WebAssembly kernels off: the JavaScript search beside the kernel's
+    setWebAssemblyKernels(false);
+    c = cpuMs();
+    feats.forEach((fe, k) => {
+      searchNearestAll(chosen.search, fe.scalar, fe.count, fe.centreSpecies, out[k]);
+    });
+    javascript.best = Math.min(javascript.best, cpuMs() - c);
+    setWebAssemblyKernels(true);
+    feats.forEach((fe, k) => {
+      for (let e = 0; e < fe.count; e++) if (out[k][e] !== reference[k][e]) javascript.mismatches++;
+    });
     // the chosen configuration, one query at a time: the current single-query entry and the first version
     // (test/helpers/reference-kernels.ts), both checked against the plain scan
     c = cpuMs();
@@ -99,9 +114,11 @@ export async function run(): Promise<void> {
   }
   const same = (x: { mismatches: number }) => (x.mismatches === 0 ? 'all distances bit-identical' : `${x.mismatches} DIFFERENT distances`);
   const us = (ms: number) => ((1000 * ms) / envs).toFixed(1).padStart(5);
+  console.log(`  chosen d, JavaScript (kernels off): ${us(javascript.best)} µs/environment, WebAssembly (kernels on, as above) ${us(chosen.best)} µs/environment, ` +
+    `×${(javascript.best / chosen.best).toFixed(2)}; JavaScript ${same(javascript)}`);
   console.log(`  chosen d, one query at a time (searchNearest): ${us(single.best)} µs/environment, ${same(single)}`);
   console.log(`  chosen d, first version (one query at a time, kept in test/helpers/reference-kernels.ts): ${us(first.best)} µs/environment, ${same(first)}; ` +
-    `the batched search above (four queries per projection pass) is ×${(first.best / chosen.best).toFixed(2)} faster`);
+    `the batched JavaScript search (four queries per projection pass) is ×${(first.best / javascript.best).toFixed(2)} faster`);
   console.log(`  (the plain scan sums on average ${(plainSummed(feats, a) / envs).toFixed(0)} feature differences per query before its partial-sum exits)`);
 }
 

@@ -9,7 +9,8 @@ import { cpus, loadavg } from 'node:os';
 import { pathToFileURL } from 'node:url';
 import { featurise, powerSpectrum, prepare, tensorFeatures, type Plan } from '../src-main/core/descriptors/features.ts';
 import type { FeatureSettings } from '../src-main/core/descriptors/feature-types.ts';
-import { makeWeightMatrices, readOne, readoutScratch } from '../src-main/core/learning/tensor-readout.ts';
+import { makeWeightMatrices, readOne, readoutScratch, readoutStep } from '../src-main/core/learning/tensor-readout.ts';
+import { setWebAssemblyKernels } from '../src-main/core/wasm/load.ts';
 import { makeRng } from '../src-main/core/numerics/random.ts';
 import { referenceDensityExpander, referencePowerSpectrum, referenceReadOne, referenceTensorFeatures } from '../test/helpers/reference-kernels.ts';
 import { waterLikeFrames } from './water-like.ts';
@@ -130,6 +131,20 @@ function readoutPair(prep: ReturnType<typeof prepare>, coefficients: Float64Arra
     () => coefficients.forEach((c, e) => readOne(P, T, c, W, S, yNew, 5 * e)),
   ]);
   line('λ=2 read-out (per environment)', envs, times, agreement(yOld, yNew));
+  // the same read-out through the WebAssembly kernel (readoutStep with the kernels on), against the JavaScript one
+  const yWasm = new Float64Array(5 * envs);
+  const scalar = new Float64Array(envs * P.n0);
+  const wasm = readoutStep(P, T, { lambda: 2, matrices: () => W, perSpecies: [W, W] }, scalar, yWasm);
+  const js = (() => {
+    setWebAssemblyKernels(false);
+    try {
+      return readoutStep(P, T, { lambda: 2, matrices: () => W }, scalar, yNew);
+    } finally {
+      setWebAssemblyKernels(true);
+    }
+  })();
+  const pair = timeSideBySide([() => coefficients.forEach((c, e) => js(e, e, c, 0)), () => coefficients.forEach((c, e) => wasm(e, e, c, 0))]);
+  console.log(`  ${'  JavaScript vs WebAssembly'.padEnd(34)} js    ${((1000 * pair[0]) / envs).toFixed(2).padStart(7)} µs/env   wasm ${((1000 * pair[1]) / envs).toFixed(2).padStart(7)} µs/env   ×${(pair[0] / pair[1]).toFixed(2)}   ${agreement(yNew, yWasm)}`);
 }
 
 export async function run(): Promise<void> {

@@ -27,6 +27,7 @@ import { predictionCsvOptions } from '../src-main/io/prediction/prediction-forma
 import { streamPredict } from '../src-main/app/predict/stream-predict.ts';
 import { waterLikeFrames } from './water-like.ts';
 import { describeSettings } from '../src-main/core/settings-table.ts';
+import { setWebAssemblyKernels } from '../src-main/core/wasm/load.ts';
 
 const TRAIN = Number(process.env.PW_BENCH_TRAIN_FRAMES ?? 30);
 const STREAM = Number(process.env.PW_BENCH_STREAM_FRAMES ?? 120);
@@ -75,6 +76,28 @@ function inProcess(model: Model): void {
   const feats = rate(test, (f, i) => lambda0(f, i));
   const fe = test.map((f, i) => featurise(f, i));
   const modelPart = rate(test, (f, i) => predictWithFeatures(model, f, fe[i], i));
+  // the WebAssembly kernels on and off (their JavaScript paths), alternating pass by pass, and whether every
+  // predicted number is the same
+  const passes = { on: { wall: 0, cpu: 0 }, off: { wall: 0, cpu: 0 } };
+  const numbers = (on: boolean) => {
+    setWebAssemblyKernels(on);
+    const out = test.map((f, i) => predict(f, i));
+    return out.flatMap((p) => [...p.irreducible, ...p.localIrreducible, ...p.applicability.atomDistance, ...p.applicability.atomScore, p.applicability.variance, ...(p.uncertainty?.sd ?? [])]);
+  };
+  const js = numbers(false);
+  const wasm = numbers(true);
+  const same = js.length === wasm.length && js.every((v, k) => Object.is(v, wasm[k]));
+  for (let r = 0; r < 3; r++) {
+    for (const on of [false, true]) {
+      setWebAssemblyKernels(on);
+      const x = rate(test, (f, i) => predict(f, i), 1);
+      const key = on ? 'on' : 'off';
+      if (x.wall > passes[key].wall) passes[key] = x;
+    }
+  }
+  setWebAssemblyKernels(true);
+  console.log(`   WebAssembly kernels off / on (alternating, best of 3): ${passes.off.wall.toFixed(0)} / ${passes.on.wall.toFixed(0)} env/s wall, ` +
+    `${passes.off.cpu.toFixed(0)} / ${passes.on.cpu.toFixed(0)} env per CPU-s, ×${(passes.on.cpu / passes.off.cpu).toFixed(2)} (CPU); outputs ${same ? 'identical (every number, bit for bit)' : 'DIFFER'}`);
   console.log(`   of which: λ=0 features (neighbours, expansion, power spectrum) ${feats.wall.toFixed(0)} env/s alone; ` +
     `model part of the feature route (dot products, variance, applicability) ${modelPart.wall.toFixed(0)} env/s alone`);
 }

@@ -191,8 +191,8 @@ export function checkDomain(
   const g = atomGeometry(frame, pairs, stats.species, stats.cutoffRadius);
   const u = Float64Array.from(featureScore);
   const worst = new Map<string, DomainReason>();
+  // called only for scores that are not ≤ 1 (the callers test first, so that no key is written for atoms inside)
   const note = (key: string, score: number, atom: number | null, text: () => string) => {
-    if (score <= 1) return;
     const w = worst.get(key);
     if (!w || score > w.score) worst.set(key, { key, score, atom, text: text() });
   };
@@ -200,7 +200,7 @@ export function checkDomain(
     const i = featureDetail.centre[e];
     const s = featureDetail.centreSpecies[e];
     const name = featureDetail.centres[s];
-    note(`${name} environment`, featureScore[i], i, () => `${name} environment ${fmt(featureDetail.distance[i], 3)} from the nearest training environment (limit ${fmt(featureDetail.threshold[s], 3)})`);
+    if (!(featureScore[i] <= 1)) note(`${name} environment`, featureScore[i], i, () => `${name} environment ${fmt(featureDetail.distance[i], 3)} from the nearest training environment (limit ${fmt(featureDetail.threshold[s], 3)})`);
     const norm = featureDetail.norms?.[e];
     const sr = at(stats.scale, s);
     if (norm && norm > 0 && Number.isFinite(sr.median)) {
@@ -208,7 +208,7 @@ export function checkDomain(
       const us = rangeScore(v, sr.min, sr.median, sr.max);
       if (us > u[i]) u[i] = us;
       const low = v < sr.median;
-      note(`${name} density scale ${low ? 'low' : 'high'}`, us, i, () => `${name} neighbour density ×${fmt(Math.exp(v - sr.median))} the training median, ${low ? 'below' : 'above'} any in training (×${fmt(Math.exp((low ? sr.min : sr.max) - sr.median))})`);
+      if (!(us <= 1)) note(`${name} density scale ${low ? 'low' : 'high'}`, us, i, () => `${name} neighbour density ×${fmt(Math.exp(v - sr.median))} the training median, ${low ? 'below' : 'above'} any in training (×${fmt(Math.exp((low ? sr.min : sr.max) - sr.median))})`);
     }
   }
   for (let i = 0; i < N; i++) {
@@ -219,7 +219,7 @@ export function checkDomain(
     const uc = rangeScore(g.count[i], cr.min, cr.median, cr.max);
     if (uc > u[i]) u[i] = uc;
     const more = g.count[i] > cr.median;
-    note(`${A} neighbours ${more ? 'more' : 'fewer'}`, uc, i, () => `${A}: ${g.count[i]} neighbours within ${stats.cutoffRadius} Å, ${more ? 'more' : 'fewer'} than any in training (${more ? cr.max : cr.min})`);
+    if (!(uc <= 1)) note(`${A} neighbours ${more ? 'more' : 'fewer'}`, uc, i, () => `${A}: ${g.count[i]} neighbours within ${stats.cutoffRadius} Å, ${more ? 'more' : 'fewer'} than any in training (${more ? cr.max : cr.min})`);
     for (let b = 0; b < S; b++) {
       const k = a * S + b;
       const r = g.nearest[i * S + b];
@@ -230,7 +230,7 @@ export function checkDomain(
       const ub = rangeScore(rr, nr.min, nr.median, nr.max);
       if (ub > u[i]) u[i] = ub;
       const shorter = rr < nr.median;
-      note(`${A}–${B} ${shorter ? 'shorter' : 'longer'}`, ub, i, () =>
+      if (!(ub <= 1)) note(`${A}–${B} ${shorter ? 'shorter' : 'longer'}`, ub, i, () =>
         nr.min >= stats.cutoffRadius
           ? `${A}–${B} ${fmt(rr)} Å: training never had ${B} within ${stats.cutoffRadius} Å of ${A}`
           : rr >= stats.cutoffRadius

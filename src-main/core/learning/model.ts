@@ -976,7 +976,7 @@ export function modelPredictor(model: Model): Predictor {
   if (part.form === 'linear') {
     const weights = part.weights as Float64Array;
     const perSpecies = model.centres.map((_, s) => toMatrices(weights, s * part.n));
-    readout = { lambda: order, matrices: (_e, s) => perSpecies[s] };
+    readout = { lambda: order, matrices: (_e, s) => perSpecies[s], perSpecies };
   } else {
     const k = part.kernel as KernelExpansion;
     const u = new Float64Array(k.n);

@@ -18,6 +18,8 @@ import type { NeighbourPairs } from '../descriptors/density.ts';
 import type { EnvironmentFeatures, FeatureSettings } from '../descriptors/feature-types.ts';
 import { featurePlan, featurise, prepare, type FeatureTimings, type Plan, type TensorPlan } from '../descriptors/features.ts';
 import type { Frame } from '../geometry/frame.ts';
+import type { KernelModule } from '../wasm/load.ts';
+import { predictKernels, residentName, type Region } from '../wasm/prediction-kernels.ts';
 
 /** What a read-out needs per environment: its weight matrices (weightMatrices layout). */
 export interface TensorReadout {
@@ -27,6 +29,12 @@ export interface TensorReadout {
    * λ = 0 row scalar[at…at+n0) (a kernel model's weights depend on it). The array may be reused between calls.
    */
   matrices(e: number, centreSpecies: number, scalar: Float64Array, at: number): Float64Array;
+  /**
+   * When the matrices depend on the centre species alone (a linear model): perSpecies[s] is what `matrices`
+   * answers for species s. The WebAssembly read-out then keeps them in its memory instead of copying them per
+   * environment. The arrays must not change afterwards.
+   */
+  perSpecies?: Float64Array[];
 }
 
 export interface ReadoutResult {
@@ -324,14 +332,130 @@ export function computeReadout(frame: Frame, settings: FeatureSettings, readout:
   const nM = 2 * lambda + 1;
   const scalar = new Float64Array(count * P.n0);
   const values = new Float64Array(count * nM);
-  const S = readoutScratch(P, T);
   const norms = new Float64Array(count);
-  featurise(prep, scalar, (e) => e, (e, k0, c) => {
-    const W = readout.matrices(e, prep.centreSpecies[e], scalar, k0 * P.n0);
-    readOne(P, T, c, W, S, values, e * nM);
-  }, null, timings, norms);
+  const read = readoutStep(P, T, readout, scalar, values);
+  featurise(prep, scalar, (e) => e, (e, k0, c) => read(e, k0, c, prep.centreSpecies[e]), null, timings, norms);
   return {
     features: { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor: {}, norms },
     values,
   };
+}
+
+/** Reads environment e (λ = 0 row k0 of `scalar`, coefficients c, centre species s) into its values. */
+export type ReadStep = (e: number, k0: number, c: Float64Array, species: number) => void;
+
+/**
+ * The read-out of one environment after another into values[e·(2λ+1)…]: through the WebAssembly kernel where
+ * it is available (the same bits), else readOne. Make one per frame, and make no other use of the prediction
+ * kernels while it is in use (their arena may place other regions between frames).
+ */
+export function readoutStep(P: Plan, T: TensorPlan, readout: TensorReadout, scalar: Float64Array, values: Float64Array): ReadStep {
+  const fast = wasmReadout(P, T, readout, scalar, values);
+  if (fast) return fast;
+  const S = readoutScratch(P, T);
+  const nM = 2 * T.lambda + 1;
+  return (e, k0, c, s) => readOne(P, T, c, readout.matrices(e, s, scalar, k0 * P.n0), S, values, e * nM);
+}
+
+/** The key of the read-out's scratch region (coefficients, one weight set, the output) in the kernel arena. */
+const READOUT_SCRATCH = {};
+
+/**
+ * The read-out step through the WebAssembly kernel (../wasm/assembly/prediction-kernels.ts readOne, the same bits as
+ * readOne here), or null where the kernels are off or unavailable. The plan's tables stay in the module's memory
+ * per plan, and a linear model's per-species matrices (readout.perSpecies) per model; the coefficients of each
+ * environment (and a kernel model's matrices) are copied in per environment.
+ */
+function wasmReadout(P: Plan, T: TensorPlan, readout: TensorReadout, scalar: Float64Array, values: Float64Array): ReadStep | null {
+  const k = predictKernels();
+  if (!k) return null;
+  const tch = P.tch;
+  const wSize = T.blocks.length * tch * tch;
+  // a matrix set and the coefficients are read up to two doubles past their ends (the kernel's last lane pair)
+  const wStride = (wSize + 2) * 8;
+  const cLen = P.coefficients.length;
+  const nM = 2 * T.lambda + 1;
+  const perSpecies = readout.perSpecies;
+  const yOff = (cLen + 2) * 8;
+  const wOff = yOff + Math.ceil(nM / 2) * 16;
+  const regions: Region[] = [
+    { name: residentName('readout-plan', T), key: T, bytes: layoutPlan(P, T, 0, null), fill: (m, at) => layoutPlan(P, T, at, m) },
+    { name: 'readout-scratch', key: READOUT_SCRATCH, bytes: wOff + (perSpecies ? 0 : wStride) },
+  ];
+  if (perSpecies) {
+    regions.push({
+      name: residentName('readout-weights', perSpecies),
+      key: perSpecies,
+      bytes: perSpecies.length * wStride,
+      fill: (m, at) => perSpecies.forEach((w, s) => m.f64(at + s * wStride, wSize).set(w.subarray(0, wSize))),
+    });
+  }
+  const at = k.arena.acquire(regions);
+  if (!at) return null;
+  const [planAt, cAt, weightsAt] = at;
+  const yAt = cAt + yOff;
+  const wAt = cAt + wOff;
+  let cView = k.module.f64(cAt, cLen);
+  let yView = k.module.f64(yAt, nM);
+  let wView = perSpecies ? null : k.module.f64(wAt, wSize);
+  return (e, k0, c, s) => {
+    if (cView.length === 0) {
+      // the module's memory grew since (views detach; the regions stay where they are)
+      cView = k.module.f64(cAt, cLen);
+      yView = k.module.f64(yAt, nM);
+      wView = perSpecies ? null : k.module.f64(wAt, wSize);
+    }
+    cView.set(c);
+    let W: number;
+    if (wView) {
+      wView.set(readout.matrices(e, s, scalar, k0 * P.n0).subarray(0, wSize));
+      W = wAt;
+    } else W = weightsAt + s * wStride;
+    k.readOne(planAt, cAt, W, yAt);
+    for (let mu = 0; mu < nM; mu++) values[e * nM + mu] = yView[mu];
+  };
+}
+
+/**
+ * Lays out the kernel's plan of (P, T) from byte address `at` (see assembly/prediction-kernels.ts readOne): header, channel
+ * offsets, Gram matrices per degree, left and both scratch, block records, their coupling tables and two address
+ * tables. Writes it into `m` when given; returns the bytes it takes.
+ */
+function layoutPlan(P: Plan, T: TensorPlan, at: number, m: KernelModule | null): number {
+  const tch = P.tch;
+  const nM = 2 * T.lambda + 1;
+  const nL = T.blocks.reduce((x, b) => Math.max(x, b.l2), 0) + 1;
+  const wmax = 2 * nL - 1;
+  let p = at;
+  const take = (bytes: number) => {
+    const q = p;
+    p += Math.ceil(bytes / 16) * 16;
+    return q;
+  };
+  const header = take(48);
+  const chOff = take(4 * tch);
+  const gramAt = take(4 * nL);
+  const gram = Array.from({ length: nL }, (_, l) => take(8 * (2 * l + 1) * (2 * l + 1)));
+  const left = take(8 * wmax * tch);
+  const both = take(8 * wmax * wmax);
+  const blocks = take(32 * T.blocks.length);
+  const tables = T.blocks.map((b) => ({ muStart: take(4 * (nM + 1)), e1: take(4 * b.e1.length), e2: take(4 * b.e2.length), ev: take(8 * b.ev.length) }));
+  const tabA = take(4 * tch);
+  const tabB = take(4 * tch);
+  if (m) {
+    const buffer = m.f64(at, 0).buffer;
+    const i32 = (q: number, n: number) => new Int32Array(buffer, q, n);
+    i32(header, 11).set([tch, nM, nL, T.blocks.length, chOff, gramAt, left, both, blocks, tabA, tabB]);
+    i32(chOff, tch).set(P.tensorBase[0]);
+    i32(gramAt, nL).set(gram);
+    T.blocks.forEach((b, k) => {
+      const t = tables[k];
+      i32(blocks + 32 * k, 7).set([b.l, b.l2, k * tch * tch * 8, t.muStart, t.e1, t.e2, t.ev]);
+      i32(t.muStart, nM + 1).set(b.muStart);
+      i32(t.e1, b.e1.length).set(b.e1);
+      i32(t.e2, b.e2.length).set(b.e2);
+      m.f64(t.ev, b.ev.length).set(b.ev);
+    });
+  }
+  return p - at;
 }

@@ -1,11 +1,15 @@
 // The bounded nearest-representative search (core/learning/nearest-search.ts) against the plain scan it replaces
 // (sparse.ts nearestDistance), one query at a time and batched (searchNearestAll): the distances must be the very
 // same numbers (toBe), on random, clustered and degenerate sets of unit-norm rows. The plain scan is the reference; no outside values are involved.
+// The batched entry runs twice: through the WebAssembly kernel (core/wasm/prediction-kernels.ts) and its
+// JavaScript path (kernels switched off); both must give the plain scan's numbers.
 import fc from 'fast-check';
-import { describe, expect, it } from 'vitest';
+import { afterEach, describe, expect, it } from 'vitest';
 import { makeRng, type Rng } from '../../../src-main/core/numerics/random.ts';
 import { nearestDistance } from '../../../src-main/core/learning/sparse.ts';
-import { cachedNearestSearch, nearestAllOf, PLAIN_QUERIES_BEFORE_PREPARING, prepareNearestSearch, searchNearest, searchNearestAll, SEARCH_BASIS, type SearchCounter } from '../../../src-main/core/learning/nearest-search.ts';
+import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
+import { predictKernels } from '../../../src-main/core/wasm/prediction-kernels.ts';
+import { cachedNearestSearch, nearestAllOf, plainQueriesBeforePreparing, prepareNearestSearch, searchNearest, searchNearestAll, SEARCH_BASIS, type SearchCounter } from '../../../src-main/core/learning/nearest-search.ts';
 
 /** Scales row k of `rows` (length n0) to unit norm (a zero row becomes the first unit vector). */
 function normaliseRow(rows: Float64Array, k: number, n0: number): void {
@@ -77,15 +81,57 @@ function expectSameAsPlain(c: Case, basis: number, steps: number): void {
   // the batched entry (four queries of a species per projection pass): species assigned in turn, so groups of
   // every size 1…4 occur, one species has no representatives, and a shorter count leaves rows unread
   const ids = [...speciesIds];
-  for (const count of [c.queryCount, 7]) {
-    const species = Int32Array.from({ length: count }, (_, q) => ids[(q * 5 + 1) % ids.length]);
-    const out = new Float64Array(count).fill(-1);
-    searchNearestAll(search, c.queries, count, species, out);
-    for (let q = 0; q < count; q++) expect(out[q]).toBe(nearestDistance(c.queries, q, c.reps, c.species, species[q], c.n0));
+  for (const kernels of [true, false]) {
+    setWebAssemblyKernels(kernels);
+    for (const count of [c.queryCount, 7]) {
+      const species = Int32Array.from({ length: count }, (_, q) => ids[(q * 5 + 1) % ids.length]);
+      const out = new Float64Array(count).fill(-1);
+      searchNearestAll(search, c.queries, count, species, out);
+      for (let q = 0; q < count; q++) expect(out[q]).toBe(nearestDistance(c.queries, q, c.reps, c.species, species[q], c.n0));
+    }
   }
+  setWebAssemblyKernels(true);
 }
 
 describe('bounded nearest-representative search', () => {
+  afterEach(() => setWebAssemblyKernels(true));
+
+  it('runs through the WebAssembly kernels here, prepared and plain, at the size prediction uses (odd n0, hundreds of rows, more queries than one pass holds)', () => {
+    expect(predictKernels()).not.toBeNull();
+    const rng = makeRng(41);
+    const n0 = 301;
+    const c = makeCase(rng, n0, 300, 2, true, 0.1, 4);
+    const search = prepareNearestSearch(c.reps, c.species, n0);
+    // 600 queries (beyond the kernel's 256 per pass): noisy copies of representatives and fresh rows
+    const count = 600;
+    const queries = new Float64Array(count * n0);
+    for (let q = 0; q < count; q++) {
+      const from = rng.int(300);
+      for (let f = 0; f < n0; f++) queries[q * n0 + f] = q % 2 ? c.reps[from * n0 + f] + 0.01 * rng.normal() : c.queries[(q % c.queryCount) * n0 + f];
+    }
+    const species = Int32Array.from({ length: count }, (_, q) => q % 3);
+    const counters = [true, false].map((kernels) => {
+      setWebAssemblyKernels(kernels);
+      const out = new Float64Array(count).fill(-1);
+      const counter: SearchCounter = { queries: 0, exact: 0, summed: 0 };
+      searchNearestAll(search, queries, count, species, out, counter);
+      for (let q = 0; q < count; q++) expect(out[q]).toBe(nearestDistance(queries, q, c.reps, c.species, species[q], n0));
+      return counter;
+    });
+    // the plain scan of a job too small to prepare (a fresh owner: 600 < plainQueriesBeforePreparing() queries),
+    // through the kernel and its JavaScript path
+    for (const kernels of [true, false]) {
+      setWebAssemblyKernels(kernels);
+      const out = new Float64Array(count).fill(-1);
+      nearestAllOf({ n0, species: c.species, p: c.reps }, queries, count, species, out);
+      for (let q = 0; q < count; q++) expect(out[q]).toBe(nearestDistance(queries, q, c.reps, c.species, species[q], n0));
+    }
+    // both count their work, and the kernel's bound rules out as much as the JavaScript one
+    expect(counters[0].queries).toBe(count);
+    expect(counters[0].exact).toBeGreaterThan(0);
+    expect(Math.abs(counters[0].exact - counters[1].exact)).toBeLessThanOrEqual(0.01 * counters[1].exact);
+  });
+
   it('returns exactly the plain scan distance on random and clustered unit rows (property)', () => {
     fc.assert(
       fc.property(
@@ -170,15 +216,19 @@ describe('bounded nearest-representative search', () => {
   it('answers a small job by the plain scan and a longer one through the prepared search, with the same numbers throughout', () => {
     const rng = makeRng(29);
     const c = makeCase(rng, 40, 60, 2, true, 0.1, 3);
-    const owner = { n0: c.n0, species: c.species, p: c.reps };
     const species = Int32Array.from({ length: c.queryCount }, (_, q) => q % 3); // species 2 has no representatives
     const want = Array.from(species, (s, q) => nearestDistance(c.queries, q, c.reps, c.species, s, c.n0));
-    const calls = Math.ceil(PLAIN_QUERIES_BEFORE_PREPARING / c.queryCount) + 2; // crosses the switch to the prepared search
-    for (let k = 0; k < calls; k++) {
-      const out = new Float64Array(c.queryCount).fill(-1);
-      nearestAllOf(owner, c.queries, c.queryCount, species, out);
-      expect(Array.from(out)).toEqual(want);
-      for (let q = 0; q < c.queryCount; q++) expect(Object.is(out[q], want[q])).toBe(true);
+    // with the kernels on and off (each has its own switch), the calls cross the switch to the prepared search
+    for (const kernels of [true, false]) {
+      setWebAssemblyKernels(kernels);
+      const owner = { n0: c.n0, species: c.species, p: c.reps };
+      const calls = Math.ceil(plainQueriesBeforePreparing() / c.queryCount) + 2;
+      for (let k = 0; k < calls; k++) {
+        const out = new Float64Array(c.queryCount).fill(-1);
+        nearestAllOf(owner, c.queries, c.queryCount, species, out);
+        expect(Array.from(out)).toEqual(want);
+        for (let q = 0; q < c.queryCount; q++) expect(Object.is(out[q], want[q])).toBe(true);
+      }
     }
   });
 

@@ -4,13 +4,15 @@
 // The reference values come from the feature code, which is itself checked against Clebsch–Gordan tables and
 // rotation tests in features.test.ts; here the two routes must agree to round-off.
 import { readFileSync } from 'node:fs';
-import { beforeAll, describe, expect, it } from 'vitest';
+import { afterEach, beforeAll, describe, expect, it } from 'vitest';
 import type { FeatureSettings } from '../../../src-main/core/descriptors/feature-types.ts';
 import { computeFeatures, featurePlan } from '../../../src-main/core/descriptors/features.ts';
 import { makeFrame, type Frame } from '../../../src-main/core/geometry/frame.ts';
 import { modelFeaturiser, modelPredictor, predictTarget, predictWithFeatures, trainModel, type Model } from '../../../src-main/core/learning/model.ts';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
-import { computeReadout, readOne, readoutScratch, weightMatrices } from '../../../src-main/core/learning/tensor-readout.ts';
+import { computeReadout, readOne, readoutScratch, readoutStep, weightMatrices } from '../../../src-main/core/learning/tensor-readout.ts';
+import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
+import { predictKernels } from '../../../src-main/core/wasm/prediction-kernels.ts';
 import { referenceReadOne } from '../../helpers/reference-kernels.ts';
 import { parseExtxyz } from '../../../src-main/io/extxyz.ts';
 import { equivarianceError, MIRROR, randomCluster, randomRotations } from '../../helpers/equivariance-harness.ts';
@@ -193,4 +195,54 @@ describe('the register-blocked read-out kernel', () => {
       });
     }
   }
+});
+
+describe('the WebAssembly read-out kernel', () => {
+  // The kernel (src-main/core/wasm/assembly/prediction-kernels.ts readOne) keeps every sum's order, so its numbers must be the
+  // plain loops' bit for bit: with the matrices resident per species (a linear model) and copied per environment
+  // (a kernel model), for odd and even channel counts, λ = 1 and 2.
+  afterEach(() => setWebAssemblyKernels(true));
+  const settings: [string, FeatureSettings][] = [
+    ['nmax 8, lmax 6 (two species)', { ...base, nmax: 8, lmax: 6 }],
+    ['nmax 5, lmax 5, lmaxTensor 5, three species', { ...base, lmaxTensor: 5, species: ['O', 'H', 'C'] }],
+    ['nmaxTensor 3 (odd channel count)', { ...base, nmaxTensor: 3, species: ['O'], centres: ['O'] }],
+  ];
+  it('is available here (Node 20 runs WebAssembly SIMD)', () => {
+    expect(predictKernels()).not.toBeNull();
+  });
+  for (const lambda of [1, 2] as const) {
+    for (const [name, s] of settings) {
+      it(`λ = ${lambda}, ${name}: bit-identical to the plain loops`, () => {
+        const rng = makeRng(41 + lambda);
+        const P = featurePlan(s, [lambda]);
+        const T = P.tensors[0];
+        const W = s.centres.map(() => weightMatrices(s, lambda, Float64Array.from({ length: T.n }, () => rng.normal())));
+        const S = readoutScratch(P, T);
+        const nM = 2 * lambda + 1;
+        const trials = 20;
+        const cs = Array.from({ length: trials }, () => Float64Array.from({ length: P.expander.size }, () => (rng.uniform() < 0.15 ? 0 : rng.normal())));
+        const plain = new Float64Array(trials * nM);
+        cs.forEach((c, e) => referenceReadOne(P, T, c, W[e % W.length], S, plain, e * nM));
+        const scalar = new Float64Array(trials * P.n0);
+        for (const resident of [true, false]) {
+          const out = new Float64Array(trials * nM);
+          const step = readoutStep(P, T, { lambda, matrices: (_e, k) => W[k].slice(), perSpecies: resident ? W : undefined }, scalar, out);
+          cs.forEach((c, e) => step(e, e, c, e % W.length));
+          expect(Array.from(out)).toEqual(Array.from(plain));
+        }
+        expect(plain.some((v) => v !== 0)).toBe(true);
+      });
+    }
+  }
+
+  it('whole predictions are the same bits with the kernels on and off', () => {
+    const s = { ...base, nmax: 6, lmax: 4 };
+    const { u, n } = randomWeights(s, 2, 17);
+    const W = s.centres.map((_, k) => weightMatrices(s, 2, u, k * n));
+    const on = computeReadout(frames[2], s, { lambda: 2, matrices: (_e, k) => W[k], perSpecies: W });
+    setWebAssemblyKernels(false);
+    const off = computeReadout(frames[2], s, { lambda: 2, matrices: (_e, k) => W[k] });
+    expect(Array.from(on.values)).toEqual(Array.from(off.values));
+    expect(Array.from(on.features.scalar)).toEqual(Array.from(off.features.scalar));
+  });
 });

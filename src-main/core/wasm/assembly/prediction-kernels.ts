@@ -1,0 +1,562 @@
+// Prediction kernels in AssemblyScript, compiled to WebAssembly with 128-bit SIMD (two doubles per lane pair):
+// the λ > 0 read-out of one environment (core/learning/tensor-readout.ts readOne) and the exact nearest-
+// representative search of the applicability check (core/learning/nearest-search.ts). Compiled by
+// scripts/build-wasm.mjs into ../generated/prediction-kernels.ts; loaded through ../prediction-kernels.ts. Every number a caller
+// keeps is summed in the same order as in its JavaScript twin (vectorised across independent outputs, never
+// within one sum), so the results are the same bits; only the search's lower bounds, which merely decide what to
+// skip (with a margin far above round-off), are summed in another order.
+
+/** Where the caller's buffers may start: the first byte after this module's static data. */
+export function heapBase(): usize {
+  return __heap_base;
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Read-out
+
+/**
+ * out[i·os + j] = Σ_k A(i, k) · B(k, j) for i < rows, j < cols, each sum over k ascending from zero, where
+ * A(i, k) is the double at aTab[k] + i·ai and B(k, j) the double at bTab[k] + 8j (aTab, bTab: tables of byte
+ * addresses, one per k). Two rows by eight columns per pass (eight lane pairs), then two rows by one lane pair; an
+ * odd last column is computed in a lane pair whose second lane (one double past the row, which must be readable)
+ * is dropped. With `upper`, the sum for a tile of columns [j, j + t) stops at k = min(K, j + t): the terms it
+ * still takes with k > j' for a column j' of the tile are products with the zeros of an upper-triangular B, which
+ * add nothing to a sum that starts from +0, so every value equals the one of the plain loop over k ≤ j'.
+ */
+function product(aTab: usize, ai: usize, bTab: usize, rows: i32, cols: i32, K: i32, upper: bool, out: usize, os: usize): void {
+  const zero = f64x2.splat(0);
+  const outRow = os << 3;
+  let i = 0;
+  for (; i + 1 < rows; i += 2) {
+    const aOff = <usize>i * ai;
+    const o0 = out + <usize>i * outRow;
+    const o1 = o0 + outRow;
+    let j = 0;
+    for (; j + 7 < cols; j += 8) {
+      const kEnd = upper ? min(K, j + 8) : K;
+      let s00 = zero, s01 = zero, s02 = zero, s03 = zero;
+      let s10 = zero, s11 = zero, s12 = zero, s13 = zero;
+      const jb = <usize>j << 3;
+      for (let k = 0; k < kEnd; k++) {
+        const pa = <usize>load<u32>(aTab + (<usize>k << 2)) + aOff;
+        const pb = <usize>load<u32>(bTab + (<usize>k << 2)) + jb;
+        const x0 = f64x2.splat(f64.load(pa));
+        const x1 = f64x2.splat(f64.load(pa + ai));
+        const b0 = v128.load(pb);
+        const b1 = v128.load(pb, 16);
+        const b2 = v128.load(pb, 32);
+        const b3 = v128.load(pb, 48);
+        s00 = f64x2.add(s00, f64x2.mul(x0, b0));
+        s01 = f64x2.add(s01, f64x2.mul(x0, b1));
+        s02 = f64x2.add(s02, f64x2.mul(x0, b2));
+        s03 = f64x2.add(s03, f64x2.mul(x0, b3));
+        s10 = f64x2.add(s10, f64x2.mul(x1, b0));
+        s11 = f64x2.add(s11, f64x2.mul(x1, b1));
+        s12 = f64x2.add(s12, f64x2.mul(x1, b2));
+        s13 = f64x2.add(s13, f64x2.mul(x1, b3));
+      }
+      const p0 = o0 + jb;
+      const p1 = o1 + jb;
+      v128.store(p0, s00);
+      v128.store(p0, s01, 16);
+      v128.store(p0, s02, 32);
+      v128.store(p0, s03, 48);
+      v128.store(p1, s10);
+      v128.store(p1, s11, 16);
+      v128.store(p1, s12, 32);
+      v128.store(p1, s13, 48);
+    }
+    for (; j < cols; j += 2) {
+      const kEnd = upper ? min(K, j + 2) : K;
+      let s0 = zero, s1 = zero;
+      const jb = <usize>j << 3;
+      for (let k = 0; k < kEnd; k++) {
+        const pa = <usize>load<u32>(aTab + (<usize>k << 2)) + aOff;
+        const b = v128.load(<usize>load<u32>(bTab + (<usize>k << 2)) + jb);
+        s0 = f64x2.add(s0, f64x2.mul(f64x2.splat(f64.load(pa)), b));
+        s1 = f64x2.add(s1, f64x2.mul(f64x2.splat(f64.load(pa + ai)), b));
+      }
+      if (j + 1 < cols) {
+        v128.store(o0 + jb, s0);
+        v128.store(o1 + jb, s1);
+      } else {
+        f64.store(o0 + jb, f64x2.extract_lane(s0, 0));
+        f64.store(o1 + jb, f64x2.extract_lane(s1, 0));
+      }
+    }
+  }
+  if (i < rows) {
+    const aOff = <usize>i * ai;
+    const o0 = out + <usize>i * outRow;
+    let j = 0;
+    for (; j + 7 < cols; j += 8) {
+      const kEnd = upper ? min(K, j + 8) : K;
+      let s0 = zero, s1 = zero, s2 = zero, s3 = zero;
+      const jb = <usize>j << 3;
+      for (let k = 0; k < kEnd; k++) {
+        const x = f64x2.splat(f64.load(<usize>load<u32>(aTab + (<usize>k << 2)) + aOff));
+        const pb = <usize>load<u32>(bTab + (<usize>k << 2)) + jb;
+        s0 = f64x2.add(s0, f64x2.mul(x, v128.load(pb)));
+        s1 = f64x2.add(s1, f64x2.mul(x, v128.load(pb, 16)));
+        s2 = f64x2.add(s2, f64x2.mul(x, v128.load(pb, 32)));
+        s3 = f64x2.add(s3, f64x2.mul(x, v128.load(pb, 48)));
+      }
+      const p0 = o0 + jb;
+      v128.store(p0, s0);
+      v128.store(p0, s1, 16);
+      v128.store(p0, s2, 32);
+      v128.store(p0, s3, 48);
+    }
+    for (; j < cols; j += 2) {
+      const kEnd = upper ? min(K, j + 2) : K;
+      let s = zero;
+      const jb = <usize>j << 3;
+      for (let k = 0; k < kEnd; k++) {
+        const x = f64x2.splat(f64.load(<usize>load<u32>(aTab + (<usize>k << 2)) + aOff));
+        s = f64x2.add(s, f64x2.mul(x, v128.load(<usize>load<u32>(bTab + (<usize>k << 2)) + jb)));
+      }
+      if (j + 1 < cols) v128.store(o0 + jb, s);
+      else f64.store(o0 + jb, f64x2.extract_lane(s, 0));
+    }
+  }
+}
+
+/** Fills tab[k] = base + 8·(off[k] + shift) for k < n (byte addresses of a coefficient column). */
+function columnTable(tab: usize, base: usize, off: usize, shift: i32, n: i32): void {
+  for (let k = 0; k < n; k++) store<u32>(tab + (<usize>k << 2), <u32>(base + (<usize>(load<i32>(off + (<usize>k << 2)) + shift) << 3)));
+}
+
+/** Fills tab[k] = base + k·step for k < n. */
+function strideTable(tab: usize, base: usize, step: usize, n: i32): void {
+  for (let k = 0; k < n; k++) store<u32>(tab + (<usize>k << 2), <u32>(base + <usize>k * step));
+}
+
+/**
+ * The read-out of one environment, as tensor-readout.ts readOne computes it: y[μ] for μ < 2λ+1 from the density
+ * coefficients at `c` (the expander's layout, readable two doubles past its end) and the weight matrices at `W`
+ * (one channels × channels matrix per block, readable two doubles past the end). `plan` is the table the wrapper
+ * writes (core/learning/tensor-readout.ts layoutPlan): i32 words tch, nM, nL, blocks, then byte addresses
+ * of the channel offsets, the per-degree Gram addresses, the left and both scratch, the block records and two
+ * address tables; each block record holds l, l2, the byte offset of its matrix in W and the addresses of its
+ * muStart, e1, e2 (i32) and ev (f64) tables.
+ */
+export function readOne(plan: usize, c: usize, W: usize, y: usize): void {
+  const tch = load<i32>(plan);
+  const nM = load<i32>(plan, 4);
+  const nL = load<i32>(plan, 8);
+  const nB = load<i32>(plan, 12);
+  const chOff = <usize>load<u32>(plan, 16);
+  const gramAt = <usize>load<u32>(plan, 20);
+  const left = <usize>load<u32>(plan, 24);
+  const both = <usize>load<u32>(plan, 28);
+  const blocks = <usize>load<u32>(plan, 32);
+  const tabA = <usize>load<u32>(plan, 36);
+  const tabB = <usize>load<u32>(plan, 40);
+  // Gram matrices of every degree, both triangles (the same products in the same order: exactly symmetric)
+  for (let l = 0; l < nL; l++) {
+    const w = 2 * l + 1;
+    columnTable(tabA, c, chOff, l * l, tch);
+    product(tabA, 8, tabA, w, w, tch, false, <usize>load<u32>(gramAt + (<usize>l << 2)), <usize>w);
+  }
+  for (let mu = 0; mu < nM; mu++) f64.store(y + (<usize>mu << 3), 0);
+  let norm2: f64 = 0;
+  for (let b = 0; b < nB; b++) {
+    const rec = blocks + (<usize>b << 5);
+    const l = load<i32>(rec);
+    const l2 = load<i32>(rec, 4);
+    const wb = <usize>load<u32>(rec, 8);
+    const muStart = <usize>load<u32>(rec, 12);
+    const e1 = <usize>load<u32>(rec, 16);
+    const e2 = <usize>load<u32>(rec, 20);
+    const ev = <usize>load<u32>(rec, 24);
+    const w1 = 2 * l + 1;
+    const w2 = 2 * l2 + 1;
+    // left = Aᵀ W (w1 × channels); an l = l' block's W is upper triangular
+    columnTable(tabA, c, chOff, l * l, tch);
+    strideTable(tabB, W + wb, <usize>tch << 3, tch);
+    product(tabA, 8, tabB, w1, tch, tch, l == l2, left, <usize>tch);
+    // both = Aᵀ W B (w1 × w2)
+    strideTable(tabA, left, 8, tch);
+    columnTable(tabB, c, chOff, l2 * l2, tch);
+    product(tabA, <usize>tch << 3, tabB, w1, w2, tch, false, both, <usize>w2);
+    const ga = <usize>load<u32>(gramAt + (<usize>l << 2));
+    const gb = <usize>load<u32>(gramAt + (<usize>l2 << 2));
+    let blockNorm: f64 = 0;
+    for (let mu = 0; mu < nM; mu++) {
+      let s: f64 = 0;
+      const k0 = load<i32>(muStart + (<usize>mu << 2));
+      const k1 = load<i32>(muStart + (<usize>(mu + 1) << 2));
+      for (let k = k0; k < k1; k++) {
+        const a1 = load<i32>(e1 + (<usize>k << 2));
+        const a2 = load<i32>(e2 + (<usize>k << 2));
+        const vk = f64.load(ev + (<usize>k << 3));
+        s += vk * f64.load(both + (<usize>(a1 * w2 + a2) << 3));
+        const ra = ga + (<usize>(a1 * w1) << 3);
+        const rb = gb + (<usize>(a2 * w2) << 3);
+        let t = 0.5 * vk * f64.load(ra + (<usize>a1 << 3)) * f64.load(rb + (<usize>a2 << 3));
+        for (let k2 = k0; k2 < k; k2++) {
+          t += f64.load(ev + (<usize>k2 << 3)) * f64.load(ra + (<usize>load<i32>(e1 + (<usize>k2 << 2)) << 3)) * f64.load(rb + (<usize>load<i32>(e2 + (<usize>k2 << 2)) << 3));
+        }
+        blockNorm += 2 * vk * t;
+      }
+      const yp = y + (<usize>mu << 3);
+      f64.store(yp, f64.load(yp) + s);
+    }
+    norm2 += l == l2 ? blockNorm : 2 * blockNorm;
+  }
+  if (norm2 > 0 && norm2 < Infinity) {
+    const inv = 1 / Math.sqrt(norm2);
+    for (let mu = 0; mu < nM; mu++) {
+      const yp = y + (<usize>mu << 3);
+      f64.store(yp, f64.load(yp) * inv);
+    }
+  } else {
+    // a zero block (a lone atom's λ = 2) stays zero
+    for (let mu = 0; mu < nM; mu++) f64.store(y + (<usize>mu << 3), 0);
+  }
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Nearest-representative search
+
+// Pruning margins and the allowance on ρ_x (the same constants as nearest-search.ts, which explains them).
+const MARGIN_RELATIVE: f64 = 1e-8;
+const MARGIN_ABSOLUTE: f64 = 1e-10;
+const RHO_ALLOWANCE: f64 = 1e-10;
+
+/** Horizontal sum of a lane pair (for numbers whose summation order is free). */
+// @ts-ignore: decorator
+@inline function hsum(v: v128): f64 {
+  return f64x2.extract_lane(v, 0) + f64x2.extract_lane(v, 1);
+}
+
+/** Σ_f x_f y_f in any order (bounds only). */
+function dot(x: usize, y: usize, n0: i32): f64 {
+  let s0 = f64x2.splat(0);
+  let s1 = f64x2.splat(0);
+  let f = 0;
+  for (; f + 3 < n0; f += 4) {
+    const o = <usize>f << 3;
+    s0 = f64x2.add(s0, f64x2.mul(v128.load(x + o), v128.load(y + o)));
+    s1 = f64x2.add(s1, f64x2.mul(v128.load(x + o, 16), v128.load(y + o, 16)));
+  }
+  let s = hsum(f64x2.add(s0, s1));
+  for (; f < n0; f++) s += f64.load(x + (<usize>f << 3)) * f64.load(y + (<usize>f << 3));
+  return s;
+}
+
+/** o = x − mean (n0 numbers); returns |o|² (any summation order: bounds only). */
+function centre(x: usize, mean: usize, o: usize, n0: i32): f64 {
+  let s0 = f64x2.splat(0);
+  let s1 = f64x2.splat(0);
+  let f = 0;
+  for (; f + 3 < n0; f += 4) {
+    const b = <usize>f << 3;
+    const u = f64x2.sub(v128.load(x + b), v128.load(mean + b));
+    const v = f64x2.sub(v128.load(x + b, 16), v128.load(mean + b, 16));
+    v128.store(o + b, u);
+    v128.store(o + b, v, 16);
+    s0 = f64x2.add(s0, f64x2.mul(u, u));
+    s1 = f64x2.add(s1, f64x2.mul(v, v));
+  }
+  let s = hsum(f64x2.add(s0, s1));
+  for (; f < n0; f++) {
+    const b = <usize>f << 3;
+    const v = f64.load(x + b) - f64.load(mean + b);
+    f64.store(o + b, v);
+    s += v * v;
+  }
+  return s;
+}
+
+/**
+ * q[g·d + j] = Σ_f basis[j][f] · xc[g][f] for the four centred queries xc (rows of n0) and the d basis vectors, two
+ * basis vectors by four queries per pass over f (any summation order: bounds only).
+ */
+function project(basis: usize, d: i32, xc: usize, n0: i32, q: usize): void {
+  const rowBytes = <usize>n0 << 3;
+  const x0 = xc;
+  const x1 = x0 + rowBytes;
+  const x2 = x1 + rowBytes;
+  const x3 = x2 + rowBytes;
+  const dBytes = <usize>d << 3;
+  let j = 0;
+  for (; j + 1 < d; j += 2) {
+    const u = basis + <usize>j * rowBytes;
+    const v = u + rowBytes;
+    let a0 = f64x2.splat(0), a1 = a0, a2 = a0, a3 = a0, b0 = a0, b1 = a0, b2 = a0, b3 = a0;
+    let f = 0;
+    for (; f + 1 < n0; f += 2) {
+      const o = <usize>f << 3;
+      const bu = v128.load(u + o);
+      const bv = v128.load(v + o);
+      const y0 = v128.load(x0 + o);
+      const y1 = v128.load(x1 + o);
+      const y2 = v128.load(x2 + o);
+      const y3 = v128.load(x3 + o);
+      a0 = f64x2.add(a0, f64x2.mul(bu, y0));
+      a1 = f64x2.add(a1, f64x2.mul(bu, y1));
+      a2 = f64x2.add(a2, f64x2.mul(bu, y2));
+      a3 = f64x2.add(a3, f64x2.mul(bu, y3));
+      b0 = f64x2.add(b0, f64x2.mul(bv, y0));
+      b1 = f64x2.add(b1, f64x2.mul(bv, y1));
+      b2 = f64x2.add(b2, f64x2.mul(bv, y2));
+      b3 = f64x2.add(b3, f64x2.mul(bv, y3));
+    }
+    let s0 = hsum(a0), s1 = hsum(a1), s2 = hsum(a2), s3 = hsum(a3);
+    let t0 = hsum(b0), t1 = hsum(b1), t2 = hsum(b2), t3 = hsum(b3);
+    if (f < n0) {
+      const o = <usize>f << 3;
+      const bu = f64.load(u + o);
+      const bv = f64.load(v + o);
+      s0 += bu * f64.load(x0 + o);
+      s1 += bu * f64.load(x1 + o);
+      s2 += bu * f64.load(x2 + o);
+      s3 += bu * f64.load(x3 + o);
+      t0 += bv * f64.load(x0 + o);
+      t1 += bv * f64.load(x1 + o);
+      t2 += bv * f64.load(x2 + o);
+      t3 += bv * f64.load(x3 + o);
+    }
+    const p = q + (<usize>j << 3);
+    f64.store(p, s0);
+    f64.store(p, t0, 8);
+    f64.store(p + dBytes, s1);
+    f64.store(p + dBytes, t1, 8);
+    f64.store(p + 2 * dBytes, s2);
+    f64.store(p + 2 * dBytes, t2, 8);
+    f64.store(p + 3 * dBytes, s3);
+    f64.store(p + 3 * dBytes, t3, 8);
+  }
+  if (j < d) {
+    const u = basis + <usize>j * rowBytes;
+    for (let g = 0; g < 4; g++) f64.store(q + <usize>g * dBytes + (<usize>j << 3), dot(u, xc + <usize>g * rowBytes, n0));
+  }
+}
+
+/**
+ * Squared distances from the query x to the representatives at r0 … r3 (rows of n0), each lane summing its own
+ * (x_f − r_f)² over f in order, exactly as nearestDistance does, with its check every 16 features: stop once all
+ * four partial sums reach `best` (a stopped sum is then ≥ best and cannot win). Writes the four sums to out and
+ * returns the features summed.
+ */
+function sumFour(x: usize, r0: usize, r1: usize, r2: usize, r3: usize, n0: i32, best: f64, out: usize): i32 {
+  let s01 = f64x2.splat(0);
+  let s23 = f64x2.splat(0);
+  const bv = f64x2.splat(best);
+  let f = 0;
+  while (f < n0) {
+    if (!v128.any_true(v128.or(f64x2.lt(s01, bv), f64x2.lt(s23, bv)))) break;
+    const end = min(n0, f + 16);
+    for (; f + 1 < end; f += 2) {
+      const o = <usize>f << 3;
+      const xv = v128.load(x + o);
+      const x0 = v128.shuffle<f64>(xv, xv, 0, 0);
+      const x1 = v128.shuffle<f64>(xv, xv, 1, 1);
+      const a = v128.load(r0 + o);
+      const b = v128.load(r1 + o);
+      const c = v128.load(r2 + o);
+      const e = v128.load(r3 + o);
+      const d01 = f64x2.sub(x0, v128.shuffle<f64>(a, b, 0, 2));
+      const d23 = f64x2.sub(x0, v128.shuffle<f64>(c, e, 0, 2));
+      s01 = f64x2.add(s01, f64x2.mul(d01, d01));
+      s23 = f64x2.add(s23, f64x2.mul(d23, d23));
+      const h01 = f64x2.sub(x1, v128.shuffle<f64>(a, b, 1, 3));
+      const h23 = f64x2.sub(x1, v128.shuffle<f64>(c, e, 1, 3));
+      s01 = f64x2.add(s01, f64x2.mul(h01, h01));
+      s23 = f64x2.add(s23, f64x2.mul(h23, h23));
+    }
+    if (f < end) {
+      const o = <usize>f << 3;
+      const xs = f64x2.splat(f64.load(x + o));
+      const d01 = f64x2.sub(xs, f64x2.replace_lane(f64x2.splat(f64.load(r0 + o)), 1, f64.load(r1 + o)));
+      const d23 = f64x2.sub(xs, f64x2.replace_lane(f64x2.splat(f64.load(r2 + o)), 1, f64.load(r3 + o)));
+      s01 = f64x2.add(s01, f64x2.mul(d01, d01));
+      s23 = f64x2.add(s23, f64x2.mul(d23, d23));
+      f++;
+    }
+  }
+  v128.store(out, s01);
+  v128.store(out, s23, 16);
+  return f;
+}
+
+/**
+ * The exact nearest distances of queries of one species, as nearest-search.ts searchNearestAll computes them:
+ * the same numbers bit for bit. `reps` holds the species' representatives (m rows of n0, contiguous); `sp` is
+ * the species' record written by the wrapper (i32 words m, d, n0, unused, then byte addresses of its mean, basis
+ * (d × n0), coordinates (d × m) and residual norms (m)); `scr` the scratch record (addresses of bound (m),
+ * centred queries (4 × n0), coordinates (4 × d), squared norms (4), and a statistics pair: exact distances and
+ * features summed, added to). For the query rows idx[0…nq) of `queries` (rows of n0) writes out[k] for k < nq.
+ */
+export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize, idx: usize, nq: i32, out: usize): void {
+  const m = load<i32>(sp);
+  const d = load<i32>(sp, 4);
+  const n0 = load<i32>(sp, 8);
+  const mean = <usize>load<u32>(sp, 16);
+  const basis = <usize>load<u32>(sp, 20);
+  const coordsT = <usize>load<u32>(sp, 24);
+  const residual = <usize>load<u32>(sp, 28);
+  const bound = <usize>load<u32>(scr);
+  const xc = <usize>load<u32>(scr, 4);
+  const q = <usize>load<u32>(scr, 8);
+  const xx = <usize>load<u32>(scr, 12);
+  const stats = <usize>load<u32>(scr, 16);
+  const rowBytes = <usize>n0 << 3;
+  for (let g0 = 0; g0 < nq; g0 += 4) {
+    const count = min(4, nq - g0);
+    // centred queries, their squared norms and coordinates (free summation order: they only feed the bound)
+    for (let g = 0; g < 4; g++) {
+      const row = load<i32>(idx + (<usize>(g0 + (g < count ? g : 0)) << 2));
+      f64.store(xx + (<usize>g << 3), centre(queries + <usize>row * rowBytes, mean, xc + <usize>g * rowBytes, n0));
+    }
+    project(basis, d, xc, n0, q);
+    for (let g = 0; g < count; g++) {
+      const row = load<i32>(idx + (<usize>(g0 + g) << 2));
+      const best = nearestOf(m, d, n0, reps, coordsT, residual, bound, queries + <usize>row * rowBytes, q + (<usize>(g * d) << 3), f64.load(xx + (<usize>g << 3)), stats);
+      f64.store(out + (<usize>(g0 + g) << 3), best);
+    }
+  }
+}
+
+/**
+ * The plain scan (sparse.ts nearestDistance) of the query rows idx[0…nq) of `queries` (rows of n0) over the m
+ * representatives at `reps` (rows of n0, contiguous): out[k] = the square root of the smallest full squared
+ * distance, Infinity when m = 0. Four representatives per pass (eight per pass measured slower), each summed in
+ * nearestDistance's order; a sum left early has passed the best so far and cannot be the minimum, so the result
+ * is its number bit for bit.
+ */
+export function scanSpecies(reps: usize, m: i32, n0: i32, queries: usize, idx: usize, nq: i32, out: usize): void {
+  const rowBytes = <usize>n0 << 3;
+  for (let k = 0; k < nq; k++) {
+    const x = queries + <usize>load<i32>(idx + (<usize>k << 2)) * rowBytes;
+    let best: f64 = Infinity;
+    for (let r = 0; r < m; r += 4) {
+      // a short last group repeats its first member (its sum is computed again and changes nothing)
+      const r0 = reps + <usize>r * rowBytes;
+      sumFour(x, r0, r + 1 < m ? r0 + rowBytes : r0, r + 2 < m ? r0 + 2 * rowBytes : r0, r + 3 < m ? r0 + 3 * rowBytes : r0, n0, best, sums);
+      for (let g = 0; g < 4; g++) {
+        const s = f64.load(sums + (<usize>g << 3));
+        if (s < best) best = s;
+      }
+    }
+    f64.store(out + (<usize>k << 3), Math.sqrt(best));
+  }
+}
+
+// the current group, its rows' addresses and its sums (fixed scratch: the module runs one search at a time)
+const group = memory.data(16);
+const sums = memory.data(32);
+
+function nearestOf(m: i32, d: i32, n0: i32, reps: usize, coordsT: usize, residual: usize, bound: usize, x: usize, q: usize, xx: f64, stats: usize): f64 {
+  let qq: f64 = 0;
+  for (let j = 0; j < d; j++) {
+    const v = f64.load(q + (<usize>j << 3));
+    qq += v * v;
+  }
+  const t = xx - qq;
+  const allowance = RHO_ALLOWANCE * xx;
+  const lo = Math.sqrt(Math.max(0, t - allowance));
+  const hi = Math.sqrt(Math.max(0, t + allowance));
+  // bound = gap² + |q − coordinates|², two representatives per lane pair; where ρ_x is unknown (NaN) the bound
+  // is NaN and rules nothing out
+  const lov = f64x2.splat(lo);
+  const hiv = f64x2.splat(hi);
+  const zero = f64x2.splat(0);
+  const rowM = <usize>m << 3;
+  let k = 0;
+  for (; k + 1 < m; k += 2) {
+    const o = <usize>k << 3;
+    const rk = v128.load(residual + o);
+    const gap = f64x2.max(f64x2.max(f64x2.sub(rk, hiv), f64x2.sub(lov, rk)), zero);
+    let b = f64x2.mul(gap, gap);
+    let c = coordsT + o;
+    for (let j = 0; j < d; j++) {
+      const g = f64x2.sub(f64x2.splat(f64.load(q + (<usize>j << 3))), v128.load(c));
+      b = f64x2.add(b, f64x2.mul(g, g));
+      c += rowM;
+    }
+    v128.store(bound + o, b);
+  }
+  if (k < m) {
+    const o = <usize>k << 3;
+    const rk = f64.load(residual + o);
+    const gap = Math.max(Math.max(rk - hi, lo - rk), 0);
+    let b = gap * gap;
+    for (let j = 0; j < d; j++) {
+      const g = f64.load(q + (<usize>j << 3)) - f64.load(coordsT + <usize>j * rowM + o);
+      b += g * g;
+    }
+    f64.store(bound + o, b);
+  }
+  // the four smallest bounds first (usually holding the winner), in ascending order; -1 where fewer
+  let f0 = -1, f1 = -1, f2 = -1, f3 = -1;
+  let c0: f64 = Infinity, c1: f64 = Infinity, c2: f64 = Infinity, c3: f64 = Infinity;
+  for (let k = 0; k < m; k++) {
+    const b = f64.load(bound + (<usize>k << 3));
+    if (!(b < c3)) continue;
+    if (b < c2) {
+      c3 = c2;
+      f3 = f2;
+      if (b < c1) {
+        c2 = c1;
+        f2 = f1;
+        if (b < c0) {
+          c1 = c0;
+          f1 = f0;
+          c0 = b;
+          f0 = k;
+        } else {
+          c1 = b;
+          f1 = k;
+        }
+      } else {
+        c2 = b;
+        f2 = k;
+      }
+    } else {
+      c3 = b;
+      f3 = k;
+    }
+  }
+  store<i32>(group, f0);
+  store<i32>(group, f1, 4);
+  store<i32>(group, f2, 8);
+  store<i32>(group, f3, 12);
+  let filled = f0 < 0 ? 0 : f1 < 0 ? 1 : f2 < 0 ? 2 : f3 < 0 ? 3 : 4;
+  let best: f64 = Infinity;
+  let exact = 0;
+  let summed = 0;
+  let next = 0;
+  const rowBytes = <usize>n0 << 3;
+  while (filled > 0) {
+    for (let g = filled; g < 4; g++) store<i32>(group + (<usize>g << 2), load<i32>(group));
+    exact += filled;
+    summed += sumFour(
+      x,
+      reps + <usize>load<i32>(group) * rowBytes,
+      reps + <usize>load<i32>(group, 4) * rowBytes,
+      reps + <usize>load<i32>(group, 8) * rowBytes,
+      reps + <usize>load<i32>(group, 12) * rowBytes,
+      n0,
+      best,
+      sums,
+    );
+    for (let g = 0; g < 4; g++) {
+      const s = f64.load(sums + (<usize>g << 3));
+      if (s < best) best = s;
+    }
+    // refill from the representatives not yet visited whose bound does not rule them out (a NaN bound never does)
+    filled = 0;
+    while (filled < 4 && next < m) {
+      const k = next++;
+      if (k == f0 || k == f1 || k == f2 || k == f3) continue;
+      if (f64.load(bound + (<usize>k << 3)) - MARGIN_RELATIVE * best - MARGIN_ABSOLUTE > best) continue;
+      store<i32>(group + (<usize>filled << 2), k);
+      filled++;
+    }
+  }
+  f64.store(stats, f64.load(stats) + <f64>exact);
+  f64.store(stats, f64.load(stats, 8) + <f64>summed, 8);
+  return Math.sqrt(best);
+}
