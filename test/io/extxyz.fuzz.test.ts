@@ -29,9 +29,13 @@ const infoKey = fc
   .oneof(fc.stringMatching(/^[A-Za-z_][A-Za-z0-9_]{0,8}$/), fc.string({ unit: 'binary', maxLength: 6 }))
   .filter((k) => k !== 'Lattice' && k !== 'Properties' && k !== 'pbc');
 
-/** A right-handed cell: diagonal 1–40 Å plus shears small enough to keep the determinant positive. */
+/**
+ * A right-handed cell: diagonal 1.2–40 Å plus shears small enough to keep the determinant positive and, with the
+ * diagonal's lower end, above the smallest believable volume of 1 Å³ (shears of ±0.3 can take it down to about 0.68
+ * of the diagonal's product; with 1 Å a sheared cell fell just below 1 Å³ and was rightly refused).
+ */
 const cell = fc
-  .tuple(fc.array(fc.double({ min: 1, max: 40, noNaN: true }), { minLength: 3, maxLength: 3 }), fc.array(fc.double({ min: -0.3, max: 0.3, noNaN: true }), { minLength: 6, maxLength: 6 }))
+  .tuple(fc.array(fc.double({ min: 1.2, max: 40, noNaN: true }), { minLength: 3, maxLength: 3 }), fc.array(fc.double({ min: -0.3, max: 0.3, noNaN: true }), { minLength: 6, maxLength: 6 }))
   .map(([d, s]) => Float64Array.from([d[0], s[0] * d[0], s[1] * d[0], s[2] * d[1], d[1], s[3] * d[1], s[4] * d[2], s[5] * d[2], d[2]]));
 
 const columnName = fc.stringMatching(/^[a-z][a-z0-9_]{0,6}$/).filter((n) => n !== 'species' && n !== 'pos' && n !== 'z');

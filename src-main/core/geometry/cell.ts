@@ -59,6 +59,12 @@ export function checkCell(cell: ArrayLike<number> | null | undefined, where: Whe
   }
 }
 
+/** A volume to four digits, or to all of them where four would print a bound of the range (0.99999… as 1.000). */
+function volumeText(v: number): string {
+  const short = v.toPrecision(4);
+  return Number(short) === MIN_CELL_VOLUME_A3 || Number(short) === MAX_CELL_VOLUME_A3 ? String(v) : short;
+}
+
 /**
  * checkCell, and a volume within the range believed for a structure (core/limits.ts): what every reader
  * applies to a cell from a file, so an overflowing or mistyped cell is refused where it is read.
@@ -68,7 +74,7 @@ export function checkBelievableCell(cell: ArrayLike<number> | null | undefined, 
   const v = Math.abs(cellDeterminant(cell));
   if (v < MIN_CELL_VOLUME_A3 || v > MAX_CELL_VOLUME_A3) {
     throw new InputError(
-      `the cell volume ${v.toPrecision(4)} Å³ is outside the range believed for a structure (${MIN_CELL_VOLUME_A3} to ${MAX_CELL_VOLUME_A3.toExponential(0)} Å³)`,
+      `the cell volume ${volumeText(v)} Å³ is outside the range believed for a structure (${MIN_CELL_VOLUME_A3} to ${MAX_CELL_VOLUME_A3.toExponential(0)} Å³)`,
       where,
       'lattice vectors are in Å: check the units (bohr? nm?) and the numbers of the cell',
     );

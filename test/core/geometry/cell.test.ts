@@ -16,6 +16,7 @@ import {
   toFractional,
   wrapPositions,
   wrapUnit,
+  checkBelievableCell,
 } from '../../../src-main/core/geometry/cell.ts';
 import { InputError } from '../../../src-main/core/errors.ts';
 import { makeFrame, type Frame } from '../../../src-main/core/geometry/frame.ts';
@@ -327,5 +328,23 @@ describe('supercell', () => {
     expect(() => supercell(open, [2, 2, 2])).toThrow(InputError);
     expect(() => supercell(sample(), [0, 1, 1])).toThrow(/positive integers/);
     expect(() => supercell(sample(), [1.5, 1, 1])).toThrow(InputError);
+  });
+});
+
+describe('believable cell volume', () => {
+  it('refuses a volume just below 1 Å³ with a message that does not print it as 1.000', () => {
+    // the sheared cell a fuzz run found: determinant 1 − 0.3 × 1.85e-16 × … = 0.9999999999999999
+    const cell = Float64Array.from([1, 0, 1.8503717077085978e-16, 0, 1, 0, 0.2999999999999995, 0, 1]);
+    let message = '';
+    try {
+      checkBelievableCell(cell, { file: 'x.xyz', line: 2 });
+    } catch (e) {
+      expect(e).toBeInstanceOf(InputError);
+      message = (e as Error).message;
+    }
+    expect(message).toMatch(/cell volume 0\.9999999\d* Å³ is outside the range believed/);
+    // an ordinary refusal keeps four digits
+    expect(() => checkBelievableCell(Float64Array.from([0.5, 0, 0, 0, 0.5, 0, 0, 0, 0.5]))).toThrow(/cell volume 0\.1250 Å³/);
+    expect(() => checkBelievableCell(Float64Array.from([1.2, 0, 0, 0, 1.2, 0, 0, 0, 1.2]))).not.toThrow();
   });
 });
