@@ -43,6 +43,12 @@ describe('polarweave demo --quick', () => {
     expect(report.learningCurve.length).toBeGreaterThanOrEqual(2);
     expect(report.learningCurve[0].repeats).toBe(3);
     expect(report.statePoints.groups.length).toBe(3);
+    // the printed line gives the same headline figure as summary.md and validate: within state points, not the
+    // all-frames figure that the differences between state points flatter
+    const line = r.out.split('\n').find((l) => l.startsWith('liquid cross-validation')) ?? '';
+    expect(line).toContain('within state points');
+    expect(line).toContain(`isotropic ${report.statePoints.within.percentIso.toFixed(1)} % of the spread`);
+    expect(line).toContain(`anisotropic ${report.statePoints.within.percentAniso.toFixed(1)} %`);
     // the reference columns with the differences, through predict's format
     expect(table.columns).toEqual(expect.arrayContaining(['eps_ref_iso', 'eps_iso_diff', 'eps_aniso_diff']));
     // The liquid is learnt: cross-validated %RMSE of the isotropic part well below 100 % (a useless model

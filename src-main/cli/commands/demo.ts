@@ -6,6 +6,7 @@ import { join } from 'node:path';
 import { runDemo } from '../../demo/run-demo.ts';
 import { referenceLoopNote, runReferenceLoop } from '../../demo/reference-loop.ts';
 import { writeFileAtomic } from '../../io/atomic.ts';
+import { headlineErrors } from '../../core/learning/state-points.ts';
 
 const options = [
   { name: 'output', short: 'o', value: 'DIR', help: 'folder for the outputs', default: 'polarweave-demo' },
@@ -40,11 +41,13 @@ export const demoCommand: Command = {
       loopFile = join(args.options.output as string, 'reference-loop.md');
       await writeFileAtomic(loopFile, referenceLoopNote(loop));
     }
-    const e = result.validation.errors;
+    // the headline figure, as validate and summary.md give it: within state points when the liquid has several
+    const head = headlineErrors(result.validation);
+    const e = head.errors;
     const c = result.crystalErrors;
     io.out(
       [
-        `liquid cross-validation (${result.liquidFrames} frames): error of ε relative to the spread of the data, isotropic ${e.percentIso.toFixed(1)} %, anisotropic ${e.percentAniso.toFixed(1)} %`,
+        `liquid cross-validation (${result.liquidFrames} frames), error of ε ${head.what}: isotropic ${e.percentIso.toFixed(1)} % of the spread, anisotropic ${e.percentAniso.toFixed(1)} % (summary.md gives each state point and all frames)`,
         `crystal (${result.crystalFrames} frames): RMSE of ε, isotropic ${c.rmseIso.toExponential(2)}, anisotropic ${c.rmseAniso.toExponential(2)}; ${result.crystalOutsideFrames} frames flagged outside the training data`,
         `outputs in ${result.files.summary.replace(/[/\\][^/\\]*$/, '')}:`,
         `  ${result.files.summary}`,
