@@ -12,7 +12,8 @@
 // representatives' owner object), so the saved model stays a plain structured-clone-friendly object.
 
 import { nearestDistance } from './sparse.ts';
-import { predictKernels, residentName, type PredictKernels, type Region } from '../wasm/prediction-kernels.ts';
+import { residentName, type Region } from '../wasm/arena.ts';
+import { predictKernels, type PredictKernels } from '../wasm/prediction-kernels.ts';
 
 /**
  * Basis size per species, chosen by measurement (bench/applicability.bench.ts: water-like frames, nmax 8, lmax 6,

@@ -19,7 +19,8 @@ import type { EnvironmentFeatures, FeatureSettings } from '../descriptors/featur
 import { featurePlan, featurise, prepare, type FeatureTimings, type Plan, type TensorPlan } from '../descriptors/features.ts';
 import type { Frame } from '../geometry/frame.ts';
 import type { KernelModule } from '../wasm/load.ts';
-import { predictKernels, residentName, type Region } from '../wasm/prediction-kernels.ts';
+import { residentName, type Region } from '../wasm/arena.ts';
+import { predictKernels } from '../wasm/prediction-kernels.ts';
 
 /** What a read-out needs per environment: its weight matrices (weightMatrices layout). */
 export interface TensorReadout {

@@ -1,6 +1,7 @@
 // The descriptor kernels (./assembly/descriptors.ts) with their signatures. Used by core/descriptors/features.ts,
 // which lays out each feature plan's tables in the module's memory.
 import { WASM_BASE64 } from './generated/descriptors.ts';
+import { Arena } from './arena.ts';
 import { kernelModule, type KernelModule } from './load.ts';
 
 export interface DescriptorKernels {
@@ -22,11 +23,6 @@ export interface DescriptorKernels {
    */
   expandAccumulate(Y: number, R: number, chan: number, count: number, nmax: number, lmax: number, channels: number, idx: number, acc: number, out: number, selfTerm: number, centreChannel: number): void;
   /**
-   * A region of at least `bytes` bytes of the module's memory for `owner` (byte offset, 16-byte aligned), the same
-   * one on later calls while it is large enough. `generation` changes when the memory is laid out afresh (every
-   * region is then new and its contents must be written again); null when the memory cannot grow that far.
-   */
-  /**
    * Every pair's harmonics Y and weighted radial integrals R for expandAccumulate from its parameters (8 doubles per
    * pair: x, y, z, r, w, interval, t; chan < 0: skipped), the harmonics' recurrence tables and the reordered radial
    * table coef.
@@ -36,11 +32,13 @@ export interface DescriptorKernels {
   transposeChannels(c: number, base: number, K: number, lmax: number, dst: number): void;
   /** The λ = 0 row of one environment, unnormalised, from cT of all nch channels (transposeChannels). */
   powerSpectrumRow(cT: number, nch: number, lmax: number, invSqrt: number, out: number): void;
+  /**
+   * A region of at least `bytes` bytes of the module's memory for `owner` (byte offset, 16-byte aligned; the
+   * module's Arena, ./arena.ts), the same one on later calls while it is large enough. `generation` changes when the
+   * region is placed anew (its contents must then be written again); null when the memory cannot grow that far.
+   */
   region(owner: object, bytes: number): { at: number; generation: number } | null;
 }
-
-/** Regions are laid out afresh once this much is placed (owners that are gone leave theirs behind until then). */
-const ARENA_LIMIT = 256 * 2 ** 20;
 
 let cached: DescriptorKernels | null | undefined;
 let cachedFor: KernelModule | null | undefined;
@@ -52,23 +50,8 @@ export function descriptorKernels(): DescriptorKernels | null {
   if (cachedFor !== module) {
     cachedFor = module;
     const e = module.exports;
-    const regions = new WeakMap<object, { at: number; bytes: number; generation: number }>();
-    let top = module.heapBase;
-    let generation = 0;
-    const region = (owner: object, bytes: number): { at: number; generation: number } | null => {
-      const have = regions.get(owner);
-      if (have && have.generation === generation && have.bytes >= bytes) return { at: have.at, generation };
-      const size = Math.ceil(bytes / 16) * 16;
-      if (top - module.heapBase + size > ARENA_LIMIT) {
-        top = module.heapBase;
-        generation++;
-      }
-      if (!module.reserve(top - module.heapBase + size)) return null;
-      const r = { at: top, bytes: size, generation };
-      top += size;
-      regions.set(owner, r);
-      return { at: r.at, generation };
-    };
+    const arena = new Arena(module);
+    const region = (owner: object, bytes: number) => arena.region(owner, bytes);
     cached = {
       module,
       region,

@@ -5,7 +5,8 @@
 // twins in test/core/learning/tensor-readout.test.ts and nearest-search.test.ts.
 import { describe, expect, it } from 'vitest';
 import type { KernelModule } from '../../../src-main/core/wasm/load.ts';
-import { Arena, ARENA_LIMIT, predictKernels, residentName, type Region } from '../../../src-main/core/wasm/prediction-kernels.ts';
+import { Arena, ARENA_LIMIT, residentName, type Region } from '../../../src-main/core/wasm/arena.ts';
+import { predictKernels } from '../../../src-main/core/wasm/prediction-kernels.ts';
 import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
 
 function standIn(): { module: KernelModule; reserved: number[] } {
@@ -83,5 +84,39 @@ describe('prediction kernels: the arena', () => {
     } finally {
       setWebAssemblyKernels(true);
     }
+  });
+});
+
+describe('the arena: regions whose owners write them (the descriptor kernels)', () => {
+  it('keeps an owner region in place with the same generation, and gives a new generation when placed anew', () => {
+    const { module } = standIn();
+    const arena = new Arena(module);
+    const plan = {};
+    const expander = {};
+    const a = arena.region(plan, 1000)!;
+    expect(a.at % 16).toBe(0);
+    expect(arena.region(plan, 800)).toEqual(a); // fits: same place, same generation
+    const b = arena.region(expander, 500)!;
+    expect(b.at).toBeGreaterThanOrEqual(a.at + 1000); // side by side, no overlap
+    expect(arena.region(plan, 1000)).toEqual(a);
+    const c = arena.region(plan, 5000)!; // larger: placed anew, to be written again
+    expect(c.generation).not.toBe(a.generation);
+    expect(c.at).not.toBe(a.at);
+    expect(arena.region(expander, 500)).toEqual(b);
+  });
+
+  it('past the limit everything starts again, and every owner then sees a new generation', () => {
+    const { module } = standIn();
+    const arena = new Arena(module);
+    const one = {};
+    const two = {};
+    const first = arena.region(one, 1000)!;
+    const big = arena.region(two, ARENA_LIMIT - 500)!; // does not fit above the first: the arena starts again
+    expect(big.at).toBe(1024);
+    const again = arena.region(one, 1000)!;
+    expect(again.generation).not.toBe(first.generation);
+    // placed again from the base after another start, never overlapping the big region while both are held
+    expect(again.at === 1024 || again.at >= big.at + ARENA_LIMIT - 500).toBe(true);
+    expect(arena.region(one, ARENA_LIMIT + 16)).toBeNull();
   });
 });
