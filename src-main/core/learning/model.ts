@@ -459,10 +459,12 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   let atoms = 0;
   const wantApplicability = options.applicability !== false;
   const domain = wantApplicability ? new DomainStatsBuilder(species, centres, settings.cutoffRadius) : null;
+  let pairs: NeighbourList | undefined;
   for (let f = 0; f < nFrames; f++) {
     checkAbort(hooks);
-    // one neighbour list per frame for the features and the domain statistics (the same cutoff)
-    const pairs = domain ? neighbourList(frames[f], settings.cutoffRadius) : undefined;
+    // one neighbour list per frame for the features and the domain statistics (the same cutoff), written over the
+    // previous frame's, which nothing holds
+    pairs = domain ? neighbourList(frames[f], settings.cutoffRadius, { reuse: pairs }) : undefined;
     const fe = feat(frames[f], f, pairs);
     if (domain) domain.add(frames[f], pairs as NeighbourList, fe.centreSpecies, fe.norms);
     if (n0 < 0) {
