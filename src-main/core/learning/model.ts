@@ -32,6 +32,7 @@ import {
   foldCoefficients,
   foldSparseWeights,
   nearestOtherDistances,
+  anchorsOf,
   projectRows,
   representativeFactor,
   representativeKernel,
@@ -508,11 +509,11 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   if (composition && targets.shape === 'tensor') notes.push(composition);
 
   // Representatives (FPS per species) for kernel parts and for applicability.
-  const repsPerSpecies = envPool.perSpecies.map((cand) => {
+  const samples = envPool.perSpecies.map((cand) => {
     const m = linear ? (wantApplicability ? APPLICABILITY_POINTS : 0) : exact ? cand.length : settings.anchorEnvironments;
-    return farthestPointSample(envPool.p, n0, cand, m).chosen;
+    return farthestPointSample(envPool.p, n0, cand, m);
   });
-  const repIndex = Int32Array.from(repsPerSpecies.flatMap((r) => [...r]));
+  const repIndex = Int32Array.from(samples.flatMap((r) => [...r.chosen]));
 
   // Pass 2 for the sparse form: K_NM rows per frame and order.
   const parts: ModelPart[] = [];
@@ -664,7 +665,8 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     hooks.onProgress?.({ stage: 'applicability', done: 0, total: 1 });
     await yieldToLoop();
     // held-out-frame distances (nearest representative of another frame); one frame: leave-self-out
-    const dist = nearestOtherDistances(envPool, repIndex, nFrames >= 2 ? envPool.frame : undefined);
+    // (each environment's nearest representative from the sampling, as a starting point: the same distances)
+    const dist = nearestOtherDistances(envPool, repIndex, nFrames >= 2 ? envPool.frame : undefined, anchorsOf(envPool.count, envPool.perSpecies, samples));
     for (let s = 0; s < nS; s++) {
       const ds: number[] = [];
       for (const i of envPool.perSpecies[s]) if (Number.isFinite(dist[i])) ds.push(dist[i]);
