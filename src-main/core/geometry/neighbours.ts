@@ -220,12 +220,14 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   }
   const binFraction = options.binFraction ?? 1;
   if (!(binFraction > 0 && binFraction <= 4)) throw new RangeError(`binFraction must lie in (0, 4], got ${binFraction}`);
+  let largest = 0; // the largest |coordinate| (Å), for the margin of the bin-distance bound below
   for (let k = 0; k < 3 * n; k++) {
     const x = pos[k];
     if (!Number.isFinite(x)) {
       throw new InputError(`atom ${Math.floor(k / 3)} has a non-finite coordinate (${x})`, where,
         'every position must be a finite number in Å');
     }
+    if (Math.abs(x) > largest) largest = Math.abs(x);
   }
   const pbc = frame.cell === null ? [false, false, false] : [frame.pbc[0], frame.pbc[1], frame.pbc[2]];
   if (frame.cell === null && (frame.pbc[0] || frame.pbc[1] || frame.pbc[2])) {
@@ -405,6 +407,30 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   const w0 = 2 * m[0] + 1, w1 = 2 * m[1] + 1, w2 = 2 * m[2] + 1;
   const h0 = h[0], h1 = h[1], h2 = h[2], h3 = h[3], h4 = h[4], h5 = h[5], h6 = h[6], h7 = h[7], h8 = h[8];
   const summaryWords = (n + 1023) >>> 10;
+  // A bin is skipped when every atom in it is farther from the centre than the cutoff: per axis, the gap between
+  // the centre's fractional coordinate and the bin's slice, times the slice's thickness, bounds the distance from
+  // below; in a cell with orthogonal axes the gaps add in squares, else the largest bounds it. The margin (1e-9 of
+  // the cutoff, the cell and the coordinates) lies far above the rounding of positions and fractions, so a skipped
+  // bin never holds a pair that the distance test would keep: the same pairs as visiting it.
+  const thick = [0, 1, 2].map((k) => f[k] * width[k]);
+  const orthogonal = [[0, 1], [0, 2], [1, 2]].every(([a, c]) => {
+    const dot = h[3 * a] * h[3 * c] + h[3 * a + 1] * h[3 * c + 1] + h[3 * a + 2] * h[3 * c + 2];
+    return Math.abs(dot) <= 1e-12 * Math.hypot(h[3 * a], h[3 * a + 1], h[3 * a + 2]) * Math.hypot(h[3 * c], h[3 * c + 1], h[3 * c + 2]);
+  });
+  const reach = cutoff + 1e-9 * (cutoff + width[0] + width[1] + width[2] + largest);
+  const reach2 = reach * reach;
+  const gapA = new Float64Array(w0), gapB = new Float64Array(w1), gapC = new Float64Array(w2);
+  /** Squared perpendicular gaps (Å²) from fractional position c + u (in slices) to the slices c + d − m, d = 0…w−1. */
+  const gaps = (out: Float64Array, k: number, c: number, fracK: number) => {
+    let u = (fracK - origin[k]) / f[k] - c;
+    if (!(u >= 0)) u = 0;
+    else if (u > 1) u = 1;
+    for (let d = 0; d < out.length; d++) {
+      const delta = d - m[k];
+      const g = delta > 0 ? delta - u : delta < 0 ? u - delta - 1 : 0;
+      out[d] = g > 0 ? (g * thick[k]) ** 2 : 0;
+    }
+  };
 
   for (let i = 0; i < n; i++) {
     start[i] = count;
@@ -412,19 +438,27 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
     const xi = wrapped[3 * i], yi = wrapped[3 * i + 1], zi = wrapped[3 * i + 2];
     const oi0 = offset[3 * i], oi1 = offset[3 * i + 1], oi2 = offset[3 * i + 2];
     const c0 = bin3[3 * i], c1 = bin3[3 * i + 1], c2 = bin3[3 * i + 2];
+    gaps(gapA, 0, c0, frac[3 * i]);
+    gaps(gapB, 1, c1, frac[3 * i + 1]);
+    gaps(gapC, 2, c2, frac[3 * i + 2]);
     for (let d0 = 0; d0 < w0; d0++) {
       const t0 = wrapA[c0 + d0];
       if (t0 < 0) continue;
+      const g0 = gapA[d0];
+      if (g0 > reach2) continue;
       const S0 = shiftA[c0 + d0];
       for (let d1 = 0; d1 < w1; d1++) {
         const t1 = wrapB[c1 + d1];
         if (t1 < 0) continue;
+        const g01 = orthogonal ? g0 + gapB[d1] : Math.max(g0, gapB[d1]);
+        if (g01 > reach2) continue;
         const S1 = shiftB[c1 + d1];
         const row = (t0 * n1 + t1) * n2;
         const tx01 = S0 * h0 + S1 * h3, ty01 = S0 * h1 + S1 * h4, tz01 = S0 * h2 + S1 * h5;
         for (let d2 = 0; d2 < w2; d2++) {
           const t2 = wrapC[c2 + d2];
           if (t2 < 0) continue;
+          if ((orthogonal ? g01 + gapC[d2] : Math.max(g01, gapC[d2])) > reach2) continue;
           const S2 = shiftC[c2 + d2];
           const bin = row + t2;
           const ex = tx01 + S2 * h6 - xi, ey = ty01 + S2 * h7 - yi, ez = tz01 + S2 * h8 - zi;

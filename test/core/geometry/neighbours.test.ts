@@ -258,7 +258,7 @@ describe('neighbourList against its kept first version (test/helpers/reference-n
     );
   });
 
-  it('the same bits for liquid-density cells of 384 and 1,536 atoms, atoms outside the cell, and an open cluster', () => {
+  it('the same bits for liquid-density cells of 384 and 1,536 atoms, atoms outside the cell, open clusters, lattices on bin edges', () => {
     let state = 12345;
     const rand = () => ((state = (Math.imul(state, 1103515245) + 12345) >>> 0) / 4294967296);
     const cases: [number, [number, number, number]][] = [[384, [90, 90, 90]], [1536, [75, 85, 105]], [384, [60, 60, 60]]];
@@ -269,6 +269,20 @@ describe('neighbourList against its kept first version (test/helpers/reference-n
       expectIdentical(neighbourList(frame, 4.5), referenceNeighbourList(frame, 4.5));
       const open = makeFrame(frame.species, frame.positions, null);
       expectIdentical(neighbourList(open, 4.5), referenceNeighbourList(open, 4.5));
+    }
+    // orthorhombic cells with atoms on a lattice (on bin edges, distances at the cutoff), and random ones, every pbc
+    for (const [a, b, c] of [[12, 12, 12], [9, 15, 21], [6, 30, 4.5]]) {
+      const cell = cellFromParameters(a, b, c, 90, 90, 90);
+      const grid: number[] = [];
+      for (let x = 0; x < a; x += 1.5) for (let y = 0; y < b; y += 1.5) for (let z = 0; z < c; z += 1.5) grid.push(x, y, z);
+      const random = Array.from({ length: grid.length }, (_, k) => (rand() * 1.2 - 0.1) * [a, b, c][k % 3]);
+      for (const positions of [grid, random]) {
+        for (const pbc of [[true, true, true], [true, false, true], [false, false, false]] as Pbc[]) {
+          const frame = makeFrame(new Array<string>(positions.length / 3).fill('X'), positions, cell);
+          frame.pbc = pbc;
+          for (const cutoff of [3, 4.5, 7.5]) expectIdentical(neighbourList(frame, cutoff), referenceNeighbourList(frame, cutoff));
+        }
+      }
     }
   });
 
