@@ -987,11 +987,16 @@ export function modelPredictor(model: Model): Predictor {
     const W = new Float64Array(weightMatricesLength(fs, order));
     readout = { lambda: order, matrices: (e, s, scalar) => toMatrices(kernelWeights(k, scalar, e, s, u), 0, W) };
   }
+  // the previous frame's neighbour list, written over by the next (nothing keeps it past its prediction)
+  let spare: NeighbourList | undefined;
   return (frame, index) => {
     checkFrameSpecies(model, frame, index);
-    const pairs = neighbourList(frame, fs.cutoff);
+    const pairs = neighbourList(frame, fs.cutoff, { reuse: spare });
+    spare = undefined;
     const r = computeReadout(frame, fs, readout, pairs);
-    return predictFromParts(model, frame, r.features, { order, values: r.values }, pairs);
+    const out = predictFromParts(model, frame, r.features, { order, values: r.values }, pairs);
+    spare = pairs;
+    return out;
   };
 }
 
