@@ -105,10 +105,17 @@ describe('the pre-built program compiled with a code cache (bin/load-program.mjs
     const plain = join(dir, 'plain.csv');
     predict(plain, { POLARWEAVE_NO_CODE_CACHE: '1' });
     expect(existsSync(cache) ? caches() : []).toEqual([]);
+    // loaded as modules the program has no identity, so it leaves no notes beside the radial tables it stores
+    const notes = () => readdirSync(cache).filter((f) => f.endsWith('.fit'));
+    expect(readdirSync(cache).filter((f) => f.endsWith('.f64')).length).toBeGreaterThan(0);
+    expect(notes()).toEqual([]);
     const outs = ['first.csv', 'second.csv'].map((f) => join(dir, f));
     predict(outs[0]); // compiles, then stores the cache
     const [file] = caches();
     expect(caches()).toHaveLength(1);
+    // the script's identity (the 24 digits that name its cache) notes each radial table it checked (src-main/io/radial-table-store.ts)
+    expect(notes().length).toBeGreaterThan(0);
+    for (const n of notes()) expect(n).toMatch(new RegExp(`^radial-[0-9a-f]{24}\\.${file.slice(5, 29)}\\.fit$`));
     const stored = readFileSync(join(cache, file));
     predict(outs[1]); // with the cache: not written again
     expect(readFileSync(join(cache, file)).equals(stored)).toBe(true);
