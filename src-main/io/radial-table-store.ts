@@ -95,12 +95,13 @@ export function radialTableFolder(folder: string): RadialTableStore {
     const id = programIdentity();
     if (id === null || !writeAtomically(folder, note(key, id), digestOf(coefficients))) return;
     try {
+      // this note, and the newest others of the table
       const prefix = `${name(key)}.`;
-      const notes = readdirSync(folder)
-        .filter((f) => f.startsWith(prefix) && /^[0-9a-f]{24}\.fit$/.test(f.slice(prefix.length)))
+      const others = readdirSync(folder)
+        .filter((f) => f.startsWith(prefix) && /^[0-9a-f]{24}\.fit$/.test(f.slice(prefix.length)) && join(folder, f) !== note(key, id))
         .map((f) => ({ f, t: statSync(join(folder, f)).mtimeMs }))
         .sort((a, b) => b.t - a.t);
-      for (const { f } of notes.slice(NOTES_KEPT)) rmSync(join(folder, f), { force: true });
+      for (const { f } of others.slice(NOTES_KEPT - 1)) rmSync(join(folder, f), { force: true });
     } catch {
       // a cache only
     }
