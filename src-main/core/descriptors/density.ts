@@ -310,7 +310,7 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const invSpacing = 1 / table.spacing;
 
   // The WebAssembly path (core/wasm/assembly/descriptors.ts pairTerms and expandAccumulate): here each pair's
-  // channel, |vector| (Math.hypot), cutoff weight (Math.cos) and table interval as below; there the pairs sorted by
+  // channel, cutoff weight (Math.cos) and table interval as below; there |vector| (by Math.hypot's operations), the pairs sorted by
   // channel (keeping their order), their harmonics (the recurrences of harmonics.ts, two pairs per vector) and
   // radial integrals (two per vector) with the same operations, then each sum in pair order: the same bits. Its
   // region: the harmonics' tables, the radial table (in pairs of integrals: byPairs), self term, the channels'
@@ -380,7 +380,6 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
       par[o] = x;
       par[o + 1] = y;
       par[o + 2] = z;
-      par[o + 3] = Math.hypot(x, y, z);
       par[o + 4] = d <= inn ? FOUR_PI : FOUR_PI * 0.5 * (1 + Math.cos(sw * (d - inn)));
       const u = d * inv;
       let k = Math.floor(u);

@@ -29,6 +29,8 @@ export interface DescriptorKernels {
    * table in pairs of integrals (coef; NLp = NL rounded up to even).
    */
   pairTerms(par: number, chan: number, count: number, channels: number, lmax: number, NLp: number, a: number, b: number, diag: number, y00: number, coef: number, Y: number, R: number, order: number, chanStart: number): void;
+  /** |(x, y, z)| by the operations of Math.hypot (the same bits; what pairTerms uses for each pair's length). */
+  hypot3(x: number, y: number, z: number): number;
   /** dst_l[m·K + k] = c[base[k] + l² + m] for l ≤ lmax (dst_l = dst + K·l² doubles; base: K Int32 offsets). */
   transposeChannels(c: number, base: number, K: number, lmax: number, dst: number): void;
   /** The λ = 0 row of one environment, unnormalised, from cT of all nch channels (transposeChannels). */
@@ -58,6 +60,7 @@ export function descriptorKernels(): DescriptorKernels | null {
       region,
       expandAccumulate: e.expandAccumulate as DescriptorKernels['expandAccumulate'],
       pairTerms: e.pairTerms as DescriptorKernels['pairTerms'],
+      hypot3: e.hypot3 as DescriptorKernels['hypot3'],
       transposeChannels: e.transposeChannels as DescriptorKernels['transposeChannels'],
       powerSpectrumRow: e.powerSpectrumRow as DescriptorKernels['powerSpectrumRow'],
       coupleSame: e.coupleSame as DescriptorKernels['coupleSame'],

@@ -417,7 +417,7 @@ export function powerSpectrumRow(cT: usize, nch: i32, lmax: i32, invSqrt: usize,
 
 /**
  * Every pair's harmonics and weighted radial integrals for expandAccumulate (core/descriptors/density.ts): pair p's
- * parameters at par[8p…]: x, y, z (its vector), r (|vector| as Math.hypot gives it), w (the cutoff weight 4π f_c),
+ * parameters at par[8p…]: x, y, z (its vector), r (written here: |vector| by hypot3, as Math.hypot gives it), w (the cutoff weight 4π f_c),
  * k (the table's interval), t (the position in it); its channel chan[p] (< 0: left out). The pairs are sorted by
  * channel, keeping their order (order: scratch for count Int32; chanStart[a]: the first sorted position of channel
  * a, channels + 1 entries), and the pair at sorted position q gets Y[q·LL + l² + l + m], the real harmonics by the
@@ -454,6 +454,10 @@ export function pairTerms(par: usize, chan: usize, count: i32, channels: i32, lm
   for (let c = channels; c > 0; c--) store<i32>(chanStart + (<usize>c << 2), load<i32>(chanStart + (<usize>(c - 1) << 2)));
   store<i32>(chanStart, 0);
   const valid = load<i32>(chanStart + (<usize>channels << 2));
+  for (let q = 0; q < valid; q++) {
+    const pp = par + (<usize>load<i32>(order + (<usize>q << 2)) << 6);
+    store<f64>(pp, hypot3(load<f64>(pp), load<f64>(pp, 8), load<f64>(pp, 16)), 24);
+  }
 
   const yStep = <usize>LL << 3;
   let q = 0;
@@ -488,6 +492,39 @@ export function pairTerms(par: usize, chan: usize, count: i32, channels: i32, lm
       Rq += 16;
     }
   }
+}
+
+/**
+ * |(x, y, z)| with the operations of the JavaScript engine's Math.hypot (V8's builtin: the largest magnitude,
+ * each magnitude divided by it, the squares summed in argument order with Kahan's compensation, then
+ * √sum · largest), so the same bits as Math.hypot(x, y, z) (test/core/wasm: compared on many vectors). Exported
+ * for that test.
+ */
+export function hypot3(x: f64, y: f64, z: f64): f64 {
+  const ax = Math.abs(x), ay = Math.abs(y), az = Math.abs(z);
+  let max: f64 = 0;
+  if (ax > max) max = ax;
+  if (ay > max) max = ay;
+  if (az > max) max = az;
+  if (max == Infinity) return Infinity;
+  if (isNaN<f64>(x) || isNaN<f64>(y) || isNaN<f64>(z)) return NaN;
+  if (max == 0) return 0;
+  let sum: f64 = 0, compensation: f64 = 0;
+  let n = ax / max;
+  let summand = n * n - compensation;
+  let preliminary = sum + summand;
+  compensation = preliminary - sum - summand;
+  sum = preliminary;
+  n = ay / max;
+  summand = n * n - compensation;
+  preliminary = sum + summand;
+  compensation = preliminary - sum - summand;
+  sum = preliminary;
+  n = az / max;
+  summand = n * n - compensation;
+  preliminary = sum + summand;
+  sum = preliminary;
+  return Math.sqrt(sum) * max;
 }
 
 /** One pair's harmonics (parameters at q) into Y, as harmonics.ts harmonicsAt computes them; r = 0: Y_00 only. */
