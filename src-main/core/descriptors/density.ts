@@ -254,6 +254,12 @@ export interface DensityExpander {
   /** Length of one centre's coefficient block. */
   size: number;
   expand(pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): void;
+  /**
+   * Where the last `expand` left its coefficients transposed in the descriptor kernels' memory (byte address of
+   * cT[lm·channels·nmax + a·nmax + n], readable 4 doubles past the end), while they are still there; −1 when it took
+   * the JavaScript path or its region has moved since (features.ts reads the λ = 0 row from them).
+   */
+  transposedAt(): number;
 }
 
 const expanderCache = new Map<string, DensityExpander>();
@@ -319,6 +325,8 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const tables = harmonicTables(lmax);
   let room = 0;
   let placed: { at: number; generation: number; kernels: DescriptorKernels; par: Float64Array; chan: Int32Array; out: Float64Array } | null = null;
+  /** Whether the last expand went through the kernels (and left cT). */
+  let lastByKernel = false;
   const align = (doubles: number) => 2 * Math.ceil(doubles / 2);
   const NLp = align(NL);
   let byPairs: Float64Array | null = null;
@@ -329,7 +337,9 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const selfAt = coefAt + intervals * NLp * 4;
   const startAt = selfAt + align(nmax);
   const outAt = startAt + align(Math.ceil((channels + 1) / 2));
-  const fixedDoubles = outAt + align(size);
+  // the coefficients transposed, cT[lm·channels·nmax + a·nmax + n], and 4 doubles that powerSpectrumRow may read past them
+  const cTAt = outAt + align(size);
+  const fixedDoubles = cTAt + align(size + 4);
   const perPair = 8 + LL + NLp + 1;
   const place = (K: DescriptorKernels, count: number) => {
     if (placed && placed.kernels === K && count <= room && placed.par.length !== 0) {
@@ -395,7 +405,7 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     const base = at.at;
     const startsAt = base + startAt * 8;
     K.pairTerms(parAt, chanAt, count, channels, lmax, NLp, base + aAt * 8, base + bAt * 8, base + diagAt * 8, tables.y00, base + coefAt * 8, yAt, rAt, orderAt, startsAt);
-    K.expandAccumulate(yAt, rAt, startsAt, NLp, nmax, lmax, channels, base + outAt * 8, base + selfAt * 8, centreChannel);
+    K.expandAccumulate(yAt, rAt, startsAt, NLp, nmax, lmax, channels, base + outAt * 8, base + selfAt * 8, centreChannel, base + cTAt * 8);
     out.set(at.out);
     return true;
   };
@@ -405,7 +415,8 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     size,
     expand(pairs, centre, centreChannel, channelOf, out) {
       const K = descriptorKernels();
-      if (K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, out)) return;
+      lastByKernel = K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, out);
+      if (lastByKernel) return;
       // Locals, not closure slots, in the loop (V8 keeps them in registers).
       const coef = byDegree, Yl = Y, rl = radial, acc = work, cut = cutoff, inn = inner, sw = switchScale, inv = invSpacing, last = intervals;
       acc.fill(0);
@@ -449,6 +460,13 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
         }
       }
       if (centreChannel >= 0) for (let n = 0; n < nmax; n++) out[(centreChannel * nmax + n) * LL] += selfTerm[n];
+    },
+    transposedAt() {
+      if (!lastByKernel || placed === null) return -1;
+      const K = descriptorKernels();
+      if (K !== placed.kernels) return -1;
+      const r = K.region(owner, (fixedDoubles + room * perPair) * 8);
+      return r !== null && r.at === placed.at && r.generation === placed.generation ? placed.at + cTAt * 8 : -1;
     },
   };
 }

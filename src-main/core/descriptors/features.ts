@@ -317,8 +317,24 @@ export function normalise(x: Float64Array, from: number, to: number): number {
  * test/helpers/reference-kernels.ts, which the tests compare against).
  */
 export function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number): number {
+  return powerSpectrumFrom(P, c, out, at, false);
+}
+
+/**
+ * powerSpectrum; `justExpanded`: c is what P.expander.expand wrote last, so that the kernel may read the
+ * coefficients the expansion left transposed in its memory (when still there) instead of copying c in and
+ * transposing it. The same numbers either way.
+ */
+function powerSpectrumFrom(P: Plan, c: Float64Array, out: Float64Array, at: number, justExpanded: boolean): number {
   const L = kernelLayout(P);
   if (L !== null) {
+    const cT = justExpanded ? P.expander.transposedAt() : -1;
+    if (cT >= 0) {
+      L.kernels.powerSpectrumRow(cT, P.settings.species.length * P.settings.nmax, P.settings.lmax, L.invSqrt, L.row);
+      const norm = L.kernels.normalise(L.row, P.n0);
+      out.set(kernelViews(L, P).row, at);
+      return norm;
+    }
     // the WebAssembly kernel: every sum in the same order, then the norm summed in index order, so the same bits
     const views = kernelViews(L, P);
     const nch = P.settings.species.length * P.settings.nmax;
@@ -508,7 +524,7 @@ function kernelLayout(P: Plan): KernelLayout | null {
   const cAt = take(P.expander.size * 8);
   const tensorBase = take(P.tch * 4);
   const allBase = take(nch * 4);
-  const cTall = take(nch * P.LL * 8);
+  const cTall = take((nch * P.LL + 4) * 8); // powerSpectrumRow may read 4 doubles past the end
   const invSqrt = take(P.invSqrt.length * 8);
   const row = take(P.n0 * 8);
   const tensors = P.tensors.map((T) => ({
@@ -747,7 +763,7 @@ export function featurise(
     P.expander.expand(pairs, i, channelOf[i], channelOf, c);
     const tb = timings ? performance.now() : 0;
     const k0 = slot(e);
-    const norm = powerSpectrum(P, c, scalar, k0 * P.n0);
+    const norm = powerSpectrumFrom(P, c, scalar, k0 * P.n0, true);
     if (!Number.isFinite(norm)) {
       throw new InputError(`features of atom ${i + 1} are not finite (non-finite positions or cell?)`, where, 'check the structure');
     }

@@ -19,9 +19,9 @@ export interface DescriptorKernels {
   /**
    * The density expansion's sums for one centre from pairTerms' output (harmonics Y, LL per pair; radial integrals
    * R, NLp per pair, l·nmax + n; pairs sorted by channel, chanStart: channels + 1 Int32 first positions) into out
-   * (public layout, selfTerm added to the centre's channel).
+   * (public layout, selfTerm added to the centre's channel), and the same numbers transposed into cT[lm·nch + ch].
    */
-  expandAccumulate(Y: number, R: number, chanStart: number, NLp: number, nmax: number, lmax: number, channels: number, out: number, selfTerm: number, centreChannel: number): void;
+  expandAccumulate(Y: number, R: number, chanStart: number, NLp: number, nmax: number, lmax: number, channels: number, out: number, selfTerm: number, centreChannel: number, cT: number): void;
   /**
    * Every pair's harmonics Y and weighted radial integrals R for expandAccumulate from its parameters (8 doubles per
    * pair: x, y, z, r, w, interval, t) and channel (chan: Int32, < 0: left out), the pairs sorted by channel into
