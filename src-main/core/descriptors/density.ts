@@ -256,7 +256,7 @@ export interface DensityExpander {
   expand(pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): void;
   /**
    * Where the last `expand` left its coefficients transposed in the descriptor kernels' memory (byte address of
-   * cT[lm·channels·nmax + a·nmax + n], readable 4 doubles past the end), while they are still there; −1 when it took
+   * cT[lm·channels·nmax + a·nmax + n]), while they are still there; −1 when it took
    * the JavaScript path or its region has moved since (features.ts reads the λ = 0 row from them).
    */
   transposedAt(): number;
@@ -337,9 +337,9 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const selfAt = coefAt + intervals * NLp * 4;
   const startAt = selfAt + align(nmax);
   const outAt = startAt + align(Math.ceil((channels + 1) / 2));
-  // the coefficients transposed, cT[lm·channels·nmax + a·nmax + n], and 4 doubles that powerSpectrumRow may read past them
+  // the coefficients transposed, cT[lm·channels·nmax + a·nmax + n] (powerSpectrumRow's layout)
   const cTAt = outAt + align(size);
-  const fixedDoubles = cTAt + align(size + 4);
+  const fixedDoubles = cTAt + align(size);
   const perPair = 8 + LL + NLp + 1;
   const place = (K: DescriptorKernels, count: number) => {
     if (placed && placed.kernels === K && count <= room && placed.par.length !== 0) {

@@ -524,7 +524,7 @@ function kernelLayout(P: Plan): KernelLayout | null {
   const cAt = take(P.expander.size * 8);
   const tensorBase = take(P.tch * 4);
   const allBase = take(nch * 4);
-  const cTall = take((nch * P.LL + 4) * 8); // powerSpectrumRow may read 4 doubles past the end
+  const cTall = take(nch * P.LL * 8);
   const invSqrt = take(P.invSqrt.length * 8);
   const row = take(P.n0 * 8);
   const tensors = P.tensors.map((T) => ({

@@ -366,91 +366,78 @@ export function transposeChannels(c: usize, base: usize, K: i32, lmax: i32, dst:
  * The λ = 0 row of one environment, unnormalised (core/descriptors/features.ts powerSpectrum): for channel pairs
  * c1 ≤ c2 (c1 outer) and l ≤ lmax, out[pair·(lmax+1) + l] = (w·invSqrt[l]) · Σ_m c_{c1,lm} c_{c2,lm}, w = 1 for
  * c1 = c2 and √2 otherwise, each sum from zero in m order; cT the coefficients of all nch channels transposed
- * (cT[lm·nch + ch], as transposeChannels writes them), readable 4 doubles past its end (never used). Per degree,
- * blocks of four first channels × four partners (two per vector): sixteen independent sums per pass over m.
+ * (transposeChannels).
  */
 export function powerSpectrumRow(cT: usize, nch: i32, lmax: i32, invSqrt: usize, out: usize): void {
   const L1 = lmax + 1;
   const rowBytes = <usize>nch << 3;
-  for (let l = 0; l <= lmax; l++) {
-    const w = 2 * l + 1;
-    const v = load<f64>(invSqrt + (<usize>l << 3));
-    const wv = Math.SQRT2 * v;
-    const cl = cT + (<usize>(nch * l * l) << 3);
-    const ol = out + (<usize>l << 3);
-    for (let r = 0; r < nch; r += 4) {
-      const rows = min(4, nch - r);
-      // rows past the last channel repeat row r (their sums are not stored)
-      const a0 = cl + (<usize>r << 3);
-      const a1 = rows > 1 ? a0 + 8 : a0;
-      const a2 = rows > 2 ? a0 + 16 : a0;
-      const a3 = rows > 3 ? a0 + 24 : a0;
-      for (let c = r; c < nch; c += 4) {
-        let s00 = f64x2.splat(0), s01 = f64x2.splat(0), s10 = f64x2.splat(0), s11 = f64x2.splat(0);
-        let s20 = f64x2.splat(0), s21 = f64x2.splat(0), s30 = f64x2.splat(0), s31 = f64x2.splat(0);
-        let col = cl + (<usize>c << 3);
-        let m0 = a0, m1 = a1, m2 = a2, m3 = a3;
+  const pairStep = <usize>L1 << 3;
+  let f = out;
+  for (let c1 = 0; c1 < nch; c1++) {
+    const count = nch - c1;
+    for (let l = 0; l <= lmax; l++) {
+      const w = 2 * l + 1;
+      const v = load<f64>(invSqrt + (<usize>l << 3));
+      const wv = Math.SQRT2 * v;
+      const vwv = f64x2.splat(wv);
+      const cl = cT + (<usize>(nch * l * l) << 3);
+      const a = cl + (<usize>c1 << 3);
+      let o = f + (<usize>l << 3);
+      let j = 0;
+      for (; j + 7 < count; j += 8) {
+        let s0 = f64x2.splat(0);
+        let s1 = f64x2.splat(0);
+        let s2 = f64x2.splat(0);
+        let s3 = f64x2.splat(0);
+        let col = cl + (<usize>(c1 + j) << 3);
+        let am = a;
         for (let m = 0; m < w; m++) {
-          const u = v128.load(col), z = v128.load(col, 16);
-          const x0 = v128.load64_splat(m0), x1 = v128.load64_splat(m1), x2 = v128.load64_splat(m2), x3 = v128.load64_splat(m3);
-          s00 = f64x2.add(s00, f64x2.mul(x0, u));
-          s01 = f64x2.add(s01, f64x2.mul(x0, z));
-          s10 = f64x2.add(s10, f64x2.mul(x1, u));
-          s11 = f64x2.add(s11, f64x2.mul(x1, z));
-          s20 = f64x2.add(s20, f64x2.mul(x2, u));
-          s21 = f64x2.add(s21, f64x2.mul(x2, z));
-          s30 = f64x2.add(s30, f64x2.mul(x3, u));
-          s31 = f64x2.add(s31, f64x2.mul(x3, z));
+          const x = v128.load64_splat(am);
+          s0 = f64x2.add(s0, f64x2.mul(x, v128.load(col)));
+          s1 = f64x2.add(s1, f64x2.mul(x, v128.load(col, 16)));
+          s2 = f64x2.add(s2, f64x2.mul(x, v128.load(col, 32)));
+          s3 = f64x2.add(s3, f64x2.mul(x, v128.load(col, 48)));
           col += rowBytes;
-          m0 += rowBytes;
-          m1 += rowBytes;
-          m2 += rowBytes;
-          m3 += rowBytes;
+          am += rowBytes;
         }
-        if (c > r + 3 && c + 3 < nch) {
-          // every sum of the block is a stored pair off the diagonal
-          putRow(ol, L1, pairIndex(r, c, nch), wv, s00, s01);
-          putRow(ol, L1, pairIndex(r + 1, c, nch), wv, s10, s11);
-          putRow(ol, L1, pairIndex(r + 2, c, nch), wv, s20, s21);
-          putRow(ol, L1, pairIndex(r + 3, c, nch), wv, s30, s31);
-        } else {
-          putEdge(ol, L1, r, c, nch, v, wv, s00, s01);
-          if (rows > 1) putEdge(ol, L1, r + 1, c, nch, v, wv, s10, s11);
-          if (rows > 2) putEdge(ol, L1, r + 2, c, nch, v, wv, s20, s21);
-          if (rows > 3) putEdge(ol, L1, r + 3, c, nch, v, wv, s30, s31);
+        const r0 = f64x2.mul(vwv, s0), r1 = f64x2.mul(vwv, s1), r2 = f64x2.mul(vwv, s2), r3 = f64x2.mul(vwv, s3);
+        store<f64>(o, j == 0 ? v * f64x2.extract_lane(s0, 0) : f64x2.extract_lane(r0, 0));
+        store<f64>(o + pairStep, f64x2.extract_lane(r0, 1));
+        store<f64>(o + 2 * pairStep, f64x2.extract_lane(r1, 0));
+        store<f64>(o + 3 * pairStep, f64x2.extract_lane(r1, 1));
+        store<f64>(o + 4 * pairStep, f64x2.extract_lane(r2, 0));
+        store<f64>(o + 5 * pairStep, f64x2.extract_lane(r2, 1));
+        store<f64>(o + 6 * pairStep, f64x2.extract_lane(r3, 0));
+        store<f64>(o + 7 * pairStep, f64x2.extract_lane(r3, 1));
+        o += 8 * pairStep;
+      }
+      for (; j + 1 < count; j += 2) {
+        let s0 = f64x2.splat(0);
+        let col = cl + (<usize>(c1 + j) << 3);
+        let am = a;
+        for (let m = 0; m < w; m++) {
+          s0 = f64x2.add(s0, f64x2.mul(v128.load64_splat(am), v128.load(col)));
+          col += rowBytes;
+          am += rowBytes;
         }
+        const r0 = f64x2.mul(vwv, s0);
+        store<f64>(o, j == 0 ? v * f64x2.extract_lane(s0, 0) : f64x2.extract_lane(r0, 0));
+        store<f64>(o + pairStep, f64x2.extract_lane(r0, 1));
+        o += 2 * pairStep;
+      }
+      if (j < count) {
+        let s: f64 = 0;
+        let col = cl + (<usize>(c1 + j) << 3);
+        let am = a;
+        for (let m = 0; m < w; m++) {
+          s += load<f64>(am) * load<f64>(col);
+          col += rowBytes;
+          am += rowBytes;
+        }
+        store<f64>(o, (j == 0 ? v : wv) * s);
       }
     }
-  }
-}
-
-/** Index of the pair (c1, c2), c1 ≤ c2, among the pairs c1 outer, c2 = c1 … nch − 1 inner. */
-@inline
-function pairIndex(c1: i32, c2: i32, nch: i32): i32 {
-  return c1 * nch - ((c1 * (c1 - 1)) >> 1) + (c2 - c1);
-}
-
-/** The four sums of row c1 with partners c … c + 3 (all c2 > c1, all < nch), weight wv, at pairs k … k + 3. */
-@inline
-function putRow(ol: usize, L1: i32, k: i32, wv: f64, lo: v128, hi: v128): void {
-  const step = <usize>L1 << 3;
-  const o = ol + <usize>k * step;
-  store<f64>(o, wv * f64x2.extract_lane(lo, 0));
-  store<f64>(o + step, wv * f64x2.extract_lane(lo, 1));
-  store<f64>(o + 2 * step, wv * f64x2.extract_lane(hi, 0));
-  store<f64>(o + 3 * step, wv * f64x2.extract_lane(hi, 1));
-}
-
-/** putRow for a block on the diagonal or at the last channel: only c1 ≤ c2 < nch stored, weight v on c2 = c1. */
-@inline
-function putEdge(ol: usize, L1: i32, c1: i32, c: i32, nch: i32, v: f64, wv: f64, lo: v128, hi: v128): void {
-  const step = <usize>L1 << 3;
-  const base = pairIndex(c1, c1, nch) - c1;
-  for (let i = 0; i < 4; i++) {
-    const c2 = c + i;
-    if (c2 < c1 || c2 >= nch) continue;
-    const s = i == 0 ? f64x2.extract_lane(lo, 0) : i == 1 ? f64x2.extract_lane(lo, 1) : i == 2 ? f64x2.extract_lane(hi, 0) : f64x2.extract_lane(hi, 1);
-    store<f64>(ol + <usize>(base + c2) * step, (c2 == c1 ? v : wv) * s);
+    f += <usize>count * pairStep;
   }
 }
 
