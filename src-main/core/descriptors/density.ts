@@ -325,8 +325,9 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const tables = harmonicTables(lmax);
   let room = 0;
   let placed: { at: number; generation: number; kernels: DescriptorKernels; par: Float64Array; chan: Int32Array; out: Float64Array } | null = null;
-  /** Whether the last expand went through the kernels (and left cT). */
+  /** Whether the last expand went through the kernels (and left cT); the arena's epoch when `placed` was checked. */
   let lastByKernel = false;
+  let placedEpoch = -1;
   const align = (doubles: number) => 2 * Math.ceil(doubles / 2);
   const NLp = align(NL);
   let byPairs: Float64Array | null = null;
@@ -343,8 +344,12 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const perPair = 8 + LL + NLp + 1;
   const place = (K: DescriptorKernels, count: number) => {
     if (placed && placed.kernels === K && count <= room && placed.par.length !== 0) {
+      if (K.epoch() === placedEpoch) return placed;
       const r = K.region(owner, (fixedDoubles + room * perPair) * 8);
-      if (r && r.at === placed.at && r.generation === placed.generation) return placed;
+      if (r && r.at === placed.at && r.generation === placed.generation) {
+        placedEpoch = K.epoch();
+        return placed;
+      }
     }
     room = Math.max(room, count, 64);
     const r = K.region(owner, (fixedDoubles + room * perPair) * 8);
@@ -366,6 +371,7 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
       chan: new Int32Array(K.module.f64(0, 0).buffer, chanAt, room),
       out: K.module.f64(at + outAt * 8, size),
     };
+    placedEpoch = K.epoch();
     return placed;
   };
   const expandKernel = (K: DescriptorKernels, pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): boolean => {
@@ -462,11 +468,10 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
       if (centreChannel >= 0) for (let n = 0; n < nmax; n++) out[(centreChannel * nmax + n) * LL] += selfTerm[n];
     },
     transposedAt() {
+      // nothing placed since this expander's region was checked: it is where it was, and so are the coefficients
       if (!lastByKernel || placed === null) return -1;
       const K = descriptorKernels();
-      if (K !== placed.kernels) return -1;
-      const r = K.region(owner, (fixedDoubles + room * perPair) * 8);
-      return r !== null && r.at === placed.at && r.generation === placed.generation ? placed.at + cTAt * 8 : -1;
+      return K === placed.kernels && K.epoch() === placedEpoch ? placed.at + cTAt * 8 : -1;
     },
   };
 }

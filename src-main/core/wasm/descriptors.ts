@@ -41,6 +41,13 @@ export interface DescriptorKernels {
    * region is placed anew (its contents must then be written again); null when the memory cannot grow that far.
    */
   region(owner: object, bytes: number): { at: number; generation: number } | null;
+  /** The arena's epoch (./arena.ts): unchanged means every region is still where it was. */
+  epoch(): number;
+  /**
+   * normalise for count blocks of len doubles, block j at x + j·stride bytes, their sums of squares side by side
+   * (each in its order); the squared norms to sq (count doubles).
+   */
+  normaliseMany(x: number, len: number, count: number, stride: number, sq: number): void;
 }
 
 let cached: DescriptorKernels | null | undefined;
@@ -58,6 +65,8 @@ export function descriptorKernels(): DescriptorKernels | null {
     cached = {
       module,
       region,
+      epoch: () => arena.epoch,
+      normaliseMany: e.normaliseMany as DescriptorKernels['normaliseMany'],
       expandAccumulate: e.expandAccumulate as DescriptorKernels['expandAccumulate'],
       pairTerms: e.pairTerms as DescriptorKernels['pairTerms'],
       hypot3: e.hypot3 as DescriptorKernels['hypot3'],
