@@ -185,37 +185,26 @@ export function nearestOtherDistances(pool: EnvironmentPool, reps: Int32Array, f
   const SAFE = 1 + 1e-9;
   for (let i = 0; i < pool.count; i++) {
     const self = own.get(i) ?? -1;
-    let best2 = Infinity;
+    const si = pool.species[i];
     const a = anchors ? anchors.rep[i] : -1;
-    if (ordered && anchors && a >= 0 && pool.species[reps[a]] === pool.species[i]) {
-      const { group, at, dist, order } = ordered;
-      const m = group[pool.species[i]].length;
-      const members = group[pool.species[i]];
-      const row = at[a] * m;
-      const da = anchors.distance[i];
-      let best = Infinity;
-      for (let t = 0; t < m; t++) {
-        const b = order[pool.species[i]][row + t];
-        const dab = dist[pool.species[i]][row + b];
+    // anchored: the group of i's species in ascending distance from a; else every representative in order
+    const anchored = ordered !== null && anchors !== undefined && a >= 0 && pool.species[reps[a]] === si;
+    const members = anchored ? ordered.group[si] : reps;
+    const m = members.length;
+    const row = anchored ? ordered.at[a] * m : 0;
+    const da = anchored ? anchors.distance[i] : 0;
+    let best2 = Infinity;
+    let best = Infinity;
+    for (let t = 0; t < m; t++) {
+      let k = t;
+      if (anchored) {
+        const b = ordered.order[si][row + t];
+        const dab = ordered.dist[si][row + b];
         if (dab > (da + best) * SAFE) break;
         if (da > (dab + best) * SAFE) continue;
-        const k = members[b];
-        if (k === self) continue;
-        if (frameOf && frameOf[reps[k]] === frameOf[i]) continue;
-        const s = squaredDistanceBelow(p, i, p, reps[k], n0, best2);
-        if (s < best2) {
-          const d = Math.sqrt(s);
-          if (d < out[i]) {
-            out[i] = d;
-            best2 = s;
-            best = d;
-          }
-        }
-      }
-      continue;
-    }
-    for (let k = 0; k < reps.length; k++) {
-      if (k === self || pool.species[reps[k]] !== pool.species[i]) continue;
+        k = members[b];
+      } else if (pool.species[reps[k]] !== si) continue;
+      if (k === self) continue;
       if (frameOf && frameOf[reps[k]] === frameOf[i]) continue;
       const s = squaredDistanceBelow(p, i, p, reps[k], n0, best2);
       if (s < best2) {
@@ -223,6 +212,7 @@ export function nearestOtherDistances(pool: EnvironmentPool, reps: Int32Array, f
         if (d < out[i]) {
           out[i] = d;
           best2 = s;
+          best = d;
         }
       }
     }
