@@ -432,129 +432,134 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
     }
   };
 
-  for (let i = 0; i < n; i++) {
-    start[i] = count;
-    let ncand = 0;
-    const xi = wrapped[3 * i], yi = wrapped[3 * i + 1], zi = wrapped[3 * i + 2];
-    const oi0 = offset[3 * i], oi1 = offset[3 * i + 1], oi2 = offset[3 * i + 2];
-    const c0 = bin3[3 * i], c1 = bin3[3 * i + 1], c2 = bin3[3 * i + 2];
-    gaps(gapA, 0, c0, frac[3 * i]);
-    gaps(gapB, 1, c1, frac[3 * i + 1]);
-    gaps(gapC, 2, c2, frac[3 * i + 2]);
-    for (let d0 = 0; d0 < w0; d0++) {
-      const t0 = wrapA[c0 + d0];
-      if (t0 < 0) continue;
-      const g0 = gapA[d0];
-      if (g0 > reach2) continue;
-      const S0 = shiftA[c0 + d0];
-      for (let d1 = 0; d1 < w1; d1++) {
-        const t1 = wrapB[c1 + d1];
-        if (t1 < 0) continue;
-        const g01 = orthogonal ? g0 + gapB[d1] : Math.max(g0, gapB[d1]);
-        if (g01 > reach2) continue;
-        const S1 = shiftB[c1 + d1];
-        const row = (t0 * n1 + t1) * n2;
-        const tx01 = S0 * h0 + S1 * h3, ty01 = S0 * h1 + S1 * h4, tz01 = S0 * h2 + S1 * h5;
-        for (let d2 = 0; d2 < w2; d2++) {
-          const t2 = wrapC[c2 + d2];
-          if (t2 < 0) continue;
-          if ((orthogonal ? g01 + gapC[d2] : Math.max(g01, gapC[d2])) > reach2) continue;
-          const S2 = shiftC[c2 + d2];
-          const bin = row + t2;
-          const ex = tx01 + S2 * h6 - xi, ey = ty01 + S2 * h7 - yi, ez = tz01 + S2 * h8 - zi;
-          const zeroShift = S0 === 0 && S1 === 0 && S2 === 0;
-          const end = binStart[bin + 1];
-          for (let p = binStart[bin]; p < end; p++) {
-            const vx = binPos[3 * p] + ex, vy = binPos[3 * p + 1] + ey, vz = binPos[3 * p + 2] + ez;
-            const v2 = vx * vx + vy * vy + vz * vz;
-            if (v2 > cut2) continue;
-            const dist = Math.sqrt(v2);
-            if (!(dist < cutoff)) continue;
-            const j = binAtom[p];
-            if (j === i && zeroShift) continue;
-            // The shift relative to the original (unwrapped) positions.
-            const s0 = S0 - binOff[3 * p] + oi0, s1 = S1 - binOff[3 * p + 1] + oi1, s2 = S2 - binOff[3 * p + 2] + oi2;
-            if (ncand === scap) {
-              scap *= 2;
-              cJ = work.cJ = growInt(cJ, scap);
-              cS = work.cS = growInt(cS, 3 * scap);
-              cV = work.cV = growFloat(cV, 3 * scap);
-              cD = work.cD = growFloat(cD, scap);
-              next = work.next = growInt(next, scap);
-            }
-            const c = ncand++;
-            cJ[c] = j;
-            cS[3 * c] = s0;
-            cS[3 * c + 1] = s1;
-            cS[3 * c + 2] = s2;
-            cV[3 * c] = vx;
-            cV[3 * c + 1] = vy;
-            cV[3 * c + 2] = vz;
-            cD[c] = dist;
-            const head = first[j];
-            if (head < 0) {
-              first[j] = c;
-              next[c] = -1;
-              bits[j >>> 5] |= 1 << (j & 31);
-              summary[j >>> 10] |= 1 << ((j >>> 5) & 31);
-            } else if (shiftBefore(s0, s1, s2, cS, head)) {
-              first[j] = c;
-              next[c] = head;
-            } else {
-              // several images of one neighbour (cells narrower than twice the cutoff): insert in shift order
-              let at = head;
-              while (next[at] >= 0 && !shiftBefore(s0, s1, s2, cS, next[at])) at = next[at];
-              next[c] = next[at];
-              next[at] = c;
+  // the marks (first, bits, summary) are left set if anything throws mid-centre: then the next call starts afresh
+  try {
+    for (let i = 0; i < n; i++) {
+      start[i] = count;
+      let ncand = 0;
+      const xi = wrapped[3 * i], yi = wrapped[3 * i + 1], zi = wrapped[3 * i + 2];
+      const oi0 = offset[3 * i], oi1 = offset[3 * i + 1], oi2 = offset[3 * i + 2];
+      const c0 = bin3[3 * i], c1 = bin3[3 * i + 1], c2 = bin3[3 * i + 2];
+      gaps(gapA, 0, c0, frac[3 * i]);
+      gaps(gapB, 1, c1, frac[3 * i + 1]);
+      gaps(gapC, 2, c2, frac[3 * i + 2]);
+      for (let d0 = 0; d0 < w0; d0++) {
+        const t0 = wrapA[c0 + d0];
+        if (t0 < 0) continue;
+        const g0 = gapA[d0];
+        if (g0 > reach2) continue;
+        const S0 = shiftA[c0 + d0];
+        for (let d1 = 0; d1 < w1; d1++) {
+          const t1 = wrapB[c1 + d1];
+          if (t1 < 0) continue;
+          const g01 = orthogonal ? g0 + gapB[d1] : Math.max(g0, gapB[d1]);
+          if (g01 > reach2) continue;
+          const S1 = shiftB[c1 + d1];
+          const row = (t0 * n1 + t1) * n2;
+          const tx01 = S0 * h0 + S1 * h3, ty01 = S0 * h1 + S1 * h4, tz01 = S0 * h2 + S1 * h5;
+          for (let d2 = 0; d2 < w2; d2++) {
+            const t2 = wrapC[c2 + d2];
+            if (t2 < 0) continue;
+            if ((orthogonal ? g01 + gapC[d2] : Math.max(g01, gapC[d2])) > reach2) continue;
+            const S2 = shiftC[c2 + d2];
+            const bin = row + t2;
+            const ex = tx01 + S2 * h6 - xi, ey = ty01 + S2 * h7 - yi, ez = tz01 + S2 * h8 - zi;
+            const zeroShift = S0 === 0 && S1 === 0 && S2 === 0;
+            const end = binStart[bin + 1];
+            for (let p = binStart[bin]; p < end; p++) {
+              const vx = binPos[3 * p] + ex, vy = binPos[3 * p + 1] + ey, vz = binPos[3 * p + 2] + ez;
+              const v2 = vx * vx + vy * vy + vz * vz;
+              if (v2 > cut2) continue;
+              const dist = Math.sqrt(v2);
+              if (!(dist < cutoff)) continue;
+              const j = binAtom[p];
+              if (j === i && zeroShift) continue;
+              // The shift relative to the original (unwrapped) positions.
+              const s0 = S0 - binOff[3 * p] + oi0, s1 = S1 - binOff[3 * p + 1] + oi1, s2 = S2 - binOff[3 * p + 2] + oi2;
+              if (ncand === scap) {
+                scap *= 2;
+                cJ = work.cJ = growInt(cJ, scap);
+                cS = work.cS = growInt(cS, 3 * scap);
+                cV = work.cV = growFloat(cV, 3 * scap);
+                cD = work.cD = growFloat(cD, scap);
+                next = work.next = growInt(next, scap);
+              }
+              const c = ncand++;
+              cJ[c] = j;
+              cS[3 * c] = s0;
+              cS[3 * c + 1] = s1;
+              cS[3 * c + 2] = s2;
+              cV[3 * c] = vx;
+              cV[3 * c + 1] = vy;
+              cV[3 * c + 2] = vz;
+              cD[c] = dist;
+              const head = first[j];
+              if (head < 0) {
+                first[j] = c;
+                next[c] = -1;
+                bits[j >>> 5] |= 1 << (j & 31);
+                summary[j >>> 10] |= 1 << ((j >>> 5) & 31);
+              } else if (shiftBefore(s0, s1, s2, cS, head)) {
+                first[j] = c;
+                next[c] = head;
+              } else {
+                // several images of one neighbour (cells narrower than twice the cutoff): insert in shift order
+                let at = head;
+                while (next[at] >= 0 && !shiftBefore(s0, s1, s2, cS, next[at])) at = next[at];
+                next[c] = next[at];
+                next[at] = c;
+              }
             }
           }
         }
       }
-    }
 
-    // Append this centre's pairs in (j, shift) order.
-    if (count + ncand > cap) {
-      if (count + ncand > MAX_PAIRS) {
-        if (work === kept) kept = null; // its marks are left set: start the next call afresh
-        throw new InputError(`more than ${MAX_PAIRS} pairs within ${cutoff} Å`, where, 'use a smaller cutoff or a smaller structure');
+      // Append this centre's pairs in (j, shift) order.
+      if (count + ncand > cap) {
+        if (count + ncand > MAX_PAIRS) {
+          throw new InputError(`more than ${MAX_PAIRS} pairs within ${cutoff} Å`, where, 'use a smaller cutoff or a smaller structure');
+        }
+        cap = Math.min(MAX_PAIRS, Math.max(count + ncand, Math.ceil(cap * 1.5)));
+        outJ = growInt(outJ, cap);
+        outV = growFloat(outV, 3 * cap);
+        outD = growFloat(outD, cap);
+        outS = growInt(outS, 3 * cap);
       }
-      cap = Math.min(MAX_PAIRS, Math.max(count + ncand, Math.ceil(cap * 1.5)));
-      outJ = growInt(outJ, cap);
-      outV = growFloat(outV, 3 * cap);
-      outD = growFloat(outD, cap);
-      outS = growInt(outS, 3 * cap);
-    }
-    if (ncand > 0) {
-      let o = count;
-      for (let sw = 0; sw < summaryWords; sw++) {
-        let top = summary[sw];
-        if (top === 0) continue;
-        summary[sw] = 0;
-        while (top !== 0) {
-          const wi = (sw << 5) + (31 - Math.clz32(top & -top));
-          top &= top - 1;
-          let word = bits[wi];
-          bits[wi] = 0;
-          while (word !== 0) {
-            const j = (wi << 5) + (31 - Math.clz32(word & -word));
-            word &= word - 1;
-            for (let c = first[j]; c >= 0; c = next[c]) {
-              outJ[o] = j;
-              outD[o] = cD[c];
-              outS[3 * o] = cS[3 * c];
-              outS[3 * o + 1] = cS[3 * c + 1];
-              outS[3 * o + 2] = cS[3 * c + 2];
-              outV[3 * o] = cV[3 * c];
-              outV[3 * o + 1] = cV[3 * c + 1];
-              outV[3 * o + 2] = cV[3 * c + 2];
-              o++;
+      if (ncand > 0) {
+        let o = count;
+        for (let sw = 0; sw < summaryWords; sw++) {
+          let top = summary[sw];
+          if (top === 0) continue;
+          summary[sw] = 0;
+          while (top !== 0) {
+            const wi = (sw << 5) + (31 - Math.clz32(top & -top));
+            top &= top - 1;
+            let word = bits[wi];
+            bits[wi] = 0;
+            while (word !== 0) {
+              const j = (wi << 5) + (31 - Math.clz32(word & -word));
+              word &= word - 1;
+              for (let c = first[j]; c >= 0; c = next[c]) {
+                outJ[o] = j;
+                outD[o] = cD[c];
+                outS[3 * o] = cS[3 * c];
+                outS[3 * o + 1] = cS[3 * c + 1];
+                outS[3 * o + 2] = cS[3 * c + 2];
+                outV[3 * o] = cV[3 * c];
+                outV[3 * o + 1] = cV[3 * c + 1];
+                outV[3 * o + 2] = cV[3 * c + 2];
+                o++;
+              }
+              first[j] = -1;
             }
-            first[j] = -1;
           }
         }
+        count += ncand;
       }
-      count += ncand;
     }
+  } catch (error) {
+    if (work === kept) kept = null;
+    throw error;
   }
   start[n] = count;
 
