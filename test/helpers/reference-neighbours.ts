@@ -2,110 +2,11 @@
 // arrays per call, and each centre's candidates put in (j, shift) order by a sort on a packed key. Kept as the oracle
 // of the bit-for-bit test in test/core/geometry/neighbours.test.ts and for `npm run bench -- neighbours`. Do not
 // optimise this file.
-import { InputError, type Where } from '../../src-main/core/errors.ts';
-import type { Frame, Mat3 } from '../../src-main/core/geometry/frame.ts';
-import { checkCell, perpendicularWidths, reciprocalCell } from '../../src-main/core/geometry/cell.ts';
-
-interface NeighbourList {
-  /** The cutoff the list was built with (Å); pairs satisfy distance < cutoff. */
-  cutoff: number;
-  /** Number of pairs (= neighbour.length). */
-  count: number;
-  /** CSR offsets by centre: the pairs of centre i are start[i] … start[i+1]−1. Length N+1. */
-  start: Int32Array;
-  /** Neighbour atom index j of each pair. */
-  neighbour: Int32Array;
-  /**
-   * r_j + s·H − r_i (Å), 3 per pair, for the frame's positions as given (unwrapped); computed from positions
-   * wrapped into the cell, so equal to that expression up to rounding (~1e-15 of the coordinates).
-   */
-  vectors: Float64Array;
-  /** |vector| (Å), one per pair. */
-  distances: Float64Array;
-  /** Lattice shift s of the image of j (integers, 3 per pair); 0 along non-periodic axes. */
-  shifts: Int32Array;
-}
-
-interface NeighbourOptions {
-  /**
-   * Bin edge as a fraction of the cutoff (default 1: bins just thicker than the cutoff, 27 searched per atom). Smaller bins test fewer far candidates but visit more
-   * bins; the result does not depend on it (tests use it to exercise the binning).
-   */
-  binFraction?: number;
-}
-
-function whereOf(frame: Frame): Where {
-  return frame.source ? { file: frame.source.file, line: frame.source.line, frame: frame.source.index } : {};
-}
-
-/**
- * A non-singular cell for binning: the periodic rows of the frame's cell, and along each non-periodic axis a
- * unit vector orthogonal to the periodic rows. Images are only ever taken along periodic rows, so the rows of
- * non-periodic axes (which may be zero or absent in files) never affect the result.
- */
-function binningCell(frame: Frame, pbc: readonly boolean[], where: Where): Mat3 {
-  const cell = frame.cell;
-  const periodic = [0, 1, 2].filter((k) => pbc[k]);
-  if (periodic.length === 3) {
-    checkCell(cell, where);
-    return cell;
-  }
-  if (periodic.length > 0 && cell === null) {
-    throw new InputError('the structure is marked periodic but has no cell', where,
-      'give the lattice vectors, or mark every axis non-periodic (pbc="F F F")');
-  }
-  const rows: number[][] = [[], [], []];
-  for (const k of periodic) {
-    const v = [cell![3 * k], cell![3 * k + 1], cell![3 * k + 2]];
-    if (!v.every(Number.isFinite) || Math.hypot(v[0], v[1], v[2]) === 0) {
-      throw new InputError(`lattice vector ${'abc'[k]} of a periodic axis is (${v.join(', ')})`, where,
-        'a periodic axis needs a finite, non-zero lattice vector (Å)');
-    }
-    rows[k] = v;
-  }
-  const cross = (u: number[], v: number[]) => [u[1] * v[2] - u[2] * v[1], u[2] * v[0] - u[0] * v[2], u[0] * v[1] - u[1] * v[0]];
-  const unit = (u: number[]) => {
-    const n = Math.hypot(u[0], u[1], u[2]);
-    return [u[0] / n, u[1] / n, u[2] / n];
-  };
-  const open = [0, 1, 2].filter((k) => !pbc[k]);
-  if (periodic.length === 2) {
-    const [i, j] = periodic;
-    const n = cross(rows[i], rows[j]);
-    const ln = Math.hypot(n[0], n[1], n[2]);
-    const li = Math.hypot(rows[i][0], rows[i][1], rows[i][2]), lj = Math.hypot(rows[j][0], rows[j][1], rows[j][2]);
-    if (!(ln > 1e-10 * li * lj)) {
-      throw new InputError(`the periodic lattice vectors ${'abc'[i]} and ${'abc'[j]} are parallel`, where,
-        'two periodic axes need two independent lattice vectors');
-    }
-    rows[open[0]] = unit(n);
-  } else if (periodic.length === 1) {
-    const u = unit(rows[periodic[0]]);
-    // Any vector not parallel to u, then two orthonormal vectors perpendicular to u.
-    const helper = Math.abs(u[0]) < 0.6 ? [1, 0, 0] : [0, 1, 0];
-    const v = unit(cross(u, helper));
-    const w = cross(u, v);
-    rows[open[0]] = v;
-    rows[open[1]] = w;
-  } else {
-    rows[0] = [1, 0, 0];
-    rows[1] = [0, 1, 0];
-    rows[2] = [0, 0, 1];
-  }
-  return Float64Array.from(rows.flat());
-}
-
-function growInt(a: Int32Array, size: number): Int32Array<ArrayBuffer> {
-  const b = new Int32Array(size);
-  b.set(a);
-  return b;
-}
-
-function growFloat(a: Float64Array, size: number): Float64Array<ArrayBuffer> {
-  const b = new Float64Array(size);
-  b.set(a);
-  return b;
-}
+import { InputError } from '../../src-main/core/errors.ts';
+import type { Frame } from '../../src-main/core/geometry/frame.ts';
+import { perpendicularWidths, reciprocalCell } from '../../src-main/core/geometry/cell.ts';
+// the parts the restructuring left as they were: input checks, the binning cell, array growth
+import { binningCell, growFloat, growInt, whereOf, type NeighbourList, type NeighbourOptions } from '../../src-main/core/geometry/neighbours.ts';
 
 const MAX_PAIRS = 2 ** 31 - 1;
 

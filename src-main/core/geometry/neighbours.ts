@@ -44,7 +44,8 @@ export interface NeighbourOptions {
   reuse?: NeighbourList;
 }
 
-function whereOf(frame: Frame): Where {
+/** Where a frame came from, for errors (exported, like binningCell and the growers, for the kept first version in the tests). */
+export function whereOf(frame: Frame): Where {
   return frame.source ? { file: frame.source.file, line: frame.source.line, frame: frame.source.index } : {};
 }
 
@@ -53,7 +54,7 @@ function whereOf(frame: Frame): Where {
  * unit vector orthogonal to the periodic rows. Images are only ever taken along periodic rows, so the rows of
  * non-periodic axes (which may be zero or absent in files) never affect the result.
  */
-function binningCell(frame: Frame, pbc: readonly boolean[], where: Where): Mat3 {
+export function binningCell(frame: Frame, pbc: readonly boolean[], where: Where): Mat3 {
   const cell = frame.cell;
   const periodic = [0, 1, 2].filter((k) => pbc[k]);
   if (periodic.length === 3) {
@@ -105,13 +106,13 @@ function binningCell(frame: Frame, pbc: readonly boolean[], where: Where): Mat3 
   return Float64Array.from(rows.flat());
 }
 
-function growInt(a: Int32Array, size: number): Int32Array<ArrayBuffer> {
+export function growInt(a: Int32Array, size: number): Int32Array<ArrayBuffer> {
   const b = new Int32Array(size);
   b.set(a);
   return b;
 }
 
-function growFloat(a: Float64Array, size: number): Float64Array<ArrayBuffer> {
+export function growFloat(a: Float64Array, size: number): Float64Array<ArrayBuffer> {
   const b = new Float64Array(size);
   b.set(a);
   return b;
