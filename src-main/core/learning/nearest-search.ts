@@ -240,22 +240,18 @@ export function cachedNearestSearch(owner: { n0: number; species: Int32Array; p:
 }
 
 /**
- * Queries an owner answers by the plain scan before its search is prepared. Preparing costs about as much as
- * 1,000–2,000 plain queries (512 representatives, n0 = 952: 170–430 ms against 0.2–0.3 ms per plain query, cold and
- * warm, load ≈ 10 on 2 cores), so a small job (one 384-atom frame) never prepares, and a long one pays at most this
- * many slower queries first. Either way the distances are the same numbers.
+ * Queries an owner answers by the plain scan before its search is prepared. With the WebAssembly kernels,
+ * preparing 2 × 256 representatives at n0 = 952 takes 16 ms (43 ms the first time in a process) and saves about
+ * 30 µs per query (plain scan 44–50 µs, prepared search 17 µs; load ≈ 4 on 2 cores), so it pays after 550–1,400
+ * queries; in JavaScript 95–130 ms against 185 and 36 µs, after about 700. So a small job (one 384-atom frame)
+ * never prepares, and a longer one pays at most this many slower queries first. Either way the distances are the
+ * same numbers.
  */
 export const PLAIN_QUERIES_BEFORE_PREPARING = 1024;
-/**
- * The same with the WebAssembly kernels, whose plain scan is about four times faster: 47–57 µs against 13–16 µs
- * per prepared query and ≈ 180 ms to prepare (the same model and load ≈ 8), so preparing pays after about 5,000
- * queries.
- */
-export const PLAIN_QUERIES_BEFORE_PREPARING_WITH_KERNELS = 4096;
 
-/** The number of plain queries before preparing, in this thread now (kernels on or off). */
+/** The number of plain queries before preparing, in this thread now (the same with the kernels on or off). */
 export function plainQueriesBeforePreparing(): number {
-  return predictKernels() ? PLAIN_QUERIES_BEFORE_PREPARING_WITH_KERNELS : PLAIN_QUERIES_BEFORE_PREPARING;
+  return PLAIN_QUERIES_BEFORE_PREPARING;
 }
 const plainQueries = new WeakMap<object, number>();
 
