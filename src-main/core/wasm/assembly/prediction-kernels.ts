@@ -465,6 +465,53 @@ function nearestOf(m: i32, d: i32, n0: i32, reps: usize, coordsT: usize, residua
   const zero = f64x2.splat(0);
   const rowM = <usize>m << 3;
   let k = 0;
+  if (d == 8) {
+    // the basis size prediction uses: the query's coordinates held in registers, four representatives per pass
+    const q0 = f64x2.splat(f64.load(q)), q1 = f64x2.splat(f64.load(q, 8)), q2 = f64x2.splat(f64.load(q, 16)), q3 = f64x2.splat(f64.load(q, 24));
+    const q4 = f64x2.splat(f64.load(q, 32)), q5 = f64x2.splat(f64.load(q, 40)), q6 = f64x2.splat(f64.load(q, 48)), q7 = f64x2.splat(f64.load(q, 56));
+    for (; k + 3 < m; k += 4) {
+      const o = <usize>k << 3;
+      const ra = v128.load(residual + o);
+      const rb = v128.load(residual + o, 16);
+      const ga = f64x2.max(f64x2.max(f64x2.sub(ra, hiv), f64x2.sub(lov, ra)), zero);
+      const gb = f64x2.max(f64x2.max(f64x2.sub(rb, hiv), f64x2.sub(lov, rb)), zero);
+      const c = coordsT + o;
+      let e0 = f64x2.sub(q0, v128.load(c));
+      let e1 = f64x2.sub(q0, v128.load(c, 16));
+      let a = f64x2.add(f64x2.mul(ga, ga), f64x2.mul(e0, e0));
+      let b = f64x2.add(f64x2.mul(gb, gb), f64x2.mul(e1, e1));
+      e0 = f64x2.sub(q1, v128.load(c + rowM));
+      e1 = f64x2.sub(q1, v128.load(c + rowM, 16));
+      let a2 = f64x2.mul(e0, e0);
+      let b2 = f64x2.mul(e1, e1);
+      e0 = f64x2.sub(q2, v128.load(c + 2 * rowM));
+      e1 = f64x2.sub(q2, v128.load(c + 2 * rowM, 16));
+      a = f64x2.add(a, f64x2.mul(e0, e0));
+      b = f64x2.add(b, f64x2.mul(e1, e1));
+      e0 = f64x2.sub(q3, v128.load(c + 3 * rowM));
+      e1 = f64x2.sub(q3, v128.load(c + 3 * rowM, 16));
+      a2 = f64x2.add(a2, f64x2.mul(e0, e0));
+      b2 = f64x2.add(b2, f64x2.mul(e1, e1));
+      e0 = f64x2.sub(q4, v128.load(c + 4 * rowM));
+      e1 = f64x2.sub(q4, v128.load(c + 4 * rowM, 16));
+      a = f64x2.add(a, f64x2.mul(e0, e0));
+      b = f64x2.add(b, f64x2.mul(e1, e1));
+      e0 = f64x2.sub(q5, v128.load(c + 5 * rowM));
+      e1 = f64x2.sub(q5, v128.load(c + 5 * rowM, 16));
+      a2 = f64x2.add(a2, f64x2.mul(e0, e0));
+      b2 = f64x2.add(b2, f64x2.mul(e1, e1));
+      e0 = f64x2.sub(q6, v128.load(c + 6 * rowM));
+      e1 = f64x2.sub(q6, v128.load(c + 6 * rowM, 16));
+      a = f64x2.add(a, f64x2.mul(e0, e0));
+      b = f64x2.add(b, f64x2.mul(e1, e1));
+      e0 = f64x2.sub(q7, v128.load(c + 7 * rowM));
+      e1 = f64x2.sub(q7, v128.load(c + 7 * rowM, 16));
+      a2 = f64x2.add(a2, f64x2.mul(e0, e0));
+      b2 = f64x2.add(b2, f64x2.mul(e1, e1));
+      v128.store(bound + o, f64x2.add(a, a2));
+      v128.store(bound + o, f64x2.add(b, b2), 16);
+    }
+  }
   for (; k + 1 < m; k += 2) {
     const o = <usize>k << 3;
     const rk = v128.load(residual + o);
