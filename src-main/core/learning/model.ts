@@ -59,7 +59,7 @@ import { fromIrreducible, tensorFromValues, toIrreducible } from '../dielectric/
 import { checkTensorKind } from './kind-check.ts';
 import { compositionNote } from './contributions.ts';
 import { FREE_ATOM_POLARISABILITY_A3, splitShift, splitValues } from './species-split.ts';
-import { computeReadout, makeWeightMatrices, weightMatricesLength, type TensorReadout } from './tensor-readout.ts';
+import { computeReadout, makeWeightMatrices, weightMatricesLength, type ReadoutResult, type TensorReadout } from './tensor-readout.ts';
 import { cellVolume } from '../geometry/cell.ts';
 import { propagateErrorBars } from '../dielectric/clausius-mossotti.ts';
 import { checkDomain, DomainStatsBuilder, type DomainStats } from './domain.ts';
@@ -983,11 +983,17 @@ export function modelPredictor(model: Model): Predictor {
     const W = new Float64Array(weightMatricesLength(fs, order));
     readout = { lambda: order, matrices: (e, s, scalar) => toMatrices(kernelWeights(k, scalar, e, s, u), 0, W) };
   }
+  // the previous frame's features and read-out values, written over by the next frame (nothing of them is kept
+  // in a prediction: predictFromParts copies what it returns)
+  let last: ReadoutResult | undefined;
   return (frame, index) => {
     checkFrameSpecies(model, frame, index);
     const pairs = neighbourList(frame, fs.cutoff);
-    const r = computeReadout(frame, fs, readout, pairs);
-    return predictFromParts(model, frame, r.features, { order, values: r.values }, pairs);
+    const r = computeReadout(frame, fs, readout, pairs, undefined, last);
+    last = undefined;
+    const prediction = predictFromParts(model, frame, r.features, { order, values: r.values }, pairs);
+    last = r;
+    return prediction;
   };
 }
 
