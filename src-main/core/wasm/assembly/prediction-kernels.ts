@@ -540,6 +540,11 @@ function nearestOf(m: i32, d: i32, n0: i32, reps: usize, coordsT: usize, residua
   let f0 = -1, f1 = -1, f2 = -1, f3 = -1;
   let c0: f64 = Infinity, c1: f64 = Infinity, c2: f64 = Infinity, c3: f64 = Infinity;
   for (let k = 0; k < m; k++) {
+    // two at a time past a pair that cannot enter (neither below the fourth smallest so far; NaN never enters)
+    if ((k & 1) == 0 && k + 1 < m && !v128.any_true(f64x2.lt(v128.load(bound + (<usize>k << 3)), f64x2.splat(c3)))) {
+      k++;
+      continue;
+    }
     const b = f64.load(bound + (<usize>k << 3));
     if (!(b < c3)) continue;
     if (b < c2) {
@@ -595,7 +600,15 @@ function nearestOf(m: i32, d: i32, n0: i32, reps: usize, coordsT: usize, residua
     }
     // refill from the representatives not yet visited whose bound does not rule them out (a NaN bound never does)
     filled = 0;
+    // the rule-out test below on two bounds at once (the same operations lane by lane), to pass pairs it rules out
+    const mr = f64x2.splat(MARGIN_RELATIVE * best);
+    const ma = f64x2.splat(MARGIN_ABSOLUTE);
+    const bv = f64x2.splat(best);
     while (filled < 4 && next < m) {
+      if ((next & 1) == 0 && next + 1 < m && i64x2.all_true(f64x2.gt(f64x2.sub(f64x2.sub(v128.load(bound + (<usize>next << 3)), mr), ma), bv))) {
+        next += 2;
+        continue;
+      }
       const k = next++;
       if (k == f0 || k == f1 || k == f2 || k == f3) continue;
       if (f64.load(bound + (<usize>k << 3)) - MARGIN_RELATIVE * best - MARGIN_ABSOLUTE > best) continue;
