@@ -117,12 +117,18 @@ const TABLE_CACHE_SIZE = 12;
 /**
  * Where tables built by earlier runs are kept (a cache folder, set by the host: io/radial-table-store.ts); none by
  * default. Building a table takes 0.1–0.2 s, a good share of predicting one frame. A stored table is used only when
- * it has the expected length and a few of its pieces, rebuilt here, match it bit for bit (storedTableFits);
- * otherwise the table is built and stored again.
+ * it has the expected length and a few of its pieces, rebuilt here, match it bit for bit (storedTableFits),
+ * or the store knows that this very program saw it so (knownToFit); otherwise the table is built and stored again.
  */
 export interface RadialTableStore {
   load(key: string, length: number): Float64Array | null;
   save(key: string, coefficients: Float64Array): void;
+  /**
+   * Optional: whether this very program (the same code on the same engine) built the table `load` just gave, or saw
+   * it pass storedTableFits, before; the check would pass again, so it is skipped. `fitted` is told when it passed.
+   */
+  knownToFit?(key: string, coefficients: Float64Array): boolean;
+  fitted?(key: string, coefficients: Float64Array): void;
 }
 let tableStore: RadialTableStore | null = null;
 export function useRadialTableStore(store: RadialTableStore | null): void {
@@ -187,7 +193,12 @@ export function radialTable(s: RadialSettings): RadialTable {
   const intervals = tableIntervals(s);
   const h = s.cutoff / intervals;
   const stored = tableStore?.load(key, intervals * 4 * NL) ?? null;
-  const table = stored && storedTableFits(s, intervals, stored) ? { settings: { ...s }, spacing: h, intervals, coefficients: stored } : buildTable(s, key);
+  let fits = stored !== null && tableStore?.knownToFit?.(key, stored) === true;
+  if (stored && !fits && storedTableFits(s, intervals, stored)) {
+    fits = true;
+    tableStore?.fitted?.(key, stored);
+  }
+  const table = stored && fits ? { settings: { ...s }, spacing: h, intervals, coefficients: stored } : buildTable(s, key);
   if (tableCache.size >= TABLE_CACHE_SIZE) tableCache.delete(tableCache.keys().next().value as string);
   tableCache.set(key, table);
   return table;
@@ -254,6 +265,12 @@ export interface DensityExpander {
   /** Length of one centre's coefficient block. */
   size: number;
   expand(pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): void;
+  /**
+   * Where the last `expand` left its coefficients transposed in the descriptor kernels' memory (byte address of
+   * cT[lm·channels·nmax + a·nmax + n]), while they are still there; −1 when it took
+   * the JavaScript path or its region has moved since (features.ts reads the λ = 0 row from them).
+   */
+  transposedAt(): number;
 }
 
 const expanderCache = new Map<string, DensityExpander>();
@@ -310,40 +327,53 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const invSpacing = 1 / table.spacing;
 
   // The WebAssembly path (core/wasm/assembly/descriptors.ts pairTerms and expandAccumulate): here each pair's
-  // channel, |vector| (Math.hypot), cutoff weight (Math.cos) and table interval as below; there its harmonics (the
-  // recurrences of harmonics.ts) and radial integrals with the same operations, then the sums, four pairs per pass,
-  // each in pair order: the same bits. Its region: the harmonics' tables, the radial table, self term, output,
-  // sums, then room for `room` pairs (parameters, harmonics, radial integrals, channel and index).
+  // channel, cutoff weight (Math.cos) and table interval as below; there |vector| (by Math.hypot's operations), the pairs sorted by
+  // channel (keeping their order), their harmonics (the recurrences of harmonics.ts, two pairs per vector) and
+  // radial integrals (two per vector) with the same operations, then each sum in pair order: the same bits. Its
+  // region: the harmonics' tables, the radial table (in pairs of integrals: byPairs), self term, the channels'
+  // first positions, then room for `room` pairs (parameters, harmonics, radial integrals, channel and position).
   const owner = {};
   const tables = harmonicTables(lmax);
   let room = 0;
   let placed: { at: number; generation: number; kernels: DescriptorKernels; par: Float64Array; chan: Int32Array; out: Float64Array } | null = null;
+  /** Whether the last expand went through the kernels (and left cT); the arena's epoch when `placed` was checked. */
+  let lastByKernel = false;
+  let placedEpoch = -1;
   const align = (doubles: number) => 2 * Math.ceil(doubles / 2);
+  const NLp = align(NL);
+  let byPairs: Float64Array | null = null;
   const aAt = 0;
   const bAt = aAt + align(tables.a.length);
   const diagAt = bAt + align(tables.b.length);
   const coefAt = diagAt + align(tables.diag.length);
-  const selfAt = coefAt + align(byDegree.length);
-  const outAt = selfAt + align(nmax);
-  const accAt = outAt + align(size);
-  const fixedDoubles = accAt + align(size);
-  const perPair = 8 + LL + NL + 1;
+  const selfAt = coefAt + intervals * NLp * 4;
+  const startAt = selfAt + align(nmax);
+  const outAt = startAt + align(Math.ceil((channels + 1) / 2));
+  // the coefficients transposed, cT[lm·channels·nmax + a·nmax + n] (powerSpectrumRow's layout)
+  const cTAt = outAt + align(size);
+  const fixedDoubles = cTAt + align(size);
+  const perPair = 8 + LL + NLp + 1;
   const place = (K: DescriptorKernels, count: number) => {
     if (placed && placed.kernels === K && count <= room && placed.par.length !== 0) {
+      if (K.epoch() === placedEpoch) return placed;
       const r = K.region(owner, (fixedDoubles + room * perPair) * 8);
-      if (r && r.at === placed.at && r.generation === placed.generation) return placed;
+      if (r && r.at === placed.at && r.generation === placed.generation) {
+        placedEpoch = K.epoch();
+        return placed;
+      }
     }
     room = Math.max(room, count, 64);
     const r = K.region(owner, (fixedDoubles + room * perPair) * 8);
     if (r === null) return null;
     const at = r.at;
+    byPairs ??= pairedTable(byDegree, intervals, NL);
     K.module.f64(at + aAt * 8, tables.a.length).set(tables.a);
     K.module.f64(at + bAt * 8, tables.b.length).set(tables.b);
     K.module.f64(at + diagAt * 8, tables.diag.length).set(tables.diag);
-    K.module.f64(at + coefAt * 8, byDegree.length).set(byDegree);
+    K.module.f64(at + coefAt * 8, byPairs.length).set(byPairs);
     K.module.f64(at + selfAt * 8, nmax).set(selfTerm);
     const parAt = at + fixedDoubles * 8;
-    const chanAt = parAt + room * (8 + LL + NL) * 8;
+    const chanAt = parAt + room * (8 + LL + NLp) * 8;
     placed = {
       at,
       generation: r.generation,
@@ -352,6 +382,7 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
       chan: new Int32Array(K.module.f64(0, 0).buffer, chanAt, room),
       out: K.module.f64(at + outAt * 8, size),
     };
+    placedEpoch = K.epoch();
     return placed;
   };
   const expandKernel = (K: DescriptorKernels, pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): boolean => {
@@ -376,7 +407,6 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
       par[o] = x;
       par[o + 1] = y;
       par[o + 2] = z;
-      par[o + 3] = Math.hypot(x, y, z);
       par[o + 4] = d <= inn ? FOUR_PI : FOUR_PI * 0.5 * (1 + Math.cos(sw * (d - inn)));
       const u = d * inv;
       let k = Math.floor(u);
@@ -387,11 +417,12 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     const parAt = at.at + fixedDoubles * 8;
     const yAt = parAt + room * 8 * 8;
     const rAt = yAt + room * LL * 8;
-    const chanAt = rAt + room * NL * 8;
-    const idxAt = chanAt + room * 4;
+    const chanAt = rAt + room * NLp * 8;
+    const orderAt = chanAt + room * 4;
     const base = at.at;
-    K.pairTerms(parAt, chanAt, count, lmax, NL, base + aAt * 8, base + bAt * 8, base + diagAt * 8, tables.y00, base + coefAt * 8, yAt, rAt);
-    K.expandAccumulate(yAt, rAt, chanAt, count, nmax, lmax, channels, idxAt, base + accAt * 8, base + outAt * 8, base + selfAt * 8, centreChannel);
+    const startsAt = base + startAt * 8;
+    K.pairTerms(parAt, chanAt, count, channels, lmax, NLp, base + aAt * 8, base + bAt * 8, base + diagAt * 8, tables.y00, base + coefAt * 8, yAt, rAt, orderAt, startsAt);
+    K.expandAccumulate(yAt, rAt, startsAt, NLp, nmax, lmax, channels, base + outAt * 8, base + selfAt * 8, centreChannel, base + cTAt * 8);
     out.set(at.out);
     return true;
   };
@@ -401,7 +432,8 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     size,
     expand(pairs, centre, centreChannel, channelOf, out) {
       const K = descriptorKernels();
-      if (K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, out)) return;
+      lastByKernel = K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, out);
+      if (lastByKernel) return;
       // Locals, not closure slots, in the loop (V8 keeps them in registers).
       const coef = byDegree, Yl = Y, rl = radial, acc = work, cut = cutoff, inn = inner, sw = switchScale, inv = invSpacing, last = intervals;
       acc.fill(0);
@@ -446,5 +478,27 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
       }
       if (centreChannel >= 0) for (let n = 0; n < nmax; n++) out[(centreChannel * nmax + n) * LL] += selfTerm[n];
     },
+    transposedAt() {
+      // nothing placed since this expander's region was checked: it is where it was, and so are the coefficients
+      if (!lastByKernel || placed === null) return -1;
+      const K = descriptorKernels();
+      return K === placed.kernels && K.epoch() === placedEpoch ? placed.at + cTAt * 8 : -1;
+    },
   };
+}
+
+/**
+ * The reordered radial table (byDegree: interval k, entry j·4 + power, j = l·nmax + n) for the kernel, two
+ * integrals side by side: interval k, pair j/2, then power, then j mod 2 — k·NLp·4 + (j/2)·8 + power·2 + (j mod 2),
+ * NLp = NL rounded up to even (a missing last integral has zero coefficients). The same numbers, moved.
+ */
+function pairedTable(byDegree: Float64Array, intervals: number, NL: number): Float64Array {
+  const NLp = 2 * Math.ceil(NL / 2);
+  const out = new Float64Array(intervals * NLp * 4);
+  for (let k = 0; k < intervals; k++) {
+    for (let j = 0; j < NL; j++) {
+      for (let power = 0; power < 4; power++) out[k * NLp * 4 + (j >> 1) * 8 + power * 2 + (j & 1)] = byDegree[k * 4 * NL + j * 4 + power];
+    }
+  }
+  return out;
 }

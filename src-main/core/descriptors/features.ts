@@ -299,6 +299,23 @@ export function featurePlan(s: FeatureSettings, lambdas: (1 | 2)[]): Plan {
   return p;
 }
 
+/**
+ * The unnormalised λ = 0 row of coefficients c into row slot j of the layout: from the coefficients the expansion
+ * left transposed when `justExpanded` (c is what P.expander.expand wrote last) and they are still in place, else
+ * from c copied in and transposed.
+ */
+function rowKernel(L: KernelLayout, P: Plan, c: Float64Array, justExpanded: boolean, j: number): void {
+  const nch = P.settings.species.length * P.settings.nmax;
+  const row = L.row + j * P.n0 * 8;
+  let cT = justExpanded ? P.expander.transposedAt() : -1;
+  if (cT < 0) {
+    kernelViews(L, P).c.set(c.length === P.expander.size ? c : c.subarray(0, P.expander.size));
+    L.kernels.transposeChannels(L.c, L.allBase, nch, P.settings.lmax, L.cTall);
+    cT = L.cTall;
+  }
+  L.kernels.powerSpectrumRow(cT, nch, P.settings.lmax, L.invSqrt, row);
+}
+
 /** Scales x[from…to) to unit norm (a zero block stays zero); returns the squared norm before scaling. */
 export function normalise(x: Float64Array, from: number, to: number): number {
   let s = 0;
@@ -317,16 +334,21 @@ export function normalise(x: Float64Array, from: number, to: number): number {
  * test/helpers/reference-kernels.ts, which the tests compare against).
  */
 export function powerSpectrum(P: Plan, c: Float64Array, out: Float64Array, at: number): number {
+  return powerSpectrumFrom(P, c, out, at, false);
+}
+
+/**
+ * powerSpectrum; `justExpanded`: c is what P.expander.expand wrote last, so that the kernel may read the
+ * coefficients the expansion left transposed in its memory (when still there) instead of copying c in and
+ * transposing it. The same numbers either way.
+ */
+function powerSpectrumFrom(P: Plan, c: Float64Array, out: Float64Array, at: number, justExpanded: boolean): number {
   const L = kernelLayout(P);
   if (L !== null) {
     // the WebAssembly kernel: every sum in the same order, then the norm summed in index order, so the same bits
-    const views = kernelViews(L, P);
-    const nch = P.settings.species.length * P.settings.nmax;
-    views.c.set(c.length === P.expander.size ? c : c.subarray(0, P.expander.size));
-    L.kernels.transposeChannels(L.c, L.allBase, nch, P.settings.lmax, L.cTall);
-    L.kernels.powerSpectrumRow(L.cTall, nch, P.settings.lmax, L.invSqrt, L.row);
+    rowKernel(L, P, c, justExpanded, 0);
     const norm = L.kernels.normalise(L.row, P.n0);
-    out.set(views.row, at);
+    out.set(kernelViews(L, P).row[0], at);
     return norm;
   }
   return powerSpectrumPlain(P, c, out, at);
@@ -471,16 +493,28 @@ interface KernelLayout {
   c: number;
   tensorBase: number;
   allBase: number;
-  /** All channels' coefficients transposed (cTall_l at + nch·l² doubles), (2l+1)^(−1/2), and the λ = 0 row. */
+  /**
+   * All channels' coefficients transposed (cTall_l at + nch·l² doubles), (2l+1)^(−1/2), the λ = 0 rows of GROUP
+   * environments (slot j at row + j·n0 doubles; one environment at a time uses slot 0) and their squared norms.
+   */
   cTall: number;
   invSqrt: number;
   row: number;
-  /** Per tensor plan: its output block (nM·n doubles) and per block the gather tables. */
+  sq: number;
+  /** Per tensor plan: its output blocks (GROUP slots of nM·n doubles) and per block the gather tables. */
   tensors: { out: number; blocks: { gStart: number; gIdx: number; gVal: number }[] }[];
-  views: { c: Float64Array; row: Float64Array; out: Float64Array[] } | null;
+  /** Views: c, each slot's λ = 0 row, the squared norms, and per tensor plan each slot's block. */
+  views: { c: Float64Array; row: Float64Array[]; sq: Float64Array; out: Float64Array[][] } | null;
 }
 
-const layouts = new WeakMap<Plan, KernelLayout & { at: number; bytes: number; generation: number }>();
+/**
+ * Environments featurised side by side (featurise with no `after`): their λ = 0 rows and λ > 0 blocks are
+ * normalised together (normaliseMany), whose sums of squares, each a chain of dependent additions in index order,
+ * then run side by side. 8 × the λ = 2 block at nmax 8, lmaxTensor 6 is about 0.7 MB of kernel memory.
+ */
+const GROUP = 8;
+
+const layouts = new WeakMap<Plan, KernelLayout & { at: number; bytes: number; generation: number; epoch: number }>();
 
 /**
  * The plan's tables placed in the descriptor kernels' memory (a region of its own, filled once per plan and
@@ -491,8 +525,12 @@ function kernelLayout(P: Plan): KernelLayout | null {
   if (kernels === null) return null;
   const hit = layouts.get(P);
   if (hit && hit.kernels === kernels) {
+    if (kernels.epoch() === hit.epoch) return hit; // nothing placed since it was checked
     const r = kernels.region(P, hit.bytes);
-    if (r && r.at === hit.at && r.generation === hit.generation) return hit;
+    if (r && r.at === hit.at && r.generation === hit.generation) {
+      hit.epoch = kernels.epoch();
+      return hit;
+    }
   }
   let top = 0;
   const take = (bytes: number): number => {
@@ -510,9 +548,10 @@ function kernelLayout(P: Plan): KernelLayout | null {
   const allBase = take(nch * 4);
   const cTall = take(nch * P.LL * 8);
   const invSqrt = take(P.invSqrt.length * 8);
-  const row = take(P.n0 * 8);
+  const row = take(GROUP * P.n0 * 8);
+  const sq = take(GROUP * 8);
   const tensors = P.tensors.map((T) => ({
-    out: take((2 * T.lambda + 1) * T.n * 8),
+    out: take(GROUP * (2 * T.lambda + 1) * T.n * 8),
     blocks: T.blocks.map((b) => ({ gStart: take(b.gatherStart.length * 4), gIdx: take(b.gatherIndex.length * 4), gVal: take(b.gatherValue.length * 8) })),
   }));
   const region = kernels.region(P, top);
@@ -542,11 +581,13 @@ function kernelLayout(P: Plan): KernelLayout | null {
     cTall: at + cTall,
     invSqrt: at + invSqrt,
     row: at + row,
+    sq: at + sq,
     tensors: tensors.map((t) => ({ out: at + t.out, blocks: t.blocks.map((g) => ({ gStart: at + g.gStart, gIdx: at + g.gIdx, gVal: at + g.gVal })) })),
     views: null,
     at,
     bytes: top,
     generation: region.generation,
+    epoch: kernels.epoch(),
   };
   layouts.set(P, layout);
   return layout;
@@ -557,10 +598,12 @@ function kernelViews(L: KernelLayout, P: Plan): NonNullable<KernelLayout['views'
   let views = L.views;
   if (views === null || views.c.length === 0) {
     const m = L.kernels.module;
+    const slots = (at: number, length: number) => Array.from({ length: GROUP }, (_, j) => m.f64(at + j * length * 8, length));
     views = {
       c: m.f64(L.c, P.expander.size),
-      row: m.f64(L.row, P.n0),
-      out: P.tensors.map((U, k) => m.f64(L.tensors[k].out, (2 * U.lambda + 1) * U.n)),
+      row: slots(L.row, P.n0),
+      sq: m.f64(L.sq, GROUP),
+      out: P.tensors.map((U, k) => slots(L.tensors[k].out, (2 * U.lambda + 1) * U.n)),
     };
     L.views = views;
   }
@@ -569,24 +612,31 @@ function kernelViews(L: KernelLayout, P: Plan): NonNullable<KernelLayout['views'
 
 /** tensorFeatures in the WebAssembly kernels: the same operations in the same order, so the same bits. */
 function tensorFeaturesKernel(L: KernelLayout, P: Plan, T: TensorPlan, c: Float64Array, out: Float64Array, e: number): void {
+  const k = P.tensors.indexOf(T);
+  const nM = 2 * T.lambda + 1;
+  tensorBlockKernel(L, P, k, c, 0);
+  L.kernels.normalise(L.tensors[k].out, nM * T.n);
+  out.set(kernelViews(L, P).out[k][0], e * nM * T.n);
+}
+
+/** The unnormalised λ > 0 block of tensor plan k from coefficients c into its slot j of the layout. */
+function tensorBlockKernel(L: KernelLayout, P: Plan, k: number, c: Float64Array, j: number): void {
   const kernels = L.kernels;
   const tch = P.tch;
-  const views = kernelViews(L, P);
-  const k = P.tensors.indexOf(T);
-  views.c.set(c.length === P.expander.size ? c : c.subarray(0, P.expander.size));
+  const T = P.tensors[k];
+  kernelViews(L, P).c.set(c.length === P.expander.size ? c : c.subarray(0, P.expander.size));
   kernels.transposeChannels(L.c, L.tensorBase, tch, L.cT.length - 1, L.cTFrom);
   const nM = 2 * T.lambda + 1;
   const n = T.n;
   const region = L.tensors[k];
+  const slot = region.out + j * nM * n * 8;
   for (let b = 0; b < T.blocks.length; b++) {
     const blk = T.blocks[b];
     const g = region.blocks[b];
-    const at = region.out + blk.offset * 8;
+    const at = slot + blk.offset * 8;
     if (blk.l === blk.l2) kernels.coupleSame(L.cT[blk.l], tch, 2 * blk.l + 1, nM, g.gStart, g.gIdx, g.gVal, L.half, at, n);
     else kernels.coupleCross(L.cT[blk.l], L.cT[blk.l2], tch, 2 * blk.l + 1, nM, g.gStart, g.gIdx, g.gVal, L.half, at, n);
   }
-  kernels.normalise(region.out, nM * n);
-  out.set(views.out[k], e * nM * n);
 }
 
 /**
@@ -646,11 +696,49 @@ export function tensorFeaturesPlain(P: Plan, T: TensorPlan, c: Float64Array, out
   normalise(out, base, base + nM * n);
 }
 
-/** The λ > 0 step of computeFeatures: every order's block of environment slot k0 into tensors[k]. */
-function tensorSteps(P: Plan, tensors: Float64Array[]): (e: number, k0: number, c: Float64Array) => void {
-  return (_e, k0, c) => {
-    for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensors[k], k0);
+/**
+ * The λ > 0 step of computeFeatures: every order's block of environment slot k0 into tensors[k]. Called by
+ * featurise with j (environments side by side), it leaves the block unnormalised in the layout's slot j, and
+ * `flush(count)` normalises the blocks of slots 0 … count − 1 together and copies them out.
+ */
+function tensorSteps(P: Plan, tensors: Float64Array[]): TensorStep {
+  const pending: { k0: number; c: Float64Array; L: KernelLayout }[] = [];
+  const step: TensorStep = (_e, k0, c, j) => {
+    const L = j === undefined ? null : kernelLayout(P);
+    if (L === null || j === undefined) {
+      for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensors[k], k0);
+      return;
+    }
+    for (let k = 0; k < P.tensors.length; k++) tensorBlockKernel(L, P, k, c, j);
+    pending[j] = { k0, c, L };
   };
+  step.flush = (count) => {
+    if (pending.length === 0) return;
+    const L = kernelLayout(P);
+    if (L === null || pending.some((x, j) => j < count && x.L !== L)) {
+      // the layout moved under the blocks (not expected between the steps of one group): make them again, one by one
+      for (let j = 0; j < count; j++) for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], pending[j].c, tensors[k], pending[j].k0);
+    } else {
+      const views = kernelViews(L, P);
+      for (let k = 0; k < P.tensors.length; k++) {
+        const size = (2 * P.tensors[k].lambda + 1) * P.tensors[k].n;
+        L.kernels.normaliseMany(L.tensors[k].out, size, count, size * 8, L.sq);
+        for (let j = 0; j < count; j++) tensors[k].set(views.out[k][j], pending[j].k0 * size);
+      }
+    }
+    pending.length = 0;
+  };
+  return step;
+}
+
+/**
+ * featurise's λ > 0 step for environment e (λ = 0 row at slot k0, density coefficients c). `j`: given when
+ * environments run side by side (the environment's place in its group); then `flush(count)`, when present, is
+ * called once the group's count steps are done, before the next group.
+ */
+export interface TensorStep {
+  (e: number, k0: number, c: Float64Array, j?: number): void;
+  flush?: (count: number) => void;
 }
 
 /** A frame prepared for featurisation: plan, species channels, centre atoms, neighbour pairs. */
@@ -728,16 +816,20 @@ function checkSeparation(pairs: NeighbourPairs, where: Where): void {
  * The per-environment loop shared by computeFeatures, forEachEnvironment and the read-out of
  * tensor-readout.ts: the λ = 0 row of environment e is written to scalar at row slot(e), then
  * `tensorStep(e, slot(e), c)` does the λ > 0 work from the density coefficients c, and `after(e)` runs.
+ * With no `after`, the WebAssembly kernels on and slots of their own, up to GROUP environments run side by side:
+ * every row of the group is written before the group's λ > 0 steps (in environment order, each with its own
+ * coefficients; see TensorStep). The same numbers either way.
  */
 export function featurise(
   prep: Prepared,
   scalar: Float64Array,
   slot: (e: number) => number,
-  tensorStep: (e: number, k0: number, c: Float64Array) => void,
+  tensorStep: TensorStep,
   after: ((e: number) => void) | null,
   timings: FeatureTimings | undefined,
   norms?: Float64Array,
 ): void {
+  if (after === null && prep.centres.length > 1 && slotsIncrease(slot, prep.centres.length) && featuriseGrouped(prep, scalar, slot, tensorStep, timings, norms)) return;
   const { P, channelOf, centres, pairs, where } = prep;
   const c = P.coefficients;
   let tExpand = 0, tCouple = 0;
@@ -747,7 +839,7 @@ export function featurise(
     P.expander.expand(pairs, i, channelOf[i], channelOf, c);
     const tb = timings ? performance.now() : 0;
     const k0 = slot(e);
-    const norm = powerSpectrum(P, c, scalar, k0 * P.n0);
+    const norm = powerSpectrumFrom(P, c, scalar, k0 * P.n0, true);
     if (!Number.isFinite(norm)) {
       throw new InputError(`features of atom ${i + 1} are not finite (non-finite positions or cell?)`, where, 'check the structure');
     }
@@ -763,6 +855,81 @@ export function featurise(
     timings.expansion += tExpand;
     timings.coupling += tCouple;
   }
+}
+
+/** Whether slot(e) increases with e (every environment has a row of its own), so that a group may run side by side. */
+function slotsIncrease(slot: (e: number) => number, count: number): boolean {
+  for (let e = 1; e < count; e++) if (!(slot(e) > slot(e - 1))) return false;
+  return true;
+}
+
+/** The coefficient buffers of a group (featuriseGrouped), per plan. */
+const groupCoefficients = new WeakMap<Plan, Float64Array[]>();
+
+/**
+ * featurise for up to GROUP environments at a time (see there); false (nothing done) when the kernels are off or
+ * unavailable. Each environment's steps are those of the one-at-a-time loop; only the norms of a group's rows (and,
+ * through TensorStep.flush, of its λ > 0 blocks) are summed side by side (normaliseMany), each in its own order.
+ */
+function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number) => number, tensorStep: TensorStep, timings: FeatureTimings | undefined, norms?: Float64Array): boolean {
+  const { P, channelOf, centres, pairs, where } = prep;
+  if (kernelLayout(P) === null) return false;
+  let cs = groupCoefficients.get(P);
+  if (!cs) {
+    cs = Array.from({ length: GROUP }, () => new Float64Array(P.expander.size));
+    groupCoefficients.set(P, cs);
+  }
+  const k0s = new Array<number>(GROUP);
+  let tExpand = 0, tCouple = 0;
+  for (let g = 0; g < centres.length; g += GROUP) {
+    const count = Math.min(GROUP, centres.length - g);
+    const ta = timings ? performance.now() : 0;
+    let L = kernelLayout(P);
+    let moved = L === null;
+    for (let j = 0; j < count && !moved; j++) {
+      const i = centres[g + j];
+      P.expander.expand(pairs, i, channelOf[i], channelOf, cs[j]);
+      const now = kernelLayout(P);
+      if (now !== L) moved = true;
+      else rowKernel(now as KernelLayout, P, cs[j], true, j);
+    }
+    if (moved) {
+      // the layout moved while the group was expanded (the expander's region grew): expand again, then the rows
+      // from the coefficients copied in
+      for (let j = 0; j < count; j++) {
+        const i = centres[g + j];
+        P.expander.expand(pairs, i, channelOf[i], channelOf, cs[j]);
+      }
+      L = kernelLayout(P);
+      if (L === null) throw new Error('featurise: the descriptor kernels lost their memory');
+      for (let j = 0; j < count; j++) rowKernel(L, P, cs[j], false, j);
+    }
+    const K = L as KernelLayout;
+    const tb = timings ? performance.now() : 0;
+    K.kernels.normaliseMany(K.row, P.n0, count, P.n0 * 8, K.sq);
+    const views = kernelViews(K, P);
+    for (let j = 0; j < count; j++) {
+      const e = g + j;
+      const norm = views.sq[j];
+      if (!Number.isFinite(norm)) {
+        throw new InputError(`features of atom ${centres[e] + 1} are not finite (non-finite positions or cell?)`, where, 'check the structure');
+      }
+      if (norms) norms[e] = Math.sqrt(norm);
+      k0s[j] = slot(e);
+      scalar.set(views.row[j], k0s[j] * P.n0);
+    }
+    for (let j = 0; j < count; j++) tensorStep(g + j, k0s[j], cs[j], j);
+    tensorStep.flush?.(count);
+    if (timings) {
+      tExpand += tb - ta;
+      tCouple += performance.now() - tb;
+    }
+  }
+  if (timings) {
+    timings.expansion += tExpand;
+    timings.coupling += tCouple;
+  }
+  return true;
 }
 
 /**

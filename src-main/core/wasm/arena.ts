@@ -51,6 +51,7 @@ export class Arena {
         return this.acquire(requests);
       }
       if (!this.module.reserve(this.top + extra - this.module.heapBase)) return null;
+      this.placedCount++;
       for (const r of missing) {
         const at = this.top;
         this.top += align(r.bytes);
@@ -59,6 +60,15 @@ export class Arena {
       }
     }
     return requests.map((r) => (this.slots.get(r.name) as { at: number }).at);
+  }
+
+  private placedCount = 0;
+  /**
+   * Changes whenever a region is placed (anything else may then have been dropped or written over); while it
+   * stays the same, every region is where it was, so a caller may skip asking again.
+   */
+  get epoch(): number {
+    return this.placedCount;
   }
 
   private readonly owners = new WeakMap<object, { name: string; generation: number }>();

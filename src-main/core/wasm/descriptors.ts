@@ -17,17 +17,20 @@ export interface DescriptorKernels {
   /** Scales `len` doubles at x to unit norm; returns the squared norm before (features.ts normalise). */
   normalise(x: number, len: number): number;
   /**
-   * The density expansion's sums for one centre from `count` pairs' harmonics Y (LL each), weighted radial integrals
-   * R (NL each, l·nmax + n) and channels chan (Int32, −1: left out) into out (public layout, selfTerm added to the
-   * centre's channel); idx (count Int32) and acc (channels·LL·nmax doubles) are scratch.
+   * The density expansion's sums for one centre from pairTerms' output (harmonics Y, LL per pair; radial integrals
+   * R, NLp per pair, l·nmax + n; pairs sorted by channel, chanStart: channels + 1 Int32 first positions) into out
+   * (public layout, selfTerm added to the centre's channel), and the same numbers transposed into cT[lm·nch + ch].
    */
-  expandAccumulate(Y: number, R: number, chan: number, count: number, nmax: number, lmax: number, channels: number, idx: number, acc: number, out: number, selfTerm: number, centreChannel: number): void;
+  expandAccumulate(Y: number, R: number, chanStart: number, NLp: number, nmax: number, lmax: number, channels: number, out: number, selfTerm: number, centreChannel: number, cT: number): void;
   /**
    * Every pair's harmonics Y and weighted radial integrals R for expandAccumulate from its parameters (8 doubles per
-   * pair: x, y, z, r, w, interval, t; chan < 0: skipped), the harmonics' recurrence tables and the reordered radial
-   * table coef.
+   * pair: x, y, z, r, w, interval, t) and channel (chan: Int32, < 0: left out), the pairs sorted by channel into
+   * order (count Int32 scratch) and chanStart (channels + 1 Int32); the harmonics' recurrence tables and the radial
+   * table in pairs of integrals (coef; NLp = NL rounded up to even).
    */
-  pairTerms(par: number, chan: number, count: number, lmax: number, NL: number, a: number, b: number, diag: number, y00: number, coef: number, Y: number, R: number): void;
+  pairTerms(par: number, chan: number, count: number, channels: number, lmax: number, NLp: number, a: number, b: number, diag: number, y00: number, coef: number, Y: number, R: number, order: number, chanStart: number): void;
+  /** |(x, y, z)| by the operations of Math.hypot (the same bits; what pairTerms uses for each pair's length). */
+  hypot3(x: number, y: number, z: number): number;
   /** dst_l[m·K + k] = c[base[k] + l² + m] for l ≤ lmax (dst_l = dst + K·l² doubles; base: K Int32 offsets). */
   transposeChannels(c: number, base: number, K: number, lmax: number, dst: number): void;
   /** The λ = 0 row of one environment, unnormalised, from cT of all nch channels (transposeChannels). */
@@ -38,6 +41,13 @@ export interface DescriptorKernels {
    * region is placed anew (its contents must then be written again); null when the memory cannot grow that far.
    */
   region(owner: object, bytes: number): { at: number; generation: number } | null;
+  /** The arena's epoch (./arena.ts): unchanged means every region is still where it was. */
+  epoch(): number;
+  /**
+   * normalise for count blocks of len doubles, block j at x + j·stride bytes, their sums of squares side by side
+   * (each in its order); the squared norms to sq (count doubles).
+   */
+  normaliseMany(x: number, len: number, count: number, stride: number, sq: number): void;
 }
 
 let cached: DescriptorKernels | null | undefined;
@@ -55,8 +65,11 @@ export function descriptorKernels(): DescriptorKernels | null {
     cached = {
       module,
       region,
+      epoch: () => arena.epoch,
+      normaliseMany: e.normaliseMany as DescriptorKernels['normaliseMany'],
       expandAccumulate: e.expandAccumulate as DescriptorKernels['expandAccumulate'],
       pairTerms: e.pairTerms as DescriptorKernels['pairTerms'],
+      hypot3: e.hypot3 as DescriptorKernels['hypot3'],
       transposeChannels: e.transposeChannels as DescriptorKernels['transposeChannels'],
       powerSpectrumRow: e.powerSpectrumRow as DescriptorKernels['powerSpectrumRow'],
       coupleSame: e.coupleSame as DescriptorKernels['coupleSame'],

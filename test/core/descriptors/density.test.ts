@@ -113,19 +113,21 @@ describe('makeDensityExpander', () => {
     // The kept first version (test/helpers/reference-kernels.ts) reads the radial table in its own layout; the
     // expander reads a reordered copy with the same operations, and its WebAssembly sums (core/wasm/assembly/
     // descriptors.ts, four pairs per pass) keep each sum's pair order, so the numbers must be identical. Neighbours
-    // beyond the cutoff, of no channel (−1) and at distance 0 are included; odd and even nmax.
+    // beyond the cutoff, of no channel (−1) and at distance 0 are included (two side by side, and one among many);
+    // odd and even nmax, below and above the kernel's block of eight; lmax 0; odd and even numbers of pairs, so that
+    // the kernel's two-pair harmonics meet a lone last pair, a pair at distance 0, and channels with no pairs.
     setWebAssemblyKernels(wasm);
     if (wasm) expect(descriptorKernels()).not.toBeNull();
     const rng = makeRng(29);
-    for (const [nmax, lmax, channels] of [[8, 6, 2], [6, 4, 2], [5, 4, 3], [3, 0, 1], [1, 2, 2]]) {
+    for (const [nmax, lmax, channels] of [[8, 6, 2], [6, 4, 2], [5, 4, 3], [3, 0, 1], [1, 2, 2], [9, 3, 2], [10, 1, 4], [17, 2, 1]]) {
       const settings = { nmax, lmax, cutoff: 4.5, sigma: 0.4, cutoffWidth: 0.5, channels };
       const fast = makeDensityExpander(settings);
       const plain = referenceDensityExpander(settings);
-      for (const count of [0, 1, 7, 150]) {
+      for (const count of [0, 1, 2, 3, 7, 150]) {
         const vectors = new Float64Array(3 * count);
         const distances = new Float64Array(count);
         for (let p = 0; p < count; p++) {
-          const r = p === 3 ? 0 : 5 * rng.uniform();
+          const r = p === 3 || p === 4 || p % 37 === 20 ? 0 : 5 * rng.uniform();
           const v = [rng.normal(), rng.normal(), rng.normal()];
           const n = Math.hypot(v[0], v[1], v[2]);
           for (let k = 0; k < 3; k++) vectors[3 * p + k] = (r * v[k]) / n;

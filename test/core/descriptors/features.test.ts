@@ -25,6 +25,7 @@ import {
   type Equivariant,
 } from '../../helpers/equivariance-harness.ts';
 import { neighbourList } from '../../../src-main/core/geometry/neighbours.ts';
+import { waterFrames } from '../../helpers/trajectory.ts';
 
 const settings: FeatureSettings = {
   cutoff: 3.2,
@@ -369,5 +370,48 @@ describe('the blocked λ > 0 coupling kernel', () => {
         }
       });
     }
+  }
+});
+
+/** '' when x and y are the same numbers bit for bit (Object.is), else where and how they first differ. */
+function firstDifference(x: Float64Array, y: Float64Array): string {
+  if (x.length !== y.length) return `lengths ${x.length} and ${y.length}`;
+  for (let k = 0; k < x.length; k++) if (!Object.is(x[k], y[k])) return `at ${k}: ${x[k]} and ${y[k]}`;
+  return '';
+}
+
+describe('whole features with the WebAssembly kernels on and off', () => {
+  // The kernel path chains its steps in the module's memory (pairs sorted by channel, the expansion also written
+  // transposed and read from there by the λ = 0 row); computeFeatures must give the very numbers of the JavaScript
+  // path. Real DFT water frames (test/fixtures/water-dft-sample.extxyz), a periodic cell smaller than the cutoff
+  // (several images of a neighbour), a cluster with a lone far atom (channels without pairs, a zero λ = 2 block),
+  // and channel counts that are and are not multiples of the kernels' blocks.
+  const cases: [string, FeatureSettings, () => Frame[]][] = [
+    ['DFT water, nmax 8, lmax 6, lmaxTensor 6', { cutoff: 4.5, cutoffWidth: 0.5, sigma: 0.4, nmax: 8, lmax: 6, lmaxTensor: 6, species: ['O', 'H'], centres: ['O', 'H'] }, () => waterFrames().slice(0, 2)],
+    ['DFT water, nmax 5, lmax 3, nmaxTensor 2 (10 channels)', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.45, nmax: 5, nmaxTensor: 2, lmax: 3, species: ['O', 'H'], centres: ['O'] }, () => waterFrames().slice(2, 3)],
+    ['small periodic cell, 3 species, nmax 3, lmax 4 (9 channels)', { cutoff: 4, cutoffWidth: 0.5, sigma: 0.5, nmax: 3, lmax: 4, species: ['O', 'H', 'C'], centres: ['O', 'H', 'C'] }, () => [randomPeriodicFrame(makeRng(5), ['O', 'H', 'H', 'C', 'O'], [3.1, 3.4, 3.7])]],
+    ['cluster with a lone atom, nmax 9, lmax 2', { cutoff: 3.5, cutoffWidth: 0.5, sigma: 0.4, nmax: 9, lmax: 2, species: ['O', 'H', 'C'], centres: ['O', 'H', 'C'] }, () => {
+      const c = randomCluster(makeRng(8), water(9), 2.5);
+      return [makeFrame([...c.species, 'C'], Float64Array.from([...c.positions, 40, 40, 40]), null)];
+    }],
+  ];
+  afterEach(() => setWebAssemblyKernels(true));
+  for (const [name, s, frames] of cases) {
+    it(`${name}: the same bits`, () => {
+      for (const frame of frames()) {
+        setWebAssemblyKernels(true);
+        expect(descriptorKernels()).not.toBeNull();
+        const on = computeFeatures(frame, s, [0, 2]);
+        const onAgain = computeFeatures(frame, s, [0, 1, 2]);
+        setWebAssemblyKernels(false);
+        const off = computeFeatures(frame, s, [0, 1, 2]);
+        expect(firstDifference(on.scalar, off.scalar)).toBe('');
+        expect(firstDifference(on.norms!, off.norms!)).toBe('');
+        expect(firstDifference(on.tensor[2]!.data, off.tensor[2]!.data)).toBe('');
+        expect(firstDifference(onAgain.scalar, off.scalar)).toBe('');
+        expect(firstDifference(onAgain.tensor[1]!.data, off.tensor[1]!.data)).toBe('');
+        expect(on.scalar.some((v) => v !== 0)).toBe(true);
+      }
+    });
   }
 });

@@ -168,107 +168,234 @@ export function normalise(x: usize, len: i32): f64 {
 }
 
 /**
- * The density expansion's accumulation for one centre (core/descriptors/density.ts): with y_p = Y[p·LL + lm] the
- * harmonics and r_p = R[p·NL + l·nmax + n] the weighted radial integrals of pair p (p < count, of channel chan[p];
- * −1 for pairs left out), acc[(a·LL + lm)·nmax + n] = Σ_p y_p r_p over the pairs of channel a in pair order (each
- * sum from zero; four pairs per pass over the accumulators, two n per vector), then written to
- * out[(a·nmax + n)·LL + lm] with selfTerm[n] added to the l = 0 slot of channel centreChannel (when ≥ 0).
- * idx: scratch for count Int32 pair indices; acc: scratch for channels·LL·nmax doubles.
+ * normalise for `count` blocks of `len` doubles, block j at x + j·stride bytes: sq[j] = Σ_i x_j[i]² summed in index
+ * order from zero (the very sum of normalise), then block j scaled by 1/√sq[j] unless that is zero or not finite.
+ * The sums of up to eight blocks run side by side (two per vector, four vectors): each is still one sum in its
+ * order, but the eight do not wait on each other, where one block's sum alone is a chain of dependent additions.
  */
-export function expandAccumulate(Y: usize, R: usize, chan: usize, count: i32, nmax: i32, lmax: i32, channels: i32, idx: usize, acc: usize, out: usize, selfTerm: usize, centreChannel: i32): void {
-  const L1 = lmax + 1;
-  const LL = L1 * L1;
-  const NL = nmax * L1;
-  const size = channels * LL * nmax;
-  memory.fill(acc, 0, <usize>size << 3);
-  const pairBytesY = <usize>LL << 3;
-  const pairBytesR = <usize>NL << 3;
-  const nv = nmax & ~1;
-  for (let a = 0; a < channels; a++) {
-    // this channel's pairs, in order
-    let np = 0;
-    for (let p = 0; p < count; p++) {
-      if (load<i32>(chan + (<usize>p << 2)) == a) {
-        store<i32>(idx + (<usize>np << 2), p);
-        np++;
-      }
+export function normaliseMany(x: usize, len: i32, count: i32, stride: usize, sq: usize): void {
+  for (let j0 = 0; j0 < count; j0 += 8) {
+    // blocks j0 … j0 + 7; past the last one, repeats of block j0 (their sums are not kept)
+    const b0 = x + <usize>j0 * stride;
+    const p0 = b0, p1 = j0 + 1 < count ? b0 + stride : b0;
+    const p2 = j0 + 2 < count ? b0 + 2 * stride : b0, p3 = j0 + 3 < count ? b0 + 3 * stride : b0;
+    const p4 = j0 + 4 < count ? b0 + 4 * stride : b0, p5 = j0 + 5 < count ? b0 + 5 * stride : b0;
+    const p6 = j0 + 6 < count ? b0 + 6 * stride : b0, p7 = j0 + 7 < count ? b0 + 7 * stride : b0;
+    let s0 = f64x2.splat(0), s1 = f64x2.splat(0), s2 = f64x2.splat(0), s3 = f64x2.splat(0);
+    for (let i = 0; i < len; i++) {
+      const o = <usize>i << 3;
+      const v0 = v128.load64_lane(p1 + o, v128.load64_zero(p0 + o), 1);
+      const v1 = v128.load64_lane(p3 + o, v128.load64_zero(p2 + o), 1);
+      const v2 = v128.load64_lane(p5 + o, v128.load64_zero(p4 + o), 1);
+      const v3 = v128.load64_lane(p7 + o, v128.load64_zero(p6 + o), 1);
+      s0 = f64x2.add(s0, f64x2.mul(v0, v0));
+      s1 = f64x2.add(s1, f64x2.mul(v1, v1));
+      s2 = f64x2.add(s2, f64x2.mul(v2, v2));
+      s3 = f64x2.add(s3, f64x2.mul(v3, v3));
     }
-    const base = acc + (<usize>(a * LL * nmax) << 3);
-    let q = 0;
-    for (; q + 3 < np; q += 4) {
-      const p0 = <usize>load<i32>(idx + (<usize>q << 2));
-      const p1 = <usize>load<i32>(idx + (<usize>(q + 1) << 2));
-      const p2 = <usize>load<i32>(idx + (<usize>(q + 2) << 2));
-      const p3 = <usize>load<i32>(idx + (<usize>(q + 3) << 2));
-      const y0 = Y + p0 * pairBytesY, y1 = Y + p1 * pairBytesY, y2 = Y + p2 * pairBytesY, y3 = Y + p3 * pairBytesY;
-      const r0 = R + p0 * pairBytesR, r1 = R + p1 * pairBytesR, r2 = R + p2 * pairBytesR, r3 = R + p3 * pairBytesR;
-      for (let l = 0; l <= lmax; l++) {
-        const rb = <usize>(l * nmax) << 3;
-        const hi = (l + 1) * (l + 1);
-        for (let lm = l * l; lm < hi; lm++) {
-          const yo = <usize>lm << 3;
-          const v0 = v128.load64_splat(y0 + yo), v1 = v128.load64_splat(y1 + yo), v2 = v128.load64_splat(y2 + yo), v3 = v128.load64_splat(y3 + yo);
-          const s0 = load<f64>(y0 + yo), s1 = load<f64>(y1 + yo), s2 = load<f64>(y2 + yo), s3 = load<f64>(y3 + yo);
-          const ob = base + (<usize>(lm * nmax) << 3);
-          let n = 0;
-          for (; n < nv; n += 2) {
-            const no = <usize>n << 3;
-            let x = v128.load(ob + no);
-            x = f64x2.add(x, f64x2.mul(v0, v128.load(r0 + rb + no)));
-            x = f64x2.add(x, f64x2.mul(v1, v128.load(r1 + rb + no)));
-            x = f64x2.add(x, f64x2.mul(v2, v128.load(r2 + rb + no)));
-            x = f64x2.add(x, f64x2.mul(v3, v128.load(r3 + rb + no)));
-            v128.store(ob + no, x);
-          }
-          if (n < nmax) {
-            const no = <usize>n << 3;
-            let x = load<f64>(ob + no);
-            x += s0 * load<f64>(r0 + rb + no);
-            x += s1 * load<f64>(r1 + rb + no);
-            x += s2 * load<f64>(r2 + rb + no);
-            x += s3 * load<f64>(r3 + rb + no);
-            store<f64>(ob + no, x);
-          }
-        }
-      }
-    }
-    for (; q < np; q++) {
-      const p0 = <usize>load<i32>(idx + (<usize>q << 2));
-      const y0 = Y + p0 * pairBytesY;
-      const r0 = R + p0 * pairBytesR;
-      for (let l = 0; l <= lmax; l++) {
-        const rb = <usize>(l * nmax) << 3;
-        const hi = (l + 1) * (l + 1);
-        for (let lm = l * l; lm < hi; lm++) {
-          const yo = <usize>lm << 3;
-          const v0 = v128.load64_splat(y0 + yo);
-          const s0 = load<f64>(y0 + yo);
-          const ob = base + (<usize>(lm * nmax) << 3);
-          let n = 0;
-          for (; n < nv; n += 2) {
-            const no = <usize>n << 3;
-            v128.store(ob + no, f64x2.add(v128.load(ob + no), f64x2.mul(v0, v128.load(r0 + rb + no))));
-          }
-          if (n < nmax) {
-            const no = <usize>n << 3;
-            store<f64>(ob + no, load<f64>(ob + no) + s0 * load<f64>(r0 + rb + no));
-          }
-        }
-      }
+    const last = min(8, count - j0);
+    for (let j = 0; j < last; j++) {
+      const v = j < 2 ? s0 : j < 4 ? s1 : j < 6 ? s2 : s3;
+      const s = (j & 1) == 0 ? f64x2.extract_lane(v, 0) : f64x2.extract_lane(v, 1);
+      store<f64>(sq + (<usize>(j0 + j) << 3), s);
+      if (s == 0 || !isFinite<f64>(s)) continue;
+      scale(b0 + <usize>j * stride, len, 1 / Math.sqrt(s));
     }
   }
-  // back to the public layout (a·nmax + n)·LL + lm, plus the centre's own Gaussian
+}
+
+/** x[0 … len) *= inv, two per vector. */
+@inline
+function scale(x: usize, len: i32, inv: f64): void {
+  const vinv = f64x2.splat(inv);
+  let i = 0;
+  for (; i + 1 < len; i += 2) {
+    const at = x + (<usize>i << 3);
+    v128.store(at, f64x2.mul(v128.load(at), vinv));
+  }
+  if (i < len) {
+    const at = x + (<usize>i << 3);
+    store<f64>(at, load<f64>(at) * inv);
+  }
+}
+
+/**
+ * The density expansion's sums for one centre (core/descriptors/density.ts), from pairTerms' output: the pairs of
+ * channel a at sorted positions q = chanStart[a] … chanStart[a+1]−1 (in pair order), with harmonics
+ * Y[q·LL + lm] and weighted radial integrals R[q·NLp + l·nmax + n]. out[(a·nmax + n)·LL + lm] = Σ_q y_q r_q, each
+ * sum from zero in pair order (vectorised across n and held in registers over the pairs, two lm of one degree per
+ * pass), then selfTerm[n] added to the l = 0 slot of channel centreChannel (when ≥ 0). The same numbers also
+ * transposed into cT[lm·nch + a·nmax + n] (nch = channels·nmax), the layout of powerSpectrumRow.
+ */
+export function expandAccumulate(Y: usize, R: usize, chanStart: usize, NLp: i32, nmax: i32, lmax: i32, channels: i32, out: usize, selfTerm: usize, centreChannel: i32, cT: usize): void {
+  const L1 = lmax + 1;
+  const LL = L1 * L1;
+  const nch = channels * nmax;
+  const yStep = <usize>LL << 3;
+  const rStep = <usize>NLp << 3;
+  const nStep = <usize>LL << 3; // from feature n to n + 1 in out
+  const tStep = <usize>nch << 3; // from lm to lm + 1 in cT
   for (let a = 0; a < channels; a++) {
-    for (let lm = 0; lm < LL; lm++) {
-      const src = acc + (<usize>((a * LL + lm) * nmax) << 3);
-      for (let n = 0; n < nmax; n++) store<f64>(out + (<usize>((a * nmax + n) * LL + lm) << 3), load<f64>(src + (<usize>n << 3)));
+    const q0 = load<i32>(chanStart + (<usize>(a << 2)));
+    const np = load<i32>(chanStart + (<usize>((a + 1) << 2))) - q0;
+    const yA = Y + <usize>q0 * yStep;
+    const rA = R + <usize>q0 * rStep;
+    const oA = out + (<usize>(a * nmax * LL) << 3);
+    const tA = cT + (<usize>(a * nmax) << 3);
+    for (let l = 0; l <= lmax; l++) {
+      const rl = rA + (<usize>(l * nmax) << 3);
+      const hi = (l + 1) * (l + 1);
+      let lm = l * l;
+      for (; lm + 1 < hi; lm += 2) sumTwo(yA + (<usize>lm << 3), yStep, rl, rStep, np, nmax, oA + (<usize>lm << 3), nStep, tA + <usize>lm * tStep, tStep);
+      if (lm < hi) sumOne(yA + (<usize>lm << 3), yStep, rl, rStep, np, nmax, oA + (<usize>lm << 3), nStep, tA + <usize>lm * tStep);
     }
   }
   if (centreChannel >= 0) {
     for (let n = 0; n < nmax; n++) {
       const at = out + (<usize>((centreChannel * nmax + n) * LL) << 3);
-      store<f64>(at, load<f64>(at) + load<f64>(selfTerm + (<usize>n << 3)));
+      const x = load<f64>(at) + load<f64>(selfTerm + (<usize>n << 3));
+      store<f64>(at, x);
+      store<f64>(cT + (<usize>(centreChannel * nmax + n) << 3), x);
     }
+  }
+}
+
+/** Stores the two lanes of v at o (feature n) and o + step (feature n + 1). */
+@inline
+function putPair(o: usize, step: usize, v: v128): void {
+  v128.store64_lane(o, v, 0);
+  v128.store64_lane(o + step, v, 1);
+}
+
+/**
+ * o[n·step] = Σ_q y[q·yStep] r[q·rStep + n] and o[8 + n·step] = Σ_q y[8 + q·yStep] r[q·rStep + n] for n < nmax, over
+ * q < np in order, each from zero: two harmonics (lm, lm + 1) of one degree against its radial integrals.
+ */
+@inline
+function sumTwo(y: usize, yStep: usize, r: usize, rStep: usize, np: i32, nmax: i32, o: usize, step: usize, t: usize, tStep: usize): void {
+  let n = 0;
+  for (; n + 7 < nmax; n += 8) {
+    let a0 = f64x2.splat(0), a1 = f64x2.splat(0), a2 = f64x2.splat(0), a3 = f64x2.splat(0);
+    let b0 = f64x2.splat(0), b1 = f64x2.splat(0), b2 = f64x2.splat(0), b3 = f64x2.splat(0);
+    let yq = y;
+    let rq = r + (<usize>n << 3);
+    for (let q = 0; q < np; q++) {
+      const ya = v128.load64_splat(yq), yb = v128.load64_splat(yq, 8);
+      const r0 = v128.load(rq), r1 = v128.load(rq, 16), r2 = v128.load(rq, 32), r3 = v128.load(rq, 48);
+      a0 = f64x2.add(a0, f64x2.mul(ya, r0));
+      b0 = f64x2.add(b0, f64x2.mul(yb, r0));
+      a1 = f64x2.add(a1, f64x2.mul(ya, r1));
+      b1 = f64x2.add(b1, f64x2.mul(yb, r1));
+      a2 = f64x2.add(a2, f64x2.mul(ya, r2));
+      b2 = f64x2.add(b2, f64x2.mul(yb, r2));
+      a3 = f64x2.add(a3, f64x2.mul(ya, r3));
+      b3 = f64x2.add(b3, f64x2.mul(yb, r3));
+      yq += yStep;
+      rq += rStep;
+    }
+    const on = o + <usize>n * step;
+    putPair(on, step, a0);
+    putPair(on + 2 * step, step, a1);
+    putPair(on + 4 * step, step, a2);
+    putPair(on + 6 * step, step, a3);
+    putPair(on + 8, step, b0);
+    putPair(on + 8 + 2 * step, step, b1);
+    putPair(on + 8 + 4 * step, step, b2);
+    putPair(on + 8 + 6 * step, step, b3);
+    const tn = t + (<usize>n << 3);
+    v128.store(tn, a0);
+    v128.store(tn, a1, 16);
+    v128.store(tn, a2, 32);
+    v128.store(tn, a3, 48);
+    v128.store(tn + tStep, b0);
+    v128.store(tn + tStep, b1, 16);
+    v128.store(tn + tStep, b2, 32);
+    v128.store(tn + tStep, b3, 48);
+  }
+  for (; n + 1 < nmax; n += 2) {
+    let a0 = f64x2.splat(0), b0 = f64x2.splat(0);
+    let yq = y;
+    let rq = r + (<usize>n << 3);
+    for (let q = 0; q < np; q++) {
+      const r0 = v128.load(rq);
+      a0 = f64x2.add(a0, f64x2.mul(v128.load64_splat(yq), r0));
+      b0 = f64x2.add(b0, f64x2.mul(v128.load64_splat(yq, 8), r0));
+      yq += yStep;
+      rq += rStep;
+    }
+    const on = o + <usize>n * step;
+    putPair(on, step, a0);
+    putPair(on + 8, step, b0);
+    v128.store(t + (<usize>n << 3), a0);
+    v128.store(t + (<usize>n << 3) + tStep, b0);
+  }
+  if (n < nmax) {
+    // the odd last n: the two harmonics side by side
+    let s = f64x2.splat(0);
+    let yq = y;
+    let rq = r + (<usize>n << 3);
+    for (let q = 0; q < np; q++) {
+      s = f64x2.add(s, f64x2.mul(v128.load(yq), v128.load64_splat(rq)));
+      yq += yStep;
+      rq += rStep;
+    }
+    v128.store(o + <usize>n * step, s);
+    v128.store64_lane(t + (<usize>n << 3), s, 0);
+    v128.store64_lane(t + (<usize>n << 3) + tStep, s, 1);
+  }
+}
+
+/** sumTwo for one harmonic (the last of its degree). */
+@inline
+function sumOne(y: usize, yStep: usize, r: usize, rStep: usize, np: i32, nmax: i32, o: usize, step: usize, t: usize): void {
+  let n = 0;
+  for (; n + 7 < nmax; n += 8) {
+    let a0 = f64x2.splat(0), a1 = f64x2.splat(0), a2 = f64x2.splat(0), a3 = f64x2.splat(0);
+    let yq = y;
+    let rq = r + (<usize>n << 3);
+    for (let q = 0; q < np; q++) {
+      const ya = v128.load64_splat(yq);
+      a0 = f64x2.add(a0, f64x2.mul(ya, v128.load(rq)));
+      a1 = f64x2.add(a1, f64x2.mul(ya, v128.load(rq, 16)));
+      a2 = f64x2.add(a2, f64x2.mul(ya, v128.load(rq, 32)));
+      a3 = f64x2.add(a3, f64x2.mul(ya, v128.load(rq, 48)));
+      yq += yStep;
+      rq += rStep;
+    }
+    const on = o + <usize>n * step;
+    putPair(on, step, a0);
+    putPair(on + 2 * step, step, a1);
+    putPair(on + 4 * step, step, a2);
+    putPair(on + 6 * step, step, a3);
+    const tn = t + (<usize>n << 3);
+    v128.store(tn, a0);
+    v128.store(tn, a1, 16);
+    v128.store(tn, a2, 32);
+    v128.store(tn, a3, 48);
+  }
+  for (; n + 1 < nmax; n += 2) {
+    let a0 = f64x2.splat(0);
+    let yq = y;
+    let rq = r + (<usize>n << 3);
+    for (let q = 0; q < np; q++) {
+      a0 = f64x2.add(a0, f64x2.mul(v128.load64_splat(yq), v128.load(rq)));
+      yq += yStep;
+      rq += rStep;
+    }
+    putPair(o + <usize>n * step, step, a0);
+    v128.store(t + (<usize>n << 3), a0);
+  }
+  if (n < nmax) {
+    let s: f64 = 0;
+    let yq = y;
+    let rq = r + (<usize>n << 3);
+    for (let q = 0; q < np; q++) {
+      s += load<f64>(yq) * load<f64>(rq);
+      yq += yStep;
+      rq += rStep;
+    }
+    store<f64>(o + <usize>n * step, s);
+    store<f64>(t + (<usize>n << 3), s);
   }
 }
 
@@ -368,58 +495,148 @@ export function powerSpectrumRow(cT: usize, nch: i32, lmax: i32, invSqrt: usize,
 
 /**
  * Every pair's harmonics and weighted radial integrals for expandAccumulate (core/descriptors/density.ts): pair p's
- * parameters at par[8p…]: x, y, z (its vector), r (|vector| as Math.hypot gives it), w (the cutoff weight 4π f_c),
- * k (the table's interval), t (the position in it); pairs with chan[p] < 0 are skipped. Y[p·LL + l² + l + m]: the
- * real harmonics by the recurrences of harmonics.ts (tables: a, b at l(l+1)/2 + m, diag at m; y00 = 1/√(4π));
- * R[p·NL + j] = w · (c0 + t c1 + t² c2 + t³ c3) from the reordered table coef[(k·NL + j)·4 + power].
+ * parameters at par[8p…]: x, y, z (its vector), r (written here: |vector| by hypot3, as Math.hypot gives it), w (the cutoff weight 4π f_c),
+ * k (the table's interval), t (the position in it); its channel chan[p] (< 0: left out). The pairs are sorted by
+ * channel, keeping their order (order: scratch for count Int32; chanStart[a]: the first sorted position of channel
+ * a, channels + 1 entries), and the pair at sorted position q gets Y[q·LL + l² + l + m], the real harmonics by the
+ * recurrences of harmonics.ts (tables: a, b at l(l+1)/2 + m, diag at m; y00 = 1/√(4π)), two pairs per vector, and
+ * R[q·NLp + j] = w · (c0 + t c1 + t² c2 + t³ c3) for j < NLp (NL rounded up to even), two j per vector, from the
+ * table coef laid out [interval k][j/2][power][j mod 2] — the operations of the JavaScript loop in its order.
  */
-export function pairTerms(par: usize, chan: usize, count: i32, lmax: i32, NL: i32, a: usize, b: usize, diag: usize, y00: f64, coef: usize, Y: usize, R: usize): void {
+export function pairTerms(par: usize, chan: usize, count: i32, channels: i32, lmax: i32, NLp: i32, a: usize, b: usize, diag: usize, y00: f64, coef: usize, Y: usize, R: usize, order: usize, chanStart: usize): void {
   const L1 = lmax + 1;
   const LL = L1 * L1;
+  // sort by channel, stably: counts, then first positions, then places
+  for (let c = 0; c <= channels; c++) store<i32>(chanStart + (<usize>c << 2), 0);
   for (let p = 0; p < count; p++) {
-    if (load<i32>(chan + (<usize>p << 2)) < 0) continue;
-    const q = par + (<usize>p << 6);
-    const x = load<f64>(q), y = load<f64>(q, 8), z = load<f64>(q, 16), r = load<f64>(q, 24);
-    const w = load<f64>(q, 32), k = <i32>load<f64>(q, 40), t = load<f64>(q, 48);
-    const Yp = Y + (<usize>(p * LL) << 3);
-    store<f64>(Yp, y00);
-    if (lmax > 0) {
-      if (r == 0) {
-        for (let i = 1; i < LL; i++) store<f64>(Yp + (<usize>i << 3), 0);
-      } else {
-        const ux = x / r, uy = y / r, uz = z / r;
-        let pmm = y00;
-        let cm: f64 = 1, sm: f64 = 0;
-        for (let m = 0; m <= lmax; m++) {
-          if (m > 0) {
-            pmm *= load<f64>(diag + (<usize>m << 3));
-            const c = cm * ux - sm * uy;
-            sm = cm * uy + sm * ux;
-            cm = c;
-          }
-          const scaleC: f64 = m == 0 ? 1 : Math.SQRT2 * cm;
-          const scaleS = Math.SQRT2 * sm;
-          let p2 = pmm;
-          putHarmonic(Yp, m, m, p2, scaleC, scaleS);
-          if (m == lmax) break;
-          let p1 = Math.sqrt(<f64>(2 * m + 3)) * uz * pmm;
-          putHarmonic(Yp, m + 1, m, p1, scaleC, scaleS);
-          for (let l = m + 2; l <= lmax; l++) {
-            const kk = <usize>((l * (l + 1)) / 2 + m) << 3;
-            const v = load<f64>(a + kk) * (uz * p1 - load<f64>(b + kk) * p2);
-            putHarmonic(Yp, l, m, v, scaleC, scaleS);
-            p2 = p1;
-            p1 = v;
-          }
-        }
-      }
+    const c = load<i32>(chan + (<usize>p << 2));
+    if (c >= 0) {
+      const at = chanStart + (<usize>(c + 1) << 2);
+      store<i32>(at, load<i32>(at) + 1);
     }
-    const t2 = t * t, t3 = t2 * t;
-    const c0 = coef + (<usize>(k * 4 * NL) << 3);
-    const Rp = R + (<usize>(p * NL) << 3);
-    for (let j = 0; j < NL; j++) {
-      const o = c0 + (<usize>j << 5);
-      store<f64>(Rp + (<usize>j << 3), w * (load<f64>(o) + t * load<f64>(o, 8) + t2 * load<f64>(o, 16) + t3 * load<f64>(o, 24)));
+  }
+  for (let c = 0; c < channels; c++) {
+    const at = chanStart + (<usize>(c + 1) << 2);
+    store<i32>(at, load<i32>(at) + load<i32>(at - 4));
+  }
+  for (let p = 0; p < count; p++) {
+    const c = load<i32>(chan + (<usize>p << 2));
+    if (c >= 0) {
+      // chanStart[c] runs ahead while placing; put back below
+      const at = chanStart + (<usize>c << 2);
+      const q = load<i32>(at);
+      store<i32>(order + (<usize>q << 2), p);
+      store<i32>(at, q + 1);
+    }
+  }
+  for (let c = channels; c > 0; c--) store<i32>(chanStart + (<usize>c << 2), load<i32>(chanStart + (<usize>(c - 1) << 2)));
+  store<i32>(chanStart, 0);
+  const valid = load<i32>(chanStart + (<usize>channels << 2));
+  for (let q = 0; q < valid; q++) {
+    const pp = par + (<usize>load<i32>(order + (<usize>q << 2)) << 6);
+    store<f64>(pp, hypot3(load<f64>(pp), load<f64>(pp, 8), load<f64>(pp, 16)), 24);
+  }
+
+  const yStep = <usize>LL << 3;
+  let q = 0;
+  for (; q + 1 < valid; q += 2) {
+    const pa = par + (<usize>load<i32>(order + (<usize>q << 2)) << 6);
+    const pb = par + (<usize>load<i32>(order + (<usize>(q + 1) << 2)) << 6);
+    const Ya = Y + <usize>q * yStep;
+    const ra = load<f64>(pa, 24), rb = load<f64>(pb, 24);
+    if (lmax == 0 || ra == 0 || rb == 0) {
+      harmonicsOne(pa, lmax, LL, a, b, diag, y00, Ya);
+      harmonicsOne(pb, lmax, LL, a, b, diag, y00, Ya + yStep);
+    } else {
+      harmonicsTwo(pa, pb, lmax, a, b, diag, y00, Ya, Ya + yStep);
+    }
+  }
+  if (q < valid) harmonicsOne(par + (<usize>load<i32>(order + (<usize>q << 2)) << 6), lmax, LL, a, b, diag, y00, Y + <usize>q * yStep);
+
+  const half = NLp >> 1;
+  for (let s = 0; s < valid; s++) {
+    const pp = par + (<usize>load<i32>(order + (<usize>s << 2)) << 6);
+    const w = f64x2.splat(load<f64>(pp, 32));
+    const k = <i32>load<f64>(pp, 40);
+    const ts = load<f64>(pp, 48);
+    const t2s = ts * ts;
+    const t = f64x2.splat(ts), t2 = f64x2.splat(t2s), t3 = f64x2.splat(t2s * ts);
+    let o = coef + (<usize>(k * half) << 6);
+    let Rq = R + (<usize>(s * NLp) << 3);
+    for (let j = 0; j < half; j++) {
+      const c0 = v128.load(o), c1 = v128.load(o, 16), c2 = v128.load(o, 32), c3 = v128.load(o, 48);
+      v128.store(Rq, f64x2.mul(w, f64x2.add(f64x2.add(f64x2.add(c0, f64x2.mul(t, c1)), f64x2.mul(t2, c2)), f64x2.mul(t3, c3))));
+      o += 64;
+      Rq += 16;
+    }
+  }
+}
+
+/**
+ * |(x, y, z)| with the operations of the JavaScript engine's Math.hypot (V8's builtin: the largest magnitude,
+ * each magnitude divided by it, the squares summed in argument order with Kahan's compensation, then
+ * √sum · largest), so the same bits as Math.hypot(x, y, z) (test/core/wasm: compared on many vectors). Exported
+ * for that test.
+ */
+export function hypot3(x: f64, y: f64, z: f64): f64 {
+  const ax = Math.abs(x), ay = Math.abs(y), az = Math.abs(z);
+  let max: f64 = 0;
+  if (ax > max) max = ax;
+  if (ay > max) max = ay;
+  if (az > max) max = az;
+  if (max == Infinity) return Infinity;
+  if (isNaN<f64>(x) || isNaN<f64>(y) || isNaN<f64>(z)) return NaN;
+  if (max == 0) return 0;
+  let sum: f64 = 0, compensation: f64 = 0;
+  let n = ax / max;
+  let summand = n * n - compensation;
+  let preliminary = sum + summand;
+  compensation = preliminary - sum - summand;
+  sum = preliminary;
+  n = ay / max;
+  summand = n * n - compensation;
+  preliminary = sum + summand;
+  compensation = preliminary - sum - summand;
+  sum = preliminary;
+  n = az / max;
+  summand = n * n - compensation;
+  preliminary = sum + summand;
+  sum = preliminary;
+  return Math.sqrt(sum) * max;
+}
+
+/** One pair's harmonics (parameters at q) into Y, as harmonics.ts harmonicsAt computes them; r = 0: Y_00 only. */
+function harmonicsOne(q: usize, lmax: i32, LL: i32, a: usize, b: usize, diag: usize, y00: f64, Yp: usize): void {
+  const x = load<f64>(q), y = load<f64>(q, 8), z = load<f64>(q, 16), r = load<f64>(q, 24);
+  store<f64>(Yp, y00);
+  if (lmax == 0) return;
+  if (r == 0) {
+    for (let i = 1; i < LL; i++) store<f64>(Yp + (<usize>i << 3), 0);
+    return;
+  }
+  const ux = x / r, uy = y / r, uz = z / r;
+  let pmm = y00;
+  let cm: f64 = 1, sm: f64 = 0;
+  for (let m = 0; m <= lmax; m++) {
+    if (m > 0) {
+      pmm *= load<f64>(diag + (<usize>m << 3));
+      const c = cm * ux - sm * uy;
+      sm = cm * uy + sm * ux;
+      cm = c;
+    }
+    const scaleC: f64 = m == 0 ? 1 : Math.SQRT2 * cm;
+    const scaleS = Math.SQRT2 * sm;
+    let p2 = pmm;
+    putHarmonic(Yp, m, m, p2, scaleC, scaleS);
+    if (m == lmax) break;
+    let p1 = Math.sqrt(<f64>(2 * m + 3)) * uz * pmm;
+    putHarmonic(Yp, m + 1, m, p1, scaleC, scaleS);
+    for (let l = m + 2; l <= lmax; l++) {
+      const kk = <usize>((l * (l + 1)) / 2 + m) << 3;
+      const v = load<f64>(a + kk) * (uz * p1 - load<f64>(b + kk) * p2);
+      putHarmonic(Yp, l, m, v, scaleC, scaleS);
+      p2 = p1;
+      p1 = v;
     }
   }
 }
@@ -432,5 +649,61 @@ function putHarmonic(Y: usize, l: i32, m: i32, p: f64, scaleC: f64, scaleS: f64)
   } else {
     store<f64>(Y + (<usize>(centre + m) << 3), p * scaleC);
     store<f64>(Y + (<usize>(centre - m) << 3), p * scaleS);
+  }
+}
+
+/**
+ * harmonicsOne for two pairs at once (parameters at qa and qb, both r ≠ 0, lmax ≥ 1), one in each lane: every
+ * value by the same operations in the same order, so the same bits.
+ */
+function harmonicsTwo(qa: usize, qb: usize, lmax: i32, a: usize, b: usize, diag: usize, y00: f64, Ya: usize, Yb: usize): void {
+  const x = f64x2(load<f64>(qa), load<f64>(qb));
+  const y = f64x2(load<f64>(qa, 8), load<f64>(qb, 8));
+  const z = f64x2(load<f64>(qa, 16), load<f64>(qb, 16));
+  const r = f64x2(load<f64>(qa, 24), load<f64>(qb, 24));
+  store<f64>(Ya, y00);
+  store<f64>(Yb, y00);
+  const ux = f64x2.div(x, r), uy = f64x2.div(y, r), uz = f64x2.div(z, r);
+  const root2 = f64x2.splat(Math.SQRT2);
+  let pmm = f64x2.splat(y00);
+  let cm = f64x2.splat(1), sm = f64x2.splat(0);
+  for (let m = 0; m <= lmax; m++) {
+    if (m > 0) {
+      pmm = f64x2.mul(pmm, v128.load64_splat(diag + (<usize>m << 3)));
+      const c = f64x2.sub(f64x2.mul(cm, ux), f64x2.mul(sm, uy));
+      sm = f64x2.add(f64x2.mul(cm, uy), f64x2.mul(sm, ux));
+      cm = c;
+    }
+    const scaleC = f64x2.mul(root2, cm);
+    const scaleS = f64x2.mul(root2, sm);
+    let p2 = pmm;
+    putHarmonicTwo(Ya, Yb, m, m, p2, scaleC, scaleS);
+    if (m == lmax) break;
+    let p1 = f64x2.mul(f64x2.mul(f64x2.splat(Math.sqrt(<f64>(2 * m + 3))), uz), pmm);
+    putHarmonicTwo(Ya, Yb, m + 1, m, p1, scaleC, scaleS);
+    for (let l = m + 2; l <= lmax; l++) {
+      const kk = <usize>((l * (l + 1)) / 2 + m) << 3;
+      const v = f64x2.mul(v128.load64_splat(a + kk), f64x2.sub(f64x2.mul(uz, p1), f64x2.mul(v128.load64_splat(b + kk), p2)));
+      putHarmonicTwo(Ya, Yb, l, m, v, scaleC, scaleS);
+      p2 = p1;
+      p1 = v;
+    }
+  }
+}
+
+/** putHarmonic of lane 0 into Ya and lane 1 into Yb (m = 0: p itself, as scaleC = 1 there). */
+@inline
+function putHarmonicTwo(Ya: usize, Yb: usize, l: i32, m: i32, p: v128, scaleC: v128, scaleS: v128): void {
+  const centre = <usize>(l * l + l) << 3;
+  if (m == 0) {
+    v128.store64_lane(Ya + centre, p, 0);
+    v128.store64_lane(Yb + centre, p, 1);
+  } else {
+    const c = f64x2.mul(p, scaleC), s = f64x2.mul(p, scaleS);
+    const up = <usize>m << 3;
+    v128.store64_lane(Ya + centre + up, c, 0);
+    v128.store64_lane(Yb + centre + up, c, 1);
+    v128.store64_lane(Ya + centre - up, s, 0);
+    v128.store64_lane(Yb + centre - up, s, 1);
   }
 }
