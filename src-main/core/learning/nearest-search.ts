@@ -752,7 +752,14 @@ const PREPARE_SCRATCH = {};
  * kernel's memory cannot hold them.
  */
 function wasmPrepare(k: PredictKernels, reps: Float64Array, repSpecies: Int32Array, n0: number, maxBasis: number, steps: number): Map<number, SpeciesSearch> | null {
-  const layout = repsLayout(reps, n0, () => rowsBySpecies(repSpecies));
+  const bySpecies = rowsBySpecies(repSpecies);
+  const layout = repsLayout(reps, n0, () => bySpecies);
+  // the resident layout is kept per representatives array: it must group them as these species do
+  if (layout.species.size !== bySpecies.size) return null;
+  for (const [s, rows] of bySpecies) {
+    const held = layout.species.get(s)?.rows;
+    if (!held || held.length !== rows.length || held.some((r, i) => r !== rows[i])) return null;
+  }
   const limitOf = (m: number) => (m < MIN_ROWS_FOR_BASIS ? 0 : Math.min(maxBasis, n0, m));
   let bytes = 0;
   for (const { rows } of layout.species.values()) bytes = Math.max(bytes, prepareLayout(rows.length, n0, limitOf(rows.length)).bytes);

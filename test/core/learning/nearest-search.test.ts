@@ -162,6 +162,20 @@ describe('bounded nearest-representative search', () => {
       ),
       { numRuns: 60, seed: 7003, endOnFailure: true },
     );
+    // the same representatives grouped by other species (the kernel's resident layout is kept per array): still
+    // the JavaScript preparation's numbers
+    const shared = makeCase(makeRng(45), 17, 60, 2, true, 0.1, 0);
+    const regrouped = Int32Array.from(shared.species, (s, k) => (k % 5 === 0 ? 1 - s : s));
+    prepareNearestSearch(shared.reps, shared.species, 17);
+    setWebAssemblyKernels(false);
+    const want = prepareNearestSearch(shared.reps, regrouped, 17);
+    setWebAssemblyKernels(true);
+    const got = prepareNearestSearch(shared.reps, regrouped, 17);
+    for (const [s, a] of want.species) {
+      const b = got.species.get(s)!;
+      expect(Array.from(b.rows)).toEqual(Array.from(a.rows));
+      for (const key of ['mean', 'basis', 'coordsT', 'residual'] as const) expect(same(a[key], b[key])).toBe(true);
+    }
     // the size prediction uses: hundreds of rows per species, n0 not a multiple of four, the full basis
     const c = makeCase(makeRng(44), 303, 400, 2, true, 0.1, 3);
     setWebAssemblyKernels(false);
