@@ -527,24 +527,47 @@ const bytes16 = (n: number) => Math.ceil(n / 16) * 16;
 /** A set of representatives as the kernels hold it: each species' rows contiguous, in their original order. */
 interface RepsLayout {
   bytes: number;
+  n0: number;
   /** Per species: its rows (indices into the full array) and their byte offset in the region. */
   species: Map<number, { rows: Int32Array; offset: number }>;
+  /** The groupings (a species array, a prepared search) already found to group the rows as this layout does. */
+  checked: WeakSet<object>;
 }
 const repsLayouts = new WeakMap<Float64Array, RepsLayout>();
 
-/** The layout of representatives `reps` with species `rowsOf` (rows per species in their first-seen order). */
-function repsLayout(reps: Float64Array, n0: number, rowsOf: () => Map<number, Int32Array>): RepsLayout {
-  let l = repsLayouts.get(reps);
-  if (l) return l;
+/**
+ * The layout of representatives `reps` grouped by `source` (a species array or a prepared search; `rowsOf` gives its
+ * rows per species in their first-seen order). The layout, like the resident region it describes, is kept per
+ * array; null when `source` groups the same array otherwise (or with another row length) than the layout already
+ * held, and the caller takes the JavaScript path.
+ */
+function repsLayout(reps: Float64Array, n0: number, source: object, rowsOf: () => Map<number, Int32Array>): RepsLayout | null {
+  const held = repsLayouts.get(reps);
+  if (held) {
+    if (held.checked.has(source)) return held;
+    if (held.n0 !== n0 || !sameGrouping(held.species, rowsOf())) return null;
+    held.checked.add(source);
+    return held;
+  }
   const species = new Map<number, { rows: Int32Array; offset: number }>();
   let p = 0;
   for (const [s, rows] of rowsOf()) {
     species.set(s, { rows, offset: p });
     p += bytes16(8 * rows.length * n0);
   }
-  l = { bytes: p, species };
+  const l: RepsLayout = { bytes: p, n0, species, checked: new WeakSet([source]) };
   repsLayouts.set(reps, l);
   return l;
+}
+
+/** Whether `rows` holds the same species with the same rows in the same order as `held`. */
+function sameGrouping(held: RepsLayout['species'], rows: Map<number, Int32Array>): boolean {
+  if (held.size !== rows.size) return false;
+  for (const [s, r] of rows) {
+    const h = held.get(s)?.rows;
+    if (!h || h.length !== r.length || h.some((x, i) => x !== r[i])) return false;
+  }
+  return true;
 }
 
 /** The rows of each species of `repSpecies`, in order of first appearance (as prepareNearestSearch groups them). */
@@ -678,7 +701,8 @@ function wasmQueries(
 function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array, count: number, species: Int32Array, out: Float64Array, counter?: SearchCounter): boolean {
   const n0 = search.n0;
   const layout = searchLayout(search);
-  const reps = repsLayout(search.reps, n0, () => new Map([...search.species].map(([s, sp]) => [s, sp.rows])));
+  const reps = repsLayout(search.reps, n0, search, () => new Map([...search.species].map(([s, sp]) => [s, sp.rows])));
+  if (!reps) return false;
   // scratch record (5 addresses), bound, centred queries, coordinates, squared norms, statistics
   const bound = 32;
   const xc = bound + bytes16(8 * layout.maxRows);
@@ -724,7 +748,8 @@ function wasmScanAll(owner: { n0: number; species: Int32Array; p: Float64Array }
   const k = predictKernels();
   if (!k) return false;
   const n0 = owner.n0;
-  const reps = repsLayout(owner.p, n0, () => rowsBySpecies(owner.species));
+  const reps = repsLayout(owner.p, n0, owner.species, () => rowsBySpecies(owner.species));
+  if (!reps) return false;
   return wasmQueries(k, n0, a, count, species, out, reps.species, [repsRegion(owner.p, n0, reps)], 0, ([repsAt], _scr, s, rowsAt, idxAt, nq, outAt) => {
     const { rows, offset } = reps.species.get(s) as { rows: Int32Array; offset: number };
     k.scanSpecies(repsAt + offset, rows.length, n0, rowsAt, idxAt, nq, outAt);
@@ -753,13 +778,9 @@ const PREPARE_SCRATCH = {};
  */
 function wasmPrepare(k: PredictKernels, reps: Float64Array, repSpecies: Int32Array, n0: number, maxBasis: number, steps: number): Map<number, SpeciesSearch> | null {
   const bySpecies = rowsBySpecies(repSpecies);
-  const layout = repsLayout(reps, n0, () => bySpecies);
   // the resident layout is kept per representatives array: it must group them as these species do
-  if (layout.species.size !== bySpecies.size) return null;
-  for (const [s, rows] of bySpecies) {
-    const held = layout.species.get(s)?.rows;
-    if (!held || held.length !== rows.length || held.some((r, i) => r !== rows[i])) return null;
-  }
+  const layout = repsLayout(reps, n0, repSpecies, () => bySpecies);
+  if (!layout) return null;
   const limitOf = (m: number) => (m < MIN_ROWS_FOR_BASIS ? 0 : Math.min(maxBasis, n0, m));
   let bytes = 0;
   for (const { rows } of layout.species.values()) bytes = Math.max(bytes, prepareLayout(rows.length, n0, limitOf(rows.length)).bytes);

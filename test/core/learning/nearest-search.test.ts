@@ -132,6 +132,29 @@ describe('bounded nearest-representative search', () => {
     expect(Math.abs(counters[0].exact - counters[1].exact)).toBeLessThanOrEqual(0.01 * counters[1].exact);
   });
 
+  it('gives the plain scan’s numbers when the same representatives are grouped by other species (the kernels keep their layout per array)', () => {
+    // one array of representatives, first grouped by its species, then by a regrouping of them; the kernels hold
+    // the first grouping in their memory, so the second must take the JavaScript path and still be exact
+    const c = makeCase(makeRng(46), 19, 80, 2, true, 0.1, 0);
+    const regrouped = Int32Array.from(c.species, (s, k) => (k % 4 === 0 ? 1 - s : s));
+    const species = Int32Array.from({ length: c.queryCount }, (_, q) => q % 2);
+    const run = (grouping: Int32Array) => {
+      const search = prepareNearestSearch(c.reps, grouping, c.n0, { basis: 4 });
+      const searched = new Float64Array(c.queryCount).fill(-1);
+      searchNearestAll(search, c.queries, c.queryCount, species, searched);
+      const scanned = new Float64Array(c.queryCount).fill(-1);
+      nearestAllOf({ n0: c.n0, species: grouping, p: c.reps }, c.queries, c.queryCount, species, scanned);
+      for (let q = 0; q < c.queryCount; q++) {
+        const plain = nearestDistance(c.queries, q, c.reps, grouping, species[q], c.n0);
+        expect(searched[q]).toBe(plain);
+        expect(scanned[q]).toBe(plain);
+      }
+    };
+    run(c.species);
+    run(regrouped);
+    run(c.species);
+  });
+
   it('prepares the same search bit for bit through the WebAssembly kernel as in JavaScript (basis, coordinates, residual norms)', () => {
     const same = (x: Float64Array, y: Float64Array) => x.length === y.length && x.every((v, i) => Object.is(v, y[i]));
     fc.assert(
