@@ -2,8 +2,10 @@
 // that a run skips most of compiling the program (Node 20 keeps no code cache for modules, so bin/polarweave.mjs
 // would otherwise compile main.mjs and its chunks at every start). The cache is a file in the command's cache
 // folder (the folder of the radial tables, src-main/io/radial-table-store.ts):
-//   code-<first 24 hex digits of SHA-256(Node version, architecture, the script's text)>.v8 — the bytes
+//   code-<first 24 hex digits of SHA-256(Node version, architecture, the script's text)>[-<command>].v8 — the bytes
 //   createCachedData gave after a run (so they hold the functions that run compiled), then their 32-byte SHA-256.
+//   One per command (bin/polarweave.mjs names it): a cache made by `inspect` lacks what `predict` runs, and a
+//   cache V8 takes is never written again.
 // A cache only: a missing, damaged or refused cache (V8 checks its own version and flags too) costs one compile
 // and is written again after the run; any trouble reading or writing it is ignored. Written atomically
 // (temporary file, then rename); the newest few are kept. The same SHA-256 (all 64 digits) is the program's
@@ -15,8 +17,9 @@ import { homedir } from 'node:os';
 import { dirname, join } from 'node:path';
 import { Script } from 'node:vm';
 
-/** Code caches kept in the folder (one per build of the command and Node version). */
-const KEEP = 4;
+/** Code caches kept in the folder (one per build of the command, Node version and command, and per worker script). */
+const KEEP = 12;
+const CACHE_NAME = /^code-[0-9a-f]{24}(-[a-z]+)?\.v8$/;
 
 /**
  * The command's cache folder. The same rule as cacheFolder() of src-main/io/radial-table-store.ts, which the
@@ -48,7 +51,7 @@ function writeCache(file, data) {
     writeFileSync(temporary, Buffer.concat([data, sha256(data)]));
     renameSync(temporary, file);
     const caches = readdirSync(folder)
-      .filter((f) => /^code-[0-9a-f]{24}\.v8$/.test(f))
+      .filter((f) => CACHE_NAME.test(f))
       .map((f) => ({ f, t: statSync(join(folder, f)).mtimeMs }))
       .sort((a, b) => b.t - a.t);
     for (const { f } of caches.slice(KEEP)) rmSync(join(folder, f), { force: true });
@@ -58,11 +61,12 @@ function writeCache(file, data) {
 }
 
 /**
- * The exports of the script at `file` (a CommonJS bundle), compiled with the code cache; `afterRun()` stores a
- * new cache when there was none or V8 refused it. Null when the script cannot be read or run: the caller then
- * loads the program its usual way (nothing of the script has run but its definitions).
+ * The exports of the script at `file` (a CommonJS bundle), compiled with the code cache (of the command `use`, a
+ * lower-case word, when given); `afterRun()` stores a new cache when there was none or V8 refused it. Null when the
+ * script cannot be read or run: the caller then loads the program its usual way (nothing of the script has run
+ * but its definitions).
  */
-export function loadProgram(file, env = process.env) {
+export function loadProgram(file, env = process.env, use = '') {
   let source;
   try {
     source = readFileSync(file, 'utf8');
@@ -70,7 +74,7 @@ export function loadProgram(file, env = process.env) {
     return null;
   }
   const identity = createHash('sha256').update(`${process.version}\n${process.arch}\n`).update(source).digest('hex');
-  const cacheFile = join(cacheFolder(env), `code-${identity.slice(0, 24)}.v8`);
+  const cacheFile = join(cacheFolder(env), `code-${identity.slice(0, 24)}${typeof use === 'string' && /^[a-z]{1,20}$/.test(use) ? `-${use}` : ''}.v8`);
   const cachedData = readCache(cacheFile);
   const module = { exports: {} };
   let script;

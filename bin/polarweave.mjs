@@ -44,7 +44,7 @@ function printStoredHelp(dir, argv) {
 const bundle = process.env.POLARWEAVE_FROM_SOURCE ? null : freshBundle();
 if (!(bundle && printStoredHelp(new URL('.', bundle), process.argv.slice(2)))) {
   // imported here, not above: `--help` needs none of it
-  const script = bundle && !process.env.POLARWEAVE_NO_CODE_CACHE ? (await import('./load-program.mjs')).loadProgram(fileURLToPath(new URL('main.cjs', bundle))) : null;
+  const script = bundle && !process.env.POLARWEAVE_NO_CODE_CACHE ? (await import('./load-program.mjs')).loadProgram(fileURLToPath(new URL('main.cjs', bundle)), process.env, process.argv[2]) : null;
   const { main } = script ? script.exports : bundle ? await import(bundle.href) : await (await import('tsx/esm/api')).tsImport('../src-main/cli/main.ts', import.meta.url);
   await main();
   script?.afterRun();

@@ -98,7 +98,7 @@ describe('the pre-built program compiled with a code cache (bin/load-program.mjs
   const env = { ...process.env, POLARWEAVE_FROM_SOURCE: '', POLARWEAVE_CACHE_DIR: cache };
   const predict = (out: string, more: Record<string, string> = {}) =>
     execFileSync(process.execPath, [join(root, 'bin', 'polarweave.mjs'), 'predict', MODEL, DATA, '--frames', '0:2', '-o', out], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'], env: { ...env, ...more } });
-  const caches = () => readdirSync(cache).filter((f) => /^code-[0-9a-f]{24}\.v8$/.test(f));
+  const caches = () => readdirSync(cache).filter((f) => /^code-[0-9a-f]{24}(-[a-z]+)?\.v8$/.test(f));
 
   it('keeps its cache in the command’s cache folder, and predicts the same bytes with and without it', async () => {
     const { cacheFolder: binFolder } = (await import(pathToFileURL(join(process.cwd(), 'bin', 'load-program.mjs')).href)) as { cacheFolder: (env: NodeJS.ProcessEnv) => string };
@@ -129,6 +129,12 @@ describe('the pre-built program compiled with a code cache (bin/load-program.mjs
     expect(readFileSync(join(cache, file)).equals(stored)).toBe(false);
     expect(readFileSync(join(cache, file)).equals(damaged)).toBe(false);
     for (const out of [...outs, third]) expect(readFileSync(out, 'utf8')).toBe(readFileSync(plain, 'utf8'));
+    // one cache per command: another command's run leaves the predict cache as it was and stores its own
+    expect(file).toMatch(/-predict\.v8$/);
+    const before = readFileSync(join(cache, file));
+    execFileSync(process.execPath, [join(root, 'bin', 'polarweave.mjs'), 'inspect', DATA], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'], env });
+    expect(caches().filter((f) => f.endsWith('-inspect.v8'))).toEqual([file.replace(/-predict\.v8$/, '-inspect.v8')]);
+    expect(readFileSync(join(cache, file)).equals(before)).toBe(true);
   }, 120_000);
 
   it('compiles the predict worker with a code cache of its own, stored after its first batch; damaged, it is written anew', () => {

@@ -60,7 +60,7 @@ import { fromIrreducible, tensorFromValues, toIrreducible } from '../dielectric/
 import { checkTensorKind } from './kind-check.ts';
 import { compositionNote } from './contributions.ts';
 import { FREE_ATOM_POLARISABILITY_A3, splitShift, splitValues } from './species-split.ts';
-import { computeReadout, makeWeightMatrices, weightMatricesLength, type TensorReadout } from './tensor-readout.ts';
+import { computeReadout, makeWeightMatrices, weightMatricesLength, type ReadoutResult, type TensorReadout } from './tensor-readout.ts';
 import { cellVolume } from '../geometry/cell.ts';
 import { propagateErrorBars } from '../dielectric/clausius-mossotti.ts';
 import { checkDomain, DomainStatsBuilder, type DomainStats } from './domain.ts';
@@ -989,16 +989,20 @@ export function modelPredictor(model: Model): Predictor {
     const W = new Float64Array(weightMatricesLength(fs, order));
     readout = { lambda: order, matrices: (e, s, scalar) => toMatrices(kernelWeights(k, scalar, e, s, u), 0, W) };
   }
-  // the previous frame's neighbour list, written over by the next (nothing keeps it past its prediction)
+  // the previous frame's neighbour list, features and read-out values, written over by the next frame (nothing of
+  // them is kept in a prediction: predictFromParts copies what it returns)
+  let last: ReadoutResult | undefined;
   let spare: NeighbourList | undefined;
   return (frame, index) => {
     checkFrameSpecies(model, frame, index);
     const pairs = neighbourList(frame, fs.cutoff, { reuse: spare });
     spare = undefined;
-    const r = computeReadout(frame, fs, readout, pairs);
-    const out = predictFromParts(model, frame, r.features, { order, values: r.values }, pairs);
+    const r = computeReadout(frame, fs, readout, pairs, undefined, last);
+    last = undefined;
+    const prediction = predictFromParts(model, frame, r.features, { order, values: r.values }, pairs);
+    last = r;
     spare = pairs;
-    return out;
+    return prediction;
   };
 }
 

@@ -70,10 +70,22 @@ export function kernelModule(name: string, base64: string): KernelModule | null 
   return m;
 }
 
+/**
+ * The bytes of a module's base64 text. A plain loop: Uint8Array.from(text, callback) called the callback per
+ * character through the string's iterator, 4–20 ms per module in a fresh process (the code not yet compiled),
+ * against 0.5–1 ms; compiling the module then takes 0.5–2.5 ms.
+ */
+function bytesOf(base64: string): Uint8Array<ArrayBuffer> {
+  const text = atob(base64);
+  const bytes = new Uint8Array(text.length);
+  for (let i = 0; i < text.length; i++) bytes[i] = text.charCodeAt(i);
+  return bytes;
+}
+
 function instantiate(base64: string): KernelModule | null {
   if (typeof WebAssembly !== 'object') return null;
   try {
-    const bytes = Uint8Array.from(atob(base64), (c) => c.charCodeAt(0));
+    const bytes = bytesOf(base64);
     const instance = new WebAssembly.Instance(new WebAssembly.Module(bytes), {});
     return new KernelModule(instance);
   } catch {
