@@ -170,36 +170,31 @@ export function normalise(x: usize, len: i32): f64 {
 /**
  * normalise for `count` blocks of `len` doubles, block j at x + j·stride bytes: sq[j] = Σ_i x_j[i]² summed in index
  * order from zero (the very sum of normalise), then block j scaled by 1/√sq[j] unless that is zero or not finite.
- * The sums of up to eight blocks run side by side (two per vector, four vectors): each is still one sum in its
- * order, but the eight do not wait on each other, where one block's sum alone is a chain of dependent additions.
+ * The sums of four blocks run side by side (two per vector, two vectors): each is still one sum in its order, but
+ * the four do not wait on each other, where one block's sum alone is a chain of dependent additions.
  */
 export function normaliseMany(x: usize, len: i32, count: i32, stride: usize, sq: usize): void {
-  for (let j0 = 0; j0 < count; j0 += 8) {
-    // blocks j0 … j0 + 7; past the last one, repeats of block j0 (their sums are not kept)
-    const b0 = x + <usize>j0 * stride;
-    const p0 = b0, p1 = j0 + 1 < count ? b0 + stride : b0;
-    const p2 = j0 + 2 < count ? b0 + 2 * stride : b0, p3 = j0 + 3 < count ? b0 + 3 * stride : b0;
-    const p4 = j0 + 4 < count ? b0 + 4 * stride : b0, p5 = j0 + 5 < count ? b0 + 5 * stride : b0;
-    const p6 = j0 + 6 < count ? b0 + 6 * stride : b0, p7 = j0 + 7 < count ? b0 + 7 * stride : b0;
-    let s0 = f64x2.splat(0), s1 = f64x2.splat(0), s2 = f64x2.splat(0), s3 = f64x2.splat(0);
-    for (let i = 0; i < len; i++) {
-      const o = <usize>i << 3;
+  const bytes = <usize>len << 3;
+  for (let j0 = 0; j0 < count; j0 += 4) {
+    // blocks j0 … j0 + 3; past the last one, repeats of block j0 (their sums are not kept)
+    const p0 = x + <usize>j0 * stride;
+    const p1 = j0 + 1 < count ? p0 + stride : p0;
+    const p2 = j0 + 2 < count ? p0 + 2 * stride : p0;
+    const p3 = j0 + 3 < count ? p0 + 3 * stride : p0;
+    let s0 = f64x2.splat(0), s1 = f64x2.splat(0);
+    for (let o: usize = 0; o < bytes; o += 8) {
       const v0 = v128.load64_lane(p1 + o, v128.load64_zero(p0 + o), 1);
       const v1 = v128.load64_lane(p3 + o, v128.load64_zero(p2 + o), 1);
-      const v2 = v128.load64_lane(p5 + o, v128.load64_zero(p4 + o), 1);
-      const v3 = v128.load64_lane(p7 + o, v128.load64_zero(p6 + o), 1);
       s0 = f64x2.add(s0, f64x2.mul(v0, v0));
       s1 = f64x2.add(s1, f64x2.mul(v1, v1));
-      s2 = f64x2.add(s2, f64x2.mul(v2, v2));
-      s3 = f64x2.add(s3, f64x2.mul(v3, v3));
     }
-    const last = min(8, count - j0);
+    const last = min(4, count - j0);
     for (let j = 0; j < last; j++) {
-      const v = j < 2 ? s0 : j < 4 ? s1 : j < 6 ? s2 : s3;
+      const v = j < 2 ? s0 : s1;
       const s = (j & 1) == 0 ? f64x2.extract_lane(v, 0) : f64x2.extract_lane(v, 1);
       store<f64>(sq + (<usize>(j0 + j) << 3), s);
       if (s == 0 || !isFinite<f64>(s)) continue;
-      scale(b0 + <usize>j * stride, len, 1 / Math.sqrt(s));
+      scale(p0 + <usize>j * stride, len, 1 / Math.sqrt(s));
     }
   }
 }
