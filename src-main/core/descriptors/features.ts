@@ -542,7 +542,7 @@ function kernelLayout(P: Plan): KernelLayout | null {
   const nch = P.settings.species.length * P.settings.nmax;
   const cTBlock = take(P.tch * (lmaxT + 1) * (lmaxT + 1) * 8);
   const cTLength = P.tch * (lmaxT + 1) * (lmaxT + 1);
-  const half = take(P.half.length * 8);
+  const half = take(4 * P.half.length * 8); // four channels' half-couplings (gatherFour)
   const cAt = take(P.expander.size * 8);
   const tensorBase = take(P.tch * 4);
   const allBase = take(nch * 4);

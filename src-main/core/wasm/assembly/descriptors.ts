@@ -30,16 +30,127 @@ function gather(cT: usize, tch: i32, ch: i32, targets: i32, gStart: usize, gIdx:
 }
 
 /**
- * out[μ·n + j·stride] = weight_j · Σ_{m < w} half[μ·w + m] · cT[m·tch + p0 + j] for j < count and μ < nM, each sum
- * from zero in m order; weight_0 = wFirst, the others wRest.
+ * gather for channels ch and ch + 1 at once (they sit side by side in cT): half[2t] for ch, half[2t + 1] for
+ * ch + 1, each sum as in gather.
  */
 @inline
-function contract(half: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, count: i32, out: usize, n: i32, stride: i32, wFirst: f64, wRest: f64): void {
+function gatherTwo(cT: usize, tch: i32, ch: i32, targets: i32, gStart: usize, gIdx: usize, gVal: usize, half: usize): void {
+  for (let t = 0; t < targets; t++) {
+    let h = f64x2.splat(0);
+    const k1 = load<i32>(gStart + ((<usize>t + 1) << 2));
+    for (let k = load<i32>(gStart + (<usize>t << 2)); k < k1; k++) {
+      const at = <usize>(load<i32>(gIdx + (<usize>k << 2)) * tch + ch);
+      h = f64x2.add(h, f64x2.mul(v128.load64_splat(gVal + (<usize>k << 3)), v128.load(cT + (at << 3))));
+    }
+    v128.store(half + (<usize>t << 4), h);
+  }
+}
+
+/** gather for channels ch … ch + 3 at once: half[4t + i] for ch + i (two vectors, two chains per target). */
+@inline
+function gatherFour(cT: usize, tch: i32, ch: i32, targets: i32, gStart: usize, gIdx: usize, gVal: usize, half: usize): void {
+  for (let t = 0; t < targets; t++) {
+    let h0 = f64x2.splat(0), h1 = f64x2.splat(0);
+    const k1 = load<i32>(gStart + ((<usize>t + 1) << 2));
+    for (let k = load<i32>(gStart + (<usize>t << 2)); k < k1; k++) {
+      const at = cT + (<usize>(load<i32>(gIdx + (<usize>k << 2)) * tch + ch) << 3);
+      const g = v128.load64_splat(gVal + (<usize>k << 3));
+      h0 = f64x2.add(h0, f64x2.mul(g, v128.load(at)));
+      h1 = f64x2.add(h1, f64x2.mul(g, v128.load(at, 16)));
+    }
+    v128.store(half + (<usize>t << 5), h0);
+    v128.store(half + (<usize>t << 5), h1, 16);
+  }
+}
+
+/**
+ * out[μ·n + j·stride] = weight_j · Σ_{m < w} half[μ·w + m] · cT[m·tch + p0 + j] for j < count and μ < nM, each sum
+ * from zero in m order; weight_0 = wFirst, the others wRest. hs: bytes from one half entry to the next (8, or 16
+ * when two channels' halves are interleaved by gatherTwo).
+ */
+@inline
+function contract(half: usize, hs: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, count: i32, out: usize, n: i32, stride: i32, wFirst: f64, wRest: f64): void {
+  if (nM == 5) contractFive(half, hs, w, cT, tch, p0, count, out, n, stride, wFirst, wRest);
+  else contractAny(half, hs, nM, w, cT, tch, p0, count, out, n, stride, wFirst, wRest);
+}
+
+/** out[μ·n + j·stride] = weight_j · result: two partners j, j + 1 in the lanes of r (or one when single). */
+@inline
+function putPartners(o: usize, step: usize, stride: i32, j: i32, r: v128, wFirst: f64, rest: v128): void {
+  let x = f64x2.mul(rest, r);
+  if (j == 0) x = f64x2.replace_lane(x, 0, wFirst * f64x2.extract_lane(r, 0));
+  if (stride == 1) {
+    v128.store(o + (<usize>j << 3), x);
+  } else {
+    const at = o + <usize>j * step;
+    v128.store64_lane(at, x, 0);
+    v128.store64_lane(at + step, x, 1);
+  }
+}
+
+/**
+ * contract for λ = 2 (five μ): two partners per vector and all five μ in one pass over m, so that five sums run
+ * side by side whatever the number of partners (eight partners of one μ at a time left the last partners of a
+ * channel, up to seven, to one or two chains of dependent additions). Every sum as in contractAny.
+ */
+function contractFive(half: usize, hs: usize, w: i32, cT: usize, tch: i32, p0: i32, count: i32, out: usize, n: i32, stride: i32, wFirst: f64, wRest: f64): void {
+  const rowBytes = <usize>tch << 3;
+  const rest = f64x2.splat(wRest);
+  const step = <usize>stride << 3;
+  const hw = <usize>w * hs;
+  const nb = <usize>n << 3;
+  let j = 0;
+  for (; j + 1 < count; j += 2) {
+    let s0 = f64x2.splat(0), s1 = f64x2.splat(0), s2 = f64x2.splat(0), s3 = f64x2.splat(0), s4 = f64x2.splat(0);
+    let col = cT + (<usize>(p0 + j) << 3);
+    let h = half;
+    for (let m = 0; m < w; m++) {
+      const c = v128.load(col);
+      s0 = f64x2.add(s0, f64x2.mul(v128.load64_splat(h), c));
+      s1 = f64x2.add(s1, f64x2.mul(v128.load64_splat(h + hw), c));
+      s2 = f64x2.add(s2, f64x2.mul(v128.load64_splat(h + 2 * hw), c));
+      s3 = f64x2.add(s3, f64x2.mul(v128.load64_splat(h + 3 * hw), c));
+      s4 = f64x2.add(s4, f64x2.mul(v128.load64_splat(h + 4 * hw), c));
+      col += rowBytes;
+      h += hs;
+    }
+    putPartners(out, step, stride, j, s0, wFirst, rest);
+    putPartners(out + nb, step, stride, j, s1, wFirst, rest);
+    putPartners(out + 2 * nb, step, stride, j, s2, wFirst, rest);
+    putPartners(out + 3 * nb, step, stride, j, s3, wFirst, rest);
+    putPartners(out + 4 * nb, step, stride, j, s4, wFirst, rest);
+  }
+  if (j < count) {
+    let s0: f64 = 0, s1: f64 = 0, s2: f64 = 0, s3: f64 = 0, s4: f64 = 0;
+    let col = cT + (<usize>(p0 + j) << 3);
+    let h = half;
+    for (let m = 0; m < w; m++) {
+      const c = load<f64>(col);
+      s0 += load<f64>(h) * c;
+      s1 += load<f64>(h + hw) * c;
+      s2 += load<f64>(h + 2 * hw) * c;
+      s3 += load<f64>(h + 3 * hw) * c;
+      s4 += load<f64>(h + 4 * hw) * c;
+      col += rowBytes;
+      h += hs;
+    }
+    const wj = j == 0 ? wFirst : wRest;
+    const o = out + <usize>j * step;
+    store<f64>(o, wj * s0);
+    store<f64>(o + nb, wj * s1);
+    store<f64>(o + 2 * nb, wj * s2);
+    store<f64>(o + 3 * nb, wj * s3);
+    store<f64>(o + 4 * nb, wj * s4);
+  }
+}
+
+/** contract for any number of μ: eight partners of one μ per pass over m, then two, then one. */
+function contractAny(half: usize, hs: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, count: i32, out: usize, n: i32, stride: i32, wFirst: f64, wRest: f64): void {
   const rowBytes = <usize>tch << 3;
   const rest = f64x2.splat(wRest);
   const step = <usize>stride << 3;
   for (let mu = 0; mu < nM; mu++) {
-    const hb = half + (<usize>(mu * w) << 3);
+    const hb = half + <usize>(mu * w) * hs;
     const ob = out + (<usize>(mu * n) << 3);
     let j = 0;
     for (; j + 7 < count; j += 8) {
@@ -49,7 +160,7 @@ function contract(half: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, co
       let s3 = f64x2.splat(0);
       let col = cT + (<usize>(p0 + j) << 3);
       for (let m = 0; m < w; m++) {
-        const h = v128.load64_splat(hb + (<usize>m << 3));
+        const h = v128.load64_splat(hb + <usize>m * hs);
         s0 = f64x2.add(s0, f64x2.mul(h, v128.load(col)));
         s1 = f64x2.add(s1, f64x2.mul(h, v128.load(col, 16)));
         s2 = f64x2.add(s2, f64x2.mul(h, v128.load(col, 32)));
@@ -90,7 +201,7 @@ function contract(half: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, co
       let s0 = f64x2.splat(0);
       let col = cT + (<usize>(p0 + j) << 3);
       for (let m = 0; m < w; m++) {
-        s0 = f64x2.add(s0, f64x2.mul(v128.load64_splat(hb + (<usize>m << 3)), v128.load(col)));
+        s0 = f64x2.add(s0, f64x2.mul(v128.load64_splat(hb + <usize>m * hs), v128.load(col)));
         col += rowBytes;
       }
       let r0 = f64x2.mul(rest, s0);
@@ -107,7 +218,7 @@ function contract(half: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, co
       let s: f64 = 0;
       let col = cT + (<usize>(p0 + j) << 3);
       for (let m = 0; m < w; m++) {
-        s += load<f64>(hb + (<usize>m << 3)) * load<f64>(col);
+        s += load<f64>(hb + <usize>m * hs) * load<f64>(col);
         col += rowBytes;
       }
       store<f64>(ob + <usize>j * step, (j == 0 ? wFirst : wRest) * s);
@@ -118,15 +229,32 @@ function contract(half: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, co
 /**
  * A block (l, l) of one environment: for each first channel c1 the half-coupling over its degree-l coefficients,
  * then the partners c2 = c1 … tch−1 (weight 1 for c2 = c1, √2 otherwise) into out[μ·n + f], f running on from
- * the block's first feature. cT: the degree-l coefficients transposed; w = 2l + 1.
+ * the block's first feature. cT: the degree-l coefficients transposed; w = 2l + 1; half: scratch of 4·nM·w
+ * doubles (four channels' half-couplings at a time).
  */
 export function coupleSame(cT: usize, tch: i32, w: i32, nM: i32, gStart: usize, gIdx: usize, gVal: usize, half: usize, out: usize, n: i32): void {
   const targets = nM * w;
   let f = out;
-  for (let c1 = 0; c1 < tch; c1++) {
-    gather(cT, tch, c1, targets, gStart, gIdx, gVal, half);
-    contract(half, nM, w, cT, tch, c1, tch - c1, f, n, 1, 1.0, Math.SQRT2);
+  let c1 = 0;
+  for (; c1 + 3 < tch; c1 += 4) {
+    // the half-couplings of c1 … c1 + 3 together (half: 4·targets doubles), then each one's partners
+    gatherFour(cT, tch, c1, targets, gStart, gIdx, gVal, half);
+    for (let i = 0; i < 4; i++) {
+      contract(half + (<usize>i << 3), 32, nM, w, cT, tch, c1 + i, tch - c1 - i, f, n, 1, 1.0, Math.SQRT2);
+      f += <usize>(tch - c1 - i) << 3;
+    }
+  }
+  for (; c1 + 1 < tch; c1 += 2) {
+    // the half-couplings of c1 and c1 + 1 together (half: 2·targets doubles), then each one's partners
+    gatherTwo(cT, tch, c1, targets, gStart, gIdx, gVal, half);
+    contract(half, 16, nM, w, cT, tch, c1, tch - c1, f, n, 1, 1.0, Math.SQRT2);
     f += <usize>(tch - c1) << 3;
+    contract(half + 8, 16, nM, w, cT, tch, c1 + 1, tch - c1 - 1, f, n, 1, 1.0, Math.SQRT2);
+    f += <usize>(tch - c1 - 1) << 3;
+  }
+  if (c1 < tch) {
+    gather(cT, tch, c1, targets, gStart, gIdx, gVal, half);
+    contract(half, 8, nM, w, cT, tch, c1, tch - c1, f, n, 1, 1.0, Math.SQRT2);
   }
 }
 
@@ -136,9 +264,19 @@ export function coupleSame(cT: usize, tch: i32, w: i32, nM: i32, gStart: usize, 
  */
 export function coupleCross(cT: usize, cT2: usize, tch: i32, w: i32, nM: i32, gStart: usize, gIdx: usize, gVal: usize, half: usize, out: usize, n: i32): void {
   const targets = nM * w;
-  for (let c2 = 0; c2 < tch; c2++) {
+  let c2 = 0;
+  for (; c2 + 3 < tch; c2 += 4) {
+    gatherFour(cT2, tch, c2, targets, gStart, gIdx, gVal, half);
+    for (let i = 0; i < 4; i++) contract(half + (<usize>i << 3), 32, nM, w, cT, tch, 0, tch, out + (<usize>(c2 + i) << 3), n, tch, Math.SQRT2, Math.SQRT2);
+  }
+  for (; c2 + 1 < tch; c2 += 2) {
+    gatherTwo(cT2, tch, c2, targets, gStart, gIdx, gVal, half);
+    contract(half, 16, nM, w, cT, tch, 0, tch, out + (<usize>c2 << 3), n, tch, Math.SQRT2, Math.SQRT2);
+    contract(half + 8, 16, nM, w, cT, tch, 0, tch, out + (<usize>(c2 + 1) << 3), n, tch, Math.SQRT2, Math.SQRT2);
+  }
+  if (c2 < tch) {
     gather(cT2, tch, c2, targets, gStart, gIdx, gVal, half);
-    contract(half, nM, w, cT, tch, 0, tch, out + (<usize>c2 << 3), n, tch, Math.SQRT2, Math.SQRT2);
+    contract(half, 8, nM, w, cT, tch, 0, tch, out + (<usize>c2 << 3), n, tch, Math.SQRT2, Math.SQRT2);
   }
 }
 
