@@ -42,6 +42,35 @@ describe('descriptor kernels: hypot3', () => {
     expect(cases.some(([x, y, z]) => !Object.is(Math.sqrt(x * x + y * y + z * z), Math.hypot(x, y, z)))).toBe(true);
   });
 
+  it('pairTerms writes each pair the length Math.hypot gives, two pairs per vector and the odd last one alone (zero vectors included)', () => {
+    const K = descriptorKernels()!;
+    const rng = makeRng(47);
+    const count = 20_001;
+    const owner = {};
+    // par (8 doubles per pair), Y and R (2 per pair), a one-interval radial table of zeros, chan, order, chanStart
+    const doubles = count * 8 + count * 2 + count * 2 + 8 + count + 8;
+    const r = K.region(owner, doubles * 8 + 64)!;
+    const parAt = r.at, yAt = parAt + count * 64, rAt = yAt + count * 16, coefAt = rAt + count * 16, chanAt = coefAt + 64, orderAt = chanAt + count * 4, startAt = orderAt + count * 4;
+    const par = K.module.f64(parAt, count * 8);
+    const want = new Float64Array(count);
+    for (let p = 0; p < count; p++) {
+      const scale = p % 3 === 0 ? 4.5 : 10 ** (rng.uniform() * 600 - 300);
+      const v = [rng.normal() * scale, rng.normal() * scale, rng.normal() * scale];
+      if (p % 7 === 1) v[p % 3] = 0;
+      if (p % 11 === 2) v[(p + 1) % 3] = v[p % 3];
+      if (p % 97 === 5) v.fill(p % 2 ? 0 : -0);
+      par.set([v[0], v[1], v[2], NaN, 1, 0, 0, 0], 8 * p);
+      want[p] = Math.hypot(v[0], v[1], v[2]);
+    }
+    K.module.f64(coefAt, 8).fill(0);
+    new Int32Array(K.module.f64(0, 0).buffer, chanAt, count).fill(0);
+    K.pairTerms(parAt, chanAt, count, 1, 0, 2, coefAt, coefAt, coefAt, 0.25, coefAt, yAt, rAt, orderAt, startAt);
+    const got = K.module.f64(parAt, count * 8);
+    let first = '';
+    for (let p = 0; p < count && first === ''; p++) if (!Object.is(got[8 * p + 3], want[p])) first = `pair ${p}: kernel ${got[8 * p + 3]}, Math.hypot ${want[p]}`;
+    expect(first).toBe('');
+  });
+
   it('keeps Math.hypot\'s answers for the non-finite: ∞ wins over NaN, NaN otherwise', () => {
     const K = descriptorKernels()!;
     for (const [x, y, z] of [[Infinity, NaN, 1], [NaN, 1, 2], [1, -Infinity, 0], [NaN, NaN, NaN], [0, 0, NaN]]) {

@@ -665,8 +665,12 @@ export function pairTerms(par: usize, chan: usize, count: i32, channels: i32, lm
   for (let c = channels; c > 0; c--) store<i32>(chanStart + (<usize>c << 2), load<i32>(chanStart + (<usize>(c - 1) << 2)));
   store<i32>(chanStart, 0);
   const valid = load<i32>(chanStart + (<usize>channels << 2));
-  for (let q = 0; q < valid; q++) {
-    const pp = par + (<usize>load<i32>(order + (<usize>q << 2)) << 6);
+  let h = 0;
+  for (; h + 1 < valid; h += 2) {
+    hypotTwo(par + (<usize>load<i32>(order + (<usize>h << 2)) << 6), par + (<usize>load<i32>(order + (<usize>(h + 1) << 2)) << 6));
+  }
+  if (h < valid) {
+    const pp = par + (<usize>load<i32>(order + (<usize>h << 2)) << 6);
     store<f64>(pp, hypot3(load<f64>(pp), load<f64>(pp, 8), load<f64>(pp, 16)), 24);
   }
 
@@ -736,6 +740,36 @@ export function hypot3(x: f64, y: f64, z: f64): f64 {
   preliminary = sum + summand;
   sum = preliminary;
   return Math.sqrt(sum) * max;
+}
+
+/**
+ * hypot3 of two pairs' vectors (parameters at pa and pb, finite: the caller checks) into their r, one pair per
+ * lane: the largest magnitude is the same number as hypot3's running maximum (no NaN among them), and the rest
+ * are its operations; a zero vector gets 0, as there.
+ */
+@inline
+function hypotTwo(pa: usize, pb: usize): void {
+  const ax = f64x2.abs(f64x2(load<f64>(pa), load<f64>(pb)));
+  const ay = f64x2.abs(f64x2(load<f64>(pa, 8), load<f64>(pb, 8)));
+  const az = f64x2.abs(f64x2(load<f64>(pa, 16), load<f64>(pb, 16)));
+  const max = f64x2.max(f64x2.max(ax, ay), az);
+  let sum = f64x2.splat(0), compensation = f64x2.splat(0);
+  let n = f64x2.div(ax, max);
+  let summand = f64x2.sub(f64x2.mul(n, n), compensation);
+  let preliminary = f64x2.add(sum, summand);
+  compensation = f64x2.sub(f64x2.sub(preliminary, sum), summand);
+  sum = preliminary;
+  n = f64x2.div(ay, max);
+  summand = f64x2.sub(f64x2.mul(n, n), compensation);
+  preliminary = f64x2.add(sum, summand);
+  compensation = f64x2.sub(f64x2.sub(preliminary, sum), summand);
+  sum = preliminary;
+  n = f64x2.div(az, max);
+  summand = f64x2.sub(f64x2.mul(n, n), compensation);
+  sum = f64x2.add(sum, summand);
+  const r = v128.bitselect(f64x2.splat(0), f64x2.mul(f64x2.sqrt(sum), max), f64x2.eq(max, f64x2.splat(0)));
+  v128.store64_lane(pa + 24, r, 0);
+  v128.store64_lane(pb + 24, r, 1);
 }
 
 /** One pair's harmonics (parameters at q) into Y, as harmonics.ts harmonicsAt computes them; r = 0: Y_00 only. */
