@@ -291,17 +291,7 @@ export function normalise(x: usize, len: i32): f64 {
     s += v * v;
   }
   if (s == 0 || !isFinite<f64>(s)) return s;
-  const inv = 1 / Math.sqrt(s);
-  const vinv = f64x2.splat(inv);
-  let i = 0;
-  for (; i + 1 < len; i += 2) {
-    const at = x + (<usize>i << 3);
-    v128.store(at, f64x2.mul(v128.load(at), vinv));
-  }
-  if (i < len) {
-    const at = x + (<usize>i << 3);
-    store<f64>(at, load<f64>(at) * inv);
-  }
+  scale(x, len, 1 / Math.sqrt(s));
   return s;
 }
 
