@@ -390,6 +390,19 @@ function putPair(o: usize, step: usize, v: v128): void {
   v128.store64_lane(o + step, v, 1);
 }
 
+/** Eight sums of one harmonic (radial functions n … n + 7, two per vector) to out (from o, step apart) and to cT (from tn, side by side). */
+@inline
+function putEight(o: usize, step: usize, tn: usize, a0: v128, a1: v128, a2: v128, a3: v128): void {
+  putPair(o, step, a0);
+  putPair(o + 2 * step, step, a1);
+  putPair(o + 4 * step, step, a2);
+  putPair(o + 6 * step, step, a3);
+  v128.store(tn, a0);
+  v128.store(tn, a1, 16);
+  v128.store(tn, a2, 32);
+  v128.store(tn, a3, 48);
+}
+
 /**
  * o[n·step] = Σ_q y[q·yStep] r[q·rStep + n] and o[8 + n·step] = Σ_q y[8 + q·yStep] r[q·rStep + n] for n < nmax, over
  * q < np in order, each from zero: two harmonics (lm, lm + 1) of one degree against its radial integrals.
@@ -417,23 +430,9 @@ function sumTwo(y: usize, yStep: usize, r: usize, rStep: usize, np: i32, nmax: i
       rq += rStep;
     }
     const on = o + <usize>n * step;
-    putPair(on, step, a0);
-    putPair(on + 2 * step, step, a1);
-    putPair(on + 4 * step, step, a2);
-    putPair(on + 6 * step, step, a3);
-    putPair(on + 8, step, b0);
-    putPair(on + 8 + 2 * step, step, b1);
-    putPair(on + 8 + 4 * step, step, b2);
-    putPair(on + 8 + 6 * step, step, b3);
     const tn = t + (<usize>n << 3);
-    v128.store(tn, a0);
-    v128.store(tn, a1, 16);
-    v128.store(tn, a2, 32);
-    v128.store(tn, a3, 48);
-    v128.store(tn + tStep, b0);
-    v128.store(tn + tStep, b1, 16);
-    v128.store(tn + tStep, b2, 32);
-    v128.store(tn + tStep, b3, 48);
+    putEight(on, step, tn, a0, a1, a2, a3);
+    putEight(on + 8, step, tn + tStep, b0, b1, b2, b3);
   }
   for (; n + 1 < nmax; n += 2) {
     let a0 = f64x2.splat(0), b0 = f64x2.splat(0);
@@ -485,16 +484,7 @@ function sumOne(y: usize, yStep: usize, r: usize, rStep: usize, np: i32, nmax: i
       yq += yStep;
       rq += rStep;
     }
-    const on = o + <usize>n * step;
-    putPair(on, step, a0);
-    putPair(on + 2 * step, step, a1);
-    putPair(on + 4 * step, step, a2);
-    putPair(on + 6 * step, step, a3);
-    const tn = t + (<usize>n << 3);
-    v128.store(tn, a0);
-    v128.store(tn, a1, 16);
-    v128.store(tn, a2, 32);
-    v128.store(tn, a3, 48);
+    putEight(o + <usize>n * step, step, t + (<usize>n << 3), a0, a1, a2, a3);
   }
   for (; n + 1 < nmax; n += 2) {
     let a0 = f64x2.splat(0);
