@@ -55,6 +55,15 @@ export async function run(): Promise<void> {
     const search = prepareNearestSearch(a.p, a.species, a.n0, c);
     return { ...c, search, prep: cpuMs() - c0, best: Infinity, mismatches: 0, counter: { queries: 0, exact: 0, summed: 0 } as SearchCounter };
   });
+  // the chosen preparation with the kernels off (its JavaScript path, the same bits) beside the kernel's
+  setWebAssemblyKernels(false);
+  let prepJs = Infinity;
+  for (let r = 0; r < 2; r++) {
+    const c0 = cpuMs();
+    prepareNearestSearch(a.p, a.species, a.n0);
+    prepJs = Math.min(prepJs, cpuMs() - c0);
+  }
+  setWebAssemblyKernels(true);
   const reference: Float64Array[] = feats.map((fe) => new Float64Array(fe.count));
   const out: Float64Array[] = feats.map((fe) => new Float64Array(fe.count));
   const chosen = prepared.find((p) => p.basis === SEARCH_BASIS && p.steps === SUBSPACE_STEPS)!;
@@ -116,6 +125,7 @@ export async function run(): Promise<void> {
   const us = (ms: number) => ((1000 * ms) / envs).toFixed(1).padStart(5);
   console.log(`  chosen d, JavaScript (kernels off): ${us(javascript.best)} µs/environment, WebAssembly (kernels on, as above) ${us(chosen.best)} µs/environment, ` +
     `×${(javascript.best / chosen.best).toFixed(2)}; JavaScript ${same(javascript)}`);
+  console.log(`  chosen d, preparation: JavaScript (kernels off) ${prepJs.toFixed(0)} ms, WebAssembly ${chosen.prep.toFixed(0)} ms (the same bits)`);
   console.log(`  chosen d, one query at a time (searchNearest): ${us(single.best)} µs/environment, ${same(single)}`);
   console.log(`  chosen d, first version (one query at a time, kept in test/helpers/reference-kernels.ts): ${us(first.best)} µs/environment, ${same(first)}; ` +
     `the batched JavaScript search (four queries per projection pass) is ×${(first.best / javascript.best).toFixed(2)} faster`);

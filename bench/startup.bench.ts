@@ -7,9 +7,13 @@
 //      with a model trained here on 5 such frames at cutoff 4.5 Å, 8 radial functions, angular order 6; through bin
 //      with the code cache (main.cjs, bin/load-program.mjs), bin without it (main.mjs), the sources, and bare node;
 //   3. with PW_BENCH_BASELINE=<git ref> (e.g. the commit before a start-up change): the same one-frame predict (default
-//      threads) with that ref's command (its bin/polarweave.mjs and pre-built program) beside this tree's, alternating, with the ratio and whether the two
-//      CSV files are byte-identical. The command's cache folder (radial tables) is a scratch folder: the first run fills it.
-// Figures only, never asserted. Env: PW_BENCH_STARTUP_RUNS (5), PW_BENCH_BASELINE.
+//      threads) with that ref's command (its bin/polarweave.mjs and pre-built program) beside this tree's and a bare
+//      `node -e ''` (the floor: this machine's Node start), alternating, with the ratio, the CPU time of each (user +
+//      system, from /proc: Linux only), the load average before and after, and whether the two outputs (CSV and
+//      extended XYZ) are byte-identical. The command's cache folder (radial tables, code caches) is a scratch folder:
+//      the first run of each fills it.
+// Figures only, never asserted. Env: PW_BENCH_STARTUP_RUNS (9), PW_BENCH_BASELINE, PW_BENCH_STARTUP_SECTIONS (the
+// sections to run, e.g. "3"; default all).
 import { execFileSync } from 'node:child_process';
 import { copyFileSync, mkdirSync, mkdtempSync, readFileSync, rmSync, statSync, symlinkSync, writeFileSync } from 'node:fs';
 import { loadavg, tmpdir } from 'node:os';
@@ -20,14 +24,36 @@ import { formatExtxyzFrame } from '../src-main/io/extxyz.ts';
 import { saveModel } from '../src-main/io/model-file.ts';
 import { waterLikeFrames } from './water-like.ts';
 
-const RUNS = Number(process.env.PW_BENCH_STARTUP_RUNS ?? 5);
+const RUNS = Number(process.env.PW_BENCH_STARTUP_RUNS ?? 9);
+const SECTIONS = (process.env.PW_BENCH_STARTUP_SECTIONS ?? '1,2,3').split(',').map((x) => x.trim());
 const root = new URL('../', import.meta.url);
 
 function wallMs(args: string[], env: NodeJS.ProcessEnv = process.env): number {
+  return timed(args, env).wall;
+}
+
+/** CPU seconds (user + system) of this process's finished children, from /proc/self/stat; null off Linux. */
+function childrenCpuSeconds(): number | null {
+  try {
+    const fields = readFileSync('/proc/self/stat', 'utf8').split(') ')[1].split(' ');
+    // after "pid (comm) ": state is field 3, cutime 16 and cstime 17 (proc(5)), in clock ticks (100 a second on Linux)
+    return (Number(fields[13]) + Number(fields[14])) / 100;
+  } catch {
+    return null;
+  }
+}
+
+/** Wall and CPU milliseconds of one run of node with `args` (CPU NaN where it cannot be read). */
+function timed(args: string[], env: NodeJS.ProcessEnv = process.env): { wall: number; cpu: number } {
+  const c0 = childrenCpuSeconds();
   const t0 = performance.now();
   execFileSync(process.execPath, args, { stdio: 'ignore', env });
-  return performance.now() - t0;
+  const wall = performance.now() - t0;
+  const c1 = childrenCpuSeconds();
+  return { wall, cpu: c0 === null || c1 === null ? NaN : 1000 * (c1 - c0) };
 }
+
+const loadText = () => loadavg().map((x) => x.toFixed(1)).join(' ');
 
 const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[Math.floor(xs.length / 2)];
 
@@ -52,15 +78,26 @@ function againstBaseline(ref: string, dir: string, bin: string, modelPath: strin
     console.log(`3. baseline ${ref}: could not extract or build it (${String(error).split('\n')[0]})`);
     return;
   }
-  const csv = (name: string) => join(dir, `${name}.csv`);
-  const way = (program: string, name: string) => () => wallMs([program, 'predict', modelPath, input, '--restart', '-o', csv(name)]);
+  const out = (name: string, ext: string) => join(dir, `${name}.${ext}`);
+  const args = (program: string, name: string, ext = 'csv') => [program, 'predict', modelPath, input, '--restart', '-o', out(name, ext)];
   // one run of each first: each stores what it keeps in the cache folder (radial tables, a code cache)
-  way(baseRun, 'baseline')();
-  way(bin, 'now')();
-  const t = sideBySide({ baseline: way(baseRun, 'baseline'), now: way(bin, 'now') });
-  const same = readFileSync(csv('baseline')).equals(readFileSync(csv('now')));
-  console.log(`3. predict one 384-atom frame, default threads, pre-built programs, median of ${RUNS} alternating runs (load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}): ` +
-    `baseline ${ref} ${t.baseline.toFixed(0)} ms, this tree ${t.now.toFixed(0)} ms (×${(t.baseline / t.now).toFixed(2)} faster); CSV output ${same ? 'byte-identical' : 'DIFFERS'}`);
+  for (const [program, name] of [[baseRun, 'baseline'], [bin, 'now']]) for (const ext of ['csv', 'extxyz']) timed(args(program, name, ext));
+  const same = ['csv', 'extxyz'].map((ext) => `${ext} ${readFileSync(out('baseline', ext)).equals(readFileSync(out('now', ext))) ? 'byte-identical' : 'DIFFERS'}`).join(', ');
+  const before = loadText();
+  const runs: Record<'baseline' | 'now' | 'node', { wall: number; cpu: number }[]> = { baseline: [], now: [], node: [] };
+  for (let r = 0; r < RUNS; r++) {
+    runs.baseline.push(timed(args(baseRun, 'baseline')));
+    runs.now.push(timed(args(bin, 'now')));
+    runs.node.push(timed(['-e', '']));
+  }
+  const m = (k: keyof typeof runs, what: 'wall' | 'cpu') => median(runs[k].map((x) => x[what]));
+  const ms = (x: number) => (Number.isFinite(x) ? `${x.toFixed(0)} ms` : 'n/a');
+  console.log(
+    `3. predict one 384-atom frame, default threads, pre-built programs, median of ${RUNS} alternating runs (load average before ${before}, after ${loadText()}): ` +
+      `baseline ${ref} ${ms(m('baseline', 'wall'))} wall, ${ms(m('baseline', 'cpu'))} CPU; this tree ${ms(m('now', 'wall'))} wall, ${ms(m('now', 'cpu'))} CPU ` +
+      `(×${(m('baseline', 'wall') / m('now', 'wall')).toFixed(2)} faster wall, ×${(m('baseline', 'cpu') / m('now', 'cpu')).toFixed(2)} CPU); ` +
+      `floor, bare node -e '': ${ms(m('node', 'wall'))} wall, ${ms(m('node', 'cpu'))} CPU; outputs: ${same}`,
+  );
 }
 
 export async function run(): Promise<void> {
@@ -81,16 +118,18 @@ export async function run(): Promise<void> {
     writeFileSync(bundled, "const { main } = await import('./main.mjs');\nawait main();\n");
     const source = new URL('bin/polarweave.mjs', root).pathname;
     const fromSource = { ...process.env, POLARWEAVE_FROM_SOURCE: '1' };
-    console.log(`startup bench: load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}, Node ${process.version}, median of ${RUNS} alternating runs`);
+    console.log(`startup bench: load average ${loadText()}, Node ${process.version}, median of ${RUNS} alternating runs`);
 
-    const help = sideBySide({
-      node: () => wallMs(['-e', '']),
-      stored: () => wallMs([bin, '--help']),
-      bundled: () => wallMs([bundled, '--help']),
-      source: () => wallMs([source, '--help'], fromSource),
-    });
-    console.log(`1. polarweave --help: stored help text (bin/polarweave.mjs, out/cli/help.json) ${help.stored.toFixed(0)} ms; loading the pre-built program ` +
-      `${help.bundled.toFixed(0)} ms (×${(help.bundled / help.stored).toFixed(1)}); sources through tsx ${help.source.toFixed(0)} ms (×${(help.source / help.stored).toFixed(1)}); bare node ${help.node.toFixed(0)} ms`);
+    if (SECTIONS.includes('1')) {
+      const help = sideBySide({
+        node: () => wallMs(['-e', '']),
+        stored: () => wallMs([bin, '--help']),
+        bundled: () => wallMs([bundled, '--help']),
+        source: () => wallMs([source, '--help'], fromSource),
+      });
+      console.log(`1. polarweave --help: stored help text (bin/polarweave.mjs, out/cli/help.json) ${help.stored.toFixed(0)} ms; loading the pre-built program ` +
+        `${help.bundled.toFixed(0)} ms (×${(help.bundled / help.stored).toFixed(1)}); sources through tsx ${help.source.toFixed(0)} ms (×${(help.source / help.stored).toFixed(1)}); bare node ${help.node.toFixed(0)} ms`);
+    }
 
     const train = waterLikeFrames(5, 3);
     const model = await trainModel(train, { tensorKey: 'alpha_cm', kind: 'alpha-cm', route: 'cm', settings: { radialFunctions: 8, angularOrder: 6 } });
@@ -100,17 +139,20 @@ export async function run(): Promise<void> {
     writeFileSync(input, formatExtxyzFrame({ ...waterLikeFrames(1, 77)[0], info: { step: 0 }, arrays: {} }));
     const args = ['predict', modelPath, input, '--threads', '1', '--restart', '-o', join(dir, 'one.csv')];
     const noCodeCache = { ...process.env, POLARWEAVE_NO_CODE_CACHE: '1' };
-    wallMs([bin, ...args]); // the first run through bin stores the code cache (bin/load-program.mjs)
-    const one = sideBySide({
-      cached: () => wallMs([bin, ...args]),
-      bundled: () => wallMs([bin, ...args], noCodeCache),
-      source: () => wallMs([source, ...args], fromSource),
-      node: () => wallMs(['-e', '']),
-    });
-    console.log(`2. predict one 384-atom frame (--threads 1, model file ${(statSync(modelPath).size / 1e6).toFixed(1)} MB): ` +
-      `bin/polarweave.mjs with the code cache (main.cjs) ${one.cached.toFixed(0)} ms; the pre-built modules (main.mjs) ${one.bundled.toFixed(0)} ms (×${(one.bundled / one.cached).toFixed(2)}); ` +
-      `sources through tsx ${one.source.toFixed(0)} ms (×${(one.source / one.cached).toFixed(1)}); bare node ${one.node.toFixed(0)} ms`);
+    if (SECTIONS.includes('2')) {
+      wallMs([bin, ...args]); // the first run through bin stores the code cache (bin/load-program.mjs)
+      const one = sideBySide({
+        cached: () => wallMs([bin, ...args]),
+        bundled: () => wallMs([bin, ...args], noCodeCache),
+        source: () => wallMs([source, ...args], fromSource),
+        node: () => wallMs(['-e', '']),
+      });
+      console.log(`2. predict one 384-atom frame (--threads 1, model file ${(statSync(modelPath).size / 1e6).toFixed(1)} MB): ` +
+        `bin/polarweave.mjs with the code cache (main.cjs) ${one.cached.toFixed(0)} ms; the pre-built modules (main.mjs) ${one.bundled.toFixed(0)} ms (×${(one.bundled / one.cached).toFixed(2)}); ` +
+        `sources through tsx ${one.source.toFixed(0)} ms (×${(one.source / one.cached).toFixed(1)}); bare node ${one.node.toFixed(0)} ms`);
+    }
     const baseline = process.env.PW_BENCH_BASELINE;
+    if (!SECTIONS.includes('3')) return;
     if (baseline) againstBaseline(baseline, dir, bin, modelPath, input);
     else console.log('3. (set PW_BENCH_BASELINE=<git ref> to time one-frame predict against that ref\'s pre-built program)');
   } finally {

@@ -9,12 +9,27 @@ import { makeRng } from '../src-main/core/numerics/random.ts';
 import { waterLikeFrames } from './water-like.ts';
 import { describeSettings } from '../src-main/core/settings-table.ts';
 import { loadavg } from 'node:os';
+import { readFileSync } from 'node:fs';
 import { extractBaseline, rateChild, thisTree } from './baseline.ts';
 
 const FRAMES = Number(process.env.PW_BENCH_FRAMES ?? 200);
 
 function peakMiB(): number {
   return process.resourceUsage().maxRSS / 1024;
+}
+
+/**
+ * The main thread's own clock from Linux's scheduler statistics (/proc/self/schedstat: nanoseconds on a CPU, then
+ * nanoseconds ready but waiting for one), in ms; null elsewhere. Wall time minus the two is time asleep (timers,
+ * waits); process CPU time minus `run` is the other threads' (the collector's helpers, the compiler).
+ */
+function mainThreadClock(): { run: number; wait: number } | null {
+  try {
+    const [run, wait] = readFileSync('/proc/self/schedstat', 'utf8').split(' ').map(Number);
+    return Number.isFinite(run) && Number.isFinite(wait) ? { run: run / 1e6, wait: wait / 1e6 } : null;
+  } catch {
+    return null;
+  }
 }
 
 async function training(): Promise<void> {
@@ -26,9 +41,13 @@ async function training(): Promise<void> {
     const c = process.cpuUsage();
     return (c.user + c.system) / 1000;
   };
+  const stagesRun = new Map<string, number>();
+  const stagesWait = new Map<string, number>();
   let lastCpu = cpuNow();
   let last = performance.now();
   let lastStage = 'start';
+  let lastClock = mainThreadClock();
+  const clock0 = lastClock;
   const t0 = last;
   const cpu0 = process.cpuUsage();
   const model = await trainModel(frames, { tensorKey: 'alpha_cm', kind: 'alpha-cm', route: 'cm' }, {
@@ -39,6 +58,12 @@ async function training(): Promise<void> {
       const c = cpuNow();
       stagesCpu.set(lastStage, (stagesCpu.get(lastStage) ?? 0) + c - lastCpu);
       lastCpu = c;
+      const clock = mainThreadClock();
+      if (clock && lastClock) {
+        stagesRun.set(lastStage, (stagesRun.get(lastStage) ?? 0) + clock.run - lastClock.run);
+        stagesWait.set(lastStage, (stagesWait.get(lastStage) ?? 0) + clock.wait - lastClock.wait);
+      }
+      lastClock = clock;
       last = now;
       lastStage = stage;
     },
@@ -48,8 +73,19 @@ async function training(): Promise<void> {
   const cpuSeconds = (cpu.user + cpu.system) / 1e6;
   console.log(`training, defaults (${describeSettings(model.settings)}), ${FRAMES} frames × ${atoms} atoms, one thread:`);
   console.log(`  total ${total.toFixed(1)} s wall, ${cpuSeconds.toFixed(1)} s CPU (the wall time includes waiting when the machine is shared); peak RSS ${peakMiB().toFixed(0)} MiB`);
+  const clock1 = mainThreadClock();
+  if (clock0 && clock1) {
+    const run = (clock1.run - clock0.run) / 1000;
+    const wait = (clock1.wait - clock0.wait) / 1000;
+    console.log(`  main thread (Linux scheduler statistics): ${run.toFixed(1)} s on a CPU, ${wait.toFixed(1)} s ready but waiting for a CPU, ` +
+      `${Math.max(0, total - run - wait).toFixed(1)} s asleep; other threads ${Math.max(0, cpuSeconds - run).toFixed(1)} s CPU`);
+  }
+  const secs = (ms: number | undefined) => ((ms ?? 0) / 1000).toFixed(1);
   for (const [stage, ms] of stages) {
-    if (stage !== 'start' && stage !== 'done') console.log(`  ${stage.padEnd(18)} ${(ms / 1000).toFixed(1)} s wall, ${((stagesCpu.get(stage) ?? 0) / 1000).toFixed(1)} s CPU`);
+    if (stage !== 'start' && stage !== 'done') {
+      console.log(`  ${stage.padEnd(18)} ${secs(ms)} s wall, ${secs(stagesCpu.get(stage))} s CPU` +
+        (clock0 ? ` (main thread ${secs(stagesRun.get(stage))} s on a CPU, ${secs(stagesWait.get(stage))} s waiting for one)` : ''));
+    }
   }
   for (const p of model.parts) console.log(`  λ=${p.order}: ${p.method}, ${p.n} features/species, regulariser ${p.regularisation.relative.toExponential(0)}, CV RMSE ${Math.sqrt(p.regularisation.cvError).toPrecision(3)} Å³`);
 

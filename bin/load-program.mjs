@@ -6,7 +6,8 @@
 //   createCachedData gave after a run (so they hold the functions that run compiled), then their 32-byte SHA-256.
 // A cache only: a missing, damaged or refused cache (V8 checks its own version and flags too) costs one compile
 // and is written again after the run; any trouble reading or writing it is ignored. Written atomically
-// (temporary file, then rename); the newest few are kept.
+// (temporary file, then rename); the newest few are kept. The same SHA-256 (all 64 digits) is the program's
+// identity, globalThis.__polarweaveProgram, by which it recognises notes it left in the cache folder.
 import { createHash } from 'node:crypto';
 import { mkdirSync, readdirSync, readFileSync, renameSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
@@ -68,14 +69,18 @@ export function loadProgram(file, env = process.env) {
   } catch {
     return null;
   }
-  const cacheFile = join(cacheFolder(env), `code-${createHash('sha256').update(`${process.version}\n${process.arch}\n`).update(source).digest('hex').slice(0, 24)}.v8`);
+  const identity = createHash('sha256').update(`${process.version}\n${process.arch}\n`).update(source).digest('hex');
+  const cacheFile = join(cacheFolder(env), `code-${identity.slice(0, 24)}.v8`);
   const cachedData = readCache(cacheFile);
   const module = { exports: {} };
   let script;
+  // who is running: the program's notes in the cache folder name it (src-main/io/radial-table-store.ts)
+  globalThis.__polarweaveProgram = identity;
   try {
     script = new Script(`(function (exports, require, module, __filename, __dirname) {${source}\n})`, { filename: file, cachedData });
     script.runInThisContext()(module.exports, createRequire(file), module, file, dirname(file));
   } catch {
+    delete globalThis.__polarweaveProgram; // another program (main.mjs) runs instead
     return null;
   }
   const fresh = cachedData === undefined || script.cachedDataRejected === true;

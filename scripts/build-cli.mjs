@@ -2,7 +2,10 @@
 // command nor a worker thread transpiles TypeScript at start. Run by `npm ci`/`npm install` (the `prepare`
 // script) and by `npm run build`; takes about a second. Output in out/cli/:
 //   main.mjs            the command (src-main/cli/main.ts), loaded by bin/polarweave.mjs
-//   predict-worker.mjs  the streaming predictor's worker (src-main/app/predict/predict-worker.ts)
+//   predict-worker.mjs  the streaming predictor's worker (src-main/app/predict/predict-worker.ts): a few lines that
+//                       compile predict-worker.cjs (the worker as one classic script) with a V8 code cache, as
+//                       bin/polarweave.mjs does main.cjs (bin/load-program.mjs), else import the worker's modules,
+//                       predict-worker-modules.mjs
 //   worker.mjs          the app's worker (src-main/app/worker.ts)
 //   chunk-*.mjs         code the three share (loaded once per thread, not three times)
 //   main.cjs            the command again as one script (no modules), which bin/polarweave.mjs compiles with a
@@ -34,9 +37,35 @@ try {
 
 const ENTRIES = {
   main: 'src-main/cli/main.ts',
-  'predict-worker': 'src-main/app/predict/predict-worker.ts',
+  'predict-worker-modules': 'src-main/app/predict/predict-worker.ts',
   worker: 'src-main/app/worker.ts',
 };
+
+/**
+ * Entries also built as one classic script (name.cjs) for a code cache (bin/load-program.mjs; Node 20 keeps none
+ * for modules): the command, loaded by bin/polarweave.mjs, and the predict worker, loaded by predict-worker.mjs.
+ */
+const SCRIPTS = { main: ENTRIES.main, 'predict-worker': ENTRIES['predict-worker-modules'] };
+
+/**
+ * The predict worker's entry (jobs/spawn-ts.ts starts predict-worker.mjs): its script with the code cache, stored
+ * after its first batch (the functions that ran, compiled; app/predict/predict-worker.ts calls the hook), or its
+ * modules when the script or bin/load-program.mjs cannot be had. POLARWEAVE_NO_CODE_CACHE=1 takes the modules.
+ */
+const PREDICT_WORKER = `// The streamed predictor's worker, written by scripts/build-cli.mjs: predict-worker.cjs with a code cache, else the modules.
+import { fileURLToPath } from 'node:url';
+let script = null;
+if (!process.env.POLARWEAVE_NO_CODE_CACHE) {
+  try {
+    const { loadProgram } = await import('../../bin/load-program.mjs');
+    script = loadProgram(fileURLToPath(new URL('predict-worker.cjs', import.meta.url)));
+  } catch {
+    script = null;
+  }
+}
+if (script) globalThis.__polarweaveAfterFirstTask = () => script.afterRun(); // app/predict/predict-worker.ts
+else await import('./predict-worker-modules.mjs');
+`;
 
 /**
  * zod's entries (classic and core) re-export every message locale (about 370 kB, a third of the bundle, compiled at every
@@ -58,7 +87,8 @@ const zodEnglishOnly = {
 
 mkdirSync(outdir, { recursive: true });
 // only what an earlier build wrote: the manifest first, so that a failed build leaves the sources in charge
-const ours = (f) => f === 'manifest.json' || f === 'help.json' || f === 'main.cjs' || /^chunk-[A-Z0-9]+\.mjs$/.test(f) || Object.keys(ENTRIES).some((e) => f === `${e}.mjs`);
+const ours = (f) =>
+  f === 'manifest.json' || f === 'help.json' || f === 'predict-worker.mjs' || /^chunk-[A-Z0-9]+\.mjs$/.test(f) || Object.keys(ENTRIES).some((e) => f === `${e}.mjs`) || Object.keys(SCRIPTS).some((e) => f === `${e}.cjs`);
 rmSync(join(outdir, 'manifest.json'), { force: true });
 for (const f of readdirSync(outdir)) if (ours(f)) rmSync(join(outdir, f));
 
@@ -97,35 +127,42 @@ try {
   process.exit(0);
 }
 
-// The command as one classic script, for bin/polarweave.mjs to compile with a code cache (node:vm's cachedData;
-// Node 20 keeps no code cache for modules). import.meta.url becomes the script's own URL: it sits beside main.mjs,
-// so paths relative to it (the demo data, the worker entries) resolve alike. Without it bin loads main.mjs.
-try {
-  await esbuild.build({
-    absWorkingDir: root,
-    entryPoints: [join(root, ENTRIES.main)],
-    outfile: join(outdir, 'main.cjs'),
-    bundle: true,
-    format: 'cjs',
-    platform: 'node',
-    target: 'node20',
-    external: ['tsx', 'tsx/*'],
-    define: { 'import.meta.url': '__pwScriptUrl' },
-    banner: {
-      js: [
-        "var __pwScriptUrl = require('node:url').pathToFileURL(__filename).href;",
-        "globalThis.__polarweaveBundle ??= new URL('.', __pwScriptUrl).href;",
-      ].join('\n'),
-    },
-    plugins: [zodEnglishOnly],
-    logLevel: 'warning',
-    minifyWhitespace: true,
-    minifySyntax: true,
-  });
-} catch (e) {
-  rmSync(join(outdir, 'main.cjs'), { force: true });
-  console.warn(`polarweave: could not build the single-script command (${e instanceof Error ? e.message.split('\n')[0] : e}); main.mjs is used`);
+// The command and the predict worker as classic scripts, for bin/load-program.mjs to compile with a code cache
+// (node:vm's cachedData; Node 20 keeps no code cache for modules). import.meta.url becomes the script's own URL: it
+// sits beside the modules, so paths relative to it (the demo data, the worker entries) resolve alike. Without it,
+// bin/polarweave.mjs loads main.mjs and predict-worker.mjs the worker's modules.
+for (const [name, entry] of Object.entries(SCRIPTS)) {
+  try {
+    await esbuild.build({
+      absWorkingDir: root,
+      entryPoints: [join(root, entry)],
+      outfile: join(outdir, `${name}.cjs`),
+      bundle: true,
+      format: 'cjs',
+      platform: 'node',
+      target: 'node20',
+      external: ['tsx', 'tsx/*'],
+      define: { 'import.meta.url': '__pwScriptUrl' },
+      banner: {
+        // strict, as the modules it was written as: the directive must come first (esbuild's own "use strict" comes
+        // after the banner, where it is no directive, and the whole script would run in sloppy mode)
+        js: [
+          '"use strict";',
+          "var __pwScriptUrl = require('node:url').pathToFileURL(__filename).href;",
+          "globalThis.__polarweaveBundle ??= new URL('.', __pwScriptUrl).href;",
+        ].join('\n'),
+      },
+      plugins: [zodEnglishOnly],
+      logLevel: 'warning',
+      minifyWhitespace: true,
+      minifySyntax: true,
+    });
+  } catch (e) {
+    rmSync(join(outdir, `${name}.cjs`), { force: true });
+    console.warn(`polarweave: could not build ${name} as a single script (${e instanceof Error ? e.message.split('\n')[0] : e}); its modules are used`);
+  }
 }
+writeFileSync(join(outdir, 'predict-worker.mjs'), PREDICT_WORKER);
 
 // The help texts, from the bundle's own functions (helpTexts in src-main/cli/main.ts): bin/polarweave.mjs prints
 // them for `--help` without loading the program (a fifth of a second less on a busy machine). Without the file it

@@ -4,7 +4,6 @@ import { formatOptions, parseArgs, UsageError } from './args.ts';
 import type { Command, CommandIO } from './command.ts';
 import { commands } from './commands/registry.ts';
 import { useRadialTableCache } from '../io/radial-table-store.ts';
-import { z } from 'zod';
 import { CancelledError, InputError, ModelError, PhysicsError } from '../core/errors.ts';
 
 const helpOption = { name: 'help', short: 'h', flag: true, help: 'show this help' } as const;
@@ -82,9 +81,6 @@ export async function runCli(argv: string[], io: CommandIO): Promise<number> {
 export async function main(): Promise<void> {
   // radial tables built by earlier runs (a short run, one predicted frame, would spend a good share building it)
   useRadialTableCache();
-  // a command checks each schema (the model file's, io/model-check.ts) once or a few times: zod's generated fast
-  // path (code built per schema at its first use) costs more than it saves here (bench/startup.bench.ts)
-  z.config({ jitless: true });
   const controller = new AbortController();
   let interrupts = 0;
   process.on('SIGINT', () => {

@@ -80,7 +80,10 @@ export function checkModelContents(m: unknown, file: string): asserts m is Model
   const bad: (what: string) => never = (what) => {
     throw new ModelError(`${file}: corrupt model file (${what}); retrain, or restore the file as it was saved`);
   };
-  const parsed = modelSchema.safeParse(m);
+  // jitless: a model is checked once per process, and zod's generated fast path (code built for each object schema
+  // at its first use, which no code cache keeps) cost 10–20 ms of a one-frame prediction. Asked here, per call:
+  // zod reads its global setting when a schema is built, i.e. when this module is loaded, before any main() runs.
+  const parsed = modelSchema.safeParse(m, { jitless: true });
   if (!parsed.success) {
     const issue = parsed.error.issues[0];
     bad(`${issue.path.join('.') || 'the model'}: ${issue.message}`);

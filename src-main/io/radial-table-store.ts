@@ -7,11 +7,19 @@
 //   functions that build a table, so tables of other code get other names; radialTable also rebuilds a few pieces
 //   and compares them bit for bit before it uses a stored table.
 // Written atomically (temporary file in the folder, then rename); never read above the expected length.
+// Notes that a table fits: when the command runs as one pre-built script (bin/load-program.mjs), the program knows
+// its identity (SHA-256 of the Node version, the architecture and the script's whole text). A table it built, or saw
+// pass storedTableFits, gets a note beside it, radial-<table's 24 hex digits>.<first 24 hex digits of the identity>.fit,
+// holding the SHA-256 of the table's numbers; the same program then takes that table without rebuilding its pieces
+// (the same code on the same engine gives the same bits: the check would pass again, at 20–30 ms of a one-frame
+// prediction). Any other program (another build, Node version or machine kind; the sources through tsx; a worker
+// thread, which has no identity) checks as before. A missing or damaged note costs one check. The newest 4 notes
+// of a table are kept.
 // Every thread that computes features calls useRadialTableCache once at its start: the command (cli/main.ts), the
 // streamed predictor's workers (app/predict/predict-worker.ts) and the window's worker (app/worker.ts); a thread
 // has its own module state, so each sets its own.
 import { createHash } from 'node:crypto';
-import { closeSync, mkdirSync, openSync, readSync, renameSync, rmSync, writeFileSync, fstatSync } from 'node:fs';
+import { closeSync, fstatSync, mkdirSync, openSync, readdirSync, readFileSync, readSync, renameSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { endianness, homedir } from 'node:os';
 import { join } from 'node:path';
 import { radialIntegral, radialTable, storedTableFits, useRadialTableStore, type RadialTableStore } from '../core/descriptors/density.ts';
@@ -41,9 +49,63 @@ function codeFingerprint(): string {
 const LITTLE_ENDIAN = endianness() === 'LE';
 const sha256 = (bytes: Uint8Array) => createHash('sha256').update(bytes).digest();
 
+/**
+ * The running program's identity (64 hex digits), set by bin/load-program.mjs before it runs the pre-built command;
+ * null when there is none (the sources through tsx, worker threads, the window).
+ */
+export function programIdentity(): string | null {
+  const id = (globalThis as { __polarweaveProgram?: unknown }).__polarweaveProgram;
+  return typeof id === 'string' && /^[0-9a-f]{64}$/.test(id) ? id : null;
+}
+
+/** Notes kept per table (one per program that used it: builds, Node versions). */
+const NOTES_KEPT = 4;
+
+/** Write `bytes` to `target` through a temporary file in its folder (a cache: any trouble is ignored). */
+function writeAtomically(folder: string, target: string, bytes: Uint8Array): boolean {
+  const temporary = `${target}.${process.pid}.${Math.random().toString(36).slice(2)}.tmp`;
+  try {
+    mkdirSync(folder, { recursive: true });
+    writeFileSync(temporary, bytes);
+    renameSync(temporary, target);
+    return true;
+  } catch {
+    rmSync(temporary, { force: true });
+    return false;
+  }
+}
+
+/** The little-endian bytes of a table's numbers (the body of its file). */
+function tableBytes(coefficients: Float64Array): Buffer {
+  const body = Buffer.alloc(8 * coefficients.length);
+  if (LITTLE_ENDIAN) body.set(new Uint8Array(coefficients.buffer, coefficients.byteOffset, coefficients.byteLength));
+  else for (let i = 0; i < coefficients.length; i++) body.writeDoubleLE(coefficients[i], 8 * i);
+  return body;
+}
+
 /** A RadialTableStore on `folder` (created when the first table is saved). */
 export function radialTableFolder(folder: string): RadialTableStore {
-  const file = (key: string) => join(folder, `radial-${createHash('sha256').update(`${codeFingerprint()}\n${key}`).digest('hex').slice(0, 24)}.f64`);
+  const name = (key: string) => `radial-${createHash('sha256').update(`${codeFingerprint()}\n${key}`).digest('hex').slice(0, 24)}`;
+  const file = (key: string) => join(folder, `${name(key)}.f64`);
+  const note = (key: string, id: string) => join(folder, `${name(key)}.${id.slice(0, 24)}.fit`);
+  // the checksum of each table this store gave (its file's last 32 bytes), for the notes
+  const digests = new WeakMap<Float64Array, Buffer>();
+  const digestOf = (coefficients: Float64Array) => digests.get(coefficients) ?? sha256(tableBytes(coefficients));
+  const writeNote = (key: string, coefficients: Float64Array) => {
+    const id = programIdentity();
+    if (id === null || !writeAtomically(folder, note(key, id), digestOf(coefficients))) return;
+    try {
+      // this note, and the newest others of the table
+      const prefix = `${name(key)}.`;
+      const others = readdirSync(folder)
+        .filter((f) => f.startsWith(prefix) && /^[0-9a-f]{24}\.fit$/.test(f.slice(prefix.length)) && join(folder, f) !== note(key, id))
+        .map((f) => ({ f, t: statSync(join(folder, f)).mtimeMs }))
+        .sort((a, b) => b.t - a.t);
+      for (const { f } of others.slice(NOTES_KEPT - 1)) rmSync(join(folder, f), { force: true });
+    } catch {
+      // a cache only
+    }
+  };
   return {
     load(key, length) {
       let fd = -1;
@@ -52,10 +114,12 @@ export function radialTableFolder(folder: string): RadialTableStore {
         const bytes = Buffer.alloc(8 * length + 32);
         if (fstatSync(fd).size !== bytes.length || readSync(fd, bytes, 0, bytes.length, 0) !== bytes.length) return null;
         const body = bytes.subarray(0, 8 * length);
-        if (!sha256(body).equals(bytes.subarray(8 * length))) return null;
+        const digest = bytes.subarray(8 * length);
+        if (!sha256(body).equals(digest)) return null;
         const out = new Float64Array(length);
         if (LITTLE_ENDIAN) new Uint8Array(out.buffer).set(body);
         else for (let i = 0; i < length; i++) out[i] = body.readDoubleLE(8 * i);
+        digests.set(out, digest);
         return out;
       } catch {
         return null;
@@ -64,18 +128,23 @@ export function radialTableFolder(folder: string): RadialTableStore {
       }
     },
     save(key, coefficients) {
-      const target = file(key);
-      const temporary = `${target}.${process.pid}.${Math.random().toString(36).slice(2)}.tmp`;
+      const body = tableBytes(coefficients);
+      const digest = sha256(body);
+      digests.set(coefficients, digest);
+      // built here: it fits by construction, so the note goes with it
+      if (writeAtomically(folder, file(key), Buffer.concat([body, digest]))) writeNote(key, coefficients);
+    },
+    knownToFit(key, coefficients) {
+      const id = programIdentity();
+      if (id === null) return false;
       try {
-        const body = Buffer.alloc(8 * coefficients.length);
-        if (LITTLE_ENDIAN) body.set(new Uint8Array(coefficients.buffer, coefficients.byteOffset, coefficients.byteLength));
-        else for (let i = 0; i < coefficients.length; i++) body.writeDoubleLE(coefficients[i], 8 * i);
-        mkdirSync(folder, { recursive: true });
-        writeFileSync(temporary, Buffer.concat([body, sha256(body)]));
-        renameSync(temporary, target);
+        return readFileSync(note(key, id)).equals(digestOf(coefficients));
       } catch {
-        rmSync(temporary, { force: true });
+        return false;
       }
+    },
+    fitted(key, coefficients) {
+      writeNote(key, coefficients);
     },
   };
 }

@@ -3,6 +3,7 @@
 // worker entry: the scratch folder has no TypeScript loader to fall back on) are byte for byte those of the
 // sources run in process.
 import { execFileSync } from 'node:child_process';
+import { createHash } from 'node:crypto';
 import { copyFileSync, existsSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, symlinkSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -105,10 +106,17 @@ describe('the pre-built program compiled with a code cache (bin/load-program.mjs
     const plain = join(dir, 'plain.csv');
     predict(plain, { POLARWEAVE_NO_CODE_CACHE: '1' });
     expect(existsSync(cache) ? caches() : []).toEqual([]);
+    // loaded as modules the program has no identity, so it leaves no notes beside the radial tables it stores
+    const notes = () => readdirSync(cache).filter((f) => f.endsWith('.fit'));
+    expect(readdirSync(cache).filter((f) => f.endsWith('.f64')).length).toBeGreaterThan(0);
+    expect(notes()).toEqual([]);
     const outs = ['first.csv', 'second.csv'].map((f) => join(dir, f));
     predict(outs[0]); // compiles, then stores the cache
     const [file] = caches();
     expect(caches()).toHaveLength(1);
+    // the script's identity (the 24 digits that name its cache) notes each radial table it checked (src-main/io/radial-table-store.ts)
+    expect(notes().length).toBeGreaterThan(0);
+    for (const n of notes()) expect(n).toMatch(new RegExp(`^radial-[0-9a-f]{24}\\.${file.slice(5, 29)}\\.fit$`));
     const stored = readFileSync(join(cache, file));
     predict(outs[1]); // with the cache: not written again
     expect(readFileSync(join(cache, file)).equals(stored)).toBe(true);
@@ -121,5 +129,29 @@ describe('the pre-built program compiled with a code cache (bin/load-program.mjs
     expect(readFileSync(join(cache, file)).equals(stored)).toBe(false);
     expect(readFileSync(join(cache, file)).equals(damaged)).toBe(false);
     for (const out of [...outs, third]) expect(readFileSync(out, 'utf8')).toBe(readFileSync(plain, 'utf8'));
+  }, 120_000);
+
+  it('compiles the predict worker with a code cache of its own, stored after its first batch; damaged, it is written anew', () => {
+    // 8 frames on one thread: two batches of 4, in a worker (predict-worker.mjs loads predict-worker.cjs)
+    const workerScript = readFileSync(join(root, 'out', 'cli', 'predict-worker.cjs'), 'utf8');
+    const name = `code-${createHash('sha256').update(`${process.version}\n${process.arch}\n`).update(workerScript).digest('hex').slice(0, 24)}.v8`;
+    const run = (out: string, more: Record<string, string> = {}) =>
+      execFileSync(process.execPath, [join(root, 'bin', 'polarweave.mjs'), 'predict', MODEL, DATA, '--threads', '1', '-o', out], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'], env: { ...env, ...more } });
+    const plain = join(dir, 'worker-plain.csv');
+    run(plain, { POLARWEAVE_NO_CODE_CACHE: '1' }); // the worker's modules, no cache
+    expect(caches()).not.toContain(name);
+    const outs = ['worker-1.csv', 'worker-2.csv', 'worker-3.csv'].map((f) => join(dir, f));
+    run(outs[0]);
+    expect(caches()).toContain(name);
+    const stored = readFileSync(join(cache, name));
+    run(outs[1]); // taken, not written again
+    expect(readFileSync(join(cache, name)).equals(stored)).toBe(true);
+    const damaged = Buffer.from(stored);
+    damaged[damaged.length >> 1] ^= 0xff;
+    writeFileSync(join(cache, name), damaged);
+    run(outs[2]);
+    expect(readFileSync(join(cache, name)).equals(damaged)).toBe(false);
+    expect(readdirSync(cache).some((f) => f.endsWith('.tmp'))).toBe(false);
+    for (const out of outs) expect(readFileSync(out, 'utf8')).toBe(readFileSync(plain, 'utf8'));
   }, 120_000);
 });

@@ -548,3 +548,32 @@ export function referenceBackSubstitute(l: Float64Array, n: number, z: Float64Ar
   }
   return z;
 }
+
+/** kernels.ts linearDesignRows as first written: one environment after another, entry by entry. */
+export function referenceLinearDesignRows(data: Float64Array, count: number, width: number, n: number, centreSpecies: Int32Array, species: number): Float64Array {
+  const cols = species * n;
+  const rows = new Float64Array(width * cols);
+  for (let e = 0; e < count; e++) {
+    for (let mu = 0; mu < width; mu++) {
+      const src = (e * width + mu) * n;
+      const dst = mu * cols + centreSpecies[e] * n;
+      for (let f = 0; f < n; f++) rows[dst + f] += data[src + f];
+    }
+  }
+  return rows;
+}
+
+/** kernels.ts localContributions of a linear model as first written: one row, one sum at a time. */
+export function referenceLinearContributions(data: Float64Array, count: number, width: number, n: number, centreSpecies: Int32Array, weights: Float64Array): Float64Array {
+  const out = new Float64Array(count * width);
+  for (let e = 0; e < count; e++) {
+    const wOff = centreSpecies[e] * n;
+    for (let mu = 0; mu < width; mu++) {
+      const src = (e * width + mu) * n;
+      let d = 0;
+      for (let f = 0; f < n; f++) d += data[src + f] * weights[wOff + f];
+      out[e * width + mu] = d;
+    }
+  }
+  return out;
+}

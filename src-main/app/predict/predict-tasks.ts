@@ -26,8 +26,11 @@ export interface PredictChunkInput {
   stamp: FrameStamp;
   /** CSV layout of a tensor model's rows (io/csv.ts options). */
   csvOptions?: TensorCsvOptions;
-  /** Frames in output order: index in the file, 1-based line of the count line, the frame's bytes. */
-  frames: { index: number; line: number; bytes: Uint8Array }[];
+  /**
+   * Frames in output order: index in the file, 1-based line of the count line, the frame's bytes; in the calling
+   * thread (predictFrames), a frame already parsed from those bytes may come with them (never sent to a worker).
+   */
+  frames: { index: number; line: number; bytes: Uint8Array; parsed?: Frame }[];
 }
 
 export interface PredictChunkOutput {
@@ -85,7 +88,7 @@ export function predictFrames(model: Model, predict: Predictor, input: Omit<Pred
   for (let j = 0; j < total; j++) {
     if (ctx.signal.aborted) throw new CancelledError();
     const f = input.frames[j];
-    const frame = parseFrameBytes(input.file, f.index, f.line, f.bytes);
+    const frame = f.parsed ?? parseFrameBytes(input.file, f.index, f.line, f.bytes);
     const r = predictFrameText(model, predict, frame, f.index, input.format, input.stamp, input.csvOptions);
     parts.push(r.text);
     out.index.push(f.index);

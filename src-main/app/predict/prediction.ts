@@ -14,6 +14,7 @@ import type { Frame } from '../../core/geometry/frame.ts';
 import { modelPredictor, type Model, type Predictor } from '../../core/learning/model.ts';
 import { atomicWriteStream } from '../../io/atomic.ts';
 import type { FrameRange } from '../../io/extxyz.ts';
+import { cachedModel, keepModel } from '../../io/model-cache.ts';
 import { parseModel, readModelBytes } from '../../io/model-file.ts';
 import { predictionCsvHeader, predictionCsvOptions, type FrameStamp, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
 import { outputKind, readStructures } from '../../io/read-structures.ts';
@@ -49,11 +50,19 @@ function predictorOnDemand(model: Model): Predictor {
   return (frame, index) => (predict ??= modelPredictor(model))(frame, index);
 }
 
-/** Read, checksum and parse a model file (once per process: pass the result on rather than the path). */
+/**
+ * Read, checksum and parse a model file (once per process: pass the result on rather than the path). The pre-built
+ * command takes the model it decoded from these very bytes before, when its cache folder holds it (io/model-cache.ts).
+ */
 export async function loadModelFile(path: string, label = path): Promise<LoadedModel> {
   const bytes = await readModelBytes(path);
-  const model = parseModel(bytes, path);
-  return { path, label, sha256: sha256Hex(bytes), model, predict: predictorOnDemand(model) };
+  const sha256 = sha256Hex(bytes);
+  let model = cachedModel(sha256);
+  if (model === null) {
+    model = parseModel(bytes, path);
+    keepModel(sha256, model);
+  }
+  return { path, label, sha256, model, predict: predictorOnDemand(model) };
 }
 
 /** The output format of a prediction file from its name (the registry of file kinds), or an InputError. */

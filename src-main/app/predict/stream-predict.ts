@@ -23,6 +23,7 @@ import { isGzipFile } from '../../io/gzip.ts';
 import { readError } from '../../io/whole-file.ts';
 import { frameSlices, type FrameSlice, type SlicePosition } from '../../io/frame-slices.ts';
 import { predictionCsvHeader, selectionText, shardStampText, type Identity, type SelectionText, type TensorCsvOptions } from '../../io/prediction/prediction-format.ts';
+import type { Frame } from '../../core/geometry/frame.ts';
 import type { PredictFormat } from './predict-frame.ts';
 import { parseFrameBytes, predictFrames, type PredictChunkInput, type PredictChunkOutput } from './predict-tasks.ts';
 import { csvLayoutOf, firstFrameOf, loadModelFile, predictOutputFormat, rangeSelection, type LoadedModel } from './prediction.ts';
@@ -299,17 +300,22 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
   }
   // the CSV layout, from the selection's first frame: parsed from the slices just read when they begin with it
   // (no checkpoint, no shard: they start at the file's beginning), else read from the file
+  // (no checkpoint, no shard: they start at the file's beginning), else read from the file. A frame parsed here is
+  // predicted as it is when the selection is predicted in this thread (below), not parsed a second time.
   const first = !ck && !opts.shard ? head.slices.find((x) => x.bytes) : undefined;
+  let firstParsed: Frame | undefined;
   const firstFrame = async () => {
     if (!first) return firstFrameOf(opts.input, opts.range, signal);
     try {
-      return parseFrameBytes(opts.input, first.index, first.line, first.bytes as Buffer);
+      return (firstParsed = parseFrameBytes(opts.input, first.index, first.line, first.bytes as Buffer));
     } catch {
       return null; // the run itself says why
     }
   };
   const csvOptions = opts.csvOptions ?? (format === 'csv' ? csvLayoutOf(loaded, await firstFrame()) : undefined);
-  const headFrames = head.slices.filter((x) => x.bytes).map((x) => ({ index: x.index, line: x.line, bytes: new Uint8Array((x.bytes as Buffer).buffer, (x.bytes as Buffer).byteOffset, (x.bytes as Buffer).byteLength) }));
+  const headFrames = head.slices
+    .filter((x) => x.bytes)
+    .map((x) => ({ index: x.index, line: x.line, bytes: new Uint8Array((x.bytes as Buffer).buffer, (x.bytes as Buffer).byteOffset, (x.bytes as Buffer).byteLength), parsed: x === first ? firstParsed : undefined }));
   if (head.ended && headFrames.length > 0 && headFrames.length < batchSize && head.bytes <= inProcessBytes) {
     const r = predictFrames(model, loaded.predict, { file: opts.input, format, stamp, frames: headFrames, csvOptions }, { signal: signal ?? new AbortController().signal, progress: () => {} });
     if (signal?.aborted) throw new CancelledError();

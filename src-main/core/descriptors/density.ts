@@ -117,12 +117,18 @@ const TABLE_CACHE_SIZE = 12;
 /**
  * Where tables built by earlier runs are kept (a cache folder, set by the host: io/radial-table-store.ts); none by
  * default. Building a table takes 0.1–0.2 s, a good share of predicting one frame. A stored table is used only when
- * it has the expected length and a few of its pieces, rebuilt here, match it bit for bit (storedTableFits);
- * otherwise the table is built and stored again.
+ * it has the expected length and a few of its pieces, rebuilt here, match it bit for bit (storedTableFits),
+ * or the store knows that this very program saw it so (knownToFit); otherwise the table is built and stored again.
  */
 export interface RadialTableStore {
   load(key: string, length: number): Float64Array | null;
   save(key: string, coefficients: Float64Array): void;
+  /**
+   * Optional: whether this very program (the same code on the same engine) built the table `load` just gave, or saw
+   * it pass storedTableFits, before; the check would pass again, so it is skipped. `fitted` is told when it passed.
+   */
+  knownToFit?(key: string, coefficients: Float64Array): boolean;
+  fitted?(key: string, coefficients: Float64Array): void;
 }
 let tableStore: RadialTableStore | null = null;
 export function useRadialTableStore(store: RadialTableStore | null): void {
@@ -187,7 +193,12 @@ export function radialTable(s: RadialSettings): RadialTable {
   const intervals = tableIntervals(s);
   const h = s.cutoff / intervals;
   const stored = tableStore?.load(key, intervals * 4 * NL) ?? null;
-  const table = stored && storedTableFits(s, intervals, stored) ? { settings: { ...s }, spacing: h, intervals, coefficients: stored } : buildTable(s, key);
+  let fits = stored !== null && tableStore?.knownToFit?.(key, stored) === true;
+  if (stored && !fits && storedTableFits(s, intervals, stored)) {
+    fits = true;
+    tableStore?.fitted?.(key, stored);
+  }
+  const table = stored && fits ? { settings: { ...s }, spacing: h, intervals, coefficients: stored } : buildTable(s, key);
   if (tableCache.size >= TABLE_CACHE_SIZE) tableCache.delete(tableCache.keys().next().value as string);
   tableCache.set(key, table);
   return table;

@@ -36,6 +36,12 @@ export interface NeighbourOptions {
    * bins; the result does not depend on it (tests use it to exercise the binning).
    */
   binFraction?: number;
+  /**
+   * A list from an earlier call that nothing reads any more: its arrays are written over and handed out again
+   * (views of its buffers, grown when too small) instead of new ones. The result is the same; `reuse` is invalid
+   * afterwards.
+   */
+  reuse?: NeighbourList;
 }
 
 function whereOf(frame: Frame): Where {
@@ -113,6 +119,91 @@ function growFloat(a: Float64Array, size: number): Float64Array<ArrayBuffer> {
 
 const MAX_PAIRS = 2 ** 31 - 1;
 
+/** Per-atom and per-centre scratch of neighbourList, kept between calls (one thread runs one list at a time). */
+interface Workspace {
+  atoms: number;
+  wrapped: Float64Array<ArrayBuffer>;
+  offset: Int32Array<ArrayBuffer>;
+  frac: Float64Array<ArrayBuffer>;
+  binOf: Int32Array<ArrayBuffer>;
+  bin3: Int32Array<ArrayBuffer>;
+  binAtom: Int32Array<ArrayBuffer>;
+  binPos: Float64Array<ArrayBuffer>;
+  binOff: Int32Array<ArrayBuffer>;
+  /** First candidate of neighbour j in this centre's list, −1 when none (all −1 between centres). */
+  first: Int32Array<ArrayBuffer>;
+  /** One bit per atom j with candidates, and one bit per non-zero word of `bits` (both zero between centres). */
+  bits: Int32Array<ArrayBuffer>;
+  summary: Int32Array<ArrayBuffer>;
+  cJ: Int32Array<ArrayBuffer>;
+  cS: Int32Array<ArrayBuffer>;
+  cV: Float64Array<ArrayBuffer>;
+  cD: Float64Array<ArrayBuffer>;
+  next: Int32Array<ArrayBuffer>;
+}
+
+/** Frames up to this many atoms keep their scratch for the next call; larger ones get their own and free it. */
+const KEEP_ATOMS = 1 << 16;
+let kept: Workspace | null = null;
+
+function workspace(n: number): Workspace {
+  if (kept && kept.atoms >= n) return kept;
+  const size = Math.max(n, kept ? Math.min(2 * kept.atoms, KEEP_ATOMS) : 0);
+  const scap = 256;
+  const w: Workspace = {
+    atoms: size,
+    wrapped: new Float64Array(3 * size),
+    offset: new Int32Array(3 * size),
+    frac: new Float64Array(3 * size),
+    binOf: new Int32Array(size),
+    bin3: new Int32Array(3 * size),
+    binAtom: new Int32Array(size),
+    binPos: new Float64Array(3 * size),
+    binOff: new Int32Array(3 * size),
+    first: new Int32Array(size).fill(-1),
+    bits: new Int32Array((size + 31) >>> 5),
+    summary: new Int32Array((size + 1023) >>> 10),
+    cJ: new Int32Array(scap),
+    cS: new Int32Array(3 * scap),
+    cV: new Float64Array(3 * scap),
+    cD: new Float64Array(scap),
+    next: new Int32Array(scap),
+  };
+  if (size <= KEEP_ATOMS) kept = w;
+  return w;
+}
+
+/**
+ * The whole buffers of a list handed in for reuse (at least as many pairs as it held; `start` sized for n atoms),
+ * or null when it cannot be written over safely: arrays not of plain, distinct buffers starting at offset 0.
+ */
+function reusable(list: NeighbourList | undefined, n: number): {
+  outJ: Int32Array<ArrayBuffer>; outV: Float64Array<ArrayBuffer>; outD: Float64Array<ArrayBuffer>; outS: Int32Array<ArrayBuffer>; start: Int32Array<ArrayBuffer>;
+} | null {
+  if (!list) return null;
+  const arrays = [list.neighbour, list.vectors, list.distances, list.shifts, list.start];
+  const buffers = arrays.map((a) => a.buffer);
+  if (arrays.some((a) => a.byteOffset !== 0) || buffers.some((b) => !(b instanceof ArrayBuffer)) || new Set(buffers).size !== buffers.length) return null;
+  const [bJ, bV, bD, bS, bStart] = buffers as ArrayBuffer[];
+  const cap = Math.floor(Math.min(bJ.byteLength / 4, bV.byteLength / 24, bD.byteLength / 8, bS.byteLength / 12));
+  return {
+    outJ: new Int32Array(bJ, 0, cap),
+    outV: new Float64Array(bV, 0, 3 * cap),
+    outD: new Float64Array(bD, 0, cap),
+    outS: new Int32Array(bS, 0, 3 * cap),
+    start: bStart.byteLength >= 4 * (n + 1) ? new Int32Array(bStart, 0, n + 1) : new Int32Array(n + 1),
+  };
+}
+
+/** Whether shift (s0, s1, s2) comes before candidate c's shift (ascending s_a, then s_b, then s_c). */
+function shiftBefore(s0: number, s1: number, s2: number, cS: Int32Array, c: number): boolean {
+  const t0 = cS[3 * c];
+  if (s0 !== t0) return s0 < t0;
+  const t1 = cS[3 * c + 1];
+  if (s1 !== t1) return s1 < t1;
+  return s2 < cS[3 * c + 2];
+}
+
 /**
  * The full neighbour list of a frame within `cutoff` (Å): every j ≠ i and every image of j (and every periodic
  * image of i itself) with |r_j + s·H − r_i| < cutoff, in both directions (i→j with s and j→i with −s).
@@ -129,12 +220,14 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   }
   const binFraction = options.binFraction ?? 1;
   if (!(binFraction > 0 && binFraction <= 4)) throw new RangeError(`binFraction must lie in (0, 4], got ${binFraction}`);
+  let largest = 0; // the largest |coordinate| (Å), for the margin of the bin-distance bound below
   for (let k = 0; k < 3 * n; k++) {
     const x = pos[k];
     if (!Number.isFinite(x)) {
       throw new InputError(`atom ${Math.floor(k / 3)} has a non-finite coordinate (${x})`, where,
         'every position must be a finite number in Å');
     }
+    if (Math.abs(x) > largest) largest = Math.abs(x);
   }
   const pbc = frame.cell === null ? [false, false, false] : [frame.pbc[0], frame.pbc[1], frame.pbc[2]];
   if (frame.cell === null && (frame.pbc[0] || frame.pbc[1] || frame.pbc[2])) {
@@ -146,9 +239,10 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   const width = perpendicularWidths(h, where);
 
   // Fractional coordinates; along periodic axes split into an integer offset and a wrapped part in [0, 1).
-  const wrapped = new Float64Array(3 * n); // wrapped Cartesian positions
-  const offset = new Int32Array(3 * n);
-  const frac = new Float64Array(3 * n);
+  const work = workspace(n);
+  const wrapped = work.wrapped; // wrapped Cartesian positions
+  const offset = work.offset;
+  const frac = work.frac;
   const lo = [Infinity, Infinity, Infinity], hi = [-Infinity, -Infinity, -Infinity];
   for (let i = 0; i < n; i++) {
     const x = pos[3 * i], y = pos[3 * i + 1], z = pos[3 * i + 2];
@@ -170,7 +264,7 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
         wx -= o * h[3 * k];
         wy -= o * h[3 * k + 1];
         wz -= o * h[3 * k + 2];
-      }
+      } else offset[3 * i + k] = 0;
       frac[3 * i + k] = s;
       if (s < lo[k]) lo[k] = s;
       if (s > hi[k]) hi[k] = s;
@@ -234,8 +328,8 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   // Counting sort of atoms into bins; within a bin atoms keep ascending index. Coordinates copied bin by bin.
   const [n0, n1, n2] = nb;
   const nBins = n0 * n1 * n2;
-  const binOf = new Int32Array(n);
-  const bin3 = new Int32Array(3 * n);
+  const binOf = work.binOf;
+  const bin3 = work.bin3;
   const binStart = new Int32Array(nBins + 1);
   for (let i = 0; i < n; i++) {
     let idx = 0;
@@ -250,10 +344,10 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
     binStart[idx + 1]++;
   }
   for (let t = 0; t < nBins; t++) binStart[t + 1] += binStart[t];
-  const binAtom = new Int32Array(n);
+  const binAtom = work.binAtom;
   // Slot-ordered copies (atoms of one bin side by side), so the inner loop reads memory in order.
-  const binPos = new Float64Array(3 * n);
-  const binOff = new Int32Array(3 * n);
+  const binPos = work.binPos;
+  const binOff = work.binOff;
   {
     const fill = binStart.slice(0, nBins);
     for (let i = 0; i < n; i++) {
@@ -266,40 +360,29 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
     }
   }
 
-  // Sorting key per pair: (j, s_a, s_b, s_c) packed into one integer-valued double.
-  const sMin = [0, 0, 0], sSpan = [1, 1, 1];
-  for (let k = 0; k < 3; k++) {
-    if (!pbc[k]) continue;
-    let oLo = 0, oHi = 0;
-    for (let i = 0; i < n; i++) {
-      const o = offset[3 * i + k];
-      if (o < oLo) oLo = o;
-      if (o > oHi) oHi = o;
-    }
-    const binShiftLo = Math.floor(-m[k] / nb[k]), binShiftHi = Math.floor((nb[k] - 1 + m[k]) / nb[k]);
-    sMin[k] = binShiftLo - (oHi - oLo);
-    sSpan[k] = binShiftHi - binShiftLo + 2 * (oHi - oLo) + 1;
-  }
-  const keySpan = n * sSpan[0] * sSpan[1] * sSpan[2];
-
   // Output buffers, grown geometrically.
   let cap = Math.min(MAX_PAIRS, Math.ceil(Math.min(estimate * 1.1, fullyPeriodic ? Infinity : 64 * n)) + 1024);
-  let outJ = new Int32Array(cap);
-  let outV = new Float64Array(3 * cap);
-  let outD = new Float64Array(cap);
-  let outS = new Int32Array(3 * cap);
-  const start = new Int32Array(n + 1);
+  const given = reusable(options.reuse, n);
+  let outJ: Int32Array<ArrayBuffer>, outV: Float64Array<ArrayBuffer>, outD: Float64Array<ArrayBuffer>, outS: Int32Array<ArrayBuffer>;
+  let start: Int32Array<ArrayBuffer>;
+  if (given) {
+    ({ outJ, outV, outD, outS, start } = given);
+    cap = outJ.length;
+  } else {
+    outJ = new Int32Array(cap);
+    outV = new Float64Array(3 * cap);
+    outD = new Float64Array(cap);
+    outS = new Int32Array(3 * cap);
+    start = new Int32Array(n + 1);
+  }
   let count = 0;
 
-  // Per-centre scratch (candidates of one centre before sorting).
-  let scap = 256;
-  let cJ = new Int32Array(scap), cS = new Int32Array(3 * scap);
-  let cV = new Float64Array(3 * scap), cD = new Float64Array(scap), cKey = new Float64Array(scap);
-
-  const scratch: { order: Int32Array<ArrayBuffer>; packed: Float64Array<ArrayBuffer> } = {
-    order: new Int32Array(256),
-    packed: new Float64Array(256),
-  };
+  // Per-centre candidates, put in (j, shift) order without sorting: the candidates of one neighbour j form a chain
+  // (first[j], then next[c]) kept in shift order, and a two-level bit set marks the j that have any, so that they
+  // are visited in ascending order (bits cleared and chains reset as they are read).
+  let scap = work.cJ.length;
+  let cJ = work.cJ, cS = work.cS, cV = work.cV, cD = work.cD, next = work.next;
+  const first = work.first, bits = work.bits, summary = work.summary;
   // Slightly above cutoff² so that the final test is on the reported distance itself (see the inclusion rule).
   const cut2 = cutoff * cutoff * (1 + 8 * Number.EPSILON);
   // Per axis, for a bin index t = c + d (stored at c + d + m): the bin it falls in (−1 if outside an open axis)
@@ -323,8 +406,31 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   const shiftA = tables[0].shift, shiftB = tables[1].shift, shiftC = tables[2].shift;
   const w0 = 2 * m[0] + 1, w1 = 2 * m[1] + 1, w2 = 2 * m[2] + 1;
   const h0 = h[0], h1 = h[1], h2 = h[2], h3 = h[3], h4 = h[4], h5 = h[5], h6 = h[6], h7 = h[7], h8 = h[8];
-  const [span0, span1, span2] = sSpan;
-  const [min0, min1, min2] = sMin;
+  const summaryWords = (n + 1023) >>> 10;
+  // A bin is skipped when every atom in it is farther from the centre than the cutoff: per axis, the gap between
+  // the centre's fractional coordinate and the bin's slice, times the slice's thickness, bounds the distance from
+  // below; in a cell with orthogonal axes the gaps add in squares, else the largest bounds it. The margin (1e-9 of
+  // the cutoff, the cell and the coordinates) lies far above the rounding of positions and fractions, so a skipped
+  // bin never holds a pair that the distance test would keep: the same pairs as visiting it.
+  const thick = [0, 1, 2].map((k) => f[k] * width[k]);
+  const orthogonal = [[0, 1], [0, 2], [1, 2]].every(([a, c]) => {
+    const dot = h[3 * a] * h[3 * c] + h[3 * a + 1] * h[3 * c + 1] + h[3 * a + 2] * h[3 * c + 2];
+    return Math.abs(dot) <= 1e-12 * Math.hypot(h[3 * a], h[3 * a + 1], h[3 * a + 2]) * Math.hypot(h[3 * c], h[3 * c + 1], h[3 * c + 2]);
+  });
+  const reach = cutoff + 1e-9 * (cutoff + width[0] + width[1] + width[2] + largest);
+  const reach2 = reach * reach;
+  const gapA = new Float64Array(w0), gapB = new Float64Array(w1), gapC = new Float64Array(w2);
+  /** Squared perpendicular gaps (Å²) from fractional position c + u (in slices) to the slices c + d − m, d = 0…w−1. */
+  const gaps = (out: Float64Array, k: number, c: number, fracK: number) => {
+    let u = (fracK - origin[k]) / f[k] - c;
+    if (!(u >= 0)) u = 0;
+    else if (u > 1) u = 1;
+    for (let d = 0; d < out.length; d++) {
+      const delta = d - m[k];
+      const g = delta > 0 ? delta - u : delta < 0 ? u - delta - 1 : 0;
+      out[d] = g > 0 ? (g * thick[k]) ** 2 : 0;
+    }
+  };
 
   for (let i = 0; i < n; i++) {
     start[i] = count;
@@ -332,19 +438,27 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
     const xi = wrapped[3 * i], yi = wrapped[3 * i + 1], zi = wrapped[3 * i + 2];
     const oi0 = offset[3 * i], oi1 = offset[3 * i + 1], oi2 = offset[3 * i + 2];
     const c0 = bin3[3 * i], c1 = bin3[3 * i + 1], c2 = bin3[3 * i + 2];
+    gaps(gapA, 0, c0, frac[3 * i]);
+    gaps(gapB, 1, c1, frac[3 * i + 1]);
+    gaps(gapC, 2, c2, frac[3 * i + 2]);
     for (let d0 = 0; d0 < w0; d0++) {
       const t0 = wrapA[c0 + d0];
       if (t0 < 0) continue;
+      const g0 = gapA[d0];
+      if (g0 > reach2) continue;
       const S0 = shiftA[c0 + d0];
       for (let d1 = 0; d1 < w1; d1++) {
         const t1 = wrapB[c1 + d1];
         if (t1 < 0) continue;
+        const g01 = orthogonal ? g0 + gapB[d1] : Math.max(g0, gapB[d1]);
+        if (g01 > reach2) continue;
         const S1 = shiftB[c1 + d1];
         const row = (t0 * n1 + t1) * n2;
         const tx01 = S0 * h0 + S1 * h3, ty01 = S0 * h1 + S1 * h4, tz01 = S0 * h2 + S1 * h5;
         for (let d2 = 0; d2 < w2; d2++) {
           const t2 = wrapC[c2 + d2];
           if (t2 < 0) continue;
+          if ((orthogonal ? g01 + gapC[d2] : Math.max(g01, gapC[d2])) > reach2) continue;
           const S2 = shiftC[c2 + d2];
           const bin = row + t2;
           const ex = tx01 + S2 * h6 - xi, ey = ty01 + S2 * h7 - yi, ez = tz01 + S2 * h8 - zi;
@@ -362,21 +476,37 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
             const s0 = S0 - binOff[3 * p] + oi0, s1 = S1 - binOff[3 * p + 1] + oi1, s2 = S2 - binOff[3 * p + 2] + oi2;
             if (ncand === scap) {
               scap *= 2;
-              cJ = growInt(cJ, scap);
-              cS = growInt(cS, 3 * scap);
-              cV = growFloat(cV, 3 * scap);
-              cD = growFloat(cD, scap);
-              cKey = new Float64Array(scap);
+              cJ = work.cJ = growInt(cJ, scap);
+              cS = work.cS = growInt(cS, 3 * scap);
+              cV = work.cV = growFloat(cV, 3 * scap);
+              cD = work.cD = growFloat(cD, scap);
+              next = work.next = growInt(next, scap);
             }
-            cJ[ncand] = j;
-            cS[3 * ncand] = s0;
-            cS[3 * ncand + 1] = s1;
-            cS[3 * ncand + 2] = s2;
-            cV[3 * ncand] = vx;
-            cV[3 * ncand + 1] = vy;
-            cV[3 * ncand + 2] = vz;
-            cD[ncand] = dist;
-            ncand++;
+            const c = ncand++;
+            cJ[c] = j;
+            cS[3 * c] = s0;
+            cS[3 * c + 1] = s1;
+            cS[3 * c + 2] = s2;
+            cV[3 * c] = vx;
+            cV[3 * c + 1] = vy;
+            cV[3 * c + 2] = vz;
+            cD[c] = dist;
+            const head = first[j];
+            if (head < 0) {
+              first[j] = c;
+              next[c] = -1;
+              bits[j >>> 5] |= 1 << (j & 31);
+              summary[j >>> 10] |= 1 << ((j >>> 5) & 31);
+            } else if (shiftBefore(s0, s1, s2, cS, head)) {
+              first[j] = c;
+              next[c] = head;
+            } else {
+              // several images of one neighbour (cells narrower than twice the cutoff): insert in shift order
+              let at = head;
+              while (next[at] >= 0 && !shiftBefore(s0, s1, s2, cS, next[at])) at = next[at];
+              next[c] = next[at];
+              next[at] = c;
+            }
           }
         }
       }
@@ -385,6 +515,7 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
     // Append this centre's pairs in (j, shift) order.
     if (count + ncand > cap) {
       if (count + ncand > MAX_PAIRS) {
+        if (work === kept) kept = null; // its marks are left set: start the next call afresh
         throw new InputError(`more than ${MAX_PAIRS} pairs within ${cutoff} Å`, where, 'use a smaller cutoff or a smaller structure');
       }
       cap = Math.min(MAX_PAIRS, Math.max(count + ncand, Math.ceil(cap * 1.5)));
@@ -394,29 +525,41 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
       outS = growInt(outS, 3 * cap);
     }
     if (ncand > 0) {
-      for (let c = 0; c < ncand; c++) {
-        cKey[c] = ((cJ[c] * span0 + (cS[3 * c] - min0)) * span1 + (cS[3 * c + 1] - min1)) * span2 + (cS[3 * c + 2] - min2);
-      }
-      const order = sortOrder(cKey, ncand, keySpan, scratch);
-      for (let r = 0; r < ncand; r++) {
-        const c = order[r];
-        const o = count + r;
-        outJ[o] = cJ[c];
-        outD[o] = cD[c];
-        outS[3 * o] = cS[3 * c];
-        outS[3 * o + 1] = cS[3 * c + 1];
-        outS[3 * o + 2] = cS[3 * c + 2];
-        outV[3 * o] = cV[3 * c];
-        outV[3 * o + 1] = cV[3 * c + 1];
-        outV[3 * o + 2] = cV[3 * c + 2];
+      let o = count;
+      for (let sw = 0; sw < summaryWords; sw++) {
+        let top = summary[sw];
+        if (top === 0) continue;
+        summary[sw] = 0;
+        while (top !== 0) {
+          const wi = (sw << 5) + (31 - Math.clz32(top & -top));
+          top &= top - 1;
+          let word = bits[wi];
+          bits[wi] = 0;
+          while (word !== 0) {
+            const j = (wi << 5) + (31 - Math.clz32(word & -word));
+            word &= word - 1;
+            for (let c = first[j]; c >= 0; c = next[c]) {
+              outJ[o] = j;
+              outD[o] = cD[c];
+              outS[3 * o] = cS[3 * c];
+              outS[3 * o + 1] = cS[3 * c + 1];
+              outS[3 * o + 2] = cS[3 * c + 2];
+              outV[3 * o] = cV[3 * c];
+              outV[3 * o + 1] = cV[3 * c + 1];
+              outV[3 * o + 2] = cV[3 * c + 2];
+              o++;
+            }
+            first[j] = -1;
+          }
+        }
       }
       count += ncand;
     }
   }
   start[n] = count;
 
-  // Trim: copy when much space is wasted, else hand out views.
-  const trim = count < cap * 0.85;
+  // Trim: copy when much space is wasted, else hand out views (always views of buffers handed in for reuse).
+  const trim = !given && count < cap * 0.85;
   return {
     cutoff,
     count,
@@ -426,51 +569,4 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
     distances: trim ? outD.slice(0, count) : outD.subarray(0, count),
     shifts: trim ? outS.slice(0, 3 * count) : outS.subarray(0, 3 * count),
   };
-}
-
-/**
- * Indices 0…len−1 ordered by ascending key (keys are distinct non-negative integers below keySpan), in
- * scratch.order (reused between calls; grown when needed).
- */
-function sortOrder(
-  key: Float64Array,
-  len: number,
-  keySpan: number,
-  scratch: { order: Int32Array<ArrayBuffer>; packed: Float64Array<ArrayBuffer> },
-): Int32Array {
-  if (scratch.order.length < len) {
-    scratch.order = new Int32Array(2 * len);
-    scratch.packed = new Float64Array(2 * len);
-  }
-  const order = scratch.order;
-  // Pack (key, index) into one exact double: key·2^b + index with 2^b ≥ len, so the index is the low part.
-  let pow = 1;
-  while (pow < len) pow *= 2;
-  if (keySpan * pow <= 2 ** 53) {
-    const packed = scratch.packed;
-    for (let a = 0; a < len; a++) packed[a] = key[a] * pow + a;
-    if (len <= 64) {
-      // Insertion sort: cheaper than a native call for the short lists typical of one centre.
-      for (let a = 1; a < len; a++) {
-        const v = packed[a];
-        let p = a - 1;
-        while (p >= 0 && packed[p] > v) {
-          packed[p + 1] = packed[p];
-          p--;
-        }
-        packed[p + 1] = v;
-      }
-    } else {
-      packed.subarray(0, len).sort();
-    }
-    const inv = 1 / pow;
-    for (let a = 0; a < len; a++) {
-      const v = packed[a];
-      order[a] = v - Math.floor(v * inv) * pow;
-    }
-    return order;
-  }
-  const idx = Array.from({ length: len }, (_, a) => a).sort((u, v) => key[u] - key[v]);
-  for (let a = 0; a < len; a++) order[a] = idx[a];
-  return order;
 }

@@ -120,25 +120,32 @@ export function structureKernel(a: EnvironmentFeatures, b: EnvironmentFeatures, 
  */
 export function linearDesignRows(feat: EnvironmentFeatures, order: Order, species: number): Float64Array {
   const v = blockView(feat, order);
-  // locals, not the view's fields, in the loop (V8 reloads fields after every typed-array store); each entry's
-  // sum still runs over the environments in order
+  // locals, not the view's fields, in the loop (V8 reloads fields after every typed-array store)
   const { data, n, width } = v;
   const cols = species * n;
   const rows = new Float64Array(width * cols);
   const centreSpecies = feat.centreSpecies;
-  for (let e = 0; e < feat.count; e++) {
-    const s = centreSpecies[e];
+  // Each entry is the sum, in environment order, of its species' environments: the environments of a species are
+  // taken four at a time and added left to right (((r + x0) + x1) + x2) + x3, the same additions in the same
+  // order as one environment after another, with one load and store of the entry instead of four.
+  const bySpecies: number[][] = Array.from({ length: species }, () => []);
+  for (let e = 0; e < feat.count; e++) bySpecies[centreSpecies[e]].push(e);
+  for (let s = 0; s < species; s++) {
+    const envs = bySpecies[s];
     for (let mu = 0; mu < width; mu++) {
-      const src = (e * width + mu) * n;
       const dst = mu * cols + s * n;
-      let f = 0;
-      for (; f + 3 < n; f += 4) {
-        rows[dst + f] += data[src + f];
-        rows[dst + f + 1] += data[src + f + 1];
-        rows[dst + f + 2] += data[src + f + 2];
-        rows[dst + f + 3] += data[src + f + 3];
+      let k = 0;
+      for (; k + 3 < envs.length; k += 4) {
+        const a0 = (envs[k] * width + mu) * n;
+        const a1 = (envs[k + 1] * width + mu) * n;
+        const a2 = (envs[k + 2] * width + mu) * n;
+        const a3 = (envs[k + 3] * width + mu) * n;
+        for (let f = 0; f < n; f++) rows[dst + f] = rows[dst + f] + data[a0 + f] + data[a1 + f] + data[a2 + f] + data[a3 + f];
       }
-      for (; f < n; f++) rows[dst + f] += data[src + f];
+      for (; k < envs.length; k++) {
+        const a0 = (envs[k] * width + mu) * n;
+        for (let f = 0; f < n; f++) rows[dst + f] += data[a0 + f];
+      }
     }
   }
   return rows;
@@ -182,25 +189,49 @@ export function kernelWeights(k: KernelExpansion, scalar: Float64Array, e: numbe
  * weight blocks, species × n) instead of a kernel expansion.
  */
 export function localContributions(feat: EnvironmentFeatures, order: Order, model: { linear: Float64Array } | { kernel: KernelExpansion }): Float64Array {
-  const v = blockView(feat, order);
-  const out = new Float64Array(feat.count * v.width);
-  const u = new Float64Array(v.n);
-  for (let e = 0; e < feat.count; e++) {
-    const s = feat.centreSpecies[e];
-    let weights: Float64Array;
-    let wOff = 0;
-    if ('linear' in model) {
-      weights = model.linear;
-      wOff = s * v.n;
-    } else {
-      kernelWeights(model.kernel, feat.scalar, e, s, u);
-      weights = u;
+  const { data, n, width } = blockView(feat, order);
+  const count = feat.count;
+  const out = new Float64Array(count * width);
+  const centreSpecies = feat.centreSpecies;
+  if ('linear' in model) {
+    // Row r = e·width + μ against its species' weights: four rows per pass, four independent sums (each over f
+    // ascending from zero, as the one-row loop sums them), so the values are the same bits.
+    const weights = model.linear;
+    const rowsCount = count * width;
+    const wo = (r: number) => centreSpecies[Math.floor(r / width)] * n;
+    let r = 0;
+    for (; r + 3 < rowsCount; r += 4) {
+      const o0 = r * n, o1 = o0 + n, o2 = o1 + n, o3 = o2 + n;
+      const q0 = wo(r), q1 = wo(r + 1), q2 = wo(r + 2), q3 = wo(r + 3);
+      let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+      for (let f = 0; f < n; f++) {
+        s0 += data[o0 + f] * weights[q0 + f];
+        s1 += data[o1 + f] * weights[q1 + f];
+        s2 += data[o2 + f] * weights[q2 + f];
+        s3 += data[o3 + f] * weights[q3 + f];
+      }
+      out[r] = s0;
+      out[r + 1] = s1;
+      out[r + 2] = s2;
+      out[r + 3] = s3;
     }
-    for (let mu = 0; mu < v.width; mu++) {
-      const src = (e * v.width + mu) * v.n;
+    for (; r < rowsCount; r++) {
+      const o = r * n;
+      const q = wo(r);
       let d = 0;
-      for (let f = 0; f < v.n; f++) d += v.data[src + f] * weights[wOff + f];
-      out[e * v.width + mu] = d;
+      for (let f = 0; f < n; f++) d += data[o + f] * weights[q + f];
+      out[r] = d;
+    }
+    return out;
+  }
+  const u = new Float64Array(n);
+  for (let e = 0; e < count; e++) {
+    const weights = kernelWeights(model.kernel, feat.scalar, e, centreSpecies[e], u);
+    for (let mu = 0; mu < width; mu++) {
+      const src = (e * width + mu) * n;
+      let d = 0;
+      for (let f = 0; f < n; f++) d += data[src + f] * weights[f];
+      out[e * width + mu] = d;
     }
   }
   return out;

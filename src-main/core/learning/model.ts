@@ -32,6 +32,7 @@ import {
   foldCoefficients,
   foldSparseWeights,
   nearestOtherDistances,
+  anchorsOf,
   projectRows,
   representativeFactor,
   representativeKernel,
@@ -59,7 +60,7 @@ import { fromIrreducible, tensorFromValues, toIrreducible } from '../dielectric/
 import { checkTensorKind } from './kind-check.ts';
 import { compositionNote } from './contributions.ts';
 import { FREE_ATOM_POLARISABILITY_A3, splitShift, splitValues } from './species-split.ts';
-import { computeReadout, makeWeightMatrices, weightMatricesLength, type TensorReadout } from './tensor-readout.ts';
+import { computeReadout, makeWeightMatrices, weightMatricesLength, type ReadoutResult, type TensorReadout } from './tensor-readout.ts';
 import { cellVolume } from '../geometry/cell.ts';
 import { propagateErrorBars } from '../dielectric/clausius-mossotti.ts';
 import { checkDomain, DomainStatsBuilder, type DomainStats } from './domain.ts';
@@ -459,10 +460,12 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   let atoms = 0;
   const wantApplicability = options.applicability !== false;
   const domain = wantApplicability ? new DomainStatsBuilder(species, centres, settings.cutoffRadius) : null;
+  let pairs: NeighbourList | undefined;
   for (let f = 0; f < nFrames; f++) {
     checkAbort(hooks);
-    // one neighbour list per frame for the features and the domain statistics (the same cutoff)
-    const pairs = domain ? neighbourList(frames[f], settings.cutoffRadius) : undefined;
+    // one neighbour list per frame for the features and the domain statistics (the same cutoff), written over the
+    // previous frame's, which nothing holds
+    pairs = domain ? neighbourList(frames[f], settings.cutoffRadius, { reuse: pairs }) : undefined;
     const fe = feat(frames[f], f, pairs);
     if (domain) domain.add(frames[f], pairs as NeighbourList, fe.centreSpecies, fe.norms);
     if (n0 < 0) {
@@ -506,11 +509,11 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   if (composition && targets.shape === 'tensor') notes.push(composition);
 
   // Representatives (FPS per species) for kernel parts and for applicability.
-  const repsPerSpecies = envPool.perSpecies.map((cand) => {
+  const samples = envPool.perSpecies.map((cand) => {
     const m = linear ? (wantApplicability ? APPLICABILITY_POINTS : 0) : exact ? cand.length : settings.anchorEnvironments;
-    return farthestPointSample(envPool.p, n0, cand, m).chosen;
+    return farthestPointSample(envPool.p, n0, cand, m);
   });
-  const repIndex = Int32Array.from(repsPerSpecies.flatMap((r) => [...r]));
+  const repIndex = Int32Array.from(samples.flatMap((r) => [...r.chosen]));
 
   // Pass 2 for the sparse form: K_NM rows per frame and order.
   const parts: ModelPart[] = [];
@@ -662,7 +665,8 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     hooks.onProgress?.({ stage: 'applicability', done: 0, total: 1 });
     await yieldToLoop();
     // held-out-frame distances (nearest representative of another frame); one frame: leave-self-out
-    const dist = nearestOtherDistances(envPool, repIndex, nFrames >= 2 ? envPool.frame : undefined);
+    // (each environment's nearest representative from the sampling, as a starting point: the same distances)
+    const dist = nearestOtherDistances(envPool, repIndex, nFrames >= 2 ? envPool.frame : undefined, anchorsOf(envPool.count, envPool.perSpecies, samples));
     for (let s = 0; s < nS; s++) {
       const ds: number[] = [];
       for (const i of envPool.perSpecies[s]) if (Number.isFinite(dist[i])) ds.push(dist[i]);
@@ -983,11 +987,20 @@ export function modelPredictor(model: Model): Predictor {
     const W = new Float64Array(weightMatricesLength(fs, order));
     readout = { lambda: order, matrices: (e, s, scalar) => toMatrices(kernelWeights(k, scalar, e, s, u), 0, W) };
   }
+  // the previous frame's neighbour list, features and read-out values, written over by the next frame (nothing of
+  // them is kept in a prediction: predictFromParts copies what it returns)
+  let last: ReadoutResult | undefined;
+  let spare: NeighbourList | undefined;
   return (frame, index) => {
     checkFrameSpecies(model, frame, index);
-    const pairs = neighbourList(frame, fs.cutoff);
-    const r = computeReadout(frame, fs, readout, pairs);
-    return predictFromParts(model, frame, r.features, { order, values: r.values }, pairs);
+    const pairs = neighbourList(frame, fs.cutoff, { reuse: spare });
+    spare = undefined;
+    const r = computeReadout(frame, fs, readout, pairs, undefined, last);
+    last = undefined;
+    const prediction = predictFromParts(model, frame, r.features, { order, values: r.values }, pairs);
+    last = r;
+    spare = pairs;
+    return prediction;
   };
 }
 

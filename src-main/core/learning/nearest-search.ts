@@ -69,7 +69,10 @@ export interface SearchCounter {
   summed: number;
 }
 
-/** Row k of a (rows of n0) dotted with row j of b; four partial sums (preparation only, order does not matter). */
+/**
+ * Row k of a (rows of n0) dotted with row j of b; four partial sums (preparation only: the order decides no result,
+ * but the kernel's dot4 keeps it, so that both preparations give the same bits).
+ */
 function dotRows(a: Float64Array, k: number, b: Float64Array, j: number, n0: number): number {
   let s0 = 0;
   let s1 = 0;
@@ -89,46 +92,64 @@ function dotRows(a: Float64Array, k: number, b: Float64Array, j: number, n0: num
 }
 
 /**
- * Orthonormalises the first `count` rows of `v` in place (Gram–Schmidt, two passes so that orthogonality holds to
- * round-off). Returns false when a row is (numerically) dependent on the ones before it.
+ * Orthonormalises row j of `v` against its rows 0…j−1 (already orthonormal) and normalises it: two passes of
+ * Gram–Schmidt, so that orthogonality holds to round-off. False when the row is (numerically) dependent on them.
  */
-function orthonormaliseRows(v: Float64Array, count: number, n0: number, tiny: number): boolean {
-  for (let j = 0; j < count; j++) {
-    const before = Math.sqrt(dotRows(v, j, v, j, n0));
-    for (let pass = 0; pass < 2; pass++) {
-      for (let i = 0; i < j; i++) {
-        const c = dotRows(v, j, v, i, n0);
-        for (let f = 0; f < n0; f++) v[j * n0 + f] -= c * v[i * n0 + f];
-      }
+function orthonormaliseRow(v: Float64Array, j: number, n0: number, tiny: number): boolean {
+  const oj = j * n0;
+  const before = Math.sqrt(dotRows(v, j, v, j, n0));
+  for (let pass = 0; pass < 2; pass++) {
+    for (let i = 0; i < j; i++) {
+      const c = dotRows(v, j, v, i, n0);
+      const oi = i * n0;
+      for (let f = 0; f < n0; f++) v[oj + f] -= c * v[oi + f];
     }
-    const nv = Math.sqrt(dotRows(v, j, v, j, n0));
-    if (!(nv > tiny * before) || !(nv > 0)) return false;
-    for (let f = 0; f < n0; f++) v[j * n0 + f] /= nv;
   }
+  const nv = Math.sqrt(dotRows(v, j, v, j, n0));
+  if (!(nv > tiny * before) || !(nv > 0)) return false;
+  for (let f = 0; f < n0; f++) v[oj + f] /= nv;
   return true;
 }
 
-function prepareSpecies(reps: Float64Array, rows: Int32Array, n0: number, maxBasis: number, steps: number): SpeciesSearch {
+/** Orthonormalises the first `count` rows of `v` in order (orthonormaliseRow); false at the first dependent row. */
+function orthonormaliseRows(v: Float64Array, count: number, n0: number, tiny: number): boolean {
+  for (let j = 0; j < count; j++) if (!orthonormaliseRow(v, j, n0, tiny)) return false;
+  return true;
+}
+
+/**
+ * One species' prepared representatives (the rows `rows` of `reps`). The WebAssembly kernel
+ * (assembly/prediction-kernels.ts prepareSpecies, through wasmPrepare) does the very same operations in the same
+ * order, so both give the same bits: each dot product as dotRows (four partial sums), each row update element by
+ * element, each sum of rows in ascending row order.
+ */
+function prepareSpeciesJs(reps: Float64Array, rows: Int32Array, n0: number, maxBasis: number, steps: number): SpeciesSearch {
   const m = rows.length;
   const mean = new Float64Array(n0);
-  for (const r of rows) for (let f = 0; f < n0; f++) mean[f] += reps[r * n0 + f];
+  for (let k = 0; k < m; k++) {
+    const o = rows[k] * n0;
+    for (let f = 0; f < n0; f++) mean[f] += reps[o + f];
+  }
   for (let f = 0; f < n0; f++) mean[f] /= m;
   const centred = new Float64Array(m * n0);
-  rows.forEach((r, k) => {
-    for (let f = 0; f < n0; f++) centred[k * n0 + f] = reps[r * n0 + f] - mean[f];
-  });
-  // Start: greedy pivoted Gram–Schmidt (the row with the largest residual next), which also finds the rank.
-  const res = Float64Array.from(centred);
+  for (let k = 0; k < m; k++) {
+    const o = rows[k] * n0;
+    for (let f = 0; f < n0; f++) centred[k * n0 + f] = reps[o + f] - mean[f];
+  }
   const limit = m < MIN_ROWS_FOR_BASIS ? 0 : Math.min(maxBasis, n0, m);
-  let basis = new Float64Array(limit * n0);
   // squared residual norms, kept up to date by subtraction: they only choose the pivot
   const left = new Float64Array(m);
   // the scale for the rank test: the rows themselves, not their spread (identical rows leave only round-off)
   let first = 0;
   for (let k = 0; k < m; k++) {
-    left[k] = dotRows(res, k, res, k, n0);
+    left[k] = dotRows(centred, k, centred, k, n0);
     first = Math.max(first, dotRows(reps, rows[k], reps, rows[k], n0));
   }
+  // Start: greedy pivoted Gram–Schmidt (the row with the largest residual next), which also finds the rank. The
+  // residuals are not kept: a row's component along a new basis vector is its centred row's (the basis vector is
+  // orthogonal to the ones before), and the pivot's residual is rebuilt from its components.
+  const coef = new Float64Array(m * limit); // coef[k·limit + j] = ⟨centred row k, basis vector j⟩
+  let basis = new Float64Array(limit * n0);
   let d = 0;
   while (d < limit) {
     let pivot = -1;
@@ -140,11 +161,16 @@ function prepareSpecies(reps: Float64Array, rows: Int32Array, n0: number, maxBas
       }
     }
     if (pivot < 0 || largest <= RANK_TOLERANCE * RANK_TOLERANCE * first) break;
-    basis.set(res.subarray(pivot * n0, pivot * n0 + n0), d * n0);
-    if (!orthonormaliseRows(basis, d + 1, n0, RANK_TOLERANCE)) break;
+    const od = d * n0;
+    for (let f = 0; f < n0; f++) basis[od + f] = centred[pivot * n0 + f];
+    for (let i = 0; i < d; i++) {
+      const c = coef[pivot * limit + i];
+      for (let f = 0; f < n0; f++) basis[od + f] -= c * basis[i * n0 + f];
+    }
+    if (!orthonormaliseRow(basis, d, n0, RANK_TOLERANCE)) break;
     for (let k = 0; k < m; k++) {
-      const c = dotRows(basis, d, res, k, n0);
-      for (let f = 0; f < n0; f++) res[k * n0 + f] -= c * basis[d * n0 + f];
+      const c = dotRows(centred, k, basis, d, n0);
+      coef[k * limit + d] = c;
       left[k] = k === pivot ? 0 : left[k] - c * c;
     }
     d++;
@@ -152,13 +178,13 @@ function prepareSpecies(reps: Float64Array, rows: Int32Array, n0: number, maxBas
   basis = basis.slice(0, d * n0);
   // Then a few steps of subspace iteration Q ← orth(CᵀC Q) towards the d leading principal directions: the bound
   // depends only on the span, and the principal span holds the most spread, so fewer exact distances are needed.
-  const proj = new Float64Array(m * d);
+  // The first step's projections C Qᵀ are the Gram–Schmidt components already at hand.
   for (let step = 0; step < steps && d > 0; step++) {
-    for (let k = 0; k < m; k++) for (let j = 0; j < d; j++) proj[k * d + j] = dotRows(centred, k, basis, j, n0);
+    if (step > 0) for (let k = 0; k < m; k++) for (let j = 0; j < d; j++) coef[k * limit + j] = dotRows(centred, k, basis, j, n0);
     const next = new Float64Array(d * n0);
     for (let k = 0; k < m; k++) {
       for (let j = 0; j < d; j++) {
-        const c = proj[k * d + j];
+        const c = coef[k * limit + j];
         for (let f = 0; f < n0; f++) next[j * n0 + f] += c * centred[k * n0 + f];
       }
     }
@@ -190,14 +216,11 @@ export function prepareNearestSearch(
 ): NearestSearch {
   const maxBasis = options.basis ?? SEARCH_BASIS;
   const steps = options.steps ?? SUBSPACE_STEPS;
-  const bySpecies = new Map<number, number[]>();
-  repSpecies.forEach((s, r) => {
-    const list = bySpecies.get(s);
-    if (list) list.push(r);
-    else bySpecies.set(s, [r]);
-  });
+  const k = predictKernels();
+  const prepared = k ? wasmPrepare(k, reps, repSpecies, n0, maxBasis, steps) : null;
+  if (prepared) return { n0, reps, species: prepared };
   const species = new Map<number, SpeciesSearch>();
-  for (const [s, list] of bySpecies) species.set(s, prepareSpecies(reps, Int32Array.from(list), n0, maxBasis, steps));
+  for (const [s, rows] of rowsBySpecies(repSpecies)) species.set(s, prepareSpeciesJs(reps, rows, n0, maxBasis, steps));
   return { n0, reps, species };
 }
 
@@ -217,22 +240,18 @@ export function cachedNearestSearch(owner: { n0: number; species: Int32Array; p:
 }
 
 /**
- * Queries an owner answers by the plain scan before its search is prepared. Preparing costs about as much as
- * 1,000–2,000 plain queries (512 representatives, n0 = 952: 170–430 ms against 0.2–0.3 ms per plain query, cold and
- * warm, load ≈ 10 on 2 cores), so a small job (one 384-atom frame) never prepares, and a long one pays at most this
- * many slower queries first. Either way the distances are the same numbers.
+ * Queries an owner answers by the plain scan before its search is prepared. With the WebAssembly kernels,
+ * preparing 2 × 256 representatives at n0 = 952 takes 16 ms (43 ms the first time in a process) and saves about
+ * 30 µs per query (plain scan 44–50 µs, prepared search 17 µs; load ≈ 4 on 2 cores), so it pays after 550–1,400
+ * queries; in JavaScript 95–130 ms against 185 and 36 µs, after about 700. So a small job (one 384-atom frame)
+ * never prepares, and a longer one pays at most this many slower queries first. Either way the distances are the
+ * same numbers.
  */
 export const PLAIN_QUERIES_BEFORE_PREPARING = 1024;
-/**
- * The same with the WebAssembly kernels, whose plain scan is about four times faster: 47–57 µs against 13–16 µs
- * per prepared query and ≈ 180 ms to prepare (the same model and load ≈ 8), so preparing pays after about 5,000
- * queries.
- */
-export const PLAIN_QUERIES_BEFORE_PREPARING_WITH_KERNELS = 4096;
 
-/** The number of plain queries before preparing, in this thread now (kernels on or off). */
+/** The number of plain queries before preparing, in this thread now (the same with the kernels on or off). */
 export function plainQueriesBeforePreparing(): number {
-  return predictKernels() ? PLAIN_QUERIES_BEFORE_PREPARING_WITH_KERNELS : PLAIN_QUERIES_BEFORE_PREPARING;
+  return PLAIN_QUERIES_BEFORE_PREPARING;
 }
 const plainQueries = new WeakMap<object, number>();
 
@@ -710,4 +729,53 @@ function wasmScanAll(owner: { n0: number; species: Int32Array; p: Float64Array }
     const { rows, offset } = reps.species.get(s) as { rows: Int32Array; offset: number };
     k.scanSpecies(repsAt + offset, rows.length, n0, rowsAt, idxAt, nq, outAt);
   });
+}
+
+/** Scratch of the preparation kernel: the record of its nine arrays' addresses, then the arrays (byte offsets). */
+function prepareLayout(m: number, n0: number, limit: number): { offsets: number[]; bytes: number } {
+  const sizes = [n0, m * n0, m, m * limit, limit * n0, limit * n0, n0, limit * m, m];
+  const offsets: number[] = [];
+  let p = 48;
+  for (const n of sizes) {
+    offsets.push(p);
+    p += bytes16(8 * n);
+  }
+  return { offsets, bytes: p };
+}
+
+/** The key of the preparation's scratch region in the kernel arena. */
+const PREPARE_SCRATCH = {};
+
+/**
+ * The prepared search of every species through the WebAssembly kernel (assembly prepareSpecies: the same bits as
+ * prepareSpeciesJs), with the representatives resident as the scan and the search keep them; null when the
+ * kernel's memory cannot hold them.
+ */
+function wasmPrepare(k: PredictKernels, reps: Float64Array, repSpecies: Int32Array, n0: number, maxBasis: number, steps: number): Map<number, SpeciesSearch> | null {
+  const bySpecies = rowsBySpecies(repSpecies);
+  const layout = repsLayout(reps, n0, () => bySpecies);
+  // the resident layout is kept per representatives array: it must group them as these species do
+  if (layout.species.size !== bySpecies.size) return null;
+  for (const [s, rows] of bySpecies) {
+    const held = layout.species.get(s)?.rows;
+    if (!held || held.length !== rows.length || held.some((r, i) => r !== rows[i])) return null;
+  }
+  const limitOf = (m: number) => (m < MIN_ROWS_FOR_BASIS ? 0 : Math.min(maxBasis, n0, m));
+  let bytes = 0;
+  for (const { rows } of layout.species.values()) bytes = Math.max(bytes, prepareLayout(rows.length, n0, limitOf(rows.length)).bytes);
+  const species = new Map<number, SpeciesSearch>();
+  for (const [s, { rows, offset }] of layout.species) {
+    const at = k.arena.acquire([repsRegion(reps, n0, layout), { name: 'prepare-scratch', key: PREPARE_SCRATCH, bytes }]);
+    if (!at) return null;
+    const [repsAt, scr] = at;
+    const m = rows.length;
+    const limit = limitOf(m);
+    const { offsets } = prepareLayout(m, n0, limit);
+    new Int32Array(k.module.f64(scr, 0).buffer, scr, offsets.length).set(offsets.map((o) => scr + o));
+    const d = k.prepareSpecies(repsAt + offset, m, n0, limit, steps, scr);
+    // fresh views after the call (a reservation may have grown the memory); copies, not views, are kept
+    const read = (slot: number, length: number) => k.module.f64(scr + offsets[slot], length).slice();
+    species.set(s, { rows, d, mean: read(0, n0), basis: read(4, d * n0), coordsT: read(7, d * m), residual: read(8, m) });
+  }
+  return species;
 }

@@ -71,15 +71,15 @@ export function squaredDistanceBelow(a: Float64Array, ia: number, b: Float64Arra
  * is the full sum of rowDistance, so the choice and the distances are those of the plain loop, bit for bit
  * (kept in test/helpers/reference-kernels.ts, which the tests compare against).
  */
-export function farthestPointSample(p: Float64Array, n0: number, candidates: Int32Array, m: number): { chosen: Int32Array; distance: Float64Array } {
+export function farthestPointSample(p: Float64Array, n0: number, candidates: Int32Array, m: number): { chosen: Int32Array; distance: Float64Array; nearest: Int32Array } {
   const n = candidates.length;
   const take = Math.min(m, n);
   const chosen = new Int32Array(take);
   const dist = new Float64Array(n).fill(Infinity);
-  if (take === 0) return { chosen, distance: dist };
-  // the squared sum whose root is dist[c], and the chosen point (index into chosen) nearest each candidate
-  const dist2 = new Float64Array(n).fill(Infinity);
+  // the chosen point (index into chosen) nearest each candidate, and the squared sum whose root is dist[c]
   const nearest = new Int32Array(n).fill(-1);
+  if (take === 0) return { chosen, distance: dist, nearest };
+  const dist2 = new Float64Array(n).fill(Infinity);
   // distance of chosen point j to the newest one (computed when first needed in a step: stamp[j] = step)
   const toNew = new Float64Array(take);
   const stamp = new Int32Array(take).fill(-1);
@@ -132,38 +132,129 @@ export function farthestPointSample(p: Float64Array, n0: number, candidates: Int
     next = bestAt;
     if (best <= 0) {
       // every remaining candidate duplicates a chosen one
-      return { chosen: chosen.slice(0, k + 1), distance: dist };
+      return { chosen: chosen.slice(0, k + 1), distance: dist, nearest };
     }
   }
-  return { chosen, distance: dist };
+  return { chosen, distance: dist, nearest };
+}
+
+/** For each pool row, a representative near it (an index into the representatives, −1 if none) and its distance. */
+export interface RepresentativeAnchors {
+  rep: Int32Array;
+  distance: Float64Array;
+}
+
+/**
+ * The anchors that farthest-point sampling leaves behind: each candidate's nearest chosen row and its distance,
+ * per species, with the representatives numbered as the species' chosen rows one after the other.
+ */
+export function anchorsOf(count: number, candidates: Int32Array[], samples: { chosen: Int32Array; distance: Float64Array; nearest: Int32Array }[]): RepresentativeAnchors {
+  const rep = new Int32Array(count).fill(-1);
+  const distance = new Float64Array(count).fill(Infinity);
+  let offset = 0;
+  samples.forEach((sample, s) => {
+    const cand = candidates[s];
+    for (let c = 0; c < cand.length; c++) {
+      if (sample.nearest[c] < 0) continue;
+      rep[cand[c]] = offset + sample.nearest[c];
+      distance[cand[c]] = sample.distance[c];
+    }
+    offset += sample.chosen.length;
+  });
+  return { rep, distance };
 }
 
 /**
  * Distance of each pool row to the nearest representative other than itself (leave-self-out), or, with
  * `frameOf`, to the nearest representative from another frame (leave-frame-out), for the applicability threshold. `reps` are pool indices; `repOf[i]` is i's own index in reps or −1.
  * Sums that pass the best so far are left early (squaredDistanceBelow): the same minimum, bit for bit.
+ *
+ * With `anchors` (a representative a near each row i, at distance d(i,a)), the representatives of i's species
+ * are visited in ascending distance from a, and the search stops at the first one with d(a,k) > d(i,a) + best
+ * (with a margin far above rounding): by the triangle inequality it and all later ones are farther than the best
+ * so far. One with d(i,a) > d(a,k) + best is skipped likewise. The minimum, and so the result, is the same.
  */
-export function nearestOtherDistances(pool: EnvironmentPool, reps: Int32Array, frameOf?: Int32Array): Float64Array {
+export function nearestOtherDistances(pool: EnvironmentPool, reps: Int32Array, frameOf?: Int32Array, anchors?: RepresentativeAnchors): Float64Array {
   const own = new Map<number, number>();
   reps.forEach((r, k) => own.set(r, k));
   const out = new Float64Array(pool.count).fill(Infinity);
+  const n0 = pool.n0;
+  const p = pool.p;
+  // (without finite distances between the representatives there is no order to stop in: the plain loop)
+  const ordered = anchors ? anchorOrders(pool, reps) : null;
+  const SAFE = 1 + 1e-9;
   for (let i = 0; i < pool.count; i++) {
-    const self = own.get(i);
+    const self = own.get(i) ?? -1;
+    const si = pool.species[i];
+    const a = anchors ? anchors.rep[i] : -1;
+    // anchored: the group of i's species in ascending distance from a; else every representative in order
+    const anchored = ordered !== null && anchors !== undefined && a >= 0 && pool.species[reps[a]] === si;
+    const members = anchored ? ordered.group[si] : reps;
+    const m = members.length;
+    const row = anchored ? ordered.at[a] * m : 0;
+    const da = anchored ? anchors.distance[i] : 0;
     let best2 = Infinity;
-    for (let k = 0; k < reps.length; k++) {
-      if (k === self || pool.species[reps[k]] !== pool.species[i]) continue;
+    let best = Infinity;
+    for (let t = 0; t < m; t++) {
+      let k = t;
+      if (anchored) {
+        const b = ordered.order[si][row + t];
+        const dab = ordered.dist[si][row + b];
+        if (dab > (da + best) * SAFE) break;
+        if (da > (dab + best) * SAFE) continue;
+        k = members[b];
+      } else if (pool.species[reps[k]] !== si) continue;
+      if (k === self) continue;
       if (frameOf && frameOf[reps[k]] === frameOf[i]) continue;
-      const s = squaredDistanceBelow(pool.p, i, pool.p, reps[k], pool.n0, best2);
+      const s = squaredDistanceBelow(p, i, p, reps[k], n0, best2);
       if (s < best2) {
         const d = Math.sqrt(s);
         if (d < out[i]) {
           out[i] = d;
           best2 = s;
+          best = d;
         }
       }
     }
   }
   return out;
+}
+
+/**
+ * The representatives grouped by species (indices into reps, in order), each one's place in its group, the
+ * distances between the group's members (m × m) and, for each member, the group ordered by distance from it.
+ */
+function anchorOrders(pool: EnvironmentPool, reps: Int32Array): { group: Int32Array[]; at: Int32Array; dist: Float64Array[]; order: Int32Array[] } | null {
+  let species = 0;
+  for (let k = 0; k < reps.length; k++) species = Math.max(species, pool.species[reps[k]] + 1);
+  const lists: number[][] = Array.from({ length: species }, () => []);
+  const at = new Int32Array(reps.length);
+  for (let k = 0; k < reps.length; k++) {
+    const list = lists[pool.species[reps[k]]];
+    at[k] = list.length;
+    list.push(k);
+  }
+  const group = lists.map((l) => Int32Array.from(l));
+  const dist: Float64Array[] = [];
+  const order: Int32Array[] = [];
+  for (const members of group) {
+    const m = members.length;
+    const d = new Float64Array(m * m);
+    for (let a = 0; a < m; a++) {
+      for (let b = a + 1; b < m; b++) d[a * m + b] = d[b * m + a] = rowDistance(pool.p, reps[members[a]], pool.p, reps[members[b]], pool.n0);
+    }
+    if (!d.every(Number.isFinite)) return null;
+    const o = new Int32Array(m * m);
+    const idx = Array.from({ length: m }, (_, b) => b);
+    for (let a = 0; a < m; a++) {
+      const row = d.subarray(a * m, (a + 1) * m);
+      const sorted = idx.slice().sort((u, v) => row[u] - row[v] || u - v);
+      o.set(sorted, a * m);
+    }
+    dist.push(d);
+    order.push(o);
+  }
+  return { group, at, dist, order };
 }
 
 /** The representatives of a sparse model of one order: λ=0 rows and order-λ blocks copied out of the pool. */

@@ -14,6 +14,8 @@ export interface PredictKernels {
   searchSpecies(species: number, reps: number, scratch: number, queries: number, idx: number, nq: number, out: number): void;
   /** The plain scan (sparse.ts nearestDistance) of queries over one species' m representatives; byte addresses. */
   scanSpecies(reps: number, m: number, n0: number, queries: number, idx: number, nq: number, out: number): void;
+  /** The prepared search of one species (nearest-search.ts prepareSpeciesJs, the same bits); returns its basis size. */
+  prepareSpecies(reps: number, m: number, n0: number, limit: number, steps: number, work: number): number;
 }
 
 let cached: PredictKernels | null = null;
@@ -29,6 +31,7 @@ export function predictKernels(): PredictKernels | null {
       readOne: module.exports.readOne as PredictKernels['readOne'],
       searchSpecies: module.exports.searchSpecies as PredictKernels['searchSpecies'],
       scanSpecies: module.exports.scanSpecies as PredictKernels['scanSpecies'],
+      prepareSpecies: module.exports.prepareSpecies as PredictKernels['prepareSpecies'],
     };
   }
   return cached;

@@ -8,6 +8,7 @@ import { cellFromParameters, supercell, toCartesian, toFractional } from '../../
 import { InputError } from '../../../src-main/core/errors.ts';
 import { makeFrame, type Frame } from '../../../src-main/core/geometry/frame.ts';
 import { neighbourList, type NeighbourList } from '../../../src-main/core/geometry/neighbours.ts';
+import { referenceNeighbourList } from '../../helpers/reference-neighbours.ts';
 
 type Pbc = [boolean, boolean, boolean];
 
@@ -231,6 +232,85 @@ describe('neighbourList against brute force', () => {
       }),
       { numRuns: 80 },
     );
+  });
+});
+
+/** Every output array of two lists, compared bit for bit (the same pairs in the same order, the same doubles). */
+function expectIdentical(a: NeighbourList, b: Pick<NeighbourList, 'count' | 'start' | 'neighbour' | 'vectors' | 'distances' | 'shifts'>): void {
+  expect(a.count).toBe(b.count);
+  expect(Buffer.from(a.start.buffer, a.start.byteOffset, a.start.byteLength).equals(Buffer.from(b.start.buffer, b.start.byteOffset, b.start.byteLength))).toBe(true);
+  expect(Buffer.from(a.neighbour.buffer, a.neighbour.byteOffset, a.neighbour.byteLength).equals(Buffer.from(b.neighbour.buffer, b.neighbour.byteOffset, b.neighbour.byteLength))).toBe(true);
+  expect(Buffer.from(a.shifts.buffer, a.shifts.byteOffset, a.shifts.byteLength).equals(Buffer.from(b.shifts.buffer, b.shifts.byteOffset, b.shifts.byteLength))).toBe(true);
+  expect(Buffer.from(a.vectors.buffer, a.vectors.byteOffset, a.vectors.byteLength).equals(Buffer.from(b.vectors.buffer, b.vectors.byteOffset, b.vectors.byteLength))).toBe(true);
+  expect(Buffer.from(a.distances.buffer, a.distances.byteOffset, a.distances.byteLength).equals(Buffer.from(b.distances.buffer, b.distances.byteOffset, b.distances.byteLength))).toBe(true);
+}
+
+describe('neighbourList against its kept first version (test/helpers/reference-neighbours.ts)', () => {
+  it('the same bits in the same order: random cells, partial pbc, cutoffs up to several cell widths, bin sizes', () => {
+    // interleaved sizes, so that the scratch kept from a larger frame is reused by smaller ones and grown again
+    fc.assert(
+      fc.property(arbCase, (c) => {
+        const frame = frameFromCase(c);
+        const cutoff = c.cutoffScale * 2.5 * cellScale(c.cell);
+        expectIdentical(neighbourList(frame, cutoff, { binFraction: c.binFraction }), referenceNeighbourList(frame, cutoff, { binFraction: c.binFraction }));
+      }),
+      { numRuns: 150 },
+    );
+  });
+
+  it('the same bits for liquid-density cells of 384 and 1,536 atoms, atoms outside the cell, open clusters, lattices on bin edges', () => {
+    let state = 12345;
+    const rand = () => ((state = (Math.imul(state, 1103515245) + 12345) >>> 0) / 4294967296);
+    const cases: [number, [number, number, number]][] = [[384, [90, 90, 90]], [1536, [75, 85, 105]], [384, [60, 60, 60]]];
+    for (const [atoms, [al, be, ga]] of cases) {
+      const a = Math.cbrt(atoms / 0.1) / cellScale(cellFromParameters(1, 1, 1, al, be, ga));
+      const cell = cellFromParameters(a, a, a, al, be, ga);
+      const frame = makeFrame(new Array<string>(atoms).fill('X'), toCartesian(cell, Array.from({ length: 3 * atoms }, () => rand() * 1.4 - 0.2)), cell);
+      expectIdentical(neighbourList(frame, 4.5), referenceNeighbourList(frame, 4.5));
+      const open = makeFrame(frame.species, frame.positions, null);
+      expectIdentical(neighbourList(open, 4.5), referenceNeighbourList(open, 4.5));
+    }
+    // orthorhombic cells with atoms on a lattice (on bin edges, distances at the cutoff), and random ones, every pbc
+    for (const [a, b, c] of [[12, 12, 12], [9, 15, 21], [6, 30, 4.5]]) {
+      const cell = cellFromParameters(a, b, c, 90, 90, 90);
+      const grid: number[] = [];
+      for (let x = 0; x < a; x += 1.5) for (let y = 0; y < b; y += 1.5) for (let z = 0; z < c; z += 1.5) grid.push(x, y, z);
+      const random = Array.from({ length: grid.length }, (_, k) => (rand() * 1.2 - 0.1) * [a, b, c][k % 3]);
+      for (const positions of [grid, random]) {
+        for (const pbc of [[true, true, true], [true, false, true], [false, false, false]] as Pbc[]) {
+          const frame = makeFrame(new Array<string>(positions.length / 3).fill('X'), positions, cell);
+          frame.pbc = pbc;
+          for (const cutoff of [3, 4.5, 7.5]) expectIdentical(neighbourList(frame, cutoff), referenceNeighbourList(frame, cutoff));
+        }
+      }
+    }
+  });
+
+  it('a list handed back for reuse is written over with the same result, grown when too small', () => {
+    let state = 777;
+    const rand = () => ((state = (Math.imul(state, 1103515245) + 12345) >>> 0) / 4294967296);
+    let spare: NeighbourList | undefined;
+    let sameBuffer = 0;
+    // small, large, small, empty, large: the buffers are reused when large enough, and grown when not
+    for (const [atoms, cutoff] of [[60, 4.5], [400, 5], [100, 3], [0, 4.5], [500, 5.5], [1, 6]] as const) {
+      const a = Math.cbrt(atoms / 0.1 || 1000);
+      const cell = cellFromParameters(a, a, a, 80, 95, 100);
+      const frame = makeFrame(new Array<string>(atoms).fill('X'), toCartesian(cell, Array.from({ length: 3 * atoms }, () => rand())), cell);
+      const before = spare?.distances.buffer;
+      const nl = neighbourList(frame, cutoff, { reuse: spare });
+      if (before && nl.distances.buffer === before) sameBuffer++;
+      expectIdentical(nl, referenceNeighbourList(frame, cutoff));
+      expectWellFormed(nl, atoms);
+      spare = nl;
+    }
+    expect(sameBuffer).toBeGreaterThanOrEqual(2);
+    // a list whose arrays share one buffer is not written over
+    const frame = makeFrame(['X', 'X'], [0, 0, 0, 1, 0, 0], null);
+    const shared = new ArrayBuffer(64);
+    const odd: NeighbourList = { cutoff: 2, count: 1, start: new Int32Array(shared, 0, 3), neighbour: new Int32Array(shared, 16, 1), vectors: new Float64Array(shared, 24, 3), distances: new Float64Array(shared, 48, 1), shifts: new Int32Array(3) };
+    const copy = new Uint8Array(shared.slice(0));
+    expectIdentical(neighbourList(frame, 2, { reuse: odd }), referenceNeighbourList(frame, 2));
+    expect(new Uint8Array(shared)).toEqual(copy);
   });
 });
 

@@ -132,6 +132,63 @@ describe('bounded nearest-representative search', () => {
     expect(Math.abs(counters[0].exact - counters[1].exact)).toBeLessThanOrEqual(0.01 * counters[1].exact);
   });
 
+  it('prepares the same search bit for bit through the WebAssembly kernel as in JavaScript (basis, coordinates, residual norms)', () => {
+    const same = (x: Float64Array, y: Float64Array) => x.length === y.length && x.every((v, i) => Object.is(v, y[i]));
+    fc.assert(
+      fc.property(
+        fc.integer({ min: 0, max: 2 ** 31 - 1 }),
+        fc.integer({ min: 1, max: 41 }),
+        fc.integer({ min: 1, max: 70 }),
+        fc.integer({ min: 1, max: 3 }),
+        fc.boolean(),
+        fc.constantFrom(1e-9, 0.01, 1),
+        fc.integer({ min: 0, max: 12 }),
+        fc.integer({ min: 0, max: 20 }),
+        fc.integer({ min: 0, max: 3 }),
+        (seed, n0, count, speciesCount, clustered, spread, duplicates, basis, steps) => {
+          const c = makeCase(makeRng(seed), n0, count, speciesCount, clustered, spread, duplicates);
+          setWebAssemblyKernels(false);
+          const js = prepareNearestSearch(c.reps, c.species, n0, { basis, steps });
+          setWebAssemblyKernels(true);
+          const wasm = prepareNearestSearch(c.reps, c.species, n0, { basis, steps });
+          expect([...wasm.species.keys()]).toEqual([...js.species.keys()]);
+          for (const [s, a] of js.species) {
+            const b = wasm.species.get(s)!;
+            expect(b.d).toBe(a.d);
+            expect(Array.from(b.rows)).toEqual(Array.from(a.rows));
+            for (const key of ['mean', 'basis', 'coordsT', 'residual'] as const) expect(same(a[key], b[key])).toBe(true);
+          }
+        },
+      ),
+      { numRuns: 60, seed: 7003, endOnFailure: true },
+    );
+    // the same representatives grouped by other species (the kernel's resident layout is kept per array): still
+    // the JavaScript preparation's numbers
+    const shared = makeCase(makeRng(45), 17, 60, 2, true, 0.1, 0);
+    const regrouped = Int32Array.from(shared.species, (s, k) => (k % 5 === 0 ? 1 - s : s));
+    prepareNearestSearch(shared.reps, shared.species, 17);
+    setWebAssemblyKernels(false);
+    const want = prepareNearestSearch(shared.reps, regrouped, 17);
+    setWebAssemblyKernels(true);
+    const got = prepareNearestSearch(shared.reps, regrouped, 17);
+    for (const [s, a] of want.species) {
+      const b = got.species.get(s)!;
+      expect(Array.from(b.rows)).toEqual(Array.from(a.rows));
+      for (const key of ['mean', 'basis', 'coordsT', 'residual'] as const) expect(same(a[key], b[key])).toBe(true);
+    }
+    // the size prediction uses: hundreds of rows per species, n0 not a multiple of four, the full basis
+    const c = makeCase(makeRng(44), 303, 400, 2, true, 0.1, 3);
+    setWebAssemblyKernels(false);
+    const js = prepareNearestSearch(c.reps, c.species, 303);
+    setWebAssemblyKernels(true);
+    const wasm = prepareNearestSearch(c.reps, c.species, 303);
+    for (const [s, a] of js.species) {
+      const b = wasm.species.get(s)!;
+      expect(b.d).toBe(SEARCH_BASIS);
+      for (const key of ['mean', 'basis', 'coordsT', 'residual'] as const) expect(same(a[key], b[key])).toBe(true);
+    }
+  });
+
   it('returns exactly the plain scan distance on random and clustered unit rows (property)', () => {
     fc.assert(
       fc.property(

@@ -5,6 +5,8 @@ import {
   farthestPointSample,
   foldSparseWeights,
   nearestOtherDistances,
+  anchorsOf,
+  rowDistance,
   projectRows,
   representativeFactor,
   representativeKernel,
@@ -66,21 +68,39 @@ describe('farthest-point sampling', () => {
     rows.forEach((r, i) => p.set(r, i * n0));
     const pool = { n0, count: rows.length, species: Int32Array.from(species), p };
     const reps: number[] = [];
+    const samples: Record<number, ReturnType<typeof farthestPointSample>[]> = { 1: [], 17: [], 120: [] };
+    const candidates: Int32Array[] = [];
     for (const s of [0, 1]) {
       const cand = Int32Array.from(species.flatMap((x, i) => (x === s ? [i] : [])));
+      candidates.push(cand);
       for (const m of [1, 17, 120, cand.length]) {
         const fast = farthestPointSample(p, n0, cand, m);
         const plain = referenceFarthestPointSample(p, n0, cand, m);
         expect(fast.chosen).toEqual(plain.chosen);
         expect(Array.from(fast.distance, (d, i) => Object.is(d, plain.distance[i])).every(Boolean)).toBe(true);
+        // the nearest chosen row it reports is at the reported distance
+        for (let c = 0; c < cand.length; c++) {
+          expect(Object.is(rowDistance(p, cand[c], p, fast.chosen[fast.nearest[c]], n0), fast.distance[c])).toBe(true);
+        }
         if (m === 120) reps.push(...fast.chosen);
+        if (m in samples) samples[m].push(fast);
       }
     }
     const repIndex = Int32Array.from(reps);
     for (const frameOf of [undefined, Int32Array.from(frame)]) {
-      const fast = nearestOtherDistances(pool, repIndex, frameOf);
       const plain = referenceNearestOtherDistances(pool, repIndex, frameOf);
+      const fast = nearestOtherDistances(pool, repIndex, frameOf);
       expect(Array.from(fast, (d, i) => Object.is(d, plain[i])).every(Boolean)).toBe(true);
+      // started from the sampling's nearest representative, the same bits
+      const anchored = nearestOtherDistances(pool, repIndex, frameOf, anchorsOf(pool.count, candidates, samples[120]));
+      expect(Array.from(anchored, (d, i) => Object.is(d, plain[i])).every(Boolean)).toBe(true);
+    }
+    // with fewer representatives (1 and 17 per species), too
+    for (const m of [1, 17]) {
+      const few = Int32Array.from(samples[m].flatMap((r) => [...r.chosen]));
+      const plain = referenceNearestOtherDistances(pool, few, Int32Array.from(frame));
+      const anchored = nearestOtherDistances(pool, few, Int32Array.from(frame), anchorsOf(pool.count, candidates, samples[m]));
+      expect(Array.from(anchored, (d, i) => Object.is(d, plain[i])).every(Boolean)).toBe(true);
     }
   });
 

@@ -8,6 +8,7 @@ import { afterEach, beforeAll, describe, expect, it } from 'vitest';
 import type { FeatureSettings } from '../../../src-main/core/descriptors/feature-types.ts';
 import { computeFeatures, featurePlan } from '../../../src-main/core/descriptors/features.ts';
 import { makeFrame, type Frame } from '../../../src-main/core/geometry/frame.ts';
+import { supercell } from '../../../src-main/core/geometry/cell.ts';
 import { modelFeaturiser, modelPredictor, predictTarget, predictWithFeatures, trainModel, type Model } from '../../../src-main/core/learning/model.ts';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
 import { computeReadout, readOne, readoutScratch, readoutStep, weightMatrices } from '../../../src-main/core/learning/tensor-readout.ts';
@@ -163,6 +164,23 @@ describe('modelPredictor gives the feature route’s predictions', () => {
       });
     });
   }
+
+  it('one predictor writes each frame over the previous frame\'s arrays and carries nothing over (frames in turn, one of another size)', () => {
+    const model = models.linear;
+    const numbers = (p: ReturnType<ReturnType<typeof modelPredictor>>) => {
+      const a = p.applicability;
+      return [...p.irreducible, ...p.localIrreducible, ...a.atomDistance, ...a.atomScore, a.score, a.variance, a.maxDistance, a.atomsOutside, ...(p.uncertainty?.sd ?? [])];
+    };
+    const bigger = supercell(test[0], [2, 1, 1]);
+    const sequence = [test[0], test[1], bigger, test[0], bigger, test[1]];
+    const predict = modelPredictor(model);
+    sequence.forEach((f, k) => {
+      const reused = numbers(predict(f, k));
+      const fresh = numbers(modelPredictor(model)(f, k));
+      expect(reused.length).toBe(fresh.length);
+      expect(reused.every((v, i) => Object.is(v, fresh[i]))).toBe(true);
+    });
+  });
 });
 
 describe('the register-blocked read-out kernel', () => {

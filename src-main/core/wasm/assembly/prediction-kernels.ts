@@ -1,6 +1,6 @@
 // Prediction kernels in AssemblyScript, compiled to WebAssembly with 128-bit SIMD (two doubles per lane pair):
-// the λ > 0 read-out of one environment (core/learning/tensor-readout.ts readOne) and the exact nearest-
-// representative search of the applicability check (core/learning/nearest-search.ts). Compiled by
+// the λ > 0 read-out of one environment (core/learning/tensor-readout.ts readOne), and the exact nearest-
+// representative search of the applicability check with its one-off preparation (core/learning/nearest-search.ts). Compiled by
 // scripts/build-wasm.mjs into ../generated/prediction-kernels.ts; loaded through ../prediction-kernels.ts. Every number a caller
 // keeps is summed in the same order as in its JavaScript twin (vectorised across independent outputs, never
 // within one sum), so the results are the same bits; only the search's lower bounds, which merely decide what to
@@ -465,6 +465,53 @@ function nearestOf(m: i32, d: i32, n0: i32, reps: usize, coordsT: usize, residua
   const zero = f64x2.splat(0);
   const rowM = <usize>m << 3;
   let k = 0;
+  if (d == 8) {
+    // the basis size prediction uses: the query's coordinates held in registers, four representatives per pass
+    const q0 = f64x2.splat(f64.load(q)), q1 = f64x2.splat(f64.load(q, 8)), q2 = f64x2.splat(f64.load(q, 16)), q3 = f64x2.splat(f64.load(q, 24));
+    const q4 = f64x2.splat(f64.load(q, 32)), q5 = f64x2.splat(f64.load(q, 40)), q6 = f64x2.splat(f64.load(q, 48)), q7 = f64x2.splat(f64.load(q, 56));
+    for (; k + 3 < m; k += 4) {
+      const o = <usize>k << 3;
+      const ra = v128.load(residual + o);
+      const rb = v128.load(residual + o, 16);
+      const ga = f64x2.max(f64x2.max(f64x2.sub(ra, hiv), f64x2.sub(lov, ra)), zero);
+      const gb = f64x2.max(f64x2.max(f64x2.sub(rb, hiv), f64x2.sub(lov, rb)), zero);
+      const c = coordsT + o;
+      let e0 = f64x2.sub(q0, v128.load(c));
+      let e1 = f64x2.sub(q0, v128.load(c, 16));
+      let a = f64x2.add(f64x2.mul(ga, ga), f64x2.mul(e0, e0));
+      let b = f64x2.add(f64x2.mul(gb, gb), f64x2.mul(e1, e1));
+      e0 = f64x2.sub(q1, v128.load(c + rowM));
+      e1 = f64x2.sub(q1, v128.load(c + rowM, 16));
+      let a2 = f64x2.mul(e0, e0);
+      let b2 = f64x2.mul(e1, e1);
+      e0 = f64x2.sub(q2, v128.load(c + 2 * rowM));
+      e1 = f64x2.sub(q2, v128.load(c + 2 * rowM, 16));
+      a = f64x2.add(a, f64x2.mul(e0, e0));
+      b = f64x2.add(b, f64x2.mul(e1, e1));
+      e0 = f64x2.sub(q3, v128.load(c + 3 * rowM));
+      e1 = f64x2.sub(q3, v128.load(c + 3 * rowM, 16));
+      a2 = f64x2.add(a2, f64x2.mul(e0, e0));
+      b2 = f64x2.add(b2, f64x2.mul(e1, e1));
+      e0 = f64x2.sub(q4, v128.load(c + 4 * rowM));
+      e1 = f64x2.sub(q4, v128.load(c + 4 * rowM, 16));
+      a = f64x2.add(a, f64x2.mul(e0, e0));
+      b = f64x2.add(b, f64x2.mul(e1, e1));
+      e0 = f64x2.sub(q5, v128.load(c + 5 * rowM));
+      e1 = f64x2.sub(q5, v128.load(c + 5 * rowM, 16));
+      a2 = f64x2.add(a2, f64x2.mul(e0, e0));
+      b2 = f64x2.add(b2, f64x2.mul(e1, e1));
+      e0 = f64x2.sub(q6, v128.load(c + 6 * rowM));
+      e1 = f64x2.sub(q6, v128.load(c + 6 * rowM, 16));
+      a = f64x2.add(a, f64x2.mul(e0, e0));
+      b = f64x2.add(b, f64x2.mul(e1, e1));
+      e0 = f64x2.sub(q7, v128.load(c + 7 * rowM));
+      e1 = f64x2.sub(q7, v128.load(c + 7 * rowM, 16));
+      a2 = f64x2.add(a2, f64x2.mul(e0, e0));
+      b2 = f64x2.add(b2, f64x2.mul(e1, e1));
+      v128.store(bound + o, f64x2.add(a, a2));
+      v128.store(bound + o, f64x2.add(b, b2), 16);
+    }
+  }
   for (; k + 1 < m; k += 2) {
     const o = <usize>k << 3;
     const rk = v128.load(residual + o);
@@ -493,6 +540,11 @@ function nearestOf(m: i32, d: i32, n0: i32, reps: usize, coordsT: usize, residua
   let f0 = -1, f1 = -1, f2 = -1, f3 = -1;
   let c0: f64 = Infinity, c1: f64 = Infinity, c2: f64 = Infinity, c3: f64 = Infinity;
   for (let k = 0; k < m; k++) {
+    // two at a time past a pair that cannot enter (neither below the fourth smallest so far; NaN never enters)
+    if ((k & 1) == 0 && k + 1 < m && !v128.any_true(f64x2.lt(v128.load(bound + (<usize>k << 3)), f64x2.splat(c3)))) {
+      k++;
+      continue;
+    }
     const b = f64.load(bound + (<usize>k << 3));
     if (!(b < c3)) continue;
     if (b < c2) {
@@ -548,7 +600,15 @@ function nearestOf(m: i32, d: i32, n0: i32, reps: usize, coordsT: usize, residua
     }
     // refill from the representatives not yet visited whose bound does not rule them out (a NaN bound never does)
     filled = 0;
+    // the rule-out test below on two bounds at once (the same operations lane by lane), to pass pairs it rules out
+    const mr = f64x2.splat(MARGIN_RELATIVE * best);
+    const ma = f64x2.splat(MARGIN_ABSOLUTE);
+    const bv = f64x2.splat(best);
     while (filled < 4 && next < m) {
+      if ((next & 1) == 0 && next + 1 < m && i64x2.all_true(f64x2.gt(f64x2.sub(f64x2.sub(v128.load(bound + (<usize>next << 3)), mr), ma), bv))) {
+        next += 2;
+        continue;
+      }
       const k = next++;
       if (k == f0 || k == f1 || k == f2 || k == f3) continue;
       if (f64.load(bound + (<usize>k << 3)) - MARGIN_RELATIVE * best - MARGIN_ABSOLUTE > best) continue;
@@ -559,4 +619,188 @@ function nearestOf(m: i32, d: i32, n0: i32, reps: usize, coordsT: usize, residua
   f64.store(stats, f64.load(stats) + <f64>exact);
   f64.store(stats, f64.load(stats, 8) + <f64>summed, 8);
   return Math.sqrt(best);
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// Preparing the search (nearest-search.ts prepareSpeciesJs, operation for operation: the same bits)
+
+/** Gram–Schmidt stops when the largest remaining residual is below this fraction of the largest row norm. */
+const RANK_TOLERANCE: f64 = 1e-9;
+/** Below this many representatives a basis does not pay (nearest-search.ts MIN_ROWS_FOR_BASIS). */
+const MIN_ROWS_FOR_BASIS: i32 = 8;
+
+/**
+ * Σ_f x_f y_f in the order of nearest-search.ts dotRows: four partial sums s0…s3 over f ≡ 0…3 (mod 4) — lanes
+ * (s0, s1) and (s2, s3) — the tail added to s0, then ((s0 + s1) + s2) + s3.
+ */
+function dot4(x: usize, y: usize, n0: i32): f64 {
+  let a = f64x2.splat(0);
+  let b = f64x2.splat(0);
+  let f = 0;
+  for (; f + 3 < n0; f += 4) {
+    const o = <usize>f << 3;
+    a = f64x2.add(a, f64x2.mul(v128.load(x + o), v128.load(y + o)));
+    b = f64x2.add(b, f64x2.mul(v128.load(x + o, 16), v128.load(y + o, 16)));
+  }
+  let s0 = f64x2.extract_lane(a, 0);
+  for (; f < n0; f++) s0 += f64.load(x + (<usize>f << 3)) * f64.load(y + (<usize>f << 3));
+  return s0 + f64x2.extract_lane(a, 1) + f64x2.extract_lane(b, 0) + f64x2.extract_lane(b, 1);
+}
+
+/** v_f −= c · u_f for f < n0. */
+function subScaled(v: usize, c: f64, u: usize, n0: i32): void {
+  const cv = f64x2.splat(c);
+  let f = 0;
+  for (; f + 1 < n0; f += 2) {
+    const o = <usize>f << 3;
+    v128.store(v + o, f64x2.sub(v128.load(v + o), f64x2.mul(cv, v128.load(u + o))));
+  }
+  if (f < n0) {
+    const o = <usize>f << 3;
+    f64.store(v + o, f64.load(v + o) - c * f64.load(u + o));
+  }
+}
+
+/** v_f += c · u_f for f < n0. */
+function addScaled(v: usize, c: f64, u: usize, n0: i32): void {
+  const cv = f64x2.splat(c);
+  let f = 0;
+  for (; f + 1 < n0; f += 2) {
+    const o = <usize>f << 3;
+    v128.store(v + o, f64x2.add(v128.load(v + o), f64x2.mul(cv, v128.load(u + o))));
+  }
+  if (f < n0) {
+    const o = <usize>f << 3;
+    f64.store(v + o, f64.load(v + o) + c * f64.load(u + o));
+  }
+}
+
+/** Row j of v (rows of n0) orthonormalised against rows 0…j−1 (nearest-search.ts orthonormaliseRow). */
+function orthonormaliseRow(v: usize, j: i32, n0: i32): bool {
+  const rowBytes = <usize>n0 << 3;
+  const vj = v + <usize>j * rowBytes;
+  const before = Math.sqrt(dot4(vj, vj, n0));
+  for (let pass = 0; pass < 2; pass++) {
+    for (let i = 0; i < j; i++) {
+      const vi = v + <usize>i * rowBytes;
+      subScaled(vj, dot4(vj, vi, n0), vi, n0);
+    }
+  }
+  const nv = Math.sqrt(dot4(vj, vj, n0));
+  if (!(nv > RANK_TOLERANCE * before) || !(nv > 0)) return false;
+  const inv = f64x2.splat(nv);
+  let f = 0;
+  for (; f + 1 < n0; f += 2) {
+    const o = <usize>f << 3;
+    v128.store(vj + o, f64x2.div(v128.load(vj + o), inv));
+  }
+  if (f < n0) {
+    const o = <usize>f << 3;
+    f64.store(vj + o, f64.load(vj + o) / nv);
+  }
+  return true;
+}
+
+/**
+ * The prepared search of one species (nearest-search.ts prepareSpeciesJs, the same bits): its m representatives
+ * at `reps` (rows of n0, contiguous), at most `limit` basis vectors, `steps` subspace-iteration steps. `work` is
+ * a record of byte addresses (i32 words) of mean (n0), centred rows (m × n0), left (m), components (m × limit),
+ * basis (limit × n0), next (limit × n0), a row (n0), coordinates (limit × m, one basis direction per row of m) and
+ * residual norms (m). Returns the basis size d; mean, the first d basis rows, d × m coordinates and the residual
+ * norms are the results.
+ */
+export function prepareSpecies(reps: usize, m: i32, n0: i32, limit: i32, steps: i32, work: usize): i32 {
+  const mean = <usize>load<u32>(work);
+  const centred = <usize>load<u32>(work, 4);
+  const left = <usize>load<u32>(work, 8);
+  const coef = <usize>load<u32>(work, 12);
+  const basis = <usize>load<u32>(work, 16);
+  const next = <usize>load<u32>(work, 20);
+  const r = <usize>load<u32>(work, 24);
+  const coordsT = <usize>load<u32>(work, 28);
+  const residual = <usize>load<u32>(work, 32);
+  const rowBytes = <usize>n0 << 3;
+  // mean of the rows (summed in row order), centred rows
+  for (let f = 0; f < n0; f++) f64.store(mean + (<usize>f << 3), 0);
+  for (let k = 0; k < m; k++) addScaled(mean, 1, reps + <usize>k * rowBytes, n0);
+  const mv = f64x2.splat(<f64>m);
+  let f = 0;
+  for (; f + 1 < n0; f += 2) v128.store(mean + (<usize>f << 3), f64x2.div(v128.load(mean + (<usize>f << 3)), mv));
+  if (f < n0) f64.store(mean + (<usize>f << 3), f64.load(mean + (<usize>f << 3)) / <f64>m);
+  for (let k = 0; k < m; k++) {
+    const src = reps + <usize>k * rowBytes;
+    const dst = centred + <usize>k * rowBytes;
+    let g = 0;
+    for (; g + 1 < n0; g += 2) {
+      const o = <usize>g << 3;
+      v128.store(dst + o, f64x2.sub(v128.load(src + o), v128.load(mean + o)));
+    }
+    if (g < n0) f64.store(dst + (<usize>g << 3), f64.load(src + (<usize>g << 3)) - f64.load(mean + (<usize>g << 3)));
+  }
+  const lim = m < MIN_ROWS_FOR_BASIS ? 0 : min(limit, min(n0, m));
+  let first: f64 = 0;
+  for (let k = 0; k < m; k++) {
+    const c = centred + <usize>k * rowBytes;
+    f64.store(left + (<usize>k << 3), dot4(c, c, n0));
+    const p = reps + <usize>k * rowBytes;
+    first = Math.max(first, dot4(p, p, n0));
+  }
+  // greedy pivoted Gram–Schmidt
+  let d = 0;
+  while (d < lim) {
+    let pivot = -1;
+    let largest: f64 = 0;
+    for (let k = 0; k < m; k++) {
+      const v = f64.load(left + (<usize>k << 3));
+      if (v > largest) {
+        largest = v;
+        pivot = k;
+      }
+    }
+    if (pivot < 0 || largest <= RANK_TOLERANCE * RANK_TOLERANCE * first) break;
+    const bd = basis + <usize>d * rowBytes;
+    memory.copy(bd, centred + <usize>pivot * rowBytes, rowBytes);
+    for (let i = 0; i < d; i++) subScaled(bd, f64.load(coef + (<usize>(pivot * lim + i) << 3)), basis + <usize>i * rowBytes, n0);
+    if (!orthonormaliseRow(basis, d, n0)) break;
+    for (let k = 0; k < m; k++) {
+      const c = dot4(centred + <usize>k * rowBytes, bd, n0);
+      f64.store(coef + (<usize>(k * lim + d) << 3), c);
+      const lk = left + (<usize>k << 3);
+      f64.store(lk, k == pivot ? 0 : f64.load(lk) - c * c);
+    }
+    d++;
+  }
+  // subspace iteration Q ← orth(CᵀC Q); the first step's projections are the Gram–Schmidt components
+  for (let step = 0; step < steps && d > 0; step++) {
+    if (step > 0) {
+      for (let k = 0; k < m; k++) {
+        const ck = centred + <usize>k * rowBytes;
+        for (let j = 0; j < d; j++) f64.store(coef + (<usize>(k * lim + j) << 3), dot4(ck, basis + <usize>j * rowBytes, n0));
+      }
+    }
+    const nextBytes = <usize>d * rowBytes;
+    for (let o: usize = 0; o < nextBytes; o += 8) f64.store(next + o, 0);
+    for (let k = 0; k < m; k++) {
+      const ck = centred + <usize>k * rowBytes;
+      for (let j = 0; j < d; j++) addScaled(next + <usize>j * rowBytes, f64.load(coef + (<usize>(k * lim + j) << 3)), ck, n0);
+    }
+    let ok = true;
+    for (let j = 0; j < d && ok; j++) ok = orthonormaliseRow(next, j, n0);
+    if (!ok) break; // keep the last good basis
+    memory.copy(basis, next, nextBytes);
+  }
+  // coordinates and residual norms, explicitly
+  const rowM = <usize>m << 3;
+  for (let k = 0; k < m; k++) {
+    const ck = centred + <usize>k * rowBytes;
+    memory.copy(r, ck, rowBytes);
+    for (let j = 0; j < d; j++) {
+      const bj = basis + <usize>j * rowBytes;
+      const c = dot4(ck, bj, n0);
+      f64.store(coordsT + <usize>j * rowM + (<usize>k << 3), c);
+      subScaled(r, c, bj, n0);
+    }
+    f64.store(residual + (<usize>k << 3), Math.sqrt(dot4(r, r, n0)));
+  }
+  return d;
 }
