@@ -30,16 +30,127 @@ function gather(cT: usize, tch: i32, ch: i32, targets: i32, gStart: usize, gIdx:
 }
 
 /**
- * out[μ·n + j·stride] = weight_j · Σ_{m < w} half[μ·w + m] · cT[m·tch + p0 + j] for j < count and μ < nM, each sum
- * from zero in m order; weight_0 = wFirst, the others wRest.
+ * gather for channels ch and ch + 1 at once (they sit side by side in cT): half[2t] for ch, half[2t + 1] for
+ * ch + 1, each sum as in gather.
  */
 @inline
-function contract(half: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, count: i32, out: usize, n: i32, stride: i32, wFirst: f64, wRest: f64): void {
+function gatherTwo(cT: usize, tch: i32, ch: i32, targets: i32, gStart: usize, gIdx: usize, gVal: usize, half: usize): void {
+  for (let t = 0; t < targets; t++) {
+    let h = f64x2.splat(0);
+    const k1 = load<i32>(gStart + ((<usize>t + 1) << 2));
+    for (let k = load<i32>(gStart + (<usize>t << 2)); k < k1; k++) {
+      const at = <usize>(load<i32>(gIdx + (<usize>k << 2)) * tch + ch);
+      h = f64x2.add(h, f64x2.mul(v128.load64_splat(gVal + (<usize>k << 3)), v128.load(cT + (at << 3))));
+    }
+    v128.store(half + (<usize>t << 4), h);
+  }
+}
+
+/** gather for channels ch … ch + 3 at once: half[4t + i] for ch + i (two vectors, two chains per target). */
+@inline
+function gatherFour(cT: usize, tch: i32, ch: i32, targets: i32, gStart: usize, gIdx: usize, gVal: usize, half: usize): void {
+  for (let t = 0; t < targets; t++) {
+    let h0 = f64x2.splat(0), h1 = f64x2.splat(0);
+    const k1 = load<i32>(gStart + ((<usize>t + 1) << 2));
+    for (let k = load<i32>(gStart + (<usize>t << 2)); k < k1; k++) {
+      const at = cT + (<usize>(load<i32>(gIdx + (<usize>k << 2)) * tch + ch) << 3);
+      const g = v128.load64_splat(gVal + (<usize>k << 3));
+      h0 = f64x2.add(h0, f64x2.mul(g, v128.load(at)));
+      h1 = f64x2.add(h1, f64x2.mul(g, v128.load(at, 16)));
+    }
+    v128.store(half + (<usize>t << 5), h0);
+    v128.store(half + (<usize>t << 5), h1, 16);
+  }
+}
+
+/**
+ * out[μ·n + j·stride] = weight_j · Σ_{m < w} half[μ·w + m] · cT[m·tch + p0 + j] for j < count and μ < nM, each sum
+ * from zero in m order; weight_0 = wFirst, the others wRest. hs: bytes from one half entry to the next (8, or 16
+ * when two channels' halves are interleaved by gatherTwo).
+ */
+@inline
+function contract(half: usize, hs: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, count: i32, out: usize, n: i32, stride: i32, wFirst: f64, wRest: f64): void {
+  if (nM == 5) contractFive(half, hs, w, cT, tch, p0, count, out, n, stride, wFirst, wRest);
+  else contractAny(half, hs, nM, w, cT, tch, p0, count, out, n, stride, wFirst, wRest);
+}
+
+/** out[μ·n + j·stride] = weight_j · result: two partners j, j + 1 in the lanes of r (or one when single). */
+@inline
+function putPartners(o: usize, step: usize, stride: i32, j: i32, r: v128, wFirst: f64, rest: v128): void {
+  let x = f64x2.mul(rest, r);
+  if (j == 0) x = f64x2.replace_lane(x, 0, wFirst * f64x2.extract_lane(r, 0));
+  if (stride == 1) {
+    v128.store(o + (<usize>j << 3), x);
+  } else {
+    const at = o + <usize>j * step;
+    v128.store64_lane(at, x, 0);
+    v128.store64_lane(at + step, x, 1);
+  }
+}
+
+/**
+ * contract for λ = 2 (five μ): two partners per vector and all five μ in one pass over m, so that five sums run
+ * side by side whatever the number of partners (eight partners of one μ at a time left the last partners of a
+ * channel, up to seven, to one or two chains of dependent additions). Every sum as in contractAny.
+ */
+function contractFive(half: usize, hs: usize, w: i32, cT: usize, tch: i32, p0: i32, count: i32, out: usize, n: i32, stride: i32, wFirst: f64, wRest: f64): void {
+  const rowBytes = <usize>tch << 3;
+  const rest = f64x2.splat(wRest);
+  const step = <usize>stride << 3;
+  const hw = <usize>w * hs;
+  const nb = <usize>n << 3;
+  let j = 0;
+  for (; j + 1 < count; j += 2) {
+    let s0 = f64x2.splat(0), s1 = f64x2.splat(0), s2 = f64x2.splat(0), s3 = f64x2.splat(0), s4 = f64x2.splat(0);
+    let col = cT + (<usize>(p0 + j) << 3);
+    let h = half;
+    for (let m = 0; m < w; m++) {
+      const c = v128.load(col);
+      s0 = f64x2.add(s0, f64x2.mul(v128.load64_splat(h), c));
+      s1 = f64x2.add(s1, f64x2.mul(v128.load64_splat(h + hw), c));
+      s2 = f64x2.add(s2, f64x2.mul(v128.load64_splat(h + 2 * hw), c));
+      s3 = f64x2.add(s3, f64x2.mul(v128.load64_splat(h + 3 * hw), c));
+      s4 = f64x2.add(s4, f64x2.mul(v128.load64_splat(h + 4 * hw), c));
+      col += rowBytes;
+      h += hs;
+    }
+    putPartners(out, step, stride, j, s0, wFirst, rest);
+    putPartners(out + nb, step, stride, j, s1, wFirst, rest);
+    putPartners(out + 2 * nb, step, stride, j, s2, wFirst, rest);
+    putPartners(out + 3 * nb, step, stride, j, s3, wFirst, rest);
+    putPartners(out + 4 * nb, step, stride, j, s4, wFirst, rest);
+  }
+  if (j < count) {
+    let s0: f64 = 0, s1: f64 = 0, s2: f64 = 0, s3: f64 = 0, s4: f64 = 0;
+    let col = cT + (<usize>(p0 + j) << 3);
+    let h = half;
+    for (let m = 0; m < w; m++) {
+      const c = load<f64>(col);
+      s0 += load<f64>(h) * c;
+      s1 += load<f64>(h + hw) * c;
+      s2 += load<f64>(h + 2 * hw) * c;
+      s3 += load<f64>(h + 3 * hw) * c;
+      s4 += load<f64>(h + 4 * hw) * c;
+      col += rowBytes;
+      h += hs;
+    }
+    const wj = j == 0 ? wFirst : wRest;
+    const o = out + <usize>j * step;
+    store<f64>(o, wj * s0);
+    store<f64>(o + nb, wj * s1);
+    store<f64>(o + 2 * nb, wj * s2);
+    store<f64>(o + 3 * nb, wj * s3);
+    store<f64>(o + 4 * nb, wj * s4);
+  }
+}
+
+/** contract for any number of μ: eight partners of one μ per pass over m, then two, then one. */
+function contractAny(half: usize, hs: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, count: i32, out: usize, n: i32, stride: i32, wFirst: f64, wRest: f64): void {
   const rowBytes = <usize>tch << 3;
   const rest = f64x2.splat(wRest);
   const step = <usize>stride << 3;
   for (let mu = 0; mu < nM; mu++) {
-    const hb = half + (<usize>(mu * w) << 3);
+    const hb = half + <usize>(mu * w) * hs;
     const ob = out + (<usize>(mu * n) << 3);
     let j = 0;
     for (; j + 7 < count; j += 8) {
@@ -49,7 +160,7 @@ function contract(half: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, co
       let s3 = f64x2.splat(0);
       let col = cT + (<usize>(p0 + j) << 3);
       for (let m = 0; m < w; m++) {
-        const h = v128.load64_splat(hb + (<usize>m << 3));
+        const h = v128.load64_splat(hb + <usize>m * hs);
         s0 = f64x2.add(s0, f64x2.mul(h, v128.load(col)));
         s1 = f64x2.add(s1, f64x2.mul(h, v128.load(col, 16)));
         s2 = f64x2.add(s2, f64x2.mul(h, v128.load(col, 32)));
@@ -90,7 +201,7 @@ function contract(half: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, co
       let s0 = f64x2.splat(0);
       let col = cT + (<usize>(p0 + j) << 3);
       for (let m = 0; m < w; m++) {
-        s0 = f64x2.add(s0, f64x2.mul(v128.load64_splat(hb + (<usize>m << 3)), v128.load(col)));
+        s0 = f64x2.add(s0, f64x2.mul(v128.load64_splat(hb + <usize>m * hs), v128.load(col)));
         col += rowBytes;
       }
       let r0 = f64x2.mul(rest, s0);
@@ -107,7 +218,7 @@ function contract(half: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, co
       let s: f64 = 0;
       let col = cT + (<usize>(p0 + j) << 3);
       for (let m = 0; m < w; m++) {
-        s += load<f64>(hb + (<usize>m << 3)) * load<f64>(col);
+        s += load<f64>(hb + <usize>m * hs) * load<f64>(col);
         col += rowBytes;
       }
       store<f64>(ob + <usize>j * step, (j == 0 ? wFirst : wRest) * s);
@@ -118,15 +229,32 @@ function contract(half: usize, nM: i32, w: i32, cT: usize, tch: i32, p0: i32, co
 /**
  * A block (l, l) of one environment: for each first channel c1 the half-coupling over its degree-l coefficients,
  * then the partners c2 = c1 … tch−1 (weight 1 for c2 = c1, √2 otherwise) into out[μ·n + f], f running on from
- * the block's first feature. cT: the degree-l coefficients transposed; w = 2l + 1.
+ * the block's first feature. cT: the degree-l coefficients transposed; w = 2l + 1; half: scratch of 4·nM·w
+ * doubles (four channels' half-couplings at a time).
  */
 export function coupleSame(cT: usize, tch: i32, w: i32, nM: i32, gStart: usize, gIdx: usize, gVal: usize, half: usize, out: usize, n: i32): void {
   const targets = nM * w;
   let f = out;
-  for (let c1 = 0; c1 < tch; c1++) {
-    gather(cT, tch, c1, targets, gStart, gIdx, gVal, half);
-    contract(half, nM, w, cT, tch, c1, tch - c1, f, n, 1, 1.0, Math.SQRT2);
+  let c1 = 0;
+  for (; c1 + 3 < tch; c1 += 4) {
+    // the half-couplings of c1 … c1 + 3 together (half: 4·targets doubles), then each one's partners
+    gatherFour(cT, tch, c1, targets, gStart, gIdx, gVal, half);
+    for (let i = 0; i < 4; i++) {
+      contract(half + (<usize>i << 3), 32, nM, w, cT, tch, c1 + i, tch - c1 - i, f, n, 1, 1.0, Math.SQRT2);
+      f += <usize>(tch - c1 - i) << 3;
+    }
+  }
+  for (; c1 + 1 < tch; c1 += 2) {
+    // the half-couplings of c1 and c1 + 1 together (half: 2·targets doubles), then each one's partners
+    gatherTwo(cT, tch, c1, targets, gStart, gIdx, gVal, half);
+    contract(half, 16, nM, w, cT, tch, c1, tch - c1, f, n, 1, 1.0, Math.SQRT2);
     f += <usize>(tch - c1) << 3;
+    contract(half + 8, 16, nM, w, cT, tch, c1 + 1, tch - c1 - 1, f, n, 1, 1.0, Math.SQRT2);
+    f += <usize>(tch - c1 - 1) << 3;
+  }
+  if (c1 < tch) {
+    gather(cT, tch, c1, targets, gStart, gIdx, gVal, half);
+    contract(half, 8, nM, w, cT, tch, c1, tch - c1, f, n, 1, 1.0, Math.SQRT2);
   }
 }
 
@@ -136,9 +264,19 @@ export function coupleSame(cT: usize, tch: i32, w: i32, nM: i32, gStart: usize, 
  */
 export function coupleCross(cT: usize, cT2: usize, tch: i32, w: i32, nM: i32, gStart: usize, gIdx: usize, gVal: usize, half: usize, out: usize, n: i32): void {
   const targets = nM * w;
-  for (let c2 = 0; c2 < tch; c2++) {
+  let c2 = 0;
+  for (; c2 + 3 < tch; c2 += 4) {
+    gatherFour(cT2, tch, c2, targets, gStart, gIdx, gVal, half);
+    for (let i = 0; i < 4; i++) contract(half + (<usize>i << 3), 32, nM, w, cT, tch, 0, tch, out + (<usize>(c2 + i) << 3), n, tch, Math.SQRT2, Math.SQRT2);
+  }
+  for (; c2 + 1 < tch; c2 += 2) {
+    gatherTwo(cT2, tch, c2, targets, gStart, gIdx, gVal, half);
+    contract(half, 16, nM, w, cT, tch, 0, tch, out + (<usize>c2 << 3), n, tch, Math.SQRT2, Math.SQRT2);
+    contract(half + 8, 16, nM, w, cT, tch, 0, tch, out + (<usize>(c2 + 1) << 3), n, tch, Math.SQRT2, Math.SQRT2);
+  }
+  if (c2 < tch) {
     gather(cT2, tch, c2, targets, gStart, gIdx, gVal, half);
-    contract(half, nM, w, cT, tch, 0, tch, out + (<usize>c2 << 3), n, tch, Math.SQRT2, Math.SQRT2);
+    contract(half, 8, nM, w, cT, tch, 0, tch, out + (<usize>c2 << 3), n, tch, Math.SQRT2, Math.SQRT2);
   }
 }
 
@@ -153,53 +291,38 @@ export function normalise(x: usize, len: i32): f64 {
     s += v * v;
   }
   if (s == 0 || !isFinite<f64>(s)) return s;
-  const inv = 1 / Math.sqrt(s);
-  const vinv = f64x2.splat(inv);
-  let i = 0;
-  for (; i + 1 < len; i += 2) {
-    const at = x + (<usize>i << 3);
-    v128.store(at, f64x2.mul(v128.load(at), vinv));
-  }
-  if (i < len) {
-    const at = x + (<usize>i << 3);
-    store<f64>(at, load<f64>(at) * inv);
-  }
+  scale(x, len, 1 / Math.sqrt(s));
   return s;
 }
 
 /**
  * normalise for `count` blocks of `len` doubles, block j at x + j·stride bytes: sq[j] = Σ_i x_j[i]² summed in index
  * order from zero (the very sum of normalise), then block j scaled by 1/√sq[j] unless that is zero or not finite.
- * The sums of up to eight blocks run side by side (two per vector, four vectors): each is still one sum in its
- * order, but the eight do not wait on each other, where one block's sum alone is a chain of dependent additions.
+ * The sums of four blocks run side by side (two per vector, two vectors): each is still one sum in its order, but
+ * the four do not wait on each other, where one block's sum alone is a chain of dependent additions.
  */
 export function normaliseMany(x: usize, len: i32, count: i32, stride: usize, sq: usize): void {
-  for (let j0 = 0; j0 < count; j0 += 8) {
-    // blocks j0 … j0 + 7; past the last one, repeats of block j0 (their sums are not kept)
-    const b0 = x + <usize>j0 * stride;
-    const p0 = b0, p1 = j0 + 1 < count ? b0 + stride : b0;
-    const p2 = j0 + 2 < count ? b0 + 2 * stride : b0, p3 = j0 + 3 < count ? b0 + 3 * stride : b0;
-    const p4 = j0 + 4 < count ? b0 + 4 * stride : b0, p5 = j0 + 5 < count ? b0 + 5 * stride : b0;
-    const p6 = j0 + 6 < count ? b0 + 6 * stride : b0, p7 = j0 + 7 < count ? b0 + 7 * stride : b0;
-    let s0 = f64x2.splat(0), s1 = f64x2.splat(0), s2 = f64x2.splat(0), s3 = f64x2.splat(0);
-    for (let i = 0; i < len; i++) {
-      const o = <usize>i << 3;
+  const bytes = <usize>len << 3;
+  for (let j0 = 0; j0 < count; j0 += 4) {
+    // blocks j0 … j0 + 3; past the last one, repeats of block j0 (their sums are not kept)
+    const p0 = x + <usize>j0 * stride;
+    const p1 = j0 + 1 < count ? p0 + stride : p0;
+    const p2 = j0 + 2 < count ? p0 + 2 * stride : p0;
+    const p3 = j0 + 3 < count ? p0 + 3 * stride : p0;
+    let s0 = f64x2.splat(0), s1 = f64x2.splat(0);
+    for (let o: usize = 0; o < bytes; o += 8) {
       const v0 = v128.load64_lane(p1 + o, v128.load64_zero(p0 + o), 1);
       const v1 = v128.load64_lane(p3 + o, v128.load64_zero(p2 + o), 1);
-      const v2 = v128.load64_lane(p5 + o, v128.load64_zero(p4 + o), 1);
-      const v3 = v128.load64_lane(p7 + o, v128.load64_zero(p6 + o), 1);
       s0 = f64x2.add(s0, f64x2.mul(v0, v0));
       s1 = f64x2.add(s1, f64x2.mul(v1, v1));
-      s2 = f64x2.add(s2, f64x2.mul(v2, v2));
-      s3 = f64x2.add(s3, f64x2.mul(v3, v3));
     }
-    const last = min(8, count - j0);
+    const last = min(4, count - j0);
     for (let j = 0; j < last; j++) {
-      const v = j < 2 ? s0 : j < 4 ? s1 : j < 6 ? s2 : s3;
+      const v = j < 2 ? s0 : s1;
       const s = (j & 1) == 0 ? f64x2.extract_lane(v, 0) : f64x2.extract_lane(v, 1);
       store<f64>(sq + (<usize>(j0 + j) << 3), s);
       if (s == 0 || !isFinite<f64>(s)) continue;
-      scale(b0 + <usize>j * stride, len, 1 / Math.sqrt(s));
+      scale(p0 + <usize>j * stride, len, 1 / Math.sqrt(s));
     }
   }
 }
@@ -267,6 +390,19 @@ function putPair(o: usize, step: usize, v: v128): void {
   v128.store64_lane(o + step, v, 1);
 }
 
+/** Eight sums of one harmonic (radial functions n … n + 7, two per vector) to out (from o, step apart) and to cT (from tn, side by side). */
+@inline
+function putEight(o: usize, step: usize, tn: usize, a0: v128, a1: v128, a2: v128, a3: v128): void {
+  putPair(o, step, a0);
+  putPair(o + 2 * step, step, a1);
+  putPair(o + 4 * step, step, a2);
+  putPair(o + 6 * step, step, a3);
+  v128.store(tn, a0);
+  v128.store(tn, a1, 16);
+  v128.store(tn, a2, 32);
+  v128.store(tn, a3, 48);
+}
+
 /**
  * o[n·step] = Σ_q y[q·yStep] r[q·rStep + n] and o[8 + n·step] = Σ_q y[8 + q·yStep] r[q·rStep + n] for n < nmax, over
  * q < np in order, each from zero: two harmonics (lm, lm + 1) of one degree against its radial integrals.
@@ -294,23 +430,9 @@ function sumTwo(y: usize, yStep: usize, r: usize, rStep: usize, np: i32, nmax: i
       rq += rStep;
     }
     const on = o + <usize>n * step;
-    putPair(on, step, a0);
-    putPair(on + 2 * step, step, a1);
-    putPair(on + 4 * step, step, a2);
-    putPair(on + 6 * step, step, a3);
-    putPair(on + 8, step, b0);
-    putPair(on + 8 + 2 * step, step, b1);
-    putPair(on + 8 + 4 * step, step, b2);
-    putPair(on + 8 + 6 * step, step, b3);
     const tn = t + (<usize>n << 3);
-    v128.store(tn, a0);
-    v128.store(tn, a1, 16);
-    v128.store(tn, a2, 32);
-    v128.store(tn, a3, 48);
-    v128.store(tn + tStep, b0);
-    v128.store(tn + tStep, b1, 16);
-    v128.store(tn + tStep, b2, 32);
-    v128.store(tn + tStep, b3, 48);
+    putEight(on, step, tn, a0, a1, a2, a3);
+    putEight(on + 8, step, tn + tStep, b0, b1, b2, b3);
   }
   for (; n + 1 < nmax; n += 2) {
     let a0 = f64x2.splat(0), b0 = f64x2.splat(0);
@@ -362,16 +484,7 @@ function sumOne(y: usize, yStep: usize, r: usize, rStep: usize, np: i32, nmax: i
       yq += yStep;
       rq += rStep;
     }
-    const on = o + <usize>n * step;
-    putPair(on, step, a0);
-    putPair(on + 2 * step, step, a1);
-    putPair(on + 4 * step, step, a2);
-    putPair(on + 6 * step, step, a3);
-    const tn = t + (<usize>n << 3);
-    v128.store(tn, a0);
-    v128.store(tn, a1, 16);
-    v128.store(tn, a2, 32);
-    v128.store(tn, a3, 48);
+    putEight(o + <usize>n * step, step, t + (<usize>n << 3), a0, a1, a2, a3);
   }
   for (; n + 1 < nmax; n += 2) {
     let a0 = f64x2.splat(0);
@@ -532,8 +645,12 @@ export function pairTerms(par: usize, chan: usize, count: i32, channels: i32, lm
   for (let c = channels; c > 0; c--) store<i32>(chanStart + (<usize>c << 2), load<i32>(chanStart + (<usize>(c - 1) << 2)));
   store<i32>(chanStart, 0);
   const valid = load<i32>(chanStart + (<usize>channels << 2));
-  for (let q = 0; q < valid; q++) {
-    const pp = par + (<usize>load<i32>(order + (<usize>q << 2)) << 6);
+  let h = 0;
+  for (; h + 1 < valid; h += 2) {
+    hypotTwo(par + (<usize>load<i32>(order + (<usize>h << 2)) << 6), par + (<usize>load<i32>(order + (<usize>(h + 1) << 2)) << 6));
+  }
+  if (h < valid) {
+    const pp = par + (<usize>load<i32>(order + (<usize>h << 2)) << 6);
     store<f64>(pp, hypot3(load<f64>(pp), load<f64>(pp, 8), load<f64>(pp, 16)), 24);
   }
 
@@ -603,6 +720,36 @@ export function hypot3(x: f64, y: f64, z: f64): f64 {
   preliminary = sum + summand;
   sum = preliminary;
   return Math.sqrt(sum) * max;
+}
+
+/**
+ * hypot3 of two pairs' vectors (parameters at pa and pb, finite: the caller checks) into their r, one pair per
+ * lane: the largest magnitude is the same number as hypot3's running maximum (no NaN among them), and the rest
+ * are its operations; a zero vector gets 0, as there.
+ */
+@inline
+function hypotTwo(pa: usize, pb: usize): void {
+  const ax = f64x2.abs(f64x2(load<f64>(pa), load<f64>(pb)));
+  const ay = f64x2.abs(f64x2(load<f64>(pa, 8), load<f64>(pb, 8)));
+  const az = f64x2.abs(f64x2(load<f64>(pa, 16), load<f64>(pb, 16)));
+  const max = f64x2.max(f64x2.max(ax, ay), az);
+  let sum = f64x2.splat(0), compensation = f64x2.splat(0);
+  let n = f64x2.div(ax, max);
+  let summand = f64x2.sub(f64x2.mul(n, n), compensation);
+  let preliminary = f64x2.add(sum, summand);
+  compensation = f64x2.sub(f64x2.sub(preliminary, sum), summand);
+  sum = preliminary;
+  n = f64x2.div(ay, max);
+  summand = f64x2.sub(f64x2.mul(n, n), compensation);
+  preliminary = f64x2.add(sum, summand);
+  compensation = f64x2.sub(f64x2.sub(preliminary, sum), summand);
+  sum = preliminary;
+  n = f64x2.div(az, max);
+  summand = f64x2.sub(f64x2.mul(n, n), compensation);
+  sum = f64x2.add(sum, summand);
+  const r = v128.bitselect(f64x2.splat(0), f64x2.mul(f64x2.sqrt(sum), max), f64x2.eq(max, f64x2.splat(0)));
+  v128.store64_lane(pa + 24, r, 0);
+  v128.store64_lane(pb + 24, r, 1);
 }
 
 /** One pair's harmonics (parameters at q) into Y, as harmonics.ts harmonicsAt computes them; r = 0: Y_00 only. */
