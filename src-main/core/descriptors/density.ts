@@ -313,14 +313,10 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   // The table's coefficients reordered for the loop below: within interval k, entry (l·nmax + n)·4 + power, so the
   // four coefficients of one cubic sit side by side and one interval is read front to back (the table, ≈ 0.6 MB
   // at nmax 8, lmax 6, is too large for the first-level cache; the layout of the table itself reads four rows
-  // NL apart). The same numbers in the same operations: the integrals are bit-identical.
-  const byDegree = new Float64Array(table.coefficients.length);
-  for (let k = 0; k < table.intervals; k++) {
-    for (let power = 0; power < 4; power++) {
-      const from = (k * 4 + power) * NL;
-      for (let n = 0; n < nmax; n++) for (let l = 0; l <= lmax; l++) byDegree[k * 4 * NL + (l * nmax + n) * 4 + power] = table.coefficients[from + n * L1 + l];
-    }
-  }
+  // NL apart). The same numbers in the same operations: the integrals are bit-identical. Made on the first
+  // expansion through this JavaScript loop: where the kernels run, only their own order (pairedTable) is made,
+  // straight from the table (a cold start spent ≈ 8 ms making both, one from the other).
+  let byDegree: Float64Array | null = null;
   const radial = new Float64Array(NL);
   const work = new Float64Array(size);
   const intervals = table.intervals;
@@ -366,7 +362,7 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     const r = K.region(owner, (fixedDoubles + room * perPair) * 8);
     if (r === null) return null;
     const at = r.at;
-    byPairs ??= pairedTable(byDegree, intervals, NL);
+    byPairs ??= pairedTable(table.coefficients, intervals, nmax, lmax);
     K.module.f64(at + aAt * 8, tables.a.length).set(tables.a);
     K.module.f64(at + bAt * 8, tables.b.length).set(tables.b);
     K.module.f64(at + diagAt * 8, tables.diag.length).set(tables.diag);
@@ -435,6 +431,7 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
       lastByKernel = K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, out);
       if (lastByKernel) return;
       // Locals, not closure slots, in the loop (V8 keeps them in registers).
+      byDegree ??= degreeTable(table.coefficients, intervals, nmax, lmax);
       const coef = byDegree, Yl = Y, rl = radial, acc = work, cut = cutoff, inn = inner, sw = switchScale, inv = invSpacing, last = intervals;
       acc.fill(0);
       const { start, neighbour, vectors, distances } = pairs;
@@ -488,16 +485,46 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
 }
 
 /**
- * The reordered radial table (byDegree: interval k, entry j·4 + power, j = l·nmax + n) for the kernel, two
- * integrals side by side: interval k, pair j/2, then power, then j mod 2 — k·NLp·4 + (j/2)·8 + power·2 + (j mod 2),
- * NLp = NL rounded up to even (a missing last integral has zero coefficients). The same numbers, moved.
+ * The radial table (interval k, power, then n·(lmax+1) + l) reordered for the JavaScript loop of the expander:
+ * interval k, entry j·4 + power, j = l·nmax + n. The same numbers, moved.
  */
-function pairedTable(byDegree: Float64Array, intervals: number, NL: number): Float64Array {
+function degreeTable(coefficients: Float64Array, intervals: number, nmax: number, lmax: number): Float64Array {
+  const L1 = lmax + 1;
+  const NL = nmax * L1;
+  const out = new Float64Array(coefficients.length);
+  for (let k = 0; k < intervals; k++) {
+    for (let power = 0; power < 4; power++) {
+      const from = (k * 4 + power) * NL;
+      for (let n = 0; n < nmax; n++) for (let l = 0; l <= lmax; l++) out[k * 4 * NL + (l * nmax + n) * 4 + power] = coefficients[from + n * L1 + l];
+    }
+  }
+  return out;
+}
+
+/**
+ * The radial table (interval k, power, then n·(lmax+1) + l) reordered for the kernel, two integrals side by side
+ * (j = l·nmax + n): interval k, pair j/2, then power, then j mod 2 — k·NLp·4 + (j/2)·8 + power·2 + (j mod 2),
+ * NLp = NL rounded up to even (a missing last integral has zero coefficients). The same numbers, moved; straight
+ * from the table, one interval row (NL values of one power) at a time.
+ */
+function pairedTable(coefficients: Float64Array, intervals: number, nmax: number, lmax: number): Float64Array {
+  const L1 = lmax + 1;
+  const NL = nmax * L1;
   const NLp = 2 * Math.ceil(NL / 2);
   const out = new Float64Array(intervals * NLp * 4);
+  // where entry n·L1 + l of a row goes, relative to its interval and power: (j/2)·8 + (j mod 2), j = l·nmax + n
+  const to = new Int32Array(NL);
+  for (let n = 0; n < nmax; n++) {
+    for (let l = 0; l <= lmax; l++) {
+      const j = l * nmax + n;
+      to[n * L1 + l] = (j >> 1) * 8 + (j & 1);
+    }
+  }
   for (let k = 0; k < intervals; k++) {
-    for (let j = 0; j < NL; j++) {
-      for (let power = 0; power < 4; power++) out[k * NLp * 4 + (j >> 1) * 8 + power * 2 + (j & 1)] = byDegree[k * 4 * NL + j * 4 + power];
+    for (let power = 0; power < 4; power++) {
+      const from = (k * 4 + power) * NL;
+      const base = k * NLp * 4 + power * 2;
+      for (let i = 0; i < NL; i++) out[base + to[i]] = coefficients[from + i];
     }
   }
   return out;
