@@ -21,6 +21,20 @@ export interface Region {
 /** The most bytes the arena places before it starts again from its base (the rest is for the module's growth). */
 export const ARENA_LIMIT = 256 * 2 ** 20;
 
+let limit = ARENA_LIMIT;
+let restarts = 0;
+/**
+ * Sets the arena's limit for every module (null: ARENA_LIMIT again). Tests lower it so that the arena starts again
+ * in the middle of a job, to check that every caller still gets the same numbers.
+ */
+export function setArenaLimit(bytes: number | null): void {
+  limit = bytes ?? ARENA_LIMIT;
+}
+/** How many times an arena has started again from its base (in this thread, since it started). */
+export function arenaRestarts(): number {
+  return restarts;
+}
+
 /**
  * Regions of a kernel module's memory that stay where they are between calls. A region keeps its place and
  * contents while it is asked for under the same name with the same key (and fits); a new key or a larger size
@@ -38,14 +52,15 @@ export class Arena {
   /** Byte addresses of the requested regions, in order; null when they cannot be held at all. */
   acquire(requests: Region[]): number[] | null {
     const total = requests.reduce((s, r) => s + align(r.bytes), 0);
-    if (!(total <= ARENA_LIMIT)) return null;
+    if (!(total <= limit)) return null;
     const missing = requests.filter((r) => {
       const s = this.slots.get(r.name);
       return !s || s.key.deref() !== r.key || s.bytes < r.bytes;
     });
     if (missing.length) {
       const extra = missing.reduce((s, r) => s + align(r.bytes), 0);
-      if (this.top + extra - this.module.heapBase > ARENA_LIMIT) {
+      if (this.top + extra - this.module.heapBase > limit) {
+        restarts++;
         this.slots.clear();
         this.top = this.module.heapBase;
         return this.acquire(requests);

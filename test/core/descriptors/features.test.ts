@@ -11,6 +11,7 @@ import { makeDensityExpander } from '../../../src-main/core/descriptors/density.
 import { coupleReal } from '../../../src-main/core/descriptors/clebsch-gordan.ts';
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
 import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
+import { arenaRestarts, setArenaLimit } from '../../../src-main/core/wasm/arena.ts';
 import { descriptorKernels } from '../../../src-main/core/wasm/descriptors.ts';
 import { InputError } from '../../../src-main/core/errors.ts';
 import {
@@ -415,3 +416,33 @@ describe('whole features with the WebAssembly kernels on and off', () => {
     });
   }
 });
+
+describe('whole features when the kernels\' memory starts again in the middle of a frame', () => {
+  // The arena (core/wasm/arena.ts) drops every region and starts from its base when its limit would be passed; a
+  // plan's tables, the expander's scratch and a group of eight environments may then move between the steps of
+  // one frame (featurise's grouped path and TensorStep.flush make them again). With the limit lowered, restarts
+  // happen within a frame: the numbers must still be the JavaScript path's, bit for bit.
+  afterEach(() => {
+    setArenaLimit(null);
+    setWebAssemblyKernels(true);
+  });
+  it('gives the same bits at every limit, and the arena did start again', () => {
+    const s: FeatureSettings = { cutoff: 4.5, cutoffWidth: 0.5, sigma: 0.4, nmax: 6, lmax: 4, lmaxTensor: 4, species: ['O', 'H'], centres: ['O', 'H'] };
+    const [frame] = waterFrames();
+    setWebAssemblyKernels(false);
+    const off = computeFeatures(frame, s, [0, 2]);
+    setWebAssemblyKernels(true);
+    let restartsSeen = 0;
+    for (const kib of [256, 384, 512, 768, 1024, 1536, 2048, 4096]) {
+      setArenaLimit(kib * 1024);
+      const before = arenaRestarts();
+      const on = computeFeatures(frame, s, [0, 2]);
+      restartsSeen += arenaRestarts() - before;
+      expect(firstDifference(on.scalar, off.scalar), `limit ${kib} KiB`).toBe('');
+      expect(firstDifference(on.norms!, off.norms!), `limit ${kib} KiB`).toBe('');
+      expect(firstDifference(on.tensor[2]!.data, off.tensor[2]!.data), `limit ${kib} KiB`).toBe('');
+    }
+    expect(restartsSeen).toBeGreaterThan(0);
+  });
+});
+
