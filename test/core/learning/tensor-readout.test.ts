@@ -13,6 +13,7 @@ import { modelFeaturiser, modelPredictor, predictTarget, predictWithFeatures, tr
 import { makeRng } from '../../../src-main/core/numerics/random.ts';
 import { computeReadout, readOne, readoutScratch, readoutStep, weightMatrices } from '../../../src-main/core/learning/tensor-readout.ts';
 import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
+import { arenaRestarts, setArenaLimit } from '../../../src-main/core/wasm/arena.ts';
 import { predictKernels } from '../../../src-main/core/wasm/prediction-kernels.ts';
 import { referenceReadOne } from '../../helpers/reference-kernels.ts';
 import { parseExtxyz } from '../../../src-main/io/extxyz.ts';
@@ -262,5 +263,28 @@ describe('the WebAssembly read-out kernel', () => {
     const off = computeReadout(frames[2], s, { lambda: 2, matrices: (_e, k) => W[k] });
     expect(Array.from(on.values)).toEqual(Array.from(off.values));
     expect(Array.from(on.features.scalar)).toEqual(Array.from(off.features.scalar));
+  });
+
+  it('whole read-outs are the same bits when the kernels\' memory starts again in the middle of a frame (lowered arena limits)', () => {
+    // both kernel modules' arenas (core/wasm/arena.ts) drop their regions and start again past the limit; the
+    // descriptor and read-out regions then move between environments and must be written again
+    const s = { ...base, nmax: 6, lmax: 4 };
+    const { u, n } = randomWeights(s, 2, 19);
+    const W = s.centres.map((_, k) => weightMatrices(s, 2, u, k * n));
+    setWebAssemblyKernels(false);
+    const off = computeReadout(frames[1], s, { lambda: 2, matrices: (_e, k) => W[k] });
+    setWebAssemblyKernels(true);
+    const before = arenaRestarts();
+    try {
+      for (const kib of [256, 512, 768, 1024, 2048]) {
+        setArenaLimit(kib * 1024);
+        const on = computeReadout(frames[1], s, { lambda: 2, matrices: (_e, k) => W[k], perSpecies: W });
+        expect(Array.from(on.values), `limit ${kib} KiB`).toEqual(Array.from(off.values));
+        expect(Array.from(on.features.scalar), `limit ${kib} KiB`).toEqual(Array.from(off.features.scalar));
+      }
+    } finally {
+      setArenaLimit(null);
+    }
+    expect(arenaRestarts()).toBeGreaterThan(before);
   });
 });
