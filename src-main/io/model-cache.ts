@@ -12,13 +12,12 @@
 //   [kind, byte offset, length]), then each array's bytes (little-endian, 8-byte aligned), then the SHA-256 of all
 //   bytes before it. Read back, each array gets a SharedArrayBuffer of its own, as parseModel gives them.
 //   A model whose plain part JSON would not give back exactly (a key "$typed" or "__proto__", a −0) is not kept.
-// Written atomically (temporary file, then rename); the newest 3 entries are kept (a model can hold tens of MB).
-import { createHash } from 'node:crypto';
-import { closeSync, fstatSync, mkdirSync, openSync, readdirSync, readSync, renameSync, rmSync, statSync, writeFileSync } from 'node:fs';
+// Written atomically (temporary file, then rename: writeAtomically of io/radial-table-store.ts); the newest 3 entries are kept (a model can hold tens of MB).
+import { closeSync, fstatSync, openSync, readSync } from 'node:fs';
 import { endianness } from 'node:os';
 import { join } from 'node:path';
 import type { Model } from '../core/learning/model.ts';
-import { cacheFolder, programIdentity } from './radial-table-store.ts';
+import { cacheFolder, keepNewest, programIdentity, sha256, writeAtomically } from './radial-table-store.ts';
 
 const MAGIC = Buffer.from('PWMODEL1', 'latin1');
 const HEAD = 16;
@@ -33,11 +32,6 @@ function entryFile(folder: string, fileSha256: string, identity: string): string
   return join(folder, `model-${fileSha256.slice(0, 24)}.${identity.slice(0, 24)}.bin`);
 }
 
-const sha256 = (parts: Uint8Array[]) => {
-  const h = createHash('sha256');
-  for (const p of parts) h.update(p);
-  return h.digest();
-};
 
 /**
  * The model this program decoded from a file whose bytes have SHA-256 `fileSha256`, from the cache folder; null
@@ -54,7 +48,7 @@ export function cachedModel(fileSha256: string, env: NodeJS.ProcessEnv = process
     const bytes = Buffer.allocUnsafe(size);
     if (readSync(fd, bytes, 0, size, 0) !== size) return null;
     const body = bytes.subarray(0, size - 32);
-    if (!body.subarray(0, 8).equals(MAGIC) || !sha256([body]).equals(bytes.subarray(size - 32))) return null;
+    if (!body.subarray(0, 8).equals(MAGIC) || !sha256(body).equals(bytes.subarray(size - 32))) return null;
     const skeletonLength = body.readUInt32LE(8);
     if (HEAD + skeletonLength > body.length) return null;
     const { model, arrays } = JSON.parse(body.toString('utf8', HEAD, HEAD + skeletonLength)) as { model: unknown; arrays: [Kind, number, number][] };
@@ -152,18 +146,6 @@ export function keepModel(fileSha256: string, model: Model, env: NodeJS.ProcessE
   for (let k = 0; k < arrays.length; k++) out.set(blobs[k], arrays[k][1]);
   const folder = cacheFolder(env);
   const target = entryFile(folder, fileSha256, identity);
-  const temporary = `${target}.${process.pid}.${Math.random().toString(36).slice(2)}.tmp`;
-  try {
-    mkdirSync(folder, { recursive: true });
-    writeFileSync(temporary, Buffer.concat([out, sha256([out])]));
-    renameSync(temporary, target);
-    // the one just written, and the newest others
-    const others = readdirSync(folder)
-      .filter((f) => entryName.test(f) && join(folder, f) !== target)
-      .map((f) => ({ f, t: statSync(join(folder, f)).mtimeMs }))
-      .sort((a, b) => b.t - a.t);
-    for (const { f } of others.slice(KEPT - 1)) rmSync(join(folder, f), { force: true });
-  } catch {
-    rmSync(temporary, { force: true });
-  }
+  // the one just written, and the newest others
+  if (writeAtomically(folder, target, Buffer.concat([out, sha256(out)]))) keepNewest(folder, target, (f) => entryName.test(f), KEPT);
 }

@@ -47,7 +47,8 @@ function codeFingerprint(): string {
 }
 
 const LITTLE_ENDIAN = endianness() === 'LE';
-const sha256 = (bytes: Uint8Array) => createHash('sha256').update(bytes).digest();
+/** SHA-256 of `bytes` (the cache files' checksums; also io/model-cache.ts's). */
+export const sha256 = (bytes: Uint8Array) => createHash('sha256').update(bytes).digest();
 
 /**
  * The running program's identity (64 hex digits), set by bin/load-program.mjs before it runs the pre-built command;
@@ -61,8 +62,11 @@ export function programIdentity(): string | null {
 /** Notes kept per table (one per program that used it: builds, Node versions). */
 const NOTES_KEPT = 4;
 
-/** Write `bytes` to `target` through a temporary file in its folder (a cache: any trouble is ignored). */
-function writeAtomically(folder: string, target: string, bytes: Uint8Array): boolean {
+/**
+ * Write `bytes` to `target` through a temporary file in its folder (a cache: any trouble is ignored, false). Also
+ * the decoded-model cache's writer (io/model-cache.ts).
+ */
+export function writeAtomically(folder: string, target: string, bytes: Uint8Array): boolean {
   const temporary = `${target}.${process.pid}.${Math.random().toString(36).slice(2)}.tmp`;
   try {
     mkdirSync(folder, { recursive: true });
@@ -72,6 +76,22 @@ function writeAtomically(folder: string, target: string, bytes: Uint8Array): boo
   } catch {
     rmSync(temporary, { force: true });
     return false;
+  }
+}
+
+/**
+ * Keep `kept` − 1 files of `folder` named as `belongs` says besides `target` (the one just written): the newest by
+ * modification time; the others are removed. A cache only: any trouble is ignored.
+ */
+export function keepNewest(folder: string, target: string, belongs: (name: string) => boolean, kept: number): void {
+  try {
+    const others = readdirSync(folder)
+      .filter((f) => belongs(f) && join(folder, f) !== target)
+      .map((f) => ({ f, t: statSync(join(folder, f)).mtimeMs }))
+      .sort((a, b) => b.t - a.t);
+    for (const { f } of others.slice(kept - 1)) rmSync(join(folder, f), { force: true });
+  } catch {
+    // a cache only
   }
 }
 
@@ -94,17 +114,9 @@ export function radialTableFolder(folder: string): RadialTableStore {
   const writeNote = (key: string, coefficients: Float64Array) => {
     const id = programIdentity();
     if (id === null || !writeAtomically(folder, note(key, id), digestOf(coefficients))) return;
-    try {
-      // this note, and the newest others of the table
-      const prefix = `${name(key)}.`;
-      const others = readdirSync(folder)
-        .filter((f) => f.startsWith(prefix) && /^[0-9a-f]{24}\.fit$/.test(f.slice(prefix.length)) && join(folder, f) !== note(key, id))
-        .map((f) => ({ f, t: statSync(join(folder, f)).mtimeMs }))
-        .sort((a, b) => b.t - a.t);
-      for (const { f } of others.slice(NOTES_KEPT - 1)) rmSync(join(folder, f), { force: true });
-    } catch {
-      // a cache only
-    }
+    // this note, and the newest others of the table
+    const prefix = `${name(key)}.`;
+    keepNewest(folder, note(key, id), (f) => f.startsWith(prefix) && /^[0-9a-f]{24}\.fit$/.test(f.slice(prefix.length)), NOTES_KEPT);
   };
   return {
     load(key, length) {
