@@ -24,6 +24,11 @@ import { predictKernels, type PredictKernels } from '../wasm/prediction-kernels.
 export const SEARCH_BASIS = 8;
 /** Below this many representatives a basis does not pay; the bound then uses ρ = |x − μ| alone. */
 const MIN_ROWS_FOR_BASIS = 8;
+
+/** The most basis vectors a species of m representatives gets (the JavaScript and the kernel preparation alike). */
+function basisLimit(m: number, n0: number, maxBasis: number): number {
+  return m < MIN_ROWS_FOR_BASIS ? 0 : Math.min(maxBasis, n0, m);
+}
 /** Subspace-iteration steps after the Gram–Schmidt start (measured at d = 8: 0/2 steps leave about 38/21 exact
  * distances per query; more steps change little). */
 export const SUBSPACE_STEPS = 2;
@@ -136,7 +141,7 @@ function prepareSpeciesJs(reps: Float64Array, rows: Int32Array, n0: number, maxB
     const o = rows[k] * n0;
     for (let f = 0; f < n0; f++) centred[k * n0 + f] = reps[o + f] - mean[f];
   }
-  const limit = m < MIN_ROWS_FOR_BASIS ? 0 : Math.min(maxBasis, n0, m);
+  const limit = basisLimit(m, n0, maxBasis);
   // squared residual norms, kept up to date by subtraction: they only choose the pivot
   const left = new Float64Array(m);
   // the scale for the rank test: the rows themselves, not their spread (identical rows leave only round-off)
@@ -781,7 +786,7 @@ function wasmPrepare(k: PredictKernels, reps: Float64Array, repSpecies: Int32Arr
   // the resident layout is kept per representatives array: it must group them as these species do
   const layout = repsLayout(reps, n0, repSpecies, () => bySpecies);
   if (!layout) return null;
-  const limitOf = (m: number) => (m < MIN_ROWS_FOR_BASIS ? 0 : Math.min(maxBasis, n0, m));
+  const limitOf = (m: number) => basisLimit(m, n0, maxBasis);
   let bytes = 0;
   for (const { rows } of layout.species.values()) bytes = Math.max(bytes, prepareLayout(rows.length, n0, limitOf(rows.length)).bytes);
   const species = new Map<number, SpeciesSearch>();
