@@ -14,8 +14,8 @@ useRadialTableCache();
 
 /**
  * Once, after the first task: the code cache, stored before its result goes back (the parent may end the worker
- * right after it). The loader leaves the hook only when there was no cache or V8 refused it, i.e. once per build;
- * a cache only: the loader ignores any trouble.
+ * right after it). The pre-built worker (scripts/build-cli.mjs) always leaves the hook; its afterRun() stores a cache
+ * only when there was none or V8 refused it, i.e. once per build; a cache only: the loader ignores any trouble.
  */
 function afterFirstTask(): void {
   const store = (globalThis as { __polarweaveAfterFirstTask?: unknown }).__polarweaveAfterFirstTask;

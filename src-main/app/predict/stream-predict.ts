@@ -299,7 +299,6 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     }
   }
   // the CSV layout, from the selection's first frame: parsed from the slices just read when they begin with it
-  // (no checkpoint, no shard: they start at the file's beginning), else read from the file
   // (no checkpoint, no shard: they start at the file's beginning), else read from the file. A frame parsed here is
   // predicted as it is when the selection is predicted in this thread (below), not parsed a second time.
   const first = !ck && !opts.shard ? head.slices.find((x) => x.bytes) : undefined;
