@@ -14,7 +14,7 @@ import { makeRng } from '../../../src-main/core/numerics/random.ts';
 import { computeReadout, readOne, readoutScratch, readoutStep, weightMatrices } from '../../../src-main/core/learning/tensor-readout.ts';
 import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
 import { arenaRestarts, setArenaLimit } from '../../../src-main/core/wasm/arena.ts';
-import { predictKernels } from '../../../src-main/core/wasm/prediction-kernels.ts';
+import { descriptorKernels } from '../../../src-main/core/wasm/descriptors.ts';
 import { referenceReadOne } from '../../helpers/reference-kernels.ts';
 import { parseExtxyz } from '../../../src-main/io/extxyz.ts';
 import { equivarianceError, MIRROR, randomCluster, randomRotations } from '../../helpers/equivariance-harness.ts';
@@ -217,17 +217,18 @@ describe('the register-blocked read-out kernel', () => {
 });
 
 describe('the WebAssembly read-out kernel', () => {
-  // The kernel (src-main/core/wasm/assembly/prediction-kernels.ts readOne) keeps every sum's order, so its numbers must be the
+  // The kernel (src-main/core/wasm/assembly/descriptors.ts readOut) keeps every sum's order, so its numbers must be the
   // plain loops' bit for bit: with the matrices resident per species (a linear model) and copied per environment
-  // (a kernel model), for odd and even channel counts, λ = 1 and 2.
+  // (a kernel model), for odd and even channel counts, λ = 1 and 2, degrees up to 6 (every width of its column tiles).
   afterEach(() => setWebAssemblyKernels(true));
   const settings: [string, FeatureSettings][] = [
     ['nmax 8, lmax 6 (two species)', { ...base, nmax: 8, lmax: 6 }],
     ['nmax 5, lmax 5, lmaxTensor 5, three species', { ...base, lmaxTensor: 5, species: ['O', 'H', 'C'] }],
     ['nmaxTensor 3 (odd channel count)', { ...base, nmaxTensor: 3, species: ['O'], centres: ['O'] }],
+    ['nmax 8, lmax 6, lmaxTensor 6, nmaxTensor 7 (14 channels)', { ...base, nmax: 8, lmax: 6, lmaxTensor: 6, nmaxTensor: 7 }],
   ];
   it('is available here (Node 20 runs WebAssembly SIMD)', () => {
-    expect(predictKernels()).not.toBeNull();
+    expect(descriptorKernels()).not.toBeNull();
   });
   for (const lambda of [1, 2] as const) {
     for (const [name, s] of settings) {
