@@ -16,7 +16,7 @@
 // round-off (tested against computeFeatures + a dot product).
 import type { NeighbourPairs } from '../descriptors/density.ts';
 import type { EnvironmentFeatures, FeatureSettings } from '../descriptors/feature-types.ts';
-import { featurePlan, featurise, prepare, type FeatureTimings, type Plan, type TensorPlan } from '../descriptors/features.ts';
+import { featurePlan, featurise, prepare, type FeatureTimings, type Plan, type TensorPlan, type TensorStep } from '../descriptors/features.ts';
 import type { Frame } from '../geometry/frame.ts';
 import type { KernelModule } from '../wasm/load.ts';
 import { residentName, type Region } from '../wasm/arena.ts';
@@ -339,7 +339,10 @@ export function computeReadout(frame: Frame, settings: FeatureSettings, readout:
   const values = fits(reuse?.values, count * nM) ?? new Float64Array(count * nM);
   const norms = fits(reuse?.features.norms, count) ?? new Float64Array(count);
   const read = readoutStep(P, T, readout, scalar, values);
-  featurise(prep, scalar, (e) => e, (e, k0, c) => read(e, k0, c, prep.centreSpecies[e]), null, timings, norms);
+  const step: TensorStep = (e, k0, c) => read(e, k0, c, prep.centreSpecies[e]);
+  const inPlace = read.inPlace;
+  if (inPlace) step.inPlace = (e, at) => inPlace(e, prep.centreSpecies[e], at);
+  featurise(prep, scalar, (e) => e, step, null, timings, norms);
   return {
     features: { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor: {}, norms },
     values,
@@ -347,7 +350,15 @@ export function computeReadout(frame: Frame, settings: FeatureSettings, readout:
 }
 
 /** Reads environment e (λ = 0 row k0 of `scalar`, coefficients c, centre species s) into its values. */
-export type ReadStep = (e: number, k0: number, c: Float64Array, species: number) => void;
+export interface ReadStep {
+  (e: number, k0: number, c: Float64Array, species: number): void;
+  /**
+   * Present where the weights do not depend on the λ = 0 row (readout.perSpecies) and the kernel runs: reads
+   * environment e from coefficients already in the descriptor kernels' memory (TensorStep.inPlace); false when
+   * they are not there any more (the caller then calls the step).
+   */
+  inPlace?: (e: number, species: number, at: () => number) => boolean;
+}
 
 /**
  * The read-out of one environment after another into values[e·(2λ+1)…]: through the WebAssembly kernel where
@@ -420,7 +431,7 @@ function wasmReadout(P: Plan, T: TensorPlan, readout: TensorReadout, scalar: Flo
   };
   if (!place()) return null;
   let plain: ReadStep | null = null;
-  return (e, k0, c, s) => {
+  const step: ReadStep = (e, k0, c, s) => {
     if (!place()) {
       // the memory could not hold the regions again: the JavaScript read-out (the same bits)
       plain ??= plainReadout(P, T, readout, scalar, values);
@@ -436,6 +447,17 @@ function wasmReadout(P: Plan, T: TensorPlan, readout: TensorReadout, scalar: Flo
     k.readOut(planAt, cAt, W, yAt);
     for (let mu = 0; mu < nM; mu++) values[e * nM + mu] = yView[mu];
   };
+  if (perSpecies) {
+    step.inPlace = (e, s, at) => {
+      if (!place()) return false;
+      const c = at(); // after placing: −1 when that moved anything
+      if (c < 0) return false;
+      k.readOut(planAt, c, weightsAt + s * wStride, yAt);
+      for (let mu = 0; mu < nM; mu++) values[e * nM + mu] = yView[mu];
+      return true;
+    };
+  }
+  return step;
 }
 
 /**

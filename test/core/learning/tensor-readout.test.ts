@@ -259,11 +259,31 @@ describe('the WebAssembly read-out kernel', () => {
     const s = { ...base, nmax: 6, lmax: 4 };
     const { u, n } = randomWeights(s, 2, 17);
     const W = s.centres.map((_, k) => weightMatrices(s, 2, u, k * n));
+    // per-species weights: each environment read where its expansion left the coefficients (TensorStep.inPlace)
     const on = computeReadout(frames[2], s, { lambda: 2, matrices: (_e, k) => W[k], perSpecies: W });
+    // weights per environment (as a kernel model's): read after the group's rows, from the coefficients copied in
+    const perEnvironment = computeReadout(frames[2], s, { lambda: 2, matrices: (_e, k) => W[k].slice() });
     setWebAssemblyKernels(false);
     const off = computeReadout(frames[2], s, { lambda: 2, matrices: (_e, k) => W[k] });
     expect(Array.from(on.values)).toEqual(Array.from(off.values));
+    expect(Array.from(perEnvironment.values)).toEqual(Array.from(off.values));
     expect(Array.from(on.features.scalar)).toEqual(Array.from(off.features.scalar));
+  });
+
+  it('reads each environment in place when the weights are per species, and not otherwise', () => {
+    const s = { ...base, nmax: 6, lmax: 4 };
+    const P = featurePlan(s, [2]);
+    const T = P.tensors[0];
+    const W = s.centres.map(() => new Float64Array(T.blocks.length * P.tch * P.tch));
+    const values = new Float64Array(5);
+    const scalar = new Float64Array(P.n0);
+    expect(readoutStep(P, T, { lambda: 2, matrices: (_e, k) => W[k], perSpecies: W }, scalar, values).inPlace).toBeTypeOf('function');
+    expect(readoutStep(P, T, { lambda: 2, matrices: (_e, k) => W[k] }, scalar, values).inPlace).toBeUndefined();
+    // no coefficients in place (the address is gone): the step says so and writes nothing
+    const step = readoutStep(P, T, { lambda: 2, matrices: (_e, k) => W[k], perSpecies: W }, scalar, values);
+    values.fill(7);
+    expect(step.inPlace?.(0, 0, () => -1)).toBe(false);
+    expect(Array.from(values)).toEqual([7, 7, 7, 7, 7]);
   });
 
   it('whole read-outs are the same bits when the kernels\' memory starts again in the middle of a frame (lowered arena limits)', () => {
