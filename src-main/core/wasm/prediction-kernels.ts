@@ -1,6 +1,6 @@
 // The prediction kernels (./assembly/prediction-kernels.ts) with their signatures, and the arena (./arena.ts) that
-// keeps a job's large operands (a model's representatives, its read-out weights and tables) resident in the
-// module's memory between calls. Used by core/learning/tensor-readout.ts and core/learning/nearest-search.ts.
+// keeps a job's large operands (a model's representatives) resident in the
+// module's memory between calls. Used by core/learning/nearest-search.ts.
 import { Arena } from './arena.ts';
 import { WASM_BASE64 } from './generated/prediction-kernels.ts';
 import { kernelModule, type KernelModule } from './load.ts';
@@ -8,8 +8,6 @@ import { kernelModule, type KernelModule } from './load.ts';
 export interface PredictKernels {
   module: KernelModule;
   arena: Arena;
-  /** The read-out of one environment (tensor-readout.ts readOne); byte addresses of the plan, c, W and y. */
-  readOne(plan: number, c: number, W: number, y: number): void;
   /** Exact nearest distances of queries of one species (nearest-search.ts nearestOf); byte addresses. */
   searchSpecies(species: number, reps: number, scratch: number, queries: number, idx: number, nq: number, out: number): void;
   /** The plain scan (sparse.ts nearestDistance) of queries over one species' m representatives; byte addresses. */
@@ -28,7 +26,6 @@ export function predictKernels(): PredictKernels | null {
     cached = {
       module,
       arena: new Arena(module),
-      readOne: module.exports.readOne as PredictKernels['readOne'],
       searchSpecies: module.exports.searchSpecies as PredictKernels['searchSpecies'],
       scanSpecies: module.exports.scanSpecies as PredictKernels['scanSpecies'],
       prepareSpecies: module.exports.prepareSpecies as PredictKernels['prepareSpecies'],
