@@ -264,7 +264,7 @@ export interface DensityExpander {
   settings: DensitySettings;
   /** Length of one centre's coefficient block. */
   size: number;
-  expand(pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): void;
+  expand(pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array, slot?: number): void;
   /**
    * Where the last `expand` left its coefficients transposed in the descriptor kernels' memory (byte address of
    * cT[lm·channels·nmax + a·nmax + n]), while they are still there; −1 when it took
@@ -272,11 +272,15 @@ export interface DensityExpander {
    */
   transposedAt(): number;
   /**
-   * Where the last `expand` left its coefficients (the layout of `out`, readable two doubles past their end) in the
-   * descriptor kernels' memory, while they are still there; −1 as for transposedAt.
+   * Where the last `expand` into `slot` (0 when not given; EXPANSION_SLOTS of them) left its coefficients (the layout
+   * of `out`, readable two doubles past their end) in the descriptor kernels' memory, while they are still there
+   * (nothing placed since); −1 otherwise, as for transposedAt.
    */
-  coefficientsAt(): number;
+  coefficientsAt(slot?: number): number;
 }
+
+/** Coefficient slots of an expander in the kernels' memory (expand's `slot`): a group of environments side by side. */
+export const EXPANSION_SLOTS = 8;
 
 const expanderCache = new Map<string, DensityExpander>();
 
@@ -336,7 +340,7 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const owner = {};
   const tables = harmonicTables(lmax);
   let room = 0;
-  let placed: { at: number; generation: number; kernels: DescriptorKernels; par: Float64Array; chan: Int32Array; out: Float64Array } | null = null;
+  let placed: { at: number; generation: number; kernels: DescriptorKernels; par: Float64Array; chan: Int32Array; outs: Float64Array[] } | null = null;
   /** Whether the last expand went through the kernels (and left cT); the arena's epoch when `placed` was checked. */
   let lastByKernel = false;
   let placedEpoch = -1;
@@ -351,7 +355,7 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const startAt = selfAt + align(nmax);
   const outAt = startAt + align(Math.ceil((channels + 1) / 2));
   // the coefficients transposed, cT[lm·channels·nmax + a·nmax + n] (powerSpectrumRow's layout)
-  const cTAt = outAt + align(size);
+  const cTAt = outAt + EXPANSION_SLOTS * align(size);
   const fixedDoubles = cTAt + align(size);
   const perPair = 8 + LL + NLp + 1;
   const place = (K: DescriptorKernels, count: number) => {
@@ -381,19 +385,21 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
       kernels: K,
       par: K.module.f64(parAt, room * 8),
       chan: new Int32Array(K.module.f64(0, 0).buffer, chanAt, room),
-      out: K.module.f64(at + outAt * 8, size),
+      outs: Array.from({ length: EXPANSION_SLOTS }, (_, slot) => K.module.f64(at + (outAt + slot * align(size)) * 8, size)),
     };
     placedEpoch = K.epoch();
     return placed;
   };
-  /** Byte address of the region's part at `doubles` while the last expansion is there (see transposedAt), else −1. */
-  const lastAt = (doubles: number): number => {
+  /** Whether the expansion into each slot went through the kernels. */
+  const byKernel: boolean[] = [];
+  /** Byte address of the region's part at `doubles` while nothing was placed since it was checked, else −1. */
+  const placedAt = (doubles: number): number => {
     // nothing placed since this expander's region was checked: it is where it was, and so are the coefficients
-    if (!lastByKernel || placed === null) return -1;
+    if (placed === null) return -1;
     const K = descriptorKernels();
     return K === placed.kernels && K.epoch() === placedEpoch ? placed.at + doubles * 8 : -1;
   };
-  const expandKernel = (K: DescriptorKernels, pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): boolean => {
+  const expandKernel = (K: DescriptorKernels, pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array, slot: number): boolean => {
     const { start, neighbour, vectors, distances } = pairs;
     const from = start[centre];
     const count = start[centre + 1] - from;
@@ -430,17 +436,19 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     const base = at.at;
     const startsAt = base + startAt * 8;
     K.pairTerms(parAt, chanAt, count, channels, lmax, NLp, base + aAt * 8, base + bAt * 8, base + diagAt * 8, tables.y00, base + coefAt * 8, yAt, rAt, orderAt, startsAt);
-    K.expandAccumulate(yAt, rAt, startsAt, NLp, nmax, lmax, channels, base + outAt * 8, base + selfAt * 8, centreChannel, base + cTAt * 8);
-    out.set(at.out);
+    K.expandAccumulate(yAt, rAt, startsAt, NLp, nmax, lmax, channels, base + (outAt + slot * align(size)) * 8, base + selfAt * 8, centreChannel, base + cTAt * 8);
+    out.set(at.outs[slot]);
     return true;
   };
 
   return {
     settings: { ...s },
     size,
-    expand(pairs, centre, centreChannel, channelOf, out) {
+    expand(pairs, centre, centreChannel, channelOf, out, slot = 0) {
+      if (!(Number.isInteger(slot) && slot >= 0 && slot < EXPANSION_SLOTS)) throw new RangeError(`expand: slot ${slot} is not in 0…${EXPANSION_SLOTS - 1}`);
       const K = descriptorKernels();
-      lastByKernel = K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, out);
+      lastByKernel = K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, out, slot);
+      byKernel[slot] = lastByKernel;
       if (lastByKernel) return;
       // Locals, not closure slots, in the loop (V8 keeps them in registers).
       byDegree ??= degreeTable(table.coefficients, intervals, nmax, lmax);
@@ -488,10 +496,10 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
       if (centreChannel >= 0) for (let n = 0; n < nmax; n++) out[(centreChannel * nmax + n) * LL] += selfTerm[n];
     },
     transposedAt() {
-      return lastAt(cTAt);
+      return lastByKernel ? placedAt(cTAt) : -1;
     },
-    coefficientsAt() {
-      return lastAt(outAt);
+    coefficientsAt(slot = 0) {
+      return byKernel[slot] === true ? placedAt(outAt + slot * align(size)) : -1;
     },
   };
 }

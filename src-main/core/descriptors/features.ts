@@ -21,7 +21,7 @@ import { DEFAULT_SETTINGS, settingsProblems } from '../settings-table.ts';
 import type { Frame } from '../geometry/frame.ts';
 import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
 import { realClebschGordanSparse, type SparseCoupling } from './clebsch-gordan.ts';
-import { densityExpander, type DensityExpander, type NeighbourPairs } from './density.ts';
+import { densityExpander, EXPANSION_SLOTS, type DensityExpander, type NeighbourPairs } from './density.ts';
 import { neighbourList } from '../geometry/neighbours.ts';
 import { descriptorKernels, type DescriptorKernels } from '../wasm/descriptors.ts';
 
@@ -512,7 +512,7 @@ interface KernelLayout {
  * normalised together (normaliseMany), whose sums of squares, each a chain of dependent additions in index order,
  * then run side by side. 8 × the λ = 2 block at nmax 8, lmaxTensor 6 is about 0.7 MB of kernel memory.
  */
-const GROUP = 8;
+const GROUP = EXPANSION_SLOTS;
 
 const layouts = new WeakMap<Plan, KernelLayout & { at: number; bytes: number; generation: number; epoch: number }>();
 
@@ -740,10 +740,10 @@ export interface TensorStep {
   (e: number, k0: number, c: Float64Array, j?: number): void;
   flush?: (count: number) => void;
   /**
-   * Optional, for environments side by side: environment e's λ > 0 work straight from its coefficients in the
-   * descriptor kernels' memory, right after its expansion (while they are in the cache), when it needs nothing
-   * else (not the λ = 0 row). `at()` gives their byte address (P.expander.coefficientsAt: −1 once anything moved);
-   * ask it after placing anything. Returns whether it did the work; the step is then not called for e.
+   * Optional, for environments side by side: environment e's λ > 0 work straight from its coefficients where the
+   * expansion left them in the descriptor kernels' memory (each environment of a group has a slot of its own there,
+   * P.expander.coefficientsAt(j)), instead of a copy. `at()` gives their byte address (−1 once anything was placed
+   * there since); ask it after placing anything. Returns whether it did the work; the step is then not called for e.
    */
   inPlace?: (e: number, at: () => number) => boolean;
 }
@@ -887,9 +887,7 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
     groupCoefficients.set(P, cs);
   }
   const k0s = new Array<number>(GROUP);
-  const done = new Array<boolean>(GROUP);
   const early = tensorStep.inPlace;
-  const coefficientsAt = () => P.expander.coefficientsAt();
   let tExpand = 0, tCouple = 0;
   for (let g = 0; g < centres.length; g += GROUP) {
     const count = Math.min(GROUP, centres.length - g);
@@ -899,22 +897,18 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
     for (let j = 0; j < count && !moved; j++) {
       const i = centres[g + j];
       const t0 = timings ? performance.now() : 0;
-      P.expander.expand(pairs, i, channelOf[i], channelOf, cs[j]);
+      P.expander.expand(pairs, i, channelOf[i], channelOf, cs[j], j);
       if (timings) tExpand += performance.now() - t0;
       const now = kernelLayout(P);
-      done[j] = false;
       if (now !== L) moved = true;
-      else {
-        rowKernel(now as KernelLayout, P, cs[j], true, j);
-        if (early) done[j] = early(g + j, coefficientsAt);
-      }
+      else rowKernel(now as KernelLayout, P, cs[j], true, j);
     }
     if (moved) {
       // the layout moved while the group was expanded (the expander's region grew): expand again, then the rows
       // from the coefficients copied in
       for (let j = 0; j < count; j++) {
         const i = centres[g + j];
-        P.expander.expand(pairs, i, channelOf[i], channelOf, cs[j]);
+        P.expander.expand(pairs, i, channelOf[i], channelOf, cs[j], j);
       }
       L = kernelLayout(P);
       if (L === null) throw new Error('featurise: the descriptor kernels lost their memory');
@@ -933,7 +927,9 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
       k0s[j] = slot(e);
       scalar.set(views.row[j], k0s[j] * P.n0);
     }
-    for (let j = 0; j < count; j++) if (!done[j]) tensorStep(g + j, k0s[j], cs[j], j);
+    for (let j = 0; j < count; j++) {
+      if (!(early && early(g + j, () => P.expander.coefficientsAt(j)))) tensorStep(g + j, k0s[j], cs[j], j);
+    }
     tensorStep.flush?.(count);
     // the rest of the group's time (its rows, norms and λ > 0 steps) counts as coupling, as in the loop one at a time
     if (timings) tCouple += performance.now() - ta;

@@ -145,4 +145,31 @@ describe('makeDensityExpander', () => {
     }
     setWebAssemblyKernels(true);
   });
+
+  it('keeps each slot\'s coefficients in the kernels\' memory where coefficientsAt says, until anything is placed there', () => {
+    // featurise expands a group of environments into slots 0…7 and reads them afterwards (the λ = 2 read-out)
+    const settings = { nmax: 6, lmax: 4, cutoff: 4.5, sigma: 0.4, cutoffWidth: 0.5, channels: 2 };
+    const ex = makeDensityExpander(settings);
+    const K = descriptorKernels();
+    expect(K).not.toBeNull();
+    const rng = makeRng(31);
+    const count = 12;
+    const vectors = Float64Array.from({ length: 3 * count }, () => 1.2 * rng.normal());
+    const distances = Float64Array.from({ length: count }, (_, p) => Math.hypot(vectors[3 * p], vectors[3 * p + 1], vectors[3 * p + 2]));
+    const pairs = { start: Int32Array.from([0, 6, count]), neighbour: Int32Array.from({ length: count }, (_, p) => p % 2), vectors, distances };
+    const channelOf = Int32Array.from([0, 1]);
+    const outs = [0, 1].map(() => new Float64Array(ex.size));
+    ex.expand(pairs, 0, 0, channelOf, outs[0], 5);
+    ex.expand(pairs, 1, 1, channelOf, outs[1], 2);
+    for (const [slot, k] of [[5, 0], [2, 1]]) {
+      const at = ex.coefficientsAt(slot);
+      expect(at).toBeGreaterThan(0);
+      expect(Array.from((K as NonNullable<typeof K>).module.f64(at, ex.size))).toEqual(Array.from(outs[k]));
+    }
+    expect(outs[0]).not.toEqual(outs[1]);
+    expect(ex.coefficientsAt(0)).toBe(-1); // nothing expanded into slot 0
+    expect(() => ex.expand(pairs, 0, 0, channelOf, outs[0], 8)).toThrow(RangeError);
+    (K as NonNullable<typeof K>).region({}, 64); // anything placed: no address is trusted any more
+    expect(ex.coefficientsAt(5)).toBe(-1);
+  });
 });
