@@ -15,6 +15,7 @@ import {
   kernelPower,
   kernelWeights,
   linearDesignRows,
+  linearScalarPass,
   localContributions,
   scalarDot,
   structureKernel,
@@ -922,8 +923,14 @@ function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, r
   for (const part of model.parts) {
     const w = 2 * part.order + 1;
     let contrib: Float64Array;
+    // a linear λ=0 part: its contributions and the per-species row sums its leverage needs, in one pass
+    let sums: Float64Array | undefined;
     if (readout && readout.order === part.order) contrib = readout.values;
-    else {
+    else if (part.order === 0 && part.form === 'linear' && part.n === fe.n0) {
+      const pass = linearScalarPass(fe, part.weights as Float64Array, model.centres.length);
+      contrib = pass.contributions;
+      sums = pass.sums;
+    } else {
       const v = blockView(fe, part.order);
       if (v.n !== part.n) throw new ModelError(`features of order λ=${part.order} have ${v.n} components but the model expects ${part.n}`);
       contrib = localContributions(fe, part.order, part.form === 'linear' ? { linear: part.weights as Float64Array } : { kernel: part.kernel as KernelExpansion });
@@ -938,7 +945,7 @@ function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, r
       }
     }
     if (part.order === 0 && part.posterior) {
-      leverage = partLeverage(model, part, fe);
+      leverage = partLeverage(model, part, fe, sums);
       variance = part.posterior.noise * leverage;
     }
   }
@@ -1031,9 +1038,10 @@ function explicitPosterior(post: PartPosterior): Posterior {
 
 /**
  * Leverage of a frame against a part's training design: φᵀ(ΦᵀΦ + λI)⁻¹φ (its GP latent variance divided by the
- * noise variance), for the linear, sparse and exact forms.
+ * noise variance), for the linear, sparse and exact forms. `sums`: a linear part's per-species row sums
+ * (linearDesignRows(fe, 0, …)) when they are at hand already (linearScalarPass).
  */
-function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures): number {
+function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures, sums?: Float64Array): number {
   const post = { ...(part.posterior as PartPosterior), noise: 1 };
   const nS = model.centres.length;
   const counts = new Float64Array(nS);
@@ -1045,7 +1053,7 @@ function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures): n
     return out;
   };
   const explicit = explicitPosterior(post);
-  if (part.form === 'linear') return posteriorVariance(explicit, withCounts(linearDesignRows(fe, 0, nS)));
+  if (part.form === 'linear') return posteriorVariance(explicit, withCounts(sums ?? linearDesignRows(fe, 0, nS)));
   const k = part.kernel as KernelExpansion;
   if (post.nystrom) {
     const reps: Representatives = { order: 0, n0: k.n0, n: k.n0, width: 1, species: k.species, p: k.p, blocks: k.p };

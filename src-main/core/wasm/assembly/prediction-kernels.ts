@@ -1,6 +1,7 @@
 // Prediction kernels in AssemblyScript, compiled to WebAssembly with 128-bit SIMD (two doubles per lane pair):
 // the λ > 0 read-out of one environment (core/learning/tensor-readout.ts readOne), and the exact nearest-
-// representative search of the applicability check with its one-off preparation (core/learning/nearest-search.ts). Compiled by
+// representative search of the applicability check with its one-off preparation (core/learning/nearest-search.ts), and
+// a linear λ=0 part's contributions and row sums (core/learning/kernels.ts linearScalarPass). Compiled by
 // scripts/build-wasm.mjs into ../generated/prediction-kernels.ts; loaded through ../prediction-kernels.ts. Every number a caller
 // keeps is summed in the same order as in its JavaScript twin (vectorised across independent outputs, never
 // within one sum), so the results are the same bits; only the search's lower bounds, which merely decide what to
@@ -755,6 +756,71 @@ export function scanSpecies(reps: usize, m: i32, n0: i32, queries: usize, idx: u
       }
     }
     f64.store(out + (<usize>k << 3), Math.sqrt(best));
+  }
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// A linear λ=0 part over a frame's rows (core/learning/kernels.ts linearScalarPass)
+
+/**
+ * For the rows e < count of `rows` (n0 doubles each; species[e] an i32 per row): out[e] = Σ_f rows[e][f] ·
+ * weights[species[e]][f], summed over f ascending from zero as localContributions sums it (two rows per lane pair),
+ * and each row added, feature by feature and row after row, to sums[species[e]] (n0 doubles per species) as
+ * linearDesignRows adds them: the same bits. `sums` is added to, so a frame may come in several calls.
+ */
+export function linearRows(rows: usize, count: i32, n0: i32, species: usize, weights: usize, out: usize, sums: usize): void {
+  const rowBytes = <usize>n0 << 3;
+  let e = 0;
+  for (; e + 1 < count; e += 2) {
+    const r0 = rows + <usize>e * rowBytes;
+    const r1 = r0 + rowBytes;
+    const s0 = <usize>load<i32>(species + (<usize>e << 2));
+    const s1 = <usize>load<i32>(species + (<usize>e << 2), 4);
+    const w0 = weights + s0 * rowBytes;
+    const w1 = weights + s1 * rowBytes;
+    const a0 = sums + s0 * rowBytes;
+    const a1 = sums + s1 * rowBytes;
+    let acc = f64x2.splat(0);
+    let f = 0;
+    for (; f + 1 < n0; f += 2) {
+      const o = <usize>f << 3;
+      const x0 = v128.load(r0 + o);
+      const x1 = v128.load(r1 + o);
+      const u0 = v128.load(w0 + o);
+      const u1 = v128.load(w1 + o);
+      acc = f64x2.add(acc, f64x2.mul(v128.shuffle<f64>(x0, x1, 0, 2), v128.shuffle<f64>(u0, u1, 0, 2)));
+      acc = f64x2.add(acc, f64x2.mul(v128.shuffle<f64>(x0, x1, 1, 3), v128.shuffle<f64>(u0, u1, 1, 3)));
+      // row e before row e + 1 (the same sums when both rows are of one species)
+      v128.store(a0 + o, f64x2.add(v128.load(a0 + o), x0));
+      v128.store(a1 + o, f64x2.add(v128.load(a1 + o), x1));
+    }
+    let c0 = f64x2.extract_lane(acc, 0);
+    let c1 = f64x2.extract_lane(acc, 1);
+    if (f < n0) {
+      const o = <usize>f << 3;
+      const x0 = f64.load(r0 + o);
+      const x1 = f64.load(r1 + o);
+      c0 += x0 * f64.load(w0 + o);
+      c1 += x1 * f64.load(w1 + o);
+      f64.store(a0 + o, f64.load(a0 + o) + x0);
+      f64.store(a1 + o, f64.load(a1 + o) + x1);
+    }
+    f64.store(out + (<usize>e << 3), c0);
+    f64.store(out + (<usize>e << 3), c1, 8);
+  }
+  if (e < count) {
+    const r0 = rows + <usize>e * rowBytes;
+    const s0 = <usize>load<i32>(species + (<usize>e << 2));
+    const w0 = weights + s0 * rowBytes;
+    const a0 = sums + s0 * rowBytes;
+    let c0: f64 = 0;
+    for (let f = 0; f < n0; f++) {
+      const o = <usize>f << 3;
+      const x0 = f64.load(r0 + o);
+      c0 += x0 * f64.load(w0 + o);
+      f64.store(a0 + o, f64.load(a0 + o) + x0);
+    }
+    f64.store(out + (<usize>e << 3), c0);
   }
 }
 
