@@ -1126,6 +1126,8 @@ function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, r
   const local = new Float64Array(nAtoms * C);
   let variance = 0;
   let leverage = NaN;
+  // the key of this frame's λ=0 rows in the kernels' memory: copied there once for the linear part and the search
+  const rowsKey = {};
   for (const part of model.parts) {
     const w = 2 * part.order + 1;
     let contrib: Float64Array;
@@ -1133,7 +1135,7 @@ function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, r
     let sums: Float64Array | undefined;
     if (readout && readout.order === part.order) contrib = readout.values;
     else if (part.order === 0 && part.form === 'linear' && part.n === fe.n0) {
-      const pass = linearScalarPass(fe, part.weights as Float64Array, model.centres.length);
+      const pass = linearScalarPass(fe, part.weights as Float64Array, model.centres.length, rowsKey);
       contrib = pass.contributions;
       sums = pass.sums;
     } else {
@@ -1157,7 +1159,7 @@ function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, r
   }
   if (model.leverage?.posterior) leverage = partLeverage(model, model.leverage, fe);
   requireFinite(frame, total);
-  const applicability = applicabilityOf(model, frame, fe, pairs);
+  const applicability = applicabilityOf(model, frame, fe, pairs, rowsKey);
   applicability.variance = variance;
   return { irreducible: total, localIrreducible: local, components: C, applicability, uncertainty: uncertaintyOf(model, leverage, C) };
 }
@@ -1289,7 +1291,7 @@ function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures, su
  * model has their training ranges; models saved before them judge by the feature distance alone (any atom
  * beyond its species' threshold flags the frame, as they always did).
  */
-function applicabilityOf(model: Model, frame: Frame, fe: EnvironmentFeatures, pairs?: NeighbourList): Applicability {
+function applicabilityOf(model: Model, frame: Frame, fe: EnvironmentFeatures, pairs?: NeighbourList, rowsKey?: object): Applicability {
   const a = model.applicability;
   const nAtoms = frame.species.length;
   const atomDistance = new Float64Array(nAtoms);
@@ -1300,7 +1302,7 @@ function applicabilityOf(model: Model, frame: Frame, fe: EnvironmentFeatures, pa
   // bounded search, prepared once per model object when the job is large enough to repay it; bit-identical to
   // sparse.ts nearestDistance (nearest-search.ts)
   const nearest = new Float64Array(fe.count);
-  nearestAllOf(a, fe.scalar, fe.count, fe.centreSpecies, nearest);
+  nearestAllOf(a, fe.scalar, fe.count, fe.centreSpecies, nearest, rowsKey);
   for (let e = 0; e < fe.count; e++) {
     let best = nearest[e];
     if (!Number.isFinite(best)) best = 2;

@@ -16,7 +16,7 @@
 
 import { nearestDistance } from './sparse.ts';
 import { residentName, type Region } from '../wasm/arena.ts';
-import { predictKernels, type PredictKernels } from '../wasm/prediction-kernels.ts';
+import { fillFrameRows, frameRowsRegion, predictKernels, type PredictKernels } from '../wasm/prediction-kernels.ts';
 
 /**
  * Basis size per species, chosen by measurement (bench/applicability.bench.ts: water-like frames, nmax 8, lmax 6,
@@ -272,16 +272,17 @@ const plainQueries = new WeakMap<object, number>();
  * searchNearestAll over the representatives of `owner`: with its prepared search (cachedNearestSearch) once the
  * owner has answered plainQueriesBeforePreparing() queries (or was prepared already), before that by the plain
  * scan (sparse.ts nearestDistance, or its WebAssembly kernel), whose numbers the search reproduces bit for bit.
+ * `rowsKey` as for searchNearestAll.
  */
-export function nearestAllOf(owner: { n0: number; species: Int32Array; p: Float64Array }, a: Float64Array, count: number, species: Int32Array, out: Float64Array): void {
+export function nearestAllOf(owner: { n0: number; species: Int32Array; p: Float64Array }, a: Float64Array, count: number, species: Int32Array, out: Float64Array, rowsKey?: object): void {
   const asked = plainQueries.get(owner) ?? 0;
   const prepared = cache.get(owner);
   if (asked + count > plainQueriesBeforePreparing() || (prepared && prepared.reps === owner.p && prepared.n0 === owner.n0)) {
-    searchNearestAll(cachedNearestSearch(owner), a, count, species, out);
+    searchNearestAll(cachedNearestSearch(owner), a, count, species, out, undefined, rowsKey);
     return;
   }
   plainQueries.set(owner, asked + count);
-  if (wasmScanAll(owner, a, count, species, out)) return;
+  if (wasmScanAll(owner, a, count, species, out, rowsKey)) return;
   for (let e = 0; e < count; e++) out[e] = nearestDistance(a, e, owner.p, owner.species, species[e], owner.n0);
 }
 
@@ -569,11 +570,12 @@ export function searchNearest(search: NearestSearch, a: Float64Array, i: number,
 
 /**
  * searchNearest for every row e < count of `a`, whose species is species[e], into out[e]: the same numbers, with
- * the coordinates of four queries of one species computed in one pass (project).
+ * the coordinates of four queries of one species computed in one pass (project). `rowsKey`: the key of the rows'
+ * copy in the kernel's memory (prediction-kernels.ts fillFrameRows), shared with other callers of one frame.
  */
-export function searchNearestAll(search: NearestSearch, a: Float64Array, count: number, species: Int32Array, out: Float64Array, counter?: SearchCounter): void {
+export function searchNearestAll(search: NearestSearch, a: Float64Array, count: number, species: Int32Array, out: Float64Array, counter?: SearchCounter, rowsKey?: object): void {
   const k = predictKernels();
-  if (k && wasmSearchAll(k, search, a, count, species, out, counter)) return;
+  if (k && wasmSearchAll(k, search, a, count, species, out, counter, rowsKey)) return;
   const n0 = search.n0;
   for (let e = 0; e < count; e++) if (!search.species.has(species[e])) out[e] = Infinity;
   if (counter) counter.queries += count;
@@ -746,11 +748,13 @@ function writeSearch(k: PredictKernels, search: NearestSearch, at: number): void
 const SEARCH_SCRATCH = {};
 
 /**
- * The queries of `a` (rows e < count, species species[e]) through a WebAssembly kernel, QUERY_CHUNK rows copied
- * into the kernel's memory at a time: for each species present, `run(s, rowsAt, idxAt, nq, outAt)` answers the
- * rows idx[0…nq) of the chunk at rowsAt into outAt; a species the representatives lack gets Infinity. `regions`
- * are the resident regions the kernel reads; the scratch (queries, indices, distances and `extra` bytes before
- * them) is added here. False when the kernel's memory cannot hold them.
+ * The queries of `a` (rows e < count, species species[e]) through a WebAssembly kernel: the rows held whole in the
+ * kernel's memory under `rowsKey` (frameRowsRegion, fillFrameRows: copied once per frame for every caller with that key) when it
+ * is given and they fit, else QUERY_CHUNK rows copied into the scratch at a time. For each species present and
+ * each chunk of QUERY_CHUNK rows, `run(s, rowsAt, idxAt, nq, outAt)` answers the rows idx[0…nq) of the chunk at
+ * rowsAt into outAt; a species the representatives lack gets Infinity. `regions` are the resident regions the
+ * kernel reads; the scratch (queries, indices, distances and `extra` bytes before them) is added here. False when
+ * the kernel's memory cannot hold them.
  */
 function wasmQueries(
   k: PredictKernels,
@@ -763,25 +767,30 @@ function wasmQueries(
   regions: Region[],
   extra: number,
   run: (at: number[], scr: number, s: number, rowsAt: number, idxAt: number, nq: number, outAt: number) => void,
+  rowsKey?: object,
 ): boolean {
+  const whole = rowsKey ? frameRowsRegion(count, n0) : null;
   const rows = bytes16(extra);
-  const idx = rows + 8 * QUERY_CHUNK * n0;
+  const idx = rows + (whole ? 0 : 8 * QUERY_CHUNK * n0);
   const dist = idx + 4 * QUERY_CHUNK;
-  const at = k.arena.acquire([...regions, { name: 'search-scratch', key: SEARCH_SCRATCH, bytes: dist + 8 * QUERY_CHUNK }]);
+  const scratch: Region = { name: 'search-scratch', key: SEARCH_SCRATCH, bytes: dist + 8 * QUERY_CHUNK };
+  const at = k.arena.acquire(whole ? [...regions, whole, scratch] : [...regions, scratch]);
   if (!at) return false;
   const scr = at[at.length - 1];
-  const rowsView = k.module.f64(scr + rows, QUERY_CHUNK * n0);
-  const idxView = new Int32Array(rowsView.buffer, scr + idx, QUERY_CHUNK);
+  const held = whole ? at[at.length - 2] : -1;
+  if (whole && rowsKey) fillFrameRows(k, held, a, count, n0, rowsKey);
+  const idxView = new Int32Array(k.module.f64(scr, 0).buffer, scr + idx, QUERY_CHUNK);
   const distView = k.module.f64(scr + dist, QUERY_CHUNK);
   for (let e0 = 0; e0 < count; e0 += QUERY_CHUNK) {
     const e1 = Math.min(count, e0 + QUERY_CHUNK);
-    rowsView.set(a.subarray(e0 * n0, e1 * n0));
+    if (!whole) k.module.f64(scr + rows, QUERY_CHUNK * n0).set(a.subarray(e0 * n0, e1 * n0));
+    const rowsAt = whole ? held + 8 * e0 * n0 : scr + rows;
     for (let e = e0; e < e1; e++) if (!known.has(species[e])) out[e] = Infinity;
     for (const s of known.keys()) {
       let nq = 0;
       for (let e = e0; e < e1; e++) if (species[e] === s) idxView[nq++] = e - e0;
       if (nq === 0) continue;
-      run(at, scr, s, scr + rows, scr + idx, nq, scr + dist);
+      run(at, scr, s, rowsAt, scr + idx, nq, scr + dist);
       for (let j = 0; j < nq; j++) out[e0 + idxView[j]] = distView[j];
     }
   }
@@ -792,7 +801,7 @@ function wasmQueries(
  * searchNearestAll through the WebAssembly kernel (assembly/prediction-kernels.ts searchSpecies: the same numbers
  * bit for bit): the representatives and the prepared bases stay in the module's memory per set and search.
  */
-function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array, count: number, species: Int32Array, out: Float64Array, counter?: SearchCounter): boolean {
+function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array, count: number, species: Int32Array, out: Float64Array, counter?: SearchCounter, rowsKey?: object): boolean {
   const n0 = search.n0;
   const layout = searchLayout(search);
   const reps = repsLayout(search.reps, n0, search, () => new Map([...search.species].map(([s, sp]) => [s, sp.rows])));
@@ -829,6 +838,7 @@ function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array
       const rowsOf = reps.species.get(s) as { offset: number };
       k.searchSpecies(searchAt + (layout.record.get(s) as number), repsAt + rowsOf.offset, scr, rowsAt, idxAt, nq, outAt);
     },
+    rowsKey,
   );
   if (ok && counter) {
     const st = statsView as Float64Array | null;
@@ -845,7 +855,7 @@ function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array
  * (assembly scanSpecies, the same numbers bit for bit), with the representatives resident; false when the kernels
  * are off or cannot hold them.
  */
-function wasmScanAll(owner: { n0: number; species: Int32Array; p: Float64Array }, a: Float64Array, count: number, species: Int32Array, out: Float64Array): boolean {
+function wasmScanAll(owner: { n0: number; species: Int32Array; p: Float64Array }, a: Float64Array, count: number, species: Int32Array, out: Float64Array, rowsKey?: object): boolean {
   const k = predictKernels();
   if (!k) return false;
   const n0 = owner.n0;
@@ -854,7 +864,7 @@ function wasmScanAll(owner: { n0: number; species: Int32Array; p: Float64Array }
   return wasmQueries(k, n0, a, count, species, out, reps.species, [repsRegion(owner.p, n0, reps)], 0, ([repsAt], _scr, s, rowsAt, idxAt, nq, outAt) => {
     const { rows, offset } = reps.species.get(s) as { rows: Int32Array; offset: number };
     k.scanSpecies(repsAt + offset, rows.length, n0, rowsAt, idxAt, nq, outAt);
-  });
+  }, rowsKey);
 }
 
 /** Scratch of the preparation kernel: the record of its nine arrays' addresses, then the arrays (byte offsets). */

@@ -11,6 +11,8 @@ import { makeRng, type Rng } from '../../../src-main/core/numerics/random.ts';
 import { nearestDistance } from '../../../src-main/core/learning/sparse.ts';
 import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
 import { predictKernels } from '../../../src-main/core/wasm/prediction-kernels.ts';
+import { arenaRestarts, setArenaLimit } from '../../../src-main/core/wasm/arena.ts';
+import { linearScalarPass, linearDesignRows, localContributions } from '../../../src-main/core/learning/kernels.ts';
 import { computeFeatures } from '../../../src-main/core/descriptors/features.ts';
 import type { FeatureSettings } from '../../../src-main/core/descriptors/feature-types.ts';
 import { DEFAULT_SETTINGS } from '../../../src-main/core/settings-table.ts';
@@ -222,6 +224,44 @@ describe('bounded nearest-representative search', () => {
       }
       for (let i = 0; i < m; i++) for (let f = 0; f < n0; f++) dupQueries[i * n0 + f] = dup[(i >> 3) * 8 * n0 + f] + (i % 2 ? 1 : 1e-3) * rng.normal();
       expectBatchSameAsPlain(dup, new Int32Array(m), n0, dupQueries, qSpecies);
+    }
+  });
+
+  it('shares one copy of a frame’s rows between the linear part and the search (one key per frame), also when the arena starts again between them', () => {
+    const rng = makeRng(31);
+    const n0 = 45;
+    const c = makeCase(rng, n0, 120, 2, true, 0.1, 2);
+    const search = prepareNearestSearch(c.reps, c.species, n0);
+    const same = (x: Float64Array, y: Float64Array) => x.length === y.length && x.every((v, i) => Object.is(v, y[i]));
+    for (const restart of [false, true]) {
+      // two frames of 300 rows written one after the other into the same array (as prediction reuses its buffers)
+      const rows = new Float64Array(300 * n0);
+      for (const frame of [0, 1]) {
+        for (let e = 0; e < 300; e++) for (let f = 0; f < n0; f++) rows[e * n0 + f] = c.reps[((e * 7 + frame) % 120) * n0 + f] + (e % 3 ? 0.01 * rng.normal() : 0);
+        const species = Int32Array.from({ length: 300 }, (_, e) => (e + frame) % 2);
+        const fe = { count: 300, centre: new Int32Array(300), centreSpecies: species, frame: new Int32Array(300), n0, scalar: rows, tensor: {} };
+        const weights = Float64Array.from({ length: 2 * n0 }, () => rng.normal());
+        const key = {};
+        const pass = linearScalarPass(fe, weights, 2, key);
+        expect(same(pass.contributions, localContributions(fe, 0, { linear: weights }))).toBe(true);
+        expect(same(pass.sums, linearDesignRows(fe, 0, 2))).toBe(true);
+        const before = arenaRestarts();
+        if (restart) {
+          // a region of nearly the whole (lowered) limit, asked for between the two: the arena starts again, and
+          // again for the search, which must copy the rows anew
+          setArenaLimit(4 * 2 ** 20);
+          predictKernels()!.arena.acquire([{ name: 'test-filler', key: {}, bytes: 4 * 2 ** 20 - 64 }]);
+        }
+        const out = new Float64Array(300).fill(-1);
+        searchNearestAll(search, rows, 300, species, out, undefined, key);
+        setArenaLimit(null);
+        if (restart) expect(arenaRestarts()).toBeGreaterThanOrEqual(before + 2);
+        for (let e = 0; e < 300; e++) expect(out[e]).toBe(nearestDistance(rows, e, c.reps, c.species, species[e], n0));
+        // the plain scan of a fresh owner through the same key
+        const scanned = new Float64Array(300).fill(-1);
+        nearestAllOf({ n0, species: c.species, p: c.reps }, rows, 300, species, scanned, key);
+        for (let e = 0; e < 300; e++) expect(scanned[e]).toBe(out[e]);
+      }
     }
   });
 
