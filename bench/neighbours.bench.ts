@@ -1,6 +1,7 @@
 // Benchmark of core/geometry/neighbours.ts: one large liquid-density cell (100,000 atoms, 5 Å) and many small cells of the
 // learning engine's size (384 atoms, 4.5 Å), the latter side by side with the kept first version
-// (test/helpers/reference-neighbours.ts) in one process, alternating. Prints figures; asserts nothing.
+// (test/helpers/reference-neighbours.ts) in one process, alternating, and with the search in JavaScript (WebAssembly
+// kernels off) beside the default search in WebAssembly. Prints figures; asserts nothing.
 import { createHash } from 'node:crypto';
 import os from 'node:os';
 import { pathToFileURL } from 'node:url';
@@ -9,6 +10,7 @@ import { makeFrame, type Frame } from '../src-main/core/geometry/frame.ts';
 import { neighbourList, type NeighbourList } from '../src-main/core/geometry/neighbours.ts';
 import { referenceNeighbourList } from '../test/helpers/reference-neighbours.ts';
 import { makeRng } from '../src-main/core/numerics/random.ts';
+import { setWebAssemblyKernels } from '../src-main/core/wasm/load.ts';
 
 /** Uniformly random atoms at a number density (atoms/Å³) in a cell of the given angles (degrees). */
 function randomFrame(atoms: number, density: number, angles: [number, number, number], seed: number): Frame {
@@ -20,6 +22,16 @@ function randomFrame(atoms: number, density: number, angles: [number, number, nu
   const frac = new Float64Array(3 * atoms);
   for (let k = 0; k < frac.length; k++) frac[k] = rng.uniform();
   return makeFrame(new Array<string>(atoms).fill('X'), toCartesian(cell, frac), cell);
+}
+
+/** `run()` with the WebAssembly kernels off (the search in JavaScript). */
+function jsSearch<T>(run: () => T): T {
+  setWebAssemblyKernels(false);
+  try {
+    return run();
+  } finally {
+    setWebAssemblyKernels(true);
+  }
 }
 
 function mb(bytes: number): string {
@@ -56,6 +68,8 @@ export async function run(): Promise<void> {
     ['first version (kept copy)', (f) => referenceNeighbourList(f, 4.5) as NeighbourList],
     ['this version', (f) => neighbourList(f, 4.5)],
     ['this version, reuse', (f) => (spare = neighbourList(f, 4.5, { reuse: spare }))],
+    ['this version, JavaScript search', (f) => jsSearch(() => neighbourList(f, 4.5))],
+    ['this version, JS search, reuse', (f) => jsSearch(() => (spare = neighbourList(f, 4.5, { reuse: spare })))],
   ];
   const hashes = ways.map(([, list]) => {
     const hash = createHash('sha256');

@@ -1,7 +1,9 @@
 // Neighbour lists under periodic boundary conditions: every pair (i, j, image shift) closer than a cutoff, for any
 // triclinic cell, any cutoff (also larger than the cell), partial periodicity and open structures. Linear-time
 // cell lists binned in fractional coordinates; the output is a full list in CSR order by centre. It is the first
-// step of featurisation, so it works on typed arrays only and allocates nothing per pair.
+// step of featurisation, so it works on typed arrays only and allocates nothing per pair. The search over centres
+// runs in WebAssembly when the kernels are on (core/wasm/assembly/neighbour-search.ts: the same bits, and fast
+// from its first call, which matters for one-frame jobs); the JavaScript loop below is its fallback and oracle.
 //
 // Inclusion rule: a pair is listed iff its reported distance |r_j + s·H − r_i| (as computed in double precision)
 // is strictly smaller than the cutoff. The zero-shift self pair (i, i, 0) is never listed; an atom's own periodic
@@ -9,6 +11,7 @@
 import { InputError, type Where } from '../errors.ts';
 import type { Frame, Mat3 } from './frame.ts';
 import { checkCell, perpendicularWidths, reciprocalCell } from './cell.ts';
+import { neighbourKernels, type NeighbourKernels } from '../wasm/neighbour-search.ts';
 
 export interface NeighbourList {
   /** The cutoff the list was built with (Å); pairs satisfy distance < cutoff. */
@@ -203,6 +206,147 @@ function shiftBefore(s0: number, s1: number, s2: number, cS: Int32Array, c: numb
   const t1 = cS[3 * c + 1];
   if (s1 !== t1) return s1 < t1;
   return s2 < cS[3 * c + 2];
+}
+
+/** The most pairs the kernel writes before the caller copies them out (12 MiB of its memory). */
+const CHUNK_PAIRS = 1 << 18;
+/** Candidates one centre may hold in the kernel at first (more: the centre is done again with twice the room). */
+const KERNEL_CANDIDATES = 512;
+let chunkPairs = CHUNK_PAIRS;
+let kernelCandidates = KERNEL_CANDIDATES;
+
+/**
+ * The kernel's room: the most pairs it writes before they are copied out, and the candidates one centre may hold at
+ * first (null: the defaults). Tests make them small, so that every way of running out of room is taken; the list is
+ * the same.
+ */
+export function setNeighbourKernelRoom(pairs: number | null, candidates: number | null): void {
+  chunkPairs = pairs ?? CHUNK_PAIRS;
+  kernelCandidates = candidates ?? KERNEL_CANDIDATES;
+}
+
+interface Outputs {
+  outJ: Int32Array<ArrayBuffer>;
+  outV: Float64Array<ArrayBuffer>;
+  outD: Float64Array<ArrayBuffer>;
+  outS: Int32Array<ArrayBuffer>;
+  cap: number;
+}
+
+/** What neighbourList has set up, for its search in the kernel. */
+interface KernelSearch {
+  n: number;
+  nb: number[];
+  m: number[];
+  orthogonal: boolean;
+  origin: number[];
+  f: number[];
+  thick: number[];
+  h: Mat3;
+  cutoff: number;
+  cut2: number;
+  reach2: number;
+  work: Workspace;
+  binStart: Int32Array;
+  tables: { wrap: Int32Array; shift: Int32Array }[];
+  /** CSR offsets, written. */
+  start: Int32Array;
+  /** Pairs the kernel's chunk holds at first. */
+  chunk: number;
+  out: Outputs;
+  where: Where;
+}
+
+/**
+ * neighbourList's search over centres in the WebAssembly kernel: the arrays laid out from the module's heapBase
+ * (nothing kept between calls), the pairs copied out chunk by chunk into the outputs (grown as neighbourList grows
+ * them). Returns the outputs and the number of pairs, or null when the module's memory cannot hold the layout
+ * (the caller then searches in JavaScript).
+ */
+function kernelPairs(kernel: NeighbourKernels, s: KernelSearch): (Outputs & { count: number }) | null {
+  const { n, work, module } = { ...s, module: kernel.module };
+  const nBins = s.nb[0] * s.nb[1] * s.nb[2];
+  let { outJ, outV, outD, outS, cap } = s.out;
+  let chunk = Math.max(1, s.chunk);
+  let candidates = kernelCandidates;
+  // byte sizes of the arrays, in the order of the kernel's address table (core/wasm/assembly/neighbour-search.ts)
+  const sizes = () => [
+    24 * n, 12 * n, 24 * n, 12 * n, 4 * (nBins + 1), 4 * n, 24 * n, 12 * n,
+    ...s.tables.map((t) => 4 * t.wrap.length), ...s.tables.map((t) => 4 * t.shift.length), ...s.m.map((m) => 8 * (2 * m + 1)),
+    4 * n, 4 * ((n + 31) >>> 5), 4 * ((n + 1023) >>> 10),
+    4 * candidates, 12 * candidates, 24 * candidates, 8 * candidates, 4 * candidates,
+    4 * chunk, 12 * chunk, 24 * chunk, 8 * chunk, 4 * (n + 1),
+  ];
+  const IP = 16 + 30, FP = 21;
+  let at: number[] = [];
+  // lays out the description blocks and the arrays (the inputs written); false when the memory cannot grow so far
+  const layout = (): boolean => {
+    const base = module.heapBase;
+    let top = base + 16 * Math.ceil((4 * IP) / 16) + 8 * FP;
+    at = sizes().map((bytes) => {
+      const a = top;
+      top += 16 * Math.ceil(bytes / 16);
+      return a;
+    });
+    if (!module.reserve(top - base)) return false;
+    const ints = module.i32(base, IP), fl = module.f64(base + 16 * Math.ceil((4 * IP) / 16), FP);
+    ints.set([n, s.nb[0], s.nb[1], s.nb[2], s.m[0], s.m[1], s.m[2], s.orthogonal ? 1 : 0, 0, chunk, candidates, 0]);
+    ints.set(at, 16);
+    fl.set([...s.origin, ...s.f, ...s.thick, ...s.h, s.cutoff, s.cut2, s.reach2]);
+    module.f64(at[0], 3 * n).set(work.wrapped.subarray(0, 3 * n));
+    module.i32(at[1], 3 * n).set(work.offset.subarray(0, 3 * n));
+    module.f64(at[2], 3 * n).set(work.frac.subarray(0, 3 * n));
+    module.i32(at[3], 3 * n).set(work.bin3.subarray(0, 3 * n));
+    module.i32(at[4], nBins + 1).set(s.binStart);
+    module.i32(at[5], n).set(work.binAtom.subarray(0, n));
+    module.f64(at[6], 3 * n).set(work.binPos.subarray(0, 3 * n));
+    module.i32(at[7], 3 * n).set(work.binOff.subarray(0, 3 * n));
+    for (let k = 0; k < 3; k++) {
+      module.i32(at[8 + k], s.tables[k].wrap.length).set(s.tables[k].wrap);
+      module.i32(at[11 + k], s.tables[k].shift.length).set(s.tables[k].shift);
+    }
+    return true;
+  };
+  if (!layout()) return null;
+  const ipAt = module.heapBase, fpAt = module.heapBase + 16 * Math.ceil((4 * IP) / 16);
+  let count = 0;
+  for (let from = 0; ;) {
+    const ints = module.i32(ipAt, 16);
+    ints[8] = from;
+    ints[11] = count;
+    kernel.pairs(ipAt, fpAt);
+    const state = module.i32(ipAt, 16);
+    const reached = state[12], why = state[13], got = state[14], wanted = state[15];
+    if (got > 0) {
+      // copy the chunk out, growing the outputs as the JavaScript search grows them
+      if (count + got > cap) {
+        if (count + got > MAX_PAIRS) {
+          throw new InputError(`more than ${MAX_PAIRS} pairs within ${s.cutoff} Å`, s.where, 'use a smaller cutoff or a smaller structure');
+        }
+        cap = Math.min(MAX_PAIRS, Math.max(count + got, Math.ceil(cap * 1.5)));
+        outJ = growInt(outJ, cap);
+        outV = growFloat(outV, 3 * cap);
+        outD = growFloat(outD, cap);
+        outS = growInt(outS, 3 * cap);
+      }
+      outJ.set(module.i32(at[25], got), count);
+      outS.set(module.i32(at[26], 3 * got), 3 * count);
+      outV.set(module.f64(at[27], 3 * got), 3 * count);
+      outD.set(module.f64(at[28], got), count);
+      count += got;
+    }
+    // the centres' offsets (the start region may move below)
+    const upTo = why === 0 ? n + 1 : reached;
+    s.start.set(module.i32(at[29] + 4 * from, upTo - from), from);
+    if (why === 0) break;
+    from = reached;
+    if (why === 2) candidates *= 2;
+    else if (got === 0) chunk = Math.max(2 * chunk, wanted);
+    // more room: laid out again. The marks (first, bits, summary) lie before the regions that grow, so they stay
+    // where they are, clear (the kernel undid the unfinished centre's).
+    if ((why === 2 || got === 0) && !layout()) return null;
+  }
+  return { outJ, outV, outD, outS, cap, count };
 }
 
 /**
@@ -433,8 +577,16 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
     }
   };
 
+  // The same search in WebAssembly (core/wasm/assembly/neighbour-search.ts, the same bits), when the kernels are on.
+  const kernel = n > 0 ? neighbourKernels() : null;
+  const byKernel = kernel && kernelPairs(kernel, {
+    n, nb, m, orthogonal, origin, f, thick, h, cutoff, cut2, reach2, work, binStart, tables, start,
+    chunk: Math.min(chunkPairs, Math.ceil(Math.min(estimate * 1.1, fullyPeriodic ? Infinity : 64 * n)) + 1024),
+    out: { outJ, outV, outD, outS, cap }, where,
+  });
+  if (byKernel) ({ outJ, outV, outD, outS, cap, count } = byKernel);
   // the marks (first, bits, summary) are left set if anything throws mid-centre: then the next call starts afresh
-  try {
+  else try {
     for (let i = 0; i < n; i++) {
       start[i] = count;
       let ncand = 0;

@@ -52,6 +52,11 @@ export class KernelModule {
   f64(at: number, length: number): Float64Array {
     return new Float64Array(this.memory.buffer, at, length);
   }
+
+  /** A view of `length` 32-bit integers at byte offset `at` of the module's memory (valid until the next reserve). */
+  i32(at: number, length: number): Int32Array {
+    return new Int32Array(this.memory.buffer, at, length);
+  }
 }
 
 const modules = new Map<string, KernelModule | null>();

@@ -2,12 +2,14 @@
 // cells, skewed cells, cutoffs larger than the cell, partial periodicity), against ASE's neighbour list
 // (committed fixture), textbook rock-salt coordination shells, and invariances.
 import { readFileSync } from 'node:fs';
-import { describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { cellFromParameters, supercell, toCartesian, toFractional } from '../../../src-main/core/geometry/cell.ts';
 import { InputError } from '../../../src-main/core/errors.ts';
 import { makeFrame, type Frame } from '../../../src-main/core/geometry/frame.ts';
-import { neighbourList, type NeighbourList } from '../../../src-main/core/geometry/neighbours.ts';
+import { neighbourList, setNeighbourKernelRoom, type NeighbourList } from '../../../src-main/core/geometry/neighbours.ts';
+import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
+import { neighbourKernels } from '../../../src-main/core/wasm/neighbour-search.ts';
 import { referenceNeighbourList } from '../../helpers/reference-neighbours.ts';
 
 type Pbc = [boolean, boolean, boolean];
@@ -245,7 +247,25 @@ function expectIdentical(a: NeighbourList, b: Pick<NeighbourList, 'count' | 'sta
   expect(Buffer.from(a.distances.buffer, a.distances.byteOffset, a.distances.byteLength).equals(Buffer.from(b.distances.buffer, b.distances.byteOffset, b.distances.byteLength))).toBe(true);
 }
 
-describe('neighbourList against its kept first version (test/helpers/reference-neighbours.ts)', () => {
+// Each comparison with the kept first version runs three ways: the search in WebAssembly (the default), in
+// JavaScript (kernels off), and in WebAssembly with so little room that it runs out of it again and again (pairs
+// copied out every few centres, centres done again with more room for their candidates).
+const ways: { name: string; kernels: boolean; room: [number | null, number | null] }[] = [
+  { name: 'WebAssembly search', kernels: true, room: [null, null] },
+  { name: 'JavaScript search', kernels: false, room: [null, null] },
+  { name: 'WebAssembly search with little room', kernels: true, room: [7, 2] },
+];
+for (const way of ways) describe(`neighbourList against its kept first version (test/helpers/reference-neighbours.ts), ${way.name}`, () => {
+  beforeAll(() => {
+    setWebAssemblyKernels(way.kernels);
+    setNeighbourKernelRoom(...way.room);
+    expect(neighbourKernels() !== null).toBe(way.kernels);
+  });
+  afterAll(() => {
+    setWebAssemblyKernels(true);
+    setNeighbourKernelRoom(null, null);
+  });
+
   it('the same bits in the same order: random cells, partial pbc, cutoffs up to several cell widths, bin sizes', () => {
     // interleaved sizes, so that the scratch kept from a larger frame is reused by smaller ones and grown again
     fc.assert(
