@@ -3,8 +3,10 @@
 // git) and prints one JSON line with its figures and a hash of every number it computed, so that the two trees'
 // outputs can be compared bit for bit.
 //   feature-rate.ts ROOT features LMAX_TENSOR REPEATS   environments per CPU-second of computeFeatures, λ = 0 + 2, as training calls it
-//   feature-rate.ts ROOT training FRAMES                 trainModel at default settings on water-like frames
+//   feature-rate.ts ROOT training FRAMES [THREADS]       trainModel at default settings on water-like frames (THREADS > 1:
+//                                                        its first pass on worker threads, app/training-threads.ts, where the tree has it)
 import { createHash } from 'node:crypto';
+import { existsSync } from 'node:fs';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { serialize } from 'node:v8';
@@ -49,14 +51,20 @@ async function features(lmaxTensor: number, repeats: number): Promise<void> {
   console.log(JSON.stringify({ rate: (first.count / best) * 1000, hash: hash.digest('hex').slice(0, 16) }));
 }
 
-async function training(frames: number): Promise<void> {
-  const { trainModel } = await load<{ trainModel: (f: unknown[], r: unknown) => Promise<Record<string, unknown>> }>('src-main/core/learning/model.ts');
+async function training(frames: number, threads: number): Promise<void> {
+  const { trainModel } = await load<{ trainModel: (f: unknown[], r: unknown, hooks?: unknown) => Promise<Record<string, unknown>> }>('src-main/core/learning/model.ts');
   const { waterLikeFrames } = await import('./water-like.ts');
   const data = waterLikeFrames(frames, 7);
+  type Pool = { close: () => Promise<void> };
+  const pool = threads > 1 && existsSync(join(root, 'src-main/app/training-threads.ts'))
+    ? (await load<{ trainingThreads: (n: number) => Pool }>('src-main/app/training-threads.ts')).trainingThreads(threads)
+    : undefined;
   const c0 = cpuMs();
   const t0 = performance.now();
-  const model = await trainModel(data, { tensorKey: 'alpha_cm', kind: 'alpha-cm', route: 'cm' });
+  const model = await trainModel(data, { tensorKey: 'alpha_cm', kind: 'alpha-cm', route: 'cm' }, { frames: pool });
+  await pool?.close();
   const wall = (performance.now() - t0) / 1000;
+  // the process's CPU time: every thread's, the workers' included
   const cpu = (cpuMs() - c0) / 1000;
   // everything the model computed (not its creation date)
   const { createdAt: _, ...numbers } = model;
@@ -65,5 +73,5 @@ async function training(frames: number): Promise<void> {
 }
 
 if (mode === 'features') await features(Number(process.argv[4]), Number(process.argv[5]));
-else if (mode === 'training') await training(Number(process.argv[4]));
+else if (mode === 'training') await training(Number(process.argv[4]), Number(process.argv[5] ?? 1));
 else throw new Error(`feature-rate.ts: unknown mode ${mode}`);

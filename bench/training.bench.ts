@@ -8,7 +8,7 @@ import { modelFeaturiser, predictFrame, predictWithFeatures, trainModel } from '
 import { makeRng } from '../src-main/core/numerics/random.ts';
 import { waterLikeFrames } from './water-like.ts';
 import { describeSettings } from '../src-main/core/settings-table.ts';
-import { loadavg } from 'node:os';
+import { availableParallelism, loadavg } from 'node:os';
 import { readFileSync } from 'node:fs';
 import { extractBaseline, rateChild, thisTree } from './baseline.ts';
 
@@ -137,6 +137,7 @@ function cholesky(): void {
  * wall seconds, the ratios, and whether the two models hold the same numbers (a hash of everything but the date).
  */
 export function trainingAgainstBaseline(ref: string, frames = FRAMES): void {
+  // PW_BENCH_THREADS: worker threads of the extra run of this tree (default the number of cores; 1 skips it)
   const base = extractBaseline(ref);
   if (!base) return;
   try {
@@ -158,7 +159,23 @@ export function trainingAgainstBaseline(ref: string, frames = FRAMES): void {
     const b = best(then);
     console.log(`training side by side with ${ref}, ${frames} frames × 384 atoms, defaults, one thread, best of 2 alternating processes (load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}):`);
     console.log(`  ${ref}: ${b.cpu.toFixed(1)} s CPU, ${b.wall.toFixed(1)} s wall, peak ${b.peakMiB.toFixed(0)} MiB; this tree: ${a.cpu.toFixed(1)} s CPU, ${a.wall.toFixed(1)} s wall, peak ${a.peakMiB.toFixed(0)} MiB; ` +
-      `CPU ×${(b.cpu / a.cpu).toFixed(2)}; models ${a.hash === b.hash && now.every((r) => r.hash === a.hash) && then.every((r) => r.hash === b.hash) ? 'identical (same hash of every number)' : 'DIFFER'}`);
+      `CPU ×${(b.cpu / a.cpu).toFixed(2)}, wall ×${(b.wall / a.wall).toFixed(2)}; models ${a.hash === b.hash && now.every((r) => r.hash === a.hash) && then.every((r) => r.hash === b.hash) ? 'identical (same hash of every number)' : 'DIFFER'}`);
+    // this tree again with the first pass on worker threads (train --threads), against the same one-thread runs
+    const threads = Number(process.env.PW_BENCH_THREADS ?? availableParallelism());
+    if (threads > 1) {
+      const many: Run[] = [];
+      for (let round = 0; round < 2; round++) {
+        const r = rateChild<Run>(thisTree, ['training', String(frames), String(threads)]);
+        if ('error' in r) {
+          console.log(`  a child failed: ${r.error}`);
+          return;
+        }
+        many.push(r);
+      }
+      const c = many.reduce((x, y) => (y.wall < x.wall ? y : x));
+      console.log(`  this tree on ${threads} worker threads (best wall of 2, load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}): ${c.wall.toFixed(1)} s wall, ${c.cpu.toFixed(1)} s CPU of all threads, peak ${c.peakMiB.toFixed(0)} MiB; ` +
+        `wall ×${(b.wall / c.wall).toFixed(2)} against ${ref}, ×${(a.wall / c.wall).toFixed(2)} against one thread; model ${many.every((r) => r.hash === a.hash) ? 'identical to one thread’s' : 'DIFFERS from one thread’s'}`);
+    }
   } finally {
     base.remove();
   }

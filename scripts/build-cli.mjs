@@ -7,6 +7,7 @@
 //                       bin/polarweave.mjs does main.cjs (bin/load-program.mjs), else import the worker's modules,
 //                       predict-worker-modules.mjs
 //   worker.mjs          the app's worker (src-main/app/worker.ts)
+//   training-worker.mjs the worker of a training's first pass on several threads (src-main/app/training-worker.ts)
 //   chunk-*.mjs         code the three share (loaded once per thread, not three times)
 //   main.cjs            the command again as one script (no modules), which bin/polarweave.mjs compiles with a
 //                       V8 code cache kept in the cache folder: a run then skips most of compiling the program
@@ -39,6 +40,7 @@ const ENTRIES = {
   main: 'src-main/cli/main.ts',
   'predict-worker-modules': 'src-main/app/predict/predict-worker.ts',
   worker: 'src-main/app/worker.ts',
+  'training-worker': 'src-main/app/training-worker.ts',
 };
 
 /**

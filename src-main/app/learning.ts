@@ -8,10 +8,20 @@ import type { ErrorFigures, Route, TrainRequest, ValidationReport, WorkHooks } f
 import { validate } from '../core/learning/validation.ts';
 import { CancelledError } from '../core/errors.ts';
 import { saveModel } from '../io/model-file.ts';
+import { trainingThreads } from './training-threads.ts';
 
-/** Train on the frames and write the model file (nothing is written when stopped). */
-export async function trainToFile(frames: Frame[], request: TrainRequest, output: string, hooks: WorkHooks = {}): Promise<Model> {
-  const model = await trainModel(frames, request, hooks);
+/**
+ * Train on the frames and write the model file (nothing is written when stopped). `threads` > 1: the features of
+ * the frames are computed on that many worker threads (training-threads.ts); the model is the same.
+ */
+export async function trainToFile(frames: Frame[], request: TrainRequest, output: string, hooks: WorkHooks = {}, threads = 1): Promise<Model> {
+  const pool = threads > 1 ? trainingThreads(threads) : null;
+  let model: Model;
+  try {
+    model = await trainModel(frames, request, { ...hooks, frames: pool ?? undefined });
+  } finally {
+    await pool?.close();
+  }
   if (hooks.signal?.aborted) throw new CancelledError();
   await saveModel(output, model);
   return model;

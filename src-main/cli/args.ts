@@ -104,3 +104,13 @@ export function commandArgs(
   if (want.output && !output) throw new UsageError(want.output);
   return { args, inputs: args.positionals, output: output ?? '' };
 }
+
+/** The worker-thread count option of the commands that use threads (predict, train). */
+export const threadsOption: OptionSpec = { name: 'threads', value: 'N', help: 'worker threads (default: the number of cores)' };
+
+/** --threads N (a whole number ≥ 1), or undefined when not given. */
+export function parseThreads(args: ParsedArgs): number | undefined {
+  const threads = args.options.threads === undefined ? undefined : Number(args.options.threads);
+  if (threads !== undefined && (!Number.isInteger(threads) || threads < 1)) throw new UsageError(`--threads must be a whole number ≥ 1, got "${args.options.threads}"`);
+  return threads;
+}

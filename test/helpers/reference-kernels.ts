@@ -389,6 +389,7 @@ export function referenceDensityExpander(s: DensitySettings): DensityExpander {
     settings: { ...s },
     size,
     transposedAt: () => -1,
+    coefficientsAt: () => -1,
     expand(pairs, centre, centreChannel, channelOf, out) {
       // Locals, not closure slots, in the loop (V8 keeps them in registers).
       const coef = byDegree, Yl = Y, rl = radial, acc = work, cut = cutoff, inn = inner, sw = switchScale, inv = invSpacing, last = intervals;

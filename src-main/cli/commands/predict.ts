@@ -4,7 +4,7 @@
 // as streamed (extended XYZ) go through the streamed, parallel, resumable path (OUT.checkpoint.json after
 // Ctrl-C or a crash, frame-range shards for clusters); other kinds (CIF) are predicted in one pass. Both
 // write the same layout, identity line and frame stamps, atomically.
-import { commandArgs, UsageError, type ParsedArgs } from '../args.ts';
+import { commandArgs, parseThreads, threadsOption, UsageError, type ParsedArgs } from '../args.ts';
 import type { Command, CommandIO } from '../command.ts';
 import { CancelledError, InputError } from '../../core/errors.ts';
 import type { FrameRange } from '../../io/extxyz.ts';
@@ -18,7 +18,7 @@ const options = [
   { name: 'frames', value: 'A:B', help: 'frames A … B−1 (0-based; either end may be left out)' },
   { name: 'stride', value: 'K', help: 'every K-th frame of the range', default: '1' },
   { name: 'output', short: 'o', value: 'OUT.csv|OUT.extxyz', help: 'output file; the extension chooses the format' },
-  { name: 'threads', value: 'N', help: 'worker threads (default: the number of cores)' },
+  threadsOption,
   { name: 'shard', value: 'K/N', help: 'predict only part K of N equal parts of the selected frames (cluster job arrays; join with `merge`)' },
   { name: 'resume', flag: true, help: 'continue from OUT.checkpoint.json, and fail if there is none (by default a matching checkpoint is continued)' },
   { name: 'restart', flag: true, help: 'ignore an earlier checkpoint and start again' },
@@ -126,8 +126,7 @@ export const predictCommand: Command = {
   async run(argv, io) {
     const { args, output } = commandArgs(argv, options, { inputs: 2, missing: 'give the model file and one input file', output: 'give the output file with -o OUT.csv or -o OUT.extxyz' });
     if (args.flags.resume && args.flags.restart) throw new UsageError('give --resume or --restart, not both');
-    const threads = args.options.threads === undefined ? undefined : Number(args.options.threads);
-    if (threads !== undefined && (!Number.isInteger(threads) || threads < 1)) throw new UsageError(`--threads must be a whole number ≥ 1, got "${args.options.threads}"`);
+    const threads = parseThreads(args);
     const shard = parseShard(args.options.shard);
     const range = parseFrameRange(args);
     const [modelPath, input] = args.positionals;

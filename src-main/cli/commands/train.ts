@@ -1,5 +1,6 @@
 // `polarweave train`: learn a model of a cell tensor (or dipole, or scalar) from frames with reference values.
-import { commandArgs } from '../args.ts';
+import { commandArgs, parseThreads, threadsOption } from '../args.ts';
+import { availableParallelism } from 'node:os';
 import type { Command } from '../command.ts';
 import type { Model } from '../../core/learning/model.ts';
 import { trainToFile } from '../../app/learning.ts';
@@ -12,6 +13,7 @@ const options = [
   ...settingOptions,
   ...tuneOptions,
   { name: 'output', short: 'o', value: 'MODEL', help: 'model file to write (JSON)' },
+  threadsOption,
 ];
 
 export function describeModel(model: Model): string {
@@ -50,10 +52,11 @@ export const trainCommand: Command = {
     const { args, output: out } = commandArgs(argv, options, { inputs: 1, missing: 'give exactly one input file', output: 'give the model file to write with -o MODEL' });
     const route = parseRoute(args.options.route, false) as 'cm' | 'direct';
     checkTargetOptions(args);
+    const threads = parseThreads(args) ?? availableParallelism();
     const frames = await readFrames(args.positionals[0], io);
     io.err(`train: ${frames.length} frames read from ${args.positionals[0]}\n`);
     const request = { ...parseRequest(args, route, targetShapeOf(args, frames)), tune: parseTune(args) };
-    const model = await trainToFile(frames, request, out, { signal: io.signal, onProgress: progressReporter(io, 'train') });
+    const model = await trainToFile(frames, request, out, { signal: io.signal, onProgress: progressReporter(io, 'train') }, threads);
     io.out(describeModel(model) + '\n');
     io.out(`model written to ${out}\n`);
     return 0;

@@ -271,6 +271,11 @@ export interface DensityExpander {
    * the JavaScript path or its region has moved since (features.ts reads the λ = 0 row from them).
    */
   transposedAt(): number;
+  /**
+   * Where the last `expand` left its coefficients (the layout of `out`, readable two doubles past their end) in the
+   * descriptor kernels' memory, while they are still there; −1 as for transposedAt.
+   */
+  coefficientsAt(): number;
 }
 
 const expanderCache = new Map<string, DensityExpander>();
@@ -381,6 +386,13 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     placedEpoch = K.epoch();
     return placed;
   };
+  /** Byte address of the region's part at `doubles` while the last expansion is there (see transposedAt), else −1. */
+  const lastAt = (doubles: number): number => {
+    // nothing placed since this expander's region was checked: it is where it was, and so are the coefficients
+    if (!lastByKernel || placed === null) return -1;
+    const K = descriptorKernels();
+    return K === placed.kernels && K.epoch() === placedEpoch ? placed.at + doubles * 8 : -1;
+  };
   const expandKernel = (K: DescriptorKernels, pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): boolean => {
     const { start, neighbour, vectors, distances } = pairs;
     const from = start[centre];
@@ -476,10 +488,10 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
       if (centreChannel >= 0) for (let n = 0; n < nmax; n++) out[(centreChannel * nmax + n) * LL] += selfTerm[n];
     },
     transposedAt() {
-      // nothing placed since this expander's region was checked: it is where it was, and so are the coefficients
-      if (!lastByKernel || placed === null) return -1;
-      const K = descriptorKernels();
-      return K === placed.kernels && K.epoch() === placedEpoch ? placed.at + cTAt * 8 : -1;
+      return lastAt(cTAt);
+    },
+    coefficientsAt() {
+      return lastAt(outAt);
     },
   };
 }

@@ -739,6 +739,13 @@ function tensorSteps(P: Plan, tensors: Float64Array[]): TensorStep {
 export interface TensorStep {
   (e: number, k0: number, c: Float64Array, j?: number): void;
   flush?: (count: number) => void;
+  /**
+   * Optional, for environments side by side: environment e's λ > 0 work straight from its coefficients in the
+   * descriptor kernels' memory, right after its expansion (while they are in the cache), when it needs nothing
+   * else (not the λ = 0 row). `at()` gives their byte address (P.expander.coefficientsAt: −1 once anything moved);
+   * ask it after placing anything. Returns whether it did the work; the step is then not called for e.
+   */
+  inPlace?: (e: number, at: () => number) => boolean;
 }
 
 /** A frame prepared for featurisation: plan, species channels, centre atoms, neighbour pairs. */
@@ -880,6 +887,9 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
     groupCoefficients.set(P, cs);
   }
   const k0s = new Array<number>(GROUP);
+  const done = new Array<boolean>(GROUP);
+  const early = tensorStep.inPlace;
+  const coefficientsAt = () => P.expander.coefficientsAt();
   let tExpand = 0, tCouple = 0;
   for (let g = 0; g < centres.length; g += GROUP) {
     const count = Math.min(GROUP, centres.length - g);
@@ -892,8 +902,12 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
       P.expander.expand(pairs, i, channelOf[i], channelOf, cs[j]);
       if (timings) tExpand += performance.now() - t0;
       const now = kernelLayout(P);
+      done[j] = false;
       if (now !== L) moved = true;
-      else rowKernel(now as KernelLayout, P, cs[j], true, j);
+      else {
+        rowKernel(now as KernelLayout, P, cs[j], true, j);
+        if (early) done[j] = early(g + j, coefficientsAt);
+      }
     }
     if (moved) {
       // the layout moved while the group was expanded (the expander's region grew): expand again, then the rows
@@ -919,7 +933,7 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
       k0s[j] = slot(e);
       scalar.set(views.row[j], k0s[j] * P.n0);
     }
-    for (let j = 0; j < count; j++) tensorStep(g + j, k0s[j], cs[j], j);
+    for (let j = 0; j < count; j++) if (!done[j]) tensorStep(g + j, k0s[j], cs[j], j);
     tensorStep.flush?.(count);
     // the rest of the group's time (its rows, norms and λ > 0 steps) counts as coupling, as in the loop one at a time
     if (timings) tCouple += performance.now() - ta;

@@ -65,18 +65,19 @@ export class DomainStatsBuilder {
   }
   /** One training frame: its neighbour list (built with at least the cutoff) and the raw λ=0 norms per centre. */
   add(frame: Frame, pairs: NeighbourList, centreSpecies?: Int32Array, norms?: Float64Array): void {
-    const g = atomGeometry(frame, pairs, this.species, this.cutoff);
-    const N = frame.species.length;
+    this.addFrame(domainFrame(frame, pairs, this.species, this.cutoff, centreSpecies, norms));
+  }
+  /** One training frame's values (domainFrame, computed here or in another thread); frames in training order. */
+  addFrame(v: DomainFrame): void {
     this.frames++;
-    for (let i = 0; i < N; i++) {
-      const a = g.speciesIndex[i];
+    for (let i = 0; i < v.speciesIndex.length; i++) {
+      const a = v.speciesIndex[i];
       this.atomCounts[a]++;
-      this.count[a].push(g.count[i]);
-      // none within the cutoff counts as the cutoff: "at least this far"
-      for (let b = 0; b < this.S; b++) this.nearest[a * this.S + b].push(Math.min(g.nearest[i * this.S + b], this.cutoff));
+      this.count[a].push(v.count[i]);
+      for (let b = 0; b < this.S; b++) this.nearest[a * this.S + b].push(v.nearest[i * this.S + b]);
     }
-    if (norms && centreSpecies) for (let e = 0; e < norms.length; e++) if (norms[e] > 0) this.scale[centreSpecies[e]].push(Math.log(norms[e]));
-    if (frame.cell) this.density.push(N / cellVolume(frame.cell));
+    for (let e = 0; e < v.scaleSpecies.length; e++) this.scale[v.scaleSpecies[e]].push(v.logNorm[e]);
+    if (v.density !== null) this.density.push(v.density);
   }
   build(): DomainStats {
     const S = this.S;
@@ -123,6 +124,37 @@ function rangeOf(lists: number[][]): Range {
     median.push(s[Math.floor((s.length - 1) / 2)]);
   }
   return { min, median, max };
+}
+
+/** What DomainStatsBuilder keeps of one training frame (plain data: it may come from a worker thread). */
+export interface DomainFrame {
+  speciesIndex: Int32Array;
+  count: Int32Array;
+  /** Per atom and species, the nearest distance, the cutoff when none is within it ("at least this far"). */
+  nearest: Float64Array;
+  /** ln of each positive raw λ=0 norm, with its centre species, in environment order. */
+  scaleSpecies: Int32Array;
+  logNorm: Float64Array;
+  /** N/V, or null without a cell. */
+  density: number | null;
+}
+
+/** One training frame's domain values: its neighbour list (built with at least the cutoff) and the raw λ=0 norms per centre. */
+export function domainFrame(frame: Frame, pairs: NeighbourList, species: string[], cutoff: number, centreSpecies?: Int32Array, norms?: Float64Array): DomainFrame {
+  const g = atomGeometry(frame, pairs, species, cutoff);
+  // none within the cutoff counts as the cutoff: "at least this far"
+  for (let k = 0; k < g.nearest.length; k++) g.nearest[k] = Math.min(g.nearest[k], cutoff);
+  const scaleSpecies: number[] = [];
+  const logNorm: number[] = [];
+  if (norms && centreSpecies) {
+    for (let e = 0; e < norms.length; e++) {
+      if (norms[e] > 0) {
+        scaleSpecies.push(centreSpecies[e]);
+        logNorm.push(Math.log(norms[e]));
+      }
+    }
+  }
+  return { speciesIndex: g.speciesIndex, count: g.count, nearest: g.nearest, scaleSpecies: Int32Array.from(scaleSpecies), logNorm: Float64Array.from(logNorm), density: frame.cell ? frame.species.length / cellVolume(frame.cell) : null };
 }
 
 /** Per atom: nearest distance to each species (∞ when none within the cutoff) and neighbours within the cutoff. */

@@ -63,7 +63,7 @@ import { FREE_ATOM_POLARISABILITY_A3, splitShift, splitValues } from './species-
 import { computeReadout, makeWeightMatrices, weightMatricesLength, type ReadoutResult, type TensorReadout } from './tensor-readout.ts';
 import { cellVolume } from '../geometry/cell.ts';
 import { propagateErrorBars } from '../dielectric/clausius-mossotti.ts';
-import { checkDomain, DomainStatsBuilder, type DomainStats } from './domain.ts';
+import { checkDomain, domainFrame, DomainStatsBuilder, type DomainFrame, type DomainStats } from './domain.ts';
 import { neighbourList, type NeighbourList } from '../geometry/neighbours.ts';
 
 import { DEFAULT_SETTINGS, settingSpec, settingsProblems, speciesSplitText, type NumericSettingKey, type SpeciesSplit } from '../settings-table.ts';
@@ -297,24 +297,29 @@ export function speciesOf(frames: Frame[], settings: ModelSettings, given?: stri
   return { species, centres };
 }
 
-/** Reservoir sample of environments per centre species (seeded), with the order-λ blocks when needed. */
+/**
+ * Reservoir sample of environments per centre species (seeded), with the order-λ blocks when needed. The draws
+ * depend only on each frame's centre species, in frame order (plan), so the rows may be cut out where the
+ * features are (summariseFrame, in this thread or a worker) and put in afterwards, frame by frame (put).
+ */
 class PoolBuilder {
   private seen: number[];
   private rows: { species: number; p: Float64Array; block?: Float64Array; frame: number; centre: number }[][];
   constructor(
     private readonly nSpecies: number,
     private readonly cap: number,
-    private readonly order: Order | null,
+    readonly order: Order | null,
     private readonly rng: ReturnType<typeof makeRng>,
   ) {
     this.seen = new Array(nSpecies).fill(0);
     this.rows = Array.from({ length: nSpecies }, () => []);
   }
-  add(feat: EnvironmentFeatures, frame: number): void {
-    const n0 = feat.n0;
-    const view = this.order !== null && this.order !== 0 ? blockView(feat, this.order) : null;
-    for (let e = 0; e < feat.count; e++) {
-      const s = feat.centreSpecies[e];
+  /** The environments of the next frame that enter the sample, in order, and the slot each takes (a later one may take an earlier one's). */
+  plan(centreSpecies: Int32Array): { keep: Int32Array; slot: Int32Array } {
+    const keep: number[] = [];
+    const slots: number[] = [];
+    for (let e = 0; e < centreSpecies.length; e++) {
+      const s = centreSpecies[e];
       const k = this.seen[s]++;
       let slot = -1;
       if (k < this.cap) slot = k;
@@ -323,14 +328,25 @@ class PoolBuilder {
         if (j < this.cap) slot = j;
       }
       if (slot < 0) continue;
-      const row = {
+      keep.push(e);
+      slots.push(slot);
+    }
+    return { keep: Int32Array.from(keep), slot: Int32Array.from(slots) };
+  }
+  /** The rows of a frame's planned environments (summariseFrame's pool), into their slots. */
+  put(plan: { keep: Int32Array; slot: Int32Array }, pool: FrameSummary['pool'], centreSpecies: Int32Array, frame: number): void {
+    const n0 = pool.n0;
+    const size = pool.blockSize;
+    for (let k = 0; k < plan.keep.length; k++) {
+      const e = plan.keep[k];
+      const s = centreSpecies[e];
+      this.rows[s][plan.slot[k]] = {
         species: s,
-        p: feat.scalar.slice(e * n0, (e + 1) * n0),
-        block: view ? view.data.slice(e * view.width * view.n, (e + 1) * view.width * view.n) : undefined,
+        p: pool.p.slice(k * n0, (k + 1) * n0),
+        block: pool.blocks ? pool.blocks.slice(k * size, (k + 1) * size) : undefined,
         frame,
-        centre: feat.centre[e],
+        centre: pool.centre[k],
       };
-      this.rows[s][slot] = row;
     }
   }
   build(n0: number): EnvironmentPool & { perSpecies: Int32Array[]; frame: Int32Array } {
@@ -358,6 +374,174 @@ class PoolBuilder {
       at += this.rows[s].length;
     }
     return { n0, count, species, p, blocks, perSpecies, frame };
+  }
+}
+
+/**
+ * What the first training pass computes of every frame, and with which settings (plain data: it may go to a
+ * worker thread, FramePassRunner).
+ */
+export interface FramePassSpec {
+  features: FeatureSettings;
+  lambdas: (1 | 2)[];
+  /** The target's λ>0 order, whose feature count the model records, or null. */
+  order: Order | null;
+  /** Number of centre species. */
+  centres: number;
+  /** A linear model's design rows (linearDesignRows) of these orders, in part order; none for a kernel model. */
+  designOrders: Order[];
+  /** Order of the blocks kept with the sampled environments (kernel models of a λ>0 target), or null. */
+  poolOrder: Order | null;
+  /** Species and cutoff of the domain statistics (domain.ts), or null when the model gets no applicability. */
+  domain: { species: string[]; cutoff: number } | null;
+  /** Feature columns kept (settings.maxFeatures > 0), applied to the computed features. */
+  selection?: FeatureSelection;
+}
+
+/** What the first training pass keeps of one frame (summariseFrame). */
+export interface FrameSummary {
+  count: number;
+  n0: number;
+  /** Features per row of the target's λ>0 order, when it has one. */
+  nOrder?: number;
+  centreSpecies: Int32Array;
+  /** linearDesignRows of each of spec.designOrders. */
+  design: Float64Array[];
+  /** The λ=0 rows (and blocks) of the environments the sample keeps (PoolBuilder.plan's keep, in order), with their centre atoms. */
+  pool: { n0: number; p: Float64Array; blockSize: number; blocks?: Float64Array; centre: Int32Array };
+  domain: DomainFrame | null;
+}
+
+/** Frames for a FramePassRunner: their index in the training set and the environments the sample keeps of each. */
+export interface FramePassBatch {
+  spec: FramePassSpec;
+  frames: Frame[];
+  indices: number[];
+  keep: Int32Array[];
+}
+
+/**
+ * Runs batches of the first training pass elsewhere (worker threads: app/training-threads.ts), each batch
+ * through frameSummaries; the numbers are those of this thread, bit for bit.
+ */
+export interface FramePassRunner {
+  /** Batches run at once. */
+  threads: number;
+  /** Fewer atoms than this in the training set: the pass stays in the calling thread (default PARALLEL_MIN_ATOMS). */
+  minAtoms?: number;
+  run(batch: FramePassBatch, signal?: AbortSignal): Promise<FrameSummary[]>;
+}
+
+/** Training hooks: progress and cancel (WorkHooks), and worker threads for the features of the frames. */
+export interface TrainHooks extends WorkHooks {
+  frames?: FramePassRunner;
+}
+
+/** The centre species index of each environment of a frame, as computeFeatures numbers them (centres in atom order). */
+export function centreSpeciesOf(frame: Frame, centres: string[]): Int32Array {
+  const index = new Map(centres.map((c, k) => [c, k]));
+  const out: number[] = [];
+  for (const s of frame.species) {
+    const k = index.get(s);
+    if (k !== undefined) out.push(k);
+  }
+  return Int32Array.from(out);
+}
+
+/** One frame's part of the first training pass, from its features (and its neighbour list for the domain statistics). */
+export function summariseFrame(frame: Frame, fe: EnvironmentFeatures, pairs: NeighbourList | undefined, spec: FramePassSpec, keep: Int32Array): FrameSummary {
+  const n0 = fe.n0;
+  const view = spec.poolOrder !== null && spec.poolOrder !== 0 ? blockView(fe, spec.poolOrder) : null;
+  const blockSize = view ? view.width * view.n : 0;
+  const p = new Float64Array(keep.length * n0);
+  const blocks = view ? new Float64Array(keep.length * blockSize) : undefined;
+  const centre = new Int32Array(keep.length);
+  for (let k = 0; k < keep.length; k++) {
+    const e = keep[k];
+    p.set(fe.scalar.subarray(e * n0, (e + 1) * n0), k * n0);
+    if (view && blocks) blocks.set(view.data.subarray(e * blockSize, (e + 1) * blockSize), k * blockSize);
+    centre[k] = fe.centre[e];
+  }
+  return {
+    count: fe.count,
+    n0,
+    nOrder: spec.order !== null ? blockView(fe, spec.order).n : undefined,
+    centreSpecies: fe.centreSpecies,
+    design: spec.designOrders.map((o) => linearDesignRows(fe, o, spec.centres)),
+    pool: { n0, p, blockSize, blocks, centre },
+    domain: spec.domain ? domainFrame(frame, pairs as NeighbourList, spec.domain.species, spec.domain.cutoff, fe.centreSpecies, fe.norms) : null,
+  };
+}
+
+/**
+ * The first training pass over a batch of frames with the model's own features (what a FramePassRunner's worker
+ * runs): per frame, the neighbour list, the features and summariseFrame, as trainWithFeaturiser does in its own thread.
+ */
+export function frameSummaries(batch: FramePassBatch, signal?: AbortSignal): FrameSummary[] {
+  const { spec } = batch;
+  const out: FrameSummary[] = [];
+  let pairs: NeighbourList | undefined;
+  let spare: EnvironmentFeatures | undefined;
+  batch.frames.forEach((frame, k) => {
+    if (signal?.aborted) throw new CancelledError();
+    pairs = spec.domain ? neighbourList(frame, spec.features.cutoff, { reuse: pairs }) : undefined;
+    const raw = computeFeatures(frame, spec.features, spec.lambdas, pairs, undefined, spare);
+    const fe = spec.selection ? applyFeatureSelection(raw, spec.selection) : raw;
+    out.push(summariseFrame(frame, fe, pairs, spec, batch.keep[k]));
+    spare = raw;
+  });
+  return out;
+}
+
+/**
+ * Below this many atoms the first pass stays in the calling thread: starting a worker thread (about 0.3–1 s to
+ * load the code, measured here) costs more than the features of a few thousand environments.
+ */
+const PARALLEL_MIN_ATOMS = 6000;
+
+function atomsIn(frames: Frame[]): number {
+  let n = 0;
+  for (const f of frames) n += f.species.length;
+  return n;
+}
+
+/**
+ * The first pass on a FramePassRunner: batches of frames go out, at most two per thread at once (bounded memory
+ * for any number of frames), and come back in frame order to `merge`, with progress after each frame.
+ */
+async function runFramePass(
+  runner: FramePassRunner,
+  spec: FramePassSpec,
+  frames: Frame[],
+  plans: { keep: Int32Array; slot: Int32Array }[],
+  hooks: WorkHooks,
+  merge: (f: number, sum: FrameSummary, plan: { keep: Int32Array; slot: Int32Array }) => void,
+): Promise<void> {
+  const n = frames.length;
+  const threads = Math.max(1, runner.threads);
+  // several batches per thread (progress, balance), up to 8 frames each (one message per batch)
+  const size = Math.max(1, Math.min(8, Math.ceil(n / (4 * threads))));
+  const batches = Math.ceil(n / size);
+  const inFlight: Promise<FrameSummary[]>[] = [];
+  let next = 0;
+  const launch = () => {
+    const a = next++ * size;
+    const indices = Array.from({ length: Math.min(n, a + size) - a }, (_, j) => a + j);
+    const p = runner.run({ spec, frames: indices.map((f) => frames[f]), indices, keep: indices.map((f) => plans[f].keep) }, hooks.signal);
+    // awaited in order below; one that fails while an earlier one is awaited must not count as unhandled
+    p.catch(() => undefined);
+    inFlight.push(p);
+  };
+  for (let b = 0; b < batches; b++) {
+    while (next < batches && inFlight.length < 2 * threads) launch();
+    const sums = await (inFlight.shift() as Promise<FrameSummary[]>);
+    checkAbort(hooks);
+    sums.forEach((sum, j) => {
+      const f = b * size + j;
+      const want = centreSpeciesOf(frames[f], spec.features.centres);
+      if (sum.count !== want.length || sum.centreSpecies.some((s, e) => s !== want[e])) throw new Error(`training: frame ${f} came back from its thread with other environments than planned`);
+      merge(f, sum, plans[f]);
+    });
   }
 }
 
@@ -418,7 +602,7 @@ export interface TrainOptions {
 }
 
 /** Training on frames with a given featuriser (trainModel uses computeFeatures; tests pass synthetic ones). */
-export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest, featurise: Featuriser | null, hooks: WorkHooks = {}, options: TrainOptions = {}): Promise<Model> {
+export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest, featurise: Featuriser | null, hooks: TrainHooks = {}, options: TrainOptions = {}): Promise<Model> {
   const settings = resolveSettings(request.settings);
   checkAbort(hooks);
   const targets = learntTargets(frames, request);
@@ -464,31 +648,53 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   let atoms = 0;
   const wantApplicability = options.applicability !== false;
   const domain = wantApplicability ? new DomainStatsBuilder(species, centres, settings.cutoffRadius) : null;
-  let pairs: NeighbourList | undefined;
-  for (let f = 0; f < nFrames; f++) {
-    checkAbort(hooks);
-    // one neighbour list per frame for the features and the domain statistics (the same cutoff), written over the
-    // previous frame's, which nothing holds
-    pairs = domain ? neighbourList(frames[f], settings.cutoffRadius, { reuse: pairs }) : undefined;
-    const fe = feat(frames[f], f, pairs);
-    if (domain) domain.add(frames[f], pairs as NeighbourList, fe.centreSpecies, fe.norms);
+  const passSpec: FramePassSpec = {
+    features: featureSettingsOf(settings, species, centres),
+    lambdas: order === null ? [] : [order],
+    order,
+    centres: nS,
+    designOrders: linear ? partsSpec.map((p) => p.order) : [],
+    poolOrder: pool.order,
+    domain: domain ? { species, cutoff: settings.cutoffRadius } : null,
+    selection: featureSelection,
+  };
+  // one frame's summary into the pass's sums, in frame order
+  const merge = (f: number, sum: FrameSummary, plan: { keep: Int32Array; slot: Int32Array }) => {
+    if (domain) domain.addFrame(sum.domain as DomainFrame);
     if (n0 < 0) {
-      n0 = fe.n0;
-      if (order !== null) nOrder = blockView(fe, order).n;
+      n0 = sum.n0;
+      nOrder = sum.nOrder;
     }
-    totalEnv += fe.count;
-    if (exact && totalEnv > EXACT_LIMIT) {
-      throw new InputError(`exact kernel ridge would keep more than ${EXACT_LIMIT} environments`, {}, 'give a number of anchor environments above 0, or kernel exponent 1');
-    }
-    for (let e = 0; e < fe.count; e++) counts[f * nS + fe.centreSpecies[e]]++;
+    for (let e = 0; e < sum.count; e++) counts[f * nS + sum.centreSpecies[e]]++;
     for (const s of frames[f].species) atomsPerSpecies[s] = (atomsPerSpecies[s] ?? 0) + 1;
     atoms += frames[f].species.length;
-    if (linear) partsSpec.forEach((p, k) => linearRows[k].push(linearDesignRows(fe, p.order, nS)));
-    pool.add(fe, f);
-    if (exact) kept.push(fe);
-    else if (feat === baseFeat && featurise === null) spare = fe;
+    if (linear) sum.design.forEach((rows, k) => linearRows[k].push(rows));
+    pool.put(plan, sum.pool, sum.centreSpecies, f);
     hooks.onProgress?.({ stage: 'features', done: f + 1, total: nFrames });
-    await yieldToLoop();
+  };
+  const runner = hooks.frames;
+  if (runner && runner.threads > 1 && featurise === null && !exact && atomsIn(frames) >= (runner.minAtoms ?? PARALLEL_MIN_ATOMS)) {
+    // worker threads: the sample's draws depend only on the centre species, so they are made here first, in frame order
+    const plans = frames.map((frame) => pool.plan(centreSpeciesOf(frame, centres)));
+    await runFramePass(runner, passSpec, frames, plans, hooks, merge);
+  } else {
+    let pairs: NeighbourList | undefined;
+    for (let f = 0; f < nFrames; f++) {
+      checkAbort(hooks);
+      // one neighbour list per frame for the features and the domain statistics (the same cutoff), written over the
+      // previous frame's, which nothing holds
+      pairs = domain ? neighbourList(frames[f], settings.cutoffRadius, { reuse: pairs }) : undefined;
+      const fe = feat(frames[f], f, pairs);
+      totalEnv += fe.count;
+      if (exact && totalEnv > EXACT_LIMIT) {
+        throw new InputError(`exact kernel ridge would keep more than ${EXACT_LIMIT} environments`, {}, 'give a number of anchor environments above 0, or kernel exponent 1');
+      }
+      const plan = pool.plan(fe.centreSpecies);
+      merge(f, summariseFrame(frames[f], fe, pairs, passSpec, plan.keep), plan);
+      if (exact) kept.push(fe);
+      else if (feat === baseFeat && featurise === null) spare = fe;
+      await yieldToLoop();
+    }
   }
   for (let s = 0; s < nS; s++) {
     let any = false;
@@ -855,7 +1061,7 @@ export function tuneSettings(frames: Frame[], request: TrainRequest, grid: TuneG
  * Train a model on frames (the contract of model-types.ts). With `request.tune`, the listed settings are first
  * chosen by cross-validation on the same frames (core/learning/tuning.ts); the choice is recorded in the model's notes.
  */
-export async function trainModel(frames: Frame[], request: TrainRequest, hooks: WorkHooks = {}, featurise: Featuriser | null = null): Promise<Model> {
+export async function trainModel(frames: Frame[], request: TrainRequest, hooks: TrainHooks = {}, featurise: Featuriser | null = null): Promise<Model> {
   // `featurise`: the frames' features already computed for the same settings (validation.ts tensorFeaturiser)
   if (!request.tune || tuneCombinations(request.tune).length <= 1) return trainWithFeaturiser(frames, request, featurise, hooks);
   const tuned = await tuneSettings(frames, request, request.tune, hooks);

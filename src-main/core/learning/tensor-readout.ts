@@ -16,11 +16,11 @@
 // round-off (tested against computeFeatures + a dot product).
 import type { NeighbourPairs } from '../descriptors/density.ts';
 import type { EnvironmentFeatures, FeatureSettings } from '../descriptors/feature-types.ts';
-import { featurePlan, featurise, prepare, type FeatureTimings, type Plan, type TensorPlan } from '../descriptors/features.ts';
+import { featurePlan, featurise, prepare, type FeatureTimings, type Plan, type TensorPlan, type TensorStep } from '../descriptors/features.ts';
 import type { Frame } from '../geometry/frame.ts';
 import type { KernelModule } from '../wasm/load.ts';
 import { residentName, type Region } from '../wasm/arena.ts';
-import { predictKernels } from '../wasm/prediction-kernels.ts';
+import { descriptorKernels } from '../wasm/descriptors.ts';
 
 /** What a read-out needs per environment: its weight matrices (weightMatrices layout). */
 export interface TensorReadout {
@@ -339,7 +339,10 @@ export function computeReadout(frame: Frame, settings: FeatureSettings, readout:
   const values = fits(reuse?.values, count * nM) ?? new Float64Array(count * nM);
   const norms = fits(reuse?.features.norms, count) ?? new Float64Array(count);
   const read = readoutStep(P, T, readout, scalar, values);
-  featurise(prep, scalar, (e) => e, (e, k0, c) => read(e, k0, c, prep.centreSpecies[e]), null, timings, norms);
+  const step: TensorStep = (e, k0, c) => read(e, k0, c, prep.centreSpecies[e]);
+  const inPlace = read.inPlace;
+  if (inPlace) step.inPlace = (e, at) => inPlace(e, prep.centreSpecies[e], at);
+  featurise(prep, scalar, (e) => e, step, null, timings, norms);
   return {
     features: { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor: {}, norms },
     values,
@@ -347,16 +350,26 @@ export function computeReadout(frame: Frame, settings: FeatureSettings, readout:
 }
 
 /** Reads environment e (λ = 0 row k0 of `scalar`, coefficients c, centre species s) into its values. */
-export type ReadStep = (e: number, k0: number, c: Float64Array, species: number) => void;
+export interface ReadStep {
+  (e: number, k0: number, c: Float64Array, species: number): void;
+  /**
+   * Present where the weights do not depend on the λ = 0 row (readout.perSpecies) and the kernel runs: reads
+   * environment e from coefficients already in the descriptor kernels' memory (TensorStep.inPlace); false when
+   * they are not there any more (the caller then calls the step).
+   */
+  inPlace?: (e: number, species: number, at: () => number) => boolean;
+}
 
 /**
  * The read-out of one environment after another into values[e·(2λ+1)…]: through the WebAssembly kernel where
- * it is available (the same bits), else readOne. Make one per frame, and make no other use of the prediction
- * kernels while it is in use (their arena may place other regions between frames).
+ * it is available (the same bits), else readOne. Make one per frame.
  */
 export function readoutStep(P: Plan, T: TensorPlan, readout: TensorReadout, scalar: Float64Array, values: Float64Array): ReadStep {
-  const fast = wasmReadout(P, T, readout, scalar, values);
-  if (fast) return fast;
+  return wasmReadout(P, T, readout, scalar, values) ?? plainReadout(P, T, readout, scalar, values);
+}
+
+/** The read-out step by readOne in JavaScript. */
+function plainReadout(P: Plan, T: TensorPlan, readout: TensorReadout, scalar: Float64Array, values: Float64Array): ReadStep {
   const S = readoutScratch(P, T);
   const nM = 2 * T.lambda + 1;
   return (e, k0, c, s) => readOne(P, T, c, readout.matrices(e, s, scalar, k0 * P.n0), S, values, e * nM);
@@ -366,13 +379,15 @@ export function readoutStep(P: Plan, T: TensorPlan, readout: TensorReadout, scal
 const READOUT_SCRATCH = {};
 
 /**
- * The read-out step through the WebAssembly kernel (../wasm/assembly/prediction-kernels.ts readOne, the same bits as
- * readOne here), or null where the kernels are off or unavailable. The plan's tables stay in the module's memory
- * per plan, and a linear model's per-species matrices (readout.perSpecies) per model; the coefficients of each
- * environment (and a kernel model's matrices) are copied in per environment.
+ * The read-out step through the WebAssembly kernel (../wasm/assembly/descriptors.ts readOut, the same bits as
+ * readOne here), or null where the kernels are off or unavailable. It runs in the descriptor kernels' module, whose
+ * arena the density expansion and the feature plans share: the plan's tables stay there per plan, and a linear
+ * model's per-species matrices (readout.perSpecies) per model; the coefficients of each environment (and a kernel
+ * model's matrices) are copied in per environment. Before each environment the regions are asked for again when
+ * anything was placed in that memory since (the expansion's region may grow, the arena may start again).
  */
 function wasmReadout(P: Plan, T: TensorPlan, readout: TensorReadout, scalar: Float64Array, values: Float64Array): ReadStep | null {
-  const k = predictKernels();
+  const k = descriptorKernels();
   if (!k) return null;
   const tch = P.tch;
   const wSize = T.blocks.length * tch * tch;
@@ -395,20 +410,33 @@ function wasmReadout(P: Plan, T: TensorPlan, readout: TensorReadout, scalar: Flo
       fill: (m, at) => perSpecies.forEach((w, s) => m.f64(at + s * wStride, wSize).set(w.subarray(0, wSize))),
     });
   }
-  const at = k.arena.acquire(regions);
-  if (!at) return null;
-  const [planAt, cAt, weightsAt] = at;
-  const yAt = cAt + yOff;
-  const wAt = cAt + wOff;
-  let cView = k.module.f64(cAt, cLen);
-  let yView = k.module.f64(yAt, nM);
-  let wView = perSpecies ? null : k.module.f64(wAt, wSize);
-  return (e, k0, c, s) => {
-    if (cView.length === 0) {
-      // the module's memory grew since (views detach; the regions stay where they are)
-      cView = k.module.f64(cAt, cLen);
-      yView = k.module.f64(yAt, nM);
-      wView = perSpecies ? null : k.module.f64(wAt, wSize);
+  let planAt = 0, cAt = 0, weightsAt = 0, yAt = 0, wAt = 0;
+  let epoch = -1;
+  let cView: Float64Array = new Float64Array(0);
+  let yView: Float64Array = cView;
+  let wView: Float64Array | null = null;
+  /** Whether the regions are in place (asked for again when anything was placed since); their addresses and views. */
+  const place = (): boolean => {
+    if (epoch === k.epoch() && cView.length !== 0) return true;
+    const at = k.arena.acquire(regions);
+    if (!at) return false;
+    [planAt, cAt, weightsAt] = at;
+    yAt = cAt + yOff;
+    wAt = cAt + wOff;
+    epoch = k.epoch();
+    cView = k.module.f64(cAt, cLen);
+    yView = k.module.f64(yAt, nM);
+    wView = perSpecies ? null : k.module.f64(wAt, wSize);
+    return true;
+  };
+  if (!place()) return null;
+  let plain: ReadStep | null = null;
+  const step: ReadStep = (e, k0, c, s) => {
+    if (!place()) {
+      // the memory could not hold the regions again: the JavaScript read-out (the same bits)
+      plain ??= plainReadout(P, T, readout, scalar, values);
+      plain(e, k0, c, s);
+      return;
     }
     cView.set(c);
     let W: number;
@@ -416,13 +444,24 @@ function wasmReadout(P: Plan, T: TensorPlan, readout: TensorReadout, scalar: Flo
       wView.set(readout.matrices(e, s, scalar, k0 * P.n0).subarray(0, wSize));
       W = wAt;
     } else W = weightsAt + s * wStride;
-    k.readOne(planAt, cAt, W, yAt);
+    k.readOut(planAt, cAt, W, yAt);
     for (let mu = 0; mu < nM; mu++) values[e * nM + mu] = yView[mu];
   };
+  if (perSpecies) {
+    step.inPlace = (e, s, at) => {
+      if (!place()) return false;
+      const c = at(); // after placing: −1 when that moved anything
+      if (c < 0) return false;
+      k.readOut(planAt, c, weightsAt + s * wStride, yAt);
+      for (let mu = 0; mu < nM; mu++) values[e * nM + mu] = yView[mu];
+      return true;
+    };
+  }
+  return step;
 }
 
 /**
- * Lays out the kernel's plan of (P, T) from byte address `at` (see assembly/prediction-kernels.ts readOne): header, channel
+ * Lays out the kernel's plan of (P, T) from byte address `at` (see assembly/descriptors.ts readOut): header, channel
  * offsets, Gram matrices per degree, left and both scratch, block records, their coupling tables and two address
  * tables. Writes it into `m` when given; returns the bytes it takes.
  */

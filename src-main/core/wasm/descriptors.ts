@@ -6,6 +6,8 @@ import { kernelModule, type KernelModule } from './load.ts';
 
 export interface DescriptorKernels {
   module: KernelModule;
+  /** The module's one allocator (./arena.ts): `region` below, and `acquire` for callers that place several regions together. */
+  arena: Arena;
   /**
    * Block (l, l) of λ > 0 features of one environment: cT the degree-l coefficients transposed (m·tch + k),
    * w = 2l + 1, nM = 2λ + 1, the block's gather tables (Int32 gStart, Int32 gIdx, Float64 gVal), `half` scratch of
@@ -48,6 +50,11 @@ export interface DescriptorKernels {
    * (each in its order); the squared norms to sq (count doubles).
    */
   normaliseMany(x: number, len: number, count: number, stride: number, sq: number): void;
+  /**
+   * The λ > 0 read-out of one environment (core/learning/tensor-readout.ts readOne, the same bits): byte addresses
+   * of its plan (tensor-readout.ts layoutPlan), the density coefficients c, the weight matrices W and the output y.
+   */
+  readOut(plan: number, c: number, W: number, y: number): void;
 }
 
 let cached: DescriptorKernels | null | undefined;
@@ -64,6 +71,7 @@ export function descriptorKernels(): DescriptorKernels | null {
     const region = (owner: object, bytes: number) => arena.region(owner, bytes);
     cached = {
       module,
+      arena,
       region,
       epoch: () => arena.epoch,
       normaliseMany: e.normaliseMany as DescriptorKernels['normaliseMany'],
@@ -75,6 +83,7 @@ export function descriptorKernels(): DescriptorKernels | null {
       coupleSame: e.coupleSame as DescriptorKernels['coupleSame'],
       coupleCross: e.coupleCross as DescriptorKernels['coupleCross'],
       normalise: e.normalise as DescriptorKernels['normalise'],
+      readOut: e.readOut as DescriptorKernels['readOut'],
     };
   }
   return cached ?? null;

@@ -14,7 +14,7 @@ import { makeRng } from '../../../src-main/core/numerics/random.ts';
 import { computeReadout, readOne, readoutScratch, readoutStep, weightMatrices } from '../../../src-main/core/learning/tensor-readout.ts';
 import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
 import { arenaRestarts, setArenaLimit } from '../../../src-main/core/wasm/arena.ts';
-import { predictKernels } from '../../../src-main/core/wasm/prediction-kernels.ts';
+import { descriptorKernels } from '../../../src-main/core/wasm/descriptors.ts';
 import { referenceReadOne } from '../../helpers/reference-kernels.ts';
 import { parseExtxyz } from '../../../src-main/io/extxyz.ts';
 import { equivarianceError, MIRROR, randomCluster, randomRotations } from '../../helpers/equivariance-harness.ts';
@@ -217,17 +217,18 @@ describe('the register-blocked read-out kernel', () => {
 });
 
 describe('the WebAssembly read-out kernel', () => {
-  // The kernel (src-main/core/wasm/assembly/prediction-kernels.ts readOne) keeps every sum's order, so its numbers must be the
+  // The kernel (src-main/core/wasm/assembly/descriptors.ts readOut) keeps every sum's order, so its numbers must be the
   // plain loops' bit for bit: with the matrices resident per species (a linear model) and copied per environment
-  // (a kernel model), for odd and even channel counts, λ = 1 and 2.
+  // (a kernel model), for odd and even channel counts, λ = 1 and 2, degrees up to 6 (every width of its column tiles).
   afterEach(() => setWebAssemblyKernels(true));
   const settings: [string, FeatureSettings][] = [
     ['nmax 8, lmax 6 (two species)', { ...base, nmax: 8, lmax: 6 }],
     ['nmax 5, lmax 5, lmaxTensor 5, three species', { ...base, lmaxTensor: 5, species: ['O', 'H', 'C'] }],
     ['nmaxTensor 3 (odd channel count)', { ...base, nmaxTensor: 3, species: ['O'], centres: ['O'] }],
+    ['nmax 8, lmax 6, lmaxTensor 6, nmaxTensor 7 (14 channels)', { ...base, nmax: 8, lmax: 6, lmaxTensor: 6, nmaxTensor: 7 }],
   ];
   it('is available here (Node 20 runs WebAssembly SIMD)', () => {
-    expect(predictKernels()).not.toBeNull();
+    expect(descriptorKernels()).not.toBeNull();
   });
   for (const lambda of [1, 2] as const) {
     for (const [name, s] of settings) {
@@ -258,11 +259,31 @@ describe('the WebAssembly read-out kernel', () => {
     const s = { ...base, nmax: 6, lmax: 4 };
     const { u, n } = randomWeights(s, 2, 17);
     const W = s.centres.map((_, k) => weightMatrices(s, 2, u, k * n));
+    // per-species weights: each environment read where its expansion left the coefficients (TensorStep.inPlace)
     const on = computeReadout(frames[2], s, { lambda: 2, matrices: (_e, k) => W[k], perSpecies: W });
+    // weights per environment (as a kernel model's): read after the group's rows, from the coefficients copied in
+    const perEnvironment = computeReadout(frames[2], s, { lambda: 2, matrices: (_e, k) => W[k].slice() });
     setWebAssemblyKernels(false);
     const off = computeReadout(frames[2], s, { lambda: 2, matrices: (_e, k) => W[k] });
     expect(Array.from(on.values)).toEqual(Array.from(off.values));
+    expect(Array.from(perEnvironment.values)).toEqual(Array.from(off.values));
     expect(Array.from(on.features.scalar)).toEqual(Array.from(off.features.scalar));
+  });
+
+  it('reads each environment in place when the weights are per species, and not otherwise', () => {
+    const s = { ...base, nmax: 6, lmax: 4 };
+    const P = featurePlan(s, [2]);
+    const T = P.tensors[0];
+    const W = s.centres.map(() => new Float64Array(T.blocks.length * P.tch * P.tch));
+    const values = new Float64Array(5);
+    const scalar = new Float64Array(P.n0);
+    expect(readoutStep(P, T, { lambda: 2, matrices: (_e, k) => W[k], perSpecies: W }, scalar, values).inPlace).toBeTypeOf('function');
+    expect(readoutStep(P, T, { lambda: 2, matrices: (_e, k) => W[k] }, scalar, values).inPlace).toBeUndefined();
+    // no coefficients in place (the address is gone): the step says so and writes nothing
+    const step = readoutStep(P, T, { lambda: 2, matrices: (_e, k) => W[k], perSpecies: W }, scalar, values);
+    values.fill(7);
+    expect(step.inPlace?.(0, 0, () => -1)).toBe(false);
+    expect(Array.from(values)).toEqual([7, 7, 7, 7, 7]);
   });
 
   it('whole read-outs are the same bits when the kernels\' memory starts again in the middle of a frame (lowered arena limits)', () => {

@@ -854,3 +854,274 @@ function putHarmonicTwo(Ya: usize, Yb: usize, l: i32, m: i32, p: v128, scaleC: v
     v128.store64_lane(Yb + centre - up, s, 1);
   }
 }
+
+// ---------------------------------------------------------------------------------------------------------------
+// The λ > 0 read-out of one environment (core/learning/tensor-readout.ts readOne), here beside the density
+// expansion so that it reads the coefficients where the expansion wrote them.
+
+/**
+ * A tile of two rows (i, i + 1) by nv lane pairs of columns (j … j + 2nv − 1) of product's out: each sum from zero
+ * over k < kEnd in order. A(i, k) at aTab[k] + aOff, A(i + 1, k) one row (ai bytes) further; B(k, j) at bTab[k] +
+ * jb. With `odd`, the last lane pair holds one column: its second lane (one double past the row, readable) is
+ * dropped. nv is a constant at every call, so the compiler keeps only its branches.
+ */
+// @ts-ignore: decorator
+@inline function tileTwo(nv: i32, aTab: usize, aOff: usize, ai: usize, bTab: usize, jb: usize, kEnd: i32, p0: usize, p1: usize, odd: bool): void {
+  const zero = f64x2.splat(0);
+  let s00 = zero, s01 = zero, s02 = zero, s03 = zero;
+  let s10 = zero, s11 = zero, s12 = zero, s13 = zero;
+  for (let k = 0; k < kEnd; k++) {
+    const pa = <usize>load<u32>(aTab + (<usize>k << 2)) + aOff;
+    const pb = <usize>load<u32>(bTab + (<usize>k << 2)) + jb;
+    const x0 = v128.load64_splat(pa);
+    const x1 = v128.load64_splat(pa + ai);
+    const b0 = v128.load(pb);
+    s00 = f64x2.add(s00, f64x2.mul(x0, b0));
+    s10 = f64x2.add(s10, f64x2.mul(x1, b0));
+    if (nv > 1) {
+      const b1 = v128.load(pb, 16);
+      s01 = f64x2.add(s01, f64x2.mul(x0, b1));
+      s11 = f64x2.add(s11, f64x2.mul(x1, b1));
+    }
+    if (nv > 2) {
+      const b2 = v128.load(pb, 32);
+      s02 = f64x2.add(s02, f64x2.mul(x0, b2));
+      s12 = f64x2.add(s12, f64x2.mul(x1, b2));
+    }
+    if (nv > 3) {
+      const b3 = v128.load(pb, 48);
+      s03 = f64x2.add(s03, f64x2.mul(x0, b3));
+      s13 = f64x2.add(s13, f64x2.mul(x1, b3));
+    }
+  }
+  putTile(nv, p0 + jb, odd, s00, s01, s02, s03);
+  putTile(nv, p1 + jb, odd, s10, s11, s12, s13);
+}
+
+/** tileTwo for one row. */
+// @ts-ignore: decorator
+@inline function tileOne(nv: i32, aTab: usize, aOff: usize, bTab: usize, jb: usize, kEnd: i32, p0: usize, odd: bool): void {
+  const zero = f64x2.splat(0);
+  let s0 = zero, s1 = zero, s2 = zero, s3 = zero;
+  for (let k = 0; k < kEnd; k++) {
+    const x = v128.load64_splat(<usize>load<u32>(aTab + (<usize>k << 2)) + aOff);
+    const pb = <usize>load<u32>(bTab + (<usize>k << 2)) + jb;
+    s0 = f64x2.add(s0, f64x2.mul(x, v128.load(pb)));
+    if (nv > 1) s1 = f64x2.add(s1, f64x2.mul(x, v128.load(pb, 16)));
+    if (nv > 2) s2 = f64x2.add(s2, f64x2.mul(x, v128.load(pb, 32)));
+    if (nv > 3) s3 = f64x2.add(s3, f64x2.mul(x, v128.load(pb, 48)));
+  }
+  putTile(nv, p0 + jb, odd, s0, s1, s2, s3);
+}
+
+/** Stores nv lane pairs from o (the last one's first lane only, with `odd`). */
+// @ts-ignore: decorator
+@inline function putTile(nv: i32, o: usize, odd: bool, s0: v128, s1: v128, s2: v128, s3: v128): void {
+  if (nv == 1) {
+    if (odd) v128.store64_lane(o, s0, 0);
+    else v128.store(o, s0);
+  } else v128.store(o, s0);
+  if (nv == 2) {
+    if (odd) v128.store64_lane(o, s1, 0, 16);
+    else v128.store(o, s1, 16);
+  } else if (nv > 2) v128.store(o, s1, 16);
+  if (nv == 3) {
+    if (odd) v128.store64_lane(o, s2, 0, 32);
+    else v128.store(o, s2, 32);
+  } else if (nv > 3) v128.store(o, s2, 32);
+  if (nv == 4) {
+    if (odd) v128.store64_lane(o, s3, 0, 48);
+    else v128.store(o, s3, 48);
+  }
+}
+
+/**
+ * out[i·os + j] = Σ_k A(i, k) · B(k, j) for i < rows, j < cols, each sum over k ascending from zero, where
+ * A(i, k) is the double at aTab[k] + i·ai and B(k, j) the double at bTab[k] + 8j (aTab, bTab: tables of byte
+ * addresses, one per k; B readable one double past each row). Two rows at a time, the columns in tiles of eight
+ * and then one tile of the two to seven left; an odd last row alone. With `upper`, the sum for a tile of columns
+ * [j, j + t) stops at k = min(K, j + t): the terms it still takes with k > j' for a column j' of the tile are
+ * products with the zeros of an upper-triangular B, which add nothing to a sum that starts from +0, so every
+ * value equals the one of the plain loop over k ≤ j'. With `sym` (A and B the same matrix, rows = cols), only the
+ * tiles on and right of the diagonal are computed and the rest copied across it: out[j·os + i] = Σ_k A(j, k) A(i, k)
+ * has the very products of out[i·os + j] (a product does not depend on the order of its factors), summed in the
+ * same order.
+ */
+function productTiles(aTab: usize, ai: usize, bTab: usize, rows: i32, cols: i32, K: i32, upper: bool, sym: bool, out: usize, os: usize): void {
+  const outRow = os << 3;
+  let i = 0;
+  for (; i + 1 < rows; i += 2) {
+    const aOff = <usize>i * ai;
+    const p0 = out + <usize>i * outRow;
+    const p1 = p0 + outRow;
+    let j = sym ? i : 0;
+    for (; j + 7 < cols; j += 8) tileTwo(4, aTab, aOff, ai, bTab, <usize>j << 3, upper ? min(K, j + 8) : K, p0, p1, false);
+    const rest = cols - j;
+    if (rest > 0) {
+      const jb = <usize>j << 3;
+      const odd = (rest & 1) != 0;
+      const kEnd = upper ? min(K, j + rest + (rest & 1)) : K;
+      if (rest <= 2) tileTwo(1, aTab, aOff, ai, bTab, jb, kEnd, p0, p1, odd);
+      else if (rest <= 4) tileTwo(2, aTab, aOff, ai, bTab, jb, kEnd, p0, p1, odd);
+      else if (rest <= 6) tileTwo(3, aTab, aOff, ai, bTab, jb, kEnd, p0, p1, odd);
+      else tileTwo(4, aTab, aOff, ai, bTab, jb, kEnd, p0, p1, odd);
+    }
+  }
+  if (i < rows) {
+    const aOff = <usize>i * ai;
+    const p0 = out + <usize>i * outRow;
+    let j = sym ? i : 0;
+    for (; j + 7 < cols; j += 8) tileOne(4, aTab, aOff, bTab, <usize>j << 3, upper ? min(K, j + 8) : K, p0, false);
+    const rest = cols - j;
+    if (rest > 0) {
+      const jb = <usize>j << 3;
+      const odd = (rest & 1) != 0;
+      const kEnd = upper ? min(K, j + rest + (rest & 1)) : K;
+      if (rest <= 2) tileOne(1, aTab, aOff, bTab, jb, kEnd, p0, odd);
+      else if (rest <= 4) tileOne(2, aTab, aOff, bTab, jb, kEnd, p0, odd);
+      else if (rest <= 6) tileOne(3, aTab, aOff, bTab, jb, kEnd, p0, odd);
+      else tileOne(4, aTab, aOff, bTab, jb, kEnd, p0, odd);
+    }
+  }
+  if (sym) {
+    for (let r = 1; r < rows; r++) {
+      for (let q = 0; q < r; q++) store<f64>(out + <usize>r * outRow + (<usize>q << 3), load<f64>(out + <usize>q * outRow + (<usize>r << 3)));
+    }
+  }
+}
+
+/** Fills tab[k] = base + 8·(off[k] + shift) for k < n (byte addresses of a coefficient column). */
+function addressTable(tab: usize, base: usize, off: usize, shift: i32, n: i32): void {
+  for (let k = 0; k < n; k++) store<u32>(tab + (<usize>k << 2), <u32>(base + (<usize>(load<i32>(off + (<usize>k << 2)) + shift) << 3)));
+}
+
+/** Fills tab[k] = base + k·step for k < n. */
+function stepTable(tab: usize, base: usize, step: usize, n: i32): void {
+  for (let k = 0; k < n; k++) store<u32>(tab + (<usize>k << 2), <u32>(base + <usize>k * step));
+}
+
+/**
+ * The read-out of one environment, as tensor-readout.ts readOne computes it: y[μ] for μ < 2λ+1 from the density
+ * coefficients at `c` (the expander's layout, readable two doubles past its end) and the weight matrices at `W`
+ * (one channels × channels matrix per block, readable two doubles past the end). `plan` is the table the wrapper
+ * writes (core/learning/tensor-readout.ts layoutPlan): i32 words tch, nM, nL, blocks, then byte addresses
+ * of the channel offsets, the per-degree Gram addresses, the left and both scratch, the block records and two
+ * address tables; each block record holds l, l2, the byte offset of its matrix in W and the addresses of its
+ * muStart, e1, e2 (i32) and ev (f64) tables. Every number a product of readOne's in readOne's order.
+ */
+export function readOut(plan: usize, c: usize, W: usize, y: usize): void {
+  const tch = load<i32>(plan);
+  const nM = load<i32>(plan, 4);
+  const nL = load<i32>(plan, 8);
+  const nB = load<i32>(plan, 12);
+  const chOff = <usize>load<u32>(plan, 16);
+  const gramAt = <usize>load<u32>(plan, 20);
+  const left = <usize>load<u32>(plan, 24);
+  const both = <usize>load<u32>(plan, 28);
+  const blocks = <usize>load<u32>(plan, 32);
+  const tabA = <usize>load<u32>(plan, 36);
+  const tabB = <usize>load<u32>(plan, 40);
+  // Gram matrices of every degree (exactly symmetric: one triangle computed, copied across)
+  for (let l = 0; l < nL; l++) {
+    const w = 2 * l + 1;
+    addressTable(tabA, c, chOff, l * l, tch);
+    productTiles(tabA, 8, tabA, w, w, tch, false, true, <usize>load<u32>(gramAt + (<usize>l << 2)), <usize>w);
+  }
+  for (let mu = 0; mu < nM; mu++) f64.store(y + (<usize>mu << 3), 0);
+  let norm2: f64 = 0;
+  for (let b = 0; b < nB; b++) {
+    const rec = blocks + (<usize>b << 5);
+    const l = load<i32>(rec);
+    const l2 = load<i32>(rec, 4);
+    const wb = <usize>load<u32>(rec, 8);
+    const muStart = <usize>load<u32>(rec, 12);
+    const e1 = <usize>load<u32>(rec, 16);
+    const e2 = <usize>load<u32>(rec, 20);
+    const ev = <usize>load<u32>(rec, 24);
+    const w1 = 2 * l + 1;
+    const w2 = 2 * l2 + 1;
+    // left = Aᵀ W (w1 × channels); an l = l' block's W is upper triangular
+    addressTable(tabA, c, chOff, l * l, tch);
+    stepTable(tabB, W + wb, <usize>tch << 3, tch);
+    productTiles(tabA, 8, tabB, w1, tch, tch, l == l2, false, left, <usize>tch);
+    // both = Aᵀ W B (w1 × w2)
+    stepTable(tabA, left, 8, tch);
+    addressTable(tabB, c, chOff, l2 * l2, tch);
+    productTiles(tabA, <usize>tch << 3, tabB, w1, w2, tch, false, false, both, <usize>w2);
+    const ga = <usize>load<u32>(gramAt + (<usize>l << 2));
+    const gb = <usize>load<u32>(gramAt + (<usize>l2 << 2));
+    let blockNorm: f64 = 0;
+    for (let mu = 0; mu < nM; mu++) {
+      const k0 = load<i32>(muStart + (<usize>mu << 2));
+      const k1 = load<i32>(muStart + (<usize>(mu + 1) << 2));
+      let s: f64 = 0;
+      for (let k = k0; k < k1; k++) {
+        const a1 = load<i32>(e1 + (<usize>k << 2));
+        const a2 = load<i32>(e2 + (<usize>k << 2));
+        s += f64.load(ev + (<usize>k << 3)) * f64.load(both + (<usize>(a1 * w2 + a2) << 3));
+      }
+      const yp = y + (<usize>mu << 3);
+      f64.store(yp, f64.load(yp) + s);
+      // the norm's terms t_k = ½ v_k G_A[m_k, m_k] G_B[m'_k, m'_k] + Σ_{k' < k} v_k' G_A[m_k, m_k'] G_B[m'_k, m'_k'],
+      // four k side by side (four chains of additions, each in its k' order), added to blockNorm in k order
+      let k = k0;
+      for (; k + 3 < k1; k += 4) {
+        const kb = <usize>k << 2;
+        const i0 = load<i32>(e1 + kb), i1 = load<i32>(e1 + kb, 4), i2 = load<i32>(e1 + kb, 8), i3 = load<i32>(e1 + kb, 12);
+        const j0 = load<i32>(e2 + kb), j1 = load<i32>(e2 + kb, 4), j2 = load<i32>(e2 + kb, 8), j3 = load<i32>(e2 + kb, 12);
+        const vb = ev + (<usize>k << 3);
+        const v0 = f64.load(vb), v1 = f64.load(vb, 8), v2 = f64.load(vb, 16), v3 = f64.load(vb, 24);
+        const ra0 = ga + (<usize>(i0 * w1) << 3), ra1 = ga + (<usize>(i1 * w1) << 3), ra2 = ga + (<usize>(i2 * w1) << 3), ra3 = ga + (<usize>(i3 * w1) << 3);
+        const rb0 = gb + (<usize>(j0 * w2) << 3), rb1 = gb + (<usize>(j1 * w2) << 3), rb2 = gb + (<usize>(j2 * w2) << 3), rb3 = gb + (<usize>(j3 * w2) << 3);
+        let t0 = 0.5 * v0 * f64.load(ra0 + (<usize>i0 << 3)) * f64.load(rb0 + (<usize>j0 << 3));
+        let t1 = 0.5 * v1 * f64.load(ra1 + (<usize>i1 << 3)) * f64.load(rb1 + (<usize>j1 << 3));
+        let t2 = 0.5 * v2 * f64.load(ra2 + (<usize>i2 << 3)) * f64.load(rb2 + (<usize>j2 << 3));
+        let t3 = 0.5 * v3 * f64.load(ra3 + (<usize>i3 << 3)) * f64.load(rb3 + (<usize>j3 << 3));
+        for (let k2 = k0; k2 < k; k2++) {
+          const v = f64.load(ev + (<usize>k2 << 3));
+          const x = <usize>load<i32>(e1 + (<usize>k2 << 2)) << 3;
+          const z = <usize>load<i32>(e2 + (<usize>k2 << 2)) << 3;
+          t0 += v * f64.load(ra0 + x) * f64.load(rb0 + z);
+          t1 += v * f64.load(ra1 + x) * f64.load(rb1 + z);
+          t2 += v * f64.load(ra2 + x) * f64.load(rb2 + z);
+          t3 += v * f64.load(ra3 + x) * f64.load(rb3 + z);
+        }
+        // k' = k, k + 1, k + 2 for the chains they precede
+        const x0 = <usize>i0 << 3, z0 = <usize>j0 << 3, x1 = <usize>i1 << 3, z1 = <usize>j1 << 3, x2 = <usize>i2 << 3, z2 = <usize>j2 << 3;
+        t1 += v0 * f64.load(ra1 + x0) * f64.load(rb1 + z0);
+        t2 += v0 * f64.load(ra2 + x0) * f64.load(rb2 + z0);
+        t3 += v0 * f64.load(ra3 + x0) * f64.load(rb3 + z0);
+        t2 += v1 * f64.load(ra2 + x1) * f64.load(rb2 + z1);
+        t3 += v1 * f64.load(ra3 + x1) * f64.load(rb3 + z1);
+        t3 += v2 * f64.load(ra3 + x2) * f64.load(rb3 + z2);
+        blockNorm += 2 * v0 * t0;
+        blockNorm += 2 * v1 * t1;
+        blockNorm += 2 * v2 * t2;
+        blockNorm += 2 * v3 * t3;
+      }
+      for (; k < k1; k++) {
+        const a1 = load<i32>(e1 + (<usize>k << 2));
+        const a2 = load<i32>(e2 + (<usize>k << 2));
+        const vk = f64.load(ev + (<usize>k << 3));
+        const ra = ga + (<usize>(a1 * w1) << 3);
+        const rb = gb + (<usize>(a2 * w2) << 3);
+        let t = 0.5 * vk * f64.load(ra + (<usize>a1 << 3)) * f64.load(rb + (<usize>a2 << 3));
+        for (let k2 = k0; k2 < k; k2++) {
+          t += f64.load(ev + (<usize>k2 << 3)) * f64.load(ra + (<usize>load<i32>(e1 + (<usize>k2 << 2)) << 3)) * f64.load(rb + (<usize>load<i32>(e2 + (<usize>k2 << 2)) << 3));
+        }
+        blockNorm += 2 * vk * t;
+      }
+    }
+    norm2 += l == l2 ? blockNorm : 2 * blockNorm;
+  }
+  if (norm2 > 0 && norm2 < Infinity) {
+    const inv = 1 / Math.sqrt(norm2);
+    for (let mu = 0; mu < nM; mu++) {
+      const yp = y + (<usize>mu << 3);
+      f64.store(yp, f64.load(yp) * inv);
+    }
+  } else {
+    // a zero block (a lone atom's λ = 2) stays zero
+    for (let mu = 0; mu < nM; mu++) f64.store(y + (<usize>mu << 3), 0);
+  }
+}
