@@ -519,8 +519,10 @@ function nearestOf(search: NearestSearch, sp: SpeciesSearch, a: Float64Array, oa
   const kept = scratchKept;
   const keptSum = scratchKeptSum;
   let nk = 0;
+  let looked = 0;
   let t = Infinity;
   if (first >= 0) {
+    looked++;
     t = screen(x, ordered, first * n0, n0, Infinity, counter);
     kept[0] = first;
     keptSum[0] = t;
@@ -529,6 +531,7 @@ function nearestOf(search: NearestSearch, sp: SpeciesSearch, a: Float64Array, oa
   for (let k = 0; k < m; k++) {
     const limit = limitOf(t);
     if (k === first || bound[k] > limit) continue;
+    looked++;
     const s = screen(x, ordered, k * n0, n0, limit, counter);
     if (s > limit) continue;
     kept[nk] = k;
@@ -547,7 +550,7 @@ function nearestOf(search: NearestSearch, sp: SpeciesSearch, a: Float64Array, oa
     if (s < best) best = s;
   }
   if (counter) {
-    counter.screened += nk;
+    counter.screened += looked;
     counter.exact += exact;
     counter.summed += exact * n0;
   }

@@ -397,7 +397,9 @@ function candidates(m: i32, d: i32, n0: i32, ordered: usize, coordsT: usize, res
   const first = smallestBound(bound, m);
   let t: f64 = Infinity;
   let nk = 0;
+  let looked = 0;
   if (first >= 0) {
+    looked++;
     t = screen(xp, ordered + <usize>first * rowBytes, n0, Infinity);
     store<i32>(kept, first);
     f64.store(kept, t, 8);
@@ -415,6 +417,7 @@ function candidates(m: i32, d: i32, n0: i32, ordered: usize, coordsT: usize, res
       k++;
       continue;
     }
+    looked++;
     const s = screen(xp, ordered + <usize>k * rowBytes, n0, limit);
     if (!(s > limit)) {
       const r = kept + (<usize>nk << 4);
@@ -426,7 +429,7 @@ function candidates(m: i32, d: i32, n0: i32, ordered: usize, coordsT: usize, res
     }
     k++;
   }
-  f64.store(stats, f64.load(stats) + <f64>nk);
+  f64.store(stats, f64.load(stats) + <f64>looked);
   // the candidates left: not beyond the final margin (a NaN sum stays; its exact distance never wins)
   const limit = t + MARGIN_RELATIVE * t + MARGIN_ABSOLUTE;
   for (let j = 0; j < nk; j++) {
