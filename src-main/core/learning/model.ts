@@ -514,9 +514,10 @@ function atomsIn(frames: Frame[]): number {
 /**
  * The first pass on a TrainingThreads: `threads` − 1 worker threads and this one share the batches of frames.
  * Batches go to the workers that are ready, at most two per worker at once; this thread computes the next batch
- * itself (frameSummaries, the workers' function) whenever the one to merge next is not back yet. At most 2 × threads batches are out or unmerged at any time (bounded memory for any number of
- * frames); they are merged in frame order, with progress after each frame, and a batch's error is raised when its
- * turn comes (the first bad frame's, as in one thread).
+ * itself (frameSummaries, the workers' function) whenever the one to merge next is not back yet. At most
+ * 2 × threads batches are out or unmerged at any time (bounded memory for any number of frames); they are merged
+ * in frame order, with progress after each frame, and a batch's error is raised when its turn comes (the first bad
+ * frame's, as in one thread).
  */
 async function runFramePass(
   runner: TrainingThreads,
