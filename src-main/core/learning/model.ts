@@ -530,8 +530,9 @@ async function runFramePass(
   const n = frames.length;
   const threads = Math.max(2, runner.threads);
   const workers = threads - 1;
-  // several batches per thread (progress, balance), up to 8 frames each (one message per batch)
-  const size = Math.max(1, Math.min(8, Math.ceil(n / (4 * threads))));
+  // several batches per thread (progress, balance), up to 8 frames and about 3,000 atoms each (one message per
+  // batch; this thread yields between its batches, so a batch of its own holds it for a fraction of a second)
+  const size = Math.max(1, Math.min(8, Math.ceil(n / (4 * threads)), Math.floor((3072 * n) / Math.max(1, atomsIn(frames)))));
   const batches = Math.ceil(n / size);
   const window = 2 * threads;
   type Result = { value: FrameSummary[] } | { error: unknown } | { pending: Promise<void> };
