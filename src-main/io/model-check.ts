@@ -11,52 +11,63 @@ import { learntQuantity, type TargetShape } from '../core/learning/targets.ts';
 import { TENSOR_KINDS } from '../core/dielectric/clausius-mossotti.ts';
 import type { TensorKind } from '../core/learning/model-types.ts';
 
-const finite = z.number().finite();
-const f64 = z.instanceof(Float64Array);
-const i32 = z.instanceof(Int32Array);
-const count = z.number().int().min(0);
+/**
+ * The schema of a model, built at its first use and kept: a run that takes its model from the decoded-model cache
+ * (io/model-cache.ts) checks none, and building it cost 15–20 ms of zod calls at every start of the command.
+ */
+function modelSchema() {
+  return (schema ??= buildModelSchema());
+}
+let schema: ReturnType<typeof buildModelSchema> | undefined;
 
-const kernelSchema = z.object({ zeta: z.number().int().min(1), n0: count, n: count, species: i32, p: f64, v: f64 });
+function buildModelSchema() {
+  const finite = z.number().finite();
+  const f64 = z.instanceof(Float64Array);
+  const i32 = z.instanceof(Int32Array);
+  const count = z.number().int().min(0);
 
-const partSchema = z.object({
-  order: z.union([z.literal(0), z.literal(1), z.literal(2)]),
-  offset: count,
-  form: z.enum(['linear', 'kernel']),
-  method: z.string(),
-  n: z.number().int().min(1),
-  weights: f64.optional(),
-  kernel: kernelSchema.optional(),
-  regularisation: z.object({ relative: finite, lambda: finite.min(0), cvError: z.number() }).loose(),
-  posterior: z
-    .object({ form: z.enum(['primal', 'dual', 'design']), size: count, factor: f64, noise: finite.min(0), lambda: finite.min(0), nystrom: f64.optional(), repFrame: i32.optional(), counts: f64.optional(), design: f64.optional(), rows: count.optional() })
-    .loose()
-    .optional(),
-});
+  const kernelSchema = z.object({ zeta: z.number().int().min(1), n0: count, n: count, species: i32, p: f64, v: f64 });
 
-const modelSchema = z.object({
-  createdAt: z.string(),
-  target: z.object({
-    key: z.string().min(1),
-    shape: z.enum(['tensor', 'vector', 'scalar']),
-    kind: z.enum(TENSOR_KINDS as [TensorKind, ...TensorKind[]]).nullable(),
-    route: z.enum(['cm', 'direct']),
-    learnt: z.enum(['alpha-cm', 'alpha-c', 'vector', 'scalar']),
-    units: z.string(),
-  }),
-  settings: z.object({ contributingSpecies: z.array(z.string()) }).loose(),
-  species: z.array(z.string()).min(1),
-  centres: z.array(z.string()).min(1),
-  featureSizes: z.object({ n0: z.number().int().min(1), n: count.optional() }),
-  tensorLimits: z.object({ nmax: z.number().int().min(0).max(16), lmax: z.number().int().min(0).max(10) }),
-  featureSelection: z.record(z.string(), z.array(count)).optional(),
-  baseline: z.array(finite),
-  parts: z.array(partSchema.loose()).min(1),
-  applicability: z.object({ n0: count, species: i32, p: f64, threshold: finite.min(0), perSpecies: z.array(finite.min(0)), rule: z.string() }),
-  training: z
-    .object({ frames: z.number().int().min(1), atoms: z.number().int().min(1), volumeA3: z.object({ min: finite.min(0), max: finite.min(0) }) })
-    .loose(),
-  notes: z.array(z.string()),
-});
+  const partSchema = z.object({
+    order: z.union([z.literal(0), z.literal(1), z.literal(2)]),
+    offset: count,
+    form: z.enum(['linear', 'kernel']),
+    method: z.string(),
+    n: z.number().int().min(1),
+    weights: f64.optional(),
+    kernel: kernelSchema.optional(),
+    regularisation: z.object({ relative: finite, lambda: finite.min(0), cvError: z.number() }).loose(),
+    posterior: z
+      .object({ form: z.enum(['primal', 'dual', 'design']), size: count, factor: f64, noise: finite.min(0), lambda: finite.min(0), nystrom: f64.optional(), repFrame: i32.optional(), counts: f64.optional(), design: f64.optional(), rows: count.optional() })
+      .loose()
+      .optional(),
+  });
+
+  return z.object({
+    createdAt: z.string(),
+    target: z.object({
+      key: z.string().min(1),
+      shape: z.enum(['tensor', 'vector', 'scalar']),
+      kind: z.enum(TENSOR_KINDS as [TensorKind, ...TensorKind[]]).nullable(),
+      route: z.enum(['cm', 'direct']),
+      learnt: z.enum(['alpha-cm', 'alpha-c', 'vector', 'scalar']),
+      units: z.string(),
+    }),
+    settings: z.object({ contributingSpecies: z.array(z.string()) }).loose(),
+    species: z.array(z.string()).min(1),
+    centres: z.array(z.string()).min(1),
+    featureSizes: z.object({ n0: z.number().int().min(1), n: count.optional() }),
+    tensorLimits: z.object({ nmax: z.number().int().min(0).max(16), lmax: z.number().int().min(0).max(10) }),
+    featureSelection: z.record(z.string(), z.array(count)).optional(),
+    baseline: z.array(finite),
+    parts: z.array(partSchema.loose()).min(1),
+    applicability: z.object({ n0: count, species: i32, p: f64, threshold: finite.min(0), perSpecies: z.array(finite.min(0)), rule: z.string() }),
+    training: z
+      .object({ frames: z.number().int().min(1), atoms: z.number().int().min(1), volumeA3: z.object({ min: finite.min(0), max: finite.min(0) }) })
+      .loose(),
+    notes: z.array(z.string()),
+  });
+}
 
 /** The parts (order, first component) a target of this shape is learnt in (core/model.ts trainModel). */
 const PARTS_OF: Record<TargetShape, [number, number][]> = {
@@ -82,8 +93,8 @@ export function checkModelContents(m: unknown, file: string): asserts m is Model
   };
   // jitless: a model is checked once per process, and zod's generated fast path (code built for each object schema
   // at its first use, which no code cache keeps) cost 10–20 ms of a one-frame prediction. Asked here, per call:
-  // zod reads its global setting when a schema is built, i.e. when this module is loaded, before any main() runs.
-  const parsed = modelSchema.safeParse(m, { jitless: true });
+  // zod reads its global setting when a schema is built, which may be before any main() sets it.
+  const parsed = modelSchema().safeParse(m, { jitless: true });
   if (!parsed.success) {
     const issue = parsed.error.issues[0];
     bad(`${issue.path.join('.') || 'the model'}: ${issue.message}`);

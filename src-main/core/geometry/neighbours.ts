@@ -276,18 +276,24 @@ function kernelPairs(kernel: NeighbourKernels, s: KernelSearch): (Outputs & { co
     4 * n, 4 * ((n + 31) >>> 5), 4 * ((n + 1023) >>> 10),
     4 * candidates, 12 * candidates, 24 * candidates, 8 * candidates, 4 * candidates,
     4 * chunk, 12 * chunk, 24 * chunk, 8 * chunk, 4 * (n + 1),
+    4 * (nBins + 1), 24 * slots, 4 * slots, 12 * slots,
   ];
-  const IP = 16 + 30, FP = 21;
+  // padded slots: each bin's atoms and at most one padding slot
+  const slots = n + nBins;
+  const IP = 16 + 34, FP = 21;
+  // in memory, the regions that grow (candidates, chunk) come last: laid out again, the others keep their place
+  const memoryOrder = [...Array.from({ length: 20 }, (_, k) => k), 29, 30, 31, 32, 33, 20, 21, 22, 23, 24, 25, 26, 27, 28];
   let at: number[] = [];
   // lays out the description blocks and the arrays (the inputs written); false when the memory cannot grow so far
   const layout = (): boolean => {
     const base = module.heapBase;
     let top = base + 16 * Math.ceil((4 * IP) / 16) + 8 * FP;
-    at = sizes().map((bytes) => {
-      const a = top;
-      top += 16 * Math.ceil(bytes / 16);
-      return a;
-    });
+    const bytes = sizes();
+    at = new Array<number>(bytes.length);
+    for (const k of memoryOrder) {
+      at[k] = top;
+      top += 16 * Math.ceil(bytes[k] / 16);
+    }
     if (!module.reserve(top - base)) return false;
     const ints = module.i32(base, IP), fl = module.f64(base + 16 * Math.ceil((4 * IP) / 16), FP);
     ints.set([n, s.nb[0], s.nb[1], s.nb[2], s.m[0], s.m[1], s.m[2], s.orthogonal ? 1 : 0, 0, chunk, candidates, 0]);
@@ -342,8 +348,8 @@ function kernelPairs(kernel: NeighbourKernels, s: KernelSearch): (Outputs & { co
     from = reached;
     if (why === 2) candidates *= 2;
     else if (got === 0) chunk = Math.max(2 * chunk, wanted);
-    // more room: laid out again. The marks (first, bits, summary) lie before the regions that grow, so they stay
-    // where they are, clear (the kernel undid the unfinished centre's).
+    // more room: laid out again. The marks (first, bits, summary, clear: the kernel undid the unfinished centre's)
+    // and the padded copies lie before the regions that grow, so they stay where they are.
     if ((why === 2 || got === 0) && !layout()) return null;
   }
   return { outJ, outV, outD, outS, cap, count };

@@ -15,6 +15,7 @@ import {
   kernelPower,
   kernelWeights,
   linearDesignRows,
+  linearScalarPass,
   localContributions,
   scalarDot,
   structureKernel,
@@ -1205,11 +1206,19 @@ function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, r
   const local = new Float64Array(nAtoms * C);
   let variance = 0;
   let leverage = NaN;
+  // the key of this frame's λ=0 rows in the kernels' memory: copied there once for the linear part and the search
+  const rowsKey = {};
   for (const part of model.parts) {
     const w = 2 * part.order + 1;
     let contrib: Float64Array;
+    // a linear λ=0 part: its contributions and the per-species row sums its leverage needs, in one pass
+    let sums: Float64Array | undefined;
     if (readout && readout.order === part.order) contrib = readout.values;
-    else {
+    else if (part.order === 0 && part.form === 'linear' && part.n === fe.n0) {
+      const pass = linearScalarPass(fe, part.weights as Float64Array, model.centres.length, rowsKey);
+      contrib = pass.contributions;
+      sums = pass.sums;
+    } else {
       const v = blockView(fe, part.order);
       if (v.n !== part.n) throw new ModelError(`features of order λ=${part.order} have ${v.n} components but the model expects ${part.n}`);
       contrib = localContributions(fe, part.order, part.form === 'linear' ? { linear: part.weights as Float64Array } : { kernel: part.kernel as KernelExpansion });
@@ -1224,13 +1233,13 @@ function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, r
       }
     }
     if (part.order === 0 && part.posterior) {
-      leverage = partLeverage(model, part, fe);
+      leverage = partLeverage(model, part, fe, sums);
       variance = part.posterior.noise * leverage;
     }
   }
   if (model.leverage?.posterior) leverage = partLeverage(model, model.leverage, fe);
   requireFinite(frame, total);
-  const applicability = applicabilityOf(model, frame, fe, pairs);
+  const applicability = applicabilityOf(model, frame, fe, pairs, rowsKey);
   applicability.variance = variance;
   return { irreducible: total, localIrreducible: local, components: C, applicability, uncertainty: uncertaintyOf(model, leverage, C) };
 }
@@ -1317,9 +1326,10 @@ function explicitPosterior(post: PartPosterior): Posterior {
 
 /**
  * Leverage of a frame against a part's training design: φᵀ(ΦᵀΦ + λI)⁻¹φ (its GP latent variance divided by the
- * noise variance), for the linear, sparse and exact forms.
+ * noise variance), for the linear, sparse and exact forms. `sums`: a linear part's per-species row sums
+ * (linearDesignRows(fe, 0, …)) when they are at hand already (linearScalarPass).
  */
-function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures): number {
+function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures, sums?: Float64Array): number {
   const post = { ...(part.posterior as PartPosterior), noise: 1 };
   const nS = model.centres.length;
   const counts = new Float64Array(nS);
@@ -1331,7 +1341,7 @@ function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures): n
     return out;
   };
   const explicit = explicitPosterior(post);
-  if (part.form === 'linear') return posteriorVariance(explicit, withCounts(linearDesignRows(fe, 0, nS)));
+  if (part.form === 'linear') return posteriorVariance(explicit, withCounts(sums ?? linearDesignRows(fe, 0, nS)));
   const k = part.kernel as KernelExpansion;
   if (post.nystrom) {
     const reps: Representatives = { order: 0, n0: k.n0, n: k.n0, width: 1, species: k.species, p: k.p, blocks: k.p };
@@ -1361,7 +1371,7 @@ function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures): n
  * model has their training ranges; models saved before them judge by the feature distance alone (any atom
  * beyond its species' threshold flags the frame, as they always did).
  */
-function applicabilityOf(model: Model, frame: Frame, fe: EnvironmentFeatures, pairs?: NeighbourList): Applicability {
+function applicabilityOf(model: Model, frame: Frame, fe: EnvironmentFeatures, pairs?: NeighbourList, rowsKey?: object): Applicability {
   const a = model.applicability;
   const nAtoms = frame.species.length;
   const atomDistance = new Float64Array(nAtoms);
@@ -1372,7 +1382,7 @@ function applicabilityOf(model: Model, frame: Frame, fe: EnvironmentFeatures, pa
   // bounded search, prepared once per model object when the job is large enough to repay it; bit-identical to
   // sparse.ts nearestDistance (nearest-search.ts)
   const nearest = new Float64Array(fe.count);
-  nearestAllOf(a, fe.scalar, fe.count, fe.centreSpecies, nearest);
+  nearestAllOf(a, fe.scalar, fe.count, fe.centreSpecies, nearest, rowsKey);
   for (let e = 0; e < fe.count; e++) {
     let best = nearest[e];
     if (!Number.isFinite(best)) best = 2;

@@ -51,6 +51,10 @@ const OUT_S = 26; // Int32 3 per pair
 const OUT_V = 27; // Float64 3 per pair
 const OUT_D = 28; // Float64 per pair
 const START = 29; // Int32 n + 1
+const PAD_START = 30; // Int32 bins + 1: each bin's first slot in the padded copies below (an even number)
+const PAD_POS = 31; // Float64 3 per slot: per two slots x, x', y, y', z, z' (a bin's odd last slot: x = +∞)
+const PAD_ATOM = 32; // Int32 per slot: the atom (−1 in a padding slot)
+const PAD_OFF = 33; // Int32 3 per slot: its offsets
 
 @inline function addr(ip: usize, k: i32): usize {
   return <usize>load<u32>(ip + ((16 + <usize>k) << 2));
@@ -88,6 +92,38 @@ function gaps(out: usize, m: i32, c: i32, fracK: f64, origin: f64, f: f64, thick
   }
 }
 
+/**
+ * The bins' atoms in padded copies for two-at-a-time distance tests: bin b's slots from padStart[b] (even), its
+ * atoms in their order, then one padding slot when their number is odd (x = +∞: never within the cutoff).
+ */
+function pad(bins: i32, binStart: usize, binAtom: usize, binPos: usize, binOff: usize, padStart: usize, padPos: usize, padAtom: usize, padOff: usize): void {
+  let q = 0;
+  for (let b = 0; b < bins; b++) {
+    store<i32>(padStart + (<usize>b << 2), q);
+    const end = i32At(binStart, b + 1);
+    for (let p = i32At(binStart, b); p < end; p++, q++) {
+      const at = padPos + (<usize>(q >> 1)) * 48 + (<usize>(q & 1) << 3);
+      store<f64>(at, f64At(binPos, 3 * p));
+      store<f64>(at, f64At(binPos, 3 * p + 1), 16);
+      store<f64>(at, f64At(binPos, 3 * p + 2), 32);
+      store<i32>(padAtom + (<usize>q << 2), i32At(binAtom, p));
+      const o = padOff + <usize>q * 12;
+      store<i32>(o, i32At(binOff, 3 * p));
+      store<i32>(o, i32At(binOff, 3 * p + 1), 4);
+      store<i32>(o, i32At(binOff, 3 * p + 2), 8);
+    }
+    if (q & 1) {
+      const at = padPos + (<usize>(q >> 1)) * 48 + 8;
+      store<f64>(at, Infinity);
+      store<f64>(at, 0, 16);
+      store<f64>(at, 0, 32);
+      store<i32>(padAtom + (<usize>q << 2), -1);
+      q++;
+    }
+  }
+  store<i32>(padStart + (<usize>bins << 2), q);
+}
+
 /** Clears the marks of a centre's candidates (first, bits, summary), as reading them out does. */
 function clearMarks(first: usize, bits: usize, summary: usize, summaryWords: i32): void {
   for (let sw = 0; sw < summaryWords; sw++) {
@@ -111,7 +147,7 @@ function clearMarks(first: usize, bits: usize, summary: usize, summaryWords: i32
 /** The pairs of centres from ip[8] on, into the chunk; see the head of this file. */
 export function pairs(ip: usize, fp: usize): void {
   const n = i32At(ip, 0);
-  const n1 = i32At(ip, 2), n2 = i32At(ip, 3);
+  const n0 = i32At(ip, 1), n1 = i32At(ip, 2), n2 = i32At(ip, 3);
   const m0 = i32At(ip, 4), m1 = i32At(ip, 5), m2 = i32At(ip, 6);
   const orthogonal = i32At(ip, 7) != 0;
   const from = i32At(ip, 8);
@@ -124,6 +160,7 @@ export function pairs(ip: usize, fp: usize): void {
   const h0 = f64At(fp, 9), h1 = f64At(fp, 10), h2 = f64At(fp, 11), h3 = f64At(fp, 12), h4 = f64At(fp, 13);
   const h5 = f64At(fp, 14), h6 = f64At(fp, 15), h7 = f64At(fp, 16), h8 = f64At(fp, 17);
   const cutoff = f64At(fp, 18), cut2 = f64At(fp, 19), reach2 = f64At(fp, 20);
+  const cut2v = f64x2.splat(cut2);
   const wrapped = addr(ip, WRAPPED), offset = addr(ip, OFFSET), frac = addr(ip, FRAC), bin3 = addr(ip, BIN3);
   const binStart = addr(ip, BIN_START), binAtom = addr(ip, BIN_ATOM), binPos = addr(ip, BIN_POS), binOff = addr(ip, BIN_OFF);
   const wrapA = addr(ip, WRAP_A), wrapB = addr(ip, WRAP_B), wrapC = addr(ip, WRAP_C);
@@ -134,10 +171,12 @@ export function pairs(ip: usize, fp: usize): void {
   const outJ = addr(ip, OUT_J), outS = addr(ip, OUT_S), outV = addr(ip, OUT_V), outD = addr(ip, OUT_D), start = addr(ip, START);
   const summaryWords = (n + 1023) >>> 10;
   const w0 = 2 * m0 + 1, w1 = 2 * m1 + 1, w2 = 2 * m2 + 1;
+  const padStart = addr(ip, PAD_START), padPos = addr(ip, PAD_POS), padAtom = addr(ip, PAD_ATOM), padOff = addr(ip, PAD_OFF);
   if (from == 0) {
     for (let j = 0; j < n; j++) store<i32>(first + (<usize>j << 2), -1);
     memory.fill(bits, 0, <usize>((n + 31) >>> 5) << 2);
     memory.fill(summary, 0, <usize>summaryWords << 2);
+    pad(n0 * n1 * n2, binStart, binAtom, binPos, binOff, padStart, padPos, padAtom, padOff);
   }
   let count = 0;
   for (let i = from; i < n; i++) {
@@ -172,22 +211,33 @@ export function pairs(ip: usize, fp: usize): void {
           const bin = row + t2;
           const ex = tx01 + <f64>S2 * h6 - xi, ey = ty01 + <f64>S2 * h7 - yi, ez = tz01 + <f64>S2 * h8 - zi;
           const zeroShift = S0 == 0 && S1 == 0 && S2 == 0;
-          const end = i32At(binStart, bin + 1);
-          for (let p = i32At(binStart, bin); p < end; p++) {
-            const vx = f64At(binPos, 3 * p) + ex, vy = f64At(binPos, 3 * p + 1) + ey, vz = f64At(binPos, 3 * p + 2) + ez;
-            const v2 = vx * vx + vy * vy + vz * vz;
-            if (v2 > cut2) continue;
-            const dist = sqrt<f64>(v2);
-            if (!(dist < cutoff)) continue;
-            const j = i32At(binAtom, p);
-            if (j == i && zeroShift) continue;
-            // the shift relative to the original (unwrapped) positions
-            const s0 = S0 - i32At(binOff, 3 * p) + oi0, s1 = S1 - i32At(binOff, 3 * p + 1) + oi1, s2 = S2 - i32At(binOff, 3 * p + 2) + oi2;
-            if (ncand == candCap) {
-              full = true;
-              break;
-            }
-            const c = ncand++;
+          const end = i32At(padStart, bin + 1);
+          const exv = f64x2.splat(ex), eyv = f64x2.splat(ey), ezv = f64x2.splat(ez);
+          // two slots at a time: each lane computes its v2 by the scalar loop's operations, in its order
+          for (let q = i32At(padStart, bin); q < end; q += 2) {
+            const pp = padPos + <usize>q * 24;
+            const vxv = f64x2.add(v128.load(pp), exv), vyv = f64x2.add(v128.load(pp, 16), eyv), vzv = f64x2.add(v128.load(pp, 32), ezv);
+            const v2v = f64x2.add(f64x2.add(f64x2.mul(vxv, vxv), f64x2.mul(vyv, vyv)), f64x2.mul(vzv, vzv));
+            const far = i64x2.bitmask(f64x2.gt(v2v, cut2v));
+            if (far == 3) continue;
+            for (let lane = 0; lane < 2; lane++) {
+              if ((far >> lane) & 1) continue;
+              const p = q + lane;
+              const vx = lane == 0 ? f64x2.extract_lane(vxv, 0) : f64x2.extract_lane(vxv, 1);
+              const vy = lane == 0 ? f64x2.extract_lane(vyv, 0) : f64x2.extract_lane(vyv, 1);
+              const vz = lane == 0 ? f64x2.extract_lane(vzv, 0) : f64x2.extract_lane(vzv, 1);
+              const v2 = lane == 0 ? f64x2.extract_lane(v2v, 0) : f64x2.extract_lane(v2v, 1);
+              const dist = sqrt<f64>(v2);
+              if (!(dist < cutoff)) continue;
+              const j = i32At(padAtom, p);
+              if (j == i && zeroShift) continue;
+              // the shift relative to the original (unwrapped) positions
+              const s0 = S0 - i32At(padOff, 3 * p) + oi0, s1 = S1 - i32At(padOff, 3 * p + 1) + oi1, s2 = S2 - i32At(padOff, 3 * p + 2) + oi2;
+              if (ncand == candCap) {
+                full = true;
+                break;
+              }
+              const c = ncand++;
             store<i32>(cJ + (<usize>c << 2), j);
             const ps = cS + <usize>c * 12;
             store<i32>(ps, s0);
@@ -216,6 +266,8 @@ export function pairs(ip: usize, fp: usize): void {
               store<i32>(next + (<usize>c << 2), i32At(next, at));
               store<i32>(next + (<usize>at << 2), c);
             }
+            }
+            if (full) break;
           }
         }
       }
