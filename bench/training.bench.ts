@@ -160,7 +160,8 @@ export function trainingAgainstBaseline(ref: string, frames = FRAMES): void {
     console.log(`training side by side with ${ref}, ${frames} frames × 384 atoms, defaults, one thread, best of 2 alternating processes (load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}):`);
     console.log(`  ${ref}: ${b.cpu.toFixed(1)} s CPU, ${b.wall.toFixed(1)} s wall, peak ${b.peakMiB.toFixed(0)} MiB; this tree: ${a.cpu.toFixed(1)} s CPU, ${a.wall.toFixed(1)} s wall, peak ${a.peakMiB.toFixed(0)} MiB; ` +
       `CPU ×${(b.cpu / a.cpu).toFixed(2)}, wall ×${(b.wall / a.wall).toFixed(2)}; models ${a.hash === b.hash && now.every((r) => r.hash === a.hash) && then.every((r) => r.hash === b.hash) ? 'identical (same hash of every number)' : 'DIFFER'}`);
-    // this tree again with the first pass on worker threads (train --threads), against the same one-thread runs
+    // this tree again on threads (train --threads: its first pass shared with workers, a linear model's applicability
+    // beside the fit), against the same one-thread runs
     const threads = Number(process.env.PW_BENCH_THREADS ?? availableParallelism());
     if (threads > 1) {
       const many: Run[] = [];
@@ -173,7 +174,7 @@ export function trainingAgainstBaseline(ref: string, frames = FRAMES): void {
         many.push(r);
       }
       const c = many.reduce((x, y) => (y.wall < x.wall ? y : x));
-      console.log(`  this tree on ${threads} worker threads (best wall of 2, load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}): ${c.wall.toFixed(1)} s wall, ${c.cpu.toFixed(1)} s CPU of all threads, peak ${c.peakMiB.toFixed(0)} MiB; ` +
+      console.log(`  this tree on ${threads} threads (train --threads ${threads}: this thread and ${threads - 1} worker${threads === 2 ? '' : 's'}; best wall of 2, load average ${loadavg().map((x) => x.toFixed(1)).join(' ')}): ${c.wall.toFixed(1)} s wall, ${c.cpu.toFixed(1)} s CPU of all threads, peak ${c.peakMiB.toFixed(0)} MiB; ` +
         `wall ×${(b.wall / c.wall).toFixed(2)} against ${ref}, ×${(a.wall / c.wall).toFixed(2)} against one thread; model ${many.every((r) => r.hash === a.hash) ? 'identical to one thread’s' : 'DIFFERS from one thread’s'}`);
     }
   } finally {

@@ -9,15 +9,17 @@ import { JobRunner } from '../jobs/runner.ts';
 import { tsWorkerFactory } from '../jobs/spawn-ts.ts';
 
 /**
- * A TrainingThreads on `threads` worker threads, started on its first batch; close() ends them. `minAtoms`: see
- * TrainingThreads (tests lower it to run small sets on threads).
+ * A TrainingThreads of `threads` threads: the calling one and `threads` − 1 workers, started on their first job;
+ * close() ends them. `minAtoms`, `callerComputes`:
+ * see TrainingThreads (tests use them to run small sets on the workers).
  */
-export function trainingThreads(threads: number, options: { minAtoms?: number } = {}): TrainingThreads & { close(): Promise<void> } {
+export function trainingThreads(threads: number, options: { minAtoms?: number; callerComputes?: boolean } = {}): TrainingThreads & { close(): Promise<void> } {
   let runner: JobRunner | null = null;
-  const jobs = () => (runner ??= new JobRunner({ spawn: tsWorkerFactory(new URL('./training-worker.ts', import.meta.url)), concurrency: threads, reuseWorkers: true }));
+  const jobs = () => (runner ??= new JobRunner({ spawn: tsWorkerFactory(new URL('./training-worker.ts', import.meta.url)), concurrency: Math.max(1, threads - 1), reuseWorkers: true }));
   return {
     threads,
     minAtoms: options.minAtoms,
+    callerComputes: options.callerComputes,
     frames(batch, signal) {
       return jobs().run<FrameSummary[]>('training-frames', batch, { signal });
     },

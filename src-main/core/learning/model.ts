@@ -427,11 +427,13 @@ export interface FramePassBatch {
  * those of this thread, bit for bit.
  */
 export interface TrainingThreads {
-  /** Batches run at once. */
+  /** Threads that compute, this one included: `threads` − 1 workers (1: everything in this thread). */
   threads: number;
   /** Fewer atoms than this in the training set: everything stays in the calling thread (default PARALLEL_MIN_ATOMS). */
   minAtoms?: number;
   frames(batch: FramePassBatch, signal?: AbortSignal): Promise<FrameSummary[]>;
+  /** false: this thread only hands out and merges the first pass's batches (tests, to give every batch to the workers). */
+  callerComputes?: boolean;
   /** When present, a linear model's applicability is computed there while this thread fits. */
   applicability?(input: ApplicabilityInput, signal?: AbortSignal): Promise<Model['applicability']>;
 }
@@ -498,11 +500,11 @@ export function frameSummaries(batch: FramePassBatch, signal?: AbortSignal): Fra
 }
 
 /**
- * Below this many atoms a training stays in the calling thread: a worker thread's start-up (0.3–1 s to load the
- * code, measured here) against about 80 µs of first-pass work per atom (200 frames × 384 atoms at default settings,
- * measured) pays on two threads only from about 25,000 atoms.
+ * Below this many atoms a training stays in the calling thread: a worker's start-up (about 0.9 s of CPU to load the
+ * code from the sources, measured here) is then a good share of the first pass (about 20 ms of CPU per 384-atom
+ * frame at default settings, measured), and on a busy machine it takes that CPU from the calling thread.
  */
-const PARALLEL_MIN_ATOMS = 25_000;
+const PARALLEL_MIN_ATOMS = 12_000;
 
 function atomsIn(frames: Frame[]): number {
   let n = 0;
@@ -511,8 +513,12 @@ function atomsIn(frames: Frame[]): number {
 }
 
 /**
- * The first pass on a TrainingThreads: batches of frames go out, at most two per thread at once (bounded memory
- * for any number of frames), and come back in frame order to `merge`, with progress after each frame.
+ * The first pass on a TrainingThreads: `threads` − 1 worker threads and this one share the batches of frames.
+ * Batches go to the workers that are ready, at most two per worker at once; this thread computes the next batch
+ * itself (frameSummaries, the workers' function) whenever the one to merge next is not back yet. At most
+ * 2 × threads batches are out or unmerged at any time (bounded memory for any number of frames); they are merged
+ * in frame order, with progress after each frame, and a batch's error is raised when its turn comes (the first bad
+ * frame's, as in one thread).
  */
 async function runFramePass(
   runner: TrainingThreads,
@@ -523,30 +529,66 @@ async function runFramePass(
   merge: (f: number, sum: FrameSummary, plan: { keep: Int32Array; slot: Int32Array }) => void,
 ): Promise<void> {
   const n = frames.length;
-  const threads = Math.max(1, runner.threads);
-  // several batches per thread (progress, balance), up to 8 frames each (one message per batch)
-  const size = Math.max(1, Math.min(8, Math.ceil(n / (4 * threads))));
+  const threads = Math.max(2, runner.threads);
+  const workers = threads - 1;
+  // several batches per thread (progress, balance), up to 8 frames and about 3,000 atoms each (one message per
+  // batch; this thread yields between its batches, so a batch of its own holds it for a fraction of a second)
+  const size = Math.max(1, Math.min(8, Math.ceil(n / (4 * threads)), Math.floor((3072 * n) / Math.max(1, atomsIn(frames)))));
   const batches = Math.ceil(n / size);
-  const inFlight: Promise<FrameSummary[]>[] = [];
-  let next = 0;
-  const launch = () => {
-    const a = next++ * size;
-    const indices = Array.from({ length: Math.min(n, a + size) - a }, (_, j) => a + j);
-    const p = runner.frames({ spec, frames: indices.map((f) => frames[f]), indices, keep: indices.map((f) => plans[f].keep) }, hooks.signal);
-    // awaited in order below; one that fails while an earlier one is awaited must not count as unhandled
-    p.catch(() => undefined);
-    inFlight.push(p);
+  const window = 2 * threads;
+  type Result = { value: FrameSummary[] } | { error: unknown } | { pending: Promise<void> };
+  const results = new Map<number, Result>();
+  const batchOf = (b: number): FramePassBatch => {
+    const indices = Array.from({ length: Math.min(n, (b + 1) * size) - b * size }, (_, j) => b * size + j);
+    return { spec, frames: indices.map((f) => frames[f]), indices, keep: indices.map((f) => plans[f].keep) };
   };
-  for (let b = 0; b < batches; b++) {
-    while (next < batches && inFlight.length < 2 * threads) launch();
-    const sums = await (inFlight.shift() as Promise<FrameSummary[]>);
-    checkAbort(hooks);
-    sums.forEach((sum, j) => {
+  // A worker gets batches only once it has answered a first frame (its code loaded, its tables made): until then
+  // this thread works alone, so that it never waits on a worker still starting (seconds on a busy machine).
+  const alone = runner.callerComputes === false;
+  let ready = alone ? workers : 0;
+  for (let w = 0; w < workers && !alone; w++) {
+    runner.frames({ spec, frames: [frames[0]], indices: [0], keep: [new Int32Array(0)] }, hooks.signal).then(
+      () => void ready++,
+      () => undefined, // a worker that cannot start leaves the work to the others
+    );
+  }
+  let next = 0;
+  let atWorkers = 0;
+  for (let b = 0; b < batches; ) {
+    while (next < batches && atWorkers < 2 * ready && next - b < window) {
+      const k = next++;
+      atWorkers++;
+      const pending = runner.frames(batchOf(k), hooks.signal).then(
+        (value) => void results.set(k, { value }),
+        (error: unknown) => void results.set(k, { error }),
+      );
+      results.set(k, { pending: pending.finally(() => atWorkers--) });
+    }
+    // (no entry yet: batch b is the next one, for this thread)
+    const r = results.get(b);
+    if (r === undefined || 'pending' in r) {
+      if (!alone && next < batches && next - b < window) {
+        // this thread's own batch while the workers compute
+        const k = next++;
+        try {
+          results.set(k, { value: frameSummaries(batchOf(k), hooks.signal) });
+        } catch (error) {
+          results.set(k, { error });
+        }
+        await yieldToLoop();
+      } else if (r) await r.pending;
+      checkAbort(hooks);
+      continue;
+    }
+    results.delete(b);
+    if ('error' in r) throw r.error;
+    r.value.forEach((sum, j) => {
       const f = b * size + j;
       const want = centreSpeciesOf(frames[f], spec.features.centres);
       if (sum.count !== want.length || sum.centreSpecies.some((s, e) => s !== want[e])) throw new Error(`training: frame ${f} came back from its thread with other environments than planned`);
       merge(f, sum, plans[f]);
     });
+    b++;
   }
 }
 
