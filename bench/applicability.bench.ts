@@ -53,7 +53,7 @@ export async function run(): Promise<void> {
   const prepared = configs.map((c) => {
     const c0 = cpuMs();
     const search = prepareNearestSearch(a.p, a.species, a.n0, c);
-    return { ...c, search, prep: cpuMs() - c0, best: Infinity, mismatches: 0, counter: { queries: 0, exact: 0, summed: 0 } as SearchCounter };
+    return { ...c, search, prep: cpuMs() - c0, best: Infinity, mismatches: 0, counter: { queries: 0, screened: 0, exact: 0, summed: 0 } as SearchCounter };
   });
   // the chosen preparation with the kernels off (its JavaScript path, the same bits) beside the kernel's
   setWebAssemblyKernels(false);
@@ -78,7 +78,7 @@ export async function run(): Promise<void> {
     });
     oldBest = Math.min(oldBest, cpuMs() - c);
     for (const p of prepared) {
-      const local: SearchCounter = { queries: 0, exact: 0, summed: 0 };
+      const local: SearchCounter = { queries: 0, screened: 0, exact: 0, summed: 0 };
       c = cpuMs();
       feats.forEach((fe, k) => {
         searchNearestAll(p.search, fe.scalar, fe.count, fe.centreSpecies, out[k], local);
@@ -118,7 +118,7 @@ export async function run(): Promise<void> {
     const used = [...p.search.species.values()].map((s) => s.d).join('/');
     const chosen = p.basis === SEARCH_BASIS && p.steps === SUBSPACE_STEPS ? '  ← used by prediction' : '';
     console.log(`  bounded, d ${used.padEnd(5)} steps ${p.steps}: ${((1000 * p.best) / envs).toFixed(1).padStart(5)} µs/environment (×${(oldBest / p.best).toFixed(1)}), ` +
-      `${(p.counter.exact / p.counter.queries).toFixed(1)} exact distances/query, preparation ${p.prep.toFixed(0)} ms once, ` +
+      `${(p.counter.screened / p.counter.queries).toFixed(1)} screened and ${(p.counter.exact / p.counter.queries).toFixed(2)} exact distances/query, ${(p.counter.summed / p.counter.queries).toFixed(0)} feature differences summed, preparation ${p.prep.toFixed(0)} ms once, ` +
       `${p.mismatches === 0 ? 'all distances bit-identical' : `${p.mismatches} DIFFERENT distances`}${chosen}`);
   }
   const same = (x: { mismatches: number }) => (x.mismatches === 0 ? 'all distances bit-identical' : `${x.mismatches} DIFFERENT distances`);

@@ -61,7 +61,7 @@ async function training(frames: number, threads: number): Promise<void> {
     : undefined;
   const c0 = cpuMs();
   const t0 = performance.now();
-  const model = await trainModel(data, { tensorKey: 'alpha_cm', kind: 'alpha-cm', route: 'cm' }, { frames: pool });
+  const model = await trainModel(data, { tensorKey: 'alpha_cm', kind: 'alpha-cm', route: 'cm' }, { threads: pool });
   await pool?.close();
   const wall = (performance.now() - t0) / 1000;
   // the process's CPU time: every thread's, the workers' included

@@ -12,13 +12,14 @@ import { trainingThreads } from './training-threads.ts';
 
 /**
  * Train on the frames and write the model file (nothing is written when stopped). `threads` > 1: the features of
- * the frames are computed on that many worker threads (training-threads.ts); the model is the same.
+ * the frames, and a linear model's applicability, are computed on that many worker threads (training-threads.ts);
+ * the model is the same.
  */
 export async function trainToFile(frames: Frame[], request: TrainRequest, output: string, hooks: WorkHooks = {}, threads = 1): Promise<Model> {
   const pool = threads > 1 ? trainingThreads(threads) : null;
   let model: Model;
   try {
-    model = await trainModel(frames, request, { ...hooks, frames: pool ?? undefined });
+    model = await trainModel(frames, request, { ...hooks, threads: pool ?? undefined });
   } finally {
     await pool?.close();
   }

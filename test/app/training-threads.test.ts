@@ -1,5 +1,5 @@
-// Training's first pass on worker threads (app/training-threads.ts, core/learning/model.ts FramePassRunner) gives
-// the model of one thread bit for bit (a hash of every number but the creation date), for a linear model, a sparse
+// Training on worker threads (app/training-threads.ts, core/learning/model.ts TrainingThreads: the first pass, and a
+// linear model's applicability beside the fit) gives the model of one thread bit for bit (a hash of every number but the creation date), for a linear model, a sparse
 // kernel model (environments sampled with their λ=2 blocks) and a model with a feature selection; batches that
 // come back out of order are merged in frame order, at most two per thread are out at once, a bad frame gives the
 // error one thread gives, and a cancel stops the pass.
@@ -9,7 +9,7 @@ import { serialize } from 'node:v8';
 import { afterAll, describe, expect, it } from 'vitest';
 import { CancelledError, InputError } from '../../src-main/core/errors.ts';
 import type { Frame } from '../../src-main/core/geometry/frame.ts';
-import { frameSummaries, trainModel, type FramePassRunner, type Model } from '../../src-main/core/learning/model.ts';
+import { frameSummaries, sampledApplicability, trainModel, type Model, type TrainingThreads } from '../../src-main/core/learning/model.ts';
 import type { ModelSettings, TrainRequest } from '../../src-main/core/learning/model-types.ts';
 import { parseExtxyz } from '../../src-main/io/extxyz.ts';
 import { trainingThreads } from '../../src-main/app/training-threads.ts';
@@ -24,15 +24,19 @@ function modelHash(model: Model): string {
   return createHash('sha256').update(serialize(numbers)).digest('hex');
 }
 
-/** In this thread, like the workers, but each batch answers after a delay that makes later batches overtake earlier ones. */
-function shuffledRunner(threads: number): FramePassRunner & { most: number; batches: number } {
+/**
+ * In this thread, like the workers, but each batch answers after a delay that makes later batches overtake earlier
+ * ones, and the applicability after the fit has long finished.
+ */
+function shuffledRunner(threads: number): TrainingThreads & { most: number; batches: number; asides: number } {
   let out = 0;
   const r = {
     threads,
     minAtoms: 0,
     most: 0,
     batches: 0,
-    async run(batch: Parameters<FramePassRunner['run']>[0], signal?: AbortSignal) {
+    asides: 0,
+    async frames(batch: Parameters<TrainingThreads['frames']>[0], signal?: AbortSignal) {
       out++;
       r.most = Math.max(r.most, out);
       r.batches++;
@@ -43,6 +47,11 @@ function shuffledRunner(threads: number): FramePassRunner & { most: number; batc
       } finally {
         out--;
       }
+    },
+    async applicability(input: Parameters<NonNullable<TrainingThreads['applicability']>>[0]) {
+      r.asides++;
+      await new Promise((res) => setTimeout(res, 200));
+      return sampledApplicability(structuredClone(input));
     },
   };
   return r;
@@ -61,7 +70,7 @@ describe('the first pass of training on several threads', () => {
     it(`gives the one-thread model bit for bit on 2 worker threads: ${name}`, async () => {
       const one = await trainModel(frames, request(settings), {}, null);
       const stages: string[] = [];
-      const two = await trainModel(frames, request(settings), { frames: threads, onProgress: (p) => stages.push(`${p.stage} ${p.done}/${p.total}`) }, null);
+      const two = await trainModel(frames, request(settings), { threads, onProgress: (p) => stages.push(`${p.stage} ${p.done}/${p.total}`) }, null);
       expect(modelHash({ ...two, createdAt: CREATED })).toBe(modelHash({ ...one, createdAt: CREATED }));
       // progress after every frame, in order
       expect(stages.filter((s) => s.startsWith('features '))).toEqual(frames.map((_, f) => `features ${f + 1}/${frames.length}`));
@@ -71,16 +80,18 @@ describe('the first pass of training on several threads', () => {
   it('merges batches that come back out of order in frame order, with at most two per thread out at once', async () => {
     const one = await trainModel(frames, request(), {}, null);
     const runner = shuffledRunner(3);
-    const many = await trainModel(frames, request(), { frames: runner }, null);
+    const many = await trainModel(frames, request(), { threads: runner }, null);
     expect(modelHash({ ...many, createdAt: CREATED })).toBe(modelHash({ ...one, createdAt: CREATED }));
     expect(runner.batches).toBe(frames.length);
+    expect(runner.asides).toBe(1);
     expect(runner.most).toBeGreaterThan(1);
     expect(runner.most).toBeLessThanOrEqual(6);
   }, 60_000);
 
   it('keeps the pass in the calling thread below the runner’s atom count', async () => {
-    const runner = { ...shuffledRunner(2), minAtoms: 10_000 };
-    await trainModel(frames, request(), { frames: runner }, null);
+    const runner = shuffledRunner(2);
+    runner.minAtoms = 10_000;
+    await trainModel(frames, request(), { threads: runner }, null);
     expect(runner.batches).toBe(0);
   }, 60_000);
 
@@ -97,8 +108,8 @@ describe('the first pass of training on several threads', () => {
       return null;
     };
     const one = await errorOf({});
-    const many = await errorOf({ frames: shuffledRunner(3) });
-    const workers = await errorOf({ frames: threads });
+    const many = await errorOf({ threads: shuffledRunner(3) });
+    const workers = await errorOf({ threads });
     expect(one).toBeInstanceOf(InputError);
     for (const e of [many, workers]) {
       expect(e).toBeInstanceOf(InputError);
@@ -112,7 +123,7 @@ describe('the first pass of training on several threads', () => {
     const pool = trainingThreads(2, { minAtoms: 0 });
     let features = 0;
     const run = trainModel(frames, request(), {
-      frames: pool,
+      threads: pool,
       signal: controller.signal,
       onProgress: (p) => {
         if (p.stage === 'features' && ++features === 1) controller.abort();

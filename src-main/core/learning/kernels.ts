@@ -6,6 +6,8 @@
 // is a sum of local contributions. With ζ = 1 the kernel is linear in the features: the model is a weight
 // vector per centre species and a prediction is one dot product per environment.
 import type { EnvironmentFeatures } from '../descriptors/feature-types.ts';
+import { residentName, type Region } from '../wasm/arena.ts';
+import { fillFrameRows, frameRowsRegion, predictKernels, type PredictKernels } from '../wasm/prediction-kernels.ts';
 
 /** The irreducible order of a model part: 0 (scalar), 1 (vector), 2 (rank-2 anisotropic part). */
 export type Order = 0 | 1 | 2;
@@ -182,6 +184,59 @@ export function kernelWeights(k: KernelExpansion, scalar: Float64Array, e: numbe
     for (let f = 0; f < k.n; f++) u[f] += c * k.v[ro + f];
   }
   return u;
+}
+
+/**
+ * A linear λ=0 part over a frame in one pass over its rows: the local contributions (localContributions(feat, 0,
+ * { linear: weights })) and the per-species sums of the rows (linearDesignRows(feat, 0, species)), the same numbers
+ * bit for bit — through the WebAssembly kernel (assembly/prediction-kernels.ts linearRows) when it is available,
+ * else by the two JavaScript functions. `rowsKey`: the key of the rows' copy in the kernel's memory, shared with
+ * the search of the same frame (prediction-kernels.ts fillFrameRows).
+ */
+export function linearScalarPass(feat: EnvironmentFeatures, weights: Float64Array, species: number, rowsKey?: object): { contributions: Float64Array; sums: Float64Array } {
+  const k = predictKernels();
+  const done = k ? wasmLinearPass(k, feat, weights, species, rowsKey) : null;
+  return done ?? { contributions: localContributions(feat, 0, { linear: weights }), sums: linearDesignRows(feat, 0, species) };
+}
+
+/** Rows copied into the kernel's memory at a time when they are not held whole (bounded scratch). */
+const LINEAR_CHUNK = 256;
+/** The key of linearScalarPass's scratch region in the kernel arena. */
+const LINEAR_SCRATCH = {};
+
+function wasmLinearPass(k: PredictKernels, feat: EnvironmentFeatures, weights: Float64Array, species: number, rowsKey?: object): { contributions: Float64Array; sums: Float64Array } | null {
+  const n0 = feat.n0;
+  const count = feat.count;
+  if (weights.length < species * n0) return null;
+  for (let e = 0; e < count; e++) if (!(feat.centreSpecies[e] >= 0 && feat.centreSpecies[e] < species)) return null;
+  // the rows held whole (shared with the search of the same frame) or copied in chunks into the scratch
+  const whole = rowsKey ? frameRowsRegion(count, n0) : null;
+  const chunk = whole ? Math.max(1, count) : LINEAR_CHUNK;
+  const bytes16 = (n: number) => Math.ceil(n / 16) * 16;
+  const wBytes = bytes16(8 * species * n0);
+  const rowsAt = 0;
+  const speciesAt = rowsAt + (whole ? 0 : 8 * chunk * n0);
+  const outAt = speciesAt + bytes16(4 * chunk);
+  const sumsAt = outAt + bytes16(8 * chunk);
+  const regions: Region[] = [
+    { name: residentName('linear-weights', weights), key: weights, bytes: wBytes, fill: (m, a) => m.f64(a, species * n0).set(weights.subarray(0, species * n0)) },
+    { name: 'linear-scratch', key: LINEAR_SCRATCH, bytes: sumsAt + wBytes },
+  ];
+  const at = k.arena.acquire(whole ? [...regions, whole] : regions);
+  if (!at) return null;
+  const [w, scr] = at;
+  if (whole && rowsKey) fillFrameRows(k, at[2], feat.scalar, count, n0, rowsKey);
+  const contributions = new Float64Array(count);
+  k.module.f64(scr + sumsAt, species * n0).fill(0);
+  for (let e0 = 0; e0 < count; e0 += chunk) {
+    const e1 = Math.min(count, e0 + chunk);
+    const rows = whole ? at[2] + 8 * e0 * n0 : scr + rowsAt;
+    if (!whole) k.module.f64(rows, (e1 - e0) * n0).set(feat.scalar.subarray(e0 * n0, e1 * n0));
+    new Int32Array(k.module.f64(scr, 0).buffer, scr + speciesAt, e1 - e0).set(feat.centreSpecies.subarray(e0, e1));
+    k.linearRows(rows, e1 - e0, n0, scr + speciesAt, w, scr + outAt, scr + sumsAt);
+    contributions.set(k.module.f64(scr + outAt, e1 - e0), e0);
+  }
+  return { contributions, sums: k.module.f64(scr + sumsAt, species * n0).slice() };
 }
 
 /**

@@ -15,6 +15,7 @@ import {
   kernelPower,
   kernelWeights,
   linearDesignRows,
+  linearScalarPass,
   localContributions,
   scalarDot,
   structureKernel,
@@ -379,7 +380,7 @@ class PoolBuilder {
 
 /**
  * What the first training pass computes of every frame, and with which settings (plain data: it may go to a
- * worker thread, FramePassRunner).
+ * worker thread, TrainingThreads).
  */
 export interface FramePassSpec {
   features: FeatureSettings;
@@ -412,7 +413,7 @@ export interface FrameSummary {
   domain: DomainFrame | null;
 }
 
-/** Frames for a FramePassRunner: their index in the training set and the environments the sample keeps of each. */
+/** Frames for a TrainingThreads: their index in the training set and the environments the sample keeps of each. */
 export interface FramePassBatch {
   spec: FramePassSpec;
   frames: Frame[];
@@ -421,20 +422,23 @@ export interface FramePassBatch {
 }
 
 /**
- * Runs batches of the first training pass elsewhere (worker threads: app/training-threads.ts), each batch
- * through frameSummaries; the numbers are those of this thread, bit for bit.
+ * Worker threads for a training (app/training-threads.ts): batches of the first pass, each through
+ * frameSummaries, and a linear model's applicability (sampledApplicability) beside the fit; the numbers are
+ * those of this thread, bit for bit.
  */
-export interface FramePassRunner {
+export interface TrainingThreads {
   /** Batches run at once. */
   threads: number;
-  /** Fewer atoms than this in the training set: the pass stays in the calling thread (default PARALLEL_MIN_ATOMS). */
+  /** Fewer atoms than this in the training set: everything stays in the calling thread (default PARALLEL_MIN_ATOMS). */
   minAtoms?: number;
-  run(batch: FramePassBatch, signal?: AbortSignal): Promise<FrameSummary[]>;
+  frames(batch: FramePassBatch, signal?: AbortSignal): Promise<FrameSummary[]>;
+  /** When present, a linear model's applicability is computed there while this thread fits. */
+  applicability?(input: ApplicabilityInput, signal?: AbortSignal): Promise<Model['applicability']>;
 }
 
-/** Training hooks: progress and cancel (WorkHooks), and worker threads for the features of the frames. */
+/** Training hooks: progress and cancel (WorkHooks), and worker threads (TrainingThreads). */
 export interface TrainHooks extends WorkHooks {
-  frames?: FramePassRunner;
+  threads?: TrainingThreads;
 }
 
 /** The centre species index of each environment of a frame, as computeFeatures numbers them (centres in atom order). */
@@ -474,7 +478,7 @@ export function summariseFrame(frame: Frame, fe: EnvironmentFeatures, pairs: Nei
 }
 
 /**
- * The first training pass over a batch of frames with the model's own features (what a FramePassRunner's worker
+ * The first training pass over a batch of frames with the model's own features (what a TrainingThreads's worker
  * runs): per frame, the neighbour list, the features and summariseFrame, as trainWithFeaturiser does in its own thread.
  */
 export function frameSummaries(batch: FramePassBatch, signal?: AbortSignal): FrameSummary[] {
@@ -494,10 +498,11 @@ export function frameSummaries(batch: FramePassBatch, signal?: AbortSignal): Fra
 }
 
 /**
- * Below this many atoms the first pass stays in the calling thread: starting a worker thread (about 0.3–1 s to
- * load the code, measured here) costs more than the features of a few thousand environments.
+ * Below this many atoms a training stays in the calling thread: a worker thread's start-up (0.3–1 s to load the
+ * code, measured here) against about 80 µs of first-pass work per atom (200 frames × 384 atoms at default settings,
+ * measured) pays on two threads only from about 25,000 atoms.
  */
-const PARALLEL_MIN_ATOMS = 6000;
+const PARALLEL_MIN_ATOMS = 25_000;
 
 function atomsIn(frames: Frame[]): number {
   let n = 0;
@@ -506,11 +511,11 @@ function atomsIn(frames: Frame[]): number {
 }
 
 /**
- * The first pass on a FramePassRunner: batches of frames go out, at most two per thread at once (bounded memory
+ * The first pass on a TrainingThreads: batches of frames go out, at most two per thread at once (bounded memory
  * for any number of frames), and come back in frame order to `merge`, with progress after each frame.
  */
 async function runFramePass(
-  runner: FramePassRunner,
+  runner: TrainingThreads,
   spec: FramePassSpec,
   frames: Frame[],
   plans: { keep: Int32Array; slot: Int32Array }[],
@@ -527,7 +532,7 @@ async function runFramePass(
   const launch = () => {
     const a = next++ * size;
     const indices = Array.from({ length: Math.min(n, a + size) - a }, (_, j) => a + j);
-    const p = runner.run({ spec, frames: indices.map((f) => frames[f]), indices, keep: indices.map((f) => plans[f].keep) }, hooks.signal);
+    const p = runner.frames({ spec, frames: indices.map((f) => frames[f]), indices, keep: indices.map((f) => plans[f].keep) }, hooks.signal);
     // awaited in order below; one that fails while an earlier one is awaited must not count as unhandled
     p.catch(() => undefined);
     inFlight.push(p);
@@ -543,6 +548,49 @@ async function runFramePass(
       merge(f, sum, plans[f]);
     });
   }
+}
+
+/** What a model's applicability is made from: the sampled training environments, the number of frames and of centre species. */
+export interface ApplicabilityInput {
+  pool: EnvironmentPool & { perSpecies: Int32Array[]; frame: Int32Array };
+  frames: number;
+  centres: number;
+}
+
+type Sample = ReturnType<typeof farthestPointSample>;
+
+/** A linear model's applicability: APPLICABILITY_POINTS representatives per species by farthest-point sampling, then applicabilityFrom. */
+export function sampledApplicability(input: ApplicabilityInput): Model['applicability'] {
+  const { pool } = input;
+  return applicabilityFrom(input, pool.perSpecies.map((cand) => farthestPointSample(pool.p, pool.n0, cand, APPLICABILITY_POINTS)));
+}
+
+/**
+ * The applicability of a model whose representatives are `samples` (per species): the threshold per species is the
+ * APPLICABILITY_QUANTILE quantile of the pool's distances to the nearest representative of another frame (one
+ * frame: other than itself; each environment's nearest representative from the sampling as a starting point).
+ */
+function applicabilityFrom(input: ApplicabilityInput, samples: Sample[]): Model['applicability'] {
+  const { pool: envPool, frames: nFrames, centres: nS } = input;
+  const n0 = envPool.n0;
+  const repIndex = Int32Array.from(samples.flatMap((r) => [...r.chosen]));
+  const perSpecies: number[] = new Array(nS).fill(0);
+  const dist = nearestOtherDistances(envPool, repIndex, nFrames >= 2 ? envPool.frame : undefined, anchorsOf(envPool.count, envPool.perSpecies, samples));
+  for (let s = 0; s < nS; s++) {
+    const ds: number[] = [];
+    for (const i of envPool.perSpecies[s]) if (Number.isFinite(dist[i])) ds.push(dist[i]);
+    perSpecies[s] = quantile(ds, APPLICABILITY_QUANTILE);
+  }
+  const p = new Float64Array(repIndex.length * n0);
+  repIndex.forEach((i, k) => p.set(envPool.p.subarray(i * n0, (i + 1) * n0), k * n0));
+  return {
+    n0,
+    species: Int32Array.from(repIndex, (i) => envPool.species[i]),
+    p,
+    threshold: Math.max(...perSpecies),
+    perSpecies,
+    rule: `the ${APPLICABILITY_QUANTILE} quantile of the training environments' distances to the nearest representative ${nFrames >= 2 ? 'of another frame' : 'other than itself'} (${repIndex.length} representatives)`,
+  };
 }
 
 function quantile(values: number[], q: number): number {
@@ -672,8 +720,8 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     pool.put(plan, sum.pool, sum.centreSpecies, f);
     hooks.onProgress?.({ stage: 'features', done: f + 1, total: nFrames });
   };
-  const runner = hooks.frames;
-  if (runner && runner.threads > 1 && featurise === null && !exact && atomsIn(frames) >= (runner.minAtoms ?? PARALLEL_MIN_ATOMS)) {
+  const runner = hooks.threads && hooks.threads.threads > 1 && atomsIn(frames) >= (hooks.threads.minAtoms ?? PARALLEL_MIN_ATOMS) ? hooks.threads : null;
+  if (runner && featurise === null && !exact) {
     // worker threads: the sample's draws depend only on the centre species, so they are made here first, in frame order
     const plans = frames.map((frame) => pool.plan(centreSpeciesOf(frame, centres)));
     await runFramePass(runner, passSpec, frames, plans, hooks, merge);
@@ -718,12 +766,13 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const composition = compositionNote(centres, Array.from({ length: nFrames }, (_, f) => Array.from(counts.subarray(f * nS, (f + 1) * nS))), settings.speciesSplit ? speciesSplitText(settings.speciesSplit) : null);
   if (composition && targets.shape === 'tensor') notes.push(composition);
 
-  // Representatives (FPS per species) for kernel parts and for applicability.
-  const samples = envPool.perSpecies.map((cand) => {
-    const m = linear ? (wantApplicability ? APPLICABILITY_POINTS : 0) : exact ? cand.length : settings.anchorEnvironments;
-    return farthestPointSample(envPool.p, n0, cand, m);
-  });
-  const repIndex = Int32Array.from(samples.flatMap((r) => [...r.chosen]));
+  // A linear model's applicability (its own sampling) needs nothing of the fit: on a worker thread, it runs beside it.
+  const applicabilityInput: ApplicabilityInput = { pool: envPool, frames: nFrames, centres: nS };
+  const applicabilityAside = linear && wantApplicability && runner?.applicability ? runner.applicability(applicabilityInput, hooks.signal) : null;
+  applicabilityAside?.catch(() => undefined); // awaited below; a failure while fitting must not count as unhandled
+  // Representatives (FPS per species) for kernel parts (and their applicability).
+  const samples = linear ? null : envPool.perSpecies.map((cand) => farthestPointSample(envPool.p, n0, cand, exact ? cand.length : settings.anchorEnvironments));
+  const repIndex = Int32Array.from((samples ?? []).flatMap((r) => [...r.chosen]));
 
   // Pass 2 for the sparse form: K_NM rows per frame and order.
   const parts: ModelPart[] = [];
@@ -869,24 +918,14 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const calibration = cv ? calibrate(fitted, cv, nFrames, hooks) : undefined;
   if (!calibration) notes.push(cv ? 'error bars not calibrated (the held-out errors were all zero)' : 'fewer than 3 frames: error bars not calibrated, predictions carry none');
 
-  // Applicability threshold from leave-self-out distances of the sampled training environments.
-  const applicability = { n0, species: new Int32Array(0), p: new Float64Array(0), threshold: 0, perSpecies: new Array(nS).fill(0), rule: '' };
+  // Applicability threshold from held-out distances of the sampled training environments.
+  let applicability: Model['applicability'] = { n0, species: new Int32Array(0), p: new Float64Array(0), threshold: 0, perSpecies: new Array(nS).fill(0), rule: '' };
   if (wantApplicability) {
     hooks.onProgress?.({ stage: 'applicability', done: 0, total: 1 });
     await yieldToLoop();
-    // held-out-frame distances (nearest representative of another frame); one frame: leave-self-out
-    // (each environment's nearest representative from the sampling, as a starting point: the same distances)
-    const dist = nearestOtherDistances(envPool, repIndex, nFrames >= 2 ? envPool.frame : undefined, anchorsOf(envPool.count, envPool.perSpecies, samples));
-    for (let s = 0; s < nS; s++) {
-      const ds: number[] = [];
-      for (const i of envPool.perSpecies[s]) if (Number.isFinite(dist[i])) ds.push(dist[i]);
-      applicability.perSpecies[s] = quantile(ds, APPLICABILITY_QUANTILE);
-    }
-    applicability.threshold = Math.max(...applicability.perSpecies);
-    applicability.species = Int32Array.from(repIndex, (i) => envPool.species[i]);
-    applicability.p = new Float64Array(repIndex.length * n0);
-    repIndex.forEach((i, k) => applicability.p.set(envPool.p.subarray(i * n0, (i + 1) * n0), k * n0));
-    applicability.rule = `the ${APPLICABILITY_QUANTILE} quantile of the training environments' distances to the nearest representative ${nFrames >= 2 ? 'of another frame' : 'other than itself'} (${repIndex.length} representatives)`;
+    if (applicabilityAside) applicability = await applicabilityAside;
+    else applicability = samples ? applicabilityFrom(applicabilityInput, samples) : sampledApplicability(applicabilityInput);
+    checkAbort(hooks);
   }
 
   if (settings.speciesSplit && hasIso && targets.shape === 'tensor' && nS >= 2) {
@@ -1125,11 +1164,19 @@ function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, r
   const local = new Float64Array(nAtoms * C);
   let variance = 0;
   let leverage = NaN;
+  // the key of this frame's λ=0 rows in the kernels' memory: copied there once for the linear part and the search
+  const rowsKey = {};
   for (const part of model.parts) {
     const w = 2 * part.order + 1;
     let contrib: Float64Array;
+    // a linear λ=0 part: its contributions and the per-species row sums its leverage needs, in one pass
+    let sums: Float64Array | undefined;
     if (readout && readout.order === part.order) contrib = readout.values;
-    else {
+    else if (part.order === 0 && part.form === 'linear' && part.n === fe.n0) {
+      const pass = linearScalarPass(fe, part.weights as Float64Array, model.centres.length, rowsKey);
+      contrib = pass.contributions;
+      sums = pass.sums;
+    } else {
       const v = blockView(fe, part.order);
       if (v.n !== part.n) throw new ModelError(`features of order λ=${part.order} have ${v.n} components but the model expects ${part.n}`);
       contrib = localContributions(fe, part.order, part.form === 'linear' ? { linear: part.weights as Float64Array } : { kernel: part.kernel as KernelExpansion });
@@ -1144,13 +1191,13 @@ function predictFromParts(model: Model, frame: Frame, fe: EnvironmentFeatures, r
       }
     }
     if (part.order === 0 && part.posterior) {
-      leverage = partLeverage(model, part, fe);
+      leverage = partLeverage(model, part, fe, sums);
       variance = part.posterior.noise * leverage;
     }
   }
   if (model.leverage?.posterior) leverage = partLeverage(model, model.leverage, fe);
   requireFinite(frame, total);
-  const applicability = applicabilityOf(model, frame, fe, pairs);
+  const applicability = applicabilityOf(model, frame, fe, pairs, rowsKey);
   applicability.variance = variance;
   return { irreducible: total, localIrreducible: local, components: C, applicability, uncertainty: uncertaintyOf(model, leverage, C) };
 }
@@ -1237,9 +1284,10 @@ function explicitPosterior(post: PartPosterior): Posterior {
 
 /**
  * Leverage of a frame against a part's training design: φᵀ(ΦᵀΦ + λI)⁻¹φ (its GP latent variance divided by the
- * noise variance), for the linear, sparse and exact forms.
+ * noise variance), for the linear, sparse and exact forms. `sums`: a linear part's per-species row sums
+ * (linearDesignRows(fe, 0, …)) when they are at hand already (linearScalarPass).
  */
-function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures): number {
+function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures, sums?: Float64Array): number {
   const post = { ...(part.posterior as PartPosterior), noise: 1 };
   const nS = model.centres.length;
   const counts = new Float64Array(nS);
@@ -1251,7 +1299,7 @@ function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures): n
     return out;
   };
   const explicit = explicitPosterior(post);
-  if (part.form === 'linear') return posteriorVariance(explicit, withCounts(linearDesignRows(fe, 0, nS)));
+  if (part.form === 'linear') return posteriorVariance(explicit, withCounts(sums ?? linearDesignRows(fe, 0, nS)));
   const k = part.kernel as KernelExpansion;
   if (post.nystrom) {
     const reps: Representatives = { order: 0, n0: k.n0, n: k.n0, width: 1, species: k.species, p: k.p, blocks: k.p };
@@ -1281,7 +1329,7 @@ function partLeverage(model: Model, part: ModelPart, fe: EnvironmentFeatures): n
  * model has their training ranges; models saved before them judge by the feature distance alone (any atom
  * beyond its species' threshold flags the frame, as they always did).
  */
-function applicabilityOf(model: Model, frame: Frame, fe: EnvironmentFeatures, pairs?: NeighbourList): Applicability {
+function applicabilityOf(model: Model, frame: Frame, fe: EnvironmentFeatures, pairs?: NeighbourList, rowsKey?: object): Applicability {
   const a = model.applicability;
   const nAtoms = frame.species.length;
   const atomDistance = new Float64Array(nAtoms);
@@ -1292,7 +1340,7 @@ function applicabilityOf(model: Model, frame: Frame, fe: EnvironmentFeatures, pa
   // bounded search, prepared once per model object when the job is large enough to repay it; bit-identical to
   // sparse.ts nearestDistance (nearest-search.ts)
   const nearest = new Float64Array(fe.count);
-  nearestAllOf(a, fe.scalar, fe.count, fe.centreSpecies, nearest);
+  nearestAllOf(a, fe.scalar, fe.count, fe.centreSpecies, nearest, rowsKey);
   for (let e = 0; e < fe.count; e++) {
     let best = nearest[e];
     if (!Number.isFinite(best)) best = 2;

@@ -5,15 +5,18 @@
 // centred rows, refined by a few steps of subspace iteration towards the leading principal directions), their
 // coordinates b = Qᵀ(p − μ) and residual norms ρ_p. For a query x with a = Qᵀ(x − μ) and residual norm ρ_x,
 //   |x − p|² = |a − b|² + |r_x − r_p|²  ≥  |a − b|² + (ρ_x − ρ_p)²     (Pythagoras, then the triangle inequality)
-// for any orthonormal Q, so a representative whose bound exceeds the best exact squared distance found so far
-// cannot be the nearest. Exact distances use the same summation (same features, same order, same checks) as
-// nearestDistance, so the minimum is bit-identical to the plain scan; the bound only decides what to skip, with
-// a margin far above its round-off. The prepared search is kept outside the stored model (a WeakMap keyed on the
-// representatives' owner object), so the saved model stays a plain structured-clone-friendly object.
+// for any orthonormal Q, so a representative whose bound exceeds a distance already found cannot be the nearest.
+// The representatives the bound leaves are screened: their squared distances summed with the features in the order
+// of decreasing spread (most are left after a fifth of them) against the smallest such sum so far, with a margin far
+// above the round-off of either summation order. The few left after that (usually one) get their exact distance,
+// summed as nearestDistance sums it (same features, same order), so the minimum is bit-identical to the plain
+// scan; the bound and the screening only decide what to skip (nearestOf). The prepared search is kept outside the
+// stored model (a WeakMap keyed on the representatives' owner object), so the saved model stays a plain
+// structured-clone-friendly object.
 
 import { nearestDistance } from './sparse.ts';
 import { residentName, type Region } from '../wasm/arena.ts';
-import { predictKernels, type PredictKernels } from '../wasm/prediction-kernels.ts';
+import { fillFrameRows, frameRowsRegion, predictKernels, type PredictKernels } from '../wasm/prediction-kernels.ts';
 
 /**
  * Basis size per species, chosen by measurement (bench/applicability.bench.ts: water-like frames, nmax 8, lmax 6,
@@ -57,6 +60,8 @@ export interface SpeciesSearch {
   coordsT: Float64Array;
   /** Each representative's residual norm |(I − QQᵀ)(p − μ)|. */
   residual: Float64Array;
+  /** The features in the order the screening sums them (screeningOrder). */
+  order: Int32Array;
 }
 
 /** A prepared search over all species of one set of representatives. */
@@ -66,11 +71,14 @@ export interface NearestSearch {
   species: Map<number, SpeciesSearch>;
 }
 
-/** Statistics of the searches made (for the benchmark): queries and exact distance evaluations. */
+/** Statistics of the searches made (for the benchmark and the tests). */
 export interface SearchCounter {
   queries: number;
+  /** Representatives whose bound did not rule them out, summed in the screening order (most left early). */
+  screened: number;
+  /** Full distances summed in feature order (the candidates left after screening; usually one per query). */
   exact: number;
-  /** Feature differences summed in those evaluations (the partial-sum exit stops most of them early). */
+  /** Feature differences summed in both. */
   summed: number;
 }
 
@@ -209,7 +217,7 @@ function prepareSpeciesJs(reps: Float64Array, rows: Int32Array, n0: number, maxB
     }
     residual[k] = Math.sqrt(dotRows(r, 0, r, 0, n0));
   }
-  return { rows, d, mean, basis, coordsT, residual };
+  return { rows, d, mean, basis, coordsT, residual, order: screeningOrder(reps, rows, mean, n0) };
 }
 
 /** Prepares the search over representatives `reps` (rows of n0) with species `repSpecies`. */
@@ -264,16 +272,17 @@ const plainQueries = new WeakMap<object, number>();
  * searchNearestAll over the representatives of `owner`: with its prepared search (cachedNearestSearch) once the
  * owner has answered plainQueriesBeforePreparing() queries (or was prepared already), before that by the plain
  * scan (sparse.ts nearestDistance, or its WebAssembly kernel), whose numbers the search reproduces bit for bit.
+ * `rowsKey` as for searchNearestAll.
  */
-export function nearestAllOf(owner: { n0: number; species: Int32Array; p: Float64Array }, a: Float64Array, count: number, species: Int32Array, out: Float64Array): void {
+export function nearestAllOf(owner: { n0: number; species: Int32Array; p: Float64Array }, a: Float64Array, count: number, species: Int32Array, out: Float64Array, rowsKey?: object): void {
   const asked = plainQueries.get(owner) ?? 0;
   const prepared = cache.get(owner);
   if (asked + count > plainQueriesBeforePreparing() || (prepared && prepared.reps === owner.p && prepared.n0 === owner.n0)) {
-    searchNearestAll(cachedNearestSearch(owner), a, count, species, out);
+    searchNearestAll(cachedNearestSearch(owner), a, count, species, out, undefined, rowsKey);
     return;
   }
   plainQueries.set(owner, asked + count);
-  if (wasmScanAll(owner, a, count, species, out)) return;
+  if (wasmScanAll(owner, a, count, species, out, rowsKey)) return;
   for (let e = 0; e < count; e++) out[e] = nearestDistance(a, e, owner.p, owner.species, species[e], owner.n0);
 }
 
@@ -283,10 +292,9 @@ let scratchCoords = new Float64Array(0);
 let scratchCentred = new Float64Array(0);
 const scratchNorms = new Float64Array(4);
 const scratchRows = new Int32Array(4);
-const scratchFirst = new Int32Array(4);
-const scratchFirstBound = new Float64Array(4);
-const scratchGroup = new Int32Array(4);
-const scratchSums = new Float64Array(4);
+let scratchOrdered = new Float64Array(0);
+let scratchKept = new Int32Array(0);
+let scratchKeptSum = new Float64Array(0);
 
 /**
  * For the query rows rowsOf[0…count) of `a` (count ≤ 4): the centred rows x − μ, their squared norms xx[g] and
@@ -351,54 +359,128 @@ function project(sp: SpeciesSearch, n0: number, a: Float64Array, rowsOf: Int32Ar
 }
 
 /**
- * Squared distances from the query row (offset oa in a) to four representative rows (offsets o0 … o3 in reps),
- * each summed feature by feature in order exactly as nearestDistance does, with the same check every 16 features:
- * stop once all four partial sums reach `best` (a stopped sum is then ≥ best and cannot win). Writes the four sums
- * to `out`; returns the number of feature differences summed (for the counter).
+ * Σ (x_f − r_f)² of the query `x` and the row at offset `o` of `rows`, both with their features in a species'
+ * screening order, in any summation order (four partial sums), checked after every 16 features: the sum so far
+ * as soon as it exceeds `limit` (the representative is then ruled out), else the full sum. Adds the features
+ * summed to counter.summed.
  */
-function sumFour(a: Float64Array, oa: number, reps: Float64Array, o0: number, o1: number, o2: number, o3: number, n0: number, best: number, out: Float64Array): number {
+function screen(x: Float64Array, rows: Float64Array, o: number, n0: number, limit: number, counter?: SearchCounter): number {
   let s0 = 0;
   let s1 = 0;
   let s2 = 0;
   let s3 = 0;
   let f = 0;
-  while (f < n0 && (s0 < best || s1 < best || s2 < best || s3 < best)) {
-    const end = Math.min(n0, f + 16);
-    for (; f < end; f++) {
-      const x = a[oa + f];
-      const d0 = x - reps[o0 + f];
-      const d1 = x - reps[o1 + f];
-      const d2 = x - reps[o2 + f];
-      const d3 = x - reps[o3 + f];
+  for (; f + 15 < n0; f += 16) {
+    for (let g = f; g < f + 16; g += 4) {
+      const d0 = x[g] - rows[o + g];
+      const d1 = x[g + 1] - rows[o + g + 1];
+      const d2 = x[g + 2] - rows[o + g + 2];
+      const d3 = x[g + 3] - rows[o + g + 3];
       s0 += d0 * d0;
       s1 += d1 * d1;
       s2 += d2 * d2;
       s3 += d3 * d3;
     }
+    const s = s0 + s1 + (s2 + s3);
+    if (s > limit) {
+      if (counter) counter.summed += f + 16;
+      return s;
+    }
   }
-  out[0] = s0;
-  out[1] = s1;
-  out[2] = s2;
-  out[3] = s3;
-  return f;
+  let s = s0 + s1 + (s2 + s3);
+  for (; f < n0; f++) {
+    const d = x[f] - rows[o + f];
+    s += d * d;
+  }
+  if (counter) counter.summed += n0;
+  return s;
+}
+
+/**
+ * The full squared distance from the query row (offset oa in a) to the representative row (offset o in reps),
+ * summed feature by feature from zero as nearestDistance sums a distance it does not leave early: the same bits.
+ */
+function exactDistance(a: Float64Array, oa: number, reps: Float64Array, o: number, n0: number): number {
+  let s = 0;
+  for (let f = 0; f < n0; f++) {
+    const d = a[oa + f] - reps[o + f];
+    s += d * d;
+  }
+  return s;
+}
+
+/** Each species' representatives with their features in its screening order (rows of n0), made on first use. */
+const orderedRows = new WeakMap<SpeciesSearch, Float64Array>();
+
+function orderedOf(search: NearestSearch, sp: SpeciesSearch): Float64Array {
+  let rows = orderedRows.get(sp);
+  if (!rows) {
+    rows = new Float64Array(sp.rows.length * search.n0);
+    fillOrdered(search.reps, sp, search.n0, rows);
+    orderedRows.set(sp, rows);
+  }
+  return rows;
+}
+
+/** Writes the representatives of `sp`, features in its screening order, into `out` (rows of n0). */
+function fillOrdered(reps: Float64Array, sp: SpeciesSearch, n0: number, out: Float64Array): void {
+  const { rows, order } = sp;
+  for (let k = 0; k < rows.length; k++) {
+    const from = rows[k] * n0;
+    const to = k * n0;
+    for (let i = 0; i < n0; i++) out[to + i] = reps[from + order[i]];
+  }
+}
+
+/**
+ * The features of a species in the order its screening sums them: by decreasing spread (variance about the mean)
+ * over its representatives, ties by index, so that a sum that is going to pass a limit passes it early. The order
+ * decides only how soon a representative is ruled out, never a number kept.
+ */
+function screeningOrder(reps: Float64Array, rows: Int32Array, mean: Float64Array, n0: number): Int32Array {
+  const spread = new Float64Array(n0);
+  for (let k = 0; k < rows.length; k++) {
+    const o = rows[k] * n0;
+    for (let f = 0; f < n0; f++) {
+      const v = reps[o + f] - mean[f];
+      spread[f] += v * v;
+    }
+  }
+  return Int32Array.from({ length: n0 }, (_, f) => f).sort((x, y) => spread[y] - spread[x] || x - y);
+}
+
+/** The margin a screened sum or a bound must pass to rule a representative out, given the smallest sum t so far. */
+function limitOf(t: number): number {
+  return t + MARGIN_RELATIVE * t + MARGIN_ABSOLUTE;
 }
 
 /**
  * The exact nearest distance of the query row at offset oa of `a`, given its coordinates q[qo…qo+d) and its
- * squared centred norm xx (from project).
+ * squared centred norm xx (from project). Three steps, the same in the kernel (assembly/prediction-kernels.ts
+ * candidates and searchSpecies):
+ *   1. the lower bound of every representative (see the top of this file);
+ *   2. screening: the representative of the smallest bound, then every one its bound does not rule out, summed in
+ *      the species' screening order (screen), each against the smallest screened sum t so far, and left as soon
+ *      as its sum passes t's margin. A screened sum and the exact one are sums of the very same terms (x_f − p_f)²
+ *      in two orders; each is within n0·ε (≈ 1e-13) relative of the true sum, so a sum that passes t by the margin
+ *      (1e-8 relative) belongs to a representative strictly farther than the one t came from, which is never
+ *      the nearest, nor tied with it;
+ *   3. the exact distance, in feature order as nearestDistance sums it, of every screened representative whose sum
+ *      is within t's margin (usually one): their smallest is the minimum of the plain scan, bit for bit.
+ * A NaN bound or sum rules nothing out (its exact distance, NaN, never wins, as in the plain scan).
  */
 function nearestOf(search: NearestSearch, sp: SpeciesSearch, a: Float64Array, oa: number, q: Float64Array, qo: number, xx: number, counter?: SearchCounter): number {
   const { n0, reps } = search;
-  const { rows, d, coordsT, residual } = sp;
+  const { rows, d, coordsT, residual, order } = sp;
   const m = rows.length;
   const bound = scratchBound;
   let qq = 0;
   for (let j = 0; j < d; j++) qq += q[qo + j] * q[qo + j];
   // ρ_x lies in [lo, hi]: the residual from |x − μ|² − |a|², widened for the cancellation in that difference
-  const t = xx - qq;
+  const t0 = xx - qq;
   const allowance = RHO_ALLOWANCE * xx;
-  const lo = Math.sqrt(Math.max(0, t - allowance));
-  const hi = Math.sqrt(Math.max(0, t + allowance));
+  const lo = Math.sqrt(Math.max(0, t0 - allowance));
+  const hi = Math.sqrt(Math.max(0, t0 + allowance));
   // bounds for all representatives, four basis directions per pass (again free summation order)
   for (let k = 0; k < m; k++) {
     const rk = residual[k];
@@ -422,54 +504,52 @@ function nearestOf(search: NearestSearch, sp: SpeciesSearch, a: Float64Array, oa
       bound[k] += g * g;
     }
   }
-  // Exact distances, four representatives at a time: each keeps its own sum in the same feature order as
-  // nearestDistance (so a winning value is bit-identical), and four independent sums do not stall on add latency.
-  // First the four smallest bounds (usually holding the winner), then every representative not ruled out.
-  const first = scratchFirst;
-  first.fill(-1);
-  const firstBound = scratchFirstBound;
-  firstBound.fill(Infinity);
+  let first = -1;
+  let smallest = Infinity;
   for (let k = 0; k < m; k++) {
-    const b = bound[k];
-    if (!(b < firstBound[3])) continue;
-    let g = 3;
-    while (g > 0 && b < firstBound[g - 1]) {
-      firstBound[g] = firstBound[g - 1];
-      first[g] = first[g - 1];
-      g--;
+    if (bound[k] < smallest) {
+      smallest = bound[k];
+      first = k;
     }
-    firstBound[g] = b;
-    first[g] = k;
   }
-  const group = scratchGroup;
-  const sums = scratchSums;
-  let filled = 0;
-  while (filled < 4 && first[filled] >= 0) {
-    group[filled] = first[filled];
-    filled++;
+  // the query in the screening order
+  const x = scratchOrdered;
+  for (let i = 0; i < n0; i++) x[i] = a[oa + order[i]];
+  const ordered = orderedOf(search, sp);
+  const kept = scratchKept;
+  const keptSum = scratchKeptSum;
+  let nk = 0;
+  let t = Infinity;
+  if (first >= 0) {
+    t = screen(x, ordered, first * n0, n0, Infinity, counter);
+    kept[0] = first;
+    keptSum[0] = t;
+    nk = 1;
   }
+  for (let k = 0; k < m; k++) {
+    const limit = limitOf(t);
+    if (k === first || bound[k] > limit) continue;
+    const s = screen(x, ordered, k * n0, n0, limit, counter);
+    if (s > limit) continue;
+    kept[nk] = k;
+    keptSum[nk] = s;
+    nk++;
+    // the smallest screened sum (a NaN one, from a representative with NaN features, is passed over)
+    if (s < t || (Number.isNaN(t) && !Number.isNaN(s))) t = s;
+  }
+  const limit = limitOf(t);
   let best = Infinity;
   let exact = 0;
-  let summed = 0;
-  let next = 0;
-  while (filled > 0) {
-    for (let g = filled; g < 4; g++) group[g] = group[0]; // a short group repeats a member (harmless)
-    exact += filled;
-    summed += sumFour(a, oa, reps, rows[group[0]] * n0, rows[group[1]] * n0, rows[group[2]] * n0, rows[group[3]] * n0, n0, best, sums);
-    for (let g = 0; g < 4; g++) if (sums[g] < best) best = sums[g];
-    // refill from the representatives not yet visited whose bound does not rule them out: skipped only when the
-    // bound beats the best by a margin far above round-off (a NaN bound is never skipped)
-    filled = 0;
-    while (filled < 4 && next < m) {
-      const k = next++;
-      if (k === first[0] || k === first[1] || k === first[2] || k === first[3]) continue;
-      if (bound[k] - MARGIN_RELATIVE * best - MARGIN_ABSOLUTE > best) continue;
-      group[filled++] = k;
-    }
+  for (let i = 0; i < nk; i++) {
+    if (keptSum[i] > limit) continue;
+    exact++;
+    const s = exactDistance(a, oa, reps, rows[kept[i]] * n0, n0);
+    if (s < best) best = s;
   }
   if (counter) {
+    counter.screened += nk;
     counter.exact += exact;
-    counter.summed += summed;
+    counter.summed += exact * n0;
   }
   return Math.sqrt(best);
 }
@@ -490,11 +570,12 @@ export function searchNearest(search: NearestSearch, a: Float64Array, i: number,
 
 /**
  * searchNearest for every row e < count of `a`, whose species is species[e], into out[e]: the same numbers, with
- * the coordinates of four queries of one species computed in one pass (project).
+ * the coordinates of four queries of one species computed in one pass (project). `rowsKey`: the key of the rows'
+ * copy in the kernel's memory (prediction-kernels.ts fillFrameRows), shared with other callers of one frame.
  */
-export function searchNearestAll(search: NearestSearch, a: Float64Array, count: number, species: Int32Array, out: Float64Array, counter?: SearchCounter): void {
+export function searchNearestAll(search: NearestSearch, a: Float64Array, count: number, species: Int32Array, out: Float64Array, counter?: SearchCounter, rowsKey?: object): void {
   const k = predictKernels();
-  if (k && wasmSearchAll(k, search, a, count, species, out, counter)) return;
+  if (k && wasmSearchAll(k, search, a, count, species, out, counter, rowsKey)) return;
   const n0 = search.n0;
   for (let e = 0; e < count; e++) if (!search.species.has(species[e])) out[e] = Infinity;
   if (counter) counter.queries += count;
@@ -519,7 +600,12 @@ export function searchNearestAll(search: NearestSearch, a: Float64Array, count: 
 }
 
 function ensureScratch(search: NearestSearch, sp: SpeciesSearch): void {
-  if (scratchBound.length < sp.rows.length) scratchBound = new Float64Array(sp.rows.length);
+  if (scratchBound.length < sp.rows.length) {
+    scratchBound = new Float64Array(sp.rows.length);
+    scratchKept = new Int32Array(sp.rows.length);
+    scratchKeptSum = new Float64Array(sp.rows.length);
+  }
+  if (scratchOrdered.length < search.n0) scratchOrdered = new Float64Array(search.n0);
   if (scratchCoords.length < 4 * sp.d) scratchCoords = new Float64Array(4 * sp.d);
   if (scratchCentred.length < 4 * search.n0) scratchCentred = new Float64Array(4 * search.n0);
 }
@@ -622,8 +708,9 @@ function searchLayout(search: NearestSearch): SearchLayout {
   for (const [s, sp] of search.species) {
     const m = sp.rows.length;
     record.set(s, p);
-    // record, mean, basis (d × n0), coordinates (d × m), residual norms (m)
-    p += 32 + bytes16(8 * n0) + bytes16(8 * sp.d * n0) + bytes16(8 * sp.d * m) + bytes16(8 * m);
+    // record, mean, basis (d × n0), coordinates (d × m), residual norms (m), screening order (n0 i32), the
+    // representatives in that order (m × n0)
+    p += 48 + bytes16(8 * n0) + bytes16(8 * sp.d * n0) + bytes16(8 * sp.d * m) + bytes16(8 * m) + bytes16(4 * n0) + bytes16(8 * m * n0);
     maxRows = Math.max(maxRows, m);
     maxBasis = Math.max(maxBasis, sp.d);
   }
@@ -641,15 +728,19 @@ function writeSearch(k: PredictKernels, search: NearestSearch, at: number): void
     const m = sp.rows.length;
     const d = sp.d;
     const base = at + (record.get(s) as number);
-    const mean = base + 32;
+    const mean = base + 48;
     const basis = mean + bytes16(8 * n0);
     const coordsT = basis + bytes16(8 * d * n0);
     const residual = coordsT + bytes16(8 * d * m);
-    new Int32Array(buffer, base, 8).set([m, d, n0, 0, mean, basis, coordsT, residual]);
+    const order = residual + bytes16(8 * m);
+    const ordered = order + bytes16(4 * n0);
+    new Int32Array(buffer, base, 10).set([m, d, n0, 0, mean, basis, coordsT, residual, order, ordered]);
     k.module.f64(mean, n0).set(sp.mean);
     k.module.f64(basis, d * n0).set(sp.basis);
     k.module.f64(coordsT, d * m).set(sp.coordsT);
     k.module.f64(residual, m).set(sp.residual);
+    new Int32Array(buffer, order, n0).set(sp.order);
+    fillOrdered(search.reps, sp, n0, k.module.f64(ordered, m * n0));
   }
 }
 
@@ -657,11 +748,13 @@ function writeSearch(k: PredictKernels, search: NearestSearch, at: number): void
 const SEARCH_SCRATCH = {};
 
 /**
- * The queries of `a` (rows e < count, species species[e]) through a WebAssembly kernel, QUERY_CHUNK rows copied
- * into the kernel's memory at a time: for each species present, `run(s, rowsAt, idxAt, nq, outAt)` answers the
- * rows idx[0…nq) of the chunk at rowsAt into outAt; a species the representatives lack gets Infinity. `regions`
- * are the resident regions the kernel reads; the scratch (queries, indices, distances and `extra` bytes before
- * them) is added here. False when the kernel's memory cannot hold them.
+ * The queries of `a` (rows e < count, species species[e]) through a WebAssembly kernel: the rows held whole in the
+ * kernel's memory under `rowsKey` (frameRowsRegion, fillFrameRows: copied once per frame for every caller with that key) when it
+ * is given and they fit, else QUERY_CHUNK rows copied into the scratch at a time. For each species present and
+ * each chunk of QUERY_CHUNK rows, `run(s, rowsAt, idxAt, nq, outAt)` answers the rows idx[0…nq) of the chunk at
+ * rowsAt into outAt; a species the representatives lack gets Infinity. `regions` are the resident regions the
+ * kernel reads; the scratch (queries, indices, distances and `extra` bytes before them) is added here. False when
+ * the kernel's memory cannot hold them.
  */
 function wasmQueries(
   k: PredictKernels,
@@ -674,25 +767,30 @@ function wasmQueries(
   regions: Region[],
   extra: number,
   run: (at: number[], scr: number, s: number, rowsAt: number, idxAt: number, nq: number, outAt: number) => void,
+  rowsKey?: object,
 ): boolean {
+  const whole = rowsKey ? frameRowsRegion(count, n0) : null;
   const rows = bytes16(extra);
-  const idx = rows + 8 * QUERY_CHUNK * n0;
+  const idx = rows + (whole ? 0 : 8 * QUERY_CHUNK * n0);
   const dist = idx + 4 * QUERY_CHUNK;
-  const at = k.arena.acquire([...regions, { name: 'search-scratch', key: SEARCH_SCRATCH, bytes: dist + 8 * QUERY_CHUNK }]);
+  const scratch: Region = { name: 'search-scratch', key: SEARCH_SCRATCH, bytes: dist + 8 * QUERY_CHUNK };
+  const at = k.arena.acquire(whole ? [...regions, whole, scratch] : [...regions, scratch]);
   if (!at) return false;
   const scr = at[at.length - 1];
-  const rowsView = k.module.f64(scr + rows, QUERY_CHUNK * n0);
-  const idxView = new Int32Array(rowsView.buffer, scr + idx, QUERY_CHUNK);
+  const held = whole ? at[at.length - 2] : -1;
+  if (whole && rowsKey) fillFrameRows(k, held, a, count, n0, rowsKey);
+  const idxView = new Int32Array(k.module.f64(scr, 0).buffer, scr + idx, QUERY_CHUNK);
   const distView = k.module.f64(scr + dist, QUERY_CHUNK);
   for (let e0 = 0; e0 < count; e0 += QUERY_CHUNK) {
     const e1 = Math.min(count, e0 + QUERY_CHUNK);
-    rowsView.set(a.subarray(e0 * n0, e1 * n0));
+    if (!whole) k.module.f64(scr + rows, QUERY_CHUNK * n0).set(a.subarray(e0 * n0, e1 * n0));
+    const rowsAt = whole ? held + 8 * e0 * n0 : scr + rows;
     for (let e = e0; e < e1; e++) if (!known.has(species[e])) out[e] = Infinity;
     for (const s of known.keys()) {
       let nq = 0;
       for (let e = e0; e < e1; e++) if (species[e] === s) idxView[nq++] = e - e0;
       if (nq === 0) continue;
-      run(at, scr, s, scr + rows, scr + idx, nq, scr + dist);
+      run(at, scr, s, rowsAt, scr + idx, nq, scr + dist);
       for (let j = 0; j < nq; j++) out[e0 + idxView[j]] = distView[j];
     }
   }
@@ -703,17 +801,23 @@ function wasmQueries(
  * searchNearestAll through the WebAssembly kernel (assembly/prediction-kernels.ts searchSpecies: the same numbers
  * bit for bit): the representatives and the prepared bases stay in the module's memory per set and search.
  */
-function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array, count: number, species: Int32Array, out: Float64Array, counter?: SearchCounter): boolean {
+function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array, count: number, species: Int32Array, out: Float64Array, counter?: SearchCounter, rowsKey?: object): boolean {
   const n0 = search.n0;
   const layout = searchLayout(search);
   const reps = repsLayout(search.reps, n0, search, () => new Map([...search.species].map(([s, sp]) => [s, sp.rows])));
   if (!reps) return false;
-  // scratch record (5 addresses), bound, centred queries, coordinates, squared norms, statistics
-  const bound = 32;
-  const xc = bound + bytes16(8 * layout.maxRows);
+  // scratch record (9 addresses), bound, centred queries, coordinates, squared norms, statistics (3), the query in
+  // screening order, the kept records, the pending pairs and their sums (assembly searchSpecies)
+  const m = layout.maxRows;
+  const bound = 48;
+  const xc = bound + bytes16(8 * m);
   const q = xc + 8 * 4 * n0;
   const xx = q + bytes16(8 * 4 * layout.maxBasis);
   const stats = xx + 32;
+  const xp = stats + 32;
+  const kept = xp + bytes16(8 * n0);
+  const pending = kept + 16 * m;
+  const pendingSums = pending + 8 * 4 * m;
   let statsView: Float64Array | null = null;
   const ok = wasmQueries(
     k,
@@ -724,22 +828,24 @@ function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array
     out,
     search.species,
     [repsRegion(search.reps, n0, reps), { name: residentName('search', search), key: search, bytes: layout.bytes, fill: (_m, at) => writeSearch(k, search, at) }],
-    stats + 16,
+    pendingSums + bytes16(8 * (4 * m + 3)),
     ([repsAt, searchAt], scr, s, rowsAt, idxAt, nq, outAt) => {
       if (!statsView) {
-        new Int32Array(k.module.f64(scr, 0).buffer, scr, 5).set([scr + bound, scr + xc, scr + q, scr + xx, scr + stats]);
-        statsView = k.module.f64(scr + stats, 2);
+        new Int32Array(k.module.f64(scr, 0).buffer, scr, 9).set([bound, xc, q, xx, stats, xp, kept, pending, pendingSums].map((o) => scr + o));
+        statsView = k.module.f64(scr + stats, 3);
         statsView.fill(0);
       }
       const rowsOf = reps.species.get(s) as { offset: number };
       k.searchSpecies(searchAt + (layout.record.get(s) as number), repsAt + rowsOf.offset, scr, rowsAt, idxAt, nq, outAt);
     },
+    rowsKey,
   );
   if (ok && counter) {
     const st = statsView as Float64Array | null;
     counter.queries += count;
-    counter.exact += st ? st[0] : 0;
-    counter.summed += st ? st[1] : 0;
+    counter.screened += st ? st[0] : 0;
+    counter.exact += st ? st[1] : 0;
+    counter.summed += st ? st[2] : 0;
   }
   return ok;
 }
@@ -749,7 +855,7 @@ function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array
  * (assembly scanSpecies, the same numbers bit for bit), with the representatives resident; false when the kernels
  * are off or cannot hold them.
  */
-function wasmScanAll(owner: { n0: number; species: Int32Array; p: Float64Array }, a: Float64Array, count: number, species: Int32Array, out: Float64Array): boolean {
+function wasmScanAll(owner: { n0: number; species: Int32Array; p: Float64Array }, a: Float64Array, count: number, species: Int32Array, out: Float64Array, rowsKey?: object): boolean {
   const k = predictKernels();
   if (!k) return false;
   const n0 = owner.n0;
@@ -758,7 +864,7 @@ function wasmScanAll(owner: { n0: number; species: Int32Array; p: Float64Array }
   return wasmQueries(k, n0, a, count, species, out, reps.species, [repsRegion(owner.p, n0, reps)], 0, ([repsAt], _scr, s, rowsAt, idxAt, nq, outAt) => {
     const { rows, offset } = reps.species.get(s) as { rows: Int32Array; offset: number };
     k.scanSpecies(repsAt + offset, rows.length, n0, rowsAt, idxAt, nq, outAt);
-  });
+  }, rowsKey);
 }
 
 /** Scratch of the preparation kernel: the record of its nine arrays' addresses, then the arrays (byte offsets). */
@@ -801,7 +907,8 @@ function wasmPrepare(k: PredictKernels, reps: Float64Array, repSpecies: Int32Arr
     const d = k.prepareSpecies(repsAt + offset, m, n0, limit, steps, scr);
     // fresh views after the call (a reservation may have grown the memory); copies, not views, are kept
     const read = (slot: number, length: number) => k.module.f64(scr + offsets[slot], length).slice();
-    species.set(s, { rows, d, mean: read(0, n0), basis: read(4, d * n0), coordsT: read(7, d * m), residual: read(8, m) });
+    const mean = read(0, n0);
+    species.set(s, { rows, d, mean, basis: read(4, d * n0), coordsT: read(7, d * m), residual: read(8, m), order: screeningOrder(reps, rows, mean, n0) });
   }
   return species;
 }

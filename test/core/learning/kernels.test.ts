@@ -1,5 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { environmentKernel, linearDesignRows, localContributions, structureKernel } from '../../../src-main/core/learning/kernels.ts';
+import { environmentKernel, linearDesignRows, linearScalarPass, localContributions, structureKernel } from '../../../src-main/core/learning/kernels.ts';
+import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
+import { predictKernels } from '../../../src-main/core/wasm/prediction-kernels.ts';
 import { foldCoefficients, type Representatives } from '../../../src-main/core/learning/sparse.ts';
 import { makeRng, syntheticFeatures } from '../../helpers/synthetic-features.ts';
 import { referenceLinearContributions, referenceLinearDesignRows } from '../../helpers/reference-kernels.ts';
@@ -91,6 +93,30 @@ describe('environment and structure kernels', () => {
           const weights = Float64Array.from({ length: 3 * n }, () => r.normal());
           expect(same(localContributions(fe, order, { linear: weights }), referenceLinearContributions(data, count, width, n, fe.centreSpecies, weights))).toBe(true);
         }
+      }
+    }
+  });
+
+  it('the one-pass linear λ=0 part (linearScalarPass) gives the numbers of localContributions and linearDesignRows bit for bit, kernels on and off', () => {
+    expect(predictKernels()).not.toBeNull();
+    const r = makeRng(78);
+    const same = (x: Float64Array, y: Float64Array) => x.length === y.length && x.every((v, i) => Object.is(v, y[i]));
+    // odd and even counts, more rows than one kernel call takes (256), n0 odd and even, a species absent, runs of one
+    // species, signed zeros in the rows (0 + (−0) is +0: the sums must start from zero as the loops do)
+    for (const count of [1, 2, 5, 257, 600]) {
+      for (const n0 of [1, 6, 13]) {
+        const centreSpecies = Array.from({ length: count }, (_, e) => (e % 11 < 6 ? 0 : e % 3 === 0 ? 2 : 0));
+        const fe = syntheticFeatures(r, { count, n0, species: 3, centreSpecies });
+        for (let i = 0; i < fe.scalar.length; i += 17) fe.scalar[i] = -0;
+        const weights = Float64Array.from({ length: 3 * n0 + 3 }, () => r.normal());
+        const want = { contributions: localContributions(fe, 0, { linear: weights }), sums: linearDesignRows(fe, 0, 3) };
+        for (const kernels of [true, false]) {
+          setWebAssemblyKernels(kernels);
+          const got = linearScalarPass(fe, weights, 3);
+          expect(same(got.contributions, want.contributions)).toBe(true);
+          expect(same(got.sums, want.sums)).toBe(true);
+        }
+        setWebAssemblyKernels(true);
       }
     }
   });

@@ -2,13 +2,21 @@
 // (sparse.ts nearestDistance), one query at a time and batched (searchNearestAll): the distances must be the very
 // same numbers (toBe), on random, clustered and degenerate sets of unit-norm rows. The plain scan is the reference; no outside values are involved.
 // The batched entry runs twice: through the WebAssembly kernel (core/wasm/prediction-kernels.ts) and its
-// JavaScript path (kernels switched off); both must give the plain scan's numbers.
+// JavaScript path (kernels switched off); both must give the plain scan's numbers. Beside the invented rows: the
+// real DFT water frames of test/fixtures (water-dft-sample.extxyz, from /work/shared/data) featurised at the default
+// settings, and adversarial sets where the bounds are tight or tied and distances tie exactly or to the last bit.
 import fc from 'fast-check';
 import { afterEach, describe, expect, it } from 'vitest';
 import { makeRng, type Rng } from '../../../src-main/core/numerics/random.ts';
 import { nearestDistance } from '../../../src-main/core/learning/sparse.ts';
 import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
 import { predictKernels } from '../../../src-main/core/wasm/prediction-kernels.ts';
+import { arenaRestarts, setArenaLimit } from '../../../src-main/core/wasm/arena.ts';
+import { linearScalarPass, linearDesignRows, localContributions } from '../../../src-main/core/learning/kernels.ts';
+import { computeFeatures } from '../../../src-main/core/descriptors/features.ts';
+import type { FeatureSettings } from '../../../src-main/core/descriptors/feature-types.ts';
+import { DEFAULT_SETTINGS } from '../../../src-main/core/settings-table.ts';
+import { jitteredTrajectory, waterFrames } from '../../helpers/trajectory.ts';
 import { cachedNearestSearch, nearestAllOf, plainQueriesBeforePreparing, prepareNearestSearch, searchNearest, searchNearestAll, SEARCH_BASIS, type SearchCounter } from '../../../src-main/core/learning/nearest-search.ts';
 
 /** Scales row k of `rows` (length n0) to unit norm (a zero row becomes the first unit vector). */
@@ -93,8 +101,188 @@ function expectSameAsPlain(c: Case, basis: number, steps: number): void {
   setWebAssemblyKernels(true);
 }
 
+/** Every query row (species `species[q]`) through searchNearestAll with the kernels on and off, against the plain scan. */
+function expectBatchSameAsPlain(reps: Float64Array, repSpecies: Int32Array, n0: number, queries: Float64Array, species: Int32Array, basis = SEARCH_BASIS): SearchCounter[] {
+  const search = prepareNearestSearch(reps, repSpecies, n0, { basis });
+  return [true, false].map((kernels) => {
+    setWebAssemblyKernels(kernels);
+    const out = new Float64Array(species.length).fill(-1);
+    const counter: SearchCounter = { queries: 0, screened: 0, exact: 0, summed: 0 };
+    searchNearestAll(search, queries, species.length, species, out, counter);
+    for (let q = 0; q < species.length; q++) {
+      const plain = nearestDistance(queries, q, reps, repSpecies, species[q], n0);
+      if (!Object.is(out[q], plain)) expect({ kernels, q, got: out[q] }).toEqual({ kernels, q, got: plain });
+    }
+    setWebAssemblyKernels(true);
+    return counter;
+  });
+}
+
 describe('bounded nearest-representative search', () => {
   afterEach(() => setWebAssemblyKernels(true));
+
+  it('gives the plain scan’s numbers on the real DFT water frames (default settings; jittered frames, exact copies and a squeezed frame as queries)', () => {
+    const s = DEFAULT_SETTINGS;
+    const fs: FeatureSettings = { cutoff: s.cutoffRadius, cutoffWidth: s.switchWidth, sigma: s.densityWidth, nmax: s.radialFunctions, lmax: s.angularOrder, species: ['O', 'H'], centres: ['O', 'H'] };
+    const features = (frames: ReturnType<typeof waterFrames>) => {
+      const all = frames.map((f) => computeFeatures(f, fs, []));
+      const n0 = all[0].n0;
+      const count = all.reduce((n, f) => n + f.count, 0);
+      const rows = new Float64Array(count * n0);
+      const species = new Int32Array(count);
+      let at = 0;
+      for (const f of all) {
+        rows.set(f.scalar.subarray(0, f.count * n0), at * n0);
+        species.set(f.centreSpecies.subarray(0, f.count), at);
+        at += f.count;
+      }
+      return { n0, rows, species, count };
+    };
+    const reps = features(waterFrames().slice(0, 6));
+    // queries: the two frames left out, the frames with every atom moved by 0.05 Å, every representative itself
+    // (distance 0, often among near-duplicates) and a frame squeezed by 10 % (far from everything)
+    const held = waterFrames().slice(6);
+    const squeezed = waterFrames().slice(0, 1).map((f) => ({ ...f, positions: f.positions.map((x) => 0.9 * x), cell: f.cell?.map((x) => 0.9 * x) ?? null }));
+    const q = features([...held, ...jitteredTrajectory(4, 0.05, 3), ...squeezed]);
+    const queries = new Float64Array((q.count + reps.count) * reps.n0);
+    queries.set(q.rows);
+    queries.set(reps.rows, q.rows.length);
+    const species = new Int32Array(q.count + reps.count);
+    species.set(q.species);
+    species.set(reps.species, q.count);
+    expect(reps.n0).toBe(q.n0);
+    for (const basis of [0, 4, SEARCH_BASIS]) {
+      const [wasm, js] = expectBatchSameAsPlain(reps.rows, reps.species, reps.n0, queries, species, basis);
+      expect(wasm.exact).toBe(js.exact);
+      expect(wasm.screened).toBe(js.screened);
+    }
+  });
+
+  it('gives the plain scan’s numbers where the bounds are tight or tied and distances tie exactly or differ in the last bits (adversarial)', () => {
+    const rng = makeRng(77);
+    for (const n0 of [5, 16, 37, 64]) {
+      const rank = Math.min(3, n0);
+      const m = 48;
+      const u = Array.from({ length: rank }, () => Float64Array.from({ length: n0 }, () => rng.normal()));
+      const centre = Float64Array.from({ length: n0 }, () => rng.normal());
+      const reps = new Float64Array(m * n0);
+      const queries = new Float64Array(m * n0);
+      const qSpecies = new Int32Array(m);
+      // 1. representatives in a 3-dimensional affine subspace (inside the basis: residual 0, bound = distance up to
+      //    round-off), placed in mirror pairs around a query (the same terms: an exact tie), pairs that differ by
+      //    one unit in the last place, and pairs whose distances differ by 1e-15 relative
+      for (let k = 0; k < m; k += 2) {
+        const c = u.map(() => rng.normal());
+        const eps = k % 6 === 0 ? 0 : k % 6 === 2 ? Number.EPSILON : 1e-15;
+        for (let f = 0; f < n0; f++) {
+          let v = 0;
+          for (let r = 0; r < rank; r++) v += c[r] * u[r][f];
+          reps[k * n0 + f] = centre[f] + v;
+          reps[(k + 1) * n0 + f] = centre[f] - v * (1 + eps);
+        }
+      }
+      for (let i = 0; i < m; i++) {
+        const kind = i % 4;
+        for (let f = 0; f < n0; f++) {
+          if (kind === 0) queries[i * n0 + f] = centre[f]; // the centre of every mirror pair: ties everywhere
+          else if (kind === 1) queries[i * n0 + f] = reps[i * n0 + f]; // a representative itself
+          else if (kind === 2) queries[i * n0 + f] = centre[f] + 1e-13 * rng.normal(); // next to the centre
+          else queries[i * n0 + f] = 0.5 * (reps[i * n0 + f] + reps[((i + 2) % m) * n0 + f]); // halfway between two
+        }
+      }
+      expectBatchSameAsPlain(reps, new Int32Array(m), n0, queries, qSpecies);
+      // 2. tied bounds, different distances: every representative has the same coordinates in the basis and the
+      //    same residual norm (one direction scaled, another turned), so every bound is the same number and only the
+      //    screening and the exact sums tell them apart; a few are closer by 1e-14 relative
+      const tied = new Float64Array(m * n0);
+      for (let k = 0; k < m; k++) {
+        for (let f = 0; f < n0; f++) tied[k * n0 + f] = centre[f];
+        const a = k % n0;
+        const b = (k + 1 + (k >> 3)) % n0;
+        const angle = (2 * Math.PI * k) / m;
+        const scale = k % 7 === 3 ? 1 - 1e-14 : 1;
+        tied[k * n0 + a] += scale * Math.cos(angle);
+        if (b !== a) tied[k * n0 + b] += scale * Math.sin(angle);
+      }
+      const near = new Float64Array(m * n0);
+      for (let i = 0; i < m; i++) for (let f = 0; f < n0; f++) near[i * n0 + f] = centre[f] + (i % 2 ? 0 : 1e-3 * rng.normal());
+      expectBatchSameAsPlain(tied, new Int32Array(m), n0, near, qSpecies);
+      expectBatchSameAsPlain(tied, new Int32Array(m), n0, near, qSpecies, 0);
+      // 3. near-duplicate groups: copies of one row with a few features moved by a unit or two in the last place,
+      //    and queries close to them, so that the distances differ by less than the round-off of their sums and
+      //    the screening's summation order may rank them otherwise than the exact sums do
+      const dup = new Float64Array(m * n0);
+      const dupQueries = new Float64Array(m * n0);
+      for (let k = 0; k < m; k++) {
+        const base = (k >> 3) * 8; // groups of eight
+        for (let f = 0; f < n0; f++) dup[k * n0 + f] = k === base ? rng.normal() : dup[base * n0 + f];
+        if (k !== base) for (let t = 0; t < 3; t++) {
+          const f = rng.int(n0);
+          const v = dup[k * n0 + f];
+          dup[k * n0 + f] = v + (rng.int(2) ? 1 : -1) * (1 + rng.int(2)) * Number.EPSILON * Math.abs(v);
+        }
+      }
+      for (let i = 0; i < m; i++) for (let f = 0; f < n0; f++) dupQueries[i * n0 + f] = dup[(i >> 3) * 8 * n0 + f] + (i % 2 ? 1 : 1e-3) * rng.normal();
+      expectBatchSameAsPlain(dup, new Int32Array(m), n0, dupQueries, qSpecies);
+    }
+  });
+
+  it('shares one copy of a frame’s rows between the linear part and the search (one key per frame), also when the arena starts again between them', () => {
+    const rng = makeRng(31);
+    const n0 = 45;
+    const c = makeCase(rng, n0, 120, 2, true, 0.1, 2);
+    const search = prepareNearestSearch(c.reps, c.species, n0);
+    const same = (x: Float64Array, y: Float64Array) => x.length === y.length && x.every((v, i) => Object.is(v, y[i]));
+    for (const restart of [false, true]) {
+      // two frames of 300 rows written one after the other into the same array (as prediction reuses its buffers)
+      const rows = new Float64Array(300 * n0);
+      for (const frame of [0, 1]) {
+        for (let e = 0; e < 300; e++) for (let f = 0; f < n0; f++) rows[e * n0 + f] = c.reps[((e * 7 + frame) % 120) * n0 + f] + (e % 3 ? 0.01 * rng.normal() : 0);
+        const species = Int32Array.from({ length: 300 }, (_, e) => (e + frame) % 2);
+        const fe = { count: 300, centre: new Int32Array(300), centreSpecies: species, frame: new Int32Array(300), n0, scalar: rows, tensor: {} };
+        const weights = Float64Array.from({ length: 2 * n0 }, () => rng.normal());
+        const key = {};
+        const pass = linearScalarPass(fe, weights, 2, key);
+        expect(same(pass.contributions, localContributions(fe, 0, { linear: weights }))).toBe(true);
+        expect(same(pass.sums, linearDesignRows(fe, 0, 2))).toBe(true);
+        const before = arenaRestarts();
+        if (restart) {
+          // a region of nearly the whole (lowered) limit, asked for between the two: the arena starts again, and
+          // again for the search, which must copy the rows anew
+          setArenaLimit(4 * 2 ** 20);
+          predictKernels()!.arena.acquire([{ name: 'test-filler', key: {}, bytes: 4 * 2 ** 20 - 64 }]);
+        }
+        const out = new Float64Array(300).fill(-1);
+        searchNearestAll(search, rows, 300, species, out, undefined, key);
+        setArenaLimit(null);
+        if (restart) expect(arenaRestarts()).toBeGreaterThanOrEqual(before + 2);
+        for (let e = 0; e < 300; e++) expect(out[e]).toBe(nearestDistance(rows, e, c.reps, c.species, species[e], n0));
+        // the plain scan of a fresh owner through the same key
+        const scanned = new Float64Array(300).fill(-1);
+        nearestAllOf({ n0, species: c.species, p: c.reps }, rows, 300, species, scanned, key);
+        for (let e = 0; e < 300; e++) expect(scanned[e]).toBe(out[e]);
+      }
+    }
+  });
+
+  it('gives the plain scan’s numbers with non-finite and huge features (NaN and overflow rule nothing out and never win)', () => {
+    const rng = makeRng(90);
+    const n0 = 33;
+    const m = 40;
+    const reps = Float64Array.from({ length: m * n0 }, () => rng.normal());
+    for (let f = 0; f < n0; f++) reps[3 * n0 + f] = reps[4 * n0 + f] * 1e200; // its squared distances overflow
+    reps[7 * n0 + 5] = NaN; // one representative with a NaN feature
+    const queries = new Float64Array(6 * n0);
+    for (let f = 0; f < n0; f++) {
+      queries[f] = reps[7 * n0 + f]; // the NaN representative itself
+      queries[n0 + f] = rng.normal();
+      queries[2 * n0 + f] = f === 2 ? NaN : rng.normal(); // a NaN query: NaN to every representative
+      queries[3 * n0 + f] = 1e200 * rng.normal(); // overflows against every representative
+      queries[4 * n0 + f] = reps[3 * n0 + f]; // the huge representative itself
+      queries[5 * n0 + f] = reps[9 * n0 + f];
+    }
+    expectBatchSameAsPlain(reps, new Int32Array(m), n0, queries, new Int32Array(6));
+  });
 
   it('runs through the WebAssembly kernels here, prepared and plain, at the size prediction uses (odd n0, hundreds of rows, more queries than one pass holds)', () => {
     expect(predictKernels()).not.toBeNull();
@@ -113,7 +301,7 @@ describe('bounded nearest-representative search', () => {
     const counters = [true, false].map((kernels) => {
       setWebAssemblyKernels(kernels);
       const out = new Float64Array(count).fill(-1);
-      const counter: SearchCounter = { queries: 0, exact: 0, summed: 0 };
+      const counter: SearchCounter = { queries: 0, screened: 0, exact: 0, summed: 0 };
       searchNearestAll(search, queries, count, species, out, counter);
       for (let q = 0; q < count; q++) expect(out[q]).toBe(nearestDistance(queries, q, c.reps, c.species, species[q], n0));
       return counter;
@@ -130,6 +318,7 @@ describe('bounded nearest-representative search', () => {
     expect(counters[0].queries).toBe(count);
     expect(counters[0].exact).toBeGreaterThan(0);
     expect(Math.abs(counters[0].exact - counters[1].exact)).toBeLessThanOrEqual(0.01 * counters[1].exact);
+    expect(Math.abs(counters[0].screened - counters[1].screened)).toBeLessThanOrEqual(0.01 * counters[1].screened);
   });
 
   it('gives the plain scan’s numbers when the same representatives are grouped by other species (the kernels keep their layout per array)', () => {
@@ -285,12 +474,14 @@ describe('bounded nearest-representative search', () => {
         expect(Math.abs(dot - (i === j ? 1 : 0))).toBeLessThan(1e-13); // round-off of two-pass Gram–Schmidt
       }
     }
-    const counter: SearchCounter = { queries: 0, exact: 0, summed: 0 };
+    const counter: SearchCounter = { queries: 0, screened: 0, exact: 0, summed: 0 };
     for (let q = 0; q < c.queryCount; q++) {
       expect(searchNearest(search, c.queries, q, 0, counter)).toBe(nearestDistance(c.queries, q, c.reps, c.species, 0, n0));
     }
-    // the point of the bound: far fewer exact distances than representatives (measured ≈ 10–30 of 256)
-    expect(counter.exact / counter.queries).toBeLessThan(128);
+    // the point of the bound: far fewer representatives screened than there are (measured ≈ 10–30 of 256), and
+    // the screening leaves few exact distances
+    expect(counter.screened / counter.queries).toBeLessThan(128);
+    expect(counter.exact / counter.queries).toBeLessThan(8);
   });
 
   it('answers a small job by the plain scan and a longer one through the prepared search, with the same numbers throughout', () => {

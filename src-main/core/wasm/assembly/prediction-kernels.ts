@@ -1,6 +1,7 @@
 // Prediction kernels in AssemblyScript, compiled to WebAssembly with 128-bit SIMD (two doubles per lane pair):
 // the λ > 0 read-out of one environment (core/learning/tensor-readout.ts readOne), and the exact nearest-
-// representative search of the applicability check with its one-off preparation (core/learning/nearest-search.ts). Compiled by
+// representative search of the applicability check with its one-off preparation (core/learning/nearest-search.ts), and
+// a linear λ=0 part's contributions and row sums (core/learning/kernels.ts linearScalarPass). Compiled by
 // scripts/build-wasm.mjs into ../generated/prediction-kernels.ts; loaded through ../prediction-kernels.ts. Every number a caller
 // keeps is summed in the same order as in its JavaScript twin (vectorised across independent outputs, never
 // within one sum), so the results are the same bits; only the search's lower bounds, which merely decide what to
@@ -381,74 +382,100 @@ function sumFour(x: usize, r0: usize, r1: usize, r2: usize, r3: usize, n0: i32, 
   return f;
 }
 
+/** Feature differences summed by screen since searchSpecies last read them (for the statistics). */
+let screenedFeatures: i32 = 0;
+
 /**
- * The exact nearest distances of queries of one species, as nearest-search.ts searchNearestAll computes them:
- * the same numbers bit for bit. `reps` holds the species' representatives (m rows of n0, contiguous); `sp` is
- * the species' record written by the wrapper (i32 words m, d, n0, unused, then byte addresses of its mean, basis
- * (d × n0), coordinates (d × m) and residual norms (m)); `scr` the scratch record (addresses of bound (m),
- * centred queries (4 × n0), coordinates (4 × d), squared norms (4), and a statistics pair: exact distances and
- * features summed, added to). For the query rows idx[0…nq) of `queries` (rows of n0) writes out[k] for k < nq.
+ * Σ (x_f − r_f)² over f < n0 in any order — the rows here hold the features in a species' screening order
+ * (nearest-search.ts screeningOrder) — checked after every 16 features: returns the sum so far as soon as it
+ * exceeds `limit` (the representative is then ruled out), else the full sum. Eight lane pairs per block; the order
+ * of this sum decides nothing a caller keeps (nearest-search.ts nearestOf explains the margin).
  */
-export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize, idx: usize, nq: i32, out: usize): void {
-  const m = load<i32>(sp);
-  const d = load<i32>(sp, 4);
-  const n0 = load<i32>(sp, 8);
-  const mean = <usize>load<u32>(sp, 16);
-  const basis = <usize>load<u32>(sp, 20);
-  const coordsT = <usize>load<u32>(sp, 24);
-  const residual = <usize>load<u32>(sp, 28);
-  const bound = <usize>load<u32>(scr);
-  const xc = <usize>load<u32>(scr, 4);
-  const q = <usize>load<u32>(scr, 8);
-  const xx = <usize>load<u32>(scr, 12);
-  const stats = <usize>load<u32>(scr, 16);
-  const rowBytes = <usize>n0 << 3;
-  for (let g0 = 0; g0 < nq; g0 += 4) {
-    const count = min(4, nq - g0);
-    // centred queries, their squared norms and coordinates (free summation order: they only feed the bound)
-    for (let g = 0; g < 4; g++) {
-      const row = load<i32>(idx + (<usize>(g0 + (g < count ? g : 0)) << 2));
-      f64.store(xx + (<usize>g << 3), centre(queries + <usize>row * rowBytes, mean, xc + <usize>g * rowBytes, n0));
-    }
-    project(basis, d, xc, n0, q);
-    for (let g = 0; g < count; g++) {
-      const row = load<i32>(idx + (<usize>(g0 + g) << 2));
-      const best = nearestOf(m, d, n0, reps, coordsT, residual, bound, queries + <usize>row * rowBytes, q + (<usize>(g * d) << 3), f64.load(xx + (<usize>g << 3)), stats);
-      f64.store(out + (<usize>(g0 + g) << 3), best);
+function screen(x: usize, r: usize, n0: i32, limit: f64): f64 {
+  let a0 = f64x2.splat(0);
+  let a1 = a0;
+  let a2 = a0;
+  let a3 = a0;
+  let f = 0;
+  for (; f + 15 < n0; f += 16) {
+    const xo = x + (<usize>f << 3);
+    const ro = r + (<usize>f << 3);
+    let d = f64x2.sub(v128.load(xo), v128.load(ro));
+    a0 = f64x2.add(a0, f64x2.mul(d, d));
+    d = f64x2.sub(v128.load(xo, 16), v128.load(ro, 16));
+    a1 = f64x2.add(a1, f64x2.mul(d, d));
+    d = f64x2.sub(v128.load(xo, 32), v128.load(ro, 32));
+    a2 = f64x2.add(a2, f64x2.mul(d, d));
+    d = f64x2.sub(v128.load(xo, 48), v128.load(ro, 48));
+    a3 = f64x2.add(a3, f64x2.mul(d, d));
+    d = f64x2.sub(v128.load(xo, 64), v128.load(ro, 64));
+    a0 = f64x2.add(a0, f64x2.mul(d, d));
+    d = f64x2.sub(v128.load(xo, 80), v128.load(ro, 80));
+    a1 = f64x2.add(a1, f64x2.mul(d, d));
+    d = f64x2.sub(v128.load(xo, 96), v128.load(ro, 96));
+    a2 = f64x2.add(a2, f64x2.mul(d, d));
+    d = f64x2.sub(v128.load(xo, 112), v128.load(ro, 112));
+    a3 = f64x2.add(a3, f64x2.mul(d, d));
+    const s = hsum(f64x2.add(f64x2.add(a0, a1), f64x2.add(a2, a3)));
+    if (s > limit) {
+      screenedFeatures += f + 16;
+      return s;
     }
   }
+  screenedFeatures += n0;
+  let s = hsum(f64x2.add(f64x2.add(a0, a1), f64x2.add(a2, a3)));
+  for (; f < n0; f++) {
+    const d = f64.load(x + (<usize>f << 3)) - f64.load(r + (<usize>f << 3));
+    s += d * d;
+  }
+  return s;
 }
 
 /**
- * The plain scan (sparse.ts nearestDistance) of the query rows idx[0…nq) of `queries` (rows of n0) over the m
- * representatives at `reps` (rows of n0, contiguous): out[k] = the square root of the smallest full squared
- * distance, Infinity when m = 0. Four representatives per pass (eight per pass measured slower), each summed in
- * nearestDistance's order; a sum left early has passed the best so far and cannot be the minimum, so the result
- * is its number bit for bit.
+ * Full squared distances |x_g − r_g|² of four (query, representative) pairs, each lane summing its own
+ * (x_f − r_f)² over f in order from zero, as nearestDistance sums a distance it does not leave early: the same
+ * bits. Writes the four sums to out.
  */
-export function scanSpecies(reps: usize, m: i32, n0: i32, queries: usize, idx: usize, nq: i32, out: usize): void {
-  const rowBytes = <usize>n0 << 3;
-  for (let k = 0; k < nq; k++) {
-    const x = queries + <usize>load<i32>(idx + (<usize>k << 2)) * rowBytes;
-    let best: f64 = Infinity;
-    for (let r = 0; r < m; r += 4) {
-      // a short last group repeats its first member (its sum is computed again and changes nothing)
-      const r0 = reps + <usize>r * rowBytes;
-      sumFour(x, r0, r + 1 < m ? r0 + rowBytes : r0, r + 2 < m ? r0 + 2 * rowBytes : r0, r + 3 < m ? r0 + 3 * rowBytes : r0, n0, best, sums);
-      for (let g = 0; g < 4; g++) {
-        const s = f64.load(sums + (<usize>g << 3));
-        if (s < best) best = s;
-      }
-    }
-    f64.store(out + (<usize>k << 3), Math.sqrt(best));
+function exactFour(x0: usize, r0: usize, x1: usize, r1: usize, x2: usize, r2: usize, x3: usize, r3: usize, n0: i32, out: usize): void {
+  let s01 = f64x2.splat(0);
+  let s23 = f64x2.splat(0);
+  let f = 0;
+  for (; f + 1 < n0; f += 2) {
+    const o = <usize>f << 3;
+    const p0 = v128.load(x0 + o);
+    const p1 = v128.load(x1 + o);
+    const p2 = v128.load(x2 + o);
+    const p3 = v128.load(x3 + o);
+    const q0 = v128.load(r0 + o);
+    const q1 = v128.load(r1 + o);
+    const q2 = v128.load(r2 + o);
+    const q3 = v128.load(r3 + o);
+    const d01 = f64x2.sub(v128.shuffle<f64>(p0, p1, 0, 2), v128.shuffle<f64>(q0, q1, 0, 2));
+    const d23 = f64x2.sub(v128.shuffle<f64>(p2, p3, 0, 2), v128.shuffle<f64>(q2, q3, 0, 2));
+    s01 = f64x2.add(s01, f64x2.mul(d01, d01));
+    s23 = f64x2.add(s23, f64x2.mul(d23, d23));
+    const h01 = f64x2.sub(v128.shuffle<f64>(p0, p1, 1, 3), v128.shuffle<f64>(q0, q1, 1, 3));
+    const h23 = f64x2.sub(v128.shuffle<f64>(p2, p3, 1, 3), v128.shuffle<f64>(q2, q3, 1, 3));
+    s01 = f64x2.add(s01, f64x2.mul(h01, h01));
+    s23 = f64x2.add(s23, f64x2.mul(h23, h23));
   }
+  if (f < n0) {
+    const o = <usize>f << 3;
+    const d01 = f64x2.sub(f64x2.replace_lane(f64x2.splat(f64.load(x0 + o)), 1, f64.load(x1 + o)), f64x2.replace_lane(f64x2.splat(f64.load(r0 + o)), 1, f64.load(r1 + o)));
+    const d23 = f64x2.sub(f64x2.replace_lane(f64x2.splat(f64.load(x2 + o)), 1, f64.load(x3 + o)), f64x2.replace_lane(f64x2.splat(f64.load(r2 + o)), 1, f64.load(r3 + o)));
+    s01 = f64x2.add(s01, f64x2.mul(d01, d01));
+    s23 = f64x2.add(s23, f64x2.mul(d23, d23));
+  }
+  v128.store(out, s01);
+  v128.store(out, s23, 16);
 }
 
-// the current group, its rows' addresses and its sums (fixed scratch: the module runs one search at a time)
-const group = memory.data(16);
-const sums = memory.data(32);
-
-function nearestOf(m: i32, d: i32, n0: i32, reps: usize, coordsT: usize, residual: usize, bound: usize, x: usize, q: usize, xx: f64, stats: usize): f64 {
+/**
+ * bound[k] = (gap between ρ_x and ρ_k)² + |q − coordinates of k|² for every representative k < m: the lower bound
+ * of nearest-search.ts nearestOf (any summation order), two representatives per lane pair; where ρ_x is unknown
+ * (NaN) the bound is NaN and rules nothing out.
+ */
+function bounds(m: i32, d: i32, coordsT: usize, residual: usize, bound: usize, q: usize, xx: f64): void {
   let qq: f64 = 0;
   for (let j = 0; j < d; j++) {
     const v = f64.load(q + (<usize>j << 3));
@@ -536,89 +563,265 @@ function nearestOf(m: i32, d: i32, n0: i32, reps: usize, coordsT: usize, residua
     }
     f64.store(bound + o, b);
   }
-  // the four smallest bounds first (usually holding the winner), in ascending order; -1 where fewer
-  let f0 = -1, f1 = -1, f2 = -1, f3 = -1;
-  let c0: f64 = Infinity, c1: f64 = Infinity, c2: f64 = Infinity, c3: f64 = Infinity;
-  for (let k = 0; k < m; k++) {
-    // two at a time past a pair that cannot enter (neither below the fourth smallest so far; NaN never enters)
-    if ((k & 1) == 0 && k + 1 < m && !v128.any_true(f64x2.lt(v128.load(bound + (<usize>k << 3)), f64x2.splat(c3)))) {
+}
+
+/** The index of the smallest bound[k], k < m (a NaN bound never counts; −1 when every bound is NaN). */
+function smallestBound(bound: usize, m: i32): i32 {
+  let best: f64 = Infinity;
+  let at = -1;
+  let k = 0;
+  // pairs first: a pair is looked at one by one only when one of its bounds is below the smallest so far
+  for (; k + 1 < m; k += 2) {
+    if (!v128.any_true(f64x2.lt(v128.load(bound + (<usize>k << 3)), f64x2.splat(best)))) continue;
+    const b0 = f64.load(bound + (<usize>k << 3));
+    const b1 = f64.load(bound + (<usize>k << 3), 8);
+    if (b0 < best) {
+      best = b0;
+      at = k;
+    }
+    if (b1 < best) {
+      best = b1;
+      at = k + 1;
+    }
+  }
+  if (k < m && f64.load(bound + (<usize>k << 3)) < best) at = k;
+  return at;
+}
+
+/**
+ * The candidates of one query (nearest-search.ts nearestOf, the same rules): the bounds; the representative of the
+ * smallest bound screened in full; every other representative its bound does not rule out screened against the
+ * smallest screened sum t so far (`ordered`: the representatives with their features in the screening order; `xp`:
+ * the query in that order). The screened sums not beyond t's margin at the end are appended to `pending` as pairs
+ * (slot, representative). `kept` holds (representative, screened sum) records of 16 bytes. Returns the new length
+ * of `pending`.
+ */
+function candidates(m: i32, d: i32, n0: i32, ordered: usize, coordsT: usize, residual: usize, bound: usize, xp: usize, q: usize, xx: f64, kept: usize, stats: usize, slot: i32, pending: usize, np: i32): i32 {
+  bounds(m, d, coordsT, residual, bound, q, xx);
+  const rowBytes = <usize>n0 << 3;
+  const first = smallestBound(bound, m);
+  let t: f64 = Infinity;
+  let nk = 0;
+  if (first >= 0) {
+    t = screen(xp, ordered + <usize>first * rowBytes, n0, Infinity);
+    store<i32>(kept, first);
+    f64.store(kept, t, 8);
+    nk = 1;
+  }
+  let k = 0;
+  while (k < m) {
+    const limit = t + MARGIN_RELATIVE * t + MARGIN_ABSOLUTE;
+    // two bounds at once past a pair both of which are ruled out (the same test lane by lane)
+    if ((k & 1) == 0 && k + 1 < m && i64x2.all_true(f64x2.gt(v128.load(bound + (<usize>k << 3)), f64x2.splat(limit)))) {
+      k += 2;
+      continue;
+    }
+    if (k == first || f64.load(bound + (<usize>k << 3)) > limit) {
       k++;
       continue;
     }
-    const b = f64.load(bound + (<usize>k << 3));
-    if (!(b < c3)) continue;
-    if (b < c2) {
-      c3 = c2;
-      f3 = f2;
-      if (b < c1) {
-        c2 = c1;
-        f2 = f1;
-        if (b < c0) {
-          c1 = c0;
-          f1 = f0;
-          c0 = b;
-          f0 = k;
-        } else {
-          c1 = b;
-          f1 = k;
-        }
-      } else {
-        c2 = b;
-        f2 = k;
-      }
-    } else {
-      c3 = b;
-      f3 = k;
+    const s = screen(xp, ordered + <usize>k * rowBytes, n0, limit);
+    if (!(s > limit)) {
+      const r = kept + (<usize>nk << 4);
+      store<i32>(r, k);
+      f64.store(r, s, 8);
+      nk++;
+      // the smallest screened sum (a NaN one, from a representative with NaN features, is passed over)
+      if (s < t || (t != t && s == s)) t = s;
     }
+    k++;
   }
-  store<i32>(group, f0);
-  store<i32>(group, f1, 4);
-  store<i32>(group, f2, 8);
-  store<i32>(group, f3, 12);
-  let filled = f0 < 0 ? 0 : f1 < 0 ? 1 : f2 < 0 ? 2 : f3 < 0 ? 3 : 4;
-  let best: f64 = Infinity;
-  let exact = 0;
-  let summed = 0;
-  let next = 0;
+  f64.store(stats, f64.load(stats) + <f64>nk);
+  // the candidates left: not beyond the final margin (a NaN sum stays; its exact distance never wins)
+  const limit = t + MARGIN_RELATIVE * t + MARGIN_ABSOLUTE;
+  for (let j = 0; j < nk; j++) {
+    const r = kept + (<usize>j << 4);
+    if (f64.load(r, 8) > limit) continue;
+    const p = pending + (<usize>np << 3);
+    store<i32>(p, slot);
+    store<i32>(p, load<i32>(r), 4);
+    np++;
+  }
+  return np;
+}
+
+/** The byte address of query row idx[k] of `queries`. */
+// @ts-ignore: decorator
+@inline function queryRow(queries: usize, idx: usize, k: i32, rowBytes: usize): usize {
+  return queries + <usize>load<i32>(idx + (<usize>k << 2)) * rowBytes;
+}
+
+/**
+ * The exact nearest distances of queries of one species, as nearest-search.ts searchNearestAll computes them:
+ * the same numbers bit for bit. `reps` holds the species' representatives (m rows of n0, contiguous); `sp` is
+ * the species' record written by the wrapper (i32 words m, d, n0, unused, then byte addresses of its mean, basis
+ * (d × n0), coordinates (d × m), residual norms (m), screening order (n0 i32) and the representatives with their
+ * features in that order (m × n0)); `scr` the scratch record (addresses of bound (m), centred queries (4 × n0),
+ * coordinates (4 × d), squared norms (4), a statistics triple added to (representatives screened, full
+ * distances in order, feature differences summed), the query in screening order (n0), the kept records (16 bytes
+ * × m), the pending pairs (8 bytes × 4m) and their sums (8 bytes × (4m + 3))). For the query rows idx[0…nq) of
+ * `queries` (rows of n0) writes out[k] for k < nq.
+ */
+export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize, idx: usize, nq: i32, out: usize): void {
+  const m = load<i32>(sp);
+  const d = load<i32>(sp, 4);
+  const n0 = load<i32>(sp, 8);
+  const mean = <usize>load<u32>(sp, 16);
+  const basis = <usize>load<u32>(sp, 20);
+  const coordsT = <usize>load<u32>(sp, 24);
+  const residual = <usize>load<u32>(sp, 28);
+  const order = <usize>load<u32>(sp, 32);
+  const ordered = <usize>load<u32>(sp, 36);
+  const bound = <usize>load<u32>(scr);
+  const xc = <usize>load<u32>(scr, 4);
+  const q = <usize>load<u32>(scr, 8);
+  const xx = <usize>load<u32>(scr, 12);
+  const stats = <usize>load<u32>(scr, 16);
+  const xp = <usize>load<u32>(scr, 20);
+  const kept = <usize>load<u32>(scr, 24);
+  const pending = <usize>load<u32>(scr, 28);
+  const pendingSums = <usize>load<u32>(scr, 32);
   const rowBytes = <usize>n0 << 3;
-  while (filled > 0) {
-    for (let g = filled; g < 4; g++) store<i32>(group + (<usize>g << 2), load<i32>(group));
-    exact += filled;
-    summed += sumFour(
-      x,
-      reps + <usize>load<i32>(group) * rowBytes,
-      reps + <usize>load<i32>(group, 4) * rowBytes,
-      reps + <usize>load<i32>(group, 8) * rowBytes,
-      reps + <usize>load<i32>(group, 12) * rowBytes,
-      n0,
-      best,
-      sums,
-    );
+  for (let g0 = 0; g0 < nq; g0 += 4) {
+    const count = min(4, nq - g0);
+    // centred queries, their squared norms and coordinates (free summation order: they only feed the bound)
     for (let g = 0; g < 4; g++) {
-      const s = f64.load(sums + (<usize>g << 3));
-      if (s < best) best = s;
+      const row = load<i32>(idx + (<usize>(g0 + (g < count ? g : 0)) << 2));
+      f64.store(xx + (<usize>g << 3), centre(queries + <usize>row * rowBytes, mean, xc + <usize>g * rowBytes, n0));
     }
-    // refill from the representatives not yet visited whose bound does not rule them out (a NaN bound never does)
-    filled = 0;
-    // the rule-out test below on two bounds at once (the same operations lane by lane), to pass pairs it rules out
-    const mr = f64x2.splat(MARGIN_RELATIVE * best);
-    const ma = f64x2.splat(MARGIN_ABSOLUTE);
-    const bv = f64x2.splat(best);
-    while (filled < 4 && next < m) {
-      if ((next & 1) == 0 && next + 1 < m && i64x2.all_true(f64x2.gt(f64x2.sub(f64x2.sub(v128.load(bound + (<usize>next << 3)), mr), ma), bv))) {
-        next += 2;
-        continue;
+    project(basis, d, xc, n0, q);
+    // each query's candidates (pairs: group slot, representative), then their distances in order, four at a time
+    let np = 0;
+    for (let g = 0; g < count; g++) {
+      const x = queryRow(queries, idx, g0 + g, rowBytes);
+      for (let i = 0; i < n0; i++) f64.store(xp + (<usize>i << 3), f64.load(x + (<usize>load<i32>(order + (<usize>i << 2)) << 3)));
+      np = candidates(m, d, n0, ordered, coordsT, residual, bound, xp, q + (<usize>(g * d) << 3), f64.load(xx + (<usize>g << 3)), kept, stats, g, pending, np);
+    }
+    for (let k = 0; k < np; k += 4) {
+      // a short last quad repeats its first pair (computed again, changes nothing)
+      const p0 = pending + (<usize>k << 3);
+      const p1 = k + 1 < np ? p0 + 8 : p0;
+      const p2 = k + 2 < np ? p0 + 16 : p0;
+      const p3 = k + 3 < np ? p0 + 24 : p0;
+      exactFour(
+        queryRow(queries, idx, g0 + load<i32>(p0), rowBytes),
+        reps + <usize>load<i32>(p0, 4) * rowBytes,
+        queryRow(queries, idx, g0 + load<i32>(p1), rowBytes),
+        reps + <usize>load<i32>(p1, 4) * rowBytes,
+        queryRow(queries, idx, g0 + load<i32>(p2), rowBytes),
+        reps + <usize>load<i32>(p2, 4) * rowBytes,
+        queryRow(queries, idx, g0 + load<i32>(p3), rowBytes),
+        reps + <usize>load<i32>(p3, 4) * rowBytes,
+        n0,
+        pendingSums + (<usize>k << 3),
+      );
+    }
+    f64.store(stats, f64.load(stats, 8) + <f64>np, 8);
+    f64.store(stats, f64.load(stats, 16) + <f64>screenedFeatures + <f64>np * <f64>n0, 16);
+    screenedFeatures = 0;
+    for (let g = 0; g < count; g++) {
+      let best: f64 = Infinity;
+      for (let k = 0; k < np; k++) {
+        if (load<i32>(pending + (<usize>k << 3)) != g) continue;
+        const s = f64.load(pendingSums + (<usize>k << 3));
+        if (s < best) best = s;
       }
-      const k = next++;
-      if (k == f0 || k == f1 || k == f2 || k == f3) continue;
-      if (f64.load(bound + (<usize>k << 3)) - MARGIN_RELATIVE * best - MARGIN_ABSOLUTE > best) continue;
-      store<i32>(group + (<usize>filled << 2), k);
-      filled++;
+      f64.store(out + (<usize>(g0 + g) << 3), Math.sqrt(best));
     }
   }
-  f64.store(stats, f64.load(stats) + <f64>exact);
-  f64.store(stats, f64.load(stats, 8) + <f64>summed, 8);
-  return Math.sqrt(best);
+}
+
+// the sums of a group of four (fixed scratch: the module runs one search at a time)
+const sums = memory.data(32);
+
+/**
+ * The plain scan (sparse.ts nearestDistance) of the query rows idx[0…nq) of `queries` (rows of n0) over the m
+ * representatives at `reps` (rows of n0, contiguous): out[k] = the square root of the smallest full squared
+ * distance, Infinity when m = 0. Four representatives per pass (eight per pass measured slower), each summed in
+ * nearestDistance's order; a sum left early has passed the best so far and cannot be the minimum, so the result
+ * is its number bit for bit.
+ */
+export function scanSpecies(reps: usize, m: i32, n0: i32, queries: usize, idx: usize, nq: i32, out: usize): void {
+  const rowBytes = <usize>n0 << 3;
+  for (let k = 0; k < nq; k++) {
+    const x = queries + <usize>load<i32>(idx + (<usize>k << 2)) * rowBytes;
+    let best: f64 = Infinity;
+    for (let r = 0; r < m; r += 4) {
+      // a short last group repeats its first member (its sum is computed again and changes nothing)
+      const r0 = reps + <usize>r * rowBytes;
+      sumFour(x, r0, r + 1 < m ? r0 + rowBytes : r0, r + 2 < m ? r0 + 2 * rowBytes : r0, r + 3 < m ? r0 + 3 * rowBytes : r0, n0, best, sums);
+      for (let g = 0; g < 4; g++) {
+        const s = f64.load(sums + (<usize>g << 3));
+        if (s < best) best = s;
+      }
+    }
+    f64.store(out + (<usize>k << 3), Math.sqrt(best));
+  }
+}
+
+// ---------------------------------------------------------------------------------------------------------------
+// A linear λ=0 part over a frame's rows (core/learning/kernels.ts linearScalarPass)
+
+/**
+ * For the rows e < count of `rows` (n0 doubles each; species[e] an i32 per row): out[e] = Σ_f rows[e][f] ·
+ * weights[species[e]][f], summed over f ascending from zero as localContributions sums it (two rows per lane pair),
+ * and each row added, feature by feature and row after row, to sums[species[e]] (n0 doubles per species) as
+ * linearDesignRows adds them: the same bits. `sums` is added to, so a frame may come in several calls.
+ */
+export function linearRows(rows: usize, count: i32, n0: i32, species: usize, weights: usize, out: usize, sums: usize): void {
+  const rowBytes = <usize>n0 << 3;
+  let e = 0;
+  for (; e + 1 < count; e += 2) {
+    const r0 = rows + <usize>e * rowBytes;
+    const r1 = r0 + rowBytes;
+    const s0 = <usize>load<i32>(species + (<usize>e << 2));
+    const s1 = <usize>load<i32>(species + (<usize>e << 2), 4);
+    const w0 = weights + s0 * rowBytes;
+    const w1 = weights + s1 * rowBytes;
+    const a0 = sums + s0 * rowBytes;
+    const a1 = sums + s1 * rowBytes;
+    let acc = f64x2.splat(0);
+    let f = 0;
+    for (; f + 1 < n0; f += 2) {
+      const o = <usize>f << 3;
+      const x0 = v128.load(r0 + o);
+      const x1 = v128.load(r1 + o);
+      const u0 = v128.load(w0 + o);
+      const u1 = v128.load(w1 + o);
+      acc = f64x2.add(acc, f64x2.mul(v128.shuffle<f64>(x0, x1, 0, 2), v128.shuffle<f64>(u0, u1, 0, 2)));
+      acc = f64x2.add(acc, f64x2.mul(v128.shuffle<f64>(x0, x1, 1, 3), v128.shuffle<f64>(u0, u1, 1, 3)));
+      // row e before row e + 1 (the same sums when both rows are of one species)
+      v128.store(a0 + o, f64x2.add(v128.load(a0 + o), x0));
+      v128.store(a1 + o, f64x2.add(v128.load(a1 + o), x1));
+    }
+    let c0 = f64x2.extract_lane(acc, 0);
+    let c1 = f64x2.extract_lane(acc, 1);
+    if (f < n0) {
+      const o = <usize>f << 3;
+      const x0 = f64.load(r0 + o);
+      const x1 = f64.load(r1 + o);
+      c0 += x0 * f64.load(w0 + o);
+      c1 += x1 * f64.load(w1 + o);
+      f64.store(a0 + o, f64.load(a0 + o) + x0);
+      f64.store(a1 + o, f64.load(a1 + o) + x1);
+    }
+    f64.store(out + (<usize>e << 3), c0);
+    f64.store(out + (<usize>e << 3), c1, 8);
+  }
+  if (e < count) {
+    const r0 = rows + <usize>e * rowBytes;
+    const s0 = <usize>load<i32>(species + (<usize>e << 2));
+    const w0 = weights + s0 * rowBytes;
+    const a0 = sums + s0 * rowBytes;
+    let c0: f64 = 0;
+    for (let f = 0; f < n0; f++) {
+      const o = <usize>f << 3;
+      const x0 = f64.load(r0 + o);
+      c0 += x0 * f64.load(w0 + o);
+      f64.store(a0 + o, f64.load(a0 + o) + x0);
+    }
+    f64.store(out + (<usize>e << 3), c0);
+  }
 }
 
 // ---------------------------------------------------------------------------------------------------------------
