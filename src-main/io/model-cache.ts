@@ -10,7 +10,8 @@
 //   File: "PWMODEL1", the length of the skeleton as a 32-bit little-endian integer, 4 zero bytes, the skeleton
 //   (UTF-8 JSON: { model, arrays }, the model with each typed array replaced by {"$typed": k}, arrays[k] =
 //   [kind, byte offset, length]), then each array's bytes (little-endian, 8-byte aligned), then the SHA-256 of all
-//   bytes before it. Read back, each array gets a SharedArrayBuffer of its own, as parseModel gives them.
+//   bytes before it. Read back into one SharedArrayBuffer, of which each array is a view (shared memory, as
+//   parseModel gives them, so that workers read the one copy).
 //   A model whose plain part JSON would not give back exactly (a key "$typed" or "__proto__", a −0) is not kept.
 // Written atomically (temporary file, then rename: writeAtomically of io/radial-table-store.ts); the newest 3 entries are kept (a model can hold tens of MB).
 import { closeSync, fstatSync, openSync, readSync } from 'node:fs';
@@ -45,7 +46,9 @@ export function cachedModel(fileSha256: string, env: NodeJS.ProcessEnv = process
     fd = openSync(entryFile(cacheFolder(env), fileSha256, identity), 'r');
     const size = fstatSync(fd).size;
     if (size < HEAD + 32) return null;
-    const bytes = Buffer.allocUnsafe(size);
+    // read into one shared buffer: the arrays are views of it (no copy of each into a buffer of its own)
+    const shared = new SharedArrayBuffer(size);
+    const bytes = Buffer.from(shared);
     if (readSync(fd, bytes, 0, size, 0) !== size) return null;
     const body = bytes.subarray(0, size - 32);
     if (!body.subarray(0, 8).equals(MAGIC) || !sha256(body).equals(bytes.subarray(size - 32))) return null;
@@ -56,9 +59,7 @@ export function cachedModel(fileSha256: string, env: NodeJS.ProcessEnv = process
       const width = kind === 'f64' ? 8 : kind === 'i32' ? 4 : 0;
       const n = length * width;
       if (width === 0 || !Number.isInteger(at) || !Number.isInteger(length) || at % 8 !== 0 || at < HEAD + skeletonLength || at + n > body.length) throw new Error('entry out of bounds');
-      const shared = new SharedArrayBuffer(n);
-      new Uint8Array(shared).set(body.subarray(at, at + n));
-      return kind === 'f64' ? new Float64Array(shared) : new Int32Array(shared);
+      return kind === 'f64' ? new Float64Array(shared, at, length) : new Int32Array(shared, at, length);
     });
     return restore(model, typed) as Model;
   } catch {

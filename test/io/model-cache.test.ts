@@ -44,11 +44,15 @@ afterEach(() => {
 const runAs = (digit: string) => ((globalThis as { __polarweaveProgram?: string }).__polarweaveProgram = digit.repeat(64));
 const sha = (text: string) => createHash('sha256').update(text).digest('hex');
 
-/** Everything about a model that could differ: key order, each number's bits, each array's type, bits and memory. */
+/**
+ * Everything about a model that could differ: key order, each number's bits, each array's type, bits and memory
+ * (shared, so that workers read the one copy; a cached model's arrays are views of one shared buffer, parseModel's
+ * each have their own).
+ */
 function exactly(model: Model): string {
   return JSON.stringify(model, (_k, v: unknown) => {
     if (v instanceof Float64Array || v instanceof Int32Array) {
-      return { type: v.constructor.name, shared: v.buffer instanceof SharedArrayBuffer, whole: v.byteOffset === 0 && v.byteLength === v.buffer.byteLength, bits: Buffer.from(v.buffer, v.byteOffset, v.byteLength).toString('base64') };
+      return { type: v.constructor.name, shared: v.buffer instanceof SharedArrayBuffer, bits: Buffer.from(v.buffer, v.byteOffset, v.byteLength).toString('base64') };
     }
     if (typeof v === 'number') return { n: Buffer.from(new Float64Array([v]).buffer).toString('hex') };
     return v;

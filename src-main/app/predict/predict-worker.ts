@@ -8,9 +8,12 @@ import { predictTasks } from './predict-tasks.ts';
 import { serveTasks } from '../../jobs/serve.ts';
 import { useRadialTableCache } from '../../io/radial-table-store.ts';
 import type { TaskRegistry } from '../../jobs/task.ts';
+import { compilePredictionKernelsAhead } from '../../core/wasm/ahead.ts';
 
 // radial tables from the command's cache folder (each thread has its own module state, so each sets its own)
 useRadialTableCache();
+// this thread's kernels compile in the background while it waits for its first batch
+compilePredictionKernelsAhead();
 
 /**
  * Once, after the first task: the code cache, stored before its result goes back (the parent may end the worker

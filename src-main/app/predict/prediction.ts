@@ -12,6 +12,7 @@ import { basename } from 'node:path';
 import { CancelledError, InputError, ModelError } from '../../core/errors.ts';
 import type { Frame } from '../../core/geometry/frame.ts';
 import { modelPredictor, type Model, type Predictor } from '../../core/learning/model.ts';
+import { compilePredictionKernelsAhead } from '../../core/wasm/ahead.ts';
 import { atomicWriteStream } from '../../io/atomic.ts';
 import type { FrameRange } from '../../io/extxyz.ts';
 import { cachedModel, keepModel } from '../../io/model-cache.ts';
@@ -55,6 +56,8 @@ function predictorOnDemand(model: Model): Predictor {
  * command takes the model it decoded from these very bytes before, when its cache folder holds it (io/model-cache.ts).
  */
 export async function loadModelFile(path: string, label = path): Promise<LoadedModel> {
+  // a model is loaded to predict: its kernels compile in the background meanwhile
+  compilePredictionKernelsAhead();
   const bytes = await readModelBytes(path);
   const sha256 = sha256Hex(bytes);
   let model = cachedModel(sha256);

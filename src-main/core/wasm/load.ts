@@ -60,6 +60,29 @@ export class KernelModule {
 }
 
 const modules = new Map<string, KernelModule | null>();
+/** Modules compiled in the background by compileAhead, not yet instantiated. */
+const compiled = new Map<string, WebAssembly.Module>();
+const compiling = new Set<string>();
+
+/**
+ * Starts compiling the kernel module `name` in the background (WebAssembly.compile, off this thread), so that its
+ * first use finds it compiled instead of compiling it then: for short jobs (one predicted frame), whose main thread
+ * meanwhile reads the model and the frame. A module not compiled by its first use is compiled there as before;
+ * nothing happens when the kernels are off or this engine has no WebAssembly. The promise (never rejected) settles
+ * when the compile has ended; callers need not wait for it.
+ */
+export function compileAhead(name: string, base64: string): Promise<void> {
+  if (!enabled || typeof WebAssembly !== 'object' || typeof WebAssembly.compile !== 'function' || modules.has(name) || compiling.has(name)) return Promise.resolve();
+  compiling.add(name);
+  try {
+    return WebAssembly.compile(bytesOf(base64)).then(
+      (m) => void compiled.set(name, m),
+      () => undefined, // refused (no SIMD): the first use finds out again and takes the JavaScript path
+    );
+  } catch {
+    return Promise.resolve(); // as above
+  }
+}
 
 /**
  * The kernel module `name`, compiled from its base64 bytes on first use in this thread; null when the kernels are
@@ -69,7 +92,8 @@ export function kernelModule(name: string, base64: string): KernelModule | null 
   if (!enabled) return null;
   let m = modules.get(name);
   if (m === undefined) {
-    m = instantiate(base64);
+    m = instantiate(base64, compiled.get(name));
+    compiled.delete(name);
     modules.set(name, m);
   }
   return m;
@@ -87,11 +111,10 @@ function bytesOf(base64: string): Uint8Array<ArrayBuffer> {
   return bytes;
 }
 
-function instantiate(base64: string): KernelModule | null {
+function instantiate(base64: string, ahead?: WebAssembly.Module): KernelModule | null {
   if (typeof WebAssembly !== 'object') return null;
   try {
-    const bytes = bytesOf(base64);
-    const instance = new WebAssembly.Instance(new WebAssembly.Module(bytes), {});
+    const instance = new WebAssembly.Instance(ahead ?? new WebAssembly.Module(bytesOf(base64)), {});
     return new KernelModule(instance);
   } catch {
     // an engine without SIMD refuses the module at compile time: the JavaScript path serves instead

@@ -41,7 +41,7 @@ const GAP_C = 16;
 const FIRST = 17; // Int32 n: first candidate of each neighbour (−1: none)
 const BITS = 18; // Int32 ⌈n / 32⌉
 const SUMMARY = 19; // Int32 ⌈n / 1024⌉
-const CAND_J = 20; // Int32 candidates
+const CAND_J = 20; // Int32 per candidate (unused: a candidate's neighbour is known from its chain)
 const CAND_S = 21; // Int32 3 per candidate
 const CAND_V = 22; // Float64 3 per candidate
 const CAND_D = 23; // Float64 per candidate
@@ -124,24 +124,48 @@ function pad(bins: i32, binStart: usize, binAtom: usize, binPos: usize, binOff: 
   store<i32>(padStart + (<usize>bins << 2), q);
 }
 
-/** Clears the marks of a centre's candidates (first, bits, summary), as reading them out does. */
-function clearMarks(first: usize, bits: usize, summary: usize, summaryWords: i32): void {
+// The candidates' and the chunk's addresses for takeMarks, set by pairs() at each call.
+let gFirst: usize = 0, gBits: usize = 0, gSummary: usize = 0, gNext: usize = 0;
+let gCS: usize = 0, gCV: usize = 0, gCD: usize = 0;
+let gOutJ: usize = 0, gOutS: usize = 0, gOutV: usize = 0, gOutD: usize = 0;
+
+/**
+ * Walks a centre's marked neighbours j in ascending order, clearing the marks (first, bits, summary); with `emit`,
+ * appends each one's chain of candidates (in shift order) to the chunk from pair o on. Returns the pairs in the chunk.
+ */
+function takeMarks(summaryWords: i32, emit: bool, o: i32): i32 {
   for (let sw = 0; sw < summaryWords; sw++) {
-    let top = i32At(summary, sw);
+    let top = i32At(gSummary, sw);
     if (top == 0) continue;
-    store<i32>(summary + (<usize>sw << 2), 0);
+    store<i32>(gSummary + (<usize>sw << 2), 0);
     while (top != 0) {
       const wi = (sw << 5) + ctz(top);
       top &= top - 1;
-      let word = i32At(bits, wi);
-      store<i32>(bits + (<usize>wi << 2), 0);
+      let word = i32At(gBits, wi);
+      store<i32>(gBits + (<usize>wi << 2), 0);
       while (word != 0) {
         const j = (wi << 5) + ctz(word);
         word &= word - 1;
-        store<i32>(first + (<usize>j << 2), -1);
+        if (emit) {
+          for (let c = i32At(gFirst, j); c >= 0; c = i32At(gNext, c)) {
+            store<i32>(gOutJ + (<usize>o << 2), j);
+            store<f64>(gOutD + (<usize>o << 3), f64At(gCD, c));
+            const ps = gCS + <usize>c * 12, qs = gOutS + <usize>o * 12;
+            store<i32>(qs, load<i32>(ps));
+            store<i32>(qs, load<i32>(ps, 4), 4);
+            store<i32>(qs, load<i32>(ps, 8), 8);
+            const pv = gCV + <usize>c * 24, qv = gOutV + <usize>o * 24;
+            store<f64>(qv, load<f64>(pv));
+            store<f64>(qv, load<f64>(pv, 8), 8);
+            store<f64>(qv, load<f64>(pv, 16), 16);
+            o++;
+          }
+        }
+        store<i32>(gFirst + (<usize>j << 2), -1);
       }
     }
   }
+  return o;
 }
 
 /** The pairs of centres from ip[8] on, into the chunk; see the head of this file. */
@@ -167,8 +191,19 @@ export function pairs(ip: usize, fp: usize): void {
   const shiftA = addr(ip, SHIFT_A), shiftB = addr(ip, SHIFT_B), shiftC = addr(ip, SHIFT_C);
   const gapA = addr(ip, GAP_A), gapB = addr(ip, GAP_B), gapC = addr(ip, GAP_C);
   const first = addr(ip, FIRST), bits = addr(ip, BITS), summary = addr(ip, SUMMARY);
-  const cJ = addr(ip, CAND_J), cS = addr(ip, CAND_S), cV = addr(ip, CAND_V), cD = addr(ip, CAND_D), next = addr(ip, NEXT);
+  const cS = addr(ip, CAND_S), cV = addr(ip, CAND_V), cD = addr(ip, CAND_D), next = addr(ip, NEXT);
   const outJ = addr(ip, OUT_J), outS = addr(ip, OUT_S), outV = addr(ip, OUT_V), outD = addr(ip, OUT_D), start = addr(ip, START);
+  gFirst = first;
+  gBits = bits;
+  gSummary = summary;
+  gNext = next;
+  gCS = cS;
+  gCV = cV;
+  gCD = cD;
+  gOutJ = outJ;
+  gOutS = outS;
+  gOutV = outV;
+  gOutD = outD;
   const summaryWords = (n + 1023) >>> 10;
   const w0 = 2 * m0 + 1, w1 = 2 * m1 + 1, w2 = 2 * m2 + 1;
   const padStart = addr(ip, PAD_START), padPos = addr(ip, PAD_POS), padAtom = addr(ip, PAD_ATOM), padOff = addr(ip, PAD_OFF);
@@ -238,7 +273,6 @@ export function pairs(ip: usize, fp: usize): void {
                 break;
               }
               const c = ncand++;
-            store<i32>(cJ + (<usize>c << 2), j);
             const ps = cS + <usize>c * 12;
             store<i32>(ps, s0);
             store<i32>(ps, s1, 4);
@@ -273,7 +307,7 @@ export function pairs(ip: usize, fp: usize): void {
       }
     }
     if (full || count + ncand > chunkCap) {
-      clearMarks(first, bits, summary, summaryWords);
+      takeMarks(summaryWords, false, 0);
       store<i32>(ip, i, 48);
       store<i32>(ip, full ? 2 : 1, 52);
       store<i32>(ip, count, 56);
@@ -281,39 +315,7 @@ export function pairs(ip: usize, fp: usize): void {
       return;
     }
     // append this centre's pairs in (j, shift) order
-    if (ncand > 0) {
-      let o = count;
-      for (let sw = 0; sw < summaryWords; sw++) {
-        let top = i32At(summary, sw);
-        if (top == 0) continue;
-        store<i32>(summary + (<usize>sw << 2), 0);
-        while (top != 0) {
-          const wi = (sw << 5) + ctz(top);
-          top &= top - 1;
-          let word = i32At(bits, wi);
-          store<i32>(bits + (<usize>wi << 2), 0);
-          while (word != 0) {
-            const j = (wi << 5) + ctz(word);
-            word &= word - 1;
-            for (let c = i32At(first, j); c >= 0; c = i32At(next, c)) {
-              store<i32>(outJ + (<usize>o << 2), j);
-              store<f64>(outD + (<usize>o << 3), f64At(cD, c));
-              const ps = cS + <usize>c * 12, qs = outS + <usize>o * 12;
-              store<i32>(qs, load<i32>(ps));
-              store<i32>(qs, load<i32>(ps, 4), 4);
-              store<i32>(qs, load<i32>(ps, 8), 8);
-              const pv = cV + <usize>c * 24, qv = outV + <usize>o * 24;
-              store<f64>(qv, load<f64>(pv));
-              store<f64>(qv, load<f64>(pv, 8), 8);
-              store<f64>(qv, load<f64>(pv, 16), 16);
-              o++;
-            }
-            store<i32>(first + (<usize>j << 2), -1);
-          }
-        }
-      }
-      count += ncand;
-    }
+    if (ncand > 0) count = takeMarks(summaryWords, true, count);
   }
   store<i32>(start + (<usize>n << 2), before + count);
   store<i32>(ip, n, 48);
