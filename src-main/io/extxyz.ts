@@ -3,13 +3,13 @@
 // writer. The text-level parser and formatter live in extxyz-parse.ts / extxyz-format.ts and are re-exported.
 import { promises as fsp } from 'node:fs';
 import type { FileHandle } from 'node:fs/promises';
-import { createGunzip, gzipSync } from 'node:zlib';
 import { CancelledError, InputError } from '../core/errors.ts';
 import { MAX_LINE_BYTES } from '../core/limits.ts';
 import type { Frame } from '../core/geometry/frame.ts';
 import { ExtxyzAssembler, type FrameDecision } from './extxyz-parse.ts';
 import { formatExtxyzFrame } from './extxyz-format.ts';
 import { atomicWriteStream } from './atomic.ts';
+import { builtin } from './builtin.ts';
 import { hasGzipName, isGzipHandle } from './gzip.ts';
 import { readError } from './whole-file.ts';
 
@@ -58,7 +58,7 @@ export async function* byteChunks(file: string, signal?: AbortSignal, start = 0)
   const fh = await openForReading(file);
   try {
     if (await isGzipHandle(fh)) {
-      const gunzip = createGunzip({ chunkSize: CHUNK_BYTES });
+      const gunzip = builtin('node:zlib').createGunzip({ chunkSize: CHUNK_BYTES });
       const raw = fh.createReadStream({ start: 0, highWaterMark: CHUNK_BYTES, autoClose: false });
       raw.on('error', (e) => gunzip.destroy(e));
       raw.pipe(gunzip);
@@ -346,7 +346,7 @@ export async function writeExtxyz(file: string, frames: Iterable<Frame> | AsyncI
     const text = block.join('');
     block = [];
     blockChars = 0;
-    await out.write(gzip ? gzipSync(Buffer.from(text, 'utf8')) : text);
+    await out.write(gzip ? builtin('node:zlib').gzipSync(Buffer.from(text, 'utf8')) : text);
   };
   try {
     for await (const frame of frames as AsyncIterable<Frame>) {

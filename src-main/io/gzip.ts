@@ -2,9 +2,9 @@
 // by the .gz ending of a name (what a file to be written should hold). Every reader and writer asks here.
 import { promises as fsp } from 'node:fs';
 import type { FileHandle } from 'node:fs/promises';
-import { gunzipSync } from 'node:zlib';
 import { InputError } from '../core/errors.ts';
 import { MAX_WHOLE_FILE_BYTES } from '../core/limits.ts';
+import { builtin } from './builtin.ts';
 
 /** True when the bytes start with the gzip magic number. */
 export function isGzipData(bytes: Uint8Array): boolean {
@@ -47,7 +47,7 @@ export function gunzipIfGzip(bytes: Uint8Array, file: string, maxBytes = MAX_WHO
   const buf = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   if (!isGzipData(bytes)) return buf;
   try {
-    return gunzipSync(buf, { maxOutputLength: maxBytes });
+    return builtin('node:zlib').gunzipSync(buf, { maxOutputLength: maxBytes });
   } catch (e) {
     if ((e as NodeJS.ErrnoException).code === 'ERR_BUFFER_TOO_LARGE' || e instanceof RangeError) {
       throw new InputError(`the decompressed data is larger than ${maxBytes / (1 << 20)} MiB`, { file }, 'this file is read whole into memory; for long trajectories use extended XYZ, which is streamed');

@@ -4,7 +4,7 @@
 // sources, each worker loads the given .ts entry through ts-worker.mjs (tsx).
 // The Electron bundle uses electron-vite's `?nodeWorker` import instead (see shell/index.ts).
 import { existsSync } from 'node:fs';
-import { Worker } from 'node:worker_threads';
+import { createRequire } from 'node:module';
 import type { WorkerFactory } from './runner.ts';
 
 /** The bundled entry for a .ts worker entry, when running from the bundles and it was built; else null. */
@@ -16,9 +16,17 @@ export function bundledWorkerEntry(entry: URL): URL | null {
   return existsSync(bundled) ? bundled : null;
 }
 
+/**
+ * node:worker_threads, loaded when the first worker starts (process.getBuiltinModule from Node 20.16): a run that
+ * predicts its few frames in its own thread never pays for loading it (io/builtin.ts does the same for io/ and app/).
+ */
+function workerClass(): typeof import('node:worker_threads').Worker {
+  return (process.getBuiltinModule?.('node:worker_threads') ?? (createRequire(import.meta.url)('node:worker_threads') as typeof import('node:worker_threads'))).Worker;
+}
+
 export function tsWorkerFactory(entry: URL): WorkerFactory {
   const bundled = bundledWorkerEntry(entry);
-  if (bundled) return () => new Worker(bundled);
+  if (bundled) return () => new (workerClass())(bundled);
   const bootstrap = new URL('./ts-worker.mjs', import.meta.url);
-  return () => new Worker(bootstrap, { workerData: { entry: entry.href } });
+  return () => new (workerClass())(bootstrap, { workerData: { entry: entry.href } });
 }

@@ -137,6 +137,18 @@ describe('the pre-built program compiled with a code cache (bin/load-program.mjs
     expect(readFileSync(join(cache, file)).equals(before)).toBe(true);
   }, 120_000);
 
+  it('predicts a frame in its own thread without loading zlib, readline or worker_threads (each is loaded where it is used)', () => {
+    const preload = join(dir, 'loaded.cjs');
+    const list = join(dir, 'loaded.json');
+    writeFileSync(preload, `process.on('exit', () => require('node:fs').writeFileSync(${JSON.stringify(list)}, JSON.stringify(process.moduleLoadList)));\n`);
+    const out = join(dir, 'one-frame.csv');
+    const err = execFileSync(process.execPath, ['-r', preload, join(root, 'bin', 'polarweave.mjs'), 'predict', MODEL, DATA, '--frames', '0:1', '-o', out], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'], env });
+    expect(readFileSync(out, 'utf8')).toContain('# Identity:');
+    const loaded = JSON.parse(readFileSync(list, 'utf8')) as string[];
+    expect(loaded).toContain('NativeModule fs'); // the list is the one of this run
+    for (const m of ['zlib', 'readline', 'worker_threads']) expect(loaded, err).not.toContain(`NativeModule ${m}`);
+  }, 60_000);
+
   it('compiles the predict worker with a code cache of its own, stored after its first batch; damaged, it is written anew', () => {
     // 8 frames on one thread: two batches of 4, in a worker (predict-worker.mjs loads predict-worker.cjs)
     const workerScript = readFileSync(join(root, 'out', 'cli', 'predict-worker.cjs'), 'utf8');

@@ -5,9 +5,9 @@
 // and "shard" fields of the CSV identity line, the pred_shard key of extended XYZ frames) are dropped, so the
 // result has the bytes of one unsharded run over the same frames.
 import { createReadStream } from 'node:fs';
-import { createInterface } from 'node:readline';
 import { CancelledError, InputError } from '../../core/errors.ts';
 import { atomicWriteStream } from '../../io/atomic.ts';
+import { builtin } from '../../io/builtin.ts';
 import { fileKind } from '../../io/read-structures.ts';
 import { identityLine, parseFrameStamp, parseIdentityLine, parseShardStampText, PRED_KEYS, selectionText, type Identity, type SelectionText } from '../../io/prediction/prediction-format.ts';
 
@@ -42,7 +42,7 @@ function kindOf(file: string): Kind {
 
 async function* lines(file: string, signal?: AbortSignal): AsyncGenerator<string> {
   const stream = createReadStream(file, { encoding: 'utf8', highWaterMark: 1 << 20 });
-  const rl = createInterface({ input: stream, crlfDelay: Infinity });
+  const rl = builtin('node:readline').createInterface({ input: stream, crlfDelay: Infinity });
   try {
     for await (const l of rl) {
       if (signal?.aborted) throw new CancelledError();
