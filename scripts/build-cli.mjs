@@ -77,6 +77,9 @@ else await import('./predict-worker-modules.mjs');
 const zodEnglishOnly = {
   name: 'zod-english-only',
   setup(build) {
+    // io/model-check.ts loads zod with require() at its first use: the same ES module as every import of it (one
+    // copy, English only), not zod's CommonJS build with every locale
+    build.onResolve({ filter: /^zod$/ }, (args) => (args.kind === 'require-call' ? { path: join(root, 'node_modules', 'zod', 'index.js') } : undefined));
     build.onResolve({ filter: /^\.\.\/locales\/index\.js$/ }, (args) =>
       /zod[\\/]v4[\\/](classic|core)[\\/]/.test(args.importer) ? { path: 'zod-locales-en', namespace: 'zod-locales' } : undefined,
     );

@@ -137,16 +137,28 @@ describe('the pre-built program compiled with a code cache (bin/load-program.mjs
     expect(readFileSync(join(cache, file)).equals(before)).toBe(true);
   }, 120_000);
 
-  it('predicts a frame in its own thread without loading zlib, readline or worker_threads (each is loaded where it is used)', () => {
+  it('predicts a frame in its own thread without loading zlib, readline, worker_threads, nor zod once its model is cached (each is loaded where it is used)', () => {
     const preload = join(dir, 'loaded.cjs');
     const list = join(dir, 'loaded.json');
-    writeFileSync(preload, `process.on('exit', () => require('node:fs').writeFileSync(${JSON.stringify(list)}, JSON.stringify(process.moduleLoadList)));\n`);
+    // zod's module marks the global object when it runs
+    writeFileSync(preload, `process.on('exit', () => require('node:fs').writeFileSync(${JSON.stringify(list)}, JSON.stringify({ modules: process.moduleLoadList, zod: '__zod_globalRegistry' in globalThis })));\n`);
     const out = join(dir, 'one-frame.csv');
-    const err = execFileSync(process.execPath, ['-r', preload, join(root, 'bin', 'polarweave.mjs'), 'predict', MODEL, DATA, '--frames', '0:1', '-o', out], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'], env });
-    expect(readFileSync(out, 'utf8')).toContain('# Identity:');
-    const loaded = JSON.parse(readFileSync(list, 'utf8')) as string[];
-    expect(loaded).toContain('NativeModule fs'); // the list is the one of this run
-    for (const m of ['zlib', 'readline', 'worker_threads']) expect(loaded, err).not.toContain(`NativeModule ${m}`);
+    const own = { ...env, POLARWEAVE_CACHE_DIR: join(dir, 'cache-one-frame') };
+    const run = () => {
+      const err = execFileSync(process.execPath, ['-r', preload, join(root, 'bin', 'polarweave.mjs'), 'predict', MODEL, DATA, '--frames', '0:1', '-o', out], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'], env: own });
+      expect(readFileSync(out, 'utf8')).toContain('# Identity:');
+      return { err, ...(JSON.parse(readFileSync(list, 'utf8')) as { modules: string[]; zod: boolean }) };
+    };
+    const first = run(); // parses and checks the model (zod), then keeps it in the cache folder
+    expect(first.zod).toBe(true);
+    const text = readFileSync(out, 'utf8');
+    const second = run();
+    expect(readFileSync(out, 'utf8')).toBe(text);
+    expect(second.zod).toBe(false);
+    for (const r of [first, second]) {
+      expect(r.modules).toContain('NativeModule fs'); // the list is the one of this run
+      for (const m of ['zlib', 'readline', 'worker_threads']) expect(r.modules, r.err).not.toContain(`NativeModule ${m}`);
+    }
   }, 60_000);
 
   it('compiles the predict worker with a code cache of its own, stored after its first batch; damaged, it is written anew', () => {
