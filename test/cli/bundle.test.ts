@@ -137,7 +137,7 @@ describe('the pre-built program compiled with a code cache (bin/load-program.mjs
     expect(readFileSync(join(cache, file)).equals(before)).toBe(true);
   }, 120_000);
 
-  it('predicts a frame in its own thread without loading zlib, readline, worker_threads, nor zod once its model is cached (each is loaded where it is used)', () => {
+  it('predicts a frame in its own thread without loading zlib, readline, worker_threads, perf_hooks, nor zod once its model is cached (each is loaded where it is used)', () => {
     const preload = join(dir, 'loaded.cjs');
     const list = join(dir, 'loaded.json');
     // zod's module marks the global object when it runs
@@ -157,7 +157,7 @@ describe('the pre-built program compiled with a code cache (bin/load-program.mjs
     expect(second.zod).toBe(false);
     for (const r of [first, second]) {
       expect(r.modules).toContain('NativeModule fs'); // the list is the one of this run
-      for (const m of ['zlib', 'readline', 'worker_threads']) expect(r.modules, r.err).not.toContain(`NativeModule ${m}`);
+      for (const m of ['zlib', 'readline', 'worker_threads', 'perf_hooks']) expect(r.modules, r.err).not.toContain(`NativeModule ${m}`);
     }
   }, 60_000);
 

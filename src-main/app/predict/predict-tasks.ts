@@ -77,11 +77,19 @@ export async function predictChunk(input: PredictChunkInput, ctx: TaskContext): 
 }
 
 /**
+ * Milliseconds on a monotonic clock. process.hrtime, not the global `performance`: its first use loads node:perf_hooks,
+ * 2–5 ms (more on a busy machine) of a run that predicts one frame.
+ */
+function nowMs(): number {
+  return Number(process.hrtime.bigint()) / 1e6;
+}
+
+/**
  * The work of one 'predict-chunk' batch with a model at hand: in a worker (predictChunk), or in the calling
  * thread for a selection too small to be worth starting a worker (stream-predict.ts), with the same code.
  */
 export function predictFrames(model: Model, predict: Predictor, input: Omit<PredictChunkInput, 'model' | 'modelPath' | 'modelSha256'>, ctx: Pick<TaskContext, 'signal' | 'progress'>): PredictChunkOutput {
-  const t0 = performance.now();
+  const t0 = nowMs();
   const out: PredictChunkOutput = { text: '', index: [], outside: [], atomsOutside: [], maxDistance: [], set: [], computeMs: 0 };
   const parts: string[] = [];
   const total = input.frames.length;
@@ -99,7 +107,7 @@ export function predictFrames(model: Model, predict: Predictor, input: Omit<Pred
     ctx.progress({ stage: 'predict', done: j + 1, total });
   }
   out.text = parts.join('');
-  out.computeMs = performance.now() - t0;
+  out.computeMs = nowMs() - t0;
   return out;
 }
 
