@@ -4,8 +4,11 @@
 // through tsx (an edited checkout, or an install that skipped its scripts): the same code, slower to start.
 // The pre-built program is loaded as one script with a code cache (load-program.mjs) when it was built so, else
 // as modules (main.mjs).
-import { readFileSync, statSync } from 'node:fs';
-import { fileURLToPath } from 'node:url';
+// node:fs as its CommonJS object when Node has process.getBuiltinModule (20.16 on): `import` would build an ES
+// module view of it, which reads every export and so loads node:stream (ReadStream), 5-6 ms of each start.
+const builtin = (id) => process.getBuiltinModule?.(id) ?? import(id);
+const { readFileSync, statSync } = await builtin('node:fs');
+const { fileURLToPath } = await builtin('node:url');
 
 const root = new URL('../', import.meta.url);
 

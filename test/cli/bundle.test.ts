@@ -144,8 +144,8 @@ describe('the pre-built program compiled with a code cache (bin/load-program.mjs
     writeFileSync(preload, `process.on('exit', () => require('node:fs').writeFileSync(${JSON.stringify(list)}, JSON.stringify({ modules: process.moduleLoadList, zod: '__zod_globalRegistry' in globalThis })));\n`);
     const out = join(dir, 'one-frame.csv');
     const own = { ...env, POLARWEAVE_CACHE_DIR: join(dir, 'cache-one-frame') };
-    const run = () => {
-      const err = execFileSync(process.execPath, ['-r', preload, join(root, 'bin', 'polarweave.mjs'), 'predict', MODEL, DATA, '--frames', '0:1', '-o', out], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'], env: own });
+    const run = (more: string[] = []) => {
+      const err = execFileSync(process.execPath, [...more, '-r', preload, join(root, 'bin', 'polarweave.mjs'), 'predict', MODEL, DATA, '--frames', '0:1', '-o', out], { encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'], env: own });
       expect(readFileSync(out, 'utf8')).toContain('# Identity:');
       return { err, ...(JSON.parse(readFileSync(list, 'utf8')) as { modules: string[]; zod: boolean }) };
     };
@@ -155,6 +155,11 @@ describe('the pre-built program compiled with a code cache (bin/load-program.mjs
     const second = run();
     expect(readFileSync(out, 'utf8')).toBe(text);
     expect(second.zod).toBe(false);
+    // a Node before 20.16 (no process.getBuiltinModule): bin/ and io/builtin.ts import or require them instead
+    const old = join(dir, 'no-get-builtin.cjs');
+    writeFileSync(old, 'process.getBuiltinModule = undefined;\n');
+    run(['-r', old]);
+    expect(readFileSync(out, 'utf8')).toBe(text);
     for (const r of [first, second]) {
       expect(r.modules).toContain('NativeModule fs'); // the list is the one of this run
       for (const m of ['zlib', 'readline', 'worker_threads', 'perf_hooks']) expect(r.modules, r.err).not.toContain(`NativeModule ${m}`);
