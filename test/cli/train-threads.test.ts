@@ -5,19 +5,12 @@ import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { runCli } from '../../src-main/cli/main.ts';
+import { cli } from './run-cli.ts';
 import { supercell } from '../../src-main/core/geometry/cell.ts';
 import { parseExtxyz, writeExtxyz } from '../../src-main/io/extxyz.ts';
 
 let dir: string;
 const FAST = ['--radial-functions', '4', '--angular-order', '3'];
-
-async function cli(argv: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '';
-  let err = '';
-  const code = await runCli(argv, { out: (t) => (out += t), err: (t) => (err += t), signal: new AbortController().signal });
-  return { code, out, err };
-}
 
 beforeAll(async () => {
   dir = mkdtempSync(join(tmpdir(), 'pw-train-threads-'));
@@ -30,7 +23,7 @@ describe('polarweave train --threads', () => {
   it('writes the same model with 1 and 2 threads', async () => {
     const numbers = async (threads: string) => {
       const out = join(dir, `m${threads}.json`);
-      const r = await cli(['train', join(dir, 'big.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', ...FAST, '--threads', threads, '-o', out]);
+      const r = await cli('train', join(dir, 'big.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', ...FAST, '--threads', threads, '-o', out);
       expect(r.err).not.toMatch(/error/);
       expect(r.code).toBe(0);
       expect(r.out).toMatch(/trained on 8 frames, 24576 atoms/);
@@ -47,7 +40,7 @@ describe('polarweave train --threads', () => {
 
   it('refuses a thread count that is not a whole number ≥ 1', async () => {
     for (const bad of ['0', '1.5', 'many']) {
-      const r = await cli(['train', join(dir, 'big.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', '--threads', bad, '-o', join(dir, 'x.json')]);
+      const r = await cli('train', join(dir, 'big.extxyz'), '--tensor', 'eps_inf', '--as', 'eps', '--threads', bad, '-o', join(dir, 'x.json'));
       expect(r.code).toBe(2);
       expect(r.err).toMatch(/--threads must be a whole number ≥ 1/);
     }
