@@ -33,7 +33,6 @@ function entryFile(folder: string, fileSha256: string, identity: string): string
   return join(folder, `model-${fileSha256.slice(0, 24)}.${identity.slice(0, 24)}.bin`);
 }
 
-
 /**
  * The model this program decoded from a file whose bytes have SHA-256 `fileSha256`, from the cache folder; null
  * when there is no identity, no entry, or the entry is damaged (its checksum) or not of this layout.

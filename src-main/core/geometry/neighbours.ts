@@ -264,7 +264,8 @@ interface KernelSearch {
  * (the caller then searches in JavaScript).
  */
 function kernelPairs(kernel: NeighbourKernels, s: KernelSearch): (Outputs & { count: number }) | null {
-  const { n, work, module } = { ...s, module: kernel.module };
+  const { n, work } = s;
+  const module = kernel.module;
   const nBins = s.nb[0] * s.nb[1] * s.nb[2];
   let { outJ, outV, outD, outS, cap } = s.out;
   let chunk = Math.max(1, s.chunk);

@@ -63,10 +63,6 @@ export class DomainStatsBuilder {
     this.scale = Array.from({ length: centres.length }, () => []);
     this.atomCounts = new Array(this.S).fill(0);
   }
-  /** One training frame: its neighbour list (built with at least the cutoff) and the raw λ=0 norms per centre. */
-  add(frame: Frame, pairs: NeighbourList, centreSpecies?: Int32Array, norms?: Float64Array): void {
-    this.addFrame(domainFrame(frame, pairs, this.species, this.cutoff, centreSpecies, norms));
-  }
   /** One training frame's values (domainFrame, computed here or in another thread); frames in training order. */
   addFrame(v: DomainFrame): void {
     this.frames++;

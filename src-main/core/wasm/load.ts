@@ -76,7 +76,9 @@ export function compileAhead(name: string, base64: string): Promise<void> {
   compiling.add(name);
   try {
     return WebAssembly.compile(bytesOf(base64)).then(
-      (m) => void compiled.set(name, m),
+      (m) => {
+        if (!modules.has(name)) compiled.set(name, m); // else its first use compiled it already
+      },
       () => undefined, // refused (no SIMD): the first use finds out again and takes the JavaScript path
     );
   } catch {

@@ -204,15 +204,7 @@ function contractAny(half: usize, hs: usize, nM: i32, w: i32, cT: usize, tch: i3
         s0 = f64x2.add(s0, f64x2.mul(v128.load64_splat(hb + <usize>m * hs), v128.load(col)));
         col += rowBytes;
       }
-      let r0 = f64x2.mul(rest, s0);
-      if (j == 0) r0 = f64x2.replace_lane(r0, 0, wFirst * f64x2.extract_lane(s0, 0));
-      if (stride == 1) {
-        v128.store(ob + (<usize>j << 3), r0);
-      } else {
-        const o = ob + <usize>j * step;
-        store<f64>(o, f64x2.extract_lane(r0, 0));
-        store<f64>(o + step, f64x2.extract_lane(r0, 1));
-      }
+      putPartners(ob, step, stride, j, s0, wFirst, rest);
     }
     if (j < count) {
       let s: f64 = 0;

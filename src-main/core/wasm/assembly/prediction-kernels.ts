@@ -484,8 +484,7 @@ export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize
     const count = min(4, nq - g0);
     // centred queries, their squared norms and coordinates (free summation order: they only feed the bound)
     for (let g = 0; g < 4; g++) {
-      const row = load<i32>(idx + (<usize>(g0 + (g < count ? g : 0)) << 2));
-      f64.store(xx + (<usize>g << 3), centre(queries + <usize>row * rowBytes, mean, xc + <usize>g * rowBytes, n0));
+      f64.store(xx + (<usize>g << 3), centre(queryRow(queries, idx, g0 + (g < count ? g : 0), rowBytes), mean, xc + <usize>g * rowBytes, n0));
     }
     project(basis, d, xc, n0, q);
     // each query's candidates (pairs: group slot, representative), then their distances in order, four at a time
@@ -542,7 +541,7 @@ const sums = memory.data(32);
 export function scanSpecies(reps: usize, m: i32, n0: i32, queries: usize, idx: usize, nq: i32, out: usize): void {
   const rowBytes = <usize>n0 << 3;
   for (let k = 0; k < nq; k++) {
-    const x = queries + <usize>load<i32>(idx + (<usize>k << 2)) * rowBytes;
+    const x = queryRow(queries, idx, k, rowBytes);
     let best: f64 = Infinity;
     for (let r = 0; r < m; r += 4) {
       // a short last group repeats its first member (its sum is computed again and changes nothing)
