@@ -28,11 +28,10 @@ import { nearestAllOf } from './nearest-search.ts';
 import { tuneCombinations, tuneSettingsWith, type TuneResult } from './tuning.ts';
 import { DEFAULT_REGULARISATION_GRID, fitRidge, foldsOf, heldOutRows, posteriorVariance, primalWeights, type Design, type Posterior } from './regression.ts';
 import { calibratePart, type Calibration, type PartCalibration } from './calibration.ts';
+import { farthestSample, nearestOthers, type Sample } from './sampling.ts';
 import {
-  farthestPointSample,
   foldCoefficients,
   foldSparseWeights,
-  nearestOtherDistances,
   anchorsOf,
   projectRows,
   representativeFactor,
@@ -599,12 +598,10 @@ export interface ApplicabilityInput {
   centres: number;
 }
 
-type Sample = ReturnType<typeof farthestPointSample>;
-
 /** A linear model's applicability: APPLICABILITY_POINTS representatives per species by farthest-point sampling, then applicabilityFrom. */
 export function sampledApplicability(input: ApplicabilityInput): Model['applicability'] {
   const { pool } = input;
-  return applicabilityFrom(input, pool.perSpecies.map((cand) => farthestPointSample(pool.p, pool.n0, cand, APPLICABILITY_POINTS)));
+  return applicabilityFrom(input, pool.perSpecies.map((cand) => farthestSample(pool.p, pool.n0, cand, APPLICABILITY_POINTS)));
 }
 
 /**
@@ -617,7 +614,7 @@ function applicabilityFrom(input: ApplicabilityInput, samples: Sample[]): Model[
   const n0 = envPool.n0;
   const repIndex = Int32Array.from(samples.flatMap((r) => [...r.chosen]));
   const perSpecies: number[] = new Array(nS).fill(0);
-  const dist = nearestOtherDistances(envPool, repIndex, nFrames >= 2 ? envPool.frame : undefined, anchorsOf(envPool.count, envPool.perSpecies, samples));
+  const dist = nearestOthers(envPool, repIndex, envPool.perSpecies, nFrames >= 2 ? envPool.frame : undefined, anchorsOf(envPool.count, envPool.perSpecies, samples));
   for (let s = 0; s < nS; s++) {
     const ds: number[] = [];
     for (const i of envPool.perSpecies[s]) if (Number.isFinite(dist[i])) ds.push(dist[i]);
@@ -813,7 +810,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const applicabilityAside = linear && wantApplicability && runner?.applicability ? runner.applicability(applicabilityInput, hooks.signal) : null;
   applicabilityAside?.catch(() => undefined); // awaited below; a failure while fitting must not count as unhandled
   // Representatives (FPS per species) for kernel parts (and their applicability).
-  const samples = linear ? null : envPool.perSpecies.map((cand) => farthestPointSample(envPool.p, n0, cand, exact ? cand.length : settings.anchorEnvironments));
+  const samples = linear ? null : envPool.perSpecies.map((cand) => farthestSample(envPool.p, n0, cand, exact ? cand.length : settings.anchorEnvironments));
   const repIndex = Int32Array.from((samples ?? []).flatMap((r) => [...r.chosen]));
 
   // Pass 2 for the sparse form: K_NM rows per frame and order.
