@@ -22,6 +22,14 @@ const KERNEL_MAX_BYTES = 256 * 2 ** 20;
 /** Allowance on ρ² = |x − μ|² − |a|² (cancellation when the residual is small), relative to |x − μ|² (as nearest-search.ts). */
 const RHO_ALLOWANCE = 1e-10;
 
+/**
+ * Rows per call of the coordinates and distance kernels, and sampling steps per call: the engine runs a module's
+ * function unoptimised until it has run a while, and optimises it for its next call only, so work in one long call
+ * would run unoptimised throughout (about twice as slow, measured).
+ */
+const CHUNK = 512;
+const STEPS = 8;
+
 export type Sample = ReturnType<typeof farthestPointSample>;
 
 /** A basis (d rows of n0) and mean for the bound of one group of rows, from an evenly spaced subsample of them. */
@@ -69,7 +77,10 @@ function projectInto(k: SamplingKernels, p: Float64Array, n0: number, rows: Int3
   // the basis preparation may grow no memory of this module, but take fresh views anyway
   k.module.f64(scratch, n0).set(b.mean);
   k.module.f64(scratch + 8 * n0, b.d * n0).set(b.basis);
-  k.project(rowsAt, rows.length, n0, scratch, scratch + 8 * n0, b.d, D2, coords, RHO_ALLOWANCE, scratch + 8 * n0 * (b.d + 1));
+  for (let c = 0; c < rows.length; c += CHUNK) {
+    const count = Math.min(CHUNK, rows.length - c);
+    k.project(rowsAt + 8 * c * n0, count, n0, scratch, scratch + 8 * n0, b.d, D2, coords + 8 * c * W, RHO_ALLOWANCE, scratch + 8 * n0 * (b.d + 1));
+  }
 }
 
 /**
@@ -92,7 +103,15 @@ export function farthestSample(p: Float64Array, n0: number, candidates: Int32Arr
   k.module.f64(dist2At, n).fill(Infinity);
   k.module.i32(nearestAt, n).fill(-1);
   k.module.i32(stampAt, take).fill(-1);
-  const count = k.farthestPoints(rowsAt, coordsAt, n, n0, D2, take, firstSampled(p, n0, candidates), distAt, dist2At, nearestAt, toNewAt, stampAt, chosenAt);
+  let count = take;
+  let next = firstSampled(p, n0, candidates);
+  for (let from = 0; from < take; from += STEPS) {
+    next = k.farthestPoints(rowsAt, coordsAt, n, n0, D2, from, Math.min(take, from + STEPS), next, distAt, dist2At, nearestAt, toNewAt, stampAt, chosenAt);
+    if (next < 0) {
+      count = -next - 1;
+      break;
+    }
+  }
   coordinatesOf.set(candidates, { p, coords: k.module.f64(coordsAt, n * W).slice() });
   const picked = k.module.i32(chosenAt, count);
   const chosen = Int32Array.from(picked, (c) => candidates[c]);
@@ -143,6 +162,6 @@ export function nearestOthers(pool: EnvironmentPool, reps: Int32Array, groups: I
   // the last entry of a row in reps, as sparse.ts's map of them keeps it
   reps.forEach((i, t) => (own[i] = t));
   k.module.i32(repsAt, r).set(reps);
-  k.nearestOthers(rowsAt, coordsAt, D2, n0, count, speciesAt, frameOf ? frameAt : 0, ownAt, repsAt, r, boundsAt, outAt);
+  for (let i = 0; i < count; i += CHUNK) k.nearestOthers(rowsAt, coordsAt, D2, n0, i, Math.min(count, i + CHUNK), speciesAt, frameOf ? frameAt : 0, ownAt, repsAt, r, boundsAt, outAt);
   return k.module.f64(outAt, count).slice();
 }

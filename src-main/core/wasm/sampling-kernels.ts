@@ -13,16 +13,17 @@ export interface SamplingKernels {
    */
   project(rows: number, n: number, n0: number, mean: number, basis: number, d: number, d2: number, coords: number, allowance: number, scratch: number): void;
   /**
-   * Farthest-point sampling of up to `take` of the n rows at `rows` from row `first`, with their coordinates; dist,
-   * dist2 (n doubles, +∞), nearest (n integers, −1), toNew (take doubles), stamp (take integers, −1), chosen (take
-   * integers). Returns the number chosen.
+   * Steps from … to − 1 of the farthest-point sampling of the n rows at `rows`, `first` the row chosen at step `from`,
+   * with their coordinates; dist, dist2 (n doubles, +∞), nearest (n integers, −1), toNew (a double per step), stamp
+   * (an integer per step, −1), chosen (an integer per step). Returns the row to choose at step `to`, or −(count + 1)
+   * when the sampling ended after count choices.
    */
-  farthestPoints(rows: number, coords: number, n: number, n0: number, d2: number, take: number, first: number, dist: number, dist2: number, nearest: number, toNew: number, stamp: number, chosen: number): number;
+  farthestPoints(rows: number, coords: number, n: number, n0: number, d2: number, from: number, to: number, first: number, dist: number, dist2: number, nearest: number, toNew: number, stamp: number, chosen: number): number;
   /**
-   * Each row's distance to the nearest of the r representatives `reps` of its species other than its own entry
-   * (`own`) and, when `frame` is not 0, from another frame; `bounds` holds r doubles, `out` count doubles.
+   * For rows from … to − 1, the distance to the nearest of the r representatives `reps` of its species other than its
+   * own entry (`own`) and, when `frame` is not 0, from another frame; `bounds` holds r doubles, `out` a double per row.
    */
-  nearestOthers(rows: number, coords: number, d2: number, n0: number, count: number, species: number, frame: number, own: number, reps: number, r: number, bounds: number, out: number): void;
+  nearestOthers(rows: number, coords: number, d2: number, n0: number, from: number, to: number, species: number, frame: number, own: number, reps: number, r: number, bounds: number, out: number): void;
 }
 
 let cached: SamplingKernels | null = null;

@@ -170,21 +170,23 @@ export function project(rows: usize, n: i32, n0: i32, mean: usize, basis: usize,
 }
 
 /**
- * Farthest-point sampling of up to `take` of the n rows at `rows` (n0 doubles each, row c at rows + c·n0·8), the
- * first one being `first`: farthestPointSample of sparse.ts from its first choice on, step for step. `coords` holds
- * each row's coordinates (w = d2 + 2 numbers, see the top of this file). The caller fills dist and dist2 (n doubles
- * each) with +∞, nearest (n 32-bit integers) with −1 and stamp (take integers) with −1; toNew holds take doubles. On
- * return chosen (take integers) holds the rows chosen, in order, dist each row's distance to the chosen set, nearest
- * the chosen row nearest it (an index into chosen); the result is the number chosen (fewer than take when every
- * remaining row duplicates a chosen one). A row that neither the triangle inequality (as in sparse.ts) nor the bound
- * rules out gets its squared distance to the new row, left early once it reaches the row's squared distance so far.
+ * Steps from … to − 1 of the farthest-point sampling of the n rows at `rows` (n0 doubles each, row c at
+ * rows + c·n0·8), the row chosen at step `from` being `first`: farthestPointSample of sparse.ts, step for step. The
+ * caller runs the steps in several calls, so that the engine optimises this function after its first ones. `coords`
+ * holds each row's coordinates (w = d2 + 2 numbers, see the top of this file). The caller fills dist and dist2 (n
+ * doubles each) with +∞, nearest (n 32-bit integers) with −1 and stamp (one integer per step) with −1; toNew holds
+ * one double per step. After the last step chosen (one integer per step) holds the rows chosen, in order, dist each
+ * row's distance to the chosen set, nearest the chosen row nearest it (an index into chosen). The result is the row
+ * to choose at step `to`, or −(count + 1) when every remaining row duplicates a chosen one after count choices. A
+ * row that neither the triangle inequality (as in sparse.ts) nor the bound rules out gets its squared distance to
+ * the new row, left early once it reaches the row's squared distance so far.
  */
-export function farthestPoints(rows: usize, coords: usize, n: i32, n0: i32, d2: i32, take: i32, first: i32, dist: usize, dist2: usize, nearest: usize, toNew: usize, stamp: usize, chosen: usize): i32 {
+export function farthestPoints(rows: usize, coords: usize, n: i32, n0: i32, d2: i32, from: i32, to: i32, first: i32, dist: usize, dist2: usize, nearest: usize, toNew: usize, stamp: usize, chosen: usize): i32 {
   const rowBytes = <usize>n0 << 3;
   const coordBytes = <usize>(d2 + 2) << 3;
   const SAFE: f64 = 1 + 1e-9;
   let next = first;
-  for (let k = 0; k < take; k++) {
+  for (let k = from; k < to; k++) {
     const q = rows + <usize>next * rowBytes;
     const qc = coords + <usize>next * coordBytes;
     store<i32>(chosen + (<usize>k << 2), next);
@@ -231,24 +233,24 @@ export function farthestPoints(rows: usize, coords: usize, n: i32, n0: i32, d2: 
       }
     }
     next = bestAt;
-    if (best <= 0) return k + 1;
+    if (best <= 0) return -(k + 2);
   }
-  return take;
+  return next;
 }
 
 /**
- * For each of the count rows at `rows` (n0 doubles each, with their coordinates at `coords`, w = d2 + 2 numbers
- * each), the distance to the nearest of the R representatives `reps` (row numbers, 32-bit) of its own species
- * (`species`, one integer per row), other than its own entry `own[i]` (an index into reps, or −1) and, when `frame`
- * is not 0, from another frame (`frame`, one integer per row); +∞ when there is none. nearestOtherDistances of
- * sparse.ts: the smallest of the same squared sums, so the same numbers. The representative of the smallest bound is
- * summed first, then every other one its bound does not rule out against the smallest sum so far (left early once
- * it reaches it). `bounds` holds R doubles.
+ * For each of the rows from … to − 1 of those at `rows` (n0 doubles each, with their coordinates at `coords`,
+ * w = d2 + 2 numbers each), the distance to the nearest of the R representatives `reps` (row numbers, 32-bit) of its
+ * own species (`species`, one integer per row), other than its own entry `own[i]` (an index into reps, or −1) and,
+ * when `frame` is not 0, from another frame (`frame`, one integer per row); +∞ when there is none.
+ * nearestOtherDistances of sparse.ts: the smallest of the same squared sums, so the same numbers. The representative
+ * of the smallest bound is summed first, then every other one its bound does not rule out against the smallest sum
+ * so far (left early once it reaches it). `bounds` holds R doubles.
  */
-export function nearestOthers(rows: usize, coords: usize, d2: i32, n0: i32, count: i32, species: usize, frame: usize, own: usize, reps: usize, r: i32, bounds: usize, out: usize): void {
+export function nearestOthers(rows: usize, coords: usize, d2: i32, n0: i32, from: i32, to: i32, species: usize, frame: usize, own: usize, reps: usize, r: i32, bounds: usize, out: usize): void {
   const rowBytes = <usize>n0 << 3;
   const coordBytes = <usize>(d2 + 2) << 3;
-  for (let i = 0; i < count; i++) {
+  for (let i = from; i < to; i++) {
     const si = load<i32>(species + (<usize>i << 2));
     const fi = frame != 0 ? load<i32>(frame + (<usize>i << 2)) : 0;
     const self = load<i32>(own + (<usize>i << 2));
