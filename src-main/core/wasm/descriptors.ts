@@ -55,6 +55,8 @@ export interface DescriptorKernels {
    * of its plan (tensor-readout.ts layoutPlan), the density coefficients c, the weight matrices W and the output y.
    */
   readOut(plan: number, c: number, W: number, y: number): void;
+  /** acc[r·accRow + f] += x[r·n + f] for r < rows, f < n (accRow in doubles): a block added to running sums. */
+  addRows(acc: number, accRow: number, x: number, n: number, rows: number): void;
 }
 
 let cached: DescriptorKernels | null | undefined;
@@ -84,6 +86,7 @@ export function descriptorKernels(): DescriptorKernels | null {
       coupleCross: e.coupleCross as DescriptorKernels['coupleCross'],
       normalise: e.normalise as DescriptorKernels['normalise'],
       readOut: e.readOut as DescriptorKernels['readOut'],
+      addRows: e.addRows as DescriptorKernels['addRows'],
     };
   }
   return cached ?? null;

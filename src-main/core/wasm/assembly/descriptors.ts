@@ -352,6 +352,26 @@ export function normaliseMany(x: usize, len: i32, count: i32, stride: usize, sq:
   }
 }
 
+/**
+ * acc[r·accRow + f] += x[r·n + f] for r < rows, f < n (accRow in doubles): one environment's block added to its
+ * species' running sums (core/learning/kernels.ts linearDesignRows, each entry a sum in environment order).
+ */
+export function addRows(acc: usize, accRow: i32, x: usize, n: i32, rows: i32): void {
+  for (let r = 0; r < rows; r++) {
+    const a = acc + (<usize>(r * accRow) << 3);
+    const b = x + (<usize>(r * n) << 3);
+    let f = 0;
+    for (; f + 1 < n; f += 2) {
+      const at = a + (<usize>f << 3);
+      v128.store(at, f64x2.add(v128.load(at), v128.load(b + (<usize>f << 3))));
+    }
+    if (f < n) {
+      const at = a + (<usize>f << 3);
+      store<f64>(at, load<f64>(at) + load<f64>(b + (<usize>f << 3)));
+    }
+  }
+}
+
 /** x[0 … len) *= inv, two per vector. */
 @inline
 function scale(x: usize, len: i32, inv: f64): void {
