@@ -769,15 +769,21 @@ function tensorSteps(P: Plan, tensors: Float64Array[], sums?: BlockSums): Tensor
         const T = P.tensors[k];
         const nM = 2 * T.lambda + 1;
         const size = nM * T.n;
-        L.kernels.normaliseMany(L.tensors[k].out, size, count, size * 8, L.sq);
         if (!sums) {
+          L.kernels.normaliseMany(L.tensors[k].out, size, count, size * 8, L.sq);
           for (let j = 0; j < count; j++) tensors[k].set(views.out[k][j], pending[j].k0 * size);
           continue;
         }
+        // the squared norms, then each block scaled as normalise scales it while it is added (one pass over it)
+        L.kernels.sumSquaresMany(L.tensors[k].out, size, count, size * 8, L.sq);
         const cols = sums.species * T.n;
         const held = L.kernels.module.f64(at, nM * cols);
         if (synced !== region!.generation) held.set(sums.rows[k]);
-        for (let j = 0; j < count; j++) L.kernels.addRows(at + sums.centreSpecies[pending[j].e] * T.n * 8, cols, L.tensors[k].out + j * size * 8, T.n, nM);
+        for (let j = 0; j < count; j++) {
+          const sq = views.sq[j];
+          const inv = sq === 0 || !Number.isFinite(sq) ? 1 : 1 / Math.sqrt(sq);
+          L.kernels.addRows(at + sums.centreSpecies[pending[j].e] * T.n * 8, cols, L.tensors[k].out + j * size * 8, T.n, nM, inv);
+        }
         sums.rows[k].set(L.kernels.module.f64(at, nM * cols));
         at += nM * cols * 8;
       }
