@@ -327,6 +327,16 @@ export function normalise(x: usize, len: i32): f64 {
  * the four do not wait on each other, where one block's sum alone is a chain of dependent additions.
  */
 export function normaliseMany(x: usize, len: i32, count: i32, stride: usize, sq: usize): void {
+  squaresMany(x, len, count, stride, sq, true);
+}
+
+/** normaliseMany's sums of squares alone (sq[j]), the blocks left as they are (addRows scales them as it adds). */
+export function sumSquaresMany(x: usize, len: i32, count: i32, stride: usize, sq: usize): void {
+  squaresMany(x, len, count, stride, sq, false);
+}
+
+// @ts-ignore: decorator
+@inline function squaresMany(x: usize, len: i32, count: i32, stride: usize, sq: usize, scaleToo: bool): void {
   const bytes = <usize>len << 3;
   for (let j0 = 0; j0 < count; j0 += 4) {
     // blocks j0 … j0 + 3; past the last one, repeats of block j0 (their sums are not kept)
@@ -346,8 +356,30 @@ export function normaliseMany(x: usize, len: i32, count: i32, stride: usize, sq:
       const v = j < 2 ? s0 : s1;
       const s = (j & 1) == 0 ? f64x2.extract_lane(v, 0) : f64x2.extract_lane(v, 1);
       store<f64>(sq + (<usize>(j0 + j) << 3), s);
-      if (s == 0 || !isFinite<f64>(s)) continue;
+      if (!scaleToo || s == 0 || !isFinite<f64>(s)) continue;
       scale(p0 + <usize>j * stride, len, 1 / Math.sqrt(s));
+    }
+  }
+}
+
+/**
+ * acc[r·accRow + f] += x[r·n + f] · inv for r < rows, f < n (accRow in doubles): one environment's block, scaled as
+ * normalise scales it (inv = 1/√ of its squared norm; 1 where normalise leaves it as it is, x · 1 being x), added
+ * to its species' running sums (core/learning/kernels.ts linearDesignRows, each entry a sum in environment order).
+ */
+export function addRows(acc: usize, accRow: i32, x: usize, n: i32, rows: i32, inv: f64): void {
+  const vinv = f64x2.splat(inv);
+  for (let r = 0; r < rows; r++) {
+    const a = acc + (<usize>(r * accRow) << 3);
+    const b = x + (<usize>(r * n) << 3);
+    let f = 0;
+    for (; f + 1 < n; f += 2) {
+      const at = a + (<usize>f << 3);
+      v128.store(at, f64x2.add(v128.load(at), f64x2.mul(v128.load(b + (<usize>f << 3)), vinv)));
+    }
+    if (f < n) {
+      const at = a + (<usize>f << 3);
+      store<f64>(at, load<f64>(at) + load<f64>(b + (<usize>f << 3)) * inv);
     }
   }
 }
