@@ -546,7 +546,7 @@ function kernelLayout(P: Plan): KernelLayout | null {
   const cAt = take(P.expander.size * 8);
   const tensorBase = take(P.tch * 4);
   const allBase = take(nch * 4);
-  const cTall = take(nch * P.LL * 8);
+  const cTall = take(nch * P.LL * 8 + 8); // powerSpectrumRow reads one double past its end
   const invSqrt = take(P.invSqrt.length * 8);
   const row = take(GROUP * P.n0 * 8);
   const sq = take(GROUP * 8);

@@ -167,12 +167,14 @@ export function symmetricEigen(T: Mat3): SymmetricEigen {
   for (let i = 0; i < 9; i++) {
     if (!Number.isFinite(T[i])) throw new RangeError(`symmetricEigen: non-finite tensor entry ${T[i]}`);
   }
+  // rows in typed arrays: one hidden class whatever the numbers (plain arrays of small integers or doubles each
+  // deoptimised this function once more in a fresh thread)
   const a = [
-    [T[0], (T[1] + T[3]) / 2, (T[2] + T[6]) / 2],
-    [(T[1] + T[3]) / 2, T[4], (T[5] + T[7]) / 2],
-    [(T[2] + T[6]) / 2, (T[5] + T[7]) / 2, T[8]],
+    Float64Array.of(T[0], (T[1] + T[3]) / 2, (T[2] + T[6]) / 2),
+    Float64Array.of((T[1] + T[3]) / 2, T[4], (T[5] + T[7]) / 2),
+    Float64Array.of((T[2] + T[6]) / 2, (T[5] + T[7]) / 2, T[8]),
   ];
-  const v = [[1, 0, 0], [0, 1, 0], [0, 0, 1]];
+  const v = [Float64Array.of(1, 0, 0), Float64Array.of(0, 1, 0), Float64Array.of(0, 0, 1)];
   const scale = Math.max(Math.abs(a[0][0]), Math.abs(a[1][1]), Math.abs(a[2][2]), Math.abs(a[0][1]), Math.abs(a[0][2]), Math.abs(a[1][2]));
   for (let sweep = 0; sweep < 50 && scale > 0; sweep++) {
     const off = Math.abs(a[0][1]) + Math.abs(a[0][2]) + Math.abs(a[1][2]);
@@ -204,14 +206,16 @@ export function symmetricEigen(T: Mat3): SymmetricEigen {
   }
   const order = [0, 1, 2].sort((i, j) => a[i][i] - a[j][j]);
   const values = Float64Array.from(order, (i) => a[i][i]);
-  const cols = order.map((i) => [v[0][i], v[1][i], v[2][i]]);
-  for (const col of cols.slice(0, 2)) {
+  const column = (i: number) => Float64Array.of(v[0][i], v[1][i], v[2][i]);
+  const cols = [column(order[0]), column(order[1]), column(order[2])];
+  for (let c = 0; c < 2; c++) {
+    const col = cols[c];
     let big = 0;
     for (let k = 1; k < 3; k++) if (Math.abs(col[k]) > Math.abs(col[big]) + 1e-12) big = k;
     if (col[big] < 0) for (let k = 0; k < 3; k++) col[k] = -col[k];
   }
   const [e0, e1] = cols;
-  cols[2] = [e0[1] * e1[2] - e0[2] * e1[1], e0[2] * e1[0] - e0[0] * e1[2], e0[0] * e1[1] - e0[1] * e1[0]];
+  cols[2] = Float64Array.of(e0[1] * e1[2] - e0[2] * e1[1], e0[2] * e1[0] - e0[0] * e1[2], e0[0] * e1[1] - e0[1] * e1[0]);
   const vectors = new Float64Array(9);
   for (let j = 0; j < 3; j++) for (let k = 0; k < 3; k++) vectors[3 * k + j] = cols[j][k];
   return { values, vectors };

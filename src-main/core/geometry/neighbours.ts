@@ -199,6 +199,11 @@ function reusable(list: NeighbourList | undefined, n: number): {
   };
 }
 
+/** Three per-axis numbers, all `value`. */
+function axes(value: number): Float64Array {
+  return new Float64Array(3).fill(value);
+}
+
 /** Whether shift (s0, s1, s2) comes before candidate c's shift (ascending s_a, then s_b, then s_c). */
 function shiftBefore(s0: number, s1: number, s2: number, cS: Int32Array, c: number): boolean {
   const t0 = cS[3 * c];
@@ -236,12 +241,12 @@ interface Outputs {
 /** What neighbourList has set up, for its search in the kernel. */
 interface KernelSearch {
   n: number;
-  nb: number[];
-  m: number[];
+  nb: Float64Array;
+  m: Float64Array;
   orthogonal: boolean;
-  origin: number[];
-  f: number[];
-  thick: number[];
+  origin: Float64Array;
+  f: Float64Array;
+  thick: Float64Array;
   h: Mat3;
   cutoff: number;
   cut2: number;
@@ -428,10 +433,14 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
 
   // Bins: along a periodic axis nb equal slices of [0, 1); along an open axis slices of [lo, hi].
   // Each slice is at least binLen thick (perpendicular to its faces); the total is capped near 2N bins.
-  const nb = [1, 1, 1], f = [1, 1, 1], origin = [0, 0, 0];
-  const extent = [0, 1, 2].map((k) => (pbc[k] ? width[k] : n > 0 ? (hi[k] - lo[k]) * width[k] : 0));
+  // Per-axis numbers in typed arrays: one hidden class whatever the values (a plain array of three numbers holds
+  // small integers or doubles depending on the frame, and each change deoptimised this large function in a fresh
+  // thread, 5 optimising compiles of ~0.1–0.25 s CPU each before it settled)
+  const nb = axes(1), f = axes(1), origin = axes(0);
+  const extent = axes(0);
+  for (let k = 0; k < 3; k++) extent[k] = pbc[k] ? width[k] : n > 0 ? (hi[k] - lo[k]) * width[k] : 0;
   if (!extent.every(Number.isFinite) || !width.every(Number.isFinite)) {
-    throw new InputError(`the cell or the positions span a non-finite extent (${extent.map((e) => e.toPrecision(3)).join(', ')} Å)`, where,
+    throw new InputError(`the cell or the positions span a non-finite extent (${Array.from(extent, (e) => e.toPrecision(3)).join(', ')} Å)`, where,
       'check the cell and the positions: lattice vectors and coordinates are finite lengths in Å');
   }
   let binLen = cutoff * binFraction;
@@ -454,10 +463,11 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   }
   // Stencil half-widths: bins whose index differs by more than m along an axis are farther apart than the cutoff
   // (their faces are (|Δ| − 1)·f·width apart). Along periodic axes m may exceed nb: several images of one bin.
-  const m = [0, 1, 2].map((k) => {
+  const m = axes(0);
+  for (let k = 0; k < 3; k++) {
     const need = Math.ceil((cutoff / (f[k] * width[k])) * (1 + 1e-10));
-    return pbc[k] ? need : Math.min(nb[k] - 1, need);
-  });
+    m[k] = pbc[k] ? need : Math.min(nb[k] - 1, need);
+  }
   const stencil = (2 * m[0] + 1) * (2 * m[1] + 1) * (2 * m[2] + 1);
   if (stencil > 5e7) {
     throw new InputError(
@@ -478,7 +488,7 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   }
 
   // Counting sort of atoms into bins; within a bin atoms keep ascending index. Coordinates copied bin by bin.
-  const [n0, n1, n2] = nb;
+  const n0 = nb[0], n1 = nb[1], n2 = nb[2];
   const nBins = n0 * n1 * n2;
   const binOf = work.binOf;
   const bin3 = work.bin3;
@@ -539,7 +549,7 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   const cut2 = cutoff * cutoff * (1 + 8 * Number.EPSILON);
   // Per axis, for a bin index t = c + d (stored at c + d + m): the bin it falls in (−1 if outside an open axis)
   // and the image shift that brings it there. Lookups instead of modulo arithmetic in the loop.
-  const tables = [0, 1, 2].map((k) => {
+  const table = (k: number) => {
     const len = nb[k] + 2 * m[k];
     const wrap = new Int32Array(len), shift = new Int32Array(len);
     for (let u = 0; u < len; u++) {
@@ -553,7 +563,8 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
       }
     }
     return { wrap, shift };
-  });
+  };
+  const tables = [table(0), table(1), table(2)];
   const wrapA = tables[0].wrap, wrapB = tables[1].wrap, wrapC = tables[2].wrap;
   const shiftA = tables[0].shift, shiftB = tables[1].shift, shiftC = tables[2].shift;
   const w0 = 2 * m[0] + 1, w1 = 2 * m[1] + 1, w2 = 2 * m[2] + 1;
@@ -564,7 +575,8 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   // below; in a cell with orthogonal axes the gaps add in squares, else the largest bounds it. The margin (1e-9 of
   // the cutoff, the cell and the coordinates) lies far above the rounding of positions and fractions, so a skipped
   // bin never holds a pair that the distance test would keep: the same pairs as visiting it.
-  const thick = [0, 1, 2].map((k) => f[k] * width[k]);
+  const thick = axes(0);
+  for (let k = 0; k < 3; k++) thick[k] = f[k] * width[k];
   const orthogonal = [[0, 1], [0, 2], [1, 2]].every(([a, c]) => {
     const dot = h[3 * a] * h[3 * c] + h[3 * a + 1] * h[3 * c + 1] + h[3 * a + 2] * h[3 * c + 2];
     return Math.abs(dot) <= 1e-12 * Math.hypot(h[3 * a], h[3 * a + 1], h[3 * a + 2]) * Math.hypot(h[3 * c], h[3 * c + 1], h[3 * c + 2]);

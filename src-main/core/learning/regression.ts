@@ -121,7 +121,7 @@ export function ridgeFitPredict(d: Design, train: Int32Array, test: Int32Array, 
     for (let a = 0; a < nt; a++) for (let b = 0; b < nt; b++) k[a * nt + b] = d.gram[train[a] * n + train[b]];
     const y = Float64Array.from(train, (r) => d.y[r]);
     lambdas.forEach((lam, li) => {
-      const c = solveShifted(k, nt, lam, y);
+      const c = memoSolve(d.gram as Float64Array, d.y, train, lam, () => solveShifted(k, nt, lam, y));
       for (let t = 0; t < test.length; t++) {
         let s = 0;
         const rt = test[t] * n;
@@ -145,9 +145,9 @@ export function ridgeFitPredict(d: Design, train: Int32Array, test: Int32Array, 
       for (let t = 0; t < test.length; t++) out[li][t] = dotRow(phi, test[t] * f, w, f);
     });
   } else {
-    const k = selectGram(d, train);
+    let k: Float64Array | undefined;
     lambdas.forEach((lam, li) => {
-      const c = solveShifted(k, nt, lam, y);
+      const c = memoSolve(rowGram(d), d.y, train, lam, () => solveShifted((k ??= selectGram(d, train)), nt, lam, y));
       const w = new Float64Array(f);
       for (let a = 0; a < nt; a++) {
         const ca = c[a];
@@ -163,6 +163,25 @@ function dotRow(phi: Float64Array, base: number, w: Float64Array, f: number): nu
   let s = 0;
   for (let i = 0; i < f; i++) s += phi[base + i] * w[i];
   return s;
+}
+
+/**
+ * The dual solutions c = (K[train, train] + λI)⁻¹ y[train] computed so far, per row kernel K and targets y: the
+ * cross-validation solves every fold at every regulariser of its grid, and the held-out folds of the error-bar
+ * calibration (heldOutRows) solve the same systems again at the chosen one. Every number of such a system comes from
+ * K, y, the training rows and λ alone (an explicit design's K is its row Gram, shared: rowGram), so a solution kept
+ * here is the one a new solve would give, bit for bit. A few hundred numbers per solve; kept while K is.
+ */
+const dualSolutions = new WeakMap<Float64Array, WeakMap<Float64Array, Map<string, Float64Array>>>();
+function memoSolve(gram: Float64Array, y: Float64Array, train: Int32Array, lambda: number, solve: () => Float64Array): Float64Array {
+  let byY = dualSolutions.get(gram);
+  if (!byY) dualSolutions.set(gram, (byY = new WeakMap()));
+  let solutions = byY.get(y);
+  if (!solutions) byY.set(y, (solutions = new Map()));
+  const key = `${lambda}|${train.join(',')}`;
+  let c = solutions.get(key);
+  if (!c) solutions.set(key, (c = solve()));
+  return c;
 }
 
 /** Solve (A + λI) x = b for symmetric A (not modified). */

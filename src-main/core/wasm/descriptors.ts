@@ -35,7 +35,7 @@ export interface DescriptorKernels {
   hypot3(x: number, y: number, z: number): number;
   /** dst_l[m·K + k] = c[base[k] + l² + m] for l ≤ lmax (dst_l = dst + K·l² doubles; base: K Int32 offsets). */
   transposeChannels(c: number, base: number, K: number, lmax: number, dst: number): void;
-  /** The λ = 0 row of one environment, unnormalised, from cT of all nch channels (transposeChannels). */
+  /** The λ = 0 row of one environment, unnormalised, from cT of all nch channels (transposeChannels; readable one double past its end). */
   powerSpectrumRow(cT: number, nch: number, lmax: number, invSqrt: number, out: number): void;
   /**
    * A region of at least `bytes` bytes of the module's memory for `owner` (byte offset, 16-byte aligned; the
