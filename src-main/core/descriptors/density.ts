@@ -354,9 +354,10 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const selfAt = coefAt + intervals * NLp * 4;
   const startAt = selfAt + align(nmax);
   const outAt = startAt + align(Math.ceil((channels + 1) / 2));
-  // the coefficients transposed, cT[lm·channels·nmax + a·nmax + n] (powerSpectrumRow's layout)
+  // the coefficients transposed, cT[lm·channels·nmax + a·nmax + n] (powerSpectrumRow's layout, which reads one
+  // double past their end)
   const cTAt = outAt + EXPANSION_SLOTS * align(size);
-  const fixedDoubles = cTAt + align(size);
+  const fixedDoubles = cTAt + align(size + 1);
   const perPair = 8 + LL + NLp + 1;
   const place = (K: DescriptorKernels, count: number) => {
     if (placed && placed.kernels === K && count <= room && placed.par.length !== 0) {

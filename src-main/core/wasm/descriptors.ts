@@ -35,7 +35,7 @@ export interface DescriptorKernels {
   hypot3(x: number, y: number, z: number): number;
   /** dst_l[m·K + k] = c[base[k] + l² + m] for l ≤ lmax (dst_l = dst + K·l² doubles; base: K Int32 offsets). */
   transposeChannels(c: number, base: number, K: number, lmax: number, dst: number): void;
-  /** The λ = 0 row of one environment, unnormalised, from cT of all nch channels (transposeChannels). */
+  /** The λ = 0 row of one environment, unnormalised, from cT of all nch channels (transposeChannels; readable one double past its end). */
   powerSpectrumRow(cT: number, nch: number, lmax: number, invSqrt: number, out: number): void;
   /**
    * A region of at least `bytes` bytes of the module's memory for `owner` (byte offset, 16-byte aligned; the
@@ -55,6 +55,10 @@ export interface DescriptorKernels {
    * of its plan (tensor-readout.ts layoutPlan), the density coefficients c, the weight matrices W and the output y.
    */
   readOut(plan: number, c: number, W: number, y: number): void;
+  /** normaliseMany's squared norms alone (sq), the blocks left unscaled. */
+  sumSquaresMany(x: number, len: number, count: number, stride: number, sq: number): void;
+  /** acc[r·accRow + f] += x[r·n + f] · inv for r < rows, f < n (accRow in doubles): a block added to running sums. */
+  addRows(acc: number, accRow: number, x: number, n: number, rows: number, inv: number): void;
 }
 
 let cached: DescriptorKernels | null | undefined;
@@ -84,6 +88,8 @@ export function descriptorKernels(): DescriptorKernels | null {
       coupleCross: e.coupleCross as DescriptorKernels['coupleCross'],
       normalise: e.normalise as DescriptorKernels['normalise'],
       readOut: e.readOut as DescriptorKernels['readOut'],
+      addRows: e.addRows as DescriptorKernels['addRows'],
+      sumSquaresMany: e.sumSquaresMany as DescriptorKernels['sumSquaresMany'],
     };
   }
   return cached ?? null;

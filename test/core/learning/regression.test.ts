@@ -250,6 +250,34 @@ describe('kernel ridge regression', () => {
     expect(h[0]).toBe(designLeverage(train, 4, f, factor, lambda, phi.subarray(0, f)));
     expect(h[1]).toBe(designLeverage(train, 4, f, factor, lambda, phi.subarray(f, 2 * f)));
   });
+
+  it('held-out rows after a cross-validation (its fold solutions kept) are those of a design never solved, bit for bit', () => {
+    const rng = makeRng(8);
+    for (const [rows, f] of [[30, 50], [30, 4]]) {
+      const phi = Float64Array.from({ length: rows * f }, () => rng.normal());
+      const y = Float64Array.from({ length: rows }, () => rng.normal());
+      const fold = foldsOf(Int32Array.from({ length: rows }, (_, i) => (i * 7) % rows), 5);
+      const solved: Design = { rows, group: groups(rows), y, phi, features: f };
+      const fit = fitRidge(solved, null, { fold, folds: 5 });
+      for (const lambda of [fit.lambda, fit.lambda * 10, fit.grid[0].relative * fit.scale]) {
+        const fresh: Design = { rows, group: groups(rows), y: Float64Array.from(y), phi: Float64Array.from(phi), features: f };
+        const a = heldOutRows(solved, { fold, folds: 5 }, lambda);
+        const b = heldOutRows(fresh, { fold, folds: 5 }, lambda);
+        expect(Array.from(a.predicted, (v, r) => Object.is(v, b.predicted[r])).every(Boolean)).toBe(true);
+        expect(Array.from(a.leverage, (v, r) => Object.is(v, b.leverage[r])).every(Boolean)).toBe(true);
+      }
+    }
+    // another target on the same kernel is solved again, not served the first one's solutions
+    const rows = 20;
+    const phi = Float64Array.from({ length: rows * 8 }, () => rng.normal());
+    const gram = new Float64Array(rows * rows);
+    for (let a = 0; a < rows; a++) for (let b = 0; b < rows; b++) for (let i = 0; i < 8; i++) gram[a * rows + b] += phi[a * 8 + i] * phi[b * 8 + i];
+    const y = Float64Array.from({ length: rows }, () => rng.normal());
+    const fold = foldsOf(Int32Array.from({ length: rows }, (_, i) => i), 4);
+    const base = heldOutRows({ rows, group: groups(rows), y, gram }, { fold, folds: 4 }, 0.5).predicted;
+    const other = heldOutRows({ rows, group: groups(rows), y: Float64Array.from(y, (v) => -2 * v), gram }, { fold, folds: 4 }, 0.5).predicted;
+    for (let r = 0; r < rows; r++) expect(other[r]).toBeCloseTo(-2 * base[r], 9);
+  });
 });
 
 describe('regulariser range widened at its edge', () => {

@@ -100,6 +100,39 @@ function contractFive(half: usize, hs: usize, w: i32, cT: usize, tch: i32, p0: i
   const hw = <usize>w * hs;
   const nb = <usize>n << 3;
   let j = 0;
+  for (; j + 3 < count; j += 4) {
+    // four partners: two vectors sharing each loaded half-coupling, ten sums side by side
+    let s0 = f64x2.splat(0), s1 = f64x2.splat(0), s2 = f64x2.splat(0), s3 = f64x2.splat(0), s4 = f64x2.splat(0);
+    let t0 = f64x2.splat(0), t1 = f64x2.splat(0), t2 = f64x2.splat(0), t3 = f64x2.splat(0), t4 = f64x2.splat(0);
+    let col = cT + (<usize>(p0 + j) << 3);
+    let h = half;
+    for (let m = 0; m < w; m++) {
+      const c = v128.load(col), d = v128.load(col, 16);
+      const h0 = v128.load64_splat(h), h1 = v128.load64_splat(h + hw), h2 = v128.load64_splat(h + 2 * hw), h3 = v128.load64_splat(h + 3 * hw), h4 = v128.load64_splat(h + 4 * hw);
+      s0 = f64x2.add(s0, f64x2.mul(h0, c));
+      t0 = f64x2.add(t0, f64x2.mul(h0, d));
+      s1 = f64x2.add(s1, f64x2.mul(h1, c));
+      t1 = f64x2.add(t1, f64x2.mul(h1, d));
+      s2 = f64x2.add(s2, f64x2.mul(h2, c));
+      t2 = f64x2.add(t2, f64x2.mul(h2, d));
+      s3 = f64x2.add(s3, f64x2.mul(h3, c));
+      t3 = f64x2.add(t3, f64x2.mul(h3, d));
+      s4 = f64x2.add(s4, f64x2.mul(h4, c));
+      t4 = f64x2.add(t4, f64x2.mul(h4, d));
+      col += rowBytes;
+      h += hs;
+    }
+    putPartners(out, step, stride, j, s0, wFirst, rest);
+    putPartners(out + nb, step, stride, j, s1, wFirst, rest);
+    putPartners(out + 2 * nb, step, stride, j, s2, wFirst, rest);
+    putPartners(out + 3 * nb, step, stride, j, s3, wFirst, rest);
+    putPartners(out + 4 * nb, step, stride, j, s4, wFirst, rest);
+    putPartners(out, step, stride, j + 2, t0, wFirst, rest);
+    putPartners(out + nb, step, stride, j + 2, t1, wFirst, rest);
+    putPartners(out + 2 * nb, step, stride, j + 2, t2, wFirst, rest);
+    putPartners(out + 3 * nb, step, stride, j + 2, t3, wFirst, rest);
+    putPartners(out + 4 * nb, step, stride, j + 2, t4, wFirst, rest);
+  }
   for (; j + 1 < count; j += 2) {
     let s0 = f64x2.splat(0), s1 = f64x2.splat(0), s2 = f64x2.splat(0), s3 = f64x2.splat(0), s4 = f64x2.splat(0);
     let col = cT + (<usize>(p0 + j) << 3);
@@ -294,6 +327,16 @@ export function normalise(x: usize, len: i32): f64 {
  * the four do not wait on each other, where one block's sum alone is a chain of dependent additions.
  */
 export function normaliseMany(x: usize, len: i32, count: i32, stride: usize, sq: usize): void {
+  squaresMany(x, len, count, stride, sq, true);
+}
+
+/** normaliseMany's sums of squares alone (sq[j]), the blocks left as they are (addRows scales them as it adds). */
+export function sumSquaresMany(x: usize, len: i32, count: i32, stride: usize, sq: usize): void {
+  squaresMany(x, len, count, stride, sq, false);
+}
+
+// @ts-ignore: decorator
+@inline function squaresMany(x: usize, len: i32, count: i32, stride: usize, sq: usize, scaleToo: bool): void {
   const bytes = <usize>len << 3;
   for (let j0 = 0; j0 < count; j0 += 4) {
     // blocks j0 … j0 + 3; past the last one, repeats of block j0 (their sums are not kept)
@@ -313,8 +356,30 @@ export function normaliseMany(x: usize, len: i32, count: i32, stride: usize, sq:
       const v = j < 2 ? s0 : s1;
       const s = (j & 1) == 0 ? f64x2.extract_lane(v, 0) : f64x2.extract_lane(v, 1);
       store<f64>(sq + (<usize>(j0 + j) << 3), s);
-      if (s == 0 || !isFinite<f64>(s)) continue;
+      if (!scaleToo || s == 0 || !isFinite<f64>(s)) continue;
       scale(p0 + <usize>j * stride, len, 1 / Math.sqrt(s));
+    }
+  }
+}
+
+/**
+ * acc[r·accRow + f] += x[r·n + f] · inv for r < rows, f < n (accRow in doubles): one environment's block, scaled as
+ * normalise scales it (inv = 1/√ of its squared norm; 1 where normalise leaves it as it is, x · 1 being x), added
+ * to its species' running sums (core/learning/kernels.ts linearDesignRows, each entry a sum in environment order).
+ */
+export function addRows(acc: usize, accRow: i32, x: usize, n: i32, rows: i32, inv: f64): void {
+  const vinv = f64x2.splat(inv);
+  for (let r = 0; r < rows; r++) {
+    const a = acc + (<usize>(r * accRow) << 3);
+    const b = x + (<usize>(r * n) << 3);
+    let f = 0;
+    for (; f + 1 < n; f += 2) {
+      const at = a + (<usize>f << 3);
+      v128.store(at, f64x2.add(v128.load(at), f64x2.mul(v128.load(b + (<usize>f << 3)), vinv)));
+    }
+    if (f < n) {
+      const at = a + (<usize>f << 3);
+      store<f64>(at, load<f64>(at) + load<f64>(b + (<usize>f << 3)) * inv);
     }
   }
 }
@@ -523,79 +588,102 @@ export function transposeChannels(c: usize, base: usize, K: i32, lmax: i32, dst:
  * The λ = 0 row of one environment, unnormalised (core/descriptors/features.ts powerSpectrum): for channel pairs
  * c1 ≤ c2 (c1 outer) and l ≤ lmax, out[pair·(lmax+1) + l] = (w·invSqrt[l]) · Σ_m c_{c1,lm} c_{c2,lm}, w = 1 for
  * c1 = c2 and √2 otherwise, each sum from zero in m order; cT the coefficients of all nch channels transposed
- * (transposeChannels).
+ * (transposeChannels), readable one double past its end.
+ *
+ * For each l, the sums of two first channels (c1, c1 + 1) against partners c1 … nch − 1 at once, in tiles of two
+ * rows by up to eight partners (psTile): each loaded coefficient serves two sums, and eight or sixteen sums run
+ * side by side, where one first channel's partners (sixteen down to one at nch 16) left many short passes. Row
+ * c1 + 1 also sums its partner c1, below the diagonal, which is not stored.
  */
 export function powerSpectrumRow(cT: usize, nch: i32, lmax: i32, invSqrt: usize, out: usize): void {
   const L1 = lmax + 1;
   const rowBytes = <usize>nch << 3;
-  const pairStep = <usize>L1 << 3;
-  let f = out;
-  for (let c1 = 0; c1 < nch; c1++) {
-    const count = nch - c1;
-    for (let l = 0; l <= lmax; l++) {
-      const w = 2 * l + 1;
-      const v = load<f64>(invSqrt + (<usize>l << 3));
-      const wv = Math.SQRT2 * v;
-      const vwv = f64x2.splat(wv);
-      const cl = cT + (<usize>(nch * l * l) << 3);
-      const a = cl + (<usize>c1 << 3);
-      let o = f + (<usize>l << 3);
-      let j = 0;
-      for (; j + 7 < count; j += 8) {
-        let s0 = f64x2.splat(0);
-        let s1 = f64x2.splat(0);
-        let s2 = f64x2.splat(0);
-        let s3 = f64x2.splat(0);
-        let col = cl + (<usize>(c1 + j) << 3);
-        let am = a;
-        for (let m = 0; m < w; m++) {
-          const x = v128.load64_splat(am);
-          s0 = f64x2.add(s0, f64x2.mul(x, v128.load(col)));
-          s1 = f64x2.add(s1, f64x2.mul(x, v128.load(col, 16)));
-          s2 = f64x2.add(s2, f64x2.mul(x, v128.load(col, 32)));
-          s3 = f64x2.add(s3, f64x2.mul(x, v128.load(col, 48)));
-          col += rowBytes;
-          am += rowBytes;
-        }
-        const r0 = f64x2.mul(vwv, s0), r1 = f64x2.mul(vwv, s1), r2 = f64x2.mul(vwv, s2), r3 = f64x2.mul(vwv, s3);
-        store<f64>(o, j == 0 ? v * f64x2.extract_lane(s0, 0) : f64x2.extract_lane(r0, 0));
-        store<f64>(o + pairStep, f64x2.extract_lane(r0, 1));
-        store<f64>(o + 2 * pairStep, f64x2.extract_lane(r1, 0));
-        store<f64>(o + 3 * pairStep, f64x2.extract_lane(r1, 1));
-        store<f64>(o + 4 * pairStep, f64x2.extract_lane(r2, 0));
-        store<f64>(o + 5 * pairStep, f64x2.extract_lane(r2, 1));
-        store<f64>(o + 6 * pairStep, f64x2.extract_lane(r3, 0));
-        store<f64>(o + 7 * pairStep, f64x2.extract_lane(r3, 1));
-        o += 8 * pairStep;
+  const step = <usize>L1 << 3;
+  for (let l = 0; l <= lmax; l++) {
+    const w = 2 * l + 1;
+    const v = load<f64>(invSqrt + (<usize>l << 3));
+    const vwv = f64x2.splat(Math.SQRT2 * v);
+    const cl = cT + (<usize>(nch * l * l) << 3);
+    // o: the slot of pair (c1, c1) for this l; the row of c1 holds nch − c1 pairs
+    let o = out + (<usize>l << 3);
+    let c1 = 0;
+    for (; c1 + 1 < nch; c1 += 2) {
+      const o1 = o + <usize>(nch - c1) * step;
+      let j = c1;
+      for (; j + 7 < nch; j += 8) psTile(4, true, cl, rowBytes, w, c1, j, nch, o, o1, step, v, vwv);
+      const rest = nch - j;
+      if (rest > 6) psTile(4, true, cl, rowBytes, w, c1, j, nch, o, o1, step, v, vwv);
+      else if (rest > 4) psTile(3, true, cl, rowBytes, w, c1, j, nch, o, o1, step, v, vwv);
+      else if (rest > 2) psTile(2, true, cl, rowBytes, w, c1, j, nch, o, o1, step, v, vwv);
+      else if (rest > 0) psTile(1, true, cl, rowBytes, w, c1, j, nch, o, o1, step, v, vwv);
+      o = o1 + <usize>(nch - c1 - 1) * step;
+    }
+    if (c1 < nch) psTile(1, false, cl, rowBytes, w, c1, c1, nch, o, o, step, v, vwv); // the last channel alone (nch odd)
+  }
+}
+
+/**
+ * Sums of rows c1 and (with `two`) c1 + 1 against partners j … j + 2nv − 1 over the 2l + 1 rows of cl (w of them,
+ * rowBytes apart), each from zero in m order; then stored (psStore) to the pair slots of row c1 from o0 (its
+ * diagonal) and of row c1 + 1 from o1. nv and two are constants at every call.
+ */
+// @ts-ignore: decorator
+@inline function psTile(nv: i32, two: bool, cl: usize, rowBytes: usize, w: i32, c1: i32, j: i32, nch: i32, o0: usize, o1: usize, step: usize, v: f64, vwv: v128): void {
+  const zero = f64x2.splat(0);
+  let s00 = zero, s01 = zero, s02 = zero, s03 = zero;
+  let s10 = zero, s11 = zero, s12 = zero, s13 = zero;
+  let a = cl + (<usize>c1 << 3);
+  let b = cl + (<usize>j << 3);
+  for (let m = 0; m < w; m++) {
+    const x0 = v128.load64_splat(a);
+    const b0 = v128.load(b);
+    s00 = f64x2.add(s00, f64x2.mul(x0, b0));
+    if (two) {
+      const x1 = v128.load64_splat(a, 8);
+      s10 = f64x2.add(s10, f64x2.mul(x1, b0));
+      if (nv > 1) {
+        const b1 = v128.load(b, 16);
+        s01 = f64x2.add(s01, f64x2.mul(x0, b1));
+        s11 = f64x2.add(s11, f64x2.mul(x1, b1));
       }
-      for (; j + 1 < count; j += 2) {
-        let s0 = f64x2.splat(0);
-        let col = cl + (<usize>(c1 + j) << 3);
-        let am = a;
-        for (let m = 0; m < w; m++) {
-          s0 = f64x2.add(s0, f64x2.mul(v128.load64_splat(am), v128.load(col)));
-          col += rowBytes;
-          am += rowBytes;
-        }
-        const r0 = f64x2.mul(vwv, s0);
-        store<f64>(o, j == 0 ? v * f64x2.extract_lane(s0, 0) : f64x2.extract_lane(r0, 0));
-        store<f64>(o + pairStep, f64x2.extract_lane(r0, 1));
-        o += 2 * pairStep;
+      if (nv > 2) {
+        const b2 = v128.load(b, 32);
+        s02 = f64x2.add(s02, f64x2.mul(x0, b2));
+        s12 = f64x2.add(s12, f64x2.mul(x1, b2));
       }
-      if (j < count) {
-        let s: f64 = 0;
-        let col = cl + (<usize>(c1 + j) << 3);
-        let am = a;
-        for (let m = 0; m < w; m++) {
-          s += load<f64>(am) * load<f64>(col);
-          col += rowBytes;
-          am += rowBytes;
-        }
-        store<f64>(o, (j == 0 ? v : wv) * s);
+      if (nv > 3) {
+        const b3 = v128.load(b, 48);
+        s03 = f64x2.add(s03, f64x2.mul(x0, b3));
+        s13 = f64x2.add(s13, f64x2.mul(x1, b3));
       }
     }
-    f += <usize>count * pairStep;
+    a += rowBytes;
+    b += rowBytes;
   }
+  psStore(o0, step, j - c1, nch - j, s00, v, vwv);
+  if (nv > 1) psStore(o0, step, j - c1 + 2, nch - j - 2, s01, v, vwv);
+  if (nv > 2) psStore(o0, step, j - c1 + 4, nch - j - 4, s02, v, vwv);
+  if (nv > 3) psStore(o0, step, j - c1 + 6, nch - j - 6, s03, v, vwv);
+  if (two) {
+    psStore(o1, step, j - c1 - 1, nch - j, s10, v, vwv);
+    if (nv > 1) psStore(o1, step, j - c1 + 1, nch - j - 2, s11, v, vwv);
+    if (nv > 2) psStore(o1, step, j - c1 + 3, nch - j - 4, s12, v, vwv);
+    if (nv > 3) psStore(o1, step, j - c1 + 5, nch - j - 6, s13, v, vwv);
+  }
+}
+
+/**
+ * Two sums s of one row, partners k and k + 1 places right of its diagonal (k = −1: the first is below it, not
+ * stored, and the second on it; left < 2: the second is past the last channel, not stored), weighted and stored to
+ * the row's slots from o: v·s on the diagonal, √2·v·s elsewhere.
+ */
+@inline
+function psStore(o: usize, step: usize, k: i32, left: i32, s: v128, v: f64, vwv: v128): void {
+  const r = f64x2.mul(vwv, s);
+  if (k == 0) store<f64>(o, v * f64x2.extract_lane(s, 0));
+  else if (k > 0) store<f64>(o + <usize>k * step, f64x2.extract_lane(r, 0));
+  if (k == -1) store<f64>(o, v * f64x2.extract_lane(s, 1));
+  else if (left > 1) store<f64>(o + <usize>(k + 1) * step, f64x2.extract_lane(r, 1));
 }
 
 /**

@@ -236,23 +236,20 @@ function exactFour(x0: usize, r0: usize, x1: usize, r1: usize, x2: usize, r2: us
   let s23 = f64x2.splat(0);
   let f = 0;
   for (; f + 1 < n0; f += 2) {
+    // each pair's two differences squared in place (the same operations per element), then regrouped by feature
     const o = <usize>f << 3;
-    const p0 = v128.load(x0 + o);
-    const p1 = v128.load(x1 + o);
-    const p2 = v128.load(x2 + o);
-    const p3 = v128.load(x3 + o);
-    const q0 = v128.load(r0 + o);
-    const q1 = v128.load(r1 + o);
-    const q2 = v128.load(r2 + o);
-    const q3 = v128.load(r3 + o);
-    const d01 = f64x2.sub(v128.shuffle<f64>(p0, p1, 0, 2), v128.shuffle<f64>(q0, q1, 0, 2));
-    const d23 = f64x2.sub(v128.shuffle<f64>(p2, p3, 0, 2), v128.shuffle<f64>(q2, q3, 0, 2));
-    s01 = f64x2.add(s01, f64x2.mul(d01, d01));
-    s23 = f64x2.add(s23, f64x2.mul(d23, d23));
-    const h01 = f64x2.sub(v128.shuffle<f64>(p0, p1, 1, 3), v128.shuffle<f64>(q0, q1, 1, 3));
-    const h23 = f64x2.sub(v128.shuffle<f64>(p2, p3, 1, 3), v128.shuffle<f64>(q2, q3, 1, 3));
-    s01 = f64x2.add(s01, f64x2.mul(h01, h01));
-    s23 = f64x2.add(s23, f64x2.mul(h23, h23));
+    const e0 = f64x2.sub(v128.load(x0 + o), v128.load(r0 + o));
+    const e1 = f64x2.sub(v128.load(x1 + o), v128.load(r1 + o));
+    const e2 = f64x2.sub(v128.load(x2 + o), v128.load(r2 + o));
+    const e3 = f64x2.sub(v128.load(x3 + o), v128.load(r3 + o));
+    const q0 = f64x2.mul(e0, e0);
+    const q1 = f64x2.mul(e1, e1);
+    const q2 = f64x2.mul(e2, e2);
+    const q3 = f64x2.mul(e3, e3);
+    s01 = f64x2.add(s01, v128.shuffle<f64>(q0, q1, 0, 2));
+    s23 = f64x2.add(s23, v128.shuffle<f64>(q2, q3, 0, 2));
+    s01 = f64x2.add(s01, v128.shuffle<f64>(q0, q1, 1, 3));
+    s23 = f64x2.add(s23, v128.shuffle<f64>(q2, q3, 1, 3));
   }
   if (f < n0) {
     const o = <usize>f << 3;
@@ -443,6 +440,18 @@ function candidates(m: i32, d: i32, n0: i32, ordered: usize, coordsT: usize, res
   return np;
 }
 
+/** xp[i] = x[order[i]] for i < n0: a query in the screening order, two features per store. */
+function gather(x: usize, order: usize, xp: usize, n0: i32): void {
+  let i = 0;
+  for (; i + 1 < n0; i += 2) {
+    const o = i64.load(order + (<usize>i << 2));
+    const a = f64.load(x + (<usize>(<u32>o) << 3));
+    const b = f64.load(x + (<usize>(<u32>(o >>> 32)) << 3));
+    v128.store(xp + (<usize>i << 3), f64x2.replace_lane(f64x2.splat(a), 1, b));
+  }
+  if (i < n0) f64.store(xp + (<usize>i << 3), f64.load(x + (<usize>load<i32>(order + (<usize>i << 2)) << 3)));
+}
+
 /** The byte address of query row idx[k] of `queries`. */
 // @ts-ignore: decorator
 @inline function queryRow(queries: usize, idx: usize, k: i32, rowBytes: usize): usize {
@@ -491,7 +500,7 @@ export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize
     let np = 0;
     for (let g = 0; g < count; g++) {
       const x = queryRow(queries, idx, g0 + g, rowBytes);
-      for (let i = 0; i < n0; i++) f64.store(xp + (<usize>i << 3), f64.load(x + (<usize>load<i32>(order + (<usize>i << 2)) << 3)));
+      gather(x, order, xp, n0);
       np = candidates(m, d, n0, ordered, coordsT, residual, bound, xp, q + (<usize>(g * d) << 3), f64.load(xx + (<usize>g << 3)), kept, stats, g, pending, np);
     }
     for (let k = 0; k < np; k += 4) {
