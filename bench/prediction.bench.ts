@@ -7,13 +7,16 @@
 //   2. the same on 1×, 2×, 4× cells (384, 768, 1536 atoms), to show the cost is linear in the atoms;
 //   3. streamed end to end (extended XYZ in, CSV out, worker threads) with 1 and 2 threads: the rate over the
 //      whole run (worker start-up included) and the marginal rate (extra frames / extra seconds between a
-//      short and a long run, i.e. with start-up removed), with the process RSS before and at its peak.
+//      short and a long run, i.e. with start-up removed), by wall time and by CPU time of the whole process
+//      (every thread), with the process RSS before and at its peak; with PW_BENCH_BASELINE also the ref's
+//      streamed prediction beside this tree's, each run in a fresh process (bench/stream-rate.ts), alternating,
+//      with the ratios and whether the CSV bytes are identical.
 //   4. with PW_BENCH_BASELINE=<git ref> (e.g. a release tag, or the commit before a speed change): the whole
 //      in-process prediction of that ref's source beside this tree's, each in its own process on the same model
 //      (bench/prediction-rate.ts), alternating, with the ratio and whether the outputs are identical.
 // Figures only, never asserted. Env: PW_BENCH_TRAIN_FRAMES (30), PW_BENCH_STREAM_FRAMES (120), PW_BENCH_BASELINE.
-import { execFileSync, spawnSync } from 'node:child_process';
-import { createWriteStream, mkdtempSync, rmSync, symlinkSync, writeFileSync } from 'node:fs';
+import { spawnSync } from 'node:child_process';
+import { createWriteStream, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { serialize } from 'node:v8';
 import { availableParallelism, cpus, loadavg, tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
@@ -28,6 +31,7 @@ import { streamPredict } from '../src-main/app/predict/stream-predict.ts';
 import { waterLikeFrames } from './water-like.ts';
 import { describeSettings } from '../src-main/core/settings-table.ts';
 import { setWebAssemblyKernels } from '../src-main/core/wasm/load.ts';
+import { extractBaseline } from './baseline.ts';
 
 const TRAIN = Number(process.env.PW_BENCH_TRAIN_FRAMES ?? 30);
 const STREAM = Number(process.env.PW_BENCH_STREAM_FRAMES ?? 120);
@@ -116,7 +120,7 @@ function linearCost(model: Model): void {
   }
 }
 
-async function streamed(model: Model, dir: string): Promise<void> {
+async function streamed(model: Model, dir: string, baseline: { ref: string; root: string } | null): Promise<void> {
   const modelPath = join(dir, 'model.json');
   await saveModel(modelPath, model);
   const pool = waterLikeFrames(20, 123);
@@ -128,34 +132,80 @@ async function streamed(model: Model, dir: string): Promise<void> {
   console.log(`3. streamed end to end (extended XYZ → CSV, worker threads, ${availableParallelism()} cores): ${short} and ${STREAM} frames × ${atoms} atoms`);
   for (const threads of [1, 2]) {
     const seconds: Record<string, number> = {};
+    const cpu: Record<string, number> = {};
     const before = process.memoryUsage().rss;
     let peak = before;
     const timer = setInterval(() => (peak = Math.max(peak, process.memoryUsage().rss)), 100);
     for (const [name, path] of Object.entries(inputs)) {
+      const c0 = process.cpuUsage();
       const r = await streamPredict({ modelPath, input: path, output: join(dir, `${name}-${threads}.csv`), csvOptions: predictionCsvOptions(model, modelPath), threads, mode: 'restart' });
+      const c = process.cpuUsage(c0);
       seconds[name] = r.seconds;
+      cpu[name] = (c.user + c.system) / 1e6;
     }
     clearInterval(timer);
     const whole = (STREAM * atoms) / seconds.long;
     const marginal = ((STREAM - short) * atoms) / (seconds.long - seconds.short);
-    console.log(`   ${threads} thread${threads > 1 ? 's' : ' '}: ${STREAM} frames in ${seconds.long.toFixed(1)} s = ${whole.toFixed(0)} env/s (start-up included); ` +
-      `marginal ${marginal.toFixed(0)} env/s (${short} frames took ${seconds.short.toFixed(1)} s); process RSS (main thread and workers) ${(before / 2 ** 20).toFixed(0)} MiB before, peak ${(peak / 2 ** 20).toFixed(0)} MiB`);
+    const marginalCpu = ((STREAM - short) * atoms) / (cpu.long - cpu.short);
+    console.log(`   ${threads} thread${threads > 1 ? 's' : ' '}: ${STREAM} frames in ${seconds.long.toFixed(1)} s = ${whole.toFixed(0)} env/s (start-up included), ${cpu.long.toFixed(1)} s CPU; ` +
+      `marginal ${marginal.toFixed(0)} env/s, ${marginalCpu.toFixed(0)} env per CPU-s (${short} frames took ${seconds.short.toFixed(1)} s); process RSS (main thread and workers) ${(before / 2 ** 20).toFixed(0)} MiB before, peak ${(peak / 2 ** 20).toFixed(0)} MiB`);
   }
+  if (baseline) streamedAgainstBaseline(modelPath, inputs, { short, long: STREAM }, atoms, baseline, dir);
 }
 
-/** Section 4: this tree against the source of git ref `ref`, each in its own process, on the same model. */
-function againstBaseline(model: Model, ref: string, dir: string): void {
+/**
+ * Section 3 against a baseline: the streamed prediction of this tree and of the ref's source, each run in a fresh
+ * process (bench/stream-rate.ts; workers loaded from each tree's sources through tsx alike), alternating tree by
+ * tree in 2 rounds, on the same model and inputs: mean seconds and CPU seconds, the marginal rates and the ratios.
+ */
+function streamedAgainstBaseline(modelPath: string, inputs: { short: string; long: string }, frames: { short: number; long: number }, atoms: number, baseline: { ref: string; root: string }, dir: string): void {
   const here = join(dirname(fileURLToPath(import.meta.url)), '..');
-  const base = join(dir, 'baseline');
+  type Run = { seconds: number; cpuSeconds: number; hash: string };
+  const child = (root: string, input: string, threads: number): Run | { error: string } => {
+    const r = spawnSync(process.execPath, [...process.execArgv, join(here, 'bench/stream-rate.ts'), root, modelPath, input, join(dir, 'stream-child.csv'), String(threads)], { encoding: 'utf8' });
+    if (r.status !== 0) return { error: (r.stderr || '').trim().split('\n').slice(-1)[0] };
+    return JSON.parse(r.stdout.trim().split('\n').slice(-1)[0]) as Run;
+  };
+  console.log(`   against ${baseline.ref}, each run a fresh process, alternating, mean of 2 rounds (load average ${loadavg().map((x) => x.toFixed(1)).join(' ')} before):`);
+  for (const threads of [1, 2]) {
+    const sum = { now: { short: [0, 0], long: [0, 0] }, then: { short: [0, 0], long: [0, 0] } };
+    const hashes = { now: new Set<string>(), then: new Set<string>() };
+    for (let round = 0; round < 2; round++) {
+      for (const [who, root] of [['now', here], ['then', baseline.root]] as const) {
+        for (const size of ['short', 'long'] as const) {
+          const r = child(root, inputs[size], threads);
+          if ('error' in r) {
+            console.log(`   ${who === 'now' ? 'this tree' : baseline.ref}: a child failed: ${r.error}`);
+            return;
+          }
+          sum[who][size][0] += r.seconds / 2;
+          sum[who][size][1] += r.cpuSeconds / 2;
+          if (size === 'long') hashes[who].add(r.hash);
+        }
+      }
+    }
+    const extra = (frames.long - frames.short) * atoms;
+    const rates = (w: 'now' | 'then') => ({
+      wall: extra / (sum[w].long[0] - sum[w].short[0]),
+      cpu: extra / (sum[w].long[1] - sum[w].short[1]),
+      seconds: sum[w].long[0],
+      cpuSeconds: sum[w].long[1],
+    });
+    const now = rates('now');
+    const then = rates('then');
+    const same = hashes.now.size === 1 && hashes.then.size === 1 && [...hashes.now][0] === [...hashes.then][0];
+    console.log(`   ${threads} thread${threads > 1 ? 's' : ' '}: ${frames.long} frames ${baseline.ref} ${then.seconds.toFixed(1)} s, ${then.cpuSeconds.toFixed(1)} s CPU; this tree ${now.seconds.toFixed(1)} s, ${now.cpuSeconds.toFixed(1)} s CPU ` +
+      `(×${(then.seconds / now.seconds).toFixed(2)} wall, ×${(then.cpuSeconds / now.cpuSeconds).toFixed(2)} CPU); marginal ${then.wall.toFixed(0)} → ${now.wall.toFixed(0)} env/s, ` +
+      `${then.cpu.toFixed(0)} → ${now.cpu.toFixed(0)} env per CPU-s; CSV bytes ${same ? 'identical' : 'DIFFER'}`);
+  }
+  console.log(`   (load average ${loadavg().map((x) => x.toFixed(1)).join(' ')} after)`);
+}
+
+/** Section 4: this tree against the source of git ref `ref` (extracted at `base`), each in its own process, on the same model. */
+function againstBaseline(model: Model, ref: string, base: string, dir: string): void {
+  const here = join(dirname(fileURLToPath(import.meta.url)), '..');
   const modelFile = join(dir, 'model.v8');
   writeFileSync(modelFile, serialize(model));
-  try {
-    execFileSync('sh', ['-c', `mkdir -p "${base}" && git -C "${here}" archive "${ref}" src-main bench | tar -x -C "${base}"`]);
-    symlinkSync(join(here, 'node_modules'), join(base, 'node_modules'));
-  } catch (error) {
-    console.log(`4. baseline ${ref}: could not extract it (${String(error).split('\n')[0]})`);
-    return;
-  }
   const child = (root: string) => {
     const r = spawnSync(process.execPath, [...process.execArgv, join(here, 'bench/prediction-rate.ts'), root, modelFile], { encoding: 'utf8' });
     if (r.status !== 0) return { error: (r.stderr || '').trim().split('\n').slice(-1)[0] };
@@ -190,11 +240,13 @@ export async function run(): Promise<void> {
   inProcess(model);
   linearCost(model);
   const dir = mkdtempSync(join(tmpdir(), 'pw-predict-bench-'));
+  const ref = process.env.PW_BENCH_BASELINE;
+  const base = ref ? extractBaseline(ref) : null;
   try {
-    await streamed(model, dir);
-    const baseline = process.env.PW_BENCH_BASELINE;
-    if (baseline) againstBaseline(model, baseline, dir);
+    await streamed(model, dir, ref && base ? { ref, root: base.root } : null);
+    if (ref && base) againstBaseline(model, ref, base.root, dir);
   } finally {
+    base?.remove();
     rmSync(dir, { recursive: true, force: true });
   }
 }
