@@ -28,11 +28,10 @@ import { nearestAllOf } from './nearest-search.ts';
 import { tuneCombinations, tuneSettingsWith, type TuneResult } from './tuning.ts';
 import { DEFAULT_REGULARISATION_GRID, fitRidge, foldsOf, heldOutRows, posteriorVariance, primalWeights, type Design, type Posterior } from './regression.ts';
 import { calibratePart, type Calibration, type PartCalibration } from './calibration.ts';
+import { farthestSample, nearestOthers, type Sample } from './sampling.ts';
 import {
-  farthestPointSample,
   foldCoefficients,
   foldSparseWeights,
-  nearestOtherDistances,
   anchorsOf,
   projectRows,
   representativeFactor,
@@ -454,6 +453,15 @@ export function centreSpeciesOf(frame: Frame, centres: string[]): Int32Array {
   return Int32Array.from(out);
 }
 
+/**
+ * Whether the first pass needs a frame's λ > 0 features only as the per-species sums of a linear model's design rows
+ * (no pool of λ > 0 blocks, no feature selection): computeFeatures then gives just those sums (sumsOnly), the same
+ * numbers linearDesignRows makes from the blocks.
+ */
+export function sumsSuffice(spec: FramePassSpec): boolean {
+  return spec.order !== null && spec.order !== 0 && spec.designOrders.includes(spec.order) && !spec.selection && (spec.poolOrder === null || spec.poolOrder === 0);
+}
+
 /** One frame's part of the first training pass, from its features (and its neighbour list for the domain statistics). */
 export function summariseFrame(frame: Frame, fe: EnvironmentFeatures, pairs: NeighbourList | undefined, spec: FramePassSpec, keep: Int32Array): FrameSummary {
   const n0 = fe.n0;
@@ -491,7 +499,7 @@ export function frameSummaries(batch: FramePassBatch, signal?: AbortSignal): Fra
   batch.frames.forEach((frame, k) => {
     if (signal?.aborted) throw new CancelledError();
     pairs = spec.domain ? neighbourList(frame, spec.features.cutoff, { reuse: pairs }) : undefined;
-    const raw = computeFeatures(frame, spec.features, spec.lambdas, pairs, undefined, spare);
+    const raw = computeFeatures(frame, spec.features, spec.lambdas, pairs, undefined, spare, sumsSuffice(spec));
     const fe = spec.selection ? applyFeatureSelection(raw, spec.selection) : raw;
     out.push(summariseFrame(frame, fe, pairs, spec, batch.keep[k]));
     spare = raw;
@@ -599,12 +607,10 @@ export interface ApplicabilityInput {
   centres: number;
 }
 
-type Sample = ReturnType<typeof farthestPointSample>;
-
 /** A linear model's applicability: APPLICABILITY_POINTS representatives per species by farthest-point sampling, then applicabilityFrom. */
 export function sampledApplicability(input: ApplicabilityInput): Model['applicability'] {
   const { pool } = input;
-  return applicabilityFrom(input, pool.perSpecies.map((cand) => farthestPointSample(pool.p, pool.n0, cand, APPLICABILITY_POINTS)));
+  return applicabilityFrom(input, pool.perSpecies.map((cand) => farthestSample(pool.p, pool.n0, cand, APPLICABILITY_POINTS)));
 }
 
 /**
@@ -617,7 +623,7 @@ function applicabilityFrom(input: ApplicabilityInput, samples: Sample[]): Model[
   const n0 = envPool.n0;
   const repIndex = Int32Array.from(samples.flatMap((r) => [...r.chosen]));
   const perSpecies: number[] = new Array(nS).fill(0);
-  const dist = nearestOtherDistances(envPool, repIndex, nFrames >= 2 ? envPool.frame : undefined, anchorsOf(envPool.count, envPool.perSpecies, samples));
+  const dist = nearestOthers(envPool, repIndex, envPool.perSpecies, nFrames >= 2 ? envPool.frame : undefined, anchorsOf(envPool.count, envPool.perSpecies, samples));
   for (let s = 0; s < nS; s++) {
     const ds: number[] = [];
     for (const i of envPool.perSpecies[s]) if (Number.isFinite(dist[i])) ds.push(dist[i]);
@@ -769,12 +775,14 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     await runFramePass(runner, passSpec, frames, plans, hooks, merge);
   } else {
     let pairs: NeighbourList | undefined;
+    // the model's own features wanted only as design-row sums beyond λ = 0 (sumsSuffice): computed as such
+    const sumsOnly = featurise === null && sumsSuffice(passSpec);
     for (let f = 0; f < nFrames; f++) {
       checkAbort(hooks);
       // one neighbour list per frame for the features and the domain statistics (the same cutoff), written over the
       // previous frame's, which nothing holds
       pairs = domain ? neighbourList(frames[f], settings.cutoffRadius, { reuse: pairs }) : undefined;
-      const fe = feat(frames[f], f, pairs);
+      const fe = sumsOnly ? computeFeatures(frames[f], passSpec.features, passSpec.lambdas, pairs, undefined, spare, true) : feat(frames[f], f, pairs);
       totalEnv += fe.count;
       if (exact && totalEnv > EXACT_LIMIT) {
         throw new InputError(`exact kernel ridge would keep more than ${EXACT_LIMIT} environments`, {}, 'give a number of anchor environments above 0, or kernel exponent 1');
@@ -813,7 +821,7 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
   const applicabilityAside = linear && wantApplicability && runner?.applicability ? runner.applicability(applicabilityInput, hooks.signal) : null;
   applicabilityAside?.catch(() => undefined); // awaited below; a failure while fitting must not count as unhandled
   // Representatives (FPS per species) for kernel parts (and their applicability).
-  const samples = linear ? null : envPool.perSpecies.map((cand) => farthestPointSample(envPool.p, n0, cand, exact ? cand.length : settings.anchorEnvironments));
+  const samples = linear ? null : envPool.perSpecies.map((cand) => farthestSample(envPool.p, n0, cand, exact ? cand.length : settings.anchorEnvironments));
   const repIndex = Int32Array.from((samples ?? []).flatMap((r) => [...r.chosen]));
 
   // Pass 2 for the sparse form: K_NM rows per frame and order.

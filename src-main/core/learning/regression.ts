@@ -86,8 +86,11 @@ function rowGram(d: Design): Float64Array {
 
 /** The rows × rows selection K[rows, rows] of a design's row Gram (a new array). */
 function selectGram(d: Design, rows: Int32Array): Float64Array {
-  const all = rowGram(d);
-  const n = d.rows;
+  return selectRows(rowGram(d), d.rows, rows);
+}
+
+/** The selection K[rows, rows] of an n × n matrix (a new array). */
+function selectRows(all: Float64Array, n: number, rows: Int32Array): Float64Array {
   const m = rows.length;
   const k = new Float64Array(m * m);
   for (let a = 0; a < m; a++) {
@@ -116,18 +119,22 @@ export const MAX_WIDENINGS = 2;
 export function ridgeFitPredict(d: Design, train: Int32Array, test: Int32Array, lambdas: number[]): Float64Array[] {
   const out = lambdas.map(() => new Float64Array(test.length));
   const nt = train.length;
-  if (d.gram) {
+  // one array for the factors of this training set's systems (written over by each)
+  let factor: Float64Array | undefined;
+  const solve = (k: Float64Array, lam: number, y: Float64Array) => solveShifted(k, nt, lam, y, (factor ??= new Float64Array(nt * nt)));
+  const gram = d.gram;
+  if (gram) {
     const n = d.rows;
-    const k = new Float64Array(nt * nt);
-    for (let a = 0; a < nt; a++) for (let b = 0; b < nt; b++) k[a * nt + b] = d.gram[train[a] * n + train[b]];
+    let k: Float64Array | undefined;
     const y = Float64Array.from(train, (r) => d.y[r]);
     lambdas.forEach((lam, li) => {
-      const c = memoSolve(d.gram as Float64Array, d.y, train, lam, () => solveShifted(k, nt, lam, y));
+      const c = memoSolve(gram, d.y, train, lam, () => solve((k ??= selectRows(gram, n, train)), lam, y));
+      const o = out[li];
       for (let t = 0; t < test.length; t++) {
         let s = 0;
         const rt = test[t] * n;
-        for (let a = 0; a < nt; a++) s += d.gram![rt + train[a]] * c[a];
-        out[li][t] = s;
+        for (let a = 0; a < nt; a++) s += gram[rt + train[a]] * c[a];
+        o[t] = s;
       }
     });
     return out;
@@ -141,14 +148,15 @@ export function ridgeFitPredict(d: Design, train: Int32Array, test: Int32Array, 
     const g = gramOfColumns(sub, nt, f);
     const b = new Float64Array(f);
     for (let a = 0; a < nt; a++) for (let i = 0; i < f; i++) b[i] += sub[a * f + i] * y[a];
+    let into: Float64Array | undefined;
     lambdas.forEach((lam, li) => {
-      const w = solveShifted(g, f, lam, b);
+      const w = solveShifted(g, f, lam, b, (into ??= new Float64Array(f * f)));
       for (let t = 0; t < test.length; t++) out[li][t] = dotRow(phi, test[t] * f, w, f);
     });
   } else {
     let k: Float64Array | undefined;
     lambdas.forEach((lam, li) => {
-      const c = memoSolve(rowGram(d), d.y, train, lam, () => solveShifted((k ??= selectGram(d, train)), nt, lam, y));
+      const c = memoSolve(rowGram(d), d.y, train, lam, () => solve((k ??= selectGram(d, train)), lam, y));
       const w = new Float64Array(f);
       for (let a = 0; a < nt; a++) {
         const ca = c[a];
@@ -185,11 +193,9 @@ function memoSolve(gram: Float64Array, y: Float64Array, train: Int32Array, lambd
   return c;
 }
 
-/** Solve (A + λI) x = b for symmetric A (not modified). */
-function solveShifted(a: Float64Array, n: number, lambda: number, b: Float64Array): Float64Array {
-  const m = Float64Array.from(a);
-  for (let i = 0; i < n; i++) m[i * n + i] += lambda;
-  const { factor } = choleskyWithJitter(m, n);
+/** Solve (A + λI) x = b for symmetric A (not modified); `into`: an n × n array for the factor, written over. */
+function solveShifted(a: Float64Array, n: number, lambda: number, b: Float64Array, into?: Float64Array): Float64Array {
+  const { factor } = choleskyWithJitter(a, n, { shift: lambda, into });
   return choleskySolve(factor, n, b);
 }
 
@@ -276,9 +282,7 @@ export function fitRidge(d: Design, relative: number | null, cv: CrossValidation
   // Noise variance for the posterior: the CV error when there is one, else the training residual.
   if (d.gram) {
     const n = d.rows;
-    const m = Float64Array.from(d.gram);
-    for (let i = 0; i < n; i++) m[i * n + i] += lambda;
-    const { factor } = choleskyWithJitter(m, n);
+    const { factor } = choleskyWithJitter(d.gram, n, { shift: lambda });
     const c = choleskySolve(factor, n, d.y);
     const noise = !wantPosterior ? 0 : cvError > 0 ? cvError : residualNoise(d, all, lambda);
     const posterior: Posterior | undefined = wantPosterior ? { form: 'dual', size: n, factor, noise, lambda } : undefined;
@@ -288,9 +292,7 @@ export function fitRidge(d: Design, relative: number | null, cv: CrossValidation
   const phi = d.phi as Float64Array;
   const noise = !wantPosterior ? 0 : cvError > 0 ? cvError : residualNoise(d, all, lambda);
   const primalFactor = (): Float64Array => {
-    const g = gramOfColumns(phi, d.rows, f);
-    for (let i = 0; i < f; i++) g[i * f + i] += lambda;
-    return choleskyWithJitter(g, f).factor;
+    return choleskyWithJitter(gramOfColumns(phi, d.rows, f), f, { shift: lambda }).factor;
   };
   if (f <= d.rows) {
     const factor = primalFactor();
@@ -300,9 +302,7 @@ export function fitRidge(d: Design, relative: number | null, cv: CrossValidation
     const posterior: Posterior | undefined = wantPosterior ? { form: 'primal', size: f, factor, noise, lambda } : undefined;
     return { form: 'primal', weights: w, relative: chosen, lambda, scale, cvError, grid, posterior };
   }
-  const k = Float64Array.from(rowGram(d));
-  for (let i = 0; i < d.rows; i++) k[i * d.rows + i] += lambda;
-  const { factor, jitter } = choleskyWithJitter(k, d.rows);
+  const { factor, jitter } = choleskyWithJitter(rowGram(d), d.rows, { shift: lambda });
   const c = choleskySolve(factor, d.rows, d.y);
   let posterior: Posterior | undefined;
   if (wantPosterior) {
@@ -464,10 +464,7 @@ function foldLeverage(d: Design, train: Int32Array, test: Int32Array, lambda: nu
     // a structure kernel has no explicit rows: h = (k** − k*ᵀ(K + λI)⁻¹k*)/λ
     const n = d.rows;
     const g = d.gram;
-    const k = new Float64Array(nt * nt);
-    for (let a = 0; a < nt; a++) for (let b = 0; b < nt; b++) k[a * nt + b] = g[train[a] * n + train[b]];
-    for (let i = 0; i < nt; i++) k[i * nt + i] += lambda;
-    const { factor } = choleskyWithJitter(k, nt);
+    const { factor } = choleskyWithJitter(selectRows(g, n, train), nt, { shift: lambda });
     const ks = new Float64Array(nt);
     for (let t = 0; t < test.length; t++) {
       for (let a = 0; a < nt; a++) ks[a] = g[test[t] * n + train[a]];
@@ -483,9 +480,7 @@ function foldLeverage(d: Design, train: Int32Array, test: Int32Array, lambda: nu
   const sub = new Float64Array(nt * f);
   for (let a = 0; a < nt; a++) sub.set(phi.subarray(train[a] * f, train[a] * f + f), a * f);
   if (f <= nt) {
-    const g = gramOfColumns(sub, nt, f);
-    for (let i = 0; i < f; i++) g[i * f + i] += lambda;
-    const { factor } = choleskyWithJitter(g, f);
+    const { factor } = choleskyWithJitter(gramOfColumns(sub, nt, f), f, { shift: lambda });
     for (let t = 0; t < test.length; t++) {
       const z = forwardSubstitute(factor, f, phi.slice(test[t] * f, test[t] * f + f));
       let q = 0;
@@ -494,9 +489,7 @@ function foldLeverage(d: Design, train: Int32Array, test: Int32Array, lambda: nu
     }
     return out;
   }
-  const k = selectGram(d, train);
-  for (let i = 0; i < nt; i++) k[i * nt + i] += lambda;
-  const { factor, jitter } = choleskyWithJitter(k, nt);
+  const { factor, jitter } = choleskyWithJitter(selectGram(d, train), nt, { shift: lambda });
   for (let t = 0; t < test.length; t++) out[t] = designLeverage(sub, nt, f, factor, lambda + jitter, phi.subarray(test[t] * f, test[t] * f + f));
   return out;
 }

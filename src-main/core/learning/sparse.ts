@@ -69,7 +69,8 @@ export function squaredDistanceBelow(a: Float64Array, ia: number, b: Float64Arra
  * new one (with a margin far above rounding) cannot come nearer (triangle inequality), and a sum that passes
  * the candidate's squared distance so far is left early (squaredDistanceBelow). Every distance that is taken
  * is the full sum of rowDistance, so the choice and the distances are those of the plain loop, bit for bit
- * (kept in test/helpers/reference-kernels.ts, which the tests compare against).
+ * (kept in test/helpers/reference-kernels.ts, which the tests compare against). Training samples through
+ * sampling.ts, whose WebAssembly kernel runs this loop with one more bound; this one is its fallback and oracle.
  */
 export function farthestPointSample(p: Float64Array, n0: number, candidates: Int32Array, m: number): { chosen: Int32Array; distance: Float64Array; nearest: Int32Array } {
   const n = candidates.length;
@@ -83,17 +84,7 @@ export function farthestPointSample(p: Float64Array, n0: number, candidates: Int
   // distance of chosen point j to the newest one (computed when first needed in a step: stamp[j] = step)
   const toNew = new Float64Array(take);
   const stamp = new Int32Array(take).fill(-1);
-  const mean = new Float64Array(n0);
-  for (let c = 0; c < n; c++) for (let f = 0; f < n0; f++) mean[f] += p[candidates[c] * n0 + f] / n;
-  let next = 0;
-  let far = -1;
-  for (let c = 0; c < n; c++) {
-    const d = rowDistance(p, candidates[c], mean, 0, n0);
-    if (d > far) {
-      far = d;
-      next = c;
-    }
-  }
+  let next = firstSampled(p, n0, candidates);
   const SAFE = 1 + 1e-9;
   for (let k = 0; k < take; k++) {
     const q = candidates[next];
@@ -138,6 +129,23 @@ export function farthestPointSample(p: Float64Array, n0: number, candidates: Int
   return { chosen, distance: dist, nearest };
 }
 
+/** The candidate farthest-point sampling starts from (an index into `candidates`): the one farthest from their mean. */
+export function firstSampled(p: Float64Array, n0: number, candidates: Int32Array): number {
+  const n = candidates.length;
+  const mean = new Float64Array(n0);
+  for (let c = 0; c < n; c++) for (let f = 0; f < n0; f++) mean[f] += p[candidates[c] * n0 + f] / n;
+  let next = 0;
+  let far = -1;
+  for (let c = 0; c < n; c++) {
+    const d = rowDistance(p, candidates[c], mean, 0, n0);
+    if (d > far) {
+      far = d;
+      next = c;
+    }
+  }
+  return next;
+}
+
 /** For each pool row, a representative near it (an index into the representatives, −1 if none) and its distance. */
 export interface RepresentativeAnchors {
   rep: Int32Array;
@@ -173,6 +181,7 @@ export function anchorsOf(count: number, candidates: Int32Array[], samples: { ch
  * are visited in ascending distance from a, and the search stops at the first one with d(a,k) > d(i,a) + best
  * (with a margin far above rounding): by the triangle inequality it and all later ones are farther than the best
  * so far. One with d(i,a) > d(a,k) + best is skipped likewise. The minimum, and so the result, is the same.
+ * Training calls it through sampling.ts, whose WebAssembly kernel gives the same numbers; this is its fallback and oracle.
  */
 export function nearestOtherDistances(pool: EnvironmentPool, reps: Int32Array, frameOf?: Int32Array, anchors?: RepresentativeAnchors): Float64Array {
   const own = new Map<number, number>();

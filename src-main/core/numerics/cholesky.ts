@@ -212,15 +212,22 @@ function subtractPanelProduct(a: Float64Array, n: number, kb: number, r0: number
  * Factor A + jitter·I with the smallest jitter from a geometric ladder that makes it positive definite
  * (starting at 0). `a` is not modified; returns the factor and the jitter used. Throws when even a jitter
  * of 1e-2 × mean diagonal fails (a broken system, not round-off).
+ * `shift` (λ): factor A + λI instead, its diagonal entries a_ii + λ formed here as a copy of A shifted by the caller
+ * would hold them, so the same bits (the jitter then scales with the mean of a_ii + λ). `into`: an n × n array to
+ * write the factor into (written over; it becomes the factor returned), so that a caller solving many systems of one
+ * order need not allocate one per system — each new array of millions of numbers costs about as much as copying it.
  */
-export function choleskyWithJitter(a: Float64Array, n: number): { factor: Float64Array; jitter: number } {
+export function choleskyWithJitter(a: Float64Array, n: number, options: { shift?: number; into?: Float64Array } = {}): { factor: Float64Array; jitter: number } {
+  const shift = options.shift ?? 0;
   let meanDiag = 0;
-  for (let i = 0; i < n; i++) meanDiag += a[i * n + i];
+  for (let i = 0; i < n; i++) meanDiag += shift === 0 ? a[i * n + i] : a[i * n + i] + shift;
   meanDiag = n > 0 ? Math.abs(meanDiag / n) : 1;
   if (!(meanDiag > 0)) meanDiag = 1;
   const ladder = [0, 1e-12, 1e-10, 1e-8, 1e-6, 1e-4, 1e-2];
   for (const rel of ladder) {
-    const f = Float64Array.from(a);
+    const f = options.into && options.into.length >= n * n ? options.into.subarray(0, n * n) : new Float64Array(n * n);
+    f.set(a.subarray(0, n * n));
+    if (shift !== 0) for (let i = 0; i < n; i++) f[i * n + i] += shift;
     const jitter = rel * meanDiag;
     if (jitter > 0) for (let i = 0; i < n; i++) f[i * n + i] += jitter;
     if (choleskyInPlace(f, n)) return { factor: f, jitter };

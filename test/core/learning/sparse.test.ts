@@ -16,8 +16,7 @@ import {
 import { structureKernel } from '../../../src-main/core/learning/kernels.ts';
 import { makeRng, syntheticFeatures } from '../../helpers/synthetic-features.ts';
 import { referenceFarthestPointSample, referenceNearestOtherDistances } from '../../helpers/reference-kernels.ts';
-import { computeFeatures } from '../../../src-main/core/descriptors/features.ts';
-import { jitteredTrajectory } from '../../helpers/trajectory.ts';
+import { waterFeaturePool } from '../../helpers/trajectory.ts';
 
 describe('farthest-point sampling', () => {
   it('picks the extremes of points on a circle arc first, then fills the largest gap', () => {
@@ -45,28 +44,10 @@ describe('farthest-point sampling', () => {
 
   it('the pruned searches give the plain loops\' choices and distances bit for bit (real water features, repeats)', () => {
     // λ=0 rows of the DFT water frames, jittered (test/fixtures, from /work/shared/data), and some rows repeated
-    const frames = jitteredTrajectory(6, 0.05, 3);
-    const settings = { cutoff: 4, cutoffWidth: 0.5, sigma: 0.4, nmax: 4, lmax: 3, species: ['H', 'O'], centres: ['H', 'O'] };
-    const feats = frames.map((f) => computeFeatures(f, settings, [0]));
-    const n0 = feats[0].n0;
-    const rows: Float64Array[] = [];
-    const species: number[] = [];
-    const frame: number[] = [];
-    feats.forEach((fe, f) => {
-      for (let e = 0; e < fe.count; e++) {
-        rows.push(fe.scalar.subarray(e * n0, (e + 1) * n0));
-        species.push(fe.centreSpecies[e]);
-        frame.push(f);
-      }
-    });
-    for (let k = 0; k < 40; k++) {
-      rows.push(rows[(k * 7) % rows.length]);
-      species.push(species[(k * 7) % species.length]);
-      frame.push(frame[(k * 7) % frame.length]);
-    }
-    const p = new Float64Array(rows.length * n0);
-    rows.forEach((r, i) => p.set(r, i * n0));
-    const pool = { n0, count: rows.length, species: Int32Array.from(species), p };
+    const { pool, frame: frames } = waterFeaturePool(6, 40);
+    const { n0, p, species: speciesOf } = pool;
+    const species = Array.from(speciesOf);
+    const frame = Array.from(frames);
     const reps: number[] = [];
     const samples: Record<number, ReturnType<typeof farthestPointSample>[]> = { 1: [], 17: [], 120: [] };
     const candidates: Int32Array[] = [];

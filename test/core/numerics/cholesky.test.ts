@@ -39,6 +39,29 @@ describe('Cholesky on Float64Array', () => {
     expect(() => choleskyWithJitter(Float64Array.of(-1, 0, 0, -1), 2)).toThrow(/not positive definite/);
   });
 
+
+  it('a shifted system (shift, into) is the factor of the shifted copy, bit for bit, with or without a jitter, and leaves A alone', () => {
+    const rng = makeRng(12);
+    const into = new Float64Array(300 * 300);
+    for (const [n, rank] of [[200, 220], [150, 60]]) {
+      // rank 60 < 150: semi-definite, so a tiny shift needs a jitter
+      const x = Float64Array.from({ length: n * rank }, () => rng.normal());
+      const a = gramOfRows(x, n, rank);
+      const kept = a.slice();
+      for (const shift of [1e-3, 1e-14]) {
+        const m = a.slice();
+        for (let i = 0; i < n; i++) m[i * n + i] += shift;
+        const plain = choleskyWithJitter(m, n);
+        const shifted = choleskyWithJitter(a, n, { shift, into });
+        expect(shifted.jitter).toBe(plain.jitter);
+        expect(shifted.factor.length).toBe(n * n);
+        expect(shifted.factor.buffer).toBe(into.buffer);
+        for (let i = 0; i < n; i++) for (let j = 0; j <= i; j++) expect(Object.is(shifted.factor[i * n + j], plain.factor[i * n + j])).toBe(true);
+        if (rank < n && shift < 1e-10) expect(plain.jitter).toBeGreaterThan(0);
+      }
+      expect(a).toEqual(kept);
+    }
+  });
   it('gram of rows: every entry the same bits as its own dot product (even and odd columns apart), whatever the rows around it', () => {
     const rng = makeRng(17);
     for (const [rows, f] of [[7, 13], [8, 12], [1, 5], [5, 1]]) {
