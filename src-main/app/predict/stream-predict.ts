@@ -47,6 +47,22 @@ export const DEFAULT_BATCH_SECONDS = 5;
  */
 export const IN_PROCESS_BYTES = 256 << 10;
 
+/** The least compute of a batch near the end of a run (ms), when batches shrink so that the threads end together. */
+const MIN_BATCH_MS = 100;
+
+/**
+ * The most frames the batch being filled may take: `batchSize` (about batchSeconds of compute), but near the end
+ * only its share of what is left, (frames in it + frames left) / (2 · threads), so that the threads finish together
+ * instead of one working through a last long batch while the others wait; never fewer frames than about
+ * MIN_BATCH_MS of compute at `perFrameMs`. `left`: the frames of the selection not yet read (an estimate; null:
+ * unknown, then batchSize).
+ */
+export function shareOfWhatIsLeft(batchSize: number, inBatch: number, left: number | null, threads: number, perFrameMs: number): number {
+  if (left === null) return batchSize;
+  const least = Math.max(1, Math.round(MIN_BATCH_MS / Math.max(perFrameMs, 1e-3)));
+  return Math.max(1, Math.min(batchSize, Math.max(least, Math.ceil((inBatch + left) / (2 * threads)))));
+}
+
 export interface StreamProgress {
   /** Frames written so far (including those of an earlier, interrupted run). */
   done: number;
@@ -335,7 +351,8 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
     throw writeError(opts.output, e);
   });
   let runner: JobRunner | null = null;
-  const inFlight = new Map<number, { promise: Promise<PredictChunkOutput>; next: SlicePosition; frames: number }>();
+  /** Batches submitted and not yet written out, by sequence number; `done` once the batch's result (or error) came. */
+  const inFlight = new Map<number, { promise: Promise<PredictChunkOutput>; next: SlicePosition; frames: number; done: boolean }>();
   try {
     if (ck) await fh.truncate(ck.partialBytes);
     else if (format === 'csv') {
@@ -408,18 +425,50 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       if (opts.batchFrames === undefined && entry.frames > 0) {
         // size batches by the workers' own compute time per frame (worker start-up excluded), so that one batch
         // takes about batchSeconds: the per-batch cost (messages, fsync, checkpoint) is then a small share
-        const perFrame = r.computeMs / entry.frames;
-        batchSize = Math.max(1, Math.min(5000, Math.round(targetMs / Math.max(perFrame, 0.01))));
+        perFrameMs = Math.max(r.computeMs / entry.frames, 0.01);
+        batchSize = Math.max(1, Math.min(5000, Math.round(targetMs / perFrameMs)));
       }
       report();
     };
 
+    // batches running or waiting for a thread, and the wake-up of the reading loop when one of them ends
+    let unfinished = 0;
+    let wake: (() => void) | null = null;
+    const track = (promise: Promise<PredictChunkOutput>, next: SlicePosition, frames: number) => {
+      const entry = { promise, next, frames, done: false };
+      unfinished++;
+      const ended = () => {
+        entry.done = true;
+        unfinished--;
+        wake?.();
+        wake = null;
+      };
+      promise.then(ended, ended); // awaited (errors included) in order by drainOne
+      inFlight.set(seq++, entry);
+    };
     const submit = (frames: PredictChunkInput['frames'], next: SlicePosition) => {
       const input: PredictChunkInput = { modelPath: resolve(opts.modelPath), modelSha256, model: shared, file: opts.input, format, stamp, frames, csvOptions };
-      const promise = (runner as JobRunner).run<PredictChunkOutput>('predict-chunk', input, { signal });
-      promise.catch(() => undefined); // awaited in order by drainOne
-      inFlight.set(seq++, { promise, next, frames: frames.length });
+      track((runner as JobRunner).run<PredictChunkOutput>('predict-chunk', input, { signal }), next, frames.length);
     };
+    /** Writes out, in frame order, the batches whose results are in (stops at the first still running). */
+    const drainDone = async () => {
+      while (!signal?.aborted && inFlight.get(written)?.done) await drainOne();
+    };
+
+    // Near the end, smaller batches (shareOfWhatIsLeft). What is left is known from a shard's count, else estimated
+    // from the selection's stop and, in a plain file, from the bytes left at the bytes per frame taken so far
+    // (skipped frames included). The output does not depend on it.
+    let perFrameMs = 0;
+    let taken = 0;
+    const framesLeft = (at: SlicePosition): number | null => {
+      let left = total !== null ? total - resumedFrom - taken : Infinity;
+      if (stop !== null) left = Math.min(left, Math.ceil(Math.max(0, stop - Math.max(at.index, selection.start)) / step));
+      if (!compressed && fileBytes > 0 && taken > 0 && at.offset > from.offset) left = Math.min(left, ((fileBytes - at.offset) * taken) / (at.offset - from.offset));
+      return Number.isFinite(left) ? Math.max(0, left) : null;
+    };
+    // fixed batches, or the first ones (4 per thread, before any time per frame is known): as they are
+    const batchLimit = (at: SlicePosition, inBatch: number): number =>
+      opts.batchFrames !== undefined || perFrameMs === 0 ? batchSize : shareOfWhatIsLeft(batchSize, inBatch, framesLeft(at), threads, perFrameMs);
 
     let batch: PredictChunkInput['frames'] = [];
     let batchBytes = 0;
@@ -433,23 +482,35 @@ export async function streamPredict(opts: StreamPredictOptions): Promise<StreamP
       if (s.bytes) {
         batch.push({ index: s.index, line: s.line, bytes: new Uint8Array(s.bytes.buffer, s.bytes.byteOffset, s.bytes.byteLength) });
         batchBytes += s.bytes.length;
+        taken++;
       }
-      if (batch.length >= batchSize || batchBytes > 16 << 20) {
+      if (batch.length > 0 && (batch.length >= batchLimit(pos, batch.length) || batchBytes > 16 << 20)) {
         submit(batch, pos);
         batch = [];
         batchBytes = 0;
-        while (inFlight.size > threads) await drainOne();
+        // Up to one batch running and one waiting per thread, so that a thread that ends a batch finds the next:
+        // results are written out in frame order as they become writable, and the next batch is read as soon as
+        // any batch ends (not only the oldest: a long batch must not hold back the threads that finish short
+        // ones). Results waiting for an earlier batch are bounded too (8 batches per thread).
+        await drainDone();
+        while (unfinished >= 2 * threads || inFlight.size >= 8 * threads) {
+          if (signal?.aborted) throw new CancelledError();
+          if (unfinished >= 2 * threads) await new Promise<void>((r) => (wake = r));
+          else await drainOne();
+          await drainDone();
+        }
       }
       if (signal?.aborted) throw new CancelledError();
     }
     if (batch.length > 0 && seq === 0 && batchBytes <= inProcessBytes) {
       // the whole selection in one small batch: here, with this process's model and predictor
       const input = { file: opts.input, format, stamp, frames: batch, csvOptions };
-      const promise = Promise.resolve().then(() => predictFrames(model, loaded.predict, input, { signal: signal ?? new AbortController().signal, progress: () => {} }));
-      promise.catch(() => undefined); // awaited by drainOne
-      inFlight.set(seq++, { promise, next: pos, frames: batch.length });
+      track(Promise.resolve().then(() => predictFrames(model, loaded.predict, input, { signal: signal ?? new AbortController().signal, progress: () => {} })), pos, batch.length);
     } else if (batch.length > 0) submit(batch, pos);
-    while (inFlight.size > 0) await drainOne();
+    while (inFlight.size > 0) {
+      if (signal?.aborted) throw new CancelledError();
+      await drainOne();
+    }
     if (signal?.aborted) throw new CancelledError();
 
     await fh.sync();

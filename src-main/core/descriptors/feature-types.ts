@@ -43,4 +43,10 @@ export interface EnvironmentFeatures {
   tensor: Partial<Record<1 | 2, { n: number; data: Float64Array }>>;
   /** Per environment, the norm of its λ = 0 row before normalisation (the scale of its neighbour density), when computed. */
   norms?: Float64Array;
+  /**
+   * Only from computeFeatures with sumsOnly: per λ > 0 order, the sums of the environments' blocks per centre species,
+   * rows[μ·(species·nλ) + s·nλ + f] (the layout of linearDesignRows, which then answers with them); tensor[λ].data is
+   * then empty.
+   */
+  tensorSums?: Partial<Record<1 | 2, Float64Array>>;
 }

@@ -696,35 +696,98 @@ export function tensorFeaturesPlain(P: Plan, T: TensorPlan, c: Float64Array, out
   normalise(out, base, base + nM * n);
 }
 
+/** Per-species sums of the λ > 0 blocks (computeFeatures' sumsOnly): rows[k] in linearDesignRows' layout. */
+interface BlockSums {
+  centreSpecies: Int32Array;
+  species: number;
+  rows: Float64Array[];
+}
+
+/** The owner of each plan's region of running sums in the descriptor kernels' memory (tensorSteps with sums). */
+const sumOwners = new WeakMap<Plan, object>();
+
+/** rows[μ·species·n + s·n + f] += block[μ·n + f]: one environment's normalised block added to its species' sums. */
+function addBlock(rows: Float64Array, block: Float64Array, nM: number, n: number, s: number, species: number): void {
+  const cols = species * n;
+  for (let mu = 0; mu < nM; mu++) {
+    const dst = mu * cols + s * n;
+    const src = mu * n;
+    for (let f = 0; f < n; f++) rows[dst + f] += block[src + f];
+  }
+}
+
 /**
- * The λ > 0 step of computeFeatures: every order's block of environment slot k0 into tensors[k]. Called by
- * featurise with j (environments side by side), it leaves the block unnormalised in the layout's slot j, and
- * `flush(count)` normalises the blocks of slots 0 … count − 1 together and copies them out.
+ * The λ > 0 step of computeFeatures: every order's block of environment slot k0 into tensors[k], or with `sums`
+ * added to its species' sums instead (tensors[k] then holds one block, scratch). Called by featurise with j
+ * (environments side by side), it leaves the block unnormalised in the layout's slot j, and `flush(count)`
+ * normalises the blocks of slots 0 … count − 1 together and copies them out (or adds them, in environment order, to
+ * the sums in the kernels' memory, which are copied out after each group: the sums stay right whatever moves).
  */
-function tensorSteps(P: Plan, tensors: Float64Array[]): TensorStep {
-  const pending: { k0: number; c: Float64Array; L: KernelLayout }[] = [];
-  const step: TensorStep = (_e, k0, c, j) => {
+function tensorSteps(P: Plan, tensors: Float64Array[], sums?: BlockSums): TensorStep {
+  const pending: { e: number; k0: number; c: Float64Array; L: KernelLayout }[] = [];
+  /** One environment's blocks by the one-at-a-time path. */
+  const put = (e: number, k0: number, c: Float64Array) => {
+    for (let k = 0; k < P.tensors.length; k++) {
+      const T = P.tensors[k];
+      if (!sums) tensorFeatures(P, T, c, tensors[k], k0);
+      else {
+        tensorFeatures(P, T, c, tensors[k], 0);
+        addBlock(sums.rows[k], tensors[k], 2 * T.lambda + 1, T.n, sums.centreSpecies[e], sums.species);
+      }
+    }
+  };
+  // the sums' region: where it was placed (its generation) when it last held the sums of `sums.rows`
+  let synced = -1;
+  const step: TensorStep = (e, k0, c, j) => {
     const L = j === undefined ? null : kernelLayout(P);
     if (L === null || j === undefined) {
-      for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], c, tensors[k], k0);
+      put(e, k0, c);
       return;
     }
     for (let k = 0; k < P.tensors.length; k++) tensorBlockKernel(L, P, k, c, j);
-    pending[j] = { k0, c, L };
+    pending[j] = { e, k0, c, L };
   };
   step.flush = (count) => {
     if (pending.length === 0) return;
+    let region: { at: number; generation: number } | null = null;
+    if (sums) {
+      // asked for before the layout is checked: placing it may move the layout
+      let owner = sumOwners.get(P);
+      if (!owner) sumOwners.set(P, (owner = {}));
+      const bytes = P.tensors.reduce((t, T) => t + (2 * T.lambda + 1) * sums.species * T.n * 8, 0);
+      region = descriptorKernels()?.region(owner, bytes) ?? null;
+    }
     const L = kernelLayout(P);
-    if (L === null || pending.some((x, j) => j < count && x.L !== L)) {
+    if (L === null || (sums && region === null) || pending.some((x, j) => j < count && x.L !== L)) {
       // the layout moved under the blocks (not expected between the steps of one group): make them again, one by one
-      for (let j = 0; j < count; j++) for (let k = 0; k < P.tensors.length; k++) tensorFeatures(P, P.tensors[k], pending[j].c, tensors[k], pending[j].k0);
+      for (let j = 0; j < count; j++) put(pending[j].e, pending[j].k0, pending[j].c);
+      synced = -1;
     } else {
       const views = kernelViews(L, P);
+      let at = region?.at ?? 0;
       for (let k = 0; k < P.tensors.length; k++) {
-        const size = (2 * P.tensors[k].lambda + 1) * P.tensors[k].n;
-        L.kernels.normaliseMany(L.tensors[k].out, size, count, size * 8, L.sq);
-        for (let j = 0; j < count; j++) tensors[k].set(views.out[k][j], pending[j].k0 * size);
+        const T = P.tensors[k];
+        const nM = 2 * T.lambda + 1;
+        const size = nM * T.n;
+        if (!sums) {
+          L.kernels.normaliseMany(L.tensors[k].out, size, count, size * 8, L.sq);
+          for (let j = 0; j < count; j++) tensors[k].set(views.out[k][j], pending[j].k0 * size);
+          continue;
+        }
+        // the squared norms, then each block scaled as normalise scales it while it is added (one pass over it)
+        L.kernels.sumSquaresMany(L.tensors[k].out, size, count, size * 8, L.sq);
+        const cols = sums.species * T.n;
+        const held = L.kernels.module.f64(at, nM * cols);
+        if (synced !== region!.generation) held.set(sums.rows[k]);
+        for (let j = 0; j < count; j++) {
+          const sq = views.sq[j];
+          const inv = sq === 0 || !Number.isFinite(sq) ? 1 : 1 / Math.sqrt(sq);
+          L.kernels.addRows(at + sums.centreSpecies[pending[j].e] * T.n * 8, cols, L.tensors[k].out + j * size * 8, T.n, nM, inv);
+        }
+        sums.rows[k].set(L.kernels.module.f64(at, nM * cols));
+        at += nM * cols * 8;
       }
+      if (region) synced = region.generation;
     }
     pending.length = 0;
   };
@@ -836,11 +899,12 @@ export function featurise(
   timings: FeatureTimings | undefined,
   norms?: Float64Array,
 ): void {
-  if (after === null && prep.centres.length > 1 && slotsIncrease(slot, prep.centres.length) && featuriseGrouped(prep, scalar, slot, tensorStep, timings, norms)) return;
+  // environments done side by side (all, or those before the kernels' memory could no longer hold a group)
+  const done = after === null && prep.centres.length > 1 && slotsIncrease(slot, prep.centres.length) ? featuriseGrouped(prep, scalar, slot, tensorStep, timings, norms) : 0;
   const { P, channelOf, centres, pairs, where } = prep;
   const c = P.coefficients;
   let tExpand = 0, tCouple = 0;
-  for (let e = 0; e < centres.length; e++) {
+  for (let e = done; e < centres.length; e++) {
     const i = centres[e];
     const ta = timings ? performance.now() : 0;
     P.expander.expand(pairs, i, channelOf[i], channelOf, c);
@@ -874,13 +938,14 @@ function slotsIncrease(slot: (e: number) => number, count: number): boolean {
 const groupCoefficients = new WeakMap<Plan, Float64Array[]>();
 
 /**
- * featurise for up to GROUP environments at a time (see there); false (nothing done) when the kernels are off or
- * unavailable. Each environment's steps are those of the one-at-a-time loop; only the norms of a group's rows (and,
- * through TensorStep.flush, of its λ > 0 blocks) are summed side by side (normaliseMany), each in its own order.
+ * featurise for up to GROUP environments at a time (see there); returns how many environments it did: 0 when the
+ * kernels are off or unavailable, fewer than all when their memory could no longer hold a group. Each
+ * environment's steps are those of the one-at-a-time loop; only the norms of a group's rows (and, through
+ * TensorStep.flush, of its λ > 0 blocks) are summed side by side (normaliseMany), each in its own order.
  */
-function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number) => number, tensorStep: TensorStep, timings: FeatureTimings | undefined, norms?: Float64Array): boolean {
+function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number) => number, tensorStep: TensorStep, timings: FeatureTimings | undefined, norms?: Float64Array): number {
   const { P, channelOf, centres, pairs, where } = prep;
-  if (kernelLayout(P) === null) return false;
+  if (kernelLayout(P) === null) return 0;
   let cs = groupCoefficients.get(P);
   if (!cs) {
     cs = Array.from({ length: GROUP }, () => new Float64Array(P.expander.size));
@@ -889,6 +954,7 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
   const k0s = new Array<number>(GROUP);
   const early = tensorStep.inPlace;
   let tExpand = 0, tCouple = 0;
+  let done = centres.length;
   for (let g = 0; g < centres.length; g += GROUP) {
     const count = Math.min(GROUP, centres.length - g);
     const ta = timings ? performance.now() : 0;
@@ -911,7 +977,12 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
         P.expander.expand(pairs, i, channelOf[i], channelOf, cs[j], j);
       }
       L = kernelLayout(P);
-      if (L === null) throw new Error('featurise: the descriptor kernels lost their memory');
+      if (L === null) {
+        // the memory cannot hold the plan's tables any more (the arena's limit, lowered by a test): this group and the
+        // rest one at a time (nothing of this group was written yet)
+        done = g;
+        break;
+      }
       for (let j = 0; j < count; j++) rowKernel(L, P, cs[j], false, j);
     }
     const K = L as KernelLayout;
@@ -939,14 +1010,15 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
     timings.expansion += tExpand;
     timings.coupling += tCouple;
   }
-  return true;
+  return done;
 }
 
 /**
  * Features of every centre of `frame` (atoms whose species is in settings.centres, in atom order). λ = 0 is
  * always computed (tensor kernels need it too); `lambdas` adds 1 and/or 2. `neighbours` may be passed when the
  * caller already has a list built with at least settings.cutoff (pairs beyond the cutoff are ignored). `reuse`:
- * an earlier result the caller no longer needs, whose arrays are written over when their sizes fit.
+ * an earlier result the caller no longer needs, whose arrays are written over when their sizes fit. `sumsOnly`:
+ * the λ > 0 orders only as per-species sums of the blocks (computeFeatureSums).
  */
 export function computeFeatures(
   frame: Frame,
@@ -955,10 +1027,12 @@ export function computeFeatures(
   neighbours?: NeighbourPairs,
   timings?: FeatureTimings,
   reuse?: EnvironmentFeatures,
+  sumsOnly = false,
 ): EnvironmentFeatures {
   const prep = prepare(frame, settings, lambdas, neighbours, timings);
   const { P } = prep;
   const count = prep.centres.length;
+  if (sumsOnly && P.tensors.length > 0) return computeFeatureSums(prep, timings, reuse);
   // An earlier result's arrays when they have the sizes needed (every number is overwritten): writing into
   // memory already in use saves the operating system's zeroing of fresh pages, a good share of the time at
   // λ = 2 (30 MB of output per 384-atom frame at lmaxTensor 6).
@@ -972,6 +1046,29 @@ export function computeFeatures(
     tensor[T.lambda] = { n: T.n, data: tensorOut[k] };
   });
   return { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor, norms };
+}
+
+/**
+ * computeFeatures with sumsOnly: the λ = 0 rows, and of each λ > 0 order only the per-species sums of the
+ * normalised blocks (tensorSums; the same numbers as linearDesignRows of the blocks, each entry summed in
+ * environment order), never the blocks themselves (tensor[λ].data is empty): what a linear model's training needs
+ * from a frame, without writing and reading back 52 kB of λ = 2 features per environment (nmax 8, lmaxTensor 4).
+ */
+function computeFeatureSums(prep: Prepared, timings: FeatureTimings | undefined, reuse: EnvironmentFeatures | undefined): EnvironmentFeatures {
+  const { P } = prep;
+  const count = prep.centres.length;
+  const scalar = reuse?.scalar.length === count * P.n0 ? reuse.scalar : new Float64Array(count * P.n0);
+  const norms = reuse?.norms?.length === count ? reuse.norms : new Float64Array(count);
+  const species = P.settings.centres.length;
+  const sums: BlockSums = { centreSpecies: prep.centreSpecies, species, rows: P.tensors.map((T) => new Float64Array((2 * T.lambda + 1) * species * T.n)) };
+  featurise(prep, scalar, (e) => e, tensorSteps(P, P.tensors.map((T) => new Float64Array((2 * T.lambda + 1) * T.n)), sums), null, timings, norms);
+  const tensor: EnvironmentFeatures['tensor'] = {};
+  const tensorSums: NonNullable<EnvironmentFeatures['tensorSums']> = {};
+  P.tensors.forEach((T, k) => {
+    tensor[T.lambda] = { n: T.n, data: new Float64Array(0) };
+    tensorSums[T.lambda] = sums.rows[k];
+  });
+  return { count, centre: prep.centres, centreSpecies: prep.centreSpecies, frame: new Int32Array(count), n0: P.n0, scalar, tensor, norms, tensorSums };
 }
 
 /** One environment's features as handed to forEachEnvironment's visitor (buffers reused: copy what you keep). */
@@ -1018,6 +1115,7 @@ export function concatenateFeatures(parts: EnvironmentFeatures[]): EnvironmentFe
   if (parts.length === 0) throw new RangeError('concatenateFeatures: nothing to concatenate');
   const n0 = parts[0].n0;
   const lambdas = Object.keys(parts[0].tensor).map(Number) as (1 | 2)[];
+  if (parts.some((p) => p.tensorSums)) throw new RangeError('concatenateFeatures: a part holds only per-species sums of its λ > 0 features');
   for (const p of parts) {
     if (p.n0 !== n0 || Object.keys(p.tensor).length !== lambdas.length || lambdas.some((l) => p.tensor[l]?.n !== parts[0].tensor[l]!.n)) {
       throw new RangeError('concatenateFeatures: parts were computed with different settings');

@@ -125,6 +125,12 @@ export function linearDesignRows(feat: EnvironmentFeatures, order: Order, specie
   // locals, not the view's fields, in the loop (V8 reloads fields after every typed-array store)
   const { data, n, width } = v;
   const cols = species * n;
+  // features computed as these very sums (computeFeatures with sumsOnly: the same additions in the same order)
+  const sums = order === 0 ? undefined : feat.tensorSums?.[order];
+  if (sums) {
+    if (sums.length !== width * cols) throw new RangeError(`linearDesignRows: the features hold sums over ${sums.length / (width * n)} centre species, not ${species}`);
+    return sums.slice();
+  }
   const rows = new Float64Array(width * cols);
   const centreSpecies = feat.centreSpecies;
   // Each entry is the sum, in environment order, of its species' environments: the environments of a species are

@@ -468,6 +468,15 @@ export function centreSpeciesOf(frame: Frame, centres: string[]): Int32Array {
   return Int32Array.from(out);
 }
 
+/**
+ * Whether the first pass needs a frame's λ > 0 features only as the per-species sums of a linear model's design rows
+ * (no pool of λ > 0 blocks, no feature selection): computeFeatures then gives just those sums (sumsOnly), the same
+ * numbers linearDesignRows makes from the blocks.
+ */
+export function sumsSuffice(spec: FramePassSpec): boolean {
+  return spec.order !== null && spec.order !== 0 && spec.designOrders.includes(spec.order) && !spec.selection && (spec.poolOrder === null || spec.poolOrder === 0);
+}
+
 /** One frame's part of the first training pass, from its features (and its neighbour list for the domain statistics). */
 export function summariseFrame(frame: Frame, fe: EnvironmentFeatures, pairs: NeighbourList | undefined, spec: FramePassSpec, keep: Int32Array): FrameSummary {
   const n0 = fe.n0;
@@ -505,7 +514,7 @@ export function frameSummaries(batch: FramePassBatch, signal?: AbortSignal): Fra
   batch.frames.forEach((frame, k) => {
     if (signal?.aborted) throw new CancelledError();
     pairs = spec.domain ? neighbourList(frame, spec.features.cutoff, { reuse: pairs }) : undefined;
-    const raw = computeFeatures(frame, spec.features, spec.lambdas, pairs, undefined, spare);
+    const raw = computeFeatures(frame, spec.features, spec.lambdas, pairs, undefined, spare, sumsSuffice(spec));
     const fe = spec.selection ? applyFeatureSelection(raw, spec.selection) : raw;
     out.push(summariseFrame(frame, fe, pairs, spec, batch.keep[k]));
     spare = raw;
@@ -781,12 +790,14 @@ export async function trainWithFeaturiser(frames: Frame[], request: TrainRequest
     await runFramePass(runner, passSpec, frames, plans, hooks, merge);
   } else {
     let pairs: NeighbourList | undefined;
+    // the model's own features wanted only as design-row sums beyond λ = 0 (sumsSuffice): computed as such
+    const sumsOnly = featurise === null && sumsSuffice(passSpec);
     for (let f = 0; f < nFrames; f++) {
       checkAbort(hooks);
       // one neighbour list per frame for the features and the domain statistics (the same cutoff), written over the
       // previous frame's, which nothing holds
       pairs = domain ? neighbourList(frames[f], settings.cutoffRadius, { reuse: pairs }) : undefined;
-      const fe = feat(frames[f], f, pairs);
+      const fe = sumsOnly ? computeFeatures(frames[f], passSpec.features, passSpec.lambdas, pairs, undefined, spare, true) : feat(frames[f], f, pairs);
       totalEnv += fe.count;
       if (exact && totalEnv > EXACT_LIMIT) {
         throw new InputError(`exact kernel ridge would keep more than ${EXACT_LIMIT} environments`, {}, 'give a number of anchor environments above 0, or kernel exponent 1');

@@ -55,6 +55,10 @@ export interface DescriptorKernels {
    * of its plan (tensor-readout.ts layoutPlan), the density coefficients c, the weight matrices W and the output y.
    */
   readOut(plan: number, c: number, W: number, y: number): void;
+  /** normaliseMany's squared norms alone (sq), the blocks left unscaled. */
+  sumSquaresMany(x: number, len: number, count: number, stride: number, sq: number): void;
+  /** acc[r·accRow + f] += x[r·n + f] · inv for r < rows, f < n (accRow in doubles): a block added to running sums. */
+  addRows(acc: number, accRow: number, x: number, n: number, rows: number, inv: number): void;
 }
 
 let cached: DescriptorKernels | null | undefined;
@@ -84,6 +88,8 @@ export function descriptorKernels(): DescriptorKernels | null {
       coupleCross: e.coupleCross as DescriptorKernels['coupleCross'],
       normalise: e.normalise as DescriptorKernels['normalise'],
       readOut: e.readOut as DescriptorKernels['readOut'],
+      addRows: e.addRows as DescriptorKernels['addRows'],
+      sumSquaresMany: e.sumSquaresMany as DescriptorKernels['sumSquaresMany'],
     };
   }
   return cached ?? null;

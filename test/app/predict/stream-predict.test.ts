@@ -8,7 +8,7 @@ import { tensorToVoigt } from '../../../src-main/core/dielectric/tensor.ts';
 import { parseCsv } from '../../../src-main/io/csv.ts';
 import { parseExtxyz } from '../../../src-main/io/extxyz.ts';
 import { saveModel } from '../../../src-main/io/model-file.ts';
-import { checkpointPaths, streamPredict, type StreamPredictOptions } from '../../../src-main/app/predict/stream-predict.ts';
+import { checkpointPaths, shareOfWhatIsLeft, streamPredict, type StreamPredictOptions } from '../../../src-main/app/predict/stream-predict.ts';
 import { predictionCsvOptions } from '../../../src-main/io/prediction/prediction-format.ts';
 import { tsWorkerFactory } from '../../../src-main/jobs/spawn-ts.ts';
 import { jitteredTrajectory, smallModel, trajectoryText } from '../../helpers/trajectory.ts';
@@ -101,6 +101,31 @@ describe('streamPredict', () => {
     expect(r.frames).toBe(9);
     expect(readFileSync(reused, 'utf8')).toBe(readFileSync(fresh, 'utf8'));
   }, 60_000);
+
+  it('writes the same bytes with batches sized by time and shrinking near the end as with fixed batches', async () => {
+    const fixed = join(dir, 'fixed.csv');
+    const sized = join(dir, 'sized.csv');
+    await run({ modelPath: modelPath(), input: input(), output: fixed, threads: 2, batchFrames: 20 });
+    // 4 frames, 4 frames, then each batch half of what is left (until a batch would take under 100 ms)
+    const r = await run({ modelPath: modelPath(), input: input(), output: sized, threads: 1, batchSeconds: 10, inProcessBytes: 0 });
+    expect(r.frames).toBe(20);
+    expect(readFileSync(sized, 'utf8')).toBe(readFileSync(fixed, 'utf8'));
+  }, 60_000);
+
+  it('sizes a batch near the end as its share of the frames left', () => {
+    // far from the end: the time-based size
+    expect(shareOfWhatIsLeft(250, 0, 10_000, 2, 20)).toBe(250);
+    // near it: (in the batch + left) / (2 · threads)
+    expect(shareOfWhatIsLeft(250, 10, 390, 2, 20)).toBe(100);
+    expect(shareOfWhatIsLeft(250, 0, 41, 2, 20)).toBe(11);
+    // never below about 100 ms of compute (5 frames at 20 ms), nor below one frame
+    expect(shareOfWhatIsLeft(250, 0, 8, 2, 20)).toBe(5);
+    expect(shareOfWhatIsLeft(250, 0, 0, 4, 500)).toBe(1);
+    // nothing known about what is left (a compressed file without a count): the time-based size
+    expect(shareOfWhatIsLeft(250, 0, null, 2, 20)).toBe(250);
+    // never above the time-based size
+    expect(shareOfWhatIsLeft(3, 0, 10, 1, 200)).toBe(3);
+  });
 
   it('predicts a selection of one small batch in this thread, with the bytes workers give', async () => {
     let started = 0;

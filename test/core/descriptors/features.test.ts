@@ -27,6 +27,7 @@ import {
 } from '../../helpers/equivariance-harness.ts';
 import { neighbourList } from '../../../src-main/core/geometry/neighbours.ts';
 import { waterFrames } from '../../helpers/trajectory.ts';
+import { linearDesignRows } from '../../../src-main/core/learning/kernels.ts';
 
 const settings: FeatureSettings = {
   cutoff: 3.2,
@@ -446,3 +447,62 @@ describe('whole features when the kernels\' memory starts again in the middle of
   });
 });
 
+
+describe('computeFeatures with sumsOnly: the λ > 0 orders as per-species sums', () => {
+  // A linear model's training needs each frame's λ = 2 features only as linearDesignRows' per-species sums; with
+  // sumsOnly the kernels add each normalised block to its species' sums in their memory instead of copying it out.
+  // They must be the very numbers linearDesignRows makes from the blocks (each entry summed in environment order),
+  // with the kernels on and off, and when the kernels' memory starts again within a frame (the sums are kept
+  // outside it after every group of environments).
+  afterEach(() => {
+    setArenaLimit(null);
+    setWebAssemblyKernels(true);
+  });
+  const s: FeatureSettings = { cutoff: 4.5, cutoffWidth: 0.5, sigma: 0.4, nmax: 6, lmax: 4, lmaxTensor: 4, species: ['O', 'H'], centres: ['O', 'H'] };
+  it('gives linearDesignRows of the blocks bit for bit, with the kernels on and off, and the same λ = 0 rows and norms', () => {
+    for (const frame of waterFrames().slice(0, 2)) {
+      const full = computeFeatures(frame, s, [0, 2]);
+      const want = linearDesignRows(full, 2, 2);
+      for (const on of [true, false]) {
+        setWebAssemblyKernels(on);
+        const sums = computeFeatures(frame, s, [0, 2], undefined, undefined, undefined, true);
+        expect(sums.tensor[2]!.n).toBe(full.tensor[2]!.n);
+        expect(sums.tensor[2]!.data.length).toBe(0);
+        expect(firstDifference(linearDesignRows(sums, 2, 2), want), `kernels ${on ? 'on' : 'off'}`).toBe('');
+        expect(firstDifference(sums.scalar, full.scalar)).toBe('');
+        expect(firstDifference(sums.norms!, full.norms!)).toBe('');
+      }
+    }
+  });
+  it('stays bit for bit when the kernels\' memory starts again within a frame', () => {
+    const [frame] = waterFrames();
+    const want = linearDesignRows(computeFeatures(frame, s, [0, 2]), 2, 2);
+    let restartsSeen = 0;
+    for (const kib of [256, 384, 512, 640, 768, 1024, 1536]) {
+      setArenaLimit(kib * 1024);
+      computeFeatures(frame, { ...s, nmax: 5 }, [0, 2]); // another plan's regions first, so that this call's must be placed again
+      const before = arenaRestarts();
+      const sums = computeFeatures(frame, s, [0, 2], undefined, undefined, undefined, true);
+      restartsSeen += arenaRestarts() - before;
+      expect(firstDifference(linearDesignRows(sums, 2, 2), want), `limit ${kib} KiB`).toBe('');
+    }
+    expect(restartsSeen).toBeGreaterThan(0);
+  });
+  it('finishes a frame one environment at a time when the memory can no longer hold a group (the same bits)', () => {
+    // settings of their own, so that the sums' region is new: placing it in the middle of the frame, under a limit
+    // below the plan's tables, drops those tables for good
+    const own: FeatureSettings = { ...s, sigma: 0.41 };
+    const [frame] = waterFrames();
+    const want = linearDesignRows(computeFeatures(frame, own, [0, 2]), 2, 2);
+    setArenaLimit(256 * 1024);
+    const before = arenaRestarts();
+    const sums = computeFeatures(frame, own, [0, 2], undefined, undefined, undefined, true);
+    expect(arenaRestarts()).toBeGreaterThan(before);
+    expect(firstDifference(linearDesignRows(sums, 2, 2), want)).toBe('');
+  });
+  it('refuses another number of centre species and concatenation', () => {
+    const sums = computeFeatures(waterFrames()[0], s, [0, 2], undefined, undefined, undefined, true);
+    expect(() => linearDesignRows(sums, 2, 3)).toThrow(/sums over 2 centre species, not 3/);
+    expect(() => concatenateFeatures([sums])).toThrow(/per-species sums/);
+  });
+});

@@ -156,6 +156,54 @@ describe('bounded nearest-representative search', () => {
       expect(wasm.exact).toBe(js.exact);
       expect(wasm.screened).toBe(js.screened);
     }
+    // a frame whose atoms are permuted: every distance moves with its atom, the same numbers (kernels on and off)
+    const rng = makeRng(8);
+    const perm = Int32Array.from({ length: q.count }, (_, i) => i);
+    for (let i = q.count - 1; i > 0; i--) {
+      const j = rng.int(i + 1);
+      [perm[i], perm[j]] = [perm[j], perm[i]];
+    }
+    const permuted = new Float64Array(q.count * q.n0);
+    const permutedSpecies = new Int32Array(q.count);
+    perm.forEach((from, to) => {
+      permuted.set(q.rows.subarray(from * q.n0, from * q.n0 + q.n0), to * q.n0);
+      permutedSpecies[to] = q.species[from];
+    });
+    const search = prepareNearestSearch(reps.rows, reps.species, reps.n0);
+    const straight = new Float64Array(q.count);
+    searchNearestAll(search, q.rows, q.count, q.species, straight);
+    for (let e = 0; e < q.count; e++) expect(straight[e]).toBe(nearestDistance(q.rows, e, reps.rows, reps.species, q.species[e], reps.n0));
+    for (const kernels of [true, false]) {
+      setWebAssemblyKernels(kernels);
+      const out = new Float64Array(q.count).fill(-1);
+      searchNearestAll(search, permuted, q.count, permutedSpecies, out);
+      perm.forEach((from, to) => expect(Object.is(out[to], straight[from])).toBe(true));
+    }
+    setWebAssemblyKernels(true);
+  });
+
+  it('gives the plain scan’s numbers with far outliers among the representatives and the queries', () => {
+    const rng = makeRng(61);
+    for (const n0 of [24, 97]) {
+      const c = makeCase(rng, n0, 120, 1, true, 0.05, 4);
+      // three representatives far out along a few features each: they dominate those features' spread, the basis
+      // and the screening order
+      for (const k of [5, 40, 77]) {
+        for (let f = 0; f < n0; f++) if (f % 11 === k % 11) c.reps[k * n0 + f] = 30 * (1 + rng.uniform());
+      }
+      const count = 40;
+      const queries = new Float64Array(count * n0);
+      for (let i = 0; i < count; i++) {
+        for (let f = 0; f < n0; f++) {
+          const kind = i % 4;
+          if (kind === 0) queries[i * n0 + f] = 50 * rng.normal(); // far from everything
+          else if (kind === 1) queries[i * n0 + f] = c.reps[40 * n0 + f] + 1e-3 * rng.normal(); // next to an outlier
+          else if (kind === 2) queries[i * n0 + f] = c.reps[40 * n0 + f]; // an outlier itself
+          else queries[i * n0 + f] = c.queries[(i % c.queryCount) * n0 + f];
+        }
+      }
+      expectBatchSameAsPlain(c.reps, c.species, n0, queries, new Int32Array(count));
+    }
   });
 
   it('gives the plain scan’s numbers where the bounds are tight or tied and distances tie exactly or differ in the last bits (adversarial)', () => {

@@ -292,7 +292,8 @@ export function coupleCross(cT: usize, cT2: usize, tch: i32, w: i32, nM: i32, gS
   let c2 = 0;
   for (; c2 + 3 < tch; c2 += 4) {
     gatherFour(cT2, tch, c2, targets, gStart, gIdx, gVal, half);
-    for (let i = 0; i < 4; i++) contract(half + (<usize>i << 3), 32, nM, w, cT, tch, 0, tch, out + (<usize>(c2 + i) << 3), n, tch, Math.SQRT2, Math.SQRT2);
+    if (nM == 5) crossFive(half, w, cT, tch, out + (<usize>c2 << 3), n);
+    else for (let i = 0; i < 4; i++) contract(half + (<usize>i << 3), 32, nM, w, cT, tch, 0, tch, out + (<usize>(c2 + i) << 3), n, tch, Math.SQRT2, Math.SQRT2);
   }
   for (; c2 + 1 < tch; c2 += 2) {
     gatherTwo(cT2, tch, c2, targets, gStart, gIdx, gVal, half);
@@ -302,6 +303,52 @@ export function coupleCross(cT: usize, cT2: usize, tch: i32, w: i32, nM: i32, gS
   if (c2 < tch) {
     gather(cT2, tch, c2, targets, gStart, gIdx, gVal, half);
     contract(half, 8, nM, w, cT, tch, 0, tch, out + (<usize>c2 << 3), n, tch, Math.SQRT2, Math.SQRT2);
+  }
+}
+
+/**
+ * contract of four held channels c2 … c2 + 3 at once for λ = 2 in a block (l, l2), l < l2 (half: their
+ * half-couplings as gatherFour leaves them, side by side): for every channel c1 of degree l, out[μ·n + c1·tch + c2
+ * + i] = √2 · Σ_m half_i[μ·w + m] · cT[m·tch + c1], each sum from zero in m order, as contract computes it. The
+ * four held channels sit in two vectors, so that the four features of (μ, c1), next to each other in out, are
+ * stored as two vectors (contract, two partners per vector, stores them one by one, tch doubles apart).
+ */
+function crossFive(half: usize, w: i32, cT: usize, tch: i32, out: usize, n: i32): void {
+  const rowBytes = <usize>tch << 3;
+  const hw = <usize>w << 5; // from μ to μ + 1 in half
+  const nb = <usize>n << 3;
+  const rt2 = f64x2.splat(Math.SQRT2);
+  for (let c1 = 0; c1 < tch; c1++) {
+    let a0 = f64x2.splat(0), a1 = f64x2.splat(0), a2 = f64x2.splat(0), a3 = f64x2.splat(0), a4 = f64x2.splat(0);
+    let b0 = f64x2.splat(0), b1 = f64x2.splat(0), b2 = f64x2.splat(0), b3 = f64x2.splat(0), b4 = f64x2.splat(0);
+    let col = cT + (<usize>c1 << 3);
+    let h = half;
+    for (let m = 0; m < w; m++) {
+      const x = v128.load64_splat(col);
+      a0 = f64x2.add(a0, f64x2.mul(v128.load(h), x));
+      b0 = f64x2.add(b0, f64x2.mul(v128.load(h, 16), x));
+      a1 = f64x2.add(a1, f64x2.mul(v128.load(h + hw), x));
+      b1 = f64x2.add(b1, f64x2.mul(v128.load(h + hw, 16), x));
+      a2 = f64x2.add(a2, f64x2.mul(v128.load(h + 2 * hw), x));
+      b2 = f64x2.add(b2, f64x2.mul(v128.load(h + 2 * hw, 16), x));
+      a3 = f64x2.add(a3, f64x2.mul(v128.load(h + 3 * hw), x));
+      b3 = f64x2.add(b3, f64x2.mul(v128.load(h + 3 * hw, 16), x));
+      a4 = f64x2.add(a4, f64x2.mul(v128.load(h + 4 * hw), x));
+      b4 = f64x2.add(b4, f64x2.mul(v128.load(h + 4 * hw, 16), x));
+      col += rowBytes;
+      h += 32;
+    }
+    const o = out + <usize>c1 * rowBytes;
+    v128.store(o, f64x2.mul(rt2, a0));
+    v128.store(o, f64x2.mul(rt2, b0), 16);
+    v128.store(o + nb, f64x2.mul(rt2, a1));
+    v128.store(o + nb, f64x2.mul(rt2, b1), 16);
+    v128.store(o + 2 * nb, f64x2.mul(rt2, a2));
+    v128.store(o + 2 * nb, f64x2.mul(rt2, b2), 16);
+    v128.store(o + 3 * nb, f64x2.mul(rt2, a3));
+    v128.store(o + 3 * nb, f64x2.mul(rt2, b3), 16);
+    v128.store(o + 4 * nb, f64x2.mul(rt2, a4));
+    v128.store(o + 4 * nb, f64x2.mul(rt2, b4), 16);
   }
 }
 
@@ -327,6 +374,16 @@ export function normalise(x: usize, len: i32): f64 {
  * the four do not wait on each other, where one block's sum alone is a chain of dependent additions.
  */
 export function normaliseMany(x: usize, len: i32, count: i32, stride: usize, sq: usize): void {
+  squaresMany(x, len, count, stride, sq, true);
+}
+
+/** normaliseMany's sums of squares alone (sq[j]), the blocks left as they are (addRows scales them as it adds). */
+export function sumSquaresMany(x: usize, len: i32, count: i32, stride: usize, sq: usize): void {
+  squaresMany(x, len, count, stride, sq, false);
+}
+
+// @ts-ignore: decorator
+@inline function squaresMany(x: usize, len: i32, count: i32, stride: usize, sq: usize, scaleToo: bool): void {
   const bytes = <usize>len << 3;
   for (let j0 = 0; j0 < count; j0 += 4) {
     // blocks j0 … j0 + 3; past the last one, repeats of block j0 (their sums are not kept)
@@ -346,8 +403,30 @@ export function normaliseMany(x: usize, len: i32, count: i32, stride: usize, sq:
       const v = j < 2 ? s0 : s1;
       const s = (j & 1) == 0 ? f64x2.extract_lane(v, 0) : f64x2.extract_lane(v, 1);
       store<f64>(sq + (<usize>(j0 + j) << 3), s);
-      if (s == 0 || !isFinite<f64>(s)) continue;
+      if (!scaleToo || s == 0 || !isFinite<f64>(s)) continue;
       scale(p0 + <usize>j * stride, len, 1 / Math.sqrt(s));
+    }
+  }
+}
+
+/**
+ * acc[r·accRow + f] += x[r·n + f] · inv for r < rows, f < n (accRow in doubles): one environment's block, scaled as
+ * normalise scales it (inv = 1/√ of its squared norm; 1 where normalise leaves it as it is, x · 1 being x), added
+ * to its species' running sums (core/learning/kernels.ts linearDesignRows, each entry a sum in environment order).
+ */
+export function addRows(acc: usize, accRow: i32, x: usize, n: i32, rows: i32, inv: f64): void {
+  const vinv = f64x2.splat(inv);
+  for (let r = 0; r < rows; r++) {
+    const a = acc + (<usize>(r * accRow) << 3);
+    const b = x + (<usize>(r * n) << 3);
+    let f = 0;
+    for (; f + 1 < n; f += 2) {
+      const at = a + (<usize>f << 3);
+      v128.store(at, f64x2.add(v128.load(at), f64x2.mul(v128.load(b + (<usize>f << 3)), vinv)));
+    }
+    if (f < n) {
+      const at = a + (<usize>f << 3);
+      store<f64>(at, load<f64>(at) + load<f64>(b + (<usize>f << 3)) * inv);
     }
   }
 }
@@ -728,11 +807,18 @@ export function pairTerms(par: usize, chan: usize, count: i32, channels: i32, lm
     const t = f64x2.splat(ts), t2 = f64x2.splat(t2s), t3 = f64x2.splat(t2s * ts);
     let o = coef + (<usize>(k * half) << 6);
     let Rq = R + (<usize>(s * NLp) << 3);
-    for (let j = 0; j < half; j++) {
+    let j = 0;
+    for (; j + 1 < half; j += 2) {
+      const c0 = v128.load(o), c1 = v128.load(o, 16), c2 = v128.load(o, 32), c3 = v128.load(o, 48);
+      const d0 = v128.load(o, 64), d1 = v128.load(o, 80), d2 = v128.load(o, 96), d3 = v128.load(o, 112);
+      v128.store(Rq, f64x2.mul(w, f64x2.add(f64x2.add(f64x2.add(c0, f64x2.mul(t, c1)), f64x2.mul(t2, c2)), f64x2.mul(t3, c3))));
+      v128.store(Rq, f64x2.mul(w, f64x2.add(f64x2.add(f64x2.add(d0, f64x2.mul(t, d1)), f64x2.mul(t2, d2)), f64x2.mul(t3, d3))), 16);
+      o += 128;
+      Rq += 32;
+    }
+    if (j < half) {
       const c0 = v128.load(o), c1 = v128.load(o, 16), c2 = v128.load(o, 32), c3 = v128.load(o, 48);
       v128.store(Rq, f64x2.mul(w, f64x2.add(f64x2.add(f64x2.add(c0, f64x2.mul(t, c1)), f64x2.mul(t2, c2)), f64x2.mul(t3, c3))));
-      o += 64;
-      Rq += 16;
     }
   }
 }
