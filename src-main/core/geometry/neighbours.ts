@@ -362,6 +362,168 @@ function kernelPairs(kernel: NeighbourKernels, s: KernelSearch): (Outputs & { co
 }
 
 /**
+ * neighbourList's search over centres in JavaScript: the fallback where the kernel is off or its memory cannot hold
+ * the layout, and the tests' oracle. A function of its own, so that the optimising compiler of a fresh thread, which
+ * compiles neighbourList once the kernel runs, does not compile this loop with it. Returns the outputs (grown when
+ * too small) and the number of pairs; the marks (first, bits, summary) are left set if it throws mid-centre.
+ */
+function jsPairs(s: KernelSearch): Outputs & { count: number } {
+  const { n, work, start, cutoff, cut2, reach2, orthogonal, origin, f, m, thick, h, binStart, tables, where } = s;
+  const { wrapped, offset, frac, bin3, binAtom, binPos, binOff } = work;
+  const n1 = s.nb[1], n2 = s.nb[2];
+  let { outJ, outV, outD, outS, cap } = s.out;
+  let count = 0;
+  // Per-centre candidates, put in (j, shift) order without sorting: the candidates of one neighbour j form a chain
+  // (first[j], then next[c]) kept in shift order, and a two-level bit set marks the j that have any, so that they
+  // are visited in ascending order (bits cleared and chains reset as they are read).
+  let scap = work.cJ.length;
+  let cJ = work.cJ, cS = work.cS, cV = work.cV, cD = work.cD, next = work.next;
+  const first = work.first, bits = work.bits, summary = work.summary;
+  const wrapA = tables[0].wrap, wrapB = tables[1].wrap, wrapC = tables[2].wrap;
+  const shiftA = tables[0].shift, shiftB = tables[1].shift, shiftC = tables[2].shift;
+  const w0 = 2 * m[0] + 1, w1 = 2 * m[1] + 1, w2 = 2 * m[2] + 1;
+  const h0 = h[0], h1 = h[1], h2 = h[2], h3 = h[3], h4 = h[4], h5 = h[5], h6 = h[6], h7 = h[7], h8 = h[8];
+  const summaryWords = (n + 1023) >>> 10;
+  const gapA = new Float64Array(w0), gapB = new Float64Array(w1), gapC = new Float64Array(w2);
+  /** Squared perpendicular gaps (Å²) from fractional position c + u (in slices) to the slices c + d − m, d = 0…w−1. */
+  const gaps = (out: Float64Array, k: number, c: number, fracK: number) => {
+    let u = (fracK - origin[k]) / f[k] - c;
+    if (!(u >= 0)) u = 0;
+    else if (u > 1) u = 1;
+    for (let d = 0; d < out.length; d++) {
+      const delta = d - m[k];
+      const g = delta > 0 ? delta - u : delta < 0 ? u - delta - 1 : 0;
+      out[d] = g > 0 ? (g * thick[k]) ** 2 : 0;
+    }
+  };
+
+  for (let i = 0; i < n; i++) {
+    start[i] = count;
+    let ncand = 0;
+    const xi = wrapped[3 * i], yi = wrapped[3 * i + 1], zi = wrapped[3 * i + 2];
+    const oi0 = offset[3 * i], oi1 = offset[3 * i + 1], oi2 = offset[3 * i + 2];
+    const c0 = bin3[3 * i], c1 = bin3[3 * i + 1], c2 = bin3[3 * i + 2];
+    gaps(gapA, 0, c0, frac[3 * i]);
+    gaps(gapB, 1, c1, frac[3 * i + 1]);
+    gaps(gapC, 2, c2, frac[3 * i + 2]);
+    for (let d0 = 0; d0 < w0; d0++) {
+      const t0 = wrapA[c0 + d0];
+      if (t0 < 0) continue;
+      const g0 = gapA[d0];
+      if (g0 > reach2) continue;
+      const S0 = shiftA[c0 + d0];
+      for (let d1 = 0; d1 < w1; d1++) {
+        const t1 = wrapB[c1 + d1];
+        if (t1 < 0) continue;
+        const g01 = orthogonal ? g0 + gapB[d1] : Math.max(g0, gapB[d1]);
+        if (g01 > reach2) continue;
+        const S1 = shiftB[c1 + d1];
+        const row = (t0 * n1 + t1) * n2;
+        const tx01 = S0 * h0 + S1 * h3, ty01 = S0 * h1 + S1 * h4, tz01 = S0 * h2 + S1 * h5;
+        for (let d2 = 0; d2 < w2; d2++) {
+          const t2 = wrapC[c2 + d2];
+          if (t2 < 0) continue;
+          if ((orthogonal ? g01 + gapC[d2] : Math.max(g01, gapC[d2])) > reach2) continue;
+          const S2 = shiftC[c2 + d2];
+          const bin = row + t2;
+          const ex = tx01 + S2 * h6 - xi, ey = ty01 + S2 * h7 - yi, ez = tz01 + S2 * h8 - zi;
+          const zeroShift = S0 === 0 && S1 === 0 && S2 === 0;
+          const end = binStart[bin + 1];
+          for (let p = binStart[bin]; p < end; p++) {
+            const vx = binPos[3 * p] + ex, vy = binPos[3 * p + 1] + ey, vz = binPos[3 * p + 2] + ez;
+            const v2 = vx * vx + vy * vy + vz * vz;
+            if (v2 > cut2) continue;
+            const dist = Math.sqrt(v2);
+            if (!(dist < cutoff)) continue;
+            const j = binAtom[p];
+            if (j === i && zeroShift) continue;
+            // The shift relative to the original (unwrapped) positions.
+            const s0 = S0 - binOff[3 * p] + oi0, s1 = S1 - binOff[3 * p + 1] + oi1, s2 = S2 - binOff[3 * p + 2] + oi2;
+            if (ncand === scap) {
+              scap *= 2;
+              cJ = work.cJ = growInt(cJ, scap);
+              cS = work.cS = growInt(cS, 3 * scap);
+              cV = work.cV = growFloat(cV, 3 * scap);
+              cD = work.cD = growFloat(cD, scap);
+              next = work.next = growInt(next, scap);
+            }
+            const c = ncand++;
+            cJ[c] = j;
+            cS[3 * c] = s0;
+            cS[3 * c + 1] = s1;
+            cS[3 * c + 2] = s2;
+            cV[3 * c] = vx;
+            cV[3 * c + 1] = vy;
+            cV[3 * c + 2] = vz;
+            cD[c] = dist;
+            const head = first[j];
+            if (head < 0) {
+              first[j] = c;
+              next[c] = -1;
+              bits[j >>> 5] |= 1 << (j & 31);
+              summary[j >>> 10] |= 1 << ((j >>> 5) & 31);
+            } else if (shiftBefore(s0, s1, s2, cS, head)) {
+              first[j] = c;
+              next[c] = head;
+            } else {
+              // several images of one neighbour (cells narrower than twice the cutoff): insert in shift order
+              let at = head;
+              while (next[at] >= 0 && !shiftBefore(s0, s1, s2, cS, next[at])) at = next[at];
+              next[c] = next[at];
+              next[at] = c;
+            }
+          }
+        }
+      }
+    }
+
+    // Append this centre's pairs in (j, shift) order.
+    if (count + ncand > cap) {
+      if (count + ncand > MAX_PAIRS) {
+        throw new InputError(`more than ${MAX_PAIRS} pairs within ${cutoff} Å`, where, 'use a smaller cutoff or a smaller structure');
+      }
+      cap = Math.min(MAX_PAIRS, Math.max(count + ncand, Math.ceil(cap * 1.5)));
+      outJ = growInt(outJ, cap);
+      outV = growFloat(outV, 3 * cap);
+      outD = growFloat(outD, cap);
+      outS = growInt(outS, 3 * cap);
+    }
+    if (ncand > 0) {
+      let o = count;
+      for (let sw = 0; sw < summaryWords; sw++) {
+        let top = summary[sw];
+        if (top === 0) continue;
+        summary[sw] = 0;
+        while (top !== 0) {
+          const wi = (sw << 5) + (31 - Math.clz32(top & -top));
+          top &= top - 1;
+          let word = bits[wi];
+          bits[wi] = 0;
+          while (word !== 0) {
+            const j = (wi << 5) + (31 - Math.clz32(word & -word));
+            word &= word - 1;
+            for (let c = first[j]; c >= 0; c = next[c]) {
+              outJ[o] = j;
+              outD[o] = cD[c];
+              outS[3 * o] = cS[3 * c];
+              outS[3 * o + 1] = cS[3 * c + 1];
+              outS[3 * o + 2] = cS[3 * c + 2];
+              outV[3 * o] = cV[3 * c];
+              outV[3 * o + 1] = cV[3 * c + 1];
+              outV[3 * o + 2] = cV[3 * c + 2];
+              o++;
+            }
+            first[j] = -1;
+          }
+        }
+      }
+      count += ncand;
+    }
+  }
+  return { outJ, outV, outD, outS, cap, count };
+}
+
+/**
  * The full neighbour list of a frame within `cutoff` (Å): every j ≠ i and every image of j (and every periodic
  * image of i itself) with |r_j + s·H − r_i| < cutoff, in both directions (i→j with s and j→i with −s).
  */
@@ -539,12 +701,6 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   }
   let count = 0;
 
-  // Per-centre candidates, put in (j, shift) order without sorting: the candidates of one neighbour j form a chain
-  // (first[j], then next[c]) kept in shift order, and a two-level bit set marks the j that have any, so that they
-  // are visited in ascending order (bits cleared and chains reset as they are read).
-  let scap = work.cJ.length;
-  let cJ = work.cJ, cS = work.cS, cV = work.cV, cD = work.cD, next = work.next;
-  const first = work.first, bits = work.bits, summary = work.summary;
   // Slightly above cutoff² so that the final test is on the reported distance itself (see the inclusion rule).
   const cut2 = cutoff * cutoff * (1 + 8 * Number.EPSILON);
   // Per axis, for a bin index t = c + d (stored at c + d + m): the bin it falls in (−1 if outside an open axis)
@@ -565,11 +721,6 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
     return { wrap, shift };
   };
   const tables = [table(0), table(1), table(2)];
-  const wrapA = tables[0].wrap, wrapB = tables[1].wrap, wrapC = tables[2].wrap;
-  const shiftA = tables[0].shift, shiftB = tables[1].shift, shiftC = tables[2].shift;
-  const w0 = 2 * m[0] + 1, w1 = 2 * m[1] + 1, w2 = 2 * m[2] + 1;
-  const h0 = h[0], h1 = h[1], h2 = h[2], h3 = h[3], h4 = h[4], h5 = h[5], h6 = h[6], h7 = h[7], h8 = h[8];
-  const summaryWords = (n + 1023) >>> 10;
   // A bin is skipped when every atom in it is farther from the centre than the cutoff: per axis, the gap between
   // the centre's fractional coordinate and the bin's slice, times the slice's thickness, bounds the distance from
   // below; in a cell with orthogonal axes the gaps add in squares, else the largest bounds it. The margin (1e-9 of
@@ -583,156 +734,25 @@ export function neighbourList(frame: Frame, cutoff: number, options: NeighbourOp
   });
   const reach = cutoff + 1e-9 * (cutoff + width[0] + width[1] + width[2] + largest);
   const reach2 = reach * reach;
-  const gapA = new Float64Array(w0), gapB = new Float64Array(w1), gapC = new Float64Array(w2);
-  /** Squared perpendicular gaps (Å²) from fractional position c + u (in slices) to the slices c + d − m, d = 0…w−1. */
-  const gaps = (out: Float64Array, k: number, c: number, fracK: number) => {
-    let u = (fracK - origin[k]) / f[k] - c;
-    if (!(u >= 0)) u = 0;
-    else if (u > 1) u = 1;
-    for (let d = 0; d < out.length; d++) {
-      const delta = d - m[k];
-      const g = delta > 0 ? delta - u : delta < 0 ? u - delta - 1 : 0;
-      out[d] = g > 0 ? (g * thick[k]) ** 2 : 0;
-    }
-  };
-
-  // The same search in WebAssembly (core/wasm/assembly/neighbour-search.ts, the same bits), when the kernels are on.
-  const kernel = n > 0 ? neighbourKernels() : null;
-  const byKernel = kernel && kernelPairs(kernel, {
+  // The search over centres in WebAssembly (core/wasm/assembly/neighbour-search.ts, the same bits) when the kernels
+  // are on, else in JavaScript.
+  const search: KernelSearch = {
     n, nb, m, orthogonal, origin, f, thick, h, cutoff, cut2, reach2, work, binStart, tables, start,
     chunk: Math.min(chunkPairs, Math.ceil(Math.min(estimate * 1.1, fullyPeriodic ? Infinity : 64 * n)) + 1024),
     out: { outJ, outV, outD, outS, cap }, where,
-  });
-  if (byKernel) ({ outJ, outV, outD, outS, cap, count } = byKernel);
-  // the marks (first, bits, summary) are left set if anything throws mid-centre: then the next call starts afresh
-  else try {
-    for (let i = 0; i < n; i++) {
-      start[i] = count;
-      let ncand = 0;
-      const xi = wrapped[3 * i], yi = wrapped[3 * i + 1], zi = wrapped[3 * i + 2];
-      const oi0 = offset[3 * i], oi1 = offset[3 * i + 1], oi2 = offset[3 * i + 2];
-      const c0 = bin3[3 * i], c1 = bin3[3 * i + 1], c2 = bin3[3 * i + 2];
-      gaps(gapA, 0, c0, frac[3 * i]);
-      gaps(gapB, 1, c1, frac[3 * i + 1]);
-      gaps(gapC, 2, c2, frac[3 * i + 2]);
-      for (let d0 = 0; d0 < w0; d0++) {
-        const t0 = wrapA[c0 + d0];
-        if (t0 < 0) continue;
-        const g0 = gapA[d0];
-        if (g0 > reach2) continue;
-        const S0 = shiftA[c0 + d0];
-        for (let d1 = 0; d1 < w1; d1++) {
-          const t1 = wrapB[c1 + d1];
-          if (t1 < 0) continue;
-          const g01 = orthogonal ? g0 + gapB[d1] : Math.max(g0, gapB[d1]);
-          if (g01 > reach2) continue;
-          const S1 = shiftB[c1 + d1];
-          const row = (t0 * n1 + t1) * n2;
-          const tx01 = S0 * h0 + S1 * h3, ty01 = S0 * h1 + S1 * h4, tz01 = S0 * h2 + S1 * h5;
-          for (let d2 = 0; d2 < w2; d2++) {
-            const t2 = wrapC[c2 + d2];
-            if (t2 < 0) continue;
-            if ((orthogonal ? g01 + gapC[d2] : Math.max(g01, gapC[d2])) > reach2) continue;
-            const S2 = shiftC[c2 + d2];
-            const bin = row + t2;
-            const ex = tx01 + S2 * h6 - xi, ey = ty01 + S2 * h7 - yi, ez = tz01 + S2 * h8 - zi;
-            const zeroShift = S0 === 0 && S1 === 0 && S2 === 0;
-            const end = binStart[bin + 1];
-            for (let p = binStart[bin]; p < end; p++) {
-              const vx = binPos[3 * p] + ex, vy = binPos[3 * p + 1] + ey, vz = binPos[3 * p + 2] + ez;
-              const v2 = vx * vx + vy * vy + vz * vz;
-              if (v2 > cut2) continue;
-              const dist = Math.sqrt(v2);
-              if (!(dist < cutoff)) continue;
-              const j = binAtom[p];
-              if (j === i && zeroShift) continue;
-              // The shift relative to the original (unwrapped) positions.
-              const s0 = S0 - binOff[3 * p] + oi0, s1 = S1 - binOff[3 * p + 1] + oi1, s2 = S2 - binOff[3 * p + 2] + oi2;
-              if (ncand === scap) {
-                scap *= 2;
-                cJ = work.cJ = growInt(cJ, scap);
-                cS = work.cS = growInt(cS, 3 * scap);
-                cV = work.cV = growFloat(cV, 3 * scap);
-                cD = work.cD = growFloat(cD, scap);
-                next = work.next = growInt(next, scap);
-              }
-              const c = ncand++;
-              cJ[c] = j;
-              cS[3 * c] = s0;
-              cS[3 * c + 1] = s1;
-              cS[3 * c + 2] = s2;
-              cV[3 * c] = vx;
-              cV[3 * c + 1] = vy;
-              cV[3 * c + 2] = vz;
-              cD[c] = dist;
-              const head = first[j];
-              if (head < 0) {
-                first[j] = c;
-                next[c] = -1;
-                bits[j >>> 5] |= 1 << (j & 31);
-                summary[j >>> 10] |= 1 << ((j >>> 5) & 31);
-              } else if (shiftBefore(s0, s1, s2, cS, head)) {
-                first[j] = c;
-                next[c] = head;
-              } else {
-                // several images of one neighbour (cells narrower than twice the cutoff): insert in shift order
-                let at = head;
-                while (next[at] >= 0 && !shiftBefore(s0, s1, s2, cS, next[at])) at = next[at];
-                next[c] = next[at];
-                next[at] = c;
-              }
-            }
-          }
-        }
-      }
-
-      // Append this centre's pairs in (j, shift) order.
-      if (count + ncand > cap) {
-        if (count + ncand > MAX_PAIRS) {
-          throw new InputError(`more than ${MAX_PAIRS} pairs within ${cutoff} Å`, where, 'use a smaller cutoff or a smaller structure');
-        }
-        cap = Math.min(MAX_PAIRS, Math.max(count + ncand, Math.ceil(cap * 1.5)));
-        outJ = growInt(outJ, cap);
-        outV = growFloat(outV, 3 * cap);
-        outD = growFloat(outD, cap);
-        outS = growInt(outS, 3 * cap);
-      }
-      if (ncand > 0) {
-        let o = count;
-        for (let sw = 0; sw < summaryWords; sw++) {
-          let top = summary[sw];
-          if (top === 0) continue;
-          summary[sw] = 0;
-          while (top !== 0) {
-            const wi = (sw << 5) + (31 - Math.clz32(top & -top));
-            top &= top - 1;
-            let word = bits[wi];
-            bits[wi] = 0;
-            while (word !== 0) {
-              const j = (wi << 5) + (31 - Math.clz32(word & -word));
-              word &= word - 1;
-              for (let c = first[j]; c >= 0; c = next[c]) {
-                outJ[o] = j;
-                outD[o] = cD[c];
-                outS[3 * o] = cS[3 * c];
-                outS[3 * o + 1] = cS[3 * c + 1];
-                outS[3 * o + 2] = cS[3 * c + 2];
-                outV[3 * o] = cV[3 * c];
-                outV[3 * o + 1] = cV[3 * c + 1];
-                outV[3 * o + 2] = cV[3 * c + 2];
-                o++;
-              }
-              first[j] = -1;
-            }
-          }
-        }
-        count += ncand;
-      }
+  };
+  const kernel = n > 0 ? neighbourKernels() : null;
+  let found = kernel && kernelPairs(kernel, search);
+  if (!found) {
+    try {
+      found = jsPairs(search);
+    } catch (error) {
+      // the marks may be left set: the next call starts afresh
+      if (work === kept) kept = null;
+      throw error;
     }
-  } catch (error) {
-    if (work === kept) kept = null;
-    throw error;
   }
+  ({ outJ, outV, outD, outS, cap, count } = found);
   start[n] = count;
 
   // Trim: copy when much space is wasted, else hand out views (always views of buffers handed in for reuse).
