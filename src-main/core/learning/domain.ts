@@ -158,17 +158,32 @@ export function atomGeometry(frame: Frame, pairs: NeighbourList, species: string
   const S = species.length;
   const N = frame.species.length;
   const index = new Map(species.map((s, k) => [s, k]));
-  const speciesIndex = Int32Array.from(frame.species, (s) => index.get(s) ?? -1);
+  const speciesIndex = new Int32Array(N);
+  // frames list their atoms in runs of a species: look a name up only when it changes
+  let last: string | undefined;
+  let lastIndex = -1;
+  for (let i = 0; i < N; i++) {
+    const s = frame.species[i];
+    if (s !== last) {
+      last = s;
+      lastIndex = index.get(s) ?? -1;
+    }
+    speciesIndex[i] = lastIndex;
+  }
   const nearest = new Float64Array(N * S).fill(Infinity);
   const count = new Int32Array(N);
+  const { start, distances, neighbour } = pairs;
   for (let i = 0; i < N; i++) {
-    for (let p = pairs.start[i]; p < pairs.start[i + 1]; p++) {
-      const d = pairs.distances[p];
+    const o = i * S;
+    let c = 0;
+    for (let p = start[i], end = start[i + 1]; p < end; p++) {
+      const d = distances[p];
       if (!(d > 0) || d >= cutoff) continue;
-      count[i]++;
-      const b = speciesIndex[pairs.neighbour[p]];
-      if (b >= 0 && d < nearest[i * S + b]) nearest[i * S + b] = d;
+      c++;
+      const b = speciesIndex[neighbour[p]];
+      if (b >= 0 && d < nearest[o + b]) nearest[o + b] = d;
     }
+    count[i] = c;
   }
   return { speciesIndex, nearest, count };
 }
@@ -217,6 +232,10 @@ export function checkDomain(
   const S = stats.species.length;
   const N = frame.species.length;
   const g = atomGeometry(frame, pairs, stats.species, stats.cutoffRadius);
+  // the training ranges read below, taken once per frame (not once per atom)
+  const scales = featureDetail.centres.map((_, s) => at(stats.scale, s));
+  const counts = stats.species.map((_, a) => at(stats.count, a));
+  const nearests = Array.from({ length: S * S }, (_, k) => at(stats.nearest, k));
   const u = Float64Array.from(featureScore);
   const worst = new Map<string, DomainReason>();
   // called only for scores that are not ≤ 1 (the callers test first, so that no key is written for atoms inside)
@@ -230,7 +249,7 @@ export function checkDomain(
     const name = featureDetail.centres[s];
     if (!(featureScore[i] <= 1)) note(`${name} environment`, featureScore[i], i, () => `${name} environment ${fmt(featureDetail.distance[i], 3)} from the nearest training environment (limit ${fmt(featureDetail.threshold[s], 3)})`);
     const norm = featureDetail.norms?.[e];
-    const sr = at(stats.scale, s);
+    const sr = scales[s] ?? at(stats.scale, s);
     if (norm && norm > 0 && Number.isFinite(sr.median)) {
       const v = Math.log(norm);
       const us = rangeScore(v, sr.min, sr.median, sr.max);
@@ -243,7 +262,7 @@ export function checkDomain(
     const a = g.speciesIndex[i];
     if (a < 0) continue;
     const A = stats.species[a];
-    const cr = at(stats.count, a);
+    const cr = counts[a];
     const uc = rangeScore(g.count[i], cr.min, cr.median, cr.max);
     if (uc > u[i]) u[i] = uc;
     const more = g.count[i] > cr.median;
@@ -252,7 +271,7 @@ export function checkDomain(
       const k = a * S + b;
       const r = g.nearest[i * S + b];
       const B = stats.species[b];
-      const nr = at(stats.nearest, k);
+      const nr = nearests[k];
       if (!Number.isFinite(nr.median)) continue; // no training atom of species A
       const rr = Math.min(r, stats.cutoffRadius); // none within the cutoff: at least the cutoff, as in training
       const ub = rangeScore(rr, nr.min, nr.median, nr.max);

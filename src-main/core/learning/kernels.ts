@@ -297,3 +297,36 @@ export function localContributions(feat: EnvironmentFeatures, order: Order, mode
   }
   return out;
 }
+
+/** The key of designLeverageKernel's scratch region in the kernel arena. */
+const LEVERAGE_SCRATCH = {};
+
+/**
+ * The two passes of regression.ts designLeverage over an explicit design (rows × f, row-major) through the
+ * WebAssembly kernels, with the design resident in the kernels' memory (copied once per design array and thread):
+ * c = Φφ summed as designLeverage sums it, `solve(c)` in place (the triangular solves, in JavaScript), then
+ * |φ − Φᵀc|² with every element updated row after row and the squares summed in order — the same bits. Null when
+ * the kernels are off or cannot hold the design (designLeverage then takes its JavaScript loops).
+ */
+export function designLeverageKernel(design: Float64Array, rows: number, f: number, phi: ArrayLike<number>, solve: (c: Float64Array) => void): { c: Float64Array; rr: number } | null {
+  const k = predictKernels();
+  if (!k || rows <= 0 || f <= 0 || design.length < rows * f || phi.length < f) return null;
+  const bytes16 = (n: number) => Math.ceil(n / 16) * 16;
+  const cAt = bytes16(8 * f);
+  const rAt = cAt + bytes16(8 * rows);
+  const at = k.arena.acquire([
+    { name: residentName('leverage-design', design), key: design, bytes: 8 * rows * f, fill: (m, a) => m.f64(a, rows * f).set(design.subarray(0, rows * f)) },
+    { name: 'leverage-scratch', key: LEVERAGE_SCRATCH, bytes: rAt + 8 * f },
+  ]);
+  if (!at) return null;
+  const [d, scr] = at;
+  const phiView = k.module.f64(scr, f);
+  for (let j = 0; j < f; j++) phiView[j] = phi[j];
+  k.leverageRows(d, rows, f, scr, scr + cAt);
+  const c = k.module.f64(scr + cAt, rows).slice();
+  solve(c);
+  k.module.f64(scr + cAt, rows).set(c);
+  k.module.f64(scr + rAt, f).set(k.module.f64(scr, f));
+  const rr = k.leverageResidual(d, rows, f, scr + cAt, scr + rAt);
+  return { c, rr };
+}

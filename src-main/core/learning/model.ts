@@ -304,7 +304,12 @@ export function speciesOf(frames: Frame[], settings: ModelSettings, given?: stri
  */
 class PoolBuilder {
   private seen: number[];
-  private rows: { species: number; p: Float64Array; block?: Float64Array; frame: number; centre: number }[][];
+  /**
+   * Per species, the sample's rows slot after slot in flat arrays (grown as slots fill, up to the cap): λ=0 rows,
+   * order-λ blocks, frames; `count` slots in use. Rows are copied in, never held as small arrays of their own.
+   */
+  private held: { p: Float64Array; blocks: Float64Array; frame: Int32Array; count: number }[];
+  private blockSize = -1;
   constructor(
     private readonly nSpecies: number,
     private readonly cap: number,
@@ -312,7 +317,7 @@ class PoolBuilder {
     private readonly rng: ReturnType<typeof makeRng>,
   ) {
     this.seen = new Array(nSpecies).fill(0);
-    this.rows = Array.from({ length: nSpecies }, () => []);
+    this.held = Array.from({ length: nSpecies }, () => ({ p: new Float64Array(0), blocks: new Float64Array(0), frame: new Int32Array(0), count: 0 }));
   }
   /** The environments of the next frame that enter the sample, in order, and the slot each takes (a later one may take an earlier one's). */
   plan(centreSpecies: Int32Array): { keep: Int32Array; slot: Int32Array } {
@@ -336,43 +341,53 @@ class PoolBuilder {
   /** The rows of a frame's planned environments (summariseFrame's pool), into their slots. */
   put(plan: { keep: Int32Array; slot: Int32Array }, pool: FrameSummary['pool'], centreSpecies: Int32Array, frame: number): void {
     const n0 = pool.n0;
-    const size = pool.blockSize;
+    const size = pool.blocks ? pool.blockSize : 0;
+    if (plan.keep.length > 0 && this.blockSize < 0) this.blockSize = size;
     for (let k = 0; k < plan.keep.length; k++) {
-      const e = plan.keep[k];
-      const s = centreSpecies[e];
-      this.rows[s][plan.slot[k]] = {
-        species: s,
-        p: pool.p.slice(k * n0, (k + 1) * n0),
-        block: pool.blocks ? pool.blocks.slice(k * size, (k + 1) * size) : undefined,
-        frame,
-        centre: pool.centre[k],
-      };
+      const s = centreSpecies[plan.keep[k]];
+      const slot = plan.slot[k];
+      const h = this.room(s, slot + 1, n0, size);
+      h.p.set(pool.p.subarray(k * n0, (k + 1) * n0), slot * n0);
+      if (size > 0) h.blocks.set((pool.blocks as Float64Array).subarray(k * size, (k + 1) * size), slot * size);
+      h.frame[slot] = frame;
+      if (slot >= h.count) h.count = slot + 1;
     }
   }
+  /** Species s's arrays with room for `slots` slots (doubling, at most the cap). */
+  private room(s: number, slots: number, n0: number, size: number): PoolBuilder['held'][number] {
+    const h = this.held[s];
+    const have = h.frame.length;
+    if (slots <= have) return h;
+    const grown = Math.min(this.cap, Math.max(slots, 2 * have, 64));
+    const p = new Float64Array(grown * n0);
+    p.set(h.p);
+    const blocks = new Float64Array(grown * size);
+    blocks.set(h.blocks);
+    const frame = new Int32Array(grown);
+    frame.set(h.frame);
+    this.held[s] = { p, blocks, frame, count: h.count };
+    return this.held[s];
+  }
   build(n0: number): EnvironmentPool & { perSpecies: Int32Array[]; frame: Int32Array } {
-    const flat = this.rows.flat();
-    const count = flat.length;
+    let count = 0;
+    for (const h of this.held) count += h.count;
     const p = new Float64Array(count * n0);
     const species = new Int32Array(count);
-    let blocks: EnvironmentPool['blocks'];
-    if (this.order !== null && this.order !== 0 && count > 0 && flat[0].block) {
-      const size = flat[0].block.length;
-      const data = new Float64Array(count * size);
-      flat.forEach((r, i) => data.set(r.block as Float64Array, i * size));
-      blocks = { order: this.order, n: size / (2 * this.order + 1), data };
-    }
     const frame = new Int32Array(count);
-    flat.forEach((r, i) => {
-      p.set(r.p, i * n0);
-      species[i] = r.species;
-      frame[i] = r.frame;
-    });
+    const size = Math.max(0, this.blockSize);
+    const withBlocks = this.order !== null && this.order !== 0 && count > 0 && size > 0;
+    const data = new Float64Array(withBlocks ? count * size : 0);
     const perSpecies: Int32Array[] = [];
     let at = 0;
-    for (let s = 0; s < this.nSpecies; s++) {
-      perSpecies.push(Int32Array.from({ length: this.rows[s].length }, (_, k) => at + k));
-      at += this.rows[s].length;
-    }
+    this.held.forEach((h, s) => {
+      p.set(h.p.subarray(0, h.count * n0), at * n0);
+      if (withBlocks) data.set(h.blocks.subarray(0, h.count * size), at * size);
+      frame.set(h.frame.subarray(0, h.count), at);
+      species.fill(s, at, at + h.count);
+      perSpecies.push(Int32Array.from({ length: h.count }, (_, k) => at + k));
+      at += h.count;
+    });
+    const blocks: EnvironmentPool['blocks'] = withBlocks ? { order: this.order as Order, n: size / (2 * (this.order as number) + 1), data } : undefined;
     return { n0, count, species, p, blocks, perSpecies, frame };
   }
 }

@@ -5,6 +5,7 @@
 // diagonal of the structure kernel and chosen by k-fold cross-validation over whole frames.
 import { backSubstitute, choleskySolve, choleskyWithJitter, forwardSubstitute, gramOfColumns, gramOfRows } from '../numerics/cholesky.ts';
 import { CancelledError } from '../errors.ts';
+import { designLeverageKernel } from './kernels.ts';
 
 export interface Design {
   /** Target rows (frames × (2λ+1)). */
@@ -359,10 +360,11 @@ export function primalWeights(d: Design, fit: RidgeFit): Float64Array {
 
 /**
  * Latent predictive variance of one new row. Primal: pass φ. Dual: pass k* (kernel to each training row) and
- * k** (the row's kernel with itself).
+ * k** (the row's kernel with itself). A design form's design is taken as long-lived (a model's posterior): it is
+ * kept in the WebAssembly kernels' memory for its passes, and must not change in place afterwards.
  */
 export function posteriorVariance(post: Posterior, phiOrKStar: Float64Array, kStarStar = 0): number {
-  if (post.form === 'design') return post.noise * designLeverage(post.design, post.rows, post.size, post.factor, post.lambda, phiOrKStar);
+  if (post.form === 'design') return post.noise * designLeverage(post.design, post.rows, post.size, post.factor, post.lambda, phiOrKStar, true);
   const z = forwardSubstitute(post.factor, post.size, Float64Array.from(phiOrKStar));
   let q = 0;
   for (let i = 0; i < post.size; i++) q += z[i] * z[i];
@@ -377,7 +379,20 @@ export function posteriorVariance(post: Posterior, phiOrKStar: Float64Array, kSt
  * φᵀφ/λ exceeds the leverage (9 of them for a frame like the training frames), and the primal factor of
  * ΦᵀΦ + λI loses them as well (its condition number is ‖Φ‖²/λ). `factor` is the Cholesky factor of ΦΦᵀ + λI.
  */
-export function designLeverage(design: Float64Array, rows: number, f: number, factor: Float64Array, lambda: number, phi: ArrayLike<number>): number {
+export function designLeverage(design: Float64Array, rows: number, f: number, factor: Float64Array, lambda: number, phi: ArrayLike<number>, resident = false): number {
+  // a long-lived design (a model's, `resident`): the two passes over it through the WebAssembly kernels where they
+  // are on, the design copied into their memory once (kernels.ts designLeverageKernel: the same bits)
+  const done = resident
+    ? designLeverageKernel(design, rows, f, phi, (c) => {
+        forwardSubstitute(factor, rows, c);
+        backSubstitute(factor, rows, c);
+      })
+    : null;
+  if (done) {
+    let cc = 0;
+    for (let a = 0; a < rows; a++) cc += done.c[a] * done.c[a];
+    return cc + done.rr / lambda;
+  }
   const c = new Float64Array(rows);
   for (let a = 0; a < rows; a++) {
     const base = a * f;

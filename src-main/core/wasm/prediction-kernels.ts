@@ -1,6 +1,6 @@
 // The prediction kernels (./assembly/prediction-kernels.ts) with their signatures, and the arena (./arena.ts) that
 // keeps a job's large operands (a model's representatives) resident in the module's memory between calls. Used by
-// core/learning/nearest-search.ts and core/learning/kernels.ts.
+// core/learning/nearest-search.ts and core/learning/kernels.ts (which regression.ts designLeverage calls).
 import { Arena, arenaRestarts, type Region } from './arena.ts';
 import { WASM_BASE64 } from './generated/prediction-kernels.ts';
 import { kernelModule, type KernelModule } from './load.ts';
@@ -16,6 +16,10 @@ export interface PredictKernels {
   linearRows(rows: number, count: number, n0: number, species: number, weights: number, out: number, sums: number): void;
   /** The prepared search of one species (nearest-search.ts prepareSpeciesJs, the same bits); returns its basis size. */
   prepareSpecies(reps: number, m: number, n0: number, limit: number, steps: number, work: number): number;
+  /** A design's rows dotted with a row (regression.ts designLeverage's first pass); byte addresses. */
+  leverageRows(design: number, rows: number, f: number, phi: number, c: number): void;
+  /** The row less the design's rows weighted by c, and its squared norm (designLeverage's second pass); byte addresses. */
+  leverageResidual(design: number, rows: number, f: number, c: number, r: number): number;
 }
 
 let cached: PredictKernels | null = null;
@@ -32,6 +36,8 @@ export function predictKernels(): PredictKernels | null {
       scanSpecies: module.exports.scanSpecies as PredictKernels['scanSpecies'],
       prepareSpecies: module.exports.prepareSpecies as PredictKernels['prepareSpecies'],
       linearRows: module.exports.linearRows as PredictKernels['linearRows'],
+      leverageRows: module.exports.leverageRows as PredictKernels['leverageRows'],
+      leverageResidual: module.exports.leverageResidual as PredictKernels['leverageResidual'],
     };
   }
   return cached;

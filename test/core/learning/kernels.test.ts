@@ -1,5 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { environmentKernel, linearDesignRows, linearScalarPass, localContributions, structureKernel } from '../../../src-main/core/learning/kernels.ts';
+import { designLeverageKernel, environmentKernel, linearDesignRows, linearScalarPass, localContributions, structureKernel } from '../../../src-main/core/learning/kernels.ts';
+import { designLeverage } from '../../../src-main/core/learning/regression.ts';
+import { choleskyWithJitter } from '../../../src-main/core/numerics/cholesky.ts';
 import { setWebAssemblyKernels } from '../../../src-main/core/wasm/load.ts';
 import { predictKernels } from '../../../src-main/core/wasm/prediction-kernels.ts';
 import { foldCoefficients, type Representatives } from '../../../src-main/core/learning/sparse.ts';
@@ -117,6 +119,39 @@ describe('environment and structure kernels', () => {
           expect(same(got.sums, want.sums)).toBe(true);
         }
         setWebAssemblyKernels(true);
+      }
+    }
+  });
+});
+
+describe('the leverage against an explicit design through the kernels', () => {
+  it('gives designLeverage’s JavaScript numbers bit for bit (rows 1–9 around the four-row blocks, even and odd f, a design used again, kernels off)', () => {
+    expect(predictKernels()).not.toBeNull();
+    const rng = makeRng(71);
+    for (const f of [1, 2, 7, 64, 301]) {
+      for (const rows of [1, 3, 4, 5, 8, 9]) {
+        // a design with rows of very different scale (the leverage is a sum of squares over both passes)
+        const design = Float64Array.from({ length: rows * f }, (_, i) => rng.normal() * 10 ** ((i % 5) - 2));
+        const lambda = 0.3;
+        const g = new Float64Array(rows * rows);
+        for (let a = 0; a < rows; a++) {
+          for (let b = 0; b < rows; b++) {
+            let s = 0;
+            for (let j = 0; j < f; j++) s += design[a * f + j] * design[b * f + j];
+            g[a * rows + b] = s + (a === b ? lambda : 0);
+          }
+        }
+        const { factor } = choleskyWithJitter(g, rows);
+        for (let t = 0; t < 3; t++) {
+          const phi = Float64Array.from({ length: f }, () => rng.normal());
+          const js = designLeverage(design, rows, f, factor, lambda, phi);
+          const kernel = designLeverage(design, rows, f, factor, lambda, phi, true);
+          expect(Object.is(kernel, js)).toBe(true);
+          setWebAssemblyKernels(false);
+          expect(Object.is(designLeverage(design, rows, f, factor, lambda, phi, true), js)).toBe(true);
+          setWebAssemblyKernels(true);
+          expect(designLeverageKernel(design, rows, f, phi, () => {})).not.toBeNull();
+        }
       }
     }
   });

@@ -813,3 +813,113 @@ export function prepareSpecies(reps: usize, m: i32, n0: i32, limit: i32, steps: 
   }
   return d;
 }
+
+// ---------------------------------------------------------------------------------------------------------------
+// The leverage of a row against an explicit design (core/learning/regression.ts designLeverage, through
+// core/learning/kernels.ts designLeverageKernel): its two passes over the design, the same bits
+
+/**
+ * c[a] = Σ_j design[a][j] · phi[j] for the rows a < rows of `design` (rows of f doubles), summed as designLeverage
+ * sums it: even j into one sum and odd j into another (a lane pair), ascending, the last j of an odd f into the even
+ * one, then even + odd. Four rows per pass share the loads of phi.
+ */
+export function leverageRows(design: usize, rows: i32, f: i32, phi: usize, c: usize): void {
+  const rowBytes = <usize>f << 3;
+  let a = 0;
+  for (; a + 3 < rows; a += 4) {
+    const d0 = design + <usize>a * rowBytes;
+    const d1 = d0 + rowBytes;
+    const d2 = d1 + rowBytes;
+    const d3 = d2 + rowBytes;
+    let s0 = f64x2.splat(0), s1 = s0, s2 = s0, s3 = s0;
+    let j = 0;
+    for (; j + 1 < f; j += 2) {
+      const o = <usize>j << 3;
+      const p = v128.load(phi + o);
+      s0 = f64x2.add(s0, f64x2.mul(v128.load(d0 + o), p));
+      s1 = f64x2.add(s1, f64x2.mul(v128.load(d1 + o), p));
+      s2 = f64x2.add(s2, f64x2.mul(v128.load(d2 + o), p));
+      s3 = f64x2.add(s3, f64x2.mul(v128.load(d3 + o), p));
+    }
+    let e0 = f64x2.extract_lane(s0, 0), e1 = f64x2.extract_lane(s1, 0), e2 = f64x2.extract_lane(s2, 0), e3 = f64x2.extract_lane(s3, 0);
+    if (j < f) {
+      const o = <usize>j << 3;
+      const p = f64.load(phi + o);
+      e0 += f64.load(d0 + o) * p;
+      e1 += f64.load(d1 + o) * p;
+      e2 += f64.load(d2 + o) * p;
+      e3 += f64.load(d3 + o) * p;
+    }
+    const out = c + (<usize>a << 3);
+    f64.store(out, e0 + f64x2.extract_lane(s0, 1));
+    f64.store(out, e1 + f64x2.extract_lane(s1, 1), 8);
+    f64.store(out, e2 + f64x2.extract_lane(s2, 1), 16);
+    f64.store(out, e3 + f64x2.extract_lane(s3, 1), 24);
+  }
+  for (; a < rows; a++) {
+    const d0 = design + <usize>a * rowBytes;
+    let s0 = f64x2.splat(0);
+    let j = 0;
+    for (; j + 1 < f; j += 2) {
+      const o = <usize>j << 3;
+      s0 = f64x2.add(s0, f64x2.mul(v128.load(d0 + o), v128.load(phi + o)));
+    }
+    let e0 = f64x2.extract_lane(s0, 0);
+    if (j < f) e0 += f64.load(d0 + (<usize>j << 3)) * f64.load(phi + (<usize>j << 3));
+    f64.store(c + (<usize>a << 3), e0 + f64x2.extract_lane(s0, 1));
+  }
+}
+
+/**
+ * r[j] −= design[a][j] · c[a] for the rows a < rows in ascending order (four rows per pass over r, each element
+ * updated row after row as designLeverage updates it), then returns Σ_j r[j]² summed over j ascending.
+ */
+export function leverageResidual(design: usize, rows: i32, f: i32, c: usize, r: usize): f64 {
+  const rowBytes = <usize>f << 3;
+  let a = 0;
+  for (; a + 3 < rows; a += 4) {
+    const d0 = design + <usize>a * rowBytes;
+    const d1 = d0 + rowBytes;
+    const d2 = d1 + rowBytes;
+    const d3 = d2 + rowBytes;
+    const ca = c + (<usize>a << 3);
+    const c0 = f64.load(ca), c1 = f64.load(ca, 8), c2 = f64.load(ca, 16), c3 = f64.load(ca, 24);
+    const v0 = f64x2.splat(c0), v1 = f64x2.splat(c1), v2 = f64x2.splat(c2), v3 = f64x2.splat(c3);
+    let j = 0;
+    for (; j + 1 < f; j += 2) {
+      const o = <usize>j << 3;
+      let v = v128.load(r + o);
+      v = f64x2.sub(v, f64x2.mul(v128.load(d0 + o), v0));
+      v = f64x2.sub(v, f64x2.mul(v128.load(d1 + o), v1));
+      v = f64x2.sub(v, f64x2.mul(v128.load(d2 + o), v2));
+      v = f64x2.sub(v, f64x2.mul(v128.load(d3 + o), v3));
+      v128.store(r + o, v);
+    }
+    if (j < f) {
+      const o = <usize>j << 3;
+      let v = f64.load(r + o);
+      v -= f64.load(d0 + o) * c0;
+      v -= f64.load(d1 + o) * c1;
+      v -= f64.load(d2 + o) * c2;
+      v -= f64.load(d3 + o) * c3;
+      f64.store(r + o, v);
+    }
+  }
+  for (; a < rows; a++) {
+    const d0 = design + <usize>a * rowBytes;
+    const c0 = f64.load(c + (<usize>a << 3));
+    const v0 = f64x2.splat(c0);
+    let j = 0;
+    for (; j + 1 < f; j += 2) {
+      const o = <usize>j << 3;
+      v128.store(r + o, f64x2.sub(v128.load(r + o), f64x2.mul(v128.load(d0 + o), v0)));
+    }
+    if (j < f) f64.store(r + (<usize>j << 3), f64.load(r + (<usize>j << 3)) - f64.load(d0 + (<usize>j << 3)) * c0);
+  }
+  let rr: f64 = 0;
+  for (let j = 0; j < f; j++) {
+    const v = f64.load(r + (<usize>j << 3));
+    rr += v * v;
+  }
+  return rr;
+}
