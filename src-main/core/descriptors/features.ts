@@ -23,6 +23,7 @@ import type { EnvironmentFeatures, FeatureSettings } from './feature-types.ts';
 import { realClebschGordanSparse, type SparseCoupling } from './clebsch-gordan.ts';
 import { densityExpander, EXPANSION_SLOTS, type DensityExpander, type NeighbourPairs } from './density.ts';
 import { neighbourList } from '../geometry/neighbours.ts';
+import { align16 } from '../wasm/arena.ts';
 import { descriptorKernels, type DescriptorKernels } from '../wasm/descriptors.ts';
 
 export type Lambda = 0 | 1 | 2;
@@ -535,7 +536,7 @@ function kernelLayout(P: Plan): KernelLayout | null {
   let top = 0;
   const take = (bytes: number): number => {
     const at = top;
-    top += Math.ceil(bytes / 16) * 16;
+    top += align16(bytes);
     return at;
   };
   const lmaxT = P.tensorBase.length - 1;

@@ -6,7 +6,7 @@
 // is a sum of local contributions. With ζ = 1 the kernel is linear in the features: the model is a weight
 // vector per centre species and a prediction is one dot product per environment.
 import type { EnvironmentFeatures } from '../descriptors/feature-types.ts';
-import { residentName, type Region } from '../wasm/arena.ts';
+import { align16, residentName, type Region } from '../wasm/arena.ts';
 import { fillFrameRows, frameRowsRegion, predictKernels, type PredictKernels } from '../wasm/prediction-kernels.ts';
 
 /** The irreducible order of a model part: 0 (scalar), 1 (vector), 2 (rank-2 anisotropic part). */
@@ -218,12 +218,11 @@ function wasmLinearPass(k: PredictKernels, feat: EnvironmentFeatures, weights: F
   // the rows held whole (shared with the search of the same frame) or copied in chunks into the scratch
   const whole = rowsKey ? frameRowsRegion(count, n0) : null;
   const chunk = whole ? Math.max(1, count) : LINEAR_CHUNK;
-  const bytes16 = (n: number) => Math.ceil(n / 16) * 16;
-  const wBytes = bytes16(8 * species * n0);
+  const wBytes = align16(8 * species * n0);
   const rowsAt = 0;
   const speciesAt = rowsAt + (whole ? 0 : 8 * chunk * n0);
-  const outAt = speciesAt + bytes16(4 * chunk);
-  const sumsAt = outAt + bytes16(8 * chunk);
+  const outAt = speciesAt + align16(4 * chunk);
+  const sumsAt = outAt + align16(8 * chunk);
   const regions: Region[] = [
     { name: residentName('linear-weights', weights), key: weights, bytes: wBytes, fill: (m, a) => m.f64(a, species * n0).set(weights.subarray(0, species * n0)) },
     { name: 'linear-scratch', key: LINEAR_SCRATCH, bytes: sumsAt + wBytes },
@@ -311,9 +310,8 @@ const LEVERAGE_SCRATCH = {};
 export function designLeverageKernel(design: Float64Array, rows: number, f: number, phi: ArrayLike<number>, solve: (c: Float64Array) => void): { c: Float64Array; rr: number } | null {
   const k = predictKernels();
   if (!k || rows <= 0 || f <= 0 || design.length < rows * f || phi.length < f) return null;
-  const bytes16 = (n: number) => Math.ceil(n / 16) * 16;
-  const cAt = bytes16(8 * f);
-  const rAt = cAt + bytes16(8 * rows);
+  const cAt = align16(8 * f);
+  const rAt = cAt + align16(8 * rows);
   const at = k.arena.acquire([
     { name: residentName('leverage-design', design), key: design, bytes: 8 * rows * f, fill: (m, a) => m.f64(a, rows * f).set(design.subarray(0, rows * f)) },
     { name: 'leverage-scratch', key: LEVERAGE_SCRATCH, bytes: rAt + 8 * f },

@@ -15,7 +15,7 @@
 // structured-clone-friendly object.
 
 import { nearestDistance } from './sparse.ts';
-import { residentName, type Region } from '../wasm/arena.ts';
+import { align16, residentName, type Region } from '../wasm/arena.ts';
 import { fillFrameRows, frameRowsRegion, predictKernels, type PredictKernels } from '../wasm/prediction-kernels.ts';
 
 /**
@@ -625,8 +625,6 @@ const QUERY_CHUNK = 256;
  */
 const SCAN_CHUNK = 64;
 
-const bytes16 = (n: number) => Math.ceil(n / 16) * 16;
-
 /** A set of representatives as the kernels hold it: each species' rows contiguous, in their original order. */
 interface RepsLayout {
   bytes: number;
@@ -656,7 +654,7 @@ function repsLayout(reps: Float64Array, n0: number, source: object, rowsOf: () =
   let p = 0;
   for (const [s, rows] of rowsOf()) {
     species.set(s, { rows, offset: p });
-    p += bytes16(8 * rows.length * n0);
+    p += align16(8 * rows.length * n0);
   }
   const l: RepsLayout = { bytes: p, n0, species, checked: new WeakSet([source]) };
   repsLayouts.set(reps, l);
@@ -722,7 +720,7 @@ function searchLayout(search: NearestSearch): SearchLayout {
     record.set(s, p);
     // record, mean, basis (d × n0), coordinates (d × m), residual norms (m), screening order (n0 i32), the
     // representatives in that order (m × n0)
-    p += 48 + bytes16(8 * n0) + bytes16(8 * sp.d * n0) + bytes16(8 * sp.d * m) + bytes16(8 * m) + bytes16(4 * n0) + bytes16(8 * m * n0);
+    p += 48 + align16(8 * n0) + align16(8 * sp.d * n0) + align16(8 * sp.d * m) + align16(8 * m) + align16(4 * n0) + align16(8 * m * n0);
     maxRows = Math.max(maxRows, m);
     maxBasis = Math.max(maxBasis, sp.d);
   }
@@ -741,11 +739,11 @@ function writeSearch(k: PredictKernels, search: NearestSearch, at: number): void
     const d = sp.d;
     const base = at + (record.get(s) as number);
     const mean = base + 48;
-    const basis = mean + bytes16(8 * n0);
-    const coordsT = basis + bytes16(8 * d * n0);
-    const residual = coordsT + bytes16(8 * d * m);
-    const order = residual + bytes16(8 * m);
-    const ordered = order + bytes16(4 * n0);
+    const basis = mean + align16(8 * n0);
+    const coordsT = basis + align16(8 * d * n0);
+    const residual = coordsT + align16(8 * d * m);
+    const order = residual + align16(8 * m);
+    const ordered = order + align16(4 * n0);
     new Int32Array(buffer, base, 10).set([m, d, n0, 0, mean, basis, coordsT, residual, order, ordered]);
     k.module.f64(mean, n0).set(sp.mean);
     k.module.f64(basis, d * n0).set(sp.basis);
@@ -783,7 +781,7 @@ function wasmQueries(
   chunk = QUERY_CHUNK,
 ): boolean {
   const whole = rowsKey ? frameRowsRegion(count, n0) : null;
-  const rows = bytes16(extra);
+  const rows = align16(extra);
   const idx = rows + (whole ? 0 : 8 * QUERY_CHUNK * n0);
   const dist = idx + 4 * QUERY_CHUNK;
   const scratch: Region = { name: 'search-scratch', key: SEARCH_SCRATCH, bytes: dist + 8 * QUERY_CHUNK };
@@ -823,12 +821,12 @@ function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array
   // screening order, the kept records, the pending pairs and their sums (assembly searchSpecies)
   const m = layout.maxRows;
   const bound = 48;
-  const xc = bound + bytes16(8 * m);
+  const xc = bound + align16(8 * m);
   const q = xc + 8 * 4 * n0;
-  const xx = q + bytes16(8 * 4 * layout.maxBasis);
+  const xx = q + align16(8 * 4 * layout.maxBasis);
   const stats = xx + 32;
   const xp = stats + 32;
-  const kept = xp + bytes16(8 * n0);
+  const kept = xp + align16(8 * n0);
   const pending = kept + 16 * m;
   const pendingSums = pending + 8 * 4 * m;
   let statsView: Float64Array | null = null;
@@ -841,7 +839,7 @@ function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array
     out,
     search.species,
     [repsRegion(search.reps, n0, reps), { name: residentName('search', search), key: search, bytes: layout.bytes, fill: (_m, at) => writeSearch(k, search, at) }],
-    pendingSums + bytes16(8 * (4 * m + 3)),
+    pendingSums + align16(8 * (4 * m + 3)),
     ([repsAt, searchAt], scr, s, rowsAt, idxAt, nq, outAt) => {
       if (!statsView) {
         new Int32Array(k.module.f64(scr, 0).buffer, scr, 9).set([bound, xc, q, xx, stats, xp, kept, pending, pendingSums].map((o) => scr + o));
@@ -887,7 +885,7 @@ function prepareLayout(m: number, n0: number, limit: number): { offsets: number[
   let p = 48;
   for (const n of sizes) {
     offsets.push(p);
-    p += bytes16(8 * n);
+    p += align16(8 * n);
   }
   return { offsets, bytes: p };
 }

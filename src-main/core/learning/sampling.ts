@@ -6,6 +6,7 @@
 // which distances need no sum. sparse.ts stays the fallback (kernels off or unavailable, pools too large) and the oracle.
 import { firstSampled, farthestPointSample, nearestOtherDistances, type EnvironmentPool, type RepresentativeAnchors } from './sparse.ts';
 import { prepareNearestSearch } from './nearest-search.ts';
+import { align16 } from '../wasm/arena.ts';
 import { samplingKernels, type SamplingKernels } from '../wasm/sampling-kernels.ts';
 
 /**
@@ -63,7 +64,7 @@ function layout(sizes: number[]): { at: number[]; bytes: number } {
   let o = 0;
   for (const s of sizes) {
     at.push(o);
-    o += Math.ceil(s / 16) * 16;
+    o += align16(s);
   }
   return { at, bytes: o };
 }

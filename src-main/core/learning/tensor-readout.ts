@@ -19,7 +19,7 @@ import type { EnvironmentFeatures, FeatureSettings } from '../descriptors/featur
 import { featurePlan, featurise, prepare, type FeatureTimings, type Plan, type TensorPlan, type TensorStep } from '../descriptors/features.ts';
 import type { Frame } from '../geometry/frame.ts';
 import type { KernelModule } from '../wasm/load.ts';
-import { residentName, type Region } from '../wasm/arena.ts';
+import { align16, residentName, type Region } from '../wasm/arena.ts';
 import { descriptorKernels } from '../wasm/descriptors.ts';
 
 /** What a read-out needs per environment: its weight matrices (weightMatrices layout). */
@@ -473,7 +473,7 @@ function layoutPlan(P: Plan, T: TensorPlan, at: number, m: KernelModule | null):
   let p = at;
   const take = (bytes: number) => {
     const q = p;
-    p += Math.ceil(bytes / 16) * 16;
+    p += align16(bytes);
     return q;
   };
   const header = take(48);

@@ -51,14 +51,14 @@ export class Arena {
 
   /** Byte addresses of the requested regions, in order; null when they cannot be held at all. */
   acquire(requests: Region[]): number[] | null {
-    const total = requests.reduce((s, r) => s + align(r.bytes), 0);
+    const total = requests.reduce((s, r) => s + align16(r.bytes), 0);
     if (!(total <= limit)) return null;
     const missing = requests.filter((r) => {
       const s = this.slots.get(r.name);
       return !s || s.key.deref() !== r.key || s.bytes < r.bytes;
     });
     if (missing.length) {
-      const extra = missing.reduce((s, r) => s + align(r.bytes), 0);
+      const extra = missing.reduce((s, r) => s + align16(r.bytes), 0);
       if (this.top + extra - this.module.heapBase > limit) {
         restarts++;
         this.slots.clear();
@@ -69,8 +69,8 @@ export class Arena {
       this.placedCount++;
       for (const r of missing) {
         const at = this.top;
-        this.top += align(r.bytes);
-        this.slots.set(r.name, { key: new WeakRef(r.key), at, bytes: align(r.bytes) });
+        this.top += align16(r.bytes);
+        this.slots.set(r.name, { key: new WeakRef(r.key), at, bytes: align16(r.bytes) });
         r.fill?.(this.module, at);
       }
     }
@@ -126,6 +126,7 @@ export function residentName(prefix: string, key: object): string {
   return `${prefix}:${id}`;
 }
 
-function align(bytes: number): number {
+/** `bytes` rounded up to a multiple of 16: every region of a kernel module's memory starts 16-byte aligned (vector loads). */
+export function align16(bytes: number): number {
   return Math.ceil(bytes / 16) * 16;
 }
