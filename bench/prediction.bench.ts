@@ -16,7 +16,7 @@
 //      (bench/prediction-rate.ts), alternating, with the ratio and whether the outputs are identical.
 // Figures only, never asserted. Env: PW_BENCH_TRAIN_FRAMES (30), PW_BENCH_STREAM_FRAMES (120), PW_BENCH_BASELINE.
 import { spawnSync } from 'node:child_process';
-import { createWriteStream, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { serialize } from 'node:v8';
 import { availableParallelism, cpus, loadavg, tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
@@ -24,11 +24,10 @@ import { fileURLToPath, pathToFileURL } from 'node:url';
 import { supercell } from '../src-main/core/geometry/cell.ts';
 import type { Frame } from '../src-main/core/geometry/frame.ts';
 import { modelFeaturiser, modelPredictor, predictWithFeatures, trainModel, type Model } from '../src-main/core/learning/model.ts';
-import { formatExtxyzFrame } from '../src-main/io/extxyz.ts';
 import { saveModel } from '../src-main/io/model-file.ts';
 import { predictionCsvOptions } from '../src-main/io/prediction/prediction-format.ts';
 import { streamPredict } from '../src-main/app/predict/stream-predict.ts';
-import { waterLikeFrames } from './water-like.ts';
+import { waterLikeFrames, writeFrames } from './water-like.ts';
 import { describeSettings } from '../src-main/core/settings-table.ts';
 import { setWebAssemblyKernels } from '../src-main/core/wasm/load.ts';
 import { extractBaseline } from './baseline.ts';
@@ -54,15 +53,6 @@ function rate(frames: Frame[], work: (f: Frame, i: number) => unknown, rounds = 
     if (wall > best.wall) best = { wall, cpu };
   }
   return best;
-}
-
-async function writeFrames(path: string, frames: Frame[], count: number): Promise<void> {
-  const out = createWriteStream(path);
-  for (let k = 0; k < count; k++) {
-    const f = frames[k % frames.length];
-    if (!out.write(formatExtxyzFrame({ ...f, info: { step: k }, arrays: {} }))) await new Promise<void>((r) => out.once('drain', () => r()));
-  }
-  await new Promise<void>((res, rej) => out.end((e?: Error | null) => (e ? rej(e) : res())));
 }
 
 function inProcess(model: Model): void {

@@ -14,15 +14,15 @@
 //      the first run of each fills it.
 // Figures only, never asserted. Env: PW_BENCH_STARTUP_RUNS (9), PW_BENCH_BASELINE, PW_BENCH_STARTUP_SECTIONS (the
 // sections to run, e.g. "3"; default all).
-import { execFileSync } from 'node:child_process';
-import { copyFileSync, mkdirSync, mkdtempSync, readFileSync, rmSync, statSync, symlinkSync, writeFileSync } from 'node:fs';
-import { loadavg, tmpdir } from 'node:os';
+import { mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { trainModel } from '../src-main/core/learning/model.ts';
 import { formatExtxyzFrame } from '../src-main/io/extxyz.ts';
 import { saveModel } from '../src-main/io/model-file.ts';
 import { waterLikeFrames } from './water-like.ts';
+import { baselineCheckout, loadText, median, scratchCheckout, timed } from './command-runs.ts';
 
 const RUNS = Number(process.env.PW_BENCH_STARTUP_RUNS ?? 9);
 const SECTIONS = (process.env.PW_BENCH_STARTUP_SECTIONS ?? '1,2,3').split(',').map((x) => x.trim());
@@ -31,31 +31,6 @@ const root = new URL('../', import.meta.url);
 function wallMs(args: string[], env: NodeJS.ProcessEnv = process.env): number {
   return timed(args, env).wall;
 }
-
-/** CPU seconds (user + system) of this process's finished children, from /proc/self/stat; null off Linux. */
-function childrenCpuSeconds(): number | null {
-  try {
-    const fields = readFileSync('/proc/self/stat', 'utf8').split(') ')[1].split(' ');
-    // after "pid (comm) ": state is field 3, cutime 16 and cstime 17 (proc(5)), in clock ticks (100 a second on Linux)
-    return (Number(fields[13]) + Number(fields[14])) / 100;
-  } catch {
-    return null;
-  }
-}
-
-/** Wall and CPU milliseconds of one run of node with `args` (CPU NaN where it cannot be read). */
-function timed(args: string[], env: NodeJS.ProcessEnv = process.env): { wall: number; cpu: number } {
-  const c0 = childrenCpuSeconds();
-  const t0 = performance.now();
-  execFileSync(process.execPath, args, { stdio: 'ignore', env });
-  const wall = performance.now() - t0;
-  const c1 = childrenCpuSeconds();
-  return { wall, cpu: c0 === null || c1 === null ? NaN : 1000 * (c1 - c0) };
-}
-
-const loadText = () => loadavg().map((x) => x.toFixed(1)).join(' ');
-
-const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[Math.floor(xs.length / 2)];
 
 /** Median wall times of each way, run alternately RUNS times. */
 function sideBySide(ways: Record<string, () => number>): Record<string, number> {
@@ -66,16 +41,9 @@ function sideBySide(ways: Record<string, () => number>): Record<string, number> 
 
 /** Section 3: one-frame predict (default threads) with the pre-built program of git ref `ref` beside this tree's. */
 function againstBaseline(ref: string, dir: string, bin: string, modelPath: string, input: string): void {
-  const here = new URL('.', root).pathname;
-  const base = join(dir, 'baseline');
-  let baseRun: string;
-  try {
-    execFileSync('sh', ['-c', `mkdir -p "${base}" && git -C "${here}" archive "${ref}" bin src-main scripts package.json | tar -x -C "${base}"`]);
-    symlinkSync(join(here, 'node_modules'), join(base, 'node_modules'));
-    execFileSync(process.execPath, [join(base, 'scripts', 'build-cli.mjs')], { stdio: 'ignore' });
-    baseRun = join(base, 'bin', 'polarweave.mjs');
-  } catch (error) {
-    console.log(`3. baseline ${ref}: could not extract or build it (${String(error).split('\n')[0]})`);
+  const baseRun = baselineCheckout(ref, dir);
+  if (typeof baseRun !== 'string') {
+    console.log(`3. baseline ${ref}: could not extract or build it (${baseRun.error})`);
     return;
   }
   const out = (name: string, ext: string) => join(dir, `${name}.${ext}`);
@@ -107,13 +75,7 @@ export async function run(): Promise<void> {
   process.env.POLARWEAVE_CACHE_DIR = join(dir, 'cache');
   try {
     // a checkout in the scratch folder: bin/, the sources (linked, for bin's freshness check) and the bundle
-    const checkout = join(dir, 'checkout');
-    mkdirSync(join(checkout, 'bin'), { recursive: true });
-    for (const f of ['polarweave.mjs', 'load-program.mjs']) copyFileSync(new URL(`bin/${f}`, root), join(checkout, 'bin', f));
-    symlinkSync(new URL('src-main', root).pathname, join(checkout, 'src-main'));
-    const bundle = join(checkout, 'out', 'cli');
-    execFileSync(process.execPath, [new URL('scripts/build-cli.mjs', root).pathname, '--outdir', bundle], { stdio: 'ignore' });
-    const bin = join(checkout, 'bin', 'polarweave.mjs');
+    const { bin, bundle } = scratchCheckout(dir);
     const bundled = join(bundle, 'run.mjs');
     writeFileSync(bundled, "const { main } = await import('./main.mjs');\nawait main();\n");
     const source = new URL('bin/polarweave.mjs', root).pathname;

@@ -1,7 +1,9 @@
 // Synthetic water-like periodic cells for benchmarks: rigid molecules (O–H 0.957 Å, 104.5°, from memory) on a
 // jittered 4×4×8 grid at about liquid density, randomly oriented, with an additive reference α_CM (invented,
 // for timing only): each molecule contributes 1.47 Å³ isotropic plus 0.1 Å³ along its H–H axis.
+import { createWriteStream } from 'node:fs';
 import { makeFrame, type Frame } from '../src-main/core/geometry/frame.ts';
+import { formatExtxyzFrame } from '../src-main/io/extxyz.ts';
 import { makeRng } from '../src-main/core/numerics/random.ts';
 import { randomRotation } from '../src-main/core/descriptors/wigner.ts';
 
@@ -37,4 +39,14 @@ export function waterLikeFrames(count: number, seed = 1): Frame[] {
     frames.push(frame);
   }
   return frames;
+}
+
+/** Writes `count` frames to an extended XYZ file, cycling through `frames`, each with its step number as `step`. */
+export async function writeFrames(path: string, frames: Frame[], count: number): Promise<void> {
+  const out = createWriteStream(path);
+  for (let k = 0; k < count; k++) {
+    const f = frames[k % frames.length];
+    if (!out.write(formatExtxyzFrame({ ...f, info: { step: k }, arrays: {} }))) await new Promise<void>((r) => out.once('drain', () => r()));
+  }
+  await new Promise<void>((res, rej) => out.end((e?: Error | null) => (e ? rej(e) : res())));
 }
