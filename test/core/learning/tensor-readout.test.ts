@@ -271,8 +271,8 @@ describe('the WebAssembly read-out kernel', () => {
   });
 
   it('whole read-outs are the same bits when a centre with more pairs than any before grows the expansion\'s region in the middle of a group', () => {
-    // a lone atom, then a dense grid (1.1 Å spacing: inner atoms have about 70 pairs within 4.5 Å, more than the
-    // 64 the expansion's region first holds) ordered from its corner inwards, so that the pair count keeps rising
+    // a lone atom, then a dense grid (1.1 Å spacing: 53 pairs within 4.5 Å at its corners, up to 250 at its middle,
+    // beyond the 64 the expansion's region first holds) ordered from its corners inwards, so that the pair count rises
     // within each group of environments side by side; each growth places the region anew, without the earlier
     // slots' coefficients, which must then not be read in place. Settings of their own: a fresh expander.
     const centre = 10 + 3 * 1.1;
