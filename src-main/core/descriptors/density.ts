@@ -274,7 +274,8 @@ export interface DensityExpander {
   /**
    * Where the last `expand` into `slot` (0 when not given; EXPANSION_SLOTS of them) left its coefficients (the layout
    * of `out`, readable two doubles past their end) in the descriptor kernels' memory, while they are still there
-   * (nothing placed since); −1 otherwise, as for transposedAt.
+   * (nothing placed since, and the region not placed anew by a later expansion with more pairs than any before);
+   * −1 otherwise, as for transposedAt.
    */
   coefficientsAt(slot?: number): number;
 }
@@ -340,7 +341,8 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
   const owner = {};
   const tables = harmonicTables(lmax);
   let room = 0;
-  let placed: { at: number; generation: number; kernels: DescriptorKernels; par: Float64Array; chan: Int32Array; outs: Float64Array[] } | null = null;
+  type Placement = { at: number; generation: number; kernels: DescriptorKernels; par: Float64Array; chan: Int32Array; outs: Float64Array[] };
+  let placed: Placement | null = null;
   /** Whether the last expand went through the kernels (and left cT); the arena's epoch when `placed` was checked. */
   let lastByKernel = false;
   let placedEpoch = -1;
@@ -391,8 +393,12 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     placedEpoch = K.epoch();
     return placed;
   };
-  /** Whether the expansion into each slot went through the kernels. */
-  const byKernel: boolean[] = [];
+  /**
+   * The placement of the region each slot's last expansion was written in (null: it took the JavaScript path). A
+   * region that grew since (a centre with more pairs than any before) is placed anew elsewhere, without the slots'
+   * contents: those slots are gone.
+   */
+  const slotPlacement: (Placement | null)[] = [];
   /** Byte address of the region's part at `doubles` while nothing was placed since it was checked, else −1. */
   const placedAt = (doubles: number): number => {
     // nothing placed since this expander's region was checked: it is where it was, and so are the coefficients
@@ -449,7 +455,7 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
       if (!(Number.isInteger(slot) && slot >= 0 && slot < EXPANSION_SLOTS)) throw new RangeError(`expand: slot ${slot} is not in 0…${EXPANSION_SLOTS - 1}`);
       const K = descriptorKernels();
       lastByKernel = K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, out, slot);
-      byKernel[slot] = lastByKernel;
+      slotPlacement[slot] = lastByKernel ? placed : null;
       if (lastByKernel) return;
       // Locals, not closure slots, in the loop (V8 keeps them in registers).
       byDegree ??= degreeTable(table.coefficients, intervals, nmax, lmax);
@@ -500,7 +506,8 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
       return lastByKernel ? placedAt(cTAt) : -1;
     },
     coefficientsAt(slot = 0) {
-      return byKernel[slot] === true ? placedAt(outAt + slot * align(size)) : -1;
+      const p = slotPlacement[slot];
+      return p != null && p === placed ? placedAt(outAt + slot * align(size)) : -1;
     },
   };
 }

@@ -270,6 +270,29 @@ describe('the WebAssembly read-out kernel', () => {
     expect(Array.from(on.features.scalar)).toEqual(Array.from(off.features.scalar));
   });
 
+  it('whole read-outs are the same bits when a centre with more pairs than any before grows the expansion\'s region in the middle of a group', () => {
+    // a lone atom, then a dense grid (1.1 Å spacing: 53 pairs within 4.5 Å at its corners, up to 250 at its middle,
+    // beyond the 64 the expansion's region first holds) ordered from its corners inwards, so that the pair count rises
+    // within each group of environments side by side; each growth places the region anew, without the earlier
+    // slots' coefficients, which must then not be read in place. Settings of their own: a fresh expander.
+    const centre = 10 + 3 * 1.1;
+    const grid: { species: string; at: number[] }[] = [];
+    for (let i = 0; i < 7; i++) for (let j = 0; j < 7; j++) for (let k = 0; k < 7; k++) grid.push({ species: (i + j + k) % 3 ? 'H' : 'O', at: [10 + 1.1 * i, 10 + 1.1 * j, 10 + 1.1 * k] });
+    const far = (p: { at: number[] }) => Math.hypot(p.at[0] - centre, p.at[1] - centre, p.at[2] - centre);
+    grid.sort((a, b) => far(b) - far(a));
+    const frame = makeFrame(['O', ...grid.map((p) => p.species)], [40, 40, 40, ...grid.flatMap((p) => p.at)], Float64Array.of(80, 0, 0, 0, 80, 0, 0, 0, 80));
+    const s: FeatureSettings = { ...base, nmax: 4, lmax: 4, sigma: 0.41 };
+    const T = featurePlan(s, [2]).tensors[0];
+    const u = Float64Array.from({ length: 2 * T.n }, (_, i) => Math.sin(i));
+    const W = [0, 1].map((k) => weightMatrices(s, 2, u, k * T.n));
+    const on = computeReadout(frame, s, { lambda: 2, matrices: (_e, k) => W[k], perSpecies: W });
+    setWebAssemblyKernels(false);
+    const off = computeReadout(frame, s, { lambda: 2, matrices: (_e, k) => W[k], perSpecies: W });
+    expect(Array.from(on.values)).toEqual(Array.from(off.values));
+    expect(Array.from(on.features.scalar)).toEqual(Array.from(off.features.scalar));
+    expect(off.values.some((v) => Math.abs(v) > 0.1)).toBe(true);
+  });
+
   it('reads each environment in place when the weights are per species, and not otherwise', () => {
     const s = { ...base, nmax: 6, lmax: 4 };
     const P = featurePlan(s, [2]);
