@@ -432,6 +432,12 @@ export function referenceDensityExpander(s: DensitySettings): DensityExpander {
       }
       if (centreChannel >= 0) for (let n = 0; n < nmax; n++) out[(centreChannel * nmax + n) * LL] += selfTerm[n];
     },
+    // no kernels here: every expansion writes `out`, nothing is left in a kernel's memory
+    expandLeaving(pairs, centre, centreChannel, channelOf, out, slot) {
+      this.expand(pairs, centre, centreChannel, channelOf, out, slot);
+      return true;
+    },
+    copyCoefficients: () => false,
   };
 }
 

@@ -3,6 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { decimalAtBytes, strictNumber } from '../../src-main/io/decimal.ts';
+import { makeRng } from '../../src-main/core/numerics/random.ts';
 
 const bytes = (t: string) => new TextEncoder().encode(t);
 
@@ -32,6 +33,24 @@ describe('decimalAtBytes', () => {
       }),
       { numRuns: 3000 },
     );
+  });
+
+  it('equals Number() at the edge of its exact path (significant digits as an integer near 2⁵³)', () => {
+    const edge = ['9007199254740989', '9007199254740990', '9007199254740991', '9007199254740992', '9007199254740993', '9007199254740999', '90071992547409', '900719925474098', '900719925474099'];
+    for (const m of edge) {
+      for (const t of [m, `-${m}`, `${m.slice(0, 1)}.${m.slice(1)}`, `0.${m}`, `${m}e-22`, `${m}e22`, `${m}e-23`, `${m}0`, `${m.slice(0, 5)}.${m.slice(5)}e-7`, `0.000${m}`]) {
+        expect(same(decimalAtBytes(bytes(t), 0, t.length), Number(t)), t).toBe(true);
+      }
+    }
+  });
+
+  it('gives back the double of 20,000 coordinates as String() prints them (shortest round trip: 16 and 17 digits)', () => {
+    const rng = makeRng(3);
+    for (let k = 0; k < 20000; k++) {
+      const x = (rng.uniform() - 0.3) * 30;
+      const t = String(x);
+      expect(same(decimalAtBytes(bytes(t), 0, t.length), x), t).toBe(true);
+    }
   });
 
   it('refuses what is not a decimal number', () => {

@@ -266,6 +266,16 @@ export interface DensityExpander {
   size: number;
   expand(pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array, slot?: number): void;
   /**
+   * expand, except that where the kernels ran the coefficients are left in the kernels' memory only (`out` is not
+   * written: coefficientsAt(slot), copyCoefficients); returns whether `out` holds them (the JavaScript path).
+   */
+  expandLeaving(pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array, slot: number): boolean;
+  /**
+   * Copies what the last expansion into `slot` left in the kernels' memory into `out`, when it is still there
+   * (coefficientsAt(slot) ≥ 0); returns whether it did.
+   */
+  copyCoefficients(slot: number, out: Float64Array): boolean;
+  /**
    * Where the last `expand` left its coefficients transposed in the descriptor kernels' memory (byte address of
    * cT[lm·channels·nmax + a·nmax + n]), while they are still there; −1 when it took
    * the JavaScript path or its region has moved since (features.ts reads the λ = 0 row from them).
@@ -406,7 +416,7 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     const K = descriptorKernels();
     return K === placed.kernels && K.epoch() === placedEpoch ? placed.at + doubles * 8 : -1;
   };
-  const expandKernel = (K: DescriptorKernels, pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array, slot: number): boolean => {
+  const expandKernel = (K: DescriptorKernels, pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array | null, slot: number): boolean => {
     const { start, neighbour, vectors, distances } = pairs;
     const from = start[centre];
     const count = start[centre + 1] - from;
@@ -444,63 +454,84 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     const startsAt = base + startAt * 8;
     K.pairTerms(parAt, chanAt, count, channels, lmax, NLp, base + aAt * 8, base + bAt * 8, base + diagAt * 8, tables.y00, base + coefAt * 8, yAt, rAt, orderAt, startsAt);
     K.expandAccumulate(yAt, rAt, startsAt, NLp, nmax, lmax, channels, base + (outAt + slot * align(size)) * 8, base + selfAt * 8, centreChannel, base + cTAt * 8);
-    out.set(at.outs[slot]);
+    if (out !== null) out.set(at.outs[slot]);
     return true;
+  };
+  const checkSlot = (slot: number) => {
+    if (!(Number.isInteger(slot) && slot >= 0 && slot < EXPANSION_SLOTS)) throw new RangeError(`expand: slot ${slot} is not in 0…${EXPANSION_SLOTS - 1}`);
+  };
+
+  /** The expansion in JavaScript: the fallback where the kernels are off or cannot hold the pairs, and their oracle. */
+  const expandPlain = (pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array): void => {
+    // Locals, not closure slots, in the loop (V8 keeps them in registers).
+    byDegree ??= degreeTable(table.coefficients, intervals, nmax, lmax);
+    const coef = byDegree, Yl = Y, rl = radial, acc = work, cut = cutoff, inn = inner, sw = switchScale, inv = invSpacing, last = intervals;
+    acc.fill(0);
+    const { start, neighbour, vectors, distances } = pairs;
+    const end = start[centre + 1];
+    for (let p = start[centre]; p < end; p++) {
+      const d = distances[p];
+      if (!(d < cut)) continue;
+      const a = channelOf[neighbour[p]];
+      if (a < 0) continue;
+      realSphericalHarmonics(lmax, vectors[3 * p], vectors[3 * p + 1], vectors[3 * p + 2], Yl);
+      const w = d <= inn ? FOUR_PI : FOUR_PI * 0.5 * (1 + Math.cos(sw * (d - inn)));
+      // Radial integrals by the cubic pieces of interval k, ordered l·nmax + n.
+      const u = d * inv;
+      let k = Math.floor(u);
+      if (k >= last) k = last - 1;
+      const t = u - k;
+      const t2 = t * t, t3 = t2 * t;
+      const q0 = k * 4 * NL;
+      for (let j = 0; j < NL; j++) {
+        const o = q0 + 4 * j;
+        rl[j] = w * (coef[o] + t * coef[o + 1] + t2 * coef[o + 2] + t3 * coef[o + 3]);
+      }
+      // Accumulate in the work layout (a·LL + lm)·nmax + n: the inner loop runs over n, contiguous.
+      const base = a * LL * nmax;
+      for (let l = 0; l <= lmax; l++) {
+        const rb = l * nmax;
+        const hi = (l + 1) * (l + 1);
+        for (let lm = l * l; lm < hi; lm++) {
+          const y = Yl[lm];
+          const ob = base + lm * nmax;
+          for (let n = 0; n < nmax; n++) acc[ob + n] += y * rl[rb + n];
+        }
+      }
+    }
+    // Back to the public layout (a·nmax + n)·LL + lm, plus the centre's own Gaussian.
+    for (let a = 0; a < channels; a++) {
+      for (let lm = 0; lm < LL; lm++) {
+        const src = (a * LL + lm) * nmax;
+        for (let n = 0; n < nmax; n++) out[(a * nmax + n) * LL + lm] = acc[src + n];
+      }
+    }
+    if (centreChannel >= 0) for (let n = 0; n < nmax; n++) out[(centreChannel * nmax + n) * LL] += selfTerm[n];
   };
 
   return {
     settings: { ...s },
     size,
+    expandLeaving(pairs, centre, centreChannel, channelOf, out, slot) {
+      checkSlot(slot);
+      const K = descriptorKernels();
+      lastByKernel = K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, null, slot);
+      slotPlacement[slot] = lastByKernel ? placed : null;
+      if (lastByKernel) return false;
+      expandPlain(pairs, centre, centreChannel, channelOf, out);
+      return true;
+    },
+    copyCoefficients(slot, out) {
+      if (this.coefficientsAt(slot) < 0) return false;
+      out.set((placed as Placement).outs[slot]);
+      return true;
+    },
     expand(pairs, centre, centreChannel, channelOf, out, slot = 0) {
-      if (!(Number.isInteger(slot) && slot >= 0 && slot < EXPANSION_SLOTS)) throw new RangeError(`expand: slot ${slot} is not in 0…${EXPANSION_SLOTS - 1}`);
+      checkSlot(slot);
       const K = descriptorKernels();
       lastByKernel = K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, out, slot);
       slotPlacement[slot] = lastByKernel ? placed : null;
-      if (lastByKernel) return;
-      // Locals, not closure slots, in the loop (V8 keeps them in registers).
-      byDegree ??= degreeTable(table.coefficients, intervals, nmax, lmax);
-      const coef = byDegree, Yl = Y, rl = radial, acc = work, cut = cutoff, inn = inner, sw = switchScale, inv = invSpacing, last = intervals;
-      acc.fill(0);
-      const { start, neighbour, vectors, distances } = pairs;
-      const end = start[centre + 1];
-      for (let p = start[centre]; p < end; p++) {
-        const d = distances[p];
-        if (!(d < cut)) continue;
-        const a = channelOf[neighbour[p]];
-        if (a < 0) continue;
-        realSphericalHarmonics(lmax, vectors[3 * p], vectors[3 * p + 1], vectors[3 * p + 2], Yl);
-        const w = d <= inn ? FOUR_PI : FOUR_PI * 0.5 * (1 + Math.cos(sw * (d - inn)));
-        // Radial integrals by the cubic pieces of interval k, ordered l·nmax + n.
-        const u = d * inv;
-        let k = Math.floor(u);
-        if (k >= last) k = last - 1;
-        const t = u - k;
-        const t2 = t * t, t3 = t2 * t;
-        const q0 = k * 4 * NL;
-        for (let j = 0; j < NL; j++) {
-          const o = q0 + 4 * j;
-          rl[j] = w * (coef[o] + t * coef[o + 1] + t2 * coef[o + 2] + t3 * coef[o + 3]);
-        }
-        // Accumulate in the work layout (a·LL + lm)·nmax + n: the inner loop runs over n, contiguous.
-        const base = a * LL * nmax;
-        for (let l = 0; l <= lmax; l++) {
-          const rb = l * nmax;
-          const hi = (l + 1) * (l + 1);
-          for (let lm = l * l; lm < hi; lm++) {
-            const y = Yl[lm];
-            const ob = base + lm * nmax;
-            for (let n = 0; n < nmax; n++) acc[ob + n] += y * rl[rb + n];
-          }
-        }
-      }
-      // Back to the public layout (a·nmax + n)·LL + lm, plus the centre's own Gaussian.
-      for (let a = 0; a < channels; a++) {
-        for (let lm = 0; lm < LL; lm++) {
-          const src = (a * LL + lm) * nmax;
-          for (let n = 0; n < nmax; n++) out[(a * nmax + n) * LL + lm] = acc[src + n];
-        }
-      }
-      if (centreChannel >= 0) for (let n = 0; n < nmax; n++) out[(centreChannel * nmax + n) * LL] += selfTerm[n];
+      if (!lastByKernel) expandPlain(pairs, centre, centreChannel, channelOf, out);
     },
     transposedAt() {
       return lastByKernel ? placedAt(cTAt) : -1;

@@ -953,6 +953,18 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
     groupCoefficients.set(P, cs);
   }
   const k0s = new Array<number>(GROUP);
+  // whether cs[j] holds the coefficients of the group's environment j: where the kernels ran they are left in the
+  // kernels' memory (the expander's slot j) and copied out only for a step that needs them as an array
+  const held = new Array<boolean>(GROUP).fill(false);
+  const coefficientsOf = (g: number, j: number): Float64Array => {
+    if (!held[j] && !P.expander.copyCoefficients(j, cs[j])) {
+      // no longer there (anything placed in the kernels' memory since): expanded again, the same numbers
+      const i = centres[g + j];
+      P.expander.expand(pairs, i, channelOf[i], channelOf, cs[j], j);
+    }
+    held[j] = true;
+    return cs[j];
+  };
   const early = tensorStep.inPlace;
   let tExpand = 0, tCouple = 0;
   let done = centres.length;
@@ -964,11 +976,15 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
     for (let j = 0; j < count && !moved; j++) {
       const i = centres[g + j];
       const t0 = timings ? performance.now() : 0;
-      P.expander.expand(pairs, i, channelOf[i], channelOf, cs[j], j);
+      held[j] = P.expander.expandLeaving(pairs, i, channelOf[i], channelOf, cs[j], j);
       if (timings) tExpand += performance.now() - t0;
       const now = kernelLayout(P);
       if (now !== L) moved = true;
-      else rowKernel(now as KernelLayout, P, cs[j], true, j);
+      else {
+        // the row from the transposed coefficients the expansion left, else from the coefficients
+        if (P.expander.transposedAt() < 0) coefficientsOf(g, j);
+        rowKernel(now as KernelLayout, P, cs[j], true, j);
+      }
     }
     if (moved) {
       // the layout moved while the group was expanded (the expander's region grew): expand again, then the rows
@@ -976,6 +992,7 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
       for (let j = 0; j < count; j++) {
         const i = centres[g + j];
         P.expander.expand(pairs, i, channelOf[i], channelOf, cs[j], j);
+        held[j] = true;
       }
       L = kernelLayout(P);
       if (L === null) {
@@ -1000,7 +1017,7 @@ function featuriseGrouped(prep: Prepared, scalar: Float64Array, slot: (e: number
       scalar.set(views.row[j], k0s[j] * P.n0);
     }
     for (let j = 0; j < count; j++) {
-      if (!(early && early(g + j, () => P.expander.coefficientsAt(j)))) tensorStep(g + j, k0s[j], cs[j], j);
+      if (!(early && early(g + j, () => P.expander.coefficientsAt(j)))) tensorStep(g + j, k0s[j], coefficientsOf(g, j), j);
     }
     tensorStep.flush?.(count);
     // the rest of the group's time (its rows, norms and λ > 0 steps) counts as coupling, as in the loop one at a time

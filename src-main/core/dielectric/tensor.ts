@@ -135,12 +135,30 @@ export function toIrreducible(T: Mat3, out: Float64Array = new Float64Array(6)):
 /** The symmetric tensor with the given irreducible parts (inverse of toIrreducible). */
 export function fromIrreducible(parts: ArrayLike<number>): Mat3 {
   if (parts.length !== 6) throw new RangeError(`fromIrreducible: need 6 parts [T0, T2_-2..T2_2], got ${parts.length}`);
-  const iso = parts[0] / S3;
-  const zz = (2 * parts[3]) / S6;
-  const xx = (-zz + S2 * parts[5]) / 2;
-  const yy = (-zz - S2 * parts[5]) / 2;
-  const xy = parts[1] / S2, yz = parts[2] / S2, xz = parts[4] / S2;
-  return Float64Array.of(iso + xx, xy, xz, xy, iso + yy, yz, xz, yz, iso + zz);
+  const out = new Float64Array(9);
+  fromIrreducibleAt(parts, 0, out, 0, 1);
+  return out;
+}
+
+/**
+ * fromIrreducible of parts[from…from+6) into out[at…at+9), each entry times `scale`: for many tensors side by side
+ * (per-atom contributions) without a new array per tensor. Scale 1 leaves every entry as it is (x·1 = x).
+ */
+export function fromIrreducibleAt(parts: ArrayLike<number>, from: number, out: Float64Array, at: number, scale: number): void {
+  const iso = parts[from] / S3;
+  const zz = (2 * parts[from + 3]) / S6;
+  const xx = (-zz + S2 * parts[from + 5]) / 2;
+  const yy = (-zz - S2 * parts[from + 5]) / 2;
+  const xy = parts[from + 1] / S2, yz = parts[from + 2] / S2, xz = parts[from + 4] / S2;
+  out[at] = (iso + xx) * scale;
+  out[at + 1] = xy * scale;
+  out[at + 2] = xz * scale;
+  out[at + 3] = xy * scale;
+  out[at + 4] = (iso + yy) * scale;
+  out[at + 5] = yz * scale;
+  out[at + 6] = xz * scale;
+  out[at + 7] = yz * scale;
+  out[at + 8] = (iso + zz) * scale;
 }
 
 /** R T Rᵀ: the tensor of a rotated structure (R maps old Cartesian coordinates to new ones). */

@@ -56,7 +56,7 @@ import {
   type LearntQuantity,
   type TargetShape,
 } from './targets.ts';
-import { fromIrreducible, tensorFromValues, toIrreducible } from '../dielectric/tensor.ts';
+import { fromIrreducible, fromIrreducibleAt, tensorFromValues, toIrreducible } from '../dielectric/tensor.ts';
 import { checkTensorKind } from './kind-check.ts';
 import { compositionNote } from './contributions.ts';
 import { FREE_ATOM_POLARISABILITY_A3, splitShift, splitValues } from './species-split.ts';
@@ -1500,10 +1500,7 @@ function requireTensorModel(model: Model): void {
 /** Per-atom local tensors, 9 per atom, from the per-atom irreducible parts, times `scale`. */
 function localTensors(pred: TargetPrediction, atoms: number, scale: number): Float64Array {
   const local = new Float64Array(atoms * 9);
-  for (let i = 0; i < atoms; i++) {
-    const t = fromIrreducible(pred.localIrreducible.subarray(i * 6, i * 6 + 6));
-    for (let q = 0; q < 9; q++) local[i * 9 + q] = t[q] * scale;
-  }
+  for (let i = 0; i < atoms; i++) fromIrreducibleAt(pred.localIrreducible, i * 6, local, i * 9, scale);
   return local;
 }
 

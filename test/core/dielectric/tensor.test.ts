@@ -7,6 +7,7 @@ import { makeRng } from '../../../src-main/core/numerics/random.ts';
 import {
   anisotropy,
   fromIrreducible,
+  fromIrreducibleAt,
   isotropicMean,
   mat3,
   mat3Determinant,
@@ -59,6 +60,21 @@ describe('irreducible parts', () => {
         expect(maxDiff(fromIrreducible(p), T)).toBeLessThan(1e-12 * (1 + mat3.norm(T)));
       }),
     );
+  });
+
+  it('fromIrreducibleAt writes fromIrreducible times the scale, bit for bit, at any place of a longer array', () => {
+    const rng = makeRng(5);
+    const parts = Float64Array.from({ length: 4 * 6 }, () => rng.normal() * 10);
+    parts[7] = -0; // signs of zero kept
+    for (const scale of [1, (4 * Math.PI) / 317.3, -2.5]) {
+      const out = new Float64Array(4 * 9 + 2).fill(NaN);
+      for (let i = 0; i < 4; i++) fromIrreducibleAt(parts, i * 6, out, 1 + i * 9, scale);
+      for (let i = 0; i < 4; i++) {
+        const t = fromIrreducible(parts.subarray(i * 6, i * 6 + 6));
+        for (let q = 0; q < 9; q++) expect(Object.is(out[1 + i * 9 + q], t[q] * scale)).toBe(true);
+      }
+      expect(Number.isNaN(out[0]) && Number.isNaN(out[37])).toBe(true); // nothing written outside its place
+    }
   });
 
   it('follow the formulas of science.md §3 on a hand-made tensor', () => {
