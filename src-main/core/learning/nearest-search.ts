@@ -434,10 +434,10 @@ const fround = Math.fround;
  * Σ (x_f − r_f)² in float32 of the float32 query `x` and the float32 row at offset `o` of `rows` (centred, features
  * in the species' screening order), as the kernel's screen32 sums it, operation for operation (each float32
  * operation here is the float64 one rounded to float32, which is the correctly rounded float32 result, so the
- * bits are the kernel's): sixteen lanes, lane i summing the features f ≡ i (mod 16) in order; after every 16
- * features the lanes are added as (l_i + l_{i+4}) + (l_{i+8} + l_{i+12}) for i < 4, then (0 + 1) + (2 + 3), and
- * the sum so far returned as soon as it exceeds `limit`; else the full sum, the last n0 mod 16 features added to
- * it one by one. Adds the features summed to counter.summed.
+ * bits are the kernel's): sixteen lanes, lane i summing the features f ≡ i (mod 16) in order; after every 32
+ * features, and after a last block of 16, the lanes are added as (l_i + l_{i+4}) + (l_{i+8} + l_{i+12}) for
+ * i < 4, then (0 + 1) + (2 + 3), and the sum so far returned as soon as it exceeds `limit`; else the full sum,
+ * the last n0 mod 16 features added to it one by one. Adds the features summed to counter.summed.
  */
 function screenNarrow(x: Float32Array, rows: Float32Array, o: number, n0: number, limit: number, counter?: SearchCounter): number {
   let l0 = 0, l1 = 0, l2 = 0, l3 = 0, l4 = 0, l5 = 0, l6 = 0, l7 = 0, l8 = 0, l9 = 0, l10 = 0, l11 = 0, l12 = 0, l13 = 0, l14 = 0, l15 = 0;
@@ -478,6 +478,8 @@ function screenNarrow(x: Float32Array, rows: Float32Array, o: number, n0: number
     l14 = fround(l14 + fround(d * d));
     d = fround(x[f + 15] - rows[r + 15]);
     l15 = fround(l15 + fround(d * d));
+    // the kernel looks after each block of 32 and after a last block of 16
+    if ((f & 31) !== 16 && f + 31 < n0) continue;
     s = fround(
       fround(fround(fround(l0 + l4) + fround(l8 + l12)) + fround(fround(l1 + l5) + fround(l9 + l13))) +
         fround(fround(fround(l2 + l6) + fround(l10 + l14)) + fround(fround(l3 + l7) + fround(l11 + l15))),

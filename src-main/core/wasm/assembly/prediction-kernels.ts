@@ -233,10 +233,11 @@ function screen(x: usize, r: usize, n0: i32, limit: f64): f64 {
 /**
  * Σ (x_f − r_f)² over f < n0 in float32 (x and r: float32 rows, here the centred query and representative in a
  * species' screening order), each of the sixteen lanes summing the features f ≡ lane (mod 16) in order; after
- * every 16 features the lanes are added ((a0 + a1) + (a2 + a3), then lane (0 + 1) + (2 + 3)) and the sum so far
- * returned as soon as it exceeds `limit`; else the full sum, the last n0 mod 16 features added to it one by one.
- * nearest-search.ts screenNarrow does the same float32 operations in the same order (the same bits); the margin
- * that makes these sums safe to rule out with is nearest-search.ts limitNarrow.
+ * every 32 features, and after a last block of 16, the lanes are added ((a0 + a1) + (a2 + a3), then lane
+ * (0 + 1) + (2 + 3)) and the sum so far returned as soon as it exceeds `limit`; else the full sum, the last
+ * n0 mod 16 features added to it one by one. nearest-search.ts screenNarrow does the same float32 operations in
+ * the same order (the same bits); the margin that makes these sums safe to rule out with is nearest-search.ts
+ * limitNarrow.
  */
 function screen32(x: usize, r: usize, n0: i32, limit: f64): f64 {
   let a0 = f32x4.splat(0);
@@ -244,7 +245,7 @@ function screen32(x: usize, r: usize, n0: i32, limit: f64): f64 {
   let a2 = a0;
   let a3 = a0;
   let f = 0;
-  for (; f + 15 < n0; f += 16) {
+  while (f + 15 < n0) {
     const xo = x + (<usize>f << 2);
     const ro = r + (<usize>f << 2);
     let d = f32x4.sub(v128.load(xo), v128.load(ro));
@@ -255,10 +256,22 @@ function screen32(x: usize, r: usize, n0: i32, limit: f64): f64 {
     a2 = f32x4.add(a2, f32x4.mul(d, d));
     d = f32x4.sub(v128.load(xo, 48), v128.load(ro, 48));
     a3 = f32x4.add(a3, f32x4.mul(d, d));
+    if (f + 31 < n0) {
+      // the second half of a block of 32
+      d = f32x4.sub(v128.load(xo, 64), v128.load(ro, 64));
+      a0 = f32x4.add(a0, f32x4.mul(d, d));
+      d = f32x4.sub(v128.load(xo, 80), v128.load(ro, 80));
+      a1 = f32x4.add(a1, f32x4.mul(d, d));
+      d = f32x4.sub(v128.load(xo, 96), v128.load(ro, 96));
+      a2 = f32x4.add(a2, f32x4.mul(d, d));
+      d = f32x4.sub(v128.load(xo, 112), v128.load(ro, 112));
+      a3 = f32x4.add(a3, f32x4.mul(d, d));
+      f += 32;
+    } else f += 16;
     const v = f32x4.add(f32x4.add(a0, a1), f32x4.add(a2, a3));
     const s: f32 = (f32x4.extract_lane(v, 0) + f32x4.extract_lane(v, 1)) + (f32x4.extract_lane(v, 2) + f32x4.extract_lane(v, 3));
     if (<f64>s > limit) {
-      screenedFeatures += f + 16;
+      screenedFeatures += f;
       return <f64>s;
     }
   }
@@ -474,42 +487,37 @@ function candidates(m: i32, d: i32, n0: i32, reps: usize, x: usize, ordered: usi
   }
   let limit = t + MARGIN_RELATIVE * t + MARGIN_ABSOLUTE;
   let cut = narrowRows ? limitNarrow(limit, e, wide, tiny) : limit;
-  let k = 0;
-  while (k < m) {
-    // eight (or two) bounds at once past a block all of which are ruled out (the same test lane by lane)
-    if ((k & 7) == 0 && k + 7 < m) {
-      const l = f64x2.splat(limit);
-      const b = bound + (<usize>k << 3);
-      const all = v128.and(v128.and(f64x2.gt(v128.load(b), l), f64x2.gt(v128.load(b, 16), l)), v128.and(f64x2.gt(v128.load(b, 32), l), f64x2.gt(v128.load(b, 48), l)));
-      if (i64x2.all_true(all)) {
-        k += 8;
-        continue;
+  // 64 representatives at a time: a bit for each whose bound is not beyond the limit (a NaN bound counts), taken
+  // in ascending order and tested again against the limit of the moment (it only shrinks as t does, or was NaN
+  // and ruled nothing out): the same decisions as a test one by one, with fewer unpredictable branches
+  for (let k0 = 0; k0 < m; k0 += 64) {
+    const n = min(64, m - k0);
+    const l = f64x2.splat(limit);
+    const b0 = bound + (<usize>k0 << 3);
+    let bits: u64 = 0;
+    let j = 0;
+    for (; j + 1 < n; j += 2) bits |= <u64>i64x2.bitmask(v128.not(f64x2.gt(v128.load(b0 + (<usize>j << 3)), l))) << <u64>j;
+    if (j < n && !(f64.load(b0 + (<usize>j << 3)) > limit)) bits |= (<u64>1) << <u64>j;
+    while (bits != 0) {
+      const k = k0 + <i32>ctz(bits);
+      bits &= bits - 1;
+      if (k == first || f64.load(bound + (<usize>k << 3)) > limit) continue;
+      looked++;
+      const s = narrowRows ? screen32(from, rows + <usize>k * rowBytes, n0, cut) : screen(from, rows + <usize>k * rowBytes, n0, cut);
+      if (!(s > cut)) {
+        const r = kept + (<usize>nk << 4);
+        store<i32>(r, k);
+        f64.store(r, s, 8);
+        nk++;
+        // the smallest distance (a NaN sum, from a representative with NaN features, is passed over)
+        const u = narrowRows ? upperNarrow(s, e, narrow, tiny) : s;
+        if (u < t || (t != t && u == u)) {
+          t = u;
+          limit = t + MARGIN_RELATIVE * t + MARGIN_ABSOLUTE;
+          cut = narrowRows ? limitNarrow(limit, e, wide, tiny) : limit;
+        }
       }
     }
-    if ((k & 1) == 0 && k + 1 < m && i64x2.all_true(f64x2.gt(v128.load(bound + (<usize>k << 3)), f64x2.splat(limit)))) {
-      k += 2;
-      continue;
-    }
-    if (k == first || f64.load(bound + (<usize>k << 3)) > limit) {
-      k++;
-      continue;
-    }
-    looked++;
-    const s = narrowRows ? screen32(from, rows + <usize>k * rowBytes, n0, cut) : screen(from, rows + <usize>k * rowBytes, n0, cut);
-    if (!(s > cut)) {
-      const r = kept + (<usize>nk << 4);
-      store<i32>(r, k);
-      f64.store(r, s, 8);
-      nk++;
-      // the smallest distance (a NaN sum, from a representative with NaN features, is passed over)
-      const u = narrowRows ? upperNarrow(s, e, narrow, tiny) : s;
-      if (u < t || (t != t && u == u)) {
-        t = u;
-        limit = t + MARGIN_RELATIVE * t + MARGIN_ABSOLUTE;
-        cut = narrowRows ? limitNarrow(limit, e, wide, tiny) : limit;
-      }
-    }
-    k++;
   }
   f64.store(stats, f64.load(stats) + <f64>looked);
   // the candidates left: not beyond the final margin (a NaN sum stays; its exact distance never wins)
