@@ -334,7 +334,12 @@ describe('bounded nearest-representative search', () => {
 
   it('gives the plain scan’s numbers where the float32 screening cannot tell rows apart or falls back (ties below float32 resolution, tiny and large scales, non-finite queries)', () => {
     const rng = makeRng(93);
-    const n0 = 57; // not a multiple of 16: the screening's last features are added one by one
+    // n0 around the screening's blocks of 16 and 32 (57: its last features added one by one)
+    for (const n0 of [5, 16, 31, 32, 48, 57]) expectFloat32Cases(rng, n0);
+  });
+
+  /** The float32 screening's cases for row length n0 (see the test above). */
+  function expectFloat32Cases(rng: Rng, n0: number): void {
     const perSpecies = 48;
     const reps = new Float64Array(3 * perSpecies * n0);
     const repSpecies = new Int32Array(3 * perSpecies);
@@ -368,7 +373,7 @@ describe('bounded nearest-representative search', () => {
     // queries against species 0 whose float32 screening must not be used or must stay safe: a NaN and an infinite
     // feature, all features 1e20 (|x − μ|² beyond 2^98), and one feature 1e13 (float32 still holds it)
     for (const [f0, v] of [[3, NaN], [5, Infinity], [-1, 1e20], [7, 1e13]] as const) {
-      rows.push(Array.from({ length: n0 }, (_, f) => (f0 < 0 ? v * (1 + rng.uniform()) : f === f0 ? v : reps[n0 + f])));
+      rows.push(Array.from({ length: n0 }, (_, f) => (f0 < 0 ? v * (1 + rng.uniform()) : f === f0 % n0 ? v : reps[n0 + f])));
       species.push(0);
     }
     const queries = Float64Array.from(rows.flat());
@@ -377,7 +382,7 @@ describe('bounded nearest-representative search', () => {
     expect(wasm.screened).toBe(js.screened);
     expect(wasm.exact).toBe(js.exact);
     expect(wasm.summed).toBe(js.summed);
-  });
+  }
 
   it('runs through the WebAssembly kernels here, prepared and plain, at the size prediction uses (odd n0, hundreds of rows, more queries than one pass holds)', () => {
     expect(predictKernels()).not.toBeNull();
