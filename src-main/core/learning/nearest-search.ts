@@ -2,8 +2,9 @@
 // scan (nearestDistance in sparse.ts) starts a distance to every representative of the species: the distances
 // are all similar, so its partial-sum exit only comes after a good part of the features. Here each species'
 // representatives get a small orthonormal basis Q spanning most of their spread (greedy pivoted Gram–Schmidt of the
-// centred rows, refined by a few steps of subspace iteration towards the leading principal directions), their
-// coordinates b = Qᵀ(p − μ) and residual norms ρ_p. For a query x with a = Qᵀ(x − μ) and residual norm ρ_x,
+// centred rows restricted to their SEARCH_FEATURES features of largest spread, refined by a few steps of subspace
+// iteration towards the leading principal directions there), their coordinates b = Qᵀ(p − μ) and residual norms
+// ρ_p (over all features). For a query x with a = Qᵀ(x − μ) and residual norm ρ_x,
 //   |x − p|² = |a − b|² + |r_x − r_p|²  ≥  |a − b|² + (ρ_x − ρ_p)²     (Pythagoras, then the triangle inequality)
 // for any orthonormal Q, so a representative whose bound exceeds a distance already found cannot be the nearest.
 // The representatives the bound leaves are screened: their squared distances summed in float32 from centred
@@ -22,11 +23,20 @@ import { fillFrameRows, frameRowsRegion, predictKernels, type PredictKernels } f
 
 /**
  * Basis size per species, chosen by measurement (bench/applicability.bench.ts: water-like frames, nmax 8, lmax 6,
- * n0 = 952, 256 representatives per species). Each basis vector costs a query n0 multiply-adds and shrinks the
- * exact work; with d = 4/8/16/24 about 54/20/10/6 exact distances per query remain, and beyond d ≈ 8 the
- * projection costs more than the exact distances it saves.
+ * n0 = 952, 256 representatives per species, basis on SEARCH_FEATURES = 256 features). Each basis vector costs a
+ * query SEARCH_FEATURES multiply-adds, and each representative its bound one more term; with d = 4/8/16/24 about
+ * 60/25/12/8 representatives per query are screened, and beyond d ≈ 8 the projection and the bounds cost more
+ * than the screening they save (the bounds' loop is also written out for d = 8).
  */
 export const SEARCH_BASIS = 8;
+/**
+ * Features the basis is made from: the first SEARCH_FEATURES of a species' screening order (largest spread). A
+ * query's coordinates then cost d·SEARCH_FEATURES multiply-adds instead of d·n0, and the bound stays valid (the
+ * basis is orthonormal, zero on the other features). Measured at d = 8, n0 = 952 (water-like frames, 2 × 256
+ * representatives): all 952 / 512 / 256 / 128 features leave 22.0 / 22.5 / 24.7 / 29.5 representatives to screen,
+ * and the search with 256 or 128 took 7–9 % less time than with all 952 (in process, alternating).
+ */
+export const SEARCH_FEATURES = 256;
 /** Below this many representatives a basis does not pay; the bound then uses ρ = |x − μ| alone. */
 const MIN_ROWS_FOR_BASIS = 8;
 
@@ -86,7 +96,9 @@ export interface SpeciesSearch {
   /** Basis size actually used (≤ SEARCH_BASIS; smaller for few or rank-deficient rows, or n0 < basis). */
   d: number;
   mean: Float64Array;
-  /** d × n0, row-major: the orthonormal basis vectors. */
+  /** The basis's features: the first `width` of the screening order (min(n0, SEARCH_FEATURES)). */
+  width: number;
+  /** d × width, row-major: the orthonormal basis vectors, on the features order[0…width) (zero on the others). */
   basis: Float64Array;
   /** d × rows, row-major: the representatives' coordinates Qᵀ(p − μ), one basis direction per row. */
   coordsT: Float64Array;
@@ -162,13 +174,62 @@ function orthonormaliseRows(v: Float64Array, count: number, n0: number, tiny: nu
   return true;
 }
 
+/** What the preparation proper gives for rows of n0 features (prepareSpeciesJs, the kernel's prepareSpecies). */
+interface PreparedCore {
+  d: number;
+  mean: Float64Array;
+  basis: Float64Array;
+  coordsT: Float64Array;
+  residual: Float64Array;
+}
+
 /**
- * One species' prepared representatives (the rows `rows` of `reps`). The WebAssembly kernel
+ * One species' prepared search (the rows `rows` of `reps`): its mean, its screening order, and the basis of the
+ * preparation proper (`core`: prepareSpeciesJs or the kernel's) made from the first `width` features of the
+ * screening order (those of largest spread; the basis vectors are zero on the others, still orthonormal, so the
+ * bound holds), with each representative's residual norm over all n0 features. The same bits either way.
+ */
+function prepareSpecies(reps: Float64Array, rows: Int32Array, n0: number, features: number, core: (compact: Float64Array, m: number, width: number) => PreparedCore | null): SpeciesSearch | null {
+  const m = rows.length;
+  const mean = new Float64Array(n0);
+  for (let k = 0; k < m; k++) {
+    const o = rows[k] * n0;
+    for (let f = 0; f < n0; f++) mean[f] += reps[o + f];
+  }
+  for (let f = 0; f < n0; f++) mean[f] /= m;
+  const order = screeningOrder(reps, rows, mean, n0);
+  const width = Math.min(n0, features);
+  const compact = new Float64Array(m * width);
+  for (let k = 0; k < m; k++) {
+    const o = rows[k] * n0;
+    for (let i = 0; i < width; i++) compact[k * width + i] = reps[o + order[i]];
+  }
+  const prepared = core(compact, m, width);
+  if (!prepared) return null;
+  const { d, basis, coordsT } = prepared;
+  const residual = prepared.residual;
+  if (width < n0) {
+    // the residual's part outside the basis's features, summed explicitly
+    for (let k = 0; k < m; k++) {
+      const o = rows[k] * n0;
+      let rest = 0;
+      for (let i = width; i < n0; i++) {
+        const v = reps[o + order[i]] - mean[order[i]];
+        rest += v * v;
+      }
+      residual[k] = Math.sqrt(residual[k] * residual[k] + rest);
+    }
+  }
+  return { rows, d, width, mean, basis, coordsT, residual, order };
+}
+
+/**
+ * The preparation proper of rows of n0 features (the rows `rows` of `reps`). The WebAssembly kernel
  * (assembly/prediction-kernels.ts prepareSpecies, through wasmPrepare) does the very same operations in the same
  * order, so both give the same bits: each dot product as dotRows (four partial sums), each row update element by
  * element, each sum of rows in ascending row order.
  */
-function prepareSpeciesJs(reps: Float64Array, rows: Int32Array, n0: number, maxBasis: number, steps: number): SpeciesSearch {
+function prepareSpeciesJs(reps: Float64Array, rows: Int32Array, n0: number, maxBasis: number, steps: number): PreparedCore {
   const m = rows.length;
   const mean = new Float64Array(n0);
   for (let k = 0; k < m; k++) {
@@ -249,7 +310,7 @@ function prepareSpeciesJs(reps: Float64Array, rows: Int32Array, n0: number, maxB
     }
     residual[k] = Math.sqrt(dotRows(r, 0, r, 0, n0));
   }
-  return { rows, d, mean, basis, coordsT, residual, order: screeningOrder(reps, rows, mean, n0) };
+  return { d, mean, basis, coordsT, residual };
 }
 
 /** Prepares the search over representatives `reps` (rows of n0) with species `repSpecies`. */
@@ -257,15 +318,17 @@ export function prepareNearestSearch(
   reps: Float64Array,
   repSpecies: Int32Array,
   n0: number,
-  options: { basis?: number; steps?: number } = {},
+  options: { basis?: number; steps?: number; features?: number } = {},
 ): NearestSearch {
   const maxBasis = options.basis ?? SEARCH_BASIS;
   const steps = options.steps ?? SUBSPACE_STEPS;
+  const features = options.features ?? SEARCH_FEATURES;
   const k = predictKernels();
-  const prepared = k ? wasmPrepare(k, reps, repSpecies, n0, maxBasis, steps) : null;
-  if (prepared) return { n0, reps, species: prepared };
   const species = new Map<number, SpeciesSearch>();
-  for (const [s, rows] of rowsBySpecies(repSpecies)) species.set(s, prepareSpeciesJs(reps, rows, n0, maxBasis, steps));
+  for (const [s, rows] of rowsBySpecies(repSpecies)) {
+    const wasm = k ? prepareSpecies(reps, rows, n0, features, (compact, m, width) => wasmPrepare(k, compact, m, width, maxBasis, steps)) : null;
+    species.set(s, wasm ?? (prepareSpecies(reps, rows, n0, features, (compact, m, width) => prepareSpeciesJs(compact, Int32Array.from({ length: m }, (_, i) => i), width, maxBasis, steps)) as SpeciesSearch));
+  }
   return { n0, reps, species };
 }
 
@@ -322,6 +385,7 @@ export function nearestAllOf(owner: { n0: number; species: Int32Array; p: Float6
 let scratchBound = new Float64Array(0);
 let scratchCoords = new Float64Array(0);
 let scratchCentred = new Float64Array(0);
+let scratchWidth = new Float64Array(0);
 const scratchNorms = new Float64Array(4);
 const scratchRows = new Int32Array(4);
 let scratchNarrow = new Float32Array(0);
@@ -335,7 +399,8 @@ let scratchKeptSum = new Float64Array(0);
  * fewer than four repeats its first row (computed and ignored).
  */
 function project(sp: SpeciesSearch, n0: number, a: Float64Array, rowsOf: Int32Array, count: number, xc: Float64Array, q: Float64Array, xx: Float64Array): void {
-  const { d, mean, basis } = sp;
+  const { d, mean, basis, width, order } = sp;
+  const xk = scratchWidth;
   for (let g = 0; g < 4; g++) {
     const oa = rowsOf[g < count ? g : 0] * n0;
     const ox = g * n0;
@@ -346,15 +411,17 @@ function project(sp: SpeciesSearch, n0: number, a: Float64Array, rowsOf: Int32Ar
       s += v * v;
     }
     xx[g] = s;
+    // the basis's features of the centred query
+    for (let i = 0; i < width; i++) xk[g * width + i] = xc[ox + order[i]];
   }
-  const x1 = n0, x2 = 2 * n0, x3 = 3 * n0;
+  const x1 = width, x2 = 2 * width, x3 = 3 * width;
   let j = 0;
   for (; j + 1 < d; j += 2) {
-    const b0 = j * n0, b1 = b0 + n0;
+    const b0 = j * width, b1 = b0 + width;
     let s00 = 0, s01 = 0, s10 = 0, s11 = 0, s20 = 0, s21 = 0, s30 = 0, s31 = 0;
-    for (let f = 0; f < n0; f++) {
+    for (let f = 0; f < width; f++) {
       const u = basis[b0 + f], v = basis[b1 + f];
-      const y0 = xc[f], y1 = xc[x1 + f], y2 = xc[x2 + f], y3 = xc[x3 + f];
+      const y0 = xk[f], y1 = xk[x1 + f], y2 = xk[x2 + f], y3 = xk[x3 + f];
       s00 += u * y0;
       s01 += v * y0;
       s10 += u * y1;
@@ -374,14 +441,14 @@ function project(sp: SpeciesSearch, n0: number, a: Float64Array, rowsOf: Int32Ar
     q[3 * d + j + 1] = s31;
   }
   if (j < d) {
-    const b0 = j * n0;
+    const b0 = j * width;
     let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
-    for (let f = 0; f < n0; f++) {
+    for (let f = 0; f < width; f++) {
       const u = basis[b0 + f];
-      s0 += u * xc[f];
-      s1 += u * xc[x1 + f];
-      s2 += u * xc[x2 + f];
-      s3 += u * xc[x3 + f];
+      s0 += u * xk[f];
+      s1 += u * xk[x1 + f];
+      s2 += u * xk[x2 + f];
+      s3 += u * xk[x3 + f];
     }
     q[j] = s0;
     q[d + j] = s1;
@@ -785,6 +852,7 @@ function ensureScratch(search: NearestSearch, sp: SpeciesSearch): void {
   if (scratchNarrow.length < search.n0) scratchNarrow = new Float32Array(search.n0);
   if (scratchCoords.length < 4 * sp.d) scratchCoords = new Float64Array(4 * sp.d);
   if (scratchCentred.length < 4 * search.n0) scratchCentred = new Float64Array(4 * search.n0);
+  if (scratchWidth.length < 4 * sp.width) scratchWidth = new Float64Array(4 * sp.width);
 }
 
 /** Queries copied into the kernel's memory at a time (a 384-atom frame in one or two passes, bounded scratch). */
@@ -878,6 +946,7 @@ interface SearchLayout {
   /** The largest representative count and basis size of a species (the scratch is sized for them). */
   maxRows: number;
   maxBasis: number;
+  maxWidth: number;
 }
 const layouts = new WeakMap<NearestSearch, SearchLayout>();
 
@@ -889,17 +958,19 @@ function searchLayout(search: NearestSearch): SearchLayout {
   const record = new Map<number, number>();
   let maxRows = 0;
   let maxBasis = 0;
+  let maxWidth = 0;
   for (const [s, sp] of search.species) {
     const m = sp.rows.length;
     record.set(s, p);
     // record, mean, basis (d × n0), coordinates (d × m), residual norms (m), screening order (n0 i32), the
     // centred representatives in float32 in that order (m × n0 f32, when they fit)
     const narrow = narrowInfo(search.reps, sp, n0).fits;
-    p += 48 + align16(8 * n0) + align16(8 * sp.d * n0) + align16(8 * sp.d * m) + align16(8 * m) + align16(4 * n0) + (narrow ? align16(4 * m * n0) : 0);
+    p += 64 + align16(8 * n0) + align16(8 * sp.d * sp.width) + align16(8 * sp.d * m) + align16(8 * m) + align16(4 * n0) + (narrow ? align16(4 * m * n0) : 0);
     maxRows = Math.max(maxRows, m);
     maxBasis = Math.max(maxBasis, sp.d);
+    maxWidth = Math.max(maxWidth, sp.width);
   }
-  l = { bytes: p, record, maxRows, maxBasis };
+  l = { bytes: p, record, maxRows, maxBasis, maxWidth };
   layouts.set(search, l);
   return l;
 }
@@ -913,17 +984,18 @@ function writeSearch(k: PredictKernels, search: NearestSearch, at: number): void
     const m = sp.rows.length;
     const d = sp.d;
     const base = at + (record.get(s) as number);
-    const mean = base + 48;
+    const mean = base + 64;
     const basis = mean + align16(8 * n0);
-    const coordsT = basis + align16(8 * d * n0);
+    const coordsT = basis + align16(8 * d * sp.width);
     const residual = coordsT + align16(8 * d * m);
     const order = residual + align16(8 * m);
     const ordered = order + align16(4 * n0);
     const narrow = narrowInfo(search.reps, sp, n0);
     new Int32Array(buffer, base, 10).set([m, d, n0, narrow.fits ? 1 : 0, mean, basis, coordsT, residual, order, ordered]);
     new Float64Array(buffer, base + 40, 1)[0] = narrow.largest;
+    new Int32Array(buffer, base + 48, 1)[0] = sp.width;
     k.module.f64(mean, n0).set(sp.mean);
-    k.module.f64(basis, d * n0).set(sp.basis);
+    k.module.f64(basis, d * sp.width).set(sp.basis);
     k.module.f64(coordsT, d * m).set(sp.coordsT);
     k.module.f64(residual, m).set(sp.residual);
     new Int32Array(buffer, order, n0).set(sp.order);
@@ -994,8 +1066,9 @@ function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array
   const layout = searchLayout(search);
   const reps = repsLayout(search.reps, n0, search, () => new Map([...search.species].map(([s, sp]) => [s, sp.rows])));
   if (!reps) return false;
-  // scratch record (9 addresses), bound, centred queries, coordinates, squared norms, statistics (3), the query in
-  // screening order, the kept records, the pending pairs and their sums (assembly searchSpecies)
+  // scratch record (10 addresses), bound, centred queries, coordinates, squared norms, statistics (3), the query in
+  // screening order, the kept records, the pending pairs and their sums, the basis's features of the four centred
+  // queries (assembly searchSpecies)
   const m = layout.maxRows;
   const bound = 48;
   const xc = bound + align16(8 * m);
@@ -1006,6 +1079,7 @@ function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array
   const kept = xp + align16(8 * n0);
   const pending = kept + 16 * m;
   const pendingSums = pending + 8 * 4 * m;
+  const xk = pendingSums + align16(8 * (4 * m + 3));
   let statsView: Float64Array | null = null;
   const ok = wasmQueries(
     k,
@@ -1016,10 +1090,10 @@ function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array
     out,
     search.species,
     [repsRegion(search.reps, n0, reps), { name: residentName('search', search), key: search, bytes: layout.bytes, fill: (_m, at) => writeSearch(k, search, at) }],
-    pendingSums + align16(8 * (4 * m + 3)),
+    xk + 8 * 4 * layout.maxWidth,
     ([repsAt, searchAt], scr, s, rowsAt, idxAt, nq, outAt) => {
       if (!statsView) {
-        new Int32Array(k.module.f64(scr, 0).buffer, scr, 9).set([bound, xc, q, xx, stats, xp, kept, pending, pendingSums].map((o) => scr + o));
+        new Int32Array(k.module.f64(scr, 0).buffer, scr, 10).set([bound, xc, q, xx, stats, xp, kept, pending, pendingSums, xk].map((o) => scr + o));
         statsView = k.module.f64(scr + stats, 3);
         statsView.fill(0);
       }
@@ -1055,9 +1129,9 @@ function wasmScanAll(owner: { n0: number; species: Int32Array; p: Float64Array }
   }, rowsKey, SCAN_CHUNK);
 }
 
-/** Scratch of the preparation kernel: the record of its nine arrays' addresses, then the arrays (byte offsets). */
+/** Scratch of the preparation kernel: the record of its nine arrays' addresses, the arrays, then the rows (byte offsets). */
 function prepareLayout(m: number, n0: number, limit: number): { offsets: number[]; bytes: number } {
-  const sizes = [n0, m * n0, m, m * limit, limit * n0, limit * n0, n0, limit * m, m];
+  const sizes = [n0, m * n0, m, m * limit, limit * n0, limit * n0, n0, limit * m, m, m * n0];
   const offsets: number[] = [];
   let p = 48;
   for (const n of sizes) {
@@ -1071,32 +1145,19 @@ function prepareLayout(m: number, n0: number, limit: number): { offsets: number[
 const PREPARE_SCRATCH = {};
 
 /**
- * The prepared search of every species through the WebAssembly kernel (assembly prepareSpecies: the same bits as
- * prepareSpeciesJs), with the representatives resident as the scan and the search keep them; null when the
- * kernel's memory cannot hold them.
+ * The preparation proper of m rows of n0 features (`rows`, contiguous) through the WebAssembly kernel (assembly
+ * prepareSpecies: the same bits as prepareSpeciesJs); null when the kernel's memory cannot hold them.
  */
-function wasmPrepare(k: PredictKernels, reps: Float64Array, repSpecies: Int32Array, n0: number, maxBasis: number, steps: number): Map<number, SpeciesSearch> | null {
-  const bySpecies = rowsBySpecies(repSpecies);
-  // the resident layout is kept per representatives array: it must group them as these species do
-  const layout = repsLayout(reps, n0, repSpecies, () => bySpecies);
-  if (!layout) return null;
-  const limitOf = (m: number) => basisLimit(m, n0, maxBasis);
-  let bytes = 0;
-  for (const { rows } of layout.species.values()) bytes = Math.max(bytes, prepareLayout(rows.length, n0, limitOf(rows.length)).bytes);
-  const species = new Map<number, SpeciesSearch>();
-  for (const [s, { rows, offset }] of layout.species) {
-    const at = k.arena.acquire([repsRegion(reps, n0, layout), { name: 'prepare-scratch', key: PREPARE_SCRATCH, bytes }]);
-    if (!at) return null;
-    const [repsAt, scr] = at;
-    const m = rows.length;
-    const limit = limitOf(m);
-    const { offsets } = prepareLayout(m, n0, limit);
-    new Int32Array(k.module.f64(scr, 0).buffer, scr, offsets.length).set(offsets.map((o) => scr + o));
-    const d = k.prepareSpecies(repsAt + offset, m, n0, limit, steps, scr);
-    // fresh views after the call (a reservation may have grown the memory); copies, not views, are kept
-    const read = (slot: number, length: number) => k.module.f64(scr + offsets[slot], length).slice();
-    const mean = read(0, n0);
-    species.set(s, { rows, d, mean, basis: read(4, d * n0), coordsT: read(7, d * m), residual: read(8, m), order: screeningOrder(reps, rows, mean, n0) });
-  }
-  return species;
+function wasmPrepare(k: PredictKernels, rows: Float64Array, m: number, n0: number, maxBasis: number, steps: number): PreparedCore | null {
+  const limit = basisLimit(m, n0, maxBasis);
+  const { offsets, bytes } = prepareLayout(m, n0, limit);
+  const at = k.arena.acquire([{ name: 'prepare-scratch', key: PREPARE_SCRATCH, bytes }]);
+  if (!at) return null;
+  const [scr] = at;
+  new Int32Array(k.module.f64(scr, 0).buffer, scr, 9).set(offsets.slice(0, 9).map((o) => scr + o));
+  k.module.f64(scr + offsets[9], m * n0).set(rows);
+  const d = k.prepareSpecies(scr + offsets[9], m, n0, limit, steps, scr);
+  // fresh views after the call (a reservation may have grown the memory); copies, not views, are kept
+  const read = (slot: number, length: number) => k.module.f64(scr + offsets[slot], length).slice();
+  return { d, mean: read(0, n0), basis: read(4, d * n0), coordsT: read(7, d * m), residual: read(8, m) };
 }

@@ -570,7 +570,7 @@ describe('bounded nearest-representative search', () => {
     for (let i = 0; i < sp.d; i++) {
       for (let j = 0; j < sp.d; j++) {
         let dot = 0;
-        for (let f = 0; f < n0; f++) dot += sp.basis[i * n0 + f] * sp.basis[j * n0 + f];
+        for (let f = 0; f < sp.width; f++) dot += sp.basis[i * sp.width + f] * sp.basis[j * sp.width + f];
         expect(Math.abs(dot - (i === j ? 1 : 0))).toBeLessThan(1e-13); // round-off of two-pass Gram–Schmidt
       }
     }

@@ -544,6 +544,18 @@ function gather32(x: usize, order: usize, xp: usize, n0: i32): void {
   for (; i < n0; i++) f32.store(xp + (<usize>i << 2), <f32>f64.load(x + (<usize>load<i32>(order + (<usize>i << 2)) << 3)));
 }
 
+/** xk[i] = x[order[i]] for i < width (float64): the features of a centred query the basis is made from. */
+function gather64(x: usize, order: usize, xk: usize, width: i32): void {
+  let i = 0;
+  for (; i + 1 < width; i += 2) {
+    const o = i64.load(order + (<usize>i << 2));
+    const a = f64.load(x + (<usize>(<u32>o) << 3));
+    const b = f64.load(x + (<usize>(<u32>(o >>> 32)) << 3));
+    v128.store(xk + (<usize>i << 3), f64x2.replace_lane(f64x2.splat(a), 1, b));
+  }
+  if (i < width) f64.store(xk + (<usize>i << 3), f64.load(x + (<usize>load<i32>(order + (<usize>i << 2)) << 3)));
+}
+
 /** The byte address of query row idx[k] of `queries`. */
 // @ts-ignore: decorator
 @inline function queryRow(queries: usize, idx: usize, k: i32, rowBytes: usize): usize {
@@ -554,13 +566,15 @@ function gather32(x: usize, order: usize, xp: usize, n0: i32): void {
  * The exact nearest distances of queries of one species, as nearest-search.ts searchNearestAll computes them:
  * the same numbers bit for bit. `reps` holds the species' representatives (m rows of n0, contiguous); `sp` is
  * the species' record written by the wrapper (i32 words m, d, n0, 1 when its rows may be screened in float32 (else
- * 0), then byte addresses of its mean, basis (d × n0), coordinates (d × m), residual norms (m), screening order
- * (n0 i32) and the centred representatives in float32 with their features in that order (m × n0 f32; none when
- * the flag is 0), then at byte 40 the largest centred row norm (f64)); `scr` the scratch record (addresses of
+ * 0), then byte addresses of its mean, basis (d × width: on the first `width` features of the screening order),
+ * coordinates (d × m), residual norms (m), screening order (n0 i32) and the centred representatives in float32
+ * with their features in that order (m × n0 f32; none when the flag is 0), then at byte 40 the largest centred row
+ * norm (f64) and at byte 48 the width (i32)); `scr` the scratch record (addresses of
  * bound (m), centred queries (4 × n0), coordinates (4 × d), squared norms (4), a statistics triple added to
  * (representatives screened, full distances in order, feature differences summed), the centred query in
  * screening order (n0 f32), the kept records (16 bytes × m), the pending pairs (8 bytes × 4m) and their sums
- * (8 bytes × (4m + 3))). For the query rows idx[0…nq) of `queries` (rows of n0) writes out[k] for k < nq.
+ * (8 bytes × (4m + 3)), the basis's features of the four centred queries (4 × width)). For the query rows
+ * idx[0…nq) of `queries` (rows of n0) writes out[k] for k < nq.
  */
 export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize, idx: usize, nq: i32, out: usize): void {
   const m = load<i32>(sp);
@@ -574,6 +588,8 @@ export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize
   const ordered = <usize>load<u32>(sp, 36);
   const narrowRows = load<i32>(sp, 12);
   const largestRow = f64.load(sp, 40);
+  const width = load<i32>(sp, 48);
+  const xk = <usize>load<u32>(scr, 36);
   const bound = <usize>load<u32>(scr);
   const xc = <usize>load<u32>(scr, 4);
   const q = <usize>load<u32>(scr, 8);
@@ -590,7 +606,9 @@ export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize
     for (let g = 0; g < 4; g++) {
       f64.store(xx + (<usize>g << 3), centre(queryRow(queries, idx, g0 + (g < count ? g : 0), rowBytes), mean, xc + <usize>g * rowBytes, n0));
     }
-    project(basis, d, xc, n0, q);
+    // the basis's features of the four centred queries (the first `width` of the screening order), then their coordinates
+    for (let g = 0; g < 4; g++) gather64(xc + <usize>g * rowBytes, order, xk + (<usize>(g * width) << 3), width);
+    project(basis, d, xk, width, q);
     // each query's candidates (pairs: group slot, representative), then their distances in order, four at a time
     let np = 0;
     for (let g = 0; g < count; g++) {
