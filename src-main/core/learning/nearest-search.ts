@@ -994,7 +994,8 @@ function writeSearch(k: PredictKernels, search: NearestSearch, at: number): void
     new Int32Array(buffer, base, 10).set([m, d, n0, narrow.fits ? 1 : 0, mean, basis, coordsT, residual, order, ordered]);
     new Float64Array(buffer, base + 40, 1)[0] = narrow.largest;
     new Int32Array(buffer, base + 48, 1)[0] = sp.width;
-    k.module.f64(mean, n0).set(sp.mean);
+    const meanOrdered = k.module.f64(mean, n0);
+    for (let i = 0; i < n0; i++) meanOrdered[i] = sp.mean[sp.order[i]];
     k.module.f64(basis, d * sp.width).set(sp.basis);
     k.module.f64(coordsT, d * m).set(sp.coordsT);
     k.module.f64(residual, m).set(sp.residual);
@@ -1066,17 +1067,17 @@ function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array
   const layout = searchLayout(search);
   const reps = repsLayout(search.reps, n0, search, () => new Map([...search.species].map(([s, sp]) => [s, sp.rows])));
   if (!reps) return false;
-  // scratch record (10 addresses), bound, centred queries, coordinates, squared norms, statistics (3), the query in
-  // screening order, the kept records, the pending pairs and their sums, the basis's features of the four centred
-  // queries (assembly searchSpecies)
+  // scratch record (10 addresses), bound, the four centred queries (float32, screening order), coordinates, squared
+  // norms, statistics (3), an unused slot, the kept records, the pending pairs and their sums, the basis's features
+  // of the four centred queries (assembly searchSpecies)
   const m = layout.maxRows;
   const bound = 48;
   const xc = bound + align16(8 * m);
-  const q = xc + 8 * 4 * n0;
+  const q = xc + align16(4 * 4 * n0);
   const xx = q + align16(8 * 4 * layout.maxBasis);
   const stats = xx + 32;
-  const xp = stats + 32;
-  const kept = xp + align16(8 * n0);
+  const xp = stats + 32; // the unused slot: no bytes
+  const kept = xp;
   const pending = kept + 16 * m;
   const pendingSums = pending + 8 * 4 * m;
   const xk = pendingSums + align16(8 * (4 * m + 3));

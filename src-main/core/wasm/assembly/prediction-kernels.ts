@@ -45,30 +45,6 @@ function dot(x: usize, y: usize, n0: i32): f64 {
   return s;
 }
 
-/** o = x − mean (n0 numbers); returns |o|² (any summation order: bounds only). */
-function centre(x: usize, mean: usize, o: usize, n0: i32): f64 {
-  let s0 = f64x2.splat(0);
-  let s1 = f64x2.splat(0);
-  let f = 0;
-  for (; f + 3 < n0; f += 4) {
-    const b = <usize>f << 3;
-    const u = f64x2.sub(v128.load(x + b), v128.load(mean + b));
-    const v = f64x2.sub(v128.load(x + b, 16), v128.load(mean + b, 16));
-    v128.store(o + b, u);
-    v128.store(o + b, v, 16);
-    s0 = f64x2.add(s0, f64x2.mul(u, u));
-    s1 = f64x2.add(s1, f64x2.mul(v, v));
-  }
-  let s = hsum(f64x2.add(s0, s1));
-  for (; f < n0; f++) {
-    const b = <usize>f << 3;
-    const v = f64.load(x + b) - f64.load(mean + b);
-    f64.store(o + b, v);
-    s += v * v;
-  }
-  return s;
-}
-
 /**
  * q[g·d + j] = Σ_f basis[j][f] · xc[g][f] for the four centred queries xc (rows of n0) and the d basis vectors, two
  * basis vectors by four queries per pass over f (any summation order: bounds only).
@@ -458,7 +434,7 @@ function smallestBound(bound: usize, m: i32): i32 {
  * smallest bound screened in full; every other representative its bound does not rule out screened against the
  * smallest distance t so far. With `xp` ≠ 0 the screening is in float32 (screen32: `xp` the centred query and
  * `ordered` the centred representatives, float32, in the screening order; `e` the rounding term of
- * nearest-search.ts narrowRounding) and t is the upper bound upperNarrow of a screened sum; with `xp` = 0 in
+ * nearest-search.ts NARROW_UNIT) and t is the upper bound upperNarrow of a screened sum; with `xp` = 0 in
  * float64 in feature order (screen: `x` the query, `reps` the representatives) and t is a screened sum. The
  * screened sums not beyond t's margin at the end are appended to `pending` as pairs (slot, representative).
  * `kept` holds (representative, screened sum) records of 16 bytes. Returns the new length of `pending`.
@@ -532,28 +508,44 @@ function candidates(m: i32, d: i32, n0: i32, reps: usize, x: usize, ordered: usi
   return np;
 }
 
-/** xp[i] = x[order[i]] rounded to float32 for i < n0 (x: a centred query, float64): the query in the screening order for screen32, four features per store. */
-function gather32(x: usize, order: usize, xp: usize, n0: i32): void {
+/**
+ * A query x centred in the screening order: v_i = x[order[i]] − meanOrdered[i] for i < n0 (float64), written as
+ * float32 to xp (the query screen32 reads) and, for i < width, as float64 to xk (the features the basis is made
+ * from); returns Σ v_i² (any summation order: it only feeds the bound and the float32 screening's margin). Four
+ * features per pass.
+ */
+function centreOrdered(x: usize, order: usize, meanOrdered: usize, n0: i32, xp: usize, xk: usize, width: i32): f64 {
+  let s0 = f64x2.splat(0);
+  let s1 = s0;
   let i = 0;
   for (; i + 3 < n0; i += 4) {
     const o = v128.load(order + (<usize>i << 2));
     const a = f64x2.replace_lane(f64x2.splat(f64.load(x + (<usize>i32x4.extract_lane(o, 0) << 3))), 1, f64.load(x + (<usize>i32x4.extract_lane(o, 1) << 3)));
     const b = f64x2.replace_lane(f64x2.splat(f64.load(x + (<usize>i32x4.extract_lane(o, 2) << 3))), 1, f64.load(x + (<usize>i32x4.extract_lane(o, 3) << 3)));
-    v128.store(xp + (<usize>i << 2), v128.shuffle<i32>(f32x4.demote_f64x2_zero(a), f32x4.demote_f64x2_zero(b), 0, 1, 4, 5));
+    const m = meanOrdered + (<usize>i << 3);
+    const u = f64x2.sub(a, v128.load(m));
+    const v = f64x2.sub(b, v128.load(m, 16));
+    s0 = f64x2.add(s0, f64x2.mul(u, u));
+    s1 = f64x2.add(s1, f64x2.mul(v, v));
+    v128.store(xp + (<usize>i << 2), v128.shuffle<i32>(f32x4.demote_f64x2_zero(u), f32x4.demote_f64x2_zero(v), 0, 1, 4, 5));
+    const k = xk + (<usize>i << 3);
+    if (i + 3 < width) {
+      v128.store(k, u);
+      v128.store(k, v, 16);
+    } else if (i < width) {
+      f64.store(k, f64x2.extract_lane(u, 0));
+      if (i + 1 < width) f64.store(k, f64x2.extract_lane(u, 1), 8);
+      if (i + 2 < width) f64.store(k, f64x2.extract_lane(v, 0), 16);
+    }
   }
-  for (; i < n0; i++) f32.store(xp + (<usize>i << 2), <f32>f64.load(x + (<usize>load<i32>(order + (<usize>i << 2)) << 3)));
-}
-
-/** xk[i] = x[order[i]] for i < width (float64): the features of a centred query the basis is made from. */
-function gather64(x: usize, order: usize, xk: usize, width: i32): void {
-  let i = 0;
-  for (; i + 1 < width; i += 2) {
-    const o = i64.load(order + (<usize>i << 2));
-    const a = f64.load(x + (<usize>(<u32>o) << 3));
-    const b = f64.load(x + (<usize>(<u32>(o >>> 32)) << 3));
-    v128.store(xk + (<usize>i << 3), f64x2.replace_lane(f64x2.splat(a), 1, b));
+  let s = hsum(f64x2.add(s0, s1));
+  for (; i < n0; i++) {
+    const v = f64.load(x + (<usize>load<i32>(order + (<usize>i << 2)) << 3)) - f64.load(meanOrdered + (<usize>i << 3));
+    s += v * v;
+    f32.store(xp + (<usize>i << 2), <f32>v);
+    if (i < width) f64.store(xk + (<usize>i << 3), v);
   }
-  if (i < width) f64.store(xk + (<usize>i << 3), f64.load(x + (<usize>load<i32>(order + (<usize>i << 2)) << 3)));
+  return s;
 }
 
 /** The byte address of query row idx[k] of `queries`. */
@@ -566,13 +558,13 @@ function gather64(x: usize, order: usize, xk: usize, width: i32): void {
  * The exact nearest distances of queries of one species, as nearest-search.ts searchNearestAll computes them:
  * the same numbers bit for bit. `reps` holds the species' representatives (m rows of n0, contiguous); `sp` is
  * the species' record written by the wrapper (i32 words m, d, n0, 1 when its rows may be screened in float32 (else
- * 0), then byte addresses of its mean, basis (d × width: on the first `width` features of the screening order),
+ * 0), then byte addresses of its mean (n0, in the screening order), basis (d × width: on the first `width` features of the screening order),
  * coordinates (d × m), residual norms (m), screening order (n0 i32) and the centred representatives in float32
  * with their features in that order (m × n0 f32; none when the flag is 0), then at byte 40 the largest centred row
  * norm (f64) and at byte 48 the width (i32)); `scr` the scratch record (addresses of
- * bound (m), centred queries (4 × n0), coordinates (4 × d), squared norms (4), a statistics triple added to
- * (representatives screened, full distances in order, feature differences summed), the centred query in
- * screening order (n0 f32), the kept records (16 bytes × m), the pending pairs (8 bytes × 4m) and their sums
+ * bound (m), the four queries centred in the screening order in float32 (4 × n0 f32), coordinates (4 × d), squared
+ * norms (4), a statistics triple added to (representatives screened, full distances in order, feature differences
+ * summed), an unused slot, the kept records (16 bytes × m), the pending pairs (8 bytes × 4m) and their sums
  * (8 bytes × (4m + 3)), the basis's features of the four centred queries (4 × width)). For the query rows
  * idx[0…nq) of `queries` (rows of n0) writes out[k] for k < nq.
  */
@@ -595,7 +587,6 @@ export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize
   const q = <usize>load<u32>(scr, 8);
   const xx = <usize>load<u32>(scr, 12);
   const stats = <usize>load<u32>(scr, 16);
-  const xp = <usize>load<u32>(scr, 20);
   const kept = <usize>load<u32>(scr, 24);
   const pending = <usize>load<u32>(scr, 28);
   const pendingSums = <usize>load<u32>(scr, 32);
@@ -603,11 +594,11 @@ export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize
   for (let g0 = 0; g0 < nq; g0 += 4) {
     const count = min(4, nq - g0);
     // centred queries, their squared norms and coordinates (free summation order: they only feed the bound)
+    // (the four queries centred in the screening order: float32 for the screening, the basis's features in float64)
     for (let g = 0; g < 4; g++) {
-      f64.store(xx + (<usize>g << 3), centre(queryRow(queries, idx, g0 + (g < count ? g : 0), rowBytes), mean, xc + <usize>g * rowBytes, n0));
+      const x = queryRow(queries, idx, g0 + (g < count ? g : 0), rowBytes);
+      f64.store(xx + (<usize>g << 3), centreOrdered(x, order, mean, n0, xc + <usize>g * (rowBytes >> 1), xk + (<usize>(g * width) << 3), width));
     }
-    // the basis's features of the four centred queries (the first `width` of the screening order), then their coordinates
-    for (let g = 0; g < 4; g++) gather64(xc + <usize>g * rowBytes, order, xk + (<usize>(g * width) << 3), width);
     project(basis, d, xk, width, q);
     // each query's candidates (pairs: group slot, representative), then their distances in order, four at a time
     let np = 0;
@@ -616,7 +607,7 @@ export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize
       const xxg = f64.load(xx + (<usize>g << 3));
       // float32 screening when the species' rows allow it and the centred query's features are finite and not huge
       const narrowQuery = narrowRows != 0 && xxg <= NARROW_QUERY_NORM;
-      if (narrowQuery) gather32(xc + <usize>g * rowBytes, order, xp, n0);
+      const xp = xc + <usize>g * (rowBytes >> 1);
       const e = NARROW_UNIT * (Math.sqrt(xxg) + largestRow) + 2 * Math.sqrt(<f64>n0) * NARROW_TINY;
       np = candidates(m, d, n0, reps, x, ordered, narrowQuery ? xp : 0, e, coordsT, residual, bound, q + (<usize>(g * d) << 3), xxg, kept, stats, g, pending, np);
     }
