@@ -1,7 +1,10 @@
 // The per-atom applicability search of prediction: the plain scan (sparse.ts nearestDistance) against the
 // bounded search (core/learning/nearest-search.ts) on 384-atom water-like frames, model trained at nmax 8, lmax 6.
 // The bounded searches run through the WebAssembly kernel (as prediction runs them where it is available); the
-// chosen configuration is also timed with the kernels off (its JavaScript path), side by side in the same repeats.
+// chosen configuration is also timed with the kernels off (its JavaScript path, which does the kernel's float32
+// screening operation for operation with Math.fround, so both screen the same representatives), side by side in
+// the same repeats. "Screened" counts the representatives whose squared distance the screening summed (float32,
+// features by decreasing spread, left early); "exact" the float64 distances in feature order that decide the result.
 // The bounded search runs as prediction runs it (searchNearestAll: the queries of a frame, four per projection
 // pass); its first version (one query at a time, kept in test/helpers/reference-kernels.ts) is timed beside it.
 // Prints CPU µs per environment, the basis size d, exact distance evaluations per query, the one-off preparation

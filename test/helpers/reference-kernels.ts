@@ -174,21 +174,23 @@ export function referenceSearchNearest(search: NearestSearch, a: Float64Array, i
     xc[f] = c;
     xx += c * c;
   }
-  const n4 = n0 - (n0 % 4);
+  // (the basis is on the first `width` features of the screening order: its vectors are zero on the others)
+  const { width, order } = sp;
+  const n4 = width - (width % 4);
   for (let j = 0; j < d; j++) {
-    const ob = j * n0;
+    const ob = j * width;
     let c0 = 0;
     let c1 = 0;
     let c2 = 0;
     let c3 = 0;
     let f = 0;
     for (; f < n4; f += 4) {
-      c0 += basis[ob + f] * xc[f];
-      c1 += basis[ob + f + 1] * xc[f + 1];
-      c2 += basis[ob + f + 2] * xc[f + 2];
-      c3 += basis[ob + f + 3] * xc[f + 3];
+      c0 += basis[ob + f] * xc[order[f]];
+      c1 += basis[ob + f + 1] * xc[order[f + 1]];
+      c2 += basis[ob + f + 2] * xc[order[f + 2]];
+      c3 += basis[ob + f + 3] * xc[order[f + 3]];
     }
-    for (; f < n0; f++) c0 += basis[ob + f] * xc[f];
+    for (; f < width; f++) c0 += basis[ob + f] * xc[order[f]];
     q[j] = c0 + c1 + c2 + c3;
   }
   let qq = 0;

@@ -2,15 +2,18 @@
 // scan (nearestDistance in sparse.ts) starts a distance to every representative of the species: the distances
 // are all similar, so its partial-sum exit only comes after a good part of the features. Here each species'
 // representatives get a small orthonormal basis Q spanning most of their spread (greedy pivoted Gram–Schmidt of the
-// centred rows, refined by a few steps of subspace iteration towards the leading principal directions), their
-// coordinates b = Qᵀ(p − μ) and residual norms ρ_p. For a query x with a = Qᵀ(x − μ) and residual norm ρ_x,
+// centred rows restricted to their SEARCH_FEATURES features of largest spread, refined by a few steps of subspace
+// iteration towards the leading principal directions there), their coordinates b = Qᵀ(p − μ) and residual norms
+// ρ_p (over all features). For a query x with a = Qᵀ(x − μ) and residual norm ρ_x,
 //   |x − p|² = |a − b|² + |r_x − r_p|²  ≥  |a − b|² + (ρ_x − ρ_p)²     (Pythagoras, then the triangle inequality)
 // for any orthonormal Q, so a representative whose bound exceeds a distance already found cannot be the nearest.
-// The representatives the bound leaves are screened: their squared distances summed with the features in the order
-// of decreasing spread (most are left after a fifth of them) against the smallest such sum so far, with a margin far
-// above the round-off of either summation order. The few left after that (usually one) get their exact distance,
-// summed as nearestDistance sums it (same features, same order), so the minimum is bit-identical to the plain
-// scan; the bound and the screening only decide what to skip (nearestOf). The prepared search is kept outside the
+// The representatives the bound leaves are screened: their squared distances summed in float32 from centred
+// float32 copies, with the features in the order of decreasing spread (most are left after a sixth of them),
+// against the smallest distance so far, with a margin from a written bound on the float32 rounding (NARROW_UNIT)
+// on top of the float64 one; queries or rows that float32 cannot hold are screened in float64. The few left
+// after that (usually one) get their exact distance, summed in float64 as nearestDistance sums it (same
+// features, same order), so the minimum is bit-identical to the plain scan; the bound and the screening only
+// decide what to skip (nearestOf). The prepared search is kept outside the
 // stored model (a WeakMap keyed on the representatives' owner object), so the saved model stays a plain
 // structured-clone-friendly object.
 
@@ -20,11 +23,20 @@ import { fillFrameRows, frameRowsRegion, predictKernels, type PredictKernels } f
 
 /**
  * Basis size per species, chosen by measurement (bench/applicability.bench.ts: water-like frames, nmax 8, lmax 6,
- * n0 = 952, 256 representatives per species). Each basis vector costs a query n0 multiply-adds and shrinks the
- * exact work; with d = 4/8/16/24 about 54/20/10/6 exact distances per query remain, and beyond d ≈ 8 the
- * projection costs more than the exact distances it saves.
+ * n0 = 952, 256 representatives per species, basis on SEARCH_FEATURES = 256 features). Each basis vector costs a
+ * query SEARCH_FEATURES multiply-adds, and each representative its bound one more term; with d = 4/8/16/24 about
+ * 60/25/12/8 representatives per query are screened, and beyond d ≈ 8 the projection and the bounds cost more
+ * than the screening they save (the bounds' loop is also written out for d = 8).
  */
 export const SEARCH_BASIS = 8;
+/**
+ * Features the basis is made from: the first SEARCH_FEATURES of a species' screening order (largest spread). A
+ * query's coordinates then cost d·SEARCH_FEATURES multiply-adds instead of d·n0, and the bound stays valid (the
+ * basis is orthonormal, zero on the other features). Measured at d = 8, n0 = 952 (water-like frames, 2 × 256
+ * representatives): all 952 / 512 / 256 / 128 features leave 22.0 / 22.5 / 24.7 / 29.5 representatives to screen,
+ * and the search with 256 or 128 took 7–9 % less time than with all 952 (in process, alternating).
+ */
+export const SEARCH_FEATURES = 256;
 /** Below this many representatives a basis does not pay; the bound then uses ρ = |x − μ| alone. */
 const MIN_ROWS_FOR_BASIS = 8;
 
@@ -40,12 +52,42 @@ const RANK_TOLERANCE = 1e-9;
 /**
  * Pruning margins. The bound and the exact sums each carry round-off of order n0·ε·(scale) ≈ 1e-13 for unit
  * rows (n0 ≈ 1000, ε ≈ 1.1e-16), and Q is orthonormal to about 1e-15 after re-orthogonalisation; a representative
- * is skipped only when its bound beats the best by RELATIVE·best + ABSOLUTE, orders of magnitude above that.
+ * is skipped only when its bound beats the best by RELATIVE·best + ABSOLUTE, orders of magnitude above that. The
+ * float32 screening adds its own, larger margin on top (limitNarrow).
  */
 const MARGIN_RELATIVE = 1e-8;
 const MARGIN_ABSOLUTE = 1e-10;
 /** Allowance on ρ_x² = |x − μ|² − |a|² (cancellation when the residual is small), relative to |x − μ|². */
 const RHO_ALLOWANCE = 1e-10;
+/**
+ * The float32 screening. Where a species' centred representatives p − μ and a query's centred features x − μ are
+ * finite and at most NARROW_LARGEST = 2^50 in size (so that no difference, square or sum of n0 ≤ 2^20 squares can
+ * overflow float32), the screening sums Σ (x̂_f − p̂_f)² in float32, x̂ and p̂ the centred features rounded to
+ * float32. Error bound, with u = NARROW_UNIT = 2^−23 (twice float32's unit round-off 2^−24, so that it also
+ * covers the float64 centring and the float64 evaluation of these formulas) and η = NARROW_TINY = 2^−149 (the
+ * smallest float32 subnormal: the absolute error of a product that underflows):
+ *   - |x̂_f − (x_f − μ_f)| ≤ u·|x_f − μ_f| (+ η), likewise for p̂, so over any set F of features, with D = |x_F − p_F|
+ *     and D̂ = |x̂_F − p̂_F| (Euclidean norms), |D̂ − D| ≤ e := u·(|x − μ| + R) + 2√n0·η, R the species' largest
+ *     centred row norm (triangle inequality);
+ *   - each difference and square rounds by at most a factor (1 ± u) (a difference that underflows is exact, a
+ *     square that underflows loses at most η), and a float32 sum of at most n0 non-negative terms, in any order,
+ *     is within a factor (1 ± γ), γ = n0·u/(1 − n0·u) (≈ 1.1e−4 at n0 = 952), of the exact sum of its rounded
+ *     terms; so a screened (partial) sum S̃_F satisfies
+ *       (1 − γ)(1 − u)³·D̂² − (1 + γ)·n0·η  ≤  S̃_F  ≤  (1 + γ)(1 + u)³·D̂² + (1 + γ)·n0·η.
+ * Hence S̃_F > limitNarrow(L) = (1 + γ)(1 + u)³·(√L + e)² + (1 + γ)·n0·η implies D > √L, and the full distance
+ * |x − p|² ≥ D² > L: a representative is ruled out only where the float64 rule (L = limitOf(t)) would rule it
+ * out. And a full screened sum S̃ bounds the representative's squared distance from above by upperNarrow(S̃) =
+ * (√((S̃ + (1 + γ)·n0·η)/((1 − γ)(1 − u)³)) + e)², which takes the place of the screened sum as t: t is then at least
+ * the true squared distance of some representative, which is all the argument of nearestOf needs. With unit
+ * rows (|x − μ|, R ≲ 1) the limit is about 1.1e−4 relative plus 2.4e−7 on the distance above the float64 one,
+ * far below the gaps the screening uses. NaN, infinite or huge features take the float64 screening (feature order),
+ * as does a species whose rows do not fit.
+ */
+const NARROW_UNIT = 2 ** -23;
+const NARROW_TINY = 2 ** -149;
+const NARROW_LARGEST = 2 ** 50;
+/** A query takes the float32 screening when its |x − μ|² (as summed, within 1 + n0·2^−53 of the true one) is at most this: then every |x_f − μ_f| < 2^50, and no feature is NaN or infinite. */
+const NARROW_QUERY_NORM = 2 ** 98;
 
 /** One species' prepared representatives. */
 export interface SpeciesSearch {
@@ -54,7 +96,9 @@ export interface SpeciesSearch {
   /** Basis size actually used (≤ SEARCH_BASIS; smaller for few or rank-deficient rows, or n0 < basis). */
   d: number;
   mean: Float64Array;
-  /** d × n0, row-major: the orthonormal basis vectors. */
+  /** The basis's features: the first `width` of the screening order (min(n0, SEARCH_FEATURES)). */
+  width: number;
+  /** d × width, row-major: the orthonormal basis vectors, on the features order[0…width) (zero on the others). */
   basis: Float64Array;
   /** d × rows, row-major: the representatives' coordinates Qᵀ(p − μ), one basis direction per row. */
   coordsT: Float64Array;
@@ -130,13 +174,62 @@ function orthonormaliseRows(v: Float64Array, count: number, n0: number, tiny: nu
   return true;
 }
 
+/** What the preparation proper gives for rows of n0 features (prepareSpeciesJs, the kernel's prepareSpecies). */
+interface PreparedCore {
+  d: number;
+  mean: Float64Array;
+  basis: Float64Array;
+  coordsT: Float64Array;
+  residual: Float64Array;
+}
+
 /**
- * One species' prepared representatives (the rows `rows` of `reps`). The WebAssembly kernel
+ * One species' prepared search (the rows `rows` of `reps`): its mean, its screening order, and the basis of the
+ * preparation proper (`core`: prepareSpeciesJs or the kernel's) made from the first `width` features of the
+ * screening order (those of largest spread; the basis vectors are zero on the others, still orthonormal, so the
+ * bound holds), with each representative's residual norm over all n0 features. The same bits either way.
+ */
+function prepareSpecies(reps: Float64Array, rows: Int32Array, n0: number, features: number, core: (compact: Float64Array, m: number, width: number) => PreparedCore | null): SpeciesSearch | null {
+  const m = rows.length;
+  const mean = new Float64Array(n0);
+  for (let k = 0; k < m; k++) {
+    const o = rows[k] * n0;
+    for (let f = 0; f < n0; f++) mean[f] += reps[o + f];
+  }
+  for (let f = 0; f < n0; f++) mean[f] /= m;
+  const order = screeningOrder(reps, rows, mean, n0);
+  const width = Math.min(n0, features);
+  const compact = new Float64Array(m * width);
+  for (let k = 0; k < m; k++) {
+    const o = rows[k] * n0;
+    for (let i = 0; i < width; i++) compact[k * width + i] = reps[o + order[i]];
+  }
+  const prepared = core(compact, m, width);
+  if (!prepared) return null;
+  const { d, basis, coordsT } = prepared;
+  const residual = prepared.residual;
+  if (width < n0) {
+    // the residual's part outside the basis's features, summed explicitly
+    for (let k = 0; k < m; k++) {
+      const o = rows[k] * n0;
+      let rest = 0;
+      for (let i = width; i < n0; i++) {
+        const v = reps[o + order[i]] - mean[order[i]];
+        rest += v * v;
+      }
+      residual[k] = Math.sqrt(residual[k] * residual[k] + rest);
+    }
+  }
+  return { rows, d, width, mean, basis, coordsT, residual, order };
+}
+
+/**
+ * The preparation proper of rows of n0 features (the rows `rows` of `reps`). The WebAssembly kernel
  * (assembly/prediction-kernels.ts prepareSpecies, through wasmPrepare) does the very same operations in the same
  * order, so both give the same bits: each dot product as dotRows (four partial sums), each row update element by
  * element, each sum of rows in ascending row order.
  */
-function prepareSpeciesJs(reps: Float64Array, rows: Int32Array, n0: number, maxBasis: number, steps: number): SpeciesSearch {
+function prepareSpeciesJs(reps: Float64Array, rows: Int32Array, n0: number, maxBasis: number, steps: number): PreparedCore {
   const m = rows.length;
   const mean = new Float64Array(n0);
   for (let k = 0; k < m; k++) {
@@ -217,7 +310,7 @@ function prepareSpeciesJs(reps: Float64Array, rows: Int32Array, n0: number, maxB
     }
     residual[k] = Math.sqrt(dotRows(r, 0, r, 0, n0));
   }
-  return { rows, d, mean, basis, coordsT, residual, order: screeningOrder(reps, rows, mean, n0) };
+  return { d, mean, basis, coordsT, residual };
 }
 
 /** Prepares the search over representatives `reps` (rows of n0) with species `repSpecies`. */
@@ -225,15 +318,17 @@ export function prepareNearestSearch(
   reps: Float64Array,
   repSpecies: Int32Array,
   n0: number,
-  options: { basis?: number; steps?: number } = {},
+  options: { basis?: number; steps?: number; features?: number } = {},
 ): NearestSearch {
   const maxBasis = options.basis ?? SEARCH_BASIS;
   const steps = options.steps ?? SUBSPACE_STEPS;
+  const features = options.features ?? SEARCH_FEATURES;
   const k = predictKernels();
-  const prepared = k ? wasmPrepare(k, reps, repSpecies, n0, maxBasis, steps) : null;
-  if (prepared) return { n0, reps, species: prepared };
   const species = new Map<number, SpeciesSearch>();
-  for (const [s, rows] of rowsBySpecies(repSpecies)) species.set(s, prepareSpeciesJs(reps, rows, n0, maxBasis, steps));
+  for (const [s, rows] of rowsBySpecies(repSpecies)) {
+    const wasm = k ? prepareSpecies(reps, rows, n0, features, (compact, m, width) => wasmPrepare(k, compact, m, width, maxBasis, steps)) : null;
+    species.set(s, wasm ?? (prepareSpecies(reps, rows, n0, features, (compact, m, width) => prepareSpeciesJs(compact, Int32Array.from({ length: m }, (_, i) => i), width, maxBasis, steps)) as SpeciesSearch));
+  }
   return { n0, reps, species };
 }
 
@@ -290,9 +385,10 @@ export function nearestAllOf(owner: { n0: number; species: Int32Array; p: Float6
 let scratchBound = new Float64Array(0);
 let scratchCoords = new Float64Array(0);
 let scratchCentred = new Float64Array(0);
+let scratchWidth = new Float64Array(0);
 const scratchNorms = new Float64Array(4);
 const scratchRows = new Int32Array(4);
-let scratchOrdered = new Float64Array(0);
+let scratchNarrow = new Float32Array(0);
 let scratchKept = new Int32Array(0);
 let scratchKeptSum = new Float64Array(0);
 
@@ -303,7 +399,8 @@ let scratchKeptSum = new Float64Array(0);
  * fewer than four repeats its first row (computed and ignored).
  */
 function project(sp: SpeciesSearch, n0: number, a: Float64Array, rowsOf: Int32Array, count: number, xc: Float64Array, q: Float64Array, xx: Float64Array): void {
-  const { d, mean, basis } = sp;
+  const { d, mean, basis, width, order } = sp;
+  const xk = scratchWidth;
   for (let g = 0; g < 4; g++) {
     const oa = rowsOf[g < count ? g : 0] * n0;
     const ox = g * n0;
@@ -314,15 +411,17 @@ function project(sp: SpeciesSearch, n0: number, a: Float64Array, rowsOf: Int32Ar
       s += v * v;
     }
     xx[g] = s;
+    // the basis's features of the centred query
+    for (let i = 0; i < width; i++) xk[g * width + i] = xc[ox + order[i]];
   }
-  const x1 = n0, x2 = 2 * n0, x3 = 3 * n0;
+  const x1 = width, x2 = 2 * width, x3 = 3 * width;
   let j = 0;
   for (; j + 1 < d; j += 2) {
-    const b0 = j * n0, b1 = b0 + n0;
+    const b0 = j * width, b1 = b0 + width;
     let s00 = 0, s01 = 0, s10 = 0, s11 = 0, s20 = 0, s21 = 0, s30 = 0, s31 = 0;
-    for (let f = 0; f < n0; f++) {
+    for (let f = 0; f < width; f++) {
       const u = basis[b0 + f], v = basis[b1 + f];
-      const y0 = xc[f], y1 = xc[x1 + f], y2 = xc[x2 + f], y3 = xc[x3 + f];
+      const y0 = xk[f], y1 = xk[x1 + f], y2 = xk[x2 + f], y3 = xk[x3 + f];
       s00 += u * y0;
       s01 += v * y0;
       s10 += u * y1;
@@ -342,14 +441,14 @@ function project(sp: SpeciesSearch, n0: number, a: Float64Array, rowsOf: Int32Ar
     q[3 * d + j + 1] = s31;
   }
   if (j < d) {
-    const b0 = j * n0;
+    const b0 = j * width;
     let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
-    for (let f = 0; f < n0; f++) {
+    for (let f = 0; f < width; f++) {
       const u = basis[b0 + f];
-      s0 += u * xc[f];
-      s1 += u * xc[x1 + f];
-      s2 += u * xc[x2 + f];
-      s3 += u * xc[x3 + f];
+      s0 += u * xk[f];
+      s1 += u * xk[x1 + f];
+      s2 += u * xk[x2 + f];
+      s3 += u * xk[x3 + f];
     }
     q[j] = s0;
     q[d + j] = s1;
@@ -359,12 +458,12 @@ function project(sp: SpeciesSearch, n0: number, a: Float64Array, rowsOf: Int32Ar
 }
 
 /**
- * Σ (x_f − r_f)² of the query `x` and the row at offset `o` of `rows`, both with their features in a species'
- * screening order, in any summation order (four partial sums), checked after every 16 features: the sum so far
- * as soon as it exceeds `limit` (the representative is then ruled out), else the full sum. Adds the features
- * summed to counter.summed.
+ * Σ (x_f − r_f)² of the query row at offset xo of `x` and the row at offset `o` of `rows` (the float64 screening,
+ * used where the float32 one cannot be: in feature order), in any summation order (four partial sums), checked
+ * after every 16 features: the sum so far as soon as it exceeds `limit` (the representative is then ruled out),
+ * else the full sum. Adds the features summed to counter.summed.
  */
-function screen(x: Float64Array, rows: Float64Array, o: number, n0: number, limit: number, counter?: SearchCounter): number {
+function screen(x: Float64Array, xo: number, rows: Float64Array, o: number, n0: number, limit: number, counter?: SearchCounter): number {
   let s0 = 0;
   let s1 = 0;
   let s2 = 0;
@@ -372,10 +471,10 @@ function screen(x: Float64Array, rows: Float64Array, o: number, n0: number, limi
   let f = 0;
   for (; f + 15 < n0; f += 16) {
     for (let g = f; g < f + 16; g += 4) {
-      const d0 = x[g] - rows[o + g];
-      const d1 = x[g + 1] - rows[o + g + 1];
-      const d2 = x[g + 2] - rows[o + g + 2];
-      const d3 = x[g + 3] - rows[o + g + 3];
+      const d0 = x[xo + g] - rows[o + g];
+      const d1 = x[xo + g + 1] - rows[o + g + 1];
+      const d2 = x[xo + g + 2] - rows[o + g + 2];
+      const d3 = x[xo + g + 3] - rows[o + g + 3];
       s0 += d0 * d0;
       s1 += d1 * d1;
       s2 += d2 * d2;
@@ -389,8 +488,77 @@ function screen(x: Float64Array, rows: Float64Array, o: number, n0: number, limi
   }
   let s = s0 + s1 + (s2 + s3);
   for (; f < n0; f++) {
-    const d = x[f] - rows[o + f];
+    const d = x[xo + f] - rows[o + f];
     s += d * d;
+  }
+  if (counter) counter.summed += n0;
+  return s;
+}
+
+const fround = Math.fround;
+
+/**
+ * Σ (x_f − r_f)² in float32 of the float32 query `x` and the float32 row at offset `o` of `rows` (centred, features
+ * in the species' screening order), as the kernel's screen32 sums it, operation for operation (each float32
+ * operation here is the float64 one rounded to float32, which is the correctly rounded float32 result, so the
+ * bits are the kernel's): sixteen lanes, lane i summing the features f ≡ i (mod 16) in order; after every 32
+ * features, and after a last block of 16, the lanes are added as (l_i + l_{i+4}) + (l_{i+8} + l_{i+12}) for
+ * i < 4, then (0 + 1) + (2 + 3), and the sum so far returned as soon as it exceeds `limit`; else the full sum,
+ * the last n0 mod 16 features added to it one by one. Adds the features summed to counter.summed.
+ */
+function screenNarrow(x: Float32Array, rows: Float32Array, o: number, n0: number, limit: number, counter?: SearchCounter): number {
+  let l0 = 0, l1 = 0, l2 = 0, l3 = 0, l4 = 0, l5 = 0, l6 = 0, l7 = 0, l8 = 0, l9 = 0, l10 = 0, l11 = 0, l12 = 0, l13 = 0, l14 = 0, l15 = 0;
+  let d = 0;
+  let s = 0;
+  let f = 0;
+  for (; f + 15 < n0; f += 16) {
+    const r = o + f;
+    d = fround(x[f] - rows[r]);
+    l0 = fround(l0 + fround(d * d));
+    d = fround(x[f + 1] - rows[r + 1]);
+    l1 = fround(l1 + fround(d * d));
+    d = fround(x[f + 2] - rows[r + 2]);
+    l2 = fround(l2 + fround(d * d));
+    d = fround(x[f + 3] - rows[r + 3]);
+    l3 = fround(l3 + fround(d * d));
+    d = fround(x[f + 4] - rows[r + 4]);
+    l4 = fround(l4 + fround(d * d));
+    d = fround(x[f + 5] - rows[r + 5]);
+    l5 = fround(l5 + fround(d * d));
+    d = fround(x[f + 6] - rows[r + 6]);
+    l6 = fround(l6 + fround(d * d));
+    d = fround(x[f + 7] - rows[r + 7]);
+    l7 = fround(l7 + fround(d * d));
+    d = fround(x[f + 8] - rows[r + 8]);
+    l8 = fround(l8 + fround(d * d));
+    d = fround(x[f + 9] - rows[r + 9]);
+    l9 = fround(l9 + fround(d * d));
+    d = fround(x[f + 10] - rows[r + 10]);
+    l10 = fround(l10 + fround(d * d));
+    d = fround(x[f + 11] - rows[r + 11]);
+    l11 = fround(l11 + fround(d * d));
+    d = fround(x[f + 12] - rows[r + 12]);
+    l12 = fround(l12 + fround(d * d));
+    d = fround(x[f + 13] - rows[r + 13]);
+    l13 = fround(l13 + fround(d * d));
+    d = fround(x[f + 14] - rows[r + 14]);
+    l14 = fround(l14 + fround(d * d));
+    d = fround(x[f + 15] - rows[r + 15]);
+    l15 = fround(l15 + fround(d * d));
+    // the kernel looks after each block of 32 and after a last block of 16
+    if ((f & 31) !== 16 && f + 31 < n0) continue;
+    s = fround(
+      fround(fround(fround(l0 + l4) + fround(l8 + l12)) + fround(fround(l1 + l5) + fround(l9 + l13))) +
+        fround(fround(fround(l2 + l6) + fround(l10 + l14)) + fround(fround(l3 + l7) + fround(l11 + l15))),
+    );
+    if (s > limit) {
+      if (counter) counter.summed += f + 16;
+      return s;
+    }
+  }
+  for (; f < n0; f++) {
+    d = fround(x[f] - rows[o + f]);
+    s = fround(s + fround(d * d));
   }
   if (counter) counter.summed += n0;
   return s;
@@ -409,26 +577,58 @@ function exactDistance(a: Float64Array, oa: number, reps: Float64Array, o: numbe
   return s;
 }
 
-/** Each species' representatives with their features in its screening order (rows of n0), made on first use. */
-const orderedRows = new WeakMap<SpeciesSearch, Float64Array>();
+/**
+ * Whether a species' representatives may be screened in float32, and the largest norm of its centred rows: every
+ * centred feature p_f − μ_f finite and at most NARROW_LARGEST in size (then no float32 difference, square or sum
+ * of n0 of them can overflow). Made on first use.
+ */
+interface NarrowInfo {
+  fits: boolean;
+  largest: number;
+}
+const narrowInfos = new WeakMap<SpeciesSearch, NarrowInfo>();
 
-function orderedOf(search: NearestSearch, sp: SpeciesSearch): Float64Array {
-  let rows = orderedRows.get(sp);
-  if (!rows) {
-    rows = new Float64Array(sp.rows.length * search.n0);
-    fillOrdered(search.reps, sp, search.n0, rows);
-    orderedRows.set(sp, rows);
+function narrowInfo(reps: Float64Array, sp: SpeciesSearch, n0: number): NarrowInfo {
+  let info = narrowInfos.get(sp);
+  if (!info) {
+    let fits = true;
+    let largest = 0;
+    for (let k = 0; k < sp.rows.length; k++) {
+      const o = sp.rows[k] * n0;
+      let ss = 0;
+      for (let f = 0; f < n0; f++) {
+        const v = reps[o + f] - sp.mean[f];
+        if (!(Math.abs(v) <= NARROW_LARGEST)) fits = false;
+        ss += v * v;
+      }
+      largest = Math.max(largest, Math.sqrt(ss));
+    }
+    info = { fits, largest };
+    narrowInfos.set(sp, info);
+  }
+  return info;
+}
+
+/** Each species' centred representatives in float32 with their features in its screening order (rows of n0), made on first use; null when they do not fit (narrowInfo). */
+const narrowRows = new WeakMap<SpeciesSearch, Float32Array | null>();
+
+function narrowRowsOf(search: NearestSearch, sp: SpeciesSearch): Float32Array | null {
+  let rows = narrowRows.get(sp);
+  if (rows === undefined) {
+    rows = narrowInfo(search.reps, sp, search.n0).fits ? new Float32Array(sp.rows.length * search.n0) : null;
+    if (rows) fillNarrow(search.reps, sp, search.n0, rows);
+    narrowRows.set(sp, rows);
   }
   return rows;
 }
 
-/** Writes the representatives of `sp`, features in its screening order, into `out` (rows of n0). */
-function fillOrdered(reps: Float64Array, sp: SpeciesSearch, n0: number, out: Float64Array): void {
-  const { rows, order } = sp;
+/** Writes the centred representatives of `sp` rounded to float32, features in its screening order, into `out` (rows of n0). */
+function fillNarrow(reps: Float64Array, sp: SpeciesSearch, n0: number, out: Float32Array): void {
+  const { rows, order, mean } = sp;
   for (let k = 0; k < rows.length; k++) {
     const from = rows[k] * n0;
     const to = k * n0;
-    for (let i = 0; i < n0; i++) out[to + i] = reps[from + order[i]];
+    for (let i = 0; i < n0; i++) out[to + i] = reps[from + order[i]] - mean[order[i]];
   }
 }
 
@@ -449,6 +649,32 @@ function screeningOrder(reps: Float64Array, rows: Int32Array, mean: Float64Array
   return Int32Array.from({ length: n0 }, (_, f) => f).sort((x, y) => spread[y] - spread[x] || x - y);
 }
 
+/** The terms of limitNarrow and upperNarrow that depend on n0 only (narrow: (1 − γ)(1 − u)³, wide: (1 + γ)(1 + u)³, tiny: (1 + γ)·n0·η). */
+function narrowTerms(n0: number): { wide: number; narrow: number; tiny: number } {
+  const g = (n0 * NARROW_UNIT) / (1 - n0 * NARROW_UNIT);
+  return {
+    wide: (1 + g) * ((1 + NARROW_UNIT) * (1 + NARROW_UNIT) * (1 + NARROW_UNIT)),
+    narrow: (1 - g) * ((1 - NARROW_UNIT) * (1 - NARROW_UNIT) * (1 - NARROW_UNIT)),
+    tiny: (1 + g) * n0 * NARROW_TINY,
+  };
+}
+
+/**
+ * The limit a float32 screened sum must pass so that the representative's exact squared distance passes the
+ * float64 limit `limit` (see the top of this file): (√limit + e)²·(1 + γ)(1 + u)³ + (1 + γ)·n0·η, with e the
+ * query's rounding term. The kernel's limitNarrow does the same operations.
+ */
+function limitNarrow(limit: number, e: number, wide: number, tiny: number): number {
+  const a = Math.sqrt(limit) + e;
+  return wide * (a * a) + tiny;
+}
+
+/** An upper bound on the exact squared distance whose float32 screened sum (in full) is s: (√((s + tiny)/narrow) + e)². */
+function upperNarrow(s: number, e: number, narrow: number, tiny: number): number {
+  const a = Math.sqrt((s + tiny) / narrow) + e;
+  return a * a;
+}
+
 /** The margin a screened sum or a bound must pass to rule a representative out, given the smallest sum t so far. */
 function limitOf(t: number): number {
   return t + MARGIN_RELATIVE * t + MARGIN_ABSOLUTE;
@@ -459,17 +685,22 @@ function limitOf(t: number): number {
  * squared centred norm xx (from project). Three steps, the same in the kernel (assembly/prediction-kernels.ts
  * candidates and searchSpecies):
  *   1. the lower bound of every representative (see the top of this file);
- *   2. screening: the representative of the smallest bound, then every one its bound does not rule out, summed in
- *      the species' screening order (screen), each against the smallest screened sum t so far, and left as soon
- *      as its sum passes t's margin. A screened sum and the exact one are sums of the very same terms (x_f − p_f)²
- *      in two orders; each is within n0·ε (≈ 1e-13) relative of the true sum, so a sum that passes t by the margin
- *      (1e-8 relative) belongs to a representative strictly farther than the one t came from, which is never
- *      the nearest, nor tied with it;
- *   3. the exact distance, in feature order as nearestDistance sums it, of every screened representative whose sum
- *      is within t's margin (usually one): their smallest is the minimum of the plain scan, bit for bit.
+ *   2. screening: the representative of the smallest bound, then every one its bound does not rule out, summed
+ *      (screenNarrow: float32, centred, in the species' screening order; screen: float64 in feature order where
+ *      the query or the rows do not fit float32), each against the smallest distance t so far, and left as soon
+ *      as its sum passes t's margin. In float64, t is the smallest screened sum: a screened sum and the exact one
+ *      are sums of the very same terms (x_f − p_f)² in two orders, each within n0·ε (≈ 1e-13) relative of the
+ *      true sum, so a sum that passes t by the margin limitOf(t) (1e-8 relative) belongs to a representative
+ *      strictly farther than the one t came from, which is never the nearest, nor tied with it. In float32, t is
+ *      the smallest upper bound upperNarrow of a full screened sum (at least the true squared distance of the
+ *      representative it came from), and a sum passing limitNarrow(limitOf(t)) proves the true distance passes
+ *      limitOf(t) (see NARROW_UNIT): the same conclusion;
+ *   3. the exact distance, in float64 and in feature order as nearestDistance sums it, of every screened
+ *      representative whose sum is within t's margin (usually one): their smallest is the minimum of the plain
+ *      scan, bit for bit.
  * A NaN bound or sum rules nothing out (its exact distance, NaN, never wins, as in the plain scan).
  */
-function nearestOf(search: NearestSearch, sp: SpeciesSearch, a: Float64Array, oa: number, q: Float64Array, qo: number, xx: number, counter?: SearchCounter): number {
+function nearestOf(search: NearestSearch, sp: SpeciesSearch, a: Float64Array, oa: number, xc: Float64Array, xo: number, q: Float64Array, qo: number, xx: number, counter?: SearchCounter): number {
   const { n0, reps } = search;
   const { rows, d, coordsT, residual, order } = sp;
   const m = rows.length;
@@ -512,10 +743,14 @@ function nearestOf(search: NearestSearch, sp: SpeciesSearch, a: Float64Array, oa
       first = k;
     }
   }
-  // the query in the screening order
-  const x = scratchOrdered;
-  for (let i = 0; i < n0; i++) x[i] = a[oa + order[i]];
-  const ordered = orderedOf(search, sp);
+  // float32 screening (the centred query in the screening order, rounded) when the species' rows allow it and the
+  // query's centred features are finite and not huge; else float64 in feature order
+  const narrow = narrowRowsOf(search, sp);
+  const xn = scratchNarrow;
+  const narrowQuery = narrow !== null && xx <= NARROW_QUERY_NORM;
+  if (narrow && narrowQuery) for (let i = 0; i < n0; i++) xn[i] = xc[xo + order[i]];
+  const { wide, narrow: shrink, tiny } = narrowTerms(n0);
+  const e = NARROW_UNIT * (Math.sqrt(xx) + narrowInfo(reps, sp, n0).largest) + 2 * Math.sqrt(n0) * NARROW_TINY;
   const kept = scratchKept;
   const keptSum = scratchKeptSum;
   let nk = 0;
@@ -523,28 +758,34 @@ function nearestOf(search: NearestSearch, sp: SpeciesSearch, a: Float64Array, oa
   let t = Infinity;
   if (first >= 0) {
     looked++;
-    t = screen(x, ordered, first * n0, n0, Infinity, counter);
+    const s = narrowQuery ? screenNarrow(xn, narrow, first * n0, n0, Infinity, counter) : screen(a, oa, reps, rows[first] * n0, n0, Infinity, counter);
+    t = narrowQuery ? upperNarrow(s, e, shrink, tiny) : s;
     kept[0] = first;
-    keptSum[0] = t;
+    keptSum[0] = s;
     nk = 1;
   }
+  let limit = limitOf(t);
+  let cut = narrowQuery ? limitNarrow(limit, e, wide, tiny) : limit;
   for (let k = 0; k < m; k++) {
-    const limit = limitOf(t);
     if (k === first || bound[k] > limit) continue;
     looked++;
-    const s = screen(x, ordered, k * n0, n0, limit, counter);
-    if (s > limit) continue;
+    const s = narrowQuery ? screenNarrow(xn, narrow, k * n0, n0, cut, counter) : screen(a, oa, reps, rows[k] * n0, n0, cut, counter);
+    if (s > cut) continue;
     kept[nk] = k;
     keptSum[nk] = s;
     nk++;
-    // the smallest screened sum (a NaN one, from a representative with NaN features, is passed over)
-    if (s < t || (Number.isNaN(t) && !Number.isNaN(s))) t = s;
+    // the smallest distance (a NaN sum, from a representative with NaN features, is passed over)
+    const u = narrowQuery ? upperNarrow(s, e, shrink, tiny) : s;
+    if (u < t || (Number.isNaN(t) && !Number.isNaN(u))) {
+      t = u;
+      limit = limitOf(t);
+      cut = narrowQuery ? limitNarrow(limit, e, wide, tiny) : limit;
+    }
   }
-  const limit = limitOf(t);
   let best = Infinity;
   let exact = 0;
   for (let i = 0; i < nk; i++) {
-    if (keptSum[i] > limit) continue;
+    if (keptSum[i] > cut) continue;
     exact++;
     const s = exactDistance(a, oa, reps, rows[kept[i]] * n0, n0);
     if (s < best) best = s;
@@ -568,7 +809,7 @@ export function searchNearest(search: NearestSearch, a: Float64Array, i: number,
   ensureScratch(search, sp);
   scratchRows[0] = i;
   project(sp, search.n0, a, scratchRows, 1, scratchCentred, scratchCoords, scratchNorms);
-  return nearestOf(search, sp, a, i * search.n0, scratchCoords, 0, scratchNorms[0], counter);
+  return nearestOf(search, sp, a, i * search.n0, scratchCentred, 0, scratchCoords, 0, scratchNorms[0], counter);
 }
 
 /**
@@ -589,7 +830,7 @@ export function searchNearestAll(search: NearestSearch, a: Float64Array, count: 
       project(sp, n0, a, scratchRows, filled, scratchCentred, scratchCoords, scratchNorms);
       for (let g = 0; g < filled; g++) {
         const e = scratchRows[g];
-        out[e] = nearestOf(search, sp, a, e * n0, scratchCoords, g * sp.d, scratchNorms[g], counter);
+        out[e] = nearestOf(search, sp, a, e * n0, scratchCentred, g * n0, scratchCoords, g * sp.d, scratchNorms[g], counter);
       }
       filled = 0;
     };
@@ -608,9 +849,10 @@ function ensureScratch(search: NearestSearch, sp: SpeciesSearch): void {
     scratchKept = new Int32Array(sp.rows.length);
     scratchKeptSum = new Float64Array(sp.rows.length);
   }
-  if (scratchOrdered.length < search.n0) scratchOrdered = new Float64Array(search.n0);
+  if (scratchNarrow.length < search.n0) scratchNarrow = new Float32Array(search.n0);
   if (scratchCoords.length < 4 * sp.d) scratchCoords = new Float64Array(4 * sp.d);
   if (scratchCentred.length < 4 * search.n0) scratchCentred = new Float64Array(4 * search.n0);
+  if (scratchWidth.length < 4 * sp.width) scratchWidth = new Float64Array(4 * sp.width);
 }
 
 /** Queries copied into the kernel's memory at a time (a 384-atom frame in one or two passes, bounded scratch). */
@@ -704,6 +946,7 @@ interface SearchLayout {
   /** The largest representative count and basis size of a species (the scratch is sized for them). */
   maxRows: number;
   maxBasis: number;
+  maxWidth: number;
 }
 const layouts = new WeakMap<NearestSearch, SearchLayout>();
 
@@ -715,16 +958,19 @@ function searchLayout(search: NearestSearch): SearchLayout {
   const record = new Map<number, number>();
   let maxRows = 0;
   let maxBasis = 0;
+  let maxWidth = 0;
   for (const [s, sp] of search.species) {
     const m = sp.rows.length;
     record.set(s, p);
     // record, mean, basis (d × n0), coordinates (d × m), residual norms (m), screening order (n0 i32), the
-    // representatives in that order (m × n0)
-    p += 48 + align16(8 * n0) + align16(8 * sp.d * n0) + align16(8 * sp.d * m) + align16(8 * m) + align16(4 * n0) + align16(8 * m * n0);
+    // centred representatives in float32 in that order (m × n0 f32, when they fit)
+    const narrow = narrowInfo(search.reps, sp, n0).fits;
+    p += 64 + align16(8 * n0) + align16(8 * sp.d * sp.width) + align16(8 * sp.d * m) + align16(8 * m) + align16(4 * n0) + (narrow ? align16(4 * m * n0) : 0);
     maxRows = Math.max(maxRows, m);
     maxBasis = Math.max(maxBasis, sp.d);
+    maxWidth = Math.max(maxWidth, sp.width);
   }
-  l = { bytes: p, record, maxRows, maxBasis };
+  l = { bytes: p, record, maxRows, maxBasis, maxWidth };
   layouts.set(search, l);
   return l;
 }
@@ -738,19 +984,23 @@ function writeSearch(k: PredictKernels, search: NearestSearch, at: number): void
     const m = sp.rows.length;
     const d = sp.d;
     const base = at + (record.get(s) as number);
-    const mean = base + 48;
+    const mean = base + 64;
     const basis = mean + align16(8 * n0);
-    const coordsT = basis + align16(8 * d * n0);
+    const coordsT = basis + align16(8 * d * sp.width);
     const residual = coordsT + align16(8 * d * m);
     const order = residual + align16(8 * m);
     const ordered = order + align16(4 * n0);
-    new Int32Array(buffer, base, 10).set([m, d, n0, 0, mean, basis, coordsT, residual, order, ordered]);
-    k.module.f64(mean, n0).set(sp.mean);
-    k.module.f64(basis, d * n0).set(sp.basis);
+    const narrow = narrowInfo(search.reps, sp, n0);
+    new Int32Array(buffer, base, 10).set([m, d, n0, narrow.fits ? 1 : 0, mean, basis, coordsT, residual, order, ordered]);
+    new Float64Array(buffer, base + 40, 1)[0] = narrow.largest;
+    new Int32Array(buffer, base + 48, 1)[0] = sp.width;
+    const meanOrdered = k.module.f64(mean, n0);
+    for (let i = 0; i < n0; i++) meanOrdered[i] = sp.mean[sp.order[i]];
+    k.module.f64(basis, d * sp.width).set(sp.basis);
     k.module.f64(coordsT, d * m).set(sp.coordsT);
     k.module.f64(residual, m).set(sp.residual);
     new Int32Array(buffer, order, n0).set(sp.order);
-    fillOrdered(search.reps, sp, n0, k.module.f64(ordered, m * n0));
+    if (narrow.fits) fillNarrow(search.reps, sp, n0, new Float32Array(buffer, ordered, m * n0));
   }
 }
 
@@ -817,18 +1067,20 @@ function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array
   const layout = searchLayout(search);
   const reps = repsLayout(search.reps, n0, search, () => new Map([...search.species].map(([s, sp]) => [s, sp.rows])));
   if (!reps) return false;
-  // scratch record (9 addresses), bound, centred queries, coordinates, squared norms, statistics (3), the query in
-  // screening order, the kept records, the pending pairs and their sums (assembly searchSpecies)
+  // scratch record (10 addresses), bound, the four centred queries (float32, screening order), coordinates, squared
+  // norms, statistics (3), an unused slot, the kept records, the pending pairs and their sums, the basis's features
+  // of the four centred queries (assembly searchSpecies)
   const m = layout.maxRows;
   const bound = 48;
   const xc = bound + align16(8 * m);
-  const q = xc + 8 * 4 * n0;
+  const q = xc + align16(4 * 4 * n0);
   const xx = q + align16(8 * 4 * layout.maxBasis);
   const stats = xx + 32;
-  const xp = stats + 32;
-  const kept = xp + align16(8 * n0);
+  const xp = stats + 32; // the unused slot: no bytes
+  const kept = xp;
   const pending = kept + 16 * m;
   const pendingSums = pending + 8 * 4 * m;
+  const xk = pendingSums + align16(8 * (4 * m + 3));
   let statsView: Float64Array | null = null;
   const ok = wasmQueries(
     k,
@@ -839,10 +1091,10 @@ function wasmSearchAll(k: PredictKernels, search: NearestSearch, a: Float64Array
     out,
     search.species,
     [repsRegion(search.reps, n0, reps), { name: residentName('search', search), key: search, bytes: layout.bytes, fill: (_m, at) => writeSearch(k, search, at) }],
-    pendingSums + align16(8 * (4 * m + 3)),
+    xk + 8 * 4 * layout.maxWidth,
     ([repsAt, searchAt], scr, s, rowsAt, idxAt, nq, outAt) => {
       if (!statsView) {
-        new Int32Array(k.module.f64(scr, 0).buffer, scr, 9).set([bound, xc, q, xx, stats, xp, kept, pending, pendingSums].map((o) => scr + o));
+        new Int32Array(k.module.f64(scr, 0).buffer, scr, 10).set([bound, xc, q, xx, stats, xp, kept, pending, pendingSums, xk].map((o) => scr + o));
         statsView = k.module.f64(scr + stats, 3);
         statsView.fill(0);
       }
@@ -878,9 +1130,9 @@ function wasmScanAll(owner: { n0: number; species: Int32Array; p: Float64Array }
   }, rowsKey, SCAN_CHUNK);
 }
 
-/** Scratch of the preparation kernel: the record of its nine arrays' addresses, then the arrays (byte offsets). */
+/** Scratch of the preparation kernel: the record of its nine arrays' addresses, the arrays, then the rows (byte offsets). */
 function prepareLayout(m: number, n0: number, limit: number): { offsets: number[]; bytes: number } {
-  const sizes = [n0, m * n0, m, m * limit, limit * n0, limit * n0, n0, limit * m, m];
+  const sizes = [n0, m * n0, m, m * limit, limit * n0, limit * n0, n0, limit * m, m, m * n0];
   const offsets: number[] = [];
   let p = 48;
   for (const n of sizes) {
@@ -894,32 +1146,19 @@ function prepareLayout(m: number, n0: number, limit: number): { offsets: number[
 const PREPARE_SCRATCH = {};
 
 /**
- * The prepared search of every species through the WebAssembly kernel (assembly prepareSpecies: the same bits as
- * prepareSpeciesJs), with the representatives resident as the scan and the search keep them; null when the
- * kernel's memory cannot hold them.
+ * The preparation proper of m rows of n0 features (`rows`, contiguous) through the WebAssembly kernel (assembly
+ * prepareSpecies: the same bits as prepareSpeciesJs); null when the kernel's memory cannot hold them.
  */
-function wasmPrepare(k: PredictKernels, reps: Float64Array, repSpecies: Int32Array, n0: number, maxBasis: number, steps: number): Map<number, SpeciesSearch> | null {
-  const bySpecies = rowsBySpecies(repSpecies);
-  // the resident layout is kept per representatives array: it must group them as these species do
-  const layout = repsLayout(reps, n0, repSpecies, () => bySpecies);
-  if (!layout) return null;
-  const limitOf = (m: number) => basisLimit(m, n0, maxBasis);
-  let bytes = 0;
-  for (const { rows } of layout.species.values()) bytes = Math.max(bytes, prepareLayout(rows.length, n0, limitOf(rows.length)).bytes);
-  const species = new Map<number, SpeciesSearch>();
-  for (const [s, { rows, offset }] of layout.species) {
-    const at = k.arena.acquire([repsRegion(reps, n0, layout), { name: 'prepare-scratch', key: PREPARE_SCRATCH, bytes }]);
-    if (!at) return null;
-    const [repsAt, scr] = at;
-    const m = rows.length;
-    const limit = limitOf(m);
-    const { offsets } = prepareLayout(m, n0, limit);
-    new Int32Array(k.module.f64(scr, 0).buffer, scr, offsets.length).set(offsets.map((o) => scr + o));
-    const d = k.prepareSpecies(repsAt + offset, m, n0, limit, steps, scr);
-    // fresh views after the call (a reservation may have grown the memory); copies, not views, are kept
-    const read = (slot: number, length: number) => k.module.f64(scr + offsets[slot], length).slice();
-    const mean = read(0, n0);
-    species.set(s, { rows, d, mean, basis: read(4, d * n0), coordsT: read(7, d * m), residual: read(8, m), order: screeningOrder(reps, rows, mean, n0) });
-  }
-  return species;
+function wasmPrepare(k: PredictKernels, rows: Float64Array, m: number, n0: number, maxBasis: number, steps: number): PreparedCore | null {
+  const limit = basisLimit(m, n0, maxBasis);
+  const { offsets, bytes } = prepareLayout(m, n0, limit);
+  const at = k.arena.acquire([{ name: 'prepare-scratch', key: PREPARE_SCRATCH, bytes }]);
+  if (!at) return null;
+  const [scr] = at;
+  new Int32Array(k.module.f64(scr, 0).buffer, scr, 9).set(offsets.slice(0, 9).map((o) => scr + o));
+  k.module.f64(scr + offsets[9], m * n0).set(rows);
+  const d = k.prepareSpecies(scr + offsets[9], m, n0, limit, steps, scr);
+  // fresh views after the call (a reservation may have grown the memory); copies, not views, are kept
+  const read = (slot: number, length: number) => k.module.f64(scr + offsets[slot], length).slice();
+  return { d, mean: read(0, n0), basis: read(4, d * n0), coordsT: read(7, d * m), residual: read(8, m) };
 }

@@ -332,6 +332,58 @@ describe('bounded nearest-representative search', () => {
     expectBatchSameAsPlain(reps, new Int32Array(m), n0, queries, new Int32Array(6));
   });
 
+  it('gives the plain scan’s numbers where the float32 screening cannot tell rows apart or falls back (ties below float32 resolution, tiny and large scales, non-finite queries)', () => {
+    const rng = makeRng(93);
+    // n0 around the screening's blocks of 16 and 32 (57: its last features added one by one)
+    for (const n0 of [5, 16, 31, 32, 48, 57]) expectFloat32Cases(rng, n0);
+  });
+
+  /** The float32 screening's cases for row length n0 (see the test above). */
+  function expectFloat32Cases(rng: Rng, n0: number): void {
+    const perSpecies = 48;
+    const reps = new Float64Array(3 * perSpecies * n0);
+    const repSpecies = new Int32Array(3 * perSpecies);
+    // species 0: unit rows, a third of them near-copies of another row that differ by 1e-9 relative (below float32's
+    // 6e-8 resolution: the float32 sums cannot rank them, the exact float64 sums must); species 1: rows of size
+    // 1e-25 (their float32 squares underflow to zero); species 2: rows of size 1e12 (large, still within float32)
+    const scales = [1, 1e-25, 1e12];
+    for (let s = 0; s < 3; s++) {
+      for (let k = 0; k < perSpecies; k++) {
+        const r = s * perSpecies + k;
+        repSpecies[r] = s;
+        if (k % 3 === 2) for (let f = 0; f < n0; f++) reps[r * n0 + f] = reps[(r - 1) * n0 + f] * (1 + 1e-9 * rng.normal());
+        else {
+          for (let f = 0; f < n0; f++) reps[r * n0 + f] = rng.normal();
+          normaliseRow(reps, r, n0);
+          for (let f = 0; f < n0; f++) reps[r * n0 + f] *= scales[s];
+        }
+      }
+    }
+    const rows: number[][] = [];
+    const species: number[] = [];
+    for (let s = 0; s < 3; s++) {
+      for (let i = 0; i < 16; i++) {
+        const from = s * perSpecies + 3 * (i % 16) + 1; // the first of a near-tied pair
+        // a copy of it, or a copy moved by 1e-10 or 1e-3 relative (its twin is then as near to float32 precision)
+        const shift = [0, 1e-10, 1e-3, 1e-3][i % 4];
+        rows.push(Array.from({ length: n0 }, (_, f) => reps[from * n0 + f] * (1 + shift * rng.normal())));
+        species.push(s);
+      }
+    }
+    // queries against species 0 whose float32 screening must not be used or must stay safe: a NaN and an infinite
+    // feature, all features 1e20 (|x − μ|² beyond 2^98), and one feature 1e13 (float32 still holds it)
+    for (const [f0, v] of [[3, NaN], [5, Infinity], [-1, 1e20], [7, 1e13]] as const) {
+      rows.push(Array.from({ length: n0 }, (_, f) => (f0 < 0 ? v * (1 + rng.uniform()) : f === f0 % n0 ? v : reps[n0 + f])));
+      species.push(0);
+    }
+    const queries = Float64Array.from(rows.flat());
+    const [wasm, js] = expectBatchSameAsPlain(reps, repSpecies, n0, queries, Int32Array.from(species));
+    // the kernel and its JavaScript twin screen in the same float32 operations: the same work
+    expect(wasm.screened).toBe(js.screened);
+    expect(wasm.exact).toBe(js.exact);
+    expect(wasm.summed).toBe(js.summed);
+  }
+
   it('runs through the WebAssembly kernels here, prepared and plain, at the size prediction uses (odd n0, hundreds of rows, more queries than one pass holds)', () => {
     expect(predictKernels()).not.toBeNull();
     const rng = makeRng(41);
@@ -518,7 +570,7 @@ describe('bounded nearest-representative search', () => {
     for (let i = 0; i < sp.d; i++) {
       for (let j = 0; j < sp.d; j++) {
         let dot = 0;
-        for (let f = 0; f < n0; f++) dot += sp.basis[i * n0 + f] * sp.basis[j * n0 + f];
+        for (let f = 0; f < sp.width; f++) dot += sp.basis[i * sp.width + f] * sp.basis[j * sp.width + f];
         expect(Math.abs(dot - (i === j ? 1 : 0))).toBeLessThan(1e-13); // round-off of two-pass Gram–Schmidt
       }
     }

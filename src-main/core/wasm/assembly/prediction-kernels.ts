@@ -4,8 +4,8 @@
 // linearScalarPass); the λ > 0 read-out is in descriptors.ts, beside the expansion. Compiled by
 // scripts/build-wasm.mjs into ../generated/prediction-kernels.ts; loaded through ../prediction-kernels.ts. Every number a caller
 // keeps is summed in the same order as in its JavaScript twin (vectorised across independent outputs, never
-// within one sum), so the results are the same bits; only the search's lower bounds, which merely decide what to
-// skip (with a margin far above round-off), are summed in another order.
+// within one sum), so the results are the same bits; only the search's lower bounds and its screening sums
+// (float32), which merely decide what to skip (with a margin above their round-off), are summed otherwise.
 
 /** Where the caller's buffers may start: the first byte after this module's static data. */
 export function heapBase(): usize {
@@ -15,10 +15,14 @@ export function heapBase(): usize {
 // ---------------------------------------------------------------------------------------------------------------
 // Nearest-representative search
 
-// Pruning margins and the allowance on ρ_x (the same constants as nearest-search.ts, which explains them).
+// Pruning margins, the allowance on ρ_x and the float32 screening's terms (the same constants as
+// nearest-search.ts, which explains them).
 const MARGIN_RELATIVE: f64 = 1e-8;
 const MARGIN_ABSOLUTE: f64 = 1e-10;
 const RHO_ALLOWANCE: f64 = 1e-10;
+const NARROW_UNIT: f64 = 1.0 / 8388608.0; // 2^-23
+const NARROW_TINY: f64 = 1.401298464324817e-45; // 2^-149
+const NARROW_QUERY_NORM: f64 = 316912650057057350374175801344.0; // 2^98
 
 /** Horizontal sum of a lane pair (for numbers whose summation order is free). */
 // @ts-ignore: decorator
@@ -38,30 +42,6 @@ function dot(x: usize, y: usize, n0: i32): f64 {
   }
   let s = hsum(f64x2.add(s0, s1));
   for (; f < n0; f++) s += f64.load(x + (<usize>f << 3)) * f64.load(y + (<usize>f << 3));
-  return s;
-}
-
-/** o = x − mean (n0 numbers); returns |o|² (any summation order: bounds only). */
-function centre(x: usize, mean: usize, o: usize, n0: i32): f64 {
-  let s0 = f64x2.splat(0);
-  let s1 = f64x2.splat(0);
-  let f = 0;
-  for (; f + 3 < n0; f += 4) {
-    const b = <usize>f << 3;
-    const u = f64x2.sub(v128.load(x + b), v128.load(mean + b));
-    const v = f64x2.sub(v128.load(x + b, 16), v128.load(mean + b, 16));
-    v128.store(o + b, u);
-    v128.store(o + b, v, 16);
-    s0 = f64x2.add(s0, f64x2.mul(u, u));
-    s1 = f64x2.add(s1, f64x2.mul(v, v));
-  }
-  let s = hsum(f64x2.add(s0, s1));
-  for (; f < n0; f++) {
-    const b = <usize>f << 3;
-    const v = f64.load(x + b) - f64.load(mean + b);
-    f64.store(o + b, v);
-    s += v * v;
-  }
   return s;
 }
 
@@ -181,10 +161,10 @@ function sumFour(x: usize, r0: usize, r1: usize, r2: usize, r3: usize, n0: i32, 
 let screenedFeatures: i32 = 0;
 
 /**
- * Σ (x_f − r_f)² over f < n0 in any order — the rows here hold the features in a species' screening order
- * (nearest-search.ts screeningOrder) — checked after every 16 features: returns the sum so far as soon as it
- * exceeds `limit` (the representative is then ruled out), else the full sum. Eight lane pairs per block; the order
- * of this sum decides nothing a caller keeps (nearest-search.ts nearestOf explains the margin).
+ * Σ (x_f − r_f)² over f < n0 in any order (the float64 screening, in feature order, where the float32 one cannot
+ * be used), checked after every 16 features: returns the sum so far as soon as it exceeds `limit` (the
+ * representative is then ruled out), else the full sum. Eight lane pairs per block; the order of this sum decides
+ * nothing a caller keeps (nearest-search.ts nearestOf explains the margin).
  */
 function screen(x: usize, r: usize, n0: i32, limit: f64): f64 {
   let a0 = f64x2.splat(0);
@@ -224,6 +204,61 @@ function screen(x: usize, r: usize, n0: i32, limit: f64): f64 {
     s += d * d;
   }
   return s;
+}
+
+/**
+ * Σ (x_f − r_f)² over f < n0 in float32 (x and r: float32 rows, here the centred query and representative in a
+ * species' screening order), each of the sixteen lanes summing the features f ≡ lane (mod 16) in order; after
+ * every 32 features, and after a last block of 16, the lanes are added ((a0 + a1) + (a2 + a3), then lane
+ * (0 + 1) + (2 + 3)) and the sum so far returned as soon as it exceeds `limit`; else the full sum, the last
+ * n0 mod 16 features added to it one by one. nearest-search.ts screenNarrow does the same float32 operations in
+ * the same order (the same bits); the margin that makes these sums safe to rule out with is nearest-search.ts
+ * limitNarrow.
+ */
+function screen32(x: usize, r: usize, n0: i32, limit: f64): f64 {
+  let a0 = f32x4.splat(0);
+  let a1 = a0;
+  let a2 = a0;
+  let a3 = a0;
+  let f = 0;
+  while (f + 15 < n0) {
+    const xo = x + (<usize>f << 2);
+    const ro = r + (<usize>f << 2);
+    let d = f32x4.sub(v128.load(xo), v128.load(ro));
+    a0 = f32x4.add(a0, f32x4.mul(d, d));
+    d = f32x4.sub(v128.load(xo, 16), v128.load(ro, 16));
+    a1 = f32x4.add(a1, f32x4.mul(d, d));
+    d = f32x4.sub(v128.load(xo, 32), v128.load(ro, 32));
+    a2 = f32x4.add(a2, f32x4.mul(d, d));
+    d = f32x4.sub(v128.load(xo, 48), v128.load(ro, 48));
+    a3 = f32x4.add(a3, f32x4.mul(d, d));
+    if (f + 31 < n0) {
+      // the second half of a block of 32
+      d = f32x4.sub(v128.load(xo, 64), v128.load(ro, 64));
+      a0 = f32x4.add(a0, f32x4.mul(d, d));
+      d = f32x4.sub(v128.load(xo, 80), v128.load(ro, 80));
+      a1 = f32x4.add(a1, f32x4.mul(d, d));
+      d = f32x4.sub(v128.load(xo, 96), v128.load(ro, 96));
+      a2 = f32x4.add(a2, f32x4.mul(d, d));
+      d = f32x4.sub(v128.load(xo, 112), v128.load(ro, 112));
+      a3 = f32x4.add(a3, f32x4.mul(d, d));
+      f += 32;
+    } else f += 16;
+    const v = f32x4.add(f32x4.add(a0, a1), f32x4.add(a2, a3));
+    const s: f32 = (f32x4.extract_lane(v, 0) + f32x4.extract_lane(v, 1)) + (f32x4.extract_lane(v, 2) + f32x4.extract_lane(v, 3));
+    if (<f64>s > limit) {
+      screenedFeatures += f;
+      return <f64>s;
+    }
+  }
+  screenedFeatures += n0;
+  const v = f32x4.add(f32x4.add(a0, a1), f32x4.add(a2, a3));
+  let s: f32 = (f32x4.extract_lane(v, 0) + f32x4.extract_lane(v, 1)) + (f32x4.extract_lane(v, 2) + f32x4.extract_lane(v, 3));
+  for (; f < n0; f++) {
+    const d: f32 = f32.load(x + (<usize>f << 2)) - f32.load(r + (<usize>f << 2));
+    s += d * d;
+  }
+  return <f64>s;
 }
 
 /**
@@ -380,58 +415,91 @@ function smallestBound(bound: usize, m: i32): i32 {
   return at;
 }
 
+/** The float32 screening's limit for the float64 limit `limit` (nearest-search.ts limitNarrow, the same operations). */
+// @ts-ignore: decorator
+@inline function limitNarrow(limit: f64, e: f64, wide: f64, tiny: f64): f64 {
+  const a = Math.sqrt(limit) + e;
+  return wide * (a * a) + tiny;
+}
+
+/** An upper bound on the exact squared distance of a float32 screened sum s (nearest-search.ts upperNarrow, the same operations). */
+// @ts-ignore: decorator
+@inline function upperNarrow(s: f64, e: f64, narrow: f64, tiny: f64): f64 {
+  const a = Math.sqrt((s + tiny) / narrow) + e;
+  return a * a;
+}
+
 /**
  * The candidates of one query (nearest-search.ts nearestOf, the same rules): the bounds; the representative of the
  * smallest bound screened in full; every other representative its bound does not rule out screened against the
- * smallest screened sum t so far (`ordered`: the representatives with their features in the screening order; `xp`:
- * the query in that order). The screened sums not beyond t's margin at the end are appended to `pending` as pairs
- * (slot, representative). `kept` holds (representative, screened sum) records of 16 bytes. Returns the new length
- * of `pending`.
+ * smallest distance t so far. With `xp` ≠ 0 the screening is in float32 (screen32: `xp` the centred query and
+ * `ordered` the centred representatives, float32, in the screening order; `e` the rounding term of
+ * nearest-search.ts NARROW_UNIT) and t is the upper bound upperNarrow of a screened sum; with `xp` = 0 in
+ * float64 in feature order (screen: `x` the query, `reps` the representatives) and t is a screened sum. The
+ * screened sums not beyond t's margin at the end are appended to `pending` as pairs (slot, representative).
+ * `kept` holds (representative, screened sum) records of 16 bytes. Returns the new length of `pending`.
  */
-function candidates(m: i32, d: i32, n0: i32, ordered: usize, coordsT: usize, residual: usize, bound: usize, xp: usize, q: usize, xx: f64, kept: usize, stats: usize, slot: i32, pending: usize, np: i32): i32 {
+function candidates(m: i32, d: i32, n0: i32, reps: usize, x: usize, ordered: usize, xp: usize, e: f64, coordsT: usize, residual: usize, bound: usize, q: usize, xx: f64, kept: usize, stats: usize, slot: i32, pending: usize, np: i32): i32 {
   bounds(m, d, coordsT, residual, bound, q, xx);
-  const rowBytes = <usize>n0 << 3;
+  const narrowRows = xp != 0;
+  const rowBytes: usize = narrowRows ? <usize>n0 << 2 : <usize>n0 << 3;
+  const rows = narrowRows ? ordered : reps;
+  const from = narrowRows ? xp : x;
+  const g = <f64>n0 * NARROW_UNIT / (1 - <f64>n0 * NARROW_UNIT);
+  const wide = (1 + g) * ((1 + NARROW_UNIT) * (1 + NARROW_UNIT) * (1 + NARROW_UNIT));
+  const narrow = (1 - g) * ((1 - NARROW_UNIT) * (1 - NARROW_UNIT) * (1 - NARROW_UNIT));
+  const tiny = (1 + g) * <f64>n0 * NARROW_TINY;
   const first = smallestBound(bound, m);
   let t: f64 = Infinity;
   let nk = 0;
   let looked = 0;
   if (first >= 0) {
     looked++;
-    t = screen(xp, ordered + <usize>first * rowBytes, n0, Infinity);
+    const s = narrowRows ? screen32(from, rows + <usize>first * rowBytes, n0, Infinity) : screen(from, rows + <usize>first * rowBytes, n0, Infinity);
+    t = narrowRows ? upperNarrow(s, e, narrow, tiny) : s;
     store<i32>(kept, first);
-    f64.store(kept, t, 8);
+    f64.store(kept, s, 8);
     nk = 1;
   }
-  let k = 0;
-  while (k < m) {
-    const limit = t + MARGIN_RELATIVE * t + MARGIN_ABSOLUTE;
-    // two bounds at once past a pair both of which are ruled out (the same test lane by lane)
-    if ((k & 1) == 0 && k + 1 < m && i64x2.all_true(f64x2.gt(v128.load(bound + (<usize>k << 3)), f64x2.splat(limit)))) {
-      k += 2;
-      continue;
+  let limit = t + MARGIN_RELATIVE * t + MARGIN_ABSOLUTE;
+  let cut = narrowRows ? limitNarrow(limit, e, wide, tiny) : limit;
+  // 64 representatives at a time: a bit for each whose bound is not beyond the limit (a NaN bound counts), taken
+  // in ascending order and tested again against the limit of the moment (it only shrinks as t does, or was NaN
+  // and ruled nothing out): the same decisions as a test one by one, with fewer unpredictable branches
+  for (let k0 = 0; k0 < m; k0 += 64) {
+    const n = min(64, m - k0);
+    const l = f64x2.splat(limit);
+    const b0 = bound + (<usize>k0 << 3);
+    let bits: u64 = 0;
+    let j = 0;
+    for (; j + 1 < n; j += 2) bits |= <u64>i64x2.bitmask(v128.not(f64x2.gt(v128.load(b0 + (<usize>j << 3)), l))) << <u64>j;
+    if (j < n && !(f64.load(b0 + (<usize>j << 3)) > limit)) bits |= (<u64>1) << <u64>j;
+    while (bits != 0) {
+      const k = k0 + <i32>ctz(bits);
+      bits &= bits - 1;
+      if (k == first || f64.load(bound + (<usize>k << 3)) > limit) continue;
+      looked++;
+      const s = narrowRows ? screen32(from, rows + <usize>k * rowBytes, n0, cut) : screen(from, rows + <usize>k * rowBytes, n0, cut);
+      if (!(s > cut)) {
+        const r = kept + (<usize>nk << 4);
+        store<i32>(r, k);
+        f64.store(r, s, 8);
+        nk++;
+        // the smallest distance (a NaN sum, from a representative with NaN features, is passed over)
+        const u = narrowRows ? upperNarrow(s, e, narrow, tiny) : s;
+        if (u < t || (t != t && u == u)) {
+          t = u;
+          limit = t + MARGIN_RELATIVE * t + MARGIN_ABSOLUTE;
+          cut = narrowRows ? limitNarrow(limit, e, wide, tiny) : limit;
+        }
+      }
     }
-    if (k == first || f64.load(bound + (<usize>k << 3)) > limit) {
-      k++;
-      continue;
-    }
-    looked++;
-    const s = screen(xp, ordered + <usize>k * rowBytes, n0, limit);
-    if (!(s > limit)) {
-      const r = kept + (<usize>nk << 4);
-      store<i32>(r, k);
-      f64.store(r, s, 8);
-      nk++;
-      // the smallest screened sum (a NaN one, from a representative with NaN features, is passed over)
-      if (s < t || (t != t && s == s)) t = s;
-    }
-    k++;
   }
   f64.store(stats, f64.load(stats) + <f64>looked);
   // the candidates left: not beyond the final margin (a NaN sum stays; its exact distance never wins)
-  const limit = t + MARGIN_RELATIVE * t + MARGIN_ABSOLUTE;
   for (let j = 0; j < nk; j++) {
     const r = kept + (<usize>j << 4);
-    if (f64.load(r, 8) > limit) continue;
+    if (f64.load(r, 8) > cut) continue;
     const p = pending + (<usize>np << 3);
     store<i32>(p, slot);
     store<i32>(p, load<i32>(r), 4);
@@ -440,16 +508,44 @@ function candidates(m: i32, d: i32, n0: i32, ordered: usize, coordsT: usize, res
   return np;
 }
 
-/** xp[i] = x[order[i]] for i < n0: a query in the screening order, two features per store. */
-function gather(x: usize, order: usize, xp: usize, n0: i32): void {
+/**
+ * A query x centred in the screening order: v_i = x[order[i]] − meanOrdered[i] for i < n0 (float64), written as
+ * float32 to xp (the query screen32 reads) and, for i < width, as float64 to xk (the features the basis is made
+ * from); returns Σ v_i² (any summation order: it only feeds the bound and the float32 screening's margin). Four
+ * features per pass.
+ */
+function centreOrdered(x: usize, order: usize, meanOrdered: usize, n0: i32, xp: usize, xk: usize, width: i32): f64 {
+  let s0 = f64x2.splat(0);
+  let s1 = s0;
   let i = 0;
-  for (; i + 1 < n0; i += 2) {
-    const o = i64.load(order + (<usize>i << 2));
-    const a = f64.load(x + (<usize>(<u32>o) << 3));
-    const b = f64.load(x + (<usize>(<u32>(o >>> 32)) << 3));
-    v128.store(xp + (<usize>i << 3), f64x2.replace_lane(f64x2.splat(a), 1, b));
+  for (; i + 3 < n0; i += 4) {
+    const o = v128.load(order + (<usize>i << 2));
+    const a = f64x2.replace_lane(f64x2.splat(f64.load(x + (<usize>i32x4.extract_lane(o, 0) << 3))), 1, f64.load(x + (<usize>i32x4.extract_lane(o, 1) << 3)));
+    const b = f64x2.replace_lane(f64x2.splat(f64.load(x + (<usize>i32x4.extract_lane(o, 2) << 3))), 1, f64.load(x + (<usize>i32x4.extract_lane(o, 3) << 3)));
+    const m = meanOrdered + (<usize>i << 3);
+    const u = f64x2.sub(a, v128.load(m));
+    const v = f64x2.sub(b, v128.load(m, 16));
+    s0 = f64x2.add(s0, f64x2.mul(u, u));
+    s1 = f64x2.add(s1, f64x2.mul(v, v));
+    v128.store(xp + (<usize>i << 2), v128.shuffle<i32>(f32x4.demote_f64x2_zero(u), f32x4.demote_f64x2_zero(v), 0, 1, 4, 5));
+    const k = xk + (<usize>i << 3);
+    if (i + 3 < width) {
+      v128.store(k, u);
+      v128.store(k, v, 16);
+    } else if (i < width) {
+      f64.store(k, f64x2.extract_lane(u, 0));
+      if (i + 1 < width) f64.store(k, f64x2.extract_lane(u, 1), 8);
+      if (i + 2 < width) f64.store(k, f64x2.extract_lane(v, 0), 16);
+    }
   }
-  if (i < n0) f64.store(xp + (<usize>i << 3), f64.load(x + (<usize>load<i32>(order + (<usize>i << 2)) << 3)));
+  let s = hsum(f64x2.add(s0, s1));
+  for (; i < n0; i++) {
+    const v = f64.load(x + (<usize>load<i32>(order + (<usize>i << 2)) << 3)) - f64.load(meanOrdered + (<usize>i << 3));
+    s += v * v;
+    f32.store(xp + (<usize>i << 2), <f32>v);
+    if (i < width) f64.store(xk + (<usize>i << 3), v);
+  }
+  return s;
 }
 
 /** The byte address of query row idx[k] of `queries`. */
@@ -461,13 +557,16 @@ function gather(x: usize, order: usize, xp: usize, n0: i32): void {
 /**
  * The exact nearest distances of queries of one species, as nearest-search.ts searchNearestAll computes them:
  * the same numbers bit for bit. `reps` holds the species' representatives (m rows of n0, contiguous); `sp` is
- * the species' record written by the wrapper (i32 words m, d, n0, unused, then byte addresses of its mean, basis
- * (d × n0), coordinates (d × m), residual norms (m), screening order (n0 i32) and the representatives with their
- * features in that order (m × n0)); `scr` the scratch record (addresses of bound (m), centred queries (4 × n0),
- * coordinates (4 × d), squared norms (4), a statistics triple added to (representatives screened, full
- * distances in order, feature differences summed), the query in screening order (n0), the kept records (16 bytes
- * × m), the pending pairs (8 bytes × 4m) and their sums (8 bytes × (4m + 3))). For the query rows idx[0…nq) of
- * `queries` (rows of n0) writes out[k] for k < nq.
+ * the species' record written by the wrapper (i32 words m, d, n0, 1 when its rows may be screened in float32 (else
+ * 0), then byte addresses of its mean (n0, in the screening order), basis (d × width: on the first `width` features of the screening order),
+ * coordinates (d × m), residual norms (m), screening order (n0 i32) and the centred representatives in float32
+ * with their features in that order (m × n0 f32; none when the flag is 0), then at byte 40 the largest centred row
+ * norm (f64) and at byte 48 the width (i32)); `scr` the scratch record (addresses of
+ * bound (m), the four queries centred in the screening order in float32 (4 × n0 f32), coordinates (4 × d), squared
+ * norms (4), a statistics triple added to (representatives screened, full distances in order, feature differences
+ * summed), an unused slot, the kept records (16 bytes × m), the pending pairs (8 bytes × 4m) and their sums
+ * (8 bytes × (4m + 3)), the basis's features of the four centred queries (4 × width)). For the query rows
+ * idx[0…nq) of `queries` (rows of n0) writes out[k] for k < nq.
  */
 export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize, idx: usize, nq: i32, out: usize): void {
   const m = load<i32>(sp);
@@ -479,12 +578,15 @@ export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize
   const residual = <usize>load<u32>(sp, 28);
   const order = <usize>load<u32>(sp, 32);
   const ordered = <usize>load<u32>(sp, 36);
+  const narrowRows = load<i32>(sp, 12);
+  const largestRow = f64.load(sp, 40);
+  const width = load<i32>(sp, 48);
+  const xk = <usize>load<u32>(scr, 36);
   const bound = <usize>load<u32>(scr);
   const xc = <usize>load<u32>(scr, 4);
   const q = <usize>load<u32>(scr, 8);
   const xx = <usize>load<u32>(scr, 12);
   const stats = <usize>load<u32>(scr, 16);
-  const xp = <usize>load<u32>(scr, 20);
   const kept = <usize>load<u32>(scr, 24);
   const pending = <usize>load<u32>(scr, 28);
   const pendingSums = <usize>load<u32>(scr, 32);
@@ -492,16 +594,22 @@ export function searchSpecies(sp: usize, reps: usize, scr: usize, queries: usize
   for (let g0 = 0; g0 < nq; g0 += 4) {
     const count = min(4, nq - g0);
     // centred queries, their squared norms and coordinates (free summation order: they only feed the bound)
+    // (the four queries centred in the screening order: float32 for the screening, the basis's features in float64)
     for (let g = 0; g < 4; g++) {
-      f64.store(xx + (<usize>g << 3), centre(queryRow(queries, idx, g0 + (g < count ? g : 0), rowBytes), mean, xc + <usize>g * rowBytes, n0));
+      const x = queryRow(queries, idx, g0 + (g < count ? g : 0), rowBytes);
+      f64.store(xx + (<usize>g << 3), centreOrdered(x, order, mean, n0, xc + <usize>g * (rowBytes >> 1), xk + (<usize>(g * width) << 3), width));
     }
-    project(basis, d, xc, n0, q);
+    project(basis, d, xk, width, q);
     // each query's candidates (pairs: group slot, representative), then their distances in order, four at a time
     let np = 0;
     for (let g = 0; g < count; g++) {
       const x = queryRow(queries, idx, g0 + g, rowBytes);
-      gather(x, order, xp, n0);
-      np = candidates(m, d, n0, ordered, coordsT, residual, bound, xp, q + (<usize>(g * d) << 3), f64.load(xx + (<usize>g << 3)), kept, stats, g, pending, np);
+      const xxg = f64.load(xx + (<usize>g << 3));
+      // float32 screening when the species' rows allow it and the centred query's features are finite and not huge
+      const narrowQuery = narrowRows != 0 && xxg <= NARROW_QUERY_NORM;
+      const xp = xc + <usize>g * (rowBytes >> 1);
+      const e = NARROW_UNIT * (Math.sqrt(xxg) + largestRow) + 2 * Math.sqrt(<f64>n0) * NARROW_TINY;
+      np = candidates(m, d, n0, reps, x, ordered, narrowQuery ? xp : 0, e, coordsT, residual, bound, q + (<usize>(g * d) << 3), xxg, kept, stats, g, pending, np);
     }
     for (let k = 0; k < np; k += 4) {
       // a short last quad repeats its first pair (computed again, changes nothing)
