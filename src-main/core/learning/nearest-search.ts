@@ -351,9 +351,10 @@ export function cachedNearestSearch(owner: { n0: number; species: Int32Array; p:
  * Queries an owner answers by the plain scan before its search is prepared. With the WebAssembly kernels,
  * preparing 2 × 256 representatives at n0 = 952 takes 16 ms (43 ms the first time in a process) and saves about
  * 30 µs per query (plain scan 44–50 µs, prepared search 17 µs; load ≈ 4 on 2 cores), so it pays after 550–1,400
- * queries; in JavaScript 95–130 ms against 185 and 36 µs, after about 700. So a small job (one 384-atom frame)
- * never prepares, and a longer one pays at most this many slower queries first. Either way the distances are the
- * same numbers.
+ * queries; in JavaScript 95–130 ms against 185 and 36 µs, after about 700 (figures of 3 December 2026; since the
+ * float32 screening, preparing takes 7–8 ms and a prepared query about 5 µs, so preparing would pay somewhat sooner;
+ * the constant only decides speed, so it was left). So a small job (one 384-atom frame) never prepares, and a longer
+ * one pays at most this many slower queries first. Either way the distances are the same numbers.
  */
 export const PLAIN_QUERIES_BEFORE_PREPARING = 1024;
 
