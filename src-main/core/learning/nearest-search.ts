@@ -183,6 +183,17 @@ interface PreparedCore {
   residual: Float64Array;
 }
 
+/** The mean of the rows `rows` of `reps` (rows of n0): summed in ascending row order, then divided. */
+function meanOfRows(reps: Float64Array, rows: Int32Array, n0: number): Float64Array {
+  const mean = new Float64Array(n0);
+  for (let k = 0; k < rows.length; k++) {
+    const o = rows[k] * n0;
+    for (let f = 0; f < n0; f++) mean[f] += reps[o + f];
+  }
+  for (let f = 0; f < n0; f++) mean[f] /= rows.length;
+  return mean;
+}
+
 /**
  * One species' prepared search (the rows `rows` of `reps`): its mean, its screening order, and the basis of the
  * preparation proper (`core`: prepareSpeciesJs or the kernel's) made from the first `width` features of the
@@ -191,12 +202,7 @@ interface PreparedCore {
  */
 function prepareSpecies(reps: Float64Array, rows: Int32Array, n0: number, features: number, core: (compact: Float64Array, m: number, width: number) => PreparedCore | null): SpeciesSearch | null {
   const m = rows.length;
-  const mean = new Float64Array(n0);
-  for (let k = 0; k < m; k++) {
-    const o = rows[k] * n0;
-    for (let f = 0; f < n0; f++) mean[f] += reps[o + f];
-  }
-  for (let f = 0; f < n0; f++) mean[f] /= m;
+  const mean = meanOfRows(reps, rows, n0);
   const order = screeningOrder(reps, rows, mean, n0);
   const width = Math.min(n0, features);
   const compact = new Float64Array(m * width);
@@ -231,12 +237,7 @@ function prepareSpecies(reps: Float64Array, rows: Int32Array, n0: number, featur
  */
 function prepareSpeciesJs(reps: Float64Array, rows: Int32Array, n0: number, maxBasis: number, steps: number): PreparedCore {
   const m = rows.length;
-  const mean = new Float64Array(n0);
-  for (let k = 0; k < m; k++) {
-    const o = rows[k] * n0;
-    for (let f = 0; f < n0; f++) mean[f] += reps[o + f];
-  }
-  for (let f = 0; f < n0; f++) mean[f] /= m;
+  const mean = meanOfRows(reps, rows, n0);
   const centred = new Float64Array(m * n0);
   for (let k = 0; k < m; k++) {
     const o = rows[k] * n0;
