@@ -81,7 +81,7 @@ export async function run(): Promise<void> {
       };
       const now = m('now');
       const targets = [`per thread ${now.perThread >= TARGET_PER_THREAD ? 'meets' : 'is under'} the ${TARGET_PER_THREAD.toLocaleString('en')} env/s target`];
-      if (threads === 2) targets.push(`peak RSS ${now.rss < TARGET_RSS_2 ? 'under' : 'over'} the ${mib(TARGET_RSS_2)} target`);
+      if (threads === 2) targets.push(Number.isFinite(now.rss) ? `peak RSS ${now.rss < TARGET_RSS_2 ? 'under' : 'over'} the ${mib(TARGET_RSS_2)} target` : 'peak RSS not measured here (no /proc)');
       console.log(`  ${threads} thread${threads > 1 ? 's' : ' '}: this tree ${now.seconds.toFixed(1)} s wall, ${now.cpu.toFixed(1)} s CPU, ${now.perThread.toFixed(0)} env/s per thread, peak RSS ${mib(now.rss)} (${targets.join('; ')})`);
       if (ref && programs[ref]) {
         const then = m(ref);
