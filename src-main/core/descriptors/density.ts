@@ -416,7 +416,8 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     const K = descriptorKernels();
     return K === placed.kernels && K.epoch() === placedEpoch ? placed.at + doubles * 8 : -1;
   };
-  const expandKernel = (K: DescriptorKernels, pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, out: Float64Array | null, slot: number): boolean => {
+  /** The expansion through the kernels into `slot` of the region, left there (coefficientsAt); false when the region cannot hold the pairs. */
+  const expandKernel = (K: DescriptorKernels, pairs: NeighbourPairs, centre: number, centreChannel: number, channelOf: Int32Array, slot: number): boolean => {
     const { start, neighbour, vectors, distances } = pairs;
     const from = start[centre];
     const count = start[centre + 1] - from;
@@ -454,7 +455,6 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     const startsAt = base + startAt * 8;
     K.pairTerms(parAt, chanAt, count, channels, lmax, NLp, base + aAt * 8, base + bAt * 8, base + diagAt * 8, tables.y00, base + coefAt * 8, yAt, rAt, orderAt, startsAt);
     K.expandAccumulate(yAt, rAt, startsAt, NLp, nmax, lmax, channels, base + (outAt + slot * align(size)) * 8, base + selfAt * 8, centreChannel, base + cTAt * 8);
-    if (out !== null) out.set(at.outs[slot]);
     return true;
   };
   const checkSlot = (slot: number) => {
@@ -509,37 +509,37 @@ export function makeDensityExpander(s: DensitySettings): DensityExpander {
     if (centreChannel >= 0) for (let n = 0; n < nmax; n++) out[(centreChannel * nmax + n) * LL] += selfTerm[n];
   };
 
+  const expandLeaving: DensityExpander['expandLeaving'] = (pairs, centre, centreChannel, channelOf, out, slot) => {
+    checkSlot(slot);
+    const K = descriptorKernels();
+    lastByKernel = K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, slot);
+    slotPlacement[slot] = lastByKernel ? placed : null;
+    if (lastByKernel) return false;
+    expandPlain(pairs, centre, centreChannel, channelOf, out);
+    return true;
+  };
+  const coefficientsAt = (slot = 0): number => {
+    const p = slotPlacement[slot];
+    return p != null && p === placed ? placedAt(outAt + slot * align(size)) : -1;
+  };
+
   return {
     settings: { ...s },
     size,
-    expandLeaving(pairs, centre, centreChannel, channelOf, out, slot) {
-      checkSlot(slot);
-      const K = descriptorKernels();
-      lastByKernel = K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, null, slot);
-      slotPlacement[slot] = lastByKernel ? placed : null;
-      if (lastByKernel) return false;
-      expandPlain(pairs, centre, centreChannel, channelOf, out);
-      return true;
-    },
+    expandLeaving,
     copyCoefficients(slot, out) {
-      if (this.coefficientsAt(slot) < 0) return false;
+      if (coefficientsAt(slot) < 0) return false;
       out.set((placed as Placement).outs[slot]);
       return true;
     },
     expand(pairs, centre, centreChannel, channelOf, out, slot = 0) {
-      checkSlot(slot);
-      const K = descriptorKernels();
-      lastByKernel = K !== null && expandKernel(K, pairs, centre, centreChannel, channelOf, out, slot);
-      slotPlacement[slot] = lastByKernel ? placed : null;
-      if (!lastByKernel) expandPlain(pairs, centre, centreChannel, channelOf, out);
+      // where the kernels ran, the coefficients just written into the slot, copied out
+      if (!expandLeaving(pairs, centre, centreChannel, channelOf, out, slot)) out.set((placed as Placement).outs[slot]);
     },
     transposedAt() {
       return lastByKernel ? placedAt(cTAt) : -1;
     },
-    coefficientsAt(slot = 0) {
-      const p = slotPlacement[slot];
-      return p != null && p === placed ? placedAt(outAt + slot * align(size)) : -1;
-    },
+    coefficientsAt,
   };
 }
 
