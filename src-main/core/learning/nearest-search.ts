@@ -653,13 +653,18 @@ function screeningOrder(reps: Float64Array, rows: Int32Array, mean: Float64Array
 
 /** The terms of limitNarrow and upperNarrow that depend on n0 only (narrow: (1 − γ)(1 − u)³, wide: (1 + γ)(1 + u)³, tiny: (1 + γ)·n0·η). */
 function narrowTerms(n0: number): { wide: number; narrow: number; tiny: number } {
+  if (lastNarrowTerms.n0 === n0) return lastNarrowTerms.terms;
   const g = (n0 * NARROW_UNIT) / (1 - n0 * NARROW_UNIT);
-  return {
+  const terms = {
     wide: (1 + g) * ((1 + NARROW_UNIT) * (1 + NARROW_UNIT) * (1 + NARROW_UNIT)),
     narrow: (1 - g) * ((1 - NARROW_UNIT) * (1 - NARROW_UNIT) * (1 - NARROW_UNIT)),
     tiny: (1 + g) * n0 * NARROW_TINY,
   };
+  lastNarrowTerms = { n0, terms };
+  return terms;
 }
+/** narrowTerms of the last n0 asked for (every query of a search asks for the same). */
+let lastNarrowTerms: { n0: number; terms: { wide: number; narrow: number; tiny: number } } = { n0: -1, terms: { wide: 1, narrow: 1, tiny: 0 } };
 
 /**
  * The limit a float32 screened sum must pass so that the representative's exact squared distance passes the
